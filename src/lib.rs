@@ -1,1 +1,2 @@
-
+//! furrow: evaluate agricultural market interventions before they are adopted.
+pub mod output;
