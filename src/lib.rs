@@ -1,2 +1,8 @@
 //! furrow: evaluate agricultural market interventions before they are adopted.
+pub mod curves;
+pub mod engine;
+pub mod expectations;
+pub mod numeric;
 pub mod output;
+pub mod policies;
+pub mod scenario;

@@ -1,0 +1,370 @@
+//! Demand and supply curves: linear and constant-elasticity, their inverses, elasticities and the
+//! integrals that welfare needs. A [`Curve`] is always in the validated form; calibration from an
+//! elasticity at a point happens in `scenario` when the file is read.
+//!
+//! Quantities are clamped at zero (`quantity` never returns a negative number); inverse curves return
+//! `f64::INFINITY` where no finite price exists (constant-elasticity demand at zero consumption) and may
+//! return a non-positive number where the market would need a negative price; the engine treats both as
+//! a diverging path.
+
+use serde::Serialize;
+
+/// A price–quantity schedule.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[serde(tag = "form", rename_all = "kebab-case")]
+pub enum Curve {
+    /// Q = intercept + slope · P.
+    Linear {
+        /// Quantity at a zero price.
+        intercept: f64,
+        /// dQ/dP.
+        slope: f64,
+    },
+    /// Q = at_quantity · (P / at_price)^elasticity.
+    ConstantElasticity {
+        /// Reference price.
+        at_price: f64,
+        /// Quantity at the reference price.
+        at_quantity: f64,
+        /// Constant elasticity d ln Q / d ln P.
+        elasticity: f64,
+    },
+}
+
+impl Curve {
+    /// A linear curve through (`price`, `quantity`) with the given point elasticity.
+    pub fn linear_at_point(price: f64, quantity: f64, elasticity: f64) -> Curve {
+        let slope = elasticity * quantity / price;
+        Curve::Linear {
+            intercept: quantity - slope * price,
+            slope,
+        }
+    }
+
+    /// Quantity at price `p` (never negative).
+    #[inline]
+    pub fn quantity(&self, p: f64) -> f64 {
+        match *self {
+            Curve::Linear { intercept, slope } => (intercept + slope * p).max(0.0),
+            Curve::ConstantElasticity {
+                at_price,
+                at_quantity,
+                elasticity,
+            } => {
+                if p <= 0.0 {
+                    if elasticity > 0.0 {
+                        0.0
+                    } else {
+                        f64::INFINITY
+                    }
+                } else {
+                    at_quantity * (p / at_price).powf(elasticity)
+                }
+            }
+        }
+    }
+
+    /// Quantity at price `p` without the clamp at zero (linear curves extend below the axis). Used for
+    /// the linearisation and for inverse-curve bookkeeping.
+    #[inline]
+    pub fn quantity_unclamped(&self, p: f64) -> f64 {
+        match *self {
+            Curve::Linear { intercept, slope } => intercept + slope * p,
+            _ => self.quantity(p),
+        }
+    }
+
+    /// The price at which the curve gives quantity `q` (inverse curve). Linear curves extend linearly
+    /// (the result may be ≤ 0); constant elasticity gives +∞ or 0 at `q = 0`.
+    #[inline]
+    pub fn price_at(&self, q: f64) -> f64 {
+        match *self {
+            Curve::Linear { intercept, slope } => (q - intercept) / slope,
+            Curve::ConstantElasticity {
+                at_price,
+                at_quantity,
+                elasticity,
+            } => {
+                if q <= 0.0 {
+                    if elasticity < 0.0 {
+                        f64::INFINITY
+                    } else {
+                        0.0
+                    }
+                } else {
+                    at_price * (q / at_quantity).powf(1.0 / elasticity)
+                }
+            }
+        }
+    }
+
+    /// dQ/dP at price `p`.
+    #[inline]
+    pub fn slope_at(&self, p: f64) -> f64 {
+        match *self {
+            Curve::Linear { slope, .. } => slope,
+            Curve::ConstantElasticity { elasticity, .. } => elasticity * self.quantity(p) / p,
+        }
+    }
+
+    /// Point elasticity (dQ/dP)·(P/Q) at price `p`; not finite where Q = 0.
+    pub fn elasticity_at(&self, p: f64) -> f64 {
+        match *self {
+            Curve::Linear { .. } => self.slope_at(p) * p / self.quantity_unclamped(p),
+            Curve::ConstantElasticity { elasticity, .. } => elasticity,
+        }
+    }
+
+    /// ∫ Q(p) dp from `p_low` to `p_high` of this curve shifted by `shift` quantity units, with the
+    /// integrand clamped at zero (used for consumer surplus between two prices).
+    pub fn area_between(&self, p_low: f64, p_high: f64, shift: f64) -> f64 {
+        match *self {
+            Curve::Linear { intercept, slope } => {
+                // integrand a + shift + slope p, clamped at 0
+                let a = intercept + shift;
+                let (mut lo, mut hi) = (p_low.min(p_high), p_low.max(p_high));
+                let sign = if p_high >= p_low { 1.0 } else { -1.0 };
+                let zero = -a / slope; // price where the shifted curve crosses zero
+                if slope < 0.0 {
+                    hi = hi.min(zero);
+                } else {
+                    lo = lo.max(zero);
+                }
+                if hi <= lo {
+                    return 0.0;
+                }
+                let prim = |p: f64| a * p + 0.5 * slope * p * p;
+                sign * (prim(hi) - prim(lo))
+            }
+            Curve::ConstantElasticity {
+                at_price,
+                at_quantity,
+                elasticity,
+            } => {
+                let k = at_quantity * at_price.powf(-elasticity);
+                let prim = |p: f64| {
+                    if (elasticity + 1.0).abs() < 1e-12 {
+                        k * p.ln()
+                    } else {
+                        k * p.powf(elasticity + 1.0) / (elasticity + 1.0)
+                    }
+                };
+                prim(p_high) - prim(p_low) + shift * (p_high - p_low)
+            }
+        }
+    }
+
+    /// Consumer surplus at price `p` for a demand curve shifted by `shift`: ∫_p^{choke} D(x) dx for a
+    /// linear curve; for constant elasticity (no finite choke price) ∫_p^{at_price} D(x) dx, so that
+    /// only changes are meaningful.
+    pub fn consumer_surplus(&self, p: f64, shift: f64) -> f64 {
+        match *self {
+            Curve::Linear { intercept, slope } => {
+                let q = (intercept + shift + slope * p).max(0.0);
+                q * q / (2.0 * -slope)
+            }
+            Curve::ConstantElasticity { at_price, .. } => self.area_between(p, at_price, shift),
+        }
+    }
+
+    /// Cost of producing `q` for a supply curve: ∫_0^q max(0, S⁻¹(x)) dx (the area under the inverse
+    /// supply curve, i.e. the sum of marginal costs).
+    pub fn production_cost(&self, q: f64) -> f64 {
+        if q <= 0.0 {
+            return 0.0;
+        }
+        match *self {
+            Curve::Linear { intercept, slope } => {
+                // S⁻¹(x) = (x − c)/d is positive for x > c
+                let start = intercept.max(0.0);
+                if q <= start {
+                    return 0.0;
+                }
+                ((q - intercept).powi(2) - (start - intercept).powi(2)) / (2.0 * slope)
+            }
+            Curve::ConstantElasticity {
+                at_price,
+                at_quantity,
+                elasticity,
+            } => {
+                let inv = 1.0 / elasticity;
+                at_price * at_quantity.powf(-inv) * q.powf(1.0 + inv) / (1.0 + inv)
+            }
+        }
+    }
+
+    /// Short name of the functional form.
+    pub fn form_name(&self) -> &'static str {
+        match self {
+            Curve::Linear { .. } => "linear",
+            Curve::ConstantElasticity { .. } => "constant-elasticity",
+        }
+    }
+
+    /// True for linear curves.
+    pub fn is_linear(&self) -> bool {
+        matches!(self, Curve::Linear { .. })
+    }
+}
+
+/// The market-clearing steady state where supply at the price equals demand at the price.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct SteadyState {
+    /// Steady-state price P*.
+    pub price: f64,
+    /// Steady-state quantity Q* = S(P*) = D(P*).
+    pub quantity: f64,
+}
+
+/// Solves S(P) = D(P): closed form for two linear curves, otherwise Brent's method on a bracket found by
+/// expansion (excess supply is increasing in P). `None` when no positive crossing exists.
+pub fn steady_state(demand: &Curve, supply: &Curve) -> Option<SteadyState> {
+    let price = match (*demand, *supply) {
+        (
+            Curve::Linear {
+                intercept: a,
+                slope: b,
+            },
+            Curve::Linear {
+                intercept: c,
+                slope: d,
+            },
+        ) => (a - c) / (d - b),
+        _ => {
+            let guess = match *demand {
+                Curve::ConstantElasticity { at_price, .. } => at_price,
+                Curve::Linear { intercept, slope } => 0.5 * intercept / -slope,
+            };
+            let excess_demand = |p: f64| {
+                let d = demand.quantity(p);
+                let s = supply.quantity(p);
+                // scale-free form keeps the root finder well conditioned
+                (d - s) / (d + s + 1e-300)
+            };
+            crate::numeric::root_decreasing(excess_demand, guess, 1e-14 * guess.max(1.0))?
+        }
+    };
+    let quantity = demand.quantity(price);
+    if price.is_finite() && price > 0.0 && quantity.is_finite() && quantity > 0.0 {
+        Some(SteadyState { price, quantity })
+    } else {
+        None
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_relative_eq;
+
+    #[test]
+    fn linear_steady_state_closed_form() {
+        // Q_d = 120 − 0.8 P, Q_s = −10 + 0.5 P → P* = 130/1.3 = 100, Q* = 40 (algebra)
+        let d = Curve::Linear {
+            intercept: 120.0,
+            slope: -0.8,
+        };
+        let s = Curve::Linear {
+            intercept: -10.0,
+            slope: 0.5,
+        };
+        let ss = steady_state(&d, &s).unwrap();
+        assert_relative_eq!(ss.price, 100.0, max_relative = 1e-14);
+        assert_relative_eq!(ss.quantity, 40.0, max_relative = 1e-14);
+    }
+
+    #[test]
+    fn constant_elasticity_steady_state_closed_form() {
+        // D = 100 (P/50)^-0.2, S = 80 (P/50)^0.3 → (P/50)^0.5 = 100/80 → P = 50·1.5625
+        let d = Curve::ConstantElasticity {
+            at_price: 50.0,
+            at_quantity: 100.0,
+            elasticity: -0.2,
+        };
+        let s = Curve::ConstantElasticity {
+            at_price: 50.0,
+            at_quantity: 80.0,
+            elasticity: 0.3,
+        };
+        let ss = steady_state(&d, &s).unwrap();
+        assert_relative_eq!(ss.price, 50.0 * 1.5625, max_relative = 1e-12);
+    }
+
+    #[test]
+    fn inverse_round_trips() {
+        let curves = [
+            Curve::Linear {
+                intercept: 120.0,
+                slope: -0.8,
+            },
+            Curve::ConstantElasticity {
+                at_price: 90.0,
+                at_quantity: 40.0,
+                elasticity: -0.25,
+            },
+            Curve::ConstantElasticity {
+                at_price: 90.0,
+                at_quantity: 40.0,
+                elasticity: 0.4,
+            },
+        ];
+        for c in curves {
+            for p in [10.0, 55.5, 120.0] {
+                let q = c.quantity(p);
+                assert_relative_eq!(c.price_at(q), p, max_relative = 1e-12);
+            }
+        }
+    }
+
+    #[test]
+    fn linear_surplus_is_the_triangle() {
+        // consumer surplus of linear demand = ½ · (choke − P) · D(P) (triangle area, any textbook)
+        let d = Curve::Linear {
+            intercept: 120.0,
+            slope: -0.8,
+        };
+        let p = 100.0;
+        let triangle = 0.5 * (150.0 - p) * d.quantity(p);
+        assert_relative_eq!(d.consumer_surplus(p, 0.0), triangle, max_relative = 1e-14);
+        // production cost with a negative intercept: trapezoid under S⁻¹ from 0 to q
+        let s = Curve::Linear {
+            intercept: -10.0,
+            slope: 0.5,
+        };
+        let q = 40.0;
+        let trapezoid = 0.5 * (s.price_at(0.0) + s.price_at(q)) * q;
+        assert_relative_eq!(s.production_cost(q), trapezoid, max_relative = 1e-14);
+        // positive intercept: the first 10 units cost nothing, the rest a triangle
+        let s2 = Curve::Linear {
+            intercept: 10.0,
+            slope: 0.5,
+        };
+        assert_relative_eq!(
+            s2.production_cost(40.0),
+            0.5 * 30.0 * s2.price_at(40.0),
+            max_relative = 1e-14
+        );
+    }
+
+    #[test]
+    fn constant_elasticity_cost_matches_quadrature() {
+        let s = Curve::ConstantElasticity {
+            at_price: 90.0,
+            at_quantity: 40.0,
+            elasticity: 0.4,
+        };
+        // midpoint rule on the inverse curve
+        let n = 200_000;
+        let q = 35.0;
+        let h = q / n as f64;
+        let sum: f64 = (0..n).map(|i| s.price_at((i as f64 + 0.5) * h) * h).sum();
+        assert_relative_eq!(s.production_cost(q), sum, max_relative = 1e-6);
+    }
+
+    #[test]
+    fn calibration_reproduces_point_and_elasticity() {
+        let c = Curve::linear_at_point(90.0, 40.0, -0.2);
+        assert_relative_eq!(c.quantity(90.0), 40.0, max_relative = 1e-14);
+        assert_relative_eq!(c.elasticity_at(90.0), -0.2, max_relative = 1e-14);
+    }
+}

@@ -1,0 +1,318 @@
+//! The period-by-period engine.
+//!
+//! Order within period t (INTERFACE.md): farmers plant on the expected producer price (after an
+//! announced floor); carried agency stock loses `loss_rate`; the harvest Q_t = S(P^e_t)·yield + supply
+//! shock arrives; policy rules trade in their documented order; consumption C_t = Q_t − X_t + R_t
+//! clears at P_t = D⁻¹(C_t − demand shock); payment rules settle; the producer price enters the
+//! history that expectation rules read.
+//!
+//! The engine knows nothing of files, TOML or the terminal: it takes a validated [`Scenario`] and
+//! [`PolicySpec`] and a stream of [`PeriodShock`]s.
+
+mod rational;
+mod record;
+
+pub use record::PeriodRecord;
+
+use crate::curves::Curve;
+use crate::expectations::{self, ExpectationInput, ExpectationRule};
+use crate::policies::{self, flags, Clearing, Policy};
+use crate::scenario::{PolicySpec, Scenario, ShockSpec};
+
+/// The shocks that hit one period.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PeriodShock {
+    /// Multiplicative yield factor (mean 1).
+    pub yield_factor: f64,
+    /// Additive harvest shock.
+    pub supply: f64,
+    /// Additive demand shock (already including its AR(1) part).
+    pub demand: f64,
+}
+
+impl PeriodShock {
+    /// No shock at all.
+    pub const NONE: PeriodShock = PeriodShock {
+        yield_factor: 1.0,
+        supply: 0.0,
+        demand: 0.0,
+    };
+}
+
+/// A path that left the region where the model means anything.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[error("diverging: period {period}: {reason}")]
+pub struct Diverged {
+    /// The period in which it happened.
+    pub period: usize,
+    /// What happened, in words.
+    pub reason: String,
+}
+
+/// A market with its expectation rule and policy, ready to simulate.
+#[derive(Debug)]
+pub struct Model {
+    /// Demand curve.
+    pub demand: Curve,
+    /// Supply curve.
+    pub supply: Curve,
+    /// The expectation rule in force (the policy's override, else the market's).
+    pub rule: Box<dyn ExpectationRule>,
+    /// The compiled policy.
+    pub policy: Policy,
+    /// Shock distribution (used by the rational rule's expectation).
+    pub shocks: ShockSpec,
+    /// Producer prices before period 1, oldest first, ending with P_0.
+    pub price_history: Vec<f64>,
+    /// Prices above this are treated as divergence.
+    pub price_bound: f64,
+    nodes: rational::Nodes,
+}
+
+impl Model {
+    /// Builds the model of `scenario` under `policy`.
+    pub fn new(scenario: &Scenario, policy: &PolicySpec) -> Model {
+        let spec = policy.expectations.unwrap_or(scenario.expectations);
+        let rule = expectations::build(&spec);
+        let compiled = policies::compile(policy);
+        let mut reference = scenario.steady.price.max(scenario.run.initial_price);
+        for p in &scenario.run.price_history {
+            reference = reference.max(*p);
+        }
+        if let Some(f) = policy.floor {
+            reference = reference.max(f.price);
+        }
+        if let Some(s) = policy.stock {
+            reference = reference.max(s.buy_below);
+        }
+        // pad the history to the rule's number of lags with its oldest value
+        let mut history = scenario.run.price_history.clone();
+        let need = rule.lags().max(2);
+        if history.len() < need {
+            let oldest = history[0];
+            let mut padded = vec![oldest; need - history.len()];
+            padded.extend(history);
+            history = padded;
+        }
+        Model {
+            demand: scenario.market.demand,
+            supply: scenario.market.supply,
+            rule,
+            policy: compiled,
+            shocks: scenario.shocks,
+            price_history: history,
+            price_bound: 1e3 * reference,
+            nodes: rational::Nodes::new(&scenario.shocks),
+        }
+    }
+
+    /// A fresh simulator at period 0.
+    pub fn simulator(&self) -> Simulator<'_> {
+        Simulator::new(self)
+    }
+
+    /// Simulates `periods` periods with the shock for period t given by `shock(t)` (1-based).
+    pub fn run(
+        &self,
+        periods: usize,
+        mut shock: impl FnMut(usize) -> PeriodShock,
+    ) -> Result<Vec<PeriodRecord>, Diverged> {
+        let mut sim = self.simulator();
+        (1..=periods).map(|t| sim.step(&shock(t))).collect()
+    }
+
+    /// Clears one period: planting on `planting_price`, with agency stock `carried` (after losses).
+    pub(crate) fn clear(&self, planting_price: f64, shock: &PeriodShock, carried: f64) -> Cleared {
+        let planted = self.supply.quantity(planting_price);
+        let harvest = (planted * shock.yield_factor + shock.supply).max(0.0);
+        let agency = &self.policy.agency;
+        let mut m = Clearing::new(
+            &self.demand,
+            shock.demand,
+            harvest,
+            carried,
+            agency.capacity,
+            agency.purchase_budget,
+        );
+        for rule in &self.policy.rules {
+            rule.trade(&mut m);
+        }
+        let price = m.price();
+        let mut producer_price = price;
+        let mut deficiency = 0.0;
+        for rule in &self.policy.rules {
+            producer_price = rule.producer_price(producer_price);
+            deficiency += rule.payment(price, harvest);
+        }
+        let mut flags = m.flags;
+        if deficiency > 0.0 {
+            flags |= flags::DEFICIENCY;
+        }
+        Cleared {
+            planted,
+            harvest,
+            price,
+            producer_price,
+            purchases: m.purchases,
+            releases: m.releases,
+            stock: m.stock(),
+            deficiency,
+            flags,
+        }
+    }
+}
+
+/// The outcome of clearing one period.
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct Cleared {
+    pub planted: f64,
+    pub harvest: f64,
+    pub price: f64,
+    pub producer_price: f64,
+    pub purchases: f64,
+    pub releases: f64,
+    pub stock: f64,
+    pub deficiency: f64,
+    pub flags: u16,
+}
+
+/// Steps a [`Model`] forward one period at a time.
+#[derive(Debug, Clone)]
+pub struct Simulator<'m> {
+    model: &'m Model,
+    history: Vec<f64>,
+    previous: Option<f64>,
+    stock: f64,
+    last_demand_shock: f64,
+    period: usize,
+}
+
+impl<'m> Simulator<'m> {
+    fn new(model: &'m Model) -> Self {
+        Simulator {
+            model,
+            history: model.price_history.clone(),
+            previous: None,
+            stock: model.policy.agency.initial,
+            last_demand_shock: 0.0,
+            period: 0,
+        }
+    }
+
+    /// The agency stock at the end of the last period.
+    pub fn stock(&self) -> f64 {
+        self.stock
+    }
+
+    /// Advances one period under `shock`.
+    pub fn step(&mut self, shock: &PeriodShock) -> Result<PeriodRecord, Diverged> {
+        let model = self.model;
+        let t = self.period + 1;
+        let diverged = |reason: String| Diverged { period: t, reason };
+        let carried = self.stock * (1.0 - model.policy.agency.loss_rate);
+        let floor = model.policy.planting_floor();
+        let rule_expectation = if model.rule.is_rational() {
+            let guess = *self.history.last().unwrap_or(&1.0);
+            rational::solve(model, carried, self.last_demand_shock, floor, guess).ok_or_else(|| {
+                diverged("no rational expectation exists (the fixed point could not be bracketed)".into())
+            })?
+        } else {
+            model.rule.expect(&ExpectationInput {
+                history: &self.history,
+                previous: self.previous,
+            })
+        };
+        let planting = match floor {
+            Some(f) => rule_expectation.max(f),
+            None => rule_expectation,
+        };
+        if !(planting.is_finite() && planting > 0.0) {
+            return Err(diverged(format!(
+                "the expected price fell to {} (≤ 0)",
+                crate::output::fmt_num(planting, 4)
+            )));
+        }
+        if planting > model.price_bound {
+            return Err(diverged(format!(
+                "the expected price {:.4e} exceeded the sanity bound {:.4e}",
+                planting, model.price_bound
+            )));
+        }
+        let c = model.clear(planting, shock, carried);
+        if c.planted <= 0.0 {
+            return Err(diverged(format!(
+                "farmers plant nothing at the expected price {}",
+                crate::output::fmt_num(planting, 4)
+            )));
+        }
+        if c.harvest <= 0.0 {
+            return Err(diverged("the harvest fell to zero".into()));
+        }
+        if !(c.price.is_finite() && c.price > 0.0) {
+            return Err(diverged(format!(
+                "the market needs a price ≤ 0 to absorb consumption {} (demand is saturated)",
+                crate::output::fmt_num(c.harvest - c.purchases + c.releases, 4)
+            )));
+        }
+        if c.price > model.price_bound {
+            return Err(diverged(format!(
+                "the price {:.4e} exceeded the sanity bound {:.4e}",
+                c.price, model.price_bound
+            )));
+        }
+        let agency = &model.policy.agency;
+        let purchase_cost = c.price * c.purchases;
+        let sales_revenue = c.price * c.releases;
+        let storage_cost = agency.storage_cost * c.stock;
+        let financing_cost = agency.financing_rate * c.price * c.stock;
+        let handling_cost = agency.handling_cost * (c.purchases + c.releases);
+        let fiscal_cost = purchase_cost - sales_revenue
+            + storage_cost
+            + financing_cost
+            + handling_cost
+            + c.deficiency;
+        let consumption = c.harvest - c.purchases + c.releases;
+        let record = PeriodRecord {
+            period: t,
+            expected_price: planting,
+            planted: c.planted,
+            harvest: c.harvest,
+            price: c.price,
+            producer_price: c.producer_price,
+            consumption,
+            purchases: c.purchases,
+            releases: c.releases,
+            stock: c.stock,
+            fiscal_cost,
+            consumer_surplus: model.demand.consumer_surplus(c.price, shock.demand),
+            producer_surplus: c.producer_price * c.harvest
+                - model.supply.production_cost(c.planted),
+            purchase_cost,
+            sales_revenue,
+            storage_cost,
+            financing_cost,
+            handling_cost,
+            deficiency_payments: c.deficiency,
+            flags: c.flags,
+            stockout: model
+                .policy
+                .sell_above
+                .is_some_and(|s| c.price > s * (1.0 + 1e-12) && c.stock <= 1e-12),
+        };
+        // advance the state
+        self.previous = Some(rule_expectation);
+        self.stock = c.stock;
+        self.last_demand_shock = shock.demand;
+        self.period = t;
+        self.history.push(c.producer_price);
+        let keep = model.price_history.len();
+        if self.history.len() > 4 * keep + 64 {
+            let cut = self.history.len() - keep;
+            self.history.drain(..cut);
+        }
+        Ok(record)
+    }
+}
+
+#[cfg(test)]
+mod tests;

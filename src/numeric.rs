@@ -1,0 +1,121 @@
+//! Small numerical helpers shared by the engine: a bracketed root finder (Brent's method from the
+//! `roots` crate) with automatic bracket expansion, and Gauss–Hermite quadrature nodes.
+
+use nalgebra::{DMatrix, SymmetricEigen};
+
+/// Finds a root of `f` between `lo` and `hi` (which must bracket a sign change) to absolute tolerance
+/// `tol` in x. Returns `None` when the interval does not bracket a root or the search fails.
+pub fn brent<F: FnMut(f64) -> f64>(f: F, lo: f64, hi: f64, tol: f64) -> Option<f64> {
+    let mut conv = roots::SimpleConvergency {
+        eps: tol,
+        max_iter: 200,
+    };
+    roots::find_root_brent(lo, hi, f, &mut conv)
+        .ok()
+        .filter(|x| x.is_finite())
+}
+
+/// Root of a function that is strictly decreasing in `x > 0`, searched outward from `guess > 0` by
+/// doubling and halving until the sign changes, then refined by Brent's method.
+pub fn root_decreasing<F: FnMut(f64) -> f64>(mut f: F, guess: f64, tol: f64) -> Option<f64> {
+    let guess = if guess.is_finite() && guess > 0.0 {
+        guess
+    } else {
+        1.0
+    };
+    let (mut lo, mut hi) = (guess, guess);
+    let mut f_lo = f(lo);
+    if f_lo == 0.0 {
+        return Some(lo);
+    }
+    if f_lo > 0.0 {
+        // root lies above: expand hi
+        let mut f_hi = f_lo;
+        for _ in 0..200 {
+            hi *= 2.0;
+            f_hi = f(hi);
+            if !(f_hi > 0.0) {
+                break;
+            }
+            lo = hi;
+        }
+        if f_hi > 0.0 || f_hi.is_nan() {
+            return None;
+        }
+    } else {
+        for _ in 0..200 {
+            lo *= 0.5;
+            f_lo = f(lo);
+            if f_lo >= 0.0 {
+                break;
+            }
+            hi = lo;
+        }
+        if f_lo < 0.0 || f_lo.is_nan() {
+            return None;
+        }
+    }
+    brent(f, lo, hi, tol)
+}
+
+/// Gauss–Hermite rule for the standard normal (probabilists' weight): nodes `z_i` and weights `w_i`
+/// with Σ w_i g(z_i) ≈ E[g(Z)], Z ~ N(0, 1). Computed by the Golub–Welsch method (Golub and Welsch
+/// 1969): the nodes are the eigenvalues of the symmetric tridiagonal Jacobi matrix with off-diagonal
+/// √k, and the weights are the squared first components of its normalised eigenvectors.
+pub fn gauss_hermite(n: usize) -> Vec<(f64, f64)> {
+    let n = n.max(1);
+    if n == 1 {
+        return vec![(0.0, 1.0)];
+    }
+    let mut j = DMatrix::<f64>::zeros(n, n);
+    for k in 1..n {
+        let off = (k as f64).sqrt();
+        j[(k - 1, k)] = off;
+        j[(k, k - 1)] = off;
+    }
+    let eig = SymmetricEigen::new(j);
+    let mut out: Vec<(f64, f64)> = (0..n)
+        .map(|i| {
+            let v0 = eig.eigenvectors[(0, i)];
+            (eig.eigenvalues[i], v0 * v0)
+        })
+        .collect();
+    out.sort_by(|a, b| a.0.total_cmp(&b.0));
+    // symmetrise to remove rounding asymmetry
+    let total: f64 = out.iter().map(|p| p.1).sum();
+    for p in &mut out {
+        p.1 /= total;
+    }
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn gauss_hermite_integrates_normal_moments() {
+        // E[Z^2] = 1, E[Z^4] = 3, E[Z^6] = 15 (moments of the standard normal); an n-point rule is exact
+        // for polynomials of degree up to 2n - 1 (Golub and Welsch 1969).
+        let rule = gauss_hermite(5);
+        let m = |k: i32| rule.iter().map(|(z, w)| w * z.powi(k)).sum::<f64>();
+        assert!((m(0) - 1.0).abs() < 1e-14);
+        assert!(m(1).abs() < 1e-14);
+        assert!((m(2) - 1.0).abs() < 1e-13);
+        assert!((m(4) - 3.0).abs() < 1e-12);
+        assert!((m(6) - 15.0).abs() < 1e-11);
+        // E[exp(Z)] = e^{1/2}
+        let rule = gauss_hermite(12);
+        let e: f64 = rule.iter().map(|(z, w)| w * z.exp()).sum();
+        assert!((e - 0.5f64.exp()).abs() < 1e-10);
+    }
+
+    #[test]
+    fn root_decreasing_finds_root_on_both_sides_of_guess() {
+        let f = |x: f64| 10.0 - x * x; // decreasing for x > 0, root sqrt(10)
+        for guess in [0.01, 1.0, 3.0, 100.0] {
+            let r = root_decreasing(f, guess, 1e-13).unwrap();
+            assert!((r - 10f64.sqrt()).abs() < 1e-10, "guess {guess}: {r}");
+        }
+    }
+}

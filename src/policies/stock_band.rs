@@ -1,0 +1,39 @@
+use super::{flags, Clearing, PolicyRule};
+
+/// A buffer stock on a price band: buys while the price would fall below `buy_below`, sells while it
+/// would rise above `sell_above` (as far as capacity, budget and stock allow).
+#[derive(Debug, Clone, Copy)]
+pub struct BandStock {
+    /// Lower edge of the band.
+    pub buy_below: f64,
+    /// Upper edge of the band.
+    pub sell_above: f64,
+}
+
+impl BandStock {
+    /// Defends the band; returns true when the price was outside it (the agency acted or tried to).
+    pub fn defend(&self, market: &mut Clearing) -> bool {
+        let p = market.price();
+        if p < self.buy_below {
+            market.buy_to(self.buy_below, flags::BAND_BUY);
+            true
+        } else if p > self.sell_above {
+            market.sell_to(self.sell_above, flags::BAND_SELL);
+            true
+        } else {
+            false
+        }
+    }
+}
+
+impl PolicyRule for BandStock {
+    fn name(&self) -> &'static str {
+        "stock-band"
+    }
+    fn trades_stock(&self) -> bool {
+        true
+    }
+    fn trade(&self, market: &mut Clearing) {
+        self.defend(market);
+    }
+}

@@ -1,0 +1,30 @@
+use super::{flags, BandStock, Clearing, PolicyRule};
+
+/// A rotating reserve: it defends the band first; unless it had to buy, it releases `share` of the
+/// carried stock each period (counting band sales), never pushing the price below `buy_below`.
+#[derive(Debug, Clone, Copy)]
+pub struct ShareStock {
+    /// The band defended first.
+    pub band: BandStock,
+    /// Share of the stock released per period, in (0, 1].
+    pub share: f64,
+}
+
+impl PolicyRule for ShareStock {
+    fn name(&self) -> &'static str {
+        "stock-share"
+    }
+    fn trades_stock(&self) -> bool {
+        true
+    }
+    fn trade(&self, market: &mut Clearing) {
+        self.band.defend(market);
+        if market.purchases > 0.0 {
+            return;
+        }
+        let more = self.share * market.carried - market.releases;
+        if more > 0.0 {
+            market.sell_at_most(more, self.band.buy_below, flags::ROTATION);
+        }
+    }
+}

@@ -1,0 +1,301 @@
+//! Reading market and policy files into validated, trusted values.
+//!
+//! Input is read in two stages: [`raw`] mirrors the TOML key for key; [`validate`] checks every key once
+//! and builds a [`Scenario`] (market file) or a [`PolicySpec`] (policy file). Everything downstream —
+//! engine, stability, Monte Carlo — trusts these values and never re-checks them.
+
+pub mod keys;
+pub mod raw;
+pub mod validate;
+
+use serde::Serialize;
+
+use crate::curves::{Curve, SteadyState};
+
+pub use keys::{apply_override, parse_toml};
+pub use validate::{load_market, load_policy, market_from_table, policy_from_table};
+
+/// An input problem, always naming the file and, where there is one, the key and the value.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum InputError {
+    /// The file could not be read.
+    #[error("{file}: cannot read: {reason}")]
+    Unreadable { file: String, reason: String },
+    /// TOML syntax or type error, with line and column where the parser gave them.
+    #[error("{file}: {message}")]
+    Syntax { file: String, message: String },
+    /// A key that no section allows.
+    #[error("{file}: {key}: unknown key{suggestion}")]
+    UnknownKey {
+        file: String,
+        key: String,
+        suggestion: String,
+    },
+    /// A key whose value is out of range or inconsistent with others.
+    #[error("{file}: {key} = {value}: {expected}")]
+    BadValue {
+        file: String,
+        key: String,
+        value: String,
+        expected: String,
+    },
+    /// A required key is missing.
+    #[error("{file}: {key}: missing; {expected}")]
+    Missing {
+        file: String,
+        key: String,
+        expected: String,
+    },
+}
+
+impl InputError {
+    /// The dotted key the error is about, when it is about one.
+    pub fn key(&self) -> Option<&str> {
+        match self {
+            InputError::UnknownKey { key, .. }
+            | InputError::BadValue { key, .. }
+            | InputError::Missing { key, .. } => Some(key),
+            _ => None,
+        }
+    }
+}
+
+/// What the market is: curves and units.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Market {
+    /// Free-text name.
+    pub name: String,
+    /// Unit of quantities, e.g. "kt".
+    pub quantity_unit: String,
+    /// Unit of prices, e.g. "per t".
+    pub price_unit: String,
+    /// Demand Q = D(P).
+    pub demand: Curve,
+    /// Supply Q = S(P^e).
+    pub supply: Curve,
+}
+
+/// How the normal price of the normal-price rule is formed.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum NormalPrice {
+    /// A fixed normal price N.
+    Fixed(f64),
+    /// The mean of the last `window` producer prices.
+    Window(usize),
+}
+
+/// A validated expectation rule with its parameters.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[serde(tag = "rule", rename_all = "kebab-case")]
+pub enum ExpectationSpec {
+    /// P^e_t = P_{t−1}.
+    Naive,
+    /// P^e_t = P^e_{t−1} + λ (P_{t−1} − P^e_{t−1}).
+    Adaptive {
+        weight: f64,
+        initial_expected_price: Option<f64>,
+    },
+    /// P^e_t = P_{t−1} + η (N_t − P_{t−1}).
+    NormalPrice { weight: f64, normal: NormalPrice },
+    /// P^e_t = P_{t−1} + ρ (P_{t−1} − P_{t−2}).
+    Extrapolative { weight: f64 },
+    /// P^e_t = mean(P_{t−1}, …, P_{t−k}).
+    TrailingMean { window: usize },
+    /// P^e_t = E_{t−1}[producer price in t] under the model.
+    Rational,
+}
+
+impl ExpectationSpec {
+    /// The rule's file name (`rule = "..."`).
+    pub fn rule_name(&self) -> &'static str {
+        match self {
+            ExpectationSpec::Naive => "naive",
+            ExpectationSpec::Adaptive { .. } => "adaptive",
+            ExpectationSpec::NormalPrice { .. } => "normal-price",
+            ExpectationSpec::Extrapolative { .. } => "extrapolative",
+            ExpectationSpec::TrailingMean { .. } => "trailing-mean",
+            ExpectationSpec::Rational => "rational",
+        }
+    }
+}
+
+/// How agency stock left at the last period is valued.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum TerminalStock {
+    /// At the last period's market price.
+    Market,
+    /// At zero.
+    Zero,
+}
+
+/// The `[run]` section.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct RunSettings {
+    /// Number of periods T.
+    pub periods: usize,
+    /// P_0, the price seen before the first planting.
+    pub initial_price: f64,
+    /// Producer prices before period 1, oldest first, ending with P_0 (filled with P_0 when not given).
+    pub price_history: Vec<f64>,
+    /// Monte Carlo replications (1 = one path).
+    pub replications: usize,
+    /// Seed of the random number generator.
+    pub seed: u64,
+    /// Discount rate r for present values.
+    pub discount_rate: f64,
+    /// Valuation of the agency stock left at T.
+    pub terminal_stock: TerminalStock,
+    /// Coefficient of relative risk aversion of producers (for the revenue risk premium).
+    pub risk_aversion: f64,
+}
+
+/// The `[shocks]` section.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Default)]
+pub struct ShockSpec {
+    /// Coefficient of variation of the multiplicative lognormal yield factor (mean 1).
+    pub yield_cv: f64,
+    /// Standard deviation of the additive harvest shock.
+    pub supply_sd: f64,
+    /// Standard deviation of the additive demand shock innovation.
+    pub demand_sd: f64,
+    /// AR(1) coefficient of the demand shock.
+    pub demand_persistence: f64,
+}
+
+impl ShockSpec {
+    /// True when every shock is zero (a deterministic run).
+    pub fn is_deterministic(&self) -> bool {
+        self.yield_cv == 0.0 && self.supply_sd == 0.0 && self.demand_sd == 0.0
+    }
+}
+
+/// The `[storers]` section: competitive private stockholders.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Storers {
+    /// Physical storage cost per unit per period.
+    pub storage_cost: f64,
+    /// Interest rate per period.
+    pub interest_rate: f64,
+    /// Share of private stock lost per period.
+    pub loss_rate: f64,
+}
+
+/// A validated market file.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Scenario {
+    /// The file it came from.
+    pub source: String,
+    /// Curves and units.
+    pub market: Market,
+    /// The expectation rule.
+    pub expectations: ExpectationSpec,
+    /// Run settings.
+    pub run: RunSettings,
+    /// Weather and demand shocks.
+    pub shocks: ShockSpec,
+    /// Private storers, when present.
+    pub storers: Option<Storers>,
+    /// The steady state of the free market (exists: checked when the file was read).
+    pub steady: SteadyState,
+}
+
+/// Instrument that defends a price floor.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum FloorInstrument {
+    /// The agency buys everything offered at the floor.
+    Purchase,
+    /// The market clears freely; the treasury pays the gap on the harvest.
+    DeficiencyPayment,
+}
+
+/// The `[floor]` section.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct FloorSpec {
+    /// Guaranteed producer price F.
+    pub price: f64,
+    /// How it is defended.
+    pub instrument: FloorInstrument,
+    /// Whether farmers plant on max(expectation, F).
+    pub announced: bool,
+}
+
+/// Release rule of the buffer stock.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[serde(tag = "release", rename_all = "kebab-case")]
+pub enum ReleaseSpec {
+    /// Sells while the price would rise above `sell_above`.
+    Band,
+    /// Steers the stock toward `target` at `speed` while the price is inside the band.
+    Target { target: f64, speed: f64 },
+    /// Rotates: releases `share` of the stock each period (not below `buy_below`).
+    Share { share: f64 },
+}
+
+/// The `[stock]` section: the public buffer stock agency.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct StockSpec {
+    /// Buys while the price would fall below this (0 = never buys on the band).
+    pub buy_below: f64,
+    /// Sells while the price would rise above this (∞ = never sells on the band).
+    pub sell_above: f64,
+    /// Storage capacity (∞ = unlimited).
+    pub capacity: f64,
+    /// Stock held before period 1.
+    pub initial: f64,
+    /// Physical storage cost per unit of end-of-period stock.
+    pub storage_cost: f64,
+    /// Share of carried stock lost per period.
+    pub loss_rate: f64,
+    /// Purchase spending allowed per period (∞ = unlimited).
+    pub purchase_budget: f64,
+    /// Interest per period on the market value of stock held.
+    pub financing_rate: f64,
+    /// Cost per unit bought or sold.
+    pub handling_cost: f64,
+    /// Release rule.
+    pub release: ReleaseSpec,
+}
+
+/// A validated policy file.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct PolicySpec {
+    /// The file it came from (empty for the built-in "no intervention").
+    pub source: String,
+    /// Display name.
+    pub name: String,
+    /// Price floor, if any.
+    pub floor: Option<FloorSpec>,
+    /// Buffer stock, if any.
+    pub stock: Option<StockSpec>,
+    /// Expectation rule that overrides the market file's.
+    pub expectations: Option<ExpectationSpec>,
+}
+
+impl PolicySpec {
+    /// The market left alone.
+    pub fn none() -> PolicySpec {
+        PolicySpec {
+            source: String::new(),
+            name: "No intervention".into(),
+            floor: None,
+            stock: None,
+            expectations: None,
+        }
+    }
+
+    /// True when the policy does nothing (no floor, no stock, no override).
+    pub fn is_none(&self) -> bool {
+        self.floor.is_none() && self.stock.is_none() && self.expectations.is_none()
+    }
+}
+
+/// Reads a file and tells whether it is a policy file (it has a `[policy]` section).
+pub fn is_policy_text(text: &str) -> bool {
+    match text.parse::<toml::Table>() {
+        Ok(t) => t.contains_key("policy"),
+        Err(_) => text.lines().any(|l| l.trim() == "[policy]"),
+    }
+}
