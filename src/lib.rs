@@ -6,3 +6,5 @@ pub mod numeric;
 pub mod output;
 pub mod policies;
 pub mod scenario;
+pub mod stability;
+pub mod stochastic;

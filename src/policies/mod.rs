@@ -7,6 +7,7 @@
 
 pub mod clearing;
 mod deficiency;
+mod diagnose;
 mod floor_purchase;
 mod stock_band;
 mod stock_share;
@@ -14,6 +15,7 @@ mod stock_target;
 
 pub use clearing::{flags, Clearing};
 pub use deficiency::DeficiencyPayment;
+pub use diagnose::diagnose;
 pub use floor_purchase::FloorPurchase;
 pub use stock_band::BandStock;
 pub use stock_share::ShareStock;

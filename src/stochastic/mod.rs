@@ -1,0 +1,9 @@
+//! Weather and demand shocks, and the Monte Carlo machinery.
+//!
+//! Every replication i draws from its own stream of a ChaCha8 generator seeded with the run's seed
+//! (`seed_from_u64(seed)` then `set_stream(i)`), so replication i sees the same shocks under every
+//! policy (common random numbers) and whatever the number of threads.
+
+mod shocks;
+
+pub use shocks::{ShockStream, single_path_shocks};
