@@ -151,11 +151,11 @@ pub fn free_price(setup: &Setup) -> Result<f64, StabilityError> {
             normal: crate::scenario::NormalPrice::Fixed(_),
             ..
         }
-    ) && setup.planting_floor().is_none_or(|f| f <= guess);
+    );
     if let (true, Some(s)) = (simple, steady) {
         return Ok(s.price);
     }
-    StateMap::new(setup, Clearing::Free { offtake: 0.0 })
+    StateMap::with_floor(setup, Clearing::Free { offtake: 0.0 }, false)
         .fixed_point(guess)
         .ok_or_else(|| StabilityError::NoSteadyState {
             regime: "free market".into(),
@@ -168,7 +168,7 @@ fn regime_at(
     case: &regimes::RegimeCase,
     guess: f64,
 ) -> Result<Regime, StabilityError> {
-    let map = StateMap::new(setup, case.clearing);
+    let map = StateMap::with_floor(setup, case.clearing, case.floor_applies);
     let p = map
         .fixed_point(guess)
         .ok_or_else(|| StabilityError::NoSteadyState {
@@ -228,7 +228,7 @@ pub fn analyse_setup(setup: &Setup, unit: &str) -> Result<StabilityReport, Stabi
     }
     let hold = &out[0];
     let finite = cases[0].finite;
-    let map = StateMap::new(setup, cases[0].clearing);
+    let map = StateMap::with_floor(setup, cases[0].clearing, cases[0].floor_applies);
     let (producer_price, planting_price, steady_state) = if finite {
         let pp = hold.at_price;
         let planting = map.planting_at_rest(pp);
@@ -265,7 +265,7 @@ pub fn analyse_setup(setup: &Setup, unit: &str) -> Result<StabilityReport, Stabi
         )
     };
     // published conditions: the free-market dynamics at the free steady state
-    let free_map = StateMap::new(setup, Clearing::Free { offtake: 0.0 });
+    let free_map = StateMap::with_floor(setup, Clearing::Free { offtake: 0.0 }, false);
     let planting = free_map.planting_at_rest(p_free);
     let b = setup.supply.slope_at(planting);
     let d = -setup.demand.slope_at(p_free);

@@ -33,6 +33,8 @@ pub struct RegimeCase {
     pub stock_eigenvalue: Option<f64>,
     /// Explanation for the reader.
     pub note: Option<String>,
+    /// Farmers plant on an announced floor in this regime (false for the market left alone).
+    pub floor_applies: bool,
 }
 
 fn case(name: &str, clearing: Clearing, note: Option<String>) -> RegimeCase {
@@ -43,6 +45,7 @@ fn case(name: &str, clearing: Clearing, note: Option<String>) -> RegimeCase {
         finite: true,
         stock_eigenvalue: None,
         note,
+        floor_applies: true,
     }
 }
 
@@ -254,14 +257,13 @@ pub fn regimes(setup: &Setup, free_price: f64, unit: &str) -> Vec<RegimeCase> {
         .iter()
         .any(|c| matches!(c.clearing, Clearing::Free { .. }))
     {
-        secondary.insert(
-            0,
-            case(
-                "free market",
-                free,
-                Some("where no policy rule acts (away from the steady state)".into()),
-            ),
+        let mut c = case(
+            "free market",
+            free,
+            Some("the market left alone, for comparison (no policy rule acts)".into()),
         );
+        c.floor_applies = false;
+        secondary.insert(0, c);
     }
     holding.extend(secondary);
     holding

@@ -120,14 +120,19 @@ pub struct StateMap<'a> {
 }
 
 impl<'a> StateMap<'a> {
-    /// The map of `setup`'s rule under `clearing`.
+    /// The map of `setup`'s rule under `clearing` (farmers plant on an announced floor).
     pub fn new(setup: &'a Setup, clearing: Clearing) -> Self {
+        Self::with_floor(setup, clearing, true)
+    }
+
+    /// As [`StateMap::new`]; `floor = false` ignores an announced floor (the market left alone).
+    pub fn with_floor(setup: &'a Setup, clearing: Clearing, floor: bool) -> Self {
         StateMap {
             setup,
             rule: expectations::build(&setup.rule),
             layout: layout(&setup.rule),
             clearing,
-            floor: setup.planting_floor(),
+            floor: setup.planting_floor().filter(|_| floor),
         }
     }
 
