@@ -41,7 +41,10 @@ fn rules_at_rest_expect_the_resting_price() {
     for r in rules {
         let s = setup(r);
         let map = StateMap::new(&s, Clearing::Free { offtake: 0.0 });
-        assert!((map.expectation_at_rest(123.0) - 123.0).abs() < 1e-12, "{r:?}");
+        assert!(
+            (map.expectation_at_rest(123.0) - 123.0).abs() < 1e-12,
+            "{r:?}"
+        );
         if let Layout::Lags(w) = layout(&r) {
             assert!((w.iter().sum::<f64>() - 1.0).abs() < 1e-15, "{r:?}");
         }
