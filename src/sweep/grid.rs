@@ -15,7 +15,8 @@ pub struct Axis {
 }
 
 /// The STEPS grid points from `from` to `to`, both ends included: from + i·(to − from)/(steps − 1)
-/// (the last one is `to` exactly; one step gives `from` alone).
+/// rounded to 15 significant digits (so 0.05:1:20 gives 0.4, not 0.39999999999999997); the last one
+/// is `to` exactly; one step gives `from` alone.
 pub fn grid_values(from: f64, to: f64, steps: usize) -> Vec<f64> {
     if steps == 1 {
         return vec![from];
@@ -26,10 +27,14 @@ pub fn grid_values(from: f64, to: f64, steps: usize) -> Vec<f64> {
             if i == steps - 1 {
                 to
             } else {
-                from + i as f64 * h
+                round15(from + i as f64 * h)
             }
         })
         .collect()
+}
+
+fn round15(x: f64) -> f64 {
+    format!("{x:.14e}").parse().unwrap_or(x)
 }
 
 /// Parses `KEY=FROM:TO:STEPS`.
@@ -93,6 +98,8 @@ mod tests {
         assert_eq!(a.values[0], 0.1);
         assert_eq!(a.values[9], 1.0);
         assert!((a.values[4] - 0.5).abs() < 1e-15);
+        let b = parse_vary("expectations.weight=0.05:1:20").unwrap();
+        assert_eq!(b.values[7], 0.4);
     }
 
     #[test]
