@@ -169,12 +169,15 @@ fn regime_at(
     guess: f64,
 ) -> Result<Regime, StabilityError> {
     let map = StateMap::with_floor(setup, case.clearing, case.floor_applies);
-    let p = map
-        .fixed_point(guess)
-        .ok_or_else(|| StabilityError::NoSteadyState {
+    // the free regime's fixed point is the free market's steady state (solved in closed form for
+    // linear curves); an announced floor applies to it only when it lies below that price
+    let at_rest = (case.clearing == Clearing::Free { offtake: 0.0 }).then_some(guess);
+    let p = at_rest.or_else(|| map.fixed_point(guess)).ok_or_else(|| {
+        StabilityError::NoSteadyState {
             regime: case.name.clone(),
             reason: "the regime's map has no positive fixed point".into(),
-        })?;
+        }
+    })?;
     let linear = setup.demand.is_linear() && setup.supply.is_linear();
     let rational = matches!(setup.rule, ExpectationSpec::Rational);
     let (eigenvalues, jacobian) = if !case.finite {
