@@ -8,16 +8,22 @@ use crate::curves::{steady_state, Curve};
 
 /// Reads and validates a market file from disk.
 pub fn load_market(path: &str) -> Result<Scenario, InputError> {
-    let text = read(path)?;
-    let table = parse_toml(path, &text)?;
-    market_from_table(path, table)
+    market_from_str(path, &read(path)?)
 }
 
 /// Reads and validates a policy file from disk.
 pub fn load_policy(path: &str) -> Result<PolicySpec, InputError> {
-    let text = read(path)?;
-    let table = parse_toml(path, &text)?;
-    policy_from_table(path, table)
+    policy_from_str(path, &read(path)?)
+}
+
+/// Validates market-file text; `file` names it in errors.
+pub fn market_from_str(file: &str, text: &str) -> Result<Scenario, InputError> {
+    market_from_table(file, parse_toml(file, text)?)
+}
+
+/// Validates policy-file text; `file` names it in errors.
+pub fn policy_from_str(file: &str, text: &str) -> Result<PolicySpec, InputError> {
+    policy_from_table(file, parse_toml(file, text)?)
 }
 
 fn read(path: &str) -> Result<String, InputError> {
