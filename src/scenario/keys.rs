@@ -1,6 +1,7 @@
 //! TOML parsing with file-named errors, the unknown-key check with nearest-key suggestions, and dotted
 //! key overrides (`--vary supply.slope=...`).
 
+use super::raw::Kind;
 use super::InputError;
 
 /// Parses TOML text, naming the file in the error (the parser's message carries line and column).
@@ -16,7 +17,7 @@ pub fn parse_toml(file: &str, text: &str) -> Result<toml::Table, InputError> {
 pub fn check_keys(
     file: &str,
     table: &toml::Table,
-    schema: &[(&str, &[&str])],
+    schema: &[(&str, &[(&str, Kind)])],
 ) -> Result<(), InputError> {
     for (section, value) in table {
         let Some((_, keys)) = schema.iter().find(|(s, _)| s == section) else {
@@ -35,12 +36,37 @@ pub fn check_keys(
                 expected: format!("must be a section `[{section}]`"),
             });
         };
-        for key in inner.keys() {
-            if !keys.contains(&key.as_str()) {
+        for (key, v) in inner {
+            let Some((_, kind)) = keys.iter().find(|(k, _)| k == key) else {
+                let names: Vec<&str> = keys.iter().map(|(k, _)| *k).collect();
                 return Err(InputError::UnknownKey {
                     file: file.into(),
                     key: format!("{section}.{key}"),
-                    suggestion: suggest(key, keys, "keys"),
+                    suggestion: suggest(key, &names, "keys"),
+                });
+            };
+            let fits = match kind {
+                Kind::Number => v.is_float() || v.is_integer(),
+                Kind::Integer => v.is_integer(),
+                Kind::Text => v.is_str(),
+                Kind::Bool => v.is_bool(),
+                Kind::Numbers => v
+                    .as_array()
+                    .is_some_and(|a| a.iter().all(|x| x.is_float() || x.is_integer())),
+            };
+            if !fits {
+                let want = match kind {
+                    Kind::Number => "must be a number",
+                    Kind::Integer => "must be a whole number",
+                    Kind::Text => "must be a quoted string",
+                    Kind::Bool => "must be true or false",
+                    Kind::Numbers => "must be an array of numbers, e.g. [90.0, 95.0]",
+                };
+                return Err(InputError::BadValue {
+                    file: file.into(),
+                    key: format!("{section}.{key}"),
+                    value: short_value(v),
+                    expected: want.into(),
                 });
             }
         }

@@ -33,13 +33,12 @@ fn read(path: &str) -> Result<String, InputError> {
     })
 }
 
-fn deserialize<T: serde::de::DeserializeOwned>(file: &str, table: toml::Table) -> Result<T, InputError> {
-    // Re-serialising keeps the checks on one path; values keep their types.
-    let text = toml::to_string(&table).map_err(|e| InputError::Syntax {
-        file: file.into(),
-        message: e.to_string(),
-    })?;
-    toml::from_str(&text).map_err(|e| InputError::Syntax {
+fn deserialize<T: serde::de::DeserializeOwned>(
+    file: &str,
+    table: toml::Table,
+) -> Result<T, InputError> {
+    // Keys and types were checked against the schema already, so this only maps values.
+    T::deserialize(toml::Value::Table(table)).map_err(|e| InputError::Syntax {
         file: file.into(),
         message: e.to_string().trim_end().to_string(),
     })
@@ -72,7 +71,15 @@ impl Check<'_> {
         if v.is_finite() {
             Ok(v)
         } else {
-            Err(self.bad(key, v, "must be a finite number"))
+            // echo the value as TOML spells it
+            let written = if v.is_nan() {
+                "nan"
+            } else if v > 0.0 {
+                "inf"
+            } else {
+                "-inf"
+            };
+            Err(self.bad(key, written, "must be a finite number"))
         }
     }
 
@@ -337,13 +344,18 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
     let demand = curve(&c, "demand", demand_raw, true)?;
     let supply = curve(&c, "supply", supply_raw, false)?;
     let steady = steady_state(&demand, &supply).ok_or_else(|| {
+        let describe = |c: &Curve| match *c {
+            Curve::Linear { intercept, slope } => format!("intercept {intercept}, slope {slope}"),
+            Curve::ConstantElasticity {
+                at_price,
+                at_quantity,
+                elasticity,
+            } => format!("{at_quantity} at {at_price}, elasticity {elasticity}"),
+        };
         c.bad(
-            "supply.intercept",
-            match supply {
-                Curve::Linear { intercept, .. } => intercept.to_string(),
-                _ => "(curve)".into(),
-            },
-            "supply and demand do not cross at a positive price and quantity; check the intercepts",
+            "demand/supply",
+            format!("demand ({}), supply ({})", describe(&demand), describe(&supply)),
+            "the curves do not cross at a positive price and quantity: check demand.intercept and supply.intercept",
         )
     })?;
     let market = Market {
