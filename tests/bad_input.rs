@@ -64,8 +64,21 @@ release = "band"
 
 /// Values that break most keys: wrong types, out of range, non-finite, absurd.
 const BAD_VALUES: &[&str] = &[
-    "-1.0", "0", "-1e9", "1e300", "\"text\"", "true", "[1, 2]", "nan", "inf", "-inf", "2.0", "-0.5",
-    "1.0", "{ a = 1 }", "1e-320",
+    "-1.0",
+    "0",
+    "-1e9",
+    "1e300",
+    "\"text\"",
+    "true",
+    "[1, 2]",
+    "nan",
+    "inf",
+    "-inf",
+    "2.0",
+    "-0.5",
+    "1.0",
+    "{ a = 1 }",
+    "1e-320",
 ];
 
 /// (key line prefix, key) pairs that appear in the base files.
@@ -139,7 +152,12 @@ fn case(rng: &mut ChaCha8Rng) -> (bool, String, String, Expect) {
     match rng.random_range(0..5) {
         0 | 1 => {
             let v = BAD_VALUES[rng.random_range(0..BAD_VALUES.len())];
-            (policy, replace_value(base, &section, &key, v), dotted, Expect::Names)
+            (
+                policy,
+                replace_value(base, &section, &key, v),
+                dotted,
+                Expect::Names,
+            )
         }
         2 => {
             let t = typo(rng, &key);
@@ -162,7 +180,12 @@ fn case(rng: &mut ChaCha8Rng) -> (bool, String, String, Expect) {
             while !base.is_char_boundary(cut) {
                 cut -= 1;
             }
-            (policy, base[..cut].to_string(), String::new(), Expect::NoPanic)
+            (
+                policy,
+                base[..cut].to_string(),
+                String::new(),
+                Expect::NoPanic,
+            )
         }
         _ => {
             // scramble: insert random punctuation at a random place
@@ -183,17 +206,25 @@ fn case(rng: &mut ChaCha8Rng) -> (bool, String, String, Expect) {
 }
 
 fn check_one(policy: bool, text: &str) -> Result<(), String> {
-    let file = if policy { "corpus-policy.toml" } else { "corpus-market.toml" };
+    let file = if policy {
+        "corpus-policy.toml"
+    } else {
+        "corpus-market.toml"
+    };
     let result = std::panic::catch_unwind(|| {
         if policy {
-            policy_from_str(file, text).map(|_| ()).map_err(|e| e.to_string())
+            policy_from_str(file, text)
+                .map(|_| ())
+                .map_err(|e| e.to_string())
         } else {
-            market_from_str(file, text).map(|s| {
-                // a valid market must also simulate without panicking
-                let model = furrow::engine::Model::new(&s, &furrow::scenario::PolicySpec::none());
-                let _ = model.run(s.run.periods.min(50), |_| furrow::engine::PeriodShock::NONE);
-            })
-            .map_err(|e| e.to_string())
+            market_from_str(file, text)
+                .map(|s| {
+                    // a valid market must also simulate without panicking
+                    let model =
+                        furrow::engine::Model::new(&s, &furrow::scenario::PolicySpec::none());
+                    let _ = model.run(s.run.periods.min(50), |_| furrow::engine::PeriodShock::NONE);
+                })
+                .map_err(|e| e.to_string())
         }
     });
     match result {
@@ -213,7 +244,11 @@ fn generated_corpus_never_panics_and_names_the_key() {
             Ok(()) => valid += 1,
             Err(msg) => {
                 broken += 1;
-                let file = if policy { "corpus-policy.toml" } else { "corpus-market.toml" };
+                let file = if policy {
+                    "corpus-policy.toml"
+                } else {
+                    "corpus-market.toml"
+                };
                 assert!(msg.starts_with(file), "message must name the file: {msg}");
                 if expect == Expect::Names {
                     let section = key.split('.').next().unwrap_or("");
@@ -238,7 +273,10 @@ fn valid_variations_are_accepted() {
     assert!(market_from_str("m.toml", MARKET).is_ok());
     assert!(policy_from_str("p.toml", POLICY).is_ok());
     let edited = replace_value(MARKET, "expectations", "weight", "1");
-    assert!(market_from_str("m.toml", &edited).is_ok(), "integers are numbers");
+    assert!(
+        market_from_str("m.toml", &edited).is_ok(),
+        "integers are numbers"
+    );
 }
 
 #[test]
@@ -258,7 +296,12 @@ fn binary_exits_2_and_names_the_key_on_a_sample() {
         std::fs::write(&path, &text).unwrap();
         let mut cmd = common::bin();
         if policy {
-            cmd.args(["run", market_path.to_str().unwrap(), "--policy", path.to_str().unwrap()]);
+            cmd.args([
+                "run",
+                market_path.to_str().unwrap(),
+                "--policy",
+                path.to_str().unwrap(),
+            ]);
         } else {
             cmd.args(["run", path.to_str().unwrap()]);
         }
@@ -267,7 +310,10 @@ fn binary_exits_2_and_names_the_key_on_a_sample() {
         assert_eq!(out.status.code(), Some(2), "{key}: {stderr}");
         let short = key.rsplit('.').next().unwrap_or("");
         let section = key.split('.').next().unwrap_or("");
-        assert!(stderr.contains(short) || stderr.contains(section), "{key}: {stderr}");
+        assert!(
+            stderr.contains(short) || stderr.contains(section),
+            "{key}: {stderr}"
+        );
         assert!(!stderr.contains("panicked"), "{stderr}");
         assert!(out.stdout.is_empty(), "no data on failure");
     }

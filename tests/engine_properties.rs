@@ -9,16 +9,21 @@ use proptest::prelude::*;
 
 /// Random valid linear markets: demand intercept, demand slope, supply slope and a P0 near P*.
 fn markets() -> impl Strategy<Value = (f64, f64, f64, f64, f64)> {
-    (50.0..500.0f64, -5.0..-0.2f64, 0.2..5.0f64, 0.0..1.0f64, 0.8..1.2f64).prop_map(
-        |(a, b, d, c_share, p0_share)| {
+    (
+        50.0..500.0f64,
+        -5.0..-0.2f64,
+        0.2..5.0f64,
+        0.0..1.0f64,
+        0.8..1.2f64,
+    )
+        .prop_map(|(a, b, d, c_share, p0_share)| {
             // supply intercept c between −0.9·a·d/|b| and a/2, so that P* = (a − c)/(d − b) > 0 and
             // Q* = (a·d − b·c)/(d − b) > 0
             let lo = -0.9 * a * d / -b;
             let c = lo + c_share * (0.5 * a - lo);
             let p_star = (a - c) / (d - b);
             (a, b, c, d, p0_share * p_star)
-        },
-    )
+        })
 }
 
 fn path(
@@ -206,8 +211,8 @@ proptest! {
         let s = linear_market(a, b, c, d, &format!("[run]\ninitial_price = {p0:?}\n"));
         let model = Model::new(&s, &pol);
         let mut sim = model.simulator();
-        for t in 0..20 {
-            let Ok(r) = sim.step(&PeriodShock { yield_factor: shocks[t], supply: 0.0, demand: 0.0 }) else { break };
+        for (t, y) in shocks.iter().enumerate() {
+            let Ok(r) = sim.step(&PeriodShock { yield_factor: *y, supply: 0.0, demand: 0.0 }) else { break };
             let limited = r.flags & (furrow::policies::flags::CAPACITY_FULL
                 | furrow::policies::flags::STOCK_OUT | furrow::policies::flags::BUDGET_BOUND) != 0;
             if !limited {

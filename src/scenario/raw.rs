@@ -140,7 +140,11 @@ use Kind::*;
 pub const MARKET_SCHEMA: &[(&str, &[(&str, Kind)])] = &[
     (
         "market",
-        &[("name", Text), ("quantity_unit", Text), ("price_unit", Text)],
+        &[
+            ("name", Text),
+            ("quantity_unit", Text),
+            ("price_unit", Text),
+        ],
     ),
     ("demand", CURVE_KEYS),
     ("supply", CURVE_KEYS),
