@@ -1,2 +1,3 @@
 //! furrow: evaluate agricultural market interventions before they are adopted.
+pub mod fit;
 pub mod output;
