@@ -39,7 +39,7 @@ impl Diff {
         let r = rel(got, want);
         self.max_abs = self.max_abs.max((got - want).abs());
         self.max_rel = self.max_rel.max(r);
-        if !(r <= self.tol) {
+        if r.is_nan() || r > self.tol {
             self.failures.push(format!(
                 "{what}: got {got:.17e}, want {want:.17e} (rel {r:.2e})"
             ));

@@ -107,7 +107,7 @@ impl FitReport {
             FitForm::Log => "elasticity",
         };
         let hint = "the data may not identify the curve; try shifters, --method 2sls with supply-only shifters, or a longer history";
-        if !(d.slope() < 0.0) {
+        if d.slope().is_nan() || d.slope() >= 0.0 {
             return Err(FitError::Market {
                 message: format!(
                     "the estimated demand {what} is {}, but a market file needs a demand {what} < 0 ({hint})",
@@ -115,7 +115,7 @@ impl FitReport {
                 ),
             });
         }
-        if !(s.slope() > 0.0) {
+        if s.slope().is_nan() || s.slope() <= 0.0 {
             return Err(FitError::Market {
                 message: format!(
                     "the estimated supply {what} on the lagged price is {}, but a market file needs a supply {what} > 0 ({hint})",
@@ -156,7 +156,7 @@ impl FitReport {
         let shocks = match self.form {
             FitForm::Linear => {
                 let di = finite("the demand intercept", d.intercept_at_shifter_means())?;
-                if !(di > 0.0) {
+                if di <= 0.0 {
                     return Err(FitError::Market {
                         message: format!(
                             "the demand intercept with shifters at their means is {}, so demand is never positive ({hint})",

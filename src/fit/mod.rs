@@ -17,10 +17,17 @@
 
 pub mod cli;
 pub mod data;
+mod error;
 pub mod market_file;
 pub mod ols;
 pub mod render;
+mod report;
 pub mod synth;
+#[cfg(test)]
+mod tests;
+
+pub use error::FitError;
+pub use report::{DataInfo, EquationFit, FitReport, Term};
 
 use nalgebra::{DMatrix, DVector};
 use serde::Serialize;
@@ -86,193 +93,6 @@ impl Default for FitOptions {
             method: FitMethod::Ols,
         }
     }
-}
-
-/// Everything that can go wrong in `fit`.
-#[derive(Debug, Clone, PartialEq, thiserror::Error)]
-pub enum FitError {
-    /// The CSV itself is malformed.
-    #[error("{file}{}: {message}", line.map(|l| format!(", line {l}")).unwrap_or_default())]
-    Csv {
-        file: String,
-        line: Option<u64>,
-        message: String,
-    },
-    /// A column named on the command line is not in the header.
-    #[error("{file}: no column `{column}` (asked for by {role}); available columns: {available}{suggestion}")]
-    UnknownColumn {
-        file: String,
-        role: String,
-        column: String,
-        available: String,
-        suggestion: String,
-    },
-    /// An empty or NA cell in a column that is used.
-    #[error("{file}, line {line} (season {season}), column `{column}`: missing value; every season needs a value in every column used (fill the gap or shorten the history)")]
-    MissingValue {
-        file: String,
-        line: u64,
-        season: String,
-        column: String,
-    },
-    /// A cell that is not a finite number.
-    #[error("{file}, line {line} (season {season}), column `{column}`: `{value}` is not a finite number")]
-    NotANumber {
-        file: String,
-        line: u64,
-        season: String,
-        column: String,
-        value: String,
-    },
-    /// A zero or negative price or quantity in a log model.
-    #[error("{file}, line {line} (season {season}), column `{column}`: {value} must be > 0 for --form log (it takes logarithms); correct the value or use --form linear")]
-    NonPositive {
-        file: String,
-        line: u64,
-        season: String,
-        column: String,
-        value: f64,
-    },
-    /// Season labels that are not consecutive integers.
-    #[error("{file}, line {line}: {message}")]
-    Season {
-        file: String,
-        line: u64,
-        message: String,
-    },
-    /// Fewer seasons than the equation needs.
-    #[error("{file}: the {equation} equation has {parameters} parameters ({terms}) and needs at least {needed} seasons, but has {observations}{note}")]
-    TooFewSeasons {
-        file: String,
-        equation: String,
-        parameters: usize,
-        terms: String,
-        needed: usize,
-        observations: usize,
-        note: String,
-    },
-    /// A regressor that is constant or a combination of others.
-    #[error("{file}: in the {equation} equation, {what} `{column}` is constant over the sample or a linear combination of the columns before it ({before}); drop it")]
-    Collinear {
-        file: String,
-        equation: String,
-        what: String,
-        column: String,
-        before: String,
-    },
-    /// 2SLS without an excluded instrument.
-    #[error("--method 2sls needs at least one supply-only shifter (--supply-shifter COL, e.g. rainfall or an input price) to instrument the price in the demand equation; none was given")]
-    NoInstruments,
-    /// The same column in two roles.
-    #[error(
-        "column `{column}` is given twice ({first} and {second}); each column can play one role"
-    )]
-    DuplicateColumn {
-        column: String,
-        first: String,
-        second: String,
-    },
-    /// Arithmetic failure (non-finite result).
-    #[error("{file}: the {equation} equation could not be computed (non-finite result); check the data's scale")]
-    NonFinite { file: String, equation: String },
-    /// The estimates cannot make a valid market file.
-    #[error("cannot write a market file: {message}")]
-    Market { message: String },
-}
-
-/// One estimated coefficient.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct Term {
-    /// `intercept`, `price` / `lagged_price`, or a shifter's column name.
-    pub name: String,
-    /// The coefficient.
-    pub estimate: f64,
-    /// Classical standard error.
-    pub std_error: f64,
-    /// HC1 heteroskedasticity-robust standard error.
-    pub robust_std_error: f64,
-    /// estimate / std_error.
-    pub t: f64,
-    /// Mean of the regressor over the equation's sample (1 for the intercept; mean of ln P in log form).
-    pub regressor_mean: f64,
-}
-
-/// One estimated equation.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct EquationFit {
-    /// `ols` or `2sls`.
-    pub method: FitMethod,
-    /// `quantity` or `ln(quantity)`.
-    pub dependent: String,
-    /// Coefficients in design order.
-    pub terms: Vec<Term>,
-    /// 1 − SSR/SST.
-    pub r_squared: f64,
-    /// sqrt(SSR/(n − k)), in the units of the dependent variable.
-    pub residual_sd: f64,
-    /// Durbin–Watson statistic of the residuals in season order.
-    pub durbin_watson: f64,
-    /// Price elasticity at the sample means (linear: slope·mean price/mean quantity; log: the slope).
-    pub elasticity_at_means: f64,
-    /// Number of seasons used.
-    pub observations: usize,
-    /// First and last season used.
-    pub first_season: i64,
-    /// Last season used.
-    pub last_season: i64,
-    /// Mean of the price regressor in levels (the lagged price for supply).
-    pub mean_price: f64,
-    /// Mean of the quantity in levels.
-    pub mean_quantity: f64,
-    /// Which robust covariance: always `HC1`.
-    pub robust_kind: String,
-    /// Excluded instruments (2SLS only).
-    #[serde(skip_serializing_if = "Vec::is_empty")]
-    pub instruments: Vec<String>,
-}
-
-impl EquationFit {
-    /// The coefficient on the price (or lagged price).
-    pub fn slope(&self) -> f64 {
-        self.terms[1].estimate
-    }
-
-    /// Intercept with every shifter held at its sample mean (γ + Σ φ_j · mean_j).
-    pub fn intercept_at_shifter_means(&self) -> f64 {
-        self.terms[0].estimate
-            + self.terms[2..]
-                .iter()
-                .map(|t| t.estimate * t.regressor_mean)
-                .sum::<f64>()
-    }
-}
-
-/// Where the data came from.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct DataInfo {
-    /// The file label given to [`fit_text`].
-    pub file: String,
-    /// SHA-256 of the CSV text, lower-case hex.
-    pub sha256: String,
-    /// Number of seasons in the file.
-    pub seasons: usize,
-    /// Last season in the file.
-    pub last_season: i64,
-    /// Price in the last season (becomes `initial_price` in the market file).
-    pub last_price: f64,
-}
-
-/// The result of `fit`: JSON `{"demand": {...}, "supply": {...}, ...}`.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct FitReport {
-    /// The demand equation.
-    pub demand: EquationFit,
-    /// The supply equation.
-    pub supply: EquationFit,
-    /// Levels or logs.
-    pub form: FitForm,
-    /// Source data.
-    pub data: DataInfo,
 }
 
 /// Lower-case hex SHA-256 of some bytes.

@@ -102,11 +102,10 @@ const RANK_TOL: f64 = 1e-10;
 fn centre(x: &DMatrix<f64>) -> (DMatrix<f64>, Vec<f64>) {
     let mut xc = x.clone();
     let mut means = vec![0.0; x.ncols()];
-    for j in 1..x.ncols() {
-        let m = x.column(j).iter().sum::<f64>() / x.nrows() as f64;
-        means[j] = m;
+    for (j, m) in means.iter_mut().enumerate().skip(1) {
+        *m = x.column(j).iter().sum::<f64>() / x.nrows() as f64;
         for v in xc.column_mut(j).iter_mut() {
-            *v -= m;
+            *v -= *m;
         }
     }
     (xc, means)
@@ -128,7 +127,8 @@ fn thin_qr(xc: &DMatrix<f64>, instrument: bool) -> Result<(DMatrix<f64>, DMatrix
     let q = qr.q();
     for j in 0..xc.ncols() {
         let scale = xc.column(j).norm();
-        if !(r[(j, j)].abs() > RANK_TOL * scale) {
+        let pivot = r[(j, j)].abs();
+        if pivot.is_nan() || pivot <= RANK_TOL * scale {
             return Err(LsError::Collinear {
                 index: j,
                 instrument,

@@ -129,7 +129,7 @@ fn normal(mean: f64, sd: f64, what: &str) -> Result<Normal<f64>, SynthError> {
 
 /// Generates the history (see the module documentation for the model).
 pub fn generate(p: &HistoryParams) -> Result<Vec<Season>, SynthError> {
-    if !(p.demand_slope < 0.0) {
+    if p.demand_slope.is_nan() || p.demand_slope >= 0.0 {
         return Err(SynthError::Parameter("demand_slope must be < 0".into()));
     }
     let rain = normal(p.rain_mean, p.rain_sd, "rain_sd")?;
