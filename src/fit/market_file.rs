@@ -34,9 +34,11 @@ fn toml_str(s: &str) -> String {
     toml::Value::String(s.to_string()).to_string()
 }
 
-/// A finite float in TOML syntax with full precision (always a float literal, never an integer).
+/// A finite float in TOML syntax, rounded to 12 significant digits (far below any standard error;
+/// keeps `100.9282` from printing as `100.92819999999999`), always a float literal, never an integer.
 fn toml_f64(x: f64) -> String {
-    format!("{x:?}")
+    let rounded: f64 = format!("{x:.11e}").parse().unwrap_or(x);
+    format!("{rounded:?}")
 }
 
 fn finite(what: &str, x: f64) -> Result<f64, FitError> {

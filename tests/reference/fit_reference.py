@@ -2,6 +2,7 @@
 """Reference estimates for `furrow fit`, computed with statsmodels and numpy.
 
 Usage: python3 tests/reference/fit_reference.py DATA.csv  > reference.json
+Needs: pip install -r tests/reference/requirements.txt  (numpy 2.4.6, statsmodels 0.15.0)
 
 For each case below (the same cases as tests/fit_reference.rs) it fits
   demand  Q_t = a + b P_t + demand shifters            (seasons 1..n)
