@@ -8,8 +8,10 @@
 //!   trend_t = t; P_0 = 95 crowns per t; quantities in kt.
 //!
 //! Run: `cargo run --example make_history [-- OUT.csv [SEASONS [SEED]]]`.
-//! Then: `furrow fit examples/veldmark_history.csv --demand-shifter trend --supply-shifter rainfall
-//!        --supply-shifter fertiliser_price --method 2sls --out examples/veldmark_fitted.toml`.
+//! Then (this writes the shipped examples/veldmark_fitted.toml; run from the crate root):
+//!   `furrow fit examples/veldmark_history.csv --demand-shifter trend --supply-shifter rainfall
+//!    --supply-shifter fertiliser_price --method 2sls --name "Hill millet, Veldmark (fitted 1985-2024)"
+//!    --price-unit "crowns per t" --out examples/veldmark_fitted.toml`
 
 use furrow::fit::synth::{generate, to_csv, HistoryParams};
 

@@ -92,3 +92,36 @@ fn option_values_are_checked() {
         format!("{:#}", execute(&missing).unwrap_err()).contains("cannot read /nonexistent/h.csv")
     );
 }
+
+/// examples/veldmark_fitted.toml is what the documented command writes today (regenerate it with the
+/// command in examples/make_history.rs when the estimator or the file layout changes).
+#[test]
+fn shipped_fitted_market_is_current() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("fitted.toml");
+    let root = env!("CARGO_MANIFEST_DIR");
+    std::env::set_current_dir(root).unwrap();
+    let a = args(&[
+        "examples/veldmark_history.csv",
+        "--demand-shifter",
+        "trend",
+        "--supply-shifter",
+        "rainfall",
+        "--supply-shifter",
+        "fertiliser_price",
+        "--method",
+        "2sls",
+        "--name",
+        "Hill millet, Veldmark (fitted 1985-2024)",
+        "--price-unit",
+        "crowns per t",
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    execute(&a).unwrap();
+    assert_eq!(
+        std::fs::read_to_string(&out).unwrap(),
+        std::fs::read_to_string(format!("{root}/examples/veldmark_fitted.toml")).unwrap(),
+        "examples/veldmark_fitted.toml is stale"
+    );
+}
