@@ -13,7 +13,7 @@ use crate::output::{write_whole, Format};
 pub enum FormArg {
     /// Quantities on prices in levels.
     Linear,
-    /// Logs of quantities on logs of prices (constant elasticity).
+    /// Logs of quantities on logs of prices (constant elasticity); shifters enter as they are.
     Log,
 }
 
