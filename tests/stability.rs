@@ -480,7 +480,7 @@ fn stock_band_regimes() {
     assert_eq!(rep.regimes[2].spectral_radius, 0.0);
     // target release: the stock settles at speed·T/(1 − (1 − ℓ)(1 − speed)) and buys its losses
     let p = policy(
-        "[policy]\nname = \"t\"\n[stock]\nbuy_below = 100.0\nsell_above = 180.0\nloss_rate = 0.1\n\
+        "[policy]\nname = \"t\"\n[stock]\nbuy_below = 100.0\nsell_above = 200.0\nloss_rate = 0.1\n\
          release = \"target\"\ntarget = 20.0\nspeed = 0.5\n",
     );
     let rep = analyse(&s, &p).unwrap();
@@ -555,4 +555,45 @@ fn invalid_points_are_kept_and_unknown_keys_fail() {
     let points = sweep::sweep(&base, &axes, None).unwrap();
     assert_eq!(points[0].outcome.as_ref().unwrap().1, Verdict::Stable);
     assert_eq!(points[1].outcome.as_ref().unwrap().1, Verdict::Unstable); // 150 > P* = 140: stock grows
+}
+
+#[test]
+fn steady_state_matches_the_engines_long_run() {
+    // the regime's predicted steady state against the simulator after many seasons (two code paths
+    // must agree; common practice, no source). Q_d = 200 − P, Q_s = −10 + 0.5 P, P* = 140.
+    let cases = [
+        // store fills, then the full store buys its losses: P = D⁻¹(S(150) − 0.05·100) (announced)
+        ("rule = \"naive\"", "[policy]\nname = \"a\"\n[floor]\nprice = 150.0\n[stock]\ncapacity = 100.0\nloss_rate = 0.05\n"),
+        // target reserve settles and buys its losses
+        (
+            "rule = \"adaptive\"\nweight = 0.5",
+            "[policy]\nname = \"b\"\n[stock]\nbuy_below = 100.0\nsell_above = 200.0\nloss_rate = 0.1\nrelease = \"target\"\ntarget = 20.0\nspeed = 0.5\n",
+        ),
+        // restocking stops at the band's middle 140.5 < 141.2: price pinned at the middle
+        (
+            "rule = \"naive\"",
+            "[policy]\nname = \"b2\"\n[stock]\nbuy_below = 100.0\nsell_above = 181.0\nloss_rate = 0.1\nrelease = \"target\"\ntarget = 20.0\nspeed = 0.5\n",
+        ),
+        // free steady state 140 at the middle of [100, 180]: the reserve cannot restock
+        (
+            "rule = \"naive\"",
+            "[policy]\nname = \"b3\"\n[stock]\nbuy_below = 100.0\nsell_above = 180.0\nloss_rate = 0.1\nrelease = \"target\"\ntarget = 20.0\nspeed = 0.5\n",
+        ),
+        // deficiency payment binding: market price D⁻¹(S(150)) = 135
+        ("rule = \"naive\"", "[policy]\nname = \"c\"\n[floor]\nprice = 150.0\ninstrument = \"deficiency-payment\"\n"),
+        // fixed normal price moves the steady state
+        ("rule = \"normal-price\"\nweight = 0.4\nnormal_price = 120.0", "[policy]\nname = \"d\"\n"),
+    ];
+    for (rule, pol) in cases {
+        let s = linear(200.0, 1.0, -10.0, 0.5, rule);
+        let p = policy(pol);
+        let rep = analyse(&s, &p).unwrap();
+        let recs = furrow::engine::Model::new(&s, &p)
+            .run(600, |_| furrow::engine::PeriodShock::NONE)
+            .unwrap();
+        let last = recs.last().unwrap();
+        assert_relative_eq!(rep.steady_state.price, last.price, max_relative = 1e-9);
+        assert_relative_eq!(rep.producer_price, last.producer_price, max_relative = 1e-9);
+        assert_relative_eq!(rep.steady_state.quantity, last.harvest, max_relative = 1e-9);
+    }
 }

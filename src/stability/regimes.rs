@@ -130,6 +130,60 @@ fn purchase_holds(setup: &Setup, name: &str, edge: f64, unit: &str) -> Vec<Regim
     out
 }
 
+/// The idle regime of a target-release reserve. Restocking purchases never lift the price above the
+/// band's middle M (the engine's rule), so: with the free steady state at or above M the reserve
+/// cannot restock and the market is free; below M it settles at S* = speed·T/(1 − (1 − ℓ)(1 − speed))
+/// and buys its losses ℓ·S* each period (a constant offtake), unless that would lift the price above
+/// M, in which case the price is pinned at M and the reserve settles below its target.
+fn target_regime(
+    setup: &Setup,
+    free_price: f64,
+    buy: f64,
+    sell: f64,
+    target: f64,
+    speed: f64,
+    unit: &str,
+) -> (Clearing, f64, String) {
+    let loss = setup.stock.map_or(0.0, |s| s.loss_rate);
+    let middle = if sell.is_finite() {
+        0.5 * (buy + sell)
+    } else {
+        f64::INFINITY
+    };
+    if !below(free_price, middle) {
+        return (
+            Clearing::Free { offtake: 0.0 },
+            1.0 - loss,
+            format!(
+                "the free steady state is at or above the band's middle {middle:.4}: the reserve \
+                 cannot restock there and the market is free"
+            ),
+        );
+    }
+    let settled = speed * target / (1.0 - (1.0 - loss) * (1.0 - speed));
+    let offtake = loss * settled;
+    let interior = Clearing::Free { offtake };
+    let p = StateMap::new(setup, interior).fixed_point(free_price);
+    match p {
+        Some(p) if p <= middle * (1.0 + 1e-12) => (
+            interior,
+            (1.0 - loss) * (1.0 - speed),
+            format!(
+                "inside the band the stock moves toward its target and settles at {settled:.4}; \
+                 the agency then buys its losses ({offtake:.4} {unit} a period)"
+            ),
+        ),
+        _ => (
+            Clearing::Pinned(middle),
+            1.0 - loss,
+            format!(
+                "restocking purchases stop at the band's middle {middle:.4}: the price is pinned \
+                 there and the reserve settles below its target {target}"
+            ),
+        ),
+    }
+}
+
 /// Lists the regimes of `setup` given the free market's steady producer price `free_price`, the one
 /// holding the steady state first.
 pub fn regimes(setup: &Setup, free_price: f64, unit: &str) -> Vec<RegimeCase> {
@@ -183,7 +237,11 @@ pub fn regimes(setup: &Setup, free_price: f64, unit: &str) -> Vec<RegimeCase> {
             }
         }
     }
-    if let Some(s) = setup.stock {
+    // a [stock] section without band edges and with the band release is only the floor's store
+    let band = setup.stock.filter(|s| {
+        s.buy_below > 0.0 || s.sell_above.is_finite() || s.release != ReleaseSpec::Band
+    });
+    if let Some(s) = band {
         let (buy, sell) = (s.buy_below, s.sell_above);
         let buying = "stock buying at buy_below";
         let selling = "stock selling at sell_above";
@@ -210,16 +268,7 @@ pub fn regimes(setup: &Setup, free_price: f64, unit: &str) -> Vec<RegimeCase> {
                         "inside the band the agency does not trade: the free market".to_string(),
                     ),
                     ReleaseSpec::Target { target, speed } => {
-                        let settled = speed * target / (1.0 - (1.0 - loss) * (1.0 - speed));
-                        let offtake = loss * settled;
-                        (
-                            Clearing::Free { offtake },
-                            (1.0 - loss) * (1.0 - speed),
-                            format!(
-                                "inside the band the stock moves toward its target and settles at \
-                                 {settled:.4}; the agency then buys its losses ({offtake:.4} {unit} a period)"
-                            ),
-                        )
+                        target_regime(setup, free_price, buy, sell, target, speed, unit)
                     }
                     ReleaseSpec::Share { share } => (
                         free,
