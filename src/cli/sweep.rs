@@ -90,6 +90,42 @@ fn render(points: &[Point], keys: &[String], long: Option<LongRunSpec>, format: 
     t.render(format)
 }
 
+/// JSON: `{"keys": [...], "points": [{"values": {KEY: v}, "spectral_radius", "verdict", "message",
+/// "long_run": {"lyapunov", "orbit", "first_period", "prices"}}]}`.
+fn render_json(points: &[Point], keys: &[String], long: Option<LongRunSpec>) -> String {
+    use serde_json::{json, Map, Value};
+    let pts: Vec<Value> = points
+        .iter()
+        .map(|p| {
+            let mut values = Map::new();
+            for (k, v) in keys.iter().zip(&p.values) {
+                values.insert(k.clone(), json!(v));
+            }
+            let (rho, verdict, message) = match &p.outcome {
+                Ok((r, v)) => (json!(r), json!(v.as_str()), Value::Null),
+                Err(m) => (Value::Null, json!("invalid"), json!(m)),
+            };
+            let long_run = match (&p.long_run, long) {
+                (Some(lr), Some(spec)) => json!({
+                    "lyapunov": lr.lyapunov,
+                    "orbit": lr.orbit.as_str(),
+                    "first_period": (!lr.prices.is_empty()).then(|| spec.periods + 1 - lr.prices.len()),
+                    "prices": lr.prices,
+                }),
+                _ => Value::Null,
+            };
+            json!({
+                "values": values,
+                "spectral_radius": rho,
+                "verdict": verdict,
+                "message": message,
+                "long_run": long_run,
+            })
+        })
+        .collect();
+    serde_json::to_string_pretty(&json!({ "keys": keys, "points": pts })).unwrap_or_default() + "\n"
+}
+
 /// Runs `sweep`.
 pub fn execute(args: &SweepArgs) -> anyhow::Result<()> {
     let axes = args
@@ -148,6 +184,10 @@ pub fn execute(args: &SweepArgs) -> anyhow::Result<()> {
         ));
     }
     let keys: Vec<String> = axes.iter().map(|a| a.key.clone()).collect();
-    args.common
-        .emit(&render(&points, &keys, long_run, args.common.format))
+    let text = if args.common.format == Format::Json {
+        render_json(&points, &keys, long_run)
+    } else {
+        render(&points, &keys, long_run, args.common.format)
+    };
+    args.common.emit(&text)
 }

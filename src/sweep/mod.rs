@@ -4,7 +4,8 @@
 //! Grid points are computed in parallel (rayon) and collected in grid order, so the output does not
 //! depend on the number of threads. A grid point whose files do not validate (a value out of range,
 //! curves that no longer cross) is kept as an *invalid* point with the validation message; an
-//! unknown key or a key that cannot take a number fails the whole sweep.
+//! unknown key, a key that cannot take a number, or a key none of whose values validates fails the
+//! whole sweep.
 
 pub mod apply;
 pub mod grid;
@@ -34,12 +35,12 @@ pub enum SweepError {
     #[error("{0}")]
     Usage(String),
     /// The key itself is wrong (unknown, or the file does not take a number there).
-    #[error("--vary {key}: {source}")]
+    #[error("--vary {key}: {problem}")]
     Key {
         /// The varied key.
         key: String,
         /// The validation error.
-        source: InputError,
+        problem: InputError,
     },
 }
 
@@ -98,7 +99,7 @@ pub fn sweep(
     // the base files must be valid themselves
     let (s0, p0) = base.validate(&[]).map_err(|e| SweepError::Key {
         key: axes[0].key.clone(),
-        source: e,
+        problem: e,
     })?;
     let base_parts = apply::Parts::new(&s0, &p0);
     // every value of every axis validated once
@@ -109,13 +110,14 @@ pub fn sweep(
             .par_iter()
             .map(|v| base.validate(&[(axis.key.as_str(), *v)]))
             .collect();
+        let all_bad = validated.iter().all(|r| r.is_err());
         if let Some(Err(e)) = validated
             .iter()
-            .find(|r| matches!(r, Err(e) if is_key_error(e)))
+            .find(|r| all_bad || matches!(r, Err(e) if is_key_error(e)))
         {
             return Err(SweepError::Key {
                 key: axis.key.clone(),
-                source: e.clone(),
+                problem: e.clone(),
             });
         }
         per_axis.push(validated);
