@@ -653,3 +653,32 @@ fn verdicts_on_both_sides_of_the_window_and_normal_price_bounds() {
         assert_eq!(rep.conditions[0].holds, want == Verdict::Stable);
     }
 }
+
+#[test]
+fn lyapunov_on_a_nonlinear_two_cycle_matches_the_chain_rule() {
+    // Constant-elasticity market (demand −0.3, supply 1.5 at P = 100, Q = 50): P = 100 (P^e/100)^−5.
+    // Adaptive λ = 0.35 is unstable at the steady state (b/d = 5 > (2 − λ)/λ ≈ 4.71, Nerlove 1958)
+    // but settles on a 2-cycle of P^e. On a k-cycle the exponent is (1/k) Σ ln|f'(x_i)| (chain rule),
+    // with f(x) = (1 − λ) x + λ h(x), h'(x) = −5 h(x)/x.
+    let text = "[market]\nname = \"ce\"\n[demand]\nform = \"constant-elasticity\"\nat_price = 100.0\n\
+                at_quantity = 50.0\nelasticity = -0.3\n[supply]\nform = \"constant-elasticity\"\n\
+                at_price = 100.0\nat_quantity = 50.0\nelasticity = 1.5\n[expectations]\nrule = \"adaptive\"\n\
+                weight = 0.35\n[run]\ninitial_price = 120.0\n";
+    let s = market_from_table("ce.toml", parse_toml("ce.toml", text).unwrap()).unwrap();
+    let none = PolicySpec::none();
+    assert_eq!(analyse(&s, &none).unwrap().verdict, Verdict::Unstable);
+    let recs = furrow::engine::Model::new(&s, &none)
+        .run(2000, |_| furrow::engine::PeriodShock::NONE)
+        .unwrap();
+    let (a, b) = (recs[1998].expected_price, recs[1999].expected_price);
+    assert!((a - b).abs() > 1.0, "not a 2-cycle: {a} {b}");
+    assert_relative_eq!(recs[1997].expected_price, b, max_relative = 1e-9);
+    let l = 0.35;
+    let h = |x: f64| 100.0 * (x / 100.0_f64).powf(-5.0);
+    let fprime = |x: f64| (1.0 - l) + l * (-5.0 * h(x) / x);
+    let want = 0.5 * (fprime(a).abs().ln() + fprime(b).abs().ln());
+    let (got, orbit) = sweep::longrun::lyapunov(&s, &none, 2000);
+    assert_eq!(orbit, sweep::Orbit::Ok);
+    assert_relative_eq!(got.unwrap(), want, epsilon = 1e-6);
+    assert!(want < 0.0); // the cycle attracts
+}
