@@ -682,3 +682,27 @@ fn lyapunov_on_a_nonlinear_two_cycle_matches_the_chain_rule() {
     assert_relative_eq!(got.unwrap(), want, epsilon = 1e-6);
     assert!(want < 0.0); // the cycle attracts
 }
+
+#[test]
+fn pinned_price_with_three_lags_gives_exact_zeros() {
+    // the nilpotent 3 × 3 case that hangs an unlimited Schur iteration (NOTES.md): a deficiency
+    // payment pins the producer price, so a trailing mean of 3 forgets a deviation in 3 seasons and
+    // every eigenvalue is 0 (a nilpotent shift; linear algebra)
+    let s = linear(
+        200.0,
+        1.0,
+        -10.0,
+        1.5,
+        "rule = \"trailing-mean\"\nwindow = 3",
+    );
+    let p = policy(
+        "[policy]\nname = \"d\"\n[floor]\nprice = 150.0\ninstrument = \"deficiency-payment\"\n",
+    );
+    let rep = analyse(&s, &p).unwrap();
+    let r = &rep.regimes[0];
+    assert_eq!(r.name, "deficiency payment binding");
+    assert_eq!(r.eigenvalues.len(), 3);
+    assert!(r.eigenvalues.iter().all(|e| e.re == 0.0 && e.im == 0.0));
+    assert!(!r.oscillating);
+    assert_eq!(r.half_life, Some(0.0));
+}
