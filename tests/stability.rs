@@ -141,8 +141,8 @@ fn window_rules_match_quadratic() {
 fn mul(a: (f64, f64), b: (f64, f64)) -> (f64, f64) {
     (a.0 * b.0 - a.1 * b.1, a.0 * b.1 + a.1 * b.0)
 }
-/// z³ + c z² + c z + c
 
+/// z³ + c z² + c z + c
 fn poly3(z: (f64, f64), c: f64) -> (f64, f64) {
     let z2 = mul(z, z);
     let z3 = mul(z2, z);
