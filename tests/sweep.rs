@@ -4,10 +4,10 @@
 mod stability_common;
 
 use approx::assert_relative_eq;
-use stability_common::*;
 use furrow::scenario::{market_from_table, parse_toml, PolicySpec};
 use furrow::stability::{analyse, Verdict};
 use furrow::sweep::{self, Base};
+use stability_common::*;
 
 #[test]
 fn period_two_cycle_of_a_constant_elasticity_market() {
@@ -169,4 +169,22 @@ fn lyapunov_on_a_nonlinear_two_cycle_matches_the_chain_rule() {
     assert_eq!(orbit, sweep::Orbit::Ok);
     assert_relative_eq!(got.unwrap(), want, epsilon = 1e-6);
     assert!(want < 0.0); // the cycle attracts
+}
+
+#[test]
+fn a_floor_hit_in_the_transient_does_not_hide_the_exponent() {
+    // Q_d = 200 − P, Q_s = −10 + 0.5 P (P* = 140), naive, P_0 = 180: the first price 200 − 80 = 120
+    // is below the floor 125, which pins it once; afterwards the orbit converges at the rate
+    // b/d = 0.5, so the exponent is ln 0.5 (linear map; Benettin et al. 1980)
+    let text = "[market]\nname = \"f\"\n[demand]\nintercept = 200.0\nslope = -1.0\n[supply]\nintercept = -10.0\n\
+                slope = 0.5\n[run]\ninitial_price = 180.0\n";
+    let s = market_from_table("f.toml", parse_toml("f.toml", text).unwrap()).unwrap();
+    let p = policy("[policy]\nname = \"floor\"\n[floor]\nprice = 125.0\n");
+    let recs = furrow::engine::Model::new(&s, &p)
+        .run(2, |_| furrow::engine::PeriodShock::NONE)
+        .unwrap();
+    assert!(recs[0].purchases > 0.0 && recs[0].price == 125.0);
+    let (l, orbit) = sweep::longrun::lyapunov(&s, &p, 200);
+    assert_eq!(orbit, sweep::Orbit::Ok);
+    assert_relative_eq!(l.unwrap(), 0.5_f64.ln(), epsilon = 1e-6);
 }

@@ -9,7 +9,9 @@
 //! periods, so a 2-cycle is averaged without bias; the error otherwise falls as 1/periods). For a one-dimensional
 //! state (naive, adaptive, fixed normal price) this is the mean of ln|f′(x_t)| along the orbit. The
 //! tangent space is the rule's price/expectation state; the agency's stock is taken along the orbit
-//! as given (it does not feed back on prices inside a regime).
+//! as given (it does not feed back on prices inside a regime). A season with a pinned price in the
+//! first half (a floor that binds once in the transient) restarts the tangent vector; one in the
+//! second half makes the exponent −∞ ("superstable", no number).
 
 use crate::engine::{Model, PeriodShock};
 use crate::expectations::ExpectationInput;
@@ -146,13 +148,18 @@ pub fn lyapunov(scenario: &Scenario, policy: &PolicySpec, periods: usize) -> (Op
             return (None, Orbit::Diverged);
         }
         if norm < 1e-300 {
-            return (None, Orbit::Superstable);
-        }
-        if t >= start {
-            sum += norm.ln();
-        }
-        for i in 0..n {
-            v[i] = w[i] / norm;
+            if t >= start {
+                return (None, Orbit::Superstable);
+            }
+            // a pinned season in the transient: start the tangent vector afresh
+            v.iter_mut().for_each(|x| *x = 1.0 / (n as f64).sqrt());
+        } else {
+            if t >= start {
+                sum += norm.ln();
+            }
+            for i in 0..n {
+                v[i] = w[i] / norm;
+            }
         }
         stock = map.step(&x, stock, &mut next);
         if !next
