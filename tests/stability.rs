@@ -4,9 +4,9 @@
 mod stability_common;
 
 use approx::assert_relative_eq;
-use stability_common::*;
 use furrow::scenario::PolicySpec;
 use furrow::stability::{analyse, Clearing, Eigenvalue, Setup, StateMap, Verdict};
+use stability_common::*;
 
 // b = 0.5, d = 1 → b/d = 0.5 unless stated
 

@@ -4,9 +4,9 @@
 mod stability_common;
 
 use approx::assert_relative_eq;
-use stability_common::*;
 use furrow::scenario::PolicySpec;
 use furrow::stability::{analyse, Eigenvalue, Verdict};
+use stability_common::*;
 
 #[test]
 fn rational_reports_zero_without_hanging() {
