@@ -8,3 +8,5 @@ pub mod policies;
 pub mod scenario;
 pub mod stability;
 pub mod stochastic;
+pub mod welfare;
+pub mod compare;

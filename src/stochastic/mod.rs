@@ -7,3 +7,11 @@
 mod shocks;
 
 pub use shocks::{ShockStream, single_path_shocks};
+pub mod montecarlo;
+pub mod stats;
+
+pub use montecarlo::{
+    run_monte_carlo, MonteCarlo, NoProgress, PolicyRuns, Pooled, Progress, ReplicationFailed,
+    ReplicationSummary, Series, SeriesSummary,
+};
+pub use stats::{quantiles, ShiftedSums, Summary};
