@@ -180,7 +180,7 @@ pub fn risk_premium(mean: f64, sd: f64, relative_risk_aversion: f64) -> f64 {
 /// of positive revenues, for checking the approximation (Pratt 1964). Returns `None` for an empty or
 /// non-positive sample.
 pub fn crra_certainty_equivalent(revenues: &[f64], relative_risk_aversion: f64) -> Option<f64> {
-    if revenues.is_empty() || revenues.iter().any(|y| !(*y > 0.0)) {
+    if revenues.is_empty() || revenues.iter().any(|y| y.is_nan() || *y <= 0.0) {
         return None;
     }
     let n = revenues.len() as f64;

@@ -41,7 +41,8 @@ pub fn execute(args: &CompareArgs) -> anyhow::Result<()> {
     if args.common.plots.is_some() {
         say("compare --plots: plots are drawn by the report module, which is not built yet; no plots written");
     }
-    args.common.emit(&render::render(&result, args.common.format))
+    args.common
+        .emit(&render::render(&result, args.common.format))
 }
 
 /// A progress bar on stderr for long Monte Carlo runs when stderr is a terminal; silent otherwise.
@@ -79,7 +80,9 @@ const LONG_RUN_STEPS: usize = 20_000_000;
 /// A bar for `models` models of `scenario`'s replications and periods.
 pub(super) fn progress_for(scenario: &Scenario, models: usize) -> Bar {
     let reps = scenario.run.replications;
-    let steps = reps.saturating_mul(scenario.run.periods).saturating_mul(models);
+    let steps = reps
+        .saturating_mul(scenario.run.periods)
+        .saturating_mul(models);
     if steps < LONG_RUN_STEPS || !std::io::stderr().is_terminal() {
         return Bar(None);
     }

@@ -9,7 +9,12 @@ use super::common::say;
 use super::compare::progress_for;
 use super::run::RunArgs;
 
-const SERIES: [Series; 4] = [Series::Price, Series::ProducerPrice, Series::Harvest, Series::Stock];
+const SERIES: [Series; 4] = [
+    Series::Price,
+    Series::ProducerPrice,
+    Series::Harvest,
+    Series::Stock,
+];
 
 /// Columns shown by the terminal table (every column goes to CSV, Markdown and JSON).
 const TABLE_COLUMNS: &[&str] = &[
@@ -29,7 +34,12 @@ const TABLE_COLUMNS: &[&str] = &[
 /// Runs the Monte Carlo summary of `run`.
 pub fn execute(args: &RunArgs, scenario: &Scenario, policy: &PolicySpec) -> anyhow::Result<()> {
     let bar = progress_for(scenario, 1);
-    let mc = run_monte_carlo(scenario, std::slice::from_ref(policy), &SERIES, bar.observer());
+    let mc = run_monte_carlo(
+        scenario,
+        std::slice::from_ref(policy),
+        &SERIES,
+        bar.observer(),
+    );
     bar.finish();
     let mc = mc?;
     say(&format!(
@@ -55,7 +65,13 @@ pub fn execute(args: &RunArgs, scenario: &Scenario, policy: &PolicySpec) -> anyh
     } else {
         (0..columns.len()).collect()
     };
-    let f = |x: f64| if format == Format::Csv { fmt_full(x) } else { fmt_num(x, 3) };
+    let f = |x: f64| {
+        if format == Format::Csv {
+            fmt_full(x)
+        } else {
+            fmt_num(x, 3)
+        }
+    };
     let headers: Vec<&String> = shown.iter().map(|&i| &columns[i]).collect();
     let mut table = TextTable::new(&headers);
     for t in 0..mc.periods {

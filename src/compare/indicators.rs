@@ -31,12 +31,28 @@ const SPECS: &[(&str, &str, Kind)] = &[
     ("price_sd", "Price standard deviation", Kind::Price),
     ("price_cv", "Price coefficient of variation", Kind::Share),
     ("mean_producer_price", "Mean producer price", Kind::Price),
-    ("producer_price_sd", "Producer price standard deviation", Kind::Price),
+    (
+        "producer_price_sd",
+        "Producer price standard deviation",
+        Kind::Price,
+    ),
     ("mean_harvest", "Mean harvest", Kind::Quantity),
     ("harvest_sd", "Harvest standard deviation", Kind::Quantity),
-    ("floor_binding_share", "Share of periods the floor or band bought", Kind::Share),
-    ("stockout_share", "Share of periods with a stock-out", Kind::Share),
-    ("final_stock", "Agency stock at the end (mean)", Kind::Quantity),
+    (
+        "floor_binding_share",
+        "Share of periods the floor or band bought",
+        Kind::Share,
+    ),
+    (
+        "stockout_share",
+        "Share of periods with a stock-out",
+        Kind::Share,
+    ),
+    (
+        "final_stock",
+        "Agency stock at the end (mean)",
+        Kind::Quantity,
+    ),
     ("fiscal_cost_pv", "Fiscal cost, PV", Kind::Money),
     ("fiscal_cost_pv_p05", "Fiscal cost, PV, 5 %", Kind::Money),
     ("fiscal_cost_pv_p50", "Fiscal cost, PV, median", Kind::Money),
@@ -46,26 +62,106 @@ const SPECS: &[(&str, &str, Kind)] = &[
     ("storage_cost_pv", "  of which storage, PV", Kind::Money),
     ("financing_cost_pv", "  of which financing, PV", Kind::Money),
     ("handling_cost_pv", "  of which handling, PV", Kind::Money),
-    ("deficiency_payments_pv", "  of which deficiency payments, PV", Kind::Money),
-    ("terminal_stock_value_pv", "Value of the stock left at the end, PV", Kind::Money),
-    ("consumer_surplus_change_pv", "Consumer surplus change, PV", Kind::Money),
-    ("consumer_surplus_change_pv_p05", "Consumer surplus change, PV, 5 %", Kind::Money),
-    ("consumer_surplus_change_pv_p50", "Consumer surplus change, PV, median", Kind::Money),
-    ("consumer_surplus_change_pv_p95", "Consumer surplus change, PV, 95 %", Kind::Money),
-    ("producer_surplus_change_pv", "Producer surplus change, PV", Kind::Money),
-    ("producer_surplus_change_pv_p05", "Producer surplus change, PV, 5 %", Kind::Money),
-    ("producer_surplus_change_pv_p50", "Producer surplus change, PV, median", Kind::Money),
-    ("producer_surplus_change_pv_p95", "Producer surplus change, PV, 95 %", Kind::Money),
-    ("net_welfare_change_pv", "Net welfare change, PV", Kind::Money),
-    ("net_welfare_change_pv_p05", "Net welfare change, PV, 5 %", Kind::Money),
-    ("net_welfare_change_pv_p50", "Net welfare change, PV, median", Kind::Money),
-    ("net_welfare_change_pv_p95", "Net welfare change, PV, 95 %", Kind::Money),
-    ("producer_revenue_mean", "Producer revenue per period (mean)", Kind::Money),
-    ("producer_revenue_sd", "Producer revenue standard deviation", Kind::Money),
-    ("producer_revenue_cv", "Producer revenue coefficient of variation", Kind::Share),
-    ("revenue_risk_premium", "Producers' risk premium per period", Kind::Money),
-    ("revenue_risk_premium_change", "Risk premium change per period", Kind::Money),
-    ("spectral_radius", "Spectral radius (linearised)", Kind::Number),
+    (
+        "deficiency_payments_pv",
+        "  of which deficiency payments, PV",
+        Kind::Money,
+    ),
+    (
+        "terminal_stock_value_pv",
+        "Value of the stock left at the end, PV",
+        Kind::Money,
+    ),
+    (
+        "consumer_surplus_change_pv",
+        "Consumer surplus change, PV",
+        Kind::Money,
+    ),
+    (
+        "consumer_surplus_change_pv_p05",
+        "Consumer surplus change, PV, 5 %",
+        Kind::Money,
+    ),
+    (
+        "consumer_surplus_change_pv_p50",
+        "Consumer surplus change, PV, median",
+        Kind::Money,
+    ),
+    (
+        "consumer_surplus_change_pv_p95",
+        "Consumer surplus change, PV, 95 %",
+        Kind::Money,
+    ),
+    (
+        "producer_surplus_change_pv",
+        "Producer surplus change, PV",
+        Kind::Money,
+    ),
+    (
+        "producer_surplus_change_pv_p05",
+        "Producer surplus change, PV, 5 %",
+        Kind::Money,
+    ),
+    (
+        "producer_surplus_change_pv_p50",
+        "Producer surplus change, PV, median",
+        Kind::Money,
+    ),
+    (
+        "producer_surplus_change_pv_p95",
+        "Producer surplus change, PV, 95 %",
+        Kind::Money,
+    ),
+    (
+        "net_welfare_change_pv",
+        "Net welfare change, PV",
+        Kind::Money,
+    ),
+    (
+        "net_welfare_change_pv_p05",
+        "Net welfare change, PV, 5 %",
+        Kind::Money,
+    ),
+    (
+        "net_welfare_change_pv_p50",
+        "Net welfare change, PV, median",
+        Kind::Money,
+    ),
+    (
+        "net_welfare_change_pv_p95",
+        "Net welfare change, PV, 95 %",
+        Kind::Money,
+    ),
+    (
+        "producer_revenue_mean",
+        "Producer revenue per period (mean)",
+        Kind::Money,
+    ),
+    (
+        "producer_revenue_sd",
+        "Producer revenue standard deviation",
+        Kind::Money,
+    ),
+    (
+        "producer_revenue_cv",
+        "Producer revenue coefficient of variation",
+        Kind::Share,
+    ),
+    (
+        "revenue_risk_premium",
+        "Producers' risk premium per period",
+        Kind::Money,
+    ),
+    (
+        "revenue_risk_premium_change",
+        "Risk premium change per period",
+        Kind::Money,
+    ),
+    (
+        "spectral_radius",
+        "Spectral radius (linearised)",
+        Kind::Number,
+    ),
     ("verdict", "Stability verdict", Kind::Text),
 ];
 
@@ -98,17 +194,34 @@ pub(super) fn build(
     out.num("producer_price_sd", pooled.producer_price.sd());
     out.num("mean_harvest", pooled.harvest.mean());
     out.num("harvest_sd", pooled.harvest.sd());
-    let binding: u64 = runs.replications.iter().map(|r| u64::from(r.floor_binding_periods)).sum();
-    let stockout: u64 = runs.replications.iter().map(|r| u64::from(r.stockout_periods)).sum();
+    let binding: u64 = runs
+        .replications
+        .iter()
+        .map(|r| u64::from(r.floor_binding_periods))
+        .sum();
+    let stockout: u64 = runs
+        .replications
+        .iter()
+        .map(|r| u64::from(r.stockout_periods))
+        .sum();
     out.num("floor_binding_share", binding as f64 / cells);
     out.num("stockout_share", stockout as f64 / cells);
     out.num(
         "final_stock",
         runs.replications.iter().map(|r| r.final_stock).sum::<f64>() / reps as f64,
     );
-    let fiscal: Vec<f64> = runs.replications.iter().map(|r| r.welfare.fiscal_cost).collect();
+    let fiscal: Vec<f64> = runs
+        .replications
+        .iter()
+        .map(|r| r.welfare.fiscal_cost)
+        .collect();
     out.with_quantiles(
-        ["fiscal_cost_pv", "fiscal_cost_pv_p05", "fiscal_cost_pv_p50", "fiscal_cost_pv_p95"],
+        [
+            "fiscal_cost_pv",
+            "fiscal_cost_pv_p05",
+            "fiscal_cost_pv_p50",
+            "fiscal_cost_pv_p95",
+        ],
         fiscal,
     );
     out.num("purchase_cost_pv", mean_of(&|w| w.purchase_cost));
@@ -116,19 +229,40 @@ pub(super) fn build(
     out.num("storage_cost_pv", mean_of(&|w| w.storage_cost));
     out.num("financing_cost_pv", mean_of(&|w| w.financing_cost));
     out.num("handling_cost_pv", mean_of(&|w| w.handling_cost));
-    out.num("deficiency_payments_pv", mean_of(&|w| w.deficiency_payments));
-    out.num("terminal_stock_value_pv", mean_of(&|w| w.terminal_stock_value));
+    out.num(
+        "deficiency_payments_pv",
+        mean_of(&|w| w.deficiency_payments),
+    );
+    out.num(
+        "terminal_stock_value_pv",
+        mean_of(&|w| w.terminal_stock_value),
+    );
     for (stem, f) in [
         (
-            ["consumer_surplus_change_pv", "consumer_surplus_change_pv_p05", "consumer_surplus_change_pv_p50", "consumer_surplus_change_pv_p95"],
+            [
+                "consumer_surplus_change_pv",
+                "consumer_surplus_change_pv_p05",
+                "consumer_surplus_change_pv_p50",
+                "consumer_surplus_change_pv_p95",
+            ],
             (|w: &WelfarePv| w.consumer_surplus) as fn(&WelfarePv) -> f64,
         ),
         (
-            ["producer_surplus_change_pv", "producer_surplus_change_pv_p05", "producer_surplus_change_pv_p50", "producer_surplus_change_pv_p95"],
+            [
+                "producer_surplus_change_pv",
+                "producer_surplus_change_pv_p05",
+                "producer_surplus_change_pv_p50",
+                "producer_surplus_change_pv_p95",
+            ],
             |w: &WelfarePv| w.producer_surplus,
         ),
         (
-            ["net_welfare_change_pv", "net_welfare_change_pv_p05", "net_welfare_change_pv_p50", "net_welfare_change_pv_p95"],
+            [
+                "net_welfare_change_pv",
+                "net_welfare_change_pv_p05",
+                "net_welfare_change_pv_p50",
+                "net_welfare_change_pv_p95",
+            ],
             |w: &WelfarePv| w.net(),
         ),
     ] {
@@ -146,7 +280,8 @@ pub(super) fn build(
     match crate::stability::analyse(scenario, spec) {
         Ok(report) => {
             out.num("spectral_radius", report.spectral_radius);
-            out.0.push(("verdict", Value::Text(report.verdict.as_str().into())));
+            out.0
+                .push(("verdict", Value::Text(report.verdict.as_str().into())));
         }
         Err(_) => {
             out.0.push(("spectral_radius", Value::Missing));

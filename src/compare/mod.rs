@@ -97,7 +97,10 @@ pub struct PolicyComparison {
 impl PolicyComparison {
     /// The value of indicator `key`, if there is one.
     pub fn get(&self, key: &str) -> Option<&Value> {
-        self.indicators.iter().find(|i| i.key == key).map(|i| &i.value)
+        self.indicators
+            .iter()
+            .find(|i| i.key == key)
+            .map(|i| &i.value)
     }
 
     /// The numeric value of indicator `key`, if it is a number.

@@ -17,7 +17,11 @@ pub fn render(result: &CompareResult, format: Format) -> String {
     match format {
         Format::Json => json(result),
         Format::Csv => csv(result).render(Format::Csv),
-        Format::Table => format!("{}\n{}", caption(result), briefing(result).render(Format::Table)),
+        Format::Table => format!(
+            "{}\n{}",
+            caption(result),
+            briefing(result).render(Format::Table)
+        ),
         Format::Markdown => format!(
             "{}\n\n{}\n{}\n",
             caption(result),
@@ -33,7 +37,12 @@ pub fn json(result: &CompareResult) -> String {
         let indicators: serde_json::Map<String, serde_json::Value> = p
             .indicators
             .iter()
-            .map(|i| (i.key.to_string(), serde_json::to_value(&i.value).unwrap_or_default()))
+            .map(|i| {
+                (
+                    i.key.to_string(),
+                    serde_json::to_value(&i.value).unwrap_or_default(),
+                )
+            })
             .collect();
         serde_json::json!({"name": p.name, "file": p.file, "indicators": indicators})
     };
@@ -60,11 +69,16 @@ pub fn csv(result: &CompareResult) -> TextTable {
     };
     for (row, ind) in first.indicators.iter().enumerate() {
         let mut cells = vec![ind.key.to_string()];
-        cells.extend(result.policies.iter().map(|p| match &p.indicators[row].value {
-            Value::Number(x) => fmt_full(*x),
-            Value::Text(s) => s.clone(),
-            Value::Missing => String::new(),
-        }));
+        cells.extend(
+            result
+                .policies
+                .iter()
+                .map(|p| match &p.indicators[row].value {
+                    Value::Number(x) => fmt_full(*x),
+                    Value::Text(s) => s.clone(),
+                    Value::Missing => String::new(),
+                }),
+        );
         t.push(cells);
     }
     t
@@ -96,7 +110,11 @@ pub fn briefing(result: &CompareResult) -> TextTable {
             Kind::Number | Kind::Text => String::new(),
         };
         let mut cells = vec![ind.label.to_string(), unit];
-        cells.extend(columns.iter().map(|p| cell(&p.indicators[row].value, ind.kind)));
+        cells.extend(
+            columns
+                .iter()
+                .map(|p| cell(&p.indicators[row].value, ind.kind)),
+        );
         t.push(cells);
         let (lo, hi) = (format!("{}_p05", ind.key), format!("{}_p95", ind.key));
         if first.get(&lo).is_some() {

@@ -229,7 +229,16 @@ pub fn run_monte_carlo(
         }
     }
     let policies = (0..models.len())
-        .map(|k| assemble(&models[k].policy.name, k, &chunk_results, series, periods, reps))
+        .map(|k| {
+            assemble(
+                &models[k].policy.name,
+                k,
+                &chunk_results,
+                series,
+                periods,
+                reps,
+            )
+        })
         .collect();
     Ok(MonteCarlo {
         replications: reps,

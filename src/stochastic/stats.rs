@@ -62,7 +62,9 @@ impl ShiftedSums {
             return 0.0;
         }
         let n = self.count as f64;
-        ((self.sum_sq - self.sum * self.sum / n) / (n - 1.0)).max(0.0).sqrt()
+        ((self.sum_sq - self.sum * self.sum / n) / (n - 1.0))
+            .max(0.0)
+            .sqrt()
     }
 }
 
