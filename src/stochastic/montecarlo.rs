@@ -178,7 +178,7 @@ struct ChunkPolicy {
     reps: Vec<ReplicationSummary>,
     pooled: Pooled,
     fiscal: Vec<f64>,
-    /// kept series, each rep-major: [rep][t]
+    /// kept series, each period-major: [t][rep in chunk], so a period's values are contiguous
     series: Vec<Vec<f64>>,
 }
 
@@ -268,11 +268,7 @@ impl Context<'_> {
                 reps: Vec::with_capacity(n),
                 pooled: Pooled::new(s.steady.price, s.steady.quantity),
                 fiscal: vec![0.0; periods],
-                series: self
-                    .series
-                    .iter()
-                    .map(|_| Vec::with_capacity(n * periods))
-                    .collect(),
+                series: self.series.iter().map(|_| vec![0.0; n * periods]).collect(),
             })
             .collect();
         let mut shocks = vec![PeriodShock::NONE; periods];
@@ -286,7 +282,7 @@ impl Context<'_> {
             }
             for (k, model) in self.models.iter().enumerate() {
                 let summary = self
-                    .replicate(model, &shocks, &mut out[k])
+                    .replicate(model, &shocks, rep - from, n, &mut out[k])
                     .map_err(|source| ReplicationFailed {
                         policy: model.policy.name.clone(),
                         policy_index: k,
@@ -304,11 +300,14 @@ impl Context<'_> {
         Ok(out)
     }
 
-    /// One replication of one model, folded into `acc`; returns the replication's summary.
+    /// One replication (number `slot` of the chunk's `n`) of one model, folded into `acc`; returns
+    /// the replication's summary.
     fn replicate(
         &self,
         model: &Model,
         shocks: &[PeriodShock],
+        slot: usize,
+        n: usize,
         acc: &mut ChunkPolicy,
     ) -> Result<ReplicationSummary, Diverged> {
         let mut sim = model.simulator();
@@ -324,7 +323,7 @@ impl Context<'_> {
             stockout += u32::from(r.stockout);
             last_stock = r.stock;
             for (j, which) in self.series.iter().enumerate() {
-                acc.series[j].push(which.of(&r));
+                acc.series[j][t * n + slot] = which.of(&r);
             }
         }
         acc.pooled.merge(&pooled);
@@ -376,7 +375,8 @@ fn assemble(
                         column.clear();
                         for c in chunks {
                             let block = &c[k].series[j];
-                            column.extend(block.iter().skip(t).step_by(periods));
+                            let n = block.len() / periods.max(1);
+                            column.extend_from_slice(&block[t * n..(t + 1) * n]);
                         }
                         Summary::of(column)
                     },
