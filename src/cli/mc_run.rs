@@ -65,6 +65,11 @@ pub fn execute(args: &RunArgs, scenario: &Scenario, policy: &PolicySpec) -> anyh
     } else {
         (0..columns.len()).collect()
     };
+    if format == Format::Json {
+        return args
+            .common
+            .emit(&json(&mc.policies[0], &columns, mc.periods));
+    }
     let f = |x: f64| {
         if format == Format::Csv {
             fmt_full(x)
@@ -83,4 +88,30 @@ pub fn execute(args: &RunArgs, scenario: &Scenario, policy: &PolicySpec) -> anyh
         table.push(shown.iter().map(|&i| row[i].clone()).collect());
     }
     args.common.emit(&table.render(format))
+}
+
+/// One object per period: `period` as an integer, the statistics as numbers (null if not finite).
+fn json(runs: &furrow::stochastic::PolicyRuns, columns: &[String], periods: usize) -> String {
+    let rows: Vec<serde_json::Map<String, serde_json::Value>> = (0..periods)
+        .map(|t| {
+            let mut row = serde_json::Map::new();
+            row.insert("period".into(), serde_json::json!(t + 1));
+            let mut names = columns.iter().skip(1);
+            for s in &runs.series {
+                let q = s.periods[t];
+                for x in [q.mean, q.p05, q.p50, q.p95] {
+                    let v = if x.is_finite() {
+                        serde_json::json!(x)
+                    } else {
+                        serde_json::Value::Null
+                    };
+                    if let Some(name) = names.next() {
+                        row.insert(name.clone(), v);
+                    }
+                }
+            }
+            row
+        })
+        .collect();
+    serde_json::to_string_pretty(&rows).unwrap_or_default() + "\n"
 }
