@@ -5,7 +5,9 @@
 //! ([`CHUNK`]) that run in parallel (rayon); each chunk folds its periods in order into
 //! per-replication summaries and sums, the chunks are collected in order and reduced sequentially, so
 //! every figure is bit-identical whatever the number of threads. Nothing per period is kept except the
-//! series asked for (period values across replications, needed for fan-chart quantiles).
+//! series asked for (period values across replications, needed for fan-chart quantiles), and those only
+//! for the first replications that fit in [`SERIES_BUDGET_BYTES`]: per-period quantiles of very large runs
+//! come from that leading subset, per-period means and every other figure from all replications.
 
 use std::sync::atomic::{AtomicUsize, Ordering};
 
@@ -20,6 +22,9 @@ use crate::welfare::{producer_revenue, Discount, WelfareFold, WelfarePv};
 
 /// Replications per parallel work item (fixed, so the order of float sums never depends on threads).
 pub const CHUNK: usize = 64;
+
+/// Memory allowed for the per-period values kept for quantiles (all policies and series together).
+pub const SERIES_BUDGET_BYTES: usize = 128 << 20;
 
 /// A per-period series that can be kept for quantiles.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
@@ -126,6 +131,9 @@ impl Pooled {
 pub struct SeriesSummary {
     /// Which series.
     pub series: Series,
+    /// Replications the quantiles come from (the first ones; all of them unless the run is very large).
+    /// Means always use every replication.
+    pub quantile_replications: usize,
     /// Period t = 1..T at index t − 1.
     pub periods: Vec<Summary>,
 }
@@ -179,7 +187,10 @@ struct ChunkPolicy {
     pooled: Pooled,
     fiscal: Vec<f64>,
     /// kept series, each period-major: [t][rep in chunk], so a period's values are contiguous
+    /// (empty when this chunk lies beyond the series budget)
     series: Vec<Vec<f64>>,
+    /// per-period sums of each kept series over the chunk's replications: [series][t]
+    series_sums: Vec<Vec<f64>>,
 }
 
 type ChunkOutcome = Result<Vec<ChunkPolicy>, ReplicationFailed>;
@@ -199,7 +210,10 @@ pub fn run_monte_carlo(
     let discount = Discount::new(scenario.run.discount_rate, periods);
     let chunks = reps.div_ceil(CHUNK);
     let first_failure = AtomicUsize::new(usize::MAX);
+    let per_replication = (periods * series.len() * models.len() * 8).max(1);
+    let series_reps = (SERIES_BUDGET_BYTES / per_replication).div_ceil(CHUNK) * CHUNK;
     let ctx = Context {
+        series_reps,
         scenario,
         models: &models,
         discount: &discount,
@@ -252,6 +266,7 @@ struct Context<'a> {
     models: &'a [Model],
     discount: &'a Discount,
     series: &'a [Series],
+    series_reps: usize,
     first_failure: &'a AtomicUsize,
     progress: &'a dyn Progress,
 }
@@ -268,7 +283,18 @@ impl Context<'_> {
                 reps: Vec::with_capacity(n),
                 pooled: Pooled::new(s.steady.price, s.steady.quantity),
                 fiscal: vec![0.0; periods],
-                series: self.series.iter().map(|_| vec![0.0; n * periods]).collect(),
+                series: self
+                    .series
+                    .iter()
+                    .map(|_| {
+                        if from < self.series_reps {
+                            vec![0.0; n * periods]
+                        } else {
+                            Vec::new()
+                        }
+                    })
+                    .collect(),
+                series_sums: self.series.iter().map(|_| vec![0.0; periods]).collect(),
             })
             .collect();
         let mut shocks = vec![PeriodShock::NONE; periods];
@@ -323,7 +349,11 @@ impl Context<'_> {
             stockout += u32::from(r.stockout);
             last_stock = r.stock;
             for (j, which) in self.series.iter().enumerate() {
-                acc.series[j][t * n + slot] = which.of(&r);
+                let x = which.of(&r);
+                acc.series_sums[j][t] += x;
+                if let Some(cell) = acc.series[j].get_mut(t * n + slot) {
+                    *cell = x;
+                }
             }
         }
         acc.pooled.merge(&pooled);
@@ -365,12 +395,19 @@ fn assemble(
     let summaries = series
         .iter()
         .enumerate()
-        .map(|(j, which)| SeriesSummary {
-            series: *which,
-            periods: (0..periods)
+        .map(|(j, which)| {
+            let mut sums = vec![0.0; periods];
+            let mut kept = 0;
+            for c in chunks {
+                for (a, b) in sums.iter_mut().zip(&c[k].series_sums[j]) {
+                    *a += b;
+                }
+                kept += c[k].series[j].len() / periods.max(1);
+            }
+            let summaries = (0..periods)
                 .into_par_iter()
                 .map_init(
-                    || Vec::with_capacity(reps),
+                    || Vec::with_capacity(kept),
                     |column, t| {
                         column.clear();
                         for c in chunks {
@@ -378,10 +415,18 @@ fn assemble(
                             let n = block.len() / periods.max(1);
                             column.extend_from_slice(&block[t * n..(t + 1) * n]);
                         }
-                        Summary::of(column)
+                        Summary {
+                            mean: sums[t] / reps as f64,
+                            ..Summary::of(column)
+                        }
                     },
                 )
-                .collect(),
+                .collect();
+            SeriesSummary {
+                series: *which,
+                quantile_replications: kept,
+                periods: summaries,
+            }
         })
         .collect();
     PolicyRuns {
