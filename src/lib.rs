@@ -9,5 +9,6 @@ pub mod policies;
 pub mod scenario;
 pub mod stability;
 pub mod stochastic;
+pub mod sweep;
 pub mod welfare;
 pub mod compare;
