@@ -40,7 +40,7 @@ const SPECS: &[(&str, &str, Kind)] = &[
     ("harvest_sd", "Harvest standard deviation", Kind::Quantity),
     (
         "floor_binding_share",
-        "Share of periods the floor or band bought",
+        "Share of periods the agency bought or paid",
         Kind::Share,
     ),
     (
@@ -57,14 +57,26 @@ const SPECS: &[(&str, &str, Kind)] = &[
     ("fiscal_cost_pv_p05", "Fiscal cost, PV, 5 %", Kind::Money),
     ("fiscal_cost_pv_p50", "Fiscal cost, PV, median", Kind::Money),
     ("fiscal_cost_pv_p95", "Fiscal cost, PV, 95 %", Kind::Money),
-    ("purchase_cost_pv", "  of which purchases, PV", Kind::Money),
-    ("sales_revenue_pv", "  less sales receipts, PV", Kind::Money),
-    ("storage_cost_pv", "  of which storage, PV", Kind::Money),
-    ("financing_cost_pv", "  of which financing, PV", Kind::Money),
-    ("handling_cost_pv", "  of which handling, PV", Kind::Money),
+    (
+        "purchase_cost_pv",
+        "Fiscal cost: purchases, PV",
+        Kind::Money,
+    ),
+    (
+        "sales_revenue_pv",
+        "Fiscal cost: less sales receipts, PV",
+        Kind::Money,
+    ),
+    ("storage_cost_pv", "Fiscal cost: storage, PV", Kind::Money),
+    (
+        "financing_cost_pv",
+        "Fiscal cost: financing, PV",
+        Kind::Money,
+    ),
+    ("handling_cost_pv", "Fiscal cost: handling, PV", Kind::Money),
     (
         "deficiency_payments_pv",
-        "  of which deficiency payments, PV",
+        "Fiscal cost: deficiency payments, PV",
         Kind::Money,
     ),
     (
