@@ -204,6 +204,16 @@ pub fn run_monte_carlo(
     series: &[Series],
     progress: &dyn Progress,
 ) -> Result<MonteCarlo, ReplicationFailed> {
+    run_with_budget(scenario, policies, series, progress, SERIES_BUDGET_BYTES)
+}
+
+fn run_with_budget(
+    scenario: &Scenario,
+    policies: &[PolicySpec],
+    series: &[Series],
+    progress: &dyn Progress,
+    budget: usize,
+) -> Result<MonteCarlo, ReplicationFailed> {
     let reps = scenario.run.replications.max(1);
     let periods = scenario.run.periods;
     let models: Vec<Model> = policies.iter().map(|p| Model::new(scenario, p)).collect();
@@ -211,7 +221,8 @@ pub fn run_monte_carlo(
     let chunks = reps.div_ceil(CHUNK);
     let first_failure = AtomicUsize::new(usize::MAX);
     let per_replication = (periods * series.len() * models.len() * 8).max(1);
-    let series_reps = (SERIES_BUDGET_BYTES / per_replication).div_ceil(CHUNK) * CHUNK;
+    // at least one chunk, so quantiles always exist
+    let series_reps = (budget / per_replication).max(1).div_ceil(CHUNK) * CHUNK;
     let ctx = Context {
         series_reps,
         scenario,
@@ -435,5 +446,44 @@ fn assemble(
         pooled: pooled.unwrap_or_default(),
         mean_fiscal_cost: fiscal,
         series: summaries,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::scenario::{market_from_table, parse_toml};
+
+    fn scenario(reps: usize) -> Scenario {
+        let text = format!(
+            "[market]\nname = \"T\"\nquantity_unit = \"kt\"\nprice_unit = \"per t\"\n\
+             [demand]\nintercept = 200.0\nslope = -2.0\n[supply]\nintercept = -40.0\nslope = 1.0\n\
+             [expectations]\nrule = \"naive\"\n[run]\nperiods = 10\ninitial_price = 85.0\n\
+             replications = {reps}\nseed = 9\n[shocks]\nsupply_sd = 2.0\n"
+        );
+        market_from_table("t.toml", parse_toml("t.toml", &text).unwrap()).unwrap()
+    }
+
+    #[test]
+    fn over_budget_quantiles_come_from_the_leading_replications_and_means_from_all() {
+        let none = [PolicySpec::none()];
+        let series = [Series::Price];
+        // a budget of one replication rounds up to one chunk of CHUNK replications
+        let capped = run_with_budget(&scenario(200), &none, &series, &NoProgress, 1).unwrap();
+        let full = run_monte_carlo(&scenario(200), &none, &series, &NoProgress).unwrap();
+        let leading = run_monte_carlo(&scenario(CHUNK), &none, &series, &NoProgress).unwrap();
+        let (c, f, l) = (
+            &capped.policies[0].series[0],
+            &full.policies[0].series[0],
+            &leading.policies[0].series[0],
+        );
+        assert_eq!(c.quantile_replications, CHUNK);
+        assert_eq!(f.quantile_replications, 200);
+        for t in 0..10 {
+            assert_eq!(c.periods[t].mean, f.periods[t].mean);
+            assert_eq!(c.periods[t].p05, l.periods[t].p05);
+            assert_eq!(c.periods[t].p95, l.periods[t].p95);
+        }
+        assert_eq!(capped.policies[0].pooled, full.policies[0].pooled);
     }
 }
