@@ -10,3 +10,5 @@ pub mod scenario;
 pub mod stability;
 pub mod stochastic;
 pub mod sweep;
+pub mod welfare;
+pub mod compare;
