@@ -4,6 +4,7 @@ pub mod engine;
 pub mod expectations;
 pub mod numeric;
 pub mod output;
+pub mod plots;
 pub mod policies;
 pub mod scenario;
 pub mod stability;

@@ -1,0 +1,191 @@
+//! The furrow look: one palette, one font, one way of laying out a figure (title block, chart, legend
+//! strip), and the small helpers every plot shares (axis ranges, number labels).
+//!
+//! The palette is our own: muted field-and-soil colours on a warm paper background, chosen so that
+//! neighbouring series differ in lightness as well as hue (they stay apart when printed in grey).
+
+use std::sync::Once;
+
+use plotters::prelude::*;
+pub use plotters::style::RGBColor;
+use plotters::style::{FontStyle, TextStyle};
+
+/// Background of every figure (warm paper).
+pub const PAPER: RGBColor = RGBColor(0xFB, 0xF8, 0xF1);
+/// Background of the plotting area.
+pub const FIELD: RGBColor = RGBColor(0xFF, 0xFE, 0xFB);
+/// Main text colour.
+pub const INK: RGBColor = RGBColor(0x26, 0x2A, 0x2E);
+/// Secondary text (subtitles, notes).
+pub const MUTED: RGBColor = RGBColor(0x6A, 0x6F, 0x73);
+/// Fine grid lines.
+pub const GRID_LIGHT: RGBColor = RGBColor(0xEE, 0xE9, 0xDF);
+/// Major grid lines.
+pub const GRID_BOLD: RGBColor = RGBColor(0xD9, 0xD2, 0xC3);
+/// Reference lines (steady state, unit circle, ρ = 1 contour).
+pub const REFERENCE: RGBColor = RGBColor(0x3B, 0x3B, 0x3B);
+
+/// Series colours, in the order they are handed out.
+pub const SERIES: [RGBColor; 8] = [
+    RGBColor(0x1F, 0x5C, 0x73), // deep lake
+    RGBColor(0xC8, 0x7F, 0x0A), // ripe millet
+    RGBColor(0x9E, 0x3B, 0x2E), // brick soil
+    RGBColor(0x5B, 0x7F, 0x2A), // young leaf
+    RGBColor(0x6E, 0x4C, 0x8C), // heather
+    RGBColor(0x3E, 0x9C, 0x9A), // river teal
+    RGBColor(0x8A, 0x6A, 0x45), // straw brown
+    RGBColor(0xB5, 0x4E, 0x7A), // clover
+];
+
+/// The colour of series `i` (cycles after eight).
+pub fn series_colour(i: usize) -> RGBColor {
+    SERIES[i % SERIES.len()]
+}
+
+/// Font family name every plot uses (registered from the embedded DejaVu Sans).
+pub const FAMILY: &str = "sans-serif";
+
+/// Default figure size in pixels.
+pub const WIDTH: u32 = 960;
+/// Default figure height in pixels.
+pub const HEIGHT: u32 = 560;
+
+static FONTS: Once = Once::new();
+
+/// Registers the embedded DejaVu Sans (regular and bold) as `sans-serif`, once per process. Needed
+/// before any text is drawn; no system font is ever looked up.
+pub fn ensure_fonts() {
+    FONTS.call_once(|| {
+        // The embedded files are valid fonts; a failure here would only mean a broken dejavu crate,
+        // and then text drawing reports FontUnavailable as a PlotError.
+        let _ = plotters::style::register_font(FAMILY, FontStyle::Normal, dejavu::sans::regular());
+        let _ = plotters::style::register_font(FAMILY, FontStyle::Bold, dejavu::sans::bold());
+    });
+}
+
+/// Text style of the given size and colour.
+pub fn text(size: u32, colour: RGBColor) -> TextStyle<'static> {
+    (FAMILY, size as f64).into_font().color(&colour)
+}
+
+/// Bold text style of the given size and colour.
+pub fn bold(size: u32, colour: RGBColor) -> TextStyle<'static> {
+    (FAMILY, size as f64, FontStyle::Bold).into_font().color(&colour)
+}
+
+/// A range `[lo, hi]` covering all finite values with a margin of `pad` (share of the span) on both
+/// sides; a flat or empty set gets a sensible non-zero span.
+pub fn padded_range<I: IntoIterator<Item = f64>>(values: I, pad: f64) -> (f64, f64) {
+    let mut lo = f64::INFINITY;
+    let mut hi = f64::NEG_INFINITY;
+    for v in values.into_iter().filter(|v| v.is_finite()) {
+        lo = lo.min(v);
+        hi = hi.max(v);
+    }
+    if !lo.is_finite() || !hi.is_finite() {
+        return (0.0, 1.0);
+    }
+    let span = hi - lo;
+    if span <= 1e-12 * hi.abs().max(1.0) {
+        let half = (hi.abs() * 0.05).max(0.5);
+        return (lo - half, hi + half);
+    }
+    (lo - pad * span, hi + pad * span)
+}
+
+/// Formats an axis tick: few digits, thousands without exponent, never NaN.
+pub fn tick(v: f64) -> String {
+    if !v.is_finite() {
+        return String::new();
+    }
+    let a = v.abs();
+    let s = if a >= 1e6 {
+        format!("{:.1}M", v / 1e6)
+    } else if a >= 1e4 {
+        format!("{:.0}k", v / 1e3)
+    } else if a >= 100.0 || a == 0.0 {
+        format!("{v:.0}")
+    } else if a >= 10.0 {
+        format!("{v:.1}")
+    } else if a >= 1.0 {
+        format!("{v:.2}")
+    } else {
+        format!("{v:.3}")
+    };
+    let s = if s.contains('.') && !s.ends_with('M') && !s.ends_with('k') {
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        s
+    };
+    if s == "-0" {
+        "0".into()
+    } else {
+        s
+    }
+}
+
+/// Heights of the parts of a figure.
+pub const TITLE_BLOCK: u32 = 64;
+/// Height of one legend row.
+pub const LEGEND_ROW: u32 = 26;
+
+/// One entry of the legend strip: a name and how its key is drawn.
+#[derive(Debug, Clone)]
+pub struct LegendEntry {
+    /// The label (a policy's name, a regime).
+    pub name: String,
+    /// Key colour.
+    pub colour: RGBColor,
+    /// Key shape.
+    pub key: LegendKey,
+}
+
+/// The shape drawn in front of a legend label.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum LegendKey {
+    /// A thick line.
+    Line,
+    /// A dashed line.
+    Dashed,
+    /// A filled box (bands, bars).
+    Block,
+    /// A dot (scatter points).
+    Dot,
+}
+
+/// Width in pixels one legend label takes (approximate, from DejaVu Sans's mean advance).
+fn label_width(name: &str, size: u32) -> u32 {
+    (name.chars().count() as f64 * size as f64 * 0.56).ceil() as u32
+}
+
+/// Splits the entries into rows that fit `width`.
+pub fn legend_rows(entries: &[LegendEntry], width: u32) -> Vec<Vec<LegendEntry>> {
+    let mut rows: Vec<Vec<LegendEntry>> = Vec::new();
+    let mut used = 0u32;
+    let avail = width.saturating_sub(60);
+    for e in entries {
+        let w = 40 + label_width(&e.name, 15) + 28;
+        if rows.is_empty() || (used + w > avail && used > 0) {
+            rows.push(Vec::new());
+            used = 0;
+        }
+        if let Some(r) = rows.last_mut() {
+            r.push(e.clone());
+        }
+        used += w;
+    }
+    rows
+}
+
+/// Height the legend strip needs for these entries at this figure width.
+pub fn legend_height(entries: &[LegendEntry], width: u32) -> u32 {
+    let n = legend_rows(entries, width).len() as u32;
+    if n == 0 {
+        0
+    } else {
+        n * LEGEND_ROW + 12
+    }
+}
+
+/// An RGB triple, as tests and callers compare pixels with it.
+pub type RGBColourLike = [u8; 3];
