@@ -6,6 +6,7 @@ pub mod numeric;
 pub mod output;
 pub mod plots;
 pub mod policies;
+pub mod report;
 pub mod scenario;
 pub mod stability;
 pub mod stochastic;

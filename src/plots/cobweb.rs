@@ -81,7 +81,7 @@ pub(crate) fn staircase(steps: &[CobwebStep]) -> Vec<(f64, f64)> {
 
 /// Samples `price = curve⁻¹(q)` over `[q0, q1]`, keeping only the parts inside `[p0, p1]`.
 fn curve_runs(curve: &Curve, q0: f64, q1: f64, p0: f64, p1: f64) -> Vec<Vec<(f64, f64)>> {
-    let n = 400;
+    let n = 120;
     let mut runs = Vec::new();
     let mut cur: Vec<(f64, f64)> = Vec::new();
     for k in 0..=n {
@@ -134,7 +134,7 @@ impl Cobweb {
         // The path: fades from light (first season) to full colour (last).
         let n = stair.len().max(2) as f64;
         for (i, w) in stair.windows(2).enumerate() {
-            let alpha = 0.30 + 0.70 * (i as f64 / (n - 2.0).max(1.0));
+            let alpha = 0.45 + 0.55 * (i as f64 / (n - 2.0).max(1.0));
             chart
                 .draw_series(LineSeries::new(vec![w[0], w[1]], path_c.mix(alpha).stroke_width(2)))
                 .map_err(de)?;
@@ -142,14 +142,17 @@ impl Cobweb {
         if let Some(first) = stair.first() {
             chart.draw_series(std::iter::once(Circle::new(*first, 5, path_c.filled()))).map_err(de)?;
             chart
-                .draw_series(std::iter::once(Text::new(
-                    "start",
-                    (first.0, first.1),
-                    style::text(13, style::INK).pos(plotters::style::text_anchor::Pos::new(
-                        plotters::style::text_anchor::HPos::Left,
-                        plotters::style::text_anchor::VPos::Bottom,
-                    )),
-                )))
+                .draw_series(std::iter::once(
+                    EmptyElement::at(*first)
+                        + Text::new(
+                            "start",
+                            (8, -6),
+                            style::bold(13, style::INK).pos(plotters::style::text_anchor::Pos::new(
+                                plotters::style::text_anchor::HPos::Left,
+                                plotters::style::text_anchor::VPos::Bottom,
+                            )),
+                        ),
+                ))
                 .map_err(de)?;
         }
         if let Some(s) = self.steady {

@@ -130,6 +130,8 @@ pub fn mesh<DB: DrawingBackend>(
         .axis_style(style::MUTED)
         .x_labels(10)
         .y_labels(8)
+        .x_max_light_lines(1)
+        .y_max_light_lines(1)
         .x_label_formatter(&|v| style::tick(*v))
         .y_label_formatter(&|v| style::tick(*v))
         .draw()

@@ -136,12 +136,14 @@ impl StabilityMap {
             return Err(PlotError::Empty(self.titles.title.clone()));
         }
         let top = finite.iter().copied().fold(1.5f64, f64::max).min(3.0);
-        let legend = vec![
+        let mut legend = vec![
             LegendEntry { name: "stable (ρ < 1)".into(), colour: STABLE_DEEP, key: LegendKey::Block },
             LegendEntry { name: "unstable (ρ > 1)".into(), colour: UNSTABLE_DEEP, key: LegendKey::Block },
             LegendEntry { name: "boundary ρ = 1".into(), colour: style::INK, key: LegendKey::Line },
-            LegendEntry { name: "no steady state".into(), colour: MISSING, key: LegendKey::Block },
         ];
+        if self.radius.iter().flatten().any(|r| !r.is_finite()) {
+            legend.push(LegendEntry { name: "no steady state".into(), colour: MISSING, key: LegendKey::Block });
+        }
         let body = frame(root, &self.titles, &legend)?;
         let (bw, _) = body.dim_in_pixel();
         let (left, bar) = body.split_horizontally(bw.saturating_sub(120));
