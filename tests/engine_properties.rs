@@ -9,16 +9,21 @@ use proptest::prelude::*;
 
 /// Random valid linear markets: demand intercept, demand slope, supply slope and a P0 near P*.
 fn markets() -> impl Strategy<Value = (f64, f64, f64, f64, f64)> {
-    (50.0..500.0f64, -5.0..-0.2f64, 0.2..5.0f64, 0.0..1.0f64, 0.8..1.2f64).prop_map(
-        |(a, b, d, c_share, p0_share)| {
+    (
+        50.0..500.0f64,
+        -5.0..-0.2f64,
+        0.2..5.0f64,
+        0.0..1.0f64,
+        0.8..1.2f64,
+    )
+        .prop_map(|(a, b, d, c_share, p0_share)| {
             // supply intercept c between −0.9·a·d/|b| and a/2, so that P* = (a − c)/(d − b) > 0 and
             // Q* = (a·d − b·c)/(d − b) > 0
             let lo = -0.9 * a * d / -b;
             let c = lo + c_share * (0.5 * a - lo);
             let p_star = (a - c) / (d - b);
             (a, b, c, d, p0_share * p_star)
-        },
-    )
+        })
 }
 
 fn path(
@@ -206,8 +211,8 @@ proptest! {
         let s = linear_market(a, b, c, d, &format!("[run]\ninitial_price = {p0:?}\n"));
         let model = Model::new(&s, &pol);
         let mut sim = model.simulator();
-        for t in 0..20 {
-            let Ok(r) = sim.step(&PeriodShock { yield_factor: shocks[t], supply: 0.0, demand: 0.0 }) else { break };
+        for (t, y) in shocks.iter().enumerate() {
+            let Ok(r) = sim.step(&PeriodShock { yield_factor: *y, supply: 0.0, demand: 0.0 }) else { break };
             let limited = r.flags & (furrow::policies::flags::CAPACITY_FULL
                 | furrow::policies::flags::STOCK_OUT | furrow::policies::flags::BUDGET_BOUND) != 0;
             if !limited {
@@ -271,5 +276,86 @@ fn calibrated_curves_reproduce_their_point() {
             assert!((num - e).abs() < 1e-6, "{form}: {num} vs {e}");
         }
         assert!((s.steady.price - 210.0).abs() < 1e-9);
+    }
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 100, failure_persistence: None, ..ProptestConfig::default() })]
+
+    /// Constant-elasticity cobweb under naive expectations: P_t = D⁻¹(S(P_{t−1})) is linear in logs,
+    /// so ln(P_t / P*) = (e_s / e_d)^t · ln(P_0 / P*) exactly (follows from Q = k·P^e on both sides;
+    /// derived here from the curve definitions; the eigenvalue e_s/e_d is the constant-elasticity form
+    /// of the cobweb theorem, Ezekiel 1938).
+    #[test]
+    fn constant_elasticity_naive_path_is_log_linear(
+        ed in -2.0..-0.05f64, es in 0.05..1.5f64, q_ratio in 0.7..1.3f64, p0_share in 0.7..1.4f64,
+    ) {
+        let text = format!(
+            "[demand]\nform = \"constant-elasticity\"\nat_price = 100.0\nat_quantity = 50.0\nelasticity = {ed:?}\n\
+             [supply]\nform = \"constant-elasticity\"\nat_price = 100.0\nat_quantity = {:?}\nelasticity = {es:?}\n",
+            50.0 * q_ratio
+        );
+        let mut s = furrow::scenario::market_from_str("ce.toml", &text).unwrap();
+        let p_star = s.steady.price;
+        // closed form of the crossing: 50 (P/100)^ed = 50 q (P/100)^es → P* = 100 q^(1/(ed − es))
+        prop_assert!((p_star - 100.0 * q_ratio.powf(1.0 / (ed - es))).abs() < 1e-9 * p_star);
+        let p0 = p0_share * p_star;
+        s.run.initial_price = p0;
+        s.run.price_history = vec![p0];
+        let model = Model::new(&s, &PolicySpec::none());
+        let ratio = es / ed;
+        let mut sim = model.simulator();
+        for t in 1..=20 {
+            let Ok(r) = sim.step(&PeriodShock::NONE) else { break };
+            let want = p_star * ((p0 / p_star).ln() * ratio.powi(t)).exp();
+            prop_assert!((r.price - want).abs() < 1e-9 * want.max(1.0), "t={t}: {} vs {want}", r.price);
+        }
+    }
+}
+
+/// Rational expectations with a purchase floor above the steady state: the expected producer price is the
+/// floor itself (the floor binds in every state), so farmers plant S(F) (Muth 1961 applied to a pinned price).
+#[test]
+fn rational_expectation_under_a_binding_floor_is_the_floor() {
+    let s = linear_market(
+        120.0,
+        -0.8,
+        -10.0,
+        0.5,
+        "[expectations]\nrule = \"rational\"\n[shocks]\nsupply_sd = 1.0\n",
+    );
+    let p = policy("[floor]\nprice = 110.0\ninstrument = \"purchase\"\n");
+    let model = Model::new(&s, &p);
+    let rec = model.run(5, |_| PeriodShock::NONE).unwrap();
+    for r in rec {
+        assert!(
+            (r.expected_price - 110.0).abs() < 1e-8,
+            "{}",
+            r.expected_price
+        );
+        assert!((r.planted - (-10.0 + 0.5 * 110.0)).abs() < 1e-8);
+    }
+}
+
+/// Muth (1961): with linear curves and additive zero-mean shocks, the rational expectation is the
+/// steady-state price, whatever the shocks realised.
+#[test]
+fn rational_expectation_with_additive_shocks_is_the_steady_state() {
+    let s = linear_market(
+        120.0,
+        -0.8,
+        -10.0,
+        0.5,
+        "[expectations]\nrule = \"rational\"\n[shocks]\nsupply_sd = 2.0\ndemand_sd = 1.5\n[run]\ninitial_price = 80.0\n",
+    );
+    let model = Model::new(&s, &PolicySpec::none());
+    let shocks = furrow::stochastic::single_path_shocks(&s);
+    let rec = model.run(20, |t| shocks[t - 1]).unwrap();
+    for r in rec {
+        assert!(
+            (r.expected_price - 100.0).abs() < 1e-9,
+            "{}",
+            r.expected_price
+        );
     }
 }

@@ -13,8 +13,11 @@ pub fn linear_market(a: f64, b: f64, c: f64, d: f64, extra: &str) -> Scenario {
 
 /// A policy from the body of a policy file (the [policy] header is added).
 pub fn policy(body: &str) -> PolicySpec {
-    scenario::policy_from_str("test-policy.toml", &format!("[policy]\nname = \"test\"\n{body}"))
-        .expect("valid test policy")
+    scenario::policy_from_str(
+        "test-policy.toml",
+        &format!("[policy]\nname = \"test\"\n{body}"),
+    )
+    .expect("valid test policy")
 }
 
 /// Path of the built binary.
