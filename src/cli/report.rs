@@ -1,29 +1,135 @@
-//! `furrow report` and the `--plots` glue (being built).
+//! `furrow report MARKET POLICY... --out FILE.html` and the `--plots` glue of the other verbs.
+
+mod assumptions;
+mod brief;
+mod figures;
 
 use std::path::Path;
 
+use anyhow::Context;
 use clap::Args;
-use furrow::engine::PeriodRecord;
+use furrow::engine::{Model, PeriodRecord, PeriodShock};
 use furrow::scenario::{PolicySpec, Scenario};
+use furrow::stability::StabilityReport;
+
+use super::common::{load_policy, say, CommonArgs};
+pub use figures::Figure;
 
 /// Arguments of `report`.
 #[derive(Debug, Args)]
 pub struct ReportArgs {
-    /// Input files.
-    pub files: Vec<String>,
+    /// The market file.
+    pub market: String,
+    /// One or more policy files (each compared with the market left alone).
+    #[arg(required = true, num_args = 1..)]
+    pub policies: Vec<String>,
+    #[command(flatten)]
+    pub common: CommonArgs,
+}
+
+/// One path of `scenario` under `policy` on the single-path shocks (as `run` draws them).
+fn one_path(scenario: &Scenario, policy: &PolicySpec) -> anyhow::Result<Vec<PeriodRecord>> {
+    let model = Model::new(scenario, policy);
+    let shocks = furrow::stochastic::single_path_shocks(scenario);
+    Ok(model.run(scenario.run.periods, |t| shocks.get(t - 1).copied().unwrap_or(PeriodShock::NONE))?)
+}
+
+/// The policies of a report or comparison as (file, spec), the market left alone first (the
+/// built-in one unless a given file is a do-nothing policy).
+fn columns(files: &[String]) -> anyhow::Result<Vec<(String, PolicySpec)>> {
+    let mut cols = Vec::new();
+    for f in files {
+        cols.push((f.clone(), load_policy(Some(f))?));
+    }
+    if let Some(i) = cols.iter().position(|(_, p)| p.is_none()) {
+        let base = cols.remove(i);
+        cols.insert(0, base);
+    } else {
+        cols.insert(0, (String::new(), PolicySpec::none()));
+    }
+    Ok(cols)
 }
 
 /// Runs `report`.
-pub fn execute(_args: &ReportArgs) -> anyhow::Result<()> {
-    anyhow::bail!("the report verb is not built yet")
+pub fn execute(args: &ReportArgs) -> anyhow::Result<()> {
+    let out = match &args.common.out {
+        Some(p) if p.as_os_str() != "-" => p.clone(),
+        _ => anyhow::bail!("report needs --out FILE.html (the briefing is one HTML file)"),
+    };
+    let scenario = args.common.load_market(&args.market)?;
+    let cols = columns(&args.policies)?;
+    let mut runs = Vec::new();
+    for (_, p) in &cols {
+        let recs = one_path(&scenario, p).with_context(|| format!("the path under “{}” failed", p.name))?;
+        runs.push((p.name.clone(), recs));
+    }
+    let stability: Vec<(String, Result<StabilityReport, String>)> = cols
+        .iter()
+        .map(|(_, p)| (p.name.clone(), furrow::stability::analyse(&scenario, p).map_err(|e| e.to_string())))
+        .collect();
+    let mut figs = figures::path_figures(&scenario, &runs);
+    for (i, ((_, p), (_, recs))) in cols.iter().zip(&runs).enumerate() {
+        figs.push(figures::cobweb_figure(&scenario, p, recs, &format!("cobweb_{}_{}", i, figures::slug(&p.name))));
+    }
+    let ok_reports: Vec<(String, StabilityReport)> =
+        stability.iter().filter_map(|(n, r)| r.as_ref().ok().map(|r| (n.clone(), r.clone()))).collect();
+    figs.extend(figures::eigen_figure(&ok_reports));
+    let (headlines, welfare) = brief::path_welfare(&scenario, &runs);
+    let basis = if scenario.shocks.is_deterministic() {
+        "one deterministic path".to_string()
+    } else {
+        format!("one simulated weather path, seed {}", scenario.run.seed)
+    };
+    let risk = None;
+    let mut provenance = vec![
+        ("furrow version".to_string(), env!("CARGO_PKG_VERSION").to_string()),
+        ("command".into(), std::env::args().collect::<Vec<_>>().join(" ")),
+        ("seed".into(), scenario.run.seed.to_string()),
+        ("replications".into(), scenario.run.replications.to_string()),
+        ("periods".into(), scenario.run.periods.to_string()),
+        ("results basis".into(), basis.clone()),
+    ];
+    let mut inputs = vec![args.market.clone()];
+    inputs.extend(args.policies.iter().cloned());
+    for f in &inputs {
+        provenance.push((format!("SHA-256 of {f}"), assumptions::sha256_file(f)?));
+    }
+    let page = brief::build(brief::Inputs {
+        scenario: &scenario,
+        market_path: &args.market,
+        policies: &cols,
+        assumptions: assumptions::assumption_table(&scenario, &args.market, &cols, &args.common)?,
+        headlines,
+        basis,
+        welfare,
+        risk,
+        stability,
+        figures: figs,
+        provenance,
+        subtitle: format!(
+            "{} policy file{} against the market left alone — furrow {}",
+            args.policies.len(),
+            if args.policies.len() == 1 { "" } else { "s" },
+            env!("CARGO_PKG_VERSION")
+        ),
+    });
+    if let Some(dir) = &args.common.plots {
+        say("report: plots are inside the HTML; --plots also writes them as files");
+        let _ = dir;
+    }
+    furrow::output::write_whole(&out, page.to_html().as_bytes())
+        .with_context(|| format!("cannot write {}", out.display()))?;
+    say(&format!("wrote the briefing to {}", out.display()));
+    Ok(())
 }
 
-/// Writes the plots of one path into `dir`.
-pub fn plot_run(
-    _dir: &Path,
-    _scenario: &Scenario,
-    _policy: &PolicySpec,
-    _records: &[PeriodRecord],
-) -> anyhow::Result<()> {
-    anyhow::bail!("plots are not built yet")
+/// Writes the plots of one path into `dir`: price and harvest paths, the cobweb, the fiscal cost.
+pub fn plot_run(dir: &Path, scenario: &Scenario, policy: &PolicySpec, records: &[PeriodRecord]) -> anyhow::Result<()> {
+    figures::write_all(dir, &figures::run_figures(scenario, policy, records))
+}
+
+/// Writes the eigenvalue plot of one stability report into `dir`.
+pub fn plot_stability(dir: &Path, policy_name: &str, report: &StabilityReport) -> anyhow::Result<()> {
+    let figs: Vec<Figure> = figures::eigen_figure(&[(policy_name.to_string(), report.clone())]).into_iter().collect();
+    figures::write_all(dir, &figs)
 }

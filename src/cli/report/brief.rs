@@ -1,0 +1,262 @@
+//! Assembles the briefing page from the results: summary first, then the market and assumptions,
+//! the policies, paths, risk, welfare and fiscal cost, stability, and provenance.
+
+use furrow::engine::PeriodRecord;
+use furrow::output::{fmt_num, TextTable};
+use furrow::report::{Briefing, Section};
+use furrow::scenario::{PolicySpec, Scenario, TerminalStock};
+use furrow::stability::StabilityReport;
+
+use super::assumptions;
+use super::figures::{money_unit, Figure};
+
+/// The caution every briefing carries.
+pub const CAUTION: &str = "These are results of a stylised model under the assumptions listed below, not forecasts. \
+They show how the policies differ inside the model; magnitudes depend on elasticities, expectations and shocks that \
+are uncertain. Defer to official analysis, local rules and the people who know the market before acting on them.";
+
+/// Headline figures of one policy, from the Monte Carlo when there is one, else from the one path.
+#[derive(Debug, Clone)]
+pub struct Headline {
+    /// Policy name.
+    pub name: String,
+    /// Mean price.
+    pub mean_price: f64,
+    /// Standard deviation of the price.
+    pub price_sd: f64,
+    /// Present value of the fiscal cost.
+    pub fiscal_pv: f64,
+    /// Present value of the net welfare change against no intervention.
+    pub net_pv: f64,
+}
+
+/// Present values of one path (fallback when no Monte Carlo comparison is available).
+#[derive(Debug, Clone, Copy, Default)]
+pub struct PathPv {
+    /// Consumer surplus.
+    pub consumer: f64,
+    /// Producer surplus.
+    pub producer: f64,
+    /// Fiscal cost (the terminal stock's value counted as a receipt in the last period).
+    pub fiscal: f64,
+}
+
+/// Present values of a path: Σ x_t (1 + r)^−t (INTERFACE.md, Welfare).
+pub fn path_pv(scenario: &Scenario, recs: &[PeriodRecord]) -> PathPv {
+    let r = scenario.run.discount_rate;
+    let mut pv = PathPv::default();
+    for (i, rec) in recs.iter().enumerate() {
+        let d = (1.0 + r).powi(-((i + 1) as i32));
+        pv.consumer += rec.consumer_surplus * d;
+        pv.producer += rec.producer_surplus * d;
+        pv.fiscal += rec.fiscal_cost * d;
+    }
+    if let (Some(last), TerminalStock::Market) = (recs.last(), scenario.run.terminal_stock) {
+        let d = (1.0 + r).powi(-(recs.len() as i32));
+        pv.fiscal -= last.stock * last.price * d;
+    }
+    pv
+}
+
+fn mean_sd(x: &[f64]) -> (f64, f64) {
+    let n = x.len() as f64;
+    if n < 1.0 {
+        return (f64::NAN, f64::NAN);
+    }
+    let m = x.iter().sum::<f64>() / n;
+    let v = if n > 1.0 { x.iter().map(|v| (v - m).powi(2)).sum::<f64>() / (n - 1.0) } else { 0.0 };
+    (m, v.sqrt())
+}
+
+/// Headlines and the welfare table from one path per policy; `runs[0]` is the market left alone.
+pub fn path_welfare(scenario: &Scenario, runs: &[(String, Vec<PeriodRecord>)]) -> (Vec<Headline>, TextTable) {
+    let money = money_unit(&scenario.market.price_unit, &scenario.market.quantity_unit);
+    let base = runs.first().map(|(_, r)| path_pv(scenario, r)).unwrap_or_default();
+    let mut t = TextTable::new(&["policy", "mean price", "price sd", "fiscal cost PV", "Δ consumer surplus PV", "Δ producer surplus PV", "net welfare change PV"]);
+    t.headers[3] = format!("fiscal cost PV ({money})");
+    let mut heads = Vec::new();
+    for (name, recs) in runs {
+        let pv = path_pv(scenario, recs);
+        let prices: Vec<f64> = recs.iter().map(|r| r.price).collect();
+        let (m, sd) = mean_sd(&prices);
+        let dc = pv.consumer - base.consumer;
+        let dp = pv.producer - base.producer;
+        let df = pv.fiscal - base.fiscal;
+        let net = dc + dp - df;
+        t.push(vec![name.clone(), fmt_num(m, 2), fmt_num(sd, 2), fmt_num(pv.fiscal, 0), fmt_num(dc, 0), fmt_num(dp, 0), fmt_num(net, 0)]);
+        heads.push(Headline { name: name.clone(), mean_price: m, price_sd: sd, fiscal_pv: pv.fiscal, net_pv: net });
+    }
+    (heads, t)
+}
+
+/// Summary sentences: which policy steadies the price most, at what cost, and who gains.
+pub fn summary(heads: &[Headline], money: &str, price_unit: &str, basis: &str) -> Vec<String> {
+    let mut out = Vec::new();
+    let Some(base) = heads.first() else { return out };
+    let others: Vec<&Headline> = heads.iter().skip(1).filter(|h| h.price_sd.is_finite()).collect();
+    if let Some(best) = others.iter().min_by(|a, b| a.price_sd.total_cmp(&b.price_sd)) {
+        if best.price_sd < base.price_sd {
+            let cut = 100.0 * (1.0 - best.price_sd / base.price_sd.max(1e-12));
+            out.push(format!(
+                "“{}” steadies the price most: its standard deviation is {} {price_unit} against {} without intervention ({}% less), at a fiscal cost of {} {money} in present value ({basis}).",
+                best.name, fmt_num(best.price_sd, 1), fmt_num(base.price_sd, 1), fmt_num(cut, 0), fmt_num(best.fiscal_pv, 0)
+            ));
+        } else {
+            out.push(format!(
+                "None of the policies makes the price steadier than the market left alone (price sd {} {price_unit}; {basis}).",
+                fmt_num(base.price_sd, 1)
+            ));
+        }
+    }
+    if let Some(cheap) = others.iter().min_by(|a, b| a.fiscal_pv.total_cmp(&b.fiscal_pv)) {
+        out.push(format!("The cheapest policy for the treasury is “{}” ({} {money} in present value).", cheap.name, fmt_num(cheap.fiscal_pv, 0)));
+    }
+    if let Some(w) = others.iter().max_by(|a, b| a.net_pv.total_cmp(&b.net_pv)) {
+        let verb = if w.net_pv >= 0.0 { "gains" } else { "loses" };
+        out.push(format!(
+            "Counting consumers, producers and the treasury together, “{}” does best: the economy {verb} {} {money} in present value against no intervention.",
+            w.name, fmt_num(w.net_pv.abs(), 0)
+        ));
+    }
+    out
+}
+
+/// Stability verdict table; a failed analysis shows its reason.
+pub fn stability_table(reports: &[(String, Result<StabilityReport, String>)]) -> TextTable {
+    let mut t = TextTable::new(&["policy", "verdict", "spectral radius", "regimes", "cycle period (seasons)", "half-life (seasons)"]);
+    for (name, r) in reports {
+        match r {
+            Ok(rep) => {
+                let dom = rep.regimes.first();
+                t.push(vec![
+                    name.clone(),
+                    rep.verdict.as_str().into(),
+                    fmt_num(rep.spectral_radius, 3),
+                    rep.regimes.iter().map(|g| g.name.clone()).collect::<Vec<_>>().join("; "),
+                    dom.and_then(|d| d.period).map_or("none".into(), |p| fmt_num(p, 1)),
+                    dom.and_then(|d| d.half_life).map_or("none".into(), |h| fmt_num(h, 1)),
+                ]);
+            }
+            Err(e) => t.push(vec![name.clone(), format!("not available: {e}"), String::new(), String::new(), String::new(), String::new()]),
+        }
+    }
+    t
+}
+
+/// Everything the page is built from.
+pub struct Inputs<'a> {
+    /// The market.
+    pub scenario: &'a Scenario,
+    /// Market file path.
+    pub market_path: &'a str,
+    /// Policies as (file, spec), the market left alone first.
+    pub policies: &'a [(String, PolicySpec)],
+    /// Assumption rows.
+    pub assumptions: TextTable,
+    /// Headline figures and the basis they come from.
+    pub headlines: Vec<Headline>,
+    /// "Monte Carlo, N replications" or "one path".
+    pub basis: String,
+    /// Welfare and fiscal table.
+    pub welfare: TextTable,
+    /// Risk table (Monte Carlo), if any.
+    pub risk: Option<TextTable>,
+    /// Stability results.
+    pub stability: Vec<(String, Result<StabilityReport, String>)>,
+    /// Figures, by stem.
+    pub figures: Vec<Figure>,
+    /// Provenance rows.
+    pub provenance: Vec<(String, String)>,
+    /// Line under the title.
+    pub subtitle: String,
+}
+
+fn add_figures(sec: &mut Section, figures: &[Figure], stems: &[&str]) {
+    for f in figures.iter().filter(|f| stems.iter().any(|s| f.stem == *s || (s.ends_with('*') && f.stem.starts_with(s.trim_end_matches('*'))))) {
+        if let Ok(svg) = f.plot.svg_string() {
+            sec.figure(f.caption.clone(), svg);
+        } else {
+            sec.note(format!("(figure “{}” could not be drawn: no finite data)", f.caption));
+        }
+    }
+}
+
+/// The briefing page.
+pub fn build(inp: Inputs<'_>) -> Briefing {
+    let s = inp.scenario;
+    let m = &s.market;
+    let money = money_unit(&m.price_unit, &m.quantity_unit);
+    let names: Vec<String> = inp.policies.iter().map(|(_, p)| p.name.clone()).collect();
+    let mut summary = summary(&inp.headlines, &money, &m.price_unit, &inp.basis);
+    let unstable: Vec<&String> = inp
+        .stability
+        .iter()
+        .filter_map(|(n, r)| r.as_ref().ok().filter(|r| r.verdict.as_str() != "stable").map(|_| n))
+        .collect();
+    if !unstable.is_empty() {
+        summary.push(format!(
+            "Not stable around the steady state: {} (see Stability).",
+            unstable.iter().map(|n| format!("“{n}”")).collect::<Vec<_>>().join(", ")
+        ));
+    }
+
+    let mut market = Section::new("The market and the assumptions");
+    market.paragraph(format!(
+        "{}: steady state {} {} at {} {}. Farmers plant on the {} expectation rule; {} seasons are simulated{}.",
+        m.name,
+        fmt_num(s.steady.quantity, 1),
+        m.quantity_unit,
+        fmt_num(s.steady.price, 1),
+        m.price_unit,
+        assumptions::expectation_text(&s.expectations),
+        s.run.periods,
+        if s.run.replications > 1 { format!(", each {} times under random weather", s.run.replications) } else { String::new() }
+    ));
+    market.table("Every setting, with the file it came from", inp.assumptions);
+
+    let mut pol = Section::new("The policies side by side");
+    pol.paragraph(format!("Compared: {}.", names.join("; ")));
+    pol.table("Policy designs", assumptions::policy_table(inp.policies, &m.price_unit, &m.quantity_unit));
+
+    let mut paths = Section::new("Prices and harvests");
+    paths.paragraph("How each policy changes the season-to-season path of the price and of the harvest.");
+    add_figures(&mut paths, &inp.figures, &["price_paths", "harvest_paths", "cobweb*"]);
+
+    let mut risk = Section::new("Risk");
+    match inp.risk {
+        Some(t) => {
+            risk.paragraph(format!("Spread of outcomes across {}.", inp.basis));
+            risk.table("Risk figures", t);
+            add_figures(&mut risk, &inp.figures, &["price_fan", "stock_fan"]);
+        }
+        None => {
+            risk.paragraph(format!(
+                "The market file runs one path (replications = {}), so there are no risk figures. Set `replications` above 1 (with shocks) or pass --replications N.",
+                s.run.replications
+            ));
+        }
+    }
+
+    let mut welfare = Section::new("Welfare and fiscal cost");
+    welfare.paragraph(format!(
+        "Present values at a discount rate of {} per season; changes are against the market without intervention ({}). Money in {money}.",
+        fmt_num(s.run.discount_rate, 3),
+        inp.basis
+    ));
+    welfare.table("Welfare and fiscal cost", inp.welfare);
+    add_figures(&mut welfare, &inp.figures, &["fiscal_cost"]);
+
+    let mut stab = Section::new("Stability");
+    stab.paragraph("Whether a disturbance dies out near the steady state, from the eigenvalues of the linearised model: stable when every eigenvalue lies inside the unit circle.");
+    stab.table("Stability verdicts", stability_table(&inp.stability));
+    add_figures(&mut stab, &inp.figures, &["eigenvalues"]);
+
+    Briefing {
+        title: format!("Briefing: {}", m.name),
+        subtitle: inp.subtitle,
+        summary,
+        caution: CAUTION.into(),
+        sections: vec![market, pol, paths, risk, welfare, stab],
+        provenance: inp.provenance,
+    }
+}

@@ -1,0 +1,163 @@
+//! From engine results to figures: which plots each verb draws, their file stems, captions, axis
+//! labels and units (taken from the market file). Drawing itself is `furrow::plots`.
+
+use std::path::Path;
+
+use anyhow::Context;
+use furrow::engine::{Model, PeriodRecord};
+use furrow::plots::{self, CobwebStep, EigenPoint, Plot, Series};
+use furrow::scenario::{PolicySpec, Scenario};
+use furrow::stability::StabilityReport;
+
+/// A figure with its file stem and the caption the report shows.
+pub struct Figure {
+    /// File stem (`stem.png`, `stem.svg`).
+    pub stem: String,
+    /// Caption for the briefing.
+    pub caption: String,
+    /// The plot.
+    pub plot: Plot,
+}
+
+/// The unit of money: price unit × quantity unit, with "X per t × kt" read as "thousand X".
+pub fn money_unit(price_unit: &str, quantity_unit: &str) -> String {
+    if let Some(cur) = price_unit.strip_suffix(" per t") {
+        match quantity_unit {
+            "t" => return cur.to_string(),
+            "kt" => return format!("thousand {cur}"),
+            "Mt" => return format!("million {cur}"),
+            _ => {}
+        }
+    }
+    format!("{price_unit} × {quantity_unit}")
+}
+
+/// A file-name-safe stem fragment.
+pub fn slug(s: &str) -> String {
+    let mut out = String::new();
+    for c in s.chars() {
+        if c.is_ascii_alphanumeric() {
+            out.push(c.to_ascii_lowercase());
+        } else if !out.ends_with('_') && !out.is_empty() {
+            out.push('_');
+        }
+    }
+    let out = out.trim_end_matches('_').to_string();
+    if out.is_empty() {
+        "policy".into()
+    } else {
+        out.chars().take(40).collect()
+    }
+}
+
+/// Price, harvest and fiscal-cost paths of one simulated path per policy, overlaid.
+pub fn path_figures(scenario: &Scenario, runs: &[(String, Vec<PeriodRecord>)]) -> Vec<Figure> {
+    let m = &scenario.market;
+    let series = |f: fn(&PeriodRecord) -> f64| -> Vec<Series> {
+        runs.iter()
+            .map(|(name, recs)| Series::periods(name.clone(), &recs.iter().map(f).collect::<Vec<_>>()))
+            .collect()
+    };
+    let shocks = if scenario.shocks.is_deterministic() {
+        "no shocks".to_string()
+    } else {
+        format!("one simulated weather path (seed {})", scenario.run.seed)
+    };
+    let mut price = plots::paths(
+        &format!("{}: market price by policy", m.name),
+        "period (season)",
+        &format!("market price ({})", m.price_unit),
+        series(|r| r.price),
+    );
+    if let Plot::Lines(l) = &mut price {
+        l.titles.subtitle = format!("{shocks}; dashed: the steady-state price without intervention");
+        l.references.push(plots::Reference { label: "steady state".into(), value: scenario.steady.price });
+    }
+    let mut harvest = plots::paths(
+        &format!("{}: harvest by policy", m.name),
+        "period (season)",
+        &format!("harvest ({})", m.quantity_unit),
+        series(|r| r.harvest),
+    );
+    if let Plot::Lines(l) = &mut harvest {
+        l.titles.subtitle = format!("{shocks}; dashed: the steady-state quantity");
+        l.references.push(plots::Reference { label: "steady state".into(), value: scenario.steady.quantity });
+    }
+    let fiscal = plots::fiscal(
+        &format!("{}: fiscal cost by period", m.name),
+        "period (season)",
+        &format!("fiscal cost ({})", money_unit(&m.price_unit, &m.quantity_unit)),
+        series(|r| r.fiscal_cost),
+    );
+    vec![
+        Figure { stem: "price_paths".into(), caption: format!("Market price per season under each policy ({shocks})."), plot: price },
+        Figure { stem: "harvest_paths".into(), caption: format!("Harvest per season under each policy ({shocks})."), plot: harvest },
+        Figure { stem: "fiscal_cost".into(), caption: "Fiscal cost per season: purchases, storage, financing and payments, less sales.".into(), plot: fiscal },
+    ]
+}
+
+/// The cobweb diagram of one path.
+pub fn cobweb_figure(scenario: &Scenario, policy: &PolicySpec, records: &[PeriodRecord], stem: &str) -> Figure {
+    let model = Model::new(scenario, policy);
+    let steps = records
+        .iter()
+        .map(|r| CobwebStep { quantity: r.harvest, expected: r.expected_price, price: r.price })
+        .collect();
+    let plot = plots::cobweb(
+        &format!("Cobweb: {}", policy.name),
+        &model.demand,
+        &model.supply,
+        steps,
+        Some((scenario.steady.quantity, scenario.steady.price)),
+        &scenario.market.quantity_unit,
+        &scenario.market.price_unit,
+    );
+    Figure {
+        stem: stem.into(),
+        caption: format!(
+            "Cobweb diagram under “{}”: demand and supply with the simulated path as the staircase between them.",
+            policy.name
+        ),
+        plot,
+    }
+}
+
+/// Eigenvalues of every regime of every report, in the complex plane.
+pub fn eigen_figure(reports: &[(String, StabilityReport)]) -> Option<Figure> {
+    let many = reports.len() > 1;
+    let points: Vec<EigenPoint> = reports
+        .iter()
+        .flat_map(|(name, r)| {
+            r.regimes.iter().flat_map(move |g| {
+                let group = if many { format!("{name}: {}", g.name) } else { g.name.clone() };
+                g.eigenvalues.iter().map(move |e| EigenPoint { re: e.re, im: e.im, group: group.clone() })
+            })
+        })
+        .collect();
+    if points.is_empty() {
+        return None;
+    }
+    Some(Figure {
+        stem: "eigenvalues".into(),
+        caption: "Eigenvalues of the linearised model for each regime, with the unit circle.".into(),
+        plot: plots::eigenvalues("Eigenvalues of the linearised model", points),
+    })
+}
+
+/// Writes every figure into `dir` (PNG and SVG) and says where.
+pub fn write_all(dir: &Path, figures: &[Figure]) -> anyhow::Result<()> {
+    for f in figures {
+        f.plot
+            .write(dir, &f.stem)
+            .with_context(|| format!("cannot draw the plot `{}` into {}", f.stem, dir.display()))?;
+    }
+    super::super::common::say(&format!("wrote {} plots (PNG and SVG) into {}", figures.len(), dir.display()));
+    Ok(())
+}
+
+/// The figures of `run --plots`: paths, the cobweb and the fiscal cost of one path.
+pub fn run_figures(scenario: &Scenario, policy: &PolicySpec, records: &[PeriodRecord]) -> Vec<Figure> {
+    let mut figs = path_figures(scenario, &[(policy.name.clone(), records.to_vec())]);
+    figs.insert(1, cobweb_figure(scenario, policy, records, "cobweb"));
+    figs
+}
