@@ -129,6 +129,7 @@ pub fn plot_run(dir: &Path, scenario: &Scenario, policy: &PolicySpec, records: &
 }
 
 /// Writes the eigenvalue plot of one stability report into `dir`.
+#[allow(dead_code)] // for `stability --plots`, wired by the stability verb's owner
 pub fn plot_stability(dir: &Path, policy_name: &str, report: &StabilityReport) -> anyhow::Result<()> {
     let figs: Vec<Figure> = figures::eigen_figure(&[(policy_name.to_string(), report.clone())]).into_iter().collect();
     figures::write_all(dir, &figs)

@@ -103,12 +103,19 @@ fn render_table(out: &mut String, caption: &str, t: &TextTable) {
         out.push_str(&format!("<th scope=\"col\">{}</th>", escape(h)));
     }
     out.push_str("</tr></thead>\n<tbody>\n");
+    // A column is right-aligned when every non-empty cell in it is a number.
+    let numeric: Vec<bool> = (0..t.headers.len())
+        .map(|j| {
+            let cells: Vec<&String> = t.rows.iter().filter_map(|r| r.get(j)).filter(|c| !c.trim().is_empty()).collect();
+            !cells.is_empty() && cells.iter().all(|c| is_numeric(c))
+        })
+        .collect();
     for row in &t.rows {
         out.push_str("<tr>");
         for (i, c) in row.iter().enumerate() {
             if i == 0 {
                 out.push_str(&format!("<th scope=\"row\">{}</th>", escape(c)));
-            } else if is_numeric(c) {
+            } else if numeric.get(i).copied().unwrap_or(false) {
                 out.push_str(&format!("<td class=\"num\">{}</td>", escape(c)));
             } else {
                 out.push_str(&format!("<td>{}</td>", escape(c)));

@@ -12,7 +12,7 @@ use super::super::common::CommonArgs;
 fn value_text(v: &toml::Value) -> String {
     match v {
         toml::Value::String(s) => s.clone(),
-        toml::Value::Float(f) => fmt_num(*f, 4),
+        toml::Value::Float(f) => trim(fmt_num(*f, 6)),
         toml::Value::Integer(i) => i.to_string(),
         toml::Value::Boolean(b) => b.to_string(),
         toml::Value::Array(a) => a.iter().map(value_text).collect::<Vec<_>>().join(", "),
@@ -31,7 +31,16 @@ fn flatten(prefix: &str, t: &toml::Table, out: &mut Vec<(String, String)>) {
     }
 }
 
-/// The keys written in `path`, flattened to dotted names, in file order.
+/// A number without trailing zeros ("210", "-0.25").
+fn trim(s: String) -> String {
+    if s.contains('.') {
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        s
+    }
+}
+
+/// The keys written in `path`, flattened to dotted names (sorted by section and key).
 pub fn file_keys(path: &str) -> anyhow::Result<Vec<(String, String)>> {
     let text = std::fs::read_to_string(path).with_context(|| format!("cannot read {path}"))?;
     let table = parse_toml(path, &text)?;
@@ -73,12 +82,12 @@ pub fn assumption_table(
         ("run.periods", r.periods.to_string(), common.periods.map(|_| true)),
         ("run.replications", r.replications.to_string(), common.replications.map(|_| true)),
         ("run.seed", r.seed.to_string(), common.seed.map(|_| true)),
-        ("run.discount_rate", fmt_num(r.discount_rate, 4), None),
-        ("run.risk_aversion", fmt_num(r.risk_aversion, 4), None),
-        ("shocks.yield_cv", fmt_num(s.yield_cv, 4), None),
-        ("shocks.supply_sd", fmt_num(s.supply_sd, 4), None),
-        ("shocks.demand_sd", fmt_num(s.demand_sd, 4), None),
-        ("shocks.demand_persistence", fmt_num(s.demand_persistence, 4), None),
+        ("run.discount_rate", trim(fmt_num(r.discount_rate, 6)), None),
+        ("run.risk_aversion", trim(fmt_num(r.risk_aversion, 6)), None),
+        ("shocks.yield_cv", trim(fmt_num(s.yield_cv, 6)), None),
+        ("shocks.supply_sd", trim(fmt_num(s.supply_sd, 6)), None),
+        ("shocks.demand_sd", trim(fmt_num(s.demand_sd, 6)), None),
+        ("shocks.demand_persistence", trim(fmt_num(s.demand_persistence, 6)), None),
     ];
     for (k, v, cli) in effective {
         if cli.is_some() {

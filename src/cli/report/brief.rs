@@ -20,8 +20,6 @@ are uncertain. Defer to official analysis, local rules and the people who know t
 pub struct Headline {
     /// Policy name.
     pub name: String,
-    /// Mean price.
-    pub mean_price: f64,
     /// Standard deviation of the price.
     pub price_sd: f64,
     /// Present value of the fiscal cost.
@@ -84,7 +82,7 @@ pub fn path_welfare(scenario: &Scenario, runs: &[(String, Vec<PeriodRecord>)]) -
         let df = pv.fiscal - base.fiscal;
         let net = dc + dp - df;
         t.push(vec![name.clone(), fmt_num(m, 2), fmt_num(sd, 2), fmt_num(pv.fiscal, 0), fmt_num(dc, 0), fmt_num(dp, 0), fmt_num(net, 0)]);
-        heads.push(Headline { name: name.clone(), mean_price: m, price_sd: sd, fiscal_pv: pv.fiscal, net_pv: net });
+        heads.push(Headline { name: name.clone(), price_sd: sd, fiscal_pv: pv.fiscal, net_pv: net });
     }
     (heads, t)
 }
@@ -202,8 +200,9 @@ pub fn build(inp: Inputs<'_>) -> Briefing {
 
     let mut market = Section::new("The market and the assumptions");
     market.paragraph(format!(
-        "{}: steady state {} {} at {} {}. Farmers plant on the {} expectation rule; {} seasons are simulated{}.",
+        "{} (market file {}): steady state {} {} at {} {}. Farmers plant on the {} expectation rule; {} seasons are simulated{}.",
         m.name,
+        inp.market_path,
         fmt_num(s.steady.quantity, 1),
         m.quantity_unit,
         fmt_num(s.steady.price, 1),
