@@ -134,3 +134,15 @@ pub fn plot_stability(dir: &Path, policy_name: &str, report: &StabilityReport) -
     let figs: Vec<Figure> = figures::eigen_figure(&[(policy_name.to_string(), report.clone())]).into_iter().collect();
     figures::write_all(dir, &figs)
 }
+
+/// Writes the plots of a sweep into `dir`: the stability map (two keys) or the spectral radius and
+/// the bifurcation diagram (one key).
+#[allow(dead_code)] // for `sweep --plots`, wired once the sweep verb lands in main
+pub fn plot_sweep(dir: &Path, keys: &[String], points: &[figures::SweepPoint], price_unit: &str) -> anyhow::Result<()> {
+    let figs = figures::sweep_figures(keys, points, price_unit);
+    if figs.is_empty() {
+        say("sweep: nothing to plot");
+        return Ok(());
+    }
+    figures::write_all(dir, &figs)
+}

@@ -161,3 +161,76 @@ pub fn run_figures(scenario: &Scenario, policy: &PolicySpec, records: &[PeriodRe
     figs.insert(1, cobweb_figure(scenario, policy, records, "cobweb"));
     figs
 }
+
+/// One grid point of a sweep in plain numbers: the key values, the spectral radius (NaN when the
+/// point has none) and the long-run prices (empty when not simulated).
+pub struct SweepPoint {
+    /// Values of the varied keys, in `keys` order.
+    pub values: Vec<f64>,
+    /// Spectral radius, NaN when invalid.
+    pub radius: f64,
+    /// Long-run prices.
+    pub prices: Vec<f64>,
+}
+
+fn sorted_unique(v: impl Iterator<Item = f64>) -> Vec<f64> {
+    let mut u: Vec<f64> = v.filter(|x| x.is_finite()).collect();
+    u.sort_by(f64::total_cmp);
+    u.dedup_by(|a, b| (*a - *b).abs() <= 1e-12 * a.abs().max(1.0));
+    u
+}
+
+fn index_of(grid: &[f64], x: f64) -> Option<usize> {
+    grid.iter().position(|g| (g - x).abs() <= 1e-12 * g.abs().max(1.0))
+}
+
+/// The figures of a sweep: with two keys the stability map; with one key the spectral radius
+/// against the key and, when long runs were simulated, the bifurcation diagram.
+pub fn sweep_figures(keys: &[String], points: &[SweepPoint], price_unit: &str) -> Vec<Figure> {
+    let mut figs = Vec::new();
+    match keys {
+        [x_key, y_key] => {
+            let xs = sorted_unique(points.iter().filter_map(|p| p.values.first().copied()));
+            let ys = sorted_unique(points.iter().filter_map(|p| p.values.get(1).copied()));
+            let mut grid = vec![vec![f64::NAN; xs.len()]; ys.len()];
+            for p in points {
+                if let (Some(i), Some(j)) = (
+                    p.values.first().and_then(|&x| index_of(&xs, x)),
+                    p.values.get(1).and_then(|&y| index_of(&ys, y)),
+                ) {
+                    grid[j][i] = p.radius;
+                }
+            }
+            figs.push(Figure {
+                stem: "stability_map".into(),
+                caption: format!("Spectral radius over the grid of {x_key} and {y_key}; the black line is the stability boundary ρ = 1."),
+                plot: plots::heatmap(x_key, y_key, xs, ys, grid),
+            });
+        }
+        [key] => {
+            let rho: Vec<(f64, f64)> = points.iter().filter_map(|p| p.values.first().map(|&x| (x, p.radius))).collect();
+            let mut line = plots::paths(
+                &format!("Spectral radius as {key} varies"),
+                key,
+                "spectral radius ρ",
+                vec![Series { name: "spectral radius of the linearised model".into(), points: rho }],
+            );
+            if let Plot::Lines(l) = &mut line {
+                l.titles.subtitle = "below the dashed line ρ = 1 a disturbance dies out; above it grows".into();
+                l.references.push(plots::Reference { label: "ρ = 1".into(), value: 1.0 });
+            }
+            figs.push(Figure { stem: "spectral_radius".into(), caption: format!("Spectral radius against {key}."), plot: line });
+            if points.iter().any(|p| !p.prices.is_empty()) {
+                let values = points.iter().filter_map(|p| p.values.first().copied()).collect();
+                let prices = points.iter().map(|p| p.prices.clone()).collect();
+                figs.push(Figure {
+                    stem: "bifurcation".into(),
+                    caption: format!("Long-run prices against {key} (bifurcation diagram)."),
+                    plot: plots::bifurcation(key, price_unit, values, prices, None),
+                });
+            }
+        }
+        _ => {}
+    }
+    figs
+}
