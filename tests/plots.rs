@@ -5,8 +5,8 @@ use std::path::{Path, PathBuf};
 
 use furrow::curves::Curve;
 use furrow::plots::{
-    bifurcation, cobweb, contour_segments, eigenvalues, fan, fiscal, heatmap, paths, style, CobwebStep,
-    EigenPoint, FanBand, Plot, Series,
+    bifurcation, cobweb, contour_segments, eigenvalues, fan, fiscal, heatmap, paths, style,
+    CobwebStep, EigenPoint, FanBand, Plot, Series,
 };
 
 fn out_dir(name: &str) -> (PathBuf, Option<tempfile::TempDir>) {
@@ -29,7 +29,12 @@ fn assert_not_blank(path: &Path, colour: style::RGBColourLike) {
     for p in img.pixels() {
         colours.insert(p.0);
     }
-    assert!(colours.len() > 60, "{}: only {} colours", path.display(), colours.len());
+    assert!(
+        colours.len() > 60,
+        "{}: only {} colours",
+        path.display(),
+        colours.len()
+    );
     // The central plot region: not all paper/field colour.
     let bg = [style::PAPER, style::FIELD];
     let mut non_bg = 0usize;
@@ -43,21 +48,35 @@ fn assert_not_blank(path: &Path, colour: style::RGBColourLike) {
             }
         }
     }
-    assert!(non_bg * 50 > total, "{}: plot area nearly empty ({non_bg} of {total})", path.display());
+    assert!(
+        non_bg * 50 > total,
+        "{}: plot area nearly empty ({non_bg} of {total})",
+        path.display()
+    );
     let near = img
         .pixels()
         .filter(|p| {
-            let d: i32 = (0..3).map(|k| (p.0[k] as i32 - colour[k] as i32).abs()).sum();
+            let d: i32 = (0..3)
+                .map(|k| (p.0[k] as i32 - colour[k] as i32).abs())
+                .sum();
             d < 24
         })
         .count();
-    assert!(near > 40, "{}: series colour drawn on only {near} pixels", path.display());
+    assert!(
+        near > 40,
+        "{}: series colour drawn on only {near} pixels",
+        path.display()
+    );
     // Title text: dark ink pixels in the title block.
     let ink = (10..60)
         .flat_map(|y| (20..400).map(move |x| (x, y)))
         .filter(|&(x, y)| img.get_pixel(x, y).0.iter().all(|&c| c < 90))
         .count();
-    assert!(ink > 100, "{}: no title text drawn ({ink} dark pixels)", path.display());
+    assert!(
+        ink > 100,
+        "{}: no title text drawn ({ink} dark pixels)",
+        path.display()
+    );
 }
 
 fn check(plot: &Plot, stem: &str, colour: style::RGBColourLike) {
@@ -68,9 +87,17 @@ fn check(plot: &Plot, stem: &str, colour: style::RGBColourLike) {
     let svg = std::fs::read_to_string(&files[1]).unwrap();
     assert!(svg.starts_with("<svg"), "{stem}: not an SVG");
     assert!(svg.contains("<text"), "{stem}: SVG without text");
-    let escaped = plot.title().replace('&', "&amp;").replace('<', "&lt;").replace('>', "&gt;");
+    let escaped = plot
+        .title()
+        .replace('&', "&amp;")
+        .replace('<', "&lt;")
+        .replace('>', "&gt;");
     assert!(svg.contains(&escaped), "{stem}: SVG lacks the title");
-    assert_eq!(svg, plot.svg_string().unwrap(), "{stem}: file and string differ");
+    assert_eq!(
+        svg,
+        plot.svg_string().unwrap(),
+        "{stem}: file and string differ"
+    );
 }
 
 fn s0() -> style::RGBColourLike {
@@ -80,7 +107,10 @@ fn s0() -> style::RGBColourLike {
 
 fn linear_market() -> (Curve, Curve) {
     // Demand 480 kt at 210 with elasticity -0.25, supply elasticity 0.20 (the demo market).
-    (Curve::linear_at_point(210.0, 480.0, -0.25), Curve::linear_at_point(210.0, 480.0, 0.20))
+    (
+        Curve::linear_at_point(210.0, 480.0, -0.25),
+        Curve::linear_at_point(210.0, 480.0, 0.20),
+    )
 }
 
 /// Naive cobweb: P_t = D⁻¹(S(P_{t-1})) (Ezekiel 1938, the cobweb recursion).
@@ -90,7 +120,11 @@ fn naive_path(d: &Curve, s: &Curve, p0: f64, n: usize) -> Vec<CobwebStep> {
         .map(|_| {
             let q = s.quantity(e);
             let p = d.price_at(q);
-            let st = CobwebStep { quantity: q, expected: e, price: p };
+            let st = CobwebStep {
+                quantity: q,
+                expected: e,
+                price: p,
+            };
             e = p;
             st
         })
@@ -105,7 +139,10 @@ fn price_paths_png_and_svg() {
         "Price paths by policy",
         "period",
         "price (crowns per t)",
-        vec![Series::periods("no intervention", &a), Series::periods("Band 195-230 & reserve", &b)],
+        vec![
+            Series::periods("no intervention", &a),
+            Series::periods("Band 195-230 & reserve", &b),
+        ],
     );
     check(&p, "paths", s0());
 }
@@ -114,7 +151,15 @@ fn price_paths_png_and_svg() {
 fn cobweb_png_and_svg() {
     let (d, s) = linear_market();
     let steps = naive_path(&d, &s, 240.0, 25);
-    let p = cobweb("Cobweb: no intervention", &d, &s, steps, Some((480.0, 210.0)), "kt", "crowns per t");
+    let p = cobweb(
+        "Cobweb: no intervention",
+        &d,
+        &s,
+        steps,
+        Some((480.0, 210.0)),
+        "kt",
+        "crowns per t",
+    );
     check(&p, "cobweb", s0());
 }
 
@@ -122,19 +167,34 @@ fn cobweb_png_and_svg() {
 fn fan_png_and_svg() {
     let band = |name: &str, w: f64| FanBand {
         name: name.into(),
-        p05: (0..30).map(|t| 210.0 - w * (1.0 - (-0.3 * t as f64).exp())).collect(),
+        p05: (0..30)
+            .map(|t| 210.0 - w * (1.0 - (-0.3 * t as f64).exp()))
+            .collect(),
         p50: vec![210.0; 30],
-        p95: (0..30).map(|t| 210.0 + w * (1.0 - (-0.3 * t as f64).exp())).collect(),
+        p95: (0..30)
+            .map(|t| 210.0 + w * (1.0 - (-0.3 * t as f64).exp()))
+            .collect(),
         mean: Some(vec![211.0; 30]),
     };
-    let p = fan("Price fan", "period", "price (crowns per t)", 2000, vec![band("no intervention", 40.0), band("band", 15.0)]);
+    let p = fan(
+        "Price fan",
+        "period",
+        "price (crowns per t)",
+        2000,
+        vec![band("no intervention", 40.0), band("band", 15.0)],
+    );
     check(&p, "fan", s0());
 }
 
 #[test]
 fn fiscal_bars_and_lines() {
     let v: Vec<f64> = (0..30).map(|t| 500.0 * ((t as f64) * 0.7).sin()).collect();
-    let one = fiscal("Fiscal cost", "period", "crowns (thousand)", vec![Series::periods("support", &v)]);
+    let one = fiscal(
+        "Fiscal cost",
+        "period",
+        "crowns (thousand)",
+        vec![Series::periods("support", &v)],
+    );
     assert!(matches!(one, Plot::Bars(_)));
     let c = style::series_colour(2);
     check(&one, "fiscal_one", [c.0, c.1, c.2]);
@@ -152,9 +212,21 @@ fn fiscal_bars_and_lines() {
 #[test]
 fn eigenvalues_png_and_svg() {
     let pts = vec![
-        EigenPoint { re: -0.8, im: 0.0, group: "free market".into() },
-        EigenPoint { re: 0.3, im: 0.6, group: "floor binding".into() },
-        EigenPoint { re: 0.3, im: -0.6, group: "floor binding".into() },
+        EigenPoint {
+            re: -0.8,
+            im: 0.0,
+            group: "free market".into(),
+        },
+        EigenPoint {
+            re: 0.3,
+            im: 0.6,
+            group: "floor binding".into(),
+        },
+        EigenPoint {
+            re: 0.3,
+            im: -0.6,
+            group: "floor binding".into(),
+        },
     ];
     check(&eigenvalues("Eigenvalues", pts), "eigen", s0());
 }
@@ -164,7 +236,10 @@ fn heatmap_png_and_svg() {
     let xs: Vec<f64> = (0..21).map(|i| 0.1 + 0.045 * i as f64).collect();
     let ys: Vec<f64> = (0..15).map(|j| 0.1 + 0.1 * j as f64).collect();
     // ρ of naive cobweb with supply slope y and demand slope -1: |y|... scaled by x (illustrative).
-    let grid: Vec<Vec<f64>> = ys.iter().map(|y| xs.iter().map(|x| x * y * 1.2).collect()).collect();
+    let grid: Vec<Vec<f64>> = ys
+        .iter()
+        .map(|y| xs.iter().map(|x| x * y * 1.2).collect())
+        .collect();
     let p = heatmap("expectations.weight", "supply.slope", xs, ys, grid);
     check(&p, "heatmap", [0x1F, 0x5C, 0x73]);
 }
@@ -198,19 +273,30 @@ fn bifurcation_png_and_svg() {
 fn contour_of_linear_field_is_exact() {
     let xs: Vec<f64> = (0..11).map(|i| i as f64 / 10.0).collect();
     let ys = xs.clone();
-    let grid: Vec<Vec<f64>> = ys.iter().map(|y| xs.iter().map(|x| x + y).collect()).collect();
+    let grid: Vec<Vec<f64>> = ys
+        .iter()
+        .map(|y| xs.iter().map(|x| x + y).collect())
+        .collect();
     let segs = contour_segments(&xs, &ys, &grid, 1.0);
     assert!(segs.len() >= 10);
     for (a, b) in segs {
         assert!((a.0 + a.1 - 1.0).abs() < 1e-12 && (b.0 + b.1 - 1.0).abs() < 1e-12);
     }
     // A field entirely below the level has no contour.
-    let low: Vec<Vec<f64>> = grid.iter().map(|r| r.iter().map(|v| v * 0.1).collect()).collect();
+    let low: Vec<Vec<f64>> = grid
+        .iter()
+        .map(|r| r.iter().map(|v| v * 0.1).collect())
+        .collect();
     assert!(contour_segments(&xs, &ys, &low, 1.0).is_empty());
 }
 
 #[test]
 fn empty_data_is_an_error_not_a_panic() {
-    let p = paths("Nothing", "period", "price", vec![Series::periods("x", &[f64::NAN, f64::INFINITY])]);
+    let p = paths(
+        "Nothing",
+        "period",
+        "price",
+        vec![Series::periods("x", &[f64::NAN, f64::INFINITY])],
+    );
     assert!(p.svg_string().is_err());
 }

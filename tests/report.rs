@@ -14,9 +14,17 @@ const POLICIES: &[&str] = &["policies/support_purchase.toml", "policies/price_ba
 fn write_report(dir: &Path, market: &str, policies: &[&str]) -> (PathBuf, String) {
     let out = dir.join("brief.html");
     let mut cmd = Command::cargo_bin("furrow").unwrap();
-    cmd.arg("report").arg(market).args(policies).arg("--out").arg(&out);
+    cmd.arg("report")
+        .arg(market)
+        .args(policies)
+        .arg("--out")
+        .arg(&out);
     let o = cmd.output().unwrap();
-    assert!(o.status.success(), "report failed: {}", String::from_utf8_lossy(&o.stderr));
+    assert!(
+        o.status.success(),
+        "report failed: {}",
+        String::from_utf8_lossy(&o.stderr)
+    );
     let html = std::fs::read_to_string(&out).unwrap();
     (out, html)
 }
@@ -30,13 +38,18 @@ fn assert_self_contained(html: &str) {
             let rest = &lower[i + attr.len()..];
             let rest = rest.trim_start_matches(['"', '\'', ' ']);
             assert!(
-                !(rest.starts_with("http:") || rest.starts_with("https:") || rest.starts_with("//")),
+                !(rest.starts_with("http:")
+                    || rest.starts_with("https:")
+                    || rest.starts_with("//")),
                 "external reference near {}",
                 &html[i..(i + 80).min(html.len())]
             );
         }
     }
-    assert!(!lower.contains("http://") && !lower.contains("https://"), "page holds an address");
+    assert!(
+        !lower.contains("http://") && !lower.contains("https://"),
+        "page holds an address"
+    );
     assert!(!lower.contains("<link"), "page links a resource");
 }
 
@@ -64,7 +77,11 @@ fn briefing_escapes_text_and_inlines_svg() {
     assert!(!html.contains("<?xml"));
     assert!(html.contains("<svg role=\"img\" aria-label=\"fig &lt;1&gt;\""));
     assert!(html.contains("Model results, not forecasts."));
-    assert_eq!(html.matches("<table").count(), 2, "results table and provenance");
+    assert_eq!(
+        html.matches("<table").count(),
+        2,
+        "results table and provenance"
+    );
 }
 
 #[test]
@@ -86,13 +103,20 @@ fn report_verb_writes_a_self_contained_briefing() {
         let line = String::from_utf8_lossy(&o.stdout);
         let hash = line.split_whitespace().next().unwrap_or("");
         assert_eq!(hash.len(), 64);
-        assert!(html.contains(hash), "market hash {hash} not in the provenance");
+        assert!(
+            html.contains(hash),
+            "market hash {hash} not in the provenance"
+        );
     }
 }
 
 #[test]
 fn report_needs_out_and_fails_cleanly_on_a_missing_policy() {
-    let o = Command::cargo_bin("furrow").unwrap().args(["report", MARKET, POLICIES[0]]).output().unwrap();
+    let o = Command::cargo_bin("furrow")
+        .unwrap()
+        .args(["report", MARKET, POLICIES[0]])
+        .output()
+        .unwrap();
     assert_eq!(o.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&o.stderr).contains("--out"));
     let dir = tempfile::tempdir().unwrap();
@@ -143,11 +167,22 @@ fn report_renders_in_headless_chromium() {
     let (page, _) = write_report(dir.path(), MARKET, POLICIES);
     let url = format!("file://{}", page.canonicalize().unwrap().display());
     let profile = tempfile::tempdir().unwrap();
-    let o = chromium_cmd(&bin, profile.path()).arg("--dump-dom").arg(&url).output().unwrap();
-    assert!(o.status.success(), "chromium failed: {}", String::from_utf8_lossy(&o.stderr));
+    let o = chromium_cmd(&bin, profile.path())
+        .arg("--dump-dom")
+        .arg(&url)
+        .output()
+        .unwrap();
+    assert!(
+        o.status.success(),
+        "chromium failed: {}",
+        String::from_utf8_lossy(&o.stderr)
+    );
     let dom = String::from_utf8_lossy(&o.stdout);
     assert!(dom.contains("<table"), "the loaded DOM has no tables");
-    assert!(dom.matches("<table").count() >= 5, "expected the assumption, policy, welfare, stability and provenance tables");
+    assert!(
+        dom.matches("<table").count() >= 5,
+        "expected the assumption, policy, welfare, stability and provenance tables"
+    );
     assert!(dom.contains("Caution."));
     assert!(dom.contains("<svg"));
     let shot = dir.path().join("shot.png");
@@ -158,7 +193,11 @@ fn report_renders_in_headless_chromium() {
         .arg(&url)
         .output()
         .unwrap();
-    assert!(o.status.success(), "chromium screenshot failed: {}", String::from_utf8_lossy(&o.stderr));
+    assert!(
+        o.status.success(),
+        "chromium screenshot failed: {}",
+        String::from_utf8_lossy(&o.stderr)
+    );
     let img = image::open(&shot).unwrap().to_rgb8();
     let mut colours = std::collections::HashSet::new();
     let mut dark = 0usize;
@@ -169,6 +208,13 @@ fn report_renders_in_headless_chromium() {
         }
     }
     // A page with text, boxes and plots: many colours and plenty of dark text pixels.
-    assert!(colours.len() > 200, "screenshot looks blank ({} colours)", colours.len());
-    assert!(dark > 2000, "screenshot shows little text ({dark} dark pixels)");
+    assert!(
+        colours.len() > 200,
+        "screenshot looks blank ({} colours)",
+        colours.len()
+    );
+    assert!(
+        dark > 2000,
+        "screenshot shows little text ({dark} dark pixels)"
+    );
 }

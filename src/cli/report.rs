@@ -31,7 +31,9 @@ pub struct ReportArgs {
 fn one_path(scenario: &Scenario, policy: &PolicySpec) -> anyhow::Result<Vec<PeriodRecord>> {
     let model = Model::new(scenario, policy);
     let shocks = furrow::stochastic::single_path_shocks(scenario);
-    Ok(model.run(scenario.run.periods, |t| shocks.get(t - 1).copied().unwrap_or(PeriodShock::NONE))?)
+    Ok(model.run(scenario.run.periods, |t| {
+        shocks.get(t - 1).copied().unwrap_or(PeriodShock::NONE)
+    })?)
 }
 
 /// The policies of a report or comparison as (file, spec), the market left alone first (the
@@ -60,19 +62,32 @@ pub fn execute(args: &ReportArgs) -> anyhow::Result<()> {
     let cols = columns(&args.policies)?;
     let mut runs = Vec::new();
     for (_, p) in &cols {
-        let recs = one_path(&scenario, p).with_context(|| format!("the path under “{}” failed", p.name))?;
+        let recs = one_path(&scenario, p)
+            .with_context(|| format!("the path under “{}” failed", p.name))?;
         runs.push((p.name.clone(), recs));
     }
     let stability: Vec<(String, Result<StabilityReport, String>)> = cols
         .iter()
-        .map(|(_, p)| (p.name.clone(), furrow::stability::analyse(&scenario, p).map_err(|e| e.to_string())))
+        .map(|(_, p)| {
+            (
+                p.name.clone(),
+                furrow::stability::analyse(&scenario, p).map_err(|e| e.to_string()),
+            )
+        })
         .collect();
     let mut figs = figures::path_figures(&scenario, &runs);
     for (i, ((_, p), (_, recs))) in cols.iter().zip(&runs).enumerate() {
-        figs.push(figures::cobweb_figure(&scenario, p, recs, &format!("cobweb_{}_{}", i, figures::slug(&p.name))));
+        figs.push(figures::cobweb_figure(
+            &scenario,
+            p,
+            recs,
+            &format!("cobweb_{}_{}", i, figures::slug(&p.name)),
+        ));
     }
-    let ok_reports: Vec<(String, StabilityReport)> =
-        stability.iter().filter_map(|(n, r)| r.as_ref().ok().map(|r| (n.clone(), r.clone()))).collect();
+    let ok_reports: Vec<(String, StabilityReport)> = stability
+        .iter()
+        .filter_map(|(n, r)| r.as_ref().ok().map(|r| (n.clone(), r.clone())))
+        .collect();
     figs.extend(figures::eigen_figure(&ok_reports));
     let (headlines, welfare) = brief::path_welfare(&scenario, &runs);
     let basis = if scenario.shocks.is_deterministic() {
@@ -82,8 +97,14 @@ pub fn execute(args: &ReportArgs) -> anyhow::Result<()> {
     };
     let risk = None;
     let mut provenance = vec![
-        ("furrow version".to_string(), env!("CARGO_PKG_VERSION").to_string()),
-        ("command".into(), std::env::args().collect::<Vec<_>>().join(" ")),
+        (
+            "furrow version".to_string(),
+            env!("CARGO_PKG_VERSION").to_string(),
+        ),
+        (
+            "command".into(),
+            std::env::args().collect::<Vec<_>>().join(" "),
+        ),
         ("seed".into(), scenario.run.seed.to_string()),
         ("replications".into(), scenario.run.replications.to_string()),
         ("periods".into(), scenario.run.periods.to_string()),
@@ -124,21 +145,37 @@ pub fn execute(args: &ReportArgs) -> anyhow::Result<()> {
 }
 
 /// Writes the plots of one path into `dir`: price and harvest paths, the cobweb, the fiscal cost.
-pub fn plot_run(dir: &Path, scenario: &Scenario, policy: &PolicySpec, records: &[PeriodRecord]) -> anyhow::Result<()> {
+pub fn plot_run(
+    dir: &Path,
+    scenario: &Scenario,
+    policy: &PolicySpec,
+    records: &[PeriodRecord],
+) -> anyhow::Result<()> {
     figures::write_all(dir, &figures::run_figures(scenario, policy, records))
 }
 
 /// Writes the eigenvalue plot of one stability report into `dir`.
 #[allow(dead_code)] // for `stability --plots`, wired by the stability verb's owner
-pub fn plot_stability(dir: &Path, policy_name: &str, report: &StabilityReport) -> anyhow::Result<()> {
-    let figs: Vec<Figure> = figures::eigen_figure(&[(policy_name.to_string(), report.clone())]).into_iter().collect();
+pub fn plot_stability(
+    dir: &Path,
+    policy_name: &str,
+    report: &StabilityReport,
+) -> anyhow::Result<()> {
+    let figs: Vec<Figure> = figures::eigen_figure(&[(policy_name.to_string(), report.clone())])
+        .into_iter()
+        .collect();
     figures::write_all(dir, &figs)
 }
 
 /// Writes the plots of a sweep into `dir`: the stability map (two keys) or the spectral radius and
 /// the bifurcation diagram (one key).
 #[allow(dead_code)] // for `sweep --plots`, wired once the sweep verb lands in main
-pub fn plot_sweep(dir: &Path, keys: &[String], points: &[figures::SweepPoint], price_unit: &str) -> anyhow::Result<()> {
+pub fn plot_sweep(
+    dir: &Path,
+    keys: &[String],
+    points: &[figures::SweepPoint],
+    price_unit: &str,
+) -> anyhow::Result<()> {
     let figs = figures::sweep_figures(keys, points, price_unit);
     if figs.is_empty() {
         say("sweep: nothing to plot");

@@ -27,7 +27,13 @@ pub struct Bifurcation {
 }
 
 /// A bifurcation diagram of `key`.
-pub fn bifurcation(key: &str, price_unit: &str, values: Vec<f64>, prices: Vec<Vec<f64>>, steady: Option<Vec<f64>>) -> Plot {
+pub fn bifurcation(
+    key: &str,
+    price_unit: &str,
+    values: Vec<f64>,
+    prices: Vec<Vec<f64>>,
+    steady: Option<Vec<f64>>,
+) -> Plot {
     Plot::Bifurcation(Bifurcation {
         titles: Titles {
             title: format!("Long-run prices as {key} varies"),
@@ -43,7 +49,10 @@ pub fn bifurcation(key: &str, price_unit: &str, values: Vec<f64>, prices: Vec<Ve
 }
 
 impl Bifurcation {
-    pub(crate) fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> Result<(), PlotError> {
+    pub(crate) fn draw<DB: DrawingBackend>(
+        &self,
+        root: &DrawingArea<DB, Shift>,
+    ) -> Result<(), PlotError> {
         let dots: Vec<(f64, f64)> = self
             .values
             .iter()
@@ -55,7 +64,11 @@ impl Bifurcation {
             return Err(PlotError::Empty(self.titles.title.clone()));
         }
         let dot_c = style::series_colour(0);
-        let mut legend = vec![LegendEntry { name: "long-run prices".into(), colour: dot_c, key: LegendKey::Dot }];
+        let mut legend = vec![LegendEntry {
+            name: "long-run prices".into(),
+            colour: dot_c,
+            key: LegendKey::Dot,
+        }];
         let steady: Vec<(f64, f64)> = self
             .steady
             .iter()
@@ -63,22 +76,39 @@ impl Bifurcation {
             .filter(|p| p.0.is_finite() && p.1.is_finite())
             .collect();
         if !steady.is_empty() {
-            legend.push(LegendEntry { name: "steady-state price".into(), colour: style::series_colour(1), key: LegendKey::Dashed });
+            legend.push(LegendEntry {
+                name: "steady-state price".into(),
+                colour: style::series_colour(1),
+                key: LegendKey::Dashed,
+            });
         }
         let body = frame(root, &self.titles, &legend)?;
         let (x0, x1) = style::padded_range(dots.iter().map(|p| p.0), 0.03);
-        let (y0, y1) = style::padded_range(dots.iter().map(|p| p.1).chain(steady.iter().map(|p| p.1)), 0.06);
-        let mut chart = builder(&body).build_cartesian_2d(x0..x1, y0.max(0.0)..y1).map_err(de)?;
+        let (y0, y1) = style::padded_range(
+            dots.iter().map(|p| p.1).chain(steady.iter().map(|p| p.1)),
+            0.06,
+        );
+        let mut chart = builder(&body)
+            .build_cartesian_2d(x0..x1, y0.max(0.0)..y1)
+            .map_err(de)?;
         chart.plotting_area().fill(&style::FIELD).map_err(de)?;
         mesh(&mut chart, &self.x_label, &self.y_label)?;
         if steady.len() >= 2 {
             chart
-                .draw_series(DashedLineSeries::new(steady, 8, 5, style::series_colour(1).stroke_width(2)))
+                .draw_series(DashedLineSeries::new(
+                    steady,
+                    8,
+                    5,
+                    style::series_colour(1).stroke_width(2),
+                ))
                 .map_err(de)?;
         }
         let r = if dots.len() > 4000 { 1 } else { 2 };
         chart
-            .draw_series(dots.iter().map(|&p| Circle::new(p, r, dot_c.mix(0.75).filled())))
+            .draw_series(
+                dots.iter()
+                    .map(|&p| Circle::new(p, r, dot_c.mix(0.75).filled())),
+            )
             .map_err(de)?;
         Ok(())
     }

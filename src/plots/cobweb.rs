@@ -59,8 +59,8 @@ pub fn cobweb(
         },
         quantity_label: format!("quantity ({quantity_unit})"),
         price_label: format!("price ({price_unit})"),
-        demand: demand.clone(),
-        supply: supply.clone(),
+        demand: *demand,
+        supply: *supply,
         steps,
         steady,
     })
@@ -100,9 +100,14 @@ fn curve_runs(curve: &Curve, q0: f64, q1: f64, p0: f64, p1: f64) -> Vec<Vec<(f64
 }
 
 impl Cobweb {
-    pub(crate) fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> Result<(), PlotError> {
-        let stair: Vec<(f64, f64)> =
-            staircase(&self.steps).into_iter().filter(|p| p.0.is_finite() && p.1.is_finite()).collect();
+    pub(crate) fn draw<DB: DrawingBackend>(
+        &self,
+        root: &DrawingArea<DB, Shift>,
+    ) -> Result<(), PlotError> {
+        let stair: Vec<(f64, f64)> = staircase(&self.steps)
+            .into_iter()
+            .filter(|p| p.0.is_finite() && p.1.is_finite())
+            .collect();
         if stair.is_empty() {
             return Err(PlotError::Empty(self.titles.title.clone()));
         }
@@ -110,12 +115,28 @@ impl Cobweb {
         let demand_c = style::series_colour(2);
         let supply_c = style::series_colour(3);
         let mut legend = vec![
-            LegendEntry { name: "demand D(P)".into(), colour: demand_c, key: LegendKey::Line },
-            LegendEntry { name: "supply S(Pᵉ)".into(), colour: supply_c, key: LegendKey::Line },
-            LegendEntry { name: "simulated path".into(), colour: path_c, key: LegendKey::Line },
+            LegendEntry {
+                name: "demand D(P)".into(),
+                colour: demand_c,
+                key: LegendKey::Line,
+            },
+            LegendEntry {
+                name: "supply S(Pᵉ)".into(),
+                colour: supply_c,
+                key: LegendKey::Line,
+            },
+            LegendEntry {
+                name: "simulated path".into(),
+                colour: path_c,
+                key: LegendKey::Line,
+            },
         ];
         if self.steady.is_some() {
-            legend.push(LegendEntry { name: "steady state".into(), colour: style::INK, key: LegendKey::Dot });
+            legend.push(LegendEntry {
+                name: "steady state".into(),
+                colour: style::INK,
+                key: LegendKey::Dot,
+            });
         }
         let body = frame(root, &self.titles, &legend)?;
         let sq = self.steady.map(|s| s.0);
@@ -123,12 +144,16 @@ impl Cobweb {
         let (q0, q1) = style::padded_range(stair.iter().map(|p| p.0).chain(sq), 0.15);
         let (p0, p1) = style::padded_range(stair.iter().map(|p| p.1).chain(sp), 0.15);
         let (q0, p0) = (q0.max(0.0), p0.max(0.0));
-        let mut chart = builder(&body).build_cartesian_2d(q0..q1, p0..p1).map_err(de)?;
+        let mut chart = builder(&body)
+            .build_cartesian_2d(q0..q1, p0..p1)
+            .map_err(de)?;
         chart.plotting_area().fill(&style::FIELD).map_err(de)?;
         mesh(&mut chart, &self.quantity_label, &self.price_label)?;
         for (curve, c) in [(&self.demand, demand_c), (&self.supply, supply_c)] {
             for run in curve_runs(curve, q0, q1, p0, p1) {
-                chart.draw_series(LineSeries::new(run, c.stroke_width(3))).map_err(de)?;
+                chart
+                    .draw_series(LineSeries::new(run, c.stroke_width(3)))
+                    .map_err(de)?;
             }
         }
         // The path: fades from light (first season) to full colour (last).
@@ -136,27 +161,36 @@ impl Cobweb {
         for (i, w) in stair.windows(2).enumerate() {
             let alpha = 0.45 + 0.55 * (i as f64 / (n - 2.0).max(1.0));
             chart
-                .draw_series(LineSeries::new(vec![w[0], w[1]], path_c.mix(alpha).stroke_width(2)))
+                .draw_series(LineSeries::new(
+                    vec![w[0], w[1]],
+                    path_c.mix(alpha).stroke_width(2),
+                ))
                 .map_err(de)?;
         }
         if let Some(first) = stair.first() {
-            chart.draw_series(std::iter::once(Circle::new(*first, 5, path_c.filled()))).map_err(de)?;
+            chart
+                .draw_series(std::iter::once(Circle::new(*first, 5, path_c.filled())))
+                .map_err(de)?;
             chart
                 .draw_series(std::iter::once(
                     EmptyElement::at(*first)
                         + Text::new(
                             "start",
                             (8, -6),
-                            style::bold(13, style::INK).pos(plotters::style::text_anchor::Pos::new(
-                                plotters::style::text_anchor::HPos::Left,
-                                plotters::style::text_anchor::VPos::Bottom,
-                            )),
+                            style::bold(13, style::INK).pos(
+                                plotters::style::text_anchor::Pos::new(
+                                    plotters::style::text_anchor::HPos::Left,
+                                    plotters::style::text_anchor::VPos::Bottom,
+                                ),
+                            ),
                         ),
                 ))
                 .map_err(de)?;
         }
         if let Some(s) = self.steady {
-            chart.draw_series(std::iter::once(Circle::new(s, 6, style::INK.filled()))).map_err(de)?;
+            chart
+                .draw_series(std::iter::once(Circle::new(s, 6, style::INK.filled())))
+                .map_err(de)?;
         }
         Ok(())
     }

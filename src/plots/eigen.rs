@@ -51,15 +51,30 @@ fn groups(points: &[EigenPoint]) -> Vec<String> {
 }
 
 impl EigenPlot {
-    pub(crate) fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> Result<(), PlotError> {
-        let pts: Vec<&EigenPoint> = self.points.iter().filter(|p| p.re.is_finite() && p.im.is_finite()).collect();
+    pub(crate) fn draw<DB: DrawingBackend>(
+        &self,
+        root: &DrawingArea<DB, Shift>,
+    ) -> Result<(), PlotError> {
+        let pts: Vec<&EigenPoint> = self
+            .points
+            .iter()
+            .filter(|p| p.re.is_finite() && p.im.is_finite())
+            .collect();
         let names = groups(&self.points);
         let mut legend: Vec<LegendEntry> = names
             .iter()
             .enumerate()
-            .map(|(i, n)| LegendEntry { name: n.clone(), colour: style::series_colour(i), key: LegendKey::Dot })
+            .map(|(i, n)| LegendEntry {
+                name: n.clone(),
+                colour: style::series_colour(i),
+                key: LegendKey::Dot,
+            })
             .collect();
-        legend.push(LegendEntry { name: "unit circle |λ| = 1".into(), colour: style::REFERENCE, key: LegendKey::Line });
+        legend.push(LegendEntry {
+            name: "unit circle |λ| = 1".into(),
+            colour: style::REFERENCE,
+            key: LegendKey::Line,
+        });
         let body = frame(root, &self.titles, &legend)?;
         // Equal scales on both axes: the circle must look like a circle.
         let (bw, bh) = body.dim_in_pixel();
@@ -67,12 +82,20 @@ impl EigenPlot {
         let ph = bh.saturating_sub(8 + 6 + 48).max(10) as f64;
         let m = pts.iter().map(|p| p.re.hypot(p.im)).fold(1.0f64, f64::max);
         let r = (m * 1.12).max(1.25);
-        let (xr, yr) = if pw >= ph { (r * pw / ph, r) } else { (r, r * ph / pw) };
-        let mut chart = builder(&body).build_cartesian_2d(-xr..xr, -yr..yr).map_err(de)?;
+        let (xr, yr) = if pw >= ph {
+            (r * pw / ph, r)
+        } else {
+            (r, r * ph / pw)
+        };
+        let mut chart = builder(&body)
+            .build_cartesian_2d(-xr..xr, -yr..yr)
+            .map_err(de)?;
         chart.plotting_area().fill(&style::FIELD).map_err(de)?;
         mesh(&mut chart, "real part", "imaginary part")?;
         for line in [vec![(-xr, 0.0), (xr, 0.0)], vec![(0.0, -yr), (0.0, yr)]] {
-            chart.draw_series(LineSeries::new(line, style::MUTED.stroke_width(1))).map_err(de)?;
+            chart
+                .draw_series(LineSeries::new(line, style::MUTED.stroke_width(1)))
+                .map_err(de)?;
         }
         let circle: Vec<(f64, f64)> = (0..=360)
             .map(|k| {
@@ -80,7 +103,9 @@ impl EigenPlot {
                 (a.cos(), a.sin())
             })
             .collect();
-        chart.draw_series(LineSeries::new(circle, style::REFERENCE.stroke_width(2))).map_err(de)?;
+        chart
+            .draw_series(LineSeries::new(circle, style::REFERENCE.stroke_width(2)))
+            .map_err(de)?;
         for (gi, name) in names.iter().enumerate() {
             let c = style::series_colour(gi);
             let size = 7 - (gi as i32).min(3);

@@ -37,7 +37,13 @@ pub struct FanChart {
 }
 
 /// A fan chart of several policies overlaid. `replications` goes into the subtitle.
-pub fn fan(title: &str, x_label: &str, y_label: &str, replications: usize, bands: Vec<FanBand>) -> Plot {
+pub fn fan(
+    title: &str,
+    x_label: &str,
+    y_label: &str,
+    replications: usize,
+    bands: Vec<FanBand>,
+) -> Plot {
     Plot::Fan(FanChart {
         titles: Titles {
             title: title.into(),
@@ -52,11 +58,18 @@ pub fn fan(title: &str, x_label: &str, y_label: &str, replications: usize, bands
 }
 
 fn period_points(v: &[f64]) -> Vec<(f64, f64)> {
-    v.iter().enumerate().map(|(i, &y)| ((i + 1) as f64, y)).filter(|p| p.1.is_finite()).collect()
+    v.iter()
+        .enumerate()
+        .map(|(i, &y)| ((i + 1) as f64, y))
+        .filter(|p| p.1.is_finite())
+        .collect()
 }
 
 impl FanChart {
-    pub(crate) fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> Result<(), PlotError> {
+    pub(crate) fn draw<DB: DrawingBackend>(
+        &self,
+        root: &DrawingArea<DB, Shift>,
+    ) -> Result<(), PlotError> {
         let all = self
             .bands
             .iter()
@@ -68,12 +81,24 @@ impl FanChart {
             .bands
             .iter()
             .enumerate()
-            .map(|(i, b)| LegendEntry { name: b.name.clone(), colour: style::series_colour(i), key: LegendKey::Block })
+            .map(|(i, b)| LegendEntry {
+                name: b.name.clone(),
+                colour: style::series_colour(i),
+                key: LegendKey::Block,
+            })
             .collect();
         let body = frame(root, &self.titles, &legend)?;
-        let n = self.bands.iter().map(|b| b.p50.len()).max().unwrap_or(1).max(2);
+        let n = self
+            .bands
+            .iter()
+            .map(|b| b.p50.len())
+            .max()
+            .unwrap_or(1)
+            .max(2);
         let (y0, y1) = style::padded_range(all, 0.05);
-        let mut chart = builder(&body).build_cartesian_2d(1.0..n as f64, y0..y1).map_err(de)?;
+        let mut chart = builder(&body)
+            .build_cartesian_2d(1.0..n as f64, y0..y1)
+            .map_err(de)?;
         chart.plotting_area().fill(&style::FIELD).map_err(de)?;
         mesh(&mut chart, &self.x_label, &self.y_label)?;
         let alpha = if self.bands.len() > 2 { 0.14 } else { 0.22 };
@@ -84,17 +109,30 @@ impl FanChart {
             if lo.len() >= 2 && lo.len() == hi.len() {
                 let mut poly = hi.clone();
                 poly.extend(lo.iter().rev().copied());
-                chart.draw_series(std::iter::once(Polygon::new(poly, c.mix(alpha).filled()))).map_err(de)?;
-                chart.draw_series(LineSeries::new(lo, c.mix(0.55).stroke_width(1))).map_err(de)?;
-                chart.draw_series(LineSeries::new(hi, c.mix(0.55).stroke_width(1))).map_err(de)?;
+                chart
+                    .draw_series(std::iter::once(Polygon::new(poly, c.mix(alpha).filled())))
+                    .map_err(de)?;
+                chart
+                    .draw_series(LineSeries::new(lo, c.mix(0.55).stroke_width(1)))
+                    .map_err(de)?;
+                chart
+                    .draw_series(LineSeries::new(hi, c.mix(0.55).stroke_width(1)))
+                    .map_err(de)?;
             }
         }
         for (i, b) in self.bands.iter().enumerate() {
             let c = style::series_colour(i);
-            chart.draw_series(LineSeries::new(period_points(&b.p50), c.stroke_width(3))).map_err(de)?;
+            chart
+                .draw_series(LineSeries::new(period_points(&b.p50), c.stroke_width(3)))
+                .map_err(de)?;
             if let Some(m) = &b.mean {
                 chart
-                    .draw_series(DashedLineSeries::new(period_points(m), 7, 5, c.stroke_width(2)))
+                    .draw_series(DashedLineSeries::new(
+                        period_points(m),
+                        7,
+                        5,
+                        c.stroke_width(2),
+                    ))
                     .map_err(de)?;
             }
         }

@@ -67,7 +67,10 @@ fn draw_legend<DB: DrawingBackend>(
             match e.key {
                 LegendKey::Line => {
                     strip
-                        .draw(&PathElement::new(vec![(x, y), (x + 28, y)], c.stroke_width(3)))
+                        .draw(&PathElement::new(
+                            vec![(x, y), (x + 28, y)],
+                            c.stroke_width(3),
+                        ))
                         .map_err(de)?;
                 }
                 LegendKey::Dashed => {
@@ -83,10 +86,16 @@ fn draw_legend<DB: DrawingBackend>(
                 }
                 LegendKey::Block => {
                     strip
-                        .draw(&Rectangle::new([(x, y - 7), (x + 28, y + 7)], c.mix(0.35).filled()))
+                        .draw(&Rectangle::new(
+                            [(x, y - 7), (x + 28, y + 7)],
+                            c.mix(0.35).filled(),
+                        ))
                         .map_err(de)?;
                     strip
-                        .draw(&PathElement::new(vec![(x, y), (x + 28, y)], c.stroke_width(2)))
+                        .draw(&PathElement::new(
+                            vec![(x, y), (x + 28, y)],
+                            c.stroke_width(2),
+                        ))
                         .map_err(de)?;
                 }
                 LegendKey::Dot => {

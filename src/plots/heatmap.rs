@@ -28,7 +28,13 @@ pub struct StabilityMap {
 }
 
 /// The stability map of `x_key` × `y_key`; `radius[iy][ix]` belongs to `(xs[ix], ys[iy])`.
-pub fn heatmap(x_key: &str, y_key: &str, xs: Vec<f64>, ys: Vec<f64>, radius: Vec<Vec<f64>>) -> Plot {
+pub fn heatmap(
+    x_key: &str,
+    y_key: &str,
+    xs: Vec<f64>,
+    ys: Vec<f64>,
+    radius: Vec<Vec<f64>>,
+) -> Plot {
     Plot::Heat(StabilityMap {
         titles: Titles {
             title: format!("Stability map: {x_key} × {y_key}"),
@@ -48,7 +54,12 @@ type Segment = ((f64, f64), (f64, f64));
 /// Segments of the contour `value = level` of a field given on the grid points `(xs[i], ys[j])`
 /// with `grid[j][i]`; cells with a non-finite corner are skipped.
 pub fn contour_segments(xs: &[f64], ys: &[f64], grid: &[Vec<f64>], level: f64) -> Vec<Segment> {
-    let v = |i: usize, j: usize| grid.get(j).and_then(|r| r.get(i)).copied().unwrap_or(f64::NAN);
+    let v = |i: usize, j: usize| {
+        grid.get(j)
+            .and_then(|r| r.get(i))
+            .copied()
+            .unwrap_or(f64::NAN)
+    };
     let mut out = Vec::new();
     for j in 0..ys.len().saturating_sub(1) {
         for i in 0..xs.len().saturating_sub(1) {
@@ -130,19 +141,44 @@ fn edges(v: &[f64]) -> Vec<f64> {
 }
 
 impl StabilityMap {
-    pub(crate) fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> Result<(), PlotError> {
-        let finite: Vec<f64> = self.radius.iter().flatten().copied().filter(|r| r.is_finite()).collect();
+    pub(crate) fn draw<DB: DrawingBackend>(
+        &self,
+        root: &DrawingArea<DB, Shift>,
+    ) -> Result<(), PlotError> {
+        let finite: Vec<f64> = self
+            .radius
+            .iter()
+            .flatten()
+            .copied()
+            .filter(|r| r.is_finite())
+            .collect();
         if self.xs.is_empty() || self.ys.is_empty() || finite.is_empty() {
             return Err(PlotError::Empty(self.titles.title.clone()));
         }
         let top = finite.iter().copied().fold(1.5f64, f64::max).min(3.0);
         let mut legend = vec![
-            LegendEntry { name: "stable (ρ < 1)".into(), colour: STABLE_DEEP, key: LegendKey::Block },
-            LegendEntry { name: "unstable (ρ > 1)".into(), colour: UNSTABLE_DEEP, key: LegendKey::Block },
-            LegendEntry { name: "boundary ρ = 1".into(), colour: style::INK, key: LegendKey::Line },
+            LegendEntry {
+                name: "stable (ρ < 1)".into(),
+                colour: STABLE_DEEP,
+                key: LegendKey::Block,
+            },
+            LegendEntry {
+                name: "unstable (ρ > 1)".into(),
+                colour: UNSTABLE_DEEP,
+                key: LegendKey::Block,
+            },
+            LegendEntry {
+                name: "boundary ρ = 1".into(),
+                colour: style::INK,
+                key: LegendKey::Line,
+            },
         ];
         if self.radius.iter().flatten().any(|r| !r.is_finite()) {
-            legend.push(LegendEntry { name: "no steady state".into(), colour: MISSING, key: LegendKey::Block });
+            legend.push(LegendEntry {
+                name: "no steady state".into(),
+                colour: MISSING,
+                key: LegendKey::Block,
+            });
         }
         let body = frame(root, &self.titles, &legend)?;
         let (bw, _) = body.dim_in_pixel();
@@ -151,13 +187,18 @@ impl StabilityMap {
         let ey = edges(&self.ys);
         let (x0, x1) = (ex[0].min(ex[ex.len() - 1]), ex[0].max(ex[ex.len() - 1]));
         let (y0, y1) = (ey[0].min(ey[ey.len() - 1]), ey[0].max(ey[ey.len() - 1]));
-        let mut chart = builder(&left).build_cartesian_2d(x0..x1, y0..y1).map_err(de)?;
+        let mut chart = builder(&left)
+            .build_cartesian_2d(x0..x1, y0..y1)
+            .map_err(de)?;
         chart.plotting_area().fill(&style::FIELD).map_err(de)?;
         let mut cells = Vec::new();
         for (j, row) in self.radius.iter().enumerate().take(self.ys.len()) {
             for (i, &r) in row.iter().enumerate().take(self.xs.len()) {
                 let c = radius_colour(r, top);
-                cells.push(Rectangle::new([(ex[i], ey[j]), (ex[i + 1], ey[j + 1])], c.filled()));
+                cells.push(Rectangle::new(
+                    [(ex[i], ey[j]), (ex[i + 1], ey[j + 1])],
+                    c.filled(),
+                ));
             }
         }
         chart.draw_series(cells).map_err(de)?;
@@ -177,24 +218,39 @@ impl StabilityMap {
             .map_err(de)?;
         let segs = contour_segments(&self.xs, &self.ys, &self.radius, 1.0);
         chart
-            .draw_series(segs.into_iter().map(|(a, b)| PathElement::new(vec![a, b], style::INK.stroke_width(3))))
+            .draw_series(
+                segs.into_iter()
+                    .map(|(a, b)| PathElement::new(vec![a, b], style::INK.stroke_width(3))),
+            )
             .map_err(de)?;
         draw_colour_bar(&bar, top)
     }
 }
 
-fn draw_colour_bar<DB: DrawingBackend>(bar: &DrawingArea<DB, Shift>, top: f64) -> Result<(), PlotError> {
+fn draw_colour_bar<DB: DrawingBackend>(
+    bar: &DrawingArea<DB, Shift>,
+    top: f64,
+) -> Result<(), PlotError> {
     let (_, h) = bar.dim_in_pixel();
     let (y_top, y_bot) = (30i32, h as i32 - 60);
     let span = (y_bot - y_top).max(10);
     let (x0, x1) = (18i32, 42i32);
-    bar.draw(&Text::new("ρ", (x0, 8), style::bold(15, style::INK))).map_err(de)?;
+    bar.draw(&Text::new("ρ", (x0, 8), style::bold(15, style::INK)))
+        .map_err(de)?;
     for k in 0..span {
         let r = top * (1.0 - k as f64 / span as f64);
         let c = radius_colour(r, top);
-        bar.draw(&Rectangle::new([(x0, y_top + k), (x1, y_top + k + 1)], c.filled())).map_err(de)?;
+        bar.draw(&Rectangle::new(
+            [(x0, y_top + k), (x1, y_top + k + 1)],
+            c.filled(),
+        ))
+        .map_err(de)?;
     }
-    bar.draw(&Rectangle::new([(x0, y_top), (x1, y_bot)], style::MUTED.stroke_width(1))).map_err(de)?;
+    bar.draw(&Rectangle::new(
+        [(x0, y_top), (x1, y_bot)],
+        style::MUTED.stroke_width(1),
+    ))
+    .map_err(de)?;
     let mut ticks = vec![0.0, 0.5, 1.0];
     let mut t = 1.5;
     while t <= top + 1e-9 {
@@ -203,11 +259,27 @@ fn draw_colour_bar<DB: DrawingBackend>(bar: &DrawingArea<DB, Shift>, top: f64) -
     }
     for v in ticks {
         let y = y_bot - ((v / top) * span as f64).round() as i32;
-        let (w, c) = if (v - 1.0).abs() < 1e-12 { (3, style::INK) } else { (1, style::MUTED) };
-        bar.draw(&PathElement::new(vec![(x0 - 4, y), (x1 + 4, y)], c.stroke_width(w))).map_err(de)?;
-        let label = if (v - top).abs() < 1e-9 && top >= 3.0 { "≥ 3".to_string() } else { style::tick(v) };
-        bar.draw(&Text::new(label, (x1 + 8, y), style::text(13, style::INK).pos(Pos::new(HPos::Left, VPos::Center))))
-            .map_err(de)?;
+        let (w, c) = if (v - 1.0).abs() < 1e-12 {
+            (3, style::INK)
+        } else {
+            (1, style::MUTED)
+        };
+        bar.draw(&PathElement::new(
+            vec![(x0 - 4, y), (x1 + 4, y)],
+            c.stroke_width(w),
+        ))
+        .map_err(de)?;
+        let label = if (v - top).abs() < 1e-9 && top >= 3.0 {
+            "≥ 3".to_string()
+        } else {
+            style::tick(v)
+        };
+        bar.draw(&Text::new(
+            label,
+            (x1 + 8, y),
+            style::text(13, style::INK).pos(Pos::new(HPos::Left, VPos::Center)),
+        ))
+        .map_err(de)?;
     }
     Ok(())
 }

@@ -60,7 +60,10 @@ pub struct LineChart {
 /// Lines overlaid across policies (price or harvest paths).
 pub fn paths(title: &str, x_label: &str, y_label: &str, series: Vec<Series>) -> Plot {
     Plot::Lines(LineChart {
-        titles: Titles { title: title.into(), subtitle: String::new() },
+        titles: Titles {
+            title: title.into(),
+            subtitle: String::new(),
+        },
         x_label: x_label.into(),
         y_label: y_label.into(),
         series,
@@ -86,12 +89,21 @@ pub struct BarChart {
 pub fn fiscal(title: &str, x_label: &str, y_label: &str, series: Vec<Series>) -> Plot {
     let titles = Titles {
         title: title.into(),
-        subtitle: "cost to the treasury per period; below zero the agency earned more than it spent"
-            .into(),
+        subtitle:
+            "cost to the treasury per period; below zero the agency earned more than it spent"
+                .into(),
     };
     if series.len() == 1 {
-        let s = series.into_iter().next().unwrap_or_else(|| Series::periods("", &[]));
-        Plot::Bars(BarChart { titles, x_label: x_label.into(), y_label: y_label.into(), series: s })
+        let s = series
+            .into_iter()
+            .next()
+            .unwrap_or_else(|| Series::periods("", &[]));
+        Plot::Bars(BarChart {
+            titles,
+            x_label: x_label.into(),
+            y_label: y_label.into(),
+            series: s,
+        })
     } else {
         Plot::Lines(LineChart {
             titles,
@@ -105,13 +117,22 @@ pub fn fiscal(title: &str, x_label: &str, y_label: &str, series: Vec<Series>) ->
 }
 
 fn x_range(series: &[Series]) -> (f64, f64) {
-    let (lo, hi) = style::padded_range(series.iter().flat_map(|s| s.points.iter().map(|p| p.0)), 0.0);
+    let (lo, hi) = style::padded_range(
+        series.iter().flat_map(|s| s.points.iter().map(|p| p.0)),
+        0.0,
+    );
     (lo, hi)
 }
 
 impl LineChart {
-    pub(crate) fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> Result<(), PlotError> {
-        let ys = self.series.iter().flat_map(|s| s.points.iter().map(|p| p.1));
+    pub(crate) fn draw<DB: DrawingBackend>(
+        &self,
+        root: &DrawingArea<DB, Shift>,
+    ) -> Result<(), PlotError> {
+        let ys = self
+            .series
+            .iter()
+            .flat_map(|s| s.points.iter().map(|p| p.1));
         if !ys.clone().any(f64::is_finite) {
             return Err(PlotError::Empty(self.titles.title.clone()));
         }
@@ -119,22 +140,35 @@ impl LineChart {
             .series
             .iter()
             .enumerate()
-            .map(|(i, s)| LegendEntry { name: s.name.clone(), colour: style::series_colour(i), key: LegendKey::Line })
+            .map(|(i, s)| LegendEntry {
+                name: s.name.clone(),
+                colour: style::series_colour(i),
+                key: LegendKey::Line,
+            })
             .collect();
         for r in &self.references {
-            legend.push(LegendEntry { name: r.label.clone(), colour: style::REFERENCE, key: LegendKey::Dashed });
+            legend.push(LegendEntry {
+                name: r.label.clone(),
+                colour: style::REFERENCE,
+                key: LegendKey::Dashed,
+            });
         }
         let body = frame(root, &self.titles, &legend)?;
         let extra = self.references.iter().map(|r| r.value);
         let zero = if self.include_zero { Some(0.0) } else { None };
         let (y0, y1) = style::padded_range(ys.chain(extra).chain(zero), 0.06);
         let (x0, x1) = x_range(&self.series);
-        let mut chart = builder(&body).build_cartesian_2d(x0..x1, y0..y1).map_err(de)?;
+        let mut chart = builder(&body)
+            .build_cartesian_2d(x0..x1, y0..y1)
+            .map_err(de)?;
         chart.plotting_area().fill(&style::FIELD).map_err(de)?;
         mesh(&mut chart, &self.x_label, &self.y_label)?;
         if self.include_zero {
             chart
-                .draw_series(LineSeries::new(vec![(x0, 0.0), (x1, 0.0)], style::MUTED.stroke_width(1)))
+                .draw_series(LineSeries::new(
+                    vec![(x0, 0.0), (x1, 0.0)],
+                    style::MUTED.stroke_width(1),
+                ))
                 .map_err(de)?;
         }
         for r in &self.references {
@@ -147,11 +181,19 @@ impl LineChart {
                 ))
                 .map_err(de)?;
         }
-        let many_points = self.series.iter().map(|s| s.points.len()).max().unwrap_or(0) > 60;
+        let many_points = self
+            .series
+            .iter()
+            .map(|s| s.points.len())
+            .max()
+            .unwrap_or(0)
+            > 60;
         for (i, s) in self.series.iter().enumerate() {
             let c = style::series_colour(i);
             for run in finite_runs(&s.points) {
-                chart.draw_series(LineSeries::new(run.clone(), c.stroke_width(3))).map_err(de)?;
+                chart
+                    .draw_series(LineSeries::new(run.clone(), c.stroke_width(3)))
+                    .map_err(de)?;
                 if !many_points {
                     chart
                         .draw_series(run.iter().map(|&p| Circle::new(p, 3, c.filled())))
@@ -164,23 +206,41 @@ impl LineChart {
 }
 
 impl BarChart {
-    pub(crate) fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> Result<(), PlotError> {
-        let pts: Vec<(f64, f64)> =
-            self.series.points.iter().copied().filter(|p| p.0.is_finite() && p.1.is_finite()).collect();
+    pub(crate) fn draw<DB: DrawingBackend>(
+        &self,
+        root: &DrawingArea<DB, Shift>,
+    ) -> Result<(), PlotError> {
+        let pts: Vec<(f64, f64)> = self
+            .series
+            .points
+            .iter()
+            .copied()
+            .filter(|p| p.0.is_finite() && p.1.is_finite())
+            .collect();
         if pts.is_empty() {
             return Err(PlotError::Empty(self.titles.title.clone()));
         }
         let cost = style::series_colour(2);
         let gain = style::series_colour(3);
         let legend = vec![
-            LegendEntry { name: format!("{}: cost", self.series.name), colour: cost, key: LegendKey::Block },
-            LegendEntry { name: "receipt (sales above cost)".into(), colour: gain, key: LegendKey::Block },
+            LegendEntry {
+                name: format!("{}: cost", self.series.name),
+                colour: cost,
+                key: LegendKey::Block,
+            },
+            LegendEntry {
+                name: "receipt (sales above cost)".into(),
+                colour: gain,
+                key: LegendKey::Block,
+            },
         ];
         let body = frame(root, &self.titles, &legend)?;
         let (y0, y1) = style::padded_range(pts.iter().map(|p| p.1).chain(Some(0.0)), 0.06);
         let (x0, x1) = style::padded_range(pts.iter().map(|p| p.0), 0.0);
         let (x0, x1) = (x0 - 0.6, x1 + 0.6);
-        let mut chart = builder(&body).build_cartesian_2d(x0..x1, y0..y1).map_err(de)?;
+        let mut chart = builder(&body)
+            .build_cartesian_2d(x0..x1, y0..y1)
+            .map_err(de)?;
         chart.plotting_area().fill(&style::FIELD).map_err(de)?;
         mesh(&mut chart, &self.x_label, &self.y_label)?;
         let half = if pts.len() > 1 {
@@ -196,7 +256,10 @@ impl BarChart {
             }))
             .map_err(de)?;
         chart
-            .draw_series(LineSeries::new(vec![(x0, 0.0), (x1, 0.0)], style::INK.stroke_width(1)))
+            .draw_series(LineSeries::new(
+                vec![(x0, 0.0), (x1, 0.0)],
+                style::INK.stroke_width(1),
+            ))
             .map_err(de)?;
         Ok(())
     }

@@ -103,8 +103,8 @@ impl Plot {
     pub fn svg_string(&self) -> Result<String, PlotError> {
         let mut s = String::new();
         {
-            let root = SVGBackend::with_string(&mut s, (style::WIDTH, style::HEIGHT))
-                .into_drawing_area();
+            let root =
+                SVGBackend::with_string(&mut s, (style::WIDTH, style::HEIGHT)).into_drawing_area();
             self.draw(&root)?;
             root.present().map_err(frame::de)?;
         }
@@ -131,8 +131,10 @@ impl Plot {
         let svg = dir.join(format!("{stem}.svg"));
         self.write_png(&png)?;
         let text = self.svg_string()?;
-        crate::output::write_whole(&svg, text.as_bytes())
-            .map_err(|source| PlotError::Io { path: svg.clone(), source })?;
+        crate::output::write_whole(&svg, text.as_bytes()).map_err(|source| PlotError::Io {
+            path: svg.clone(),
+            source,
+        })?;
         Ok(vec![png, svg])
     }
 }

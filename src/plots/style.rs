@@ -70,7 +70,9 @@ pub fn text(size: u32, colour: RGBColor) -> TextStyle<'static> {
 
 /// Bold text style of the given size and colour.
 pub fn bold(size: u32, colour: RGBColor) -> TextStyle<'static> {
-    (FAMILY, size as f64, FontStyle::Bold).into_font().color(&colour)
+    (FAMILY, size as f64, FontStyle::Bold)
+        .into_font()
+        .color(&colour)
 }
 
 /// A range `[lo, hi]` covering all finite values with a margin of `pad` (share of the span) on both

@@ -23,7 +23,11 @@ pub fn inline_svg(svg: &str, label: &str) -> String {
     let start = svg.find("<svg").unwrap_or(0);
     let body = &svg[start..];
     let body = body.replacen(" xmlns=\"http://www.w3.org/2000/svg\"", "", 1);
-    let body = body.replacen("<svg", &format!("<svg role=\"img\" aria-label=\"{}\"", escape(label)), 1);
+    let body = body.replacen(
+        "<svg",
+        &format!("<svg role=\"img\" aria-label=\"{}\"", escape(label)),
+        1,
+    );
     // Drop fixed width/height on the root so CSS can scale it (the viewBox keeps the proportions).
     match body.find('>') {
         Some(end) => {

@@ -43,7 +43,10 @@ pub struct Section {
 impl Section {
     /// An empty section with this heading.
     pub fn new(heading: impl Into<String>) -> Section {
-        Section { heading: heading.into(), blocks: Vec::new() }
+        Section {
+            heading: heading.into(),
+            blocks: Vec::new(),
+        }
     }
 
     /// Adds a paragraph.
@@ -60,13 +63,19 @@ impl Section {
 
     /// Adds a table.
     pub fn table(&mut self, caption: impl Into<String>, table: TextTable) -> &mut Self {
-        self.blocks.push(Block::Table { caption: caption.into(), table });
+        self.blocks.push(Block::Table {
+            caption: caption.into(),
+            table,
+        });
         self
     }
 
     /// Adds a figure.
     pub fn figure(&mut self, caption: impl Into<String>, svg: String) -> &mut Self {
-        self.blocks.push(Block::Figure { caption: caption.into(), svg });
+        self.blocks.push(Block::Figure {
+            caption: caption.into(),
+            svg,
+        });
         self
     }
 }
@@ -106,7 +115,12 @@ fn render_table(out: &mut String, caption: &str, t: &TextTable) {
     // A column is right-aligned when every non-empty cell in it is a number.
     let numeric: Vec<bool> = (0..t.headers.len())
         .map(|j| {
-            let cells: Vec<&String> = t.rows.iter().filter_map(|r| r.get(j)).filter(|c| !c.trim().is_empty()).collect();
+            let cells: Vec<&String> = t
+                .rows
+                .iter()
+                .filter_map(|r| r.get(j))
+                .filter(|c| !c.trim().is_empty())
+                .collect();
             !cells.is_empty() && cells.iter().all(|c| is_numeric(c))
         })
         .collect();
@@ -133,7 +147,10 @@ impl Briefing {
         o.push_str("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n");
         o.push_str("<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n");
         o.push_str(&format!("<title>{}</title>\n", escape(&self.title)));
-        o.push_str(&format!("<style>{}</style>\n</head>\n<body>\n<main>\n", html::CSS));
+        o.push_str(&format!(
+            "<style>{}</style>\n</head>\n<body>\n<main>\n",
+            html::CSS
+        ));
         o.push_str(&format!(
             "<header class=\"brief\"><h1>{}</h1><p class=\"sub\">{}</p>\n",
             escape(&self.title),
@@ -142,7 +159,11 @@ impl Briefing {
         if !self.sections.is_empty() {
             o.push_str("<nav class=\"toc\">");
             for (i, s) in self.sections.iter().enumerate() {
-                o.push_str(&format!("<a href=\"#{}\">{}</a>", anchor(i), escape(&s.heading)));
+                o.push_str(&format!(
+                    "<a href=\"#{}\">{}</a>",
+                    anchor(i),
+                    escape(&s.heading)
+                ));
             }
             o.push_str("<a href=\"#provenance\">Provenance</a></nav>\n");
         }
@@ -161,7 +182,11 @@ impl Briefing {
             ));
         }
         for (i, s) in self.sections.iter().enumerate() {
-            o.push_str(&format!("<section id=\"{}\">\n<h2>{}</h2>\n", anchor(i), escape(&s.heading)));
+            o.push_str(&format!(
+                "<section id=\"{}\">\n<h2>{}</h2>\n",
+                anchor(i),
+                escape(&s.heading)
+            ));
             for b in &s.blocks {
                 match b {
                     Block::Paragraph(t) => o.push_str(&format!("<p>{}</p>\n", escape(t))),
@@ -170,7 +195,10 @@ impl Briefing {
                     Block::Figure { caption, svg } => {
                         o.push_str("<figure>\n");
                         o.push_str(&inline_svg(svg, caption));
-                        o.push_str(&format!("\n<figcaption>{}</figcaption>\n</figure>\n", escape(caption)));
+                        o.push_str(&format!(
+                            "\n<figcaption>{}</figcaption>\n</figure>\n",
+                            escape(caption)
+                        ));
                     }
                 }
             }
@@ -181,7 +209,11 @@ impl Briefing {
         for (k, v) in &self.provenance {
             t.push(vec![k.clone(), v.clone()]);
         }
-        render_table(&mut o, "How this briefing was produced (re-running with these inputs gives the same numbers)", &t);
+        render_table(
+            &mut o,
+            "How this briefing was produced (re-running with these inputs gives the same numbers)",
+            &t,
+        );
         o.push_str("</section>\n");
         if !self.caution.is_empty() {
             o.push_str(&format!("<footer>{}</footer>\n", escape(&self.caution)));

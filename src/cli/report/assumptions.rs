@@ -4,7 +4,9 @@
 
 use anyhow::Context;
 use furrow::output::{fmt_num, TextTable};
-use furrow::scenario::{parse_toml, ExpectationSpec, FloorInstrument, PolicySpec, ReleaseSpec, Scenario};
+use furrow::scenario::{
+    parse_toml, ExpectationSpec, FloorInstrument, PolicySpec, ReleaseSpec, Scenario,
+};
 use sha2::{Digest, Sha256};
 
 use super::super::common::CommonArgs;
@@ -23,7 +25,11 @@ fn value_text(v: &toml::Value) -> String {
 
 fn flatten(prefix: &str, t: &toml::Table, out: &mut Vec<(String, String)>) {
     for (k, v) in t {
-        let key = if prefix.is_empty() { k.clone() } else { format!("{prefix}.{k}") };
+        let key = if prefix.is_empty() {
+            k.clone()
+        } else {
+            format!("{prefix}.{k}")
+        };
         match v {
             toml::Value::Table(inner) => flatten(&key, inner, out),
             other => out.push((key, value_text(other))),
@@ -73,27 +79,47 @@ pub fn assumption_table(
             "run.periods" => common.periods.is_some(),
             _ => false,
         };
-        let src = if overridden { format!("{market_path} (overridden on the command line)") } else { market_path.to_string() };
+        let src = if overridden {
+            format!("{market_path} (overridden on the command line)")
+        } else {
+            market_path.to_string()
+        };
         t.push(vec![k.clone(), v.clone(), src]);
     }
     let r = &scenario.run;
     let s = &scenario.shocks;
     let effective: Vec<(&str, String, Option<bool>)> = vec![
-        ("run.periods", r.periods.to_string(), common.periods.map(|_| true)),
-        ("run.replications", r.replications.to_string(), common.replications.map(|_| true)),
+        (
+            "run.periods",
+            r.periods.to_string(),
+            common.periods.map(|_| true),
+        ),
+        (
+            "run.replications",
+            r.replications.to_string(),
+            common.replications.map(|_| true),
+        ),
         ("run.seed", r.seed.to_string(), common.seed.map(|_| true)),
         ("run.discount_rate", trim(fmt_num(r.discount_rate, 6)), None),
         ("run.risk_aversion", trim(fmt_num(r.risk_aversion, 6)), None),
         ("shocks.yield_cv", trim(fmt_num(s.yield_cv, 6)), None),
         ("shocks.supply_sd", trim(fmt_num(s.supply_sd, 6)), None),
         ("shocks.demand_sd", trim(fmt_num(s.demand_sd, 6)), None),
-        ("shocks.demand_persistence", trim(fmt_num(s.demand_persistence, 6)), None),
+        (
+            "shocks.demand_persistence",
+            trim(fmt_num(s.demand_persistence, 6)),
+            None,
+        ),
     ];
     for (k, v, cli) in effective {
         if cli.is_some() {
             t.push(vec![k.to_string(), v, "command line".into()]);
         } else if !has(k) {
-            t.push(vec![k.to_string(), v, "furrow default (not in the file)".into()]);
+            t.push(vec![
+                k.to_string(),
+                v,
+                "furrow default (not in the file)".into(),
+            ]);
         }
     }
     t.push(vec![
@@ -123,7 +149,11 @@ fn money(x: f64) -> String {
 }
 
 /// Policies side by side: one column per policy, one row per design choice.
-pub fn policy_table(policies: &[(String, PolicySpec)], price_unit: &str, quantity_unit: &str) -> TextTable {
+pub fn policy_table(
+    policies: &[(String, PolicySpec)],
+    price_unit: &str,
+    quantity_unit: &str,
+) -> TextTable {
     let mut headers = vec!["design".to_string()];
     headers.extend(policies.iter().map(|(_, p)| p.name.clone()));
     let mut t = TextTable::new(&headers);
@@ -134,32 +164,67 @@ pub fn policy_table(policies: &[(String, PolicySpec)], price_unit: &str, quantit
     };
     t.push({
         let mut r = vec!["file".to_string()];
-        r.extend(policies.iter().map(|(f, _)| if f.is_empty() { "(built in)".into() } else { f.clone() }));
+        r.extend(policies.iter().map(|(f, _)| {
+            if f.is_empty() {
+                "(built in)".into()
+            } else {
+                f.clone()
+            }
+        }));
         r
     });
-    t.push(row(&format!("price floor ({price_unit})"), &|p| p.floor.map_or("none".into(), |f| fmt_num(f.price, 2))));
+    t.push(row(&format!("price floor ({price_unit})"), &|p| {
+        p.floor.map_or("none".into(), |f| fmt_num(f.price, 2))
+    }));
     t.push(row("floor instrument", &|p| {
         p.floor.map_or("—".into(), |f| match f.instrument {
             FloorInstrument::Purchase => "public purchase".into(),
             FloorInstrument::DeficiencyPayment => "deficiency payment".into(),
         })
     }));
-    t.push(row("floor announced", &|p| p.floor.map_or("—".into(), |f| if f.announced { "yes".into() } else { "no".into() })));
-    t.push(row(&format!("stock buys below ({price_unit})"), &|p| p.stock.map_or("no stock".into(), |s| money(s.buy_below))));
-    t.push(row(&format!("stock sells above ({price_unit})"), &|p| p.stock.map_or("—".into(), |s| money(s.sell_above))));
-    t.push(row(&format!("capacity ({quantity_unit})"), &|p| p.stock.map_or("—".into(), |s| money(s.capacity))));
-    t.push(row(&format!("initial stock ({quantity_unit})"), &|p| p.stock.map_or("—".into(), |s| money(s.initial))));
+    t.push(row("floor announced", &|p| {
+        p.floor.map_or("—".into(), |f| {
+            if f.announced {
+                "yes".into()
+            } else {
+                "no".into()
+            }
+        })
+    }));
+    t.push(row(&format!("stock buys below ({price_unit})"), &|p| {
+        p.stock.map_or("no stock".into(), |s| money(s.buy_below))
+    }));
+    t.push(row(&format!("stock sells above ({price_unit})"), &|p| {
+        p.stock.map_or("—".into(), |s| money(s.sell_above))
+    }));
+    t.push(row(&format!("capacity ({quantity_unit})"), &|p| {
+        p.stock.map_or("—".into(), |s| money(s.capacity))
+    }));
+    t.push(row(&format!("initial stock ({quantity_unit})"), &|p| {
+        p.stock.map_or("—".into(), |s| money(s.initial))
+    }));
     t.push(row("release rule", &|p| {
         p.stock.map_or("—".into(), |s| match s.release {
             ReleaseSpec::Band => "band".into(),
-            ReleaseSpec::Target { target, speed } => format!("target {} at speed {}", fmt_num(target, 2), fmt_num(speed, 2)),
+            ReleaseSpec::Target { target, speed } => format!(
+                "target {} at speed {}",
+                fmt_num(target, 2),
+                fmt_num(speed, 2)
+            ),
             ReleaseSpec::Share { share } => format!("share {}", fmt_num(share, 2)),
         })
     }));
-    t.push(row(&format!("storage cost ({price_unit} per season)"), &|p| p.stock.map_or("—".into(), |s| money(s.storage_cost))));
-    t.push(row("loss rate per season", &|p| p.stock.map_or("—".into(), |s| fmt_num(s.loss_rate, 3))));
+    t.push(row(
+        &format!("storage cost ({price_unit} per season)"),
+        &|p| p.stock.map_or("—".into(), |s| money(s.storage_cost)),
+    ));
+    t.push(row("loss rate per season", &|p| {
+        p.stock.map_or("—".into(), |s| fmt_num(s.loss_rate, 3))
+    }));
     t.push(row("expectations", &|p| {
-        p.expectations.as_ref().map_or("as in the market file".into(), expectation_text)
+        p.expectations
+            .as_ref()
+            .map_or("as in the market file".into(), expectation_text)
     }));
     t
 }
@@ -169,7 +234,9 @@ pub fn expectation_text(e: &ExpectationSpec) -> String {
     match e {
         ExpectationSpec::Adaptive { weight, .. }
         | ExpectationSpec::NormalPrice { weight, .. }
-        | ExpectationSpec::Extrapolative { weight } => format!("{}, weight {}", e.rule_name(), fmt_num(*weight, 3)),
+        | ExpectationSpec::Extrapolative { weight } => {
+            format!("{}, weight {}", e.rule_name(), fmt_num(*weight, 3))
+        }
         ExpectationSpec::TrailingMean { window } => format!("{}, window {window}", e.rule_name()),
         _ => e.rule_name().to_string(),
     }

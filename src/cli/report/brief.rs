@@ -62,15 +62,33 @@ fn mean_sd(x: &[f64]) -> (f64, f64) {
         return (f64::NAN, f64::NAN);
     }
     let m = x.iter().sum::<f64>() / n;
-    let v = if n > 1.0 { x.iter().map(|v| (v - m).powi(2)).sum::<f64>() / (n - 1.0) } else { 0.0 };
+    let v = if n > 1.0 {
+        x.iter().map(|v| (v - m).powi(2)).sum::<f64>() / (n - 1.0)
+    } else {
+        0.0
+    };
     (m, v.sqrt())
 }
 
 /// Headlines and the welfare table from one path per policy; `runs[0]` is the market left alone.
-pub fn path_welfare(scenario: &Scenario, runs: &[(String, Vec<PeriodRecord>)]) -> (Vec<Headline>, TextTable) {
+pub fn path_welfare(
+    scenario: &Scenario,
+    runs: &[(String, Vec<PeriodRecord>)],
+) -> (Vec<Headline>, TextTable) {
     let money = money_unit(&scenario.market.price_unit, &scenario.market.quantity_unit);
-    let base = runs.first().map(|(_, r)| path_pv(scenario, r)).unwrap_or_default();
-    let mut t = TextTable::new(&["policy", "mean price", "price sd", "fiscal cost PV", "Δ consumer surplus PV", "Δ producer surplus PV", "net welfare change PV"]);
+    let base = runs
+        .first()
+        .map(|(_, r)| path_pv(scenario, r))
+        .unwrap_or_default();
+    let mut t = TextTable::new(&[
+        "policy",
+        "mean price",
+        "price sd",
+        "fiscal cost PV",
+        "Δ consumer surplus PV",
+        "Δ producer surplus PV",
+        "net welfare change PV",
+    ]);
     t.headers[3] = format!("fiscal cost PV ({money})");
     let mut heads = Vec::new();
     for (name, recs) in runs {
@@ -81,8 +99,21 @@ pub fn path_welfare(scenario: &Scenario, runs: &[(String, Vec<PeriodRecord>)]) -
         let dp = pv.producer - base.producer;
         let df = pv.fiscal - base.fiscal;
         let net = dc + dp - df;
-        t.push(vec![name.clone(), fmt_num(m, 2), fmt_num(sd, 2), fmt_num(pv.fiscal, 0), fmt_num(dc, 0), fmt_num(dp, 0), fmt_num(net, 0)]);
-        heads.push(Headline { name: name.clone(), price_sd: sd, fiscal_pv: pv.fiscal, net_pv: net });
+        t.push(vec![
+            name.clone(),
+            fmt_num(m, 2),
+            fmt_num(sd, 2),
+            fmt_num(pv.fiscal, 0),
+            fmt_num(dc, 0),
+            fmt_num(dp, 0),
+            fmt_num(net, 0),
+        ]);
+        heads.push(Headline {
+            name: name.clone(),
+            price_sd: sd,
+            fiscal_pv: pv.fiscal,
+            net_pv: net,
+        });
     }
     (heads, t)
 }
@@ -90,9 +121,18 @@ pub fn path_welfare(scenario: &Scenario, runs: &[(String, Vec<PeriodRecord>)]) -
 /// Summary sentences: which policy steadies the price most, at what cost, and who gains.
 pub fn summary(heads: &[Headline], money: &str, price_unit: &str, basis: &str) -> Vec<String> {
     let mut out = Vec::new();
-    let Some(base) = heads.first() else { return out };
-    let others: Vec<&Headline> = heads.iter().skip(1).filter(|h| h.price_sd.is_finite()).collect();
-    if let Some(best) = others.iter().min_by(|a, b| a.price_sd.total_cmp(&b.price_sd)) {
+    let Some(base) = heads.first() else {
+        return out;
+    };
+    let others: Vec<&Headline> = heads
+        .iter()
+        .skip(1)
+        .filter(|h| h.price_sd.is_finite())
+        .collect();
+    if let Some(best) = others
+        .iter()
+        .min_by(|a, b| a.price_sd.total_cmp(&b.price_sd))
+    {
         if best.price_sd < base.price_sd {
             let cut = 100.0 * (1.0 - best.price_sd / base.price_sd.max(1e-12));
             out.push(format!(
@@ -106,8 +146,15 @@ pub fn summary(heads: &[Headline], money: &str, price_unit: &str, basis: &str) -
             ));
         }
     }
-    if let Some(cheap) = others.iter().min_by(|a, b| a.fiscal_pv.total_cmp(&b.fiscal_pv)) {
-        out.push(format!("The cheapest policy for the treasury is “{}” ({} {money} in present value).", cheap.name, fmt_num(cheap.fiscal_pv, 0)));
+    if let Some(cheap) = others
+        .iter()
+        .min_by(|a, b| a.fiscal_pv.total_cmp(&b.fiscal_pv))
+    {
+        out.push(format!(
+            "The cheapest policy for the treasury is “{}” ({} {money} in present value).",
+            cheap.name,
+            fmt_num(cheap.fiscal_pv, 0)
+        ));
     }
     if let Some(w) = others.iter().max_by(|a, b| a.net_pv.total_cmp(&b.net_pv)) {
         let verb = if w.net_pv >= 0.0 { "gains" } else { "loses" };
@@ -121,7 +168,14 @@ pub fn summary(heads: &[Headline], money: &str, price_unit: &str, basis: &str) -
 
 /// Stability verdict table; a failed analysis shows its reason.
 pub fn stability_table(reports: &[(String, Result<StabilityReport, String>)]) -> TextTable {
-    let mut t = TextTable::new(&["policy", "verdict", "spectral radius", "regimes", "cycle period (seasons)", "half-life (seasons)"]);
+    let mut t = TextTable::new(&[
+        "policy",
+        "verdict",
+        "spectral radius",
+        "regimes",
+        "cycle period (seasons)",
+        "half-life (seasons)",
+    ]);
     for (name, r) in reports {
         match r {
             Ok(rep) => {
@@ -130,12 +184,25 @@ pub fn stability_table(reports: &[(String, Result<StabilityReport, String>)]) ->
                     name.clone(),
                     rep.verdict.as_str().into(),
                     fmt_num(rep.spectral_radius, 3),
-                    rep.regimes.iter().map(|g| g.name.clone()).collect::<Vec<_>>().join("; "),
-                    dom.and_then(|d| d.period).map_or("none".into(), |p| fmt_num(p, 1)),
-                    dom.and_then(|d| d.half_life).map_or("none".into(), |h| fmt_num(h, 1)),
+                    rep.regimes
+                        .iter()
+                        .map(|g| g.name.clone())
+                        .collect::<Vec<_>>()
+                        .join("; "),
+                    dom.and_then(|d| d.period)
+                        .map_or("none".into(), |p| fmt_num(p, 1)),
+                    dom.and_then(|d| d.half_life)
+                        .map_or("none".into(), |h| fmt_num(h, 1)),
                 ]);
             }
-            Err(e) => t.push(vec![name.clone(), format!("not available: {e}"), String::new(), String::new(), String::new(), String::new()]),
+            Err(e) => t.push(vec![
+                name.clone(),
+                format!("not available: {e}"),
+                String::new(),
+                String::new(),
+                String::new(),
+                String::new(),
+            ]),
         }
     }
     t
@@ -170,11 +237,18 @@ pub struct Inputs<'a> {
 }
 
 fn add_figures(sec: &mut Section, figures: &[Figure], stems: &[&str]) {
-    for f in figures.iter().filter(|f| stems.iter().any(|s| f.stem == *s || (s.ends_with('*') && f.stem.starts_with(s.trim_end_matches('*'))))) {
+    for f in figures.iter().filter(|f| {
+        stems.iter().any(|s| {
+            f.stem == *s || (s.ends_with('*') && f.stem.starts_with(s.trim_end_matches('*')))
+        })
+    }) {
         if let Ok(svg) = f.plot.svg_string() {
             sec.figure(f.caption.clone(), svg);
         } else {
-            sec.note(format!("(figure “{}” could not be drawn: no finite data)", f.caption));
+            sec.note(format!(
+                "(figure “{}” could not be drawn: no finite data)",
+                f.caption
+            ));
         }
     }
 }
@@ -189,12 +263,21 @@ pub fn build(inp: Inputs<'_>) -> Briefing {
     let unstable: Vec<&String> = inp
         .stability
         .iter()
-        .filter_map(|(n, r)| r.as_ref().ok().filter(|r| r.verdict.as_str() != "stable").map(|_| n))
+        .filter_map(|(n, r)| {
+            r.as_ref()
+                .ok()
+                .filter(|r| r.verdict.as_str() != "stable")
+                .map(|_| n)
+        })
         .collect();
     if !unstable.is_empty() {
         summary.push(format!(
             "Not stable around the steady state: {} (see Stability).",
-            unstable.iter().map(|n| format!("“{n}”")).collect::<Vec<_>>().join(", ")
+            unstable
+                .iter()
+                .map(|n| format!("“{n}”"))
+                .collect::<Vec<_>>()
+                .join(", ")
         ));
     }
 
@@ -215,11 +298,20 @@ pub fn build(inp: Inputs<'_>) -> Briefing {
 
     let mut pol = Section::new("The policies side by side");
     pol.paragraph(format!("Compared: {}.", names.join("; ")));
-    pol.table("Policy designs", assumptions::policy_table(inp.policies, &m.price_unit, &m.quantity_unit));
+    pol.table(
+        "Policy designs",
+        assumptions::policy_table(inp.policies, &m.price_unit, &m.quantity_unit),
+    );
 
     let mut paths = Section::new("Prices and harvests");
-    paths.paragraph("How each policy changes the season-to-season path of the price and of the harvest.");
-    add_figures(&mut paths, &inp.figures, &["price_paths", "harvest_paths", "cobweb*"]);
+    paths.paragraph(
+        "How each policy changes the season-to-season path of the price and of the harvest.",
+    );
+    add_figures(
+        &mut paths,
+        &inp.figures,
+        &["price_paths", "harvest_paths", "cobweb*"],
+    );
 
     let mut risk = Section::new("Risk");
     match inp.risk {

@@ -55,7 +55,9 @@ pub fn path_figures(scenario: &Scenario, runs: &[(String, Vec<PeriodRecord>)]) -
     let m = &scenario.market;
     let series = |f: fn(&PeriodRecord) -> f64| -> Vec<Series> {
         runs.iter()
-            .map(|(name, recs)| Series::periods(name.clone(), &recs.iter().map(f).collect::<Vec<_>>()))
+            .map(|(name, recs)| {
+                Series::periods(name.clone(), &recs.iter().map(f).collect::<Vec<_>>())
+            })
             .collect()
     };
     let shocks = if scenario.shocks.is_deterministic() {
@@ -70,8 +72,12 @@ pub fn path_figures(scenario: &Scenario, runs: &[(String, Vec<PeriodRecord>)]) -
         series(|r| r.price),
     );
     if let Plot::Lines(l) = &mut price {
-        l.titles.subtitle = format!("{shocks}; dashed: the steady-state price without intervention");
-        l.references.push(plots::Reference { label: "steady state".into(), value: scenario.steady.price });
+        l.titles.subtitle =
+            format!("{shocks}; dashed: the steady-state price without intervention");
+        l.references.push(plots::Reference {
+            label: "steady state".into(),
+            value: scenario.steady.price,
+        });
     }
     let mut harvest = plots::paths(
         &format!("{}: harvest by policy", m.name),
@@ -81,27 +87,56 @@ pub fn path_figures(scenario: &Scenario, runs: &[(String, Vec<PeriodRecord>)]) -
     );
     if let Plot::Lines(l) = &mut harvest {
         l.titles.subtitle = format!("{shocks}; dashed: the steady-state quantity");
-        l.references.push(plots::Reference { label: "steady state".into(), value: scenario.steady.quantity });
+        l.references.push(plots::Reference {
+            label: "steady state".into(),
+            value: scenario.steady.quantity,
+        });
     }
     let fiscal = plots::fiscal(
         &format!("{}: fiscal cost by period", m.name),
         "period (season)",
-        &format!("fiscal cost ({})", money_unit(&m.price_unit, &m.quantity_unit)),
+        &format!(
+            "fiscal cost ({})",
+            money_unit(&m.price_unit, &m.quantity_unit)
+        ),
         series(|r| r.fiscal_cost),
     );
     vec![
-        Figure { stem: "price_paths".into(), caption: format!("Market price per season under each policy ({shocks})."), plot: price },
-        Figure { stem: "harvest_paths".into(), caption: format!("Harvest per season under each policy ({shocks})."), plot: harvest },
-        Figure { stem: "fiscal_cost".into(), caption: "Fiscal cost per season: purchases, storage, financing and payments, less sales.".into(), plot: fiscal },
+        Figure {
+            stem: "price_paths".into(),
+            caption: format!("Market price per season under each policy ({shocks})."),
+            plot: price,
+        },
+        Figure {
+            stem: "harvest_paths".into(),
+            caption: format!("Harvest per season under each policy ({shocks})."),
+            plot: harvest,
+        },
+        Figure {
+            stem: "fiscal_cost".into(),
+            caption:
+                "Fiscal cost per season: purchases, storage, financing and payments, less sales."
+                    .into(),
+            plot: fiscal,
+        },
     ]
 }
 
 /// The cobweb diagram of one path.
-pub fn cobweb_figure(scenario: &Scenario, policy: &PolicySpec, records: &[PeriodRecord], stem: &str) -> Figure {
+pub fn cobweb_figure(
+    scenario: &Scenario,
+    policy: &PolicySpec,
+    records: &[PeriodRecord],
+    stem: &str,
+) -> Figure {
     let model = Model::new(scenario, policy);
     let steps = records
         .iter()
-        .map(|r| CobwebStep { quantity: r.harvest, expected: r.expected_price, price: r.price })
+        .map(|r| CobwebStep {
+            quantity: r.harvest,
+            expected: r.expected_price,
+            price: r.price,
+        })
         .collect();
     let plot = plots::cobweb(
         &format!("Cobweb: {}", policy.name),
@@ -129,8 +164,16 @@ pub fn eigen_figure(reports: &[(String, StabilityReport)]) -> Option<Figure> {
         .iter()
         .flat_map(|(name, r)| {
             r.regimes.iter().flat_map(move |g| {
-                let group = if many { format!("{name}: {}", g.name) } else { g.name.clone() };
-                g.eigenvalues.iter().map(move |e| EigenPoint { re: e.re, im: e.im, group: group.clone() })
+                let group = if many {
+                    format!("{name}: {}", g.name)
+                } else {
+                    g.name.clone()
+                };
+                g.eigenvalues.iter().map(move |e| EigenPoint {
+                    re: e.re,
+                    im: e.im,
+                    group: group.clone(),
+                })
             })
         })
         .collect();
@@ -139,7 +182,8 @@ pub fn eigen_figure(reports: &[(String, StabilityReport)]) -> Option<Figure> {
     }
     Some(Figure {
         stem: "eigenvalues".into(),
-        caption: "Eigenvalues of the linearised model for each regime, with the unit circle.".into(),
+        caption: "Eigenvalues of the linearised model for each regime, with the unit circle."
+            .into(),
         plot: plots::eigenvalues("Eigenvalues of the linearised model", points),
     })
 }
@@ -151,12 +195,20 @@ pub fn write_all(dir: &Path, figures: &[Figure]) -> anyhow::Result<()> {
             .write(dir, &f.stem)
             .with_context(|| format!("cannot draw the plot `{}` into {}", f.stem, dir.display()))?;
     }
-    super::super::common::say(&format!("wrote {} plots (PNG and SVG) into {}", figures.len(), dir.display()));
+    super::super::common::say(&format!(
+        "wrote {} plots (PNG and SVG) into {}",
+        figures.len(),
+        dir.display()
+    ));
     Ok(())
 }
 
 /// The figures of `run --plots`: paths, the cobweb and the fiscal cost of one path.
-pub fn run_figures(scenario: &Scenario, policy: &PolicySpec, records: &[PeriodRecord]) -> Vec<Figure> {
+pub fn run_figures(
+    scenario: &Scenario,
+    policy: &PolicySpec,
+    records: &[PeriodRecord],
+) -> Vec<Figure> {
     let mut figs = path_figures(scenario, &[(policy.name.clone(), records.to_vec())]);
     figs.insert(1, cobweb_figure(scenario, policy, records, "cobweb"));
     figs
@@ -181,7 +233,8 @@ fn sorted_unique(v: impl Iterator<Item = f64>) -> Vec<f64> {
 }
 
 fn index_of(grid: &[f64], x: f64) -> Option<usize> {
-    grid.iter().position(|g| (g - x).abs() <= 1e-12 * g.abs().max(1.0))
+    grid.iter()
+        .position(|g| (g - x).abs() <= 1e-12 * g.abs().max(1.0))
 }
 
 /// The figures of a sweep: with two keys the stability map; with one key the spectral radius
@@ -208,20 +261,37 @@ pub fn sweep_figures(keys: &[String], points: &[SweepPoint], price_unit: &str) -
             });
         }
         [key] => {
-            let rho: Vec<(f64, f64)> = points.iter().filter_map(|p| p.values.first().map(|&x| (x, p.radius))).collect();
+            let rho: Vec<(f64, f64)> = points
+                .iter()
+                .filter_map(|p| p.values.first().map(|&x| (x, p.radius)))
+                .collect();
             let mut line = plots::paths(
                 &format!("Spectral radius as {key} varies"),
                 key,
                 "spectral radius ρ",
-                vec![Series { name: "spectral radius of the linearised model".into(), points: rho }],
+                vec![Series {
+                    name: "spectral radius of the linearised model".into(),
+                    points: rho,
+                }],
             );
             if let Plot::Lines(l) = &mut line {
-                l.titles.subtitle = "below the dashed line ρ = 1 a disturbance dies out; above it grows".into();
-                l.references.push(plots::Reference { label: "ρ = 1".into(), value: 1.0 });
+                l.titles.subtitle =
+                    "below the dashed line ρ = 1 a disturbance dies out; above it grows".into();
+                l.references.push(plots::Reference {
+                    label: "ρ = 1".into(),
+                    value: 1.0,
+                });
             }
-            figs.push(Figure { stem: "spectral_radius".into(), caption: format!("Spectral radius against {key}."), plot: line });
+            figs.push(Figure {
+                stem: "spectral_radius".into(),
+                caption: format!("Spectral radius against {key}."),
+                plot: line,
+            });
             if points.iter().any(|p| !p.prices.is_empty()) {
-                let values = points.iter().filter_map(|p| p.values.first().copied()).collect();
+                let values = points
+                    .iter()
+                    .filter_map(|p| p.values.first().copied())
+                    .collect();
                 let prices = points.iter().map(|p| p.prices.clone()).collect();
                 figs.push(Figure {
                     stem: "bifurcation".into(),
