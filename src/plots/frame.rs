@@ -98,6 +98,14 @@ fn draw_legend<DB: DrawingBackend>(
                         ))
                         .map_err(de)?;
                 }
+                LegendKey::Bar => {
+                    strip
+                        .draw(&Rectangle::new(
+                            [(x + 4, y - 8), (x + 24, y + 8)],
+                            c.mix(0.85).filled(),
+                        ))
+                        .map_err(de)?;
+                }
                 LegendKey::Dot => {
                     strip
                         .draw(&Circle::new((x + 14, y), 5, c.filled()))

@@ -222,18 +222,18 @@ impl BarChart {
         }
         let cost = style::series_colour(2);
         let gain = style::series_colour(3);
-        let legend = vec![
-            LegendEntry {
-                name: format!("{}: cost", self.series.name),
-                colour: cost,
-                key: LegendKey::Block,
-            },
-            LegendEntry {
+        let mut legend = vec![LegendEntry {
+            name: format!("{}: cost", self.series.name),
+            colour: cost,
+            key: LegendKey::Bar,
+        }];
+        if pts.iter().any(|p| p.1 < 0.0) {
+            legend.push(LegendEntry {
                 name: "receipt (sales above cost)".into(),
                 colour: gain,
-                key: LegendKey::Block,
-            },
-        ];
+                key: LegendKey::Bar,
+            });
+        }
         let body = frame(root, &self.titles, &legend)?;
         let (y0, y1) = style::padded_range(pts.iter().map(|p| p.1).chain(Some(0.0)), 0.06);
         let (x0, x1) = style::padded_range(pts.iter().map(|p| p.0), 0.0);

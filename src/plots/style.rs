@@ -101,10 +101,10 @@ pub fn tick(v: f64) -> String {
         return String::new();
     }
     let a = v.abs();
-    let s = if a >= 1e6 {
+    let s = if a >= 1e7 {
         format!("{:.1}M", v / 1e6)
     } else if a >= 1e4 {
-        format!("{:.0}k", v / 1e3)
+        group_thousands(v.round() as i64)
     } else if a >= 100.0 || a == 0.0 {
         format!("{v:.0}")
     } else if a >= 10.0 {
@@ -114,7 +114,7 @@ pub fn tick(v: f64) -> String {
     } else {
         format!("{v:.3}")
     };
-    let s = if s.contains('.') && !s.ends_with('M') && !s.ends_with('k') {
+    let s = if s.contains('.') && !s.ends_with('M') {
         s.trim_end_matches('0').trim_end_matches('.').to_string()
     } else {
         s
@@ -123,6 +123,23 @@ pub fn tick(v: f64) -> String {
         "0".into()
     } else {
         s
+    }
+}
+
+/// An integer with a space between groups of three digits ("12 500").
+fn group_thousands(n: i64) -> String {
+    let digits = n.unsigned_abs().to_string();
+    let mut out = String::new();
+    for (i, c) in digits.chars().enumerate() {
+        if i > 0 && (digits.len() - i) % 3 == 0 {
+            out.push(' ');
+        }
+        out.push(c);
+    }
+    if n < 0 {
+        format!("-{out}")
+    } else {
+        out
     }
 }
 
@@ -153,6 +170,8 @@ pub enum LegendKey {
     Block,
     /// A dot (scatter points).
     Dot,
+    /// A solid box (bars).
+    Bar,
 }
 
 /// Width in pixels one legend label takes (approximate, from DejaVu Sans's mean advance).
@@ -191,3 +210,28 @@ pub fn legend_height(entries: &[LegendEntry], width: u32) -> u32 {
 
 /// An RGB triple, as tests and callers compare pixels with it.
 pub type RGBColourLike = [u8; 3];
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn ticks_are_short_and_consistent() {
+        assert_eq!(tick(8000.0), "8000");
+        assert_eq!(tick(12500.0), "12 500");
+        assert_eq!(tick(-250000.0), "-250 000");
+        assert_eq!(tick(2.5e7), "25.0M");
+        assert_eq!(tick(0.25), "0.25");
+        assert_eq!(tick(-0.0), "0");
+        assert_eq!(tick(f64::NAN), "");
+    }
+
+    #[test]
+    fn padded_range_handles_flat_and_empty_data() {
+        assert_eq!(padded_range(vec![], 0.1), (0.0, 1.0));
+        let (lo, hi) = padded_range(vec![5.0, 5.0], 0.1);
+        assert!(lo < 5.0 && hi > 5.0);
+        let (lo, hi) = padded_range(vec![0.0, 10.0, f64::NAN], 0.1);
+        assert!((lo + 1.0).abs() < 1e-12 && (hi - 11.0).abs() < 1e-12);
+    }
+}

@@ -101,6 +101,27 @@ pub fn path_figures(scenario: &Scenario, runs: &[(String, Vec<PeriodRecord>)]) -
         ),
         series(|r| r.fiscal_cost),
     );
+    let cumulative: Vec<Series> = series(|r| r.fiscal_cost)
+        .into_iter()
+        .map(|mut s| {
+            let mut acc = 0.0;
+            for p in &mut s.points {
+                acc += p.1;
+                p.1 = acc;
+            }
+            s
+        })
+        .collect();
+    let mut cum = plots::paths(
+        &format!("{}: cumulative fiscal cost", m.name),
+        "period (season)",
+        &format!("cumulative fiscal cost ({})", money_unit(&m.price_unit, &m.quantity_unit)),
+        cumulative,
+    );
+    if let Plot::Lines(l) = &mut cum {
+        l.titles.subtitle = "running total, undiscounted; stock still held is not yet credited".into();
+        l.include_zero = true;
+    }
     vec![
         Figure {
             stem: "price_paths".into(),
@@ -118,6 +139,11 @@ pub fn path_figures(scenario: &Scenario, runs: &[(String, Vec<PeriodRecord>)]) -
                 "Fiscal cost per season: purchases, storage, financing and payments, less sales."
                     .into(),
             plot: fiscal,
+        },
+        Figure {
+            stem: "fiscal_cumulative".into(),
+            caption: "Cumulative fiscal cost: what each policy has cost the treasury so far.".into(),
+            plot: cum,
         },
     ]
 }
