@@ -115,6 +115,9 @@ pub fn execute(args: &ReportArgs) -> anyhow::Result<()> {
     for f in &inputs {
         provenance.push((format!("SHA-256 of {f}"), assumptions::sha256_file(f)?));
     }
+    if let Some(dir) = &args.common.plots {
+        figures::write_all(dir, &figs)?;
+    }
     let page = brief::build(brief::Inputs {
         scenario: &scenario,
         market_path: &args.market,
@@ -134,10 +137,6 @@ pub fn execute(args: &ReportArgs) -> anyhow::Result<()> {
             env!("CARGO_PKG_VERSION")
         ),
     });
-    if let Some(dir) = &args.common.plots {
-        say("report: plots are inside the HTML; --plots also writes them as files");
-        let _ = dir;
-    }
     furrow::output::write_whole(&out, page.to_html().as_bytes())
         .with_context(|| format!("cannot write {}", out.display()))?;
     say(&format!("wrote the briefing to {}", out.display()));
