@@ -125,6 +125,13 @@ pub fn summary(heads: &[Headline], money: &str, price_unit: &str, basis: &str) -
         return out;
     };
     let others: Vec<&Headline> = heads
+    if others.is_empty() {
+        out.push(format!(
+            "Only the market left alone was given: the price varies with a standard deviation of {} {price_unit} ({basis}). Add policy files to compare schemes.",
+            fmt_num(base.price_sd, 1)
+        ));
+        return out;
+    }
         .iter()
         .skip(1)
         .filter(|h| h.price_sd.is_finite())
