@@ -125,6 +125,10 @@ pub fn summary(heads: &[Headline], money: &str, price_unit: &str, basis: &str) -
         return out;
     };
     let others: Vec<&Headline> = heads
+        .iter()
+        .skip(1)
+        .filter(|h| h.price_sd.is_finite())
+        .collect();
     if others.is_empty() {
         out.push(format!(
             "Only the market left alone was given: the price varies with a standard deviation of {} {price_unit} ({basis}). Add policy files to compare schemes.",
@@ -132,10 +136,6 @@ pub fn summary(heads: &[Headline], money: &str, price_unit: &str, basis: &str) -
         ));
         return out;
     }
-        .iter()
-        .skip(1)
-        .filter(|h| h.price_sd.is_finite())
-        .collect();
     if let Some(best) = others
         .iter()
         .min_by(|a, b| a.price_sd.total_cmp(&b.price_sd))
