@@ -342,7 +342,11 @@ pub fn build(inp: Inputs<'_>) -> Briefing {
         inp.basis
     ));
     welfare.table("Welfare and fiscal cost", inp.welfare);
-    add_figures(&mut welfare, &inp.figures, &["fiscal_cost", "fiscal_cumulative"]);
+    add_figures(
+        &mut welfare,
+        &inp.figures,
+        &["fiscal_cost", "fiscal_cumulative"],
+    );
 
     let mut stab = Section::new("Stability");
     stab.paragraph("Whether a disturbance dies out near the steady state, from the eigenvalues of the linearised model: stable when every eigenvalue lies inside the unit circle.");

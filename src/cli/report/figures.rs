@@ -115,11 +115,15 @@ pub fn path_figures(scenario: &Scenario, runs: &[(String, Vec<PeriodRecord>)]) -
     let mut cum = plots::paths(
         &format!("{}: cumulative fiscal cost", m.name),
         "period (season)",
-        &format!("cumulative fiscal cost ({})", money_unit(&m.price_unit, &m.quantity_unit)),
+        &format!(
+            "cumulative fiscal cost ({})",
+            money_unit(&m.price_unit, &m.quantity_unit)
+        ),
         cumulative,
     );
     if let Plot::Lines(l) = &mut cum {
-        l.titles.subtitle = "running total, undiscounted; stock still held is not yet credited".into();
+        l.titles.subtitle =
+            "running total, undiscounted; stock still held is not yet credited".into();
         l.include_zero = true;
     }
     vec![
@@ -142,7 +146,8 @@ pub fn path_figures(scenario: &Scenario, runs: &[(String, Vec<PeriodRecord>)]) -
         },
         Figure {
             stem: "fiscal_cumulative".into(),
-            caption: "Cumulative fiscal cost: what each policy has cost the treasury so far.".into(),
+            caption: "Cumulative fiscal cost: what each policy has cost the treasury so far."
+                .into(),
             plot: cum,
         },
     ]
