@@ -300,3 +300,45 @@ fn empty_data_is_an_error_not_a_panic() {
     );
     assert!(p.svg_string().is_err());
 }
+
+#[test]
+fn run_plots_writes_every_figure_of_a_path() {
+    use assert_cmd::cargo::CommandCargoExt;
+    let dir = tempfile::tempdir().unwrap();
+    let plots = dir.path().join("figs");
+    let o = std::process::Command::cargo_bin("furrow")
+        .unwrap()
+        .args([
+            "run",
+            "examples/veldmark.toml",
+            "--policy",
+            "policies/price_band.toml",
+            "--plots",
+        ])
+        .arg(&plots)
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    for stem in [
+        "price_paths",
+        "harvest_paths",
+        "cobweb",
+        "fiscal_cost",
+        "fiscal_cumulative",
+    ] {
+        let png = plots.join(format!("{stem}.png"));
+        let img = image::open(&png).unwrap().to_rgb8();
+        let colours: std::collections::HashSet<[u8; 3]> = img.pixels().map(|p| p.0).collect();
+        assert!(colours.len() > 60, "{stem}.png looks blank");
+        let svg = std::fs::read_to_string(plots.join(format!("{stem}.svg"))).unwrap();
+        assert!(
+            svg.contains("<text") && svg.contains("Band 195-230"),
+            "{stem}.svg lacks text or the policy name"
+        );
+        // Units from the market file appear on the axes.
+        assert!(
+            svg.contains("crowns") || svg.contains("kt"),
+            "{stem}.svg lacks units"
+        );
+    }
+}

@@ -102,7 +102,7 @@ fn draw_legend<DB: DrawingBackend>(
                     strip
                         .draw(&Rectangle::new(
                             [(x + 4, y - 8), (x + 24, y + 8)],
-                            c.mix(0.85).filled(),
+                            c.filled(),
                         ))
                         .map_err(de)?;
                 }

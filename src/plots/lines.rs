@@ -252,7 +252,7 @@ impl BarChart {
         chart
             .draw_series(pts.iter().map(|&(x, y)| {
                 let c = if y >= 0.0 { cost } else { gain };
-                Rectangle::new([(x - half, 0.0), (x + half, y)], c.mix(0.85).filled())
+                Rectangle::new([(x - half, 0.0), (x + half, y)], c.filled())
             }))
             .map_err(de)?;
         chart

@@ -1,0 +1,149 @@
+//! The Monte Carlo side of the briefing and of `compare --plots`: fan charts, the risk and welfare
+//! tables and the headline figures, from `furrow::compare`'s result.
+
+use furrow::compare::{CompareResult, Kind, PolicyComparison, Value};
+use furrow::output::{fmt_num, TextTable};
+use furrow::plots::{self, FanBand, Series};
+
+use super::brief::Headline;
+use super::figures::{money_unit, Figure};
+
+/// The columns shown: the market left alone first (once), then the policies given.
+pub fn columns(r: &CompareResult) -> Vec<&PolicyComparison> {
+    let mut cols = vec![&r.baseline];
+    cols.extend(r.policies.iter().filter(|p| !p.is_baseline));
+    cols
+}
+
+/// Fan charts of the price and, for policies that hold stock, of the agency stock; and the mean
+/// fiscal cost per period.
+pub fn figures(r: &CompareResult) -> Vec<Figure> {
+    let cols = columns(r);
+    let band = |p: &PolicyComparison, stock: bool| {
+        let s = if stock { &p.fan.stock } else { &p.fan.price };
+        FanBand {
+            name: p.name.clone(),
+            p05: s.iter().map(|x| x.p05).collect(),
+            p50: s.iter().map(|x| x.p50).collect(),
+            p95: s.iter().map(|x| x.p95).collect(),
+            mean: Some(s.iter().map(|x| x.mean).collect()),
+        }
+    };
+    let mut figs = vec![Figure {
+        stem: "price_fan".into(),
+        caption: format!(
+            "Market price across {} simulated weather paths: 5–95 % band, median and mean per policy.",
+            r.replications
+        ),
+        plot: plots::fan(
+            &format!("{}: price risk by policy", r.market),
+            "period (season)",
+            &format!("market price ({})", r.price_unit),
+            r.replications,
+            cols.iter().map(|p| band(p, false)).collect(),
+        ),
+    }];
+    let stocked: Vec<FanBand> = cols
+        .iter()
+        .filter(|p| p.fan.stock.iter().any(|s| s.p95 > 0.0))
+        .map(|p| band(p, true))
+        .collect();
+    if !stocked.is_empty() {
+        figs.push(Figure {
+            stem: "stock_fan".into(),
+            caption: "Public stock held at the end of each season: 5–95 % band, median and mean.".into(),
+            plot: plots::fan(
+                &format!("{}: public stock by policy", r.market),
+                "period (season)",
+                &format!("agency stock ({})", r.quantity_unit),
+                r.replications,
+                stocked,
+            ),
+        });
+    }
+    figs.push(Figure {
+        stem: "fiscal_cost_mean".into(),
+        caption: format!("Mean fiscal cost per season over {} simulated weather paths.", r.replications),
+        plot: plots::fiscal(
+            &format!("{}: mean fiscal cost by period", r.market),
+            "period (season)",
+            &format!("mean fiscal cost ({})", money_unit(&r.price_unit, &r.quantity_unit)),
+            cols.iter().map(|p| Series::periods(p.name.clone(), &p.fan.mean_fiscal_cost)).collect(),
+        ),
+    });
+    figs
+}
+
+fn unit(kind: Kind, r: &CompareResult) -> String {
+    match kind {
+        Kind::Price => r.price_unit.clone(),
+        Kind::Quantity => r.quantity_unit.clone(),
+        Kind::Money => money_unit(&r.price_unit, &r.quantity_unit),
+        Kind::Share => "share".into(),
+        Kind::Number | Kind::Text => String::new(),
+    }
+}
+
+fn cell(v: Option<&Value>, kind: Kind) -> String {
+    match v {
+        Some(Value::Number(x)) if x.is_finite() => {
+            let d = match kind {
+                Kind::Price => 2,
+                Kind::Quantity => 1,
+                Kind::Share | Kind::Number => 3,
+                Kind::Money => 0,
+                Kind::Text => 3,
+            };
+            fmt_num(*x, d)
+        }
+        Some(Value::Text(t)) => t.clone(),
+        _ => "n/a".into(),
+    }
+}
+
+/// A table of the indicators whose keys pass `pick`, one column per policy.
+pub fn table(r: &CompareResult, pick: &dyn Fn(&str) -> bool) -> TextTable {
+    let cols = columns(r);
+    let mut headers = vec!["indicator".to_string(), "unit".to_string()];
+    headers.extend(cols.iter().map(|p| p.name.clone()));
+    let mut t = TextTable::new(&headers);
+    let Some(first) = cols.first() else { return t };
+    for ind in first.indicators.iter().filter(|i| pick(i.key)) {
+        let mut row = vec![ind.label.trim().to_string(), unit(ind.kind, r)];
+        if ind.label.starts_with("  ") {
+            row[0] = format!("… {}", ind.label.trim());
+        }
+        row.extend(cols.iter().map(|p| cell(p.get(ind.key), ind.kind)));
+        t.push(row);
+    }
+    t
+}
+
+/// Keys of the risk table.
+pub fn is_risk(key: &str) -> bool {
+    key.contains("_sd")
+        || key.contains("_cv")
+        || key.starts_with("mean_")
+        || key.contains("share")
+        || key.contains("risk")
+        || key.starts_with("producer_revenue")
+        || (key.ends_with("_p05") || key.ends_with("_p95"))
+}
+
+/// Keys of the welfare and fiscal table.
+pub fn is_welfare(key: &str) -> bool {
+    (key.ends_with("_pv") || key == "final_stock") && !is_risk(key)
+}
+
+/// Headline figures per column, from the Monte Carlo.
+pub fn headlines(r: &CompareResult) -> Vec<Headline> {
+    columns(r)
+        .iter()
+        .map(|p| Headline {
+            name: p.name.clone(),
+            price_sd: p.number("price_sd").unwrap_or(f64::NAN),
+            fiscal_pv: p.number("fiscal_cost_pv").unwrap_or(f64::NAN),
+            net_pv: p.number("net_welfare_change_pv").unwrap_or(f64::NAN),
+        })
+        .collect()
+}
