@@ -11,3 +11,4 @@ pub mod report;
 pub mod scenario;
 pub mod stability;
 pub mod stochastic;
+pub mod sweep;
