@@ -66,29 +66,9 @@ pub fn execute(args: &ReportArgs) -> anyhow::Result<()> {
             .with_context(|| format!("the path under “{}” failed", p.name))?;
         runs.push((p.name.clone(), recs));
     }
-    let stability: Vec<(String, Result<StabilityReport, String>)> = cols
-        .iter()
-        .map(|(_, p)| {
-            (
-                p.name.clone(),
-                furrow::stability::analyse(&scenario, p).map_err(|e| e.to_string()),
-            )
-        })
-        .collect();
-    let mut figs = figures::path_figures(&scenario, &runs);
-    for (i, ((_, p), (_, recs))) in cols.iter().zip(&runs).enumerate() {
-        figs.push(figures::cobweb_figure(
-            &scenario,
-            p,
-            recs,
-            &format!("cobweb_{}_{}", i, figures::slug(&p.name)),
-        ));
-    }
-    let ok_reports: Vec<(String, StabilityReport)> = stability
-        .iter()
-        .filter_map(|(n, r)| r.as_ref().ok().map(|r| (n.clone(), r.clone())))
-        .collect();
-    figs.extend(figures::eigen_figure(&ok_reports));
+    let stability = stability_of(&scenario, &cols);
+    // Until `furrow::compare` lands: welfare and headline figures from one path per policy.
+    let figs = report_figures(&scenario, &cols, &runs, &stability);
     let (headlines, welfare) = brief::path_welfare(&scenario, &runs);
     let basis = if scenario.shocks.is_deterministic() {
         "one deterministic path".to_string()
@@ -143,6 +123,45 @@ pub fn execute(args: &ReportArgs) -> anyhow::Result<()> {
     Ok(())
 }
 
+/// Stability of each column; a failed analysis keeps its message.
+fn stability_of(
+    scenario: &Scenario,
+    cols: &[(String, PolicySpec)],
+) -> Vec<(String, Result<StabilityReport, String>)> {
+    cols.iter()
+        .map(|(_, p)| {
+            (
+                p.name.clone(),
+                furrow::stability::analyse(scenario, p).map_err(|e| e.to_string()),
+            )
+        })
+        .collect()
+}
+
+/// Paths, a cobweb per column and the eigenvalues (when the analysis worked).
+fn report_figures(
+    scenario: &Scenario,
+    cols: &[(String, PolicySpec)],
+    runs: &[(String, Vec<PeriodRecord>)],
+    stability: &[(String, Result<StabilityReport, String>)],
+) -> Vec<Figure> {
+    let mut figs = figures::path_figures(scenario, runs);
+    for (i, ((_, p), (_, recs))) in cols.iter().zip(runs).enumerate() {
+        figs.push(figures::cobweb_figure(
+            scenario,
+            p,
+            recs,
+            &format!("cobweb_{}_{}", i, figures::slug(&p.name)),
+        ));
+    }
+    let ok: Vec<(String, StabilityReport)> = stability
+        .iter()
+        .filter_map(|(n, r)| r.as_ref().ok().map(|r| (n.clone(), r.clone())))
+        .collect();
+    figs.extend(figures::eigen_figure(&ok));
+    figs
+}
+
 /// Writes the plots of one path into `dir`: price and harvest paths, the cobweb, the fiscal cost.
 pub fn plot_run(
     dir: &Path,
@@ -154,7 +173,6 @@ pub fn plot_run(
 }
 
 /// Writes the eigenvalue plot of one stability report into `dir`.
-#[allow(dead_code)] // for `stability --plots`, wired by the stability verb's owner
 pub fn plot_stability(
     dir: &Path,
     policy_name: &str,
@@ -168,7 +186,6 @@ pub fn plot_stability(
 
 /// Writes the plots of a sweep into `dir`: the stability map (two keys) or the spectral radius and
 /// the bifurcation diagram (one key).
-#[allow(dead_code)] // for `sweep --plots`, wired once the sweep verb lands in main
 pub fn plot_sweep(
     dir: &Path,
     keys: &[String],
@@ -181,4 +198,20 @@ pub fn plot_sweep(
         return Ok(());
     }
     figures::write_all(dir, &figs)
+}
+
+/// The sweep's grid points as plain numbers for [`plot_sweep`].
+pub fn sweep_points(points: &[furrow::sweep::Point]) -> Vec<figures::SweepPoint> {
+    points
+        .iter()
+        .map(|p| figures::SweepPoint {
+            values: p.values.clone(),
+            radius: p.outcome.as_ref().map_or(f64::NAN, |(rho, _)| *rho),
+            prices: p
+                .long_run
+                .as_ref()
+                .map(|l| l.prices.clone())
+                .unwrap_or_default(),
+        })
+        .collect()
 }

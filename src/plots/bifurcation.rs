@@ -82,8 +82,30 @@ impl Bifurcation {
                 key: LegendKey::Dashed,
             });
         }
+        // Values whose long run left no bounded prices (diverged or invalid): marked on the axis.
+        let missing: Vec<f64> = self
+            .values
+            .iter()
+            .enumerate()
+            .filter(|(i, v)| {
+                v.is_finite()
+                    && !self
+                        .prices
+                        .get(*i)
+                        .is_some_and(|ps| ps.iter().any(|p| p.is_finite()))
+            })
+            .map(|(_, v)| *v)
+            .collect();
+        let miss_c = style::series_colour(2);
+        if !missing.is_empty() {
+            legend.push(LegendEntry {
+                name: "no bounded long run (diverged)".into(),
+                colour: miss_c,
+                key: LegendKey::Bar,
+            });
+        }
         let body = frame(root, &self.titles, &legend)?;
-        let (x0, x1) = style::padded_range(dots.iter().map(|p| p.0), 0.03);
+        let (x0, x1) = style::padded_range(self.values.iter().copied(), 0.03);
         let (y0, y1) = style::padded_range(
             dots.iter().map(|p| p.1).chain(steady.iter().map(|p| p.1)),
             0.06,
@@ -103,7 +125,25 @@ impl Bifurcation {
                 ))
                 .map_err(de)?;
         }
-        let r = if dots.len() > 4000 { 1 } else { 2 };
+        if !missing.is_empty() {
+            let h = (y1 - y0.max(0.0)) * 0.025;
+            let w = (x1 - x0) / (self.values.len().max(1) as f64) * 0.45;
+            chart
+                .draw_series(missing.iter().map(|&x| {
+                    Rectangle::new(
+                        [(x - w, y0.max(0.0)), (x + w, y0.max(0.0) + h)],
+                        miss_c.filled(),
+                    )
+                }))
+                .map_err(de)?;
+        }
+        let r = if dots.len() > 4000 {
+            1
+        } else if self.values.len() > 150 {
+            2
+        } else {
+            3
+        };
         chart
             .draw_series(
                 dots.iter()

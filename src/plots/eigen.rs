@@ -108,7 +108,7 @@ impl EigenPlot {
             .map_err(de)?;
         for (gi, name) in names.iter().enumerate() {
             let c = style::series_colour(gi);
-            let size = 7 - (gi as i32).min(3);
+            let size = 9 - 2 * (gi as i32).min(3);
             chart
                 .draw_series(pts.iter().filter(|p| &p.group == name).map(|p| {
                     EmptyElement::at((p.re, p.im))

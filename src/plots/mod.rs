@@ -99,12 +99,19 @@ impl Plot {
         }
     }
 
+    /// Width and height in pixels (fan charts of many policies are taller: one panel each).
+    pub fn size(&self) -> (u32, u32) {
+        match self {
+            Plot::Fan(f) => (style::WIDTH, fan::height(f.bands.len())),
+            _ => (style::WIDTH, style::HEIGHT),
+        }
+    }
+
     /// The figure as an SVG document (text as `<text>` elements).
     pub fn svg_string(&self) -> Result<String, PlotError> {
         let mut s = String::new();
         {
-            let root =
-                SVGBackend::with_string(&mut s, (style::WIDTH, style::HEIGHT)).into_drawing_area();
+            let root = SVGBackend::with_string(&mut s, self.size()).into_drawing_area();
             self.draw(&root)?;
             root.present().map_err(frame::de)?;
         }
@@ -113,7 +120,7 @@ impl Plot {
 
     /// Writes the figure as a PNG file at `path`.
     pub fn write_png(&self, path: &Path) -> Result<(), PlotError> {
-        let root = BitMapBackend::new(path, (style::WIDTH, style::HEIGHT)).into_drawing_area();
+        let root = BitMapBackend::new(path, self.size()).into_drawing_area();
         self.draw(&root)?;
         root.present().map_err(|e| PlotError::Io {
             path: path.to_path_buf(),

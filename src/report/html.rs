@@ -53,10 +53,13 @@ fn strip_attr(tag: &str, name: &str) -> String {
     }
 }
 
-/// True when a table cell holds a number (right-aligned in tables).
+/// True when a table cell holds a number, a range of numbers or n/a (right-aligned in tables).
 pub fn is_numeric(cell: &str) -> bool {
-    let t = cell.trim().trim_end_matches('%');
-    !t.is_empty() && t.parse::<f64>().is_ok()
+    let one = |s: &str| {
+        let t = s.trim().trim_end_matches('%');
+        t == "n/a" || (!t.is_empty() && t.parse::<f64>().is_ok())
+    };
+    cell.split(" … ").all(one)
 }
 
 /// The page's whole style sheet (inline; no fonts or images are fetched).

@@ -235,7 +235,7 @@ pub fn expectation_text(e: &ExpectationSpec) -> String {
         ExpectationSpec::Adaptive { weight, .. }
         | ExpectationSpec::NormalPrice { weight, .. }
         | ExpectationSpec::Extrapolative { weight } => {
-            format!("{}, weight {}", e.rule_name(), fmt_num(*weight, 3))
+            format!("{}, weight {}", e.rule_name(), trim(fmt_num(*weight, 6)))
         }
         ExpectationSpec::TrailingMean { window } => format!("{}, window {window}", e.rule_name()),
         _ => e.rule_name().to_string(),

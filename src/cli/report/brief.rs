@@ -157,11 +157,19 @@ pub fn summary(heads: &[Headline], money: &str, price_unit: &str, basis: &str) -
         .iter()
         .min_by(|a, b| a.fiscal_pv.total_cmp(&b.fiscal_pv))
     {
-        out.push(format!(
-            "The cheapest policy for the treasury is “{}” ({} {money} in present value).",
-            cheap.name,
-            fmt_num(cheap.fiscal_pv, 0)
-        ));
+        if cheap.fiscal_pv < 0.0 {
+            out.push(format!(
+                "“{}” is the cheapest for the treasury: its sales bring in {} {money} more than it spends, in present value.",
+                cheap.name,
+                fmt_num(-cheap.fiscal_pv, 0)
+            ));
+        } else {
+            out.push(format!(
+                "The cheapest policy for the treasury is “{}” ({} {money} in present value).",
+                cheap.name,
+                fmt_num(cheap.fiscal_pv, 0)
+            ));
+        }
     }
     if let Some(w) = others.iter().max_by(|a, b| a.net_pv.total_cmp(&b.net_pv)) {
         let verb = if w.net_pv >= 0.0 { "gains" } else { "loses" };
@@ -290,7 +298,7 @@ pub fn build(inp: Inputs<'_>) -> Briefing {
 
     let mut market = Section::new("The market and the assumptions");
     market.paragraph(format!(
-        "{} (market file {}): steady state {} {} at {} {}. Farmers plant on the {} expectation rule; {} seasons are simulated{}.",
+        "{} (market file {}): steady state {} {} at {} {}. Farmers plant on the price they expect (rule: {}); {} seasons are simulated{}.",
         m.name,
         inp.market_path,
         fmt_num(s.steady.quantity, 1),
@@ -342,11 +350,12 @@ pub fn build(inp: Inputs<'_>) -> Briefing {
         inp.basis
     ));
     welfare.table("Welfare and fiscal cost", inp.welfare);
-    add_figures(
-        &mut welfare,
-        &inp.figures,
-        &["fiscal_cost", "fiscal_cumulative"],
-    );
+    let stems: &[&str] = if inp.figures.iter().any(|f| f.stem == "fiscal_cost_mean") {
+        &["fiscal_cost_mean", "fiscal_cumulative_mean"]
+    } else {
+        &["fiscal_cost", "fiscal_cumulative"]
+    };
+    add_figures(&mut welfare, &inp.figures, stems);
 
     let mut stab = Section::new("Stability");
     stab.paragraph("Whether a disturbance dies out near the steady state, from the eigenvalues of the linearised model: stable when every eigenvalue lies inside the unit circle.");

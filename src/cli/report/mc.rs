@@ -19,7 +19,7 @@ pub fn columns(r: &CompareResult) -> Vec<&PolicyComparison> {
 /// fiscal cost per period.
 pub fn figures(r: &CompareResult) -> Vec<Figure> {
     let cols = columns(r);
-    let band = |p: &PolicyComparison, stock: bool| {
+    let band = |i: usize, p: &PolicyComparison, stock: bool| {
         let s = if stock { &p.fan.stock } else { &p.fan.price };
         FanBand {
             name: p.name.clone(),
@@ -27,6 +27,7 @@ pub fn figures(r: &CompareResult) -> Vec<Figure> {
             p50: s.iter().map(|x| x.p50).collect(),
             p95: s.iter().map(|x| x.p95).collect(),
             mean: Some(s.iter().map(|x| x.mean).collect()),
+            colour: Some(i),
         }
     };
     let mut figs = vec![Figure {
@@ -40,36 +41,88 @@ pub fn figures(r: &CompareResult) -> Vec<Figure> {
             "period (season)",
             &format!("market price ({})", r.price_unit),
             r.replications,
-            cols.iter().map(|p| band(p, false)).collect(),
+            cols.iter().enumerate().map(|(i, p)| band(i, p, false)).collect(),
         ),
     }];
     let stocked: Vec<FanBand> = cols
         .iter()
-        .filter(|p| p.fan.stock.iter().any(|s| s.p95 > 0.0))
-        .map(|p| band(p, true))
+        .enumerate()
+        .filter(|(_, p)| p.fan.stock.iter().any(|s| s.p95 > 0.0))
+        .map(|(i, p)| band(i, p, true))
         .collect();
     if !stocked.is_empty() {
+        let mut plot = plots::fan(
+            &format!("{}: public stock by policy", r.market),
+            "period (season)",
+            &format!("agency stock ({})", r.quantity_unit),
+            r.replications,
+            stocked,
+        );
+        if let plots::Plot::Fan(f) = &mut plot {
+            f.reference_first = false;
+        }
         figs.push(Figure {
             stem: "stock_fan".into(),
-            caption: "Public stock held at the end of each season: 5–95 % band, median and mean.".into(),
-            plot: plots::fan(
-                &format!("{}: public stock by policy", r.market),
-                "period (season)",
-                &format!("agency stock ({})", r.quantity_unit),
-                r.replications,
-                stocked,
-            ),
+            caption: "Public stock held at the end of each season: 5–95 % band, median and mean."
+                .into(),
+            plot,
         });
     }
     figs.push(Figure {
         stem: "fiscal_cost_mean".into(),
-        caption: format!("Mean fiscal cost per season over {} simulated weather paths.", r.replications),
+        caption: format!(
+            "Mean fiscal cost per season over {} simulated weather paths.",
+            r.replications
+        ),
         plot: plots::fiscal(
             &format!("{}: mean fiscal cost by period", r.market),
             "period (season)",
-            &format!("mean fiscal cost ({})", money_unit(&r.price_unit, &r.quantity_unit)),
-            cols.iter().map(|p| Series::periods(p.name.clone(), &p.fan.mean_fiscal_cost)).collect(),
+            &format!(
+                "mean fiscal cost ({})",
+                money_unit(&r.price_unit, &r.quantity_unit)
+            ),
+            cols.iter()
+                .map(|p| Series::periods(p.name.clone(), &p.fan.mean_fiscal_cost))
+                .collect(),
         ),
+    });
+    let cumulative: Vec<Series> = cols
+        .iter()
+        .map(|p| {
+            let mut acc = 0.0;
+            let v: Vec<f64> = p
+                .fan
+                .mean_fiscal_cost
+                .iter()
+                .map(|x| {
+                    acc += x;
+                    acc
+                })
+                .collect();
+            Series::periods(p.name.clone(), &v)
+        })
+        .collect();
+    let mut cum = plots::paths(
+        &format!("{}: cumulative mean fiscal cost", r.market),
+        "period (season)",
+        &format!(
+            "cumulative fiscal cost ({})",
+            money_unit(&r.price_unit, &r.quantity_unit)
+        ),
+        cumulative,
+    );
+    if let plots::Plot::Lines(l) = &mut cum {
+        l.titles.subtitle = format!(
+            "running total of the mean over {} paths, undiscounted; stock still held is not yet credited",
+            r.replications
+        );
+        l.include_zero = true;
+    }
+    figs.push(Figure {
+        stem: "fiscal_cumulative_mean".into(),
+        caption: "Cumulative mean fiscal cost: what each policy has cost the treasury so far, on average."
+            .into(),
+        plot: cum,
     });
     figs
 }
@@ -119,20 +172,53 @@ pub fn table(r: &CompareResult, pick: &dyn Fn(&str) -> bool) -> TextTable {
     t
 }
 
-/// Keys of the risk table.
+/// Keys of the risk table: spreads, shares and risk premia (no present values, no quantiles).
 pub fn is_risk(key: &str) -> bool {
-    key.contains("_sd")
-        || key.contains("_cv")
-        || key.starts_with("mean_")
-        || key.contains("share")
-        || key.contains("risk")
-        || key.starts_with("producer_revenue")
-        || (key.ends_with("_p05") || key.ends_with("_p95"))
+    !key.ends_with("_pv") && !is_quantile(key) && key != "final_stock" && !is_stability(key)
 }
 
-/// Keys of the welfare and fiscal table.
+fn is_quantile(key: &str) -> bool {
+    key.ends_with("_p05") || key.ends_with("_p50") || key.ends_with("_p95")
+}
+
+fn is_stability(key: &str) -> bool {
+    key == "spectral_radius" || key == "verdict"
+}
+
+/// Keys of the welfare and fiscal table: present values and the final stock.
 pub fn is_welfare(key: &str) -> bool {
-    (key.ends_with("_pv") || key == "final_stock") && !is_risk(key)
+    key.ends_with("_pv") || key == "final_stock"
+}
+
+/// Adds "5–95 % range" rows for the present values that have quantiles (fiscal cost, welfare
+/// changes) to a table made by [`table`].
+pub fn with_ranges(r: &CompareResult, mut t: TextTable) -> TextTable {
+    let cols = columns(r);
+    let Some(first) = cols.first() else { return t };
+    let mut rows = Vec::new();
+    for ind in first.indicators.iter().filter(|i| is_welfare(i.key)) {
+        let label = ind.label.trim().to_string();
+        let (lo, hi) = (format!("{}_p05", ind.key), format!("{}_p95", ind.key));
+        let mut out_row = None;
+        if first.get(&lo).is_some() {
+            let mut cells = vec![format!("{label}: 5–95 % range"), unit(ind.kind, r)];
+            cells.extend(cols.iter().map(|p| {
+                format!("{} … {}", cell(p.get(&lo), ind.kind), cell(p.get(&hi), ind.kind))
+            }));
+            out_row = Some(cells);
+        }
+        rows.push((label, out_row));
+    }
+    let mut merged = Vec::new();
+    for row in t.rows.drain(..) {
+        let name = row.first().map(|c| c.trim_start_matches("… ").to_string()).unwrap_or_default();
+        merged.push(row);
+        if let Some((_, Some(extra))) = rows.iter().find(|(l, _)| *l == name) {
+            merged.push(extra.clone());
+        }
+    }
+    t.rows = merged;
+    t
 }
 
 /// Headline figures per column, from the Monte Carlo.
