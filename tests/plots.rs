@@ -344,3 +344,62 @@ fn run_plots_writes_every_figure_of_a_path() {
         );
     }
 }
+
+fn furrow_ok(args: &[&str], plots: &Path) {
+    use assert_cmd::cargo::CommandCargoExt;
+    let o = std::process::Command::cargo_bin("furrow")
+        .unwrap()
+        .args(args)
+        .arg("--plots")
+        .arg(plots)
+        .output()
+        .unwrap();
+    assert!(
+        o.status.success(),
+        "{args:?}: {}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+}
+
+fn assert_figure(dir: &Path, stem: &str) {
+    let img = image::open(dir.join(format!("{stem}.png")))
+        .unwrap()
+        .to_rgb8();
+    let colours: std::collections::HashSet<[u8; 3]> = img.pixels().map(|p| p.0).collect();
+    assert!(colours.len() > 60, "{stem}.png looks blank");
+    let svg = std::fs::read_to_string(dir.join(format!("{stem}.svg"))).unwrap();
+    assert!(svg.contains("<text"), "{stem}.svg has no text");
+}
+
+#[test]
+fn stability_and_sweep_plots() {
+    let dir = tempfile::tempdir().unwrap();
+    let p = dir.path();
+    furrow_ok(&["stability", "examples/dunmere_cycle.toml"], &p.join("st"));
+    assert_figure(&p.join("st"), "eigenvalues");
+    furrow_ok(
+        &[
+            "sweep",
+            "examples/veldmark_weather.toml",
+            "--vary",
+            "expectations.weight=0.1:1:10",
+            "--vary",
+            "supply.elasticity=0.1:0.5:8",
+        ],
+        &p.join("sw2"),
+    );
+    assert_figure(&p.join("sw2"), "stability_map");
+    furrow_ok(
+        &[
+            "sweep",
+            "examples/dunmere_cycle.toml",
+            "--vary",
+            "supply.slope=0.8:1.6:17",
+            "--long-run",
+            "20",
+        ],
+        &p.join("sw1"),
+    );
+    assert_figure(&p.join("sw1"), "spectral_radius");
+    assert_figure(&p.join("sw1"), "bifurcation");
+}
