@@ -221,14 +221,23 @@ pub fn eigen_figure(reports: &[(String, StabilityReport)]) -> Option<Figure> {
 
 /// Writes every figure into `dir` (PNG and SVG) and says where.
 pub fn write_all(dir: &Path, figures: &[Figure]) -> anyhow::Result<()> {
+    let mut written = 0;
     for f in figures {
-        f.plot
-            .write(dir, &f.stem)
-            .with_context(|| format!("cannot draw the plot `{}` into {}", f.stem, dir.display()))?;
+        match f.plot.write(dir, &f.stem) {
+            Ok(_) => written += 1,
+            Err(furrow::plots::PlotError::Empty(_)) => super::super::common::say(&format!(
+                "plot `{}` skipped: no finite values to draw",
+                f.stem
+            )),
+            Err(e) => {
+                return Err(e).with_context(|| {
+                    format!("cannot draw the plot `{}` into {}", f.stem, dir.display())
+                })
+            }
+        }
     }
     super::super::common::say(&format!(
-        "wrote {} plots (PNG and SVG) into {}",
-        figures.len(),
+        "wrote {written} plots (PNG and SVG) into {}",
         dir.display()
     ));
     Ok(())
