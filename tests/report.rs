@@ -218,3 +218,26 @@ fn report_renders_in_headless_chromium() {
         "screenshot shows little text ({dark} dark pixels)"
     );
 }
+
+/// The market paragraph states the steady state of the linear Dunmere market: a + bP = c + dP gives
+/// P* = (a − c)/(d − b) = (300 + 40)/(1.1 + 1.25) = 144.68, Q* = 300 − 1.25 P* = 119.15 (the market
+/// equilibrium of Ezekiel 1938's cobweb model, worked by hand).
+#[test]
+fn report_states_the_steady_state_and_the_stability_verdict() {
+    let dir = tempfile::tempdir().unwrap();
+    let (_, html) = write_report(
+        dir.path(),
+        "examples/dunmere_cycle.toml",
+        &["policies/none.toml"],
+    );
+    assert!(
+        html.contains("steady state 119.1 kt at 144.7 crowns per t"),
+        "steady state missing"
+    );
+    // Naive expectations, linear curves: the eigenvalue is −b/d = −1.1/1.25 = −0.88 (Ezekiel 1938).
+    assert!(
+        html.contains("<td class=\"num\">0.880</td>"),
+        "spectral radius 0.880 missing"
+    );
+    assert!(html.contains(">stable<"));
+}
