@@ -188,13 +188,16 @@ impl LineChart {
             .max()
             .unwrap_or(0)
             > 60;
+        // Many policies: thinner lines and no markers, so the overlaid paths stay apart.
+        let crowded = self.series.len() > 4;
+        let width = if crowded { 2 } else { 3 };
         for (i, s) in self.series.iter().enumerate() {
             let c = style::series_colour(i);
             for run in finite_runs(&s.points) {
                 chart
-                    .draw_series(LineSeries::new(run.clone(), c.stroke_width(3)))
+                    .draw_series(LineSeries::new(run.clone(), c.stroke_width(width)))
                     .map_err(de)?;
-                if !many_points {
+                if !many_points && !crowded {
                     chart
                         .draw_series(run.iter().map(|&p| Circle::new(p, 3, c.filled())))
                         .map_err(de)?;
