@@ -44,25 +44,29 @@ pub fn frame<DB: DrawingBackend>(
         ))
         .map_err(de)?;
     }
-    let legend_h = style::legend_height(legend, w);
+    let label_style = style::text(15, style::INK);
+    let measure = |s: &str| {
+        root.estimate_text_size(s, &label_style)
+            .map(|(w, _)| w)
+            .unwrap_or(s.chars().count() as u32 * 9)
+    };
+    let rows = style::legend_rows(legend, w, &measure);
+    let legend_h = style::legend_height(rows.len());
     let body_h = h.saturating_sub(style::TITLE_BLOCK + legend_h).max(50);
     let (_, rest) = root.split_vertically(style::TITLE_BLOCK);
     let (body, strip) = rest.split_vertically(body_h);
-    if legend_h > 0 {
-        draw_legend(&strip, legend, w)?;
-    }
+    draw_legend(&strip, &rows)?;
     Ok(body)
 }
 
 fn draw_legend<DB: DrawingBackend>(
     strip: &DrawingArea<DB, Shift>,
-    legend: &[LegendEntry],
-    width: u32,
+    rows: &[Vec<(LegendEntry, u32)>],
 ) -> Result<(), PlotError> {
-    for (row_i, row) in style::legend_rows(legend, width).iter().enumerate() {
+    for (row_i, row) in rows.iter().enumerate() {
         let y = 8 + row_i as i32 * style::LEGEND_ROW as i32 + style::LEGEND_ROW as i32 / 2;
-        let mut x = 70i32;
-        for e in row {
+        let mut x = style::LEGEND_LEFT;
+        for (e, advance) in row {
             let c = e.colour;
             match e.key {
                 LegendKey::Line => {
@@ -121,10 +125,7 @@ fn draw_legend<DB: DrawingBackend>(
                 )),
             );
             strip.draw(&label).map_err(de)?;
-            let (lw, _) = strip
-                .estimate_text_size(&e.name, &style::text(15, style::INK))
-                .map_err(de)?;
-            x += 36 + lw as i32 + 28;
+            x += *advance as i32;
         }
     }
     Ok(())

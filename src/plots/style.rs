@@ -174,37 +174,43 @@ pub enum LegendKey {
     Bar,
 }
 
-/// Width in pixels one legend label takes (approximate, from DejaVu Sans's mean advance).
-fn label_width(name: &str, size: u32) -> u32 {
-    (name.chars().count() as f64 * size as f64 * 0.56).ceil() as u32
+/// Left edge of the legend strip's first key, in pixels.
+pub const LEGEND_LEFT: i32 = 70;
+
+/// Pixels one legend entry takes: key (28) and gap (8), the label, and the space before the next.
+pub fn legend_advance(label_width: u32) -> u32 {
+    36 + label_width + 28
 }
 
-/// Splits the entries into rows that fit `width`.
-pub fn legend_rows(entries: &[LegendEntry], width: u32) -> Vec<Vec<LegendEntry>> {
-    let mut rows: Vec<Vec<LegendEntry>> = Vec::new();
+/// Splits the entries into rows that fit `width`; `measure` gives a label's width in pixels.
+pub fn legend_rows(
+    entries: &[LegendEntry],
+    width: u32,
+    measure: &dyn Fn(&str) -> u32,
+) -> Vec<Vec<(LegendEntry, u32)>> {
+    let mut rows: Vec<Vec<(LegendEntry, u32)>> = Vec::new();
     let mut used = 0u32;
-    let avail = width.saturating_sub(60);
+    let avail = width.saturating_sub(LEGEND_LEFT as u32 + 12);
     for e in entries {
-        let w = 40 + label_width(&e.name, 15) + 28;
+        let w = legend_advance(measure(&e.name));
         if rows.is_empty() || (used + w > avail && used > 0) {
             rows.push(Vec::new());
             used = 0;
         }
         if let Some(r) = rows.last_mut() {
-            r.push(e.clone());
+            r.push((e.clone(), w));
         }
         used += w;
     }
     rows
 }
 
-/// Height the legend strip needs for these entries at this figure width.
-pub fn legend_height(entries: &[LegendEntry], width: u32) -> u32 {
-    let n = legend_rows(entries, width).len() as u32;
-    if n == 0 {
+/// Height the legend strip needs for `rows` rows.
+pub fn legend_height(rows: usize) -> u32 {
+    if rows == 0 {
         0
     } else {
-        n * LEGEND_ROW + 12
+        rows as u32 * LEGEND_ROW + 12
     }
 }
 
