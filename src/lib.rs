@@ -1,4 +1,5 @@
 //! furrow: evaluate agricultural market interventions before they are adopted.
+pub mod compare;
 pub mod curves;
 pub mod engine;
 pub mod expectations;
@@ -12,3 +13,4 @@ pub mod scenario;
 pub mod stability;
 pub mod stochastic;
 pub mod sweep;
+pub mod welfare;

@@ -3,6 +3,7 @@
 mod assumptions;
 mod brief;
 mod figures;
+mod mc;
 
 use std::path::Path;
 
@@ -67,15 +68,24 @@ pub fn execute(args: &ReportArgs) -> anyhow::Result<()> {
         runs.push((p.name.clone(), recs));
     }
     let stability = stability_of(&scenario, &cols);
-    // Until `furrow::compare` lands: welfare and headline figures from one path per policy.
-    let figs = report_figures(&scenario, &cols, &runs, &stability);
-    let (headlines, welfare) = brief::path_welfare(&scenario, &runs);
-    let basis = if scenario.shocks.is_deterministic() {
+    let result = run_compare(&scenario, &cols)?;
+    let mut figs = report_figures(&scenario, &cols, &runs, &stability);
+    if scenario.run.replications > 1 {
+        figs.extend(mc::figures(&result));
+    }
+    let headlines = mc::headlines(&result);
+    let welfare = mc::with_ranges(&result, mc::table(&result, &mc::is_welfare));
+    let basis = if scenario.run.replications > 1 {
+        format!(
+            "Monte Carlo, {} replications of {} seasons, seed {}",
+            result.replications, result.periods, result.seed
+        )
+    } else if scenario.shocks.is_deterministic() {
         "one deterministic path".to_string()
     } else {
         format!("one simulated weather path, seed {}", scenario.run.seed)
     };
-    let risk = None;
+    let risk = Some(mc::table(&result, &mc::is_risk));
     let mut provenance = vec![
         (
             "furrow version".to_string(),
@@ -138,6 +148,21 @@ fn stability_of(
         .collect()
 }
 
+/// The Monte Carlo comparison of the columns after the first (the market left alone).
+fn run_compare(
+    scenario: &Scenario,
+    cols: &[(String, PolicySpec)],
+) -> anyhow::Result<furrow::compare::CompareResult> {
+    let mut specs: Vec<PolicySpec> = cols.iter().skip(1).map(|(_, p)| p.clone()).collect();
+    if specs.is_empty() {
+        specs.push(cols[0].1.clone());
+    }
+    let bar = super::compare::progress_for(scenario, specs.len() + 1);
+    let result = furrow::compare::compare(scenario, &specs, bar.observer());
+    bar.finish();
+    Ok(result?)
+}
+
 /// Paths, a cobweb per column and the eigenvalues (when the analysis worked).
 fn report_figures(
     scenario: &Scenario,
@@ -160,6 +185,29 @@ fn report_figures(
         .collect();
     figs.extend(figures::eigen_figure(&ok));
     figs
+}
+
+/// Writes the plots of `compare` into `dir`: one path per policy (price, harvest, cobwebs, fiscal
+/// cost), the Monte Carlo fans and mean fiscal cost, and the eigenvalues.
+pub fn plot_compare(
+    dir: &Path,
+    scenario: &Scenario,
+    files: &[String],
+    result: &furrow::compare::CompareResult,
+) -> anyhow::Result<()> {
+    let cols = columns(files)?;
+    let mut runs = Vec::new();
+    for (_, p) in &cols {
+        let recs =
+            one_path(scenario, p).with_context(|| format!("the path under “{}” failed", p.name))?;
+        runs.push((p.name.clone(), recs));
+    }
+    let stability = stability_of(scenario, &cols);
+    let mut figs = report_figures(scenario, &cols, &runs, &stability);
+    if result.replications > 1 {
+        figs.extend(mc::figures(result));
+    }
+    figures::write_all(dir, &figs)
 }
 
 /// Writes the plots of one path into `dir`: price and harvest paths, the cobweb, the fiscal cost.

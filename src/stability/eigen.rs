@@ -2,8 +2,9 @@
 //! (spectral radius, verdict, oscillation, period, half-life).
 //!
 //! nalgebra's plain `complex_eigenvalues()` iterates without limit and can hang (it did on a zero
-//! 3 × 3 matrix), so the real Schur form is computed with `Schur::try_new` and an iteration cap. An
-//! all-zero matrix is answered directly (every eigenvalue 0); when the Schur iteration does not
+//! 3 × 3 matrix), so the real Schur form is computed with `Schur::try_new` and an iteration cap. A
+//! triangular matrix (the zero matrix, the nilpotent shift of a pinned price) is answered directly
+//! from its diagonal; when the Schur iteration does not
 //! converge, the roots of the characteristic polynomial (Faddeev–LeVerrier coefficients,
 //! Durand–Kerner iteration) are used instead.
 
@@ -38,8 +39,15 @@ pub fn eigenvalues(m: &DMatrix<f64>) -> Vec<Eigenvalue> {
             re: m[(0, 0)],
             im: 0.0,
         }]
-    } else if m.iter().all(|x| *x == 0.0) {
-        vec![Eigenvalue { re: 0.0, im: 0.0 }; n]
+    } else if triangular(m) {
+        // exact: the diagonal (covers the zero matrix and the nilpotent shift of a pinned price,
+        // where an iterative method would return round-off instead of zeros)
+        (0..n)
+            .map(|i| Eigenvalue {
+                re: m[(i, i)],
+                im: 0.0,
+            })
+            .collect()
     } else {
         match Schur::try_new(m.clone(), f64::EPSILON, SCHUR_MAX_ITER) {
             Some(s) => s
@@ -65,6 +73,14 @@ pub fn eigenvalues(m: &DMatrix<f64>) -> Vec<Eigenvalue> {
             .then(b.im.total_cmp(&a.im))
     });
     out
+}
+
+/// True when every entry above, or every entry below, the diagonal is zero.
+fn triangular(m: &DMatrix<f64>) -> bool {
+    let n = m.nrows();
+    let upper_zero = (0..n).all(|i| (i + 1..n).all(|j| m[(i, j)] == 0.0));
+    let lower_zero = (0..n).all(|i| (0..i).all(|j| m[(i, j)] == 0.0));
+    upper_zero || lower_zero
 }
 
 /// Coefficients c_0..c_n (c_n = 1) of det(zI − M) = Σ c_k z^k by the Faddeev–LeVerrier recursion.
@@ -209,6 +225,18 @@ mod tests {
         let ev = eigenvalues(&m);
         assert_eq!(ev.len(), 3);
         assert!(ev.iter().all(|e| e.modulus() == 0.0));
+    }
+
+    #[test]
+    fn nilpotent_shift_has_exact_zero_eigenvalues() {
+        // a strictly lower-triangular matrix is nilpotent: every eigenvalue is 0 (linear algebra)
+        let mut m = DMatrix::<f64>::zeros(4, 4);
+        for i in 1..4 {
+            m[(i, i - 1)] = 1.0;
+        }
+        let ev = eigenvalues(&m);
+        assert!(ev.iter().all(|e| e.re == 0.0 && e.im == 0.0), "{ev:?}");
+        assert_eq!(read_off(&ev), (false, None, Some(0.0)));
     }
 
     #[test]

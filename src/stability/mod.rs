@@ -114,6 +114,14 @@ pub struct StabilityReport {
 /// Why no stability report could be made.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum StabilityError {
+    /// The linearisation has no finite value.
+    #[error("cannot linearise the {regime} regime: {reason}")]
+    Linearisation {
+        /// The regime.
+        regime: String,
+        /// Why.
+        reason: String,
+    },
     /// The map of a regime has no fixed point.
     #[error("no steady state in the {regime} regime: {reason}")]
     NoSteadyState {
@@ -129,10 +137,19 @@ pub fn analyse(
     scenario: &Scenario,
     policy: &PolicySpec,
 ) -> Result<StabilityReport, StabilityError> {
-    analyse_setup(
+    let mut report = analyse_setup(
         &Setup::new(scenario, policy),
         &scenario.market.quantity_unit,
-    )
+    )?;
+    if scenario.storers.is_some() {
+        let extra =
+            "the market's private storers are not part of the linearisation (see `storage`)";
+        report.note = Some(match report.note.take() {
+            Some(n) => format!("{n}; {extra}"),
+            None => extra.to_string(),
+        });
+    }
+    Ok(report)
 }
 
 /// Spectral radius and verdict only (what a sweep needs).
@@ -190,6 +207,18 @@ fn regime_at(
         let x = map.rest_state(p);
         (eigen::eigenvalues(&map.numerical_jacobian(&x)), "numerical")
     };
+    if eigenvalues
+        .iter()
+        .any(|e| !(e.re.is_finite() && e.im.is_finite()))
+    {
+        return Err(StabilityError::Linearisation {
+            regime: case.name.clone(),
+            reason: format!(
+                "the Jacobian at the producer price {} is not finite (a curve has no finite slope there)",
+                crate::output::fmt_num(p, 6)
+            ),
+        });
+    }
     let rho = if case.finite {
         eigen::spectral_radius(&eigenvalues)
     } else {

@@ -276,7 +276,11 @@ pub fn regimes(setup: &Setup, free_price: f64, unit: &str) -> Vec<RegimeCase> {
                         format!("inside the band the agency releases {share} of its stock a period until it is gone"),
                     ),
                 };
-                let mut c = case("stock idle (free market)", clearing, Some(note));
+                let name = match clearing {
+                    Clearing::Pinned(_) => "stock restocking at the band's middle",
+                    Clearing::Free { .. } => "stock idle (free market)",
+                };
+                let mut c = case(name, clearing, Some(note));
                 c.holds = true;
                 c.stock_eigenvalue = Some(eig);
                 holding.push(c);

@@ -5,10 +5,13 @@
 //! estimated by the tangent-map method with renormalisation of Benettin, Galgani, Giorgilli and
 //! Strelcyn (1980): a tangent vector is carried along the orbit by the Jacobian of the map (central
 //! differences of the engine's clearing with the rule's real `expect`), renormalised every period,
-//! and the exponent is the mean log growth over the second half of the run. For a one-dimensional
+//! and the exponent is the mean log growth over the second half of the run (an even number of
+//! periods, so a 2-cycle is averaged without bias; the error otherwise falls as 1/periods). For a one-dimensional
 //! state (naive, adaptive, fixed normal price) this is the mean of ln|f′(x_t)| along the orbit. The
 //! tangent space is the rule's price/expectation state; the agency's stock is taken along the orbit
-//! as given (it does not feed back on prices inside a regime).
+//! as given (it does not feed back on prices inside a regime). A season with a pinned price in the
+//! first half (a floor that binds once in the transient) restarts the tangent vector; one in the
+//! second half makes the exponent −∞ ("superstable", no number).
 
 use crate::engine::{Model, PeriodShock};
 use crate::expectations::ExpectationInput;
@@ -128,7 +131,8 @@ pub fn lyapunov(scenario: &Scenario, policy: &PolicySpec, periods: usize) -> (Op
     let mut stock = model.policy.agency.initial;
     let mut v = vec![1.0 / (n as f64).sqrt(); n];
     let mut next = vec![0.0; n];
-    let start = periods / 2;
+    // average over the second half, an even number of steps (no bias on a 2-cycle)
+    let start = periods / 2 + (periods - periods / 2) % 2;
     let mut sum = 0.0;
     for t in 0..periods {
         let s = stock;
@@ -144,13 +148,18 @@ pub fn lyapunov(scenario: &Scenario, policy: &PolicySpec, periods: usize) -> (Op
             return (None, Orbit::Diverged);
         }
         if norm < 1e-300 {
-            return (None, Orbit::Superstable);
-        }
-        if t >= start {
-            sum += norm.ln();
-        }
-        for i in 0..n {
-            v[i] = w[i] / norm;
+            if t >= start {
+                return (None, Orbit::Superstable);
+            }
+            // a pinned season in the transient: start the tangent vector afresh
+            v.iter_mut().for_each(|x| *x = 1.0 / (n as f64).sqrt());
+        } else {
+            if t >= start {
+                sum += norm.ln();
+            }
+            for i in 0..n {
+                v[i] = w[i] / norm;
+            }
         }
         stock = map.step(&x, stock, &mut next);
         if !next

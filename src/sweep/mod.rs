@@ -34,6 +34,9 @@ pub enum SweepError {
     /// Wrong number of axes, or `--long-run` with two.
     #[error("{0}")]
     Usage(String),
+    /// The files themselves do not validate.
+    #[error("{0}")]
+    Input(InputError),
     /// The key itself is wrong (unknown, or the file does not take a number there).
     #[error("--vary {key}: {problem}")]
     Key {
@@ -64,6 +67,12 @@ pub struct LongRunSpec {
     pub periods: usize,
 }
 
+/// Most grid points in one sweep.
+pub const MAX_POINTS: usize = 4_000_000;
+
+/// Most long-run rows (kept prices × grid values) in one sweep.
+pub const MAX_LONG_RUN_ROWS: usize = 10_000_000;
+
 /// Displacement of the starting price from the steady state when the market file gives none
 /// (a run started at rest would stay there and show nothing).
 pub const START_DISPLACEMENT: f64 = 1.05;
@@ -90,6 +99,21 @@ pub fn sweep(
                 .into(),
         ));
     }
+    let total: usize = axes.iter().map(|a| a.values.len()).product();
+    if total > MAX_POINTS {
+        return Err(SweepError::Usage(format!(
+            "the grid has {total} points; at most {MAX_POINTS} (use fewer STEPS)"
+        )));
+    }
+    if let Some(lr) = long_run {
+        if lr.keep.saturating_mul(total) > MAX_LONG_RUN_ROWS {
+            return Err(SweepError::Usage(format!(
+                "--long-run {} over {total} values would write {} rows; at most {MAX_LONG_RUN_ROWS}",
+                lr.keep,
+                lr.keep.saturating_mul(total)
+            )));
+        }
+    }
     if axes.len() == 2 && axes[0].key == axes[1].key {
         return Err(SweepError::Usage(format!(
             "--vary {} given twice",
@@ -97,10 +121,8 @@ pub fn sweep(
         )));
     }
     // the base files must be valid themselves
-    let (s0, p0) = base.validate(&[]).map_err(|e| SweepError::Key {
-        key: axes[0].key.clone(),
-        problem: e,
-    })?;
+    let (s0, p0) = base.validate(&[]).map_err(SweepError::Input)?;
+
     let base_parts = apply::Parts::new(&s0, &p0);
     // every value of every axis validated once
     let mut per_axis = Vec::with_capacity(axes.len());

@@ -1,10 +1,9 @@
 //! Assembles the briefing page from the results: summary first, then the market and assumptions,
 //! the policies, paths, risk, welfare and fiscal cost, stability, and provenance.
 
-use furrow::engine::PeriodRecord;
 use furrow::output::{fmt_num, TextTable};
 use furrow::report::{Briefing, Section};
-use furrow::scenario::{PolicySpec, Scenario, TerminalStock};
+use furrow::scenario::{PolicySpec, Scenario};
 use furrow::stability::StabilityReport;
 
 use super::assumptions;
@@ -15,7 +14,7 @@ pub const CAUTION: &str = "These are results of a stylised model under the assum
 They show how the policies differ inside the model; magnitudes depend on elasticities, expectations and shocks that \
 are uncertain. Defer to official analysis, local rules and the people who know the market before acting on them.";
 
-/// Headline figures of one policy, from the Monte Carlo when there is one, else from the one path.
+/// Headline figures of one policy (from the comparison).
 #[derive(Debug, Clone)]
 pub struct Headline {
     /// Policy name.
@@ -26,96 +25,6 @@ pub struct Headline {
     pub fiscal_pv: f64,
     /// Present value of the net welfare change against no intervention.
     pub net_pv: f64,
-}
-
-/// Present values of one path (fallback when no Monte Carlo comparison is available).
-#[derive(Debug, Clone, Copy, Default)]
-pub struct PathPv {
-    /// Consumer surplus.
-    pub consumer: f64,
-    /// Producer surplus.
-    pub producer: f64,
-    /// Fiscal cost (the terminal stock's value counted as a receipt in the last period).
-    pub fiscal: f64,
-}
-
-/// Present values of a path: Σ x_t (1 + r)^−t (INTERFACE.md, Welfare).
-pub fn path_pv(scenario: &Scenario, recs: &[PeriodRecord]) -> PathPv {
-    let r = scenario.run.discount_rate;
-    let mut pv = PathPv::default();
-    for (i, rec) in recs.iter().enumerate() {
-        let d = (1.0 + r).powi(-((i + 1) as i32));
-        pv.consumer += rec.consumer_surplus * d;
-        pv.producer += rec.producer_surplus * d;
-        pv.fiscal += rec.fiscal_cost * d;
-    }
-    if let (Some(last), TerminalStock::Market) = (recs.last(), scenario.run.terminal_stock) {
-        let d = (1.0 + r).powi(-(recs.len() as i32));
-        pv.fiscal -= last.stock * last.price * d;
-    }
-    pv
-}
-
-fn mean_sd(x: &[f64]) -> (f64, f64) {
-    let n = x.len() as f64;
-    if n < 1.0 {
-        return (f64::NAN, f64::NAN);
-    }
-    let m = x.iter().sum::<f64>() / n;
-    let v = if n > 1.0 {
-        x.iter().map(|v| (v - m).powi(2)).sum::<f64>() / (n - 1.0)
-    } else {
-        0.0
-    };
-    (m, v.sqrt())
-}
-
-/// Headlines and the welfare table from one path per policy; `runs[0]` is the market left alone.
-pub fn path_welfare(
-    scenario: &Scenario,
-    runs: &[(String, Vec<PeriodRecord>)],
-) -> (Vec<Headline>, TextTable) {
-    let money = money_unit(&scenario.market.price_unit, &scenario.market.quantity_unit);
-    let base = runs
-        .first()
-        .map(|(_, r)| path_pv(scenario, r))
-        .unwrap_or_default();
-    let mut t = TextTable::new(&[
-        "policy",
-        "mean price",
-        "price sd",
-        "fiscal cost PV",
-        "Δ consumer surplus PV",
-        "Δ producer surplus PV",
-        "net welfare change PV",
-    ]);
-    t.headers[3] = format!("fiscal cost PV ({money})");
-    let mut heads = Vec::new();
-    for (name, recs) in runs {
-        let pv = path_pv(scenario, recs);
-        let prices: Vec<f64> = recs.iter().map(|r| r.price).collect();
-        let (m, sd) = mean_sd(&prices);
-        let dc = pv.consumer - base.consumer;
-        let dp = pv.producer - base.producer;
-        let df = pv.fiscal - base.fiscal;
-        let net = dc + dp - df;
-        t.push(vec![
-            name.clone(),
-            fmt_num(m, 2),
-            fmt_num(sd, 2),
-            fmt_num(pv.fiscal, 0),
-            fmt_num(dc, 0),
-            fmt_num(dp, 0),
-            fmt_num(net, 0),
-        ]);
-        heads.push(Headline {
-            name: name.clone(),
-            price_sd: sd,
-            fiscal_pv: pv.fiscal,
-            net_pv: net,
-        });
-    }
-    (heads, t)
 }
 
 /// Summary sentences: which policy steadies the price most, at what cost, and who gains.

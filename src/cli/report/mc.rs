@@ -203,7 +203,11 @@ pub fn with_ranges(r: &CompareResult, mut t: TextTable) -> TextTable {
         if first.get(&lo).is_some() {
             let mut cells = vec![format!("{label}: 5–95 % range"), unit(ind.kind, r)];
             cells.extend(cols.iter().map(|p| {
-                format!("{} … {}", cell(p.get(&lo), ind.kind), cell(p.get(&hi), ind.kind))
+                format!(
+                    "{} … {}",
+                    cell(p.get(&lo), ind.kind),
+                    cell(p.get(&hi), ind.kind)
+                )
             }));
             out_row = Some(cells);
         }
@@ -211,7 +215,10 @@ pub fn with_ranges(r: &CompareResult, mut t: TextTable) -> TextTable {
     }
     let mut merged = Vec::new();
     for row in t.rows.drain(..) {
-        let name = row.first().map(|c| c.trim_start_matches("… ").to_string()).unwrap_or_default();
+        let name = row
+            .first()
+            .map(|c| c.trim_start_matches("… ").to_string())
+            .unwrap_or_default();
         merged.push(row);
         if let Some((_, Some(extra))) = rows.iter().find(|(l, _)| *l == name) {
             merged.push(extra.clone());
