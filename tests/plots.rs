@@ -218,16 +218,19 @@ fn eigenvalues_png_and_svg() {
             re: -0.8,
             im: 0.0,
             group: "free market".into(),
+            primary: true,
         },
         EigenPoint {
             re: 0.3,
             im: 0.6,
             group: "floor binding".into(),
+            primary: false,
         },
         EigenPoint {
             re: 0.3,
             im: -0.6,
             group: "floor binding".into(),
+            primary: false,
         },
     ];
     check(&eigenvalues("Eigenvalues", pts), "eigen", s0());

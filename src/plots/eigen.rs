@@ -17,6 +17,8 @@ pub struct EigenPoint {
     pub im: f64,
     /// Legend group.
     pub group: String,
+    /// Drawn filled (e.g. the regime holding the steady state); otherwise a ring.
+    pub primary: bool,
 }
 
 /// Eigenvalue plot data.
@@ -75,7 +77,14 @@ impl EigenPlot {
             colour: style::REFERENCE,
             key: LegendKey::Line,
         });
-        let body = frame(root, &self.titles, &legend)?;
+        let mut titles = self.titles.clone();
+        if self.points.iter().any(|p| !p.primary) {
+            titles.subtitle = format!(
+                "{}; filled: the regime at the steady state, ring: other regimes",
+                titles.subtitle
+            );
+        }
+        let body = frame(root, &titles, &legend)?;
         // Equal scales on both axes: the circle must look like a circle.
         let (bw, bh) = body.dim_in_pixel();
         let pw = bw.saturating_sub(16 + 28 + 74).max(10) as f64;
@@ -106,13 +115,21 @@ impl EigenPlot {
         chart
             .draw_series(LineSeries::new(circle, style::REFERENCE.stroke_width(2)))
             .map_err(de)?;
+        // Coincident eigenvalues of different groups show as concentric markers: each group's
+        // markers are 2 px smaller than the previous group's.
         for (gi, name) in names.iter().enumerate() {
             let c = style::series_colour(gi);
-            let size = 9 - 2 * (gi as i32).min(3);
+            let size = (11 - 2 * gi as i32).max(3);
+            let group: Vec<&&EigenPoint> = pts.iter().filter(|p| &p.group == name).collect();
             chart
-                .draw_series(pts.iter().filter(|p| &p.group == name).map(|p| {
+                .draw_series(group.iter().filter(|p| !p.primary).map(|p| {
+                    EmptyElement::at((p.re, p.im)) + Circle::new((0, 0), size, c.stroke_width(2))
+                }))
+                .map_err(de)?;
+            chart
+                .draw_series(group.iter().filter(|p| p.primary).map(|p| {
                     EmptyElement::at((p.re, p.im))
-                        + Circle::new((0, 0), size, c.mix(0.85).filled())
+                        + Circle::new((0, 0), size, c.filled())
                         + Circle::new((0, 0), size, style::INK.stroke_width(1))
                 }))
                 .map_err(de)?;

@@ -190,20 +190,19 @@ pub fn cobweb_figure(
 
 /// Eigenvalues of every regime of every report, in the complex plane.
 pub fn eigen_figure(reports: &[(String, StabilityReport)]) -> Option<Figure> {
+    // One policy: a colour per regime. Several: a colour per policy, its steady-state regime
+    // filled and the other regimes as rings (a legend entry per regime would crowd out the chart).
     let many = reports.len() > 1;
     let points: Vec<EigenPoint> = reports
         .iter()
         .flat_map(|(name, r)| {
-            r.regimes.iter().flat_map(move |g| {
-                let group = if many {
-                    format!("{name}: {}", g.name)
-                } else {
-                    g.name.clone()
-                };
+            r.regimes.iter().enumerate().flat_map(move |(k, g)| {
+                let group = if many { name.clone() } else { g.name.clone() };
                 g.eigenvalues.iter().map(move |e| EigenPoint {
                     re: e.re,
                     im: e.im,
                     group: group.clone(),
+                    primary: !many || k == 0,
                 })
             })
         })
