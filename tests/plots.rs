@@ -406,3 +406,47 @@ fn stability_and_sweep_plots() {
     assert_figure(&p.join("sw1"), "spectral_radius");
     assert_figure(&p.join("sw1"), "bifurcation");
 }
+
+#[test]
+fn compare_plots_on_the_demo_writes_every_figure() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("cmp");
+    let mut args = vec!["compare", "examples/veldmark_weather.toml"];
+    let policies: Vec<String> = std::fs::read_dir("policies")
+        .unwrap()
+        .map(|e| e.unwrap().path().display().to_string())
+        .filter(|p| p.ends_with(".toml"))
+        .collect();
+    args.extend(policies.iter().map(|s| s.as_str()));
+    args.extend(["--replications", "200"]);
+    furrow_ok(&args, &out);
+    for stem in [
+        "price_paths",
+        "harvest_paths",
+        "fiscal_cost",
+        "fiscal_cumulative",
+        "price_fan",
+        "stock_fan",
+        "fiscal_cost_mean",
+        "fiscal_cumulative_mean",
+        "eigenvalues",
+    ] {
+        assert_figure(&out, stem);
+    }
+    let cobwebs = std::fs::read_dir(&out)
+        .unwrap()
+        .filter(|e| {
+            let n = e
+                .as_ref()
+                .unwrap()
+                .file_name()
+                .to_string_lossy()
+                .to_string();
+            n.starts_with("cobweb_") && n.ends_with(".png")
+        })
+        .count();
+    assert_eq!(
+        cobwebs,
+        policies.len() + usize::from(!policies.iter().any(|p| p.ends_with("none.toml")))
+    );
+}
