@@ -85,7 +85,7 @@ pub fn execute(args: &ReportArgs) -> anyhow::Result<()> {
     } else {
         format!("one simulated weather path, seed {}", scenario.run.seed)
     };
-    let risk = Some(mc::table(&result, &mc::is_risk));
+    let risk = mc::table(&result, &mc::is_risk);
     let mut provenance = vec![
         (
             "furrow version".to_string(),

@@ -148,8 +148,8 @@ pub struct Inputs<'a> {
     pub basis: String,
     /// Welfare and fiscal table.
     pub welfare: TextTable,
-    /// Risk table (Monte Carlo), if any.
-    pub risk: Option<TextTable>,
+    /// Risk table.
+    pub risk: TextTable,
     /// Stability results.
     pub stability: Vec<(String, Result<StabilityReport, String>)>,
     /// Figures, by stem.
@@ -238,18 +238,17 @@ pub fn build(inp: Inputs<'_>) -> Briefing {
     );
 
     let mut risk = Section::new("Risk");
-    match inp.risk {
-        Some(t) => {
-            risk.paragraph(format!("Spread of outcomes across {}.", inp.basis));
-            risk.table("Risk figures", t);
-            add_figures(&mut risk, &inp.figures, &["price_fan", "stock_fan"]);
-        }
-        None => {
-            risk.paragraph(format!(
-                "The market file runs one path (replications = {}), so there are no risk figures. Set `replications` above 1 (with shocks) or pass --replications N.",
-                s.run.replications
-            ));
-        }
+    risk.paragraph(format!(
+        "How much prices, harvests and farm revenue vary across seasons ({}).",
+        inp.basis
+    ));
+    risk.table("Risk figures", inp.risk);
+    if s.run.replications > 1 {
+        add_figures(&mut risk, &inp.figures, &["price_fan", "stock_fan"]);
+    } else {
+        risk.note(
+            "One path only (replications = 1): the spreads are across seasons of that path. Set `replications` above 1 in the market file (with shocks), or pass --replications N, for fan charts across weather draws.",
+        );
     }
 
     let mut welfare = Section::new("Welfare and fiscal cost");
