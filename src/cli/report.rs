@@ -263,3 +263,13 @@ pub fn sweep_points(points: &[furrow::sweep::Point]) -> Vec<figures::SweepPoint>
         })
         .collect()
 }
+
+/// Writes the plots of `run` with replications > 1 into `dir`: fan charts and the mean fiscal cost.
+pub fn plot_mc_run(
+    dir: &Path,
+    scenario: &Scenario,
+    runs: &furrow::stochastic::PolicyRuns,
+    replications: usize,
+) -> anyhow::Result<()> {
+    figures::write_all(dir, &mc::run_figures(scenario, runs, replications))
+}

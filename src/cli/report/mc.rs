@@ -240,3 +240,61 @@ pub fn headlines(r: &CompareResult) -> Vec<Headline> {
         })
         .collect()
 }
+
+/// The figures of `run --plots` with replications > 1: a fan per summarised series (market price,
+/// harvest, and the agency stock when there is one) and the mean fiscal cost per period.
+pub fn run_figures(
+    scenario: &furrow::scenario::Scenario,
+    runs: &furrow::stochastic::PolicyRuns,
+    replications: usize,
+) -> Vec<Figure> {
+    use furrow::stochastic::Series as S;
+    let m = &scenario.market;
+    let mut figs = Vec::new();
+    for s in &runs.series {
+        let (stem, what, unit) = match s.series {
+            S::Price => ("price_fan", "market price", &m.price_unit),
+            S::Harvest => ("harvest_fan", "harvest", &m.quantity_unit),
+            S::Stock => ("stock_fan", "agency stock", &m.quantity_unit),
+            _ => continue,
+        };
+        if matches!(s.series, S::Stock) && !s.periods.iter().any(|x| x.p95 > 0.0) {
+            continue;
+        }
+        let band = FanBand {
+            name: runs.name.clone(),
+            p05: s.periods.iter().map(|x| x.p05).collect(),
+            p50: s.periods.iter().map(|x| x.p50).collect(),
+            p95: s.periods.iter().map(|x| x.p95).collect(),
+            mean: Some(s.periods.iter().map(|x| x.mean).collect()),
+            colour: None,
+        };
+        figs.push(Figure {
+            stem: stem.into(),
+            caption: format!("Spread of the {what} across {replications} simulated weather paths."),
+            plot: plots::fan(
+                &format!("{}: {what} under {}", m.name, runs.name),
+                "period (season)",
+                &format!("{what} ({unit})"),
+                replications,
+                vec![band],
+            ),
+        });
+    }
+    figs.push(Figure {
+        stem: "fiscal_cost_mean".into(),
+        caption: format!(
+            "Mean fiscal cost per season over {replications} simulated weather paths."
+        ),
+        plot: plots::fiscal(
+            &format!("{}: mean fiscal cost by period", m.name),
+            "period (season)",
+            &format!(
+                "mean fiscal cost ({})",
+                money_unit(&m.price_unit, &m.quantity_unit)
+            ),
+            vec![Series::periods(runs.name.clone(), &runs.mean_fiscal_cost)],
+        ),
+    });
+    figs
+}
