@@ -450,3 +450,23 @@ fn compare_plots_on_the_demo_writes_every_figure() {
         policies.len() + usize::from(!policies.iter().any(|p| p.ends_with("none.toml")))
     );
 }
+
+#[test]
+fn monte_carlo_run_plots_fans() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("mc");
+    furrow_ok(
+        &[
+            "run",
+            "examples/veldmark_weather.toml",
+            "--policy",
+            "policies/price_band.toml",
+            "--replications",
+            "100",
+        ],
+        &out,
+    );
+    for stem in ["price_fan", "harvest_fan", "stock_fan", "fiscal_cost_mean"] {
+        assert_figure(&out, stem);
+    }
+}
