@@ -8,3 +8,4 @@ pub mod policies;
 pub mod scenario;
 pub mod stability;
 pub mod stochastic;
+pub mod storage;
