@@ -11,6 +11,7 @@
 pub mod check;
 pub mod interp;
 pub mod market;
+pub mod public;
 pub mod solve;
 
 pub use check::GridRow;
@@ -109,16 +110,116 @@ pub fn report(
     options: &SolveOptions,
     rows: usize,
 ) -> Result<StorageReport, StorageError> {
-    if policy.floor.is_none() && policy.stock.is_none() {
-        let mut r = report_private(scenario, options, rows)?;
-        r.policy = policy.name.clone();
-        return Ok(r);
+    match band_of(policy)? {
+        None => {
+            let mut r = report_private(scenario, options, rows)?;
+            r.policy = policy.name.clone();
+            Ok(r)
+        }
+        Some(band) => {
+            check_options(options, rows)?;
+            let m = StorageMarket::new(scenario, options.nodes)?;
+            let sol = public::solve_public(m, band, options)?;
+            let (lo, hi) = sol.range();
+            let levels = 5;
+            let mut grid = Vec::with_capacity(rows * levels);
+            for l in 0..levels {
+                let g = band.keep * band.capacity * l as f64 / (levels - 1) as f64;
+                for i in 0..rows {
+                    let z = lo + (hi - lo) * i as f64 / (rows - 1) as f64;
+                    let c = sol.clear(z, g);
+                    grid.push(GridRow {
+                        availability: z,
+                        price: c.price,
+                        private_stock: c.private_stock,
+                        planted: sol.planted_at(c.private_stock, c.public_stock),
+                        public_stock: Some(g),
+                    });
+                }
+            }
+            Ok(StorageReport {
+                market: scenario.market.name.clone(),
+                policy: policy.name.clone(),
+                method: "endogenous grid method on private stock for each public stock of a grid (Carroll 2006), monotone cubic interpolation in availability (Fritsch-Carlson), linear in public stock, Gauss-Hermite quadrature".into(),
+                euler_residual_max: sol.euler_residual_max(options.test_points / 10 + 1, 9),
+                iterations: sol.iterations,
+                stockout_price: sol.stockout_price(0.0),
+                grid_points: sol.stocks.len() * sol.publics.len(),
+                test_points: (options.test_points / 10 + 1) * 9,
+                grid,
+            })
+        }
     }
-    Err(StorageError::UnsupportedPolicy {
+}
+
+/// The agency's rule as a price band inside the storage equilibrium, or `None` for a policy that
+/// does not trade. Covered: a band stock (`release = "band"`), a floor defended by purchase (a band
+/// that never sells), both with a finite capacity and no purchase budget.
+pub fn band_of(policy: &PolicySpec) -> Result<Option<public::Band>, StorageError> {
+    let unsupported = |key: &str, reason: &str| StorageError::UnsupportedPolicy {
         file: policy.source.clone(),
-        key: "stock".into(),
-        reason: "public stocks inside the storage equilibrium are not built yet".into(),
-    })
+        key: key.into(),
+        reason: reason.into(),
+    };
+    if let Some(e) = policy.expectations {
+        if e != crate::scenario::ExpectationSpec::Rational {
+            return Err(unsupported(
+                "expectations.rule",
+                &format!("\"{}\": the storage model needs rule = \"rational\" (farmers and storers look ahead)", e.rule_name()),
+            ));
+        }
+    }
+    let floor = match policy.floor {
+        None => None,
+        Some(f) => match f.instrument {
+            crate::scenario::FloorInstrument::Purchase => Some(f.price),
+            crate::scenario::FloorInstrument::DeficiencyPayment => {
+                return Err(unsupported(
+                    "floor.instrument",
+                    "\"deficiency-payment\" is not covered by the storage model; supported: a purchase floor or a band stock",
+                ))
+            }
+        },
+    };
+    let Some(stock) = policy.stock else {
+        return match floor {
+            None => Ok(None),
+            Some(_) => Err(unsupported(
+                "stock.capacity",
+                "a purchase floor inside the storage model needs a [stock] section with a finite capacity",
+            )),
+        };
+    };
+    if stock.release != crate::scenario::ReleaseSpec::Band {
+        return Err(unsupported(
+            "stock.release",
+            "only release = \"band\" is covered by the storage model",
+        ));
+    }
+    if stock.purchase_budget.is_finite() {
+        return Err(unsupported(
+            "stock.purchase_budget",
+            &format!("= {}: the storage model covers only an unlimited purchase budget", stock.purchase_budget),
+        ));
+    }
+    if !stock.capacity.is_finite() {
+        return Err(unsupported(
+            "stock.capacity",
+            "unlimited: the storage model needs a finite capacity (the public stock is a state on [0, capacity])",
+        ));
+    }
+    let buy_below = floor.map_or(stock.buy_below, |f| f.max(stock.buy_below));
+    let sell_above = if floor.is_some() && policy.stock.is_some() && stock.sell_above <= buy_below {
+        f64::INFINITY
+    } else {
+        stock.sell_above
+    };
+    Ok(Some(public::Band {
+        buy_below,
+        sell_above,
+        capacity: stock.capacity,
+        keep: 1.0 - stock.loss_rate,
+    }))
 }
 
 /// Checks the numerical settings.

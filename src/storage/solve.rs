@@ -145,6 +145,10 @@ pub struct SolveOptions {
     pub max_iterations: usize,
     /// Points of the dense grid on which the Euler residual is measured.
     pub test_points: usize,
+    /// Points of the private-stock grid of the two-state (public stock) solve.
+    pub grid_2d: usize,
+    /// Points of the public-stock grid of the two-state solve.
+    pub public_grid: usize,
 }
 
 impl Default for SolveOptions {
@@ -155,6 +159,8 @@ impl Default for SolveOptions {
             tolerance: 1e-9,
             max_iterations: 5000,
             test_points: 2001,
+            grid_2d: 100,
+            public_grid: 16,
         }
     }
 }

@@ -1,0 +1,334 @@
+//! The storage equilibrium with a public buffer stock run on a price band, which private storers
+//! know. Two state variables: availability z (private stock carried in plus harvest, net of the demand
+//! shock) and the public stock carried in g (after losses).
+//!
+//! Within a period the agency buys at `buy_below` while the price would fall below it (up to the
+//! capacity) and sells at `sell_above` while it would rise above it (until its stock runs out); private
+//! storers arbitrage as in the one-state model. End-of-period quantities satisfy
+//! z + g = D(P) + x + G.
+//!
+//! Method: endogenous grid on end-of-period private stock x_j for each end-of-period public stock G_m
+//! of a grid on [0, capacity]. For fixed G the pairs (x_j + D(π_jm), π_jm), with
+//! π_jm = (1 − loss)/(1 + r)·E[P'(keep·x_j + h', keep_g·G_m)] − k, give the price as a function of
+//! what is left to consumers and private storers, y = z + g − G (one monotone cubic rule per G_m,
+//! linear in G between them). The price at any state then needs no root finding: the no-trade price
+//! P(y = z, G = g), and when it falls outside the band only the band price or, if the capacity (or the
+//! stock) runs out, P(z + g − cap, cap) (or P(z + g, 0)).
+
+use super::market::StorageMarket;
+use super::solve::{plant, PriceRule, SolveOptions};
+use super::StorageError;
+use crate::storage::interp::Monotone;
+
+/// The agency's band rule as the storage model sees it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Band {
+    /// Buys while the price would fall below this.
+    pub buy_below: f64,
+    /// Sells while the price would rise above this (∞: never sells).
+    pub sell_above: f64,
+    /// Store capacity (finite).
+    pub capacity: f64,
+    /// 1 − the agency's loss rate.
+    pub keep: f64,
+}
+
+/// Regime of the market in a period.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Regime {
+    /// The agency does not trade.
+    Inside,
+    /// The agency buys at the lower band price.
+    Buying,
+    /// The store is full; the price is below the band.
+    Full,
+    /// The agency sells at the upper band price.
+    Selling,
+    /// The agency's stock is out; the price is above the band.
+    Empty,
+}
+
+/// The period's outcome at a state.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Cleared {
+    /// Market price.
+    pub price: f64,
+    /// dP/dz at fixed g.
+    pub slope: f64,
+    /// Public stock carried out.
+    pub public_stock: f64,
+    /// Private stock carried out.
+    pub private_stock: f64,
+    /// Regime.
+    pub regime: Regime,
+}
+
+/// The solved two-state equilibrium.
+#[derive(Debug, Clone)]
+pub struct PublicSolution {
+    /// The model.
+    pub market: StorageMarket,
+    /// The agency's rule.
+    pub band: Band,
+    /// End-of-period public stock grid G_m.
+    pub publics: Vec<f64>,
+    /// Price rule of y for each G_m.
+    pub rows: Vec<PriceRule>,
+    /// End-of-period private stock grid x_j.
+    pub stocks: Vec<f64>,
+    /// Planted q_jm, row-major by m.
+    pub planted: Vec<Vec<f64>>,
+    /// Iterations to convergence.
+    pub iterations: usize,
+    /// Last change of the rules (relative to P*).
+    pub change: f64,
+}
+
+fn row_price(m: &StorageMarket, publics: &[f64], rows: &[PriceRule], y: f64, g: f64) -> (f64, f64) {
+    let last = publics.len() - 1;
+    let k = publics
+        .partition_point(|&v| v <= g)
+        .clamp(1, last)
+        - 1;
+    let t = ((g - publics[k]) / (publics[k + 1] - publics[k])).clamp(0.0, 1.0);
+    let (p0, d0) = rows[k].eval(m, y);
+    if t == 0.0 {
+        return (p0, d0);
+    }
+    let (p1, d1) = rows[k + 1].eval(m, y);
+    ((1.0 - t) * p0 + t * p1, (1.0 - t) * d0 + t * d1)
+}
+
+/// Price and slope at state (z, g) under the rows (no root finding; see the module notes).
+#[inline]
+fn state_price(
+    m: &StorageMarket,
+    band: &Band,
+    publics: &[f64],
+    rows: &[PriceRule],
+    z: f64,
+    g: f64,
+) -> (f64, f64, Regime) {
+    let (p, d) = row_price(m, publics, rows, z, g);
+    if p < band.buy_below {
+        let (pc, dc) = row_price(m, publics, rows, z + g - band.capacity, band.capacity);
+        if pc < band.buy_below {
+            (pc, dc, Regime::Full)
+        } else {
+            (band.buy_below, 0.0, Regime::Buying)
+        }
+    } else if p > band.sell_above {
+        let (p0, d0) = row_price(m, publics, rows, z + g, 0.0);
+        if p0 > band.sell_above {
+            (p0, d0, Regime::Empty)
+        } else {
+            (band.sell_above, 0.0, Regime::Selling)
+        }
+    } else {
+        (p, d, Regime::Inside)
+    }
+}
+
+impl PublicSolution {
+    /// The period's outcome at availability `z` with public stock `g` carried in.
+    pub fn clear(&self, z: f64, g: f64) -> Cleared {
+        let m = &self.market;
+        let (price, slope, regime) = state_price(m, &self.band, &self.publics, &self.rows, z, g);
+        let w = z + g;
+        let target = |lo: f64, hi: f64, p: f64| {
+            let f = |gg: f64| row_price(m, &self.publics, &self.rows, w - gg, gg).0 - p;
+            crate::numeric::brent(f, lo, hi, 1e-12 * m.q_star.max(1.0)).unwrap_or(0.5 * (lo + hi))
+        };
+        let public_stock = match regime {
+            Regime::Inside => g,
+            Regime::Full => self.band.capacity,
+            Regime::Empty => 0.0,
+            Regime::Buying => target(g, self.band.capacity, self.band.buy_below),
+            Regime::Selling => target(0.0, g, self.band.sell_above),
+        };
+        let private_stock = (w - public_stock - m.demand.quantity(price)).max(0.0);
+        Cleared {
+            price,
+            slope,
+            public_stock,
+            private_stock,
+            regime,
+        }
+    }
+
+    /// Planted quantity when `x` private and `public` public units are carried out of the period.
+    pub fn planted_at(&self, x: f64, public: f64) -> f64 {
+        let mi = self
+            .publics
+            .partition_point(|&v| v <= public)
+            .clamp(1, self.publics.len())
+            - 1;
+        let j = self.stocks.partition_point(|&v| v <= x).clamp(1, self.stocks.len()) - 1;
+        let m = &self.market;
+        let gn = self.band.keep * public;
+        plant(m, m.keep * x, self.planted[mi][j], &|z| {
+            let (p, d, _) = state_price(m, &self.band, &self.publics, &self.rows, z, gn);
+            (p, d)
+        })
+        .0
+    }
+
+    /// Expected next price when `x` private and `public` public units are carried out, with planting
+    /// `q`.
+    pub fn expected_next(&self, x: f64, public: f64, q: f64) -> f64 {
+        let m = &self.market;
+        let gn = self.band.keep * public;
+        super::solve::expected_next(m, m.keep * x, q, &|z| {
+            let (p, d, _) = state_price(m, &self.band, &self.publics, &self.rows, z, gn);
+            (p, d)
+        })
+        .0
+    }
+
+    /// The stockout price (above it private storers hold nothing) when the agency holds `public`.
+    pub fn stockout_price(&self, public: f64) -> f64 {
+        let m = &self.market;
+        // the row's price at y = its kink, interpolated in G
+        let mi = self
+            .publics
+            .partition_point(|&v| v <= public)
+            .clamp(1, self.publics.len() - 1)
+            - 1;
+        let t = ((public - self.publics[mi]) / (self.publics[mi + 1] - self.publics[mi])).clamp(0.0, 1.0);
+        let at = |r: &PriceRule| r.spline.as_ref().map(|s| s.values()[0]).unwrap_or(0.0);
+        let _ = m;
+        (1.0 - t) * at(&self.rows[mi]) + t * at(&self.rows[mi + 1])
+    }
+
+    /// The arbitrage residual at state (z, g), relative to the price (as in the one-state model).
+    pub fn euler_residual(&self, z: f64, g: f64) -> f64 {
+        let m = &self.market;
+        let c = self.clear(z, g);
+        if c.price <= 0.0 {
+            return 0.0;
+        }
+        let q = self.planted_at(c.private_stock, c.public_stock);
+        let psi = self.expected_next(c.private_stock, c.public_stock, q);
+        let r = (m.discount * psi - m.cost) / c.price - 1.0;
+        if c.private_stock > 1e-9 * m.q_star {
+            r.abs()
+        } else {
+            r.max(0.0)
+        }
+    }
+}
+
+/// Solves the two-state equilibrium on `o.grid_2d` private-stock points × `o.public_grid` public-stock
+/// points.
+pub fn solve_public(
+    m: StorageMarket,
+    band: Band,
+    o: &SolveOptions,
+) -> Result<PublicSolution, StorageError> {
+    let n = o.grid_2d.max(8);
+    let mm = o.public_grid.max(2);
+    let x_max = if m.harvest_sd > 0.0 {
+        (10.0 * m.harvest_sd).min(0.5 * m.q_star)
+    } else {
+        0.1 * m.q_star
+    };
+    let stocks: Vec<f64> = (0..n)
+        .map(|j| x_max * (j as f64 / (n - 1) as f64).powi(2))
+        .collect();
+    let publics: Vec<f64> = (0..mm)
+        .map(|i| band.capacity * i as f64 / (mm - 1) as f64)
+        .collect();
+    let mut planted = vec![vec![m.q_star; n]; mm];
+    let mut rows = vec![PriceRule::no_storage(); mm];
+    let mut old: Vec<Vec<f64>> = vec![Vec::new(); mm];
+    let mut change = f64::INFINITY;
+    for it in 1..=o.max_iterations {
+        let mut new_rows = Vec::with_capacity(mm);
+        let mut worst = 0.0_f64;
+        for (mi, &gm) in publics.iter().enumerate() {
+            let gn = band.keep * gm;
+            let next = |z: f64| {
+                let (p, d, _) = state_price(&m, &band, &publics, &rows, z, gn);
+                (p, d)
+            };
+            let (mut ys, mut ps) = (Vec::with_capacity(n), Vec::with_capacity(n));
+            for (j, &x) in stocks.iter().enumerate() {
+                let (q, psi) = plant(&m, m.keep * x, planted[mi][j], &next);
+                planted[mi][j] = q;
+                let p = m.discount * psi - m.cost;
+                if p <= 0.0 || ps.last().is_some_and(|&last| p >= last) {
+                    break;
+                }
+                ys.push(x + m.demand.quantity(p));
+                ps.push(p);
+            }
+            let row_change = if ps.len() == old[mi].len() {
+                ps.iter()
+                    .zip(&old[mi])
+                    .map(|(a, b)| (a - b).abs())
+                    .fold(0.0, f64::max)
+                    / m.p_star
+            } else if ps.is_empty() && old[mi].is_empty() && it > 1 {
+                0.0
+            } else {
+                f64::INFINITY
+            };
+            worst = worst.max(row_change);
+            new_rows.push(if ps.len() >= 2 {
+                PriceRule {
+                    kink: ys[0],
+                    spline: Some(Monotone::new(ys, ps.clone())),
+                }
+            } else {
+                PriceRule::no_storage()
+            });
+            old[mi] = ps;
+        }
+        rows = new_rows;
+        change = worst;
+        if change < o.tolerance {
+            return Ok(PublicSolution {
+                market: m,
+                band,
+                publics,
+                rows,
+                stocks,
+                planted,
+                iterations: it,
+                change,
+            });
+        }
+    }
+    Err(StorageError::NotConverged {
+        iterations: o.max_iterations,
+        change,
+    })
+}
+
+impl PublicSolution {
+    /// The availability range reported and checked: the harvest at ±3 sd of the shocks around the
+    /// steady state, widened above by a quarter for carried stock.
+    pub fn range(&self) -> (f64, f64) {
+        let m = &self.market;
+        let (lo, hi) = m.harvest_range(m.q_star);
+        if hi - lo < 0.05 * m.q_star {
+            return (0.9 * m.q_star, 1.2 * m.q_star);
+        }
+        (lo, hi + 0.25 * (hi - lo))
+    }
+
+    /// Largest arbitrage residual on `nz` availabilities × `ng` public stocks carried in.
+    pub fn euler_residual_max(&self, nz: usize, ng: usize) -> f64 {
+        let (lo, hi) = self.range();
+        let (nz, ng) = (nz.max(2), ng.max(2));
+        let mut worst = 0.0_f64;
+        for l in 0..ng {
+            let g = self.band.keep * self.band.capacity * l as f64 / (ng - 1) as f64;
+            for i in 0..nz {
+                let z = lo + (hi - lo) * i as f64 / (nz - 1) as f64;
+                worst = worst.max(self.euler_residual(z, g));
+            }
+        }
+        worst
+    }
+}
