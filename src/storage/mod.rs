@@ -12,10 +12,12 @@ pub mod check;
 pub mod interp;
 pub mod market;
 pub mod public;
+pub mod simulate;
 pub mod solve;
 
 pub use check::GridRow;
 pub use market::{Node, StorageMarket};
+pub use simulate::{simulate, Equilibrium, StorageIndicators, StoragePeriod};
 pub use solve::{solve_private, PriceRule, PrivateSolution, SolveOptions};
 
 use crate::scenario::{PolicySpec, Scenario};
@@ -242,4 +244,79 @@ pub fn check_options(o: &SolveOptions, rows: usize) -> Result<(), StorageError> 
         return Err(bad("--tolerance", o.tolerance.to_string(), "must be between 0 and 1"));
     }
     Ok(())
+}
+
+/// Solves the storage equilibrium of `scenario` under `policy`: private storers only when the policy
+/// holds no stock (refined until the residual is below [`REFINE_TARGET`]), otherwise the two-state
+/// equilibrium with the agency's band.
+pub fn solve(
+    scenario: &Scenario,
+    policy: &PolicySpec,
+    options: &SolveOptions,
+) -> Result<Equilibrium, StorageError> {
+    let m = StorageMarket::new(scenario, options.nodes)?;
+    match band_of(policy)? {
+        None => {
+            let sol = solve_private(m, options)?;
+            Ok(Equilibrium::Private(solve::refine(
+                sol,
+                options,
+                REFINE_TARGET,
+                REFINE_MAX_POINTS,
+            )?))
+        }
+        Some(band) => Ok(Equilibrium::Public(public::solve_public(m, band, options)?)),
+    }
+}
+
+/// The storage indicators of `policy` on `scenario`: both equilibria (without and with the policy)
+/// solved, then one long path each on the same shocks (seed of the market file, replication 0,
+/// [`simulate::BURN_IN`] periods dropped, [`simulate::INDICATOR_PERIODS`] averaged).
+pub fn storage_indicators(
+    scenario: &Scenario,
+    policy: &PolicySpec,
+) -> Result<StorageIndicators, StorageError> {
+    let options = SolveOptions::default();
+    let run = |eq: &Equilibrium, initial: f64| {
+        let path = simulate(
+            eq,
+            &scenario.shocks,
+            scenario.run.seed,
+            0,
+            initial,
+            simulate::BURN_IN + simulate::INDICATOR_PERIODS,
+        );
+        simulate::moments(&path[simulate::BURN_IN..])
+    };
+    let base = solve(scenario, &PolicySpec::none(), &options)?;
+    let without = run(&base, 0.0);
+    let (eq, with) = if band_of(policy)?.is_some() {
+        let eq = solve(scenario, policy, &options)?;
+        let initial = policy.stock.map_or(0.0, |s| s.initial);
+        let with = run(&eq, initial);
+        (eq, with)
+    } else {
+        (base, without)
+    };
+    let [mean_price, price_sd, mean_harvest, private, public, private_out, stockout] = with;
+    let crowding_out = if public > 1e-6 * scenario.steady.quantity {
+        Some((without[3] - private) / public)
+    } else {
+        None
+    };
+    Ok(StorageIndicators {
+        mean_price,
+        price_sd,
+        price_cv: if mean_price > 0.0 { price_sd / mean_price } else { 0.0 },
+        mean_harvest,
+        private_stock_mean: private,
+        public_stock_mean: public,
+        private_stock_mean_without_policy: without[3],
+        crowding_out,
+        private_stockout_share: private_out,
+        stockout_share: stockout,
+        euler_residual_max: eq.euler_residual_max(),
+        iterations: eq.iterations(),
+        periods: simulate::INDICATOR_PERIODS,
+    })
 }
