@@ -2,7 +2,9 @@
 //! moments and crowding-out. Each check names its outside source.
 
 use assert_cmd::Command;
-use furrow::scenario::{apply_override, market_from_table, parse_toml, policy_from_table, PolicySpec, Scenario};
+use furrow::scenario::{
+    apply_override, market_from_table, parse_toml, policy_from_table, PolicySpec, Scenario,
+};
 use furrow::storage::{self, simulate, Equilibrium, SolveOptions, StorageError};
 
 const EXAMPLE: &str = "examples/veldmark_storers.toml";
@@ -71,7 +73,11 @@ fn prohibitive_storage_cost_gives_the_inverse_demand_of_the_harvest() {
     for z in [350.0, 420.0, 480.0, 530.0, 590.0] {
         let row = sol.row(z);
         assert_eq!(row.private_stock, 0.0);
-        assert!((row.price - (z - a) / b).abs() < 1e-9 * row.price, "{z}: {}", row.price);
+        assert!(
+            (row.price - (z - a) / b).abs() < 1e-9 * row.price,
+            "{z}: {}",
+            row.price
+        );
         assert!((row.planted - 480.0).abs() < 1e-8, "{}", row.planted);
     }
 }
@@ -88,9 +94,15 @@ fn without_shocks_the_steady_state_has_no_stocks() {
     assert_eq!(row.private_stock, 0.0);
     assert!((row.planted - 480.0).abs() < 1e-8);
     let threshold = 0.98 / 1.05 * 210.0 - 4.0;
-    assert!((sol.stockout_price() - threshold).abs() < 1e-9, "{}", sol.stockout_price());
+    assert!(
+        (sol.stockout_price() - threshold).abs() < 1e-9,
+        "{}",
+        sol.stockout_price()
+    );
     let path = simulate(&Equilibrium::Private(sol), &s.shocks, 1, 0, 0.0, 50);
-    assert!(path.iter().all(|r| r.private_stock == 0.0 && (r.price - 210.0).abs() < 1e-9));
+    assert!(path
+        .iter()
+        .all(|r| r.private_stock == 0.0 && (r.price - 210.0).abs() < 1e-9));
 }
 
 #[test]
@@ -115,7 +127,10 @@ fn price_falls_with_availability_and_kinks_where_stocks_start() {
     let left = (sol.rule.price(m, kink) - sol.rule.price(m, kink - h)) / h;
     let right = (sol.rule.price(m, kink + h) - sol.rule.price(m, kink)) / h;
     assert!((left - 1.0 / b).abs() < 1e-6, "left slope {left}");
-    assert!(right.abs() < 0.9 * left.abs(), "right slope {right} vs left {left}");
+    assert!(
+        right.abs() < 0.9 * left.abs(),
+        "right slope {right} vs left {left}"
+    );
     assert!((sol.rule.price(m, kink) - sol.stockout_price()).abs() < 1e-9);
     assert_eq!(sol.rule.stock(m, kink - 1.0), 0.0);
     assert!(sol.rule.stock(m, kink + 1.0) > 0.0);
@@ -125,7 +140,10 @@ fn autocorrelation(xs: &[f64]) -> f64 {
     let n = xs.len() as f64;
     let mean = xs.iter().sum::<f64>() / n;
     let var = xs.iter().map(|x| (x - mean).powi(2)).sum::<f64>();
-    xs.windows(2).map(|w| (w[0] - mean) * (w[1] - mean)).sum::<f64>() / var
+    xs.windows(2)
+        .map(|w| (w[0] - mean) * (w[1] - mean))
+        .sum::<f64>()
+        / var
 }
 
 fn skewness(xs: &[f64]) -> f64 {
@@ -190,14 +208,22 @@ fn the_band_holds_inside_the_equilibrium() {
     // Market-clearing identity z + g = D(P) + x + G and the band rule, at every simulated period
     // (definition of the band rule in INTERFACE.md; accounting identity).
     let s = example_with(&[]);
-    let eq = storage::solve(&s, &band_policy(195.0, 230.0, 60.0), &SolveOptions::default()).unwrap();
+    let eq = storage::solve(
+        &s,
+        &band_policy(195.0, 230.0, 60.0),
+        &SolveOptions::default(),
+    )
+    .unwrap();
     let path = simulate(&eq, &s.shocks, 3, 0, 20.0, 2000);
     let (a, b) = linear_demand();
     let mut prev_public = 20.0;
     for r in &path {
         let carried = 0.98 * prev_public;
         assert!((r.public_stock - (carried + r.purchases - r.releases)).abs() < 1e-9);
-        assert!((r.consumption - (a + b * r.price)).abs() < 1e-6 * r.consumption, "{r:?}");
+        assert!(
+            (r.consumption - (a + b * r.price)).abs() < 1e-6 * r.consumption,
+            "{r:?}"
+        );
         if r.purchases > 1e-9 {
             assert!(r.price <= 195.0 + 1e-6, "bought at {}", r.price);
         }
@@ -218,7 +244,8 @@ fn bad_storage_inputs_are_named() {
     let e = storage::solve(&s, &PolicySpec::none(), &SolveOptions::default()).unwrap_err();
     assert!(matches!(e, StorageError::NoCarryingCost { .. }));
     assert!(e.to_string().contains("storers.interest_rate"));
-    let text = "[policy]\nname = \"x\"\n[floor]\nprice = 200.0\ninstrument = \"deficiency-payment\"\n";
+    let text =
+        "[policy]\nname = \"x\"\n[floor]\nprice = 200.0\ninstrument = \"deficiency-payment\"\n";
     let p = policy_from_table("dp.toml", parse_toml("dp.toml", text).unwrap()).unwrap();
     let e = storage::solve(&example_with(&[]), &p, &SolveOptions::default()).unwrap_err();
     assert!(e.to_string().contains("dp.toml: floor.instrument"), "{e}");
@@ -268,7 +295,14 @@ fn storage_verb_solves_with_a_band_policy() {
     .unwrap();
     let out = Command::cargo_bin("furrow")
         .unwrap()
-        .args(["storage", EXAMPLE, "--policy", path.to_str().unwrap(), "--format", "csv"])
+        .args([
+            "storage",
+            EXAMPLE,
+            "--policy",
+            path.to_str().unwrap(),
+            "--format",
+            "csv",
+        ])
         .assert()
         .success()
         .get_output()

@@ -79,7 +79,12 @@ impl Monotone {
         let k = self.xs.partition_point(|&v| v <= x) - 1;
         let h = self.xs[k + 1] - self.xs[k];
         let t = (x - self.xs[k]) / h;
-        let (y0, y1, m0, m1) = (self.ys[k], self.ys[k + 1], self.ms[k] * h, self.ms[k + 1] * h);
+        let (y0, y1, m0, m1) = (
+            self.ys[k],
+            self.ys[k + 1],
+            self.ms[k] * h,
+            self.ms[k + 1] * h,
+        );
         let t2 = t * t;
         let t3 = t2 * t;
         let value = (2.0 * t3 - 3.0 * t2 + 1.0) * y0

@@ -201,7 +201,10 @@ pub fn band_of(policy: &PolicySpec) -> Result<Option<public::Band>, StorageError
     if stock.purchase_budget.is_finite() {
         return Err(unsupported(
             "stock.purchase_budget",
-            &format!("= {}: the storage model covers only an unlimited purchase budget", stock.purchase_budget),
+            &format!(
+                "= {}: the storage model covers only an unlimited purchase budget",
+                stock.purchase_budget
+            ),
         ));
     }
     if !stock.capacity.is_finite() {
@@ -232,16 +235,32 @@ pub fn check_options(o: &SolveOptions, rows: usize) -> Result<(), StorageError> 
         expected: expected.into(),
     };
     if !(8..=20_000).contains(&o.grid) {
-        return Err(bad("--grid", o.grid.to_string(), "must be a whole number from 8 to 20000"));
+        return Err(bad(
+            "--grid",
+            o.grid.to_string(),
+            "must be a whole number from 8 to 20000",
+        ));
     }
     if !(2..=64).contains(&o.nodes) {
-        return Err(bad("--nodes", o.nodes.to_string(), "must be a whole number from 2 to 64"));
+        return Err(bad(
+            "--nodes",
+            o.nodes.to_string(),
+            "must be a whole number from 2 to 64",
+        ));
     }
     if !(2..=100_000).contains(&rows) {
-        return Err(bad("--rows", rows.to_string(), "must be a whole number from 2 to 100000"));
+        return Err(bad(
+            "--rows",
+            rows.to_string(),
+            "must be a whole number from 2 to 100000",
+        ));
     }
     if !(o.tolerance > 0.0 && o.tolerance < 1.0) {
-        return Err(bad("--tolerance", o.tolerance.to_string(), "must be between 0 and 1"));
+        return Err(bad(
+            "--tolerance",
+            o.tolerance.to_string(),
+            "must be between 0 and 1",
+        ));
     }
     Ok(())
 }
@@ -307,7 +326,11 @@ pub fn storage_indicators(
     Ok(StorageIndicators {
         mean_price,
         price_sd,
-        price_cv: if mean_price > 0.0 { price_sd / mean_price } else { 0.0 },
+        price_cv: if mean_price > 0.0 {
+            price_sd / mean_price
+        } else {
+            0.0
+        },
         mean_harvest,
         private_stock_mean: private,
         public_stock_mean: public,

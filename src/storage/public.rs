@@ -86,10 +86,7 @@ pub struct PublicSolution {
 
 fn row_price(m: &StorageMarket, publics: &[f64], rows: &[PriceRule], y: f64, g: f64) -> (f64, f64) {
     let last = publics.len() - 1;
-    let k = publics
-        .partition_point(|&v| v <= g)
-        .clamp(1, last)
-        - 1;
+    let k = publics.partition_point(|&v| v <= g).clamp(1, last) - 1;
     let t = ((g - publics[k]) / (publics[k + 1] - publics[k])).clamp(0.0, 1.0);
     let (p0, d0) = rows[k].eval(m, y);
     if t == 0.0 {
@@ -163,7 +160,11 @@ impl PublicSolution {
             .partition_point(|&v| v <= public)
             .clamp(1, self.publics.len())
             - 1;
-        let j = self.stocks.partition_point(|&v| v <= x).clamp(1, self.stocks.len()) - 1;
+        let j = self
+            .stocks
+            .partition_point(|&v| v <= x)
+            .clamp(1, self.stocks.len())
+            - 1;
         let m = &self.market;
         let gn = self.band.keep * public;
         plant(m, m.keep * x, self.planted[mi][j], &|z| {
@@ -194,7 +195,8 @@ impl PublicSolution {
             .partition_point(|&v| v <= public)
             .clamp(1, self.publics.len() - 1)
             - 1;
-        let t = ((public - self.publics[mi]) / (self.publics[mi + 1] - self.publics[mi])).clamp(0.0, 1.0);
+        let t = ((public - self.publics[mi]) / (self.publics[mi + 1] - self.publics[mi]))
+            .clamp(0.0, 1.0);
         let at = |r: &PriceRule| r.spline.as_ref().map(|s| s.values()[0]).unwrap_or(0.0);
         let _ = m;
         (1.0 - t) * at(&self.rows[mi]) + t * at(&self.rows[mi + 1])

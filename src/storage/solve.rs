@@ -185,7 +185,11 @@ pub struct PrivateSolution {
 impl PrivateSolution {
     /// Planted quantity when `x` units of private stock are carried out of the period.
     pub fn planted_at(&self, x: f64) -> f64 {
-        let k = self.stocks.partition_point(|&v| v <= x).clamp(1, self.stocks.len()) - 1;
+        let k = self
+            .stocks
+            .partition_point(|&v| v <= x)
+            .clamp(1, self.stocks.len())
+            - 1;
         let guess = self.planted[k];
         let m = &self.market;
         plant(m, m.keep * x, guess, &|z| self.rule.eval(m, z)).0
