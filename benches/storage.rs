@@ -3,7 +3,7 @@
 
 use criterion::{criterion_group, criterion_main, Criterion};
 use furrow::scenario::{load_market, parse_toml, policy_from_table};
-use furrow::storage::{self, public, solve_private, SolveOptions, StorageMarket};
+use furrow::storage::{self, public_solve, solve_private, SolveOptions, StorageMarket};
 
 fn bench(c: &mut Criterion) {
     let s = load_market("examples/veldmark_storers.toml").expect("example market");
@@ -30,7 +30,7 @@ fn bench(c: &mut Criterion) {
     g.bench_function("public_band_2d", |b| {
         b.iter(|| {
             let m = StorageMarket::new(&s, o.nodes).unwrap();
-            public::solve_public(m, band, &o).unwrap()
+            public_solve::solve_public(m, band, &o).unwrap()
         })
     });
     g.finish();

@@ -196,7 +196,8 @@ fn a_band_reserve_crowds_out_part_of_private_storage() {
     assert!(c > 0.0 && c < 1.0, "crowding-out {c}");
     assert!(ind.public_stock_mean > 1.0);
     assert!(ind.private_stock_mean < ind.private_stock_mean_without_policy);
-    assert!(ind.euler_residual_max < 1e-2, "{}", ind.euler_residual_max);
+    // two-state accuracy on the default grids (100 × 16): about 1e-3 (docs/storage.md)
+    assert!(ind.euler_residual_max < 3e-3, "{}", ind.euler_residual_max);
     // no policy: no public stock and no crowding-out figure
     let none = storage::storage_indicators(&s, &PolicySpec::none()).unwrap();
     assert_eq!(none.public_stock_mean, 0.0);

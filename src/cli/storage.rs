@@ -15,9 +15,13 @@ pub struct StorageArgs {
     /// A policy file (default: no intervention).
     #[arg(long)]
     pub policy: Option<String>,
-    /// Points of the solution grid of private stock.
-    #[arg(long, default_value_t = 200)]
-    pub grid: usize,
+    /// Points of the solution grid of private stock (with a public stock: per public-stock level,
+    /// default 100).
+    #[arg(long)]
+    pub grid: Option<usize>,
+    /// Points of the public-stock grid (only with a policy that holds stock).
+    #[arg(long, default_value_t = 16)]
+    pub public_grid: usize,
     /// Gauss–Hermite nodes per shock.
     #[arg(long, default_value_t = 10)]
     pub nodes: usize,
@@ -32,10 +36,13 @@ pub struct StorageArgs {
 pub fn execute(args: &StorageArgs) -> anyhow::Result<()> {
     let scenario = args.common.load_market(&args.market)?;
     let policy = load_policy(args.policy.as_deref())?;
+    let d = SolveOptions::default();
     let options = SolveOptions {
-        grid: args.grid,
+        grid: args.grid.unwrap_or(d.grid),
+        grid_2d: args.grid.unwrap_or(d.grid_2d),
+        public_grid: args.public_grid,
         nodes: args.nodes,
-        ..SolveOptions::default()
+        ..d
     };
     let report = storage::report(&scenario, &policy, &options, args.rows)?;
     say(&format!(

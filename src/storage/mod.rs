@@ -12,6 +12,7 @@ pub mod check;
 pub mod interp;
 pub mod market;
 pub mod public;
+pub mod public_solve;
 pub mod simulate;
 pub mod solve;
 
@@ -121,7 +122,7 @@ pub fn report(
         Some(band) => {
             check_options(options, rows)?;
             let m = StorageMarket::new(scenario, options.nodes)?;
-            let sol = public::solve_public(m, band, options)?;
+            let sol = public_solve::solve_public(m, band, options)?;
             let (lo, hi) = sol.range();
             let levels = 5;
             let mut grid = Vec::with_capacity(rows * levels);
@@ -241,6 +242,20 @@ pub fn check_options(o: &SolveOptions, rows: usize) -> Result<(), StorageError> 
             "must be a whole number from 8 to 20000",
         ));
     }
+    if !(8..=20_000).contains(&o.grid_2d) {
+        return Err(bad(
+            "--grid",
+            o.grid_2d.to_string(),
+            "must be a whole number from 8 to 20000",
+        ));
+    }
+    if !(2..=2000).contains(&o.public_grid) {
+        return Err(bad(
+            "--public-grid",
+            o.public_grid.to_string(),
+            "must be a whole number from 2 to 2000",
+        ));
+    }
     if !(2..=64).contains(&o.nodes) {
         return Err(bad(
             "--nodes",
@@ -284,7 +299,9 @@ pub fn solve(
                 REFINE_MAX_POINTS,
             )?))
         }
-        Some(band) => Ok(Equilibrium::Public(public::solve_public(m, band, options)?)),
+        Some(band) => Ok(Equilibrium::Public(public_solve::solve_public(
+            m, band, options,
+        )?)),
     }
 }
 

@@ -16,9 +16,7 @@
 //! stock) runs out, P(z + g − cap, cap) (or P(z + g, 0)).
 
 use super::market::StorageMarket;
-use super::solve::{plant, PriceRule, SolveOptions};
-use super::StorageError;
-use crate::storage::interp::Monotone;
+use super::solve::{plant, PriceRule};
 
 /// The agency's band rule as the storage model sees it.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -84,21 +82,46 @@ pub struct PublicSolution {
     pub change: f64,
 }
 
-fn row_price(m: &StorageMarket, publics: &[f64], rows: &[PriceRule], y: f64, g: f64) -> (f64, f64) {
+/// The price when `y` is left to consumers and private storers and `g` is the end-of-period public
+/// stock: the rows of the grid blended linearly in G, aligned at their stockout points (so that the
+/// kink where private stocks start moves smoothly with G instead of being smeared over two places).
+pub(crate) fn row_price(
+    m: &StorageMarket,
+    publics: &[f64],
+    rows: &[PriceRule],
+    y: f64,
+    g: f64,
+) -> (f64, f64) {
     let last = publics.len() - 1;
     let k = publics.partition_point(|&v| v <= g).clamp(1, last) - 1;
     let t = ((g - publics[k]) / (publics[k + 1] - publics[k])).clamp(0.0, 1.0);
-    let (p0, d0) = rows[k].eval(m, y);
+    let (a, b) = (&rows[k], &rows[k + 1]);
     if t == 0.0 {
-        return (p0, d0);
+        return a.eval(m, y);
     }
-    let (p1, d1) = rows[k + 1].eval(m, y);
-    ((1.0 - t) * p0 + t * p1, (1.0 - t) * d0 + t * d1)
+    match (&a.spline, &b.spline) {
+        (Some(sa), Some(sb)) => {
+            let p0 = (1.0 - t) * sa.values()[0] + t * sb.values()[0];
+            let kink = m.demand.quantity(p0);
+            if y <= kink {
+                return m.inverse_demand(y);
+            }
+            let s = y - kink;
+            let (pa, da) = a.eval(m, a.kink + s);
+            let (pb, db) = b.eval(m, b.kink + s);
+            ((1.0 - t) * pa + t * pb, (1.0 - t) * da + t * db)
+        }
+        _ => {
+            let (p0, d0) = a.eval(m, y);
+            let (p1, d1) = b.eval(m, y);
+            ((1.0 - t) * p0 + t * p1, (1.0 - t) * d0 + t * d1)
+        }
+    }
 }
 
 /// Price and slope at state (z, g) under the rows (no root finding; see the module notes).
 #[inline]
-fn state_price(
+pub(crate) fn state_price(
     m: &StorageMarket,
     band: &Band,
     publics: &[f64],
@@ -174,6 +197,21 @@ impl PublicSolution {
         .0
     }
 
+    /// Planting on the grid point nearest below (`x`, `public`): a starting guess.
+    pub fn planted_guess(&self, x: f64, public: f64) -> f64 {
+        let mi = self
+            .publics
+            .partition_point(|&v| v <= public)
+            .clamp(1, self.publics.len())
+            - 1;
+        let j = self
+            .stocks
+            .partition_point(|&v| v <= x)
+            .clamp(1, self.stocks.len())
+            - 1;
+        self.planted[mi][j]
+    }
+
     /// Expected next price when `x` private and `public` public units are carried out, with planting
     /// `q`.
     pub fn expected_next(&self, x: f64, public: f64, q: f64) -> f64 {
@@ -220,93 +258,6 @@ impl PublicSolution {
     }
 }
 
-/// Solves the two-state equilibrium on `o.grid_2d` private-stock points × `o.public_grid` public-stock
-/// points.
-pub fn solve_public(
-    m: StorageMarket,
-    band: Band,
-    o: &SolveOptions,
-) -> Result<PublicSolution, StorageError> {
-    let n = o.grid_2d.max(8);
-    let mm = o.public_grid.max(2);
-    let x_max = if m.harvest_sd > 0.0 {
-        (10.0 * m.harvest_sd).min(0.5 * m.q_star)
-    } else {
-        0.1 * m.q_star
-    };
-    let stocks: Vec<f64> = (0..n)
-        .map(|j| x_max * (j as f64 / (n - 1) as f64).powi(2))
-        .collect();
-    let publics: Vec<f64> = (0..mm)
-        .map(|i| band.capacity * i as f64 / (mm - 1) as f64)
-        .collect();
-    let mut planted = vec![vec![m.q_star; n]; mm];
-    let mut rows = vec![PriceRule::no_storage(); mm];
-    let mut old: Vec<Vec<f64>> = vec![Vec::new(); mm];
-    let mut change = f64::INFINITY;
-    for it in 1..=o.max_iterations {
-        let mut new_rows = Vec::with_capacity(mm);
-        let mut worst = 0.0_f64;
-        for (mi, &gm) in publics.iter().enumerate() {
-            let gn = band.keep * gm;
-            let next = |z: f64| {
-                let (p, d, _) = state_price(&m, &band, &publics, &rows, z, gn);
-                (p, d)
-            };
-            let (mut ys, mut ps) = (Vec::with_capacity(n), Vec::with_capacity(n));
-            for (j, &x) in stocks.iter().enumerate() {
-                let (q, psi) = plant(&m, m.keep * x, planted[mi][j], &next);
-                planted[mi][j] = q;
-                let p = m.discount * psi - m.cost;
-                if p <= 0.0 || ps.last().is_some_and(|&last| p >= last) {
-                    break;
-                }
-                ys.push(x + m.demand.quantity(p));
-                ps.push(p);
-            }
-            let row_change = if ps.len() == old[mi].len() {
-                ps.iter()
-                    .zip(&old[mi])
-                    .map(|(a, b)| (a - b).abs())
-                    .fold(0.0, f64::max)
-                    / m.p_star
-            } else if ps.is_empty() && old[mi].is_empty() && it > 1 {
-                0.0
-            } else {
-                f64::INFINITY
-            };
-            worst = worst.max(row_change);
-            new_rows.push(if ps.len() >= 2 {
-                PriceRule {
-                    kink: ys[0],
-                    spline: Some(Monotone::new(ys, ps.clone())),
-                }
-            } else {
-                PriceRule::no_storage()
-            });
-            old[mi] = ps;
-        }
-        rows = new_rows;
-        change = worst;
-        if change < o.tolerance {
-            return Ok(PublicSolution {
-                market: m,
-                band,
-                publics,
-                rows,
-                stocks,
-                planted,
-                iterations: it,
-                change,
-            });
-        }
-    }
-    Err(StorageError::NotConverged {
-        iterations: o.max_iterations,
-        change,
-    })
-}
-
 impl PublicSolution {
     /// The availability range reported and checked: the harvest at ±3 sd of the shocks around the
     /// steady state, widened above by a quarter for carried stock.
@@ -317,6 +268,25 @@ impl PublicSolution {
             return (0.9 * m.q_star, 1.2 * m.q_star);
         }
         (lo, hi + 0.25 * (hi - lo))
+    }
+
+    /// The arbitrage residual at end-of-period public stock `public` when `y` is left to consumers and
+    /// private storers (the row rule's own residual, used to refine the grids).
+    pub fn end_residual(&self, y: f64, public: f64) -> f64 {
+        let m = &self.market;
+        let (price, _) = row_price(m, &self.publics, &self.rows, y, public);
+        if price <= 0.0 {
+            return 0.0;
+        }
+        let x = (y - m.demand.quantity(price)).max(0.0);
+        let q = self.planted_at(x, public);
+        let psi = self.expected_next(x, public, q);
+        let r = (m.discount * psi - m.cost) / price - 1.0;
+        if x > 1e-9 * m.q_star {
+            r.abs()
+        } else {
+            r.max(0.0)
+        }
     }
 
     /// Largest arbitrage residual on `nz` availabilities × `ng` public stocks carried in.
