@@ -5,10 +5,11 @@ use super::InputError;
 
 /// Parses TOML text, naming the file in the error (the parser's message carries line and column).
 pub fn parse_toml(file: &str, text: &str) -> Result<toml::Table, InputError> {
-    text.parse::<toml::Table>().map_err(|e| InputError::Syntax {
-        file: file.to_string(),
-        message: e.to_string().trim_end().to_string(),
-    })
+    text.parse::<toml::Table>()
+        .map_err(|e| InputError::Syntax {
+            file: file.to_string(),
+            message: e.to_string().trim_end().to_string(),
+        })
 }
 
 /// Rejects sections and keys the schema does not know, suggesting the nearest valid one.
@@ -54,10 +55,7 @@ fn suggest(word: &str, candidates: &[&str], kind: &str) -> String {
         .min();
     match best {
         Some((d, c)) if d <= 3.max(word.len() / 3) => {
-            format!(
-                "; did you mean `{c}`? (valid {kind}: {})",
-                candidates.join(", ")
-            )
+            format!("; did you mean `{c}`? (valid {kind}: {})", candidates.join(", "))
         }
         _ => format!("; valid {kind}: {}", candidates.join(", ")),
     }
@@ -67,10 +65,7 @@ fn suggest(word: &str, candidates: &[&str], kind: &str) -> String {
 pub fn short_value(v: &toml::Value) -> String {
     let s = v.to_string();
     if s.len() > 40 {
-        format!(
-            "{}…",
-            &s[..s.char_indices().nth(37).map(|c| c.0).unwrap_or(s.len())]
-        )
+        format!("{}…", &s[..s.char_indices().nth(37).map(|c| c.0).unwrap_or(s.len())])
     } else {
         s
     }
