@@ -2,6 +2,7 @@
 pub mod curves;
 pub mod engine;
 pub mod expectations;
+pub mod fit;
 pub mod numeric;
 pub mod output;
 pub mod policies;

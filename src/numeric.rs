@@ -34,7 +34,7 @@ pub fn root_decreasing<F: FnMut(f64) -> f64>(mut f: F, guess: f64, tol: f64) -> 
         for _ in 0..200 {
             hi *= 2.0;
             f_hi = f(hi);
-            if !(f_hi > 0.0) {
+            if f_hi.is_nan() || f_hi <= 0.0 {
                 break;
             }
             lo = hi;

@@ -81,7 +81,11 @@ impl TextTable {
                 let mut s = String::new();
                 s.push_str(&markdown_row(&self.headers));
                 s.push_str(&markdown_row(
-                    &self.headers.iter().map(|_| "---".to_string()).collect::<Vec<_>>(),
+                    &self
+                        .headers
+                        .iter()
+                        .map(|_| "---".to_string())
+                        .collect::<Vec<_>>(),
                 ));
                 for r in &self.rows {
                     s.push_str(&markdown_row(r));
@@ -222,7 +226,10 @@ mod tests {
     fn markdown_has_separator_row() {
         let mut t = TextTable::new(&["k", "v"]);
         t.push(vec!["a".into(), "1".into()]);
-        assert_eq!(t.render(Format::Markdown), "| k | v |\n| --- | --- |\n| a | 1 |\n");
+        assert_eq!(
+            t.render(Format::Markdown),
+            "| k | v |\n| --- | --- |\n| a | 1 |\n"
+        );
     }
 
     #[test]

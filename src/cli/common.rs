@@ -36,7 +36,10 @@ fn parse_format(s: &str) -> Result<Format, String> {
 
 /// Exit code of a failed verb: 1 when a run failed (a diverging path), 2 for bad input or usage.
 pub fn exit_code(err: &anyhow::Error) -> u8 {
-    if err.chain().any(|e| e.downcast_ref::<furrow::engine::Diverged>().is_some() || e.downcast_ref::<RunFailed>().is_some()) {
+    if err.chain().any(|e| {
+        e.downcast_ref::<furrow::engine::Diverged>().is_some()
+            || e.downcast_ref::<RunFailed>().is_some()
+    }) {
         1
     } else {
         2

@@ -55,6 +55,10 @@ pub fn dispatch(cli: Cli) -> anyhow::Result<()> {
         Verb::Compare(a) => compare::execute(&a),
         Verb::Report(a) => report::execute(&a),
         Verb::Storage(a) => storage::execute(&a),
-        Verb::Fit(a) => fit::execute(&a),
+        Verb::Fit(a) => {
+            let text = fit::execute(&a)?;
+            furrow::output::write_whole(std::path::Path::new("-"), text.as_bytes())?;
+            Ok(())
+        }
     }
 }

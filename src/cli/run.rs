@@ -100,7 +100,11 @@ pub fn render_path(records: &[PeriodRecord], format: Format) -> String {
             serde_json::to_string_pretty(&rows).unwrap_or_default() + "\n"
         }
         f => {
-            let cols = if f == Format::Table { TABLE_COLUMNS } else { RUN_COLUMNS };
+            let cols = if f == Format::Table {
+                TABLE_COLUMNS
+            } else {
+                RUN_COLUMNS
+            };
             let full = f == Format::Csv;
             let mut t = TextTable::new(cols);
             for r in records {

@@ -213,9 +213,14 @@ impl<'m> Simulator<'m> {
         let floor = model.policy.planting_floor();
         let rule_expectation = if model.rule.is_rational() {
             let guess = *self.history.last().unwrap_or(&1.0);
-            rational::solve(model, carried, self.last_demand_shock, floor, guess).ok_or_else(|| {
-                diverged("no rational expectation exists (the fixed point could not be bracketed)".into())
-            })?
+            rational::solve(model, carried, self.last_demand_shock, floor, guess).ok_or_else(
+                || {
+                    diverged(
+                        "no rational expectation exists (the fixed point could not be bracketed)"
+                            .into(),
+                    )
+                },
+            )?
         } else {
             model.rule.expect(&ExpectationInput {
                 history: &self.history,

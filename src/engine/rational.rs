@@ -18,7 +18,11 @@ pub(crate) struct Nodes {
 
 impl Nodes {
     pub fn new(spec: &ShockSpec) -> Nodes {
-        let active = [spec.yield_cv > 0.0, spec.supply_sd > 0.0, spec.demand_sd > 0.0];
+        let active = [
+            spec.yield_cv > 0.0,
+            spec.supply_sd > 0.0,
+            spec.demand_sd > 0.0,
+        ];
         let count = active.iter().filter(|a| **a).count();
         let n = match count {
             0 => 1,
@@ -81,7 +85,11 @@ pub(crate) fn solve(
             })
             .sum::<f64>()
     };
-    let guess = if guess.is_finite() && guess > 0.0 { guess } else { 1.0 };
+    let guess = if guess.is_finite() && guess > 0.0 {
+        guess
+    } else {
+        1.0
+    };
     let tol = 1e-11 * guess.max(1.0);
     let root = root_decreasing(|p| expected(p) - p, guess, tol)?;
     (root.is_finite() && root > 0.0).then_some(root)

@@ -90,6 +90,10 @@ fn purchase_budget_binds_exactly() {
         assert!(r.purchase_cost <= 300.0 + 1e-9);
         // the budget binds: spending equals the budget and the price is consistent with the purchases
         assert_relative_eq!(r.purchase_cost, 300.0, max_relative = 1e-9);
-        assert_relative_eq!(r.price, s.market.demand.price_at(r.consumption), max_relative = 1e-12);
+        assert_relative_eq!(
+            r.price,
+            s.market.demand.price_at(r.consumption),
+            max_relative = 1e-12
+        );
     }
 }

@@ -52,7 +52,12 @@ pub fn diagnose(
             }
         }
     }
-    let first = |bit: u16| records.iter().find(|r| r.flags & bit != 0).map(|r| r.period);
+    let first = |bit: u16| {
+        records
+            .iter()
+            .find(|r| r.flags & bit != 0)
+            .map(|r| r.period)
+    };
     let count = |bit: u16| records.iter().filter(|r| r.flags & bit != 0).count();
     if let Some(t) = first(flags::CAPACITY_FULL) {
         out.push(format!(
@@ -66,7 +71,11 @@ pub fn diagnose(
             count(flags::BUDGET_BOUND)
         ));
     }
-    let stockouts: Vec<usize> = records.iter().filter(|r| r.stockout).map(|r| r.period).collect();
+    let stockouts: Vec<usize> = records
+        .iter()
+        .filter(|r| r.stockout)
+        .map(|r| r.period)
+        .collect();
     if let Some(t) = stockouts.first() {
         out.push(format!(
             "stock-out: the reserve was empty while the price was above the ceiling, first in period {t} ({} periods in all); the ceiling was lost",

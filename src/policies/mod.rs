@@ -105,8 +105,7 @@ impl Policy {
 
     /// True when the policy holds or may hold a stock.
     pub fn holds_stock(&self) -> bool {
-        self.agency.initial > 0.0
-            || self.rules.iter().any(|r| r.trades_stock())
+        self.agency.initial > 0.0 || self.rules.iter().any(|r| r.trades_stock())
     }
 }
 
@@ -140,9 +139,11 @@ pub fn compile(spec: &PolicySpec) -> Policy {
         };
         match s.release {
             ReleaseSpec::Band => rules.push(Box::new(band)),
-            ReleaseSpec::Target { target, speed } => {
-                rules.push(Box::new(TargetStock { band, target, speed }))
-            }
+            ReleaseSpec::Target { target, speed } => rules.push(Box::new(TargetStock {
+                band,
+                target,
+                speed,
+            })),
             ReleaseSpec::Share { share } => rules.push(Box::new(ShareStock { band, share })),
         }
     }

@@ -1,8 +1,9 @@
 use super::{flags, BandStock, Clearing, PolicyRule};
 
-/// A reserve with a target level: it defends the band first; in periods when the price is inside the
-/// band it moves the stock toward `target` by `speed` × (target − carried stock), never pushing the
-/// price outside the band.
+/// A reserve with a target level. It defends the band first; in periods when the price is inside the
+/// band it moves the stock toward `target` by `speed` × (target − carried stock). Rebuilding purchases
+/// never lift the price above the middle of the band, and run-down sales never push it below the
+/// middle, so the reserve restocks in cheap seasons and draws down in dear ones.
 #[derive(Debug, Clone, Copy)]
 pub struct TargetStock {
     /// The band defended first.
@@ -11,6 +12,17 @@ pub struct TargetStock {
     pub target: f64,
     /// Share of the gap closed per period, in (0, 1].
     pub speed: f64,
+}
+
+impl TargetStock {
+    /// The middle of the band (the upper edge alone is infinite when no `sell_above` is set).
+    fn middle(&self) -> f64 {
+        if self.band.sell_above.is_finite() {
+            0.5 * (self.band.buy_below + self.band.sell_above)
+        } else {
+            f64::INFINITY
+        }
+    }
 }
 
 impl PolicyRule for TargetStock {
@@ -25,10 +37,11 @@ impl PolicyRule for TargetStock {
             return;
         }
         let gap = self.speed * (self.target - market.carried);
+        let middle = self.middle();
         if gap > 0.0 {
-            market.buy_at_most(gap, self.band.sell_above, flags::TARGET);
+            market.buy_at_most(gap, middle, flags::TARGET);
         } else if gap < 0.0 {
-            market.sell_at_most(-gap, self.band.buy_below, flags::TARGET);
+            market.sell_at_most(-gap, middle.min(self.band.sell_above), flags::TARGET);
         }
     }
 }

@@ -1,22 +1,22 @@
 //! TOML parsing with file-named errors, the unknown-key check with nearest-key suggestions, and dotted
 //! key overrides (`--vary supply.slope=...`).
 
+use super::raw::Kind;
 use super::InputError;
 
 /// Parses TOML text, naming the file in the error (the parser's message carries line and column).
 pub fn parse_toml(file: &str, text: &str) -> Result<toml::Table, InputError> {
-    text.parse::<toml::Table>()
-        .map_err(|e| InputError::Syntax {
-            file: file.to_string(),
-            message: e.to_string().trim_end().to_string(),
-        })
+    text.parse::<toml::Table>().map_err(|e| InputError::Syntax {
+        file: file.to_string(),
+        message: e.to_string().trim_end().to_string(),
+    })
 }
 
 /// Rejects sections and keys the schema does not know, suggesting the nearest valid one.
 pub fn check_keys(
     file: &str,
     table: &toml::Table,
-    schema: &[(&str, &[&str])],
+    schema: &[(&str, &[(&str, Kind)])],
 ) -> Result<(), InputError> {
     for (section, value) in table {
         let Some((_, keys)) = schema.iter().find(|(s, _)| s == section) else {
@@ -35,12 +35,37 @@ pub fn check_keys(
                 expected: format!("must be a section `[{section}]`"),
             });
         };
-        for key in inner.keys() {
-            if !keys.contains(&key.as_str()) {
+        for (key, v) in inner {
+            let Some((_, kind)) = keys.iter().find(|(k, _)| k == key) else {
+                let names: Vec<&str> = keys.iter().map(|(k, _)| *k).collect();
                 return Err(InputError::UnknownKey {
                     file: file.into(),
                     key: format!("{section}.{key}"),
-                    suggestion: suggest(key, keys, "keys"),
+                    suggestion: suggest(key, &names, "keys"),
+                });
+            };
+            let fits = match kind {
+                Kind::Number => v.is_float() || v.is_integer(),
+                Kind::Integer => v.is_integer(),
+                Kind::Text => v.is_str(),
+                Kind::Bool => v.is_bool(),
+                Kind::Numbers => v
+                    .as_array()
+                    .is_some_and(|a| a.iter().all(|x| x.is_float() || x.is_integer())),
+            };
+            if !fits {
+                let want = match kind {
+                    Kind::Number => "must be a number",
+                    Kind::Integer => "must be a whole number",
+                    Kind::Text => "must be a quoted string",
+                    Kind::Bool => "must be true or false",
+                    Kind::Numbers => "must be an array of numbers, e.g. [90.0, 95.0]",
+                };
+                return Err(InputError::BadValue {
+                    file: file.into(),
+                    key: format!("{section}.{key}"),
+                    value: short_value(v),
+                    expected: want.into(),
                 });
             }
         }
@@ -55,7 +80,10 @@ fn suggest(word: &str, candidates: &[&str], kind: &str) -> String {
         .min();
     match best {
         Some((d, c)) if d <= 3.max(word.len() / 3) => {
-            format!("; did you mean `{c}`? (valid {kind}: {})", candidates.join(", "))
+            format!(
+                "; did you mean `{c}`? (valid {kind}: {})",
+                candidates.join(", ")
+            )
         }
         _ => format!("; valid {kind}: {}", candidates.join(", ")),
     }
@@ -65,7 +93,10 @@ fn suggest(word: &str, candidates: &[&str], kind: &str) -> String {
 pub fn short_value(v: &toml::Value) -> String {
     let s = v.to_string();
     if s.len() > 40 {
-        format!("{}…", &s[..s.char_indices().nth(37).map(|c| c.0).unwrap_or(s.len())])
+        format!(
+            "{}…",
+            &s[..s.char_indices().nth(37).map(|c| c.0).unwrap_or(s.len())]
+        )
     } else {
         s
     }

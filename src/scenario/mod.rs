@@ -13,7 +13,10 @@ use serde::Serialize;
 use crate::curves::{Curve, SteadyState};
 
 pub use keys::{apply_override, parse_toml};
-pub use validate::{load_market, load_policy, market_from_table, policy_from_table};
+pub use validate::{
+    load_market, load_policy, market_from_str, market_from_table, policy_from_str,
+    policy_from_table,
+};
 
 /// An input problem, always naming the file and, where there is one, the key and the value.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]

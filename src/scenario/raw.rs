@@ -118,69 +118,109 @@ pub struct RawStock {
     pub share: Option<f64>,
 }
 
-/// The keys each section allows, for the unknown-key check (with nearest-key suggestions).
-pub const MARKET_SCHEMA: &[(&str, &[&str])] = &[
-    ("market", &["name", "quantity_unit", "price_unit"]),
+/// The type a key's value must have.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Kind {
+    /// A number (integer or float).
+    Number,
+    /// A whole number.
+    Integer,
+    /// A string.
+    Text,
+    /// true or false.
+    Bool,
+    /// An array of numbers.
+    Numbers,
+}
+
+use Kind::*;
+
+/// The keys each section allows and their types, for the unknown-key check (with nearest-key
+/// suggestions) and the type check.
+pub const MARKET_SCHEMA: &[(&str, &[(&str, Kind)])] = &[
+    (
+        "market",
+        &[
+            ("name", Text),
+            ("quantity_unit", Text),
+            ("price_unit", Text),
+        ],
+    ),
     ("demand", CURVE_KEYS),
     ("supply", CURVE_KEYS),
     ("expectations", EXPECTATION_KEYS),
     (
         "run",
         &[
-            "periods",
-            "initial_price",
-            "price_history",
-            "replications",
-            "seed",
-            "discount_rate",
-            "terminal_stock",
-            "risk_aversion",
+            ("periods", Integer),
+            ("initial_price", Number),
+            ("price_history", Numbers),
+            ("replications", Integer),
+            ("seed", Integer),
+            ("discount_rate", Number),
+            ("terminal_stock", Text),
+            ("risk_aversion", Number),
         ],
     ),
     (
         "shocks",
-        &["yield_cv", "supply_sd", "demand_sd", "demand_persistence"],
+        &[
+            ("yield_cv", Number),
+            ("supply_sd", Number),
+            ("demand_sd", Number),
+            ("demand_persistence", Number),
+        ],
     ),
-    ("storers", &["storage_cost", "interest_rate", "loss_rate"]),
+    (
+        "storers",
+        &[
+            ("storage_cost", Number),
+            ("interest_rate", Number),
+            ("loss_rate", Number),
+        ],
+    ),
 ];
 
-/// The keys a policy file allows.
-pub const POLICY_SCHEMA: &[(&str, &[&str])] = &[
-    ("policy", &["name"]),
-    ("floor", &["price", "instrument", "announced"]),
+/// The keys a policy file allows and their types.
+pub const POLICY_SCHEMA: &[(&str, &[(&str, Kind)])] = &[
+    ("policy", &[("name", Text)]),
+    (
+        "floor",
+        &[("price", Number), ("instrument", Text), ("announced", Bool)],
+    ),
     (
         "stock",
         &[
-            "buy_below",
-            "sell_above",
-            "capacity",
-            "initial",
-            "storage_cost",
-            "loss_rate",
-            "purchase_budget",
-            "financing_rate",
-            "handling_cost",
-            "release",
-            "target",
-            "speed",
-            "share",
+            ("buy_below", Number),
+            ("sell_above", Number),
+            ("capacity", Number),
+            ("initial", Number),
+            ("storage_cost", Number),
+            ("loss_rate", Number),
+            ("purchase_budget", Number),
+            ("financing_rate", Number),
+            ("handling_cost", Number),
+            ("release", Text),
+            ("target", Number),
+            ("speed", Number),
+            ("share", Number),
         ],
     ),
     ("expectations", EXPECTATION_KEYS),
 ];
 
-const CURVE_KEYS: &[&str] = &[
-    "form",
-    "intercept",
-    "slope",
-    "at_price",
-    "at_quantity",
-    "elasticity",
+const CURVE_KEYS: &[(&str, Kind)] = &[
+    ("form", Text),
+    ("intercept", Number),
+    ("slope", Number),
+    ("at_price", Number),
+    ("at_quantity", Number),
+    ("elasticity", Number),
 ];
-const EXPECTATION_KEYS: &[&str] = &[
-    "rule",
-    "weight",
-    "window",
-    "normal_price",
-    "initial_expected_price",
+const EXPECTATION_KEYS: &[(&str, Kind)] = &[
+    ("rule", Text),
+    ("weight", Number),
+    ("window", Integer),
+    ("normal_price", Number),
+    ("initial_expected_price", Number),
 ];

@@ -8,16 +8,22 @@ use crate::curves::{steady_state, Curve};
 
 /// Reads and validates a market file from disk.
 pub fn load_market(path: &str) -> Result<Scenario, InputError> {
-    let text = read(path)?;
-    let table = parse_toml(path, &text)?;
-    market_from_table(path, table)
+    market_from_str(path, &read(path)?)
 }
 
 /// Reads and validates a policy file from disk.
 pub fn load_policy(path: &str) -> Result<PolicySpec, InputError> {
-    let text = read(path)?;
-    let table = parse_toml(path, &text)?;
-    policy_from_table(path, table)
+    policy_from_str(path, &read(path)?)
+}
+
+/// Validates market-file text; `file` names it in errors.
+pub fn market_from_str(file: &str, text: &str) -> Result<Scenario, InputError> {
+    market_from_table(file, parse_toml(file, text)?)
+}
+
+/// Validates policy-file text; `file` names it in errors.
+pub fn policy_from_str(file: &str, text: &str) -> Result<PolicySpec, InputError> {
+    policy_from_table(file, parse_toml(file, text)?)
 }
 
 fn read(path: &str) -> Result<String, InputError> {
@@ -27,13 +33,12 @@ fn read(path: &str) -> Result<String, InputError> {
     })
 }
 
-fn deserialize<T: serde::de::DeserializeOwned>(file: &str, table: toml::Table) -> Result<T, InputError> {
-    // Re-serialising keeps the checks on one path; values keep their types.
-    let text = toml::to_string(&table).map_err(|e| InputError::Syntax {
-        file: file.into(),
-        message: e.to_string(),
-    })?;
-    toml::from_str(&text).map_err(|e| InputError::Syntax {
+fn deserialize<T: serde::de::DeserializeOwned>(
+    file: &str,
+    table: toml::Table,
+) -> Result<T, InputError> {
+    // Keys and types were checked against the schema already, so this only maps values.
+    T::deserialize(toml::Value::Table(table)).map_err(|e| InputError::Syntax {
         file: file.into(),
         message: e.to_string().trim_end().to_string(),
     })
@@ -66,7 +71,15 @@ impl Check<'_> {
         if v.is_finite() {
             Ok(v)
         } else {
-            Err(self.bad(key, v, "must be a finite number"))
+            // echo the value as TOML spells it
+            let written = if v.is_nan() {
+                "nan"
+            } else if v > 0.0 {
+                "inf"
+            } else {
+                "-inf"
+            };
+            Err(self.bad(key, written, "must be a finite number"))
         }
     }
 
@@ -135,11 +148,14 @@ fn curve(c: &Check, section: &str, raw: &RawCurve, demand: bool) -> Result<Curve
     let direct = raw.intercept.is_some() || raw.slope.is_some();
     let sign_word = if demand { "< 0" } else { "> 0" };
     let elasticity = |c: &Check| -> Result<(f64, f64, f64), InputError> {
-        let p = raw
-            .at_price
-            .ok_or_else(|| c.missing(&key("at_price"), "the calibration point needs at_price > 0"))?;
+        let p = raw.at_price.ok_or_else(|| {
+            c.missing(&key("at_price"), "the calibration point needs at_price > 0")
+        })?;
         let q = raw.at_quantity.ok_or_else(|| {
-            c.missing(&key("at_quantity"), "the calibration point needs at_quantity > 0")
+            c.missing(
+                &key("at_quantity"),
+                "the calibration point needs at_quantity > 0",
+            )
         })?;
         let e = raw.elasticity.ok_or_else(|| {
             c.missing(
@@ -198,7 +214,11 @@ fn curve(c: &Check, section: &str, raw: &RawCurve, demand: bool) -> Result<Curve
         }
         "constant-elasticity" => {
             if direct {
-                let k = if raw.intercept.is_some() { "intercept" } else { "slope" };
+                let k = if raw.intercept.is_some() {
+                    "intercept"
+                } else {
+                    "slope"
+                };
                 return Err(c.bad(
                     &key(k),
                     raw.intercept.or(raw.slope).unwrap_or_default(),
@@ -224,7 +244,10 @@ fn expectations(c: &Check, raw: &RawExpectations) -> Result<ExpectationSpec, Inp
     let rule = raw.rule.as_deref().unwrap_or("naive");
     let weight = |lo: f64, hi: f64, open_lo: bool, open_hi: bool, what: &str| {
         let w = raw.weight.ok_or_else(|| {
-            c.missing("expectations.weight", &format!("rule \"{rule}\" needs a weight {what}"))
+            c.missing(
+                "expectations.weight",
+                &format!("rule \"{rule}\" needs a weight {what}"),
+            )
         })?;
         c.range("expectations.weight", w, lo, hi, open_lo, open_hi)
     };
@@ -268,7 +291,9 @@ fn expectations(c: &Check, raw: &RawExpectations) -> Result<ExpectationSpec, Inp
                     ))
                 }
                 (Some(n), None) => NormalPrice::Fixed(c.positive("expectations.normal_price", n)?),
-                (None, Some(w)) => NormalPrice::Window(c.count("expectations.window", w, 1, 1000)?),
+                (None, Some(w)) => {
+                    NormalPrice::Window(c.count("expectations.window", w, 1, 1000)?)
+                }
                 (None, None) => {
                     return Err(c.missing(
                         "expectations.normal_price",
@@ -287,7 +312,10 @@ fn expectations(c: &Check, raw: &RawExpectations) -> Result<ExpectationSpec, Inp
         "trailing-mean" => {
             unused("weight", raw.weight.is_some())?;
             let w = raw.window.ok_or_else(|| {
-                c.missing("expectations.window", "rule \"trailing-mean\" needs a window ≥ 1")
+                c.missing(
+                    "expectations.window",
+                    "rule \"trailing-mean\" needs a window ≥ 1",
+                )
             })?;
             ExpectationSpec::TrailingMean {
                 window: c.count("expectations.window", w, 1, 1000)?,
@@ -298,19 +326,20 @@ fn expectations(c: &Check, raw: &RawExpectations) -> Result<ExpectationSpec, Inp
             unused("window", raw.window.is_some())?;
             ExpectationSpec::Rational
         }
-        other => {
-            return Err(c.bad(
-                "expectations.rule",
-                format!("\"{other}\""),
-                "allowed rules: naive, adaptive, normal-price, extrapolative, trailing-mean, rational",
-            ))
-        }
+        other => return Err(c.bad(
+            "expectations.rule",
+            format!("\"{other}\""),
+            "allowed rules: naive, adaptive, normal-price, extrapolative, trailing-mean, rational",
+        )),
     };
     if !matches!(spec, ExpectationSpec::NormalPrice { .. }) {
         unused("normal_price", raw.normal_price.is_some())?;
     }
     if !matches!(spec, ExpectationSpec::Adaptive { .. }) {
-        unused("initial_expected_price", raw.initial_expected_price.is_some())?;
+        unused(
+            "initial_expected_price",
+            raw.initial_expected_price.is_some(),
+        )?;
     }
     Ok(spec)
 }
@@ -331,19 +360,36 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
     let demand = curve(&c, "demand", demand_raw, true)?;
     let supply = curve(&c, "supply", supply_raw, false)?;
     let steady = steady_state(&demand, &supply).ok_or_else(|| {
+        let describe = |c: &Curve| match *c {
+            Curve::Linear { intercept, slope } => format!("intercept {intercept}, slope {slope}"),
+            Curve::ConstantElasticity {
+                at_price,
+                at_quantity,
+                elasticity,
+            } => format!("{at_quantity} at {at_price}, elasticity {elasticity}"),
+        };
         c.bad(
-            "supply.intercept",
-            match supply {
-                Curve::Linear { intercept, .. } => intercept.to_string(),
-                _ => "(curve)".into(),
-            },
-            "supply and demand do not cross at a positive price and quantity; check the intercepts",
+            "demand/supply",
+            format!("demand ({}), supply ({})", describe(&demand), describe(&supply)),
+            "the curves do not cross at a positive price and quantity: check demand.intercept and supply.intercept",
         )
     })?;
     let market = Market {
-        name: raw.market.name.clone().unwrap_or_else(|| "Unnamed market".into()),
-        quantity_unit: raw.market.quantity_unit.clone().unwrap_or_else(|| "units".into()),
-        price_unit: raw.market.price_unit.clone().unwrap_or_else(|| "per unit".into()),
+        name: raw
+            .market
+            .name
+            .clone()
+            .unwrap_or_else(|| "Unnamed market".into()),
+        quantity_unit: raw
+            .market
+            .quantity_unit
+            .clone()
+            .unwrap_or_else(|| "units".into()),
+        price_unit: raw
+            .market
+            .price_unit
+            .clone()
+            .unwrap_or_else(|| "per unit".into()),
         demand,
         supply,
     };
@@ -365,7 +411,14 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
             return Err(c.bad("run.price_history", h.len(), "at most 1000 past prices"));
         }
         for (i, p) in h.iter().enumerate() {
-            c.range(&format!("run.price_history[{i}]"), *p, 0.0, 1e12, true, false)?;
+            c.range(
+                &format!("run.price_history[{i}]"),
+                *p,
+                0.0,
+                1e12,
+                true,
+                false,
+            )?;
         }
         price_history = h.clone();
         if let Some(last) = h.last() {
@@ -386,7 +439,12 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
     if price_history.is_empty() {
         price_history.push(initial_price);
     }
-    let replications = c.count("run.replications", r.replications.unwrap_or(1), 1, 10_000_000)?;
+    let replications = c.count(
+        "run.replications",
+        r.replications.unwrap_or(1),
+        1,
+        10_000_000,
+    )?;
     let seed = match r.seed {
         Some(s) if s < 0 => return Err(c.bad("run.seed", s, "must be a whole number ≥ 0")),
         Some(s) => s as u64,
@@ -404,10 +462,24 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
             ))
         }
     };
-    let risk_aversion = c.range("run.risk_aversion", r.risk_aversion.unwrap_or(0.0), 0.0, 20.0, false, false)?;
+    let risk_aversion = c.range(
+        "run.risk_aversion",
+        r.risk_aversion.unwrap_or(0.0),
+        0.0,
+        20.0,
+        false,
+        false,
+    )?;
     let s = &raw.shocks;
     let shocks = ShockSpec {
-        yield_cv: c.range("shocks.yield_cv", s.yield_cv.unwrap_or(0.0), 0.0, 2.0, false, false)?,
+        yield_cv: c.range(
+            "shocks.yield_cv",
+            s.yield_cv.unwrap_or(0.0),
+            0.0,
+            2.0,
+            false,
+            false,
+        )?,
         supply_sd: c.non_negative("shocks.supply_sd", s.supply_sd.unwrap_or(0.0))?,
         demand_sd: c.non_negative("shocks.demand_sd", s.demand_sd.unwrap_or(0.0))?,
         demand_persistence: c.range(
@@ -430,7 +502,8 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
                 ));
             }
             Some(Storers {
-                storage_cost: c.non_negative("storers.storage_cost", st.storage_cost.unwrap_or(0.0))?,
+                storage_cost: c
+                    .non_negative("storers.storage_cost", st.storage_cost.unwrap_or(0.0))?,
                 interest_rate: c.rate("storers.interest_rate", st.interest_rate.unwrap_or(0.0))?,
                 loss_rate: c.rate("storers.loss_rate", st.loss_rate.unwrap_or(0.0))?,
             })
@@ -517,7 +590,10 @@ pub fn policy_from_table(file: &str, table: toml::Table) -> Result<PolicySpec, I
                 "band" => ReleaseSpec::Band,
                 "target" => {
                     let target = s.target.ok_or_else(|| {
-                        c.missing("stock.target", "release = \"target\" needs target ≥ 0 (the stock to steer toward)")
+                        c.missing(
+                            "stock.target",
+                            "release = \"target\" needs target ≥ 0 (the stock to steer toward)",
+                        )
                     })?;
                     let target = c.non_negative("stock.target", target)?;
                     if target > capacity {
@@ -527,7 +603,8 @@ pub fn policy_from_table(file: &str, table: toml::Table) -> Result<PolicySpec, I
                             &format!("must be ≤ stock.capacity = {capacity}"),
                         ));
                     }
-                    let speed = c.range("stock.speed", s.speed.unwrap_or(1.0), 0.0, 1.0, true, false)?;
+                    let speed =
+                        c.range("stock.speed", s.speed.unwrap_or(1.0), 0.0, 1.0, true, false)?;
                     ReleaseSpec::Target { target, speed }
                 }
                 "share" => {
@@ -551,7 +628,10 @@ pub fn policy_from_table(file: &str, table: toml::Table) -> Result<PolicySpec, I
                     Err(c.bad(
                         &format!("stock.{k}"),
                         "(set)",
-                        &format!("release rule \"{}\" does not use `{k}`", s.release.as_deref().unwrap_or("band")),
+                        &format!(
+                            "release rule \"{}\" does not use `{k}`",
+                            s.release.as_deref().unwrap_or("band")
+                        ),
                     ))
                 } else {
                     Ok(())
@@ -569,14 +649,16 @@ pub fn policy_from_table(file: &str, table: toml::Table) -> Result<PolicySpec, I
                 sell_above,
                 capacity,
                 initial,
-                storage_cost: c.non_negative("stock.storage_cost", s.storage_cost.unwrap_or(0.0))?,
+                storage_cost: c
+                    .non_negative("stock.storage_cost", s.storage_cost.unwrap_or(0.0))?,
                 loss_rate: c.rate("stock.loss_rate", s.loss_rate.unwrap_or(0.0))?,
                 purchase_budget: match s.purchase_budget {
                     Some(v) => c.non_negative("stock.purchase_budget", v)?,
                     None => f64::INFINITY,
                 },
                 financing_rate: c.rate("stock.financing_rate", s.financing_rate.unwrap_or(0.0))?,
-                handling_cost: c.non_negative("stock.handling_cost", s.handling_cost.unwrap_or(0.0))?,
+                handling_cost: c
+                    .non_negative("stock.handling_cost", s.handling_cost.unwrap_or(0.0))?,
                 release,
             })
         }

@@ -79,6 +79,9 @@ pub enum StabilityError {
 }
 
 /// Analyses `scenario` under `policy`.
-pub fn analyse(_scenario: &Scenario, _policy: &PolicySpec) -> Result<StabilityReport, StabilityError> {
+pub fn analyse(
+    _scenario: &Scenario,
+    _policy: &PolicySpec,
+) -> Result<StabilityReport, StabilityError> {
     Err(StabilityError::NotBuilt)
 }

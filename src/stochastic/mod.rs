@@ -6,4 +6,4 @@
 
 mod shocks;
 
-pub use shocks::{ShockStream, single_path_shocks};
+pub use shocks::{single_path_shocks, ShockStream};
