@@ -80,6 +80,15 @@ fn prohibitive_storage_cost_gives_the_inverse_demand_of_the_harvest() {
         );
         assert!((row.planted - 480.0).abs() < 1e-8, "{}", row.planted);
     }
+    // simulated prices are then i.i.d. with sd = Q*·cv(Y)/|b| (linear transform of the yield factor)
+    let path = simulate(&Equilibrium::Private(sol), &s.shocks, 11, 0, 0.0, 20_000);
+    let n = path.len() as f64;
+    let mean = path.iter().map(|r| r.price).sum::<f64>() / n;
+    let sd = (path.iter().map(|r| (r.price - mean).powi(2)).sum::<f64>() / n).sqrt();
+    let expected = 480.0 * 0.04 / -b;
+    assert!((sd - expected).abs() < 0.02 * expected, "sd {sd} vs {expected}"); // MC error ≈ 0.5 %
+    let mc = expected / n.sqrt(); // standard error of the sample mean
+    assert!((mean - 210.0).abs() < 4.0 * mc, "mean {mean}, standard error {mc}");
 }
 
 #[test]
