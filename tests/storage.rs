@@ -86,9 +86,15 @@ fn prohibitive_storage_cost_gives_the_inverse_demand_of_the_harvest() {
     let mean = path.iter().map(|r| r.price).sum::<f64>() / n;
     let sd = (path.iter().map(|r| (r.price - mean).powi(2)).sum::<f64>() / n).sqrt();
     let expected = 480.0 * 0.04 / -b;
-    assert!((sd - expected).abs() < 0.02 * expected, "sd {sd} vs {expected}"); // MC error ≈ 0.5 %
+    assert!(
+        (sd - expected).abs() < 0.02 * expected,
+        "sd {sd} vs {expected}"
+    ); // MC error ≈ 0.5 %
     let mc = expected / n.sqrt(); // standard error of the sample mean
-    assert!((mean - 210.0).abs() < 4.0 * mc, "mean {mean}, standard error {mc}");
+    assert!(
+        (mean - 210.0).abs() < 4.0 * mc,
+        "mean {mean}, standard error {mc}"
+    );
 }
 
 #[test]
@@ -254,11 +260,58 @@ fn bad_storage_inputs_are_named() {
     let e = storage::solve(&s, &PolicySpec::none(), &SolveOptions::default()).unwrap_err();
     assert!(matches!(e, StorageError::NoCarryingCost { .. }));
     assert!(e.to_string().contains("storers.interest_rate"));
-    let text =
-        "[policy]\nname = \"x\"\n[floor]\nprice = 200.0\ninstrument = \"deficiency-payment\"\n";
-    let p = policy_from_table("dp.toml", parse_toml("dp.toml", text).unwrap()).unwrap();
+    let text = "[policy]\nname = \"x\"\n[stock]\nbuy_below = 190.0\nsell_above = 235.0\n\
+                capacity = 80.0\nrelease = \"target\"\ntarget = 40.0\nspeed = 0.5\n";
+    let p = policy_from_table("tr.toml", parse_toml("tr.toml", text).unwrap()).unwrap();
     let e = storage::solve(&example_with(&[]), &p, &SolveOptions::default()).unwrap_err();
-    assert!(e.to_string().contains("dp.toml: floor.instrument"), "{e}");
+    assert!(e.to_string().contains("tr.toml: stock.release"), "{e}");
+}
+
+#[test]
+fn deficiency_payments_raise_planting_to_the_expected_producer_price() {
+    // Without storage, rational farmers under an announced deficiency payment plant
+    // q = S(E[max(D⁻¹(q·Y), F)]) (expected producer price; definition of the payment in INTERFACE.md).
+    // Reference: the same fixed point solved here by bisection with a 20 001-point midpoint rule over
+    // the normal density instead of Gauss–Hermite (common practice, no source).
+    let s = example_with(&[("storers.storage_cost", toml::Value::Float(1e5))]);
+    let text = "[policy]\nname = \"dp\"\n[floor]\nprice = 200.0\ninstrument = \"deficiency-payment\"\nannounced = true\n";
+    let p = policy_from_table("dp.toml", parse_toml("dp.toml", text).unwrap()).unwrap();
+    let eq = storage::solve(&s, &p, &SolveOptions::default()).unwrap();
+    let q = eq.planted_at(0.0, 0.0);
+    let (a, b) = linear_demand();
+    let (c, d) = (480.0 - 0.2 * 480.0, 0.2 * 480.0 / 210.0); // supply calibrated at (210, 480), ε = 0.2
+    let sigma = (1.0f64 + 0.12 * 0.12).ln().sqrt();
+    let expected_producer = |q: f64| {
+        let n = 20_001;
+        let h = 16.0 / n as f64;
+        (0..n)
+            .map(|i| {
+                let z = -8.0 + (i as f64 + 0.5) * h;
+                let y = (sigma * z - 0.5 * sigma * sigma).exp();
+                let p = ((q * y - a) / b).max(0.0).max(200.0);
+                p * (-0.5 * z * z).exp() / (2.0 * std::f64::consts::PI).sqrt() * h
+            })
+            .sum::<f64>()
+    };
+    let (mut lo, mut hi) = (400.0, 600.0);
+    for _ in 0..60 {
+        let mid = 0.5 * (lo + hi);
+        if mid - (c + d * expected_producer(mid)) < 0.0 {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    assert!((q - lo).abs() < 2e-3 * lo, "planted {q} vs reference {lo}");
+    assert!(q > 480.5, "the floor must raise planting: {q}");
+    let path = simulate(&eq, &s.shocks, 5, 0, 0.0, 500);
+    for r in &path {
+        assert!(r.producer_price >= 200.0 - 1e-12 && r.producer_price >= r.price);
+        let gap = (200.0 - r.price).max(0.0);
+        assert!(
+            (r.deficiency_payments - gap * r.harvest).abs() < 1e-9 * (1.0 + r.deficiency_payments)
+        );
+    }
 }
 
 #[test]

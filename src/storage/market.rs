@@ -44,6 +44,12 @@ pub struct StorageMarket {
     pub yield_sigma: f64,
     /// Standard deviation of the additive (supply − demand) shock.
     pub additive_sd: f64,
+    /// Producer price floor paid by deficiency payments (0: none): farmers plant on
+    /// E[max(P', floor)], storers trade at the market price.
+    pub planting_floor: f64,
+    /// Price floor of deficiency payments, announced or not (0: none): the treasury pays
+    /// (floor − P)·harvest when the price is below it.
+    pub payment_floor: f64,
 }
 
 impl StorageMarket {
@@ -99,6 +105,8 @@ impl StorageMarket {
             harvest_sd: ((q * s.shocks.yield_cv).powi(2) + add_sd * add_sd).sqrt(),
             yield_sigma: sigma,
             additive_sd: add_sd,
+            planting_floor: 0.0,
+            payment_floor: 0.0,
         })
     }
 

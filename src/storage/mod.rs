@@ -11,13 +11,17 @@
 pub mod check;
 pub mod interp;
 pub mod market;
+pub mod policy;
 pub mod public;
 pub mod public_solve;
+pub mod report;
 pub mod simulate;
 pub mod solve;
 
 pub use check::GridRow;
 pub use market::{Node, StorageMarket};
+pub use policy::{band_of, payment_floor, planting_floor};
+pub use report::{report, StorageReport};
 pub use simulate::{simulate, Equilibrium, StorageIndicators, StoragePeriod};
 pub use solve::{solve_private, PriceRule, PrivateSolution, SolveOptions};
 
@@ -58,175 +62,6 @@ pub enum StorageError {
 pub const REFINE_TARGET: f64 = 1e-7;
 /// Largest refined grid.
 pub const REFINE_MAX_POINTS: usize = 5000;
-
-/// What `storage` reports.
-#[derive(Debug, Clone, PartialEq, serde::Serialize)]
-pub struct StorageReport {
-    /// Market name.
-    pub market: String,
-    /// Policy name.
-    pub policy: String,
-    /// Solution method.
-    pub method: String,
-    /// Largest arbitrage residual on the dense test grid (relative to the price).
-    pub euler_residual_max: f64,
-    /// Iterations to convergence.
-    pub iterations: usize,
-    /// Price above which private storers hold nothing.
-    pub stockout_price: f64,
-    /// Points of the solution grid.
-    pub grid_points: usize,
-    /// Points of the dense test grid.
-    pub test_points: usize,
-    /// The solved rules on an even grid of availability.
-    pub grid: Vec<GridRow>,
-}
-
-/// Solves the private-storage equilibrium of `scenario` (no public stock) and reports it on `rows`
-/// rows.
-pub fn report_private(
-    scenario: &Scenario,
-    options: &SolveOptions,
-    rows: usize,
-) -> Result<StorageReport, StorageError> {
-    check_options(options, rows)?;
-    let m = StorageMarket::new(scenario, options.nodes)?;
-    let sol = solve_private(m, options)?;
-    let sol = solve::refine(sol, options, REFINE_TARGET, REFINE_MAX_POINTS)?;
-    Ok(StorageReport {
-        market: scenario.market.name.clone(),
-        policy: "No intervention".into(),
-        method: "endogenous grid method on private stock (Carroll 2006), monotone cubic interpolation (Fritsch-Carlson), Gauss-Hermite quadrature, grid refined where the residual exceeds 1e-7".into(),
-        euler_residual_max: sol.euler_residual_max(options.test_points),
-        iterations: sol.iterations,
-        stockout_price: sol.stockout_price(),
-        grid_points: sol.stocks.len(),
-        test_points: options.test_points,
-        grid: sol.grid(rows),
-    })
-}
-
-/// Solves the storage equilibrium of `scenario` under `policy` and reports it on `rows` rows.
-pub fn report(
-    scenario: &Scenario,
-    policy: &PolicySpec,
-    options: &SolveOptions,
-    rows: usize,
-) -> Result<StorageReport, StorageError> {
-    match band_of(policy)? {
-        None => {
-            let mut r = report_private(scenario, options, rows)?;
-            r.policy = policy.name.clone();
-            Ok(r)
-        }
-        Some(band) => {
-            check_options(options, rows)?;
-            let m = StorageMarket::new(scenario, options.nodes)?;
-            let sol = public_solve::solve_public(m, band, options)?;
-            let (lo, hi) = sol.range();
-            let levels = 5;
-            let mut grid = Vec::with_capacity(rows * levels);
-            for l in 0..levels {
-                let g = band.keep * band.capacity * l as f64 / (levels - 1) as f64;
-                for i in 0..rows {
-                    let z = lo + (hi - lo) * i as f64 / (rows - 1) as f64;
-                    let c = sol.clear(z, g);
-                    grid.push(GridRow {
-                        availability: z,
-                        price: c.price,
-                        private_stock: c.private_stock,
-                        planted: sol.planted_at(c.private_stock, c.public_stock),
-                        public_stock: Some(g),
-                    });
-                }
-            }
-            Ok(StorageReport {
-                market: scenario.market.name.clone(),
-                policy: policy.name.clone(),
-                method: "endogenous grid method on private stock for each public stock of a grid (Carroll 2006), monotone cubic interpolation in availability (Fritsch-Carlson), linear in public stock, Gauss-Hermite quadrature".into(),
-                euler_residual_max: sol.euler_residual_max(options.test_points / 10 + 1, 9),
-                iterations: sol.iterations,
-                stockout_price: sol.stockout_price(0.0),
-                grid_points: sol.stocks.len() * sol.publics.len(),
-                test_points: (options.test_points / 10 + 1) * 9,
-                grid,
-            })
-        }
-    }
-}
-
-/// The agency's rule as a price band inside the storage equilibrium, or `None` for a policy that
-/// does not trade. Covered: a band stock (`release = "band"`), a floor defended by purchase (a band
-/// that never sells), both with a finite capacity and no purchase budget.
-pub fn band_of(policy: &PolicySpec) -> Result<Option<public::Band>, StorageError> {
-    let unsupported = |key: &str, reason: &str| StorageError::UnsupportedPolicy {
-        file: policy.source.clone(),
-        key: key.into(),
-        reason: reason.into(),
-    };
-    if let Some(e) = policy.expectations {
-        if e != crate::scenario::ExpectationSpec::Rational {
-            return Err(unsupported(
-                "expectations.rule",
-                &format!("\"{}\": the storage model needs rule = \"rational\" (farmers and storers look ahead)", e.rule_name()),
-            ));
-        }
-    }
-    let floor = match policy.floor {
-        None => None,
-        Some(f) => match f.instrument {
-            crate::scenario::FloorInstrument::Purchase => Some(f.price),
-            crate::scenario::FloorInstrument::DeficiencyPayment => {
-                return Err(unsupported(
-                    "floor.instrument",
-                    "\"deficiency-payment\" is not covered by the storage model; supported: a purchase floor or a band stock",
-                ))
-            }
-        },
-    };
-    let Some(stock) = policy.stock else {
-        return match floor {
-            None => Ok(None),
-            Some(_) => Err(unsupported(
-                "stock.capacity",
-                "a purchase floor inside the storage model needs a [stock] section with a finite capacity",
-            )),
-        };
-    };
-    if stock.release != crate::scenario::ReleaseSpec::Band {
-        return Err(unsupported(
-            "stock.release",
-            "only release = \"band\" is covered by the storage model",
-        ));
-    }
-    if stock.purchase_budget.is_finite() {
-        return Err(unsupported(
-            "stock.purchase_budget",
-            &format!(
-                "= {}: the storage model covers only an unlimited purchase budget",
-                stock.purchase_budget
-            ),
-        ));
-    }
-    if !stock.capacity.is_finite() {
-        return Err(unsupported(
-            "stock.capacity",
-            "unlimited: the storage model needs a finite capacity (the public stock is a state on [0, capacity])",
-        ));
-    }
-    let buy_below = floor.map_or(stock.buy_below, |f| f.max(stock.buy_below));
-    let sell_above = if floor.is_some() && policy.stock.is_some() && stock.sell_above <= buy_below {
-        f64::INFINITY
-    } else {
-        stock.sell_above
-    };
-    Ok(Some(public::Band {
-        buy_below,
-        sell_above,
-        capacity: stock.capacity,
-        keep: 1.0 - stock.loss_rate,
-    }))
-}
 
 /// Checks the numerical settings.
 pub fn check_options(o: &SolveOptions, rows: usize) -> Result<(), StorageError> {
@@ -288,7 +123,9 @@ pub fn solve(
     policy: &PolicySpec,
     options: &SolveOptions,
 ) -> Result<Equilibrium, StorageError> {
-    let m = StorageMarket::new(scenario, options.nodes)?;
+    let mut m = StorageMarket::new(scenario, options.nodes)?;
+    m.planting_floor = planting_floor(policy);
+    m.payment_floor = payment_floor(policy);
     match band_of(policy)? {
         None => {
             let sol = solve_private(m, options)?;
@@ -326,7 +163,7 @@ pub fn storage_indicators(
     };
     let base = solve(scenario, &PolicySpec::none(), &options)?;
     let without = run(&base, 0.0);
-    let (eq, with) = if band_of(policy)?.is_some() {
+    let (eq, with) = if band_of(policy)?.is_some() || payment_floor(policy) > 0.0 {
         let eq = solve(scenario, policy, &options)?;
         let initial = policy.stock.map_or(0.0, |s| s.initial);
         let with = run(&eq, initial);
@@ -334,7 +171,8 @@ pub fn storage_indicators(
     } else {
         (base, without)
     };
-    let [mean_price, price_sd, mean_harvest, private, public, private_out, stockout] = with;
+    let [mean_price, price_sd, mean_harvest, private, public, private_out, stockout, producer, payments] =
+        with;
     let crowding_out = if public > 1e-6 * scenario.steady.quantity {
         Some((without[3] - private) / public)
     } else {
@@ -349,6 +187,8 @@ pub fn storage_indicators(
             0.0
         },
         mean_harvest,
+        mean_producer_price: producer,
+        deficiency_payments_mean: payments,
         private_stock_mean: private,
         public_stock_mean: public,
         private_stock_mean_without_policy: without[3],
@@ -359,4 +199,28 @@ pub fn storage_indicators(
         iterations: eq.iterations(),
         periods: simulate::INDICATOR_PERIODS,
     })
+}
+
+/// One simulated path of `scenario` under `policy` with the solved rules, for `run`: the file's
+/// `run.periods` periods, its seed and replication `replication`, starting with no private stock and
+/// the policy's initial public stock.
+pub fn storage_path(
+    scenario: &Scenario,
+    policy: &PolicySpec,
+    replication: u64,
+) -> Result<Vec<StoragePeriod>, StorageError> {
+    let eq = solve(scenario, policy, &SolveOptions::default())?;
+    let initial = if band_of(policy)?.is_some() {
+        policy.stock.map_or(0.0, |s| s.initial)
+    } else {
+        0.0
+    };
+    Ok(simulate(
+        &eq,
+        &scenario.shocks,
+        scenario.run.seed,
+        replication,
+        initial,
+        scenario.run.periods,
+    ))
 }

@@ -224,6 +224,17 @@ impl PublicSolution {
         .0
     }
 
+    /// Expected producer price farmers plant on (see [`super::solve::expected_producer`]).
+    pub fn expected_producer(&self, x: f64, public: f64, q: f64) -> f64 {
+        let m = &self.market;
+        let gn = self.band.keep * public;
+        super::solve::expected_producer(m, m.keep * x, q, &|z| {
+            let (p, d, _) = state_price(m, &self.band, &self.publics, &self.rows, z, gn);
+            (p, d)
+        })
+        .0
+    }
+
     /// The stockout price (above it private storers hold nothing) when the agency holds `public`.
     pub fn stockout_price(&self, public: f64) -> f64 {
         let m = &self.market;

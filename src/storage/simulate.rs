@@ -91,6 +91,18 @@ impl Equilibrium {
         }
     }
 
+    /// Expected producer price farmers plant on when `x` private and `public` public units are
+    /// carried out and `q` is planted.
+    pub fn expected_producer_price(&self, x: f64, public: f64, q: f64) -> f64 {
+        let m = self.market();
+        match self {
+            Equilibrium::Private(s) => {
+                super::solve::expected_producer(m, m.keep * x, q, &|z| s.rule.eval(m, z)).0
+            }
+            Equilibrium::Public(s) => s.expected_producer(x, public, q),
+        }
+    }
+
     /// Planting for next season when `x` private and `public` public units are carried out.
     pub fn planted_at(&self, x: f64, public: f64) -> f64 {
         match self {
@@ -105,6 +117,8 @@ impl Equilibrium {
 pub struct StoragePeriod {
     /// Period t = 1..T.
     pub period: usize,
+    /// The producer price farmers expected when they planted (rational expectation).
+    pub expected_price: f64,
     /// Planted for this period's harvest (last period's decision).
     pub planted: f64,
     /// Harvest.
@@ -113,6 +127,10 @@ pub struct StoragePeriod {
     pub availability: f64,
     /// Market price.
     pub price: f64,
+    /// Price farmers receive: the market price, or the deficiency-payment floor when higher.
+    pub producer_price: f64,
+    /// Deficiency payments: (floor − P)·harvest when the price is below the floor.
+    pub deficiency_payments: f64,
     /// Consumption.
     pub consumption: f64,
     /// Private stock carried out.
@@ -142,6 +160,7 @@ pub fn simulate(
     let mut x = 0.0;
     let mut public = initial_public;
     let mut planted = eq.planted_at(0.0, public);
+    let mut expected = eq.expected_producer_price(0.0, public, planted);
     let mut out = Vec::with_capacity(periods);
     for t in 1..=periods {
         let s = stream.next_shock();
@@ -153,14 +172,19 @@ pub fn simulate(
         let consumption = (availability + g - o.public_stock - o.private_stock).max(0.0);
         x = o.private_stock;
         public = o.public_stock;
-        let planted_now = planted;
+        let (planted_now, expected_now) = (planted, expected);
         planted = eq.planted_at(x, public);
+        expected = eq.expected_producer_price(x, public, planted);
+        let gap = (m.payment_floor - o.price).max(0.0);
         out.push(StoragePeriod {
             period: t,
+            expected_price: expected_now,
             planted: planted_now,
             harvest,
             availability,
             price: o.price,
+            producer_price: o.price + gap,
+            deficiency_payments: gap * harvest,
             consumption,
             private_stock: x,
             purchases: trade.max(0.0),
@@ -183,6 +207,10 @@ pub struct StorageIndicators {
     pub price_cv: f64,
     /// Mean harvest.
     pub mean_harvest: f64,
+    /// Mean producer price (with deficiency payments).
+    pub mean_producer_price: f64,
+    /// Mean deficiency payments per period.
+    pub deficiency_payments_mean: f64,
     /// Mean private stock carried out.
     pub private_stock_mean: f64,
     /// Mean public stock carried out.
@@ -210,8 +238,8 @@ pub const BURN_IN: usize = 200;
 pub const INDICATOR_PERIODS: usize = 10_000;
 
 /// Means over one long path after the burn-in: (mean price, sd, mean harvest, private, public,
-/// private stockout share, public stockout share).
-pub(crate) fn moments(path: &[StoragePeriod]) -> [f64; 7] {
+/// private stockout share, public stockout share, mean producer price, mean deficiency payments).
+pub(crate) fn moments(path: &[StoragePeriod]) -> [f64; 9] {
     let n = path.len().max(1) as f64;
     let mean = |f: &dyn Fn(&StoragePeriod) -> f64| path.iter().map(f).sum::<f64>() / n;
     let mp = mean(&|r| r.price);
@@ -224,5 +252,7 @@ pub(crate) fn moments(path: &[StoragePeriod]) -> [f64; 7] {
         mean(&|r| r.public_stock),
         mean(&|r| f64::from(u8::from(r.private_stock <= 1e-9))),
         mean(&|r| f64::from(u8::from(r.stockout))),
+        mean(&|r| r.producer_price),
+        mean(&|r| r.deficiency_payments),
     ]
 }

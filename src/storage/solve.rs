@@ -81,7 +81,38 @@ pub fn expected_next<F: Fn(f64) -> (f64, f64)>(
     (e, d)
 }
 
-/// Rational planting: the q with q = S(E[P' | q]), starting from `guess`. Returns (q, E[P']).
+/// Expected next producer price E[max(P', floor)] and its derivative in `q`, with the expected market
+/// price E[P'] (the same when there is no deficiency-payment floor).
+#[inline]
+pub fn expected_producer<F: Fn(f64) -> (f64, f64)>(
+    m: &StorageMarket,
+    carried: f64,
+    q: f64,
+    next: &F,
+) -> (f64, f64, f64) {
+    if m.planting_floor <= 0.0 {
+        let (e, d) = expected_next(m, carried, q, next);
+        return (e, d, e);
+    }
+    let (mut ep, mut d, mut e) = (0.0, 0.0, 0.0);
+    for n in &m.nodes {
+        let h = q * n.y + n.e;
+        let (p, dp) = next(carried + h.max(0.0));
+        e += n.w * p;
+        if p > m.planting_floor {
+            ep += n.w * p;
+            if h > 0.0 {
+                d += n.w * dp * n.y;
+            }
+        } else {
+            ep += n.w * m.planting_floor;
+        }
+    }
+    (ep, d, e)
+}
+
+/// Rational planting: the q with q = S(E[producer price' | q]), starting from `guess`. Returns
+/// (q, E[P']) with P' the market price.
 ///
 /// g(q) = q − S(E[P'(q)]) is increasing with slope ≥ 1 (more planted, lower expected price), g(0) ≤ 0,
 /// so the root is unique; Newton steps are kept inside the bracket, with bisection as a fallback.
@@ -100,9 +131,9 @@ pub fn plant<F: Fn(f64) -> (f64, f64)>(
     };
     let mut psi = 0.0;
     for _ in 0..200 {
-        let (e, de) = expected_next(m, carried, q, next);
+        let (ep, de, e) = expected_producer(m, carried, q, next);
         psi = e;
-        let (s, ds) = m.supply_at(e);
+        let (s, ds) = m.supply_at(ep);
         let g = q - s;
         if g.abs() <= 1e-14 * scale {
             return (q, psi);
