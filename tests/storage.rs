@@ -252,6 +252,37 @@ fn the_band_holds_inside_the_equilibrium() {
 }
 
 #[test]
+fn a_rotating_reserve_releases_its_share_inside_the_equilibrium() {
+    // Share rule (engine semantics, src/policies/stock_share.rs): unless the band bought, at least
+    // share·carried is released, never pushing the price below buy_below.
+    let s = example_with(&[]);
+    let text = "[policy]\nname = \"rot\"\n[stock]\nbuy_below = 195.0\nsell_above = 230.0\n\
+                capacity = 60.0\ninitial = 30.0\nloss_rate = 0.02\nrelease = \"share\"\nshare = 0.25\n";
+    let p = policy_from_table("rot.toml", parse_toml("rot.toml", text).unwrap()).unwrap();
+    let eq = storage::solve(&s, &p, &SolveOptions::default()).unwrap();
+    let path = simulate(&eq, &s.shocks, 3, 0, 30.0, 2000);
+    let mut prev = 30.0;
+    let mut rotated = 0;
+    for r in &path {
+        let carried = 0.98 * prev;
+        if r.purchases <= 1e-9 {
+            let released_share = r.public_stock <= 0.75 * carried + 1e-7;
+            let held_at_floor = (r.price - 195.0).abs() < 1e-6;
+            assert!(released_share || held_at_floor, "{r:?} carried {carried}");
+            rotated += usize::from(r.releases > 1e-9 && r.price < 230.0 - 1e-6);
+        }
+        prev = r.public_stock;
+    }
+    assert!(
+        rotated > 100,
+        "rotation inside the band happened {rotated} times"
+    );
+    let ind = storage::storage_indicators(&s, &p).unwrap();
+    let c = ind.crowding_out.unwrap();
+    assert!(c > 0.0 && c < 1.0, "crowding-out {c}");
+}
+
+#[test]
 fn bad_storage_inputs_are_named() {
     let s = example_with(&[
         ("storers.interest_rate", toml::Value::Float(0.0)),
@@ -261,10 +292,13 @@ fn bad_storage_inputs_are_named() {
     assert!(matches!(e, StorageError::NoCarryingCost { .. }));
     assert!(e.to_string().contains("storers.interest_rate"));
     let text = "[policy]\nname = \"x\"\n[stock]\nbuy_below = 190.0\nsell_above = 235.0\n\
-                capacity = 80.0\nrelease = \"target\"\ntarget = 40.0\nspeed = 0.5\n";
+                capacity = 80.0\npurchase_budget = 5000.0\n";
     let p = policy_from_table("tr.toml", parse_toml("tr.toml", text).unwrap()).unwrap();
     let e = storage::solve(&example_with(&[]), &p, &SolveOptions::default()).unwrap_err();
-    assert!(e.to_string().contains("tr.toml: stock.release"), "{e}");
+    assert!(
+        e.to_string().contains("tr.toml: stock.purchase_budget"),
+        "{e}"
+    );
 }
 
 #[test]

@@ -8,6 +8,7 @@
 //! - [`solve`]: the one-state equilibrium (endogenous grid method);
 //! - [`check`]: Euler residuals on a dense grid and the printed grid.
 
+pub mod agency;
 pub mod check;
 pub mod interp;
 pub mod market;
@@ -54,8 +55,16 @@ pub enum StorageError {
         expected: String,
     },
     /// The iteration did not reach the tolerance.
-    #[error("the storage equilibrium did not converge in {iterations} iterations (last change {change:.3e} of P*)")]
+    #[error("the storage equilibrium did not converge in {iterations} iterations ({})", describe_change(*change))]
     NotConverged { iterations: usize, change: f64 },
+}
+
+fn describe_change(change: f64) -> String {
+    if change.is_finite() {
+        format!("last change {change:.3e} of the steady-state price")
+    } else {
+        "the set of grid points where storers hold stock kept changing".into()
+    }
 }
 
 /// Arbitrage residual the grid refinement aims below (relative to the price).

@@ -1,13 +1,13 @@
 //! How a policy file enters the storage equilibrium: the agency's band (a second state variable) and
 //! the producer price floor of deficiency payments (which changes planting only).
 
-use super::public::Band;
+use super::agency::{Band, Release};
 use super::StorageError;
-use crate::scenario::{FloorInstrument, PolicySpec};
+use crate::scenario::{FloorInstrument, PolicySpec, ReleaseSpec};
 
 /// The agency's rule as a price band inside the storage equilibrium, or `None` for a policy that
-/// does not trade. Covered: a band stock (`release = "band"`), a floor defended by purchase (a band
-/// that never sells), both with a finite capacity and no purchase budget; a deficiency-payment floor
+/// does not trade. Covered: a band stock released by the band or the share rule, a floor
+/// defended by purchase (a band that never sells), both with a finite capacity and no purchase budget; a deficiency-payment floor
 /// does not trade (see [`planting_floor`]).
 pub fn band_of(policy: &PolicySpec) -> Result<Option<Band>, StorageError> {
     let unsupported = |key: &str, reason: &str| StorageError::UnsupportedPolicy {
@@ -39,12 +39,18 @@ pub fn band_of(policy: &PolicySpec) -> Result<Option<Band>, StorageError> {
             )),
         };
     };
-    if stock.release != crate::scenario::ReleaseSpec::Band {
-        return Err(unsupported(
-            "stock.release",
-            "only release = \"band\" is covered by the storage model",
-        ));
-    }
+    let release = match stock.release {
+        ReleaseSpec::Band => Release::Band,
+        ReleaseSpec::Target { .. } => {
+            // The rule is implemented (`agency::decide`), but where the band takes over from the
+            // target trade the price jumps, and the iteration cycles instead of converging.
+            return Err(unsupported(
+                "stock.release",
+                "\"target\": the target rule makes the price jump where the band takes over, and the storage equilibrium does not converge for it; supported: \"band\" and \"share\"",
+            ));
+        }
+        ReleaseSpec::Share { share } => Release::Share { share },
+    };
     if stock.purchase_budget.is_finite() {
         return Err(unsupported(
             "stock.purchase_budget",
@@ -71,6 +77,7 @@ pub fn band_of(policy: &PolicySpec) -> Result<Option<Band>, StorageError> {
         sell_above,
         capacity: stock.capacity,
         keep: 1.0 - stock.loss_rate,
+        release,
     }))
 }
 

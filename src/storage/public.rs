@@ -15,36 +15,10 @@
 //! P(y = z, G = g), and when it falls outside the band only the band price or, if the capacity (or the
 //! stock) runs out, P(z + g − cap, cap) (or P(z + g, 0)).
 
+use super::agency::decide;
+pub use super::agency::{Band, Decision, Regime, Release};
 use super::market::StorageMarket;
 use super::solve::{plant, PriceRule};
-
-/// The agency's band rule as the storage model sees it.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Band {
-    /// Buys while the price would fall below this.
-    pub buy_below: f64,
-    /// Sells while the price would rise above this (∞: never sells).
-    pub sell_above: f64,
-    /// Store capacity (finite).
-    pub capacity: f64,
-    /// 1 − the agency's loss rate.
-    pub keep: f64,
-}
-
-/// Regime of the market in a period.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Regime {
-    /// The agency does not trade.
-    Inside,
-    /// The agency buys at the lower band price.
-    Buying,
-    /// The store is full; the price is below the band.
-    Full,
-    /// The agency sells at the upper band price.
-    Selling,
-    /// The agency's stock is out; the price is above the band.
-    Empty,
-}
 
 /// The period's outcome at a state.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -119,7 +93,22 @@ pub(crate) fn row_price(
     }
 }
 
-/// Price and slope at state (z, g) under the rows (no root finding; see the module notes).
+/// Price, slope and regime at state (z, g) under the rows, with the agency's decision (no root
+/// finding; see the module notes and [`super::agency`]).
+#[inline]
+pub(crate) fn state_decision(
+    m: &StorageMarket,
+    band: &Band,
+    publics: &[f64],
+    rows: &[PriceRule],
+    z: f64,
+    g: f64,
+) -> (f64, f64, Regime, Decision) {
+    let w = z + g;
+    decide(band, g, &|gg: f64| row_price(m, publics, rows, w - gg, gg))
+}
+
+/// Price, slope and regime at state (z, g).
 #[inline]
 pub(crate) fn state_price(
     m: &StorageMarket,
@@ -129,42 +118,24 @@ pub(crate) fn state_price(
     z: f64,
     g: f64,
 ) -> (f64, f64, Regime) {
-    let (p, d) = row_price(m, publics, rows, z, g);
-    if p < band.buy_below {
-        let (pc, dc) = row_price(m, publics, rows, z + g - band.capacity, band.capacity);
-        if pc < band.buy_below {
-            (pc, dc, Regime::Full)
-        } else {
-            (band.buy_below, 0.0, Regime::Buying)
-        }
-    } else if p > band.sell_above {
-        let (p0, d0) = row_price(m, publics, rows, z + g, 0.0);
-        if p0 > band.sell_above {
-            (p0, d0, Regime::Empty)
-        } else {
-            (band.sell_above, 0.0, Regime::Selling)
-        }
-    } else {
-        (p, d, Regime::Inside)
-    }
+    let (p, d, r, _) = state_decision(m, band, publics, rows, z, g);
+    (p, d, r)
 }
 
 impl PublicSolution {
     /// The period's outcome at availability `z` with public stock `g` carried in.
     pub fn clear(&self, z: f64, g: f64) -> Cleared {
         let m = &self.market;
-        let (price, slope, regime) = state_price(m, &self.band, &self.publics, &self.rows, z, g);
+        let (price, slope, regime, decision) =
+            state_decision(m, &self.band, &self.publics, &self.rows, z, g);
         let w = z + g;
-        let target = |lo: f64, hi: f64, p: f64| {
-            let f = |gg: f64| row_price(m, &self.publics, &self.rows, w - gg, gg).0 - p;
-            crate::numeric::brent(f, lo, hi, 1e-12 * m.q_star.max(1.0)).unwrap_or(0.5 * (lo + hi))
-        };
-        let public_stock = match regime {
-            Regime::Inside => g,
-            Regime::Full => self.band.capacity,
-            Regime::Empty => 0.0,
-            Regime::Buying => target(g, self.band.capacity, self.band.buy_below),
-            Regime::Selling => target(0.0, g, self.band.sell_above),
+        let public_stock = match decision {
+            Decision::Stock(gg) => gg,
+            Decision::AtPrice { price, lo, hi } => {
+                let f = |gg: f64| row_price(m, &self.publics, &self.rows, w - gg, gg).0 - price;
+                crate::numeric::brent(f, lo, hi, 1e-12 * m.q_star.max(1.0))
+                    .unwrap_or(0.5 * (lo + hi))
+            }
         };
         let private_stock = (w - public_stock - m.demand.quantity(price)).max(0.0);
         Cleared {

@@ -154,39 +154,46 @@ fn iterate(
                 (p, d)
             };
             let (mut ys, mut ps) = (Vec::with_capacity(n), Vec::with_capacity(n));
+            let mut raw = vec![f64::NAN; n];
             for (j, &x) in stocks.iter().enumerate() {
                 let (q, psi) = plant(&m, m.keep * x, planted[mi][j], &next);
                 planted[mi][j] = q;
                 let p = m.discount * psi - m.cost;
-                if p <= 0.0 || ps.last().is_some_and(|&last| p >= last) {
+                if p <= 0.0 {
                     break;
+                }
+                raw[j] = p;
+                // a rule with price jumps can make E[P'] rise locally with x; such points are left
+                // out of the rule (its decreasing envelope) but still count for convergence
+                if ps.last().is_some_and(|&last| p > last) {
+                    continue;
                 }
                 ys.push(x + m.demand.quantity(p));
                 ps.push(p);
             }
             let row_change = if it == 1 {
                 f64::INFINITY
-            } else if ps.len() == old[mi].len() {
-                ps.iter()
+            } else {
+                raw.iter()
                     .zip(&old[mi])
-                    .map(|(a, b)| (a - b).abs())
+                    .map(|(a, b)| match (a.is_nan(), b.is_nan()) {
+                        (true, true) => 0.0,
+                        (false, false) => (a - b).abs(),
+                        _ => f64::INFINITY,
+                    })
                     .fold(0.0, f64::max)
                     / m.p_star
-            } else if ps.is_empty() && old[mi].is_empty() {
-                0.0
-            } else {
-                f64::INFINITY
             };
             worst = worst.max(row_change);
             new_rows.push(if ps.len() >= 2 {
                 PriceRule {
                     kink: ys[0],
-                    spline: Some(Monotone::new(ys, ps.clone())),
+                    spline: Some(Monotone::new(ys, ps)),
                 }
             } else {
                 PriceRule::no_storage()
             });
-            old[mi] = ps;
+            old[mi] = raw;
         }
         rows = new_rows;
         prev_publics.clone_from(&publics);

@@ -188,7 +188,7 @@ impl Default for SolveOptions {
             grid: 200,
             nodes: 10,
             tolerance: 1e-9,
-            max_iterations: 5000,
+            max_iterations: 1000,
             test_points: 2001,
             grid_2d: 100,
             public_grid: 16,
@@ -323,7 +323,7 @@ fn iterate(
             let (q, psi) = plant(&m, m.keep * x, planted[j], &|z| rule.eval(&m, z));
             planted[j] = q;
             let p = m.discount * psi - m.cost;
-            if p <= 0.0 || ps.last().is_some_and(|&last| p >= last) {
+            if p <= 0.0 || ps.last().is_some_and(|&last| p > last) {
                 break;
             }
             zs.push(x + m.demand.quantity(p));
