@@ -16,7 +16,7 @@ pub struct StorageArgs {
     #[arg(long)]
     pub policy: Option<String>,
     /// Points of the solution grid of private stock (with a public stock: per public-stock level,
-    /// default 100).
+    /// default 150).
     #[arg(long)]
     pub grid: Option<usize>,
     /// Points of the public-stock grid (only with a policy that holds stock).

@@ -17,7 +17,7 @@ pub fn solve_public(
     let n = o.grid_2d.max(8);
     let mm = o.public_grid.max(2);
     let x_max = if m.harvest_sd > 0.0 {
-        (10.0 * m.harvest_sd).min(0.5 * m.q_star)
+        (10.0 * m.harvest_sd).min(m.q_star)
     } else {
         0.1 * m.q_star
     };

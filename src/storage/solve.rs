@@ -190,7 +190,7 @@ impl Default for SolveOptions {
             tolerance: 1e-9,
             max_iterations: 1000,
             test_points: 2001,
-            grid_2d: 100,
+            grid_2d: 150,
             public_grid: 16,
         }
     }
@@ -240,7 +240,7 @@ impl PrivateSolution {
 pub fn solve_private(m: StorageMarket, o: &SolveOptions) -> Result<PrivateSolution, StorageError> {
     let n = o.grid.max(8);
     let x_max = if m.harvest_sd > 0.0 {
-        (10.0 * m.harvest_sd).min(0.5 * m.q_star)
+        (10.0 * m.harvest_sd).min(m.q_star)
     } else {
         0.1 * m.q_star
     };
