@@ -93,6 +93,16 @@ impl StorageMarket {
             }
         }
         let q = s.steady.quantity;
+        let lowest = all
+            .iter()
+            .map(|n| q * n.y + n.e)
+            .fold(f64::INFINITY, f64::min);
+        if !s.market.demand.is_linear() && lowest < 0.05 * q {
+            return Err(StorageError::HarvestNearZero {
+                file: s.source.clone(),
+                lowest: lowest.max(0.0),
+            });
+        }
         Ok(StorageMarket {
             demand: s.market.demand,
             supply: s.market.supply,

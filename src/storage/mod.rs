@@ -37,6 +37,10 @@ pub enum StorageError {
     /// Persistent demand shocks would need another state variable.
     #[error("{file}: shocks.demand_persistence = {value}: the storage model treats demand shocks as independent from period to period; must be 0 when shocks.demand_sd > 0")]
     PersistentDemand { file: String, value: f64 },
+    /// Shocks so large that harvests at the quadrature nodes fall to zero, where constant-elasticity
+    /// demand has no finite price.
+    #[error("{file}: shocks.supply_sd / shocks.demand_sd / shocks.yield_cv: too large for constant-elasticity demand in the storage model: the lowest quadrature harvest at the steady state is {lowest:.1}, below 5 % of it, where the price has no finite bound; use smaller shocks or linear demand")]
+    HarvestNearZero { file: String, lowest: f64 },
     /// Storage that costs nothing has no stationary equilibrium.
     #[error("{file}: storers.interest_rate = 0 and storers.loss_rate = 0: carrying stock must cost something (interest or loss > 0) for the storage equilibrium to exist")]
     NoCarryingCost { file: String },
