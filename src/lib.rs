@@ -9,4 +9,7 @@ pub mod policies;
 pub mod scenario;
 pub mod stability;
 pub mod stochastic;
+pub mod sweep;
+pub mod welfare;
+pub mod compare;
 pub mod storage;

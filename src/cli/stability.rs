@@ -1,15 +1,141 @@
-//! `furrow stability` (being built).
+//! `furrow stability MARKET [--policy POLICY]`: eigenvalues and verdict for each regime.
 
 use clap::Args;
+use furrow::output::{fmt_num, Format, TextTable};
+use furrow::stability::{self, Eigenvalue, StabilityReport};
+
+use super::common::{load_policy, say, CommonArgs};
 
 /// Arguments of `stability`.
 #[derive(Debug, Args)]
 pub struct StabilityArgs {
-    /// Input files.
-    pub files: Vec<String>,
+    /// The market file.
+    pub market: String,
+    /// A policy file (default: no intervention).
+    #[arg(long)]
+    pub policy: Option<String>,
+    #[command(flatten)]
+    pub common: CommonArgs,
+}
+
+fn eig_text(e: &Eigenvalue) -> String {
+    if e.im == 0.0 {
+        fmt_num(e.re, 6)
+    } else {
+        let sign = if e.im < 0.0 { "−" } else { "+" };
+        format!("{}{sign}{}i", fmt_num(e.re, 6), fmt_num(e.im.abs(), 6))
+    }
+}
+
+fn opt(x: Option<f64>) -> String {
+    x.map(|v| fmt_num(v, 4)).unwrap_or_else(|| "-".into())
+}
+
+/// Renders a report as a table (one row per regime) followed by the conditions and notes.
+pub fn render(report: &StabilityReport, format: Format) -> String {
+    if format == Format::Json {
+        return serde_json::to_string_pretty(report).unwrap_or_default() + "\n";
+    }
+    let headers = [
+        "regime",
+        "holds",
+        "eigenvalues",
+        "spectral_radius",
+        "verdict",
+        "oscillating",
+        "period",
+        "half_life",
+        "at_price",
+        "stock_eigenvalue",
+    ];
+    let mut t = TextTable::new(&headers);
+    for r in &report.regimes {
+        let eigs: Vec<String> = r.eigenvalues.iter().map(eig_text).collect();
+        t.push(vec![
+            r.name.clone(),
+            if r.holds_steady_state {
+                "yes".into()
+            } else {
+                "no".into()
+            },
+            if eigs.is_empty() {
+                "(none)".into()
+            } else {
+                eigs.join(" ")
+            },
+            fmt_num(r.spectral_radius, 6),
+            r.verdict.as_str().into(),
+            if r.oscillating {
+                "yes".into()
+            } else {
+                "no".into()
+            },
+            opt(r.period),
+            opt(r.half_life),
+            fmt_num(r.at_price, 4),
+            opt(r.stock_eigenvalue),
+        ]);
+    }
+    let mut out = t.render(format);
+    if format == Format::Csv {
+        return out;
+    }
+    let bullet = if format == Format::Markdown {
+        "- "
+    } else {
+        "  "
+    };
+    out.push_str(&format!(
+        "\nsteady state: price {}, harvest {}, producer price {}, planting price {} (rule {})\n",
+        fmt_num(report.steady_state.price, 4),
+        fmt_num(report.steady_state.quantity, 4),
+        fmt_num(report.producer_price, 4),
+        fmt_num(report.planting_price, 4),
+        report.rule
+    ));
+    out.push_str(&format!(
+        "verdict: {} (spectral radius {}; neutral within 1e-9 of 1)\n",
+        report.verdict.as_str(),
+        fmt_num(report.spectral_radius, 6)
+    ));
+    if !report.conditions.is_empty() {
+        out.push_str("\npublished conditions (free market at its steady state):\n");
+        for c in &report.conditions {
+            out.push_str(&format!(
+                "{bullet}{}: {} — {}; {}\n",
+                c.name,
+                if c.holds { "holds" } else { "fails" },
+                c.detail,
+                c.source
+            ));
+        }
+    }
+    let notes: Vec<String> = report
+        .regimes
+        .iter()
+        .filter_map(|r| r.note.as_ref().map(|n| format!("{}: {n}", r.name)))
+        .chain(report.note.clone())
+        .collect();
+    if !notes.is_empty() {
+        out.push_str("\nnotes:\n");
+        for n in notes {
+            out.push_str(&format!("{bullet}{n}\n"));
+        }
+    }
+    out
 }
 
 /// Runs `stability`.
-pub fn execute(_args: &StabilityArgs) -> anyhow::Result<()> {
-    anyhow::bail!("the stability verb is not built yet")
+pub fn execute(args: &StabilityArgs) -> anyhow::Result<()> {
+    let scenario = args.common.load_market(&args.market)?;
+    let policy = load_policy(args.policy.as_deref())?;
+    if args.common.plots.is_some() {
+        say("stability: --plots is not used by this verb (try `sweep` or `report`)");
+    }
+    let report = stability::analyse(&scenario, &policy)
+        .map_err(|e| anyhow::anyhow!("{}: {e}", scenario.source))?;
+    if !report.steady_state_exists {
+        say("no steady state with finite stock exists under this policy (see notes)");
+    }
+    args.common.emit(&render(&report, args.common.format))
 }

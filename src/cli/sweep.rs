@@ -1,15 +1,193 @@
-//! `furrow sweep` (being built).
+//! `furrow sweep MARKET [--policy P] --vary KEY=FROM:TO:STEPS [--vary ...] [--long-run N]`.
 
 use clap::Args;
+use furrow::output::{fmt_full, fmt_num, Format, TextTable};
+use furrow::scenario::parse_toml;
+use furrow::sweep::{self, Base, LongRunSpec, Point};
+
+use super::common::{say, CommonArgs};
 
 /// Arguments of `sweep`.
 #[derive(Debug, Args)]
 pub struct SweepArgs {
-    /// Input files.
-    pub files: Vec<String>,
+    /// The market file.
+    pub market: String,
+    /// A policy file (default: no intervention; policy keys then start from an empty policy).
+    #[arg(long)]
+    pub policy: Option<String>,
+    /// A dotted file key and its grid, KEY=FROM:TO:STEPS (both ends included); once or twice.
+    #[arg(long, value_name = "KEY=FROM:TO:STEPS", required = true)]
+    pub vary: Vec<String>,
+    /// With one key: also simulate each grid value and print its last N prices and the largest
+    /// Lyapunov exponent (runs 1000 + N periods, or --periods).
+    #[arg(long, value_name = "N")]
+    pub long_run: Option<usize>,
+    #[command(flatten)]
+    pub common: CommonArgs,
+}
+
+fn read_table(path: &str) -> anyhow::Result<toml::Table> {
+    let text =
+        std::fs::read_to_string(path).map_err(|e| anyhow::anyhow!("{path}: cannot read: {e}"))?;
+    Ok(parse_toml(path, &text)?)
+}
+
+fn render(points: &[Point], keys: &[String], long: Option<LongRunSpec>, format: Format) -> String {
+    let full = format == Format::Csv || format == Format::Json;
+    let num = |x: f64| if full { fmt_full(x) } else { fmt_num(x, 6) };
+    let mut headers: Vec<String> = keys.to_vec();
+    headers.push("spectral_radius".into());
+    headers.push("verdict".into());
+    if long.is_some() {
+        for h in ["lyapunov", "orbit", "period", "price"] {
+            headers.push(h.into());
+        }
+    }
+    let mut t = TextTable::new(&headers);
+    for p in points {
+        let mut row: Vec<String> = p.values.iter().map(|v| num(*v)).collect();
+        match &p.outcome {
+            Ok((rho, v)) => {
+                row.push(num(*rho));
+                row.push(v.as_str().into());
+            }
+            Err(_) => {
+                row.push(String::new());
+                row.push("invalid".into());
+            }
+        }
+        let Some(spec) = long else {
+            t.push(row);
+            continue;
+        };
+        match &p.long_run {
+            Some(lr) if !lr.prices.is_empty() => {
+                let first = spec.periods + 1 - lr.prices.len();
+                for (i, price) in lr.prices.iter().enumerate() {
+                    let mut r = row.clone();
+                    r.push(lr.lyapunov.map(num).unwrap_or_default());
+                    r.push(lr.orbit.as_str().into());
+                    r.push((first + i).to_string());
+                    r.push(num(*price));
+                    t.push(r);
+                }
+            }
+            Some(lr) => {
+                row.push(String::new());
+                row.push(lr.orbit.as_str().into());
+                row.push(String::new());
+                row.push(String::new());
+                t.push(row);
+            }
+            None => {
+                for _ in 0..4 {
+                    row.push(String::new());
+                }
+                t.push(row);
+            }
+        }
+    }
+    t.render(format)
+}
+
+/// JSON: `{"keys": [...], "points": [{"values": {KEY: v}, "spectral_radius", "verdict", "message",
+/// "long_run": {"lyapunov", "orbit", "first_period", "prices"}}]}`.
+fn render_json(points: &[Point], keys: &[String], long: Option<LongRunSpec>) -> String {
+    use serde_json::{json, Map, Value};
+    let pts: Vec<Value> = points
+        .iter()
+        .map(|p| {
+            let mut values = Map::new();
+            for (k, v) in keys.iter().zip(&p.values) {
+                values.insert(k.clone(), json!(v));
+            }
+            let (rho, verdict, message) = match &p.outcome {
+                Ok((r, v)) => (json!(r), json!(v.as_str()), Value::Null),
+                Err(m) => (Value::Null, json!("invalid"), json!(m)),
+            };
+            let long_run = match (&p.long_run, long) {
+                (Some(lr), Some(spec)) => json!({
+                    "lyapunov": lr.lyapunov,
+                    "orbit": lr.orbit.as_str(),
+                    "first_period": (!lr.prices.is_empty()).then(|| spec.periods + 1 - lr.prices.len()),
+                    "prices": lr.prices,
+                }),
+                _ => Value::Null,
+            };
+            json!({
+                "values": values,
+                "spectral_radius": rho,
+                "verdict": verdict,
+                "message": message,
+                "long_run": long_run,
+            })
+        })
+        .collect();
+    serde_json::to_string_pretty(&json!({ "keys": keys, "points": pts })).unwrap_or_default() + "\n"
 }
 
 /// Runs `sweep`.
-pub fn execute(_args: &SweepArgs) -> anyhow::Result<()> {
-    anyhow::bail!("the sweep verb is not built yet")
+pub fn execute(args: &SweepArgs) -> anyhow::Result<()> {
+    let axes = args
+        .vary
+        .iter()
+        .map(|v| sweep::parse_vary(v))
+        .collect::<Result<Vec<_>, _>>()?;
+    if let Some(p) = args.common.periods {
+        if !(1..=1_000_000).contains(&p) {
+            anyhow::bail!("--periods {p}: must be a whole number from 1 to 1000000");
+        }
+    }
+    let long_run = match args.long_run {
+        None => None,
+        Some(n) => {
+            if !(1..=100_000).contains(&n) {
+                anyhow::bail!("--long-run {n}: must be a whole number from 1 to 100000");
+            }
+            let periods = args.common.periods.unwrap_or(1000 + n);
+            if periods < n {
+                anyhow::bail!("--periods {periods} is shorter than --long-run {n}: simulate at least N periods");
+            }
+            Some(LongRunSpec { keep: n, periods })
+        }
+    };
+    if args.common.plots.is_some() {
+        say("sweep: --plots is not drawn by this verb yet; the data are in the output");
+    }
+    let market = read_table(&args.market)?;
+    let policy = match &args.policy {
+        Some(p) => Some((p.as_str(), read_table(p)?)),
+        None => None,
+    };
+    let base = Base::new(&args.market, market, policy);
+    let points = sweep::sweep(&base, &axes, long_run)?;
+    let invalid: Vec<&Point> = points.iter().filter(|p| p.outcome.is_err()).collect();
+    for p in invalid.iter().take(5) {
+        if let Err(msg) = &p.outcome {
+            say(&format!("invalid grid point: {msg}"));
+        }
+    }
+    if invalid.len() > 5 {
+        say(&format!("… {} invalid grid points in all", invalid.len()));
+    }
+    let diverged = points
+        .iter()
+        .filter(|p| {
+            p.long_run
+                .as_ref()
+                .is_some_and(|l| l.orbit == sweep::Orbit::Diverged)
+        })
+        .count();
+    if diverged > 0 {
+        say(&format!(
+            "{diverged} long runs diverged (marked `diverged`)"
+        ));
+    }
+    let keys: Vec<String> = axes.iter().map(|a| a.key.clone()).collect();
+    let text = if args.common.format == Format::Json {
+        render_json(&points, &keys, long_run)
+    } else {
+        render(&points, &keys, long_run, args.common.format)
+    };
+    args.common.emit(&text)
 }

@@ -67,6 +67,10 @@ pub struct Model {
     /// Prices above this are treated as divergence.
     pub price_bound: f64,
     nodes: rational::Nodes,
+    /// `policy.planting_floor()` and `rule.is_rational()`, fixed for the model (looked up once, not
+    /// every period).
+    planting_floor: Option<f64>,
+    is_rational: bool,
 }
 
 impl Model {
@@ -75,6 +79,8 @@ impl Model {
         let spec = policy.expectations.unwrap_or(scenario.expectations);
         let rule = expectations::build(&spec);
         let compiled = policies::compile(policy);
+        let compiled_floor = compiled.planting_floor();
+        let is_rational = rule.is_rational();
         let mut reference = scenario.steady.price.max(scenario.run.initial_price);
         for p in &scenario.run.price_history {
             reference = reference.max(*p);
@@ -103,6 +109,8 @@ impl Model {
             price_history: history,
             price_bound: 1e3 * reference,
             nodes: rational::Nodes::new(&scenario.shocks),
+            planting_floor: compiled_floor,
+            is_rational,
         }
     }
 
@@ -189,9 +197,12 @@ pub struct Simulator<'m> {
 
 impl<'m> Simulator<'m> {
     fn new(model: &'m Model) -> Self {
+        // room for the longest history `step` keeps, so stepping never reallocates
+        let mut history = Vec::with_capacity(4 * model.price_history.len() + 65);
+        history.extend_from_slice(&model.price_history);
         Simulator {
             model,
-            history: model.price_history.clone(),
+            history,
             previous: None,
             stock: model.policy.agency.initial,
             last_demand_shock: 0.0,
@@ -210,8 +221,8 @@ impl<'m> Simulator<'m> {
         let t = self.period + 1;
         let diverged = |reason: String| Diverged { period: t, reason };
         let carried = self.stock * (1.0 - model.policy.agency.loss_rate);
-        let floor = model.policy.planting_floor();
-        let rule_expectation = if model.rule.is_rational() {
+        let floor = model.planting_floor;
+        let rule_expectation = if model.is_rational {
             let guess = *self.history.last().unwrap_or(&1.0);
             rational::solve(model, carried, self.last_demand_shock, floor, guess).ok_or_else(
                 || {

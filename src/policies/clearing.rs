@@ -79,6 +79,9 @@ pub struct Clearing<'a> {
     pub releases: f64,
     /// What acted (see [`flags`]).
     pub flags: u16,
+    /// The price before any trade, D⁻¹(Q − shift), computed once (rules and the engine ask for it
+    /// repeatedly while nothing has been traded).
+    untraded_price: f64,
 }
 
 impl<'a> Clearing<'a> {
@@ -101,6 +104,7 @@ impl<'a> Clearing<'a> {
             purchases: 0.0,
             releases: 0.0,
             flags: 0,
+            untraded_price: demand.price_at(harvest - demand_shift),
         }
     }
 
@@ -113,7 +117,12 @@ impl<'a> Clearing<'a> {
     /// Clearing price P = D⁻¹(C) of the shifted demand curve.
     #[inline]
     pub fn price(&self) -> f64 {
-        self.price_if_consumption(self.consumption())
+        if self.purchases == 0.0 && self.releases == 0.0 {
+            // the same value as below: consumption() is exactly the harvest when nothing is traded
+            self.untraded_price
+        } else {
+            self.price_if_consumption(self.consumption())
+        }
     }
 
     #[inline]

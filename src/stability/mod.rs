@@ -1,10 +1,28 @@
-//! Stability of the linearised model, regime by regime (being built: the types below are the
-//! contract other modules use).
+//! Stability of the linearised model, regime by regime.
+//!
+//! Each expectation rule's dynamics is written as a state-space map (`statespace`), linearised at
+//! the steady state of each regime a policy creates (`regimes`), and its eigenvalues computed with
+//! nalgebra (`eigen`, complex ones included). Published closed-form conditions are evaluated beside
+//! the numbers (`conditions`).
+//!
+//! Verdict: spectral radius ρ < 1 − 1e-9 stable, |ρ − 1| ≤ 1e-9 neutral, ρ > 1 + 1e-9 unstable
+//! ([`eigen::NEUTRAL_TOLERANCE`]). When the holding regime has no steady state with finite stock
+//! (a purchase floor above the free market's steady state, no losses, no capacity limit), that
+//! regime has no eigenvalues, its spectral radius is reported as 1 (the stock's unit root with a
+//! drift) and the verdict is "unstable": the stock diverges although the price is pinned.
+
+pub mod conditions;
+pub mod eigen;
+pub mod regimes;
+pub mod statespace;
 
 use serde::Serialize;
 
 use crate::curves::SteadyState;
-use crate::scenario::{PolicySpec, Scenario};
+use crate::scenario::{ExpectationSpec, PolicySpec, Scenario};
+
+pub use conditions::PublishedCondition;
+pub use statespace::{Clearing, Setup, StateMap};
 
 /// A complex eigenvalue.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
@@ -55,12 +73,23 @@ pub struct Regime {
     pub period: Option<f64>,
     /// ln 0.5 / ln ρ (None when ρ ≥ 1).
     pub half_life: Option<f64>,
+    /// True for the regime that holds the steady state.
+    pub holds_steady_state: bool,
+    /// Producer price at which this regime is linearised.
+    pub at_price: f64,
+    /// "analytic" (linear curves) or "numerical" (central differences).
+    pub jacobian: &'static str,
+    /// Eigenvalue of the agency's stock, which does not feed back on prices (not in the verdict).
+    pub stock_eigenvalue: Option<f64>,
+    /// Explanation of the regime.
+    pub note: Option<String>,
 }
 
 /// The stability report of a market under a policy.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct StabilityReport {
-    /// The steady state the linearisation is taken at.
+    /// The steady state the linearisation is taken at: market price and harvest of the regime that
+    /// holds it (the free market's when no steady state with finite stock exists).
     pub steady_state: SteadyState,
     /// Regimes, the one holding the steady state first.
     pub regimes: Vec<Regime>,
@@ -68,20 +97,237 @@ pub struct StabilityReport {
     pub verdict: Verdict,
     /// The largest modulus in that regime.
     pub spectral_radius: f64,
+    /// False when no steady state with finite stock exists.
+    pub steady_state_exists: bool,
+    /// Producer price at the steady state.
+    pub producer_price: f64,
+    /// Planting price at the steady state.
+    pub planting_price: f64,
+    /// The expectation rule analysed.
+    pub rule: &'static str,
+    /// Published conditions evaluated for the free-market dynamics at its steady state.
+    pub conditions: Vec<PublishedCondition>,
+    /// General remarks (rational expectations, omitted features).
+    pub note: Option<String>,
 }
 
 /// Why no stability report could be made.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum StabilityError {
-    /// Not built yet.
-    #[error("stability analysis is not built yet")]
-    NotBuilt,
+    /// The linearisation has no finite value.
+    #[error("cannot linearise the {regime} regime: {reason}")]
+    Linearisation {
+        /// The regime.
+        regime: String,
+        /// Why.
+        reason: String,
+    },
+    /// The map of a regime has no fixed point.
+    #[error("no steady state in the {regime} regime: {reason}")]
+    NoSteadyState {
+        /// The regime.
+        regime: String,
+        /// Why.
+        reason: String,
+    },
 }
 
 /// Analyses `scenario` under `policy`.
 pub fn analyse(
-    _scenario: &Scenario,
-    _policy: &PolicySpec,
+    scenario: &Scenario,
+    policy: &PolicySpec,
 ) -> Result<StabilityReport, StabilityError> {
-    Err(StabilityError::NotBuilt)
+    let mut report = analyse_setup(
+        &Setup::new(scenario, policy),
+        &scenario.market.quantity_unit,
+    )?;
+    if scenario.storers.is_some() {
+        let extra =
+            "the market's private storers are not part of the linearisation (see `storage`)";
+        report.note = Some(match report.note.take() {
+            Some(n) => format!("{n}; {extra}"),
+            None => extra.to_string(),
+        });
+    }
+    Ok(report)
 }
+
+/// Spectral radius and verdict only (what a sweep needs).
+pub fn radius_and_verdict(setup: &Setup) -> Result<(f64, Verdict), StabilityError> {
+    let r = analyse_setup(setup, "")?;
+    Ok((r.spectral_radius, r.verdict))
+}
+
+/// The free market's steady producer price under the rule (and an announced floor's planting).
+pub fn free_price(setup: &Setup) -> Result<f64, StabilityError> {
+    let steady = crate::curves::steady_state(&setup.demand, &setup.supply);
+    let guess = steady.map(|s| s.price).unwrap_or(1.0);
+    let simple = !matches!(
+        setup.rule,
+        ExpectationSpec::NormalPrice {
+            normal: crate::scenario::NormalPrice::Fixed(_),
+            ..
+        }
+    );
+    if let (true, Some(s)) = (simple, steady) {
+        return Ok(s.price);
+    }
+    StateMap::with_floor(setup, Clearing::Free { offtake: 0.0 }, false)
+        .fixed_point(guess)
+        .ok_or_else(|| StabilityError::NoSteadyState {
+            regime: "free market".into(),
+            reason: "supply and demand do not cross at a positive price under this rule".into(),
+        })
+}
+
+fn regime_at(
+    setup: &Setup,
+    case: &regimes::RegimeCase,
+    guess: f64,
+) -> Result<Regime, StabilityError> {
+    let map = StateMap::with_floor(setup, case.clearing, case.floor_applies);
+    // the free regime's fixed point is the free market's steady state (solved in closed form for
+    // linear curves); an announced floor applies to it only when it lies below that price
+    let at_rest = (case.clearing == Clearing::Free { offtake: 0.0 }).then_some(guess);
+    let p = at_rest.or_else(|| map.fixed_point(guess)).ok_or_else(|| {
+        StabilityError::NoSteadyState {
+            regime: case.name.clone(),
+            reason: "the regime's map has no positive fixed point".into(),
+        }
+    })?;
+    let linear = setup.demand.is_linear() && setup.supply.is_linear();
+    let rational = matches!(setup.rule, ExpectationSpec::Rational);
+    let (eigenvalues, jacobian) = if !case.finite {
+        (Vec::new(), "none")
+    } else if rational {
+        (vec![Eigenvalue { re: 0.0, im: 0.0 }], "none")
+    } else if linear {
+        (eigen::eigenvalues(&map.analytic_jacobian(p)), "analytic")
+    } else {
+        let x = map.rest_state(p);
+        (eigen::eigenvalues(&map.numerical_jacobian(&x)), "numerical")
+    };
+    if eigenvalues
+        .iter()
+        .any(|e| !(e.re.is_finite() && e.im.is_finite()))
+    {
+        return Err(StabilityError::Linearisation {
+            regime: case.name.clone(),
+            reason: format!(
+                "the Jacobian at the producer price {} is not finite (a curve has no finite slope there)",
+                crate::output::fmt_num(p, 6)
+            ),
+        });
+    }
+    let rho = if case.finite {
+        eigen::spectral_radius(&eigenvalues)
+    } else {
+        1.0
+    };
+    let verdict = if case.finite {
+        eigen::verdict(rho)
+    } else {
+        Verdict::Unstable
+    };
+    let (oscillating, period, half_life) = if case.finite {
+        eigen::read_off(&eigenvalues)
+    } else {
+        (false, None, None)
+    };
+    Ok(Regime {
+        name: case.name.clone(),
+        eigenvalues,
+        spectral_radius: rho,
+        verdict,
+        oscillating,
+        period,
+        half_life,
+        holds_steady_state: case.holds,
+        at_price: p,
+        jacobian,
+        stock_eigenvalue: case.stock_eigenvalue,
+        note: case.note.clone(),
+    })
+}
+
+/// Analyses a [`Setup`]; `unit` is the quantity unit used in notes.
+pub fn analyse_setup(setup: &Setup, unit: &str) -> Result<StabilityReport, StabilityError> {
+    let p_free = free_price(setup)?;
+    let cases = regimes::regimes(setup, p_free, unit);
+    let mut out = Vec::with_capacity(cases.len());
+    for c in &cases {
+        out.push(regime_at(setup, c, p_free)?);
+    }
+    let hold = &out[0];
+    let finite = cases[0].finite;
+    let map = StateMap::with_floor(setup, cases[0].clearing, cases[0].floor_applies);
+    let (producer_price, planting_price, steady_state) = if finite {
+        let pp = hold.at_price;
+        let planting = map.planting_at_rest(pp);
+        let harvest = setup.supply.quantity(planting);
+        let market = match cases[0].clearing {
+            Clearing::Free { offtake } => setup.demand.price_at(harvest - offtake),
+            Clearing::Pinned(p) => match setup.floor {
+                Some(f)
+                    if f.instrument == crate::scenario::FloorInstrument::DeficiencyPayment
+                        && f.price == p =>
+                {
+                    setup.demand.price_at(harvest)
+                }
+                _ => p,
+            },
+        };
+        (
+            pp,
+            planting,
+            SteadyState {
+                price: market,
+                quantity: harvest,
+            },
+        )
+    } else {
+        let q = setup.supply.quantity(p_free);
+        (
+            p_free,
+            p_free,
+            SteadyState {
+                price: p_free,
+                quantity: q,
+            },
+        )
+    };
+    // published conditions: the free-market dynamics at the free steady state
+    let free_map = StateMap::with_floor(setup, Clearing::Free { offtake: 0.0 }, false);
+    let planting = free_map.planting_at_rest(p_free);
+    let b = setup.supply.slope_at(planting);
+    let d = -setup.demand.slope_at(p_free);
+    let conditions = if matches!(setup.rule, ExpectationSpec::Rational) {
+        Vec::new()
+    } else {
+        conditions::conditions(&setup.rule, b, d)
+    };
+    let note = if matches!(setup.rule, ExpectationSpec::Rational) {
+        Some(
+            "rational expectations: without shocks the perfect-foresight market sits at its steady \
+             state from period 1, so every regime reports the eigenvalue 0"
+                .to_string(),
+        )
+    } else {
+        None
+    };
+    Ok(StabilityReport {
+        steady_state,
+        verdict: hold.verdict,
+        spectral_radius: hold.spectral_radius,
+        regimes: out,
+        steady_state_exists: finite,
+        producer_price,
+        planting_price,
+        rule: setup.rule.rule_name(),
+        conditions,
+        note,
+    })
+}
+
+#[cfg(test)]
+mod tests;

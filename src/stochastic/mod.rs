@@ -4,6 +4,13 @@
 //! (`seed_from_u64(seed)` then `set_stream(i)`), so replication i sees the same shocks under every
 //! policy (common random numbers) and whatever the number of threads.
 
+pub mod montecarlo;
 mod shocks;
+pub mod stats;
 
+pub use montecarlo::{
+    run_monte_carlo, MonteCarlo, NoProgress, PolicyRuns, Pooled, Progress, ReplicationFailed,
+    ReplicationSummary, Series, SeriesSummary,
+};
 pub use shocks::{single_path_shocks, ShockStream};
+pub use stats::{quantiles, ShiftedSums, Summary};

@@ -1,0 +1,139 @@
+//! Monte Carlo throughput: engine steps under a band policy, the Monte Carlo fold on one thread, and a
+//! whole `compare` of 10 000 replications × 100 periods × 5 policies.
+//!
+//! Targets (issue 5): ≥ 40 million period-steps per second per core with a band policy; the compare
+//! in under 0.5 s on 2 cores.
+
+use criterion::{criterion_group, criterion_main, BatchSize, Criterion, Throughput};
+use furrow::compare::compare;
+use furrow::engine::{Model, PeriodShock};
+use furrow::scenario::{market_from_table, parse_toml, policy_from_table, PolicySpec, Scenario};
+use furrow::stochastic::{run_monte_carlo, NoProgress, Series, ShockStream};
+
+const MARKET: &str = r#"
+[market]
+name = "Bench"
+quantity_unit = "kt"
+price_unit = "crowns per t"
+[demand]
+form = "linear"
+at_price = 210.0
+at_quantity = 480.0
+elasticity = -0.25
+[supply]
+form = "linear"
+at_price = 210.0
+at_quantity = 480.0
+elasticity = 0.20
+[expectations]
+rule = "adaptive"
+weight = 0.6
+[run]
+periods = 100
+initial_price = 210.0
+replications = 10000
+seed = 2026
+[shocks]
+yield_cv = 0.03
+demand_sd = 3.0
+demand_persistence = 0.3
+"#;
+
+const BAND: &str = r#"
+[policy]
+name = "Band"
+[stock]
+buy_below = 195.0
+sell_above = 230.0
+capacity = 60.0
+initial = 20.0
+storage_cost = 6.0
+loss_rate = 0.02
+"#;
+
+fn scenario() -> Scenario {
+    market_from_table("bench.toml", parse_toml("bench.toml", MARKET).unwrap()).unwrap()
+}
+
+fn policy(text: &str) -> PolicySpec {
+    policy_from_table("p.toml", parse_toml("p.toml", text).unwrap()).unwrap()
+}
+
+fn policies() -> Vec<PolicySpec> {
+    vec![
+        PolicySpec::none(),
+        policy(BAND),
+        policy("[policy]\nname = \"Floor\"\n[floor]\nprice = 200.0\ninstrument = \"purchase\"\n[stock]\ncapacity = 120.0\nstorage_cost = 6.0\nloss_rate = 0.03\n"),
+        policy("[policy]\nname = \"DP\"\n[floor]\nprice = 200.0\ninstrument = \"deficiency-payment\"\n"),
+        policy("[policy]\nname = \"Target\"\n[stock]\nbuy_below = 190.0\nsell_above = 235.0\ncapacity = 80.0\ninitial = 40.0\nrelease = \"target\"\ntarget = 40.0\nspeed = 0.3\n"),
+    ]
+}
+
+fn steps(c: &mut Criterion) {
+    let s = scenario();
+    let band = policy(BAND);
+    let model = Model::new(&s, &band);
+    let mut stream = ShockStream::new(&s.shocks, 1, 0);
+    let shocks: Vec<PeriodShock> = (0..100).map(|_| stream.next_shock()).collect();
+    let mut g = c.benchmark_group("engine");
+    g.throughput(Throughput::Elements(100));
+    g.bench_function("band_100_steps", |b| {
+        b.iter(|| {
+            let mut sim = model.simulator();
+            let mut acc = 0.0;
+            for sh in &shocks {
+                acc += sim.step(sh).unwrap().price;
+            }
+            acc
+        })
+    });
+    g.finish();
+
+    let mut one = s.clone();
+    one.run.replications = 1000;
+    let pool = rayon::ThreadPoolBuilder::new()
+        .num_threads(1)
+        .build()
+        .unwrap();
+    let mut g = c.benchmark_group("monte_carlo_1_thread");
+    g.sample_size(20);
+    g.throughput(Throughput::Elements(1000 * 100));
+    g.bench_function("band_1000x100_with_shocks_and_fold", |b| {
+        b.iter(|| {
+            pool.install(|| {
+                run_monte_carlo(
+                    &one,
+                    std::slice::from_ref(&band),
+                    &[Series::Price, Series::Stock],
+                    &NoProgress,
+                )
+                .unwrap()
+            })
+        })
+    });
+    g.finish();
+}
+
+fn compare_end_to_end(c: &mut Criterion) {
+    let s = scenario();
+    let ps = policies();
+    let mut g = c.benchmark_group("compare");
+    g.sample_size(10);
+    g.throughput(Throughput::Elements(10_000 * 100 * 5));
+    g.bench_function("10000x100x5_policies", |b| {
+        b.iter_batched(
+            || (),
+            |_| compare(&s, &ps, &NoProgress).unwrap(),
+            BatchSize::PerIteration,
+        )
+    });
+    g.finish();
+}
+
+criterion_group! {
+    name = benches;
+    // no plots: criterion's plotting needs system fonts this machine does not have
+    config = Criterion::default().without_plots();
+    targets = steps, compare_end_to_end
+}
+criterion_main!(benches);

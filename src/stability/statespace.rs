@@ -1,0 +1,285 @@
+//! Each expectation rule's dynamics as a state-space map x_{t+1} = F(x_t), its fixed point, and its
+//! Jacobian there: analytic (companion form) for linear curves, numerical (central differences with
+//! Richardson extrapolation) otherwise.
+//!
+//! State per rule (newest first): naive, fixed normal price and rational: [P_{t−1}]; adaptive:
+//! [P^e_t]; extrapolative: [P_{t−1}, P_{t−2}]; trailing mean and normal price over a window k: the k
+//! last producer prices. The map uses the real rule (`expectations::build`) and a regime's clearing
+//! function (planting price → producer price), so it is the engine's dynamics inside that regime.
+
+use nalgebra::DMatrix;
+
+use crate::curves::Curve;
+use crate::expectations::{self, ExpectationInput, ExpectationRule};
+use crate::scenario::{ExpectationSpec, FloorSpec, NormalPrice, PolicySpec, Scenario, StockSpec};
+
+/// What the linearisation needs of a market and a policy (all `Copy`, cheap to patch in a sweep).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Setup {
+    /// Demand curve.
+    pub demand: Curve,
+    /// Supply curve.
+    pub supply: Curve,
+    /// The expectation rule in force (the policy's override, else the market's).
+    pub rule: ExpectationSpec,
+    /// The policy's floor.
+    pub floor: Option<FloorSpec>,
+    /// The policy's buffer stock.
+    pub stock: Option<StockSpec>,
+}
+
+impl Setup {
+    /// The setup of `scenario` under `policy`.
+    pub fn new(scenario: &Scenario, policy: &PolicySpec) -> Setup {
+        Setup {
+            demand: scenario.market.demand,
+            supply: scenario.market.supply,
+            rule: policy.expectations.unwrap_or(scenario.expectations),
+            floor: policy.floor,
+            stock: policy.stock,
+        }
+    }
+
+    /// The announced planting floor, if any.
+    pub fn planting_floor(&self) -> Option<f64> {
+        self.floor.filter(|f| f.announced).map(|f| f.price)
+    }
+}
+
+/// How the producer price answers the planting price inside one regime.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Clearing {
+    /// The market clears the harvest less a constant net agency offtake: P = D⁻¹(S(P^e) − offtake).
+    Free {
+        /// Net quantity the agency takes off the market each period.
+        offtake: f64,
+    },
+    /// The producer price is pinned (a defended floor or band edge, a deficiency payment).
+    Pinned(f64),
+}
+
+impl Clearing {
+    /// Producer price for a planting price.
+    #[inline]
+    pub fn producer_price(&self, setup: &Setup, planting: f64) -> f64 {
+        match *self {
+            Clearing::Free { offtake } => setup
+                .demand
+                .price_at(setup.supply.quantity(planting) - offtake),
+            Clearing::Pinned(p) => p,
+        }
+    }
+
+    /// d(producer price)/d(planting price), analytically: S'(P^e)/D'(P) in the free regime, 0 pinned.
+    pub fn slope(&self, setup: &Setup, planting: f64) -> f64 {
+        match *self {
+            Clearing::Free { .. } => {
+                let p = self.producer_price(setup, planting);
+                setup.supply.slope_at(planting) / setup.demand.slope_at(p)
+            }
+            Clearing::Pinned(_) => 0.0,
+        }
+    }
+}
+
+/// The shape of a rule's state.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Layout {
+    /// The k last producer prices; the expectation is Σ w_i P_{t−i} (+ a constant).
+    Lags(Vec<f64>),
+    /// The rule's own expectation (adaptive, weight λ).
+    Expectation(f64),
+}
+
+/// The state layout of a rule, with the weights of the linear rules.
+pub fn layout(rule: &ExpectationSpec) -> Layout {
+    match *rule {
+        ExpectationSpec::Naive | ExpectationSpec::Rational => Layout::Lags(vec![1.0]),
+        ExpectationSpec::Adaptive { weight, .. } => Layout::Expectation(weight),
+        ExpectationSpec::Extrapolative { weight } => Layout::Lags(vec![1.0 + weight, -weight]),
+        ExpectationSpec::TrailingMean { window } => Layout::Lags(vec![1.0 / window as f64; window]),
+        ExpectationSpec::NormalPrice { weight, normal } => match normal {
+            NormalPrice::Fixed(_) => Layout::Lags(vec![1.0 - weight]),
+            NormalPrice::Window(k) => {
+                let mut w = vec![weight / k as f64; k];
+                w[0] += 1.0 - weight;
+                Layout::Lags(w)
+            }
+        },
+    }
+}
+
+/// The state-space map of one rule inside one regime.
+#[derive(Debug)]
+pub struct StateMap<'a> {
+    setup: &'a Setup,
+    rule: Box<dyn ExpectationRule>,
+    layout: Layout,
+    clearing: Clearing,
+    floor: Option<f64>,
+}
+
+impl<'a> StateMap<'a> {
+    /// The map of `setup`'s rule under `clearing` (farmers plant on an announced floor).
+    pub fn new(setup: &'a Setup, clearing: Clearing) -> Self {
+        Self::with_floor(setup, clearing, true)
+    }
+
+    /// As [`StateMap::new`]; `floor = false` ignores an announced floor (the market left alone).
+    pub fn with_floor(setup: &'a Setup, clearing: Clearing, floor: bool) -> Self {
+        StateMap {
+            setup,
+            rule: expectations::build(&setup.rule),
+            layout: layout(&setup.rule),
+            clearing,
+            floor: setup.planting_floor().filter(|_| floor),
+        }
+    }
+
+    /// Dimension of the state.
+    pub fn dim(&self) -> usize {
+        match &self.layout {
+            Layout::Lags(w) => w.len(),
+            Layout::Expectation(_) => 1,
+        }
+    }
+
+    fn plant(&self, expectation: f64) -> f64 {
+        match self.floor {
+            Some(f) => expectation.max(f),
+            None => expectation,
+        }
+    }
+
+    /// The rule's expectation when every past price is `p` (and so was its last expectation).
+    pub fn expectation_at_rest(&self, p: f64) -> f64 {
+        let history = vec![p; self.dim().max(2)];
+        self.rule.expect(&ExpectationInput {
+            history: &history,
+            previous: Some(p),
+        })
+    }
+
+    /// The planting price at rest when every past producer price is `p`.
+    pub fn planting_at_rest(&self, p: f64) -> f64 {
+        self.plant(self.expectation_at_rest(p))
+    }
+
+    /// The steady producer price of this regime: p = h(planting(p)); `None` when none exists.
+    pub fn fixed_point(&self, guess: f64) -> Option<f64> {
+        if let Clearing::Pinned(p) = self.clearing {
+            return Some(p);
+        }
+        let g = |p: f64| {
+            let v = self
+                .clearing
+                .producer_price(self.setup, self.planting_at_rest(p))
+                - p;
+            if v.is_nan() {
+                f64::NEG_INFINITY
+            } else {
+                v
+            }
+        };
+        crate::numeric::root_decreasing(g, guess, 1e-13 * guess.max(1.0))
+    }
+
+    /// The state at rest at producer price `p`.
+    pub fn rest_state(&self, p: f64) -> Vec<f64> {
+        match self.layout {
+            Layout::Lags(_) => vec![p; self.dim()],
+            Layout::Expectation(_) => vec![self.expectation_at_rest(p)],
+        }
+    }
+
+    /// x ↦ F(x), written into `out`.
+    pub fn apply(&self, x: &[f64], out: &mut [f64]) {
+        match self.layout {
+            Layout::Lags(_) => {
+                let k = x.len();
+                // history oldest first, as the rules read it
+                let mut history: Vec<f64> = x.iter().rev().copied().collect();
+                if history.len() < 2 {
+                    history.insert(0, x[k - 1]);
+                }
+                let e = self.rule.expect(&ExpectationInput {
+                    history: &history,
+                    previous: None,
+                });
+                let p = self.clearing.producer_price(self.setup, self.plant(e));
+                out[0] = p;
+                out[1..k].copy_from_slice(&x[..k - 1]);
+            }
+            Layout::Expectation(_) => {
+                let pe = x[0];
+                let p = self.clearing.producer_price(self.setup, self.plant(pe));
+                let history = [p, p];
+                out[0] = self.rule.expect(&ExpectationInput {
+                    history: &history,
+                    previous: Some(pe),
+                });
+            }
+        }
+    }
+
+    /// Numerical Jacobian of F at `x`.
+    pub fn numerical_jacobian(&self, x: &[f64]) -> DMatrix<f64> {
+        numerical_jacobian(|a, b| self.apply(a, b), x)
+    }
+
+    /// Analytic Jacobian of F at rest at producer price `p` (companion form of the linear rule):
+    /// with c = dh/dP^e (0 where an announced floor pins planting), first row c·w for the lag rules,
+    /// 1 − λ + λc for the adaptive rule.
+    pub fn analytic_jacobian(&self, p: f64) -> DMatrix<f64> {
+        let e = self.expectation_at_rest(p);
+        let planting = self.plant(e);
+        let pinned_by_floor = self.floor.is_some_and(|f| e < f);
+        let c = if pinned_by_floor {
+            0.0
+        } else {
+            self.clearing.slope(self.setup, planting)
+        };
+        match &self.layout {
+            Layout::Lags(w) => {
+                let k = w.len();
+                let mut m = DMatrix::<f64>::zeros(k, k);
+                for (j, wj) in w.iter().enumerate() {
+                    m[(0, j)] = c * wj;
+                }
+                for i in 1..k {
+                    m[(i, i - 1)] = 1.0;
+                }
+                m
+            }
+            Layout::Expectation(l) => DMatrix::from_element(1, 1, 1.0 - l + l * c),
+        }
+    }
+}
+
+/// Central-difference Jacobian with one Richardson step (error O(h⁴)); step 1e-4·max(|x_j|, 1).
+pub fn numerical_jacobian(f: impl Fn(&[f64], &mut [f64]), x: &[f64]) -> DMatrix<f64> {
+    let n = x.len();
+    let mut m = DMatrix::<f64>::zeros(n, n);
+    let mut xp = x.to_vec();
+    let (mut fp, mut fm) = (vec![0.0; n], vec![0.0; n]);
+    let mut diff = |j: usize, h: f64, out: &mut Vec<f64>| {
+        xp[j] = x[j] + h;
+        f(&xp, &mut fp);
+        xp[j] = x[j] - h;
+        f(&xp, &mut fm);
+        xp[j] = x[j];
+        for i in 0..n {
+            out[i] = (fp[i] - fm[i]) / (2.0 * h);
+        }
+    };
+    let (mut d1, mut d2) = (vec![0.0; n], vec![0.0; n]);
+    for j in 0..n {
+        let h = 1e-4 * x[j].abs().max(1.0);
+        diff(j, h, &mut d1);
+        diff(j, 0.5 * h, &mut d2);
+        for i in 0..n {
+            m[(i, j)] = (4.0 * d2[i] - d1[i]) / 3.0;
+        }
+    }
+    m
+}

@@ -1,0 +1,64 @@
+use super::statespace::{layout, Layout};
+use super::*;
+use crate::curves::Curve;
+use crate::scenario::NormalPrice;
+
+fn setup(rule: ExpectationSpec) -> Setup {
+    Setup {
+        demand: Curve::ConstantElasticity {
+            at_price: 100.0,
+            at_quantity: 50.0,
+            elasticity: -0.4,
+        },
+        supply: Curve::ConstantElasticity {
+            at_price: 90.0,
+            at_quantity: 45.0,
+            elasticity: 0.6,
+        },
+        rule,
+        floor: None,
+        stock: None,
+    }
+}
+
+#[test]
+fn rules_at_rest_expect_the_resting_price() {
+    // a rule whose past prices are all p expects p (weights sum to one), except a fixed normal price
+    // (definition of each rule, INTERFACE.md)
+    let rules = [
+        ExpectationSpec::Naive,
+        ExpectationSpec::Adaptive {
+            weight: 0.3,
+            initial_expected_price: None,
+        },
+        ExpectationSpec::Extrapolative { weight: -0.4 },
+        ExpectationSpec::TrailingMean { window: 5 },
+        ExpectationSpec::NormalPrice {
+            weight: 0.5,
+            normal: NormalPrice::Window(3),
+        },
+    ];
+    for r in rules {
+        let s = setup(r);
+        let map = StateMap::new(&s, Clearing::Free { offtake: 0.0 });
+        assert!(
+            (map.expectation_at_rest(123.0) - 123.0).abs() < 1e-12,
+            "{r:?}"
+        );
+        if let Layout::Lags(w) = layout(&r) {
+            assert!((w.iter().sum::<f64>() - 1.0).abs() < 1e-15, "{r:?}");
+        }
+    }
+}
+
+#[test]
+fn clearing_slope_matches_finite_difference() {
+    // dP/dP^e = S'(P^e)/D'(P) (chain rule through the inverse demand curve)
+    let s = setup(ExpectationSpec::Naive);
+    let c = Clearing::Free { offtake: 3.0 };
+    let pe = 95.0;
+    let h = 1e-5;
+    let fd = (c.producer_price(&s, pe + h) - c.producer_price(&s, pe - h)) / (2.0 * h);
+    assert!((c.slope(&s, pe) - fd).abs() < 1e-8);
+    assert_eq!(Clearing::Pinned(80.0).slope(&s, pe), 0.0);
+}

@@ -1,0 +1,176 @@
+//! Command-line behaviour of `compare` and of `run` with replications > 1: formats, columns, exit codes.
+
+mod common;
+
+use common::bin;
+
+fn demo(name: &str) -> String {
+    format!("{}/examples/{name}", env!("CARGO_MANIFEST_DIR"))
+}
+
+fn policy_file(name: &str) -> String {
+    format!("{}/policies/{name}", env!("CARGO_MANIFEST_DIR"))
+}
+
+fn write(dir: &tempfile::TempDir, name: &str, text: &str) -> String {
+    let p = dir.path().join(name);
+    std::fs::write(&p, text).unwrap();
+    p.to_string_lossy().to_string()
+}
+
+/// Demand Q = 200 − 2P, supply Q = −40 + P^e: P* = 80, naive eigenvalue −b/d = −0.5.
+const MARKET: &str = "[market]\nname = \"T\"\nquantity_unit = \"kt\"\nprice_unit = \"per t\"\n\
+    [demand]\nform = \"linear\"\nintercept = 200.0\nslope = -2.0\n\
+    [supply]\nform = \"linear\"\nintercept = -40.0\nslope = 1.0\n\
+    [expectations]\nrule = \"naive\"\n[run]\nperiods = 12\ninitial_price = 92.0\nreplications = 50\nseed = 1\n";
+
+#[test]
+fn compare_on_the_shipped_demo_prints_every_format() {
+    let market = demo("veldmark_weather.toml");
+    let files = [policy_file("none.toml"), policy_file("price_band.toml")];
+    let run = |format: &str| {
+        let out = bin()
+            .args(["compare", &market])
+            .args(&files)
+            .args(["--replications", "200", "--format", format])
+            .output()
+            .unwrap();
+        assert!(
+            out.status.success(),
+            "{format}: {}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        String::from_utf8(out.stdout).unwrap()
+    };
+    let table = run("table");
+    assert!(
+        table.contains("Net welfare change, PV") && table.contains("5–95 % range"),
+        "{table}"
+    );
+    assert!(!table.contains("NaN") && !table.contains("inf"));
+    let md = run("markdown");
+    assert!(
+        md.contains("| Indicator | Unit | No intervention |"),
+        "{md}"
+    );
+    let csv = run("csv");
+    let mut lines = csv.lines();
+    assert!(lines
+        .next()
+        .unwrap()
+        .starts_with("indicator,No intervention,"));
+    assert_eq!(lines.count(), furrow::compare::indicator_keys().len());
+    let json: serde_json::Value = serde_json::from_str(&run("json")).unwrap();
+    let policies = json["policies"].as_array().unwrap();
+    assert_eq!(policies.len(), 2);
+    assert_eq!(policies[1]["file"].as_str().unwrap(), files[1]);
+    assert_eq!(
+        policies[0]["indicators"]["net_welfare_change_pv"].as_f64(),
+        Some(0.0)
+    );
+    // the band buys and sells, so its stock and fiscal parts are populated
+    assert!(
+        policies[1]["indicators"]["purchase_cost_pv"]
+            .as_f64()
+            .unwrap()
+            > 0.0
+    );
+}
+
+#[test]
+fn compare_fails_with_exit_1_naming_policy_replication_and_period() {
+    let dir = tempfile::tempdir().unwrap();
+    // supply three times steeper than demand: the naive cobweb explodes (Ezekiel 1938)
+    let m = write(
+        &dir,
+        "m.toml",
+        &MARKET
+            .replace("slope = 1.0", "slope = 6.0")
+            .replace("intercept = -40.0", "intercept = -440.0"),
+    );
+    let p = write(
+        &dir,
+        "p.toml",
+        "[policy]\nname = \"Floor\"\n[floor]\nprice = 70.0\ninstrument = \"purchase\"\n",
+    );
+    let out = bin().args(["compare", &m, &p]).output().unwrap();
+    assert_eq!(out.status.code(), Some(1));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        err.contains("replication 0") && err.contains("period") && err.contains("No intervention"),
+        "{err}"
+    );
+}
+
+#[test]
+fn compare_needs_a_policy_and_valid_files() {
+    let dir = tempfile::tempdir().unwrap();
+    let m = write(&dir, "m.toml", MARKET);
+    let out = bin().args(["compare", &m]).output().unwrap();
+    assert_eq!(out.status.code(), Some(2));
+    let bad = write(
+        &dir,
+        "bad.toml",
+        "[policy]\nname = \"x\"\n[stock]\ncapacity = -1.0\n",
+    );
+    let out = bin().args(["compare", &m, &bad]).output().unwrap();
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("capacity"));
+}
+
+#[test]
+fn run_with_replications_prints_mean_and_quantile_columns() {
+    let dir = tempfile::tempdir().unwrap();
+    let m = write(
+        &dir,
+        "m.toml",
+        &format!("{MARKET}[shocks]\nsupply_sd = 1.0\n"),
+    );
+    let out = bin().args(["run", &m, "--format", "csv"]).output().unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = String::from_utf8(out.stdout).unwrap();
+    let mut rows = text.lines();
+    let header: Vec<&str> = rows.next().unwrap().split(',').collect();
+    let mut want = vec!["period".to_string()];
+    for s in ["price", "producer_price", "harvest", "stock"] {
+        for q in ["mean", "p05", "p50", "p95"] {
+            want.push(format!("{s}_{q}"));
+        }
+    }
+    assert_eq!(header, want);
+    let rows: Vec<Vec<f64>> = rows
+        .map(|r| r.split(',').map(|c| c.parse().unwrap()).collect())
+        .collect();
+    assert_eq!(rows.len(), 12);
+    for r in &rows {
+        assert!(r[2] <= r[3] && r[3] <= r[4], "quantiles in order: {r:?}");
+    }
+}
+
+#[test]
+fn run_with_replications_on_a_deterministic_market_gives_the_closed_form_path() {
+    // no shocks: every replication is the cobweb path P* + (P0 − P*)(−b/d)^t (Ezekiel 1938), so mean
+    // and all quantiles coincide with it
+    let dir = tempfile::tempdir().unwrap();
+    let m = write(&dir, "m.toml", MARKET);
+    let out = bin()
+        .args(["run", &m, "--format", "json"])
+        .output()
+        .unwrap();
+    assert!(out.status.success());
+    let rows: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    for (t, row) in rows.as_array().unwrap().iter().enumerate() {
+        let want = 80.0 + 12.0 * (-0.5f64).powi(t as i32 + 1);
+        for k in ["price_mean", "price_p05", "price_p50", "price_p95"] {
+            assert!(
+                (row[k].as_f64().unwrap() - want).abs() < 1e-9,
+                "t={} {k}",
+                t + 1
+            );
+        }
+    }
+}

@@ -1,0 +1,228 @@
+//! Monte Carlo checks against published results and closed forms, and reproducibility.
+
+use furrow::compare::compare;
+use furrow::engine::Model;
+use furrow::scenario::{market_from_table, parse_toml, policy_from_table, PolicySpec, Scenario};
+use furrow::stochastic::{run_monte_carlo, NoProgress, Series, ShockStream};
+
+/// Demand Q = 200 − 2P, supply Q = −40 + P^e: P* = 80, Q* = 40 (the interface-check market).
+fn market(expectations: &str, run: &str, shocks: &str) -> Scenario {
+    let text = format!(
+        "[market]\nname = \"Test\"\nquantity_unit = \"kt\"\nprice_unit = \"per t\"\n\
+         [demand]\nform = \"linear\"\nintercept = 200.0\nslope = -2.0\n\
+         [supply]\nform = \"linear\"\nintercept = -40.0\nslope = 1.0\n\
+         [expectations]\n{expectations}\n[run]\n{run}\n[shocks]\n{shocks}\n"
+    );
+    market_from_table("test.toml", parse_toml("test.toml", &text).unwrap()).unwrap()
+}
+
+fn policy(text: &str) -> PolicySpec {
+    policy_from_table("p.toml", parse_toml("p.toml", text).unwrap()).unwrap()
+}
+
+// Naive cobweb with an additive harvest shock e_t ~ N(0, σ²), supply Q = c + b·P_{t−1} + e_t (b = 1),
+// demand Q = a − d·P (d = 2). Clearing a − d·P_t = c + b·P_{t−1} + e_t gives
+//   P_t − P* = (−b/d)(P_{t−1} − P*) − e_t/d,
+// an AR(1) with coefficient φ = −b/d = −0.5 and innovation variance σ²/d². Its stationary variance solves
+// V = φ²V + σ²/d², so V = σ²/d² / (1 − (b/d)²) (Hamilton 1994, eq. 3.4.4 for an AR(1)). Started at P*,
+// Var(P_t) = V·(1 − φ^{2t}).
+const SIGMA: f64 = 2.0;
+const PHI: f64 = -0.5;
+fn stationary_variance() -> f64 {
+    SIGMA * SIGMA / 4.0 / (1.0 - PHI * PHI)
+}
+
+#[test]
+fn naive_linear_price_is_an_ar1_with_the_cobweb_coefficient_and_variance() {
+    let s = market(
+        "rule = \"naive\"",
+        "periods = 200000\ninitial_price = 80.0\nseed = 11",
+        &format!("supply_sd = {SIGMA}"),
+    );
+    let model = Model::new(&s, &PolicySpec::none());
+    let mut stream = ShockStream::new(&s.shocks, s.run.seed, 0);
+    let path = model.run(s.run.periods, |_| stream.next_shock()).unwrap();
+    let p: Vec<f64> = path.iter().map(|r| r.price - 80.0).collect();
+    let n = p.len() as f64;
+    let var = p.iter().map(|x| x * x).sum::<f64>() / n;
+    let lag1 = p.windows(2).map(|w| w[0] * w[1]).sum::<f64>() / (n - 1.0) / var;
+    // Monte Carlo error of a sample variance of an AR(1): sd ≈ V·sqrt(2(1+φ²)/((1−φ²)n)) ≈ 0.4 % here
+    let v = stationary_variance();
+    assert!((var - v).abs() < 0.02 * v, "variance {var} vs {v}");
+    // sd of the lag-1 autocorrelation ≈ sqrt((1−φ²)/n) ≈ 0.002
+    assert!(
+        (lag1 - PHI).abs() < 0.01,
+        "lag-1 autocorrelation {lag1} vs {PHI}"
+    );
+}
+
+#[test]
+fn monte_carlo_price_spread_matches_the_ar1_variance() {
+    // the price is Gaussian (linear map of normal shocks), so the 5–95 % range at period t is
+    // 2·1.6449·sqrt(V(1 − φ^{2t})) (normal quantile z_0.95 = 1.6449, Abramowitz and Stegun 26.2)
+    let s = market(
+        "rule = \"naive\"",
+        "periods = 30\ninitial_price = 80.0\nseed = 5\nreplications = 20000",
+        &format!("supply_sd = {SIGMA}"),
+    );
+    let mc = run_monte_carlo(&s, &[PolicySpec::none()], &[Series::Price], &NoProgress).unwrap();
+    let fan = &mc.policies[0].series[0].periods;
+    let v = stationary_variance();
+    for t in [1usize, 2, 5, 30] {
+        let sd = (v * (1.0 - PHI.powi(2 * t as i32))).sqrt();
+        let range = fan[t - 1].p95 - fan[t - 1].p05;
+        // quantile error ≈ sd·sqrt(p(1−p))/(φ(z)·sqrt(n)) ≈ 0.015·sd for each end
+        assert!(
+            (range - 2.0 * 1.6449 * sd).abs() < 0.05 * sd * 2.0,
+            "t={t}: {range} vs {}",
+            3.29 * sd
+        );
+        assert!(
+            (fan[t - 1].mean - 80.0).abs() < 4.0 * sd / (20000f64).sqrt(),
+            "t={t}"
+        );
+    }
+    // pooled sd over all periods: E[pooled variance] = (1/T) Σ_t V(1 − φ^{2t}) (mean P* throughout)
+    let pooled = mc.policies[0].pooled.price.sd();
+    let want = ((1..=30).map(|t| v * (1.0 - PHI.powi(2 * t))).sum::<f64>() / 30.0).sqrt();
+    assert!(
+        (pooled - want).abs() < 0.01 * want,
+        "pooled sd {pooled} vs {want}"
+    );
+}
+
+#[test]
+fn muth_rational_expectation_is_the_steady_state_price() {
+    // Muth (1961), Econometrica 29(3), eq. (3.4): with linear curves and additive zero-mean shocks
+    // independent over time, the rational expectation equals the equilibrium price P*.
+    let s = market(
+        "rule = \"rational\"",
+        "periods = 40\ninitial_price = 95.0\nseed = 3",
+        "supply_sd = 3.0\ndemand_sd = 2.0",
+    );
+    let model = Model::new(&s, &PolicySpec::none());
+    let mut stream = ShockStream::new(&s.shocks, s.run.seed, 0);
+    let path = model.run(s.run.periods, |_| stream.next_shock()).unwrap();
+    for r in &path {
+        assert!(
+            (r.expected_price - 80.0).abs() < 1e-7,
+            "period {}: {}",
+            r.period,
+            r.expected_price
+        );
+    }
+    // the realised prices do vary
+    assert!(path.iter().any(|r| (r.price - 80.0).abs() > 0.5));
+}
+
+#[test]
+fn muth_with_persistent_demand_shocks_adds_the_predictable_part() {
+    // Same derivation with E_{t−1}[u_t] = ρ·u_{t−1}: a + ρu_{t−1} − d·P^e = c + b·P^e gives
+    // P^e_t = P* + ρ·u_{t−1}/(b + d) (Muth 1961, section 3, serially correlated disturbances; derived).
+    let s = market(
+        "rule = \"rational\"",
+        "periods = 30\ninitial_price = 80.0\nseed = 8",
+        "demand_sd = 3.0\ndemand_persistence = 0.6",
+    );
+    let model = Model::new(&s, &PolicySpec::none());
+    let mut stream = ShockStream::new(&s.shocks, s.run.seed, 0);
+    let shocks: Vec<_> = (0..30).map(|_| stream.next_shock()).collect();
+    let path = model.run(30, |t| shocks[t - 1]).unwrap();
+    for (t, r) in path.iter().enumerate().skip(1) {
+        let want = 80.0 + 0.6 * shocks[t - 1].demand / 3.0;
+        assert!(
+            (r.expected_price - want).abs() < 1e-7,
+            "period {}: {} vs {want}",
+            r.period,
+            r.expected_price
+        );
+    }
+}
+
+fn band_market(reps: usize) -> Scenario {
+    market(
+        "rule = \"adaptive\"\nweight = 0.5",
+        &format!("periods = 25\ninitial_price = 90.0\nseed = 21\nreplications = {reps}"),
+        "yield_cv = 0.1\ndemand_sd = 1.0\ndemand_persistence = 0.4",
+    )
+}
+
+fn band_policy() -> PolicySpec {
+    policy(
+        "[policy]\nname = \"Band\"\n[stock]\nbuy_below = 76.0\nsell_above = 84.0\ncapacity = 20.0\n\
+         storage_cost = 0.5\nloss_rate = 0.02\n",
+    )
+}
+
+#[test]
+fn results_are_identical_across_thread_counts_and_runs() {
+    // common practice, no source: one stream per replication, fixed chunks, sequential reduction
+    let s = band_market(700);
+    let policies = [PolicySpec::none(), band_policy()];
+    let series = [Series::Price, Series::Stock];
+    let run = |threads: usize| {
+        rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .build()
+            .unwrap()
+            .install(|| run_monte_carlo(&s, &policies, &series, &NoProgress).unwrap())
+    };
+    let one = run(1);
+    assert_eq!(one, run(3));
+    assert_eq!(one, run(8));
+    assert_eq!(one, run(1));
+    let mut other = s.clone();
+    other.run.seed = 22;
+    let changed = run_monte_carlo(&other, &policies, &series, &NoProgress).unwrap();
+    assert_ne!(
+        one.policies[1].pooled.price.mean(),
+        changed.policies[1].pooled.price.mean()
+    );
+}
+
+#[test]
+fn every_policy_sees_the_same_shocks() {
+    // common random numbers: a do-nothing policy listed twice is the baseline, replication by replication
+    let s = band_market(130);
+    let mc = run_monte_carlo(
+        &s,
+        &[PolicySpec::none(), PolicySpec::none()],
+        &[],
+        &NoProgress,
+    )
+    .unwrap();
+    assert_eq!(mc.policies[0].replications, mc.policies[1].replications);
+    // and the compare baseline reuses it exactly: zero changes
+    let mut none = PolicySpec::none();
+    none.source = "none.toml".into();
+    let r = compare(&s, &[none, band_policy()], &NoProgress).unwrap();
+    let base = &r.policies[0];
+    for key in [
+        "net_welfare_change_pv",
+        "consumer_surplus_change_pv",
+        "producer_surplus_change_pv",
+        "fiscal_cost_pv",
+    ] {
+        assert_eq!(base.number(key), Some(0.0), "{key}");
+    }
+    assert!(r.policies[1].number("price_sd").unwrap() < base.number("price_sd").unwrap());
+}
+
+#[test]
+fn a_diverging_replication_names_policy_replication_and_period() {
+    // naive with supply steeper than demand: |−b/d| = 3 explodes (Ezekiel 1938, the divergent cobweb)
+    let text = "[market]\nname = \"X\"\nquantity_unit = \"kt\"\nprice_unit = \"per t\"\n\
+        [demand]\nform = \"linear\"\nintercept = 200.0\nslope = -1.0\n\
+        [supply]\nform = \"linear\"\nintercept = -100.0\nslope = 3.0\n\
+        [expectations]\nrule = \"naive\"\n[run]\nperiods = 50\ninitial_price = 76.0\nreplications = 300\nseed = 1\n\
+        [shocks]\nsupply_sd = 0.5\n";
+    let s = market_from_table("x.toml", parse_toml("x.toml", text).unwrap()).unwrap();
+    let err = compare(&s, &[band_policy()], &NoProgress).unwrap_err();
+    let msg = err.to_string();
+    assert!(
+        msg.contains("No intervention") && msg.contains("replication 0"),
+        "{msg}"
+    );
+    let source = std::error::Error::source(&err).expect("the engine's Diverged is the source");
+    assert!(source.to_string().contains("period"), "{source}");
+}

@@ -1,0 +1,190 @@
+//! Sweeps and long runs: grid results against point-by-point analysis, long-run prices against the
+//! simulator, Lyapunov exponents against closed forms.
+
+mod stability_common;
+
+use approx::assert_relative_eq;
+use furrow::scenario::{market_from_table, parse_toml, PolicySpec};
+use furrow::stability::{analyse, Verdict};
+use furrow::sweep::{self, Base};
+use stability_common::*;
+
+#[test]
+fn period_two_cycle_of_a_constant_elasticity_market() {
+    // With e_s = −e_d the naive map is P_{t+1} = P*²/P_t (in logs ln P' = 2 ln P* − ln P, by hand):
+    // every start other than P* is a period-2 cycle, the eigenvalue is −1 and the Lyapunov exponent 0.
+    let s = ce(0.5, -0.5, "rule = \"naive\"");
+    let rep = analyse(&s, &PolicySpec::none()).unwrap();
+    assert_relative_eq!(rep.regimes[0].eigenvalues[0].re, -1.0, epsilon = 1e-9);
+    assert_eq!(rep.verdict, Verdict::Neutral);
+    let lr = sweep::longrun::long_run(&s, &PolicySpec::none(), 1000, 4);
+    let p_star = s.steady.price;
+    let p0 = s.run.initial_price;
+    let other = p_star * p_star / p0;
+    // period 1000 is even: P_1000 = P_0
+    let want = [other, p0, other, p0];
+    for (x, w) in lr.prices.iter().zip(want) {
+        assert_relative_eq!(*x, w, max_relative = 1e-9);
+    }
+    assert!(lr.lyapunov.unwrap().abs() < 1e-6, "{:?}", lr.lyapunov);
+}
+
+#[test]
+fn lyapunov_of_linear_and_power_maps_is_log_slope() {
+    // a linear map x' = m x has exponent ln|m|; the CE naive map is linear in logs with m = e_s/e_d
+    // (Benettin et al. 1980 reduces to mean ln|f'| in one dimension)
+    let s = linear(200.0, 1.0, -10.0, 0.7, "rule = \"naive\"");
+    let lr = sweep::longrun::long_run(&s, &PolicySpec::none(), 60, 5);
+    assert_relative_eq!(lr.lyapunov.unwrap(), 0.7_f64.ln(), epsilon = 1e-6);
+    let s = ce(0.3, -0.6, "rule = \"naive\"");
+    let (l, _) = sweep::longrun::lyapunov(&s, &PolicySpec::none(), 40);
+    // along a converging orbit f' → e_s/e_d; allow for the transient (second half averaged)
+    assert_relative_eq!(l.unwrap(), 0.5_f64.ln(), epsilon = 1e-3);
+}
+
+#[test]
+fn long_run_prices_are_the_simulators() {
+    // the orbit kept is the engine's run (common practice, no source: two code paths must agree)
+    let s = linear(200.0, 1.0, -10.0, 0.9, "rule = \"adaptive\"\nweight = 0.8");
+    let lr = sweep::longrun::long_run(&s, &PolicySpec::none(), 30, 3);
+    let recs = furrow::engine::Model::new(&s, &PolicySpec::none())
+        .run(30, |_| furrow::engine::PeriodShock::NONE)
+        .unwrap();
+    let tail: Vec<f64> = recs[27..].iter().map(|r| r.price).collect();
+    assert_eq!(lr.prices, tail);
+}
+
+#[test]
+fn two_key_sweep_matches_point_by_point_analysis() {
+    // the fast path (sections patched from per-value validation) against full validation per point
+    let text = "[market]\nname = \"g\"\n[demand]\nintercept = 200.0\nslope = -1.0\n[supply]\nintercept = -10.0\nslope = 0.5\n\
+                [expectations]\nrule = \"adaptive\"\nweight = 0.5\n";
+    let base = Base::new("g.toml", parse_toml("g.toml", text).unwrap(), None);
+    let axes = [
+        sweep::parse_vary("supply.slope=0.2:3.0:7").unwrap(),
+        sweep::parse_vary("expectations.weight=0.1:1.0:4").unwrap(),
+    ];
+    let points = sweep::sweep(&base, &axes, None).unwrap();
+    assert_eq!(points.len(), 28);
+    for pt in &points {
+        let (s, p) = base
+            .validate(&[
+                ("supply.slope", pt.values[0]),
+                ("expectations.weight", pt.values[1]),
+            ])
+            .unwrap();
+        let rep = analyse(&s, &p).unwrap();
+        let (rho, v) = pt.outcome.clone().unwrap();
+        assert_eq!(rho, rep.spectral_radius);
+        assert_eq!(v, rep.verdict);
+        // Nerlove's closed form for the radius: |1 − λ(1 + b/d)|
+        assert_relative_eq!(
+            rho,
+            (1.0 - pt.values[1] * (1.0 + pt.values[0])).abs(),
+            epsilon = 1e-12
+        );
+    }
+    // same output on a one-thread pool (rayon keeps the order)
+    let pool = rayon::ThreadPoolBuilder::new()
+        .num_threads(1)
+        .build()
+        .unwrap();
+    let again = pool.install(|| sweep::sweep(&base, &axes, None).unwrap());
+    assert_eq!(again, points);
+}
+
+#[test]
+fn invalid_points_are_kept_and_unknown_keys_fail() {
+    let text = "[market]\nname = \"g\"\n[demand]\nintercept = 200.0\nslope = -1.0\n[supply]\nintercept = -10.0\nslope = 0.5\n";
+    let base = Base::new("g.toml", parse_toml("g.toml", text).unwrap(), None);
+    let axes = [sweep::parse_vary("supply.slope=-0.5:0.5:3").unwrap()];
+    let points = sweep::sweep(&base, &axes, None).unwrap();
+    assert!(points[0]
+        .outcome
+        .as_ref()
+        .unwrap_err()
+        .contains("supply.slope"));
+    assert!(points[1].outcome.is_err()); // slope 0 is out of range (> 0)
+    assert!(points[2].outcome.is_ok());
+    let axes = [sweep::parse_vary("supply.slpoe=0.5:1:2").unwrap()];
+    let err = sweep::sweep(&base, &axes, None).unwrap_err().to_string();
+    assert!(err.contains("supply.slpoe"), "{err}");
+    // a policy key without a policy file starts from an empty policy
+    let axes = [sweep::parse_vary("floor.price=100:150:2").unwrap()];
+    let points = sweep::sweep(&base, &axes, None).unwrap();
+    assert_eq!(points[0].outcome.as_ref().unwrap().1, Verdict::Stable);
+    assert_eq!(points[1].outcome.as_ref().unwrap().1, Verdict::Unstable); // 150 > P* = 140: stock grows
+}
+
+#[test]
+fn benettin_exponent_of_a_linear_second_order_map_is_log_radius() {
+    // for a linear map x' = J x the largest Lyapunov exponent is ln ρ(J) (Oseledets 1968; Benettin
+    // et al. 1980 estimate it by renormalised tangent vectors). Extrapolative ρ = −0.8, b/d = 1.2:
+    // a complex pair of modulus √(0.96) inside the unit circle.
+    let s = linear(
+        300.0,
+        1.0,
+        -10.0,
+        1.2,
+        "rule = \"extrapolative\"\nweight = -0.8",
+    );
+    let rep = analyse(&s, &PolicySpec::none()).unwrap();
+    let rho = rep.spectral_radius;
+    assert_relative_eq!(rho, (1.2_f64 * 0.8).sqrt(), max_relative = 1e-12);
+    let (l, orbit) = sweep::longrun::lyapunov(&s, &PolicySpec::none(), 400);
+    assert_eq!(orbit, sweep::Orbit::Ok);
+    // a complex pair rotates the tangent vector, so the per-step growth oscillates; the average
+    // over 200 steps is within a few 1e-3 of ln ρ
+    assert!(
+        (l.unwrap() - rho.ln()).abs() < 5e-3,
+        "{l:?} vs {}",
+        rho.ln()
+    );
+}
+
+#[test]
+fn lyapunov_on_a_nonlinear_two_cycle_matches_the_chain_rule() {
+    // Constant-elasticity market (demand −0.3, supply 1.5 at P = 100, Q = 50): P = 100 (P^e/100)^−5.
+    // Adaptive λ = 0.35 is unstable at the steady state (b/d = 5 > (2 − λ)/λ ≈ 4.71, Nerlove 1958)
+    // but settles on a 2-cycle of P^e. On a k-cycle the exponent is (1/k) Σ ln|f'(x_i)| (chain rule),
+    // with f(x) = (1 − λ) x + λ h(x), h'(x) = −5 h(x)/x.
+    let text = "[market]\nname = \"ce\"\n[demand]\nform = \"constant-elasticity\"\nat_price = 100.0\n\
+                at_quantity = 50.0\nelasticity = -0.3\n[supply]\nform = \"constant-elasticity\"\n\
+                at_price = 100.0\nat_quantity = 50.0\nelasticity = 1.5\n[expectations]\nrule = \"adaptive\"\n\
+                weight = 0.35\n[run]\ninitial_price = 120.0\n";
+    let s = market_from_table("ce.toml", parse_toml("ce.toml", text).unwrap()).unwrap();
+    let none = PolicySpec::none();
+    assert_eq!(analyse(&s, &none).unwrap().verdict, Verdict::Unstable);
+    let recs = furrow::engine::Model::new(&s, &none)
+        .run(2000, |_| furrow::engine::PeriodShock::NONE)
+        .unwrap();
+    let (a, b) = (recs[1998].expected_price, recs[1999].expected_price);
+    assert!((a - b).abs() > 1.0, "not a 2-cycle: {a} {b}");
+    assert_relative_eq!(recs[1997].expected_price, b, max_relative = 1e-9);
+    let l = 0.35;
+    let h = |x: f64| 100.0 * (x / 100.0_f64).powf(-5.0);
+    let fprime = |x: f64| (1.0 - l) + l * (-5.0 * h(x) / x);
+    let want = 0.5 * (fprime(a).abs().ln() + fprime(b).abs().ln());
+    let (got, orbit) = sweep::longrun::lyapunov(&s, &none, 2000);
+    assert_eq!(orbit, sweep::Orbit::Ok);
+    assert_relative_eq!(got.unwrap(), want, epsilon = 1e-6);
+    assert!(want < 0.0); // the cycle attracts
+}
+
+#[test]
+fn a_floor_hit_in_the_transient_does_not_hide_the_exponent() {
+    // Q_d = 200 − P, Q_s = −10 + 0.5 P (P* = 140), naive, P_0 = 180: the first price 200 − 80 = 120
+    // is below the floor 125, which pins it once; afterwards the orbit converges at the rate
+    // b/d = 0.5, so the exponent is ln 0.5 (linear map; Benettin et al. 1980)
+    let text = "[market]\nname = \"f\"\n[demand]\nintercept = 200.0\nslope = -1.0\n[supply]\nintercept = -10.0\n\
+                slope = 0.5\n[run]\ninitial_price = 180.0\n";
+    let s = market_from_table("f.toml", parse_toml("f.toml", text).unwrap()).unwrap();
+    let p = policy("[policy]\nname = \"floor\"\n[floor]\nprice = 125.0\n");
+    let recs = furrow::engine::Model::new(&s, &p)
+        .run(2, |_| furrow::engine::PeriodShock::NONE)
+        .unwrap();
+    assert!(recs[0].purchases > 0.0 && recs[0].price == 125.0);
+    let (l, orbit) = sweep::longrun::lyapunov(&s, &p, 200);
+    assert_eq!(orbit, sweep::Orbit::Ok);
+    assert_relative_eq!(l.unwrap(), 0.5_f64.ln(), epsilon = 1e-6);
+}
