@@ -12,6 +12,8 @@ const EXAMPLE: &str = "examples/veldmark_storers.toml";
 fn example_with(overrides: &[(&str, toml::Value)]) -> Scenario {
     let text = std::fs::read_to_string(EXAMPLE).unwrap();
     let mut table = parse_toml(EXAMPLE, &text).unwrap();
+    // the closed forms below are for linear demand; a case may override the form again
+    apply_override(&mut table, "demand.form", toml::Value::String("linear".into())).unwrap();
     for (k, v) in overrides {
         apply_override(&mut table, k, v.clone()).unwrap();
     }
@@ -33,7 +35,7 @@ fn private(s: &Scenario) -> furrow::storage::PrivateSolution {
     }
 }
 
-/// Linear demand of the example: Q = a + b P (calibrated at 480 kt, 210 crowns, elasticity −0.25).
+/// Linear demand of the example's calibration point: Q = a + b P (480 kt, 210 crowns, elasticity −0.25).
 fn linear_demand() -> (f64, f64) {
     let b = -0.25 * 480.0 / 210.0;
     (480.0 - b * 210.0, b)
