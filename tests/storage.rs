@@ -13,7 +13,12 @@ fn example_with(overrides: &[(&str, toml::Value)]) -> Scenario {
     let text = std::fs::read_to_string(EXAMPLE).unwrap();
     let mut table = parse_toml(EXAMPLE, &text).unwrap();
     // the closed forms below are for linear demand; a case may override the form again
-    apply_override(&mut table, "demand.form", toml::Value::String("linear".into())).unwrap();
+    apply_override(
+        &mut table,
+        "demand.form",
+        toml::Value::String("linear".into()),
+    )
+    .unwrap();
     for (k, v) in overrides {
         apply_override(&mut table, k, v.clone()).unwrap();
     }
@@ -321,6 +326,43 @@ fn a_rotating_reserve_releases_its_share_inside_the_equilibrium() {
     let ind = storage::storage_indicators(&s, &p).unwrap();
     let c = ind.crowding_out.unwrap();
     assert!(c > 0.0 && c < 1.0, "crowding-out {c}");
+}
+
+#[test]
+fn storage_periods_become_engine_records_with_the_fiscal_identity() {
+    // INTERFACE.md: fiscal cost = P·X − P·R + storage_cost·S + financing + handling + deficiency
+    // payments; stock S_t = (1 − loss)·S_{t−1} + X_t − R_t (accounting identities).
+    let s = example_with(&[]);
+    let text = "[policy]\nname = \"band\"\n[stock]\nbuy_below = 195.0\nsell_above = 230.0\n\
+                capacity = 60.0\ninitial = 20.0\nstorage_cost = 6.0\nloss_rate = 0.02\n\
+                financing_rate = 0.04\nhandling_cost = 2.0\nrelease = \"band\"\n";
+    let p = policy_from_table("b.toml", parse_toml("b.toml", text).unwrap()).unwrap();
+    let solved = storage::SolvedStorage::new(&s, &p).unwrap();
+    let path = solved.path(4, 300);
+    let records = solved.records(4, 300);
+    assert_eq!(path.len(), records.len());
+    let mut prev = 20.0;
+    let (mut bought, mut sold) = (0, 0);
+    for (r, e) in path.iter().zip(&records) {
+        assert_eq!(
+            (r.price, r.harvest, r.public_stock),
+            (e.price, e.harvest, e.stock)
+        );
+        let fiscal = e.price * e.purchases - e.price * e.releases
+            + 6.0 * e.stock
+            + 0.04 * e.price * e.stock
+            + 2.0 * (e.purchases + e.releases);
+        assert!((e.fiscal_cost - fiscal).abs() < 1e-9 * (1.0 + fiscal.abs()));
+        assert!((e.stock - (0.98 * prev + e.purchases - e.releases)).abs() < 1e-9);
+        bought += usize::from(e.acted().contains("stock-buy"));
+        sold += usize::from(e.acted().contains("stock-sell"));
+        prev = e.stock;
+    }
+    assert!(bought > 10 && sold > 10, "bought {bought}, sold {sold}");
+    // the one-call helper simulates the file's periods
+    let one = storage::storage_records(&s, &p, 4).unwrap();
+    assert_eq!(one.len(), s.run.periods);
+    assert_eq!(one[..5], records[..5]);
 }
 
 #[test]

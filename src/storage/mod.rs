@@ -15,6 +15,7 @@ pub mod market;
 pub mod policy;
 pub mod public;
 pub mod public_solve;
+pub mod records;
 pub mod report;
 pub mod simulate;
 pub mod solve;
@@ -22,6 +23,7 @@ pub mod solve;
 pub use check::GridRow;
 pub use market::{Node, StorageMarket};
 pub use policy::{band_of, payment_floor, planting_floor};
+pub use records::SolvedStorage;
 pub use report::{report, StorageReport};
 pub use simulate::{simulate, Equilibrium, StorageIndicators, StoragePeriod};
 pub use solve::{solve_private, PriceRule, PrivateSolution, SolveOptions};
@@ -216,24 +218,22 @@ pub fn storage_indicators(
 
 /// One simulated path of `scenario` under `policy` with the solved rules, for `run`: the file's
 /// `run.periods` periods, its seed and replication `replication`, starting with no private stock and
-/// the policy's initial public stock.
+/// the policy's initial public stock. (To simulate many replications, solve once with
+/// [`SolvedStorage::new`].)
 pub fn storage_path(
     scenario: &Scenario,
     policy: &PolicySpec,
     replication: u64,
 ) -> Result<Vec<StoragePeriod>, StorageError> {
-    let eq = solve(scenario, policy, &SolveOptions::default())?;
-    let initial = if band_of(policy)?.is_some() {
-        policy.stock.map_or(0.0, |s| s.initial)
-    } else {
-        0.0
-    };
-    Ok(simulate(
-        &eq,
-        &scenario.shocks,
-        scenario.run.seed,
-        replication,
-        initial,
-        scenario.run.periods,
-    ))
+    Ok(SolvedStorage::new(scenario, policy)?.path(replication, scenario.run.periods))
+}
+
+/// [`storage_path`] as the period engine's records (run columns, fiscal and welfare parts), for `run`
+/// and `compare` on a market with `[storers]`.
+pub fn storage_records(
+    scenario: &Scenario,
+    policy: &PolicySpec,
+    replication: u64,
+) -> Result<Vec<crate::engine::PeriodRecord>, StorageError> {
+    Ok(SolvedStorage::new(scenario, policy)?.records(replication, scenario.run.periods))
 }

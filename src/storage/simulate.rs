@@ -143,6 +143,11 @@ pub struct StoragePeriod {
     pub public_stock: f64,
     /// The price was above the band's selling price while the agency had nothing left to sell.
     pub stockout: bool,
+    /// Additive demand shock of the period (quantity units).
+    pub demand_shock: f64,
+    /// What the agency did.
+    #[serde(skip)]
+    pub regime: Regime,
 }
 
 /// Simulates `periods` periods of replication `replication` under `seed`, starting with no private
@@ -191,6 +196,8 @@ pub fn simulate(
             releases: (-trade).max(0.0),
             public_stock: public,
             stockout: o.regime == Regime::Empty,
+            demand_shock: s.demand,
+            regime: o.regime,
         });
     }
     out
