@@ -490,4 +490,30 @@ fn storage_verb_solves_with_a_band_policy() {
         .clone();
     let text = String::from_utf8(out).unwrap();
     assert!(text.starts_with("availability,public_stock,price,private_stock,planted"));
+    // one simulated path with the solved rules
+    let out = Command::cargo_bin("furrow")
+        .unwrap()
+        .args([
+            "storage",
+            EXAMPLE,
+            "--policy",
+            path.to_str().unwrap(),
+            "--path",
+        ])
+        .args(["--periods", "12", "--format", "json"])
+        .assert()
+        .success()
+        .get_output()
+        .stdout
+        .clone();
+    let v: serde_json::Value = serde_json::from_slice(&out).unwrap();
+    let rows = v.as_array().unwrap();
+    assert_eq!(rows.len(), 12);
+    for r in rows {
+        let (x, g) = (
+            r["private_stock"].as_f64().unwrap(),
+            r["public_stock"].as_f64().unwrap(),
+        );
+        assert!(x >= 0.0 && (0.0..=60.0 + 1e-9).contains(&g), "{r}");
+    }
 }

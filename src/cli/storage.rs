@@ -3,7 +3,7 @@
 
 use clap::Args;
 use furrow::output::{fmt_num, Format, TextTable};
-use furrow::storage::{self, SolveOptions, StorageReport};
+use furrow::storage::{self, SolveOptions, StoragePeriod, StorageReport};
 
 use super::common::{load_policy, say, CommonArgs};
 
@@ -28,6 +28,10 @@ pub struct StorageArgs {
     /// Rows of the printed grid of availability.
     #[arg(long, default_value_t = 21)]
     pub rows: usize,
+    /// Print one simulated path with the solved rules instead of the grid (`run.periods` periods,
+    /// or --periods; the file's seed, or --seed).
+    #[arg(long)]
+    pub path: bool,
     #[command(flatten)]
     pub common: CommonArgs,
 }
@@ -44,6 +48,11 @@ pub fn execute(args: &StorageArgs) -> anyhow::Result<()> {
         nodes: args.nodes,
         ..d
     };
+    if args.path {
+        let solved = storage::SolvedStorage::new(&scenario, &policy)?;
+        let path = solved.path(0, scenario.run.periods);
+        return args.common.emit(&render_path(&path, args.common.format));
+    }
     let report = storage::report(&scenario, &policy, &options, args.rows)?;
     say(&format!(
         "solved in {} iterations; largest Euler residual {:.2e}; private stocks are zero above {} {}",
@@ -53,6 +62,48 @@ pub fn execute(args: &StorageArgs) -> anyhow::Result<()> {
         scenario.market.price_unit
     ));
     args.common.emit(&render(&report, args.common.format))
+}
+
+/// Columns of `storage --path`.
+const PATH_COLUMNS: &[&str] = &[
+    "period",
+    "expected_price",
+    "planted",
+    "harvest",
+    "availability",
+    "price",
+    "producer_price",
+    "consumption",
+    "private_stock",
+    "purchases",
+    "releases",
+    "public_stock",
+];
+
+fn render_path(path: &[StoragePeriod], format: Format) -> String {
+    if format == Format::Json {
+        return serde_json::to_string_pretty(path).unwrap_or_default() + "\n";
+    }
+    let digits = if format == Format::Csv { 6 } else { 2 };
+    let mut t = TextTable::new(PATH_COLUMNS);
+    for r in path {
+        let f = |x: f64| fmt_num(x, digits);
+        t.push(vec![
+            r.period.to_string(),
+            f(r.expected_price),
+            f(r.planted),
+            f(r.harvest),
+            f(r.availability),
+            f(r.price),
+            f(r.producer_price),
+            f(r.consumption),
+            f(r.private_stock),
+            f(r.purchases),
+            f(r.releases),
+            f(r.public_stock),
+        ]);
+    }
+    t.render(format)
 }
 
 fn render(r: &StorageReport, format: Format) -> String {
