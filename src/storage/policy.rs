@@ -66,6 +66,9 @@ pub fn band_of(policy: &PolicySpec) -> Result<Option<Band>, StorageError> {
             "unlimited: the storage model needs a finite capacity (the public stock is a state on [0, capacity])",
         ));
     }
+    if stock.capacity <= 0.0 {
+        return Ok(None); // a store that holds nothing never trades
+    }
     let buy_below = floor.map_or(stock.buy_below, |f| f.max(stock.buy_below));
     let sell_above = if floor.is_some() && policy.stock.is_some() && stock.sell_above <= buy_below {
         f64::INFINITY
