@@ -38,8 +38,8 @@ pub fn execute(args: &CompareArgs) -> anyhow::Result<()> {
     let result = compare(&scenario, &policies, bar.observer());
     bar.finish();
     let result = result?;
-    if args.common.plots.is_some() {
-        say("compare --plots: plots are drawn by the report module, which is not built yet; no plots written");
+    if let Some(dir) = &args.common.plots {
+        super::report::plot_compare(dir, &scenario, &args.policies, &result)?;
     }
     args.common
         .emit(&render::render(&result, args.common.format))

@@ -46,10 +46,10 @@ pub fn execute(args: &RunArgs, scenario: &Scenario, policy: &PolicySpec) -> anyh
         "{} replications × {} periods (seed {}): mean and 5/50/95 % quantiles across replications (type 7)",
         mc.replications, mc.periods, scenario.run.seed
     ));
-    if args.common.plots.is_some() {
-        say("--plots with replications > 1: fan charts are drawn by the report module, which is not built yet");
-    }
     let runs = &mc.policies[0];
+    if let Some(dir) = &args.common.plots {
+        super::report::plot_mc_run(dir, scenario, runs, mc.replications)?;
+    }
     let mut columns = vec!["period".to_string()];
     for s in &runs.series {
         for stat in ["mean", "p05", "p50", "p95"] {

@@ -129,11 +129,11 @@ pub fn render(report: &StabilityReport, format: Format) -> String {
 pub fn execute(args: &StabilityArgs) -> anyhow::Result<()> {
     let scenario = args.common.load_market(&args.market)?;
     let policy = load_policy(args.policy.as_deref())?;
-    if args.common.plots.is_some() {
-        say("stability: --plots is not used by this verb (try `sweep` or `report`)");
-    }
     let report = stability::analyse(&scenario, &policy)
         .map_err(|e| anyhow::anyhow!("{}: {e}", scenario.source))?;
+    if let Some(dir) = &args.common.plots {
+        super::report::plot_stability(dir, &policy.name, &report)?;
+    }
     if !report.steady_state_exists {
         say("no steady state with finite stock exists under this policy (see notes)");
     }

@@ -151,9 +151,6 @@ pub fn execute(args: &SweepArgs) -> anyhow::Result<()> {
             Some(LongRunSpec { keep: n, periods })
         }
     };
-    if args.common.plots.is_some() {
-        say("sweep: --plots is not drawn by this verb yet; the data are in the output");
-    }
     let market = read_table(&args.market)?;
     let policy = match &args.policy {
         Some(p) => Some((p.as_str(), read_table(p)?)),
@@ -184,6 +181,21 @@ pub fn execute(args: &SweepArgs) -> anyhow::Result<()> {
         ));
     }
     let keys: Vec<String> = axes.iter().map(|a| a.key.clone()).collect();
+    if let Some(dir) = &args.common.plots {
+        let price_unit = base
+            .market
+            .get("market")
+            .and_then(|m| m.get("price_unit"))
+            .and_then(|u| u.as_str())
+            .unwrap_or("price units")
+            .to_string();
+        super::report::plot_sweep(
+            dir,
+            &keys,
+            &super::report::sweep_points(&points),
+            &price_unit,
+        )?;
+    }
     let text = if args.common.format == Format::Json {
         render_json(&points, &keys, long_run)
     } else {

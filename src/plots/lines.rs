@@ -1,0 +1,269 @@
+//! Paths over periods: price and harvest across policies, and fiscal cost (bars for one policy,
+//! lines for several).
+
+use plotters::coord::Shift;
+use plotters::prelude::*;
+
+use super::frame::{builder, de, frame, mesh, Titles};
+use super::style::{self, LegendEntry, LegendKey};
+use super::{finite_runs, Plot, PlotError};
+
+/// One named line.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Series {
+    /// Legend name (a policy file's name).
+    pub name: String,
+    /// (x, y) points; a non-finite value breaks the line.
+    pub points: Vec<(f64, f64)>,
+}
+
+impl Series {
+    /// A series over periods 1, 2, … from one value per period.
+    pub fn periods(name: impl Into<String>, values: &[f64]) -> Series {
+        Series {
+            name: name.into(),
+            points: values
+                .iter()
+                .enumerate()
+                .map(|(i, &v)| ((i + 1) as f64, v))
+                .collect(),
+        }
+    }
+}
+
+/// A labelled horizontal reference line (steady state, floor price).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Reference {
+    /// Label drawn at the right end of the line.
+    pub label: String,
+    /// Height of the line.
+    pub value: f64,
+}
+
+/// Lines over periods.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LineChart {
+    /// Title and subtitle.
+    pub titles: Titles,
+    /// X axis label with unit.
+    pub x_label: String,
+    /// Y axis label with unit.
+    pub y_label: String,
+    /// The lines, one per policy.
+    pub series: Vec<Series>,
+    /// Dashed horizontal reference lines.
+    pub references: Vec<Reference>,
+    /// Keep zero inside the y range (for costs).
+    pub include_zero: bool,
+}
+
+/// Lines overlaid across policies (price or harvest paths).
+pub fn paths(title: &str, x_label: &str, y_label: &str, series: Vec<Series>) -> Plot {
+    Plot::Lines(LineChart {
+        titles: Titles {
+            title: title.into(),
+            subtitle: String::new(),
+        },
+        x_label: x_label.into(),
+        y_label: y_label.into(),
+        series,
+        references: Vec::new(),
+        include_zero: false,
+    })
+}
+
+/// Bars over periods for one series.
+#[derive(Debug, Clone, PartialEq)]
+pub struct BarChart {
+    /// Title and subtitle.
+    pub titles: Titles,
+    /// X axis label.
+    pub x_label: String,
+    /// Y axis label with unit.
+    pub y_label: String,
+    /// The series (its name goes in the legend).
+    pub series: Series,
+}
+
+/// Fiscal cost over time: bars when there is one policy, lines with a zero line for several.
+pub fn fiscal(title: &str, x_label: &str, y_label: &str, series: Vec<Series>) -> Plot {
+    let titles = Titles {
+        title: title.into(),
+        subtitle:
+            "cost to the treasury per period; below zero the agency earned more than it spent"
+                .into(),
+    };
+    if series.len() == 1 {
+        let s = series
+            .into_iter()
+            .next()
+            .unwrap_or_else(|| Series::periods("", &[]));
+        Plot::Bars(BarChart {
+            titles,
+            x_label: x_label.into(),
+            y_label: y_label.into(),
+            series: s,
+        })
+    } else {
+        Plot::Lines(LineChart {
+            titles,
+            x_label: x_label.into(),
+            y_label: y_label.into(),
+            series,
+            references: Vec::new(),
+            include_zero: true,
+        })
+    }
+}
+
+fn x_range(series: &[Series]) -> (f64, f64) {
+    let (lo, hi) = style::padded_range(
+        series.iter().flat_map(|s| s.points.iter().map(|p| p.0)),
+        0.0,
+    );
+    (lo, hi)
+}
+
+impl LineChart {
+    pub(crate) fn draw<DB: DrawingBackend>(
+        &self,
+        root: &DrawingArea<DB, Shift>,
+    ) -> Result<(), PlotError> {
+        let ys = self
+            .series
+            .iter()
+            .flat_map(|s| s.points.iter().map(|p| p.1));
+        if !ys.clone().any(f64::is_finite) {
+            return Err(PlotError::Empty(self.titles.title.clone()));
+        }
+        let mut legend: Vec<LegendEntry> = self
+            .series
+            .iter()
+            .enumerate()
+            .map(|(i, s)| LegendEntry {
+                name: s.name.clone(),
+                colour: style::series_colour(i),
+                key: LegendKey::Line,
+            })
+            .collect();
+        for r in &self.references {
+            legend.push(LegendEntry {
+                name: r.label.clone(),
+                colour: style::REFERENCE,
+                key: LegendKey::Dashed,
+            });
+        }
+        let body = frame(root, &self.titles, &legend)?;
+        let extra = self.references.iter().map(|r| r.value);
+        let zero = if self.include_zero { Some(0.0) } else { None };
+        let (y0, y1) = style::padded_range(ys.chain(extra).chain(zero), 0.06);
+        let (x0, x1) = x_range(&self.series);
+        let mut chart = builder(&body)
+            .build_cartesian_2d(x0..x1, y0..y1)
+            .map_err(de)?;
+        chart.plotting_area().fill(&style::FIELD).map_err(de)?;
+        mesh(&mut chart, &self.x_label, &self.y_label)?;
+        if self.include_zero {
+            chart
+                .draw_series(LineSeries::new(
+                    vec![(x0, 0.0), (x1, 0.0)],
+                    style::MUTED.stroke_width(1),
+                ))
+                .map_err(de)?;
+        }
+        for r in &self.references {
+            chart
+                .draw_series(DashedLineSeries::new(
+                    vec![(x0, r.value), (x1, r.value)],
+                    8,
+                    6,
+                    style::REFERENCE.stroke_width(1),
+                ))
+                .map_err(de)?;
+        }
+        let many_points = self
+            .series
+            .iter()
+            .map(|s| s.points.len())
+            .max()
+            .unwrap_or(0)
+            > 60;
+        // Many policies: thinner lines and no markers, so the overlaid paths stay apart.
+        let crowded = self.series.len() > 4;
+        let width = if crowded { 2 } else { 3 };
+        for (i, s) in self.series.iter().enumerate() {
+            let c = style::series_colour(i);
+            for run in finite_runs(&s.points) {
+                chart
+                    .draw_series(LineSeries::new(run.clone(), c.stroke_width(width)))
+                    .map_err(de)?;
+                if !many_points && !crowded {
+                    chart
+                        .draw_series(run.iter().map(|&p| Circle::new(p, 3, c.filled())))
+                        .map_err(de)?;
+                }
+            }
+        }
+        Ok(())
+    }
+}
+
+impl BarChart {
+    pub(crate) fn draw<DB: DrawingBackend>(
+        &self,
+        root: &DrawingArea<DB, Shift>,
+    ) -> Result<(), PlotError> {
+        let pts: Vec<(f64, f64)> = self
+            .series
+            .points
+            .iter()
+            .copied()
+            .filter(|p| p.0.is_finite() && p.1.is_finite())
+            .collect();
+        if pts.is_empty() {
+            return Err(PlotError::Empty(self.titles.title.clone()));
+        }
+        let cost = style::series_colour(2);
+        let gain = style::series_colour(3);
+        let mut legend = vec![LegendEntry {
+            name: format!("{}: cost", self.series.name),
+            colour: cost,
+            key: LegendKey::Bar,
+        }];
+        if pts.iter().any(|p| p.1 < 0.0) {
+            legend.push(LegendEntry {
+                name: "receipt (sales above cost)".into(),
+                colour: gain,
+                key: LegendKey::Bar,
+            });
+        }
+        let body = frame(root, &self.titles, &legend)?;
+        let (y0, y1) = style::padded_range(pts.iter().map(|p| p.1).chain(Some(0.0)), 0.06);
+        let (x0, x1) = style::padded_range(pts.iter().map(|p| p.0), 0.0);
+        let (x0, x1) = (x0 - 0.6, x1 + 0.6);
+        let mut chart = builder(&body)
+            .build_cartesian_2d(x0..x1, y0..y1)
+            .map_err(de)?;
+        chart.plotting_area().fill(&style::FIELD).map_err(de)?;
+        mesh(&mut chart, &self.x_label, &self.y_label)?;
+        let half = if pts.len() > 1 {
+            let step = (pts[pts.len() - 1].0 - pts[0].0).abs() / (pts.len() - 1) as f64;
+            (step * 0.38).max(1e-9)
+        } else {
+            0.4
+        };
+        chart
+            .draw_series(pts.iter().map(|&(x, y)| {
+                let c = if y >= 0.0 { cost } else { gain };
+                Rectangle::new([(x - half, 0.0), (x + half, y)], c.filled())
+            }))
+            .map_err(de)?;
+        chart
+            .draw_series(LineSeries::new(
+                vec![(x0, 0.0), (x1, 0.0)],
+                style::INK.stroke_width(1),
+            ))
+            .map_err(de)?;
+        Ok(())
+    }
+}

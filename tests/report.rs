@@ -1,0 +1,243 @@
+//! The HTML briefing: self-contained (no scripts, no external addresses), escaped, with the caution
+//! and the tables; rendered in headless Chromium when it is installed (required when CI is set).
+
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+use assert_cmd::cargo::CommandCargoExt;
+use furrow::output::TextTable;
+use furrow::report::{Briefing, Section};
+
+const MARKET: &str = "examples/veldmark.toml";
+const POLICIES: &[&str] = &["policies/support_purchase.toml", "policies/price_band.toml"];
+
+fn write_report(dir: &Path, market: &str, policies: &[&str]) -> (PathBuf, String) {
+    let out = dir.join("brief.html");
+    let mut cmd = Command::cargo_bin("furrow").unwrap();
+    cmd.arg("report")
+        .arg(market)
+        .args(policies)
+        .arg("--out")
+        .arg(&out);
+    let o = cmd.output().unwrap();
+    assert!(
+        o.status.success(),
+        "report failed: {}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    let html = std::fs::read_to_string(&out).unwrap();
+    (out, html)
+}
+
+/// No script, and no attribute pointing anywhere outside the page (common practice, no source).
+fn assert_self_contained(html: &str) {
+    let lower = html.to_lowercase();
+    assert!(!lower.contains("<script"), "page has a script");
+    for attr in ["src=", "href=", "url("] {
+        for (i, _) in lower.match_indices(attr) {
+            let rest = &lower[i + attr.len()..];
+            let rest = rest.trim_start_matches(['"', '\'', ' ']);
+            assert!(
+                !(rest.starts_with("http:")
+                    || rest.starts_with("https:")
+                    || rest.starts_with("//")),
+                "external reference near {}",
+                &html[i..(i + 80).min(html.len())]
+            );
+        }
+    }
+    assert!(
+        !lower.contains("http://") && !lower.contains("https://"),
+        "page holds an address"
+    );
+    assert!(!lower.contains("<link"), "page links a resource");
+}
+
+#[test]
+fn briefing_escapes_text_and_inlines_svg() {
+    let mut t = TextTable::new(&["policy", "value"]);
+    t.push(vec!["A <b>&</b> \"B\"".into(), "1.5".into()]);
+    let mut s = Section::new("Results & <more>");
+    s.table("caption <i>", t);
+    s.figure("fig <1>", "<?xml version=\"1.0\"?>\n<svg width=\"10\" height=\"10\" viewBox=\"0 0 10 10\" xmlns=\"http://www.w3.org/2000/svg\"><text>hi</text></svg>".into());
+    let b = Briefing {
+        title: "T <script>alert(1)</script>".into(),
+        subtitle: "sub".into(),
+        summary: vec!["one & two".into()],
+        caution: "Model results, not forecasts.".into(),
+        sections: vec![s],
+        provenance: vec![("seed".into(), "7".into())],
+    };
+    let html = b.to_html();
+    assert_self_contained(&html);
+    assert!(html.contains("T &lt;script&gt;alert(1)&lt;/script&gt;"));
+    assert!(html.contains("A &lt;b&gt;&amp;&lt;/b&gt; &quot;B&quot;"));
+    assert!(html.contains("Results &amp; &lt;more&gt;"));
+    assert!(html.contains("<td class=\"num\">1.5</td>"));
+    assert!(!html.contains("<?xml"));
+    assert!(html.contains("<svg role=\"img\" aria-label=\"fig &lt;1&gt;\""));
+    assert!(html.contains("Model results, not forecasts."));
+    assert_eq!(
+        html.matches("<table").count(),
+        2,
+        "results table and provenance"
+    );
+}
+
+#[test]
+fn report_verb_writes_a_self_contained_briefing() {
+    let dir = tempfile::tempdir().unwrap();
+    let (_, html) = write_report(dir.path(), MARKET, POLICIES);
+    assert_self_contained(&html);
+    assert!(html.contains("<table"));
+    assert!(html.contains("not forecasts"));
+    assert!(html.contains("Defer to official analysis"));
+    assert!(html.matches("<svg").count() >= 4, "plots inlined");
+    for p in POLICIES {
+        assert!(html.contains(p), "policy file {p} named");
+    }
+    assert!(html.contains("Support price 200, public purchase"));
+    assert!(html.contains(env!("CARGO_PKG_VERSION")));
+    // The provenance hashes agree with coreutils' sha256sum when it is present (FIPS 180-4 SHA-256).
+    if let Ok(o) = Command::new("sha256sum").arg(MARKET).output() {
+        let line = String::from_utf8_lossy(&o.stdout);
+        let hash = line.split_whitespace().next().unwrap_or("");
+        assert_eq!(hash.len(), 64);
+        assert!(
+            html.contains(hash),
+            "market hash {hash} not in the provenance"
+        );
+    }
+}
+
+#[test]
+fn report_needs_out_and_fails_cleanly_on_a_missing_policy() {
+    let o = Command::cargo_bin("furrow")
+        .unwrap()
+        .args(["report", MARKET, POLICIES[0]])
+        .output()
+        .unwrap();
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("--out"));
+    let dir = tempfile::tempdir().unwrap();
+    let o = Command::cargo_bin("furrow")
+        .unwrap()
+        .args(["report", MARKET, "policies/no_such_file.toml", "--out"])
+        .arg(dir.path().join("x.html"))
+        .output()
+        .unwrap();
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("no_such_file"));
+    assert!(!dir.path().join("x.html").exists());
+}
+
+fn chromium() -> Option<PathBuf> {
+    let p = PathBuf::from("/usr/bin/chromium");
+    if p.exists() {
+        return Some(p);
+    }
+    if std::env::var_os("CI").is_some() {
+        panic!("CI is set but /usr/bin/chromium is missing: install the Debian package `chromium`");
+    }
+    eprintln!("skipping the browser check: /usr/bin/chromium is not installed");
+    None
+}
+
+fn chromium_cmd(bin: &Path, profile: &Path) -> Command {
+    let mut c = Command::new(bin);
+    c.args([
+        "--headless",
+        "--no-sandbox",
+        "--disable-gpu",
+        "--disable-quic",
+        "--no-first-run",
+        "--disable-background-networking",
+        "--disable-component-update",
+        "--disable-sync",
+        "--hide-scrollbars",
+    ])
+    .arg(format!("--user-data-dir={}", profile.display()));
+    c
+}
+
+#[test]
+fn report_renders_in_headless_chromium() {
+    let Some(bin) = chromium() else { return };
+    let dir = tempfile::tempdir().unwrap();
+    let (page, _) = write_report(dir.path(), MARKET, POLICIES);
+    let url = format!("file://{}", page.canonicalize().unwrap().display());
+    let profile = tempfile::tempdir().unwrap();
+    let o = chromium_cmd(&bin, profile.path())
+        .arg("--dump-dom")
+        .arg(&url)
+        .output()
+        .unwrap();
+    assert!(
+        o.status.success(),
+        "chromium failed: {}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    let dom = String::from_utf8_lossy(&o.stdout);
+    assert!(dom.contains("<table"), "the loaded DOM has no tables");
+    assert!(
+        dom.matches("<table").count() >= 5,
+        "expected the assumption, policy, welfare, stability and provenance tables"
+    );
+    assert!(dom.contains("Caution."));
+    assert!(dom.contains("<svg"));
+    let shot = dir.path().join("shot.png");
+    let profile = tempfile::tempdir().unwrap();
+    let o = chromium_cmd(&bin, profile.path())
+        .arg("--window-size=1100,1400")
+        .arg(format!("--screenshot={}", shot.display()))
+        .arg(&url)
+        .output()
+        .unwrap();
+    assert!(
+        o.status.success(),
+        "chromium screenshot failed: {}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    let img = image::open(&shot).unwrap().to_rgb8();
+    let mut colours = std::collections::HashSet::new();
+    let mut dark = 0usize;
+    for p in img.pixels() {
+        colours.insert(p.0);
+        if p.0.iter().all(|&c| c < 100) {
+            dark += 1;
+        }
+    }
+    // A page with text, boxes and plots: many colours and plenty of dark text pixels.
+    assert!(
+        colours.len() > 200,
+        "screenshot looks blank ({} colours)",
+        colours.len()
+    );
+    assert!(
+        dark > 2000,
+        "screenshot shows little text ({dark} dark pixels)"
+    );
+}
+
+/// The market paragraph states the steady state of the linear Dunmere market: a + bP = c + dP gives
+/// P* = (a − c)/(d − b) = (300 + 40)/(1.1 + 1.25) = 144.68, Q* = 300 − 1.25 P* = 119.15 (the market
+/// equilibrium of Ezekiel 1938's cobweb model, worked by hand).
+#[test]
+fn report_states_the_steady_state_and_the_stability_verdict() {
+    let dir = tempfile::tempdir().unwrap();
+    let (_, html) = write_report(
+        dir.path(),
+        "examples/dunmere_cycle.toml",
+        &["policies/none.toml"],
+    );
+    assert!(
+        html.contains("steady state 119.1 kt at 144.7 crowns per t"),
+        "steady state missing"
+    );
+    // Naive expectations, linear curves: the eigenvalue is −b/d = −1.1/1.25 = −0.88 (Ezekiel 1938).
+    assert!(
+        html.contains("<td class=\"num\">0.880</td>"),
+        "spectral radius 0.880 missing"
+    );
+    assert!(html.contains(">stable<"));
+}
