@@ -12,5 +12,6 @@ pub mod report;
 pub mod scenario;
 pub mod stability;
 pub mod stochastic;
+pub mod storage;
 pub mod sweep;
 pub mod welfare;

@@ -1,15 +1,145 @@
-//! `furrow storage` (being built).
+//! `furrow storage MARKET [--policy POLICY]`: the competitive storage equilibrium with private storers
+//! (and the public stock rule when the policy holds one), printed on a grid of availability.
 
 use clap::Args;
+use furrow::output::{fmt_num, Format, TextTable};
+use furrow::storage::{self, SolveOptions, StoragePeriod, StorageReport};
+
+use super::common::{load_policy, say, CommonArgs};
 
 /// Arguments of `storage`.
 #[derive(Debug, Args)]
 pub struct StorageArgs {
-    /// Input files.
-    pub files: Vec<String>,
+    /// The market file (needs [storers] and rule = "rational").
+    pub market: String,
+    /// A policy file (default: no intervention).
+    #[arg(long)]
+    pub policy: Option<String>,
+    /// Points of the solution grid of private stock (with a public stock: per public-stock level,
+    /// default 150).
+    #[arg(long)]
+    pub grid: Option<usize>,
+    /// Points of the public-stock grid (only with a policy that holds stock).
+    #[arg(long, default_value_t = 16)]
+    pub public_grid: usize,
+    /// Gauss–Hermite nodes per shock.
+    #[arg(long, default_value_t = 10)]
+    pub nodes: usize,
+    /// Rows of the printed grid of availability.
+    #[arg(long, default_value_t = 21)]
+    pub rows: usize,
+    /// Print one simulated path with the solved rules instead of the grid (`run.periods` periods,
+    /// or --periods; the file's seed, or --seed).
+    #[arg(long)]
+    pub path: bool,
+    #[command(flatten)]
+    pub common: CommonArgs,
 }
 
 /// Runs `storage`.
-pub fn execute(_args: &StorageArgs) -> anyhow::Result<()> {
-    anyhow::bail!("the storage verb is not built yet")
+pub fn execute(args: &StorageArgs) -> anyhow::Result<()> {
+    let scenario = args.common.load_market(&args.market)?;
+    let policy = load_policy(args.policy.as_deref())?;
+    let d = SolveOptions::default();
+    let options = SolveOptions {
+        grid: args.grid.unwrap_or(d.grid),
+        grid_2d: args.grid.unwrap_or(d.grid_2d),
+        public_grid: args.public_grid,
+        nodes: args.nodes,
+        ..d
+    };
+    if args.path {
+        let solved = storage::SolvedStorage::new(&scenario, &policy)?;
+        let path = solved.path(0, scenario.run.periods);
+        return args.common.emit(&render_path(&path, args.common.format));
+    }
+    let report = storage::report(&scenario, &policy, &options, args.rows)?;
+    say(&format!(
+        "solved in {} iterations; largest Euler residual {:.2e}; private stocks are zero above {} {}",
+        report.iterations,
+        report.euler_residual_max,
+        fmt_num(report.stockout_price, 2),
+        scenario.market.price_unit
+    ));
+    args.common.emit(&render(&report, args.common.format))
+}
+
+/// Columns of `storage --path`.
+const PATH_COLUMNS: &[&str] = &[
+    "period",
+    "expected_price",
+    "planted",
+    "harvest",
+    "availability",
+    "price",
+    "producer_price",
+    "consumption",
+    "private_stock",
+    "purchases",
+    "releases",
+    "public_stock",
+];
+
+fn render_path(path: &[StoragePeriod], format: Format) -> String {
+    if format == Format::Json {
+        return serde_json::to_string_pretty(path).unwrap_or_default() + "\n";
+    }
+    let digits = if format == Format::Csv { 6 } else { 2 };
+    let mut t = TextTable::new(PATH_COLUMNS);
+    for r in path {
+        let f = |x: f64| fmt_num(x, digits);
+        t.push(vec![
+            r.period.to_string(),
+            f(r.expected_price),
+            f(r.planted),
+            f(r.harvest),
+            f(r.availability),
+            f(r.price),
+            f(r.producer_price),
+            f(r.consumption),
+            f(r.private_stock),
+            f(r.purchases),
+            f(r.releases),
+            f(r.public_stock),
+        ]);
+    }
+    t.render(format)
+}
+
+fn render(r: &StorageReport, format: Format) -> String {
+    if format == Format::Json {
+        return serde_json::to_string_pretty(r).unwrap_or_default() + "\n";
+    }
+    let public = r.grid.iter().any(|g| g.public_stock.is_some());
+    let mut headers = vec!["availability", "price", "private_stock", "planted"];
+    if public {
+        headers.insert(1, "public_stock");
+    }
+    let mut t = TextTable::new(&headers);
+    let digits = if format == Format::Csv { 6 } else { 2 };
+    for g in &r.grid {
+        let mut row = vec![
+            fmt_num(g.availability, digits),
+            fmt_num(g.price, digits),
+            fmt_num(g.private_stock, digits),
+            fmt_num(g.planted, digits),
+        ];
+        if public {
+            row.insert(1, fmt_num(g.public_stock.unwrap_or(0.0), digits));
+        }
+        t.push(row);
+    }
+    let mut out = String::new();
+    if format != Format::Csv {
+        out.push_str(&format!(
+            "{} — {}\nEuler residual max {:.2e}, iterations {}, stockout price {}\n",
+            r.market,
+            r.policy,
+            r.euler_residual_max,
+            r.iterations,
+            fmt_num(r.stockout_price, 2)
+        ));
+    }
+    out.push_str(&t.render(format));
+    out
 }

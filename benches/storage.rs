@@ -1,0 +1,45 @@
+//! Timing of the storage solvers: the one-state solve on 200 points to 1e-9 (target < 50 ms) and the
+//! two-state solve with a band reserve (target < 2 s).
+
+use criterion::{criterion_group, criterion_main, Criterion};
+use furrow::scenario::{load_market, parse_toml, policy_from_table};
+use furrow::storage::{self, public_solve, solve_private, SolveOptions, StorageMarket};
+
+fn bench(c: &mut Criterion) {
+    let s = load_market("examples/veldmark_storers.toml").expect("example market");
+    let o = SolveOptions::default();
+    let mut g = c.benchmark_group("storage");
+    g.sample_size(20);
+    g.bench_function("private_1d_200_points_tol_1e-9", |b| {
+        b.iter(|| {
+            let m = StorageMarket::new(&s, o.nodes).unwrap();
+            solve_private(m, &o).unwrap()
+        })
+    });
+    g.bench_function("private_1d_refined_to_1e-7_residual", |b| {
+        b.iter(|| {
+            let m = StorageMarket::new(&s, o.nodes).unwrap();
+            let sol = solve_private(m, &o).unwrap();
+            storage::solve::refine(sol, &o, storage::REFINE_TARGET, storage::REFINE_MAX_POINTS)
+                .unwrap()
+        })
+    });
+    let text = "[policy]\nname = \"band\"\n[stock]\nbuy_below = 195.0\nsell_above = 230.0\ncapacity = 60.0\nrelease = \"band\"\n";
+    let p = policy_from_table("band.toml", parse_toml("band.toml", text).unwrap()).unwrap();
+    let band = storage::band_of(&p).unwrap().unwrap();
+    g.bench_function("public_band_2d", |b| {
+        b.iter(|| {
+            let m = StorageMarket::new(&s, o.nodes).unwrap();
+            public_solve::solve_public(m, band, &o).unwrap()
+        })
+    });
+    g.finish();
+}
+
+criterion_group! {
+    name = benches;
+    // no plots: criterion's plot backend needs system fonts
+    config = Criterion::default().without_plots();
+    targets = bench
+}
+criterion_main!(benches);

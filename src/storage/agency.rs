@@ -1,0 +1,241 @@
+//! The agency's rule inside the storage equilibrium: given the state (availability z, public stock g
+//! carried in) and the price that would result from any end-of-period public stock G,
+//! pg(G) = P(y = z + g − G, G) (increasing in G), decide G the way the period engine's stock rules do
+//! (`src/policies/`): the band first (buy to `buy_below` until full, sell to `sell_above` until
+//! empty), then, inside the band, the target rule (trade speed·(target − g), never pushing the price
+//! past the band's middle) or the share rule (release share·g, never pushing the price below
+//! `buy_below`, unless the band bought).
+
+/// Release rule of the public stock.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Release {
+    /// Only the band.
+    Band,
+    /// Steer the stock toward `target` at `speed` inside the band.
+    Target { target: f64, speed: f64 },
+    /// Release `share` of the carried stock each period (rotation).
+    Share { share: f64 },
+}
+
+/// The agency's rule as the storage model sees it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Band {
+    /// Buys while the price would fall below this.
+    pub buy_below: f64,
+    /// Sells while the price would rise above this (∞: never sells).
+    pub sell_above: f64,
+    /// Store capacity (finite).
+    pub capacity: f64,
+    /// 1 − the agency's loss rate.
+    pub keep: f64,
+    /// What the agency does inside the band.
+    pub release: Release,
+}
+
+/// Regime of the market in a period.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Regime {
+    /// The agency does not trade.
+    Inside,
+    /// The agency buys at the lower band price.
+    Buying,
+    /// The store is full; the price is below the band.
+    Full,
+    /// The agency sells at the upper band price.
+    Selling,
+    /// The agency's stock is out; the price is above the band.
+    Empty,
+    /// Target rule trading inside the band.
+    Steering,
+    /// Share rule releasing inside the band.
+    Rotating,
+}
+
+/// How the end-of-period public stock is fixed.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Decision {
+    /// G is this value.
+    Stock(f64),
+    /// The price is held at `price`; G is the root of pg(G) = price in [lo, hi].
+    AtPrice { price: f64, lo: f64, hi: f64 },
+}
+
+/// The agency's decision, the price and dP/dz (0 where the price is held at a limit).
+#[inline]
+pub fn decide<F: Fn(f64) -> (f64, f64)>(
+    band: &Band,
+    g: f64,
+    pg: &F,
+) -> (f64, f64, Regime, Decision) {
+    let fixed = |gg: f64, regime: Regime| {
+        let (p, d) = pg(gg);
+        (p, d, regime, Decision::Stock(gg))
+    };
+    let held = |price: f64, lo: f64, hi: f64, regime: Regime| {
+        (price, 0.0, regime, Decision::AtPrice { price, lo, hi })
+    };
+    let (p, d) = pg(g);
+    let cap = band.capacity;
+    if p < band.buy_below {
+        let (pc, _) = pg(cap);
+        return if pc < band.buy_below {
+            fixed(cap, Regime::Full)
+        } else {
+            held(band.buy_below, g, cap, Regime::Buying)
+        };
+    }
+    match band.release {
+        Release::Band | Release::Target { .. } if p > band.sell_above => {
+            let (p0, _) = pg(0.0);
+            if p0 > band.sell_above {
+                fixed(0.0, Regime::Empty)
+            } else {
+                held(band.sell_above, 0.0, g, Regime::Selling)
+            }
+        }
+        Release::Band => (p, d, Regime::Inside, Decision::Stock(g)),
+        Release::Target { target, speed } => {
+            let middle = if band.sell_above.is_finite() {
+                0.5 * (band.buy_below + band.sell_above)
+            } else {
+                f64::INFINITY
+            };
+            let gap = speed * (target - g);
+            if gap > 0.0 && p < middle {
+                let to = (g + gap).min(cap);
+                if pg(to).0 <= middle {
+                    fixed(to, Regime::Steering)
+                } else {
+                    held(middle, g, to, Regime::Steering)
+                }
+            } else if gap < 0.0 && p > middle.min(band.sell_above) {
+                let limit = middle.min(band.sell_above);
+                let to = (g + gap).max(0.0);
+                if pg(to).0 >= limit {
+                    fixed(to, Regime::Steering)
+                } else {
+                    held(limit, to, g, Regime::Steering)
+                }
+            } else {
+                (p, d, Regime::Inside, Decision::Stock(g))
+            }
+        }
+        Release::Share { share } => {
+            let to = (1.0 - share) * g;
+            if p > band.sell_above {
+                let (p0, _) = pg(0.0);
+                if p0 > band.sell_above {
+                    return fixed(0.0, Regime::Empty);
+                }
+                if pg(to).0 >= band.sell_above {
+                    // the band's sale already releases at least the share
+                    return held(band.sell_above, 0.0, g, Regime::Selling);
+                }
+            }
+            if to >= g {
+                return (p, d, Regime::Inside, Decision::Stock(g));
+            }
+            if pg(to).0 >= band.buy_below {
+                fixed(to, Regime::Rotating)
+            } else {
+                held(band.buy_below, to, g, Regime::Rotating)
+            }
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    // A linear stand-in for pg: the price rises by `slope` per unit of public stock kept off the market.
+    fn pg_with(base: f64, slope: f64) -> impl Fn(f64) -> (f64, f64) {
+        move |gg: f64| (base + slope * gg, -1.0)
+    }
+
+    fn pg(base: f64) -> impl Fn(f64) -> (f64, f64) {
+        pg_with(base, 2.0)
+    }
+
+    fn band(release: Release) -> Band {
+        Band {
+            buy_below: 195.0,
+            sell_above: 230.0,
+            capacity: 60.0,
+            keep: 1.0,
+            release,
+        }
+    }
+
+    #[test]
+    fn band_rule_matches_its_definition() {
+        // INTERFACE.md: buy while the price would fall below buy_below (within capacity), sell while
+        // it would rise above sell_above (within stock).
+        let b = band(Release::Band);
+        let (p, _, r, d) = decide(&b, 10.0, &pg(150.0)); // pg(10) = 170 < 195: buy to 195 at G = 22.5
+        assert_eq!((p, r), (195.0, Regime::Buying));
+        assert_eq!(
+            d,
+            Decision::AtPrice {
+                price: 195.0,
+                lo: 10.0,
+                hi: 60.0
+            }
+        );
+        let (p, _, r, _) = decide(&b, 10.0, &pg(50.0)); // pg(60) = 170 < 195: store full
+        assert_eq!((p, r), (170.0, Regime::Full));
+        let (p, _, r, _) = decide(&b, 10.0, &pg(240.0)); // pg(0) = 240 > 230: stock out
+        assert_eq!((p, r), (240.0, Regime::Empty));
+        let (p, _, r, _) = decide(&b, 10.0, &pg(190.0)); // 210: inside
+        assert_eq!((p, r), (210.0, Regime::Inside));
+    }
+
+    #[test]
+    fn target_and_share_rules_trade_inside_the_band_within_their_limits() {
+        // Engine semantics (src/policies/stock_target.rs, stock_share.rs).
+        let t = band(Release::Target {
+            target: 40.0,
+            speed: 0.5,
+        });
+        // carried 10 (price 196, inside), gap 15 → G = 25: pg(25) = 211 ≤ middle 212.5, all of it
+        let (p, _, r, d) = decide(&t, 10.0, &pg_with(186.0, 1.0));
+        assert_eq!((p, r, d), (211.0, Regime::Steering, Decision::Stock(25.0)));
+        // steeper: pg(25) = 230 > 212.5, so it buys only until the price reaches the middle
+        let (p, _, _, d) = decide(&t, 10.0, &pg(180.0));
+        assert_eq!(p, 212.5);
+        assert_eq!(
+            d,
+            Decision::AtPrice {
+                price: 212.5,
+                lo: 10.0,
+                hi: 25.0
+            }
+        );
+        // above the target: sells toward it, not below the middle
+        let (p, _, _, d) = decide(&t, 50.0, &pg(120.0)); // pg(50) = 220, gap −5 → pg(45) = 210 < 212.5
+        assert_eq!(p, 212.5);
+        assert_eq!(
+            d,
+            Decision::AtPrice {
+                price: 212.5,
+                lo: 45.0,
+                hi: 50.0
+            }
+        );
+        let s = band(Release::Share { share: 0.25 });
+        // carried 40, release to 30 → pg(30) = 140 + 60 = 200 ≥ 195
+        let (p, _, r, d) = decide(&s, 40.0, &pg(140.0));
+        assert_eq!((p, r, d), (200.0, Regime::Rotating, Decision::Stock(30.0)));
+        // release would push the price below 195: held at 195
+        let (p, _, _, d) = decide(&s, 40.0, &pg(120.0));
+        assert_eq!(p, 195.0);
+        assert_eq!(
+            d,
+            Decision::AtPrice {
+                price: 195.0,
+                lo: 30.0,
+                hi: 40.0
+            }
+        );
+    }
+}

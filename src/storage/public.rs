@@ -1,0 +1,288 @@
+//! The storage equilibrium with a public buffer stock run on a price band, which private storers
+//! know. Two state variables: availability z (private stock carried in plus harvest, net of the demand
+//! shock) and the public stock carried in g (after losses).
+//!
+//! Within a period the agency buys at `buy_below` while the price would fall below it (up to the
+//! capacity) and sells at `sell_above` while it would rise above it (until its stock runs out); private
+//! storers arbitrage as in the one-state model. End-of-period quantities satisfy
+//! z + g = D(P) + x + G.
+//!
+//! Method: endogenous grid on end-of-period private stock x_j for each end-of-period public stock G_m
+//! of a grid on [0, capacity]. For fixed G the pairs (x_j + D(π_jm), π_jm), with
+//! π_jm = (1 − loss)/(1 + r)·E[P'(keep·x_j + h', keep_g·G_m)] − k, give the price as a function of
+//! what is left to consumers and private storers, y = z + g − G (one monotone cubic rule per G_m,
+//! linear in G between them). The price at any state then needs no root finding: the no-trade price
+//! P(y = z, G = g), and when it falls outside the band only the band price or, if the capacity (or the
+//! stock) runs out, P(z + g − cap, cap) (or P(z + g, 0)).
+
+use super::agency::decide;
+pub use super::agency::{Band, Decision, Regime, Release};
+use super::market::StorageMarket;
+use super::solve::{plant, PriceRule};
+
+/// The period's outcome at a state.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Cleared {
+    /// Market price.
+    pub price: f64,
+    /// dP/dz at fixed g.
+    pub slope: f64,
+    /// Public stock carried out.
+    pub public_stock: f64,
+    /// Private stock carried out.
+    pub private_stock: f64,
+    /// Regime.
+    pub regime: Regime,
+}
+
+/// The solved two-state equilibrium.
+#[derive(Debug, Clone)]
+pub struct PublicSolution {
+    /// The model.
+    pub market: StorageMarket,
+    /// The agency's rule.
+    pub band: Band,
+    /// End-of-period public stock grid G_m.
+    pub publics: Vec<f64>,
+    /// Price rule of y for each G_m.
+    pub rows: Vec<PriceRule>,
+    /// End-of-period private stock grid x_j.
+    pub stocks: Vec<f64>,
+    /// Planted q_jm, row-major by m.
+    pub planted: Vec<Vec<f64>>,
+    /// Iterations to convergence.
+    pub iterations: usize,
+    /// Last change of the rules (relative to P*).
+    pub change: f64,
+}
+
+/// The price when `y` is left to consumers and private storers and `g` is the end-of-period public
+/// stock: the rows of the grid blended linearly in G, aligned at their stockout points (so that the
+/// kink where private stocks start moves smoothly with G instead of being smeared over two places).
+pub(crate) fn row_price(
+    m: &StorageMarket,
+    publics: &[f64],
+    rows: &[PriceRule],
+    y: f64,
+    g: f64,
+) -> (f64, f64) {
+    let last = publics.len() - 1;
+    let k = publics.partition_point(|&v| v <= g).clamp(1, last) - 1;
+    let t = ((g - publics[k]) / (publics[k + 1] - publics[k])).clamp(0.0, 1.0);
+    let (a, b) = (&rows[k], &rows[k + 1]);
+    if t == 0.0 {
+        return a.eval(m, y);
+    }
+    match (&a.spline, &b.spline) {
+        (Some(sa), Some(sb)) => {
+            let p0 = (1.0 - t) * sa.values()[0] + t * sb.values()[0];
+            let kink = m.demand.quantity(p0);
+            if y <= kink {
+                return m.inverse_demand(y);
+            }
+            let s = y - kink;
+            let (pa, da) = a.eval(m, a.kink + s);
+            let (pb, db) = b.eval(m, b.kink + s);
+            ((1.0 - t) * pa + t * pb, (1.0 - t) * da + t * db)
+        }
+        _ => {
+            let (p0, d0) = a.eval(m, y);
+            let (p1, d1) = b.eval(m, y);
+            ((1.0 - t) * p0 + t * p1, (1.0 - t) * d0 + t * d1)
+        }
+    }
+}
+
+/// Price, slope and regime at state (z, g) under the rows, with the agency's decision (no root
+/// finding; see the module notes and [`super::agency`]).
+#[inline]
+pub(crate) fn state_decision(
+    m: &StorageMarket,
+    band: &Band,
+    publics: &[f64],
+    rows: &[PriceRule],
+    z: f64,
+    g: f64,
+) -> (f64, f64, Regime, Decision) {
+    let w = z + g;
+    decide(band, g, &|gg: f64| row_price(m, publics, rows, w - gg, gg))
+}
+
+/// Price, slope and regime at state (z, g).
+#[inline]
+pub(crate) fn state_price(
+    m: &StorageMarket,
+    band: &Band,
+    publics: &[f64],
+    rows: &[PriceRule],
+    z: f64,
+    g: f64,
+) -> (f64, f64, Regime) {
+    let (p, d, r, _) = state_decision(m, band, publics, rows, z, g);
+    (p, d, r)
+}
+
+impl PublicSolution {
+    /// The period's outcome at availability `z` with public stock `g` carried in.
+    pub fn clear(&self, z: f64, g: f64) -> Cleared {
+        let m = &self.market;
+        let (price, slope, regime, decision) =
+            state_decision(m, &self.band, &self.publics, &self.rows, z, g);
+        let w = z + g;
+        let public_stock = match decision {
+            Decision::Stock(gg) => gg,
+            Decision::AtPrice { price, lo, hi } => {
+                let f = |gg: f64| row_price(m, &self.publics, &self.rows, w - gg, gg).0 - price;
+                crate::numeric::brent(f, lo, hi, 1e-12 * m.q_star.max(1.0))
+                    .unwrap_or(0.5 * (lo + hi))
+            }
+        };
+        let private_stock = (w - public_stock - m.demand.quantity(price)).max(0.0);
+        Cleared {
+            price,
+            slope,
+            public_stock,
+            private_stock,
+            regime,
+        }
+    }
+
+    /// Planted quantity when `x` private and `public` public units are carried out of the period.
+    pub fn planted_at(&self, x: f64, public: f64) -> f64 {
+        let mi = self
+            .publics
+            .partition_point(|&v| v <= public)
+            .clamp(1, self.publics.len())
+            - 1;
+        let j = self
+            .stocks
+            .partition_point(|&v| v <= x)
+            .clamp(1, self.stocks.len())
+            - 1;
+        let m = &self.market;
+        let gn = self.band.keep * public;
+        plant(m, m.keep * x, self.planted[mi][j], &|z| {
+            let (p, d, _) = state_price(m, &self.band, &self.publics, &self.rows, z, gn);
+            (p, d)
+        })
+        .0
+    }
+
+    /// Planting on the grid point nearest below (`x`, `public`): a starting guess.
+    pub fn planted_guess(&self, x: f64, public: f64) -> f64 {
+        let mi = self
+            .publics
+            .partition_point(|&v| v <= public)
+            .clamp(1, self.publics.len())
+            - 1;
+        let j = self
+            .stocks
+            .partition_point(|&v| v <= x)
+            .clamp(1, self.stocks.len())
+            - 1;
+        self.planted[mi][j]
+    }
+
+    /// Expected next price when `x` private and `public` public units are carried out, with planting
+    /// `q`.
+    pub fn expected_next(&self, x: f64, public: f64, q: f64) -> f64 {
+        let m = &self.market;
+        let gn = self.band.keep * public;
+        super::solve::expected_next(m, m.keep * x, q, &|z| {
+            let (p, d, _) = state_price(m, &self.band, &self.publics, &self.rows, z, gn);
+            (p, d)
+        })
+        .0
+    }
+
+    /// Expected producer price farmers plant on (see [`super::solve::expected_producer`]).
+    pub fn expected_producer(&self, x: f64, public: f64, q: f64) -> f64 {
+        let m = &self.market;
+        let gn = self.band.keep * public;
+        super::solve::expected_producer(m, m.keep * x, q, &|z| {
+            let (p, d, _) = state_price(m, &self.band, &self.publics, &self.rows, z, gn);
+            (p, d)
+        })
+        .0
+    }
+
+    /// The stockout price (above it private storers hold nothing) when the agency holds `public`.
+    pub fn stockout_price(&self, public: f64) -> f64 {
+        let m = &self.market;
+        // the row's price at y = its kink, interpolated in G
+        let mi = self
+            .publics
+            .partition_point(|&v| v <= public)
+            .clamp(1, self.publics.len() - 1)
+            - 1;
+        let t = ((public - self.publics[mi]) / (self.publics[mi + 1] - self.publics[mi]))
+            .clamp(0.0, 1.0);
+        let at = |r: &PriceRule| r.spline.as_ref().map(|s| s.values()[0]).unwrap_or(0.0);
+        let _ = m;
+        (1.0 - t) * at(&self.rows[mi]) + t * at(&self.rows[mi + 1])
+    }
+
+    /// The arbitrage residual at state (z, g), relative to the price (as in the one-state model).
+    pub fn euler_residual(&self, z: f64, g: f64) -> f64 {
+        let m = &self.market;
+        let c = self.clear(z, g);
+        if c.price <= 0.0 {
+            return 0.0;
+        }
+        let q = self.planted_at(c.private_stock, c.public_stock);
+        let psi = self.expected_next(c.private_stock, c.public_stock, q);
+        let r = (m.discount * psi - m.cost) / c.price - 1.0;
+        if c.private_stock > 1e-9 * m.q_star {
+            r.abs()
+        } else {
+            r.max(0.0)
+        }
+    }
+}
+
+impl PublicSolution {
+    /// The availability range reported and checked: the harvest at ±3 sd of the shocks around the
+    /// steady state, widened above by a quarter for carried stock.
+    pub fn range(&self) -> (f64, f64) {
+        let m = &self.market;
+        let (lo, hi) = m.harvest_range(m.q_star);
+        if hi - lo < 0.05 * m.q_star {
+            return (0.9 * m.q_star, 1.2 * m.q_star);
+        }
+        (lo, hi + 0.25 * (hi - lo))
+    }
+
+    /// The arbitrage residual at end-of-period public stock `public` when `y` is left to consumers and
+    /// private storers (the row rule's own residual, used to refine the grids).
+    pub fn end_residual(&self, y: f64, public: f64) -> f64 {
+        let m = &self.market;
+        let (price, _) = row_price(m, &self.publics, &self.rows, y, public);
+        if price <= 0.0 {
+            return 0.0;
+        }
+        let x = (y - m.demand.quantity(price)).max(0.0);
+        let q = self.planted_at(x, public);
+        let psi = self.expected_next(x, public, q);
+        let r = (m.discount * psi - m.cost) / price - 1.0;
+        if x > 1e-9 * m.q_star {
+            r.abs()
+        } else {
+            r.max(0.0)
+        }
+    }
+
+    /// Largest arbitrage residual on `nz` availabilities × `ng` public stocks carried in.
+    pub fn euler_residual_max(&self, nz: usize, ng: usize) -> f64 {
+        let (lo, hi) = self.range();
+        let (nz, ng) = (nz.max(2), ng.max(2));
+        let mut worst = 0.0_f64;
+        for l in 0..ng {
+            let g = self.band.keep * self.band.capacity * l as f64 / (ng - 1) as f64;
+            for i in 0..nz {
+                let z = lo + (hi - lo) * i as f64 / (nz - 1) as f64;
+                worst = worst.max(self.euler_residual(z, g));
+            }
+        }
+        worst
+    }
+}

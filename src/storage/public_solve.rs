@@ -1,0 +1,218 @@
+//! Solving the two-state (public band stock) equilibrium: endogenous-grid iteration on a grid of
+//! end-of-period private stock × public stock, and residual-driven refinement of both grids.
+
+use super::interp::Monotone;
+use super::market::StorageMarket;
+use super::public::{state_price, Band, PublicSolution};
+use super::solve::{plant, PriceRule, SolveOptions};
+use super::StorageError;
+
+/// Solves the two-state equilibrium on `o.grid_2d` private-stock points × `o.public_grid`
+/// public-stock points (no refinement).
+pub fn solve_public(
+    m: StorageMarket,
+    band: Band,
+    o: &SolveOptions,
+) -> Result<PublicSolution, StorageError> {
+    let n = o.grid_2d.max(8);
+    let mm = o.public_grid.max(2);
+    let x_max = if m.harvest_sd > 0.0 {
+        (10.0 * m.harvest_sd).min(m.q_star)
+    } else {
+        0.1 * m.q_star
+    };
+    let stocks: Vec<f64> = (0..n)
+        .map(|j| x_max * (j as f64 / (n - 1) as f64).powi(2))
+        .collect();
+    let publics: Vec<f64> = (0..mm)
+        .map(|i| band.capacity * i as f64 / (mm - 1) as f64)
+        .collect();
+    let planted = vec![vec![m.q_star; n]; mm];
+    let start = (publics.clone(), vec![PriceRule::no_storage(); mm]);
+    iterate(m, band, stocks, publics, planted, start, o)
+}
+
+/// Refines a two-state solution: halves every private-stock interval where some row's residual at
+/// its quarter points exceeds `target`, and every public-stock interval where the residual at its
+/// midpoint does, then solves again from the current rules; stops when nothing is too coarse or the
+/// grids would pass `max_stocks` × `max_publics` points.
+pub fn refine_public(
+    mut sol: PublicSolution,
+    o: &SolveOptions,
+    target: f64,
+    max_stocks: usize,
+    max_publics: usize,
+) -> Result<PublicSolution, StorageError> {
+    let mut total = sol.iterations;
+    for _ in 0..12 {
+        let nx = sol.stocks.len();
+        let mut split_x = vec![false; nx - 1];
+        let mut split_g = vec![false; sol.publics.len() - 1];
+        let m = &sol.market;
+        for (mi, &g) in sol.publics.iter().enumerate() {
+            // y at the knots of this row: y_j = x_j + D(π_jm)
+            let ys: Vec<f64> = match &sol.rows[mi].spline {
+                Some(s) => s.knots().to_vec(),
+                None => continue,
+            };
+            for j in 0..ys.len() - 1 {
+                let worst = [0.25, 0.5, 0.75]
+                    .iter()
+                    .map(|f| sol.end_residual(ys[j] + f * (ys[j + 1] - ys[j]), g))
+                    .fold(0.0, f64::max);
+                if worst > target {
+                    split_x[j] = true;
+                }
+                if mi + 1 < sol.publics.len() && !split_g[mi] {
+                    let gm = 0.5 * (g + sol.publics[mi + 1]);
+                    if sol.end_residual(0.5 * (ys[j] + ys[j + 1]), gm) > target {
+                        split_g[mi] = true;
+                    }
+                }
+            }
+            let _ = m;
+        }
+        let add_x = split_x.iter().filter(|&&b| b).count();
+        let add_g = split_g.iter().filter(|&&b| b).count();
+        if add_x + add_g == 0 {
+            break;
+        }
+        let add_x = if nx + add_x > max_stocks { 0 } else { add_x };
+        let add_g = if sol.publics.len() + add_g > max_publics {
+            0
+        } else {
+            add_g
+        };
+        if add_x + add_g == 0 {
+            break;
+        }
+        let stocks = if add_x > 0 {
+            halve(&sol.stocks, &split_x)
+        } else {
+            sol.stocks.clone()
+        };
+        let publics = if add_g > 0 {
+            halve(&sol.publics, &split_g)
+        } else {
+            sol.publics.clone()
+        };
+        let planted: Vec<Vec<f64>> = publics
+            .iter()
+            .map(|&g| stocks.iter().map(|&x| sol.planted_guess(x, g)).collect())
+            .collect();
+        let start = (sol.publics.clone(), sol.rows.clone());
+        sol = iterate(
+            sol.market.clone(),
+            sol.band,
+            stocks,
+            publics,
+            planted,
+            start,
+            o,
+        )?;
+        total += sol.iterations;
+        sol.iterations = total;
+    }
+    Ok(sol)
+}
+
+/// `v` with the midpoint of every interval whose flag is set inserted.
+fn halve(v: &[f64], split: &[bool]) -> Vec<f64> {
+    let mut out = Vec::with_capacity(v.len() * 2);
+    for j in 0..v.len() {
+        out.push(v[j]);
+        if j + 1 < v.len() && split[j] {
+            out.push(0.5 * (v[j] + v[j + 1]));
+        }
+    }
+    out
+}
+
+/// Endogenous-grid iteration to the tolerance; the first expectation uses the rules `start` (on their
+/// own public-stock grid).
+fn iterate(
+    m: StorageMarket,
+    band: Band,
+    stocks: Vec<f64>,
+    publics: Vec<f64>,
+    mut planted: Vec<Vec<f64>>,
+    start: (Vec<f64>, Vec<PriceRule>),
+    o: &SolveOptions,
+) -> Result<PublicSolution, StorageError> {
+    let n = stocks.len();
+    let mm = publics.len();
+    let (mut prev_publics, mut rows) = start;
+    let mut old: Vec<Vec<f64>> = vec![Vec::new(); mm];
+    let mut change = f64::INFINITY;
+    for it in 1..=o.max_iterations {
+        let mut new_rows = Vec::with_capacity(mm);
+        let mut worst = 0.0_f64;
+        for (mi, &gm) in publics.iter().enumerate() {
+            let gn = band.keep * gm;
+            let next = |z: f64| {
+                let (p, d, _) = state_price(&m, &band, &prev_publics, &rows, z, gn);
+                (p, d)
+            };
+            let (mut ys, mut ps) = (Vec::with_capacity(n), Vec::with_capacity(n));
+            let mut raw = vec![f64::NAN; n];
+            for (j, &x) in stocks.iter().enumerate() {
+                let (q, psi) = plant(&m, m.keep * x, planted[mi][j], &next);
+                planted[mi][j] = q;
+                let p = m.discount * psi - m.cost;
+                if p <= 0.0 {
+                    break;
+                }
+                raw[j] = p;
+                // a rule with price jumps can make E[P'] rise locally with x; such points are left
+                // out of the rule (its decreasing envelope) but still count for convergence
+                if ps.last().is_some_and(|&last| p > last) {
+                    continue;
+                }
+                ys.push(x + m.demand.quantity(p));
+                ps.push(p);
+            }
+            let row_change = if it == 1 {
+                f64::INFINITY
+            } else {
+                raw.iter()
+                    .zip(&old[mi])
+                    .map(|(a, b)| match (a.is_nan(), b.is_nan()) {
+                        (true, true) => 0.0,
+                        (false, false) => (a - b).abs(),
+                        _ => f64::INFINITY,
+                    })
+                    .fold(0.0, f64::max)
+                    / m.p_star
+            };
+            worst = worst.max(row_change);
+            new_rows.push(if ps.len() >= 2 {
+                PriceRule {
+                    kink: ys[0],
+                    spline: Some(Monotone::new(ys, ps)),
+                }
+            } else {
+                PriceRule::no_storage()
+            });
+            old[mi] = raw;
+        }
+        rows = new_rows;
+        prev_publics.clone_from(&publics);
+        change = worst;
+        if change < o.tolerance {
+            return Ok(PublicSolution {
+                market: m,
+                band,
+                publics,
+                rows,
+                stocks,
+                planted,
+                iterations: it,
+                change,
+            });
+        }
+    }
+    Err(StorageError::NotConverged {
+        iterations: o.max_iterations,
+        change,
+    })
+}

@@ -1,0 +1,129 @@
+//! Simulated storage periods as the period engine's records, so that `run` and `compare` can show a
+//! market with private storers with their usual columns and welfare accounting (INTERFACE.md,
+//! "Order within a period" and "Welfare"): fiscal cost = P·X − P·R + storage + financing + handling +
+//! deficiency payments; consumer surplus at P with the period's demand shock; producer surplus =
+//! producer price × harvest − cost of the planted quantity.
+
+use super::agency::Regime;
+use super::simulate::StoragePeriod;
+use crate::engine::PeriodRecord;
+use crate::policies::flags;
+use crate::scenario::{FloorInstrument, PolicySpec, Scenario};
+
+/// The engine's record of each simulated storage period under `policy`.
+pub fn to_records(
+    scenario: &Scenario,
+    policy: &PolicySpec,
+    path: &[StoragePeriod],
+) -> Vec<PeriodRecord> {
+    let demand = &scenario.market.demand;
+    let supply = &scenario.market.supply;
+    let (storage_rate, financing_rate, handling_rate) = policy.stock.map_or((0.0, 0.0, 0.0), |s| {
+        (s.storage_cost, s.financing_rate, s.handling_cost)
+    });
+    let floor_purchase = policy
+        .floor
+        .is_some_and(|f| f.instrument == FloorInstrument::Purchase);
+    path.iter()
+        .map(|r| {
+            let purchase_cost = r.price * r.purchases;
+            let sales_revenue = r.price * r.releases;
+            let storage_cost = storage_rate * r.public_stock;
+            let financing_cost = financing_rate * r.price * r.public_stock;
+            let handling_cost = handling_rate * (r.purchases + r.releases);
+            let mut bits = match r.regime {
+                Regime::Buying if floor_purchase => flags::FLOOR_BUY,
+                Regime::Buying => flags::BAND_BUY,
+                Regime::Full if r.purchases > 0.0 => flags::CAPACITY_FULL | flags::BAND_BUY,
+                Regime::Full => flags::CAPACITY_FULL,
+                Regime::Selling => flags::BAND_SELL,
+                Regime::Empty if r.releases > 0.0 => flags::STOCK_OUT | flags::BAND_SELL,
+                Regime::Empty => flags::STOCK_OUT,
+                Regime::Rotating => flags::ROTATION,
+                Regime::Steering => flags::TARGET,
+                Regime::Inside => 0,
+            };
+            if r.deficiency_payments > 0.0 {
+                bits |= flags::DEFICIENCY;
+            }
+            PeriodRecord {
+                period: r.period,
+                expected_price: r.expected_price,
+                planted: r.planted,
+                harvest: r.harvest,
+                price: r.price,
+                producer_price: r.producer_price,
+                consumption: r.consumption,
+                purchases: r.purchases,
+                releases: r.releases,
+                stock: r.public_stock,
+                fiscal_cost: purchase_cost - sales_revenue
+                    + storage_cost
+                    + financing_cost
+                    + handling_cost
+                    + r.deficiency_payments,
+                consumer_surplus: demand.consumer_surplus(r.price, r.demand_shock),
+                producer_surplus: r.producer_price * r.harvest - supply.production_cost(r.planted),
+                purchase_cost,
+                sales_revenue,
+                storage_cost,
+                financing_cost,
+                handling_cost,
+                deficiency_payments: r.deficiency_payments,
+                flags: bits,
+                stockout: r.stockout,
+            }
+        })
+        .collect()
+}
+
+/// A market's storage equilibrium under one policy, solved once and simulated for as many
+/// replications as needed (each on its own random stream, as everywhere in furrow).
+#[derive(Debug, Clone)]
+pub struct SolvedStorage {
+    /// The solved equilibrium.
+    pub equilibrium: super::simulate::Equilibrium,
+    scenario: Scenario,
+    policy: PolicySpec,
+    initial_public: f64,
+}
+
+impl SolvedStorage {
+    /// Solves the equilibrium of `scenario` under `policy` with the default numerical settings.
+    pub fn new(scenario: &Scenario, policy: &PolicySpec) -> Result<Self, super::StorageError> {
+        let equilibrium = super::solve(scenario, policy, &super::SolveOptions::default())?;
+        let initial_public = if super::band_of(policy)?.is_some() {
+            policy.stock.map_or(0.0, |s| s.initial)
+        } else {
+            0.0
+        };
+        Ok(SolvedStorage {
+            equilibrium,
+            scenario: scenario.clone(),
+            policy: policy.clone(),
+            initial_public,
+        })
+    }
+
+    /// `periods` periods of replication `replication` (the market file's seed), starting with no
+    /// private stock and the policy's initial public stock.
+    pub fn path(&self, replication: u64, periods: usize) -> Vec<StoragePeriod> {
+        super::simulate(
+            &self.equilibrium,
+            &self.scenario.shocks,
+            self.scenario.run.seed,
+            replication,
+            self.initial_public,
+            periods,
+        )
+    }
+
+    /// The same periods as the period engine's records.
+    pub fn records(&self, replication: u64, periods: usize) -> Vec<PeriodRecord> {
+        to_records(
+            &self.scenario,
+            &self.policy,
+            &self.path(replication, periods),
+        )
+    }
+}

@@ -1,0 +1,265 @@
+//! Simulating the market under a solved storage equilibrium, and the indicators `compare` shows:
+//! mean private and public stocks and the crowding-out of private by public storage.
+//!
+//! A path starts with no private stock and the agency's initial stock; period by period the shocks
+//! come from [`ShockStream`] (one stream per replication, fixed seed), availability is the private stock
+//! carried in (after losses) plus the harvest, and the solved rules give the price, both stocks and
+//! next season's planting.
+
+use serde::Serialize;
+
+use super::public::{PublicSolution, Regime};
+use super::solve::PrivateSolution;
+use super::StorageMarket;
+use crate::scenario::ShockSpec;
+use crate::stochastic::ShockStream;
+
+/// A solved storage equilibrium, with or without a public stock.
+#[derive(Debug, Clone)]
+pub enum Equilibrium {
+    /// Private storers only.
+    Private(PrivateSolution),
+    /// Private storers and a public band stock.
+    Public(PublicSolution),
+}
+
+/// One period's outcome under the equilibrium rules.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Outcome {
+    /// Market price.
+    pub price: f64,
+    /// Private stock carried out.
+    pub private_stock: f64,
+    /// Public stock carried out.
+    pub public_stock: f64,
+    /// Agency regime (always `Inside` without a public stock).
+    pub regime: Regime,
+}
+
+impl Equilibrium {
+    /// The model.
+    pub fn market(&self) -> &StorageMarket {
+        match self {
+            Equilibrium::Private(s) => &s.market,
+            Equilibrium::Public(s) => &s.market,
+        }
+    }
+
+    /// Share of public stock kept from one period to the next.
+    pub fn public_keep(&self) -> f64 {
+        match self {
+            Equilibrium::Private(_) => 1.0,
+            Equilibrium::Public(s) => s.band.keep,
+        }
+    }
+
+    /// Iterations the solve took.
+    pub fn iterations(&self) -> usize {
+        match self {
+            Equilibrium::Private(s) => s.iterations,
+            Equilibrium::Public(s) => s.iterations,
+        }
+    }
+
+    /// Largest arbitrage residual on the default test grid.
+    pub fn euler_residual_max(&self) -> f64 {
+        match self {
+            Equilibrium::Private(s) => s.euler_residual_max(2001),
+            Equilibrium::Public(s) => s.euler_residual_max(201, 9),
+        }
+    }
+
+    /// The period at net availability `z` (availability minus the demand shock) with public stock `g`
+    /// carried in.
+    pub fn outcome(&self, z: f64, g: f64) -> Outcome {
+        match self {
+            Equilibrium::Private(s) => Outcome {
+                price: s.rule.price(&s.market, z),
+                private_stock: s.rule.stock(&s.market, z),
+                public_stock: 0.0,
+                regime: Regime::Inside,
+            },
+            Equilibrium::Public(s) => {
+                let c = s.clear(z, g);
+                Outcome {
+                    price: c.price,
+                    private_stock: c.private_stock,
+                    public_stock: c.public_stock,
+                    regime: c.regime,
+                }
+            }
+        }
+    }
+
+    /// Expected producer price farmers plant on when `x` private and `public` public units are
+    /// carried out and `q` is planted.
+    pub fn expected_producer_price(&self, x: f64, public: f64, q: f64) -> f64 {
+        let m = self.market();
+        match self {
+            Equilibrium::Private(s) => {
+                super::solve::expected_producer(m, m.keep * x, q, &|z| s.rule.eval(m, z)).0
+            }
+            Equilibrium::Public(s) => s.expected_producer(x, public, q),
+        }
+    }
+
+    /// Planting for next season when `x` private and `public` public units are carried out.
+    pub fn planted_at(&self, x: f64, public: f64) -> f64 {
+        match self {
+            Equilibrium::Private(s) => s.planted_at(x),
+            Equilibrium::Public(s) => s.planted_at(x, public),
+        }
+    }
+}
+
+/// One simulated period.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct StoragePeriod {
+    /// Period t = 1..T.
+    pub period: usize,
+    /// The producer price farmers expected when they planted (rational expectation).
+    pub expected_price: f64,
+    /// Planted for this period's harvest (last period's decision).
+    pub planted: f64,
+    /// Harvest.
+    pub harvest: f64,
+    /// Private stock carried in (after losses) plus the harvest.
+    pub availability: f64,
+    /// Market price.
+    pub price: f64,
+    /// Price farmers receive: the market price, or the deficiency-payment floor when higher.
+    pub producer_price: f64,
+    /// Deficiency payments: (floor − P)·harvest when the price is below the floor.
+    pub deficiency_payments: f64,
+    /// Consumption.
+    pub consumption: f64,
+    /// Private stock carried out.
+    pub private_stock: f64,
+    /// Agency purchases.
+    pub purchases: f64,
+    /// Agency releases.
+    pub releases: f64,
+    /// Public stock carried out.
+    pub public_stock: f64,
+    /// The price was above the band's selling price while the agency had nothing left to sell.
+    pub stockout: bool,
+    /// Additive demand shock of the period (quantity units).
+    pub demand_shock: f64,
+    /// What the agency did.
+    #[serde(skip)]
+    pub regime: Regime,
+}
+
+/// Simulates `periods` periods of replication `replication` under `seed`, starting with no private
+/// stock and `initial_public` public stock held before period 1.
+pub fn simulate(
+    eq: &Equilibrium,
+    shocks: &ShockSpec,
+    seed: u64,
+    replication: u64,
+    initial_public: f64,
+    periods: usize,
+) -> Vec<StoragePeriod> {
+    let m = eq.market();
+    let mut stream = ShockStream::new(shocks, seed, replication);
+    let mut x = 0.0;
+    let mut public = initial_public;
+    let mut planted = eq.planted_at(0.0, public);
+    let mut expected = eq.expected_producer_price(0.0, public, planted);
+    let mut out = Vec::with_capacity(periods);
+    for t in 1..=periods {
+        let s = stream.next_shock();
+        let harvest = (planted * s.yield_factor + s.supply).max(0.0);
+        let availability = m.keep * x + harvest;
+        let g = eq.public_keep() * public;
+        let o = eq.outcome(availability - s.demand, g);
+        let trade = o.public_stock - g;
+        let consumption = (availability + g - o.public_stock - o.private_stock).max(0.0);
+        x = o.private_stock;
+        public = o.public_stock;
+        let (planted_now, expected_now) = (planted, expected);
+        planted = eq.planted_at(x, public);
+        expected = eq.expected_producer_price(x, public, planted);
+        let gap = (m.payment_floor - o.price).max(0.0);
+        out.push(StoragePeriod {
+            period: t,
+            expected_price: expected_now,
+            planted: planted_now,
+            harvest,
+            availability,
+            price: o.price,
+            producer_price: o.price + gap,
+            deficiency_payments: gap * harvest,
+            consumption,
+            private_stock: x,
+            purchases: trade.max(0.0),
+            releases: (-trade).max(0.0),
+            public_stock: public,
+            stockout: o.regime == Regime::Empty,
+            demand_shock: s.demand,
+            regime: o.regime,
+        });
+    }
+    out
+}
+
+/// Long-run indicators of the market under a storage equilibrium.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct StorageIndicators {
+    /// Mean price.
+    pub mean_price: f64,
+    /// Standard deviation of the price.
+    pub price_sd: f64,
+    /// sd / mean.
+    pub price_cv: f64,
+    /// Mean harvest.
+    pub mean_harvest: f64,
+    /// Mean producer price (with deficiency payments).
+    pub mean_producer_price: f64,
+    /// Mean deficiency payments per period.
+    pub deficiency_payments_mean: f64,
+    /// Mean private stock carried out.
+    pub private_stock_mean: f64,
+    /// Mean public stock carried out.
+    pub public_stock_mean: f64,
+    /// Mean private stock of the same market without the policy (same shocks).
+    pub private_stock_mean_without_policy: f64,
+    /// (mean private stock without the policy − with it) / mean public stock with it; `None` when
+    /// the agency holds (almost) nothing.
+    pub crowding_out: Option<f64>,
+    /// Share of periods with no private stock carried out.
+    pub private_stockout_share: f64,
+    /// Share of periods with the price above the selling price and the agency's stock out.
+    pub stockout_share: f64,
+    /// Largest arbitrage residual of the policy's equilibrium.
+    pub euler_residual_max: f64,
+    /// Iterations of the policy's equilibrium.
+    pub iterations: usize,
+    /// Periods averaged (after the burn-in).
+    pub periods: usize,
+}
+
+/// Periods dropped at the start of the indicator simulation.
+pub const BURN_IN: usize = 200;
+/// Periods averaged for the indicators.
+pub const INDICATOR_PERIODS: usize = 10_000;
+
+/// Means over one long path after the burn-in: (mean price, sd, mean harvest, private, public,
+/// private stockout share, public stockout share, mean producer price, mean deficiency payments).
+pub(crate) fn moments(path: &[StoragePeriod]) -> [f64; 9] {
+    let n = path.len().max(1) as f64;
+    let mean = |f: &dyn Fn(&StoragePeriod) -> f64| path.iter().map(f).sum::<f64>() / n;
+    let mp = mean(&|r| r.price);
+    let var = path.iter().map(|r| (r.price - mp).powi(2)).sum::<f64>() / (n - 1.0).max(1.0);
+    [
+        mp,
+        var.sqrt(),
+        mean(&|r| r.harvest),
+        mean(&|r| r.private_stock),
+        mean(&|r| r.public_stock),
+        mean(&|r| f64::from(u8::from(r.private_stock <= 1e-9))),
+        mean(&|r| f64::from(u8::from(r.stockout))),
+        mean(&|r| r.producer_price),
+        mean(&|r| r.deficiency_payments),
+    ]
+}

@@ -1,0 +1,368 @@
+//! The private-storage equilibrium without public stock: one state variable, solved by the
+//! endogenous grid method (Carroll 2006) on end-of-period private stock.
+//!
+//! For each stock x_j on a fixed grid, farmers' planting q_j solves q = S(E[P(keep·x_j + q·y + e)])
+//! (a one-dimensional fixed point, Newton's method with a bracket), storers' arbitrage gives today's
+//! price p_j = (1 − loss)/(1 + r)·E[P'] − k, and the availability that makes x_j optimal is
+//! z_j = x_j + D(p_j). The pairs (z_j, p_j) are the new price rule above the stockout point z_0; below
+//! it nobody stores and P = D⁻¹(z). Iterate to a fixed point of the price rule.
+
+use super::interp::Monotone;
+use super::market::StorageMarket;
+use super::StorageError;
+
+/// The equilibrium price as a function of availability (net of the demand shock).
+#[derive(Debug, Clone)]
+pub struct PriceRule {
+    /// Availability at which private stocks start (∞: nobody ever stores).
+    pub kink: f64,
+    /// The price above the kink (knots at the endogenous grid).
+    pub spline: Option<Monotone>,
+}
+
+impl PriceRule {
+    /// The rule of a market where nobody stores.
+    pub fn no_storage() -> PriceRule {
+        PriceRule {
+            kink: f64::INFINITY,
+            spline: None,
+        }
+    }
+
+    /// Price and dP/dz at availability `z`.
+    #[inline]
+    pub fn eval(&self, m: &StorageMarket, z: f64) -> (f64, f64) {
+        match &self.spline {
+            Some(s) if z > self.kink => {
+                let (p, d) = s.eval(z);
+                if p <= 0.0 {
+                    (0.0, 0.0)
+                } else {
+                    (p, d)
+                }
+            }
+            _ => m.inverse_demand(z),
+        }
+    }
+
+    /// The price at availability `z`.
+    #[inline]
+    pub fn price(&self, m: &StorageMarket, z: f64) -> f64 {
+        self.eval(m, z).0
+    }
+
+    /// Private stock carried out of a period with availability `z`: z − D(P(z)), zero below the kink.
+    pub fn stock(&self, m: &StorageMarket, z: f64) -> f64 {
+        if z <= self.kink {
+            return 0.0;
+        }
+        (z - m.demand.quantity(self.price(m, z))).max(0.0)
+    }
+}
+
+/// Expected next price E[P'] and its derivative in planted `q`, when `carried` units of private stock
+/// arrive next period and `next(z)` gives next period's price and slope.
+#[inline]
+pub fn expected_next<F: Fn(f64) -> (f64, f64)>(
+    m: &StorageMarket,
+    carried: f64,
+    q: f64,
+    next: &F,
+) -> (f64, f64) {
+    let (mut e, mut d) = (0.0, 0.0);
+    for n in &m.nodes {
+        let h = q * n.y + n.e;
+        let (p, dp) = next(carried + h.max(0.0));
+        e += n.w * p;
+        if h > 0.0 {
+            d += n.w * dp * n.y;
+        }
+    }
+    (e, d)
+}
+
+/// Expected next producer price E[max(P', floor)] and its derivative in `q`, with the expected market
+/// price E[P'] (the same when there is no deficiency-payment floor).
+#[inline]
+pub fn expected_producer<F: Fn(f64) -> (f64, f64)>(
+    m: &StorageMarket,
+    carried: f64,
+    q: f64,
+    next: &F,
+) -> (f64, f64, f64) {
+    if m.planting_floor <= 0.0 {
+        let (e, d) = expected_next(m, carried, q, next);
+        return (e, d, e);
+    }
+    let (mut ep, mut d, mut e) = (0.0, 0.0, 0.0);
+    for n in &m.nodes {
+        let h = q * n.y + n.e;
+        let (p, dp) = next(carried + h.max(0.0));
+        e += n.w * p;
+        if p > m.planting_floor {
+            ep += n.w * p;
+            if h > 0.0 {
+                d += n.w * dp * n.y;
+            }
+        } else {
+            ep += n.w * m.planting_floor;
+        }
+    }
+    (ep, d, e)
+}
+
+/// Rational planting: the q with q = S(E[producer price' | q]), starting from `guess`. Returns
+/// (q, E[P']) with P' the market price.
+///
+/// g(q) = q − S(E[P'(q)]) is increasing with slope ≥ 1 (more planted, lower expected price), g(0) ≤ 0,
+/// so the root is unique; Newton steps are kept inside the bracket, with bisection as a fallback.
+pub fn plant<F: Fn(f64) -> (f64, f64)>(
+    m: &StorageMarket,
+    carried: f64,
+    guess: f64,
+    next: &F,
+) -> (f64, f64) {
+    let scale = m.q_star.max(1e-12);
+    let (mut lo, mut hi) = (0.0_f64, f64::INFINITY);
+    let mut q = if guess.is_finite() && guess > 0.0 {
+        guess
+    } else {
+        m.q_star
+    };
+    let mut psi = 0.0;
+    for _ in 0..200 {
+        let (ep, de, e) = expected_producer(m, carried, q, next);
+        psi = e;
+        let (s, ds) = m.supply_at(ep);
+        let g = q - s;
+        if g.abs() <= 1e-14 * scale {
+            return (q, psi);
+        }
+        if g < 0.0 {
+            lo = q;
+        } else {
+            hi = q;
+        }
+        let slope = 1.0 - ds * de;
+        let mut next_q = q - g / slope.max(1.0);
+        if !(next_q > lo && next_q < hi) {
+            next_q = if hi.is_finite() {
+                0.5 * (lo + hi)
+            } else {
+                2.0 * q + scale
+            };
+        }
+        if (next_q - q).abs() <= 1e-15 * scale {
+            return (next_q, psi);
+        }
+        q = next_q;
+        if hi - lo <= 1e-15 * scale {
+            break;
+        }
+    }
+    (q, psi)
+}
+
+/// Numerical settings of the solvers.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SolveOptions {
+    /// Points of the stock grid (per dimension for the private stock).
+    pub grid: usize,
+    /// Gauss–Hermite nodes per shock.
+    pub nodes: usize,
+    /// Convergence: largest change of the price rule between iterations, relative to P*.
+    pub tolerance: f64,
+    /// Iteration cap.
+    pub max_iterations: usize,
+    /// Points of the dense grid on which the Euler residual is measured.
+    pub test_points: usize,
+    /// Points of the private-stock grid of the two-state (public stock) solve.
+    pub grid_2d: usize,
+    /// Points of the public-stock grid of the two-state solve.
+    pub public_grid: usize,
+}
+
+impl Default for SolveOptions {
+    fn default() -> Self {
+        SolveOptions {
+            grid: 200,
+            nodes: 10,
+            tolerance: 1e-9,
+            max_iterations: 1000,
+            test_points: 2001,
+            grid_2d: 150,
+            public_grid: 16,
+        }
+    }
+}
+
+/// The solved one-state equilibrium.
+#[derive(Debug, Clone)]
+pub struct PrivateSolution {
+    /// The model.
+    pub market: StorageMarket,
+    /// P(z).
+    pub rule: PriceRule,
+    /// The stock grid x_j.
+    pub stocks: Vec<f64>,
+    /// Planted q_j at each x_j.
+    pub planted: Vec<f64>,
+    /// Iterations to convergence.
+    pub iterations: usize,
+    /// Last change of the price rule (relative to P*).
+    pub change: f64,
+}
+
+impl PrivateSolution {
+    /// Planted quantity when `x` units of private stock are carried out of the period.
+    pub fn planted_at(&self, x: f64) -> f64 {
+        let k = self
+            .stocks
+            .partition_point(|&v| v <= x)
+            .clamp(1, self.stocks.len())
+            - 1;
+        let guess = self.planted[k];
+        let m = &self.market;
+        plant(m, m.keep * x, guess, &|z| self.rule.eval(m, z)).0
+    }
+
+    /// The stockout price: storers hold stock only when the price is below it (0 when nobody ever stores).
+    pub fn stockout_price(&self) -> f64 {
+        match &self.rule.spline {
+            Some(s) => s.values()[0],
+            None => 0.0,
+        }
+    }
+}
+
+/// Solves the private-storage equilibrium by the endogenous grid method on `o.grid` points of private
+/// stock, spaced quadratically (dense near zero stock, where the price rule bends most).
+pub fn solve_private(m: StorageMarket, o: &SolveOptions) -> Result<PrivateSolution, StorageError> {
+    let n = o.grid.max(8);
+    let x_max = if m.harvest_sd > 0.0 {
+        (10.0 * m.harvest_sd).min(m.q_star)
+    } else {
+        0.1 * m.q_star
+    };
+    let stocks: Vec<f64> = (0..n)
+        .map(|j| x_max * (j as f64 / (n - 1) as f64).powi(2))
+        .collect();
+    let planted = vec![m.q_star; n];
+    iterate(m, stocks, planted, PriceRule::no_storage(), o)
+}
+
+/// Refines a solution where its arbitrage residual exceeds `target`: every grid interval whose
+/// residual at its quarter points is too large is halved, and the equilibrium is solved again from the
+/// current rule, until no interval is too coarse or the grid reaches `max_points`.
+///
+/// Why: with a finite quadrature rule the expected price E[P'] has a kink wherever one node's next
+/// availability crosses the stockout point, and the price rule inherits these kinks (and their echoes,
+/// each smaller by about one node weight). A smooth interpolant on a fixed grid misses them by
+/// O(h · slope jump); halving the intervals around them removes that error at little cost.
+pub fn refine(
+    mut sol: PrivateSolution,
+    o: &SolveOptions,
+    target: f64,
+    max_points: usize,
+) -> Result<PrivateSolution, StorageError> {
+    let mut total = sol.iterations;
+    for _ in 0..40 {
+        let Some(spline) = sol.rule.spline.as_ref() else {
+            break;
+        };
+        let zs = spline.knots().to_vec();
+        let mut insert = Vec::new();
+        for j in 0..zs.len() - 1 {
+            let worst = [0.25, 0.5, 0.75]
+                .iter()
+                .map(|f| sol.euler_residual(zs[j] + f * (zs[j + 1] - zs[j])))
+                .fold(0.0, f64::max);
+            if worst > target {
+                insert.push(j);
+            }
+        }
+        if insert.is_empty() || sol.stocks.len() + insert.len() > max_points {
+            break;
+        }
+        let mut stocks = Vec::with_capacity(sol.stocks.len() + insert.len());
+        let mut planted = Vec::with_capacity(stocks.capacity());
+        let mut next = insert.iter().peekable();
+        for j in 0..sol.stocks.len() {
+            stocks.push(sol.stocks[j]);
+            planted.push(sol.planted[j]);
+            if next.peek() == Some(&&j) {
+                next.next();
+                stocks.push(0.5 * (sol.stocks[j] + sol.stocks[j + 1]));
+                planted.push(0.5 * (sol.planted[j] + sol.planted[j + 1]));
+            }
+        }
+        let rule = sol.rule.clone();
+        sol = iterate(sol.market, stocks, planted, rule, o)?;
+        total += sol.iterations;
+        sol.iterations = total;
+    }
+    Ok(sol)
+}
+
+/// Endogenous-grid iteration from `rule` on the stock grid `stocks` to the tolerance.
+fn iterate(
+    m: StorageMarket,
+    stocks: Vec<f64>,
+    mut planted: Vec<f64>,
+    mut rule: PriceRule,
+    o: &SolveOptions,
+) -> Result<PrivateSolution, StorageError> {
+    let n = stocks.len();
+    let mut old: Vec<f64> = Vec::new();
+    let mut change = f64::INFINITY;
+    let (mut zs, mut ps) = (Vec::with_capacity(n), Vec::with_capacity(n));
+    for it in 1..=o.max_iterations {
+        zs.clear();
+        ps.clear();
+        for (j, &x) in stocks.iter().enumerate() {
+            let (q, psi) = plant(&m, m.keep * x, planted[j], &|z| rule.eval(&m, z));
+            planted[j] = q;
+            let p = m.discount * psi - m.cost;
+            if p <= 0.0 || ps.last().is_some_and(|&last| p > last) {
+                break;
+            }
+            zs.push(x + m.demand.quantity(p));
+            ps.push(p);
+        }
+        change = if ps.len() == old.len() {
+            ps.iter()
+                .zip(&old)
+                .map(|(a, b)| (a - b).abs())
+                .fold(0.0, f64::max)
+                / m.p_star
+        } else {
+            f64::INFINITY
+        };
+        if ps.is_empty() && old.is_empty() && it > 1 {
+            change = 0.0;
+        }
+        old.clone_from(&ps);
+        rule = if ps.len() >= 2 {
+            PriceRule {
+                kink: zs[0],
+                spline: Some(Monotone::new(zs.clone(), ps.clone())),
+            }
+        } else {
+            PriceRule::no_storage()
+        };
+        if change < o.tolerance {
+            return Ok(PrivateSolution {
+                market: m,
+                rule,
+                stocks,
+                planted,
+                iterations: it,
+                change,
+            });
+        }
+    }
+    Err(StorageError::NotConverged {
+        iterations: o.max_iterations,
+        change,
+    })
+}
