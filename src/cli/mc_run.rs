@@ -3,7 +3,7 @@
 
 use furrow::output::{fmt_full, fmt_num, Format, TextTable};
 use furrow::scenario::{PolicySpec, Scenario};
-use furrow::stochastic::{run_monte_carlo, Series};
+use furrow::stochastic::{run_monte_carlo_sources, sources, Series};
 
 use super::common::say;
 use super::compare::progress_for;
@@ -34,12 +34,8 @@ const TABLE_COLUMNS: &[&str] = &[
 /// Runs the Monte Carlo summary of `run`.
 pub fn execute(args: &RunArgs, scenario: &Scenario, policy: &PolicySpec) -> anyhow::Result<()> {
     let bar = progress_for(scenario, 1);
-    let mc = run_monte_carlo(
-        scenario,
-        std::slice::from_ref(policy),
-        &SERIES,
-        bar.observer(),
-    );
+    let paths = sources(scenario, std::slice::from_ref(policy))?;
+    let mc = run_monte_carlo_sources(scenario, &paths, &SERIES, bar.observer());
     bar.finish();
     let mc = mc?;
     say(&format!(

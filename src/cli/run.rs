@@ -123,10 +123,15 @@ pub fn execute(args: &RunArgs) -> anyhow::Result<()> {
         return super::mc_run::execute(args, &scenario, &policy);
     }
     let model = Model::new(&scenario, &policy);
-    let shocks = furrow::stochastic::single_path_shocks(&scenario);
-    let records = model.run(scenario.run.periods, |t| {
-        shocks.get(t - 1).copied().unwrap_or(PeriodShock::NONE)
-    })?;
+    let records = if scenario.storers.is_some() {
+        // private storers: simulate with the solved storage equilibrium (replication 0's stream)
+        furrow::storage::storage_records(&scenario, &policy, 0)?
+    } else {
+        let shocks = furrow::stochastic::single_path_shocks(&scenario);
+        model.run(scenario.run.periods, |t| {
+            shocks.get(t - 1).copied().unwrap_or(PeriodShock::NONE)
+        })?
+    };
     for line in furrow::policies::diagnose(&scenario, &policy, &model, &records) {
         say(&line);
     }

@@ -15,6 +15,9 @@
 //!   approximation; R = `[run] risk_aversion`), per period; `revenue_risk_premium_change` against the
 //!   market left alone.
 //! - `spectral_radius`, `verdict`: from the stability analysis (null / "n/a" when unavailable).
+//! - markets with `[storers]` only: `private_stock_mean`, `public_stock_mean` (long-run means along one
+//!   long path of the solved storage equilibrium, after burn-in) and `crowding_out` = (mean private
+//!   stock without the policy − with it) / mean public stock with it (null when the agency holds none).
 
 use super::{Indicator, Kind, Value};
 use crate::scenario::{PolicySpec, Scenario};
@@ -175,7 +178,25 @@ const SPECS: &[(&str, &str, Kind)] = &[
         Kind::Number,
     ),
     ("verdict", "Stability verdict", Kind::Text),
+    (
+        "private_stock_mean",
+        "Private stock, long-run mean (storage equilibrium)",
+        Kind::Quantity,
+    ),
+    (
+        "public_stock_mean",
+        "Public stock, long-run mean (storage equilibrium)",
+        Kind::Quantity,
+    ),
+    (
+        "crowding_out",
+        "Crowding-out: fall in private stock per unit of public stock",
+        Kind::Share,
+    ),
 ];
+
+/// Indicators that exist only for a market with private storers.
+const STORAGE_KEYS: [&str; 3] = ["private_stock_mean", "public_stock_mean", "crowding_out"];
 
 /// Builds the indicators of `runs` (under `spec`) against the baseline `base`.
 pub(super) fn build(
@@ -300,8 +321,25 @@ pub(super) fn build(
             out.0.push(("verdict", Value::Missing));
         }
     }
+    if scenario.storers.is_some() {
+        match crate::storage::storage_indicators(scenario, spec) {
+            Ok(st) => {
+                out.num("private_stock_mean", st.private_stock_mean);
+                out.num("public_stock_mean", st.public_stock_mean);
+                out.0.push((
+                    "crowding_out",
+                    st.crowding_out.map_or(Value::Missing, Value::Number),
+                ));
+            }
+            Err(e) => out.0.push((
+                "private_stock_mean",
+                Value::Text(format!("unavailable: {e}")),
+            )),
+        }
+    }
     SPECS
         .iter()
+        .filter(|(key, _, _)| scenario.storers.is_some() || !STORAGE_KEYS.contains(key))
         .map(|(key, label, kind)| Indicator {
             key,
             label,

@@ -14,7 +14,9 @@ use serde::Serialize;
 pub use indicators::indicator_keys;
 
 use crate::scenario::{PolicySpec, Scenario};
-use crate::stochastic::{run_monte_carlo, Progress, ReplicationFailed, Series, Summary};
+use crate::stochastic::{
+    run_monte_carlo_sources, sources, Progress, ReplicationFailed, Series, Summary,
+};
 
 /// The value of one indicator.
 #[derive(Debug, Clone, PartialEq)]
@@ -146,6 +148,9 @@ pub enum CompareError {
     /// A replication diverged.
     #[error(transparent)]
     Failed(#[from] ReplicationFailed),
+    /// The storage equilibrium of a market with private storers could not be solved.
+    #[error(transparent)]
+    Storage(#[from] crate::storage::StorageError),
 }
 
 /// Compares `policies` (in order) with the market left alone under `scenario`'s shocks,
@@ -171,7 +176,8 @@ pub fn compare(
             }
         })
         .collect();
-    let mc = run_monte_carlo(scenario, &specs, &[Series::Price, Series::Stock], progress)?;
+    let paths = sources(scenario, &specs)?;
+    let mc = run_monte_carlo_sources(scenario, &paths, &[Series::Price, Series::Stock], progress)?;
     let base = &mc.policies[0];
     let column = |spec: &PolicySpec, slot: usize| {
         let runs = &mc.policies[slot];

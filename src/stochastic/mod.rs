@@ -9,8 +9,8 @@ mod shocks;
 pub mod stats;
 
 pub use montecarlo::{
-    run_monte_carlo, MonteCarlo, NoProgress, PolicyRuns, Pooled, Progress, ReplicationFailed,
-    ReplicationSummary, Series, SeriesSummary,
+    run_monte_carlo, run_monte_carlo_sources, sources, MonteCarlo, NoProgress, PathSource,
+    PolicyRuns, Pooled, Progress, ReplicationFailed, ReplicationSummary, Series, SeriesSummary,
 };
 pub use shocks::{single_path_shocks, ShockStream};
 pub use stats::{quantiles, ShiftedSums, Summary};

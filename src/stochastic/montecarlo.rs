@@ -18,6 +18,7 @@ use super::stats::{ShiftedSums, Summary};
 use super::ShockStream;
 use crate::engine::{Diverged, Model, PeriodRecord, PeriodShock};
 use crate::scenario::{PolicySpec, Scenario};
+use crate::storage::{SolvedStorage, StorageError};
 use crate::welfare::{producer_revenue, Discount, WelfareFold, WelfarePv};
 
 /// Replications per parallel work item (fixed, so the order of float sums never depends on threads).
@@ -198,25 +199,78 @@ type ChunkOutcome = Result<Vec<ChunkPolicy>, ReplicationFailed>;
 /// Simulates every policy in `policies` over `scenario.run.replications` replications of
 /// `scenario.run.periods` periods under the same shocks, keeping the per-period `series` for quantiles.
 /// The first failing replication (lowest replication, then lowest policy index) fails the whole run.
+/// This runs the period engine; for a market with private storers build the sources with
+/// [`sources`] and call [`run_monte_carlo_sources`].
 pub fn run_monte_carlo(
     scenario: &Scenario,
     policies: &[PolicySpec],
     series: &[Series],
     progress: &dyn Progress,
 ) -> Result<MonteCarlo, ReplicationFailed> {
-    run_with_budget(scenario, policies, series, progress, SERIES_BUDGET_BYTES)
+    let models: Vec<PathSource> = policies
+        .iter()
+        .map(|p| PathSource::Engine(Model::new(scenario, p)))
+        .collect();
+    run_with_budget(scenario, &models, series, progress, SERIES_BUDGET_BYTES)
+}
+
+/// [`run_monte_carlo`] over given path sources (one per policy, in order).
+pub fn run_monte_carlo_sources(
+    scenario: &Scenario,
+    sources: &[PathSource],
+    series: &[Series],
+    progress: &dyn Progress,
+) -> Result<MonteCarlo, ReplicationFailed> {
+    run_with_budget(scenario, sources, series, progress, SERIES_BUDGET_BYTES)
+}
+
+/// Where a policy's simulated periods come from.
+#[derive(Debug)]
+pub enum PathSource {
+    /// The period engine (every market without private storers).
+    Engine(Model),
+    /// The solved competitive storage equilibrium (a market with `[storers]`): each replication is
+    /// simulated with the solved rules on the same random stream as everywhere else.
+    Storage(Box<SolvedStorage>),
+}
+
+impl PathSource {
+    /// The policy's display name.
+    pub fn name(&self) -> &str {
+        match self {
+            PathSource::Engine(m) => &m.policy.name,
+            PathSource::Storage(s) => &s.policy().name,
+        }
+    }
+}
+
+/// The path sources for `policies` on `scenario`: the storage equilibrium (solved once per policy)
+/// when the market has private storers, the period engine otherwise.
+pub fn sources(
+    scenario: &Scenario,
+    policies: &[PolicySpec],
+) -> Result<Vec<PathSource>, StorageError> {
+    policies
+        .iter()
+        .map(|p| {
+            Ok(if scenario.storers.is_some() {
+                PathSource::Storage(Box::new(SolvedStorage::new(scenario, p)?))
+            } else {
+                PathSource::Engine(Model::new(scenario, p))
+            })
+        })
+        .collect()
 }
 
 fn run_with_budget(
     scenario: &Scenario,
-    policies: &[PolicySpec],
+    models: &[PathSource],
     series: &[Series],
     progress: &dyn Progress,
     budget: usize,
 ) -> Result<MonteCarlo, ReplicationFailed> {
     let reps = scenario.run.replications.max(1);
     let periods = scenario.run.periods;
-    let models: Vec<Model> = policies.iter().map(|p| Model::new(scenario, p)).collect();
     let discount = Discount::new(scenario.run.discount_rate, periods);
     let chunks = reps.div_ceil(CHUNK);
     let first_failure = AtomicUsize::new(usize::MAX);
@@ -226,7 +280,7 @@ fn run_with_budget(
     let ctx = Context {
         series_reps,
         scenario,
-        models: &models,
+        models,
         discount: &discount,
         series,
         first_failure: &first_failure,
@@ -254,16 +308,7 @@ fn run_with_budget(
         }
     }
     let policies = (0..models.len())
-        .map(|k| {
-            assemble(
-                &models[k].policy.name,
-                k,
-                &chunk_results,
-                series,
-                periods,
-                reps,
-            )
-        })
+        .map(|k| assemble(models[k].name(), k, &chunk_results, series, periods, reps))
         .collect();
     Ok(MonteCarlo {
         replications: reps,
@@ -274,7 +319,7 @@ fn run_with_budget(
 
 struct Context<'a> {
     scenario: &'a Scenario,
-    models: &'a [Model],
+    models: &'a [PathSource],
     discount: &'a Discount,
     series: &'a [Series],
     series_reps: usize,
@@ -319,9 +364,9 @@ impl Context<'_> {
             }
             for (k, model) in self.models.iter().enumerate() {
                 let summary = self
-                    .replicate(model, &shocks, rep - from, n, &mut out[k])
+                    .replicate(model, &shocks, rep, rep - from, n, &mut out[k])
                     .map_err(|source| ReplicationFailed {
-                        policy: model.policy.name.clone(),
+                        policy: model.name().to_string(),
                         policy_index: k,
                         replication: rep,
                         seed: s.run.seed,
@@ -341,18 +386,38 @@ impl Context<'_> {
     /// the replication's summary.
     fn replicate(
         &self,
-        model: &Model,
+        source: &PathSource,
         shocks: &[PeriodShock],
+        rep: usize,
         slot: usize,
         n: usize,
         acc: &mut ChunkPolicy,
     ) -> Result<ReplicationSummary, Diverged> {
-        let mut sim = model.simulator();
+        match source {
+            PathSource::Engine(model) => {
+                let mut sim = model.simulator();
+                self.fold(shocks.iter().map(|s| sim.step(s)), slot, n, acc)
+            }
+            PathSource::Storage(solved) => {
+                let records = solved.records(rep as u64, shocks.len());
+                self.fold(records.into_iter().map(Ok), slot, n, acc)
+            }
+        }
+    }
+
+    /// Folds one replication's periods into `acc`.
+    fn fold(
+        &self,
+        periods: impl Iterator<Item = Result<PeriodRecord, Diverged>>,
+        slot: usize,
+        n: usize,
+        acc: &mut ChunkPolicy,
+    ) -> Result<ReplicationSummary, Diverged> {
         let mut fold = WelfareFold::new();
         let mut pooled = Pooled::new(acc.pooled.price.reference, acc.pooled.harvest.reference);
         let (mut binding, mut stockout, mut last_stock) = (0u32, 0u32, 0.0);
-        for (t, shock) in shocks.iter().enumerate() {
-            let r = sim.step(shock)?;
+        for (t, r) in periods.enumerate() {
+            let r = r?;
             fold.add(&r, self.discount);
             pooled.push(&r);
             acc.fiscal[t] += r.fiscal_cost;

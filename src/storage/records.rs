@@ -105,6 +105,11 @@ impl SolvedStorage {
         })
     }
 
+    /// The policy the equilibrium was solved for.
+    pub fn policy(&self) -> &PolicySpec {
+        &self.policy
+    }
+
     /// `periods` periods of replication `replication` (the market file's seed), starting with no
     /// private stock and the policy's initial public stock.
     pub fn path(&self, replication: u64, periods: usize) -> Vec<StoragePeriod> {
