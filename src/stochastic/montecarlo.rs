@@ -209,7 +209,7 @@ pub fn run_monte_carlo(
 ) -> Result<MonteCarlo, ReplicationFailed> {
     let models: Vec<PathSource> = policies
         .iter()
-        .map(|p| PathSource::Engine(Model::new(scenario, p)))
+        .map(|p| PathSource::Engine(Box::new(Model::new(scenario, p))))
         .collect();
     run_with_budget(scenario, &models, series, progress, SERIES_BUDGET_BYTES)
 }
@@ -228,7 +228,7 @@ pub fn run_monte_carlo_sources(
 #[derive(Debug)]
 pub enum PathSource {
     /// The period engine (every market without private storers).
-    Engine(Model),
+    Engine(Box<Model>),
     /// The solved competitive storage equilibrium (a market with `[storers]`): each replication is
     /// simulated with the solved rules on the same random stream as everywhere else.
     Storage(Box<SolvedStorage>),
@@ -256,7 +256,7 @@ pub fn sources(
             Ok(if scenario.storers.is_some() {
                 PathSource::Storage(Box::new(SolvedStorage::new(scenario, p)?))
             } else {
-                PathSource::Engine(Model::new(scenario, p))
+                PathSource::Engine(Box::new(Model::new(scenario, p)))
             })
         })
         .collect()
@@ -534,7 +534,8 @@ mod tests {
         let none = [PolicySpec::none()];
         let series = [Series::Price];
         // a budget of one replication rounds up to one chunk of CHUNK replications
-        let capped = run_with_budget(&scenario(200), &none, &series, &NoProgress, 1).unwrap();
+        let sources = super::sources(&scenario(200), &none).unwrap();
+        let capped = run_with_budget(&scenario(200), &sources, &series, &NoProgress, 1).unwrap();
         let full = run_monte_carlo(&scenario(200), &none, &series, &NoProgress).unwrap();
         let leading = run_monte_carlo(&scenario(CHUNK), &none, &series, &NoProgress).unwrap();
         let (c, f, l) = (
