@@ -24,9 +24,14 @@ use crate::scenario::{PolicySpec, Scenario};
 use crate::stochastic::{quantiles, PolicyRuns};
 use crate::welfare::{risk_premium, WelfarePv};
 
-/// Every key in display order.
+/// Every key in display order, for a market without private storers (a market with `[storers]` adds
+/// `private_stock_mean`, `public_stock_mean` and `crowding_out` at the end).
 pub fn indicator_keys() -> Vec<&'static str> {
-    SPECS.iter().map(|(k, _, _)| *k).collect()
+    SPECS
+        .iter()
+        .map(|(k, _, _)| *k)
+        .filter(|k| !STORAGE_KEYS.contains(k))
+        .collect()
 }
 
 const SPECS: &[(&str, &str, Kind)] = &[
