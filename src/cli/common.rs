@@ -79,6 +79,16 @@ impl CommonArgs {
         Ok(())
     }
 
+    /// Writes a human-readable table with furrow's caution below it (CSV and JSON stay pure data).
+    pub fn emit_with_caution(&self, text: &str) -> anyhow::Result<()> {
+        match self.format {
+            Format::Table | Format::Markdown => {
+                self.emit(&format!("{text}\nCaution: {}\n", furrow::CAUTION))
+            }
+            Format::Csv | Format::Json => self.emit(text),
+        }
+    }
+
     /// Writes the verb's output to `--out` or stdout.
     pub fn emit(&self, text: &str) -> anyhow::Result<()> {
         let path = self.out.clone().unwrap_or_else(|| PathBuf::from("-"));

@@ -83,7 +83,7 @@ pub fn execute(args: &RunArgs, scenario: &Scenario, policy: &PolicySpec) -> anyh
         }
         table.push(shown.iter().map(|&i| row[i].clone()).collect());
     }
-    args.common.emit(&table.render(format))
+    args.common.emit_with_caution(&table.render(format))
 }
 
 /// One object per period: `period` as an integer, the statistics as numbers (null if not finite).

@@ -138,5 +138,6 @@ pub fn execute(args: &RunArgs) -> anyhow::Result<()> {
     if let Some(dir) = &args.common.plots {
         super::report::plot_run(dir, &scenario, &policy, &records)?;
     }
-    args.common.emit(&render_path(&records, args.common.format))
+    args.common
+        .emit_with_caution(&render_path(&records, args.common.format))
 }

@@ -18,9 +18,10 @@ pub fn render(result: &CompareResult, format: Format) -> String {
         Format::Json => json(result),
         Format::Csv => csv(result).render(Format::Csv),
         Format::Table => format!(
-            "{}\n{}",
+            "{}\n{}Caution: {}\n",
             caption(result),
-            briefing(result).render(Format::Table)
+            briefing(result).render(Format::Table),
+            crate::CAUTION
         ),
         Format::Markdown => format!(
             "{}\n\n{}\n{}\n",
@@ -53,6 +54,7 @@ pub fn json(result: &CompareResult) -> String {
         "seed": result.seed,
         "discount_rate": result.discount_rate,
         "risk_aversion": result.risk_aversion,
+        "caution": crate::CAUTION,
         "policies": result.policies.iter().map(column).collect::<Vec<_>>(),
         "baseline": column(&result.baseline),
     });
@@ -165,7 +167,8 @@ fn footnote(r: &CompareResult) -> String {
     format!(
         "Ranges: 5 % and 95 % quantiles across replications (Hyndman–Fan type 7). Net welfare change = \
          Δ consumer surplus + Δ producer surplus − Δ fiscal cost + value of the stock left at the end. \
-         Risk premium ≈ ½·R·CV²·mean revenue with R = {} (Newbery and Stiglitz 1981).",
-        fmt_num(r.risk_aversion, 2)
+         Risk premium ≈ ½·R·CV²·mean revenue with R = {} (Newbery and Stiglitz 1981).\n\nCaution: {}",
+        fmt_num(r.risk_aversion, 2),
+        crate::CAUTION
     )
 }

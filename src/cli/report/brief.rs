@@ -9,10 +9,8 @@ use furrow::stability::StabilityReport;
 use super::assumptions;
 use super::figures::{money_unit, Figure};
 
-/// The caution every briefing carries.
-pub const CAUTION: &str = "These are results of a stylised model under the assumptions listed below, not forecasts. \
-They show how the policies differ inside the model; magnitudes depend on elasticities, expectations and shocks that \
-are uncertain. Defer to official analysis, local rules and the people who know the market before acting on them.";
+/// The caution every briefing carries: furrow's caution and where the assumptions are.
+pub const CAUTION: &str = furrow::CAUTION;
 
 /// Headline figures of one policy (from the comparison).
 #[derive(Debug, Clone)]
