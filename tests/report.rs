@@ -91,7 +91,7 @@ fn report_verb_writes_a_self_contained_briefing() {
     assert_self_contained(&html);
     assert!(html.contains("<table"));
     assert!(html.contains("not forecasts"));
-    assert!(html.contains("Defer to official analysis"));
+    assert!(html.contains(furrow::CAUTION), "the caution, word for word");
     assert!(html.matches("<svg").count() >= 4, "plots inlined");
     for p in POLICIES {
         assert!(html.contains(p), "policy file {p} named");

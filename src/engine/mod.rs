@@ -71,6 +71,8 @@ pub struct Model {
     /// every period).
     planting_floor: Option<f64>,
     is_rational: bool,
+    /// Some rule sets the producer price or pays producers (looked up once).
+    has_payments: bool,
 }
 
 impl Model {
@@ -80,6 +82,7 @@ impl Model {
         let rule = expectations::build(&spec);
         let compiled = policies::compile(policy);
         let compiled_floor = compiled.planting_floor();
+        let has_payments = compiled.rules.iter().any(|r| r.pays_producers());
         let is_rational = rule.is_rational();
         let mut reference = scenario.steady.price.max(scenario.run.initial_price);
         for p in &scenario.run.price_history {
@@ -111,6 +114,7 @@ impl Model {
             nodes: rational::Nodes::new(&scenario.shocks),
             planting_floor: compiled_floor,
             is_rational,
+            has_payments,
         }
     }
 
@@ -148,9 +152,11 @@ impl Model {
         let price = m.price();
         let mut producer_price = price;
         let mut deficiency = 0.0;
-        for rule in &self.policy.rules {
-            producer_price = rule.producer_price(producer_price);
-            deficiency += rule.payment(price, harvest);
+        if self.has_payments {
+            for rule in &self.policy.rules {
+                producer_price = rule.producer_price(producer_price);
+                deficiency += rule.payment(price, harvest);
+            }
         }
         let mut flags = m.flags;
         if deficiency > 0.0 {
@@ -167,6 +173,35 @@ impl Model {
             deficiency,
             flags,
         }
+    }
+}
+
+/// Why the expected price is out of bounds (built only when it is).
+#[cold]
+fn expected_price_failure(planting: f64, bound: f64) -> String {
+    if planting > bound {
+        format!("the expected price {planting:.4e} exceeded the sanity bound {bound:.4e}")
+    } else {
+        format!(
+            "the expected price fell to {} (≤ 0)",
+            crate::output::fmt_num(planting, 4)
+        )
+    }
+}
+
+/// Why the clearing price is out of bounds (built only when it is).
+#[cold]
+fn price_failure(c: &Cleared, bound: f64) -> String {
+    if c.price > bound {
+        format!(
+            "the price {:.4e} exceeded the sanity bound {bound:.4e}",
+            c.price
+        )
+    } else {
+        format!(
+            "the market needs a price ≤ 0 to absorb consumption {} (demand is saturated)",
+            crate::output::fmt_num(c.harvest - c.purchases + c.releases, 4)
+        )
     }
 }
 
@@ -242,16 +277,11 @@ impl<'m> Simulator<'m> {
             Some(f) => rule_expectation.max(f),
             None => rule_expectation,
         };
-        if !(planting.is_finite() && planting > 0.0) {
-            return Err(diverged(format!(
-                "the expected price fell to {} (≤ 0)",
-                crate::output::fmt_num(planting, 4)
-            )));
-        }
-        if planting > model.price_bound {
-            return Err(diverged(format!(
-                "the expected price {:.4e} exceeded the sanity bound {:.4e}",
-                planting, model.price_bound
+        // one comparison on the hot path (NaN fails it too); the message is built only on failure
+        if !(planting > 0.0 && planting <= model.price_bound) {
+            return Err(diverged(expected_price_failure(
+                planting,
+                model.price_bound,
             )));
         }
         let c = model.clear(planting, shock, carried);
@@ -264,17 +294,8 @@ impl<'m> Simulator<'m> {
         if c.harvest <= 0.0 {
             return Err(diverged("the harvest fell to zero".into()));
         }
-        if !(c.price.is_finite() && c.price > 0.0) {
-            return Err(diverged(format!(
-                "the market needs a price ≤ 0 to absorb consumption {} (demand is saturated)",
-                crate::output::fmt_num(c.harvest - c.purchases + c.releases, 4)
-            )));
-        }
-        if c.price > model.price_bound {
-            return Err(diverged(format!(
-                "the price {:.4e} exceeded the sanity bound {:.4e}",
-                c.price, model.price_bound
-            )));
+        if !(c.price > 0.0 && c.price <= model.price_bound) {
+            return Err(diverged(price_failure(&c, model.price_bound)));
         }
         let agency = &model.policy.agency;
         let purchase_cost = c.price * c.purchases;

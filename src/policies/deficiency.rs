@@ -17,6 +17,9 @@ impl PolicyRule for DeficiencyPayment {
     fn planting_floor(&self) -> Option<f64> {
         self.announced.then_some(self.price)
     }
+    fn pays_producers(&self) -> bool {
+        true
+    }
     fn producer_price(&self, market_price: f64) -> f64 {
         market_price.max(self.price)
     }

@@ -41,6 +41,10 @@ pub trait PolicyRule: Send + Sync + std::fmt::Debug {
     fn payment(&self, _market_price: f64, _harvest: f64) -> f64 {
         0.0
     }
+    /// True for rules that set the producer price or pay producers (`producer_price`, `payment`).
+    fn pays_producers(&self) -> bool {
+        false
+    }
     /// True for rules that buy into or sell from the agency's stock.
     fn trades_stock(&self) -> bool {
         false
