@@ -9,7 +9,7 @@ use std::path::Path;
 
 use anyhow::Context;
 use clap::Args;
-use furrow::engine::{Model, PeriodRecord, PeriodShock};
+use furrow::engine::PeriodRecord;
 use furrow::scenario::{PolicySpec, Scenario};
 use furrow::stability::StabilityReport;
 
@@ -26,15 +26,6 @@ pub struct ReportArgs {
     pub policies: Vec<String>,
     #[command(flatten)]
     pub common: CommonArgs,
-}
-
-/// One path of `scenario` under `policy` on the single-path shocks (as `run` draws them).
-fn one_path(scenario: &Scenario, policy: &PolicySpec) -> anyhow::Result<Vec<PeriodRecord>> {
-    let model = Model::new(scenario, policy);
-    let shocks = furrow::stochastic::single_path_shocks(scenario);
-    Ok(model.run(scenario.run.periods, |t| {
-        shocks.get(t - 1).copied().unwrap_or(PeriodShock::NONE)
-    })?)
 }
 
 /// The policies of a report or comparison as (file, spec), the market left alone first (the
@@ -63,7 +54,7 @@ pub fn execute(args: &ReportArgs) -> anyhow::Result<()> {
     let cols = columns(&args.policies)?;
     let mut runs = Vec::new();
     for (_, p) in &cols {
-        let recs = one_path(&scenario, p)
+        let recs = super::run::one_path(&scenario, p)
             .with_context(|| format!("the path under “{}” failed", p.name))?;
         runs.push((p.name.clone(), recs));
     }
@@ -198,8 +189,8 @@ pub fn plot_compare(
     let cols = columns(files)?;
     let mut runs = Vec::new();
     for (_, p) in &cols {
-        let recs =
-            one_path(scenario, p).with_context(|| format!("the path under “{}” failed", p.name))?;
+        let recs = super::run::one_path(scenario, p)
+            .with_context(|| format!("the path under “{}” failed", p.name))?;
         runs.push((p.name.clone(), recs));
     }
     let stability = stability_of(scenario, &cols);

@@ -3,6 +3,7 @@
 use clap::Args;
 use furrow::engine::{Model, PeriodRecord, PeriodShock};
 use furrow::output::{fmt_full, fmt_num, Format, TextTable};
+use furrow::scenario::{PolicySpec, Scenario};
 
 use super::common::{load_policy, say, CommonArgs};
 
@@ -115,6 +116,19 @@ pub fn render_path(records: &[PeriodRecord], format: Format) -> String {
     }
 }
 
+/// One path of `scenario` under `policy` on the single-path shocks: the period engine, or the solved
+/// storage equilibrium (replication 0's stream) for a market with private storers.
+pub fn one_path(scenario: &Scenario, policy: &PolicySpec) -> anyhow::Result<Vec<PeriodRecord>> {
+    if scenario.storers.is_some() {
+        return Ok(furrow::storage::storage_records(scenario, policy, 0)?);
+    }
+    let model = Model::new(scenario, policy);
+    let shocks = furrow::stochastic::single_path_shocks(scenario);
+    Ok(model.run(scenario.run.periods, |t| {
+        shocks.get(t - 1).copied().unwrap_or(PeriodShock::NONE)
+    })?)
+}
+
 /// Runs `run`.
 pub fn execute(args: &RunArgs) -> anyhow::Result<()> {
     let scenario = args.common.load_market(&args.market)?;
@@ -123,15 +137,7 @@ pub fn execute(args: &RunArgs) -> anyhow::Result<()> {
         return super::mc_run::execute(args, &scenario, &policy);
     }
     let model = Model::new(&scenario, &policy);
-    let records = if scenario.storers.is_some() {
-        // private storers: simulate with the solved storage equilibrium (replication 0's stream)
-        furrow::storage::storage_records(&scenario, &policy, 0)?
-    } else {
-        let shocks = furrow::stochastic::single_path_shocks(&scenario);
-        model.run(scenario.run.periods, |t| {
-            shocks.get(t - 1).copied().unwrap_or(PeriodShock::NONE)
-        })?
-    };
+    let records = one_path(&scenario, &policy)?;
     for line in furrow::policies::diagnose(&scenario, &policy, &model, &records) {
         say(&line);
     }
