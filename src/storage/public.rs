@@ -149,19 +149,9 @@ impl PublicSolution {
 
     /// Planted quantity when `x` private and `public` public units are carried out of the period.
     pub fn planted_at(&self, x: f64, public: f64) -> f64 {
-        let mi = self
-            .publics
-            .partition_point(|&v| v <= public)
-            .clamp(1, self.publics.len())
-            - 1;
-        let j = self
-            .stocks
-            .partition_point(|&v| v <= x)
-            .clamp(1, self.stocks.len())
-            - 1;
         let m = &self.market;
         let gn = self.band.keep * public;
-        plant(m, m.keep * x, self.planted[mi][j], &|z| {
+        plant(m, m.keep * x, self.planted_guess(x, public), &|z| {
             let (p, d, _) = state_price(m, &self.band, &self.publics, &self.rows, z, gn);
             (p, d)
         })
