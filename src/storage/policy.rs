@@ -6,7 +6,7 @@ use super::StorageError;
 use crate::scenario::{FloorInstrument, PolicySpec, ReleaseSpec};
 
 /// The agency's rule as a price band inside the storage equilibrium, or `None` for a policy that
-/// does not trade. Covered: a band stock released by the band or the share rule, a floor
+/// does not trade. Covered: a band stock released by the band, the target or the share rule, a floor
 /// defended by purchase (a band that never sells), both with a finite capacity and no purchase budget; a deficiency-payment floor
 /// does not trade (see [`planting_floor`]).
 pub fn band_of(policy: &PolicySpec) -> Result<Option<Band>, StorageError> {
@@ -41,14 +41,7 @@ pub fn band_of(policy: &PolicySpec) -> Result<Option<Band>, StorageError> {
     };
     let release = match stock.release {
         ReleaseSpec::Band => Release::Band,
-        ReleaseSpec::Target { .. } => {
-            // The rule is implemented (`agency::decide`), but where the band takes over from the
-            // target trade the price jumps, and the iteration cycles instead of converging.
-            return Err(unsupported(
-                "stock.release",
-                "\"target\": the target rule makes the price jump where the band takes over, and the storage equilibrium does not converge for it; supported: \"band\" and \"share\"",
-            ));
-        }
+        ReleaseSpec::Target { target, speed } => Release::Target { target, speed },
         ReleaseSpec::Share { share } => Release::Share { share },
     };
     if stock.purchase_budget.is_finite() {

@@ -128,6 +128,17 @@ fn halve(v: &[f64], split: &[bool]) -> Vec<f64> {
     out
 }
 
+/// Whether the iteration is damped point by point: the new price at grid stock x_j (public stock
+/// G_m) is the previous one plus step_jm × the endogenous-grid update there, and step_jm (1 at the
+/// start) is halved whenever the update changes sign. For the target rule, whose trade jumps where
+/// the band takes over, the undamped iteration cycles: points whose next-period quadrature nodes sit
+/// on a jump flip between two values. The halving takes them to the jump (where the arbitrage
+/// condition holds only as an inequality on the discretised model) and leaves every point that
+/// converges monotonically undamped (docs/storage.md).
+fn damped(band: &Band) -> bool {
+    matches!(band.release, super::agency::Release::Target { .. })
+}
+
 /// Endogenous-grid iteration to the tolerance; the first expectation uses the rules `start` (on their
 /// own public-stock grid).
 fn iterate(
@@ -144,6 +155,9 @@ fn iterate(
     let (mut prev_publics, mut rows) = start;
     let mut old: Vec<Vec<f64>> = vec![Vec::new(); mm];
     let mut change = f64::INFINITY;
+    let adaptive = damped(&band);
+    let mut steps = vec![vec![1.0_f64; n]; mm];
+    let mut last = vec![vec![0.0_f64; n]; mm];
     for it in 1..=o.max_iterations {
         let mut new_rows = Vec::with_capacity(mm);
         let mut worst = 0.0_f64;
@@ -158,7 +172,19 @@ fn iterate(
             for (j, &x) in stocks.iter().enumerate() {
                 let (q, psi) = plant(&m, m.keep * x, planted[mi][j], &next);
                 planted[mi][j] = q;
-                let p = m.discount * psi - m.cost;
+                let mut p = m.discount * psi - m.cost;
+                if adaptive {
+                    if let Some(&before) = old[mi].get(j).filter(|v| v.is_finite()) {
+                        if p > 0.0 {
+                            let delta = p - before;
+                            if delta * last[mi][j] < 0.0 {
+                                steps[mi][j] *= 0.5;
+                            }
+                            last[mi][j] = delta;
+                            p = before + steps[mi][j] * delta;
+                        }
+                    }
+                }
                 if p <= 0.0 {
                     break;
                 }
