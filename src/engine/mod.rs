@@ -78,6 +78,8 @@ pub struct Model {
     /// A price above this with no stock left is a stock-out: `sell_above·(1 + 1e-12)`, or +∞ when
     /// the policy has no upper band edge (computed once).
     stockout_above: f64,
+    /// The rule when it is adaptive expectations (called directly, not through the trait).
+    adaptive: Option<expectations::Adaptive>,
 }
 
 impl Model {
@@ -89,6 +91,7 @@ impl Model {
         let compiled_floor = compiled.planting_floor();
         let has_payments = compiled.rules.iter().any(|r| r.pays_producers());
         let is_rational = rule.is_rational();
+        let adaptive = rule.as_adaptive();
         let band_only = match compiled.rules.as_slice() {
             [only] => only.as_band(),
             _ => None,
@@ -129,6 +132,7 @@ impl Model {
             has_payments,
             band_only,
             stockout_above,
+            adaptive,
         }
     }
 
@@ -287,10 +291,14 @@ impl<'m> Simulator<'m> {
                 },
             )?
         } else {
-            model.rule.expect(&ExpectationInput {
+            let input = ExpectationInput {
                 history: &self.history,
                 previous: self.previous,
-            })
+            };
+            match &model.adaptive {
+                Some(adaptive) => adaptive.expect(&input),
+                None => model.rule.expect(&input),
+            }
         };
         let planting = match floor {
             Some(f) => rule_expectation.max(f),
