@@ -73,6 +73,13 @@ pub struct Model {
     is_rational: bool,
     /// Some rule sets the producer price or pays producers (looked up once).
     has_payments: bool,
+    /// The policy's only rule when it is a plain band (called directly, not through the trait).
+    band_only: Option<policies::BandStock>,
+    /// A price above this with no stock left is a stock-out: `sell_above·(1 + 1e-12)`, or +∞ when
+    /// the policy has no upper band edge (computed once).
+    stockout_above: f64,
+    /// The rule when it is adaptive expectations (called directly, not through the trait).
+    adaptive: Option<expectations::Adaptive>,
 }
 
 impl Model {
@@ -84,6 +91,14 @@ impl Model {
         let compiled_floor = compiled.planting_floor();
         let has_payments = compiled.rules.iter().any(|r| r.pays_producers());
         let is_rational = rule.is_rational();
+        let adaptive = rule.as_adaptive();
+        let band_only = match compiled.rules.as_slice() {
+            [only] => only.as_band(),
+            _ => None,
+        };
+        let stockout_above = compiled
+            .sell_above
+            .map_or(f64::INFINITY, |s| s * (1.0 + 1e-12));
         let mut reference = scenario.steady.price.max(scenario.run.initial_price);
         for p in &scenario.run.price_history {
             reference = reference.max(*p);
@@ -115,6 +130,9 @@ impl Model {
             planting_floor: compiled_floor,
             is_rational,
             has_payments,
+            band_only,
+            stockout_above,
+            adaptive,
         }
     }
 
@@ -134,6 +152,7 @@ impl Model {
     }
 
     /// Clears one period: planting on `planting_price`, with agency stock `carried` (after losses).
+    #[inline(always)]
     pub(crate) fn clear(&self, planting_price: f64, shock: &PeriodShock, carried: f64) -> Cleared {
         let planted = self.supply.quantity(planting_price);
         let harvest = (planted * shock.yield_factor + shock.supply).max(0.0);
@@ -146,8 +165,12 @@ impl Model {
             agency.capacity,
             agency.purchase_budget,
         );
-        for rule in &self.policy.rules {
-            rule.trade(&mut m);
+        if let Some(band) = &self.band_only {
+            band.defend(&mut m);
+        } else {
+            for rule in &self.policy.rules {
+                rule.trade(&mut m);
+            }
         }
         let price = m.price();
         let mut producer_price = price;
@@ -268,10 +291,14 @@ impl<'m> Simulator<'m> {
                 },
             )?
         } else {
-            model.rule.expect(&ExpectationInput {
+            let input = ExpectationInput {
                 history: &self.history,
                 previous: self.previous,
-            })
+            };
+            match &model.adaptive {
+                Some(adaptive) => adaptive.expect(&input),
+                None => model.rule.expect(&input),
+            }
         };
         let planting = match floor {
             Some(f) => rule_expectation.max(f),
@@ -331,10 +358,7 @@ impl<'m> Simulator<'m> {
             handling_cost,
             deficiency_payments: c.deficiency,
             flags: c.flags,
-            stockout: model
-                .policy
-                .sell_above
-                .is_some_and(|s| c.price > s * (1.0 + 1e-12) && c.stock <= 1e-12),
+            stockout: c.price > model.stockout_above && c.stock <= 1e-12,
         };
         // advance the state
         self.previous = Some(rule_expectation);

@@ -14,10 +14,14 @@ impl ExpectationRule for Adaptive {
     fn name(&self) -> &'static str {
         "adaptive"
     }
+    #[inline]
     fn expect(&self, input: &ExpectationInput) -> f64 {
         match input.previous {
             None => self.initial_expected_price.unwrap_or(input.lag(1)),
             Some(prev) => prev + self.weight * (input.lag(1) - prev),
         }
+    }
+    fn as_adaptive(&self) -> Option<Adaptive> {
+        Some(*self)
     }
 }

@@ -52,6 +52,11 @@ pub trait ExpectationRule: Send + Sync + std::fmt::Debug {
     fn is_rational(&self) -> bool {
         false
     }
+    /// The rule as adaptive expectations, when it is that rule (lets the engine call it directly
+    /// instead of through the trait object; the value is the same).
+    fn as_adaptive(&self) -> Option<Adaptive> {
+        None
+    }
 }
 
 /// Builds the rule a validated spec describes (the single registration point for rules).

@@ -143,6 +143,7 @@ impl<'a> Clearing<'a> {
     }
 
     /// Buys until the price reaches `target`, within capacity and budget. Returns the amount bought.
+    #[inline]
     pub fn buy_to(&mut self, target: f64, acted: u16) -> f64 {
         let excess = self.consumption() - self.demanded_at(target);
         if excess <= 1e-12 * self.harvest.max(1.0) {
@@ -152,6 +153,7 @@ impl<'a> Clearing<'a> {
     }
 
     /// Buys `want` more (as far as capacity and budget allow). Returns the amount bought.
+    #[inline]
     pub fn buy(&mut self, want: f64, acted: u16) -> f64 {
         if want <= 0.0 {
             return 0.0;
@@ -162,6 +164,21 @@ impl<'a> Clearing<'a> {
             amount = room;
             self.flags |= flags::CAPACITY_FULL;
         }
+        if self.budget.is_finite() {
+            amount = self.within_budget(amount);
+        }
+        if amount <= 0.0 {
+            return 0.0;
+        }
+        self.purchases += amount;
+        self.flags |= acted;
+        amount
+    }
+
+    /// `amount` cut so that the period's spending P(X)·X stays within the budget (kept out of line:
+    /// most policies have no budget).
+    #[inline(never)]
+    fn within_budget(&mut self, amount: f64) -> f64 {
         let before = self.purchases;
         let total = before + amount;
         // spending P(X)·X at the clearing price; increasing in X
@@ -172,7 +189,7 @@ impl<'a> Clearing<'a> {
             self.budget,
         );
         let spend = |x: f64| x * demand.price_at(supply_left - x - shift);
-        if budget.is_finite() && spend(total) > budget {
+        if spend(total) > budget {
             self.flags |= flags::BUDGET_BOUND;
             let solved = if spend(before) >= budget {
                 before
@@ -180,17 +197,13 @@ impl<'a> Clearing<'a> {
                 crate::numeric::brent(|x| spend(x) - budget, before, total, 1e-12 * total.max(1.0))
                     .unwrap_or(before)
             };
-            amount = solved - before;
+            return solved - before;
         }
-        if amount <= 0.0 {
-            return 0.0;
-        }
-        self.purchases += amount;
-        self.flags |= acted;
         amount
     }
 
     /// Sells until the price falls to `target`, as far as the stock allows. Returns the amount sold.
+    #[inline]
     pub fn sell_to(&mut self, target: f64, acted: u16) -> f64 {
         let shortfall = self.demanded_at(target) - self.consumption();
         if shortfall <= 1e-12 * self.harvest.max(1.0) {
@@ -215,6 +228,7 @@ impl<'a> Clearing<'a> {
         self.buy(want.min(room), acted)
     }
 
+    #[inline]
     fn sell(&mut self, want: f64, acted: u16) -> f64 {
         let amount = want.min(self.stock().max(0.0));
         if amount <= 0.0 {

@@ -45,6 +45,11 @@ pub trait PolicyRule: Send + Sync + std::fmt::Debug {
     fn pays_producers(&self) -> bool {
         false
     }
+    /// The rule as a plain price band, when it is exactly one (lets the engine call it directly
+    /// instead of through the trait object; the trade is the same).
+    fn as_band(&self) -> Option<BandStock> {
+        None
+    }
     /// True for rules that buy into or sell from the agency's stock.
     fn trades_stock(&self) -> bool {
         false

@@ -12,6 +12,7 @@ pub struct BandStock {
 
 impl BandStock {
     /// Defends the band; returns true when the price was outside it (the agency acted or tried to).
+    #[inline(always)]
     pub fn defend(&self, market: &mut Clearing) -> bool {
         let p = market.price();
         if p < self.buy_below {
@@ -35,5 +36,8 @@ impl PolicyRule for BandStock {
     }
     fn trade(&self, market: &mut Clearing) {
         self.defend(market);
+    }
+    fn as_band(&self) -> Option<BandStock> {
+        Some(*self)
     }
 }
