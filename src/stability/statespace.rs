@@ -197,11 +197,7 @@ impl<'a> StateMap<'a> {
         match self.layout {
             Layout::Lags(_) => {
                 let k = x.len();
-                // history oldest first, as the rules read it
-                let mut history: Vec<f64> = x.iter().rev().copied().collect();
-                if history.len() < 2 {
-                    history.insert(0, x[k - 1]);
-                }
+                let history = lags_as_history(x);
                 let e = self.rule.expect(&ExpectationInput {
                     history: &history,
                     previous: None,
@@ -282,4 +278,14 @@ pub fn numerical_jacobian(f: impl Fn(&[f64], &mut [f64]), x: &[f64]) -> DMatrix<
         }
     }
     m
+}
+
+/// A lag state (newest price first) as the price history the rules read (oldest first), padded to
+/// the two prices every rule may look at by repeating the oldest.
+pub(crate) fn lags_as_history(x: &[f64]) -> Vec<f64> {
+    let mut history: Vec<f64> = x.iter().rev().copied().collect();
+    if history.len() < 2 {
+        history.insert(0, x[x.len() - 1]);
+    }
+    history
 }

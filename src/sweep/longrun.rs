@@ -76,10 +76,7 @@ impl EngineMap<'_> {
         match self.layout {
             Layout::Lags(_) => {
                 let k = x.len();
-                let mut history: Vec<f64> = x.iter().rev().copied().collect();
-                if history.len() < 2 {
-                    history.insert(0, x[k - 1]);
-                }
+                let history = crate::stability::statespace::lags_as_history(x);
                 let e = self.model.rule.expect(&ExpectationInput {
                     history: &history,
                     previous: None,
