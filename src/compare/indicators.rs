@@ -22,6 +22,7 @@
 use super::{Indicator, Kind, Value};
 use crate::scenario::{PolicySpec, Scenario};
 use crate::stochastic::{quantiles, PolicyRuns};
+use crate::storage::LongRun;
 use crate::welfare::{risk_premium, WelfarePv};
 
 /// Every key in display order, for a market without private storers (a market with `[storers]` adds
@@ -209,6 +210,7 @@ pub(super) fn build(
     spec: &PolicySpec,
     runs: &PolicyRuns,
     base: &PolicyRuns,
+    storage: Option<(&LongRun, &LongRun)>,
 ) -> Vec<Indicator> {
     let reps = runs.replications.len().max(1);
     let cells = (reps * scenario.run.periods).max(1) as f64;
@@ -326,21 +328,15 @@ pub(super) fn build(
             out.0.push(("verdict", Value::Missing));
         }
     }
-    if scenario.storers.is_some() {
-        match crate::storage::storage_indicators(scenario, spec) {
-            Ok(st) => {
-                out.num("private_stock_mean", st.private_stock_mean);
-                out.num("public_stock_mean", st.public_stock_mean);
-                out.0.push((
-                    "crowding_out",
-                    st.crowding_out.map_or(Value::Missing, Value::Number),
-                ));
-            }
-            Err(e) => out.0.push((
-                "private_stock_mean",
-                Value::Text(format!("unavailable: {e}")),
-            )),
-        }
+    // with private storers: the long-run stocks of the solved equilibria (policy, then baseline)
+    if let Some((with, without)) = storage {
+        out.num("private_stock_mean", with.private_stock);
+        out.num("public_stock_mean", with.public_stock);
+        out.0.push((
+            "crowding_out",
+            with.crowding_out(without, scenario.steady.quantity)
+                .map_or(Value::Missing, Value::Number),
+        ));
     }
     SPECS
         .iter()

@@ -9,14 +9,16 @@
 mod indicators;
 pub mod render;
 
+use rayon::prelude::*;
 use serde::Serialize;
 
 pub use indicators::indicator_keys;
 
 use crate::scenario::{PolicySpec, Scenario};
 use crate::stochastic::{
-    run_monte_carlo_sources, sources, Progress, ReplicationFailed, Series, Summary,
+    run_monte_carlo_sources, sources, PathSource, Progress, ReplicationFailed, Series, Summary,
 };
+use crate::storage::LongRun;
 
 /// The value of one indicator.
 #[derive(Debug, Clone, PartialEq)]
@@ -178,6 +180,14 @@ pub fn compare(
         .collect();
     let paths = sources(scenario, &specs)?;
     let mc = run_monte_carlo_sources(scenario, &paths, &[Series::Price, Series::Stock], progress)?;
+    // long-run stocks of each solved storage equilibrium, simulated once per policy
+    let long: Vec<Option<LongRun>> = paths
+        .par_iter()
+        .map(|p| match p {
+            PathSource::Storage(s) => Some(crate::storage::long_run(s)),
+            PathSource::Engine(_) => None,
+        })
+        .collect();
     let base = &mc.policies[0];
     let column = |spec: &PolicySpec, slot: usize| {
         let runs = &mc.policies[slot];
@@ -185,7 +195,13 @@ pub fn compare(
             name: spec.name.clone(),
             file: spec.source.clone(),
             is_baseline: slot == 0,
-            indicators: indicators::build(scenario, spec, runs, base),
+            indicators: indicators::build(
+                scenario,
+                spec,
+                runs,
+                base,
+                long[slot].as_ref().zip(long[0].as_ref()),
+            ),
             fan: Fan {
                 price: runs.series[0].periods.clone(),
                 stock: runs.series[1].periods.clone(),

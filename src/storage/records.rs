@@ -110,6 +110,17 @@ impl SolvedStorage {
         &self.policy
     }
 
+    /// The market the equilibrium was solved for.
+    pub fn scenario(&self) -> &Scenario {
+        &self.scenario
+    }
+
+    /// The public stock each simulated path starts with (the policy's initial stock when it runs a
+    /// band, otherwise 0).
+    pub fn initial_public(&self) -> f64 {
+        self.initial_public
+    }
+
     /// `periods` periods of replication `replication` (the market file's seed), starting with no
     /// private stock and the policy's initial public stock.
     pub fn path(&self, replication: u64, periods: usize) -> Vec<StoragePeriod> {
