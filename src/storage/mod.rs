@@ -29,6 +29,7 @@ pub use simulate::{simulate, Equilibrium, StorageIndicators, StoragePeriod};
 pub use solve::{solve_private, PriceRule, PrivateSolution, SolveOptions};
 
 use crate::scenario::{PolicySpec, Scenario};
+use agency::Band;
 
 /// Why the storage equilibrium could not be solved.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -151,9 +152,61 @@ pub fn solve(
                 REFINE_MAX_POINTS,
             )?))
         }
-        Some(band) => Ok(Equilibrium::Public(public_solve::solve_public(
-            m, band, options,
-        )?)),
+        Some(band) if band.capacity.is_finite() => Ok(Equilibrium::Public(
+            public_solve::solve_public(m, band, options)?,
+        )),
+        Some(band) => solve_unlimited(scenario, policy, m, band, options),
+    }
+}
+
+/// Largest bound tried for an unlimited store, in multiples of the steady-state harvest.
+pub const UNLIMITED_MAX_BOUND: f64 = 2.0;
+
+/// An unlimited store: the public stock needs a bounded grid, so furrow solves with a provisional
+/// capacity, simulates one long path ([`long_run`]'s shocks and length), and solves again with
+/// 1.5 × the largest public stock that path reached, until the path stays below 90 % of the bound
+/// (so the bound never binds in 10 200 simulated periods and the store behaves as unlimited). If the
+/// stock would pass [`UNLIMITED_MAX_BOUND`] × the steady-state harvest, the public stock
+/// grows past what a bounded grid can hold (without losses or sales it has no stationary level), and
+/// furrow says so.
+fn solve_unlimited(
+    scenario: &Scenario,
+    policy: &PolicySpec,
+    m: StorageMarket,
+    mut band: Band,
+    options: &SolveOptions,
+) -> Result<Equilibrium, StorageError> {
+    let q = m.q_star;
+    let initial = policy.stock.map_or(0.0, |s| s.initial);
+    let limit = UNLIMITED_MAX_BOUND * q;
+    band.capacity = (0.5 * q).max(1.5 * initial);
+    loop {
+        let eq = Equilibrium::Public(public_solve::solve_public(m.clone(), band, options)?);
+        let peak = simulate(
+            &eq,
+            &scenario.shocks,
+            scenario.run.seed,
+            0,
+            initial,
+            simulate::BURN_IN + simulate::INDICATOR_PERIODS,
+        )
+        .iter()
+        .map(|r| r.public_stock)
+        .fold(initial, f64::max);
+        if peak < 0.9 * band.capacity {
+            return Ok(eq);
+        }
+        if band.capacity >= limit {
+            return Err(StorageError::UnsupportedPolicy {
+                file: policy.source.clone(),
+                key: "stock.capacity".into(),
+                reason: format!(
+                    "unlimited: in a simulated path the public stock reaches {peak:.1} ({:.1} times the steady-state harvest), the largest store the storage model solves with; an unlimited store would hold more (without losses or sales it grows without end); set a finite stock.capacity",
+                    peak / q
+                ),
+            });
+        }
+        band.capacity = (1.5 * peak).max(1.5 * band.capacity).min(limit);
     }
 }
 

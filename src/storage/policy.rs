@@ -7,7 +7,7 @@ use crate::scenario::{FloorInstrument, PolicySpec, ReleaseSpec};
 
 /// The agency's rule as a price band inside the storage equilibrium, or `None` for a policy that
 /// does not trade. Covered: a band stock released by the band, the target or the share rule, a floor
-/// defended by purchase (a band that never sells), both with a finite capacity and no purchase budget; a deficiency-payment floor
+/// defended by purchase (a band that never sells), with no purchase budget (an unlimited capacity is solved on a bounded grid, see [`super::solve`]); a deficiency-payment floor
 /// does not trade (see [`planting_floor`]).
 pub fn band_of(policy: &PolicySpec) -> Result<Option<Band>, StorageError> {
     let unsupported = |key: &str, reason: &str| StorageError::UnsupportedPolicy {
@@ -31,13 +31,15 @@ pub fn band_of(policy: &PolicySpec) -> Result<Option<Band>, StorageError> {
         },
     };
     let Some(stock) = policy.stock else {
-        return match floor {
-            None => Ok(None),
-            Some(_) => Err(unsupported(
-                "stock.capacity",
-                "a purchase floor inside the storage model needs a [stock] section with a finite capacity",
-            )),
-        };
+        // a purchase floor without a [stock] section: an unlimited store without losses that never
+        // sells (as in the period engine); solved on a bounded grid, see `storage::solve`
+        return Ok(floor.map(|f| Band {
+            buy_below: f,
+            sell_above: f64::INFINITY,
+            capacity: f64::INFINITY,
+            keep: 1.0,
+            release: Release::Band,
+        }));
     };
     let release = match stock.release {
         ReleaseSpec::Band => Release::Band,
@@ -51,12 +53,6 @@ pub fn band_of(policy: &PolicySpec) -> Result<Option<Band>, StorageError> {
                 "= {}: the storage model covers only an unlimited purchase budget",
                 stock.purchase_budget
             ),
-        ));
-    }
-    if !stock.capacity.is_finite() {
-        return Err(unsupported(
-            "stock.capacity",
-            "unlimited: the storage model needs a finite capacity (the public stock is a state on [0, capacity])",
         ));
     }
     if stock.capacity <= 0.0 {
