@@ -375,11 +375,11 @@ fn bad_storage_inputs_are_named() {
     assert!(matches!(e, StorageError::NoCarryingCost { .. }));
     assert!(e.to_string().contains("storers.interest_rate"));
     let text = "[policy]\nname = \"x\"\n[stock]\nbuy_below = 190.0\nsell_above = 235.0\n\
-                capacity = 80.0\npurchase_budget = 5000.0\n";
+                capacity = 80.0\n[expectations]\nrule = \"adaptive\"\nweight = 0.5\n";
     let p = policy_from_table("tr.toml", parse_toml("tr.toml", text).unwrap()).unwrap();
     let e = storage::solve(&example_with(&[]), &p, &SolveOptions::default()).unwrap_err();
     assert!(
-        e.to_string().contains("tr.toml: stock.purchase_budget"),
+        e.to_string().contains("tr.toml: expectations.rule"),
         "{e}"
     );
 }

@@ -30,6 +30,8 @@ pub struct Band {
     pub keep: f64,
     /// What the agency does inside the band.
     pub release: Release,
+    /// Purchase spending allowed per period, price × quantity bought (∞: unlimited).
+    pub budget: f64,
 }
 
 /// Regime of the market in a period.
@@ -49,6 +51,8 @@ pub enum Regime {
     Steering,
     /// Share rule releasing inside the band.
     Rotating,
+    /// The agency spends its whole purchase budget and the price stays below what its rule aims at.
+    BudgetBound,
 }
 
 /// How the end-of-period public stock is fixed.
@@ -61,8 +65,75 @@ pub enum Decision {
 }
 
 /// The agency's decision, the price and dP/dz (0 where the price is held at a limit).
+///
+/// With a finite purchase budget B, purchases G − g > 0 are cut, as in the period engine
+/// (`Clearing::buy_at_most`), so that the spending at the price they leave, (G − g)·pg(G), is at most
+/// B: when the rule's own decision would spend more, G solves (G − g)·pg(G) = B (Brent's method; the
+/// left side increases with G) and the regime is [`Regime::BudgetBound`].
 #[inline]
 pub fn decide<F: Fn(f64) -> (f64, f64)>(
+    band: &Band,
+    g: f64,
+    pg: &F,
+) -> (f64, f64, Regime, Decision) {
+    let out = decide_unbudgeted(band, g, pg);
+    if band.budget.is_finite() {
+        if let Some((lo, hi)) = budget_bracket(band.budget, g, out.0, out.3, pg) {
+            return spend_budget(band.budget, g, lo, hi, pg);
+        }
+    }
+    out
+}
+
+/// Where the root of (G − g)·pg(G) = budget lies when the decision `d` (at price `price`) would
+/// spend more than `budget` on purchases, else `None`.
+fn budget_bracket<F: Fn(f64) -> (f64, f64)>(
+    budget: f64,
+    g: f64,
+    price: f64,
+    d: Decision,
+    pg: &F,
+) -> Option<(f64, f64)> {
+    match d {
+        Decision::Stock(to) if to > g && (to - g) * price > budget => Some((g, to)),
+        Decision::AtPrice { price, hi, .. } if hi > g => {
+            // the held price needs the G where pg(G) = price; the budget buys only up to g + B/price
+            let most = g + budget / price;
+            (most < hi && pg(most).0 < price).then_some((most, hi))
+        }
+        _ => None,
+    }
+}
+
+/// The outcome when the budget binds: G from (G − g)·pg(G) = budget in [lo, hi], the price pg(G),
+/// and dP/dz from the implicit function theorem: with P_y = ∂P/∂z at fixed G and p_G = dpg/dG,
+/// dG/dz = −(G − g)·P_y / (pg + (G − g)·p_G) and dP/dz = P_y + p_G·dG/dz.
+fn spend_budget<F: Fn(f64) -> (f64, f64)>(
+    budget: f64,
+    g: f64,
+    lo: f64,
+    hi: f64,
+    pg: &F,
+) -> (f64, f64, Regime, Decision) {
+    let spend = |gg: f64| (gg - g) * pg(gg).0 - budget;
+    let scale = hi.abs().max(1.0);
+    let to = crate::numeric::brent(spend, lo, hi, 1e-13 * scale).unwrap_or(0.5 * (lo + hi));
+    let (p, p_y) = pg(to);
+    let h = 1e-6 * scale;
+    let p_g = (pg(to + h).0 - pg((to - h).max(g)).0) / (to + h - (to - h).max(g));
+    let bought = to - g;
+    let denominator = p + bought * p_g;
+    let slope = if denominator > 0.0 {
+        p_y + p_g * (-bought * p_y / denominator)
+    } else {
+        p_y
+    };
+    (p, slope, Regime::BudgetBound, Decision::Stock(to))
+}
+
+/// The rule's decision without a purchase budget.
+#[inline]
+fn decide_unbudgeted<F: Fn(f64) -> (f64, f64)>(
     band: &Band,
     g: f64,
     pg: &F,
@@ -164,6 +235,7 @@ mod tests {
             capacity: 60.0,
             keep: 1.0,
             release,
+            budget: f64::INFINITY,
         }
     }
 
@@ -237,5 +309,40 @@ mod tests {
                 hi: 40.0
             }
         );
+    }
+
+    #[test]
+    fn a_finite_budget_caps_the_spending_at_the_price_it_leaves() {
+        // Engine semantics (src/policies/clearing.rs): purchases are cut so that price × quantity
+        // bought stays within the period's budget. pg(G) = 150 + 2G, carried g = 10: the band would
+        // buy to G = 22.5 at 195 (spending 12.5 × 195 = 2437.5).
+        let mut b = band(Release::Band);
+        b.budget = 1000.0;
+        let (p, slope, r, d) = decide(&b, 10.0, &pg(150.0));
+        assert_eq!(r, Regime::BudgetBound);
+        let Decision::Stock(to) = d else {
+            panic!("a budget-bound decision fixes the stock")
+        };
+        // closed form: (G − 10)(150 + 2G) = 1000 ⇔ 2G² + 130G − 2500 = 0
+        let closed = (-130.0 + (130.0_f64 * 130.0 + 8.0 * 2500.0).sqrt()) / 4.0;
+        assert!((to - closed).abs() < 1e-9, "{to} vs {closed}");
+        assert!((p - (150.0 + 2.0 * closed)).abs() < 1e-9 && p < 195.0);
+        // dP/dz by finite differences of the whole decision (pg shifts down by 1 per unit of z)
+        let at = |z: f64| decide(&b, 10.0, &move |gg: f64| (150.0 - z + 2.0 * gg, -1.0)).0;
+        let numeric = (at(1e-4) - at(-1e-4)) / 2e-4;
+        assert!((slope - numeric).abs() < 1e-6, "{slope} vs {numeric}");
+        // a budget large enough changes nothing
+        b.budget = 2437.5 + 1e-6;
+        assert_eq!(decide(&b, 10.0, &pg(150.0)).2, Regime::Buying);
+        // the target rule's restocking is cut the same way
+        let mut t = band(Release::Target {
+            target: 40.0,
+            speed: 0.5,
+        });
+        t.budget = 100.0;
+        let (p, _, r, d) = decide(&t, 10.0, &pg_with(186.0, 1.0));
+        assert_eq!(r, Regime::BudgetBound);
+        let Decision::Stock(to) = d else { panic!() };
+        assert!(((to - 10.0) * p - 100.0).abs() < 1e-9);
     }
 }

@@ -7,7 +7,7 @@ use crate::scenario::{FloorInstrument, PolicySpec, ReleaseSpec};
 
 /// The agency's rule as a price band inside the storage equilibrium, or `None` for a policy that
 /// does not trade. Covered: a band stock released by the band, the target or the share rule, a floor
-/// defended by purchase (a band that never sells), with no purchase budget (an unlimited capacity is solved on a bounded grid, see [`super::solve`]); a deficiency-payment floor
+/// defended by purchase (a band that never sells), within a purchase budget if one is set (an unlimited capacity is solved on a bounded grid, see [`super::solve`]); a deficiency-payment floor
 /// does not trade (see [`planting_floor`]).
 pub fn band_of(policy: &PolicySpec) -> Result<Option<Band>, StorageError> {
     let unsupported = |key: &str, reason: &str| StorageError::UnsupportedPolicy {
@@ -39,6 +39,7 @@ pub fn band_of(policy: &PolicySpec) -> Result<Option<Band>, StorageError> {
             capacity: f64::INFINITY,
             keep: 1.0,
             release: Release::Band,
+            budget: f64::INFINITY,
         }));
     };
     let release = match stock.release {
@@ -46,15 +47,6 @@ pub fn band_of(policy: &PolicySpec) -> Result<Option<Band>, StorageError> {
         ReleaseSpec::Target { target, speed } => Release::Target { target, speed },
         ReleaseSpec::Share { share } => Release::Share { share },
     };
-    if stock.purchase_budget.is_finite() {
-        return Err(unsupported(
-            "stock.purchase_budget",
-            &format!(
-                "= {}: the storage model covers only an unlimited purchase budget",
-                stock.purchase_budget
-            ),
-        ));
-    }
     if stock.capacity <= 0.0 {
         return Ok(None); // a store that holds nothing never trades
     }
@@ -70,6 +62,7 @@ pub fn band_of(policy: &PolicySpec) -> Result<Option<Band>, StorageError> {
         capacity: stock.capacity,
         keep: 1.0 - stock.loss_rate,
         release,
+        budget: stock.purchase_budget,
     }))
 }
 

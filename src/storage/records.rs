@@ -34,6 +34,9 @@ pub fn to_records(
             let mut bits = match r.regime {
                 Regime::Buying if floor_purchase => flags::FLOOR_BUY,
                 Regime::Buying => flags::BAND_BUY,
+                Regime::Full if r.purchases > 0.0 && floor_purchase => {
+                    flags::CAPACITY_FULL | flags::FLOOR_BUY
+                }
                 Regime::Full if r.purchases > 0.0 => flags::CAPACITY_FULL | flags::BAND_BUY,
                 Regime::Full => flags::CAPACITY_FULL,
                 Regime::Selling => flags::BAND_SELL,
@@ -41,6 +44,8 @@ pub fn to_records(
                 Regime::Empty => flags::STOCK_OUT,
                 Regime::Rotating => flags::ROTATION,
                 Regime::Steering => flags::TARGET,
+                Regime::BudgetBound if floor_purchase => flags::FLOOR_BUY | flags::BUDGET_BOUND,
+                Regime::BudgetBound => flags::BAND_BUY | flags::BUDGET_BOUND,
                 Regime::Inside => 0,
             };
             if r.deficiency_payments > 0.0 {

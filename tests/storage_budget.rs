@@ -1,0 +1,61 @@
+//! A purchase budget inside the storage equilibrium: the agency's spending per season, price ×
+//! quantity bought, never exceeds it, and a budget that never binds changes nothing.
+
+use furrow::scenario::{load_market, parse_toml, policy_from_table, PolicySpec};
+use furrow::storage::{self, SolvedStorage};
+
+const EXAMPLE: &str = "examples/veldmark_storers.toml";
+
+/// A purchase floor at 225 defended from a 200 kt store with `budget` per season (if any).
+fn floor(budget: Option<f64>) -> PolicySpec {
+    let b = budget.map_or(String::new(), |b| format!("purchase_budget = {b}\n"));
+    let text = format!(
+        "[policy]\nname = \"floor\"\n[floor]\nprice = 225.0\ninstrument = \"purchase\"\n\
+         [stock]\ncapacity = 200.0\nstorage_cost = 6.0\nloss_rate = 0.03\n{b}"
+    );
+    policy_from_table("p.toml", parse_toml("p.toml", &text).unwrap()).unwrap()
+}
+
+#[test]
+fn spending_stays_within_the_budget_and_a_bound_season_spends_all_of_it() {
+    // INTERFACE.md (policy keys): purchase_budget is the spending allowed per period, at the price
+    // the purchases leave (the period engine's rule, src/policies/clearing.rs).
+    let s = load_market(EXAMPLE).unwrap();
+    let budget = 12_000.0;
+    let solved = SolvedStorage::new(&s, &floor(Some(budget))).unwrap();
+    let mut bound = 0;
+    for rep in 0..20 {
+        for r in solved.records(rep, 60) {
+            let spent = r.price * r.purchases;
+            assert!(spent <= budget * (1.0 + 1e-9), "spent {spent}");
+            if r.flags & furrow::policies::flags::BUDGET_BOUND != 0 {
+                bound += 1;
+                assert!((spent - budget).abs() < 1e-6 * budget, "spent {spent}");
+                assert!(
+                    r.price < 225.0,
+                    "a bound budget leaves the price below the floor"
+                );
+            } else if r.purchases > 0.0 && r.stock < 200.0 * (1.0 - 1e-9) {
+                // unbound purchases below capacity defend the floor exactly
+                assert!((r.price - 225.0).abs() < 1e-6, "price {}", r.price);
+            }
+        }
+    }
+    assert!(bound > 0, "the budget should bind in some seasons");
+}
+
+#[test]
+fn a_budget_that_never_binds_gives_the_unlimited_equilibrium() {
+    // Identity (common practice, no source): a constraint that never binds changes nothing.
+    let s = load_market(EXAMPLE).unwrap();
+    let free = storage::storage_indicators(&s, &floor(None)).unwrap();
+    let ample = storage::storage_indicators(&s, &floor(Some(1e9))).unwrap();
+    assert_eq!(free.mean_price.to_bits(), ample.mean_price.to_bits());
+    assert_eq!(
+        free.public_stock_mean.to_bits(),
+        ample.public_stock_mean.to_bits()
+    );
+    // and a binding one lowers the mean public stock bought
+    let tight = storage::storage_indicators(&s, &floor(Some(8_000.0))).unwrap();
+    assert!(tight.public_stock_mean < free.public_stock_mean);
+}
