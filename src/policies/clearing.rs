@@ -109,9 +109,19 @@ impl<'a> Clearing<'a> {
     }
 
     /// Consumption C = Q − X + R.
+    ///
+    /// A zero trade is left out of the sum rather than added: the result is the same number
+    /// (Q − 0 = Q exactly, and (Q − X) + 0 = Q − X exactly when X > 0), one or two dependent
+    /// additions sooner. Only a harvest of −0 with no trade differs, in the sign of a zero, which
+    /// no caller can tell apart (the engine rejects a zero harvest; the trades compare it).
     #[inline]
     pub fn consumption(&self) -> f64 {
-        self.harvest - self.purchases + self.releases
+        match (self.purchases == 0.0, self.releases == 0.0) {
+            (true, true) => self.harvest,
+            (false, true) => self.harvest - self.purchases,
+            (true, false) => self.harvest + self.releases,
+            (false, false) => self.harvest - self.purchases + self.releases,
+        }
     }
 
     /// Clearing price P = D⁻¹(C) of the shifted demand curve.
@@ -170,7 +180,12 @@ impl<'a> Clearing<'a> {
         if amount <= 0.0 {
             return 0.0;
         }
-        self.purchases += amount;
+        // 0 + amount is amount exactly (amount > 0 here): skip the dependent addition
+        self.purchases = if self.purchases == 0.0 {
+            amount
+        } else {
+            self.purchases + amount
+        };
         self.flags |= acted;
         amount
     }
@@ -234,7 +249,11 @@ impl<'a> Clearing<'a> {
         if amount <= 0.0 {
             return 0.0;
         }
-        self.releases += amount;
+        self.releases = if self.releases == 0.0 {
+            amount
+        } else {
+            self.releases + amount
+        };
         self.flags |= acted;
         amount
     }
