@@ -157,21 +157,33 @@ impl Model {
         let planted = self.supply.quantity(planting_price);
         let harvest = (planted * shock.yield_factor + shock.supply).max(0.0);
         let agency = &self.policy.agency;
-        let mut m = Clearing::new(
-            &self.demand,
-            shock.demand,
-            harvest,
-            carried,
-            agency.capacity,
-            agency.purchase_budget,
-        );
+        let market = || {
+            Clearing::new(
+                &self.demand,
+                shock.demand,
+                harvest,
+                carried,
+                agency.capacity,
+                agency.purchase_budget,
+            )
+        };
         if let Some(band) = &self.band_only {
+            // its own market value, which no trait object sees, so the optimiser keeps it in
+            // registers and folds the zero trades it starts with
+            let mut m = market();
             band.defend(&mut m);
-        } else {
-            for rule in &self.policy.rules {
-                rule.trade(&mut m);
-            }
+            return self.settle(planted, harvest, &m);
         }
+        let mut m = market();
+        for rule in &self.policy.rules {
+            rule.trade(&mut m);
+        }
+        self.settle(planted, harvest, &m)
+    }
+
+    /// The cleared period once the rules have traded on `m`: the price, then the payment rules.
+    #[inline(always)]
+    fn settle(&self, planted: f64, harvest: f64, m: &Clearing) -> Cleared {
         let price = m.price();
         let mut producer_price = price;
         let mut deficiency = 0.0;

@@ -190,29 +190,19 @@ impl<'a> Clearing<'a> {
         amount
     }
 
-    /// `amount` cut so that the period's spending P(X)·X stays within the budget (kept out of line:
-    /// most policies have no budget).
-    #[inline(never)]
+    /// `amount` cut so that the period's spending P(X)·X stays within the budget.
+    #[inline]
     fn within_budget(&mut self, amount: f64) -> f64 {
-        let before = self.purchases;
-        let total = before + amount;
-        // spending P(X)·X at the clearing price; increasing in X
-        let (demand, shift, supply_left, budget) = (
+        let (amount, bound) = budget_cut(
             self.demand,
             self.demand_shift,
             self.harvest + self.releases,
             self.budget,
+            self.purchases,
+            amount,
         );
-        let spend = |x: f64| x * demand.price_at(supply_left - x - shift);
-        if spend(total) > budget {
+        if bound {
             self.flags |= flags::BUDGET_BOUND;
-            let solved = if spend(before) >= budget {
-                before
-            } else {
-                crate::numeric::brent(|x| spend(x) - budget, before, total, 1e-12 * total.max(1.0))
-                    .unwrap_or(before)
-            };
-            return solved - before;
         }
         amount
     }
@@ -257,4 +247,31 @@ impl<'a> Clearing<'a> {
         self.flags |= acted;
         amount
     }
+}
+
+/// The purchase `amount` (on top of `before`) cut so that the spending P(X)·X at the clearing price
+/// stays within `budget`, and whether the budget bound. Kept out of line (most policies have no
+/// budget) and away from the market value, so that the market does not escape into memory.
+#[inline(never)]
+fn budget_cut(
+    demand: &Curve,
+    shift: f64,
+    supply_left: f64,
+    budget: f64,
+    before: f64,
+    amount: f64,
+) -> (f64, bool) {
+    let total = before + amount;
+    // spending P(X)·X at the clearing price; increasing in X
+    let spend = |x: f64| x * demand.price_at(supply_left - x - shift);
+    if spend(total) > budget {
+        let solved = if spend(before) >= budget {
+            before
+        } else {
+            crate::numeric::brent(|x| spend(x) - budget, before, total, 1e-12 * total.max(1.0))
+                .unwrap_or(before)
+        };
+        return (solved - before, true);
+    }
+    (amount, false)
 }
