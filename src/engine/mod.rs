@@ -224,18 +224,16 @@ fn expected_price_failure(planting: f64, bound: f64) -> String {
     }
 }
 
-/// Why the clearing price is out of bounds (built only when it is).
+/// Why the clearing price is out of bounds (built only when it is; takes numbers rather than the
+/// cleared period so that the hot path never stores that to memory).
 #[cold]
-fn price_failure(c: &Cleared, bound: f64) -> String {
-    if c.price > bound {
-        format!(
-            "the price {:.4e} exceeded the sanity bound {bound:.4e}",
-            c.price
-        )
+fn price_failure(price: f64, consumption: f64, bound: f64) -> String {
+    if price > bound {
+        format!("the price {price:.4e} exceeded the sanity bound {bound:.4e}")
     } else {
         format!(
             "the market needs a price ≤ 0 to absorb consumption {} (demand is saturated)",
-            crate::output::fmt_num(c.harvest - c.purchases + c.releases, 4)
+            crate::output::fmt_num(consumption, 4)
         )
     }
 }
@@ -360,7 +358,11 @@ impl<'m> Simulator<'m> {
             return Err(diverged("the harvest fell to zero".into()));
         }
         if !(c.price > 0.0 && c.price <= model.price_bound) {
-            return Err(diverged(price_failure(&c, model.price_bound)));
+            return Err(diverged(price_failure(
+                c.price,
+                c.harvest - c.purchases + c.releases,
+                model.price_bound,
+            )));
         }
         let agency = &model.policy.agency;
         let purchase_cost = c.price * c.purchases;
