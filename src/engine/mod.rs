@@ -157,21 +157,33 @@ impl Model {
         let planted = self.supply.quantity(planting_price);
         let harvest = (planted * shock.yield_factor + shock.supply).max(0.0);
         let agency = &self.policy.agency;
-        let mut m = Clearing::new(
-            &self.demand,
-            shock.demand,
-            harvest,
-            carried,
-            agency.capacity,
-            agency.purchase_budget,
-        );
+        let market = || {
+            Clearing::new(
+                &self.demand,
+                shock.demand,
+                harvest,
+                carried,
+                agency.capacity,
+                agency.purchase_budget,
+            )
+        };
         if let Some(band) = &self.band_only {
+            // its own market value, which no trait object sees, so the optimiser keeps it in
+            // registers and folds the zero trades it starts with
+            let mut m = market();
             band.defend(&mut m);
-        } else {
-            for rule in &self.policy.rules {
-                rule.trade(&mut m);
-            }
+            return self.settle(planted, harvest, &m);
         }
+        let mut m = market();
+        for rule in &self.policy.rules {
+            rule.trade(&mut m);
+        }
+        self.settle(planted, harvest, &m)
+    }
+
+    /// The cleared period once the rules have traded on `m`: the price, then the payment rules.
+    #[inline(always)]
+    fn settle(&self, planted: f64, harvest: f64, m: &Clearing) -> Cleared {
         let price = m.price();
         let mut producer_price = price;
         let mut deficiency = 0.0;
@@ -212,18 +224,16 @@ fn expected_price_failure(planting: f64, bound: f64) -> String {
     }
 }
 
-/// Why the clearing price is out of bounds (built only when it is).
+/// Why the clearing price is out of bounds (built only when it is; takes numbers rather than the
+/// cleared period so that the hot path never stores that to memory).
 #[cold]
-fn price_failure(c: &Cleared, bound: f64) -> String {
-    if c.price > bound {
-        format!(
-            "the price {:.4e} exceeded the sanity bound {bound:.4e}",
-            c.price
-        )
+fn price_failure(price: f64, consumption: f64, bound: f64) -> String {
+    if price > bound {
+        format!("the price {price:.4e} exceeded the sanity bound {bound:.4e}")
     } else {
         format!(
             "the market needs a price ≤ 0 to absorb consumption {} (demand is saturated)",
-            crate::output::fmt_num(c.harvest - c.purchases + c.releases, 4)
+            crate::output::fmt_num(consumption, 4)
         )
     }
 }
@@ -246,7 +256,14 @@ pub(crate) struct Cleared {
 #[derive(Debug, Clone)]
 pub struct Simulator<'m> {
     model: &'m Model,
-    history: Vec<f64>,
+    /// The last `keep` producer prices, stored twice over (`ring[i] == ring[i + keep]`) so that the
+    /// window `ring[head..head + keep]`, oldest first, is always one slice: stepping writes two
+    /// entries and moves `head`, never shifting the history.
+    ring: Vec<f64>,
+    head: usize,
+    keep: usize,
+    /// The newest producer price (the window's last entry), kept apart for the rules that read only it.
+    last_price: f64,
     previous: Option<f64>,
     stock: f64,
     last_demand_shock: f64,
@@ -255,17 +272,37 @@ pub struct Simulator<'m> {
 
 impl<'m> Simulator<'m> {
     fn new(model: &'m Model) -> Self {
-        // room for the longest history `step` keeps, so stepping never reallocates
-        let mut history = Vec::with_capacity(4 * model.price_history.len() + 65);
-        history.extend_from_slice(&model.price_history);
+        let keep = model.price_history.len();
+        let mut ring = Vec::with_capacity(2 * keep);
+        ring.extend_from_slice(&model.price_history);
+        ring.extend_from_slice(&model.price_history);
         Simulator {
             model,
-            history,
+            ring,
+            head: 0,
+            keep,
+            last_price: model.price_history[keep - 1],
             previous: None,
             stock: model.policy.agency.initial,
             last_demand_shock: 0.0,
             period: 0,
         }
+    }
+
+    /// The producer-price history the rules read: the last `keep` prices, newest last.
+    #[inline]
+    fn history(&self) -> &[f64] {
+        &self.ring[self.head..self.head + self.keep]
+    }
+
+    /// Appends the newest producer price (the oldest leaves the window).
+    #[inline]
+    fn push_price(&mut self, price: f64) {
+        let (head, keep) = (self.head, self.keep);
+        self.ring[head] = price;
+        self.ring[head + keep] = price;
+        self.head = if head + 1 == keep { 0 } else { head + 1 };
+        self.last_price = price;
     }
 
     /// The agency stock at the end of the last period.
@@ -281,7 +318,7 @@ impl<'m> Simulator<'m> {
         let carried = self.stock * (1.0 - model.policy.agency.loss_rate);
         let floor = model.planting_floor;
         let rule_expectation = if model.is_rational {
-            let guess = *self.history.last().unwrap_or(&1.0);
+            let guess = self.last_price;
             rational::solve(model, carried, self.last_demand_shock, floor, guess).ok_or_else(
                 || {
                     diverged(
@@ -291,13 +328,12 @@ impl<'m> Simulator<'m> {
                 },
             )?
         } else {
-            let input = ExpectationInput {
-                history: &self.history,
-                previous: self.previous,
-            };
             match &model.adaptive {
-                Some(adaptive) => adaptive.expect(&input),
-                None => model.rule.expect(&input),
+                Some(adaptive) => adaptive.next(self.previous, self.last_price),
+                None => model.rule.expect(&ExpectationInput {
+                    history: self.history(),
+                    previous: self.previous,
+                }),
             }
         };
         let planting = match floor {
@@ -322,7 +358,11 @@ impl<'m> Simulator<'m> {
             return Err(diverged("the harvest fell to zero".into()));
         }
         if !(c.price > 0.0 && c.price <= model.price_bound) {
-            return Err(diverged(price_failure(&c, model.price_bound)));
+            return Err(diverged(price_failure(
+                c.price,
+                c.harvest - c.purchases + c.releases,
+                model.price_bound,
+            )));
         }
         let agency = &model.policy.agency;
         let purchase_cost = c.price * c.purchases;
@@ -365,12 +405,7 @@ impl<'m> Simulator<'m> {
         self.stock = c.stock;
         self.last_demand_shock = shock.demand;
         self.period = t;
-        self.history.push(c.producer_price);
-        let keep = model.price_history.len();
-        if self.history.len() > 4 * keep + 64 {
-            let cut = self.history.len() - keep;
-            self.history.drain(..cut);
-        }
+        self.push_price(c.producer_price);
         Ok(record)
     }
 }

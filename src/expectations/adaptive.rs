@@ -10,16 +10,24 @@ pub struct Adaptive {
     pub initial_expected_price: Option<f64>,
 }
 
+impl Adaptive {
+    /// The expectation given the previous one (`None` in period 1) and the last price P_{t−1}.
+    #[inline]
+    pub fn next(&self, previous: Option<f64>, last: f64) -> f64 {
+        match previous {
+            None => self.initial_expected_price.unwrap_or(last),
+            Some(prev) => prev + self.weight * (last - prev),
+        }
+    }
+}
+
 impl ExpectationRule for Adaptive {
     fn name(&self) -> &'static str {
         "adaptive"
     }
     #[inline]
     fn expect(&self, input: &ExpectationInput) -> f64 {
-        match input.previous {
-            None => self.initial_expected_price.unwrap_or(input.lag(1)),
-            Some(prev) => prev + self.weight * (input.lag(1) - prev),
-        }
+        self.next(input.previous, input.lag(1))
     }
     fn as_adaptive(&self) -> Option<Adaptive> {
         Some(*self)

@@ -109,9 +109,19 @@ impl<'a> Clearing<'a> {
     }
 
     /// Consumption C = Q − X + R.
+    ///
+    /// A zero trade is left out of the sum rather than added: the result is the same number
+    /// (Q − 0 = Q exactly, and (Q − X) + 0 = Q − X exactly when X > 0), one or two dependent
+    /// additions sooner. Only a harvest of −0 with no trade differs, in the sign of a zero, which
+    /// no caller can tell apart (the engine rejects a zero harvest; the trades compare it).
     #[inline]
     pub fn consumption(&self) -> f64 {
-        self.harvest - self.purchases + self.releases
+        match (self.purchases == 0.0, self.releases == 0.0) {
+            (true, true) => self.harvest,
+            (false, true) => self.harvest - self.purchases,
+            (true, false) => self.harvest + self.releases,
+            (false, false) => self.harvest - self.purchases + self.releases,
+        }
     }
 
     /// Clearing price P = D⁻¹(C) of the shifted demand curve.
@@ -170,34 +180,29 @@ impl<'a> Clearing<'a> {
         if amount <= 0.0 {
             return 0.0;
         }
-        self.purchases += amount;
+        // 0 + amount is amount exactly (amount > 0 here): skip the dependent addition
+        self.purchases = if self.purchases == 0.0 {
+            amount
+        } else {
+            self.purchases + amount
+        };
         self.flags |= acted;
         amount
     }
 
-    /// `amount` cut so that the period's spending P(X)·X stays within the budget (kept out of line:
-    /// most policies have no budget).
-    #[inline(never)]
+    /// `amount` cut so that the period's spending P(X)·X stays within the budget.
+    #[inline]
     fn within_budget(&mut self, amount: f64) -> f64 {
-        let before = self.purchases;
-        let total = before + amount;
-        // spending P(X)·X at the clearing price; increasing in X
-        let (demand, shift, supply_left, budget) = (
+        let (amount, bound) = budget_cut(
             self.demand,
             self.demand_shift,
             self.harvest + self.releases,
             self.budget,
+            self.purchases,
+            amount,
         );
-        let spend = |x: f64| x * demand.price_at(supply_left - x - shift);
-        if spend(total) > budget {
+        if bound {
             self.flags |= flags::BUDGET_BOUND;
-            let solved = if spend(before) >= budget {
-                before
-            } else {
-                crate::numeric::brent(|x| spend(x) - budget, before, total, 1e-12 * total.max(1.0))
-                    .unwrap_or(before)
-            };
-            return solved - before;
         }
         amount
     }
@@ -234,8 +239,39 @@ impl<'a> Clearing<'a> {
         if amount <= 0.0 {
             return 0.0;
         }
-        self.releases += amount;
+        self.releases = if self.releases == 0.0 {
+            amount
+        } else {
+            self.releases + amount
+        };
         self.flags |= acted;
         amount
     }
+}
+
+/// The purchase `amount` (on top of `before`) cut so that the spending P(X)·X at the clearing price
+/// stays within `budget`, and whether the budget bound. Kept out of line (most policies have no
+/// budget) and away from the market value, so that the market does not escape into memory.
+#[inline(never)]
+fn budget_cut(
+    demand: &Curve,
+    shift: f64,
+    supply_left: f64,
+    budget: f64,
+    before: f64,
+    amount: f64,
+) -> (f64, bool) {
+    let total = before + amount;
+    // spending P(X)·X at the clearing price; increasing in X
+    let spend = |x: f64| x * demand.price_at(supply_left - x - shift);
+    if spend(total) > budget {
+        let solved = if spend(before) >= budget {
+            before
+        } else {
+            crate::numeric::brent(|x| spend(x) - budget, before, total, 1e-12 * total.max(1.0))
+                .unwrap_or(before)
+        };
+        return (solved - before, true);
+    }
+    (amount, false)
 }
