@@ -9,9 +9,11 @@
 //! - [`check`]: Euler residuals on a dense grid and the printed grid.
 
 pub mod agency;
+pub mod blend;
 pub mod check;
 pub mod interp;
 pub mod market;
+pub mod next_price;
 pub mod policy;
 pub mod public;
 pub mod public_solve;
@@ -19,6 +21,7 @@ pub mod records;
 pub mod report;
 pub mod simulate;
 pub mod solve;
+pub mod split;
 
 pub use check::GridRow;
 pub use market::{Node, StorageMarket};

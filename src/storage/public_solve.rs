@@ -3,8 +3,9 @@
 
 use super::interp::Monotone;
 use super::market::StorageMarket;
-use super::public::{state_price, Band, PublicSolution};
-use super::solve::{plant, PriceRule, SolveOptions};
+use super::next_price::NextPrice;
+use super::public::{reach, Band, PublicSolution};
+use super::solve::{plant_with, PriceRule, SolveOptions};
 use super::StorageError;
 
 /// Solves the two-state equilibrium on `o.grid_2d` private-stock points × `o.public_grid`
@@ -158,19 +159,24 @@ fn iterate(
     let adaptive = damped(&band);
     let mut steps = vec![vec![1.0_f64; n]; mm];
     let mut last = vec![vec![0.0_f64; n]; mm];
+    let hi = reach(&m, &stocks);
     for it in 1..=o.max_iterations {
         let mut new_rows = Vec::with_capacity(mm);
         let mut worst = 0.0_f64;
         for (mi, &gm) in publics.iter().enumerate() {
-            let gn = band.keep * gm;
-            let next = |z: f64| {
-                let (p, d, _) = state_price(&m, &band, &prev_publics, &rows, z, gn);
-                (p, d)
+            let np = NextPrice {
+                m: &m,
+                band: &band,
+                publics: &prev_publics,
+                rows: &rows,
+                gn: band.keep * gm,
             };
+            let breaks = np.breaks(hi);
             let (mut ys, mut ps) = (Vec::with_capacity(n), Vec::with_capacity(n));
             let mut raw = vec![f64::NAN; n];
             for (j, &x) in stocks.iter().enumerate() {
-                let (q, psi) = plant(&m, m.keep * x, planted[mi][j], &next);
+                let (q, psi) =
+                    plant_with(&m, planted[mi][j], &|q| np.expect(m.keep * x, q, &breaks));
                 planted[mi][j] = q;
                 let mut p = m.discount * psi - m.cost;
                 if adaptive {
