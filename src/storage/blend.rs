@@ -72,6 +72,68 @@ pub(crate) fn row_kinks(
     out
 }
 
+/// The interpolation at one public stock, prepared once: rows, weights and the blended kink.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(crate) struct Blend {
+    start: usize,
+    w: [f64; 4],
+    cnt: usize,
+    /// Blended stockout point in y (NaN when a row never stores: then the rows are blended at the
+    /// same y).
+    kink: f64,
+}
+
+impl Blend {
+    /// Prepares the interpolation at public stock `g`.
+    #[inline]
+    pub(crate) fn at(m: &StorageMarket, publics: &[f64], rows: &[PriceRule], g: f64) -> Blend {
+        let (start, w, cnt) = weights(publics, g);
+        let kink = if cnt == 1 {
+            f64::NAN
+        } else {
+            match stockout_price(publics, rows, g) {
+                Some(p0) => m.demand.quantity(p0),
+                None => f64::NAN,
+            }
+        };
+        Blend {
+            start,
+            w,
+            cnt,
+            kink,
+        }
+    }
+
+    /// The price and dP/dy at `y` (see [`row_price`]).
+    #[inline]
+    pub(crate) fn price(&self, m: &StorageMarket, rows: &[PriceRule], y: f64) -> (f64, f64) {
+        let s = self.start;
+        if self.cnt == 1 {
+            return rows[s].eval(m, y);
+        }
+        let (mut p, mut d) = (0.0, 0.0);
+        if self.kink.is_nan() {
+            for i in 0..self.cnt {
+                let (pi, di) = rows[s + i].eval(m, y);
+                p += self.w[i] * pi;
+                d += self.w[i] * di;
+            }
+        } else {
+            if y <= self.kink {
+                return m.inverse_demand(y);
+            }
+            let off = y - self.kink;
+            for i in 0..self.cnt {
+                let r = &rows[s + i];
+                let (pi, di) = r.eval(m, r.kink + off);
+                p += self.w[i] * pi;
+                d += self.w[i] * di;
+            }
+        }
+        (p.max(0.0), d)
+    }
+}
+
 /// The price and dP/dy when `y` is left to consumers and private storers and `g` is the
 /// end-of-period public stock (see the module notes).
 #[inline]
@@ -82,34 +144,7 @@ pub(crate) fn row_price(
     y: f64,
     g: f64,
 ) -> (f64, f64) {
-    let (s, w, cnt) = weights(publics, g);
-    if cnt == 1 {
-        return rows[s].eval(m, y);
-    }
-    let (mut p, mut d) = (0.0, 0.0);
-    match stockout_price(publics, rows, g) {
-        Some(p0) => {
-            let kink = m.demand.quantity(p0);
-            if y <= kink {
-                return m.inverse_demand(y);
-            }
-            let off = y - kink;
-            for i in 0..cnt {
-                let r = &rows[s + i];
-                let (pi, di) = r.eval(m, r.kink + off);
-                p += w[i] * pi;
-                d += w[i] * di;
-            }
-        }
-        None => {
-            for i in 0..cnt {
-                let (pi, di) = rows[s + i].eval(m, y);
-                p += w[i] * pi;
-                d += w[i] * di;
-            }
-        }
-    }
-    (p.max(0.0), d)
+    Blend::at(m, publics, rows, g).price(m, rows, y)
 }
 
 #[cfg(test)]

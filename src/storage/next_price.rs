@@ -10,26 +10,50 @@
 //! points are found once per g': the kinks analytically, the others as roots of a decreasing
 //! function of z' (safeguarded Newton).
 
-use super::agency::{Band, Release};
-use super::blend::{row_kinks, row_price};
+use super::agency::{decide, Band, Release};
+use super::blend::{row_kinks, Blend};
 use super::market::StorageMarket;
-use super::public::state_price;
 use super::solve::PriceRule;
 use super::split::next_nodes;
 
 /// Next period's price at carried-in public stock `gn` under the rows `rows` on `publics`.
-pub(crate) struct NextPrice<'a> {
-    pub m: &'a StorageMarket,
-    pub band: &'a Band,
-    pub publics: &'a [f64],
-    pub rows: &'a [PriceRule],
-    pub gn: f64,
+pub struct NextPrice<'a> {
+    m: &'a StorageMarket,
+    band: &'a Band,
+    publics: &'a [f64],
+    rows: &'a [PriceRule],
+    gn: f64,
+    /// The interpolation prepared at each public stock the rule can fix.
+    fixed: Vec<(f64, Blend)>,
 }
 
-/// Root of the decreasing function f on [lo, hi] (f(lo) > 0 ≥ f(hi)): the boundary of {f > 0}.
-fn boundary<F: Fn(f64) -> (f64, f64)>(f: F, mut lo: f64, mut hi: f64, tol: f64) -> f64 {
+/// The end-of-period public stocks the agency's rule can fix when it carries in `g` (computed as
+/// [`decide`] computes them).
+fn stocks(band: &Band, g: f64) -> Vec<f64> {
+    let cap = band.capacity;
+    let mut v = vec![g, cap, 0.0];
+    match band.release {
+        Release::Band => {}
+        Release::Target { target, speed } => {
+            let gap = speed * (target - g);
+            v.push(if gap > 0.0 {
+                (g + gap).min(cap)
+            } else {
+                (g + gap).max(0.0)
+            });
+        }
+        Release::Share { share } => v.push((1.0 - share) * g),
+    }
+    v
+}
+
+/// Root of the decreasing function f on [lo, hi] (f(lo) > 0 ≥ f(hi)): the boundary of {f > 0}, to
+/// `tol`. Bisection until the bracket is narrower than `near`, then Newton steps kept inside the
+/// bracket (bisection where a step would leave it), so that a far start in a steep, convex region
+/// (constant-elasticity demand near zero consumption) cannot stall the search.
+fn boundary<F: Fn(f64) -> (f64, f64)>(f: F, mut lo: f64, mut hi: f64, tol: f64, near: f64) -> f64 {
     let mut x = 0.5 * (lo + hi);
-    for _ in 0..200 {
+    for _ in 0..300 {
         let (v, d) = f(x);
         if v > 0.0 {
             lo = x;
@@ -39,7 +63,7 @@ fn boundary<F: Fn(f64) -> (f64, f64)>(f: F, mut lo: f64, mut hi: f64, tol: f64) 
         if hi - lo <= tol {
             break;
         }
-        let newton = if d < 0.0 && v != 0.0 {
+        let newton = if hi - lo < near && d < 0.0 && v != 0.0 {
             x - v / d
         } else {
             f64::NAN
@@ -56,26 +80,47 @@ fn boundary<F: Fn(f64) -> (f64, f64)>(f: F, mut lo: f64, mut hi: f64, tol: f64) 
     0.5 * (lo + hi)
 }
 
-impl NextPrice<'_> {
-    /// Price and dP'/dz' at next availability `z`.
-    #[inline]
-    pub fn price(&self, z: f64) -> (f64, f64) {
-        let (p, d, _) = state_price(self.m, self.band, self.publics, self.rows, z, self.gn);
-        (p, d)
+impl<'a> NextPrice<'a> {
+    /// Next period's price at carried-in public stock `gn`.
+    pub fn new(
+        m: &'a StorageMarket,
+        band: &'a Band,
+        publics: &'a [f64],
+        rows: &'a [PriceRule],
+        gn: f64,
+    ) -> NextPrice<'a> {
+        let fixed = stocks(band, gn)
+            .into_iter()
+            .map(|gg| (gg, Blend::at(m, publics, rows, gg)))
+            .collect();
+        NextPrice {
+            m,
+            band,
+            publics,
+            rows,
+            gn,
+            fixed,
+        }
     }
 
-    /// The end-of-period public stocks the agency's rule can fix at this g'.
-    fn stocks(&self) -> Vec<f64> {
-        let (g, cap) = (self.gn, self.band.capacity);
-        let mut v = vec![g, cap, 0.0];
-        match self.band.release {
-            Release::Band => {}
-            Release::Target { target, speed } => {
-                v.push((g + speed * (target - g)).clamp(0.0, cap));
+    /// The interpolation at public stock `gg` (prepared when the rule can fix it).
+    #[inline]
+    fn blend(&self, gg: f64) -> Blend {
+        for &(g, b) in &self.fixed {
+            if g == gg {
+                return b;
             }
-            Release::Share { share } => v.push((1.0 - share) * g),
         }
-        v
+        Blend::at(self.m, self.publics, self.rows, gg)
+    }
+
+    /// Price and dP'/dz' at next availability `z` under the agency's rule.
+    #[inline]
+    pub fn price(&self, z: f64) -> (f64, f64) {
+        let w = z + self.gn;
+        let pg = |gg: f64| self.blend(gg).price(self.m, self.rows, w - gg);
+        let (p, d, _, _) = decide(self.band, self.gn, &pg);
+        (p, d)
     }
 
     /// The ascending availabilities in (0, `hi`] where P'(·, g') may be non-smooth (see the module
@@ -85,6 +130,7 @@ impl NextPrice<'_> {
         let b = self.band;
         let lo = 1e-6 * m.q_star;
         let tol = 1e-12 * m.q_star.max(1.0);
+        let near = 1e-3 * m.q_star.max(1.0);
         let mut levels = vec![b.buy_below, 0.0];
         if b.sell_above.is_finite() {
             levels.push(b.sell_above);
@@ -93,7 +139,7 @@ impl NextPrice<'_> {
             }
         }
         let mut out = Vec::with_capacity(24);
-        for gg in self.stocks() {
+        for &(gg, blend) in &self.fixed {
             // the row at gg as a function of z': y = z' + g' − gg
             let shift = self.gn - gg;
             for k in row_kinks(m, self.publics, self.rows, gg) {
@@ -104,11 +150,11 @@ impl NextPrice<'_> {
             }
             for &level in &levels {
                 let f = |z: f64| {
-                    let (p, d) = row_price(m, self.publics, self.rows, z + shift, gg);
+                    let (p, d) = blend.price(m, self.rows, z + shift);
                     (p - level, d)
                 };
                 if f(lo).0 > 0.0 && f(hi).0 <= 0.0 {
-                    out.push(boundary(f, lo, hi, tol));
+                    out.push(boundary(f, lo, hi, tol, near));
                 }
             }
         }
@@ -118,7 +164,7 @@ impl NextPrice<'_> {
                 (p - m.planting_floor, d)
             };
             if f(lo).0 > 0.0 && f(hi).0 <= 0.0 {
-                out.push(boundary(f, lo, hi, tol));
+                out.push(boundary(f, lo, hi, tol, near));
             }
         }
         out.sort_by(f64::total_cmp);

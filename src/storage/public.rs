@@ -15,6 +15,8 @@
 //! P(y = z, G = g), and when it falls outside the band only the band price or, if the capacity (or the
 //! stock) runs out, P(z + g − cap, cap) (or P(z + g, 0)).
 
+use rayon::prelude::*;
+
 use super::agency::decide;
 pub use super::agency::{Band, Decision, Regime, Release};
 use super::market::StorageMarket;
@@ -24,7 +26,7 @@ use super::solve::{plant_with, PriceRule};
 /// Highest next availability the breakpoints are searched up to: the largest private stock of the
 /// grid carried in plus three times the steady-state planting at the highest yield and additive
 /// shock the quadrature reaches.
-pub(crate) fn reach(m: &StorageMarket, stocks: &[f64]) -> f64 {
+pub fn reach(m: &StorageMarket, stocks: &[f64]) -> f64 {
     let t = super::split::TAIL;
     let x = stocks.last().copied().unwrap_or(0.0).max(m.q_star);
     m.keep * x + 3.0 * m.q_star * (m.yield_sigma * t).exp() + t * m.additive_sd
@@ -83,20 +85,6 @@ pub(crate) fn state_decision(
     decide(band, g, &|gg: f64| row_price(m, publics, rows, w - gg, gg))
 }
 
-/// Price, slope and regime at state (z, g).
-#[inline]
-pub(crate) fn state_price(
-    m: &StorageMarket,
-    band: &Band,
-    publics: &[f64],
-    rows: &[PriceRule],
-    z: f64,
-    g: f64,
-) -> (f64, f64, Regime) {
-    let (p, d, r, _) = state_decision(m, band, publics, rows, z, g);
-    (p, d, r)
-}
-
 impl PublicSolution {
     /// The period's outcome at availability `z` with public stock `g` carried in.
     pub fn clear(&self, z: f64, g: f64) -> Cleared {
@@ -123,14 +111,14 @@ impl PublicSolution {
     }
 
     /// Next period's price when `public` public units are carried out (see [`NextPrice`]).
-    pub(crate) fn next_price(&self, public: f64) -> NextPrice<'_> {
-        NextPrice {
-            m: &self.market,
-            band: &self.band,
-            publics: &self.publics,
-            rows: &self.rows,
-            gn: self.band.keep * public,
-        }
+    pub fn next_price(&self, public: f64) -> NextPrice<'_> {
+        NextPrice::new(
+            &self.market,
+            &self.band,
+            &self.publics,
+            &self.rows,
+            self.band.keep * public,
+        )
     }
 
     /// Planting and E[P'] when `x` private and `public` public units are carried out of the period
@@ -238,14 +226,17 @@ impl PublicSolution {
     pub fn euler_residual_max(&self, nz: usize, ng: usize) -> f64 {
         let (lo, hi) = self.range();
         let (nz, ng) = (nz.max(2), ng.max(2));
-        let mut worst = 0.0_f64;
-        for l in 0..ng {
-            let g = self.band.keep * self.band.capacity * l as f64 / (ng - 1) as f64;
-            for i in 0..nz {
-                let z = lo + (hi - lo) * i as f64 / (nz - 1) as f64;
-                worst = worst.max(self.euler_residual(z, g));
-            }
-        }
-        worst
+        // levels in parallel; the maximum does not depend on the order
+        (0..ng)
+            .into_par_iter()
+            .map(|l| {
+                let g = self.band.keep * self.band.capacity * l as f64 / (ng - 1) as f64;
+                (0..nz)
+                    .map(|i| self.euler_residual(lo + (hi - lo) * i as f64 / (nz - 1) as f64, g))
+                    .fold(0.0_f64, f64::max)
+            })
+            .collect::<Vec<f64>>()
+            .into_iter()
+            .fold(0.0_f64, f64::max)
     }
 }

@@ -1,6 +1,8 @@
 //! Solving the two-state (public band stock) equilibrium: endogenous-grid iteration on a grid of
 //! end-of-period private stock × public stock, and residual-driven refinement of both grids.
 
+use rayon::prelude::*;
+
 use super::interp::Monotone;
 use super::market::StorageMarket;
 use super::next_price::NextPrice;
@@ -129,17 +131,6 @@ fn halve(v: &[f64], split: &[bool]) -> Vec<f64> {
     out
 }
 
-/// Whether the iteration is damped point by point: the new price at grid stock x_j (public stock
-/// G_m) is the previous one plus step_jm × the endogenous-grid update there, and step_jm (1 at the
-/// start) is halved whenever the update changes sign. For the target rule, whose trade jumps where
-/// the band takes over, the undamped iteration cycles: points whose next-period quadrature nodes sit
-/// on a jump flip between two values. The halving takes them to the jump (where the arbitrage
-/// condition holds only as an inequality on the discretised model) and leaves every point that
-/// converges monotonically undamped (docs/storage.md).
-fn damped(band: &Band) -> bool {
-    matches!(band.release, super::agency::Release::Target { .. })
-}
-
 /// Endogenous-grid iteration to the tolerance; the first expectation uses the rules `start` (on their
 /// own public-stock grid).
 fn iterate(
@@ -156,77 +147,63 @@ fn iterate(
     let (mut prev_publics, mut rows) = start;
     let mut old: Vec<Vec<f64>> = vec![Vec::new(); mm];
     let mut change = f64::INFINITY;
-    let adaptive = damped(&band);
-    let mut steps = vec![vec![1.0_f64; n]; mm];
-    let mut last = vec![vec![0.0_f64; n]; mm];
     let hi = reach(&m, &stocks);
     for it in 1..=o.max_iterations {
-        let mut new_rows = Vec::with_capacity(mm);
-        let mut worst = 0.0_f64;
-        for (mi, &gm) in publics.iter().enumerate() {
-            let np = NextPrice {
-                m: &m,
-                band: &band,
-                publics: &prev_publics,
-                rows: &rows,
-                gn: band.keep * gm,
-            };
-            let breaks = np.breaks(hi);
-            let (mut ys, mut ps) = (Vec::with_capacity(n), Vec::with_capacity(n));
-            let mut raw = vec![f64::NAN; n];
-            for (j, &x) in stocks.iter().enumerate() {
-                let (q, psi) =
-                    plant_with(&m, planted[mi][j], &|q| np.expect(m.keep * x, q, &breaks));
-                planted[mi][j] = q;
-                let mut p = m.discount * psi - m.cost;
-                if adaptive {
-                    if let Some(&before) = old[mi].get(j).filter(|v| v.is_finite()) {
-                        if p > 0.0 {
-                            let delta = p - before;
-                            if delta * last[mi][j] < 0.0 {
-                                steps[mi][j] *= 0.5;
-                            }
-                            last[mi][j] = delta;
-                            p = before + steps[mi][j] * delta;
-                        }
+        // rows are independent given last iteration's rules: solved in parallel, collected in order
+        // (the result does not depend on the number of threads)
+        let results: Vec<(PriceRule, f64)> = publics
+            .par_iter()
+            .zip(planted.par_iter_mut())
+            .zip(old.par_iter_mut())
+            .map(|((&gm, planted_row), old_row)| {
+                let np = NextPrice::new(&m, &band, &prev_publics, &rows, band.keep * gm);
+                let breaks = np.breaks(hi);
+                let (mut ys, mut ps) = (Vec::with_capacity(n), Vec::with_capacity(n));
+                let mut raw = vec![f64::NAN; n];
+                for (j, &x) in stocks.iter().enumerate() {
+                    let (q, psi) =
+                        plant_with(&m, planted_row[j], &|q| np.expect(m.keep * x, q, &breaks));
+                    planted_row[j] = q;
+                    let p = m.discount * psi - m.cost;
+                    if p <= 0.0 {
+                        break;
                     }
+                    raw[j] = p;
+                    // should E[P'] rise locally with x, such points are left out of the rule (its
+                    // decreasing envelope) but still count for convergence
+                    if ps.last().is_some_and(|&last| p > last) {
+                        continue;
+                    }
+                    ys.push(x + m.demand.quantity(p));
+                    ps.push(p);
                 }
-                if p <= 0.0 {
-                    break;
-                }
-                raw[j] = p;
-                // a rule with price jumps can make E[P'] rise locally with x; such points are left
-                // out of the rule (its decreasing envelope) but still count for convergence
-                if ps.last().is_some_and(|&last| p > last) {
-                    continue;
-                }
-                ys.push(x + m.demand.quantity(p));
-                ps.push(p);
-            }
-            let row_change = if it == 1 {
-                f64::INFINITY
-            } else {
-                raw.iter()
-                    .zip(&old[mi])
-                    .map(|(a, b)| match (a.is_nan(), b.is_nan()) {
-                        (true, true) => 0.0,
-                        (false, false) => (a - b).abs(),
-                        _ => f64::INFINITY,
-                    })
-                    .fold(0.0, f64::max)
-                    / m.p_star
-            };
-            worst = worst.max(row_change);
-            new_rows.push(if ps.len() >= 2 {
-                PriceRule {
-                    kink: ys[0],
-                    spline: Some(Monotone::new(ys, ps)),
-                }
-            } else {
-                PriceRule::no_storage()
-            });
-            old[mi] = raw;
-        }
+                let row_change = if it == 1 {
+                    f64::INFINITY
+                } else {
+                    raw.iter()
+                        .zip(old_row.iter())
+                        .map(|(a, b)| match (a.is_nan(), b.is_nan()) {
+                            (true, true) => 0.0,
+                            (false, false) => (a - b).abs(),
+                            _ => f64::INFINITY,
+                        })
+                        .fold(0.0, f64::max)
+                        / m.p_star
+                };
+                *old_row = raw;
+                let rule = if ps.len() >= 2 {
+                    PriceRule {
+                        kink: ys[0],
+                        spline: Some(Monotone::new(ys, ps)),
+                    }
+                } else {
+                    PriceRule::no_storage()
+                };
+                (rule, row_change)
+            })
+            .collect();
+        let worst = results.iter().map(|r| r.1).fold(0.0_f64, f64::max);
+        let new_rows: Vec<PriceRule> = results.into_iter().map(|r| r.0).collect();
         rows = new_rows;
         prev_publics.clone_from(&publics);
         change = worst;
