@@ -137,19 +137,41 @@ impl PublicSolution {
         self.plant_and_expect(x, public).0
     }
 
-    /// Planting on the grid point nearest below (`x`, `public`): a starting guess.
+    /// Planting interpolated bilinearly on the solved grid at (`x`, `public`): Newton's starting
+    /// guess.
     pub fn planted_guess(&self, x: f64, public: f64) -> f64 {
-        let mi = self
-            .publics
-            .partition_point(|&v| v <= public)
-            .clamp(1, self.publics.len())
-            - 1;
-        let j = self
-            .stocks
-            .partition_point(|&v| v <= x)
-            .clamp(1, self.stocks.len())
-            - 1;
-        self.planted[mi][j]
+        let cell = |v: &[f64], at: f64| {
+            let k = v.partition_point(|&u| u <= at).clamp(1, v.len() - 1) - 1;
+            let t = if v.len() > 1 {
+                ((at - v[k]) / (v[k + 1] - v[k])).clamp(0.0, 1.0)
+            } else {
+                0.0
+            };
+            (k, t)
+        };
+        if self.publics.len() < 2 || self.stocks.len() < 2 {
+            return self.planted[0][0];
+        }
+        let (mi, tg) = cell(&self.publics, public);
+        let (j, tx) = cell(&self.stocks, x);
+        let row = |r: &[f64]| (1.0 - tx) * r[j] + tx * r[j + 1];
+        (1.0 - tg) * row(&self.planted[mi]) + tg * row(&self.planted[mi + 1])
+    }
+
+    /// Planting and the expected producer price farmers plant on, E[max(P', F)], when `x` private
+    /// and `public` public units are carried out (one breakpoint search for both).
+    pub fn plant_and_expect_producer(&self, x: f64, public: f64) -> (f64, f64) {
+        let m = &self.market;
+        let np = self.next_price(public);
+        let breaks = np.breaks(reach(m, &self.stocks));
+        let (q, psi) = plant_with(m, self.planted_guess(x, public), &|q| {
+            np.expect(m.keep * x, q, &breaks)
+        });
+        if m.planting_floor > 0.0 {
+            (q, np.expect(m.keep * x, q, &breaks).0)
+        } else {
+            (q, psi)
+        }
     }
 
     /// Expected next price when `x` private and `public` public units are carried out, with planting
