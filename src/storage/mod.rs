@@ -4,6 +4,8 @@
 //! the storers know. See `docs/storage.md` for the model, the method and the assumptions.
 //!
 //! - [`market`]: curves, carrying terms and the Gauss–Hermite quadrature over next period's shocks;
+//! - [`split`], [`next_price`], [`blend`]: the two-state model's breakpoint-splitting quadrature,
+//!   the breakpoints of next period's price, and the interpolation across public-stock levels;
 //! - [`interp`]: monotone cubic interpolation (Fritsch and Carlson 1980);
 //! - [`solve`]: the one-state equilibrium (endogenous grid method);
 //! - [`check`]: Euler residuals on a dense grid and the printed grid.

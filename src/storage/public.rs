@@ -11,9 +11,11 @@
 //! of a grid on [0, capacity]. For fixed G the pairs (x_j + D(π_jm), π_jm), with
 //! π_jm = (1 − loss)/(1 + r)·E[P'(keep·x_j + h', keep_g·G_m)] − k, give the price as a function of
 //! what is left to consumers and private storers, y = z + g − G (one monotone cubic rule per G_m,
-//! linear in G between them). The price at any state then needs no root finding: the no-trade price
-//! P(y = z, G = g), and when it falls outside the band only the band price or, if the capacity (or the
-//! stock) runs out, P(z + g − cap, cap) (or P(z + g, 0)).
+//! cubic Lagrange in G between them, [`super::blend`]). The price at any state then needs no root
+//! finding: the no-trade price P(y = z, G = g), and when it falls outside the band only the band price
+//! or, if the capacity (or the stock) runs out, P(z + g − cap, cap) (or P(z + g, 0)). Expectations
+//! over next period's shocks use the breakpoint-splitting quadrature of [`super::split`] at the
+//! breakpoints of [`super::next_price`].
 
 use rayon::prelude::*;
 
