@@ -13,7 +13,9 @@ use super::market::StorageMarket;
 use super::solve::PriceRule;
 
 /// The rows and weights that interpolate at public stock `g` (clamped to the grid): (first row,
-/// weights, number of rows used).
+/// weights, number of rows used). A level that appears twice on the grid is a barrier: the
+/// interpolation uses only the rows on the same side of it as `g` (where the rules bend in G, a
+/// stencil across the bend would spread its error over the neighbouring intervals).
 #[inline]
 pub(crate) fn weights(publics: &[f64], g: f64) -> (usize, [f64; 4], usize) {
     let n = publics.len();
@@ -22,11 +24,20 @@ pub(crate) fn weights(publics: &[f64], g: f64) -> (usize, [f64; 4], usize) {
     if g == publics[k] {
         return (k, [1.0, 0.0, 0.0, 0.0], 1);
     }
-    let cnt = n.min(4);
+    // the segment between barriers that holds the interval [k, k + 1]
+    let mut lo = k;
+    while lo > 0 && publics[lo - 1] < publics[lo] && lo + 2 > k {
+        lo -= 1;
+    }
+    let mut hi = k + 1;
+    while hi + 1 < n && publics[hi + 1] > publics[hi] && hi < k + 3 {
+        hi += 1;
+    }
+    let cnt = (hi - lo + 1).min(4);
     let start = if cnt == 4 {
-        k.saturating_sub(1).min(n - 4)
+        k.saturating_sub(1).clamp(lo, hi - 3)
     } else {
-        0
+        lo
     };
     let mut w = [0.0; 4];
     for (i, wi) in w.iter_mut().enumerate().take(cnt) {
@@ -159,6 +170,26 @@ mod tests {
         let f = |g: f64| 2.0 - 0.3 * g + 0.01 * g * g - 1e-4 * g * g * g;
         for g in [0.0, 3.3, 17.0, 40.0, 55.5, publics[6]] {
             let (s, w, cnt) = weights(&publics, g);
+            let v: f64 = (0..cnt).map(|i| w[i] * f(publics[s + i])).sum();
+            assert!((v - f(g)).abs() < 1e-12, "{g}: {v} {}", f(g));
+        }
+    }
+
+    #[test]
+    fn a_doubled_level_is_a_barrier_of_the_interpolation() {
+        // a function that is cubic on each side of 30 with a kink there is reproduced exactly when 30
+        // is doubled on the grid (each side interpolated by its own cubic; exactness as above)
+        let publics = vec![0.0, 10.0, 20.0, 30.0, 30.0, 40.0, 50.0, 60.0];
+        let f = |g: f64| {
+            if g <= 30.0 {
+                1.0 + 0.2 * g - 1e-3 * g * g * g / 30.0
+            } else {
+                1.0 + 0.2 * 30.0 - 0.9 - 0.5 * (g - 30.0) + 2e-4 * (g - 30.0).powi(3)
+            }
+        };
+        for g in [3.0, 17.0, 25.0, 29.9, 30.1, 33.0, 47.0, 59.0] {
+            let (s, w, cnt) = weights(&publics, g);
+            assert!((s..s + cnt).all(|i| (publics[i] <= 30.0) == (g <= 30.0) || publics[i] == 30.0));
             let v: f64 = (0..cnt).map(|i| w[i] * f(publics[s + i])).sum();
             assert!((v - f(g)).abs() < 1e-12, "{g}: {v} {}", f(g));
         }

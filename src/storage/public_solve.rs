@@ -27,9 +27,20 @@ pub fn solve_public(
     let stocks: Vec<f64> = (0..n)
         .map(|j| x_max * (j as f64 / (n - 1) as f64).powi(2))
         .collect();
-    let publics: Vec<f64> = (0..mm)
+    let mut publics: Vec<f64> = (0..mm)
         .map(|i| band.capacity * i as f64 / (mm - 1) as f64)
         .collect();
+    // The target rule switches from restocking to running down where the carried-in stock equals
+    // the target, G* = target/keep_g: the rules bend there as functions of G. The level is put on
+    // the grid twice, and interpolation never reaches across it (see [`super::blend::weights`]).
+    if let super::agency::Release::Target { target, .. } = band.release {
+        let gs = target / band.keep;
+        if gs > 0.0 && gs < band.capacity {
+            let k = publics.partition_point(|&v| v < gs);
+            publics.splice(k..k, [gs, gs]);
+        }
+    }
+    let mm = publics.len();
     let planted = vec![vec![m.q_star; n]; mm];
     let start = (publics.clone(), vec![PriceRule::no_storage(); mm]);
     iterate(m, band, stocks, publics, planted, start, o)
@@ -124,7 +135,8 @@ fn halve(v: &[f64], split: &[bool]) -> Vec<f64> {
     let mut out = Vec::with_capacity(v.len() * 2);
     for j in 0..v.len() {
         out.push(v[j]);
-        if j + 1 < v.len() && split[j] {
+        // a doubled level (a barrier of the interpolation) is never split
+        if j + 1 < v.len() && split[j] && v[j + 1] > v[j] {
             out.push(0.5 * (v[j] + v[j + 1]));
         }
     }
