@@ -257,8 +257,9 @@ fn a_band_reserve_crowds_out_part_of_private_storage() {
     assert!(c > 0.0 && c < 1.0, "crowding-out {c}");
     assert!(ind.public_stock_mean > 1.0);
     assert!(ind.private_stock_mean < ind.private_stock_mean_without_policy);
-    // two-state accuracy on the default grids (100 × 16): about 1e-3 (docs/storage.md)
-    assert!(ind.euler_residual_max < 3e-3, "{}", ind.euler_residual_max);
+    // two-state accuracy on the default grids (150 × 16) with the breakpoint-splitting quadrature:
+    // Euler residual (Judd 1992) measured 9.1e-7 on this linear-demand market (docs/storage.md)
+    assert!(ind.euler_residual_max < 2e-6, "{}", ind.euler_residual_max);
     // no policy: no public stock and no crowding-out figure
     let none = storage::storage_indicators(&s, &PolicySpec::none()).unwrap();
     assert_eq!(none.public_stock_mean, 0.0);
@@ -326,6 +327,8 @@ fn a_rotating_reserve_releases_its_share_inside_the_equilibrium() {
     let ind = storage::storage_indicators(&s, &p).unwrap();
     let c = ind.crowding_out.unwrap();
     assert!(c > 0.0 && c < 1.0, "crowding-out {c}");
+    // Euler residual (Judd 1992) of the two-state solve: measured 6.9e-8 on this market
+    assert!(ind.euler_residual_max < 1e-6, "{}", ind.euler_residual_max);
 }
 
 #[test]
@@ -536,9 +539,11 @@ fn a_target_reserve_converges_and_keeps_its_books() {
         panic!("a public stock expected")
     };
     assert!(sol.iterations < o.max_iterations && sol.change < o.tolerance);
-    // honest accuracy: the rule's jumps leave residuals of a few per cent (docs/storage.md)
+    // Euler residual (Judd 1992): the expectation is integrated exactly across the rule's price jumps
+    // (breakpoint-splitting quadrature), so the plain iteration converges; measured 7.2e-6 on this
+    // market (docs/storage.md)
     let residual = sol.euler_residual_max(201, 9);
-    assert!(residual < 0.06, "Euler residual {residual}");
+    assert!(residual < 2e-5, "Euler residual {residual}");
     let solved = storage::SolvedStorage::new(&s, &p).unwrap();
     let records = solved.records(2, 2000);
     let mut prev = 10.0;

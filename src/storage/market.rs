@@ -34,6 +34,9 @@ pub struct StorageMarket {
     pub cost: f64,
     /// Quadrature nodes over (yield, additive shock).
     pub nodes: Vec<Node>,
+    /// Gauss–Hermite nodes over the yield factor alone (factor, weight); one node (1, 1) without
+    /// yield risk.
+    pub yield_nodes: Vec<(f64, f64)>,
     /// Steady-state price of the market without storage.
     pub p_star: f64,
     /// Steady-state quantity.
@@ -110,6 +113,7 @@ impl StorageMarket {
             discount,
             cost: st.storage_cost,
             nodes: all,
+            yield_nodes: ys,
             p_star: s.steady.price,
             q_star: q,
             harvest_sd: ((q * s.shocks.yield_cv).powi(2) + add_sd * add_sd).sqrt(),

@@ -4,14 +4,18 @@
 //! the storers know. See `docs/storage.md` for the model, the method and the assumptions.
 //!
 //! - [`market`]: curves, carrying terms and the Gauss–Hermite quadrature over next period's shocks;
+//! - [`split`], [`next_price`], [`blend`]: the two-state model's breakpoint-splitting quadrature,
+//!   the breakpoints of next period's price, and the interpolation across public-stock levels;
 //! - [`interp`]: monotone cubic interpolation (Fritsch and Carlson 1980);
 //! - [`solve`]: the one-state equilibrium (endogenous grid method);
 //! - [`check`]: Euler residuals on a dense grid and the printed grid.
 
 pub mod agency;
+pub mod blend;
 pub mod check;
 pub mod interp;
 pub mod market;
+pub mod next_price;
 pub mod policy;
 pub mod public;
 pub mod public_solve;
@@ -19,6 +23,7 @@ pub mod records;
 pub mod report;
 pub mod simulate;
 pub mod solve;
+pub mod split;
 
 pub use check::GridRow;
 pub use market::{Node, StorageMarket};

@@ -11,14 +11,28 @@
 //! of a grid on [0, capacity]. For fixed G the pairs (x_j + D(π_jm), π_jm), with
 //! π_jm = (1 − loss)/(1 + r)·E[P'(keep·x_j + h', keep_g·G_m)] − k, give the price as a function of
 //! what is left to consumers and private storers, y = z + g − G (one monotone cubic rule per G_m,
-//! linear in G between them). The price at any state then needs no root finding: the no-trade price
-//! P(y = z, G = g), and when it falls outside the band only the band price or, if the capacity (or the
-//! stock) runs out, P(z + g − cap, cap) (or P(z + g, 0)).
+//! cubic Lagrange in G between them, [`super::blend`]). The price at any state then needs no root
+//! finding: the no-trade price P(y = z, G = g), and when it falls outside the band only the band price
+//! or, if the capacity (or the stock) runs out, P(z + g − cap, cap) (or P(z + g, 0)). Expectations
+//! over next period's shocks use the breakpoint-splitting quadrature of [`super::split`] at the
+//! breakpoints of [`super::next_price`].
+
+use rayon::prelude::*;
 
 use super::agency::decide;
 pub use super::agency::{Band, Decision, Regime, Release};
 use super::market::StorageMarket;
-use super::solve::{plant, PriceRule};
+use super::next_price::NextPrice;
+use super::solve::{plant_with, PriceRule};
+
+/// Highest next availability the breakpoints are searched up to: the largest private stock of the
+/// grid carried in plus three times the steady-state planting at the highest yield and additive
+/// shock the quadrature reaches.
+pub fn reach(m: &StorageMarket, stocks: &[f64]) -> f64 {
+    let t = super::split::TAIL;
+    let x = stocks.last().copied().unwrap_or(0.0).max(m.q_star);
+    m.keep * x + 3.0 * m.q_star * (m.yield_sigma * t).exp() + t * m.additive_sd
+}
 
 /// The period's outcome at a state.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -56,42 +70,7 @@ pub struct PublicSolution {
     pub change: f64,
 }
 
-/// The price when `y` is left to consumers and private storers and `g` is the end-of-period public
-/// stock: the rows of the grid blended linearly in G, aligned at their stockout points (so that the
-/// kink where private stocks start moves smoothly with G instead of being smeared over two places).
-pub(crate) fn row_price(
-    m: &StorageMarket,
-    publics: &[f64],
-    rows: &[PriceRule],
-    y: f64,
-    g: f64,
-) -> (f64, f64) {
-    let last = publics.len() - 1;
-    let k = publics.partition_point(|&v| v <= g).clamp(1, last) - 1;
-    let t = ((g - publics[k]) / (publics[k + 1] - publics[k])).clamp(0.0, 1.0);
-    let (a, b) = (&rows[k], &rows[k + 1]);
-    if t == 0.0 {
-        return a.eval(m, y);
-    }
-    match (&a.spline, &b.spline) {
-        (Some(sa), Some(sb)) => {
-            let p0 = (1.0 - t) * sa.values()[0] + t * sb.values()[0];
-            let kink = m.demand.quantity(p0);
-            if y <= kink {
-                return m.inverse_demand(y);
-            }
-            let s = y - kink;
-            let (pa, da) = a.eval(m, a.kink + s);
-            let (pb, db) = b.eval(m, b.kink + s);
-            ((1.0 - t) * pa + t * pb, (1.0 - t) * da + t * db)
-        }
-        _ => {
-            let (p0, d0) = a.eval(m, y);
-            let (p1, d1) = b.eval(m, y);
-            ((1.0 - t) * p0 + t * p1, (1.0 - t) * d0 + t * d1)
-        }
-    }
-}
+pub(crate) use super::blend::row_price;
 
 /// Price, slope and regime at state (z, g) under the rows, with the agency's decision (no root
 /// finding; see the module notes and [`super::agency`]).
@@ -106,20 +85,6 @@ pub(crate) fn state_decision(
 ) -> (f64, f64, Regime, Decision) {
     let w = z + g;
     decide(band, g, &|gg: f64| row_price(m, publics, rows, w - gg, gg))
-}
-
-/// Price, slope and regime at state (z, g).
-#[inline]
-pub(crate) fn state_price(
-    m: &StorageMarket,
-    band: &Band,
-    publics: &[f64],
-    rows: &[PriceRule],
-    z: f64,
-    g: f64,
-) -> (f64, f64, Regime) {
-    let (p, d, r, _) = state_decision(m, band, publics, rows, z, g);
-    (p, d, r)
 }
 
 impl PublicSolution {
@@ -147,69 +112,91 @@ impl PublicSolution {
         }
     }
 
-    /// Planted quantity when `x` private and `public` public units are carried out of the period.
-    pub fn planted_at(&self, x: f64, public: f64) -> f64 {
-        let m = &self.market;
-        let gn = self.band.keep * public;
-        plant(m, m.keep * x, self.planted_guess(x, public), &|z| {
-            let (p, d, _) = state_price(m, &self.band, &self.publics, &self.rows, z, gn);
-            (p, d)
-        })
-        .0
+    /// Next period's price when `public` public units are carried out (see [`NextPrice`]).
+    pub fn next_price(&self, public: f64) -> NextPrice<'_> {
+        NextPrice::new(
+            &self.market,
+            &self.band,
+            &self.publics,
+            &self.rows,
+            self.band.keep * public,
+        )
     }
 
-    /// Planting on the grid point nearest below (`x`, `public`): a starting guess.
+    /// Planting and E[P'] when `x` private and `public` public units are carried out of the period
+    /// (expectations by the breakpoint-splitting quadrature, [`super::split`]).
+    pub fn plant_and_expect(&self, x: f64, public: f64) -> (f64, f64) {
+        let m = &self.market;
+        let np = self.next_price(public);
+        let breaks = np.breaks(reach(m, &self.stocks));
+        plant_with(m, self.planted_guess(x, public), &|q| {
+            np.expect(m.keep * x, q, &breaks)
+        })
+    }
+
+    /// Planted quantity when `x` private and `public` public units are carried out of the period.
+    pub fn planted_at(&self, x: f64, public: f64) -> f64 {
+        self.plant_and_expect(x, public).0
+    }
+
+    /// Planting interpolated bilinearly on the solved grid at (`x`, `public`): Newton's starting
+    /// guess.
     pub fn planted_guess(&self, x: f64, public: f64) -> f64 {
-        let mi = self
-            .publics
-            .partition_point(|&v| v <= public)
-            .clamp(1, self.publics.len())
-            - 1;
-        let j = self
-            .stocks
-            .partition_point(|&v| v <= x)
-            .clamp(1, self.stocks.len())
-            - 1;
-        self.planted[mi][j]
+        let cell = |v: &[f64], at: f64| {
+            let k = v.partition_point(|&u| u <= at).clamp(1, v.len() - 1) - 1;
+            let t = if v.len() > 1 {
+                ((at - v[k]) / (v[k + 1] - v[k])).clamp(0.0, 1.0)
+            } else {
+                0.0
+            };
+            (k, t)
+        };
+        if self.publics.len() < 2 || self.stocks.len() < 2 {
+            return self.planted[0][0];
+        }
+        let (mi, tg) = cell(&self.publics, public);
+        let (j, tx) = cell(&self.stocks, x);
+        let row = |r: &[f64]| (1.0 - tx) * r[j] + tx * r[j + 1];
+        (1.0 - tg) * row(&self.planted[mi]) + tg * row(&self.planted[mi + 1])
+    }
+
+    /// Planting and the expected producer price farmers plant on, E[max(P', F)], when `x` private
+    /// and `public` public units are carried out (one breakpoint search for both).
+    pub fn plant_and_expect_producer(&self, x: f64, public: f64) -> (f64, f64) {
+        let m = &self.market;
+        let np = self.next_price(public);
+        let breaks = np.breaks(reach(m, &self.stocks));
+        let (q, psi) = plant_with(m, self.planted_guess(x, public), &|q| {
+            np.expect(m.keep * x, q, &breaks)
+        });
+        if m.planting_floor > 0.0 {
+            (q, np.expect(m.keep * x, q, &breaks).0)
+        } else {
+            (q, psi)
+        }
     }
 
     /// Expected next price when `x` private and `public` public units are carried out, with planting
     /// `q`.
     pub fn expected_next(&self, x: f64, public: f64, q: f64) -> f64 {
         let m = &self.market;
-        let gn = self.band.keep * public;
-        super::solve::expected_next(m, m.keep * x, q, &|z| {
-            let (p, d, _) = state_price(m, &self.band, &self.publics, &self.rows, z, gn);
-            (p, d)
-        })
-        .0
+        let np = self.next_price(public);
+        let breaks = np.breaks(reach(m, &self.stocks));
+        np.expect(m.keep * x, q, &breaks).2
     }
 
-    /// Expected producer price farmers plant on (see [`super::solve::expected_producer`]).
+    /// Expected producer price farmers plant on, E[max(P', F)] with F the planting floor.
     pub fn expected_producer(&self, x: f64, public: f64, q: f64) -> f64 {
         let m = &self.market;
-        let gn = self.band.keep * public;
-        super::solve::expected_producer(m, m.keep * x, q, &|z| {
-            let (p, d, _) = state_price(m, &self.band, &self.publics, &self.rows, z, gn);
-            (p, d)
-        })
-        .0
+        let np = self.next_price(public);
+        let breaks = np.breaks(reach(m, &self.stocks));
+        np.expect(m.keep * x, q, &breaks).0
     }
 
-    /// The stockout price (above it private storers hold nothing) when the agency holds `public`.
+    /// The stockout price (above it private storers hold nothing) when the agency holds `public`
+    /// (0 where nobody stores).
     pub fn stockout_price(&self, public: f64) -> f64 {
-        let m = &self.market;
-        // the row's price at y = its kink, interpolated in G
-        let mi = self
-            .publics
-            .partition_point(|&v| v <= public)
-            .clamp(1, self.publics.len() - 1)
-            - 1;
-        let t = ((public - self.publics[mi]) / (self.publics[mi + 1] - self.publics[mi]))
-            .clamp(0.0, 1.0);
-        let at = |r: &PriceRule| r.spline.as_ref().map(|s| s.values()[0]).unwrap_or(0.0);
-        let _ = m;
-        (1.0 - t) * at(&self.rows[mi]) + t * at(&self.rows[mi + 1])
+        super::blend::stockout_price(&self.publics, &self.rows, public).unwrap_or(0.0)
     }
 
     /// The arbitrage residual at state (z, g), relative to the price (as in the one-state model).
@@ -219,8 +206,7 @@ impl PublicSolution {
         if c.price <= 0.0 {
             return 0.0;
         }
-        let q = self.planted_at(c.private_stock, c.public_stock);
-        let psi = self.expected_next(c.private_stock, c.public_stock, q);
+        let (_, psi) = self.plant_and_expect(c.private_stock, c.public_stock);
         let r = (m.discount * psi - m.cost) / c.price - 1.0;
         if c.private_stock > 1e-9 * m.q_star {
             r.abs()
@@ -251,8 +237,7 @@ impl PublicSolution {
             return 0.0;
         }
         let x = (y - m.demand.quantity(price)).max(0.0);
-        let q = self.planted_at(x, public);
-        let psi = self.expected_next(x, public, q);
+        let (_, psi) = self.plant_and_expect(x, public);
         let r = (m.discount * psi - m.cost) / price - 1.0;
         if x > 1e-9 * m.q_star {
             r.abs()
@@ -265,14 +250,17 @@ impl PublicSolution {
     pub fn euler_residual_max(&self, nz: usize, ng: usize) -> f64 {
         let (lo, hi) = self.range();
         let (nz, ng) = (nz.max(2), ng.max(2));
-        let mut worst = 0.0_f64;
-        for l in 0..ng {
-            let g = self.band.keep * self.band.capacity * l as f64 / (ng - 1) as f64;
-            for i in 0..nz {
-                let z = lo + (hi - lo) * i as f64 / (nz - 1) as f64;
-                worst = worst.max(self.euler_residual(z, g));
-            }
-        }
-        worst
+        // levels in parallel; the maximum does not depend on the order
+        (0..ng)
+            .into_par_iter()
+            .map(|l| {
+                let g = self.band.keep * self.band.capacity * l as f64 / (ng - 1) as f64;
+                (0..nz)
+                    .map(|i| self.euler_residual(lo + (hi - lo) * i as f64 / (nz - 1) as f64, g))
+                    .fold(0.0_f64, f64::max)
+            })
+            .collect::<Vec<f64>>()
+            .into_iter()
+            .fold(0.0_f64, f64::max)
     }
 }

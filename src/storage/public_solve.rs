@@ -1,10 +1,13 @@
 //! Solving the two-state (public band stock) equilibrium: endogenous-grid iteration on a grid of
 //! end-of-period private stock × public stock, and residual-driven refinement of both grids.
 
+use rayon::prelude::*;
+
 use super::interp::Monotone;
 use super::market::StorageMarket;
-use super::public::{state_price, Band, PublicSolution};
-use super::solve::{plant, PriceRule, SolveOptions};
+use super::next_price::NextPrice;
+use super::public::{reach, Band, PublicSolution};
+use super::solve::{plant_with, PriceRule, SolveOptions};
 use super::StorageError;
 
 /// Solves the two-state equilibrium on `o.grid_2d` private-stock points × `o.public_grid`
@@ -24,9 +27,20 @@ pub fn solve_public(
     let stocks: Vec<f64> = (0..n)
         .map(|j| x_max * (j as f64 / (n - 1) as f64).powi(2))
         .collect();
-    let publics: Vec<f64> = (0..mm)
+    let mut publics: Vec<f64> = (0..mm)
         .map(|i| band.capacity * i as f64 / (mm - 1) as f64)
         .collect();
+    // The target rule switches from restocking to running down where the carried-in stock equals
+    // the target, G* = target/keep_g: the rules bend there as functions of G. The level is put on
+    // the grid twice, and interpolation never reaches across it (see [`super::blend::weights`]).
+    if let super::agency::Release::Target { target, .. } = band.release {
+        let gs = target / band.keep;
+        if gs > 0.0 && gs < band.capacity {
+            let k = publics.partition_point(|&v| v < gs);
+            publics.splice(k..k, [gs, gs]);
+        }
+    }
+    let mm = publics.len();
     let planted = vec![vec![m.q_star; n]; mm];
     let start = (publics.clone(), vec![PriceRule::no_storage(); mm]);
     iterate(m, band, stocks, publics, planted, start, o)
@@ -121,22 +135,12 @@ fn halve(v: &[f64], split: &[bool]) -> Vec<f64> {
     let mut out = Vec::with_capacity(v.len() * 2);
     for j in 0..v.len() {
         out.push(v[j]);
-        if j + 1 < v.len() && split[j] {
+        // a doubled level (a barrier of the interpolation) is never split
+        if j + 1 < v.len() && split[j] && v[j + 1] > v[j] {
             out.push(0.5 * (v[j] + v[j + 1]));
         }
     }
     out
-}
-
-/// Whether the iteration is damped point by point: the new price at grid stock x_j (public stock
-/// G_m) is the previous one plus step_jm × the endogenous-grid update there, and step_jm (1 at the
-/// start) is halved whenever the update changes sign. For the target rule, whose trade jumps where
-/// the band takes over, the undamped iteration cycles: points whose next-period quadrature nodes sit
-/// on a jump flip between two values. The halving takes them to the jump (where the arbitrage
-/// condition holds only as an inequality on the discretised model) and leaves every point that
-/// converges monotonically undamped (docs/storage.md).
-fn damped(band: &Band) -> bool {
-    matches!(band.release, super::agency::Release::Target { .. })
 }
 
 /// Endogenous-grid iteration to the tolerance; the first expectation uses the rules `start` (on their
@@ -155,72 +159,63 @@ fn iterate(
     let (mut prev_publics, mut rows) = start;
     let mut old: Vec<Vec<f64>> = vec![Vec::new(); mm];
     let mut change = f64::INFINITY;
-    let adaptive = damped(&band);
-    let mut steps = vec![vec![1.0_f64; n]; mm];
-    let mut last = vec![vec![0.0_f64; n]; mm];
+    let hi = reach(&m, &stocks);
     for it in 1..=o.max_iterations {
-        let mut new_rows = Vec::with_capacity(mm);
-        let mut worst = 0.0_f64;
-        for (mi, &gm) in publics.iter().enumerate() {
-            let gn = band.keep * gm;
-            let next = |z: f64| {
-                let (p, d, _) = state_price(&m, &band, &prev_publics, &rows, z, gn);
-                (p, d)
-            };
-            let (mut ys, mut ps) = (Vec::with_capacity(n), Vec::with_capacity(n));
-            let mut raw = vec![f64::NAN; n];
-            for (j, &x) in stocks.iter().enumerate() {
-                let (q, psi) = plant(&m, m.keep * x, planted[mi][j], &next);
-                planted[mi][j] = q;
-                let mut p = m.discount * psi - m.cost;
-                if adaptive {
-                    if let Some(&before) = old[mi].get(j).filter(|v| v.is_finite()) {
-                        if p > 0.0 {
-                            let delta = p - before;
-                            if delta * last[mi][j] < 0.0 {
-                                steps[mi][j] *= 0.5;
-                            }
-                            last[mi][j] = delta;
-                            p = before + steps[mi][j] * delta;
-                        }
+        // rows are independent given last iteration's rules: solved in parallel, collected in order
+        // (the result does not depend on the number of threads)
+        let results: Vec<(PriceRule, f64)> = publics
+            .par_iter()
+            .zip(planted.par_iter_mut())
+            .zip(old.par_iter_mut())
+            .map(|((&gm, planted_row), old_row)| {
+                let np = NextPrice::new(&m, &band, &prev_publics, &rows, band.keep * gm);
+                let breaks = np.breaks(hi);
+                let (mut ys, mut ps) = (Vec::with_capacity(n), Vec::with_capacity(n));
+                let mut raw = vec![f64::NAN; n];
+                for (j, &x) in stocks.iter().enumerate() {
+                    let (q, psi) =
+                        plant_with(&m, planted_row[j], &|q| np.expect(m.keep * x, q, &breaks));
+                    planted_row[j] = q;
+                    let p = m.discount * psi - m.cost;
+                    if p <= 0.0 {
+                        break;
                     }
+                    raw[j] = p;
+                    // should E[P'] rise locally with x, such points are left out of the rule (its
+                    // decreasing envelope) but still count for convergence
+                    if ps.last().is_some_and(|&last| p > last) {
+                        continue;
+                    }
+                    ys.push(x + m.demand.quantity(p));
+                    ps.push(p);
                 }
-                if p <= 0.0 {
-                    break;
-                }
-                raw[j] = p;
-                // a rule with price jumps can make E[P'] rise locally with x; such points are left
-                // out of the rule (its decreasing envelope) but still count for convergence
-                if ps.last().is_some_and(|&last| p > last) {
-                    continue;
-                }
-                ys.push(x + m.demand.quantity(p));
-                ps.push(p);
-            }
-            let row_change = if it == 1 {
-                f64::INFINITY
-            } else {
-                raw.iter()
-                    .zip(&old[mi])
-                    .map(|(a, b)| match (a.is_nan(), b.is_nan()) {
-                        (true, true) => 0.0,
-                        (false, false) => (a - b).abs(),
-                        _ => f64::INFINITY,
-                    })
-                    .fold(0.0, f64::max)
-                    / m.p_star
-            };
-            worst = worst.max(row_change);
-            new_rows.push(if ps.len() >= 2 {
-                PriceRule {
-                    kink: ys[0],
-                    spline: Some(Monotone::new(ys, ps)),
-                }
-            } else {
-                PriceRule::no_storage()
-            });
-            old[mi] = raw;
-        }
+                let row_change = if it == 1 {
+                    f64::INFINITY
+                } else {
+                    raw.iter()
+                        .zip(old_row.iter())
+                        .map(|(a, b)| match (a.is_nan(), b.is_nan()) {
+                            (true, true) => 0.0,
+                            (false, false) => (a - b).abs(),
+                            _ => f64::INFINITY,
+                        })
+                        .fold(0.0, f64::max)
+                        / m.p_star
+                };
+                *old_row = raw;
+                let rule = if ps.len() >= 2 {
+                    PriceRule {
+                        kink: ys[0],
+                        spline: Some(Monotone::new(ys, ps)),
+                    }
+                } else {
+                    PriceRule::no_storage()
+                };
+                (rule, row_change)
+            })
+            .collect();
+        let worst = results.iter().map(|r| r.1).fold(0.0_f64, f64::max);
+        let new_rows: Vec<PriceRule> = results.into_iter().map(|r| r.0).collect();
         rows = new_rows;
         prev_publics.clone_from(&publics);
         change = worst;

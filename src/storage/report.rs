@@ -75,7 +75,7 @@ pub fn report(
             StorageReport {
                 market,
                 policy,
-                method: "endogenous grid method on private stock for each public stock of a grid (Carroll 2006), monotone cubic interpolation in availability (Fritsch-Carlson), linear in public stock with the stockout points aligned, Gauss-Hermite quadrature".into(),
+                method: "endogenous grid method on private stock for each public stock of a grid (Carroll 2006), monotone cubic interpolation in availability (Fritsch-Carlson), cubic Lagrange in public stock with the stockout points aligned, expectations by Gauss-Legendre quadrature over the shock split at the breakpoints of next period's price".into(),
                 euler_residual_max: sol.euler_residual_max(nz, 9),
                 iterations: sol.iterations,
                 stockout_price: sol.stockout_price(0.0),

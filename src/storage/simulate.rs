@@ -103,6 +103,18 @@ impl Equilibrium {
         }
     }
 
+    /// Planting for next season and the expected producer price it is planted on, when `x` private
+    /// and `public` public units are carried out.
+    pub fn plant_and_expect(&self, x: f64, public: f64) -> (f64, f64) {
+        match self {
+            Equilibrium::Private(_) => {
+                let q = self.planted_at(x, public);
+                (q, self.expected_producer_price(x, public, q))
+            }
+            Equilibrium::Public(s) => s.plant_and_expect_producer(x, public),
+        }
+    }
+
     /// Planting for next season when `x` private and `public` public units are carried out.
     pub fn planted_at(&self, x: f64, public: f64) -> f64 {
         match self {
@@ -164,8 +176,7 @@ pub fn simulate(
     let mut stream = ShockStream::new(shocks, seed, replication);
     let mut x = 0.0;
     let mut public = initial_public;
-    let mut planted = eq.planted_at(0.0, public);
-    let mut expected = eq.expected_producer_price(0.0, public, planted);
+    let (mut planted, mut expected) = eq.plant_and_expect(0.0, public);
     let mut out = Vec::with_capacity(periods);
     for t in 1..=periods {
         let s = stream.next_shock();
@@ -178,8 +189,7 @@ pub fn simulate(
         x = o.private_stock;
         public = o.public_stock;
         let (planted_now, expected_now) = (planted, expected);
-        planted = eq.planted_at(x, public);
-        expected = eq.expected_producer_price(x, public, planted);
+        (planted, expected) = eq.plant_and_expect(x, public);
         let gap = (m.payment_floor - o.price).max(0.0);
         out.push(StoragePeriod {
             period: t,

@@ -122,6 +122,16 @@ pub fn plant<F: Fn(f64) -> (f64, f64)>(
     guess: f64,
     next: &F,
 ) -> (f64, f64) {
+    plant_with(m, guess, &|q| expected_producer(m, carried, q, next))
+}
+
+/// [`plant`] with the expectation given as a function of planted q: `expect(q)` returns
+/// (E[producer price'], its derivative in q, E[P']).
+pub fn plant_with<E: Fn(f64) -> (f64, f64, f64)>(
+    m: &StorageMarket,
+    guess: f64,
+    expect: &E,
+) -> (f64, f64) {
     let scale = m.q_star.max(1e-12);
     let (mut lo, mut hi) = (0.0_f64, f64::INFINITY);
     let mut q = if guess.is_finite() && guess > 0.0 {
@@ -131,7 +141,7 @@ pub fn plant<F: Fn(f64) -> (f64, f64)>(
     };
     let mut psi = 0.0;
     for _ in 0..200 {
-        let (ep, de, e) = expected_producer(m, carried, q, next);
+        let (ep, de, e) = expect(q);
         psi = e;
         let (s, ds) = m.supply_at(ep);
         let g = q - s;

@@ -1,0 +1,193 @@
+//! Next period's price in the two-state model as a function of next availability z' at a fixed
+//! carried-in public stock g': where it is not smooth, and its expectation by the
+//! breakpoint-splitting quadrature of [`super::split`].
+//!
+//! z' ↦ P'(z', g') is smooth except where the agency's regime changes (the price reaches
+//! `buy_below`, `sell_above` or the band's middle at one of the end-of-period public stocks the rule
+//! can fix: g', the capacity, 0, the target or rotation stock) and at the stockout kink of the row
+//! rule at each of those stocks (private stocks start), plus, for linear demand, where the price
+//! reaches zero, and, for planting under a deficiency-payment floor F, where P' = F. All these
+//! points are found once per g': the kinks analytically, the others as roots of a decreasing
+//! function of z' (safeguarded Newton).
+
+use super::agency::{decide, Band, Release};
+use super::blend::{row_kinks, Blend};
+use super::market::StorageMarket;
+use super::solve::PriceRule;
+use super::split::next_nodes;
+
+/// Next period's price at carried-in public stock `gn` under the rows `rows` on `publics`.
+pub struct NextPrice<'a> {
+    m: &'a StorageMarket,
+    band: &'a Band,
+    publics: &'a [f64],
+    rows: &'a [PriceRule],
+    gn: f64,
+    /// The interpolation prepared at each public stock the rule can fix.
+    fixed: Vec<(f64, Blend)>,
+}
+
+/// The end-of-period public stocks the agency's rule can fix when it carries in `g` (computed as
+/// [`decide`] computes them).
+fn stocks(band: &Band, g: f64) -> Vec<f64> {
+    let cap = band.capacity;
+    let mut v = vec![g, cap, 0.0];
+    match band.release {
+        Release::Band => {}
+        Release::Target { target, speed } => {
+            let gap = speed * (target - g);
+            v.push(if gap > 0.0 {
+                (g + gap).min(cap)
+            } else {
+                (g + gap).max(0.0)
+            });
+        }
+        Release::Share { share } => v.push((1.0 - share) * g),
+    }
+    v
+}
+
+/// Root of the decreasing function f on [lo, hi] (f(lo) > 0 ≥ f(hi)): the boundary of {f > 0}, to
+/// `tol`. Bisection until the bracket is narrower than `near`, then Newton steps kept inside the
+/// bracket (bisection where a step would leave it), so that a far start in a steep, convex region
+/// (constant-elasticity demand near zero consumption) cannot stall the search.
+fn boundary<F: Fn(f64) -> (f64, f64)>(f: F, mut lo: f64, mut hi: f64, tol: f64, near: f64) -> f64 {
+    let mut x = 0.5 * (lo + hi);
+    for _ in 0..300 {
+        let (v, d) = f(x);
+        if v > 0.0 {
+            lo = x;
+        } else {
+            hi = x;
+        }
+        if hi - lo <= tol {
+            break;
+        }
+        let newton = if hi - lo < near && d < 0.0 && v != 0.0 {
+            x - v / d
+        } else {
+            f64::NAN
+        };
+        if newton > lo && newton < hi {
+            if (newton - x).abs() <= 0.25 * tol {
+                return newton;
+            }
+            x = newton;
+        } else {
+            x = 0.5 * (lo + hi);
+        }
+    }
+    0.5 * (lo + hi)
+}
+
+impl<'a> NextPrice<'a> {
+    /// Next period's price at carried-in public stock `gn`.
+    pub fn new(
+        m: &'a StorageMarket,
+        band: &'a Band,
+        publics: &'a [f64],
+        rows: &'a [PriceRule],
+        gn: f64,
+    ) -> NextPrice<'a> {
+        let fixed = stocks(band, gn)
+            .into_iter()
+            .map(|gg| (gg, Blend::at(m, publics, rows, gg)))
+            .collect();
+        NextPrice {
+            m,
+            band,
+            publics,
+            rows,
+            gn,
+            fixed,
+        }
+    }
+
+    /// The interpolation at public stock `gg` (prepared when the rule can fix it).
+    #[inline]
+    fn blend(&self, gg: f64) -> Blend {
+        for &(g, b) in &self.fixed {
+            if g == gg {
+                return b;
+            }
+        }
+        Blend::at(self.m, self.publics, self.rows, gg)
+    }
+
+    /// Price and dP'/dz' at next availability `z` under the agency's rule.
+    #[inline]
+    pub fn price(&self, z: f64) -> (f64, f64) {
+        let w = z + self.gn;
+        let pg = |gg: f64| self.blend(gg).price(self.m, self.rows, w - gg);
+        let (p, d, _, _) = decide(self.band, self.gn, &pg);
+        (p, d)
+    }
+
+    /// The ascending availabilities in (0, `hi`] where P'(·, g') may be non-smooth (see the module
+    /// notes).
+    pub fn breaks(&self, hi: f64) -> Vec<f64> {
+        let m = self.m;
+        let b = self.band;
+        let lo = 1e-6 * m.q_star;
+        let tol = 1e-12 * m.q_star.max(1.0);
+        let near = 1e-3 * m.q_star.max(1.0);
+        let mut levels = vec![b.buy_below, 0.0];
+        if b.sell_above.is_finite() {
+            levels.push(b.sell_above);
+            if let Release::Target { .. } = b.release {
+                levels.push(0.5 * (b.buy_below + b.sell_above));
+            }
+        }
+        let mut out = Vec::with_capacity(24);
+        for &(gg, blend) in &self.fixed {
+            // the row at gg as a function of z': y = z' + g' − gg
+            let shift = self.gn - gg;
+            for k in row_kinks(m, self.publics, self.rows, gg) {
+                let z = k - shift;
+                if z.is_finite() && z > lo && z < hi {
+                    out.push(z);
+                }
+            }
+            for &level in &levels {
+                let f = |z: f64| {
+                    let (p, d) = blend.price(m, self.rows, z + shift);
+                    (p - level, d)
+                };
+                if f(lo).0 > 0.0 && f(hi).0 <= 0.0 {
+                    out.push(boundary(f, lo, hi, tol, near));
+                }
+            }
+        }
+        if m.planting_floor > 0.0 {
+            let f = |z: f64| {
+                let (p, d) = self.price(z);
+                (p - m.planting_floor, d)
+            };
+            if f(lo).0 > 0.0 && f(hi).0 <= 0.0 {
+                out.push(boundary(f, lo, hi, tol, near));
+            }
+        }
+        out.sort_by(f64::total_cmp);
+        out.dedup_by(|a, b| (*a - *b).abs() <= tol);
+        out
+    }
+
+    /// (E[max(P', F)], its derivative in q, E[P']) when `carried` private units arrive and `q` is
+    /// planted, with F the planting floor (none: the first and last agree), by the
+    /// breakpoint-splitting quadrature at the points `breaks` (from [`Self::breaks`]).
+    pub fn expect(&self, carried: f64, q: f64, breaks: &[f64]) -> (f64, f64, f64) {
+        let floor = self.m.planting_floor;
+        let (mut ep, mut de, mut e) = (0.0, 0.0, 0.0);
+        next_nodes(self.m, carried, q, breaks, |z, dz, w| {
+            let (p, dp) = self.price(z);
+            e += w * p;
+            if p > floor {
+                ep += w * p;
+                de += w * dp * dz;
+            } else {
+                ep += w * floor;
+            }
+        });
+        (ep, de, e)
+    }
+}

@@ -1,0 +1,306 @@
+//! Breakpoint-splitting quadrature over next period's shocks, for the two-state (public stock)
+//! equilibrium.
+//!
+//! Next period's price P'(z', g') is piecewise smooth in next availability z': it has kinks (each
+//! regime's stockout point, the boundaries of the agency's regimes) and, under the target rule, jumps.
+//! A fixed Gauss–Hermite rule makes E[P'] kink or jump at every stock where one node crosses one of
+//! these points. Here one continuous shock is integrated exactly instead: its range [−L, L] (in
+//! standard-normal units) is split at the images of the known breakpoints of z' ↦ P', and each
+//! smooth piece is integrated by composite Gauss–Legendre quadrature against the normal density.
+//! Integrating a piecewise-smooth function against a smooth density gives a smooth function of the
+//! stock, so the expectation carries no kinks into the rules.
+//!
+//! Continuous variable: the additive shock when there is one (z' is linear in it; a Gauss–Hermite
+//! rule stays over the yield factor), otherwise the yield factor's standard normal s
+//! (Y = exp(σs − σ²/2)).
+
+use std::sync::OnceLock;
+
+use nalgebra::{DMatrix, SymmetricEigen};
+
+use super::market::StorageMarket;
+
+/// Truncation of the standard normal: the mass beyond ±8.3 is 1.0e-16.
+pub const TAIL: f64 = 8.3;
+/// Widest Gauss–Legendre panel (standard-normal units). With 12 points per panel the normal partial
+/// expectation comes out to about 1e-13 (tests below; 8 points on panels of 3 gave 1e-9).
+pub const PANEL: f64 = 4.0;
+/// Gauss–Legendre points per panel.
+pub const POINTS: usize = 12;
+
+/// The n-point Gauss–Legendre rule on [−1, 1] (nodes ascending, weights summing to 2), from the
+/// eigenvalues and first eigenvector components of the Jacobi matrix of the Legendre polynomials
+/// (Golub and Welsch 1969; off-diagonal k/√(4k² − 1)).
+pub fn gauss_legendre(n: usize) -> Vec<(f64, f64)> {
+    let n = n.max(1);
+    if n == 1 {
+        return vec![(0.0, 2.0)];
+    }
+    let mut j = DMatrix::<f64>::zeros(n, n);
+    for k in 1..n {
+        let kf = k as f64;
+        let off = kf / (4.0 * kf * kf - 1.0).sqrt();
+        j[(k - 1, k)] = off;
+        j[(k, k - 1)] = off;
+    }
+    let eig = SymmetricEigen::new(j);
+    let mut out: Vec<(f64, f64)> = (0..n)
+        .map(|i| {
+            let v0 = eig.eigenvectors[(0, i)];
+            (eig.eigenvalues[i], 2.0 * v0 * v0)
+        })
+        .collect();
+    out.sort_by(|a, b| a.0.total_cmp(&b.0));
+    // symmetrise: average each node with its mirror image
+    for i in 0..n / 2 {
+        let k = n - 1 - i;
+        let x = 0.5 * (out[k].0 - out[i].0);
+        let w = 0.5 * (out[k].1 + out[i].1);
+        out[i] = (-x, w);
+        out[k] = (x, w);
+    }
+    if n % 2 == 1 {
+        out[n / 2].0 = 0.0;
+    }
+    out
+}
+
+fn rule() -> &'static [(f64, f64)] {
+    static RULE: OnceLock<Vec<(f64, f64)>> = OnceLock::new();
+    RULE.get_or_init(|| gauss_legendre(POINTS))
+}
+
+const INV_SQRT_2PI: f64 = 0.398_942_280_401_432_7;
+
+/// Nodes and weights for E[f(T)], T standard normal, with f smooth between the ascending points
+/// `breaks` (those outside (−TAIL, TAIL) are ignored): calls `visit(t, w)` for every node. The weights
+/// include the density and sum to 1 − 2Φ(−TAIL).
+pub fn normal_nodes<V: FnMut(f64, f64)>(breaks: &[f64], visit: V) {
+    normal_nodes_with(breaks, PANEL, visit)
+}
+
+/// [`normal_nodes`] with panels at most `panel` wide.
+pub fn normal_nodes_with<V: FnMut(f64, f64)>(breaks: &[f64], pw: f64, mut visit: V) {
+    let rule = rule();
+    let mut a = -TAIL;
+    let piece = |a: f64, b: f64, visit: &mut V| {
+        if b <= a {
+            return;
+        }
+        let k = ((b - a) / pw).ceil().max(1.0);
+        let h = (b - a) / k;
+        for p in 0..k as usize {
+            let mid = a + h * (p as f64 + 0.5);
+            for &(x, w) in rule {
+                let t = mid + 0.5 * h * x;
+                visit(t, 0.5 * h * w * INV_SQRT_2PI * (-0.5 * t * t).exp());
+            }
+        }
+    };
+    for &b in breaks {
+        if b > a && b < TAIL {
+            piece(a, b, &mut visit);
+            a = b;
+        }
+    }
+    piece(a, TAIL, &mut visit);
+}
+
+/// Nodes for next availability z' = `carried` + max(0, q·Y + e) when P' is smooth between the
+/// ascending availabilities `breaks`: calls `visit(z', dz'/dq, w)` (weights sum to 1 up to the tail
+/// mass). With no shocks, one node.
+pub fn next_nodes<V: FnMut(f64, f64, f64)>(
+    m: &StorageMarket,
+    carried: f64,
+    q: f64,
+    breaks: &[f64],
+    mut visit: V,
+) {
+    let sigma = m.yield_sigma;
+    let sd = m.additive_sd;
+    if sd > 0.0 {
+        let mut ts: Vec<f64> = Vec::with_capacity(breaks.len() + 1);
+        for &(y, wy) in &m.yield_nodes {
+            let base = q * y;
+            ts.clear();
+            // the harvest is zero below t0 (z' = carried there: a kink)
+            let t0 = -base / sd;
+            let mut placed = false;
+            for &zb in breaks {
+                let t = (zb - carried - base) / sd;
+                if t <= t0 {
+                    continue;
+                }
+                if !placed {
+                    ts.push(t0);
+                    placed = true;
+                }
+                ts.push(t);
+            }
+            if !placed {
+                ts.push(t0);
+            }
+            normal_nodes(&ts, |t, w| {
+                let h = base + sd * t;
+                if h > 0.0 {
+                    visit(carried + h, y, wy * w);
+                } else {
+                    visit(carried, 0.0, wy * w);
+                }
+            });
+        }
+    } else if sigma > 0.0 && q > 0.0 {
+        let mut ss: Vec<f64> = Vec::with_capacity(breaks.len());
+        let shift = 0.5 * sigma * sigma;
+        for &zb in breaks {
+            if zb > carried {
+                ss.push((((zb - carried) / q).ln() + shift) / sigma);
+            }
+        }
+        normal_nodes(&ss, |s, w| {
+            let y = (sigma * s - shift).exp();
+            visit(carried + q * y, y, w);
+        });
+    } else {
+        visit(carried + q.max(0.0), 1.0, 1.0);
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn legendre_rule_matches_the_tables() {
+        // Abramowitz and Stegun (1964), Table 25.4, n = 5.
+        let r = gauss_legendre(5);
+        let want = [
+            (-0.906_179_845_938_664, 0.236_926_885_056_189),
+            (-0.538_469_310_105_683, 0.478_628_670_499_366),
+            (0.0, 0.568_888_888_888_889),
+            (0.538_469_310_105_683, 0.478_628_670_499_366),
+            (0.906_179_845_938_664, 0.236_926_885_056_189),
+        ];
+        for (got, want) in r.iter().zip(want) {
+            assert!((got.0 - want.0).abs() < 1e-14, "{got:?} {want:?}");
+            assert!((got.1 - want.1).abs() < 1e-14, "{got:?} {want:?}");
+        }
+        // an n-point rule integrates polynomials of degree ≤ 2n − 1 exactly (Golub and Welsch 1969):
+        // ∫ x^14 dx over [−1, 1] = 2/15
+        let r8 = gauss_legendre(8);
+        let i14: f64 = r8.iter().map(|&(x, w)| w * x.powi(14)).sum();
+        assert!((i14 - 2.0 / 15.0).abs() < 1e-14, "{i14}");
+    }
+
+    /// Φ(x) from erf by the all-positive series erf(x) = (2/√π)·e^(−x²)·Σ 2ⁿx^(2n+1)/(1·3⋯(2n+1))
+    /// (Abramowitz and Stegun 1964, eq. 7.1.6), independent of the quadrature under test.
+    fn phi_cdf(x: f64) -> f64 {
+        let u = x.abs() / std::f64::consts::SQRT_2;
+        let (mut term, mut sum) = (u, u);
+        for n in 1..400 {
+            term *= 2.0 * u * u / (2 * n + 1) as f64;
+            sum += term;
+            if term < 1e-18 * sum {
+                break;
+            }
+        }
+        let erf = 2.0 / std::f64::consts::PI.sqrt() * (-u * u).exp() * sum;
+        0.5 + 0.5 * erf.copysign(x)
+    }
+
+    fn phi_pdf(x: f64) -> f64 {
+        INV_SQRT_2PI * (-0.5 * x * x).exp()
+    }
+
+    #[test]
+    fn reproduces_the_normal_partial_expectation_and_tail_probabilities() {
+        // E[max(a + σε, c)] = c·Φ(α) + a·(1 − Φ(α)) + σ·φ(α), α = (c − a)/σ, ε standard normal
+        // (the normal partial expectation E[X·1{X > c}] = a·(1 − Φ(α)) + σφ(α); e.g. Johnson, Kotz
+        // and Balakrishnan 1994, ch. 13), and E[1{ε > b}] = 1 − Φ(b).
+        for &(a, sigma, c) in &[(10.0, 2.0, 11.3), (-1.0, 0.5, -1.9), (3.0, 1.0, 3.0)] {
+            let alpha = (c - a) / sigma;
+            let want = c * phi_cdf(alpha) + a * (1.0 - phi_cdf(alpha)) + sigma * phi_pdf(alpha);
+            let mut got = 0.0;
+            normal_nodes(&[alpha], |t, w| got += w * f64::max(a + sigma * t, c));
+            assert!(
+                (got - want).abs() < 1e-12 * (1.0 + want.abs()),
+                "{got} {want}"
+            );
+        }
+        for &b in &[-2.4, -0.3, 0.0, 1.7, 3.1] {
+            let mut got = 0.0;
+            normal_nodes(&[b], |t, w| got += w * f64::from(u8::from(t > b)));
+            let want = 1.0 - phi_cdf(b);
+            assert!((got - want).abs() < 1e-13, "{b}: {got} {want}");
+        }
+        // two breakpoints: a step up and a kink, E[1{ε > −0.5} + max(ε − 1, 0)]
+        let mut got = 0.0;
+        normal_nodes(&[-0.5, 1.0], |t, w| {
+            got += w * (f64::from(u8::from(t > -0.5)) + (t - 1.0).max(0.0))
+        });
+        let want = (1.0 - phi_cdf(-0.5)) + phi_pdf(1.0) - (1.0 - phi_cdf(1.0));
+        assert!((got - want).abs() < 1e-13, "{got} {want}");
+        // without the breakpoint the step is integrated only to the panel's accuracy
+        let mut rough = 0.0;
+        normal_nodes(&[], |t, w| rough += w * f64::from(u8::from(t > 0.37)));
+        assert!((rough - (1.0 - phi_cdf(0.37))).abs() > 1e-6);
+    }
+
+    fn market(yield_sigma: f64, additive_sd: f64) -> StorageMarket {
+        let c = crate::curves::Curve::linear_at_point(210.0, 480.0, -0.25);
+        let rule = crate::numeric::gauss_hermite(10);
+        StorageMarket {
+            demand: c,
+            supply: c,
+            keep: 1.0,
+            discount: 0.9,
+            cost: 0.0,
+            nodes: Vec::new(),
+            yield_nodes: if yield_sigma > 0.0 {
+                rule.iter()
+                    .map(|&(z, w)| ((yield_sigma * z - 0.5 * yield_sigma * yield_sigma).exp(), w))
+                    .collect()
+            } else {
+                vec![(1.0, 1.0)]
+            },
+            p_star: 210.0,
+            q_star: 480.0,
+            harvest_sd: 0.0,
+            yield_sigma,
+            additive_sd,
+            planting_floor: 0.0,
+            payment_floor: 0.0,
+        }
+    }
+
+    #[test]
+    fn next_availability_nodes_integrate_kinked_functions_of_the_harvest() {
+        // Lognormal yield Y = exp(σs − σ²/2): E[max(qY, c)] = q·Φ(σ − s*) + c·Φ(s*),
+        // s* = (ln(c/q) + σ²/2)/σ (the lognormal partial expectation, as in Black and Scholes 1973).
+        let (q, sigma): (f64, f64) = (480.0, 0.12);
+        let m = market(sigma, 0.0);
+        for &c in &[430.0, 480.0, 560.0] {
+            let s_star = ((c / q).ln() + 0.5 * sigma * sigma) / sigma;
+            let want = q * phi_cdf(sigma - s_star) + c * phi_cdf(s_star);
+            let (mut got, mut weight) = (0.0, 0.0);
+            next_nodes(&m, 0.0, q, &[c], |z, _, w| {
+                got += w * z.max(c);
+                weight += w;
+            });
+            assert!((got - want).abs() < 1e-12 * want, "{c}: {got} {want}");
+            assert!((weight - 1.0).abs() < 1e-12, "{weight}");
+        }
+        // additive normal shock (no yield risk): carried + max(0, q + e) against a kink at c above
+        // the carried stock is the normal partial expectation with a = carried + q
+        let (carried, sd) = (20.0, 40.0);
+        let m = market(0.0, sd);
+        for &c in &[470.0, 500.0, 555.0] {
+            let alpha = (c - carried - q) / sd;
+            let a = carried + q;
+            let want = c * phi_cdf(alpha) + a * (1.0 - phi_cdf(alpha)) + sd * phi_pdf(alpha);
+            let mut got = 0.0;
+            next_nodes(&m, carried, q, &[c], |z, _, w| got += w * z.max(c));
+            assert!((got - want).abs() < 1e-12 * want, "{c}: {got} {want}");
+        }
+    }
+}
