@@ -381,10 +381,7 @@ fn bad_storage_inputs_are_named() {
                 capacity = 80.0\n[expectations]\nrule = \"adaptive\"\nweight = 0.5\n";
     let p = policy_from_table("tr.toml", parse_toml("tr.toml", text).unwrap()).unwrap();
     let e = storage::solve(&example_with(&[]), &p, &SolveOptions::default()).unwrap_err();
-    assert!(
-        e.to_string().contains("tr.toml: expectations.rule"),
-        "{e}"
-    );
+    assert!(e.to_string().contains("tr.toml: expectations.rule"), "{e}");
 }
 
 #[test]

@@ -250,8 +250,9 @@ pub fn sources(
     scenario: &Scenario,
     policies: &[PolicySpec],
 ) -> Result<Vec<PathSource>, StorageError> {
+    // the storage solves are independent: in parallel, collected in policy order
     policies
-        .iter()
+        .par_iter()
         .map(|p| {
             Ok(if scenario.storers.is_some() {
                 PathSource::Storage(Box::new(SolvedStorage::new(scenario, p)?))

@@ -44,6 +44,13 @@ fn stocks(band: &Band, g: f64) -> Vec<f64> {
         }
         Release::Share { share } => v.push((1.0 - share) * g),
     }
+    if band.budget.is_finite() && band.buy_below > 0.0 {
+        // where the budget runs out while the price is held at buy_below
+        let most = g + band.budget / band.buy_below;
+        if most < cap {
+            v.push(most);
+        }
+    }
     v
 }
 
@@ -136,6 +143,15 @@ impl<'a> NextPrice<'a> {
             levels.push(b.sell_above);
             if let Release::Target { .. } = b.release {
                 levels.push(0.5 * (b.buy_below + b.sell_above));
+            }
+        }
+        if b.budget.is_finite() {
+            // a purchase to a fixed stock G costs (G − g')·P: the budget binds where P reaches
+            // B / (G − g') (store filling up; target restocking)
+            for &(gg, _) in &self.fixed {
+                if gg > self.gn {
+                    levels.push(b.budget / (gg - self.gn));
+                }
             }
         }
         let mut out = Vec::with_capacity(24);
