@@ -50,11 +50,12 @@ fn a_budget_that_never_binds_gives_the_unlimited_equilibrium() {
     let s = load_market(EXAMPLE).unwrap();
     let free = storage::storage_indicators(&s, &floor(None)).unwrap();
     let ample = storage::storage_indicators(&s, &floor(Some(1e9))).unwrap();
-    assert_eq!(free.mean_price.to_bits(), ample.mean_price.to_bits());
-    assert_eq!(
-        free.public_stock_mean.to_bits(),
-        ample.public_stock_mean.to_bits()
-    );
+    // (equal up to the quadrature: the budget adds candidate breakpoints that split the panels
+    // differently, which moves the results in the last digits)
+    let close = |a: f64, b: f64| (a - b).abs() <= 1e-9 * b.abs();
+    assert!(close(free.mean_price, ample.mean_price));
+    assert!(close(free.public_stock_mean, ample.public_stock_mean));
+    assert!(close(free.private_stock_mean, ample.private_stock_mean));
     // and a binding one lowers the mean public stock bought
     let tight = storage::storage_indicators(&s, &floor(Some(8_000.0))).unwrap();
     assert!(tight.public_stock_mean < free.public_stock_mean);
