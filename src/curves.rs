@@ -107,6 +107,16 @@ impl Curve {
         }
     }
 
+    /// dQ/dP at a point (`p`, `q`) known to lie on the curve (q = Q(p)): the same as
+    /// [`Self::slope_at`] without computing Q(p) again.
+    #[inline]
+    pub fn slope_at_point(&self, p: f64, q: f64) -> f64 {
+        match *self {
+            Curve::Linear { slope, .. } => slope,
+            Curve::ConstantElasticity { elasticity, .. } => elasticity * q / p,
+        }
+    }
+
     /// Point elasticity (dQ/dP)·(P/Q) at price `p`; not finite where Q = 0.
     pub fn elasticity_at(&self, p: f64) -> f64 {
         match *self {

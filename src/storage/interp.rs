@@ -11,6 +11,11 @@ pub struct Monotone {
     xs: Vec<f64>,
     ys: Vec<f64>,
     ms: Vec<f64>,
+    /// Index lookup: `start[b]` is the last knot at or before the start of the b-th of equal bins
+    /// over [x_0, x_{n−1}], so that finding an interval is a short forward scan.
+    start: Vec<u32>,
+    /// Bins per unit of x.
+    per_unit: f64,
 }
 
 impl Monotone {
@@ -50,7 +55,36 @@ impl Monotone {
                 ms[k + 1] = t * b * d[k];
             }
         }
-        Monotone { xs, ys, ms }
+        let bins = 2 * n;
+        let per_unit = bins as f64 / (xs[n - 1] - xs[0]);
+        let start = (0..bins)
+            .map(|b| {
+                let at = xs[0] + b as f64 / per_unit;
+                (xs.partition_point(|&v| v <= at).clamp(1, n - 1) - 1) as u32
+            })
+            .collect();
+        Monotone {
+            xs,
+            ys,
+            ms,
+            start,
+            per_unit,
+        }
+    }
+
+    /// The interval k with x_k ≤ x < x_{k+1}, for x_0 < x < x_{n−1}.
+    #[inline]
+    fn interval(&self, x: f64) -> usize {
+        let b = (((x - self.xs[0]) * self.per_unit) as usize).min(self.start.len() - 1);
+        let mut k = self.start[b] as usize;
+        // the bin may start past x by rounding: step back, then forward
+        while k > 0 && self.xs[k] > x {
+            k -= 1;
+        }
+        while self.xs[k + 1] <= x {
+            k += 1;
+        }
+        k
     }
 
     /// The knots.
@@ -76,7 +110,7 @@ impl Monotone {
                 self.ms[n - 1],
             );
         }
-        let k = self.xs.partition_point(|&v| v <= x) - 1;
+        let k = self.interval(x);
         let h = self.xs[k + 1] - self.xs[k];
         let t = (x - self.xs[k]) / h;
         let (y0, y1, m0, m1) = (
@@ -170,6 +204,24 @@ mod tests {
             let h = 1e-6;
             let fd = (m.value(x + h) - m.value(x - h)) / (2.0 * h);
             assert!((m.eval(x).1 - fd).abs() < 1e-6);
+        }
+    }
+
+    #[test]
+    fn interval_lookup_agrees_with_a_binary_search() {
+        // uneven knots (quadratic spacing, as the solver's grids), many query points
+        let xs: Vec<f64> = (0..57)
+            .map(|j| 3.0 + (j as f64 / 56.0).powi(2) * 90.0)
+            .collect();
+        let ys: Vec<f64> = xs.iter().map(|x| -x.ln()).collect();
+        let f = Monotone::new(xs.clone(), ys);
+        for i in 1..20_000 {
+            let x = 3.0 + 90.0 * i as f64 / 20_000.0;
+            let want = xs.partition_point(|&v| v <= x) - 1;
+            assert_eq!(f.interval(x), want, "x = {x}");
+        }
+        for &x in &xs[1..xs.len() - 1] {
+            assert_eq!(f.interval(x), xs.partition_point(|&v| v <= x) - 1);
         }
     }
 }

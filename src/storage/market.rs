@@ -133,7 +133,7 @@ impl StorageMarket {
         if p <= 0.0 {
             (0.0, 0.0)
         } else {
-            (p, 1.0 / self.demand.slope_at(p))
+            (p, 1.0 / self.demand.slope_at_point(p, c))
         }
     }
 
