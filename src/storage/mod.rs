@@ -81,6 +81,8 @@ fn describe_change(change: f64) -> String {
 
 /// Arbitrage residual the grid refinement aims below (relative to the price).
 pub const REFINE_TARGET: f64 = 1e-7;
+/// Arbitrage residual the two-state grid refinement aims below (target release rule only).
+pub const REFINE_TARGET_2D: f64 = 1e-6;
 /// Largest refined grid.
 pub const REFINE_MAX_POINTS: usize = 5000;
 
@@ -157,9 +159,18 @@ pub fn solve(
                 REFINE_MAX_POINTS,
             )?))
         }
-        Some(band) if band.capacity.is_finite() => Ok(Equilibrium::Public(
-            public_solve::solve_public(m, band, options)?,
-        )),
+        Some(band) if band.capacity.is_finite() => {
+            let sol = public_solve::solve_public(m, band, options)?;
+            Ok(Equilibrium::Public(
+                if matches!(band.release, agency::Release::Target { .. }) {
+                    // the target rule's kinks lie on curves across the public-stock levels: refine
+                    // where the residual exceeds the 2-D target (demo: 16 to 32 levels, 1.2e-5 to 9e-7)
+                    public_solve::refine_public(sol, options, REFINE_TARGET_2D, 400, 64)?
+                } else {
+                    sol
+                },
+            ))
+        }
         Some(band) => solve_unlimited(scenario, policy, m, band, options),
     }
 }
