@@ -16,8 +16,6 @@
 
 use std::sync::OnceLock;
 
-use nalgebra::{DMatrix, SymmetricEigen};
-
 use super::market::StorageMarket;
 
 /// Truncation of the standard normal: the mass beyond ±8.3 is 1.0e-16.
@@ -36,21 +34,14 @@ pub fn gauss_legendre(n: usize) -> Vec<(f64, f64)> {
     if n == 1 {
         return vec![(0.0, 2.0)];
     }
-    let mut j = DMatrix::<f64>::zeros(n, n);
-    for k in 1..n {
+    // weight function 1 on [−1, 1]: mass 2
+    let mut out: Vec<(f64, f64)> = crate::numeric::jacobi_rule(n, |k| {
         let kf = k as f64;
-        let off = kf / (4.0 * kf * kf - 1.0).sqrt();
-        j[(k - 1, k)] = off;
-        j[(k, k - 1)] = off;
-    }
-    let eig = SymmetricEigen::new(j);
-    let mut out: Vec<(f64, f64)> = (0..n)
-        .map(|i| {
-            let v0 = eig.eigenvectors[(0, i)];
-            (eig.eigenvalues[i], 2.0 * v0 * v0)
-        })
-        .collect();
-    out.sort_by(|a, b| a.0.total_cmp(&b.0));
+        kf / (4.0 * kf * kf - 1.0).sqrt()
+    })
+    .into_iter()
+    .map(|(x, w)| (x, 2.0 * w))
+    .collect();
     // symmetrise: average each node with its mirror image
     for i in 0..n / 2 {
         let k = n - 1 - i;
