@@ -76,6 +76,28 @@ pub fn gauss_hermite(n: usize) -> Vec<(f64, f64)> {
     out
 }
 
+/// The Golub–Welsch step shared by the Gaussian rules (Golub and Welsch 1969): the eigenvalues of the
+/// symmetric tridiagonal Jacobi matrix of size `n` with zero diagonal and off-diagonal entries
+/// `off(k)` (k = 1..n−1), ascending, each with the squared first component of its normalised
+/// eigenvector (the weight for a weight function of total mass 1).
+pub fn jacobi_rule(n: usize, off: impl Fn(usize) -> f64) -> Vec<(f64, f64)> {
+    let mut j = DMatrix::<f64>::zeros(n, n);
+    for k in 1..n {
+        let o = off(k);
+        j[(k - 1, k)] = o;
+        j[(k, k - 1)] = o;
+    }
+    let eig = SymmetricEigen::new(j);
+    let mut out: Vec<(f64, f64)> = (0..n)
+        .map(|i| {
+            let v0 = eig.eigenvectors[(0, i)];
+            (eig.eigenvalues[i], v0 * v0)
+        })
+        .collect();
+    out.sort_by(|a, b| a.0.total_cmp(&b.0));
+    out
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -105,26 +127,4 @@ mod tests {
             assert!((r - 10f64.sqrt()).abs() < 1e-10, "guess {guess}: {r}");
         }
     }
-}
-
-/// The Golub–Welsch step shared by the Gaussian rules (Golub and Welsch 1969): the eigenvalues of the
-/// symmetric tridiagonal Jacobi matrix of size `n` with zero diagonal and off-diagonal entries
-/// `off(k)` (k = 1..n−1), ascending, each with the squared first component of its normalised
-/// eigenvector (the weight for a weight function of total mass 1).
-pub fn jacobi_rule(n: usize, off: impl Fn(usize) -> f64) -> Vec<(f64, f64)> {
-    let mut j = DMatrix::<f64>::zeros(n, n);
-    for k in 1..n {
-        let o = off(k);
-        j[(k - 1, k)] = o;
-        j[(k, k - 1)] = o;
-    }
-    let eig = SymmetricEigen::new(j);
-    let mut out: Vec<(f64, f64)> = (0..n)
-        .map(|i| {
-            let v0 = eig.eigenvectors[(0, i)];
-            (eig.eigenvalues[i], v0 * v0)
-        })
-        .collect();
-    out.sort_by(|a, b| a.0.total_cmp(&b.0));
-    out
 }
