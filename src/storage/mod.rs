@@ -198,17 +198,10 @@ fn solve_unlimited(
     band.capacity = (0.5 * q).max(1.5 * initial);
     loop {
         let eq = Equilibrium::Public(public_solve::solve_public(m.clone(), band, options)?);
-        let peak = simulate(
-            &eq,
-            &scenario.shocks,
-            scenario.run.seed,
-            0,
-            initial,
-            simulate::BURN_IN + simulate::INDICATOR_PERIODS,
-        )
-        .iter()
-        .map(|r| r.public_stock)
-        .fold(initial, f64::max);
+        let peak = indicator_path(&eq, scenario, initial)
+            .iter()
+            .map(|r| r.public_stock)
+            .fold(initial, f64::max);
         if peak < 0.9 * band.capacity {
             return Ok(eq);
         }
@@ -237,15 +230,21 @@ pub fn long_run(solved: &SolvedStorage) -> LongRun {
     )
 }
 
-fn long_run_of(eq: &Equilibrium, scenario: &Scenario, initial: f64) -> LongRun {
-    let path = simulate(
+/// The long path the indicators average (and an unlimited store's bound is checked on): the market
+/// file's seed, replication 0, [`simulate::BURN_IN`] + [`simulate::INDICATOR_PERIODS`] periods.
+fn indicator_path(eq: &Equilibrium, scenario: &Scenario, initial: f64) -> Vec<StoragePeriod> {
+    simulate(
         eq,
         &scenario.shocks,
         scenario.run.seed,
         0,
         initial,
         simulate::BURN_IN + simulate::INDICATOR_PERIODS,
-    );
+    )
+}
+
+fn long_run_of(eq: &Equilibrium, scenario: &Scenario, initial: f64) -> LongRun {
+    let path = indicator_path(eq, scenario, initial);
     let [mean_price, price_sd, mean_harvest, private_stock, public_stock, private_stockout_share, stockout_share, mean_producer_price, deficiency_payments] =
         simulate::moments(&path[simulate::BURN_IN..]);
     LongRun {

@@ -31,21 +31,21 @@ pub fn to_records(
             let storage_cost = storage_rate * r.public_stock;
             let financing_cost = financing_rate * r.price * r.public_stock;
             let handling_cost = handling_rate * (r.purchases + r.releases);
+            let buy = if floor_purchase {
+                flags::FLOOR_BUY
+            } else {
+                flags::BAND_BUY
+            };
             let mut bits = match r.regime {
-                Regime::Buying if floor_purchase => flags::FLOOR_BUY,
-                Regime::Buying => flags::BAND_BUY,
-                Regime::Full if r.purchases > 0.0 && floor_purchase => {
-                    flags::CAPACITY_FULL | flags::FLOOR_BUY
-                }
-                Regime::Full if r.purchases > 0.0 => flags::CAPACITY_FULL | flags::BAND_BUY,
+                Regime::Buying => buy,
+                Regime::Full if r.purchases > 0.0 => flags::CAPACITY_FULL | buy,
                 Regime::Full => flags::CAPACITY_FULL,
                 Regime::Selling => flags::BAND_SELL,
                 Regime::Empty if r.releases > 0.0 => flags::STOCK_OUT | flags::BAND_SELL,
                 Regime::Empty => flags::STOCK_OUT,
                 Regime::Rotating => flags::ROTATION,
                 Regime::Steering => flags::TARGET,
-                Regime::BudgetBound if floor_purchase => flags::FLOOR_BUY | flags::BUDGET_BOUND,
-                Regime::BudgetBound => flags::BAND_BUY | flags::BUDGET_BOUND,
+                Regime::BudgetBound => buy | flags::BUDGET_BOUND,
                 Regime::Inside => 0,
             };
             if r.deficiency_payments > 0.0 {
