@@ -180,12 +180,7 @@ impl<'a> Clearing<'a> {
         if amount <= 0.0 {
             return 0.0;
         }
-        // 0 + amount is amount exactly (amount > 0 here): skip the dependent addition
-        self.purchases = if self.purchases == 0.0 {
-            amount
-        } else {
-            self.purchases + amount
-        };
+        self.purchases = accumulate(self.purchases, amount);
         self.flags |= acted;
         amount
     }
@@ -239,13 +234,20 @@ impl<'a> Clearing<'a> {
         if amount <= 0.0 {
             return 0.0;
         }
-        self.releases = if self.releases == 0.0 {
-            amount
-        } else {
-            self.releases + amount
-        };
+        self.releases = accumulate(self.releases, amount);
         self.flags |= acted;
         amount
+    }
+}
+
+/// `total + amount` for a trade `amount` > 0; the first trade of the period is assigned, since
+/// 0 + amount is amount exactly, which keeps the addition off the price's dependency chain.
+#[inline(always)]
+fn accumulate(total: f64, amount: f64) -> f64 {
+    if total == 0.0 {
+        amount
+    } else {
+        total + amount
     }
 }
 
