@@ -19,6 +19,9 @@ pub struct CommonArgs {
     /// Write plots (PNG and SVG) into this folder.
     #[arg(long, value_name = "DIR")]
     pub plots: Option<PathBuf>,
+    /// With --plots: remove figure files an earlier run wrote into DIR that this run does not write.
+    #[arg(long, requires = "plots")]
+    pub clean: bool,
     /// Seed of the random number generator (overrides the file).
     #[arg(long)]
     pub seed: Option<u64>,
@@ -89,12 +92,29 @@ impl CommonArgs {
         }
     }
 
+    /// The `--plots` folder, if given.
+    pub fn plot_dir(&self) -> Option<PlotDir> {
+        self.plots.as_ref().map(|p| PlotDir {
+            path: p.clone(),
+            clean: self.clean,
+        })
+    }
+
     /// Writes the verb's output to `--out` or stdout.
     pub fn emit(&self, text: &str) -> anyhow::Result<()> {
         let path = self.out.clone().unwrap_or_else(|| PathBuf::from("-"));
         write_whole(&path, text.as_bytes())
             .with_context(|| format!("cannot write {}", path.display()))
     }
+}
+
+/// The `--plots` folder and whether to `--clean` it.
+#[derive(Debug, Clone)]
+pub struct PlotDir {
+    /// The folder.
+    pub path: PathBuf,
+    /// Remove figure files an earlier run wrote there and this one does not.
+    pub clean: bool,
 }
 
 /// Loads a policy file, or the market left alone when `path` is `None`.

@@ -38,8 +38,8 @@ pub fn execute(args: &CompareArgs) -> anyhow::Result<()> {
     let result = compare(&scenario, &policies, bar.observer());
     bar.finish();
     let result = result?;
-    if let Some(dir) = &args.common.plots {
-        super::report::plot_compare(dir, &scenario, &args.policies, &result)?;
+    if let Some(dir) = args.common.plot_dir() {
+        super::report::plot_compare(&dir, &scenario, &args.policies, &result)?;
     }
     args.common
         .emit(&render::render(&result, args.common.format))

@@ -43,8 +43,8 @@ pub fn execute(args: &RunArgs, scenario: &Scenario, policy: &PolicySpec) -> anyh
         mc.replications, mc.periods, scenario.run.seed
     ));
     let runs = &mc.policies[0];
-    if let Some(dir) = &args.common.plots {
-        super::report::plot_mc_run(dir, scenario, runs, mc.replications)?;
+    if let Some(dir) = args.common.plot_dir() {
+        super::report::plot_mc_run(&dir, scenario, runs, mc.replications)?;
     }
     let mut columns = vec!["period".to_string()];
     for s in &runs.series {

@@ -5,15 +5,13 @@ mod brief;
 mod figures;
 mod mc;
 
-use std::path::Path;
-
 use anyhow::Context;
 use clap::Args;
 use furrow::engine::PeriodRecord;
 use furrow::scenario::{PolicySpec, Scenario};
 use furrow::stability::StabilityReport;
 
-use super::common::{load_policy, say, CommonArgs};
+use super::common::{load_policy, say, CommonArgs, PlotDir};
 pub use figures::Figure;
 
 /// Arguments of `report`.
@@ -96,8 +94,8 @@ pub fn execute(args: &ReportArgs) -> anyhow::Result<()> {
     for f in &inputs {
         provenance.push((format!("SHA-256 of {f}"), assumptions::sha256_file(f)?));
     }
-    if let Some(dir) = &args.common.plots {
-        figures::write_all(dir, &figs)?;
+    if let Some(dir) = args.common.plot_dir() {
+        figures::write_all(&dir, &figs)?;
     }
     let page = brief::build(brief::Inputs {
         scenario: &scenario,
@@ -181,7 +179,7 @@ fn report_figures(
 /// Writes the plots of `compare` into `dir`: one path per policy (price, harvest, cobwebs, fiscal
 /// cost), the Monte Carlo fans and mean fiscal cost, and the eigenvalues.
 pub fn plot_compare(
-    dir: &Path,
+    dir: &PlotDir,
     scenario: &Scenario,
     files: &[String],
     result: &furrow::compare::CompareResult,
@@ -203,7 +201,7 @@ pub fn plot_compare(
 
 /// Writes the plots of one path into `dir`: price and harvest paths, the cobweb, the fiscal cost.
 pub fn plot_run(
-    dir: &Path,
+    dir: &PlotDir,
     scenario: &Scenario,
     policy: &PolicySpec,
     records: &[PeriodRecord],
@@ -213,7 +211,7 @@ pub fn plot_run(
 
 /// Writes the eigenvalue plot of one stability report into `dir`.
 pub fn plot_stability(
-    dir: &Path,
+    dir: &PlotDir,
     policy_name: &str,
     report: &StabilityReport,
 ) -> anyhow::Result<()> {
@@ -226,7 +224,7 @@ pub fn plot_stability(
 /// Writes the plots of a sweep into `dir`: the stability map (two keys) or the spectral radius and
 /// the bifurcation diagram (one key).
 pub fn plot_sweep(
-    dir: &Path,
+    dir: &PlotDir,
     keys: &[String],
     points: &[figures::SweepPoint],
     price_unit: &str,
@@ -257,7 +255,7 @@ pub fn sweep_points(points: &[furrow::sweep::Point]) -> Vec<figures::SweepPoint>
 
 /// Writes the plots of `run` with replications > 1 into `dir`: fan charts and the mean fiscal cost.
 pub fn plot_mc_run(
-    dir: &Path,
+    dir: &PlotDir,
     scenario: &Scenario,
     runs: &furrow::stochastic::PolicyRuns,
     replications: usize,

@@ -141,8 +141,8 @@ pub fn execute(args: &RunArgs) -> anyhow::Result<()> {
     for line in furrow::policies::diagnose(&scenario, &policy, &model, &records) {
         say(&line);
     }
-    if let Some(dir) = &args.common.plots {
-        super::report::plot_run(dir, &scenario, &policy, &records)?;
+    if let Some(dir) = args.common.plot_dir() {
+        super::report::plot_run(&dir, &scenario, &policy, &records)?;
     }
     args.common
         .emit_with_caution(&render_path(&records, args.common.format))

@@ -131,8 +131,8 @@ pub fn execute(args: &StabilityArgs) -> anyhow::Result<()> {
     let policy = load_policy(args.policy.as_deref())?;
     let report = stability::analyse(&scenario, &policy)
         .map_err(|e| anyhow::anyhow!("{}: {e}", scenario.source))?;
-    if let Some(dir) = &args.common.plots {
-        super::report::plot_stability(dir, &policy.name, &report)?;
+    if let Some(dir) = args.common.plot_dir() {
+        super::report::plot_stability(&dir, &policy.name, &report)?;
     }
     if !report.steady_state_exists {
         say("no steady state with finite stock exists under this policy (see notes)");

@@ -181,7 +181,7 @@ pub fn execute(args: &SweepArgs) -> anyhow::Result<()> {
         ));
     }
     let keys: Vec<String> = axes.iter().map(|a| a.key.clone()).collect();
-    if let Some(dir) = &args.common.plots {
+    if let Some(dir) = args.common.plot_dir() {
         let price_unit = base
             .market
             .get("market")
@@ -190,7 +190,7 @@ pub fn execute(args: &SweepArgs) -> anyhow::Result<()> {
             .unwrap_or("price units")
             .to_string();
         super::report::plot_sweep(
-            dir,
+            &dir,
             &keys,
             &super::report::sweep_points(&points),
             &price_unit,

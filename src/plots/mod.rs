@@ -118,14 +118,29 @@ impl Plot {
         Ok(s)
     }
 
-    /// Writes the figure as a PNG file at `path`.
+    /// Writes the figure as a PNG file at `path`, whole or not at all: the image is drawn in memory,
+    /// encoded into a temporary file beside `path` and renamed over it (a symlink is followed, a
+    /// device or FIFO written in place; see [`crate::output::write_whole_via`]).
     pub fn write_png(&self, path: &Path) -> Result<(), PlotError> {
-        let root = BitMapBackend::new(path, self.size()).into_drawing_area();
-        self.draw(&root)?;
-        root.present().map_err(|e| PlotError::Io {
+        let io = |source: std::io::Error| PlotError::Io {
             path: path.to_path_buf(),
-            source: std::io::Error::other(e.to_string()),
+            source,
+        };
+        let (w, h) = self.size();
+        // draw into an RGB buffer first, so that the temporary file exists only while it is encoded
+        let mut buf = vec![0u8; w as usize * h as usize * 3];
+        {
+            let root = BitMapBackend::with_buffer(&mut buf, (w, h)).into_drawing_area();
+            self.draw(&root)?;
+            root.present().map_err(frame::de)?;
+        }
+        crate::output::write_whole_via(path, ".png", |tmp| {
+            let mut file = BitMapBackend::new(tmp, (w, h));
+            file.blit_bitmap((0, 0), (w, h), &buf)
+                .and_then(|_| file.present())
+                .map_err(|e| std::io::Error::other(e.to_string()))
         })
+        .map_err(io)
     }
 
     /// Writes `stem.png` and `stem.svg` into `dir` (created if missing); returns both paths.
@@ -144,6 +159,77 @@ impl Plot {
         })?;
         Ok(vec![png, svg])
     }
+}
+
+/// The file in a `--plots` folder that lists the figure files furrow wrote there (one name a line).
+pub const MANIFEST: &str = ".furrow-plots";
+
+/// What [`update_manifest`] found and did.
+#[derive(Debug, Clone, Default, PartialEq, Eq)]
+pub struct ManifestUpdate {
+    /// Files written by an earlier run and not by this one that were removed (`clean`).
+    pub removed: Vec<String>,
+    /// Such files that are still present (not `clean`); they stay in the manifest.
+    pub stale: Vec<String>,
+}
+
+/// The file names listed in `dir`'s manifest (empty when there is none). Only plain names are
+/// accepted, so a manifest can never point outside its folder.
+pub fn read_manifest(dir: &Path) -> Vec<String> {
+    std::fs::read_to_string(dir.join(MANIFEST))
+        .map(|t| {
+            t.lines()
+                .map(str::trim)
+                .filter(|n| {
+                    !n.is_empty()
+                        && !n.starts_with('#')
+                        && *n != "."
+                        && *n != ".."
+                        && !n.contains(['/', '\\'])
+                        && *n != MANIFEST
+                })
+                .map(String::from)
+                .collect()
+        })
+        .unwrap_or_default()
+}
+
+/// Records that this run wrote `written` (plain file names) into `dir`. Files an earlier run wrote
+/// and this one did not are removed when `clean` is set (regular files only), and otherwise listed in
+/// [`ManifestUpdate::stale`] and kept in the manifest, so a later `clean` still finds them.
+pub fn update_manifest(
+    dir: &Path,
+    written: &[String],
+    clean: bool,
+) -> Result<ManifestUpdate, PlotError> {
+    let mut update = ManifestUpdate::default();
+    let mut listed: Vec<String> = written.to_vec();
+    for old in read_manifest(dir) {
+        if written.contains(&old) || listed.contains(&old) {
+            continue;
+        }
+        let p = dir.join(&old);
+        let Ok(meta) = std::fs::symlink_metadata(&p) else {
+            continue; // gone already
+        };
+        if clean && meta.file_type().is_file() {
+            std::fs::remove_file(&p).map_err(|source| PlotError::Io { path: p, source })?;
+            update.removed.push(old);
+        } else {
+            update.stale.push(old.clone());
+            listed.push(old);
+        }
+    }
+    let mut text =
+        String::from("# files written by furrow --plots (stale ones are removed by --clean)\n");
+    for n in &listed {
+        text.push_str(n);
+        text.push('\n');
+    }
+    let path = dir.join(MANIFEST);
+    crate::output::write_whole(&path, text.as_bytes())
+        .map_err(|source| PlotError::Io { path, source })?;
+    Ok(update)
 }
 
 /// Splits a polyline into runs of finite points (a NaN or infinity breaks the line).

@@ -1,13 +1,13 @@
 //! From engine results to figures: which plots each verb draws, their file stems, captions, axis
 //! labels and units (taken from the market file). Drawing itself is `furrow::plots`.
 
-use std::path::Path;
-
 use anyhow::Context;
 use furrow::engine::{Model, PeriodRecord};
 use furrow::plots::{self, CobwebStep, EigenPoint, Plot, Series};
 use furrow::scenario::{PolicySpec, Scenario};
 use furrow::stability::StabilityReport;
+
+use super::super::common::{say, PlotDir};
 
 /// A figure with its file stem and the caption the report shows.
 pub struct Figure {
@@ -218,27 +218,59 @@ pub fn eigen_figure(reports: &[(String, StabilityReport)]) -> Option<Figure> {
     })
 }
 
-/// Writes every figure into `dir` (PNG and SVG) and says where.
-pub fn write_all(dir: &Path, figures: &[Figure]) -> anyhow::Result<()> {
-    let mut written = 0;
+/// Writes every figure into `dir` (PNG and SVG, each whole or not at all), records them in the
+/// folder's manifest, and says where; figures an earlier run wrote there and this one did not are
+/// removed with `--clean`, otherwise named on stderr.
+pub fn write_all(dir: &PlotDir, figures: &[Figure]) -> anyhow::Result<()> {
+    let mut written = Vec::new();
     for f in figures {
-        match f.plot.write(dir, &f.stem) {
-            Ok(_) => written += 1,
-            Err(furrow::plots::PlotError::Empty(_)) => super::super::common::say(&format!(
+        match f.plot.write(&dir.path, &f.stem) {
+            Ok(paths) => written.extend(
+                paths
+                    .iter()
+                    .filter_map(|p| p.file_name().map(|n| n.to_string_lossy().to_string())),
+            ),
+            Err(furrow::plots::PlotError::Empty(_)) => say(&format!(
                 "plot `{}` skipped: no finite values to draw",
                 f.stem
             )),
             Err(e) => {
                 return Err(e).with_context(|| {
-                    format!("cannot draw the plot `{}` into {}", f.stem, dir.display())
+                    format!(
+                        "cannot draw the plot `{}` into {}",
+                        f.stem,
+                        dir.path.display()
+                    )
                 })
             }
         }
     }
-    super::super::common::say(&format!(
-        "wrote {written} plots (PNG and SVG) into {}",
-        dir.display()
+    if written.is_empty() {
+        std::fs::create_dir_all(&dir.path)
+            .with_context(|| format!("cannot create {}", dir.path.display()))?;
+    }
+    let update = plots::update_manifest(&dir.path, &written, dir.clean)
+        .with_context(|| format!("cannot update the plot list in {}", dir.path.display()))?;
+    say(&format!(
+        "wrote {} plots (PNG and SVG) into {}",
+        written.len() / 2,
+        dir.path.display()
     ));
+    if !update.removed.is_empty() {
+        say(&format!(
+            "--clean: removed {} files an earlier run wrote there: {}",
+            update.removed.len(),
+            update.removed.join(", ")
+        ));
+    }
+    if !update.stale.is_empty() {
+        say(&format!(
+            "{} stale plot files from an earlier run are present in {} ({}); pass --clean to remove them",
+            update.stale.len(),
+            dir.path.display(),
+            update.stale.join(", ")
+        ));
+    }
     Ok(())
 }
 
