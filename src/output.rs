@@ -130,12 +130,14 @@ fn cell_to_json(c: &str) -> serde_json::Value {
     }
 }
 
-fn markdown_row(cells: &[String]) -> String {
+/// One Markdown table row (`| a | b |` and a newline), `|` escaped; for streamed tables.
+pub fn markdown_row(cells: &[String]) -> String {
     let inner: Vec<String> = cells.iter().map(|c| c.replace('|', "\\|")).collect();
     format!("| {} |\n", inner.join(" | "))
 }
 
-fn csv_row(cells: &[String]) -> String {
+/// One CSV record and a newline, quoted where needed; for streamed tables.
+pub fn csv_row(cells: &[String]) -> String {
     let quoted: Vec<String> = cells
         .iter()
         .map(|c| {

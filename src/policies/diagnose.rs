@@ -4,6 +4,33 @@ use crate::engine::{Model, PeriodRecord};
 use crate::policies::flags;
 use crate::scenario::{FloorInstrument, PolicySpec, Scenario};
 
+/// What [`diagnose`] needs from a path, gathered period by period (so a long path can be streamed
+/// without keeping its records): for each event, its first period and how many periods had it.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct PathTally {
+    /// The store was full (first period, periods).
+    pub capacity_full: Option<(usize, usize)>,
+    /// The purchase budget bound.
+    pub budget_bound: Option<(usize, usize)>,
+    /// The price was above the ceiling with no stock.
+    pub stockout: Option<(usize, usize)>,
+}
+
+impl PathTally {
+    /// Adds one period.
+    pub fn add(&mut self, r: &PeriodRecord) {
+        let bump = |slot: &mut Option<(usize, usize)>, hit: bool| {
+            if hit {
+                let e = slot.get_or_insert((r.period, 0));
+                e.1 += 1;
+            }
+        };
+        bump(&mut self.capacity_full, r.flags & flags::CAPACITY_FULL != 0);
+        bump(&mut self.budget_bound, r.flags & flags::BUDGET_BOUND != 0);
+        bump(&mut self.stockout, r.stockout);
+    }
+}
+
 /// Sentences about the scheme on this path: an indefensible floor (with the stock growth per period
 /// and when capacity or budget runs out), stock-outs, and floors lost to a full store.
 pub fn diagnose(
@@ -11,6 +38,18 @@ pub fn diagnose(
     policy: &PolicySpec,
     model: &Model,
     records: &[PeriodRecord],
+) -> Vec<String> {
+    let mut tally = PathTally::default();
+    records.iter().for_each(|r| tally.add(r));
+    diagnose_tally(scenario, policy, model, &tally)
+}
+
+/// [`diagnose`] from a [`PathTally`].
+pub fn diagnose_tally(
+    scenario: &Scenario,
+    policy: &PolicySpec,
+    model: &Model,
+    tally: &PathTally,
 ) -> Vec<String> {
     let mut out = Vec::new();
     let unit = &scenario.market.quantity_unit;
@@ -52,34 +91,19 @@ pub fn diagnose(
             }
         }
     }
-    let first = |bit: u16| {
-        records
-            .iter()
-            .find(|r| r.flags & bit != 0)
-            .map(|r| r.period)
-    };
-    let count = |bit: u16| records.iter().filter(|r| r.flags & bit != 0).count();
-    if let Some(t) = first(flags::CAPACITY_FULL) {
+    if let Some((t, n)) = tally.capacity_full {
         out.push(format!(
-            "the store was full from period {t} ({} periods in all): the agency could not buy all it should, and the price fell below its floor or band",
-            count(flags::CAPACITY_FULL)
+            "the store was full from period {t} ({n} periods in all): the agency could not buy all it should, and the price fell below its floor or band"
         ));
     }
-    if let Some(t) = first(flags::BUDGET_BOUND) {
+    if let Some((t, n)) = tally.budget_bound {
         out.push(format!(
-            "the purchase budget ran out in period {t} ({} periods in all): purchases were cut to the budget",
-            count(flags::BUDGET_BOUND)
+            "the purchase budget ran out in period {t} ({n} periods in all): purchases were cut to the budget"
         ));
     }
-    let stockouts: Vec<usize> = records
-        .iter()
-        .filter(|r| r.stockout)
-        .map(|r| r.period)
-        .collect();
-    if let Some(t) = stockouts.first() {
+    if let Some((t, n)) = tally.stockout {
         out.push(format!(
-            "stock-out: the reserve was empty while the price was above the ceiling, first in period {t} ({} periods in all); the ceiling was lost",
-            stockouts.len()
+            "stock-out: the reserve was empty while the price was above the ceiling, first in period {t} ({n} periods in all); the ceiling was lost"
         ));
     }
     out

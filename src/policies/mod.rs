@@ -15,7 +15,7 @@ mod stock_target;
 
 pub use clearing::{flags, Clearing};
 pub use deficiency::DeficiencyPayment;
-pub use diagnose::diagnose;
+pub use diagnose::{diagnose, diagnose_tally, PathTally};
 pub use floor_purchase::FloorPurchase;
 pub use stock_band::BandStock;
 pub use stock_share::ShareStock;
