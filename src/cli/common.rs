@@ -108,6 +108,28 @@ impl CommonArgs {
     }
 }
 
+/// Refuses, before it starts, a Monte Carlo run of `scenario` over `columns` columns (the baseline
+/// and each policy) keeping `series` per-period series that would need more memory than the machine
+/// has available (the estimate is `furrow::stochastic::memory`).
+pub fn check_memory(
+    verb: &str,
+    scenario: &Scenario,
+    columns: usize,
+    series: usize,
+) -> anyhow::Result<()> {
+    if scenario.run.replications <= 1 {
+        return Ok(());
+    }
+    furrow::stochastic::memory::check(
+        scenario.run.replications,
+        scenario.run.periods,
+        columns,
+        series,
+    )
+    .map(|_| ())
+    .map_err(|e| anyhow::anyhow!("{verb}: {e}"))
+}
+
 /// The `--plots` folder and whether to `--clean` it.
 #[derive(Debug, Clone)]
 pub struct PlotDir {

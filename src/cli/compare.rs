@@ -34,6 +34,8 @@ pub fn execute(args: &CompareArgs) -> anyhow::Result<()> {
     if scenario.shocks.is_deterministic() && scenario.run.replications > 1 {
         say("the market has no shocks: every replication is the same path");
     }
+    // compare keeps two per-period series (price and stock) for its fan charts
+    super::common::check_memory("compare", &scenario, policies.len() + 1, 2)?;
     let bar = progress_for(&scenario, policies.len() + 1);
     let result = compare(&scenario, &policies, bar.observer());
     bar.finish();

@@ -33,6 +33,7 @@ const TABLE_COLUMNS: &[&str] = &[
 
 /// Runs the Monte Carlo summary of `run`.
 pub fn execute(args: &RunArgs, scenario: &Scenario, policy: &PolicySpec) -> anyhow::Result<()> {
+    super::common::check_memory("run", scenario, 1, SERIES.len())?;
     let bar = progress_for(scenario, 1);
     let paths = sources(scenario, std::slice::from_ref(policy))?;
     let mc = run_monte_carlo_sources(scenario, &paths, &SERIES, bar.observer());

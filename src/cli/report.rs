@@ -146,6 +146,8 @@ fn run_compare(
     if specs.is_empty() {
         specs.push(cols[0].1.clone());
     }
+    // compare keeps two per-period series (price and stock) for its fan charts
+    super::common::check_memory("report", scenario, specs.len() + 1, 2)?;
     let bar = super::compare::progress_for(scenario, specs.len() + 1);
     let result = furrow::compare::compare(scenario, &specs, bar.observer());
     bar.finish();

@@ -1,0 +1,236 @@
+//! How much memory a Monte Carlo run needs, estimated before it starts, and how much the machine has.
+//!
+//! What a run keeps (see `montecarlo.rs`): for every replication and every column (the baseline and
+//! each policy) one [`ReplicationSummary`], held twice at the peak (the chunks' results and the
+//! assembled list side by side), and one `f64` of scratch while the 5/50/95 % quantiles of a present
+//! value are selected; per chunk of [`CHUNK`] replications, per-period sums of the fiscal cost and of
+//! each kept series (amortised: `8 · periods · (1 + series) / CHUNK` bytes a replication); the
+//! per-period values kept for fan-chart quantiles, capped at [`SERIES_BUDGET_BYTES`] in all; and the
+//! program itself ([`BASE_BYTES`]). With 40 periods and two kept series that is 215 bytes per
+//! replication per column (measured: 214, from the peak resident size of `compare` at 2·10⁵ and
+//! 10⁶ replications with 2 and 4 columns).
+
+use std::mem::size_of;
+
+use super::montecarlo::{ReplicationSummary, CHUNK, SERIES_BUDGET_BYTES};
+
+/// The program, its tables and thread stacks, before any replication (measured about 10 MB; rounded
+/// up).
+pub const BASE_BYTES: u64 = 16 << 20;
+
+/// Assumed available memory when `/proc/meminfo` cannot be read (not Linux, or no `/proc`): 2 GiB.
+pub const FALLBACK_AVAILABLE_BYTES: u64 = 2 << 30;
+
+/// Share of the available memory a run may plan to use (the rest is for the system and other programs).
+pub const USABLE_SHARE: f64 = 0.9;
+
+/// A Monte Carlo run's memory, estimated up front.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct MemoryEstimate {
+    /// Replications.
+    pub replications: usize,
+    /// Periods per replication.
+    pub periods: usize,
+    /// Columns simulated: the baseline and each policy.
+    pub columns: usize,
+    /// Bytes per replication per column.
+    pub per_replication_per_column: u64,
+    /// Bytes of per-period values kept for fan-chart quantiles (capped).
+    pub series_bytes: u64,
+    /// Total bytes at the peak.
+    pub total: u64,
+}
+
+/// Bytes per replication per column for `periods` periods and `series` kept series.
+pub fn bytes_per_replication_per_column(periods: usize, series: usize) -> u64 {
+    let summaries = 2 * size_of::<ReplicationSummary>() as u64;
+    let quantile_scratch = size_of::<f64>() as u64;
+    let per_chunk = 8 * periods as u64 * (1 + series as u64);
+    summaries + quantile_scratch + per_chunk.div_ceil(CHUNK as u64)
+}
+
+/// The estimate for `replications` × `periods` with `columns` columns and `series` kept series.
+pub fn estimate(
+    replications: usize,
+    periods: usize,
+    columns: usize,
+    series: usize,
+) -> MemoryEstimate {
+    let per = bytes_per_replication_per_column(periods, series);
+    let reps = replications as u64;
+    let cols = columns as u64;
+    // the kept series: whole chunks of replications up to the budget, at least one chunk
+    let per_rep_series = (periods as u64 * series as u64 * cols * 8).max(1);
+    let kept_reps = ((SERIES_BUDGET_BYTES as u64 / per_rep_series).max(1))
+        .div_ceil(CHUNK as u64)
+        .saturating_mul(CHUNK as u64)
+        .min(reps.div_ceil(CHUNK as u64) * CHUNK as u64);
+    let series_bytes = kept_reps.saturating_mul(per_rep_series);
+    let total = per
+        .saturating_mul(reps)
+        .saturating_mul(cols)
+        .saturating_add(series_bytes)
+        .saturating_add(BASE_BYTES);
+    MemoryEstimate {
+        replications,
+        periods,
+        columns,
+        per_replication_per_column: per,
+        series_bytes,
+        total,
+    }
+}
+
+/// Where the available-memory figure came from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum AvailableSource {
+    /// `MemAvailable` in `/proc/meminfo`.
+    Meminfo,
+    /// [`FALLBACK_AVAILABLE_BYTES`].
+    Fallback,
+}
+
+/// The memory available to a new run: `MemAvailable` from `/proc/meminfo`, or the fallback.
+pub fn available() -> (u64, AvailableSource) {
+    std::fs::read_to_string("/proc/meminfo")
+        .ok()
+        .and_then(|t| parse_mem_available(&t))
+        .map_or((FALLBACK_AVAILABLE_BYTES, AvailableSource::Fallback), |b| {
+            (b, AvailableSource::Meminfo)
+        })
+}
+
+/// `MemAvailable` (in bytes) from the text of `/proc/meminfo` (`MemAvailable:  123456 kB`).
+pub fn parse_mem_available(meminfo: &str) -> Option<u64> {
+    meminfo.lines().find_map(|l| {
+        let rest = l.strip_prefix("MemAvailable:")?;
+        let mut parts = rest.split_whitespace();
+        let n: u64 = parts.next()?.parse().ok()?;
+        match parts.next() {
+            Some("kB") | None => n.checked_mul(1024),
+            _ => None,
+        }
+    })
+}
+
+/// A run that would need more memory than the machine has.
+#[derive(Debug, Clone, Copy, PartialEq, thiserror::Error)]
+#[error(
+    "{} replications × {} periods × {} columns (the baseline and each policy) would need about {} \
+     ({} bytes per replication per column, {} for fan-chart quantiles), but {} is available{}; \
+     use at most about {} replications (--replications)",
+    estimate.replications,
+    estimate.periods,
+    estimate.columns,
+    human(estimate.total),
+    estimate.per_replication_per_column,
+    human(estimate.series_bytes),
+    human(*available),
+    if *from_meminfo { " (MemAvailable in /proc/meminfo)" } else { " (assumed: /proc/meminfo unreadable)" },
+    max_replications
+)]
+pub struct TooMuchMemory {
+    /// The estimate.
+    pub estimate: MemoryEstimate,
+    /// Bytes available.
+    pub available: u64,
+    /// Whether `available` was read from `/proc/meminfo`.
+    pub from_meminfo: bool,
+    /// The largest replication count that fits.
+    pub max_replications: usize,
+}
+
+/// Bytes in a short human form (`4.2 GB`, decimal units).
+pub fn human(bytes: u64) -> String {
+    let b = bytes as f64;
+    if b >= 1e9 {
+        format!("{:.1} GB", b / 1e9)
+    } else if b >= 1e6 {
+        format!("{:.0} MB", b / 1e6)
+    } else {
+        format!("{:.0} kB", b / 1e3)
+    }
+}
+
+/// Checks a run against `available` bytes (of which [`USABLE_SHARE`] may be planned for).
+pub fn check_against(
+    replications: usize,
+    periods: usize,
+    columns: usize,
+    series: usize,
+    available: u64,
+    from_meminfo: bool,
+) -> Result<MemoryEstimate, TooMuchMemory> {
+    let e = estimate(replications, periods, columns, series);
+    let usable = (available as f64 * USABLE_SHARE) as u64;
+    if e.total <= usable {
+        return Ok(e);
+    }
+    let fixed = e.series_bytes + BASE_BYTES;
+    let per = e.per_replication_per_column * columns.max(1) as u64;
+    let max_replications = (usable.saturating_sub(fixed) / per.max(1)) as usize;
+    Err(TooMuchMemory {
+        estimate: e,
+        available,
+        from_meminfo,
+        max_replications,
+    })
+}
+
+/// Checks a run against this machine's available memory ([`available`]).
+pub fn check(
+    replications: usize,
+    periods: usize,
+    columns: usize,
+    series: usize,
+) -> Result<MemoryEstimate, TooMuchMemory> {
+    let (bytes, source) = available();
+    check_against(
+        replications,
+        periods,
+        columns,
+        series,
+        bytes,
+        source == AvailableSource::Meminfo,
+    )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn reads_mem_available() {
+        let text =
+            "MemTotal:       16303428 kB\nMemFree:         1234 kB\nMemAvailable:    8000000 kB\n";
+        assert_eq!(parse_mem_available(text), Some(8_000_000 * 1024));
+        assert_eq!(parse_mem_available("MemTotal: 5 kB\n"), None);
+    }
+
+    #[test]
+    fn estimate_grows_linearly_in_replications_and_columns() {
+        // beyond the series cap, doubling replications or columns doubles the per-replication part
+        let a = estimate(1_000_000, 40, 2, 2);
+        let b = estimate(2_000_000, 40, 2, 2);
+        let c = estimate(1_000_000, 40, 4, 2);
+        assert_eq!(a.series_bytes, b.series_bytes);
+        let var = |e: &MemoryEstimate| e.total - e.series_bytes - BASE_BYTES;
+        assert_eq!(var(&b), 2 * var(&a));
+        assert_eq!(var(&c), 2 * var(&a));
+        assert!(a.series_bytes <= SERIES_BUDGET_BYTES as u64 + 40 * 2 * 2 * 8 * CHUNK as u64);
+    }
+
+    #[test]
+    fn refuses_with_the_estimate_and_a_count_that_fits() {
+        let err = check_against(10_000_000, 40, 2, 2, 1 << 30, true).unwrap_err();
+        let msg = err.to_string();
+        assert!(
+            msg.contains("10000000 replications") && msg.contains("MemAvailable"),
+            "{msg}"
+        );
+        assert!(err.max_replications > 0 && err.max_replications < 10_000_000);
+        // the suggested count fits
+        assert!(check_against(err.max_replications, 40, 2, 2, 1 << 30, true).is_ok());
+        assert!(check_against(2000, 40, 2, 2, 1 << 30, true).is_ok());
+    }
+}
