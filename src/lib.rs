@@ -25,6 +25,7 @@ analysis and the applicable law and rules before acting on them.";
 pub mod compare;
 pub mod curves;
 pub mod engine;
+pub mod error;
 pub mod expectations;
 pub mod fit;
 pub mod numeric;

@@ -243,6 +243,16 @@ pub fn write_streamed(
     produce: impl FnOnce(&mut dyn Write) -> std::io::Result<()>,
 ) -> std::io::Result<()> {
     match resolve(path)? {
+        Target::Stdout if capturing() => {
+            let mut buf = Vec::new();
+            produce(&mut buf)?;
+            CAPTURE.with(|c| {
+                if let Some(v) = c.borrow_mut().as_mut() {
+                    v.extend_from_slice(&buf);
+                }
+            });
+            Ok(())
+        }
         Target::Stdout => {
             let mut out = std::io::BufWriter::new(std::io::stdout().lock());
             match produce(&mut out).and_then(|_| out.flush()) {
@@ -270,6 +280,26 @@ pub fn write_streamed(
             }
         }
     }
+}
+
+thread_local! {
+    /// Where standard output goes while [`capture_stdout`] runs on this thread.
+    static CAPTURE: std::cell::RefCell<Option<Vec<u8>>> = const { std::cell::RefCell::new(None) };
+}
+
+fn capturing() -> bool {
+    CAPTURE.with(|c| c.borrow().is_some())
+}
+
+/// Runs `f` with everything this thread writes to `-` (standard output) through this module
+/// collected in a buffer instead, and returns it: lets an in-process caller (a test, a program
+/// embedding the command line) see a verb's output without a file. Nests: an inner capture sees only
+/// its own output.
+pub fn capture_stdout<R>(f: impl FnOnce() -> R) -> (R, Vec<u8>) {
+    let outer = CAPTURE.with(|c| c.borrow_mut().replace(Vec::new()));
+    let r = f();
+    let mine = CAPTURE.with(|c| std::mem::replace(&mut *c.borrow_mut(), outer));
+    (r, mine.unwrap_or_default())
 }
 
 /// Writes to `path` whole or not at all through `produce`, which must create the file at the path it

@@ -37,22 +37,11 @@ fn parse_format(s: &str) -> Result<Format, String> {
     s.parse()
 }
 
-/// Exit code of a failed verb: 1 when a run failed (a diverging path), 2 for bad input or usage.
+/// Exit code of a failed verb: 1 when a run failed (a diverging path), 2 for bad input or usage
+/// (`furrow::error::exit_code` on the error chain).
 pub fn exit_code(err: &anyhow::Error) -> u8 {
-    if err.chain().any(|e| {
-        e.downcast_ref::<furrow::engine::Diverged>().is_some()
-            || e.downcast_ref::<RunFailed>().is_some()
-    }) {
-        1
-    } else {
-        2
-    }
+    furrow::error::exit_code(err.as_ref())
 }
-
-/// A run that failed for a reason other than bad input (exit code 1).
-#[derive(Debug, thiserror::Error)]
-#[error("{0}")]
-pub struct RunFailed(pub String);
 
 impl CommonArgs {
     /// Loads and validates a market file, applying the command-line overrides.
