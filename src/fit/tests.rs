@@ -15,6 +15,7 @@ fn demo_opts(form: FitForm, method: FitMethod) -> FitOptions {
         supply_shifters: vec!["rainfall".into(), "fertiliser_price".into()],
         form,
         method,
+        at_season: AtSeason::Mean,
         ..FitOptions::default()
     }
 }
