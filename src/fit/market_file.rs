@@ -240,7 +240,11 @@ impl FitReport {
                     b.tolerance
                 ));
             }
-            o.push_str("# demand was estimated on domestic use, supply on production\n");
+            o.push_str(if self.yield_trend.is_some() {
+                "# demand was estimated on domestic use, supply on the area (times the trend yield)\n"
+            } else {
+                "# demand was estimated on domestic use, supply on production\n"
+            });
             if let Some(t) = &b.trade {
                 o.push_str(&format!(
                     "# LEFT OUT: trade (imports {} a season on average in {} seasons, exports {} in {} seasons): this market is closed, harvest = use; the [trade] section waits for the open-economy model\n",

@@ -908,7 +908,7 @@ fn check_balance(
         largest = largest.max(gap.abs());
         if checked && gap.abs() > b.tolerance * u[i].abs().max(p[i].abs()) {
             bad.push(format!(
-                "line {} (season {}): {} + {} − {} − {} = {} but use is {} (gap {})",
+                "line {} (season {}): production {} + imports {} − exports {} − stock change {} = {} but use is {} (gap {})",
                 h.lines[i],
                 h.seasons[i],
                 render::fmt_sig(p[i]),
