@@ -4,9 +4,9 @@
 
 use std::process::Command;
 
+use furrow::fit::market_file::MarketNames;
 use furrow::fit::ols::ols;
 use furrow::fit::synth::{generate, to_csv, HistoryParams};
-use furrow::fit::market_file::MarketNames;
 use furrow::fit::{
     check_history, fit_text, AtSeason, Balance, FitForm, FitMethod, FitOptions, FitReport,
     SupplyModel,
@@ -337,7 +337,10 @@ fn assert_recovered(rep: &FitReport, p: &HistoryParams, k: f64) {
     }
     let y = rep.yield_trend.as_ref().unwrap();
     let z = (y.slope - p.yield_trend) / y.slope_std_error;
-    eprintln!("yield trend: true {}, estimate {:.5}, z = {z:.2}", p.yield_trend, y.slope);
+    eprintln!(
+        "yield trend: true {}, estimate {:.5}, z = {z:.2}",
+        p.yield_trend, y.slope
+    );
     assert!(z.abs() < k, "yield trend z = {z}");
     // the residual sds estimate the disturbance sds (loose: within 25%)
     assert!(rel(rep.demand.residual_sd, p.demand_sd) < 0.25);
@@ -497,7 +500,10 @@ fn balance_sheet_recovers_parameters_and_names_a_broken_row() {
     for (e, term, truth) in want {
         let t = e.terms.iter().find(|t| t.name == term).unwrap();
         let z = (t.estimate - truth) / t.std_error;
-        eprintln!("{} {term}: true {truth}, estimate {:.5}, z = {z:.2}", e.dependent, t.estimate);
+        eprintln!(
+            "{} {term}: true {truth}, estimate {:.5}, z = {z:.2}",
+            e.dependent, t.estimate
+        );
         assert!(z.abs() < 2.0, "{} {term}: z = {z}", e.dependent);
     }
     assert_eq!(rep.demand.dependent, "use");
@@ -575,10 +581,17 @@ fn partial_adjustment_market_follows_the_nerlove_recursion() {
     let rep = fit_text("pa.csv", &csv, &pa_options()).unwrap();
     let pa = rep.partial_adjustment.clone().unwrap();
     let s = &rep.supply;
-    for (term, truth) in [("lagged_price", 0.3), ("lagged_quantity", 0.5), ("rainfall", 0.03)] {
+    for (term, truth) in [
+        ("lagged_price", 0.3),
+        ("lagged_quantity", 0.5),
+        ("rainfall", 0.03),
+    ] {
         let t = s.terms.iter().find(|t| t.name == term).unwrap();
         let z = (t.estimate - truth) / t.std_error;
-        eprintln!("{term}: true {truth}, estimate {:.5}, z = {z:.2}", t.estimate);
+        eprintln!(
+            "{term}: true {truth}, estimate {:.5}, z = {z:.2}",
+            t.estimate
+        );
         assert!(z.abs() < 2.0, "{term}: z = {z}");
     }
     let theta = s.terms[2].estimate;
@@ -630,7 +643,9 @@ fn statsmodels_reference_balance_sheet_and_partial_adjustment() {
         if std::env::var_os("CI").is_some() {
             panic!("CI is set but python3 cannot import statsmodels/numpy: pip install -r tests/reference/requirements.txt");
         }
-        eprintln!("SKIPPED: python3 with statsmodels and numpy not found (set CI to make this fatal)");
+        eprintln!(
+            "SKIPPED: python3 with statsmodels and numpy not found (set CI to make this fatal)"
+        );
         return;
     }
     let root = env!("CARGO_MANIFEST_DIR");
@@ -689,8 +704,18 @@ fn statsmodels_reference_balance_sheet_and_partial_adjustment() {
         };
         let name = case["name"].as_str().unwrap();
         let rep = fit_text("veldmark_history.csv", &text, &opts).unwrap();
-        compare_equation(&mut d, &format!("{name} demand"), &rep.demand, &case["demand"]);
-        compare_equation(&mut d, &format!("{name} supply"), &rep.supply, &case["supply"]);
+        compare_equation(
+            &mut d,
+            &format!("{name} demand"),
+            &rep.demand,
+            &case["demand"],
+        );
+        compare_equation(
+            &mut d,
+            &format!("{name} supply"),
+            &rep.supply,
+            &case["supply"],
+        );
         if let Some(lr) = case["supply"].get("long_run_elasticity") {
             pa_cases += 1;
             let pa = rep.partial_adjustment.as_ref().unwrap();
@@ -758,12 +783,22 @@ fn at_season_moves_the_steady_state_by_trend_times_distance() {
         let (p, q) = steady(&rep);
         let dp = phi * (trend - t_bar) / (bs - bd);
         eprintln!("season {season}: P* {p:.4} (mean-held {p0:.4}), derived shift {dp:.4}");
-        assert!((p - p0 - dp).abs() < 1e-8, "season {season}: {p} − {p0} vs {dp}");
+        assert!(
+            (p - p0 - dp).abs() < 1e-8,
+            "season {season}: {p} − {p0} vs {dp}"
+        );
         assert!((q - q0 - bs * dp).abs() < 1e-8, "season {season}");
     }
     // the default is the last season
-    let last = fit_text("h.csv", text, &FitOptions { at_season: AtSeason::Last, ..base.clone() })
-        .unwrap();
+    let last = fit_text(
+        "h.csv",
+        text,
+        &FitOptions {
+            at_season: AtSeason::Last,
+            ..base.clone()
+        },
+    )
+    .unwrap();
     assert_eq!(last.projection_season, Some(2024));
     // a shifter that is not a straight line has no value beyond the data
     let e = fit_text(
@@ -777,7 +812,10 @@ fn at_season_moves_the_steady_state_by_trend_times_distance() {
     )
     .unwrap_err()
     .to_string();
-    assert!(e.contains("`fertiliser_price` has no value in season 2030"), "{e}");
+    assert!(
+        e.contains("`fertiliser_price` has no value in season 2030"),
+        "{e}"
+    );
 }
 
 /// The shipped fitted demo market (examples/veldmark_fitted.toml, rainfall kept as risk), simulated

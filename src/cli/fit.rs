@@ -65,21 +65,9 @@ fn parse_at_season(s: &str) -> Result<AtSeason, String> {
     }
 }
 
-/// `fit DATA.csv [--out MARKET.toml]`: estimate demand and supply from a season history.
+/// Balance-sheet, area and yield options of `fit` (boxed: they make the arguments large).
 #[derive(Debug, Clone, clap::Args)]
-pub struct FitArgs {
-    /// CSV history, one row per season, oldest first.
-    #[arg(value_name = "DATA")]
-    pub data: PathBuf,
-    /// Season column (consecutive integers, e.g. years).
-    #[arg(long, default_value = "season", value_name = "COL")]
-    pub season: String,
-    /// Price column.
-    #[arg(long, default_value = "price", value_name = "COL")]
-    pub price: String,
-    /// Quantity column (default `quantity`; not used when --production and --use are given).
-    #[arg(long, value_name = "COL")]
-    pub quantity: Option<String>,
+pub struct SheetArgs {
     /// Balance sheet: production column (supply's quantity).
     #[arg(long, value_name = "COL")]
     pub production: Option<String>,
@@ -107,6 +95,26 @@ pub struct FitArgs {
     /// Tolerance of the balance-sheet identity, as a share of domestic use (0..0.5).
     #[arg(long, default_value_t = BALANCE_TOLERANCE, value_name = "SHARE")]
     pub balance_tolerance: f64,
+}
+
+/// `fit DATA.csv [--out MARKET.toml]`: estimate demand and supply from a season history.
+#[derive(Debug, Clone, clap::Args)]
+pub struct FitArgs {
+    /// CSV history, one row per season, oldest first.
+    #[arg(value_name = "DATA")]
+    pub data: PathBuf,
+    /// Season column (consecutive integers, e.g. years).
+    #[arg(long, default_value = "season", value_name = "COL")]
+    pub season: String,
+    /// Price column.
+    #[arg(long, default_value = "price", value_name = "COL")]
+    pub price: String,
+    /// Quantity column (default `quantity`; not used when --production and --use are given).
+    #[arg(long, value_name = "COL")]
+    pub quantity: Option<String>,
+    /// Balance-sheet, area and yield columns.
+    #[command(flatten)]
+    pub sheet: Box<SheetArgs>,
     /// Shifter entering both equations (repeatable).
     #[arg(long = "shifter", value_name = "COL")]
     pub shifters: Vec<String>,
@@ -176,18 +184,18 @@ impl FitArgs {
             },
             at_season: self.at_season,
             balance: Balance {
-                production: self.production.clone(),
-                domestic_use: self.domestic_use.clone(),
-                imports: self.imports.clone(),
-                exports: self.exports.clone(),
-                stock_change: self.stock_change.clone(),
-                area: self.area.clone(),
-                yield_col: self.yield_col.clone(),
-                yield_trend: match self.yield_trend {
+                production: self.sheet.production.clone(),
+                domestic_use: self.sheet.domestic_use.clone(),
+                imports: self.sheet.imports.clone(),
+                exports: self.sheet.exports.clone(),
+                stock_change: self.sheet.stock_change.clone(),
+                area: self.sheet.area.clone(),
+                yield_col: self.sheet.yield_col.clone(),
+                yield_trend: match self.sheet.yield_trend {
                     TrendArg::Linear => YieldTrendForm::Linear,
                     TrendArg::Log => YieldTrendForm::Log,
                 },
-                tolerance: self.balance_tolerance,
+                tolerance: self.sheet.balance_tolerance,
             },
             form: match self.form {
                 FormArg::Linear => FitForm::Linear,

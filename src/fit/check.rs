@@ -75,11 +75,10 @@ pub fn check_history(
             "the check against history needs at least 3 seasons and 2 replications (has {periods} seasons, {replications} replications)"
         )));
     }
-    let scenario = market_from_str("the fitted market", market_text).map_err(|e| {
-        FitError::Market {
+    let scenario =
+        market_from_str("the fitted market", market_text).map_err(|e| FitError::Market {
             message: format!("the written market does not load: {e}"),
-        }
-    })?;
+        })?;
     let model = Model::new(&scenario, &PolicySpec::none());
     let sims: Vec<Option<HistoryStats>> = (0..replications)
         .into_par_iter()
@@ -105,7 +104,8 @@ pub fn check_history(
         });
     }
     let hist = history_stats(&report.history_price, &report.history_quantity);
-    let pick: [(&str, fn(&HistoryStats) -> f64); 4] = [
+    type Pick = fn(&HistoryStats) -> f64;
+    let pick: [(&str, Pick); 4] = [
         ("price_cv", |s| s.price_cv),
         ("quantity_cv", |s| s.quantity_cv),
         ("price_autocorrelation", |s| s.price_autocorrelation),

@@ -189,7 +189,10 @@ impl FitReport {
             printable(&self.data.file)
         ));
         o.push_str(&format!("# data sha256: {}\n", self.data.sha256));
-        o.push_str(&format!("# Caution: {}\n", crate::CAUTION.replace('\n', " ")));
+        o.push_str(&format!(
+            "# Caution: {}\n",
+            crate::CAUTION.replace('\n', " ")
+        ));
         o.push_str(&format!(
             "# form: {}; standard errors: classical and HC1 robust (White 1980, MacKinnon and White 1985)\n",
             match self.form {
@@ -294,7 +297,10 @@ impl FitReport {
                     toml_f64(finite("a slope", d.slope())?)
                 ));
                 let scale = area_factor / (1.0 - theta);
-                let mut note = format!("estimated intercept {} {held}", fmt_full(s.terms[0].estimate));
+                let mut note = format!(
+                    "estimated intercept {} {held}",
+                    fmt_full(s.terms[0].estimate)
+                );
                 if theta > 0.0 {
                     note.push_str(", divided by (1 − θ)");
                 }

@@ -191,8 +191,10 @@ pub fn data_sha256(bytes: &[u8]) -> String {
 /// Every column with the option that names it, in request order (price first).
 fn roles(opts: &FitOptions) -> Vec<(String, &'static str)> {
     let b = &opts.balance;
-    let mut all: Vec<(String, &'static str)> =
-        vec![(opts.season.clone(), "--season"), (opts.price.clone(), "--price")];
+    let mut all: Vec<(String, &'static str)> = vec![
+        (opts.season.clone(), "--season"),
+        (opts.price.clone(), "--price"),
+    ];
     if b.domestic_use.is_none() || (b.area.is_none() && b.production.is_none()) {
         all.push((opts.quantity.clone(), "--quantity"));
     }
@@ -452,7 +454,10 @@ impl Holder<'_> {
                 "its sample mean (stochastic: its variance is in the shocks)".to_string(),
             ),
             (false, None) => (sample_mean, "its sample mean".to_string()),
-            (false, Some(s)) => (self.value_in(name, col, s)?, format!("its value in season {s}")),
+            (false, Some(s)) => (
+                self.value_in(name, col, s)?,
+                format!("its value in season {s}"),
+            ),
         };
         Ok(ShifterUse {
             name: name.to_string(),
@@ -819,7 +824,11 @@ pub fn fit_text(
     );
     for (label, e) in [("demand", &demand), ("supply", &supply)] {
         // a zero standard error beside non-zero residuals is lost precision, never a result
-        if e.terms.iter().any(|t| !(t.std_error > 0.0)) && e.residual_sd > 0.0 {
+        if e.terms
+            .iter()
+            .any(|t| t.std_error.is_nan() || t.std_error <= 0.0)
+            && e.residual_sd > 0.0
+        {
             return Err(FitError::NonFinite {
                 file: file_label.into(),
                 equation: label.into(),
@@ -978,7 +987,9 @@ fn fit_yield_trend(
         rows: 0..n,
     };
     let f = ols::ols(&x, &yv).map_err(|e| map_ls_error(e, file, &d, &[], ""))?;
-    let s_at = at.map(|s| s as f64).unwrap_or_else(|| mean(d.x.column(1).as_slice()));
+    let s_at = at
+        .map(|s| s as f64)
+        .unwrap_or_else(|| mean(d.x.column(1).as_slice()));
     let fitted = f.beta[0] + f.beta[1] * s_at;
     let sd = f.residual_sd();
     let (at_projection, yield_cv) = if log {
