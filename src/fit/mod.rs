@@ -621,6 +621,16 @@ pub fn fit_text(
     let demand_q = cols.get(demand_q_name);
     let supply_q = cols.get(supply_q_name);
     let mut notes = Vec::new();
+    for s in opts
+        .stochastic_shifters
+        .iter()
+        .filter(|s| opts.shifters.contains(s))
+    {
+        notes.push(format!(
+            "stochastic shifter `{}` enters both equations: its variance is added to supply_sd and demand_sd, whose draws are independent (the correlation it creates is left out)",
+            printable(s)
+        ));
+    }
     if h.delimiter != b',' {
         notes.push(format!(
             "read {} as {}-separated (detected from the header row)",
