@@ -83,6 +83,9 @@ pub struct SheetArgs {
     /// Balance sheet: stock change column (closing − opening stocks).
     #[arg(long, value_name = "COL")]
     pub stock_change: Option<String>,
+    /// World (border) price column: the import and export parity gaps for a future `[trade]` section.
+    #[arg(long, value_name = "COL")]
+    pub world_price: Option<String>,
     /// Area column: supply is estimated on the area and multiplied by the trend yield.
     #[arg(long, value_name = "COL")]
     pub area: Option<String>,
@@ -189,6 +192,7 @@ impl FitArgs {
                 imports: self.sheet.imports.clone(),
                 exports: self.sheet.exports.clone(),
                 stock_change: self.sheet.stock_change.clone(),
+                world_price: self.sheet.world_price.clone(),
                 area: self.sheet.area.clone(),
                 yield_col: self.sheet.yield_col.clone(),
                 yield_trend: match self.sheet.yield_trend {

@@ -256,6 +256,21 @@ impl FitReport {
                     fmt_sig(t.exports_mean),
                     t.export_seasons
                 ));
+                if let Some(tp) = &t.parity {
+                    let opt = |x: Option<f64>| {
+                        x.map(fmt_sig)
+                            .unwrap_or_else(|| "none (no such season)".into())
+                    };
+                    o.push_str(&format!(
+                        "#   from `{}`, a [trade] section would hold: world_price = {} (sample mean), world_price_cv = {}, world_price_persistence = {} (lag-1 autocorrelation), import_cost = {} (median P − W in import seasons), export_cost = {} (median W − P in export seasons)\n",
+                        printable(&tp.column),
+                        fmt_sig(tp.world_price),
+                        fmt_sig(tp.world_price_cv),
+                        fmt_sig(tp.world_price_persistence),
+                        opt(tp.import_cost),
+                        opt(tp.export_cost)
+                    ));
+                }
             }
             if b.stock_change_mean != 0.0 {
                 o.push_str(&format!(

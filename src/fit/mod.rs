@@ -37,7 +37,7 @@ pub use check::{check_history, history_stats, HistoryStats};
 pub use error::FitError;
 pub use report::{
     BalanceInfo, CheckRow, DataInfo, EquationFit, FitReport, HistoryCheck, PartialAdjustment,
-    ShifterUse, Term, TradeSummary, YieldTrend,
+    ShifterUse, Term, TradeParity, TradeSummary, YieldTrend,
 };
 
 use nalgebra::{DMatrix, DVector};
@@ -116,6 +116,8 @@ pub struct Balance {
     pub exports: Option<String>,
     /// Change in stocks (closing − opening).
     pub stock_change: Option<String>,
+    /// World (border) price, for the import and export parity gaps.
+    pub world_price: Option<String>,
     /// Area planted or harvested: supply's response (with `yield_col`).
     pub area: Option<String>,
     /// Yield per unit area.
@@ -204,6 +206,7 @@ fn roles(opts: &FitOptions) -> Vec<(String, &'static str)> {
         (&b.imports, "--imports"),
         (&b.exports, "--exports"),
         (&b.stock_change, "--stock-change"),
+        (&b.world_price, "--world-price"),
         (&b.area, "--area"),
         (&b.yield_col, "--yield"),
     ] {
@@ -250,6 +253,11 @@ fn check_options(opts: &FitOptions) -> Result<(), FitError> {
     {
         return Err(FitError::Options(
             "--imports, --exports and --stock-change are checked in the balance sheet production + imports − exports − stock change = use: give --production and --use too".into(),
+        ));
+    }
+    if b.world_price.is_some() && b.imports.is_none() && b.exports.is_none() {
+        return Err(FitError::Options(
+            "--world-price gives the import and export parity gaps: give --imports and/or --exports too".into(),
         ));
     }
     if !(b.tolerance.is_finite() && b.tolerance >= 0.0 && b.tolerance <= 0.5) {
@@ -669,7 +677,7 @@ pub fn fit_text(
 
     // the balance-sheet identity, row by row
     let balance = match (&b.production, &b.domestic_use) {
-        (Some(pn), Some(un)) => Some(check_balance(file_label, &h, &cols, b, pn, un)?),
+        (Some(pn), Some(un)) => Some(check_balance(file_label, &h, &cols, b, pn, un, price)?),
         _ => None,
     };
     if let Some(bi) = &balance {
@@ -913,6 +921,7 @@ fn check_balance(
     b: &Balance,
     production: &str,
     domestic_use: &str,
+    price: &[f64],
 ) -> Result<BalanceInfo, FitError> {
     let n = h.seasons.len();
     let zeros = vec![0.0; n];
@@ -958,6 +967,31 @@ fn check_balance(
         exports_mean: mean(ex),
         import_seasons: im.iter().filter(|v| **v > 0.0).count(),
         export_seasons: ex.iter().filter(|v| **v > 0.0).count(),
+        parity: b.world_price.as_deref().map(|wn| {
+            let w = cols.get(wn);
+            let median = |mut v: Vec<f64>| -> Option<f64> {
+                (!v.is_empty()).then(|| crate::stochastic::quantiles(&mut v, &[0.5])[0])
+            };
+            let stats = check::history_stats(w, w);
+            TradeParity {
+                column: wn.to_string(),
+                world_price: mean(w),
+                world_price_cv: stats.price_cv,
+                world_price_persistence: stats.price_autocorrelation,
+                import_cost: median(
+                    (0..n)
+                        .filter(|&i| im[i] > 0.0)
+                        .map(|i| price[i] - w[i])
+                        .collect(),
+                ),
+                export_cost: median(
+                    (0..n)
+                        .filter(|&i| ex[i] > 0.0)
+                        .map(|i| w[i] - price[i])
+                        .collect(),
+                ),
+            }
+        }),
     });
     Ok(BalanceInfo {
         identity_checked: checked,

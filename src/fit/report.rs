@@ -180,6 +180,26 @@ pub struct TradeSummary {
     pub import_seasons: usize,
     /// Seasons with exports > 0.
     pub export_seasons: usize,
+    /// Parity gaps against a world price column (`--world-price`), ready for a `[trade]` section.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub parity: Option<TradeParity>,
+}
+
+/// What a `[trade]` section would hold, from the data (the open-economy model is not built yet).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct TradeParity {
+    /// The world price column.
+    pub column: String,
+    /// Its sample mean.
+    pub world_price: f64,
+    /// Its coefficient of variation (sample sd / mean).
+    pub world_price_cv: f64,
+    /// Its lag-1 autocorrelation.
+    pub world_price_persistence: f64,
+    /// Median of P_t − W_t over the seasons with imports (the import parity gap), if any.
+    pub import_cost: Option<f64>,
+    /// Median of W_t − P_t over the seasons with exports (the export parity gap), if any.
+    pub export_cost: Option<f64>,
 }
 
 /// The balance-sheet columns and the identity check.

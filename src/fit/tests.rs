@@ -453,3 +453,42 @@ fn delimiter_detection_and_printable_names() {
     assert_eq!(printable("a\u{1b}b"), "a\\u{1b}b");
     assert_eq!(printable("plain"), "plain");
 }
+
+/// `--world-price`: the parity gaps a future `[trade]` section needs, by hand on a small sheet:
+/// import seasons 2001, 2003 with P − W = 10, 14 (median 12); export season 2004 with W − P = 3.
+#[test]
+fn world_price_gives_the_parity_gaps() {
+    let csv = "season,price,production,use,imports,exports,world\n\
+               2001,100,90,95,5,0,90\n2002,95,96,96,0,0,80\n2003,104,88,94,6,0,90\n\
+               2004,92,99,97,0,2,95\n2005,97,95,95,0,0,100\n2006,99,93,93,0,0,99\n";
+    let opts = FitOptions {
+        balance: Balance {
+            production: Some("production".into()),
+            domestic_use: Some("use".into()),
+            imports: Some("imports".into()),
+            exports: Some("exports".into()),
+            world_price: Some("world".into()),
+            ..FitOptions::default().balance
+        },
+        ..FitOptions::default()
+    };
+    let rep = fit_text("w.csv", csv, &opts).unwrap();
+    let t = rep.balance.unwrap().trade.unwrap();
+    assert_eq!((t.import_seasons, t.export_seasons), (2, 1));
+    let p = t.parity.unwrap();
+    assert!((p.import_cost.unwrap() - 12.0).abs() < 1e-12);
+    assert!((p.export_cost.unwrap() - 3.0).abs() < 1e-12);
+    let w = [90.0, 80.0, 90.0, 95.0, 100.0, 99.0];
+    let m = w.iter().sum::<f64>() / 6.0;
+    assert!((p.world_price - m).abs() < 1e-12);
+    let sd = (w.iter().map(|x| (x - m) * (x - m)).sum::<f64>() / 5.0).sqrt();
+    assert!((p.world_price_cv - sd / m).abs() < 1e-12);
+    // without trade columns it is refused
+    let mut o = opts.clone();
+    o.balance.imports = None;
+    o.balance.exports = None;
+    assert!(fit_text("w.csv", csv, &o)
+        .unwrap_err()
+        .to_string()
+        .contains("--world-price"));
+}
