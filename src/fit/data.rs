@@ -5,6 +5,11 @@
 //! missing value, which is an error naming the line, the season and the column (the estimator has no
 //! way to skip a season without breaking the lag between consecutive seasons). Seasons must be
 //! consecutive integers (a year, say), because supply is estimated on the previous season's price.
+//!
+//! The delimiter is detected from the header row: a comma, unless the header holds more semicolons or
+//! tabs than commas (files saved by spreadsheets set to a decimal comma use `;`). Two columns with the
+//! same name are an error naming both. Column names are echoed with control characters escaped
+//! ([`printable`]), so a name holding a newline can never break a message or a `#` comment.
 
 use super::FitError;
 
@@ -17,6 +22,51 @@ pub struct History {
     pub lines: Vec<u64>,
     /// The requested value columns, in the order asked for.
     pub columns: Vec<Vec<f64>>,
+    /// The delimiter used.
+    pub delimiter: u8,
+}
+
+/// A column name (or any text) with control characters escaped (`\n`, `\t`, `\u{1b}`), for
+/// messages and comments.
+pub fn printable(name: &str) -> String {
+    if !name.chars().any(char::is_control) {
+        return name.to_string();
+    }
+    name.chars()
+        .map(|c| {
+            if c.is_control() {
+                c.escape_default().to_string()
+            } else {
+                c.to_string()
+            }
+        })
+        .collect()
+}
+
+/// The delimiter of the first non-comment line: `;` or tab when it holds more of them than commas.
+pub fn detect_delimiter(text: &str) -> u8 {
+    let header = text
+        .lines()
+        .find(|l| !l.trim_start().starts_with('#') && !l.trim().is_empty())
+        .unwrap_or("");
+    let count = |c: char| header.matches(c).count();
+    let (commas, semis, tabs) = (count(','), count(';'), count('\t'));
+    if semis > commas && semis >= tabs {
+        b';'
+    } else if tabs > commas && tabs > semis {
+        b'\t'
+    } else {
+        b','
+    }
+}
+
+/// The delimiter in words.
+pub fn delimiter_name(d: u8) -> &'static str {
+    match d {
+        b';' => "semicolon",
+        b'\t' => "tab",
+        _ => "comma",
+    }
 }
 
 /// One column to read: the option that named it (for messages) and the header name.
@@ -51,19 +101,23 @@ fn column_index(
         .map(|h| (strsim::jaro_winkler(h, name), h))
         .filter(|(s, _)| *s > 0.8)
         .max_by(|a, b| a.0.total_cmp(&b.0))
-        .map(|(_, h)| format!("; did you mean `{h}`?"))
+        .map(|(_, h)| format!("; did you mean `{}`?", printable(h)))
         .or_else(|| {
             headers
                 .iter()
                 .find(|h| h.eq_ignore_ascii_case(name))
-                .map(|h| format!("; did you mean `{h}`?"))
+                .map(|h| format!("; did you mean `{}`?", printable(h)))
         })
         .unwrap_or_default();
     Err(FitError::UnknownColumn {
         file: file.to_string(),
         role: req_role.to_string(),
-        column: name.to_string(),
-        available: headers.join(", "),
+        column: printable(name),
+        available: headers
+            .iter()
+            .map(|h| printable(h))
+            .collect::<Vec<_>>()
+            .join(", "),
         suggestion,
     })
 }
@@ -85,7 +139,9 @@ pub fn load(
             _ => e.to_string(),
         },
     };
+    let delimiter = detect_delimiter(text);
     let mut rdr = csv::ReaderBuilder::new()
+        .delimiter(delimiter)
         .trim(csv::Trim::All)
         .comment(Some(b'#'))
         .flexible(false)
@@ -103,6 +159,23 @@ pub fn load(
             message: "no header row (expected column names such as season,price,quantity)".into(),
         });
     }
+    for (j, h) in headers.iter().enumerate() {
+        if h.is_empty() {
+            continue;
+        }
+        if let Some(i) = headers[..j].iter().position(|g| g == h) {
+            return Err(FitError::Csv {
+                file: file.to_string(),
+                line: Some(1),
+                message: format!(
+                    "columns {} and {} are both named `{}`; rename one (furrow cannot tell which is meant)",
+                    i + 1,
+                    j + 1,
+                    printable(h)
+                ),
+            });
+        }
+    }
     let season_idx = column_index(file, &headers, season.role, season.name)?;
     let idx: Vec<usize> = values
         .iter()
@@ -113,6 +186,7 @@ pub fn load(
         seasons: Vec::new(),
         lines: Vec::new(),
         columns: vec![Vec::new(); values.len()],
+        delimiter,
     };
     for rec in rdr.records() {
         let rec = rec.map_err(csv_err)?;
@@ -124,15 +198,16 @@ pub fn load(
                 file: file.to_string(),
                 line,
                 season: "?".into(),
-                column: season.name.to_string(),
+                column: printable(season.name),
             });
         }
         let season_value: i64 = s.parse().map_err(|_| FitError::Season {
             file: file.to_string(),
             line,
             message: format!(
-                "season `{s}` in column `{}` is not an integer (seasons must be consecutive integers such as years)",
-                season.name
+                "season `{}` in column `{}` is not an integer (seasons must be consecutive integers such as years)",
+                printable(s),
+                printable(season.name)
             ),
         })?;
         if let Some(&prev) = h.seasons.last() {
@@ -153,7 +228,7 @@ pub fn load(
                     file: file.to_string(),
                     line,
                     season: season_value.to_string(),
-                    column: req.name.to_string(),
+                    column: printable(req.name),
                 });
             }
             let v: f64 = match c.parse::<f64>() {
@@ -163,8 +238,16 @@ pub fn load(
                         file: file.to_string(),
                         line,
                         season: season_value.to_string(),
-                        column: req.name.to_string(),
-                        value: c.to_string(),
+                        column: printable(req.name),
+                        value: format!(
+                            "{}{}",
+                            printable(c),
+                            if delimiter != b',' && c.contains(',') {
+                                " (a decimal comma? write decimals with a point)"
+                            } else {
+                                ""
+                            }
+                        ),
                     })
                 }
             };

@@ -87,6 +87,33 @@ pub enum FitError {
     /// Arithmetic failure (non-finite result).
     #[error("{file}: the {equation} equation could not be computed (non-finite result); check the data's scale")]
     NonFinite { file: String, equation: String },
+    /// Rows where the balance-sheet identity fails.
+    #[error("{file}: the balance sheet does not add up (production + imports − exports − stock change = use, tolerance {tolerance} of use) in {count} row(s): {rows}; correct the rows, name the right columns, or widen --balance-tolerance")]
+    Balance {
+        file: String,
+        tolerance: f64,
+        count: usize,
+        rows: String,
+    },
+    /// Options that do not go together, or a value outside its range.
+    #[error("{0}")]
+    Options(String),
+    /// A column whose values squares would underflow or overflow.
+    #[error("{file}, column `{column}`: values of order {magnitude} are outside what the estimator can square without losing them (largest magnitude must lie in 1e-100..1e100); rescale the column (another unit, e.g. thousands of tonnes) and fit again")]
+    Scale {
+        file: String,
+        column: String,
+        magnitude: String,
+    },
+    /// A shifter has no value in the projection season.
+    #[error("{file}: shifter `{column}` has no value in season {season} (the data cover {first}-{last}) and is not a straight line in the season, so it cannot be extended; choose --at-season within the data, or declare it --stochastic-shifter")]
+    NoProjection {
+        file: String,
+        column: String,
+        season: i64,
+        first: i64,
+        last: i64,
+    },
     /// The estimates cannot make a valid market file.
     #[error("cannot write a market file: {message}")]
     Market { message: String },

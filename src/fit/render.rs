@@ -73,8 +73,101 @@ impl FitReport {
                     String::new(),
                 ]);
             }
+            if label == "supply" {
+                if let Some(pa) = &self.partial_adjustment {
+                    t.push(vec![
+                        label.into(),
+                        m.clone(),
+                        "long_run_elasticity".into(),
+                        num(pa.long_run_elasticity),
+                        String::new(),
+                        String::new(),
+                        String::new(),
+                    ]);
+                }
+            }
+        }
+        if let Some(y) = &self.yield_trend {
+            let m = "ols".to_string();
+            t.push(vec![
+                "yield_trend".into(),
+                m.clone(),
+                "season".into(),
+                num(y.slope),
+                num(y.slope_std_error),
+                String::new(),
+                num(y.slope / y.slope_std_error),
+            ]);
+            for (name, v) in [
+                ("trend_yield_at_projection", y.at_projection),
+                ("yield_cv", y.yield_cv),
+            ] {
+                t.push(vec![
+                    "yield_trend".into(),
+                    m.clone(),
+                    name.into(),
+                    num(v),
+                    String::new(),
+                    String::new(),
+                    String::new(),
+                ]);
+            }
         }
         t
+    }
+
+    /// The check against history as a table: statistic, history, simulated 5 %, 50 %, 95 %, flag.
+    pub fn check_table(&self) -> Option<TextTable> {
+        let c = self.history_check.as_ref()?;
+        let mut t = TextTable::new(&[
+            "statistic",
+            "history",
+            "simulated_p05",
+            "simulated_p50",
+            "simulated_p95",
+            "inside_5_95",
+        ]);
+        for r in &c.rows {
+            t.push(vec![
+                r.statistic.clone(),
+                fmt_sig(r.history),
+                fmt_sig(r.p05),
+                fmt_sig(r.p50),
+                fmt_sig(r.p95),
+                if r.outside { "NO" } else { "yes" }.into(),
+            ]);
+        }
+        Some(t)
+    }
+
+    /// Warnings from the check against history: one per statistic outside the simulated 5–95 % range.
+    pub fn check_warnings(&self) -> Vec<String> {
+        let Some(c) = &self.history_check else {
+            return Vec::new();
+        };
+        let mut w: Vec<String> = c
+            .rows
+            .iter()
+            .filter(|r| r.outside)
+            .map(|r| {
+                format!(
+                    "the history's {} {} lies outside the range the fitted market simulates (5–95 %: {} to {}, {} histories of {} seasons): the market misses something in the data",
+                    r.statistic,
+                    fmt_sig(r.history),
+                    fmt_sig(r.p05),
+                    fmt_sig(r.p95),
+                    c.replications,
+                    c.periods
+                )
+            })
+            .collect();
+        if c.diverged > 0 {
+            w.push(format!(
+                "{} simulated histories diverged and were left out of the check",
+                c.diverged
+            ));
+        }
+        w
     }
 
     /// The report as a table with six significant digits (terminal and Markdown).
@@ -91,12 +184,27 @@ impl FitReport {
     pub fn render(&self, format: Format) -> String {
         match format {
             Format::Json => {
-                let mut s = serde_json::to_string_pretty(self).unwrap_or_default();
+                let mut v = serde_json::to_value(self).unwrap_or_default();
+                if let Some(m) = v.as_object_mut() {
+                    m.insert("caution".into(), crate::CAUTION.into());
+                }
+                let mut s = serde_json::to_string_pretty(&v).unwrap_or_default();
                 s.push('\n');
                 s
             }
             Format::Csv => self.to_table_full().render(Format::Csv),
-            other => self.to_table().render(other),
+            other => {
+                let mut s = self.to_table().render(other);
+                if let (Some(t), Some(c)) = (self.check_table(), &self.history_check) {
+                    s.push_str(&format!(
+                        "\nCheck against history: the written market simulated {} times over {} seasons (seed {})\n\n",
+                        c.replications, c.periods, c.seed
+                    ));
+                    s.push_str(&t.render(other));
+                }
+                s.push_str(&format!("\nCaution: {}\n", crate::CAUTION));
+                s
+            }
         }
     }
 }

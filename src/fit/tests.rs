@@ -15,6 +15,7 @@ fn demo_opts(form: FitForm, method: FitMethod) -> FitOptions {
         supply_shifters: vec!["rainfall".into(), "fertiliser_price".into()],
         form,
         method,
+        at_season: AtSeason::Mean,
         ..FitOptions::default()
     }
 }
@@ -319,4 +320,175 @@ fn wrong_sign_refuses_the_market_file() {
     assert!(rep.demand.slope() > 0.0);
     let e = rep.market_toml(&names()).unwrap_err().to_string();
     assert!(e.contains("demand slope is") && e.contains("< 0"), "{e}");
+}
+
+fn sheet_opts() -> FitOptions {
+    FitOptions {
+        demand_shifters: vec!["trend".into()],
+        supply_shifters: vec!["rainfall".into(), "fertiliser_price".into()],
+        stochastic_shifters: vec!["rainfall".into()],
+        method: FitMethod::TwoStage,
+        balance: Balance {
+            production: Some("production".into()),
+            domestic_use: Some("use".into()),
+            ..FitOptions::default().balance
+        },
+        ..FitOptions::default()
+    }
+}
+
+/// A stochastic shifter is held at its sample mean and its fitted contribution's variance,
+/// coefficient² × sample variance (the variance of a constant times a random variable), is added to
+/// the residual variance; a deterministic one is held at its last-season value.
+#[test]
+fn stochastic_shifter_variance_enters_supply_sd() {
+    let text = demo_csv();
+    let rep = fit_text("h.csv", &text, &sheet_opts()).unwrap();
+    let s = &rep.supply;
+    let rain = s.shifters.iter().find(|x| x.name == "rainfall").unwrap();
+    let fert = s
+        .shifters
+        .iter()
+        .find(|x| x.name == "fertiliser_price")
+        .unwrap();
+    // the rainfall column over the supply sample (seasons 2..n)
+    let col: Vec<f64> = text
+        .lines()
+        .skip(2)
+        .map(|l| l.split(',').nth(3).unwrap().parse().unwrap())
+        .collect();
+    let m = col.iter().sum::<f64>() / col.len() as f64;
+    let var = col.iter().map(|x| (x - m) * (x - m)).sum::<f64>() / (col.len() - 1) as f64;
+    assert!((rain.held_at - m).abs() < 1e-9 && rain.stochastic);
+    assert!((rain.sample_variance / var - 1.0).abs() < 1e-12);
+    let last_fert: f64 = text
+        .lines()
+        .last()
+        .unwrap()
+        .split(',')
+        .nth(4)
+        .unwrap()
+        .parse()
+        .unwrap();
+    assert_eq!(fert.held_at, last_fert);
+    assert!(!fert.stochastic);
+    let b = rain.coefficient;
+    let want = (s.residual_sd.powi(2) + b * b * var).sqrt();
+    let v: toml::Table = toml::from_str(&rep.market_toml(&names()).unwrap()).unwrap();
+    let got = v["shocks"]["supply_sd"].as_float().unwrap();
+    assert!((got / want - 1.0).abs() < 1e-11, "{got} vs {want}");
+    // demand has no stochastic shifter: its sd is the residual sd
+    let dsd = v["shocks"]["demand_sd"].as_float().unwrap();
+    assert!((dsd / rep.demand.residual_sd - 1.0).abs() < 1e-11);
+    // the supply intercept folds rainfall's mean and the fertiliser price's last value
+    let icpt = s.terms[0].estimate + b * m + fert.coefficient * last_fert;
+    assert!((v["supply"]["intercept"].as_float().unwrap() / icpt - 1.0).abs() < 1e-11);
+}
+
+/// Area × trend yield: the written supply is the area curve times the trend yield of the
+/// projection season; yield_cv is the residual sd over the trend yield (linear trend) or
+/// √(exp(s²) − 1) (log trend: the cv of a lognormal with log-sd s).
+#[test]
+fn area_times_trend_yield() {
+    let text = demo_csv();
+    for (form, log) in [(YieldTrendForm::Linear, false), (YieldTrendForm::Log, true)] {
+        let mut o = sheet_opts();
+        o.balance.area = Some("area".into());
+        o.balance.yield_col = Some("yield".into());
+        o.balance.yield_trend = form;
+        let rep = fit_text("h.csv", &text, &o).unwrap();
+        let y = rep.yield_trend.clone().unwrap();
+        // the trend at the last season (2024), from the fitted line
+        let fitted = y.intercept + y.slope * 2024.0;
+        let ybar = if log { fitted.exp() } else { fitted };
+        assert!((y.at_projection / ybar - 1.0).abs() < 1e-12);
+        let cv = if log {
+            (y.residual_sd.powi(2)).exp_m1().sqrt()
+        } else {
+            y.residual_sd / ybar
+        };
+        assert!((y.yield_cv / cv - 1.0).abs() < 1e-12);
+        let v: toml::Table = toml::from_str(&rep.market_toml(&names()).unwrap()).unwrap();
+        let slope = v["supply"]["slope"].as_float().unwrap();
+        assert!((slope / (rep.supply.slope() * ybar) - 1.0).abs() < 1e-11);
+        let icpt = v["supply"]["intercept"].as_float().unwrap();
+        assert!((icpt / (rep.supply.held_intercept() * ybar) - 1.0).abs() < 1e-11);
+        assert!((v["shocks"]["yield_cv"].as_float().unwrap() / cv - 1.0).abs() < 1e-11);
+        assert_eq!(rep.supply.dependent, "area");
+    }
+}
+
+#[test]
+fn partial_adjustment_in_log_form_or_without_a_lag_is_not_written() {
+    let text = demo_csv();
+    let mut o = sheet_opts();
+    o.supply_model = SupplyModel::PartialAdjustment;
+    o.form = FitForm::Log;
+    let rep = fit_text("h.csv", &text, &o).unwrap();
+    let e = rep.market_toml(&names()).unwrap_err().to_string();
+    assert!(e.contains("log form"), "{e}");
+    // θ outside (0, 1): refused, naming θ
+    let mut rep = fit_text(
+        "h.csv",
+        &text,
+        &FitOptions {
+            form: FitForm::Linear,
+            ..o
+        },
+    )
+    .unwrap();
+    rep.partial_adjustment.as_mut().unwrap().theta = 1.2;
+    let e = rep.market_toml(&names()).unwrap_err().to_string();
+    assert!(e.contains("0 < θ < 1"), "{e}");
+}
+
+#[test]
+fn delimiter_detection_and_printable_names() {
+    use super::data::{detect_delimiter, printable};
+    assert_eq!(detect_delimiter("# c,o,m\nseason;price;q\n1;2;3\n"), b';');
+    assert_eq!(detect_delimiter("season\tprice\tq\n"), b'\t');
+    assert_eq!(detect_delimiter("season,price,q\n"), b',');
+    assert_eq!(detect_delimiter("season\n"), b',');
+    assert_eq!(printable("rain\nfall"), "rain\\nfall");
+    assert_eq!(printable("a\u{1b}b"), "a\\u{1b}b");
+    assert_eq!(printable("plain"), "plain");
+}
+
+/// `--world-price`: the parity gaps a future `[trade]` section needs, by hand on a small sheet:
+/// import seasons 2001, 2003 with P − W = 10, 14 (median 12); export season 2004 with W − P = 3.
+#[test]
+fn world_price_gives_the_parity_gaps() {
+    let csv = "season,price,production,use,imports,exports,world\n\
+               2001,100,90,95,5,0,90\n2002,95,96,96,0,0,80\n2003,104,88,94,6,0,90\n\
+               2004,92,99,97,0,2,95\n2005,97,95,95,0,0,100\n2006,99,93,93,0,0,99\n";
+    let opts = FitOptions {
+        balance: Balance {
+            production: Some("production".into()),
+            domestic_use: Some("use".into()),
+            imports: Some("imports".into()),
+            exports: Some("exports".into()),
+            world_price: Some("world".into()),
+            ..FitOptions::default().balance
+        },
+        ..FitOptions::default()
+    };
+    let rep = fit_text("w.csv", csv, &opts).unwrap();
+    let t = rep.balance.unwrap().trade.unwrap();
+    assert_eq!((t.import_seasons, t.export_seasons), (2, 1));
+    let p = t.parity.unwrap();
+    assert!((p.import_cost.unwrap() - 12.0).abs() < 1e-12);
+    assert!((p.export_cost.unwrap() - 3.0).abs() < 1e-12);
+    let w = [90.0, 80.0, 90.0, 95.0, 100.0, 99.0];
+    let m = w.iter().sum::<f64>() / 6.0;
+    assert!((p.world_price - m).abs() < 1e-12);
+    let sd = (w.iter().map(|x| (x - m) * (x - m)).sum::<f64>() / 5.0).sqrt();
+    assert!((p.world_price_cv - sd / m).abs() < 1e-12);
+    // without trade columns it is refused
+    let mut o = opts.clone();
+    o.balance.imports = None;
+    o.balance.exports = None;
+    assert!(fit_text("w.csv", csv, &o)
+        .unwrap_err()
+        .to_string()
+        .contains("--world-price"));
 }

@@ -1,7 +1,7 @@
 #!/usr/bin/env python3
 """Reference estimates for `furrow fit`, computed with statsmodels and numpy.
 
-Usage: python3 tests/reference/fit_reference.py DATA.csv  > reference.json
+Usage: python3 tests/reference/fit_reference.py DATA.csv [--extended] > reference.json
 Needs: pip install -r tests/reference/requirements.txt  (numpy 2.4.6, statsmodels 0.15.0)
 
 For each case below (the same cases as tests/fit_reference.rs) it fits
@@ -16,6 +16,13 @@ classical standard errors, and an explicit two-step numpy computation
 (lstsq first stage, lstsq second stage, structural residuals y - X b) for the
 same coefficients, R^2, Durbin-Watson and the HC1 sandwich
 (Xh'Xh)^-1 Xh' diag(e^2) Xh (Xh'Xh)^-1 * n/(n-k).
+
+With --extended it fits EXTENDED_CASES instead: balance-sheet columns (demand on
+`use`, supply on `production` or `area`) and the partial-adjustment supply
+  Q_t = c + d P_{t-1} + theta Q_{t-1} + supply shifters   (seasons 2..n)
+(Nerlove 1958), with the short-run elasticity d * mean(P_{t-1}) / mean(Q_t) and
+the long-run elasticity short / (1 - theta) computed here from the statsmodels
+coefficients.
 """
 import csv
 import json
@@ -40,6 +47,21 @@ CASES = [
      "demand_only": [], "supply_only": ["rainfall"]},
     {"name": "just_identified_2sls", "form": "linear", "method": "2sls", "both": [],
      "demand_only": [], "supply_only": ["rainfall"]},
+]
+
+EXTENDED_CASES = [
+    {"name": "balance_2sls", "form": "linear", "method": "2sls", "both": [],
+     "demand_only": ["trend"], "supply_only": ["rainfall", "fertiliser_price"],
+     "demand_q": "use", "supply_q": "production", "supply_model": "lagged-price"},
+    {"name": "partial_adjustment_ols", "form": "linear", "method": "ols", "both": [],
+     "demand_only": ["trend"], "supply_only": ["rainfall", "fertiliser_price"],
+     "demand_q": "use", "supply_q": "production", "supply_model": "partial-adjustment"},
+    {"name": "partial_adjustment_area", "form": "linear", "method": "2sls", "both": [],
+     "demand_only": ["trend"], "supply_only": ["fertiliser_price", "rainfall"],
+     "demand_q": "use", "supply_q": "area", "supply_model": "partial-adjustment"},
+    {"name": "partial_adjustment_log", "form": "log", "method": "ols", "both": [],
+     "demand_only": ["trend"], "supply_only": ["rainfall"],
+     "demand_q": "quantity", "supply_q": "quantity", "supply_model": "partial-adjustment"},
 ]
 
 
@@ -95,7 +117,10 @@ def tsls_summary(y, X, Z):
 
 
 def run_case(cols, case):
-    p, q = cols["price"], cols["quantity"]
+    p = cols["price"]
+    q = cols[case.get("demand_q", "quantity")]
+    qs = cols[case.get("supply_q", "quantity")]
+    pa = case.get("supply_model") == "partial-adjustment"
     tr = np.log if case["form"] == "log" else (lambda v: v)
     dsh = [cols[c] for c in case["both"] + case["demand_only"]]
     ssh = [cols[c] for c in case["both"] + case["supply_only"]]
@@ -110,11 +135,15 @@ def run_case(cols, case):
     out["demand"]["elasticity_at_means"] = (
         out["demand"]["params"][1] * p.mean() / q.mean() if case["form"] == "linear"
         else out["demand"]["params"][1])
-    Xs = design([tr(p[:-1])] + [s[1:] for s in ssh])
-    out["supply"] = ols_summary(tr(q[1:]), Xs)
-    out["supply"]["elasticity_at_means"] = (
-        out["supply"]["params"][1] * p[:-1].mean() / q[1:].mean() if case["form"] == "linear"
-        else out["supply"]["params"][1])
+    lagged = [tr(p[:-1])] + ([tr(qs[:-1])] if pa else [])
+    Xs = design(lagged + [s[1:] for s in ssh])
+    out["supply"] = ols_summary(tr(qs[1:]), Xs)
+    short = (out["supply"]["params"][1] * p[:-1].mean() / qs[1:].mean()
+             if case["form"] == "linear" else out["supply"]["params"][1])
+    out["supply"]["elasticity_at_means"] = short
+    if pa:
+        theta = out["supply"]["params"][2]
+        out["supply"]["long_run_elasticity"] = short / (1.0 - theta)
     return out
 
 
@@ -123,7 +152,8 @@ def main():
     json.dump({
         "statsmodels": statsmodels.__version__,
         "numpy": np.__version__,
-        "cases": [run_case(cols, c) for c in CASES],
+        "cases": [run_case(cols, c) for c in
+                  (EXTENDED_CASES if "--extended" in sys.argv[2:] else CASES)],
     }, sys.stdout, indent=1)
     sys.stdout.write("\n")
 
