@@ -431,9 +431,6 @@ fn corrupt(rng: &mut ChaCha8Rng, mut s: Sections, policy: bool) -> (String, Clas
                 // a required section goes missing
                 let name = if policy { "policy" } else { "demand" };
                 s.retain(|(n, _)| n != name);
-                if !policy {
-                    // keep it broken even when the removed curve had a default: no demand at all
-                }
             } else {
                 mutate_value(rng, &mut s, BROKEN_VALUES);
             }
