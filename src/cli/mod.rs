@@ -45,9 +45,11 @@ pub enum Verb {
     Fit(fit::FitArgs),
 }
 
-/// Runs one verb.
+/// Runs one verb. An error that names none of the verb's input files gets them in front (a diverging
+/// path, a failed solve), so every message says which files it is about.
 pub fn dispatch(cli: Cli) -> anyhow::Result<()> {
-    match cli.verb {
+    let (verb, inputs) = inputs_of(&cli.verb);
+    let result = match cli.verb {
         Verb::Check(a) => check::execute(&a),
         Verb::Run(a) => run::execute(&a),
         Verb::Stability(a) => stability::execute(&a),
@@ -55,10 +57,36 @@ pub fn dispatch(cli: Cli) -> anyhow::Result<()> {
         Verb::Compare(a) => compare::execute(&a),
         Verb::Report(a) => report::execute(&a),
         Verb::Storage(a) => storage::execute(&a),
-        Verb::Fit(a) => {
-            let text = fit::execute(&a)?;
+        Verb::Fit(a) => fit::execute(&a).and_then(|text| {
             furrow::output::write_whole(std::path::Path::new("-"), text.as_bytes())?;
             Ok(())
+        }),
+    };
+    result.map_err(|e| {
+        let msg = format!("{e:#}");
+        if inputs.is_empty() || inputs.iter().any(|f| msg.contains(f.as_str())) {
+            e
+        } else {
+            e.context(format!("{verb} {}", inputs.join(", ")))
         }
+    })
+}
+
+/// The verb's name and its input files.
+fn inputs_of(verb: &Verb) -> (&'static str, Vec<String>) {
+    let with = |name, market: &String, policies: Vec<&String>| {
+        let mut v = vec![market.clone()];
+        v.extend(policies.into_iter().cloned());
+        (name, v)
+    };
+    match verb {
+        Verb::Check(a) => ("check", a.files.clone()),
+        Verb::Run(a) => with("run", &a.market, a.policy.iter().collect()),
+        Verb::Stability(a) => with("stability", &a.market, a.policy.iter().collect()),
+        Verb::Sweep(a) => with("sweep", &a.market, a.policy.iter().collect()),
+        Verb::Compare(a) => with("compare", &a.market, a.policies.iter().collect()),
+        Verb::Report(a) => with("report", &a.market, a.policies.iter().collect()),
+        Verb::Storage(a) => with("storage", &a.market, a.policy.iter().collect()),
+        Verb::Fit(a) => ("fit", vec![a.data.display().to_string()]),
     }
 }
