@@ -113,7 +113,23 @@ fn invalid_points_are_kept_and_unknown_keys_fail() {
     let axes = [sweep::parse_vary("floor.price=100:150:2").unwrap()];
     let points = sweep::sweep(&base, &axes, None).unwrap();
     assert_eq!(points[0].outcome.as_ref().unwrap().1, Verdict::Stable);
-    assert_eq!(points[1].outcome.as_ref().unwrap().1, Verdict::Unstable); // 150 > P* = 140: stock grows
+    // 150 > P* = 140: no steady state with finite stock, the stock's unit root: neutral (it once
+    // read "unstable", against the documented neutral band)
+    assert_eq!(
+        points[1].outcome.as_ref().unwrap(),
+        &(1.0, Verdict::Neutral)
+    );
+    // a purchase floor at or above the choke price 200 leaves demand nothing: invalid, naming the key
+    let axes = [sweep::parse_vary("floor.price=150:250:3").unwrap()];
+    let points = sweep::sweep(&base, &axes, None).unwrap();
+    assert!(points[0].outcome.is_ok());
+    for p in &points[1..] {
+        let msg = p.outcome.as_ref().unwrap_err();
+        assert!(
+            msg.contains("floor.price") && msg.contains("below 200"),
+            "{msg}"
+        );
+    }
 }
 
 #[test]
