@@ -197,8 +197,13 @@ impl Curve {
                 at_quantity,
                 elasticity,
             } => {
-                let inv = 1.0 / elasticity;
-                at_price * at_quantity.powf(-inv) * q.powf(1.0 + inv) / (1.0 + inv)
+                // ∫_0^q p̄ (x/q̄)^{1/e} dx = q · S⁻¹(q) · e/(1 + e), computed in logs: the direct
+                // q^{1 + 1/e} overflows for small elasticities (e < 0.01) although the cost is finite
+                let ln_cost = at_price.ln()
+                    + q.ln()
+                    + (q / at_quantity).ln() / elasticity
+                    + (elasticity / (1.0 + elasticity)).ln();
+                ln_cost.exp()
             }
         }
     }
@@ -226,8 +231,9 @@ pub struct SteadyState {
     pub quantity: f64,
 }
 
-/// Solves S(P) = D(P): closed form for two linear curves, otherwise Brent's method on a bracket found by
-/// expansion (excess supply is increasing in P). `None` when no positive crossing exists.
+/// Solves S(P) = D(P): closed form for two linear curves and for two constant-elasticity curves (in
+/// logs), otherwise Brent's method on a bracket found by expansion (excess supply is increasing in
+/// P). `None` when no positive crossing exists.
 pub fn steady_state(demand: &Curve, supply: &Curve) -> Option<SteadyState> {
     let price = match (*demand, *supply) {
         (
@@ -240,6 +246,24 @@ pub fn steady_state(demand: &Curve, supply: &Curve) -> Option<SteadyState> {
                 slope: d,
             },
         ) => (a - c) / (d - b),
+        (
+            Curve::ConstantElasticity {
+                at_price: pd,
+                at_quantity: qd,
+                elasticity: ed,
+            },
+            Curve::ConstantElasticity {
+                at_price: ps,
+                at_quantity: qs,
+                elasticity: es,
+            },
+        ) => {
+            // ln qd + ed (ln P − ln pd) = ln qs + es (ln P − ln ps), solved for ln P: exact to
+            // rounding even for tiny elasticities, where a root finder's stopping rule on the
+            // excess demand (≈ (ed − es)·δ for a relative error δ in P) would leave δ ≈ 1e-9
+            let ln_p = ((qd / qs).ln() - ed * pd.ln() + es * ps.ln()) / (es - ed);
+            ln_p.exp()
+        }
         _ => {
             let guess = match *demand {
                 Curve::ConstantElasticity { at_price, .. } => at_price,
@@ -369,6 +393,25 @@ mod tests {
         let h = q / n as f64;
         let sum: f64 = (0..n).map(|i| s.price_at((i as f64 + 0.5) * h) * h).sum();
         assert_relative_eq!(s.production_cost(q), sum, max_relative = 1e-6);
+    }
+
+    #[test]
+    fn constant_elasticity_cost_is_finite_for_small_elasticities() {
+        // cost = q·S⁻¹(q)·e/(1 + e) (the integral of the power function, by hand); the textbook form
+        // at_price·at_quantity^(−1/e)·q^(1+1/e)/(1 + 1/e) overflows for e = 1e-3 at q = 480
+        for e in [1e-3, 5e-3, 0.009, 0.2, 10.0] {
+            let s = Curve::ConstantElasticity {
+                at_price: 210.0,
+                at_quantity: 480.0,
+                elasticity: e,
+            };
+            for q in [470.0, 480.0, 481.0] {
+                let cost = s.production_cost(q);
+                let want = q * s.price_at(q) * e / (1.0 + e);
+                assert!(cost.is_finite(), "e = {e}, q = {q}");
+                assert_relative_eq!(cost, want, max_relative = 1e-12);
+            }
+        }
     }
 
     #[test]

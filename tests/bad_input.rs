@@ -318,3 +318,334 @@ fn binary_exits_2_and_names_the_key_on_a_sample() {
         assert!(out.stdout.is_empty(), "no data on failure");
     }
 }
+
+// ---- regression tests for the hardening issue (items 3 to 7) -------------------------------------
+
+use common::{bin, linear_market, policy};
+use furrow::scenario::policy_for_market;
+use furrow::scenario::ranges::{range_of, RANGES};
+use furrow::scenario::raw::{Kind, MARKET_SCHEMA, POLICY_SCHEMA};
+
+fn tmp(dir: &tempfile::TempDir, name: &str, text: &str) -> String {
+    let p = dir.path().join(name);
+    std::fs::write(&p, text).unwrap();
+    p.to_string_lossy().to_string()
+}
+
+#[test]
+fn broken_policy_files_are_errors_not_no_intervention() {
+    // empty, blank, comment-only, cut-short and [policy]-less files once gave a column identical to
+    // the baseline under the file's name
+    let cases = [
+        ("empty.toml", "", "empty"),
+        ("blank.toml", "  \n\t\n", "empty"),
+        (
+            "comments.toml",
+            "# support price\n# to be decided\n",
+            "only comments",
+        ),
+        (
+            "nopolicy.toml",
+            "[floor]\nprice = 95.0\n",
+            "[floor] but no [policy]",
+        ),
+        (
+            "cut.toml",
+            "[policy]\nname = \"cut\"\n[stock]\n",
+            "[stock] section is empty",
+        ),
+        (
+            "cut2.toml",
+            "[policy]\nname = \"cut\"\n[floor]\nprice = ",
+            "TOML parse error",
+        ),
+    ];
+    let dir = tempfile::tempdir().unwrap();
+    let market = tmp(&dir, "m.toml", MARKET);
+    for (name, text, what) in cases {
+        let err = policy_from_str(name, text).unwrap_err().to_string();
+        assert!(err.starts_with(name), "{err}");
+        assert!(err.contains(what), "{name}: {err}");
+        // every verb refuses it with exit 2, naming the file
+        let path = tmp(&dir, name, text);
+        for verb in [
+            vec!["compare", &market, &path],
+            vec!["run", &market, "--policy", &path],
+            vec!["stability", &market, "--policy", &path],
+            vec!["check", &path],
+        ] {
+            let out = bin().args(&verb).output().unwrap();
+            let msg = String::from_utf8_lossy(&out.stderr);
+            assert_eq!(out.status.code(), Some(2), "{verb:?}: {msg}");
+            assert!(msg.contains(name), "{verb:?}: {msg}");
+        }
+    }
+    // a file with only [policy] stays the market left alone
+    assert!(policy_from_str("none.toml", "[policy]\nname = \"none\"\n")
+        .unwrap()
+        .is_none());
+}
+
+#[test]
+fn check_decides_the_kind_by_sections_and_validates_like_every_verb() {
+    let dir = tempfile::tempdir().unwrap();
+    // a policy file without [policy] is read as a policy (it has [floor]) and refused for the
+    // missing [policy], not as a market file with an unknown [floor]
+    let p = tmp(&dir, "floor.toml", "[floor]\nprice = 95.0\n");
+    let out = bin().args(["check", &p]).output().unwrap();
+    let msg = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(msg.contains("[policy]: missing"), "{msg}");
+    assert!(!msg.contains("unknown key"), "{msg}");
+    // check says which kind it took and why
+    let m = tmp(&dir, "m.toml", MARKET);
+    let pol = tmp(&dir, "p.toml", POLICY);
+    let out = bin()
+        .args(["check", &m, &pol, "--format", "json"])
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(v[0]["kind"], "market");
+    assert!(v[0]["read_as"].as_str().unwrap().contains("[demand]"));
+    assert_eq!(v[1]["kind"], "policy");
+    assert!(v[1]["read_as"].as_str().unwrap().contains("[policy]"));
+    // sections of both kinds in one file
+    let both = tmp(
+        &dir,
+        "both.toml",
+        &format!("{MARKET}\n[floor]\nprice = 95.0\n"),
+    );
+    let out = bin().args(["check", &both]).output().unwrap();
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("mixes market sections"));
+    // storers with persistent demand shocks: refused by check exactly as by the simulation verbs
+    let storers = MARKET
+        .replace("rule = \"adaptive\"\nweight = 0.5", "rule = \"rational\"")
+        .replace("demand_persistence = 0.2", "demand_persistence = 0.5")
+        + "\n[storers]\nstorage_cost = 1.0\n";
+    let err = market_from_str("st.toml", &storers)
+        .unwrap_err()
+        .to_string();
+    assert!(err.contains("shocks.demand_persistence"), "{err}");
+    let st = tmp(&dir, "st.toml", &storers);
+    for verb in [vec!["check", &st], vec!["run", &st], vec!["storage", &st]] {
+        let out = bin().args(&verb).output().unwrap();
+        let msg = String::from_utf8_lossy(&out.stderr);
+        assert_eq!(out.status.code(), Some(2), "{verb:?}: {msg}");
+        assert!(msg.contains("shocks.demand_persistence"), "{verb:?}: {msg}");
+    }
+}
+
+#[test]
+fn purchase_floor_beyond_the_choke_price_is_refused_naming_the_largest_floor() {
+    // Q_d = 120 − 0.8 P falls to zero at P = 150 (the choke price; by hand). At a purchase floor F
+    // consumption is D(F), so F ≥ 150 asks the agency to buy more than the harvest.
+    let m = linear_market(120.0, -0.8, -10.0, 0.5, "");
+    for f in [150.0, 151.0, 1e6] {
+        let p = policy(&format!("[floor]\nprice = {f:?}\n"));
+        let err = policy_for_market(&m, &p).unwrap_err().to_string();
+        assert!(err.starts_with("test-policy.toml: floor.price"), "{err}");
+        assert!(err.contains("below 150"), "{err}");
+    }
+    let ok = policy("[floor]\nprice = 149.0\n");
+    assert!(policy_for_market(&m, &ok).is_ok());
+    // a deficiency payment does not buy: no such limit
+    let pay = policy("[floor]\nprice = 160.0\ninstrument = \"deficiency-payment\"\n");
+    assert!(policy_for_market(&m, &pay).is_ok());
+    // the same for the band's buying edge
+    let band = policy("[stock]\nbuy_below = 155.0\nsell_above = 170.0\n");
+    let err = policy_for_market(&m, &band).unwrap_err().to_string();
+    assert!(err.contains("stock.buy_below"), "{err}");
+    // and through the binary, exit 2 before anything runs
+    let dir = tempfile::tempdir().unwrap();
+    let mk = tmp(
+        &dir,
+        "m.toml",
+        "[demand]\nintercept = 120.0\nslope = -0.8\n[supply]\nintercept = -10.0\nslope = 0.5\n",
+    );
+    let pf = tmp(
+        &dir,
+        "high.toml",
+        "[policy]\nname = \"high\"\n[floor]\nprice = 400.0\n",
+    );
+    for verb in [
+        vec!["run", &mk, "--policy", &pf],
+        vec!["compare", &mk, &pf],
+        vec!["check", &mk, &pf],
+    ] {
+        let out = bin().args(&verb).output().unwrap();
+        let msg = String::from_utf8_lossy(&out.stderr);
+        assert_eq!(out.status.code(), Some(2), "{verb:?}: {msg}");
+        assert!(
+            msg.contains("high.toml: floor.price = 400"),
+            "{verb:?}: {msg}"
+        );
+    }
+}
+
+#[test]
+fn negative_consumption_is_divergence() {
+    // a floor below the choke price, but a demand shock that leaves demand at the floor negative:
+    // D(140) = 120 − 112 = 8, shock −20 → the agency would have to buy 12 more than the harvest
+    let m = linear_market(120.0, -0.8, -10.0, 0.5, "[run]\ninitial_price = 100.0\n");
+    let p = policy("[floor]\nprice = 140.0\n");
+    let model = furrow::engine::Model::new(&m, &p);
+    let mut sim = model.simulator();
+    let shock = furrow::engine::PeriodShock {
+        yield_factor: 1.0,
+        supply: 0.0,
+        demand: -20.0,
+    };
+    let err = sim.step(&shock).unwrap_err();
+    assert_eq!(err.period, 1);
+    assert!(err.reason.contains("consumption"), "{}", err.reason);
+}
+
+#[test]
+fn check_prints_unlimited_not_inf() {
+    let out = bin()
+        .args([
+            "check",
+            &format!(
+                "{}/policies/support_purchase.toml",
+                env!("CARGO_MANIFEST_DIR")
+            ),
+            &format!("{}/policies/price_band.toml", env!("CARGO_MANIFEST_DIR")),
+        ])
+        .output()
+        .unwrap();
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(out.status.success());
+    assert!(text.contains("unlimited"), "{text}");
+    assert!(!text.contains("inf"), "{text}");
+}
+
+#[test]
+fn every_numeric_key_has_a_finite_range_and_the_readme_lists_it() {
+    // the schema's numeric keys and the range table are the same set
+    let mut numeric = Vec::new();
+    for schema in [MARKET_SCHEMA, POLICY_SCHEMA] {
+        for (section, keys) in schema {
+            for (key, kind) in *keys {
+                if matches!(kind, Kind::Number | Kind::Integer | Kind::Numbers) {
+                    let dotted = format!("{section}.{key}");
+                    assert!(range_of(&dotted).is_some(), "{dotted} has no range");
+                    numeric.push(dotted);
+                }
+            }
+        }
+    }
+    for r in RANGES {
+        assert!(
+            numeric.iter().any(|k| k == r.key),
+            "{} is not in a schema",
+            r.key
+        );
+        assert!(r.lo.is_finite() && r.hi.is_finite(), "{}", r.key);
+    }
+    // the README's table, row for row
+    let readme =
+        std::fs::read_to_string(format!("{}/README.md", env!("CARGO_MANIFEST_DIR"))).unwrap();
+    let want: Vec<String> = RANGES
+        .iter()
+        .map(|r| format!("| `{}` | {} | {} |", r.key, r.describe(), r.note))
+        .collect();
+    let got: Vec<String> = readme
+        .lines()
+        .skip_while(|l| !l.starts_with("### Input ranges"))
+        .filter(|l| l.starts_with("| `"))
+        .take_while(|l| l.starts_with("| `"))
+        .map(|l| l.trim_end().to_string())
+        .collect();
+    assert_eq!(got, want, "README table should read:\n{}", want.join("\n"));
+}
+
+#[test]
+fn values_beyond_the_ranges_are_refused_in_short_form() {
+    // costs, capacities, sell_above and budgets once took up to 1.8e308 and overflowed the tables
+    for (key, value) in [
+        ("storage_cost", "1e300"),
+        ("capacity", "1e300"),
+        ("sell_above", "1e300"),
+        ("handling_cost", "1e300"),
+        ("purchase_budget", "1e300"),
+    ] {
+        let text = replace_value(POLICY, "stock", key, value);
+        let err = policy_from_str("p.toml", &text).unwrap_err().to_string();
+        assert!(err.contains(&format!("stock.{key} = 1e+300")), "{err}");
+        assert!(err.len() < 200, "{err}");
+    }
+    // a 400-character number is echoed in at most 12 characters
+    let long = format!("1{}.0", "0".repeat(300));
+    let text = replace_value(POLICY, "floor", "price", &long);
+    let err = policy_from_str("p.toml", &text).unwrap_err().to_string();
+    assert!(err.contains("floor.price = 1e+300:"), "{err}");
+    // control characters in key names are escaped
+    let text = POLICY.replace("[floor]\n", "[floor]\n\"pri\\nce\\u0007\" = 1.0\n");
+    let err = policy_from_str("p.toml", &text).unwrap_err().to_string();
+    assert!(!err.chars().any(|c| c.is_control()), "{err:?}");
+    assert!(err.contains("pri\\nce\\u{7}"), "{err}");
+}
+
+#[test]
+fn advice_names_keys_that_are_in_the_file() {
+    // point-calibrated linear curves that do not cross: demand through (100, 50) with elasticity
+    // −0.5 (intercept 75), supply through (100, 200) with 0.1 (intercept 180; by hand)
+    let text = "[demand]\nat_price = 100.0\nat_quantity = 50.0\nelasticity = -0.5\n\
+                [supply]\nat_price = 100.0\nat_quantity = 200.0\nelasticity = 0.1\n";
+    let err = market_from_str("pt.toml", text).unwrap_err().to_string();
+    assert!(err.contains("demand.at_quantity"), "{err}");
+    assert!(!err.contains("demand.intercept"), "{err}");
+    // with intercepts given, the intercepts are named
+    let text =
+        "[demand]\nintercept = 10.0\nslope = -1.0\n[supply]\nintercept = 20.0\nslope = 1.0\n";
+    let err = market_from_str("ic.toml", text).unwrap_err().to_string();
+    assert!(err.contains("demand.intercept"), "{err}");
+}
+
+#[test]
+fn stability_failure_caused_by_the_policy_names_the_policy_file() {
+    // a deficiency floor at 400 makes farmers grow more than demand takes at any positive price
+    let dir = tempfile::tempdir().unwrap();
+    let mk = tmp(
+        &dir,
+        "mk.toml",
+        "[demand]\nintercept = 150.0\nslope = -0.5\n[supply]\nintercept = -10.0\nslope = 0.5\n",
+    );
+    let pf = tmp(
+        &dir,
+        "pay.toml",
+        "[policy]\nname = \"pay\"\n[floor]\nprice = 400.0\ninstrument = \"deficiency-payment\"\n",
+    );
+    let out = bin()
+        .args(["stability", &mk, "--policy", &pf])
+        .output()
+        .unwrap();
+    let msg = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{msg}");
+    assert!(msg.contains("pay.toml: no steady state"), "{msg}");
+    assert!(!msg.contains("stable"), "{msg}");
+}
+
+#[test]
+fn small_supply_elasticity_leaves_no_blank_welfare_cell() {
+    // constant-elasticity supply with e = 0.005: the cost integral once overflowed to inf and the
+    // producer-surplus cells came out blank
+    let text = "[demand]\nform = \"constant-elasticity\"\nat_price = 210.0\nat_quantity = 480.0\nelasticity = -0.25\n\
+                [supply]\nform = \"constant-elasticity\"\nat_price = 210.0\nat_quantity = 480.0\nelasticity = 0.005\n\
+                [run]\nperiods = 5\ninitial_price = 230.0\n";
+    let m = market_from_str("ce.toml", text).unwrap();
+    let recs = furrow::engine::Model::new(&m, &furrow::scenario::PolicySpec::none())
+        .run(5, |_| furrow::engine::PeriodShock::NONE)
+        .unwrap();
+    for r in &recs {
+        assert!(r.producer_surplus.is_finite(), "{r:?}");
+        // surplus = revenue − cost with cost = Q·P^e·e/(1 + e) ≤ revenue at P = P^e (by hand)
+        assert!(r.producer_surplus > -1e-9 * r.harvest * r.price, "{r:?}");
+    }
+}

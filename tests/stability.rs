@@ -216,15 +216,41 @@ fn constant_elasticity_naive_eigenvalue_is_elasticity_ratio() {
     // S'(P)/D'(P) = (e_s Q/P)/(e_d Q/P) = e_s/e_d = −e_s/|e_d| at the steady state (by hand)
     for (es, ed) in [(0.3, -0.5), (0.8, -0.4)] {
         let reg = free(&ce(es, ed, "rule = \"naive\""));
-        assert_eq!(reg.jacobian, "numerical");
+        assert_eq!(reg.jacobian, "analytic");
         close(
             &reg.eigenvalues,
             &[Eigenvalue {
                 re: es / ed,
                 im: 0.0,
             }],
-            1e-9,
+            1e-12,
         );
+    }
+}
+
+#[test]
+fn analytic_jacobian_matches_numerical_on_constant_elasticity_markets() {
+    // the closed-form derivative e·Q/P of each curve against central differences of the real map
+    // (two code paths must agree; common practice, no source)
+    let rules = [
+        "rule = \"naive\"",
+        "rule = \"adaptive\"\nweight = 0.35",
+        "rule = \"extrapolative\"\nweight = 0.4",
+        "rule = \"trailing-mean\"\nwindow = 3",
+    ];
+    for rule in rules {
+        let s = ce(0.4, -0.7, rule);
+        let setup = Setup::new(&s, &PolicySpec::none());
+        for clearing in [
+            Clearing::Free { offtake: 0.0 },
+            Clearing::Free { offtake: 3.0 },
+        ] {
+            let map = StateMap::new(&setup, clearing);
+            let p = map.fixed_point(s.steady.price).unwrap();
+            let a = map.analytic_jacobian(p);
+            let n = map.numerical_jacobian(&map.rest_state(p));
+            assert!((a - n).abs().max() < 1e-8, "{rule} {clearing:?}");
+        }
     }
 }
 

@@ -31,7 +31,11 @@ fn floor_above_steady_state_has_no_finite_stock() {
     let rep = analyse(&s, &p).unwrap();
     assert!(!rep.steady_state_exists);
     assert!(rep.regimes[0].eigenvalues.is_empty());
-    assert_eq!(rep.verdict, Verdict::Unstable);
+    // the stock's unit root: neutral, as the documented band says for ρ = 1 (issue: it read
+    // "spectral_radius 1, unstable" in compare and sweep)
+    assert_eq!(rep.verdict, Verdict::Neutral);
+    assert_eq!(rep.spectral_radius, 1.0);
+    assert_eq!(rep.regimes[0].half_life, None);
     // stock grows by S(150) − D(150) = 65 − 50 = 15 a period (by hand)
     assert!(rep.regimes[0].note.as_ref().unwrap().contains("15.0000"));
 }
@@ -66,8 +70,9 @@ fn floor_below_steady_state_is_a_secondary_regime() {
 #[test]
 fn deficiency_payment_binding_anchors_expectations() {
     // producer price pinned at F = 150: naive deviations die at once; the market clears at
-    // D⁻¹(S(150)) = 200 − 65 = 135 (by hand)
-    let s = linear(200.0, 1.0, -10.0, 1.5, "rule = \"naive\"");
+    // D⁻¹(S(150)) = 200 − (−10 + 1.1·150) = 45 (by hand; with b = 1.5 it would be −15, a steady
+    // state that does not exist and was once reported as stable)
+    let s = linear(200.0, 1.0, -10.0, 1.1, "rule = \"naive\"");
     let p = policy(
         "[policy]\nname = \"d\"\n[floor]\nprice = 150.0\ninstrument = \"deficiency-payment\"\n",
     );
@@ -81,11 +86,11 @@ fn deficiency_payment_binding_anchors_expectations() {
     );
     assert_relative_eq!(
         rep.steady_state.price,
-        200.0 - (-10.0 + 1.5 * 150.0),
+        200.0 - (-10.0 + 1.1 * 150.0),
         epsilon = 1e-9
     );
     assert_eq!(rep.verdict, Verdict::Stable);
-    // the free-market regime (unstable, b/d = 1.5) is listed as secondary
+    // the free-market regime (unstable, b/d = 1.1) is listed as secondary
     let fm = rep
         .regimes
         .iter()
@@ -179,7 +184,7 @@ fn pinned_price_with_three_lags_gives_exact_zeros() {
         200.0,
         1.0,
         -10.0,
-        1.5,
+        1.1,
         "rule = \"trailing-mean\"\nwindow = 3",
     );
     let p = policy(

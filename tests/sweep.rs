@@ -113,7 +113,23 @@ fn invalid_points_are_kept_and_unknown_keys_fail() {
     let axes = [sweep::parse_vary("floor.price=100:150:2").unwrap()];
     let points = sweep::sweep(&base, &axes, None).unwrap();
     assert_eq!(points[0].outcome.as_ref().unwrap().1, Verdict::Stable);
-    assert_eq!(points[1].outcome.as_ref().unwrap().1, Verdict::Unstable); // 150 > P* = 140: stock grows
+    // 150 > P* = 140: no steady state with finite stock, the stock's unit root: neutral (it once
+    // read "unstable", against the documented neutral band)
+    assert_eq!(
+        points[1].outcome.as_ref().unwrap(),
+        &(1.0, Verdict::Neutral)
+    );
+    // a purchase floor at or above the choke price 200 leaves demand nothing: invalid, naming the key
+    let axes = [sweep::parse_vary("floor.price=150:250:3").unwrap()];
+    let points = sweep::sweep(&base, &axes, None).unwrap();
+    assert!(points[0].outcome.is_ok());
+    for p in &points[1..] {
+        let msg = p.outcome.as_ref().unwrap_err();
+        assert!(
+            msg.contains("floor.price") && msg.contains("below 200"),
+            "{msg}"
+        );
+    }
 }
 
 #[test]
@@ -187,4 +203,75 @@ fn a_floor_hit_in_the_transient_does_not_hide_the_exponent() {
     let (l, orbit) = sweep::longrun::lyapunov(&s, &p, 200);
     assert_eq!(orbit, sweep::Orbit::Ok);
     assert_relative_eq!(l.unwrap(), 0.5_f64.ln(), epsilon = 1e-6);
+}
+
+#[test]
+fn unstable_market_started_at_its_steady_state_is_not_shown_as_settled() {
+    // Q_d = 200 − P, Q_s = −10 + b P with b > 1 and P_0 = P* given in the file: naive deviations
+    // grow by −b/d each season (Ezekiel 1938). The long run starts from P*·(1 + 1e-3), so the
+    // prices spread and the exponent is ln(b/d) > 0 (a linear map's exponent is ln|slope|;
+    // Benettin et al. 1980); at rest it showed a flat diagram.
+    let text = "[market]\nname = \"u\"\n[demand]\nintercept = 200.0\nslope = -1.0\n[supply]\nintercept = -10.0\n\
+                slope = 1.1\n[run]\ninitial_price = 100.0\n";
+    let base = Base::new("u.toml", parse_toml("u.toml", text).unwrap(), None);
+    // P* = 210/2.1 = 100: the file starts at rest
+    let axes = [sweep::parse_vary("supply.slope=1.1:1.3:3").unwrap()];
+    let spec = sweep::LongRunSpec {
+        keep: 20,
+        periods: 1020,
+    };
+    let points = sweep::sweep(&base, &axes, Some(spec)).unwrap();
+    for pt in &points {
+        let b = pt.values[0];
+        assert_eq!(pt.outcome.as_ref().unwrap().1, Verdict::Unstable, "b = {b}");
+        let lr = pt.long_run.as_ref().unwrap();
+        // a linear cobweb cannot cycle: the run leaves the region (price ≤ 0) and says so
+        assert_eq!(lr.orbit, sweep::Orbit::Diverged, "b = {b}");
+        let spread = lr.prices.iter().cloned().fold(f64::NEG_INFINITY, f64::max)
+            - lr.prices.iter().cloned().fold(f64::INFINITY, f64::min);
+        assert!(spread > 10.0, "b = {b}: flat diagram {:?}", lr.prices);
+        let l = lr.lyapunov.expect("an exponent before the divergence");
+        assert_relative_eq!(l, b.ln(), epsilon = 1e-6);
+        // the kept prices are the engine's path from the documented start, up to the divergence:
+        // P*·(1 + 1e-3) where the file's P_0 = 100 is the steady state (b = 1.1), else P_0
+        let mut s = base.validate(&[("supply.slope", b)]).unwrap().0;
+        let at_rest = (s.steady.price - 100.0).abs() < 1e-9;
+        assert_eq!(at_rest, b == 1.1);
+        let p0 = if at_rest {
+            s.steady.price * (1.0 + sweep::REST_PERTURBATION)
+        } else {
+            100.0
+        };
+        s.run.initial_price = p0;
+        s.run.price_history = vec![p0];
+        let model = furrow::engine::Model::new(&s, &PolicySpec::none());
+        let mut sim = model.simulator();
+        let mut path = Vec::new();
+        while let Ok(r) = sim.step(&furrow::engine::PeriodShock::NONE) {
+            path.push(r.price);
+        }
+        assert_eq!(lr.first_period + lr.prices.len() - 1, path.len());
+        assert_eq!(lr.prices[..], path[path.len() - lr.prices.len()..]);
+    }
+}
+
+#[test]
+fn stable_market_started_at_rest_still_settles() {
+    // b/d = 0.5 < 1 (Ezekiel 1938): from P*·(1 + 1e-3) the deviation dies out; exponent ln 0.5
+    let text = "[market]\nname = \"s\"\n[demand]\nintercept = 200.0\nslope = -1.0\n[supply]\nintercept = -10.0\n\
+                slope = 0.5\n";
+    let base = Base::new("s.toml", parse_toml("s.toml", text).unwrap(), None);
+    let axes = [sweep::parse_vary("supply.slope=0.5:0.5:1").unwrap()];
+    let spec = sweep::LongRunSpec {
+        keep: 4,
+        periods: 200,
+    };
+    let points = sweep::sweep(&base, &axes, Some(spec)).unwrap();
+    let lr = points[0].long_run.as_ref().unwrap();
+    assert_eq!(lr.orbit, sweep::Orbit::Ok);
+    assert_eq!(lr.first_period, 197);
+    assert_relative_eq!(lr.lyapunov.unwrap(), 0.5_f64.ln(), epsilon = 1e-6);
+    for p in &lr.prices {
+        assert_relative_eq!(*p, 140.0, max_relative = 1e-12);
+    }
 }

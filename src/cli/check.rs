@@ -2,7 +2,8 @@
 
 use clap::Args;
 use furrow::output::{fmt_num, Format, TextTable};
-use furrow::scenario::{self, is_policy_text};
+use furrow::scenario::ranges::short_num;
+use furrow::scenario::{self, FileKind};
 use serde::Serialize;
 
 use super::common::CommonArgs;
@@ -28,22 +29,44 @@ struct Checked {
     demand_elasticity: Option<f64>,
     #[serde(skip_serializing_if = "Option::is_none")]
     supply_elasticity: Option<f64>,
+    /// The sections that decided the kind.
+    read_as: String,
     summary: String,
+}
+
+/// A setting that may be unlimited (stored as +∞): the number, or the given word.
+fn limit(v: f64, word: &str) -> String {
+    if v.is_finite() {
+        short_num(v)
+    } else {
+        word.to_string()
+    }
 }
 
 /// Runs `check`.
 pub fn execute(args: &CheckArgs) -> anyhow::Result<()> {
     let mut out = Vec::new();
+    let (mut markets, mut policies) = (Vec::new(), Vec::new());
     for file in &args.files {
         let text = std::fs::read_to_string(file)
             .map_err(|e| anyhow::anyhow!("{file}: cannot read: {e}"))?;
-        if is_policy_text(&text) {
-            let p = scenario::load_policy(file)?;
+        // the same validation as every other verb; the kind is decided by the sections present
+        let (kind, because) = scenario::file_kind(file, &text)?;
+        let read_as = format!(
+            "{} file (it has {})",
+            match kind {
+                FileKind::Market => "market",
+                FileKind::Policy => "policy",
+            },
+            because.join(", ")
+        );
+        if kind == FileKind::Policy {
+            let p = scenario::policy_from_str(file, &text)?;
             let mut parts = Vec::new();
             if let Some(f) = p.floor {
                 parts.push(format!(
                     "floor {} by {}{}",
-                    f.price,
+                    short_num(f.price),
                     match f.instrument {
                         scenario::FloorInstrument::Purchase => "purchase",
                         scenario::FloorInstrument::DeficiencyPayment => "deficiency payment",
@@ -53,15 +76,25 @@ pub fn execute(args: &CheckArgs) -> anyhow::Result<()> {
             }
             if let Some(s) = p.stock {
                 parts.push(format!(
-                    "stock band [{}, {}], capacity {}, release {}",
-                    s.buy_below,
-                    s.sell_above,
-                    s.capacity,
+                    "stock {}, {}, capacity {}, purchase budget {}, release {}",
+                    if s.buy_below > 0.0 {
+                        format!("buys below {}", short_num(s.buy_below))
+                    } else {
+                        "no buying edge".to_string()
+                    },
+                    if s.sell_above.is_finite() {
+                        format!("sells above {}", short_num(s.sell_above))
+                    } else {
+                        "no selling edge".to_string()
+                    },
+                    limit(s.capacity, "unlimited"),
+                    limit(s.purchase_budget, "unlimited"),
                     match s.release {
                         scenario::ReleaseSpec::Band => "band".to_string(),
                         scenario::ReleaseSpec::Target { target, speed } =>
-                            format!("target {target} at speed {speed}"),
-                        scenario::ReleaseSpec::Share { share } => format!("share {share}"),
+                            format!("target {} at speed {}", short_num(target), short_num(speed)),
+                        scenario::ReleaseSpec::Share { share } =>
+                            format!("share {}", short_num(share)),
                     }
                 ));
             }
@@ -78,10 +111,13 @@ pub fn execute(args: &CheckArgs) -> anyhow::Result<()> {
                 steady_state: None,
                 demand_elasticity: None,
                 supply_elasticity: None,
+                read_as,
                 summary: parts.join("; "),
             });
+            policies.push(p);
         } else {
-            let s = args.common.load_market(file)?;
+            let mut s = scenario::market_from_str(file, &text)?;
+            args.common.apply(&mut s)?;
             let ss = s.steady;
             out.push(Checked {
                 file: file.clone(),
@@ -97,7 +133,16 @@ pub fn execute(args: &CheckArgs) -> anyhow::Result<()> {
                     s.expectations.rule_name(),
                     s.run.periods
                 ),
+                read_as,
             });
+            markets.push(s);
+        }
+    }
+    // policies checked beside one market are also checked against it, as every verb does (with
+    // several markets it is not known which policy is meant for which)
+    if let [m] = markets.as_slice() {
+        for p in &policies {
+            scenario::policy_for_market(m, p)?;
         }
     }
     let text = match args.common.format {
@@ -111,6 +156,7 @@ pub fn execute(args: &CheckArgs) -> anyhow::Result<()> {
                 "steady_quantity",
                 "demand_elasticity",
                 "supply_elasticity",
+                "read_as",
                 "summary",
             ]);
             for c in &out {
@@ -123,6 +169,7 @@ pub fn execute(args: &CheckArgs) -> anyhow::Result<()> {
                     opt(c.steady_state.map(|s| s.quantity)),
                     opt(c.demand_elasticity),
                     opt(c.supply_elasticity),
+                    c.read_as.clone(),
                     c.summary.clone(),
                 ]);
             }

@@ -128,12 +128,15 @@ pub struct PlotDir {
     pub clean: bool,
 }
 
-/// Loads a policy file, or the market left alone when `path` is `None`.
-pub fn load_policy(path: Option<&str>) -> anyhow::Result<PolicySpec> {
-    Ok(match path {
+/// Loads a policy file, or the market left alone when `path` is `None`, and checks it against the
+/// market it will run on (`scenario::policy_for_market`: the same check for every verb).
+pub fn load_policy(path: Option<&str>, market: &Scenario) -> anyhow::Result<PolicySpec> {
+    let policy = match path {
         Some(p) => scenario::load_policy(p)?,
         None => PolicySpec::none(),
-    })
+    };
+    scenario::policy_for_market(market, &policy)?;
+    Ok(policy)
 }
 
 /// Prints a note to stderr (talk, never data).

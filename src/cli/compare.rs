@@ -29,7 +29,7 @@ pub fn execute(args: &CompareArgs) -> anyhow::Result<()> {
     let policies = args
         .policies
         .iter()
-        .map(|p| load_policy(Some(p)))
+        .map(|p| load_policy(Some(p), &scenario))
         .collect::<anyhow::Result<Vec<_>>>()?;
     if scenario.shocks.is_deterministic() && scenario.run.replications > 1 {
         say("the market has no shocks: every replication is the same path");

@@ -28,10 +28,10 @@ pub struct ReportArgs {
 
 /// The policies of a report or comparison as (file, spec), the market left alone first (the
 /// built-in one unless a given file is a do-nothing policy).
-fn columns(files: &[String]) -> anyhow::Result<Vec<(String, PolicySpec)>> {
+fn columns(files: &[String], market: &Scenario) -> anyhow::Result<Vec<(String, PolicySpec)>> {
     let mut cols = Vec::new();
     for f in files {
-        cols.push((f.clone(), load_policy(Some(f))?));
+        cols.push((f.clone(), load_policy(Some(f), market)?));
     }
     if let Some(i) = cols.iter().position(|(_, p)| p.is_none()) {
         let base = cols.remove(i);
@@ -49,7 +49,7 @@ pub fn execute(args: &ReportArgs) -> anyhow::Result<()> {
         _ => anyhow::bail!("report needs --out FILE.html (the briefing is one HTML file)"),
     };
     let scenario = args.common.load_market(&args.market)?;
-    let cols = columns(&args.policies)?;
+    let cols = columns(&args.policies, &scenario)?;
     let mut runs = Vec::new();
     for (_, p) in &cols {
         let recs = super::run::one_path(&scenario, p)
@@ -186,7 +186,7 @@ pub fn plot_compare(
     files: &[String],
     result: &furrow::compare::CompareResult,
 ) -> anyhow::Result<()> {
-    let cols = columns(files)?;
+    let cols = columns(files, scenario)?;
     let mut runs = Vec::new();
     for (_, p) in &cols {
         let recs = super::run::one_path(scenario, p)

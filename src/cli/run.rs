@@ -135,7 +135,7 @@ pub fn one_path(scenario: &Scenario, policy: &PolicySpec) -> anyhow::Result<Vec<
 /// Runs `run`.
 pub fn execute(args: &RunArgs) -> anyhow::Result<()> {
     let scenario = args.common.load_market(&args.market)?;
-    let policy = load_policy(args.policy.as_deref())?;
+    let policy = load_policy(args.policy.as_deref(), &scenario)?;
     if scenario.run.replications > 1 {
         return super::mc_run::execute(args, &scenario, &policy);
     }

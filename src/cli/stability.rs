@@ -104,7 +104,7 @@ pub fn render(report: &StabilityReport, format: Format) -> String {
             out.push_str(&format!(
                 "{bullet}{}: {} — {}; {}\n",
                 c.name,
-                if c.holds { "holds" } else { "fails" },
+                c.status(),
                 c.detail,
                 c.source
             ));
@@ -128,9 +128,9 @@ pub fn render(report: &StabilityReport, format: Format) -> String {
 /// Runs `stability`.
 pub fn execute(args: &StabilityArgs) -> anyhow::Result<()> {
     let scenario = args.common.load_market(&args.market)?;
-    let policy = load_policy(args.policy.as_deref())?;
+    let policy = load_policy(args.policy.as_deref(), &scenario)?;
     let report = stability::analyse(&scenario, &policy)
-        .map_err(|e| anyhow::anyhow!("{}: {e}", scenario.source))?;
+        .map_err(|e| anyhow::anyhow!("{}: {e}", e.blame(&scenario, &policy)))?;
     if let Some(dir) = args.common.plot_dir() {
         super::report::plot_stability(&dir, &policy.name, &report)?;
     }

@@ -39,7 +39,7 @@ pub struct StorageArgs {
 /// Runs `storage`.
 pub fn execute(args: &StorageArgs) -> anyhow::Result<()> {
     let scenario = args.common.load_market(&args.market)?;
-    let policy = load_policy(args.policy.as_deref())?;
+    let policy = load_policy(args.policy.as_deref(), &scenario)?;
     let d = SolveOptions::default();
     let options = SolveOptions {
         grid: args.grid.unwrap_or(d.grid),

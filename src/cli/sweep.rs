@@ -56,13 +56,13 @@ fn render(points: &[Point], keys: &[String], long: Option<LongRunSpec>, format: 
                 row.push("invalid".into());
             }
         }
-        let Some(spec) = long else {
+        if long.is_none() {
             t.push(row);
             continue;
-        };
+        }
         match &p.long_run {
             Some(lr) if !lr.prices.is_empty() => {
-                let first = spec.periods + 1 - lr.prices.len();
+                let first = lr.first_period;
                 for (i, price) in lr.prices.iter().enumerate() {
                     let mut r = row.clone();
                     r.push(lr.lyapunov.map(num).unwrap_or_default());
@@ -106,10 +106,10 @@ fn render_json(points: &[Point], keys: &[String], long: Option<LongRunSpec>) -> 
                 Err(m) => (Value::Null, json!("invalid"), json!(m)),
             };
             let long_run = match (&p.long_run, long) {
-                (Some(lr), Some(spec)) => json!({
+                (Some(lr), Some(_)) => json!({
                     "lyapunov": lr.lyapunov,
                     "orbit": lr.orbit.as_str(),
-                    "first_period": (!lr.prices.is_empty()).then(|| spec.periods + 1 - lr.prices.len()),
+                    "first_period": (!lr.prices.is_empty()).then_some(lr.first_period),
                     "prices": lr.prices,
                 }),
                 _ => Value::Null,

@@ -238,6 +238,18 @@ fn price_failure(price: f64, consumption: f64, bound: f64) -> String {
     }
 }
 
+/// Why consumption below zero ends a run (built only when it happens): the agency bought more than
+/// the harvest, which no market can deliver (a defended price above what demand absorbs).
+#[cold]
+fn negative_consumption(consumption: f64, purchases: f64) -> String {
+    format!(
+        "consumption fell to {} (< 0): the agency bought {}, more than the harvest; the defended \
+         price is above what demand can absorb",
+        crate::scenario::ranges::short_num(consumption),
+        crate::scenario::ranges::short_num(purchases)
+    )
+}
+
 /// The outcome of clearing one period.
 #[derive(Debug, Clone, Copy)]
 pub(crate) struct Cleared {
@@ -364,6 +376,10 @@ impl<'m> Simulator<'m> {
                 model.price_bound,
             )));
         }
+        let consumption = c.harvest - c.purchases + c.releases;
+        if consumption < 0.0 {
+            return Err(diverged(negative_consumption(consumption, c.purchases)));
+        }
         let agency = &model.policy.agency;
         let purchase_cost = c.price * c.purchases;
         let sales_revenue = c.price * c.releases;
@@ -375,7 +391,6 @@ impl<'m> Simulator<'m> {
             + financing_cost
             + handling_cost
             + c.deficiency;
-        let consumption = c.harvest - c.purchases + c.releases;
         let record = PeriodRecord {
             period: t,
             expected_price: planting,

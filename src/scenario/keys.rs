@@ -1,6 +1,7 @@
 //! TOML parsing with file-named errors, the unknown-key check with nearest-key suggestions, and dotted
 //! key overrides (`--vary supply.slope=...`).
 
+use super::ranges::escape;
 use super::raw::Kind;
 use super::InputError;
 
@@ -8,7 +9,14 @@ use super::InputError;
 pub fn parse_toml(file: &str, text: &str) -> Result<toml::Table, InputError> {
     text.parse::<toml::Table>().map_err(|e| InputError::Syntax {
         file: file.to_string(),
-        message: e.to_string().trim_end().to_string(),
+        // the parser quotes the offending line: escape control characters in it, keep its layout
+        message: e
+            .to_string()
+            .trim_end()
+            .split('\n')
+            .map(escape)
+            .collect::<Vec<_>>()
+            .join("\n"),
     })
 }
 
@@ -23,14 +31,14 @@ pub fn check_keys(
             let names: Vec<&str> = schema.iter().map(|(s, _)| *s).collect();
             return Err(InputError::UnknownKey {
                 file: file.into(),
-                key: format!("[{section}]"),
+                key: format!("[{}]", escape(section)),
                 suggestion: suggest(section, &names, "sections"),
             });
         };
         let Some(inner) = value.as_table() else {
             return Err(InputError::BadValue {
                 file: file.into(),
-                key: section.clone(),
+                key: escape(section),
                 value: short_value(value),
                 expected: format!("must be a section `[{section}]`"),
             });
@@ -40,7 +48,7 @@ pub fn check_keys(
                 let names: Vec<&str> = keys.iter().map(|(k, _)| *k).collect();
                 return Err(InputError::UnknownKey {
                     file: file.into(),
-                    key: format!("{section}.{key}"),
+                    key: format!("{section}.{}", escape(key)),
                     suggestion: suggest(key, &names, "keys"),
                 });
             };
@@ -89,9 +97,13 @@ fn suggest(word: &str, candidates: &[&str], kind: &str) -> String {
     }
 }
 
-/// A TOML value shortened for an error message.
+/// A TOML value shortened for an error message (numbers in short scientific form, control
+/// characters escaped).
 pub fn short_value(v: &toml::Value) -> String {
-    let s = v.to_string();
+    if let Some(x) = v.as_float() {
+        return super::ranges::short_num(x);
+    }
+    let s = escape(&v.to_string());
     if s.len() > 40 {
         format!(
             "{}…",

@@ -5,6 +5,7 @@
 //! engine, stability, Monte Carlo — trusts these values and never re-checks them.
 
 pub mod keys;
+pub mod ranges;
 pub mod raw;
 pub mod validate;
 
@@ -14,8 +15,8 @@ use crate::curves::{Curve, SteadyState};
 
 pub use keys::{apply_override, parse_toml};
 pub use validate::{
-    load_market, load_policy, market_from_str, market_from_table, policy_from_str,
-    policy_from_table,
+    load_market, load_policy, market_from_str, market_from_table, policy_for_market,
+    policy_from_str, policy_from_table,
 };
 
 /// An input problem, always naming the file and, where there is one, the key and the value.
@@ -300,5 +301,66 @@ pub fn is_policy_text(text: &str) -> bool {
     match text.parse::<toml::Table>() {
         Ok(t) => t.contains_key("policy"),
         Err(_) => text.lines().any(|l| l.trim() == "[policy]"),
+    }
+}
+
+/// What a file is, decided by the sections it has.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum FileKind {
+    /// A market file: it has sections only a market file takes (`[demand]`, `[supply]`, `[run]` …).
+    Market,
+    /// A policy file: it has sections only a policy file takes (`[policy]`, `[floor]`, `[stock]`).
+    Policy,
+}
+
+/// Decides whether `text` is a market or a policy file by the sections present (`[expectations]`
+/// belongs to both), and says which sections decided it. A file with sections of both kinds, or
+/// with none that decides, is an error naming the file; a file that does not parse gives the
+/// parser's error.
+pub fn file_kind(file: &str, text: &str) -> Result<(FileKind, Vec<String>), InputError> {
+    let table = parse_toml(file, text)?;
+    let only_in = |a: &[(&str, &[(&str, raw::Kind)])], b: &[(&str, &[(&str, raw::Kind)])]| {
+        table
+            .keys()
+            .filter(|k| a.iter().any(|(s, _)| s == k) && !b.iter().any(|(s, _)| s == k))
+            .map(|k| format!("[{k}]"))
+            .collect::<Vec<_>>()
+    };
+    let market = only_in(raw::MARKET_SCHEMA, raw::POLICY_SCHEMA);
+    let policy = only_in(raw::POLICY_SCHEMA, raw::MARKET_SCHEMA);
+    match (market.is_empty(), policy.is_empty()) {
+        (false, true) => Ok((FileKind::Market, market)),
+        (true, false) => Ok((FileKind::Policy, policy)),
+        (false, false) => Err(InputError::Syntax {
+            file: file.into(),
+            message: format!(
+                "mixes market sections ({}) and policy sections ({}): a market and a policy go in \
+                 separate files",
+                market.join(", "),
+                policy.join(", ")
+            ),
+        }),
+        (true, true) => {
+            let what = if text.trim().is_empty() {
+                "the file is empty".to_string()
+            } else if table.is_empty() {
+                "the file has no sections (only comments, or cut short)".to_string()
+            } else {
+                let found: Vec<String> = table
+                    .keys()
+                    .map(|k| format!("[{}]", ranges::escape(k)))
+                    .collect();
+                format!("it has only {}", found.join(", "))
+            };
+            Err(InputError::Missing {
+                file: file.into(),
+                key: "[demand] or [policy]".into(),
+                expected: format!(
+                    "neither a market file (needs [demand] and [supply]) nor a policy file (needs \
+                     [policy]): {what}"
+                ),
+            })
+        }
     }
 }

@@ -2,6 +2,7 @@
 //! downstream.
 
 use super::keys::{check_keys, parse_toml};
+use super::ranges::{escape, range_of, short_num};
 use super::raw::*;
 use super::*;
 use crate::curves::{steady_state, Curve};
@@ -23,7 +24,36 @@ pub fn market_from_str(file: &str, text: &str) -> Result<Scenario, InputError> {
 
 /// Validates policy-file text; `file` names it in errors.
 pub fn policy_from_str(file: &str, text: &str) -> Result<PolicySpec, InputError> {
-    policy_from_table(file, parse_toml(file, text)?)
+    let table = parse_toml(file, text)?;
+    if !table.contains_key("policy") {
+        let blank = text.trim().is_empty();
+        let comments = text
+            .lines()
+            .all(|l| l.trim().is_empty() || l.trim_start().starts_with('#'));
+        let what = if blank {
+            "the file is empty"
+        } else if comments {
+            "the file holds only comments"
+        } else {
+            ""
+        };
+        if !what.is_empty() {
+            return Err(missing_policy_section(file, what));
+        }
+    }
+    policy_from_table(file, table)
+}
+
+/// The error for a policy file without `[policy]`: such a file is never read as "no intervention".
+fn missing_policy_section(file: &str, what: &str) -> InputError {
+    InputError::Missing {
+        file: file.into(),
+        key: "[policy]".into(),
+        expected: format!(
+            "a policy file starts with a [policy] section (name = \"...\"; a file with only [policy] is \
+             the market left alone); {what}"
+        ),
+    }
 }
 
 fn read(path: &str) -> Result<String, InputError> {
@@ -104,33 +134,35 @@ impl Check<'_> {
         let range = match (lo.is_infinite(), hi.is_infinite()) {
             (false, true) => {
                 if open_lo {
-                    format!("must be > {lo}")
+                    format!("must be > {}", short_num(lo))
                 } else {
-                    format!("must be ≥ {lo}")
+                    format!("must be ≥ {}", short_num(lo))
                 }
             }
             (true, false) => {
                 if open_hi {
-                    format!("must be < {hi}")
+                    format!("must be < {}", short_num(hi))
                 } else {
-                    format!("must be ≤ {hi}")
+                    format!("must be ≤ {}", short_num(hi))
                 }
             }
-            _ => format!("must be in {l}{lo}, {hi}{h}"),
+            _ => format!("must be in {l}{}, {}{h}", short_num(lo), short_num(hi)),
         };
-        Err(self.bad(key, v, &range))
+        Err(self.bad(key, short_num(v), &range))
     }
 
-    fn positive(&self, key: &str, v: f64) -> Result<f64, InputError> {
-        self.range(key, v, 0.0, f64::INFINITY, true, true)
+    /// Checks `v` against the key's range in [`super::ranges::RANGES`].
+    fn within(&self, key: &str, v: f64) -> Result<f64, InputError> {
+        match range_of(key) {
+            Some(r) => self.range(key, v, r.lo, r.hi, r.open_lo, r.open_hi),
+            None => self.finite(key, v),
+        }
     }
 
-    fn non_negative(&self, key: &str, v: f64) -> Result<f64, InputError> {
-        self.range(key, v, 0.0, f64::INFINITY, false, true)
-    }
-
-    fn rate(&self, key: &str, v: f64) -> Result<f64, InputError> {
-        self.range(key, v, 0.0, 1.0, false, true)
+    /// A whole number checked against the key's range.
+    fn whole(&self, key: &str, v: i64) -> Result<usize, InputError> {
+        let (lo, hi) = range_of(key).map_or((0, i64::MAX), |r| (r.lo as i64, r.hi as i64));
+        self.count(key, v, lo, hi)
     }
 
     fn count(&self, key: &str, v: i64, lo: i64, hi: i64) -> Result<usize, InputError> {
@@ -163,13 +195,9 @@ fn curve(c: &Check, section: &str, raw: &RawCurve, demand: bool) -> Result<Curve
                 &format!("the calibration point needs an elasticity {sign_word}"),
             )
         })?;
-        let p = c.positive(&key("at_price"), p)?;
-        let q = c.positive(&key("at_quantity"), q)?;
-        let e = if demand {
-            c.range(&key("elasticity"), e, -50.0, 0.0, false, true)?
-        } else {
-            c.range(&key("elasticity"), e, 0.0, 50.0, true, false)?
-        };
+        let p = c.within(&key("at_price"), p)?;
+        let q = c.within(&key("at_quantity"), q)?;
+        let e = c.within(&key("elasticity"), e)?;
         Ok((p, q, e))
     };
     match form {
@@ -197,19 +225,16 @@ fn curve(c: &Check, section: &str, raw: &RawCurve, demand: bool) -> Result<Curve
                     &format!("a linear curve needs a slope {sign_word}"),
                 )
             })?;
-            let intercept = c.range(&key("intercept"), intercept, -1e12, 1e12, false, false)?;
-            let slope = if demand {
-                c.range(&key("slope"), slope, -1e12, 0.0, false, true)?
-            } else {
-                c.range(&key("slope"), slope, 0.0, 1e12, true, false)?
-            };
+            let intercept = c.finite(&key("intercept"), intercept)?;
             if demand && intercept <= 0.0 {
                 return Err(c.bad(
                     &key("intercept"),
-                    intercept,
+                    short_num(intercept),
                     "demand must be positive at a zero price: intercept must be > 0",
                 ));
             }
+            let intercept = c.within(&key("intercept"), intercept)?;
+            let slope = c.within(&key("slope"), slope)?;
             Ok(Curve::Linear { intercept, slope })
         }
         "constant-elasticity" => {
@@ -221,7 +246,7 @@ fn curve(c: &Check, section: &str, raw: &RawCurve, demand: bool) -> Result<Curve
                 };
                 return Err(c.bad(
                     &key(k),
-                    raw.intercept.or(raw.slope).unwrap_or_default(),
+                    short_num(raw.intercept.or(raw.slope).unwrap_or_default()),
                     "a constant-elasticity curve takes at_price, at_quantity and elasticity, not intercept/slope",
                 ));
             }
@@ -234,7 +259,7 @@ fn curve(c: &Check, section: &str, raw: &RawCurve, demand: bool) -> Result<Curve
         }
         other => Err(c.bad(
             &key("form"),
-            format!("\"{other}\""),
+            format!("\"{}\"", escape(other)),
             "allowed forms: \"linear\", \"constant-elasticity\"",
         )),
     }
@@ -273,7 +298,7 @@ fn expectations(c: &Check, raw: &RawExpectations) -> Result<ExpectationSpec, Inp
             let weight = weight(0.0, 1.0, true, false, "in (0, 1]")?;
             let initial_expected_price = raw
                 .initial_expected_price
-                .map(|p| c.positive("expectations.initial_expected_price", p))
+                .map(|p| c.within("expectations.initial_expected_price", p))
                 .transpose()?;
             ExpectationSpec::Adaptive {
                 weight,
@@ -290,10 +315,8 @@ fn expectations(c: &Check, raw: &RawExpectations) -> Result<ExpectationSpec, Inp
                         "give either normal_price (fixed) or window (trailing mean), not both",
                     ))
                 }
-                (Some(n), None) => NormalPrice::Fixed(c.positive("expectations.normal_price", n)?),
-                (None, Some(w)) => {
-                    NormalPrice::Window(c.count("expectations.window", w, 1, 1000)?)
-                }
+                (Some(n), None) => NormalPrice::Fixed(c.within("expectations.normal_price", n)?),
+                (None, Some(w)) => NormalPrice::Window(c.whole("expectations.window", w)?),
                 (None, None) => {
                     return Err(c.missing(
                         "expectations.normal_price",
@@ -318,7 +341,7 @@ fn expectations(c: &Check, raw: &RawExpectations) -> Result<ExpectationSpec, Inp
                 )
             })?;
             ExpectationSpec::TrailingMean {
-                window: c.count("expectations.window", w, 1, 1000)?,
+                window: c.whole("expectations.window", w)?,
             }
         }
         "rational" => {
@@ -328,7 +351,7 @@ fn expectations(c: &Check, raw: &RawExpectations) -> Result<ExpectationSpec, Inp
         }
         other => return Err(c.bad(
             "expectations.rule",
-            format!("\"{other}\""),
+            format!("\"{}\"", escape(other)),
             "allowed rules: naive, adaptive, normal-price, extrapolative, trailing-mean, rational",
         )),
     };
@@ -361,17 +384,42 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
     let supply = curve(&c, "supply", supply_raw, false)?;
     let steady = steady_state(&demand, &supply).ok_or_else(|| {
         let describe = |c: &Curve| match *c {
-            Curve::Linear { intercept, slope } => format!("intercept {intercept}, slope {slope}"),
+            Curve::Linear { intercept, slope } => format!(
+                "intercept {}, slope {}",
+                short_num(intercept),
+                short_num(slope)
+            ),
             Curve::ConstantElasticity {
                 at_price,
                 at_quantity,
                 elasticity,
-            } => format!("{at_quantity} at {at_price}, elasticity {elasticity}"),
+            } => format!(
+                "{} at {}, elasticity {}",
+                short_num(at_quantity),
+                short_num(at_price),
+                short_num(elasticity)
+            ),
+        };
+        // advise the keys the file actually has: intercepts when given, else the calibration points
+        let keys_of = |section: &str, raw: &RawCurve| {
+            if raw.intercept.is_some() {
+                format!("{section}.intercept")
+            } else {
+                format!("{section}.at_price, {section}.at_quantity and {section}.elasticity")
+            }
         };
         c.bad(
             "demand/supply",
-            format!("demand ({}), supply ({})", describe(&demand), describe(&supply)),
-            "the curves do not cross at a positive price and quantity: check demand.intercept and supply.intercept",
+            format!(
+                "demand ({}), supply ({})",
+                describe(&demand),
+                describe(&supply)
+            ),
+            &format!(
+                "the curves do not cross at a positive price and quantity: check {} and {}",
+                keys_of("demand", demand_raw),
+                keys_of("supply", supply_raw)
+            ),
         )
     })?;
     let market = Market {
@@ -396,29 +444,15 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
     let expectations = expectations(&c, &raw.expectations.clone().unwrap_or_default())?;
 
     let r = &raw.run;
-    let periods = c.count("run.periods", r.periods.unwrap_or(40), 1, 1_000_000)?;
-    let initial_price = c.range(
-        "run.initial_price",
-        r.initial_price.unwrap_or(steady.price),
-        0.0,
-        1e12,
-        true,
-        false,
-    )?;
+    let periods = c.whole("run.periods", r.periods.unwrap_or(40))?;
+    let initial_price = c.within("run.initial_price", r.initial_price.unwrap_or(steady.price))?;
     let mut price_history = Vec::new();
     if let Some(h) = &r.price_history {
         if h.len() > 1000 {
             return Err(c.bad("run.price_history", h.len(), "at most 1000 past prices"));
         }
         for (i, p) in h.iter().enumerate() {
-            c.range(
-                &format!("run.price_history[{i}]"),
-                *p,
-                0.0,
-                1e12,
-                true,
-                false,
-            )?;
+            c.within(&format!("run.price_history[{i}]"), *p)?;
         }
         price_history = h.clone();
         if let Some(last) = h.last() {
@@ -427,9 +461,10 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
             {
                 return Err(c.bad(
                     "run.price_history",
-                    format!("[…, {last}]"),
+                    format!("[…, {}]", short_num(*last)),
                     &format!(
-                        "the newest past price is P_0 and must equal run.initial_price = {initial_price}"
+                        "the newest past price is P_0 and must equal run.initial_price = {}",
+                        short_num(initial_price)
                     ),
                 ));
             }
@@ -439,56 +474,33 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
     if price_history.is_empty() {
         price_history.push(initial_price);
     }
-    let replications = c.count(
-        "run.replications",
-        r.replications.unwrap_or(1),
-        1,
-        10_000_000,
-    )?;
+    let replications = c.whole("run.replications", r.replications.unwrap_or(1))?;
     let seed = match r.seed {
         Some(s) if s < 0 => return Err(c.bad("run.seed", s, "must be a whole number ≥ 0")),
         Some(s) => s as u64,
         None => 42,
     };
-    let discount_rate = c.rate("run.discount_rate", r.discount_rate.unwrap_or(0.05))?;
+    let discount_rate = c.within("run.discount_rate", r.discount_rate.unwrap_or(0.05))?;
     let terminal_stock = match r.terminal_stock.as_deref().unwrap_or("market") {
         "market" => TerminalStock::Market,
         "zero" => TerminalStock::Zero,
         other => {
             return Err(c.bad(
                 "run.terminal_stock",
-                format!("\"{other}\""),
+                format!("\"{}\"", escape(other)),
                 "allowed: \"market\", \"zero\"",
             ))
         }
     };
-    let risk_aversion = c.range(
-        "run.risk_aversion",
-        r.risk_aversion.unwrap_or(0.0),
-        0.0,
-        20.0,
-        false,
-        false,
-    )?;
+    let risk_aversion = c.within("run.risk_aversion", r.risk_aversion.unwrap_or(0.0))?;
     let s = &raw.shocks;
     let shocks = ShockSpec {
-        yield_cv: c.range(
-            "shocks.yield_cv",
-            s.yield_cv.unwrap_or(0.0),
-            0.0,
-            2.0,
-            false,
-            false,
-        )?,
-        supply_sd: c.non_negative("shocks.supply_sd", s.supply_sd.unwrap_or(0.0))?,
-        demand_sd: c.non_negative("shocks.demand_sd", s.demand_sd.unwrap_or(0.0))?,
-        demand_persistence: c.range(
+        yield_cv: c.within("shocks.yield_cv", s.yield_cv.unwrap_or(0.0))?,
+        supply_sd: c.within("shocks.supply_sd", s.supply_sd.unwrap_or(0.0))?,
+        demand_sd: c.within("shocks.demand_sd", s.demand_sd.unwrap_or(0.0))?,
+        demand_persistence: c.within(
             "shocks.demand_persistence",
             s.demand_persistence.unwrap_or(0.0),
-            -1.0,
-            1.0,
-            true,
-            true,
         )?,
     };
     let storers = match &raw.storers {
@@ -501,11 +513,20 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
                     "a market with [storers] needs rule = \"rational\" (storers and farmers look ahead)",
                 ));
             }
+            // the storage equilibrium (every verb on such a market) takes independent demand shocks
+            if shocks.demand_persistence != 0.0 && shocks.demand_sd > 0.0 {
+                return Err(c.bad(
+                    "shocks.demand_persistence",
+                    short_num(shocks.demand_persistence),
+                    "a market with [storers] treats demand shocks as independent from period to \
+                     period: must be 0 when shocks.demand_sd > 0",
+                ));
+            }
             Some(Storers {
-                storage_cost: c
-                    .non_negative("storers.storage_cost", st.storage_cost.unwrap_or(0.0))?,
-                interest_rate: c.rate("storers.interest_rate", st.interest_rate.unwrap_or(0.0))?,
-                loss_rate: c.rate("storers.loss_rate", st.loss_rate.unwrap_or(0.0))?,
+                storage_cost: c.within("storers.storage_cost", st.storage_cost.unwrap_or(0.0))?,
+                interest_rate: c
+                    .within("storers.interest_rate", st.interest_rate.unwrap_or(0.0))?,
+                loss_rate: c.within("storers.loss_rate", st.loss_rate.unwrap_or(0.0))?,
             })
         }
     };
@@ -532,6 +553,31 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
 /// Validates a parsed policy file.
 pub fn policy_from_table(file: &str, table: toml::Table) -> Result<PolicySpec, InputError> {
     check_keys(file, &table, POLICY_SCHEMA)?;
+    if !table.contains_key("policy") {
+        let what = if table.is_empty() {
+            "the file has no sections (empty, only comments, or cut short)".to_string()
+        } else {
+            let found: Vec<String> = table.keys().map(|k| format!("[{}]", escape(k))).collect();
+            format!("this file has {} but no [policy]", found.join(", "))
+        };
+        return Err(missing_policy_section(file, &what));
+    }
+    // a section header with nothing under it is a file cut short (or a slip), never a silent default
+    for section in ["stock", "expectations"] {
+        if table
+            .get(section)
+            .and_then(|v| v.as_table())
+            .is_some_and(|t| t.is_empty())
+        {
+            return Err(InputError::Missing {
+                file: file.into(),
+                key: format!("[{section}]"),
+                expected: format!(
+                    "the [{section}] section is empty (a cut-short file?): give its keys or remove it"
+                ),
+            });
+        }
+    }
     let raw: RawPolicyFile = deserialize(file, table)?;
     let c = Check { file };
     let floor = match &raw.floor {
@@ -540,14 +586,14 @@ pub fn policy_from_table(file: &str, table: toml::Table) -> Result<PolicySpec, I
             let price = f
                 .price
                 .ok_or_else(|| c.missing("floor.price", "a floor needs price > 0"))?;
-            let price = c.range("floor.price", price, 0.0, 1e12, true, false)?;
+            let price = c.within("floor.price", price)?;
             let instrument = match f.instrument.as_deref().unwrap_or("purchase") {
                 "purchase" => FloorInstrument::Purchase,
                 "deficiency-payment" => FloorInstrument::DeficiencyPayment,
                 other => {
                     return Err(c.bad(
                         "floor.instrument",
-                        format!("\"{other}\""),
+                        format!("\"{}\"", escape(other)),
                         "allowed instruments: \"purchase\", \"deficiency-payment\"",
                     ))
                 }
@@ -562,28 +608,31 @@ pub fn policy_from_table(file: &str, table: toml::Table) -> Result<PolicySpec, I
     let stock = match &raw.stock {
         None => None,
         Some(s) => {
-            let buy_below = c.non_negative("stock.buy_below", s.buy_below.unwrap_or(0.0))?;
+            let buy_below = c.within("stock.buy_below", s.buy_below.unwrap_or(0.0))?;
             let sell_above = match s.sell_above {
-                Some(v) => c.positive("stock.sell_above", v)?,
+                Some(v) => c.within("stock.sell_above", v)?,
                 None => f64::INFINITY,
             };
             if buy_below > sell_above {
                 return Err(c.bad(
                     "stock.buy_below",
-                    buy_below,
-                    &format!("must be ≤ stock.sell_above = {sell_above} (equal fixes the price)"),
+                    short_num(buy_below),
+                    &format!(
+                        "must be ≤ stock.sell_above = {} (equal fixes the price)",
+                        short_num(sell_above)
+                    ),
                 ));
             }
             let capacity = match s.capacity {
-                Some(v) => c.non_negative("stock.capacity", v)?,
+                Some(v) => c.within("stock.capacity", v)?,
                 None => f64::INFINITY,
             };
-            let initial = c.non_negative("stock.initial", s.initial.unwrap_or(0.0))?;
+            let initial = c.within("stock.initial", s.initial.unwrap_or(0.0))?;
             if initial > capacity {
                 return Err(c.bad(
                     "stock.initial",
-                    initial,
-                    &format!("must be ≤ stock.capacity = {capacity}"),
+                    short_num(initial),
+                    &format!("must be ≤ stock.capacity = {}", short_num(capacity)),
                 ));
             }
             let release = match s.release.as_deref().unwrap_or("band") {
@@ -595,16 +644,15 @@ pub fn policy_from_table(file: &str, table: toml::Table) -> Result<PolicySpec, I
                             "release = \"target\" needs target ≥ 0 (the stock to steer toward)",
                         )
                     })?;
-                    let target = c.non_negative("stock.target", target)?;
+                    let target = c.within("stock.target", target)?;
                     if target > capacity {
                         return Err(c.bad(
                             "stock.target",
-                            target,
-                            &format!("must be ≤ stock.capacity = {capacity}"),
+                            short_num(target),
+                            &format!("must be ≤ stock.capacity = {}", short_num(capacity)),
                         ));
                     }
-                    let speed =
-                        c.range("stock.speed", s.speed.unwrap_or(1.0), 0.0, 1.0, true, false)?;
+                    let speed = c.within("stock.speed", s.speed.unwrap_or(1.0))?;
                     ReleaseSpec::Target { target, speed }
                 }
                 "share" => {
@@ -612,13 +660,13 @@ pub fn policy_from_table(file: &str, table: toml::Table) -> Result<PolicySpec, I
                         c.missing("stock.share", "release = \"share\" needs share in (0, 1]")
                     })?;
                     ReleaseSpec::Share {
-                        share: c.range("stock.share", share, 0.0, 1.0, true, false)?,
+                        share: c.within("stock.share", share)?,
                     }
                 }
                 other => {
                     return Err(c.bad(
                         "stock.release",
-                        format!("\"{other}\""),
+                        format!("\"{}\"", escape(other)),
                         "allowed release rules: \"band\", \"target\", \"share\"",
                     ))
                 }
@@ -649,16 +697,15 @@ pub fn policy_from_table(file: &str, table: toml::Table) -> Result<PolicySpec, I
                 sell_above,
                 capacity,
                 initial,
-                storage_cost: c
-                    .non_negative("stock.storage_cost", s.storage_cost.unwrap_or(0.0))?,
-                loss_rate: c.rate("stock.loss_rate", s.loss_rate.unwrap_or(0.0))?,
+                storage_cost: c.within("stock.storage_cost", s.storage_cost.unwrap_or(0.0))?,
+                loss_rate: c.within("stock.loss_rate", s.loss_rate.unwrap_or(0.0))?,
                 purchase_budget: match s.purchase_budget {
-                    Some(v) => c.non_negative("stock.purchase_budget", v)?,
+                    Some(v) => c.within("stock.purchase_budget", v)?,
                     None => f64::INFINITY,
                 },
-                financing_rate: c.rate("stock.financing_rate", s.financing_rate.unwrap_or(0.0))?,
-                handling_cost: c
-                    .non_negative("stock.handling_cost", s.handling_cost.unwrap_or(0.0))?,
+                financing_rate: c
+                    .within("stock.financing_rate", s.financing_rate.unwrap_or(0.0))?,
+                handling_cost: c.within("stock.handling_cost", s.handling_cost.unwrap_or(0.0))?,
                 release,
             })
         }
@@ -680,4 +727,49 @@ pub fn policy_from_table(file: &str, table: toml::Table) -> Result<PolicySpec, I
         stock,
         expectations,
     })
+}
+
+/// Checks what a policy file asks of the market it is run on (one check for every verb): a
+/// purchase floor, or a buffer stock's `buy_below`, must leave demand something to take at that
+/// price. The agency defending a price F buys the harvest less D(F), so consumption at the floor is
+/// D(F): the floor is defensible only where D(F) > 0, i.e. below the price at which linear demand
+/// falls to zero (its choke price, intercept / |slope|). Constant-elasticity demand has none.
+pub fn policy_for_market(scenario: &Scenario, policy: &PolicySpec) -> Result<(), InputError> {
+    let Curve::Linear { intercept, slope } = scenario.market.demand else {
+        return Ok(());
+    };
+    let choke = intercept / -slope;
+    let absorbs = |price: f64| intercept + slope * price > 0.0;
+    let refuse = |key: &str, price: f64, what: &str| InputError::BadValue {
+        file: policy.source.clone(),
+        key: key.into(),
+        value: short_num(price),
+        expected: format!(
+            "{what} must be below {}, the price at which the linear demand of {} falls to zero \
+             (at a higher price consumption would be ≤ 0 and the agency would buy more than the \
+             harvest); the largest price demand can absorb is just below {}",
+            short_num(choke),
+            scenario.source,
+            short_num(choke)
+        ),
+    };
+    if let Some(f) = policy.floor {
+        if f.instrument == FloorInstrument::Purchase && !absorbs(f.price) {
+            return Err(refuse(
+                "floor.price",
+                f.price,
+                "a floor defended by purchase",
+            ));
+        }
+    }
+    if let Some(s) = policy.stock {
+        if s.buy_below > 0.0 && !absorbs(s.buy_below) {
+            return Err(refuse(
+                "stock.buy_below",
+                s.buy_below,
+                "the price the stock defends by buying",
+            ));
+        }
+    }
+    Ok(())
 }

@@ -3,6 +3,11 @@
 //! With b = S'(P^e*) (supply slope) and d = |D'(P*)| (demand slope in absolute value) at the steady
 //! state, the linearised price answers the planting price with −b/d. The conditions below are the
 //! closed forms for each rule; the eigenvalues decide in every case, these are for the reader.
+//!
+//! Every condition is a strict inequality. Where the market sits on its boundary — within the
+//! neutral band of the verdict ([`super::eigen::NEUTRAL_TOLERANCE`], measured in the same units as
+//! the spectral radius) — the condition does not hold and is reported as "on the boundary", never as
+//! holding because of a rounding error in b/d.
 
 use serde::Serialize;
 
@@ -15,8 +20,10 @@ pub struct PublishedCondition {
     pub name: String,
     /// Where it comes from.
     pub source: String,
-    /// Whether it holds for this market.
+    /// Whether it holds for this market (false on the boundary: the inequalities are strict).
     pub holds: bool,
+    /// The market sits on the condition's boundary (within the neutral band).
+    pub on_boundary: bool,
     /// The numbers it was evaluated with.
     pub detail: String,
 }
@@ -25,17 +32,42 @@ fn f(x: f64) -> String {
     crate::output::fmt_num(x, 6)
 }
 
+use super::eigen::NEUTRAL_TOLERANCE;
+
+/// (holds, on the boundary) for a condition `margin > 0` whose margin is measured in units of the
+/// spectral radius (1 − ρ at the boundary's side).
+fn strict(margin: f64) -> (bool, bool) {
+    let on_boundary = margin.abs() <= NEUTRAL_TOLERANCE;
+    (margin > 0.0 && !on_boundary, on_boundary)
+}
+
+impl PublishedCondition {
+    /// "holds", "fails" or "on the boundary".
+    pub fn status(&self) -> &'static str {
+        if self.on_boundary {
+            "on the boundary"
+        } else if self.holds {
+            "holds"
+        } else {
+            "fails"
+        }
+    }
+}
+
 /// Jury's conditions for z² + a1 z + a0 (both roots inside the unit circle).
 pub fn jury_quadratic(a1: f64, a0: f64) -> PublishedCondition {
-    let c1 = 1.0 + a1 + a0 > 0.0;
-    let c2 = 1.0 - a1 + a0 > 0.0;
-    let c3 = a0.abs() < 1.0;
+    let (c1, b1) = strict(1.0 + a1 + a0);
+    let (c2, b2) = strict(1.0 - a1 + a0);
+    let (c3, b3) = strict(1.0 - a0.abs());
+    // on the boundary when one condition is on it and none fails outright
+    let fails_outright = [(c1, b1), (c2, b2), (c3, b3)].iter().any(|(c, b)| !c && !b);
     PublishedCondition {
         name: "Jury: 1 + a1 + a0 > 0, 1 − a1 + a0 > 0, |a0| < 1".into(),
         source: "Jury (1964), Theory and Application of the z-Transform Method (Schur–Cohn–Jury \
                  test for a quadratic; from memory)"
             .into(),
         holds: c1 && c2 && c3,
+        on_boundary: (b1 || b2 || b3) && !fails_outright,
         detail: format!(
             "z² + a1 z + a0 with a1 = {}, a0 = {}: 1 + a1 + a0 = {}, 1 − a1 + a0 = {}, |a0| = {}",
             f(a1),
@@ -56,10 +88,13 @@ pub fn conditions(rule: &ExpectationSpec, b: f64, d: f64) -> Vec<PublishedCondit
         f(d),
         f(r)
     );
+    // ρ = b/d: the margin 1 − b/d
+    let (ez_holds, ez_edge) = strict(1.0 - r);
     let ezekiel = || PublishedCondition {
         name: "b < d".into(),
         source: "Ezekiel (1938), The cobweb theorem, Quarterly Journal of Economics 52(2)".into(),
-        holds: b < d,
+        holds: ez_holds,
+        on_boundary: ez_edge,
         detail: slopes.clone(),
     };
     // second-order rules: P^e = w1 P_{t−1} + w2 P_{t−2}; characteristic polynomial z² + r w1 z + r w2
@@ -69,12 +104,15 @@ pub fn conditions(rule: &ExpectationSpec, b: f64, d: f64) -> Vec<PublishedCondit
         ExpectationSpec::TrailingMean { window: 1 } => vec![ezekiel()],
         ExpectationSpec::Adaptive { weight, .. } => {
             let bound = (2.0 - weight) / weight;
+            // beyond the bound ρ = λ(1 + b/d) − 1, so 1 − ρ = λ·((2 − λ)/λ − b/d)
+            let (holds, on_boundary) = strict(weight * (bound - r));
             vec![PublishedCondition {
                 name: "b/d < (2 − λ)/λ".into(),
                 source: "Nerlove (1958), Adaptive expectations and cobweb phenomena, Quarterly \
                          Journal of Economics 72(2)"
                     .into(),
-                holds: r < bound,
+                holds,
+                on_boundary,
                 detail: format!("{slopes}, λ = {}, (2 − λ)/λ = {}", f(weight), f(bound)),
             }]
         }
@@ -103,11 +141,13 @@ pub fn conditions(rule: &ExpectationSpec, b: f64, d: f64) -> Vec<PublishedCondit
             } else {
                 1.0 - weight
             };
+            let (holds, on_boundary) = strict(1.0 - r * w);
             vec![PublishedCondition {
                 name: "(b/d)·w < 1 with w = dP^e/dP_{t−1}".into(),
                 source: "first-order root −(b/d)·w of the rule; derived here (no published source checked)"
                     .into(),
-                holds: r * w < 1.0,
+                holds,
+                on_boundary,
                 detail: format!("{slopes}, w = {}", f(w)),
             }]
         }
@@ -127,5 +167,29 @@ mod tests {
         assert!(!jury_quadratic(-1.3, 0.12).holds);
         // complex pair of modulus √1.1 > 1: z² + 0 z + 1.1 → fails
         assert!(!jury_quadratic(0.0, 1.1).holds);
+        // (z − 1)(z − 0.5) = z² − 1.5 z + 0.5: a root on the unit circle → on the boundary
+        let edge = jury_quadratic(-1.5, 0.5);
+        assert!(!edge.holds && edge.on_boundary, "{edge:?}");
+        // (z − 1)(z − 2): a root outside as well → fails, not "on the boundary"
+        let out = jury_quadratic(-3.0, 2.0);
+        assert!(!out.holds && !out.on_boundary, "{out:?}");
+    }
+
+    #[test]
+    fn nerlove_boundary_is_not_reported_as_holding() {
+        // b/d = 0.3/0.1 rounds to 2.9999999999999996 < 3 = (2 − λ)/λ at λ = 0.5: on the boundary
+        // (Nerlove 1958: the adaptive cobweb is stable iff b/d < (2 − λ)/λ)
+        let spec = ExpectationSpec::Adaptive {
+            weight: 0.5,
+            initial_expected_price: None,
+        };
+        let c = &conditions(&spec, 0.3, 0.1)[0];
+        assert!(!c.holds && c.on_boundary, "{c:?}");
+        assert_eq!(c.status(), "on the boundary");
+        assert!(conditions(&spec, 0.29, 0.1)[0].holds);
+        assert_eq!(conditions(&spec, 0.31, 0.1)[0].status(), "fails");
+        // Ezekiel (1938): b = d is the boundary of b < d
+        let n = &conditions(&ExpectationSpec::Naive, 0.7, 0.7000000000000001)[0];
+        assert_eq!(n.status(), "on the boundary");
     }
 }

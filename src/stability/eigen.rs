@@ -163,13 +163,33 @@ pub fn spectral_radius(ev: &[Eigenvalue]) -> f64 {
 
 /// Verdict from a spectral radius with [`NEUTRAL_TOLERANCE`].
 pub fn verdict(rho: f64) -> Verdict {
-    if rho < 1.0 - NEUTRAL_TOLERANCE {
+    verdict_within(rho, NEUTRAL_TOLERANCE)
+}
+
+/// Verdict from a spectral radius with the neutral band |ρ − 1| ≤ `tolerance`.
+pub fn verdict_within(rho: f64, tolerance: f64) -> Verdict {
+    if rho < 1.0 - tolerance {
         Verdict::Stable
-    } else if rho <= 1.0 + NEUTRAL_TOLERANCE {
+    } else if rho <= 1.0 + tolerance {
         Verdict::Neutral
     } else {
         Verdict::Unstable
     }
+}
+
+/// The neutral band for eigenvalues of a Jacobian known to within `error` (entrywise, absolute):
+/// [`NEUTRAL_TOLERANCE`], widened to 1000 × the error bound on ρ when that is larger (an eigenvalue
+/// moves by at most ‖ΔJ‖ for a normal matrix; the factor covers the non-normal companion forms).
+pub fn tolerance_for(jacobian: &DMatrix<f64>, error: f64) -> f64 {
+    let n = jacobian.nrows().max(1) as f64;
+    NEUTRAL_TOLERANCE.max(1e3 * n * error)
+}
+
+/// The rounding error of an analytic Jacobian: a few ulps of its largest entry (each entry is a
+/// product or quotient of closed-form derivatives, a handful of roundings).
+pub fn analytic_error(jacobian: &DMatrix<f64>) -> f64 {
+    let largest = jacobian.iter().fold(0.0_f64, |m, x| m.max(x.abs()));
+    16.0 * f64::EPSILON * largest.max(1.0)
 }
 
 /// The dominant eigenvalue: largest modulus; among eigenvalues of (relatively) equal modulus the one
@@ -189,12 +209,18 @@ pub fn dominant(ev: &[Eigenvalue]) -> Option<Eigenvalue> {
 
 /// What the dominant eigenvalue says: (oscillating, period, half-life).
 /// Period 2π/|arg λ| (2 for a negative real λ, none for a positive real one or ρ = 0); half-life
-/// ln 0.5 / ln ρ for ρ < 1 (0 when ρ = 0: the deviation vanishes at once), none when ρ ≥ 1.
+/// ln 0.5 / ln ρ for ρ < 1 − [`NEUTRAL_TOLERANCE`] (0 when ρ = 0: the deviation vanishes at once),
+/// none when ρ is 1 within the neutral band or above.
 pub fn read_off(ev: &[Eigenvalue]) -> (bool, Option<f64>, Option<f64>) {
+    read_off_within(ev, NEUTRAL_TOLERANCE)
+}
+
+/// [`read_off`] with the neutral band |ρ − 1| ≤ `tolerance`.
+pub fn read_off_within(ev: &[Eigenvalue], tolerance: f64) -> (bool, Option<f64>, Option<f64>) {
     let rho = spectral_radius(ev);
     let half_life = if rho == 0.0 {
         Some(0.0)
-    } else if rho < 1.0 {
+    } else if rho < 1.0 - tolerance {
         Some(0.5_f64.ln() / rho.ln())
     } else {
         None
@@ -292,5 +318,17 @@ mod tests {
         assert_eq!(verdict(1.0 - 2.0 * NEUTRAL_TOLERANCE), Verdict::Stable);
         assert_eq!(verdict(1.0 + 0.5 * NEUTRAL_TOLERANCE), Verdict::Neutral);
         assert_eq!(verdict(1.0 + 2.0 * NEUTRAL_TOLERANCE), Verdict::Unstable);
+    }
+
+    #[test]
+    fn no_half_life_inside_the_neutral_band() {
+        // ρ = 1 − 2e-16 is a unit root within rounding: ln 0.5 / ln ρ would be 3e15 seasons
+        let ev = [Eigenvalue {
+            re: -(1.0 - 2e-16),
+            im: 0.0,
+        }];
+        assert_eq!(read_off(&ev).2, None);
+        let ev = [Eigenvalue { re: 0.5, im: 0.0 }];
+        assert_relative_eq!(read_off(&ev).2.unwrap(), 1.0, max_relative = 1e-15);
     }
 }

@@ -5,11 +5,15 @@
 //! nalgebra (`eigen`, complex ones included). Published closed-form conditions are evaluated beside
 //! the numbers (`conditions`).
 //!
-//! Verdict: spectral radius ρ < 1 − 1e-9 stable, |ρ − 1| ≤ 1e-9 neutral, ρ > 1 + 1e-9 unstable
-//! ([`eigen::NEUTRAL_TOLERANCE`]). When the holding regime has no steady state with finite stock
-//! (a purchase floor above the free market's steady state, no losses, no capacity limit), that
-//! regime has no eigenvalues, its spectral radius is reported as 1 (the stock's unit root with a
-//! drift) and the verdict is "unstable": the stock diverges although the price is pinned.
+//! Verdict: spectral radius ρ < 1 − tol stable, |ρ − 1| ≤ tol neutral, ρ > 1 + tol unstable, with
+//! tol = [`eigen::NEUTRAL_TOLERANCE`] (1e-9) widened by the Jacobian's error estimate when that is
+//! larger ([`eigen::tolerance_for`]; the analytic Jacobians used here are exact to rounding). When
+//! the holding regime has no steady state with finite stock (a purchase floor above the free
+//! market's steady state, no losses, no capacity limit), that regime has no eigenvalues, its
+//! spectral radius is reported as 1 (the stock's unit root) and the verdict is "neutral", as for any
+//! unit root: the price is pinned while the stock drifts upward without end (the report says "no
+//! steady state with finite stock"). A regime whose steady state would need a market price ≤ 0 has
+//! no steady state at all: that is an error, never a verdict.
 
 pub mod conditions;
 pub mod eigen;
@@ -77,8 +81,11 @@ pub struct Regime {
     pub holds_steady_state: bool,
     /// Producer price at which this regime is linearised.
     pub at_price: f64,
-    /// "analytic" (linear curves) or "numerical" (central differences).
+    /// "analytic" (closed-form curve derivatives) or "none" (no eigenvalues computed).
     pub jacobian: &'static str,
+    /// The neutral band |ρ − 1| ≤ tolerance used for the verdict (1e-9, or wider when the
+    /// Jacobian's error estimate calls for it).
+    pub tolerance: f64,
     /// Eigenvalue of the agency's stock, which does not feed back on prices (not in the verdict).
     pub stock_eigenvalue: Option<f64>,
     /// Explanation of the regime.
@@ -130,6 +137,28 @@ pub enum StabilityError {
         /// Why.
         reason: String,
     },
+}
+
+impl StabilityError {
+    /// The regime the error is about.
+    pub fn regime(&self) -> &str {
+        match self {
+            StabilityError::Linearisation { regime, .. }
+            | StabilityError::NoSteadyState { regime, .. } => regime,
+        }
+    }
+
+    /// The file to blame: the policy file when the regime is one the policy creates or the policy
+    /// sets the expectation rule, the market file otherwise.
+    pub fn blame<'a>(&self, scenario: &'a Scenario, policy: &'a PolicySpec) -> &'a str {
+        let policy_made = !policy.source.is_empty()
+            && (policy.expectations.is_some() || !self.regime().starts_with("free market"));
+        if policy_made {
+            &policy.source
+        } else {
+            &scenario.source
+        }
+    }
 }
 
 /// Analyses `scenario` under `policy`.
@@ -189,23 +218,27 @@ fn regime_at(
     // the free regime's fixed point is the free market's steady state (solved in closed form for
     // linear curves); an announced floor applies to it only when it lies below that price
     let at_rest = (case.clearing == Clearing::Free { offtake: 0.0 }).then_some(guess);
-    let p = at_rest.or_else(|| map.fixed_point(guess)).ok_or_else(|| {
-        StabilityError::NoSteadyState {
+    let p = at_rest
+        .or_else(|| map.fixed_point(guess))
+        .filter(|p| p.is_finite() && *p > 0.0)
+        .ok_or_else(|| StabilityError::NoSteadyState {
             regime: case.name.clone(),
             reason: "the regime's map has no positive fixed point".into(),
-        }
-    })?;
-    let linear = setup.demand.is_linear() && setup.supply.is_linear();
+        })?;
     let rational = matches!(setup.rule, ExpectationSpec::Rational);
-    let (eigenvalues, jacobian) = if !case.finite {
-        (Vec::new(), "none")
+    // both curve forms have closed-form derivatives: the Jacobian is analytic for every market
+    let (eigenvalues, jacobian, tolerance) = if !case.finite {
+        (Vec::new(), "none", eigen::NEUTRAL_TOLERANCE)
     } else if rational {
-        (vec![Eigenvalue { re: 0.0, im: 0.0 }], "none")
-    } else if linear {
-        (eigen::eigenvalues(&map.analytic_jacobian(p)), "analytic")
+        (
+            vec![Eigenvalue { re: 0.0, im: 0.0 }],
+            "none",
+            eigen::NEUTRAL_TOLERANCE,
+        )
     } else {
-        let x = map.rest_state(p);
-        (eigen::eigenvalues(&map.numerical_jacobian(&x)), "numerical")
+        let j = map.analytic_jacobian(p);
+        let tol = eigen::tolerance_for(&j, eigen::analytic_error(&j));
+        (eigen::eigenvalues(&j), "analytic", tol)
     };
     if eigenvalues
         .iter()
@@ -224,13 +257,10 @@ fn regime_at(
     } else {
         1.0
     };
-    let verdict = if case.finite {
-        eigen::verdict(rho)
-    } else {
-        Verdict::Unstable
-    };
+    // no steady state with finite stock: the stock's unit root, neutral like any unit root
+    let verdict = eigen::verdict_within(rho, tolerance);
     let (oscillating, period, half_life) = if case.finite {
-        eigen::read_off(&eigenvalues)
+        eigen::read_off_within(&eigenvalues, tolerance)
     } else {
         (false, None, None)
     };
@@ -245,6 +275,7 @@ fn regime_at(
         holds_steady_state: case.holds,
         at_price: p,
         jacobian,
+        tolerance,
         stock_eigenvalue: case.stock_eigenvalue,
         note: case.note.clone(),
     })
@@ -277,6 +308,17 @@ pub fn analyse_setup(setup: &Setup, unit: &str) -> Result<StabilityReport, Stabi
                 _ => p,
             },
         };
+        if !(market.is_finite() && market > 0.0 && harvest.is_finite() && harvest > 0.0) {
+            return Err(StabilityError::NoSteadyState {
+                regime: hold.name.clone(),
+                reason: format!(
+                    "the market price at the steady harvest {} would be {}: demand cannot absorb \
+                     that harvest at a positive price",
+                    crate::scenario::ranges::short_num(harvest),
+                    crate::scenario::ranges::short_num(market)
+                ),
+            });
+        }
         (
             pp,
             planting,

@@ -1,6 +1,8 @@
 //! Each expectation rule's dynamics as a state-space map x_{t+1} = F(x_t), its fixed point, and its
-//! Jacobian there: analytic (companion form) for linear curves, numerical (central differences with
-//! Richardson extrapolation) otherwise.
+//! Jacobian there: analytic (companion form of the rule's weights times the clearing slope
+//! S'(P^e)/D'(P), closed form for linear and constant-elasticity curves alike); the numerical one
+//! (central differences with Richardson extrapolation) serves the Lyapunov estimate along orbits and
+//! the tests.
 //!
 //! State per rule (newest first): naive, fixed normal price and rational: [P_{t−1}]; adaptive:
 //! [P^e_t]; extrapolative: [P_{t−1}, P_{t−2}]; trailing mean and normal price over a window k: the k
@@ -71,11 +73,15 @@ impl Clearing {
     }
 
     /// d(producer price)/d(planting price), analytically: S'(P^e)/D'(P) in the free regime, 0 pinned.
+    /// Both curves have closed-form derivatives (linear: the slope; constant elasticity: e·Q/P),
+    /// taken at the cleared quantity itself (no round trip through the inverse curve).
     pub fn slope(&self, setup: &Setup, planting: f64) -> f64 {
         match *self {
-            Clearing::Free { .. } => {
-                let p = self.producer_price(setup, planting);
-                setup.supply.slope_at(planting) / setup.demand.slope_at(p)
+            Clearing::Free { offtake } => {
+                let q = setup.supply.quantity(planting);
+                let p = setup.demand.price_at(q - offtake);
+                setup.supply.slope_at_point(planting, q)
+                    / setup.demand.slope_at_point(p, q - offtake)
             }
             Clearing::Pinned(_) => 0.0,
         }

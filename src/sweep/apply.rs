@@ -12,9 +12,10 @@
 //! state is re-solved at every point). Two keys in the same section are validated together at every
 //! point (slower).
 
+use crate::scenario::ranges::short_num;
 use crate::scenario::{
-    apply_override, market_from_table, policy_from_table, ExpectationSpec, InputError, PolicySpec,
-    Scenario,
+    apply_override, market_from_table, policy_for_market, policy_from_table, ExpectationSpec,
+    InputError, PolicySpec, Scenario,
 };
 use crate::stability::Setup;
 
@@ -105,14 +106,14 @@ impl Base {
             apply_override(table, key, value).map_err(|reason| InputError::BadValue {
                 file: file.clone(),
                 key: key.to_string(),
-                value: v.to_string(),
+                value: short_num(*v),
                 expected: reason,
             })?;
         }
-        Ok((
-            market_from_table(&self.market_file, market)?,
-            policy_from_table(&self.policy_file, policy)?,
-        ))
+        let scenario = market_from_table(&self.market_file, market)?;
+        let policy = policy_from_table(&self.policy_file, policy)?;
+        policy_for_market(&scenario, &policy)?;
+        Ok((scenario, policy))
     }
 }
 
@@ -126,7 +127,7 @@ fn value_for(key: &str, v: f64, file: &str) -> Result<toml::Value, InputError> {
             return Err(InputError::BadValue {
                 file: file.into(),
                 key: key.into(),
-                value: v.to_string(),
+                value: short_num(v),
                 expected: "must be a whole number (choose FROM, TO and STEPS so that every grid value is whole)".into(),
             });
         }

@@ -11,7 +11,9 @@
 //! tangent space is the rule's price/expectation state; the agency's stock is taken along the orbit
 //! as given (it does not feed back on prices inside a regime). A season with a pinned price in the
 //! first half (a floor that binds once in the transient) restarts the tangent vector; one in the
-//! second half makes the exponent −∞ ("superstable", no number).
+//! second half makes the exponent −∞ ("superstable", no number). A run that diverges is cut where
+//! it does: its last prices and the exponent over the seasons before are still reported (orbit
+//! `diverged`), so an unstable market shows its spread and a positive exponent.
 
 use crate::engine::{Model, PeriodShock};
 use crate::expectations::ExpectationInput;
@@ -46,8 +48,11 @@ impl Orbit {
 /// The long-run result at one grid value.
 #[derive(Debug, Clone, PartialEq)]
 pub struct LongRun {
-    /// The last N market prices (empty when the run diverged).
+    /// The last N market prices (before the divergence when the run diverged; empty when it
+    /// diverged in its first period).
     pub prices: Vec<f64>,
+    /// The period of `prices[0]`.
+    pub first_period: usize,
     /// Largest Lyapunov exponent (per period), when it could be estimated.
     pub lyapunov: Option<f64>,
     /// What happened.
@@ -112,6 +117,9 @@ fn initial_state(model: &Model, spec: &ExpectationSpec, dim: usize) -> Vec<f64> 
 }
 
 /// Largest Lyapunov exponent along the orbit from the model's initial state, over `periods`.
+/// An orbit that leaves the model's region (a price ≤ 0 or above the divergence bound) ends there:
+/// the exponent is then estimated over the seasons before, by the same rule (the second half of
+/// them), and reported with [`Orbit::Diverged`]; none when fewer than two seasons were completed.
 pub fn lyapunov(scenario: &Scenario, policy: &PolicySpec, periods: usize) -> (Option<f64>, Orbit) {
     let spec = policy.expectations.unwrap_or(scenario.expectations);
     if spec == ExpectationSpec::Rational {
@@ -128,10 +136,10 @@ pub fn lyapunov(scenario: &Scenario, policy: &PolicySpec, periods: usize) -> (Op
     let mut stock = model.policy.agency.initial;
     let mut v = vec![1.0 / (n as f64).sqrt(); n];
     let mut next = vec![0.0; n];
-    // average over the second half, an even number of steps (no bias on a 2-cycle)
-    let start = periods / 2 + (periods - periods / 2) % 2;
-    let mut sum = 0.0;
-    for t in 0..periods {
+    // ln of the tangent vector's growth each season (None: a pinned season, the vector restarts)
+    let mut growth: Vec<Option<f64>> = Vec::with_capacity(periods);
+    let mut diverged = false;
+    for _ in 0..periods {
         let s = stock;
         let j = numerical_jacobian(
             |a, b| {
@@ -142,18 +150,15 @@ pub fn lyapunov(scenario: &Scenario, policy: &PolicySpec, periods: usize) -> (Op
         let w = &j * nalgebra::DVector::from_column_slice(&v);
         let norm = w.norm();
         if !norm.is_finite() {
-            return (None, Orbit::Diverged);
+            diverged = true;
+            break;
         }
         if norm < 1e-300 {
-            if t >= start {
-                return (None, Orbit::Superstable);
-            }
-            // a pinned season in the transient: start the tangent vector afresh
+            // a pinned season: start the tangent vector afresh
+            growth.push(None);
             v.iter_mut().for_each(|x| *x = 1.0 / (n as f64).sqrt());
         } else {
-            if t >= start {
-                sum += norm.ln();
-            }
+            growth.push(Some(norm.ln()));
             for i in 0..n {
                 v[i] = w[i] / norm;
             }
@@ -163,40 +168,59 @@ pub fn lyapunov(scenario: &Scenario, policy: &PolicySpec, periods: usize) -> (Op
             .iter()
             .all(|p| p.is_finite() && *p > 0.0 && *p <= model.price_bound)
         {
-            return (None, Orbit::Diverged);
+            diverged = true;
+            break;
         }
         x.copy_from_slice(&next);
     }
-    let count = (periods - start).max(1);
-    (Some(sum / count as f64), Orbit::Ok)
+    // average over the second half, an even number of steps (no bias on a 2-cycle)
+    let done = growth.len();
+    let start = done / 2 + (done - done / 2) % 2;
+    let tail = &growth[start.min(done)..];
+    let orbit = if diverged { Orbit::Diverged } else { Orbit::Ok };
+    if tail.is_empty() || (diverged && done < 2) {
+        return (None, orbit);
+    }
+    if tail.iter().any(Option::is_none) {
+        // a pinned price in the second half: the exponent is −∞
+        return (None, if diverged { orbit } else { Orbit::Superstable });
+    }
+    let sum: f64 = tail.iter().flatten().sum();
+    (Some(sum / tail.len() as f64), orbit)
 }
 
 /// Simulates `periods` periods without shocks and keeps the last `keep` market prices; estimates the
-/// largest Lyapunov exponent along the same orbit.
+/// largest Lyapunov exponent along the same orbit. A run that diverges keeps the last `keep` prices
+/// before it did, and the exponent over those seasons (an unstable market shows a positive one).
 pub fn long_run(scenario: &Scenario, policy: &PolicySpec, periods: usize, keep: usize) -> LongRun {
     let model = Model::new(scenario, policy);
     let mut sim = model.simulator();
-    let mut prices = Vec::with_capacity(keep);
-    for t in 1..=periods {
+    let mut prices = std::collections::VecDeque::with_capacity(keep.min(periods));
+    let mut completed = 0;
+    let mut diverged = false;
+    for _ in 1..=periods {
         match sim.step(&PeriodShock::NONE) {
             Ok(r) => {
-                if t + keep > periods {
-                    prices.push(r.price);
+                if keep > 0 {
+                    if prices.len() == keep {
+                        prices.pop_front();
+                    }
+                    prices.push_back(r.price);
                 }
+                completed += 1;
             }
             Err(_) => {
-                return LongRun {
-                    prices: Vec::new(),
-                    lyapunov: None,
-                    orbit: Orbit::Diverged,
-                }
+                diverged = true;
+                break;
             }
         }
     }
-    let (lyapunov, orbit) = lyapunov(scenario, policy, periods);
+    let (lyapunov, orbit) = lyapunov(scenario, policy, completed);
+    let prices: Vec<f64> = prices.into();
     LongRun {
+        first_period: completed + 1 - prices.len(),
         prices,
         lyapunov,
-        orbit,
+        orbit: if diverged { Orbit::Diverged } else { orbit },
     }
 }

@@ -73,9 +73,27 @@ pub const MAX_POINTS: usize = 4_000_000;
 /// Most long-run rows (kept prices × grid values) in one sweep.
 pub const MAX_LONG_RUN_ROWS: usize = 10_000_000;
 
-/// Displacement of the starting price from the steady state when the market file gives none
-/// (a run started at rest would stay there and show nothing).
-pub const START_DISPLACEMENT: f64 = 1.05;
+/// Relative displacement of the starting price from the steady state P* for a long run that would
+/// otherwise start at rest — the market file gives no `initial_price`/`price_history`, or gives
+/// P* itself (within 1e-9 relative): such a run starts from P*·(1 + 1e-3), since a run at rest
+/// would stay there and show an unstable market as settled.
+pub const REST_PERTURBATION: f64 = 1e-3;
+
+/// True when every starting price (and an adaptive rule's initial expectation) is the steady-state
+/// price `p_star` within 1e-9 relative.
+fn starts_at_rest(s: &crate::scenario::Scenario, policy: &crate::scenario::PolicySpec) -> bool {
+    let p_star = s.steady.price;
+    let at = |p: f64| (p - p_star).abs() <= 1e-9 * p_star;
+    let rule = policy.expectations.unwrap_or(s.expectations);
+    let expectation_at_rest = match rule {
+        crate::scenario::ExpectationSpec::Adaptive {
+            initial_expected_price: Some(e),
+            ..
+        } => at(e),
+        _ => true,
+    };
+    s.run.price_history.iter().all(|p| at(*p)) && expectation_at_rest
+}
 
 fn is_key_error(e: &InputError) -> bool {
     matches!(e, InputError::UnknownKey { .. } | InputError::Syntax { .. })
@@ -171,10 +189,17 @@ pub fn sweep(
                     let outcome = analyse(&stability::Setup::new(s, p));
                     let long_run = long_run.map(|lr| {
                         let mut s = s.clone();
-                        if !base.has_initial_price() {
-                            let p0 = s.steady.price * START_DISPLACEMENT;
+                        if !base.has_initial_price() || starts_at_rest(&s, p) {
+                            let p0 = s.steady.price * (1.0 + REST_PERTURBATION);
                             s.run.initial_price = p0;
                             s.run.price_history = vec![p0];
+                            if let crate::scenario::ExpectationSpec::Adaptive {
+                                initial_expected_price,
+                                ..
+                            } = &mut s.expectations
+                            {
+                                *initial_expected_price = None;
+                            }
                         }
                         longrun::long_run(&s, p, lr.periods, lr.keep)
                     });
