@@ -85,7 +85,7 @@ impl PrivateSolution {
         let price = self.rule.price(m, z);
         let x = self.rule.stock(m, z);
         let q = self.planted_at(x);
-        let (psi, _) = expected_next(m, m.keep * x, q, &|v| self.rule.eval(m, v));
+        let (psi, _) = expected_next(m, m.keep * x, q, &self.rule, &self.breaks);
         if price <= 0.0 {
             return 0.0;
         }

@@ -97,7 +97,7 @@ impl Equilibrium {
         let m = self.market();
         match self {
             Equilibrium::Private(s) => {
-                super::solve::expected_producer(m, m.keep * x, q, &|z| s.rule.eval(m, z)).0
+                super::solve::expected_producer(m, m.keep * x, q, &s.rule, &s.breaks).0
             }
             Equilibrium::Public(s) => s.expected_producer(x, public, q),
         }
@@ -116,25 +116,28 @@ impl Equilibrium {
     }
 
     /// Planting for next season and the expected price it is planted on, after a period that
-    /// cleared at `price` with `x` private and `public` public units carried out. With a public stock
-    /// and no planting floor the expectation is read off the storers' arbitrage condition instead of
+    /// cleared at `price` with `x` private and `public` public units carried out. Without a planting
+    /// floor the expectation is read off the storers' arbitrage condition instead of
     /// being integrated again: the solved rules satisfy β·E[P'] − k = P wherever private stock is
     /// carried, and β·E[P' | x = 0] − k = the stockout price at the public stock carried where none is
     /// (the endogenous grid's own relation), so E[P'] = (P + k)/β up to the equilibrium's Euler
     /// residual, and planting is S(E[P']). Otherwise as [`Self::plant_and_expect`].
     pub fn plant_after(&self, price: f64, x: f64, public: f64) -> (f64, f64) {
-        if let Equilibrium::Public(s) = self {
-            let m = &s.market;
-            if m.planting_floor <= 0.0 {
-                let at = if x > 1e-9 * m.q_star {
-                    Some(price)
-                } else {
-                    super::blend::stockout_price(&s.publics, &s.rows, public)
-                };
-                if let Some(p) = at {
-                    let expected = (p + m.cost) / m.discount;
-                    return (m.supply_at(expected).0, expected);
+        let m = self.market();
+        if m.planting_floor <= 0.0 {
+            let at = if x > 1e-9 * m.q_star {
+                Some(price)
+            } else {
+                match self {
+                    Equilibrium::Private(s) => s.rule.spline.as_ref().map(|_| s.stockout_price()),
+                    Equilibrium::Public(s) => {
+                        super::blend::stockout_price(&s.publics, &s.rows, public)
+                    }
                 }
+            };
+            if let Some(p) = at {
+                let expected = (p + m.cost) / m.discount;
+                return (m.supply_at(expected).0, expected);
             }
         }
         self.plant_and_expect(x, public)
