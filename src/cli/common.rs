@@ -39,6 +39,7 @@ pub fn exit_code(err: &anyhow::Error) -> u8 {
     if err.chain().any(|e| {
         e.downcast_ref::<furrow::engine::Diverged>().is_some()
             || e.downcast_ref::<RunFailed>().is_some()
+            || furrow::storage::run_failure(e)
     }) {
         1
     } else {

@@ -25,6 +25,11 @@ pub struct StorageArgs {
     /// Gauss–Hermite nodes per shock.
     #[arg(long, default_value_t = 10)]
     pub nodes: usize,
+    /// Convergence tolerance: largest change of the price rule between iterations, relative to the
+    /// steady-state price. However loose, the solve fails (exit 1) if its Euler residual ends above
+    /// 1e-6.
+    #[arg(long, default_value_t = 1e-9)]
+    pub tolerance: f64,
     /// Rows of the printed grid of availability.
     #[arg(long, default_value_t = 21)]
     pub rows: usize,
@@ -46,6 +51,7 @@ pub fn execute(args: &StorageArgs) -> anyhow::Result<()> {
         grid_2d: args.grid.unwrap_or(d.grid_2d),
         public_grid: args.public_grid,
         nodes: args.nodes,
+        tolerance: args.tolerance,
         ..d
     };
     if args.path {

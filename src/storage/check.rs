@@ -42,9 +42,6 @@ impl PrivateSolution {
             }
             hi = next;
         }
-        if let Some(s) = &self.rule.spline {
-            hi = hi.min(*s.knots().last().unwrap_or(&hi));
-        }
         let mut lo = lo;
         if hi - lo < 0.05 * m.q_star {
             lo = lo.min(0.9 * m.q_star);

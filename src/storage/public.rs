@@ -68,6 +68,8 @@ pub struct PublicSolution {
     pub iterations: usize,
     /// Last change of the rules (relative to P*).
     pub change: f64,
+    /// Largest Euler residual over the checked range, once measured (NaN before).
+    pub residual: f64,
 }
 
 pub(crate) use super::blend::row_price;

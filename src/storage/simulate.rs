@@ -61,11 +61,57 @@ impl Equilibrium {
         }
     }
 
-    /// Largest arbitrage residual on the default test grid.
+    /// Largest arbitrage residual on the test grid (as measured by [`Self::measure_residual`] when
+    /// the equilibrium was solved; on the default test grid otherwise).
     pub fn euler_residual_max(&self) -> f64 {
         match self {
+            Equilibrium::Private(s) if s.residual.is_finite() => s.residual,
+            Equilibrium::Public(s) if s.residual.is_finite() => s.residual,
             Equilibrium::Private(s) => s.euler_residual_max(2001),
             Equilibrium::Public(s) => s.euler_residual_max(201, 9),
+        }
+    }
+
+    /// Measures the largest arbitrage residual on `points` test points (one state; two states:
+    /// `points`/10 + 1 availabilities × 9 public stocks), keeps it and returns it.
+    pub fn measure_residual(&mut self, points: usize) -> f64 {
+        match self {
+            Equilibrium::Private(s) => {
+                s.residual = s.euler_residual_max(points);
+                s.residual
+            }
+            Equilibrium::Public(s) => {
+                s.residual = s.euler_residual_max(points / 10 + 1, 9);
+                s.residual
+            }
+        }
+    }
+
+    /// Points of the residual test grid for `points` requested ([`Self::measure_residual`]).
+    pub fn test_points(&self, points: usize) -> usize {
+        match self {
+            Equilibrium::Private(_) => points,
+            Equilibrium::Public(_) => (points / 10 + 1) * 9,
+        }
+    }
+
+    /// Largest private stock carried out that the solved grid holds (beyond it the rules are
+    /// extrapolated).
+    pub fn stock_top(&self) -> f64 {
+        match self {
+            Equilibrium::Private(s) => match &s.rule.spline {
+                Some(sp) => s.stocks[(sp.knots().len() - 1).min(s.stocks.len() - 1)],
+                None => *s.stocks.last().unwrap_or(&0.0),
+            },
+            Equilibrium::Public(s) => *s.stocks.last().unwrap_or(&0.0),
+        }
+    }
+
+    /// Private stock carried out at the upper end of the range the residual is checked on.
+    pub fn range_stock(&self) -> f64 {
+        match self {
+            Equilibrium::Private(s) => s.rule.stock(&s.market, s.range().1),
+            Equilibrium::Public(s) => s.clear(s.range().1, 0.0).private_stock,
         }
     }
 

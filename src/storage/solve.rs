@@ -227,6 +227,8 @@ pub struct SolveOptions {
     pub grid_2d: usize,
     /// Points of the public-stock grid of the two-state solve.
     pub public_grid: usize,
+    /// Largest private stock of the first grid (None: [`first_stock_bound`]).
+    pub stock_bound: Option<f64>,
 }
 
 impl Default for SolveOptions {
@@ -239,6 +241,7 @@ impl Default for SolveOptions {
             test_points: 2001,
             grid_2d: 150,
             public_grid: 16,
+            stock_bound: None,
         }
     }
 }
@@ -260,6 +263,8 @@ pub struct PrivateSolution {
     pub change: f64,
     /// The rule's breakpoints ([`rule_breaks`]) the expectations are split at.
     pub breaks: Vec<f64>,
+    /// Largest Euler residual over the checked range, once measured (NaN before).
+    pub residual: f64,
 }
 
 impl PrivateSolution {
@@ -284,15 +289,53 @@ impl PrivateSolution {
     }
 }
 
+/// The largest private stock of the first grid: ten harvest standard deviations, at most Q*, and at
+/// least 0.1·Q* (with tiny risk the rule must still reach past the stockout point the paths and the
+/// residual check visit; the grid is extended later where long paths go further, [`extend`]).
+pub fn first_stock_bound(m: &StorageMarket) -> f64 {
+    (10.0 * m.harvest_sd).min(m.q_star).max(0.1 * m.q_star)
+}
+
+/// `stocks` continued past its end up to `x_max` with the spacing of its last interval; `planted`
+/// continued with its last value (Newton's starting guesses).
+pub fn continue_grid(stocks: &[f64], planted: &[f64], x_max: f64) -> (Vec<f64>, Vec<f64>) {
+    let n = stocks.len();
+    let last = stocks[n - 1];
+    let h = (last - stocks[n - 2]).max(1e-9 * x_max.abs().max(1.0));
+    let extra = ((x_max - last) / h).ceil().max(0.0) as usize;
+    let step = if extra > 0 {
+        (x_max - last) / extra as f64
+    } else {
+        h
+    };
+    let mut s = stocks.to_vec();
+    let mut q = planted.to_vec();
+    for i in 1..=extra {
+        s.push(last + step * i as f64);
+        q.push(planted[n - 1]);
+    }
+    (s, q)
+}
+
+/// Extends the stock grid of a solution up to `x_max` (long paths carry more than the grid held)
+/// and solves again from the current rule.
+pub fn extend(
+    sol: PrivateSolution,
+    x_max: f64,
+    o: &SolveOptions,
+) -> Result<PrivateSolution, StorageError> {
+    let (stocks, planted) = continue_grid(&sol.stocks, &sol.planted, x_max);
+    let total = sol.iterations;
+    let mut out = iterate(sol.market, stocks, planted, sol.rule, o)?;
+    out.iterations += total;
+    Ok(out)
+}
+
 /// Solves the private-storage equilibrium by the endogenous grid method on `o.grid` points of private
 /// stock, spaced quadratically (dense near zero stock, where the price rule bends most).
 pub fn solve_private(m: StorageMarket, o: &SolveOptions) -> Result<PrivateSolution, StorageError> {
     let n = o.grid.max(8);
-    let x_max = if m.harvest_sd > 0.0 {
-        (10.0 * m.harvest_sd).min(m.q_star)
-    } else {
-        0.1 * m.q_star
-    };
+    let x_max = first_stock_bound(&m);
     let stocks: Vec<f64> = (0..n)
         .map(|j| x_max * (j as f64 / (n - 1) as f64).powi(2))
         .collect();
@@ -411,6 +454,7 @@ fn iterate(
                 iterations: it,
                 change,
                 breaks,
+                residual: f64::NAN,
             });
         }
     }
