@@ -206,7 +206,7 @@ pub fn solve(
     };
     let mut eq = cover_paths(eq, scenario, initial, options)?;
     let residual = eq.measure_residual(options.test_points);
-    if !(residual <= RESIDUAL_LIMIT) {
+    if residual.is_nan() || residual > RESIDUAL_LIMIT {
         return Err(StorageError::Inaccurate {
             residual,
             iterations: eq.iterations(),
