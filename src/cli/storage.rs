@@ -22,7 +22,10 @@ pub struct StorageArgs {
     /// Points of the public-stock grid (only with a policy that holds stock).
     #[arg(long, default_value_t = 16)]
     pub public_grid: usize,
-    /// Gauss–Hermite nodes per shock.
+    /// Gauss–Hermite nodes over the yield factor, used only when the market also has an additive
+    /// shock (supply_sd or demand_sd): the continuous shock (the additive one, or the yield factor
+    /// alone) is integrated exactly between the breakpoints of next season's price, so more nodes do
+    /// not change the result otherwise.
     #[arg(long, default_value_t = 10)]
     pub nodes: usize,
     /// Convergence tolerance: largest change of the price rule between iterations, relative to the

@@ -252,6 +252,7 @@ fn iterate(
                 iterations: it,
                 change,
                 residual: f64::NAN,
+                reach: None,
             });
         }
     }
