@@ -61,7 +61,9 @@ pub fn execute(args: &CheckArgs) -> anyhow::Result<()> {
                         scenario::ReleaseSpec::Band => "band".to_string(),
                         scenario::ReleaseSpec::Target { target, speed } =>
                             format!("target {target} at speed {speed}"),
-                        scenario::ReleaseSpec::Share { share } => format!("share {share}"),
+                        scenario::ReleaseSpec::Share { share } =>
+                            format!("drawdown, share {share}"),
+                        scenario::ReleaseSpec::Rotate { share } => format!("rotate, share {share}"),
                     }
                 ));
             }

@@ -451,14 +451,15 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
         None => 42,
     };
     let discount_rate = c.rate("run.discount_rate", r.discount_rate.unwrap_or(0.05))?;
-    let terminal_stock = match r.terminal_stock.as_deref().unwrap_or("market") {
+    let terminal_stock = match r.terminal_stock.as_deref().unwrap_or("disposal") {
+        "disposal" => TerminalStock::Disposal,
         "market" => TerminalStock::Market,
         "zero" => TerminalStock::Zero,
         other => {
             return Err(c.bad(
                 "run.terminal_stock",
                 format!("\"{other}\""),
-                "allowed: \"market\", \"zero\"",
+                "allowed: \"disposal\" (default), \"market\", \"zero\"",
             ))
         }
     };
@@ -470,6 +471,34 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
         false,
         false,
     )?;
+    let opening_stock = match r.opening_stock.as_deref().unwrap_or("charged") {
+        "charged" => OpeningStock::Charged,
+        "free" => OpeningStock::Free,
+        other => {
+            return Err(c.bad(
+                "run.opening_stock",
+                format!("\"{other}\""),
+                "allowed: \"charged\" (default), \"free\"",
+            ))
+        }
+    };
+    let public_funds_cost = c.range(
+        "run.public_funds_cost",
+        r.public_funds_cost.unwrap_or(1.0),
+        1.0,
+        3.0,
+        false,
+        false,
+    )?;
+    let crop_income_share = c.range(
+        "run.crop_income_share",
+        r.crop_income_share.unwrap_or(1.0),
+        0.0,
+        1.0,
+        true,
+        false,
+    )?;
+    let alert_prices = alert_prices(&c, r.alert_price.as_ref())?;
     let s = &raw.shocks;
     let shocks = ShockSpec {
         yield_cv: c.range(
@@ -522,11 +551,43 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
             discount_rate,
             terminal_stock,
             risk_aversion,
+            opening_stock,
+            public_funds_cost,
+            crop_income_share,
+            alert_prices,
         },
         shocks,
         storers,
         steady,
     })
+}
+
+/// `[run] alert_price`: one price or a list of at most [`MAX_ALERTS`], each > 0.
+fn alert_prices(c: &Check, v: Option<&toml::Value>) -> Result<Vec<f64>, InputError> {
+    let Some(v) = v else {
+        return Ok(Vec::new());
+    };
+    let number = |x: &toml::Value| x.as_float().or_else(|| x.as_integer().map(|i| i as f64));
+    let values: Vec<f64> = match v.as_array() {
+        Some(a) => a.iter().filter_map(number).collect(),
+        None => number(v).into_iter().collect(),
+    };
+    if values.is_empty() || values.len() > MAX_ALERTS {
+        return Err(c.bad(
+            "run.alert_price",
+            values.len(),
+            &format!("give one price or a list of 1 to {MAX_ALERTS} prices"),
+        ));
+    }
+    for (i, p) in values.iter().enumerate() {
+        let key = if v.is_array() {
+            format!("run.alert_price[{i}]")
+        } else {
+            "run.alert_price".to_string()
+        };
+        c.range(&key, *p, 0.0, 1e12, true, false)?;
+    }
+    Ok(values)
 }
 
 /// Validates a parsed policy file.
@@ -607,19 +668,26 @@ pub fn policy_from_table(file: &str, table: toml::Table) -> Result<PolicySpec, I
                         c.range("stock.speed", s.speed.unwrap_or(1.0), 0.0, 1.0, true, false)?;
                     ReleaseSpec::Target { target, speed }
                 }
-                "share" => {
+                // "share" is the old name of "drawdown", kept as an alias
+                word @ ("drawdown" | "share" | "rotate") => {
                     let share = s.share.ok_or_else(|| {
-                        c.missing("stock.share", "release = \"share\" needs share in (0, 1]")
+                        c.missing(
+                            "stock.share",
+                            &format!("release = \"{word}\" needs share in (0, 1]"),
+                        )
                     })?;
-                    ReleaseSpec::Share {
-                        share: c.range("stock.share", share, 0.0, 1.0, true, false)?,
+                    let share = c.range("stock.share", share, 0.0, 1.0, true, false)?;
+                    if word == "rotate" {
+                        ReleaseSpec::Rotate { share }
+                    } else {
+                        ReleaseSpec::Share { share }
                     }
                 }
                 other => {
                     return Err(c.bad(
                         "stock.release",
                         format!("\"{other}\""),
-                        "allowed release rules: \"band\", \"target\", \"share\"",
+                        "allowed release rules: \"band\", \"target\", \"drawdown\" (alias \"share\"), \"rotate\"",
                     ))
                 }
             };
@@ -641,7 +709,10 @@ pub fn policy_from_table(file: &str, table: toml::Table) -> Result<PolicySpec, I
                 release_key_unused("target", s.target.is_some())?;
                 release_key_unused("speed", s.speed.is_some())?;
             }
-            if !matches!(release, ReleaseSpec::Share { .. }) {
+            if !matches!(
+                release,
+                ReleaseSpec::Share { .. } | ReleaseSpec::Rotate { .. }
+            ) {
                 release_key_unused("share", s.share.is_some())?;
             }
             Some(StockSpec {
@@ -679,5 +750,10 @@ pub fn policy_from_table(file: &str, table: toml::Table) -> Result<PolicySpec, I
         floor,
         stock,
         expectations,
+        annual_budget: raw
+            .policy
+            .annual_budget
+            .map(|b| c.positive("policy.annual_budget", b))
+            .transpose()?,
     })
 }
