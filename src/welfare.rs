@@ -15,8 +15,8 @@
 //! - financing: discounting at r already prices the capital tied up in stock, so present values
 //!   count interest only as the spread (financing_rate − r)·value of stock when positive; the
 //!   per-season cash outlay (the record) shows the interest paid in full;
-//! - net welfare = CS + PS − λ·(fiscal + opening − terminal), λ = `[run] public_funds_cost` (the
-//!   marginal cost of public funds, Alston and Hurd 1990).
+//! - net welfare = CS + PS − λ·(fiscal − terminal), fiscal including the opening purchase,
+//!   λ = `[run] public_funds_cost` (the marginal cost of public funds, Alston and Hurd 1990).
 //!
 //! The module knows nothing of files or the terminal; it folds [`PeriodRecord`]s.
 
@@ -137,7 +137,8 @@ pub struct WelfarePv {
     pub consumer_surplus: f64,
     /// Producer surplus.
     pub producer_surplus: f64,
-    /// Fiscal cost (all parts; interest only as its spread over the discount rate).
+    /// Fiscal cost (all parts, the opening stock's purchase included; interest only as its spread
+    /// over the discount rate).
     pub fiscal_cost: f64,
     /// P_t · X_t.
     pub purchase_cost: f64,
@@ -158,12 +159,12 @@ pub struct WelfarePv {
 }
 
 impl WelfarePv {
-    /// The treasury's net burden: fiscal cost + opening stock − terminal stock value.
+    /// The treasury's net burden: fiscal cost (opening stock included) − terminal stock value.
     pub fn net_fiscal(&self) -> f64 {
-        self.fiscal_cost + self.opening_stock_cost - self.terminal_stock_value
+        self.fiscal_cost - self.terminal_stock_value
     }
 
-    /// Consumer + producer surplus − λ·(fiscal cost + opening stock − terminal stock value), the
+    /// Consumer + producer surplus − λ·(fiscal cost − terminal stock value), the
     /// level whose difference against the market left alone is the net welfare change; λ is the
     /// marginal cost of public funds (1 = none).
     pub fn net(&self, public_funds_cost: f64) -> f64 {
@@ -227,6 +228,7 @@ impl WelfareFold {
     pub fn finish(&self, books: &Books) -> WelfarePv {
         let mut pv = self.pv;
         pv.opening_stock_cost = books.opening_stock_cost;
+        pv.fiscal_cost += books.opening_stock_cost;
         pv.terminal_stock_value =
             books.terminal_value(self.last_stock, self.last_price, self.last_period);
         pv
@@ -274,7 +276,12 @@ pub fn income(revenue: f64, crop_income_share: f64, reference_revenue: f64) -> f
 #[inline]
 pub fn crra_transform(y: f64, scale: f64, relative_risk_aversion: f64) -> f64 {
     let x = (y / scale).max(f64::MIN_POSITIVE);
-    if (relative_risk_aversion - 1.0).abs() < 1e-12 {
+    // the common cases without a power (x¹ and x⁻¹ exactly; the Monte Carlo calls this every period)
+    if relative_risk_aversion == 0.0 {
+        x
+    } else if relative_risk_aversion == 2.0 {
+        1.0 / x
+    } else if (relative_risk_aversion - 1.0).abs() < 1e-12 {
         x.ln()
     } else {
         x.powf(1.0 - relative_risk_aversion)

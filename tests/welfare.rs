@@ -451,7 +451,7 @@ fn financing_at_the_discount_rate_adds_nothing_and_lambda_scales_the_fiscal_term
     // above the discount rate, the spread: 0.03/0.08 of the interest paid
     assert!(n(above, "financing_cost_pv") > 0.0);
     assert!(n(above, "net_welfare_change_pv") < n(none, "net_welfare_change_pv"));
-    // λ = 1.25 (Alston and Hurd 1990): net = ΔCS + ΔPS − λ·Δ(fiscal + opening − terminal)
+    // λ = 1.25 (Alston and Hurd 1990): net = ΔCS + ΔPS − λ·Δ(fiscal − terminal)
     let s2 = market(
         "rule = \"naive\"",
         &format!("{base}\npublic_funds_cost = 1.25"),
@@ -459,8 +459,9 @@ fn financing_at_the_discount_rate_adds_nothing_and_lambda_scales_the_fiscal_term
     );
     let res2 = compare_with(&s2, &[&band(0.0)]);
     let p2 = &res2.policies[0];
-    let fiscal = n(none, "fiscal_cost_pv") + n(none, "opening_stock_cost")
-        - n(none, "terminal_stock_value_pv");
+    // the fiscal cost includes the opening stock bought at P_0 (10 × 92, undiscounted)
+    assert!((n(none, "opening_stock_cost") - 920.0).abs() < 1e-9);
+    let fiscal = n(none, "fiscal_cost_pv") - n(none, "terminal_stock_value_pv");
     let want = n(none, "consumer_surplus_change_pv") + n(none, "producer_surplus_change_pv")
         - 1.25 * fiscal;
     assert!(

@@ -17,10 +17,11 @@
 //!   printed table always shows 0).
 //! - `final_stock`: mean of S_T over replications.
 //! - `*_pv`: mean over replications of the present value Σ_t x_t (1 + r)^−t, financing counted as
-//!   its spread over the discount rate; `opening_stock_cost`: P_0 · initial stock when charged;
+//!   its spread over the discount rate; `opening_stock_cost`: P_0 · initial stock when charged (an
+//!   undiscounted outlay at t = 0, included in `fiscal_cost_pv`);
 //!   `*_change_pv`: the same of (policy − baseline) replication by replication (common random
 //!   numbers); `*_p05/_p50/_p95`: type-7 quantiles of these per-replication values.
-//! - `net_welfare_change_pv` = ΔCS + ΔPS − λ·Δ(fiscal + opening stock − terminal stock value),
+//! - `net_welfare_change_pv` = ΔCS + ΔPS − λ·Δ(fiscal cost − terminal stock value),
 //!   λ = `[run] public_funds_cost` (Alston and Hurd 1990).
 //! - Fiscal risk (cash outlays per season, interest in full, undiscounted): `fiscal_cost_season_mean`,
 //!   `_p95`, `_p99` pooled over seasons and replications (type 7); `worst_season_fiscal_cost_mean`:

@@ -155,7 +155,7 @@ pub struct CompareResult {
     /// against the market left alone under the market's rule (a change in behaviour, not a policy).
     pub behaviour: Vec<PolicyComparison>,
     /// Pairs of policies whose net welfare changes differ by less than two standard errors of the
-    /// paired difference.
+    /// paired difference (or not at all).
     pub close_calls: Vec<CloseCall>,
 }
 
@@ -328,7 +328,8 @@ pub fn compare(
             }
             let (d, se) = indicators::mean_se((0..mc.replications).map(|r| net(i, r) - net(j, r)));
             if let Some(se) = se {
-                if d.abs() < 2.0 * se {
+                // ≤: two files with the same figures (d = se = 0) cannot be told apart either
+                if d.abs() <= 2.0 * se {
                     close_calls.push(CloseCall {
                         first: policies[i].name.clone(),
                         second: policies[j].name.clone(),

@@ -206,7 +206,7 @@ fn footnote(r: &CompareResult) -> String {
     format!(
         "Ranges: 5 % and 95 % quantiles across replications (Hyndman–Fan type 7); ± one Monte Carlo \
          standard error (paired over replications for changes). Net welfare change = Δ consumer surplus \
-         + Δ producer surplus − λ·Δ(fiscal cost + opening stock − value of the stock left at the end), \
+         + Δ producer surplus − λ·Δ(fiscal cost, opening stock included, − value of the stock left at the end), \
          λ = {} (Alston and Hurd 1990); interest counts in present values only above the discount rate. \
          Risk premium: exact CRRA certainty equivalent with R = {}, beside ½·R·CV²·mean income \
          (Newbery and Stiglitz 1981).\n\nCaution: {}",

@@ -177,6 +177,8 @@ pub struct Watch {
     pub annual_budget: f64,
     /// `[run] alert_price` values (∞ in the unused slots).
     pub alerts: [f64; MAX_ALERTS],
+    /// How many alert prices were given.
+    pub alert_count: usize,
     /// Crop share of income α.
     pub crop_income_share: f64,
     /// Relative risk aversion R.
@@ -209,6 +211,7 @@ impl Watch {
                 .map(|s| (s.buy_below, s.sell_above)),
             annual_budget: policy.annual_budget.unwrap_or(f64::INFINITY),
             alerts,
+            alert_count: scenario.run.alert_prices.len().min(MAX_ALERTS),
             crop_income_share: scenario.run.crop_income_share,
             risk_aversion: scenario.run.risk_aversion,
             reference_revenue: scenario.steady.price * scenario.steady.quantity,
@@ -623,7 +626,11 @@ impl Context<'_> {
             peak = peak.max(running);
             out.budget_exceeded_periods +=
                 u32::from(r.fiscal_cost > watch.annual_budget * (1.0 + 1e-12));
-            for (c, a) in out.alert_periods.iter_mut().zip(&watch.alerts) {
+            for (c, a) in out
+                .alert_periods
+                .iter_mut()
+                .zip(&watch.alerts[..watch.alert_count])
+            {
                 *c += u32::from(r.price > *a);
             }
             let cut = r.flags & CUT != 0;

@@ -115,6 +115,19 @@ pub fn assumption_table(
             trim(fmt_num(r.crop_income_share, 6)),
             None,
         ),
+        (
+            "run.alert_price",
+            if r.alert_prices.is_empty() {
+                "none".into()
+            } else {
+                r.alert_prices
+                    .iter()
+                    .map(|p| trim(fmt_num(*p, 6)))
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            },
+            None,
+        ),
         ("shocks.yield_cv", trim(fmt_num(s.yield_cv, 6)), None),
         ("shocks.supply_sd", trim(fmt_num(s.supply_sd, 6)), None),
         ("shocks.demand_sd", trim(fmt_num(s.demand_sd, 6)), None),
@@ -135,6 +148,17 @@ pub fn assumption_table(
             ]);
         }
     }
+    t.push(vec![
+        "interest in present values".into(),
+        "only the spread of financing_rate above run.discount_rate (cash outlays show it in full)"
+            .into(),
+        "furrow convention".into(),
+    ]);
+    t.push(vec![
+        "baselines".into(),
+        "the market left alone under each policy's own expectation rule".into(),
+        "furrow convention".into(),
+    ]);
     t.push(vec![
         "steady state price".into(),
         fmt_num(scenario.steady.price, 3),
