@@ -1,20 +1,31 @@
 //! Welfare accounting of one simulated path: present values of consumer surplus, producer surplus,
-//! fiscal cost and its parts, the value of the stock the agency is left with, and producer revenue
-//! risk.
+//! fiscal cost and its parts, the opening stock's cost, the value of the stock the agency is left
+//! with, and producer revenue risk.
 //!
 //! Definitions (INTERFACE.md): consumer surplus ∫_{P_t}^{choke} D(p) dp; producer surplus = producer
 //! price × harvest − cost of the planted quantity; fiscal cost = P_t X_t − P_t R_t + storage +
-//! financing + handling + deficiency payments. Present value Σ_{t=1..T} x_t (1 + r)^−t. The agency's
-//! stock at T is valued per `terminal_stock` (at P_T or at zero) and counted as a treasury receipt in
-//! period T, so the net welfare change of a policy against the market left alone is
-//! ΔCS + ΔPS − Δfiscal + terminal stock value.
+//! financing + handling + deficiency payments. Present value Σ_{t=1..T} x_t (1 + r)^−t.
+//!
+//! The accounting conventions ([`Books`]):
+//! - opening stock (`[run] opening_stock`): "charged" buys the policy's `[stock] initial` at P_0 at
+//!   t = 0, an undiscounted outlay; "free" does not;
+//! - terminal stock (`[run] terminal_stock`): "disposal" sells S_T after T at the price its sale
+//!   would cause, S_T·D⁻¹(Q* + S_T), discounted from T + 1; "market" values it at P_T discounted from
+//!   T; "zero" at nothing. It is a treasury receipt;
+//! - financing: discounting at r already prices the capital tied up in stock, so present values
+//!   count interest only as the spread (financing_rate − r)·value of stock when positive; the
+//!   per-season cash outlay (the record) shows the interest paid in full;
+//! - net welfare = CS + PS − λ·(fiscal − terminal), fiscal including the opening purchase,
+//!   λ = `[run] public_funds_cost` (the marginal cost of public funds, Alston and Hurd 1990).
 //!
 //! The module knows nothing of files or the terminal; it folds [`PeriodRecord`]s.
 
 use serde::Serialize;
 
+use crate::curves::Curve;
 use crate::engine::PeriodRecord;
-use crate::scenario::TerminalStock;
+use crate::policies::Agency;
+use crate::scenario::{OpeningStock, Scenario, TerminalStock};
 
 /// Discount factors (1 + r)^−t for t = 1..T, computed once per run.
 #[derive(Debug, Clone, PartialEq)]
@@ -51,6 +62,74 @@ impl Discount {
     }
 }
 
+/// The accounting conventions applied to one policy's paths (see the module notes).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Books {
+    /// Discount factors for t = 1..T.
+    pub discount: Discount,
+    /// The discount rate r.
+    pub rate: f64,
+    /// Valuation of the stock left at T.
+    pub terminal: TerminalStock,
+    /// The opening stock's cost at t = 0 (P_0 · initial when charged, else 0).
+    pub opening_stock_cost: f64,
+    /// Share of the interest paid that present values count: max(0, f − r)/f (0 when f = 0).
+    pub financing_kept: f64,
+    /// Demand curve (for the disposal value).
+    pub demand: Curve,
+    /// Steady-state harvest Q* (the disposal sale comes on top of it).
+    pub steady_quantity: f64,
+    /// λ, the marginal cost of public funds.
+    pub public_funds_cost: f64,
+}
+
+impl Books {
+    /// The books of a policy with agency parameters `agency` under `scenario`'s conventions.
+    pub fn new(scenario: &Scenario, agency: &Agency) -> Books {
+        let run = &scenario.run;
+        let rate = run.discount_rate;
+        Books {
+            discount: Discount::new(rate, run.periods),
+            rate,
+            terminal: run.terminal_stock,
+            opening_stock_cost: match run.opening_stock {
+                OpeningStock::Charged => run.initial_price * agency.initial,
+                OpeningStock::Free => 0.0,
+            },
+            financing_kept: financing_kept(agency.financing_rate, rate),
+            demand: scenario.market.demand,
+            steady_quantity: scenario.steady.quantity,
+            public_funds_cost: run.public_funds_cost,
+        }
+    }
+
+    /// The value of `stock` left at the end of period `last` (price `last_price`), discounted.
+    pub fn terminal_value(&self, stock: f64, last_price: f64, last: usize) -> f64 {
+        if stock <= 0.0 {
+            return 0.0;
+        }
+        match self.terminal {
+            TerminalStock::Disposal => {
+                let price = self.demand.price_at(self.steady_quantity + stock).max(0.0);
+                let price = if price.is_finite() { price } else { 0.0 };
+                stock * price * self.discount.factor(last) / (1.0 + self.rate)
+            }
+            TerminalStock::Market => stock * last_price * self.discount.factor(last),
+            TerminalStock::Zero => 0.0,
+        }
+    }
+}
+
+/// Share of interest paid at `financing_rate` that present values at `discount_rate` count: the
+/// spread max(0, f − r) over f (0 when nothing is paid).
+pub fn financing_kept(financing_rate: f64, discount_rate: f64) -> f64 {
+    if financing_rate > 0.0 {
+        (financing_rate - discount_rate).max(0.0) / financing_rate
+    } else {
+        0.0
+    }
+}
+
 /// Present values of one path's welfare items (all in price units × quantity units).
 #[derive(Debug, Clone, Copy, Default, PartialEq, Serialize)]
 pub struct WelfarePv {
@@ -58,7 +137,8 @@ pub struct WelfarePv {
     pub consumer_surplus: f64,
     /// Producer surplus.
     pub producer_surplus: f64,
-    /// Fiscal cost (all parts).
+    /// Fiscal cost (all parts, the opening stock's purchase included; interest only as its spread
+    /// over the discount rate).
     pub fiscal_cost: f64,
     /// P_t · X_t.
     pub purchase_cost: f64,
@@ -66,21 +146,29 @@ pub struct WelfarePv {
     pub sales_revenue: f64,
     /// Physical storage cost.
     pub storage_cost: f64,
-    /// Interest on the value of stock held.
+    /// Interest on the value of stock held, counted as the spread over the discount rate.
     pub financing_cost: f64,
-    /// Handling cost of purchases and sales.
+    /// Handling cost of purchases, sales and rotations.
     pub handling_cost: f64,
     /// Deficiency payments.
     pub deficiency_payments: f64,
-    /// Value of the agency stock left at T, discounted from T.
+    /// The opening stock bought at P_0 at t = 0 (undiscounted; 0 when free).
+    pub opening_stock_cost: f64,
+    /// Value of the agency stock left at T, discounted (per `terminal_stock`).
     pub terminal_stock_value: f64,
 }
 
 impl WelfarePv {
-    /// Consumer + producer surplus − fiscal cost + terminal stock value (the level whose difference
-    /// against the market left alone is the net welfare change).
-    pub fn net(&self) -> f64 {
-        self.consumer_surplus + self.producer_surplus - self.fiscal_cost + self.terminal_stock_value
+    /// The treasury's net burden: fiscal cost (opening stock included) − terminal stock value.
+    pub fn net_fiscal(&self) -> f64 {
+        self.fiscal_cost - self.terminal_stock_value
+    }
+
+    /// Consumer + producer surplus − λ·(fiscal cost − terminal stock value), the
+    /// level whose difference against the market left alone is the net welfare change; λ is the
+    /// marginal cost of public funds (1 = none).
+    pub fn net(&self, public_funds_cost: f64) -> f64 {
+        self.consumer_surplus + self.producer_surplus - public_funds_cost * self.net_fiscal()
     }
 
     /// Item-by-item difference `self − base`.
@@ -95,6 +183,7 @@ impl WelfarePv {
             financing_cost: self.financing_cost - base.financing_cost,
             handling_cost: self.handling_cost - base.handling_cost,
             deficiency_payments: self.deficiency_payments - base.deficiency_payments,
+            opening_stock_cost: self.opening_stock_cost - base.opening_stock_cost,
             terminal_stock_value: self.terminal_stock_value - base.terminal_stock_value,
         }
     }
@@ -117,16 +206,17 @@ impl WelfareFold {
 
     /// Adds one period.
     #[inline]
-    pub fn add(&mut self, r: &PeriodRecord, discount: &Discount) {
-        let f = discount.factor(r.period);
+    pub fn add(&mut self, r: &PeriodRecord, books: &Books) {
+        let f = books.discount.factor(r.period);
+        let financing = books.financing_kept * r.financing_cost;
         let pv = &mut self.pv;
         pv.consumer_surplus += f * r.consumer_surplus;
         pv.producer_surplus += f * r.producer_surplus;
-        pv.fiscal_cost += f * r.fiscal_cost;
+        pv.fiscal_cost += f * (r.fiscal_cost - r.financing_cost + financing);
         pv.purchase_cost += f * r.purchase_cost;
         pv.sales_revenue += f * r.sales_revenue;
         pv.storage_cost += f * r.storage_cost;
-        pv.financing_cost += f * r.financing_cost;
+        pv.financing_cost += f * financing;
         pv.handling_cost += f * r.handling_cost;
         pv.deficiency_payments += f * r.deficiency_payments;
         self.last_price = r.price;
@@ -134,27 +224,24 @@ impl WelfareFold {
         self.last_period = r.period;
     }
 
-    /// The present values, with the terminal stock valued per `terminal`.
-    pub fn finish(&self, terminal: TerminalStock, discount: &Discount) -> WelfarePv {
+    /// The present values, with the opening and terminal stock per `books`.
+    pub fn finish(&self, books: &Books) -> WelfarePv {
         let mut pv = self.pv;
-        pv.terminal_stock_value = match terminal {
-            TerminalStock::Market => {
-                self.last_stock * self.last_price * discount.factor(self.last_period)
-            }
-            TerminalStock::Zero => 0.0,
-        };
+        pv.opening_stock_cost = books.opening_stock_cost;
+        pv.fiscal_cost += books.opening_stock_cost;
+        pv.terminal_stock_value =
+            books.terminal_value(self.last_stock, self.last_price, self.last_period);
         pv
     }
 }
 
-/// Present values of a whole path.
-pub fn path_pv(records: &[PeriodRecord], rate: f64, terminal: TerminalStock) -> WelfarePv {
-    let discount = Discount::new(rate, records.len());
+/// Present values of a whole path under `books`.
+pub fn path_pv(records: &[PeriodRecord], books: &Books) -> WelfarePv {
     let mut fold = WelfareFold::new();
     for r in records {
-        fold.add(r, &discount);
+        fold.add(r, books);
     }
-    fold.finish(terminal, &discount)
+    fold.finish(books)
 }
 
 /// Producer revenue in a period: what farmers were paid for the harvest (producer price × harvest;
@@ -174,6 +261,59 @@ pub fn risk_premium(mean: f64, sd: f64, relative_risk_aversion: f64) -> f64 {
     }
     let cv = sd / mean;
     0.5 * relative_risk_aversion * cv * cv * mean
+}
+
+/// Producers' income when the crop is a share α of it: revenue plus other income held fixed at
+/// (1 − α)/α times the steady-state crop revenue `reference_revenue`.
+#[inline]
+pub fn income(revenue: f64, crop_income_share: f64, reference_revenue: f64) -> f64 {
+    revenue + (1.0 - crop_income_share) / crop_income_share * reference_revenue
+}
+
+/// The CRRA transform of income `y` scaled by `scale` (kept near 1 so powers neither overflow nor
+/// underflow): (y/scale)^{1−R}, or ln(y/scale) at R = 1. Its mean gives the certainty equivalent
+/// through [`crra_certainty_equivalent_of`].
+#[inline]
+pub fn crra_transform(y: f64, scale: f64, relative_risk_aversion: f64) -> f64 {
+    let x = (y / scale).max(f64::MIN_POSITIVE);
+    // the common cases without a power (x¹ and x⁻¹ exactly; the Monte Carlo calls this every period)
+    if relative_risk_aversion == 0.0 {
+        x
+    } else if relative_risk_aversion == 2.0 {
+        1.0 / x
+    } else if (relative_risk_aversion - 1.0).abs() < 1e-12 {
+        x.ln()
+    } else {
+        x.powf(1.0 - relative_risk_aversion)
+    }
+}
+
+/// The certainty equivalent from the mean `m` of [`crra_transform`] values.
+pub fn crra_certainty_equivalent_of(m: f64, scale: f64, relative_risk_aversion: f64) -> f64 {
+    if (relative_risk_aversion - 1.0).abs() < 1e-12 {
+        scale * m.exp()
+    } else {
+        scale * m.powf(1.0 / (1.0 - relative_risk_aversion))
+    }
+}
+
+/// The exact CRRA risk premium E[Y] − CE from the mean income and the mean CRRA transform
+/// (Pratt 1964); 0 without risk aversion; never negative beyond rounding (Jensen).
+pub fn crra_premium(
+    mean: f64,
+    mean_transform: f64,
+    scale: f64,
+    relative_risk_aversion: f64,
+) -> f64 {
+    if relative_risk_aversion <= 0.0 || mean.is_nan() || mean <= 0.0 {
+        return 0.0;
+    }
+    let ce = crra_certainty_equivalent_of(mean_transform, scale, relative_risk_aversion);
+    if ce.is_finite() {
+        mean - ce
+    } else {
+        0.0
+    }
 }
 
 /// The exact certainty equivalent E[Y^{1−R}]^{1/(1−R)} (log utility at R = 1: exp E[ln Y]) of a sample

@@ -75,6 +75,73 @@ fn compare_on_the_shipped_demo_prints_every_format() {
             .unwrap()
             > 0.0
     );
+    // like-for-like baselines are named; every mean and change has its standard error
+    assert_eq!(policies[1]["baseline"].as_str(), Some("No intervention"));
+    assert!(policies[1]["expectations"]
+        .as_str()
+        .unwrap()
+        .starts_with("adaptive"));
+    assert!(
+        policies[1]["indicators"]["net_welfare_change_pv_se"]
+            .as_f64()
+            .unwrap()
+            > 0.0
+    );
+    assert!(table.contains(" ± "));
+}
+
+#[test]
+fn compare_names_the_behaviour_change_and_warns_on_close_calls() {
+    let dir = tempfile::tempdir().unwrap();
+    let market = write(
+        &dir,
+        "m.toml",
+        &format!("{MARKET}alert_price = 85.0\n[shocks]\nsupply_sd = 2.0\n"),
+    );
+    let cautious = write(
+        &dir,
+        "c.toml",
+        "[policy]\nname = \"Cautious\"\n[expectations]\nrule = \"adaptive\"\nweight = 0.5\n",
+    );
+    // two files with the same band under two names: their net welfare cannot be told apart
+    let band = |name: &str, lo: f64| {
+        write(
+            &dir,
+            &format!("{name}.toml"),
+            &format!(
+                "[policy]\nname = \"{name}\"\n[stock]\nbuy_below = {lo}\nsell_above = 84.0\ninitial = 5.0\n"
+            ),
+        )
+    };
+    let (a, b) = (band("A", 76.0), band("B", 76.0));
+    let out = bin()
+        .args(["compare", &market, &cautious, &a, &b, "--format", "json"])
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let json: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let changes = json["behaviour_changes"].as_array().unwrap();
+    assert_eq!(changes.len(), 1);
+    assert!(changes[0]["name"]
+        .as_str()
+        .unwrap()
+        .contains("not a policy"));
+    let p = &json["policies"][0];
+    assert_eq!(p["indicators"]["net_welfare_change_pv"].as_f64(), Some(0.0));
+    assert_ne!(p["baseline"].as_str(), json["baseline"]["name"].as_str());
+    // the alert share exists for every column, the baseline included
+    assert!(json["baseline"]["indicators"]["price_above_alert_share"]
+        .as_f64()
+        .is_some());
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        stderr.contains("\"A\" and \"B\"") && stderr.contains("not distinguishable"),
+        "{stderr}"
+    );
 }
 
 #[test]

@@ -11,7 +11,7 @@ fn expectation_backed_out_of_the_arbitrage_condition_matches_the_integrated_one(
     // E[P'] = (P + k)/β; where none is carried, β·E[P' | x = 0] − k is the stockout price. The
     // integrated expectation (breakpoint-splitting quadrature) is the reference.
     let s = load_market("examples/veldmark_storers.toml").unwrap();
-    for file in ["policies/price_band.toml", "policies/rotating_reserve.toml"] {
+    for file in ["policies/price_band.toml", "policies/drawdown_reserve.toml"] {
         let p = load_policy(file).unwrap();
         let eq = storage::solve(&s, &p, &SolveOptions::default()).unwrap();
         let path = simulate(&eq, &s.shocks, s.run.seed, 3, 20.0, 150);

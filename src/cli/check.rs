@@ -94,7 +94,9 @@ pub fn execute(args: &CheckArgs) -> anyhow::Result<()> {
                         scenario::ReleaseSpec::Target { target, speed } =>
                             format!("target {} at speed {}", short_num(target), short_num(speed)),
                         scenario::ReleaseSpec::Share { share } =>
-                            format!("share {}", short_num(share)),
+                            format!("drawdown, share {}", short_num(share)),
+                        scenario::ReleaseSpec::Rotate { share } =>
+                            format!("rotate, share {}", short_num(share)),
                     }
                 ));
             }

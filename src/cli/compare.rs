@@ -40,6 +40,14 @@ pub fn execute(args: &CompareArgs) -> anyhow::Result<()> {
     let result = compare(&scenario, &policies, bar.observer());
     bar.finish();
     let result = result?;
+    for column in &result.policies {
+        for line in &column.warnings {
+            say(&format!("warning: \"{}\": {line}", column.name));
+        }
+    }
+    for line in render::close_call_warnings(&result) {
+        say(&format!("warning: {line}"));
+    }
     if let Some(dir) = args.common.plot_dir() {
         super::report::plot_compare(&dir, &scenario, &args.policies, &result)?;
     }

@@ -36,9 +36,18 @@ pub fn execute(args: &RunArgs, scenario: &Scenario, policy: &PolicySpec) -> anyh
     super::common::check_memory("run", scenario, 1, SERIES.len())?;
     let bar = progress_for(scenario, 1);
     let paths = sources(scenario, std::slice::from_ref(policy))?;
-    let mc = run_monte_carlo_sources(scenario, &paths, &SERIES, bar.observer());
+    let mc = run_monte_carlo_sources(
+        scenario,
+        std::slice::from_ref(policy),
+        &paths,
+        &SERIES,
+        bar.observer(),
+    );
     bar.finish();
     let mc = mc?;
+    for line in furrow::policies::summarise(scenario, policy, &mc.policies[0]) {
+        say(&format!("warning: {line}"));
+    }
     say(&format!(
         "{} replications × {} periods (seed {}): mean and 5/50/95 % quantiles across replications (type 7)",
         mc.replications, mc.periods, scenario.run.seed

@@ -169,7 +169,7 @@ pub fn execute(args: &RunArgs) -> anyhow::Result<()> {
         // a file is written whole or not at all: a divergence removes the temporary file
         stream_to(&args.common, &model, &scenario)?
     };
-    for line in furrow::policies::diagnose_tally(&scenario, &policy, &model, &tally) {
+    for line in furrow::policies::diagnose_tally(&scenario, &policy, &tally) {
         say(&line);
     }
     Ok(())

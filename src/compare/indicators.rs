@@ -1,210 +1,405 @@
-//! The indicators of one policy, computed from its Monte Carlo runs and the baseline's.
+//! The indicators of one policy, computed from its Monte Carlo runs and its baseline's (the market
+//! left alone under the same expectation rule, on the same shocks).
 //!
 //! Definitions (INTERFACE.md where it fixes them):
 //! - `mean_price`, `price_sd`: mean and sample sd of P_t pooled over all periods and replications;
 //!   `price_cv` = sd / mean; producer price and harvest likewise.
-//! - `floor_binding_share`: share of periods (all replications) in which the agency bought or a
-//!   deficiency payment was made; `stockout_share`: share with P_t above `sell_above` and no stock.
+//! - `price_above_alert_share` (then `_2`, `_3`, … for further `[run] alert_price` values): share of
+//!   seasons with P_t above the alert price, for every column.
+//! - `floor_binding_share`: share of periods in which the agency bought or a deficiency payment was
+//!   made; `stockout_share`: share with P_t above `sell_above` and no stock; `stockout_any_share`:
+//!   share of replications with at least one stock-out season; `floor_failed_share`: seasons the
+//!   producer price ended below a purchase floor because the store was full or the budget bound
+//!   (null without one); `band_failed_share`: seasons the price left [buy_below, sell_above] while
+//!   the agency could not act — store full or budget bound below, stock out above (null without a
+//!   band); `capacity_full_share`, `budget_bound_share`: seasons a purchase was cut short;
+//!   `diverged_share`: replications that diverged (a diverged replication fails the whole run, so a
+//!   printed table always shows 0).
 //! - `final_stock`: mean of S_T over replications.
-//! - `*_pv`: mean over replications of the present value Σ_t x_t (1 + r)^−t; `*_change_pv`: the same
-//!   of (policy − market left alone) replication by replication (common random numbers);
-//!   `*_p05/_p50/_p95`: type-7 quantiles of these per-replication present values.
-//! - `net_welfare_change_pv` = ΔCS + ΔPS − Δfiscal + terminal stock value (a treasury receipt at T).
-//! - `producer_revenue_*`: producer price × harvest, pooled over periods and replications;
-//!   `revenue_risk_premium` ≈ ½·R·CV²·mean revenue (Newbery and Stiglitz 1981, the Arrow–Pratt
-//!   approximation; R = `[run] risk_aversion`), per period; `revenue_risk_premium_change` against the
-//!   market left alone.
+//! - `*_pv`: mean over replications of the present value Σ_t x_t (1 + r)^−t, financing counted as
+//!   its spread over the discount rate; `opening_stock_cost`: P_0 · initial stock when charged (an
+//!   undiscounted outlay at t = 0, included in `fiscal_cost_pv`);
+//!   `*_change_pv`: the same of (policy − baseline) replication by replication (common random
+//!   numbers); `*_p05/_p50/_p95`: type-7 quantiles of these per-replication values.
+//! - `net_welfare_change_pv` = ΔCS + ΔPS − λ·Δ(fiscal cost − terminal stock value),
+//!   λ = `[run] public_funds_cost` (Alston and Hurd 1990).
+//! - Fiscal risk (cash outlays per season, interest in full, undiscounted): `fiscal_cost_season_mean`,
+//!   `_p95`, `_p99` pooled over seasons and replications (type 7); `worst_season_fiscal_cost_mean`:
+//!   mean over replications of the largest season's outlay; `peak_cumulative_fiscal_cost_mean`,
+//!   `_p95`: the largest running total within a replication (from the opening purchase when
+//!   charged); with `[policy] annual_budget`: `budget_exceeded_share` (seasons above it) and
+//!   `budget_ever_exceeded_share` (replications where it happens at least once).
+//! - Producers' risk: income = α·(crop revenue share) — revenue plus other income held at
+//!   (1 − α)/α · P*Q*, α = `[run] crop_income_share`. `revenue_risk_premium` ≈ ½·R·CV²·mean income
+//!   per season (Arrow–Pratt, as used by Newbery and Stiglitz 1981), pooled;
+//!   `revenue_risk_premium_exact`: E[I] − CE with CE = E[I^{1−R}]^{1/(1−R)} (log utility at R = 1),
+//!   pooled; `revenue_risk_premium_pv`: Σ_t (1 + r)^−t of the exact premium of season t across
+//!   replications; `revenue_risk_premium_change`, `revenue_risk_premium_change_pv` against the
+//!   baseline; `risk_adjusted_net_welfare_change_pv` = net welfare change − the premium change PV.
+//! - `NAME_se`: the Monte Carlo standard error of a mean or change: sd/√n over the per-replication
+//!   values (replications are independent; for a pooled mean the per-replication means), for
+//!   changes the sd of the paired differences. `risk_adjusted_net_welfare_change_pv_se` is that of
+//!   the net welfare change (the premium's own sampling error is not included).
 //! - `spectral_radius`, `verdict`: from the stability analysis (null / "n/a" when unavailable).
 //! - markets with `[storers]` only: `private_stock_mean`, `public_stock_mean` (long-run means along one
 //!   long path of the solved storage equilibrium, after burn-in) and `crowding_out` = (mean private
 //!   stock without the policy − with it) / mean public stock with it (null when the agency holds none).
 
 use super::{Indicator, Kind, Value};
-use crate::scenario::{PolicySpec, Scenario};
-use crate::stochastic::{quantiles, PolicyRuns};
+use crate::scenario::{PolicySpec, Scenario, MAX_ALERTS};
+use crate::stochastic::{quantiles, PolicyRuns, ReplicationSummary};
 use crate::storage::LongRun;
-use crate::welfare::{risk_premium, WelfarePv};
+use crate::welfare::{crra_premium, risk_premium, WelfarePv};
 
-/// Every key in display order, for a market without private storers (a market with `[storers]` adds
+/// Keys of the alert shares: the first alert price, then the second, …
+const ALERT_KEYS: [&str; MAX_ALERTS] = [
+    "price_above_alert_share",
+    "price_above_alert_share_2",
+    "price_above_alert_share_3",
+    "price_above_alert_share_4",
+    "price_above_alert_share_5",
+    "price_above_alert_share_6",
+    "price_above_alert_share_7",
+    "price_above_alert_share_8",
+];
+
+/// Every key in display order for a market without private storers and without `alert_price`
+/// (each alert price adds its share and its `_se` after `harvest_sd`; a market with `[storers]` adds
 /// `private_stock_mean`, `public_stock_mean` and `crowding_out` at the end).
-pub fn indicator_keys() -> Vec<&'static str> {
-    SPECS
-        .iter()
-        .map(|(k, _, _)| *k)
-        .filter(|k| !STORAGE_KEYS.contains(k))
-        .collect()
+pub fn indicator_keys() -> Vec<String> {
+    let mut keys = Vec::new();
+    for (key, _, _, se) in SPECS {
+        if *key == "alerts" || STORAGE_KEYS.contains(key) {
+            continue;
+        }
+        keys.push(key.to_string());
+        if QUANTILE_STEMS.contains(key) {
+            for q in ["p05", "p50", "p95"] {
+                keys.push(format!("{key}_{q}"));
+            }
+        }
+        if *se {
+            keys.push(format!("{key}_se"));
+        }
+    }
+    keys
 }
 
-const SPECS: &[(&str, &str, Kind)] = &[
-    ("mean_price", "Mean market price", Kind::Price),
-    ("price_sd", "Price standard deviation", Kind::Price),
-    ("price_cv", "Price coefficient of variation", Kind::Share),
-    ("mean_producer_price", "Mean producer price", Kind::Price),
+/// (key, label, kind, has a standard error). `alerts` stands for the alert shares.
+const SPECS: &[(&str, &str, Kind, bool)] = &[
+    ("mean_price", "Mean market price", Kind::Price, true),
+    ("price_sd", "Price standard deviation", Kind::Price, false),
+    (
+        "price_cv",
+        "Price coefficient of variation",
+        Kind::Share,
+        false,
+    ),
+    (
+        "mean_producer_price",
+        "Mean producer price",
+        Kind::Price,
+        true,
+    ),
     (
         "producer_price_sd",
         "Producer price standard deviation",
         Kind::Price,
+        false,
     ),
-    ("mean_harvest", "Mean harvest", Kind::Quantity),
-    ("harvest_sd", "Harvest standard deviation", Kind::Quantity),
+    ("mean_harvest", "Mean harvest", Kind::Quantity, true),
+    (
+        "harvest_sd",
+        "Harvest standard deviation",
+        Kind::Quantity,
+        false,
+    ),
+    ("alerts", "", Kind::Share, true),
     (
         "floor_binding_share",
         "Share of periods the agency bought or paid",
         Kind::Share,
+        true,
     ),
     (
         "stockout_share",
         "Share of periods with a stock-out",
         Kind::Share,
+        true,
+    ),
+    (
+        "stockout_any_share",
+        "Share of replications with a stock-out",
+        Kind::Share,
+        true,
+    ),
+    (
+        "floor_failed_share",
+        "Share of seasons the floor failed (store full, budget)",
+        Kind::Share,
+        true,
+    ),
+    (
+        "band_failed_share",
+        "Share of seasons the band failed (store full, budget, stock out)",
+        Kind::Share,
+        true,
+    ),
+    (
+        "capacity_full_share",
+        "Share of seasons the store was full",
+        Kind::Share,
+        true,
+    ),
+    (
+        "budget_bound_share",
+        "Share of seasons the purchase budget bound",
+        Kind::Share,
+        true,
+    ),
+    (
+        "diverged_share",
+        "Share of replications that diverged",
+        Kind::Share,
+        true,
     ),
     (
         "final_stock",
         "Agency stock at the end (mean)",
         Kind::Quantity,
+        true,
     ),
-    ("fiscal_cost_pv", "Fiscal cost, PV", Kind::Money),
-    ("fiscal_cost_pv_p05", "Fiscal cost, PV, 5 %", Kind::Money),
-    ("fiscal_cost_pv_p50", "Fiscal cost, PV, median", Kind::Money),
-    ("fiscal_cost_pv_p95", "Fiscal cost, PV, 95 %", Kind::Money),
+    ("fiscal_cost_pv", "Fiscal cost, PV", Kind::Money, true),
     (
         "purchase_cost_pv",
         "Fiscal cost: purchases, PV",
         Kind::Money,
+        true,
     ),
     (
         "sales_revenue_pv",
         "Fiscal cost: less sales receipts, PV",
         Kind::Money,
+        true,
     ),
-    ("storage_cost_pv", "Fiscal cost: storage, PV", Kind::Money),
+    (
+        "storage_cost_pv",
+        "Fiscal cost: storage, PV",
+        Kind::Money,
+        true,
+    ),
     (
         "financing_cost_pv",
-        "Fiscal cost: financing, PV",
+        "Fiscal cost: financing above the discount rate, PV",
         Kind::Money,
+        true,
     ),
-    ("handling_cost_pv", "Fiscal cost: handling, PV", Kind::Money),
+    (
+        "handling_cost_pv",
+        "Fiscal cost: handling, PV",
+        Kind::Money,
+        true,
+    ),
     (
         "deficiency_payments_pv",
         "Fiscal cost: deficiency payments, PV",
         Kind::Money,
+        true,
+    ),
+    (
+        "opening_stock_cost",
+        "Opening stock bought at t = 0",
+        Kind::Money,
+        true,
     ),
     (
         "terminal_stock_value_pv",
         "Value of the stock left at the end, PV",
         Kind::Money,
+        true,
+    ),
+    (
+        "fiscal_cost_season_mean",
+        "Outlay per season (mean)",
+        Kind::Money,
+        true,
+    ),
+    (
+        "fiscal_cost_season_p95",
+        "Outlay per season, 95 %",
+        Kind::Money,
+        false,
+    ),
+    (
+        "fiscal_cost_season_p99",
+        "Outlay per season, 99 %",
+        Kind::Money,
+        false,
+    ),
+    (
+        "worst_season_fiscal_cost_mean",
+        "Worst season's outlay (mean)",
+        Kind::Money,
+        true,
+    ),
+    (
+        "peak_cumulative_fiscal_cost_mean",
+        "Peak running total of outlays (mean)",
+        Kind::Money,
+        true,
+    ),
+    (
+        "peak_cumulative_fiscal_cost_p95",
+        "Peak running total of outlays, 95 %",
+        Kind::Money,
+        false,
+    ),
+    (
+        "budget_exceeded_share",
+        "Share of seasons over the annual budget",
+        Kind::Share,
+        true,
+    ),
+    (
+        "budget_ever_exceeded_share",
+        "Share of replications ever over the annual budget",
+        Kind::Share,
+        true,
     ),
     (
         "consumer_surplus_change_pv",
         "Consumer surplus change, PV",
         Kind::Money,
-    ),
-    (
-        "consumer_surplus_change_pv_p05",
-        "Consumer surplus change, PV, 5 %",
-        Kind::Money,
-    ),
-    (
-        "consumer_surplus_change_pv_p50",
-        "Consumer surplus change, PV, median",
-        Kind::Money,
-    ),
-    (
-        "consumer_surplus_change_pv_p95",
-        "Consumer surplus change, PV, 95 %",
-        Kind::Money,
+        true,
     ),
     (
         "producer_surplus_change_pv",
         "Producer surplus change, PV",
         Kind::Money,
-    ),
-    (
-        "producer_surplus_change_pv_p05",
-        "Producer surplus change, PV, 5 %",
-        Kind::Money,
-    ),
-    (
-        "producer_surplus_change_pv_p50",
-        "Producer surplus change, PV, median",
-        Kind::Money,
-    ),
-    (
-        "producer_surplus_change_pv_p95",
-        "Producer surplus change, PV, 95 %",
-        Kind::Money,
+        true,
     ),
     (
         "net_welfare_change_pv",
         "Net welfare change, PV",
         Kind::Money,
-    ),
-    (
-        "net_welfare_change_pv_p05",
-        "Net welfare change, PV, 5 %",
-        Kind::Money,
-    ),
-    (
-        "net_welfare_change_pv_p50",
-        "Net welfare change, PV, median",
-        Kind::Money,
-    ),
-    (
-        "net_welfare_change_pv_p95",
-        "Net welfare change, PV, 95 %",
-        Kind::Money,
+        true,
     ),
     (
         "producer_revenue_mean",
         "Producer revenue per period (mean)",
         Kind::Money,
+        true,
     ),
     (
         "producer_revenue_sd",
         "Producer revenue standard deviation",
         Kind::Money,
+        false,
     ),
     (
         "producer_revenue_cv",
         "Producer revenue coefficient of variation",
         Kind::Share,
+        false,
     ),
     (
         "revenue_risk_premium",
-        "Producers' risk premium per period",
+        "Producers' risk premium per period (approximation)",
         Kind::Money,
+        false,
+    ),
+    (
+        "revenue_risk_premium_exact",
+        "Producers' risk premium per period (exact CRRA)",
+        Kind::Money,
+        false,
     ),
     (
         "revenue_risk_premium_change",
-        "Risk premium change per period",
+        "Risk premium change per period (approximation)",
         Kind::Money,
+        false,
+    ),
+    (
+        "revenue_risk_premium_pv",
+        "Producers' risk premium, PV (exact CRRA)",
+        Kind::Money,
+        false,
+    ),
+    (
+        "revenue_risk_premium_change_pv",
+        "Risk premium change, PV (exact CRRA)",
+        Kind::Money,
+        false,
+    ),
+    (
+        "risk_adjusted_net_welfare_change_pv",
+        "Net welfare change with producers' risk, PV",
+        Kind::Money,
+        true,
     ),
     (
         "spectral_radius",
         "Spectral radius (linearised)",
         Kind::Number,
+        false,
     ),
-    ("verdict", "Stability verdict", Kind::Text),
+    ("verdict", "Stability verdict", Kind::Text, false),
     (
         "private_stock_mean",
         "Private stock, long-run mean (storage equilibrium)",
         Kind::Quantity,
+        false,
     ),
     (
         "public_stock_mean",
         "Public stock, long-run mean (storage equilibrium)",
         Kind::Quantity,
+        false,
     ),
     (
         "crowding_out",
         "Crowding-out: fall in private stock per unit of public stock",
         Kind::Share,
+        false,
     ),
+];
+
+/// Indicators that also get 5/50/95 % quantile rows across replications.
+const QUANTILE_STEMS: [&str; 4] = [
+    "fiscal_cost_pv",
+    "consumer_surplus_change_pv",
+    "producer_surplus_change_pv",
+    "net_welfare_change_pv",
 ];
 
 /// Indicators that exist only for a market with private storers.
 const STORAGE_KEYS: [&str; 3] = ["private_stock_mean", "public_stock_mean", "crowding_out"];
 
-/// Builds the indicators of `runs` (under `spec`) against the baseline `base`.
+/// Mean and Monte Carlo standard error (sample sd / √n, divisor n − 1) of per-replication values,
+/// summed in the given order. The standard error is `None` with fewer than two values.
+pub fn mean_se(values: impl Iterator<Item = f64> + Clone) -> (f64, Option<f64>) {
+    let (mut n, mut sum) = (0usize, 0.0);
+    for v in values.clone() {
+        n += 1;
+        sum += v;
+    }
+    if n == 0 {
+        return (0.0, None);
+    }
+    let mean = sum / n as f64;
+    if n < 2 {
+        return (mean, None);
+    }
+    let ss: f64 = values.map(|v| (v - mean) * (v - mean)).sum();
+    (
+        mean,
+        Some((ss / (n as f64 - 1.0)).sqrt() / (n as f64).sqrt()),
+    )
+}
+
+/// Builds the indicators of `runs` (under `spec`) against its baseline `base` (the market left alone
+/// under the same expectation rule).
 pub(super) fn build(
     scenario: &Scenario,
     spec: &PolicySpec,
@@ -212,120 +407,187 @@ pub(super) fn build(
     base: &PolicyRuns,
     storage: Option<(&LongRun, &LongRun)>,
 ) -> Vec<Indicator> {
-    let reps = runs.replications.len().max(1);
-    let cells = (reps * scenario.run.periods).max(1) as f64;
-    let mean_of = |f: &dyn Fn(&WelfarePv) -> f64| {
-        runs.replications.iter().map(|r| f(&r.welfare)).sum::<f64>() / reps as f64
+    let periods = scenario.run.periods.max(1) as f64;
+    let lambda = scenario.run.public_funds_cost;
+    let reps_of = || runs.replications.iter();
+    let mut out = Out::default();
+    // a mean over replications of a per-replication value, with its standard error
+    let per_rep = |out: &mut Out, key: &'static str, f: &dyn Fn(&ReplicationSummary) -> f64| {
+        let (m, se) = mean_se(reps_of().map(f));
+        out.num(key, m);
+        out.se(key, se);
     };
-    // per-replication changes against the baseline (same shocks)
-    let change = |f: &dyn Fn(&WelfarePv) -> f64| -> Vec<f64> {
-        runs.replications
-            .iter()
-            .zip(&base.replications)
-            .map(|(p, b)| f(&p.welfare) - f(&b.welfare))
-            .collect()
-    };
-    let mut out = Out(Vec::with_capacity(SPECS.len()));
     let pooled = &runs.pooled;
     out.num("mean_price", pooled.price.mean());
+    out.se("mean_price", mean_se(reps_of().map(|r| r.mean_price)).1);
     out.num("price_sd", pooled.price.sd());
     out.num("price_cv", pooled.price.sd() / pooled.price.mean());
     out.num("mean_producer_price", pooled.producer_price.mean());
+    out.se(
+        "mean_producer_price",
+        mean_se(reps_of().map(|r| r.mean_producer_price)).1,
+    );
     out.num("producer_price_sd", pooled.producer_price.sd());
     out.num("mean_harvest", pooled.harvest.mean());
+    out.se("mean_harvest", mean_se(reps_of().map(|r| r.mean_harvest)).1);
     out.num("harvest_sd", pooled.harvest.sd());
-    let binding: u64 = runs
-        .replications
+    for (k, key) in ALERT_KEYS
         .iter()
-        .map(|r| u64::from(r.floor_binding_periods))
-        .sum();
-    let stockout: u64 = runs
-        .replications
-        .iter()
-        .map(|r| u64::from(r.stockout_periods))
-        .sum();
-    out.num("floor_binding_share", binding as f64 / cells);
-    out.num("stockout_share", stockout as f64 / cells);
-    out.num(
-        "final_stock",
-        runs.replications.iter().map(|r| r.final_stock).sum::<f64>() / reps as f64,
-    );
-    let fiscal: Vec<f64> = runs
-        .replications
-        .iter()
-        .map(|r| r.welfare.fiscal_cost)
-        .collect();
-    out.with_quantiles(
-        [
-            "fiscal_cost_pv",
-            "fiscal_cost_pv_p05",
-            "fiscal_cost_pv_p50",
-            "fiscal_cost_pv_p95",
-        ],
-        fiscal,
-    );
-    out.num("purchase_cost_pv", mean_of(&|w| w.purchase_cost));
-    out.num("sales_revenue_pv", mean_of(&|w| w.sales_revenue));
-    out.num("storage_cost_pv", mean_of(&|w| w.storage_cost));
-    out.num("financing_cost_pv", mean_of(&|w| w.financing_cost));
-    out.num("handling_cost_pv", mean_of(&|w| w.handling_cost));
-    out.num(
-        "deficiency_payments_pv",
-        mean_of(&|w| w.deficiency_payments),
-    );
-    out.num(
-        "terminal_stock_value_pv",
-        mean_of(&|w| w.terminal_stock_value),
-    );
-    for (stem, f) in [
-        (
-            [
-                "consumer_surplus_change_pv",
-                "consumer_surplus_change_pv_p05",
-                "consumer_surplus_change_pv_p50",
-                "consumer_surplus_change_pv_p95",
-            ],
-            (|w: &WelfarePv| w.consumer_surplus) as fn(&WelfarePv) -> f64,
-        ),
-        (
-            [
-                "producer_surplus_change_pv",
-                "producer_surplus_change_pv_p05",
-                "producer_surplus_change_pv_p50",
-                "producer_surplus_change_pv_p95",
-            ],
-            |w: &WelfarePv| w.producer_surplus,
-        ),
-        (
-            [
-                "net_welfare_change_pv",
-                "net_welfare_change_pv_p05",
-                "net_welfare_change_pv_p50",
-                "net_welfare_change_pv_p95",
-            ],
-            |w: &WelfarePv| w.net(),
-        ),
-    ] {
-        out.with_quantiles(stem, change(&f));
+        .enumerate()
+        .take(scenario.run.alert_prices.len())
+    {
+        per_rep(&mut out, key, &|r| f64::from(r.alert_periods[k]) / periods);
     }
-    let r = scenario.run.risk_aversion;
+    let share = |n: u32| f64::from(n) / periods;
+    per_rep(&mut out, "floor_binding_share", &|r| {
+        share(r.floor_binding_periods)
+    });
+    per_rep(&mut out, "stockout_share", &|r| share(r.stockout_periods));
+    per_rep(&mut out, "stockout_any_share", &|r| {
+        f64::from(u8::from(r.stockout_periods > 0))
+    });
+    if runs.watch.purchase_floor.is_some() {
+        per_rep(&mut out, "floor_failed_share", &|r| {
+            share(r.floor_failed_periods)
+        });
+    }
+    if runs.watch.band.is_some() {
+        per_rep(&mut out, "band_failed_share", &|r| {
+            share(r.band_failed_periods)
+        });
+    }
+    per_rep(&mut out, "capacity_full_share", &|r| {
+        share(r.capacity_full_periods)
+    });
+    per_rep(&mut out, "budget_bound_share", &|r| {
+        share(r.budget_bound_periods)
+    });
+    // a diverged replication fails the run (exit 1), so every replication here completed
+    per_rep(&mut out, "diverged_share", &|_| 0.0);
+    per_rep(&mut out, "final_stock", &|r| r.final_stock);
+    let welfare_mean = |out: &mut Out, key: &'static str, f: fn(&WelfarePv) -> f64| {
+        per_rep(out, key, &|r| f(&r.welfare));
+    };
+    welfare_mean(&mut out, "fiscal_cost_pv", |w| w.fiscal_cost);
+    out.quantiles(
+        "fiscal_cost_pv",
+        reps_of().map(|r| r.welfare.fiscal_cost).collect(),
+    );
+    welfare_mean(&mut out, "purchase_cost_pv", |w| w.purchase_cost);
+    welfare_mean(&mut out, "sales_revenue_pv", |w| w.sales_revenue);
+    welfare_mean(&mut out, "storage_cost_pv", |w| w.storage_cost);
+    welfare_mean(&mut out, "financing_cost_pv", |w| w.financing_cost);
+    welfare_mean(&mut out, "handling_cost_pv", |w| w.handling_cost);
+    welfare_mean(&mut out, "deficiency_payments_pv", |w| {
+        w.deficiency_payments
+    });
+    welfare_mean(&mut out, "opening_stock_cost", |w| w.opening_stock_cost);
+    welfare_mean(&mut out, "terminal_stock_value_pv", |w| {
+        w.terminal_stock_value
+    });
+    // fiscal risk: cash outlays per season
+    per_rep(&mut out, "fiscal_cost_season_mean", &|r| {
+        r.mean_season_fiscal
+    });
+    let mut seasons = runs.season_fiscal.clone();
+    let q = quantiles(&mut seasons, &[0.95, 0.99]);
+    out.num("fiscal_cost_season_p95", q[0]);
+    out.num("fiscal_cost_season_p99", q[1]);
+    per_rep(&mut out, "worst_season_fiscal_cost_mean", &|r| {
+        r.worst_season_fiscal
+    });
+    per_rep(&mut out, "peak_cumulative_fiscal_cost_mean", &|r| {
+        r.peak_cumulative_fiscal
+    });
+    let mut peaks: Vec<f64> = reps_of().map(|r| r.peak_cumulative_fiscal).collect();
+    out.num(
+        "peak_cumulative_fiscal_cost_p95",
+        quantiles(&mut peaks, &[0.95])[0],
+    );
+    if runs.watch.annual_budget.is_finite() {
+        per_rep(&mut out, "budget_exceeded_share", &|r| {
+            share(r.budget_exceeded_periods)
+        });
+        per_rep(&mut out, "budget_ever_exceeded_share", &|r| {
+            f64::from(u8::from(r.budget_exceeded_periods > 0))
+        });
+    }
+    // changes against the baseline, replication by replication (same shocks)
+    let pairs = || runs.replications.iter().zip(&base.replications);
+    let net_change = |(p, b): (&ReplicationSummary, &ReplicationSummary)| {
+        p.welfare.net(lambda) - b.welfare.net(lambda)
+    };
+    for (key, f) in [
+        (
+            "consumer_surplus_change_pv",
+            (|w: &WelfarePv, _: f64| w.consumer_surplus) as fn(&WelfarePv, f64) -> f64,
+        ),
+        ("producer_surplus_change_pv", |w, _| w.producer_surplus),
+        ("net_welfare_change_pv", |w, l| w.net(l)),
+    ] {
+        let change = |(p, b): (&ReplicationSummary, &ReplicationSummary)| {
+            f(&p.welfare, lambda) - f(&b.welfare, lambda)
+        };
+        let (m, se) = mean_se(pairs().map(change));
+        out.num(key, m);
+        out.se(key, se);
+        out.quantiles(key, pairs().map(change).collect());
+    }
+    // producers' risk
+    let watch = &runs.watch;
+    let r_aversion = watch.risk_aversion;
+    let other = watch.income_scale() - watch.reference_revenue;
+    let scale = watch.income_scale();
     let (rev_mean, rev_sd) = (pooled.revenue.mean(), pooled.revenue.sd());
-    let premium = risk_premium(rev_mean, rev_sd, r);
-    let base_premium = risk_premium(base.pooled.revenue.mean(), base.pooled.revenue.sd(), r);
-    out.num("producer_revenue_mean", rev_mean);
+    per_rep(&mut out, "producer_revenue_mean", &|r| r.mean_revenue);
     out.num("producer_revenue_sd", rev_sd);
     out.num("producer_revenue_cv", rev_sd / rev_mean);
-    out.num("revenue_risk_premium", premium);
-    out.num("revenue_risk_premium_change", premium - base_premium);
+    let approx = |p: &PolicyRuns| {
+        risk_premium(
+            p.pooled.revenue.mean() + other,
+            p.pooled.revenue.sd(),
+            r_aversion,
+        )
+    };
+    let exact = |p: &PolicyRuns| {
+        let n = p.pooled.revenue.count.max(1) as f64;
+        crra_premium(
+            p.pooled.revenue.mean() + other,
+            p.pooled.income_transform / n,
+            scale,
+            r_aversion,
+        )
+    };
+    let premium_pv = |p: &PolicyRuns| {
+        p.mean_income
+            .iter()
+            .zip(&p.mean_income_transform)
+            .enumerate()
+            .map(|(t, (m, u))| {
+                watch.books.discount.factor(t + 1) * crra_premium(*m, *u, scale, r_aversion)
+            })
+            .sum::<f64>()
+    };
+    out.num("revenue_risk_premium", approx(runs));
+    out.num("revenue_risk_premium_exact", exact(runs));
+    out.num("revenue_risk_premium_change", approx(runs) - approx(base));
+    let (pv, base_pv) = (premium_pv(runs), premium_pv(base));
+    out.num("revenue_risk_premium_pv", pv);
+    out.num("revenue_risk_premium_change_pv", pv - base_pv);
+    let (net, net_se) = mean_se(pairs().map(net_change));
+    out.num("risk_adjusted_net_welfare_change_pv", net - (pv - base_pv));
+    out.se("risk_adjusted_net_welfare_change_pv", net_se);
     match crate::stability::analyse(scenario, spec) {
         Ok(report) => {
             out.num("spectral_radius", report.spectral_radius);
-            out.0
-                .push(("verdict", Value::Text(report.verdict.as_str().into())));
+            out.0.push((
+                "verdict".into(),
+                Value::Text(report.verdict.as_str().into()),
+            ));
         }
         Err(_) => {
-            out.0.push(("spectral_radius", Value::Missing));
-            out.0.push(("verdict", Value::Missing));
+            out.0.push(("spectral_radius".into(), Value::Missing));
+            out.0.push(("verdict".into(), Value::Missing));
         }
     }
     // with private storers: the long-run stocks of the solved equilibria (policy, then baseline)
@@ -333,42 +595,116 @@ pub(super) fn build(
         out.num("private_stock_mean", with.private_stock);
         out.num("public_stock_mean", with.public_stock);
         out.0.push((
-            "crowding_out",
+            "crowding_out".into(),
             with.crowding_out(without, scenario.steady.quantity)
                 .map_or(Value::Missing, Value::Number),
         ));
     }
-    SPECS
-        .iter()
-        .filter(|(key, _, _)| scenario.storers.is_some() || !STORAGE_KEYS.contains(key))
-        .map(|(key, label, kind)| Indicator {
-            key,
-            label,
-            kind: *kind,
-            value: out
-                .0
-                .iter()
-                .find(|(k, _)| k == key)
-                .map(|(_, v)| v.clone())
-                .unwrap_or(Value::Missing),
-        })
-        .collect()
+    arrange(scenario, out)
 }
 
-struct Out(Vec<(&'static str, Value)>);
+/// The computed values in display order, with quantile and `_se` rows after their indicator.
+fn arrange(scenario: &Scenario, out: Out) -> Vec<Indicator> {
+    let value = |key: &str| {
+        out.0
+            .iter()
+            .find(|(k, _)| k == key)
+            .map(|(_, v)| v.clone())
+            .unwrap_or(Value::Missing)
+    };
+    let mut rows = Vec::with_capacity(3 * SPECS.len());
+    let unit = scenario.market.price_unit.as_str();
+    for (key, label, kind, has_se) in SPECS {
+        if STORAGE_KEYS.contains(key) && scenario.storers.is_none() {
+            continue;
+        }
+        if *key == "alerts" {
+            for (k, p) in scenario.run.alert_prices.iter().enumerate() {
+                let key = ALERT_KEYS[k];
+                let label = format!(
+                    "Share of seasons with the price above {} {unit}",
+                    crate::output::fmt_num(*p, 2)
+                );
+                rows.push(Indicator {
+                    key: key.into(),
+                    label: label.clone(),
+                    kind: Kind::Share,
+                    value: value(key),
+                });
+                rows.push(Indicator {
+                    key: format!("{key}_se"),
+                    label: format!("{label} (standard error)"),
+                    kind: Kind::Share,
+                    value: value(&format!("{key}_se")),
+                });
+            }
+            continue;
+        }
+        rows.push(Indicator {
+            key: key.to_string(),
+            label: label.to_string(),
+            kind: *kind,
+            value: value(key),
+        });
+        if QUANTILE_STEMS.contains(key) {
+            for (q, name) in [("p05", "5 %"), ("p50", "median"), ("p95", "95 %")] {
+                let k = format!("{key}_{q}");
+                rows.push(Indicator {
+                    value: value(&k),
+                    key: k,
+                    label: format!("{label}, {name}"),
+                    kind: *kind,
+                });
+            }
+        }
+        if *has_se {
+            let k = format!("{key}_se");
+            rows.push(Indicator {
+                value: value(&k),
+                key: k,
+                label: format!("{label} (standard error)"),
+                kind: *kind,
+            });
+        }
+    }
+    rows
+}
+
+#[derive(Default)]
+struct Out(Vec<(String, Value)>);
 
 impl Out {
-    fn num(&mut self, key: &'static str, x: f64) {
-        self.0.push((key, Value::Number(x)));
+    fn num(&mut self, key: &str, x: f64) {
+        self.0.push((key.to_string(), Value::Number(x)));
     }
 
-    /// Mean and 5/50/95 % quantiles of per-replication values under `keys` (mean, p05, p50, p95).
-    fn with_quantiles(&mut self, keys: [&'static str; 4], mut v: Vec<f64>) {
-        let mean = v.iter().sum::<f64>() / v.len().max(1) as f64;
+    fn se(&mut self, key: &str, se: Option<f64>) {
+        self.0.push((
+            format!("{key}_se"),
+            se.map_or(Value::Missing, Value::Number),
+        ));
+    }
+
+    /// 5/50/95 % quantiles of per-replication values as `KEY_p05`, `KEY_p50`, `KEY_p95`.
+    fn quantiles(&mut self, key: &str, mut v: Vec<f64>) {
         let q = quantiles(&mut v, &[0.05, 0.5, 0.95]);
-        self.num(keys[0], mean);
-        self.num(keys[1], q[0]);
-        self.num(keys[2], q[1]);
-        self.num(keys[3], q[2]);
+        for (name, x) in ["p05", "p50", "p95"].iter().zip(q) {
+            self.num(&format!("{key}_{name}"), x);
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn standard_error_is_the_sample_formula() {
+        // se = s/√n with s² = Σ(x − x̄)²/(n − 1) (the sample standard error of a mean; any
+        // statistics text, e.g. Rice 2007, ch. 7): x = 1, 2, 3, 4 → x̄ = 2.5, s² = 5/3, se = √(5/12)
+        let (m, se) = mean_se([1.0, 2.0, 3.0, 4.0].into_iter());
+        assert!((m - 2.5).abs() < 1e-15);
+        assert!((se.unwrap() - (5.0f64 / 12.0).sqrt()).abs() < 1e-15);
+        assert_eq!(mean_se([7.0].into_iter()).1, None);
     }
 }

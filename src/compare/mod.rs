@@ -3,8 +3,12 @@
 //! [`compare`] runs the Monte Carlo once for the market without intervention (the baseline, always
 //! simulated) and each distinct policy, all on the same shocks, and turns the outcome into an ordered
 //! list of [`Indicator`]s per policy (see `indicators.rs` for the definitions) plus per-period fan data
-//! for plots. A policy that does nothing ([`PolicySpec::is_none`]) reuses the baseline's figures
-//! exactly, so its welfare changes are exactly zero. [`render`] turns a result into tables or JSON.
+//! for plots. Baselines are like for like: a policy whose `[expectations]` overrides the market's
+//! rule is measured against the market left alone under that same rule (one baseline per distinct
+//! rule, all on common random numbers); what the changed rule alone does (free market under the
+//! override against free market under the market's rule) is a separate behaviour-change column,
+//! never a policy. A policy that neither trades nor pays reuses its baseline's figures exactly, so
+//! its welfare changes are exactly zero. [`render`] turns a result into tables or JSON.
 
 mod indicators;
 pub mod render;
@@ -14,7 +18,7 @@ use serde::Serialize;
 
 pub use indicators::indicator_keys;
 
-use crate::scenario::{PolicySpec, Scenario};
+use crate::scenario::{ExpectationSpec, PolicySpec, Scenario};
 use crate::stochastic::{
     run_monte_carlo_sources, sources, PathSource, Progress, ReplicationFailed, Series, Summary,
 };
@@ -63,9 +67,9 @@ pub enum Kind {
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Indicator {
     /// Machine key (JSON key, CSV row name), e.g. `net_welfare_change_pv`.
-    pub key: &'static str,
+    pub key: String,
     /// Human label for tables.
-    pub label: &'static str,
+    pub label: String,
     /// What it measures.
     pub kind: Kind,
     /// The value.
@@ -92,8 +96,14 @@ pub struct PolicyComparison {
     pub file: String,
     /// True for the market left alone (the baseline's own figures).
     pub is_baseline: bool,
+    /// The name of the baseline its changes are measured against.
+    pub baseline: String,
+    /// The expectation rule farmers follow in this column (with its parameters).
+    pub expectations: String,
     /// Indicators in display order.
     pub indicators: Vec<Indicator>,
+    /// The single-path warnings summarised as shares over the replications (stderr talk).
+    pub warnings: Vec<String>,
     /// Fan-chart data.
     pub fan: Fan,
 }
@@ -135,10 +145,60 @@ pub struct CompareResult {
     pub discount_rate: f64,
     /// Producers' relative risk aversion used for the risk premium.
     pub risk_aversion: f64,
-    /// The market left alone (the baseline every change is measured against).
+    /// λ, the marginal cost of public funds.
+    pub public_funds_cost: f64,
+    /// The market left alone under the market's rule (the baseline of every policy that keeps it).
     pub baseline: PolicyComparison,
     /// The policies given, in order.
     pub policies: Vec<PolicyComparison>,
+    /// What a changed expectation rule alone does: the market left alone under each overriding rule
+    /// against the market left alone under the market's rule (a change in behaviour, not a policy).
+    pub behaviour: Vec<PolicyComparison>,
+    /// Pairs of policies whose net welfare changes differ by less than two standard errors of the
+    /// paired difference (or not at all).
+    pub close_calls: Vec<CloseCall>,
+}
+
+/// Two policies whose net welfare cannot be told apart at this number of replications.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct CloseCall {
+    /// The first policy's name.
+    pub first: String,
+    /// The second policy's name.
+    pub second: String,
+    /// Mean of (first − second) net welfare change, PV.
+    pub difference: f64,
+    /// Standard error of that mean (paired over replications).
+    pub se: f64,
+}
+
+/// The expectation rule with its parameters, in words (e.g. `adaptive (weight 0.33)`).
+pub fn describe_rule(rule: &ExpectationSpec) -> String {
+    use crate::output::fmt_num;
+    let g = |x: f64| fmt_num(x, 3);
+    match *rule {
+        ExpectationSpec::Naive => "naive".into(),
+        ExpectationSpec::Adaptive {
+            weight,
+            initial_expected_price,
+        } => match initial_expected_price {
+            Some(p) => format!("adaptive (weight {}, initial {})", g(weight), g(p)),
+            None => format!("adaptive (weight {})", g(weight)),
+        },
+        ExpectationSpec::NormalPrice { weight, normal } => match normal {
+            crate::scenario::NormalPrice::Fixed(n) => {
+                format!("normal-price (weight {}, normal {})", g(weight), g(n))
+            }
+            crate::scenario::NormalPrice::Window(w) => {
+                format!("normal-price (weight {}, window {w})", g(weight))
+            }
+        },
+        ExpectationSpec::Extrapolative { weight } => {
+            format!("extrapolative (weight {})", g(weight))
+        }
+        ExpectationSpec::TrailingMean { window } => format!("trailing-mean (window {window})"),
+        ExpectationSpec::Rational => "rational".into(),
+    }
 }
 
 /// Why a comparison could not be made.
@@ -165,21 +225,53 @@ pub fn compare(
     if policies.is_empty() {
         return Err(CompareError::NoPolicies);
     }
-    // index 0 is the baseline; a do-nothing policy maps onto it
-    let mut specs = vec![PolicySpec::none()];
+    // baselines first: the market left alone under the market's rule (index 0), then under each
+    // distinct overriding rule, in order of first appearance; a policy that neither trades nor pays
+    // maps onto the baseline of its rule
+    let market_rule = scenario.expectations;
+    let rule_of = |p: &PolicySpec| p.expectations.unwrap_or(market_rule);
+    let mut rules = vec![market_rule];
+    for p in policies {
+        if !rules.contains(&rule_of(p)) {
+            rules.push(rule_of(p));
+        }
+    }
+    let mut specs: Vec<PolicySpec> = rules
+        .iter()
+        .enumerate()
+        .map(|(i, rule)| {
+            let mut none = PolicySpec::none();
+            if i > 0 {
+                none.expectations = Some(*rule);
+                none.name = format!("No intervention, {} farmers", describe_rule(rule));
+            }
+            none
+        })
+        .collect();
+    let baseline_of: Vec<usize> = policies
+        .iter()
+        .map(|p| rules.iter().position(|r| *r == rule_of(p)).unwrap_or(0))
+        .collect();
     let slots: Vec<usize> = policies
         .iter()
-        .map(|p| {
-            if p.is_none() {
-                0
-            } else {
+        .zip(&baseline_of)
+        .map(|(p, &b)| {
+            if p.intervenes() {
                 specs.push(p.clone());
                 specs.len() - 1
+            } else {
+                b
             }
         })
         .collect();
     let paths = sources(scenario, &specs)?;
-    let mc = run_monte_carlo_sources(scenario, &paths, &[Series::Price, Series::Stock], progress)?;
+    let mc = run_monte_carlo_sources(
+        scenario,
+        &specs,
+        &paths,
+        &[Series::Price, Series::Stock],
+        progress,
+    )?;
     // long-run stocks of each solved storage equilibrium, simulated once per policy
     let long: Vec<Option<LongRun>> = paths
         .par_iter()
@@ -188,20 +280,22 @@ pub fn compare(
             PathSource::Engine(_) => None,
         })
         .collect();
-    let base = &mc.policies[0];
-    let column = |spec: &PolicySpec, slot: usize| {
+    let column = |spec: &PolicySpec, slot: usize, base: usize| {
         let runs = &mc.policies[slot];
         PolicyComparison {
             name: spec.name.clone(),
             file: spec.source.clone(),
             is_baseline: slot == 0,
+            baseline: specs[base].name.clone(),
+            expectations: describe_rule(&rule_of(&specs[slot])),
             indicators: indicators::build(
                 scenario,
-                spec,
+                &specs[slot],
                 runs,
-                base,
-                long[slot].as_ref().zip(long[0].as_ref()),
+                &mc.policies[base],
+                long[slot].as_ref().zip(long[base].as_ref()),
             ),
+            warnings: crate::policies::summarise(scenario, &specs[slot], runs),
             fan: Fan {
                 price: runs.series[0].periods.clone(),
                 stock: runs.series[1].periods.clone(),
@@ -209,6 +303,43 @@ pub fn compare(
             },
         }
     };
+    let behaviour = (1..rules.len())
+        .map(|i| {
+            let mut c = column(&specs[i], i, 0);
+            c.name = format!(
+                "Behaviour change: {} farmers (not a policy)",
+                describe_rule(&rules[i])
+            );
+            c
+        })
+        .collect();
+    // policies whose net welfare changes differ by less than two standard errors of the difference
+    let lambda = scenario.run.public_funds_cost;
+    let net = |k: usize, rep: usize| {
+        let (slot, base) = (slots[k], baseline_of[k]);
+        mc.policies[slot].replications[rep].welfare.net(lambda)
+            - mc.policies[base].replications[rep].welfare.net(lambda)
+    };
+    let mut close_calls = Vec::new();
+    for i in 0..policies.len() {
+        for j in i + 1..policies.len() {
+            if slots[i] == slots[j] && baseline_of[i] == baseline_of[j] {
+                continue; // the same figures
+            }
+            let (d, se) = indicators::mean_se((0..mc.replications).map(|r| net(i, r) - net(j, r)));
+            if let Some(se) = se {
+                // ≤: two files with the same figures (d = se = 0) cannot be told apart either
+                if d.abs() <= 2.0 * se {
+                    close_calls.push(CloseCall {
+                        first: policies[i].name.clone(),
+                        second: policies[j].name.clone(),
+                        difference: d,
+                        se,
+                    });
+                }
+            }
+        }
+    }
     Ok(CompareResult {
         market: scenario.market.name.clone(),
         price_unit: scenario.market.price_unit.clone(),
@@ -218,11 +349,14 @@ pub fn compare(
         seed: scenario.run.seed,
         discount_rate: scenario.run.discount_rate,
         risk_aversion: scenario.run.risk_aversion,
-        baseline: column(&specs[0], 0),
+        public_funds_cost: lambda,
+        baseline: column(&specs[0], 0, 0),
         policies: policies
             .iter()
-            .zip(&slots)
-            .map(|(p, &slot)| column(p, slot))
+            .enumerate()
+            .map(|(k, p)| column(p, slots[k], baseline_of[k]))
             .collect(),
+        behaviour,
+        close_calls,
     })
 }

@@ -385,7 +385,10 @@ impl<'m> Simulator<'m> {
         let sales_revenue = c.price * c.releases;
         let storage_cost = agency.storage_cost * c.stock;
         let financing_cost = agency.financing_rate * c.price * c.stock;
-        let handling_cost = agency.handling_cost * (c.purchases + c.releases);
+        // a rotation sells old grain and buys as much new grain at P_t: only its handling (both
+        // legs) reaches the books; with no rotation `rotated` is +0 and the sum is X + R exactly
+        let rotated = agency.rotated(carried, c.stock);
+        let handling_cost = agency.handling_cost * (c.purchases + c.releases + 2.0 * rotated);
         let fiscal_cost = purchase_cost - sales_revenue
             + storage_cost
             + financing_cost
@@ -412,7 +415,12 @@ impl<'m> Simulator<'m> {
             financing_cost,
             handling_cost,
             deficiency_payments: c.deficiency,
-            flags: c.flags,
+            rotated,
+            flags: if rotated > 0.0 {
+                c.flags | flags::ROTATE
+            } else {
+                c.flags
+            },
             stockout: c.price > model.stockout_above && c.stock <= 1e-12,
         };
         // advance the state

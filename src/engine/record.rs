@@ -39,10 +39,14 @@ pub struct PeriodRecord {
     pub storage_cost: f64,
     /// financing_rate · P_t · S_t.
     pub financing_cost: f64,
-    /// handling_cost · (X_t + R_t).
+    /// handling_cost · (X_t + R_t + 2·rotated_t).
     pub handling_cost: f64,
     /// Deficiency payments (F − P_t)·Q_t when P_t < F.
     pub deficiency_payments: f64,
+    /// Quantity rotated (`release = "rotate"`): old grain sold and the same quantity of new grain
+    /// bought at P_t in the same period; it nets out of X_t, R_t, consumption and the stock.
+    #[serde(skip)]
+    pub rotated: f64,
     /// Which rules acted (bit flags; see `policies::flags`).
     #[serde(skip)]
     pub flags: u16,

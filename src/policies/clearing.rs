@@ -16,8 +16,10 @@ pub mod flags {
     pub const BAND_SELL: u16 = 1 << 3;
     /// The target rule moved the stock toward its target.
     pub const TARGET: u16 = 1 << 4;
-    /// The share rule released stock (rotation).
+    /// The drawdown rule (`release = "drawdown"`, formerly "share") released stock.
     pub const ROTATION: u16 = 1 << 5;
+    /// The rotation rule sold old grain and bought the same quantity of new grain.
+    pub const ROTATE: u16 = 1 << 6;
     /// A buy was cut short because the store was full.
     pub const CAPACITY_FULL: u16 = 1 << 8;
     /// A buy was cut short by the purchase budget.
@@ -32,7 +34,8 @@ pub mod flags {
         (BAND_BUY, "stock-buy"),
         (BAND_SELL, "stock-sell"),
         (TARGET, "stock-target"),
-        (ROTATION, "stock-rotate"),
+        (ROTATION, "stock-drawdown"),
+        (ROTATE, "stock-rotate"),
     ];
 
     /// Names of the warning flags.

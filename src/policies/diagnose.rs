@@ -1,8 +1,122 @@
-//! Diagnostics in words: what a path tells an analyst about a scheme's defensibility.
+//! Diagnostics in words: what a path tells an analyst about a scheme's defensibility, and the same
+//! warnings summarised as shares over a Monte Carlo run.
 
 use crate::engine::{Model, PeriodRecord};
 use crate::policies::flags;
 use crate::scenario::{FloorInstrument, PolicySpec, Scenario};
+use crate::stochastic::{PolicyRuns, ReplicationSummary};
+
+/// Periods until a store starting at `initial` fills to `capacity` when it takes `growth` a period
+/// and loses `loss` of its carried stock a period: S_t = (1 − δ)S_{t−1} + g, so
+/// S_t = L + (S_0 − L)(1 − δ)^t with L = g/δ, and t = ln((L − C)/(L − S_0)) / ln(1 − δ) (a geometric
+/// series); (C − S_0)/g without losses. `None` when the store never fills (L ≤ C: losses absorb the
+/// surplus first).
+pub fn periods_to_fill(initial: f64, capacity: f64, growth: f64, loss: f64) -> Option<f64> {
+    if growth <= 0.0 || !capacity.is_finite() {
+        return None;
+    }
+    if initial >= capacity {
+        return Some(0.0);
+    }
+    if loss <= 0.0 {
+        return Some((capacity - initial) / growth);
+    }
+    let limit = growth / loss;
+    if limit <= capacity {
+        return None;
+    }
+    Some(((limit - capacity) / (limit - initial)).ln() / (1.0 - loss).ln())
+}
+
+/// The indefensible floor, in words: a floor above the free-market steady state, with the stock
+/// growth per period and when capacity (losses included) or budget runs out. `None` otherwise.
+pub fn floor_warning(scenario: &Scenario, policy: &PolicySpec) -> Option<String> {
+    let unit = &scenario.market.quantity_unit;
+    let ss = scenario.steady;
+    let (demand, supply) = (&scenario.market.demand, &scenario.market.supply);
+    let f = policy.floor?;
+    if f.price <= ss.price {
+        return None;
+    }
+    let growth = supply.quantity(f.price) - demand.quantity(f.price);
+    Some(match f.instrument {
+        FloorInstrument::Purchase => {
+            let mut s = format!(
+                "the floor {} is above the free-market steady state {:.3}: it cannot be defended for ever; at the floor the agency must take S(F) − D(F) = {:.3} {unit} a period",
+                f.price, ss.price, growth
+            );
+            let agency = super::compile(policy).agency;
+            if agency.capacity.is_finite() {
+                let losses = if agency.loss_rate > 0.0 {
+                    " (losses included)"
+                } else {
+                    ""
+                };
+                match periods_to_fill(agency.initial, agency.capacity, growth, agency.loss_rate) {
+                    Some(t) => s.push_str(&format!(
+                        "; a capacity of {} {unit} fills in about {:.1} periods{losses}",
+                        agency.capacity, t
+                    )),
+                    None => s.push_str(&format!(
+                        "; with losses of {} a period the stock levels off at {:.3} {unit}, below the capacity of {} {unit}",
+                        agency.loss_rate,
+                        growth / agency.loss_rate,
+                        agency.capacity
+                    )),
+                }
+            }
+            if agency.purchase_budget.is_finite() && agency.purchase_budget < f.price * growth {
+                s.push_str(&format!(
+                    "; the purchase budget {} covers only {:.3} of the {:.3} {unit} needed each period",
+                    agency.purchase_budget,
+                    agency.purchase_budget / f.price,
+                    growth
+                ));
+            }
+            s
+        }
+        FloorInstrument::DeficiencyPayment => format!(
+            "the floor {} is above the free-market steady state {:.3}: the payment is permanent, about (F − D⁻¹(S(F)))·S(F) = {:.3} a period once planting settles on the floor",
+            f.price,
+            ss.price,
+            (f.price - demand.price_at(supply.quantity(f.price))).max(0.0)
+                * supply.quantity(f.price)
+        ),
+    })
+}
+
+/// The single-path warnings of [`diagnose`] summarised over a Monte Carlo run of `policy`: the
+/// indefensible floor, then the shares of seasons (and of replications) with a full store, a
+/// binding budget, a stock-out or a failed floor.
+pub fn summarise(scenario: &Scenario, policy: &PolicySpec, runs: &PolicyRuns) -> Vec<String> {
+    let mut out: Vec<String> = floor_warning(scenario, policy).into_iter().collect();
+    let reps = runs.replications.len().max(1) as f64;
+    let seasons = reps * scenario.run.periods.max(1) as f64;
+    let pct = |x: f64| crate::output::fmt_num(100.0 * x, 1);
+    type Count = fn(&ReplicationSummary) -> u32;
+    let checks: [(&str, Count); 4] = [
+        ("the store was full", |r| r.capacity_full_periods),
+        ("the purchase budget bound", |r| r.budget_bound_periods),
+        ("stock-out (reserve empty, price above the ceiling)", |r| {
+            r.stockout_periods
+        }),
+        ("the producer price fell below the purchase floor", |r| {
+            r.floor_failed_periods
+        }),
+    ];
+    for (what, count) in checks {
+        let total: u64 = runs.replications.iter().map(|r| u64::from(count(r))).sum();
+        let any = runs.replications.iter().filter(|r| count(r) > 0).count();
+        if total > 0 {
+            out.push(format!(
+                "{what} in {} % of seasons ({} % of replications)",
+                pct(total as f64 / seasons),
+                pct(any as f64 / reps)
+            ));
+        }
+    }
+    out
+}
 
 /// What [`diagnose`] needs from a path, gathered period by period (so a long path can be streamed
 /// without keeping its records): for each event, its first period and how many periods had it.
@@ -36,61 +150,17 @@ impl PathTally {
 pub fn diagnose(
     scenario: &Scenario,
     policy: &PolicySpec,
-    model: &Model,
+    _model: &Model,
     records: &[PeriodRecord],
 ) -> Vec<String> {
     let mut tally = PathTally::default();
     records.iter().for_each(|r| tally.add(r));
-    diagnose_tally(scenario, policy, model, &tally)
+    diagnose_tally(scenario, policy, &tally)
 }
 
 /// [`diagnose`] from a [`PathTally`].
-pub fn diagnose_tally(
-    scenario: &Scenario,
-    policy: &PolicySpec,
-    model: &Model,
-    tally: &PathTally,
-) -> Vec<String> {
-    let mut out = Vec::new();
-    let unit = &scenario.market.quantity_unit;
-    let ss = scenario.steady;
-    if let Some(f) = policy.floor {
-        if f.price > ss.price {
-            let growth = model.supply.quantity(f.price) - model.demand.quantity(f.price);
-            match f.instrument {
-                FloorInstrument::Purchase => {
-                    let mut s = format!(
-                        "the floor {} is above the free-market steady state {:.3}: it cannot be defended for ever; at the floor the agency must take S(F) − D(F) = {:.3} {unit} a period",
-                        f.price, ss.price, growth
-                    );
-                    let agency = &model.policy.agency;
-                    if agency.capacity.is_finite() {
-                        s.push_str(&format!(
-                            "; a capacity of {} {unit} lasts about {:.1} periods",
-                            agency.capacity,
-                            agency.capacity / growth.max(1e-300)
-                        ));
-                    }
-                    if agency.purchase_budget.is_finite() && agency.purchase_budget < f.price * growth {
-                        s.push_str(&format!(
-                            "; the purchase budget {} covers only {:.3} of the {:.3} {unit} needed each period",
-                            agency.purchase_budget,
-                            agency.purchase_budget / f.price,
-                            growth
-                        ));
-                    }
-                    out.push(s);
-                }
-                FloorInstrument::DeficiencyPayment => out.push(format!(
-                    "the floor {} is above the free-market steady state {:.3}: the payment is permanent, about (F − D⁻¹(S(F)))·S(F) = {:.3} a period once planting settles on the floor",
-                    f.price,
-                    ss.price,
-                    (f.price - model.demand.price_at(model.supply.quantity(f.price))).max(0.0)
-                        * model.supply.quantity(f.price)
-                )),
-            }
-        }
-    }
+pub fn diagnose_tally(scenario: &Scenario, policy: &PolicySpec, tally: &PathTally) -> Vec<String> {
+    let mut out: Vec<String> = floor_warning(scenario, policy).into_iter().collect();
     if let Some((t, n)) = tally.capacity_full {
         out.push(format!(
             "the store was full from period {t} ({n} periods in all): the agency could not buy all it should, and the price fell below its floor or band"
@@ -107,4 +177,29 @@ pub fn diagnose_tally(
         ));
     }
     out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn time_to_fill_follows_the_geometric_recursion() {
+        // S_t = (1 − δ)S_{t−1} + g iterated directly (the definition) against the closed form
+        let (s0, cap, g, d) = (5.0, 60.0, 10.0, 0.05);
+        let t = periods_to_fill(s0, cap, g, d).unwrap();
+        let mut s = s0;
+        let mut steps = 0;
+        while s < cap {
+            s = (1.0 - d) * s + g;
+            steps += 1;
+        }
+        assert!(
+            t <= steps as f64 && t > steps as f64 - 1.0,
+            "{t} vs {steps}"
+        );
+        // without losses: (C − S_0)/g; with losses that absorb the surplus first: never
+        assert!((periods_to_fill(0.0, 60.0, 10.0, 0.0).unwrap() - 6.0).abs() < 1e-12);
+        assert_eq!(periods_to_fill(0.0, 60.0, 2.0, 0.05), None); // levels off at 40
+    }
 }

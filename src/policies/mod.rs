@@ -15,7 +15,9 @@ mod stock_target;
 
 pub use clearing::{flags, Clearing};
 pub use deficiency::DeficiencyPayment;
-pub use diagnose::{diagnose, diagnose_tally, PathTally};
+pub use diagnose::{
+    diagnose, diagnose_tally, floor_warning, periods_to_fill, summarise, PathTally,
+};
 pub use floor_purchase::FloorPurchase;
 pub use stock_band::BandStock;
 pub use stock_share::ShareStock;
@@ -74,6 +76,9 @@ pub struct Agency {
     pub financing_rate: f64,
     /// Cost per unit bought or sold.
     pub handling_cost: f64,
+    /// Share of the old stock rotated a period (`release = "rotate"`; 0 otherwise): sold and
+    /// replaced by the same quantity of new grain at the same price, paying handling on both legs.
+    pub rotation_share: f64,
 }
 
 impl Default for Agency {
@@ -86,7 +91,17 @@ impl Default for Agency {
             purchase_budget: f64::INFINITY,
             financing_rate: 0.0,
             handling_cost: 0.0,
+            rotation_share: 0.0,
         }
+    }
+}
+
+impl Agency {
+    /// The quantity rotated in a period: `rotation_share` of the old grain still in store, the
+    /// smaller of the carried stock (after losses) and the end-of-period stock.
+    #[inline(always)]
+    pub fn rotated(&self, carried: f64, stock: f64) -> f64 {
+        self.rotation_share * carried.min(stock).max(0.0)
     }
 }
 
@@ -131,6 +146,10 @@ pub fn compile(spec: &PolicySpec) -> Policy {
             purchase_budget: s.purchase_budget,
             financing_rate: s.financing_rate,
             handling_cost: s.handling_cost,
+            rotation_share: match s.release {
+                ReleaseSpec::Rotate { share } => share,
+                _ => 0.0,
+            },
         };
     }
     if let Some(f) = &spec.floor {
@@ -154,6 +173,9 @@ pub fn compile(spec: &PolicySpec) -> Policy {
                 speed,
             })),
             ReleaseSpec::Share { share } => rules.push(Box::new(ShareStock { band, share })),
+            // the rotation itself nets out in the market: the rule trades as the band, and the
+            // engine books the rotated quantity's handling (`Agency::rotated`)
+            ReleaseSpec::Rotate { .. } => rules.push(Box::new(band)),
         }
     }
     if let Some(f) = &spec.floor {

@@ -1,7 +1,9 @@
 use super::{flags, BandStock, Clearing, PolicyRule};
 
-/// A rotating reserve: it defends the band first; unless it had to buy, it releases `share` of the
-/// carried stock each period (counting band sales), never pushing the price below `buy_below`.
+/// A drawdown reserve (`release = "drawdown"`, formerly "share"): it defends the band first; unless
+/// it had to buy, it releases `share` of the carried stock each period (counting band sales), never
+/// pushing the price below `buy_below`. The stock runs down: this is not a rotation (see
+/// `release = "rotate"`).
 #[derive(Debug, Clone, Copy)]
 pub struct ShareStock {
     /// The band defended first.
@@ -12,7 +14,7 @@ pub struct ShareStock {
 
 impl PolicyRule for ShareStock {
     fn name(&self) -> &'static str {
-        "stock-share"
+        "stock-drawdown"
     }
     fn trades_stock(&self) -> bool {
         true

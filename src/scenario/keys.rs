@@ -60,6 +60,12 @@ pub fn check_keys(
                 Kind::Numbers => v
                     .as_array()
                     .is_some_and(|a| a.iter().all(|x| x.is_float() || x.is_integer())),
+                Kind::NumberOrNumbers => {
+                    v.is_float()
+                        || v.is_integer()
+                        || v.as_array()
+                            .is_some_and(|a| a.iter().all(|x| x.is_float() || x.is_integer()))
+                }
             };
             if !fits {
                 let want = match kind {
@@ -68,6 +74,7 @@ pub fn check_keys(
                     Kind::Text => "must be a quoted string",
                     Kind::Bool => "must be true or false",
                     Kind::Numbers => "must be an array of numbers, e.g. [90.0, 95.0]",
+                    Kind::NumberOrNumbers => "must be a number or an array of numbers, e.g. 230.0",
                 };
                 return Err(InputError::BadValue {
                     file: file.into(),

@@ -128,11 +128,48 @@ impl ExpectationSpec {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "lowercase")]
 pub enum TerminalStock {
+    /// Sold into the market after T at the price its sale would cause: S_T·D⁻¹(Q* + S_T),
+    /// discounted from T + 1 (the default).
+    Disposal,
     /// At the last period's market price.
     Market,
     /// At zero.
     Zero,
 }
+
+impl TerminalStock {
+    /// The file's word for it.
+    pub fn as_str(&self) -> &'static str {
+        match self {
+            TerminalStock::Disposal => "disposal",
+            TerminalStock::Market => "market",
+            TerminalStock::Zero => "zero",
+        }
+    }
+}
+
+/// How the agency's opening stock (`[stock] initial`) is accounted.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum OpeningStock {
+    /// Bought at P_0 at t = 0: an undiscounted outlay in fiscal cost and net welfare (the default).
+    Charged,
+    /// Free (a stock that is truly sunk).
+    Free,
+}
+
+impl OpeningStock {
+    /// The file's word for it.
+    pub fn as_str(&self) -> &'static str {
+        match self {
+            OpeningStock::Charged => "charged",
+            OpeningStock::Free => "free",
+        }
+    }
+}
+
+/// At most this many alert prices (`[run] alert_price`).
+pub const MAX_ALERTS: usize = 8;
 
 /// The `[run]` section.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -153,6 +190,14 @@ pub struct RunSettings {
     pub terminal_stock: TerminalStock,
     /// Coefficient of relative risk aversion of producers (for the revenue risk premium).
     pub risk_aversion: f64,
+    /// Accounting of the opening public stock.
+    pub opening_stock: OpeningStock,
+    /// λ, the marginal cost of public funds: net welfare counts λ·Δfiscal (1 = none).
+    pub public_funds_cost: f64,
+    /// α, the crop's share of producers' income (for the exact risk premium), in (0, 1].
+    pub crop_income_share: f64,
+    /// Alert prices (`[run] alert_price`), at most [`MAX_ALERTS`], ascending as given.
+    pub alert_prices: Vec<f64>,
 }
 
 /// The `[shocks]` section.
@@ -234,8 +279,13 @@ pub enum ReleaseSpec {
     Band,
     /// Steers the stock toward `target` at `speed` while the price is inside the band.
     Target { target: f64, speed: f64 },
-    /// Rotates: releases `share` of the stock each period (not below `buy_below`).
+    /// Draws the stock down: releases `share` of the stock each period (not below `buy_below`).
+    /// File word `"drawdown"` (`"share"` is accepted as an alias).
+    #[serde(rename = "drawdown")]
     Share { share: f64 },
+    /// Rotates: defends the band, and each period sells `share` of the old stock and buys the same
+    /// quantity of new grain at the same price (stock and price path unchanged; costs handling).
+    Rotate { share: f64 },
 }
 
 /// The `[stock]` section: the public buffer stock agency.
@@ -276,6 +326,8 @@ pub struct PolicySpec {
     pub stock: Option<StockSpec>,
     /// Expectation rule that overrides the market file's.
     pub expectations: Option<ExpectationSpec>,
+    /// Money per season the treasury set aside (`[policy] annual_budget`), if any.
+    pub annual_budget: Option<f64>,
 }
 
 impl PolicySpec {
@@ -287,12 +339,19 @@ impl PolicySpec {
             floor: None,
             stock: None,
             expectations: None,
+            annual_budget: None,
         }
     }
 
     /// True when the policy does nothing (no floor, no stock, no override).
     pub fn is_none(&self) -> bool {
         self.floor.is_none() && self.stock.is_none() && self.expectations.is_none()
+    }
+
+    /// True when the policy neither trades nor pays (no floor, no stock); it may still override the
+    /// farmers' expectation rule, which is a change in behaviour, not a policy.
+    pub fn intervenes(&self) -> bool {
+        self.floor.is_some() || self.stock.is_some()
     }
 }
 

@@ -97,6 +97,12 @@ pub const RANGES: &[KeyRange] = &[
     int("run.seed", 0.0, SEED_MAX),
     r("run.discount_rate", 0.0, 1.0, false, true),
     r("run.risk_aversion", 0.0, 20.0, false, false),
+    r("run.public_funds_cost", 1.0, 3.0, false, false),
+    r("run.crop_income_share", 0.0, 1.0, true, false),
+    noted(
+        r("run.alert_price", 0.0, BIG, true, false),
+        "each price; at most 8 prices",
+    ),
     // shocks
     r("shocks.yield_cv", 0.0, 2.0, false, false),
     r("shocks.supply_sd", 0.0, BIG, false, false),
@@ -129,6 +135,7 @@ pub const RANGES: &[KeyRange] = &[
     noted(r("stock.target", 0.0, BIG, false, false), "≤ capacity"),
     r("stock.speed", 0.0, 1.0, true, false),
     r("stock.share", 0.0, 1.0, true, false),
+    r("policy.annual_budget", 0.0, MONEY, true, false),
 ];
 
 /// The range of `key` (a dotted key; an indexed key such as `run.price_history[3]` takes its

@@ -57,6 +57,11 @@ pub struct RawRun {
     pub discount_rate: Option<f64>,
     pub terminal_stock: Option<String>,
     pub risk_aversion: Option<f64>,
+    pub opening_stock: Option<String>,
+    pub public_funds_cost: Option<f64>,
+    pub crop_income_share: Option<f64>,
+    /// A number or an array of numbers (checked in `validate`).
+    pub alert_price: Option<toml::Value>,
 }
 
 #[derive(Debug, Clone, Default, Deserialize)]
@@ -90,6 +95,7 @@ pub struct RawPolicyFile {
 #[serde(default)]
 pub struct RawPolicy {
     pub name: Option<String>,
+    pub annual_budget: Option<f64>,
 }
 
 #[derive(Debug, Clone, Default, Deserialize)]
@@ -131,6 +137,8 @@ pub enum Kind {
     Bool,
     /// An array of numbers.
     Numbers,
+    /// A number or an array of numbers.
+    NumberOrNumbers,
 }
 
 use Kind::*;
@@ -160,6 +168,10 @@ pub const MARKET_SCHEMA: &[(&str, &[(&str, Kind)])] = &[
             ("discount_rate", Number),
             ("terminal_stock", Text),
             ("risk_aversion", Number),
+            ("opening_stock", Text),
+            ("public_funds_cost", Number),
+            ("crop_income_share", Number),
+            ("alert_price", NumberOrNumbers),
         ],
     ),
     (
@@ -183,7 +195,7 @@ pub const MARKET_SCHEMA: &[(&str, &[(&str, Kind)])] = &[
 
 /// The keys a policy file allows and their types.
 pub const POLICY_SCHEMA: &[(&str, &[(&str, Kind)])] = &[
-    ("policy", &[("name", Text)]),
+    ("policy", &[("name", Text), ("annual_budget", Number)]),
     (
         "floor",
         &[("price", Number), ("instrument", Text), ("announced", Bool)],

@@ -481,18 +481,35 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
         None => 42,
     };
     let discount_rate = c.within("run.discount_rate", r.discount_rate.unwrap_or(0.05))?;
-    let terminal_stock = match r.terminal_stock.as_deref().unwrap_or("market") {
+    let terminal_stock = match r.terminal_stock.as_deref().unwrap_or("disposal") {
+        "disposal" => TerminalStock::Disposal,
         "market" => TerminalStock::Market,
         "zero" => TerminalStock::Zero,
         other => {
             return Err(c.bad(
                 "run.terminal_stock",
                 format!("\"{}\"", escape(other)),
-                "allowed: \"market\", \"zero\"",
+                "allowed: \"disposal\" (default), \"market\", \"zero\"",
             ))
         }
     };
     let risk_aversion = c.within("run.risk_aversion", r.risk_aversion.unwrap_or(0.0))?;
+    let opening_stock = match r.opening_stock.as_deref().unwrap_or("charged") {
+        "charged" => OpeningStock::Charged,
+        "free" => OpeningStock::Free,
+        other => {
+            return Err(c.bad(
+                "run.opening_stock",
+                format!("\"{}\"", escape(other)),
+                "allowed: \"charged\" (default), \"free\"",
+            ))
+        }
+    };
+    let public_funds_cost =
+        c.within("run.public_funds_cost", r.public_funds_cost.unwrap_or(1.0))?;
+    let crop_income_share =
+        c.within("run.crop_income_share", r.crop_income_share.unwrap_or(1.0))?;
+    let alert_prices = alert_prices(&c, r.alert_price.as_ref())?;
     let s = &raw.shocks;
     let shocks = ShockSpec {
         yield_cv: c.within("shocks.yield_cv", s.yield_cv.unwrap_or(0.0))?,
@@ -543,11 +560,43 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
             discount_rate,
             terminal_stock,
             risk_aversion,
+            opening_stock,
+            public_funds_cost,
+            crop_income_share,
+            alert_prices,
         },
         shocks,
         storers,
         steady,
     })
+}
+
+/// `[run] alert_price`: one price or a list of at most [`MAX_ALERTS`], each > 0.
+fn alert_prices(c: &Check, v: Option<&toml::Value>) -> Result<Vec<f64>, InputError> {
+    let Some(v) = v else {
+        return Ok(Vec::new());
+    };
+    let number = |x: &toml::Value| x.as_float().or_else(|| x.as_integer().map(|i| i as f64));
+    let values: Vec<f64> = match v.as_array() {
+        Some(a) => a.iter().filter_map(number).collect(),
+        None => number(v).into_iter().collect(),
+    };
+    if values.is_empty() || values.len() > MAX_ALERTS {
+        return Err(c.bad(
+            "run.alert_price",
+            values.len(),
+            &format!("give one price or a list of 1 to {MAX_ALERTS} prices"),
+        ));
+    }
+    for (i, p) in values.iter().enumerate() {
+        let key = if v.is_array() {
+            format!("run.alert_price[{i}]")
+        } else {
+            "run.alert_price".to_string()
+        };
+        c.within(&key, *p)?;
+    }
+    Ok(values)
 }
 
 /// Validates a parsed policy file.
@@ -655,19 +704,26 @@ pub fn policy_from_table(file: &str, table: toml::Table) -> Result<PolicySpec, I
                     let speed = c.within("stock.speed", s.speed.unwrap_or(1.0))?;
                     ReleaseSpec::Target { target, speed }
                 }
-                "share" => {
+                // "share" is the old name of "drawdown", kept as an alias
+                word @ ("drawdown" | "share" | "rotate") => {
                     let share = s.share.ok_or_else(|| {
-                        c.missing("stock.share", "release = \"share\" needs share in (0, 1]")
+                        c.missing(
+                            "stock.share",
+                            &format!("release = \"{word}\" needs share in (0, 1]"),
+                        )
                     })?;
-                    ReleaseSpec::Share {
-                        share: c.within("stock.share", share)?,
+                    let share = c.within("stock.share", share)?;
+                    if word == "rotate" {
+                        ReleaseSpec::Rotate { share }
+                    } else {
+                        ReleaseSpec::Share { share }
                     }
                 }
                 other => {
                     return Err(c.bad(
                         "stock.release",
                         format!("\"{}\"", escape(other)),
-                        "allowed release rules: \"band\", \"target\", \"share\"",
+                        "allowed release rules: \"band\", \"target\", \"drawdown\" (alias \"share\"), \"rotate\"",
                     ))
                 }
             };
@@ -689,7 +745,10 @@ pub fn policy_from_table(file: &str, table: toml::Table) -> Result<PolicySpec, I
                 release_key_unused("target", s.target.is_some())?;
                 release_key_unused("speed", s.speed.is_some())?;
             }
-            if !matches!(release, ReleaseSpec::Share { .. }) {
+            if !matches!(
+                release,
+                ReleaseSpec::Share { .. } | ReleaseSpec::Rotate { .. }
+            ) {
                 release_key_unused("share", s.share.is_some())?;
             }
             Some(StockSpec {
@@ -726,6 +785,11 @@ pub fn policy_from_table(file: &str, table: toml::Table) -> Result<PolicySpec, I
         floor,
         stock,
         expectations,
+        annual_budget: raw
+            .policy
+            .annual_budget
+            .map(|b| c.within("policy.annual_budget", b))
+            .transpose()?,
     })
 }
 

@@ -270,6 +270,13 @@ pub fn regimes(setup: &Setup, free_price: f64, unit: &str) -> Vec<RegimeCase> {
                     ReleaseSpec::Target { target, speed } => {
                         target_regime(setup, free_price, buy, sell, target, speed, unit)
                     }
+                    // a rotation swaps old grain for new: the stock and the market as in the band
+                    ReleaseSpec::Rotate { .. } => (
+                        free,
+                        1.0 - loss,
+                        "inside the band the agency only rotates its stock: the free market"
+                            .to_string(),
+                    ),
                     ReleaseSpec::Share { share } => (
                         free,
                         (1.0 - loss) * (1.0 - share),

@@ -12,6 +12,7 @@ pub mod stats;
 pub use montecarlo::{
     run_monte_carlo, run_monte_carlo_sources, sources, MonteCarlo, NoProgress, PathSource,
     PolicyRuns, Pooled, Progress, ReplicationFailed, ReplicationSummary, Series, SeriesSummary,
+    Watch,
 };
 pub use shocks::{single_path_shocks, ShockStream};
 pub use stats::{quantiles, ShiftedSums, Summary};

@@ -17,15 +17,19 @@ use serde::Serialize;
 use super::stats::{ShiftedSums, Summary};
 use super::ShockStream;
 use crate::engine::{Diverged, Model, PeriodRecord, PeriodShock};
-use crate::scenario::{PolicySpec, Scenario};
+use crate::policies::flags;
+use crate::scenario::{FloorInstrument, PolicySpec, Scenario, MAX_ALERTS};
 use crate::storage::{SolvedStorage, StorageError};
-use crate::welfare::{producer_revenue, Discount, WelfareFold, WelfarePv};
+use crate::welfare::{crra_transform, income, producer_revenue, Books, WelfareFold, WelfarePv};
 
 /// Replications per parallel work item (fixed, so the order of float sums never depends on threads).
 pub const CHUNK: usize = 64;
 
 /// Memory allowed for the per-period values kept for quantiles (all policies and series together).
 pub const SERIES_BUDGET_BYTES: usize = 128 << 20;
+
+/// Memory allowed for the per-season fiscal outlays kept for their pooled quantiles (all policies).
+pub const SEASON_BUDGET_BYTES: usize = 256 << 20;
 
 /// A per-period series that can be kept for quantiles.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
@@ -86,6 +90,34 @@ pub struct ReplicationSummary {
     pub stockout_periods: u32,
     /// Agency stock S_T.
     pub final_stock: f64,
+    /// Means over this replication's periods (for standard errors of the pooled means).
+    pub mean_price: f64,
+    /// Mean producer price over the periods.
+    pub mean_producer_price: f64,
+    /// Mean harvest over the periods.
+    pub mean_harvest: f64,
+    /// Mean producer revenue over the periods.
+    pub mean_revenue: f64,
+    /// Mean cash outlay per season (the records' fiscal cost, interest in full).
+    pub mean_season_fiscal: f64,
+    /// The largest season's outlay.
+    pub worst_season_fiscal: f64,
+    /// The largest running total of outlays (from the opening purchase when charged, else 0).
+    pub peak_cumulative_fiscal: f64,
+    /// Seasons whose outlay exceeded `[policy] annual_budget`.
+    pub budget_exceeded_periods: u32,
+    /// Seasons with the price above each `[run] alert_price` (in the order given).
+    pub alert_periods: [u32; MAX_ALERTS],
+    /// Seasons the producer price ended below a purchase floor because the store was full or the
+    /// purchase budget bound.
+    pub floor_failed_periods: u32,
+    /// Seasons the price left [buy_below, sell_above] while the agency could not act (store full,
+    /// budget bound, stock out).
+    pub band_failed_periods: u32,
+    /// Seasons a purchase was cut short by a full store.
+    pub capacity_full_periods: u32,
+    /// Seasons a purchase was cut short by the purchase budget.
+    pub budget_bound_periods: u32,
 }
 
 /// Pooled moments over all periods and replications of one policy.
@@ -99,6 +131,8 @@ pub struct Pooled {
     pub harvest: ShiftedSums,
     /// Producer revenue (producer price × harvest).
     pub revenue: ShiftedSums,
+    /// Σ of the CRRA transform of producers' income (see [`Watch`]), in a fixed order.
+    pub income_transform: f64,
 }
 
 impl Pooled {
@@ -108,15 +142,17 @@ impl Pooled {
             producer_price: ShiftedSums::new(price_ref),
             harvest: ShiftedSums::new(quantity_ref),
             revenue: ShiftedSums::new(price_ref * quantity_ref),
+            income_transform: 0.0,
         }
     }
 
     #[inline]
-    fn push(&mut self, r: &PeriodRecord) {
+    fn push(&mut self, r: &PeriodRecord, transform: f64) {
         self.price.push(r.price);
         self.producer_price.push(r.producer_price);
         self.harvest.push(r.harvest);
         self.revenue.push(producer_revenue(r));
+        self.income_transform += transform;
     }
 
     fn merge(&mut self, o: &Pooled) {
@@ -124,6 +160,77 @@ impl Pooled {
         self.producer_price.merge(&o.producer_price);
         self.harvest.merge(&o.harvest);
         self.revenue.merge(&o.revenue);
+        self.income_transform += o.income_transform;
+    }
+}
+
+/// What the Monte Carlo watches for one policy: its books, its thresholds, and producers' income.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Watch {
+    /// Accounting conventions.
+    pub books: Books,
+    /// A floor defended by purchase.
+    pub purchase_floor: Option<f64>,
+    /// The band [buy_below, sell_above] of a buffer stock.
+    pub band: Option<(f64, f64)>,
+    /// `[policy] annual_budget` (∞ without one).
+    pub annual_budget: f64,
+    /// `[run] alert_price` values (∞ in the unused slots).
+    pub alerts: [f64; MAX_ALERTS],
+    /// How many alert prices were given.
+    pub alert_count: usize,
+    /// Crop share of income α.
+    pub crop_income_share: f64,
+    /// Relative risk aversion R.
+    pub risk_aversion: f64,
+    /// Steady-state crop revenue P*·Q* (fixes other income at (1 − α)/α of it and scales the
+    /// CRRA transform).
+    pub reference_revenue: f64,
+}
+
+impl Watch {
+    /// The watch of `policy` (compiled agency `agency`) under `scenario`.
+    pub fn new(
+        scenario: &Scenario,
+        policy: &PolicySpec,
+        agency: &crate::policies::Agency,
+    ) -> Watch {
+        let mut alerts = [f64::INFINITY; MAX_ALERTS];
+        for (slot, p) in alerts.iter_mut().zip(&scenario.run.alert_prices) {
+            *slot = *p;
+        }
+        Watch {
+            books: Books::new(scenario, agency),
+            purchase_floor: policy
+                .floor
+                .filter(|f| f.instrument == FloorInstrument::Purchase)
+                .map(|f| f.price),
+            band: policy
+                .stock
+                .filter(|s| s.buy_below > 0.0 || s.sell_above.is_finite())
+                .map(|s| (s.buy_below, s.sell_above)),
+            annual_budget: policy.annual_budget.unwrap_or(f64::INFINITY),
+            alerts,
+            alert_count: scenario.run.alert_prices.len().min(MAX_ALERTS),
+            crop_income_share: scenario.run.crop_income_share,
+            risk_aversion: scenario.run.risk_aversion,
+            reference_revenue: scenario.steady.price * scenario.steady.quantity,
+        }
+    }
+
+    /// Producers' income in a period: revenue plus other income held fixed.
+    #[inline]
+    pub fn income(&self, r: &PeriodRecord) -> f64 {
+        income(
+            producer_revenue(r),
+            self.crop_income_share,
+            self.reference_revenue,
+        )
+    }
+
+    /// The scale of the CRRA transform (mean income at the steady state).
+    pub fn income_scale(&self) -> f64 {
+        self.reference_revenue / self.crop_income_share
     }
 }
 
@@ -152,6 +259,15 @@ pub struct PolicyRuns {
     pub mean_fiscal_cost: Vec<f64>,
     /// The series asked for, summarised per period.
     pub series: Vec<SeriesSummary>,
+    /// Per-season cash outlays of the leading replications (all of them unless the run is very
+    /// large), for pooled quantiles.
+    pub season_fiscal: Vec<f64>,
+    /// Mean producers' income in each period across replications (index t − 1).
+    pub mean_income: Vec<f64>,
+    /// Mean CRRA transform of income in each period across replications (index t − 1).
+    pub mean_income_transform: Vec<f64>,
+    /// What was watched (books, thresholds, income).
+    pub watch: Watch,
 }
 
 /// Everything a Monte Carlo run produced, policies in the order given.
@@ -187,6 +303,11 @@ struct ChunkPolicy {
     reps: Vec<ReplicationSummary>,
     pooled: Pooled,
     fiscal: Vec<f64>,
+    /// per-period sums over the chunk's replications of income and of its CRRA transform
+    income: Vec<f64>,
+    transform: Vec<f64>,
+    /// season outlays, replication-major (empty beyond the season budget)
+    seasons: Vec<f64>,
     /// kept series, each period-major: [t][rep in chunk], so a period's values are contiguous
     /// (empty when this chunk lies beyond the series budget)
     series: Vec<Vec<f64>>,
@@ -211,17 +332,32 @@ pub fn run_monte_carlo(
         .iter()
         .map(|p| PathSource::Engine(Box::new(Model::new(scenario, p))))
         .collect();
-    run_with_budget(scenario, &models, series, progress, SERIES_BUDGET_BYTES)
+    run_with_budget(
+        scenario,
+        policies,
+        &models,
+        series,
+        progress,
+        SERIES_BUDGET_BYTES,
+    )
 }
 
-/// [`run_monte_carlo`] over given path sources (one per policy, in order).
+/// [`run_monte_carlo`] over given path sources (one per policy, in order, built from `policies`).
 pub fn run_monte_carlo_sources(
     scenario: &Scenario,
+    policies: &[PolicySpec],
     sources: &[PathSource],
     series: &[Series],
     progress: &dyn Progress,
 ) -> Result<MonteCarlo, ReplicationFailed> {
-    run_with_budget(scenario, sources, series, progress, SERIES_BUDGET_BYTES)
+    run_with_budget(
+        scenario,
+        policies,
+        sources,
+        series,
+        progress,
+        SERIES_BUDGET_BYTES,
+    )
 }
 
 /// Where a policy's simulated periods come from.
@@ -265,6 +401,7 @@ pub fn sources(
 
 fn run_with_budget(
     scenario: &Scenario,
+    policies: &[PolicySpec],
     models: &[PathSource],
     series: &[Series],
     progress: &dyn Progress,
@@ -272,7 +409,14 @@ fn run_with_budget(
 ) -> Result<MonteCarlo, ReplicationFailed> {
     let reps = scenario.run.replications.max(1);
     let periods = scenario.run.periods;
-    let discount = Discount::new(scenario.run.discount_rate, periods);
+    let watches: Vec<Watch> = policies
+        .iter()
+        .map(|p| Watch::new(scenario, p, &crate::policies::compile(p).agency))
+        .collect();
+    let season_reps = (SEASON_BUDGET_BYTES / (periods * models.len() * 8).max(1))
+        .max(1)
+        .div_ceil(CHUNK)
+        * CHUNK;
     let chunks = reps.div_ceil(CHUNK);
     let first_failure = AtomicUsize::new(usize::MAX);
     let per_replication = (periods * series.len() * models.len() * 8).max(1);
@@ -280,9 +424,10 @@ fn run_with_budget(
     let series_reps = (budget / per_replication).max(1).div_ceil(CHUNK) * CHUNK;
     let ctx = Context {
         series_reps,
+        season_reps,
         scenario,
         models,
-        discount: &discount,
+        watches: &watches,
         series,
         first_failure: &first_failure,
         progress,
@@ -309,7 +454,17 @@ fn run_with_budget(
         }
     }
     let policies = (0..models.len())
-        .map(|k| assemble(models[k].name(), k, &chunk_results, series, periods, reps))
+        .map(|k| {
+            assemble(
+                models[k].name(),
+                k,
+                &chunk_results,
+                series,
+                periods,
+                reps,
+                watches[k].clone(),
+            )
+        })
         .collect();
     Ok(MonteCarlo {
         replications: reps,
@@ -321,9 +476,10 @@ fn run_with_budget(
 struct Context<'a> {
     scenario: &'a Scenario,
     models: &'a [PathSource],
-    discount: &'a Discount,
+    watches: &'a [Watch],
     series: &'a [Series],
     series_reps: usize,
+    season_reps: usize,
     first_failure: &'a AtomicUsize,
     progress: &'a dyn Progress,
 }
@@ -340,6 +496,13 @@ impl Context<'_> {
                 reps: Vec::with_capacity(n),
                 pooled: Pooled::new(s.steady.price, s.steady.quantity),
                 fiscal: vec![0.0; periods],
+                income: vec![0.0; periods],
+                transform: vec![0.0; periods],
+                seasons: if from < self.season_reps {
+                    Vec::with_capacity(n * periods)
+                } else {
+                    Vec::new()
+                },
                 series: self
                     .series
                     .iter()
@@ -364,8 +527,15 @@ impl Context<'_> {
                 }
             }
             for (k, model) in self.models.iter().enumerate() {
+                let keep_seasons = from < self.season_reps;
                 let summary = self
-                    .replicate(model, &shocks, rep, rep - from, n, &mut out[k])
+                    .replicate(
+                        model,
+                        &self.watches[k],
+                        &shocks,
+                        (rep, rep - from, n, keep_seasons),
+                        &mut out[k],
+                    )
                     .map_err(|source| ReplicationFailed {
                         policy: model.name().to_string(),
                         policy_index: k,
@@ -385,46 +555,98 @@ impl Context<'_> {
 
     /// One replication (number `slot` of the chunk's `n`) of one model, folded into `acc`; returns
     /// the replication's summary.
+    /// `at` = (replication, slot in the chunk, chunk size, keep the season outlays).
     fn replicate(
         &self,
         source: &PathSource,
+        watch: &Watch,
         shocks: &[PeriodShock],
-        rep: usize,
-        slot: usize,
-        n: usize,
+        at: (usize, usize, usize, bool),
         acc: &mut ChunkPolicy,
     ) -> Result<ReplicationSummary, Diverged> {
+        let (rep, slot, n, keep) = at;
         match source {
             PathSource::Engine(model) => {
                 let mut sim = model.simulator();
-                self.fold(shocks.iter().map(|s| sim.step(s)), slot, n, acc)
+                self.fold(
+                    shocks.iter().map(|s| sim.step(s)),
+                    watch,
+                    (slot, n, keep),
+                    acc,
+                )
             }
             PathSource::Storage(solved) => {
                 let records = solved.records(rep as u64, shocks.len());
-                self.fold(records.into_iter().map(Ok), slot, n, acc)
+                self.fold(records.into_iter().map(Ok), watch, (slot, n, keep), acc)
             }
         }
     }
 
-    /// Folds one replication's periods into `acc`.
+    /// Folds one replication's periods into `acc`; `at` = (slot in the chunk, chunk size, keep the
+    /// season outlays).
     fn fold(
         &self,
         periods: impl Iterator<Item = Result<PeriodRecord, Diverged>>,
-        slot: usize,
-        n: usize,
+        watch: &Watch,
+        at: (usize, usize, bool),
         acc: &mut ChunkPolicy,
     ) -> Result<ReplicationSummary, Diverged> {
+        let (slot, n, keep_seasons) = at;
+        let books = &watch.books;
+        let scale = watch.income_scale();
         let mut fold = WelfareFold::new();
         let mut pooled = Pooled::new(acc.pooled.price.reference, acc.pooled.harvest.reference);
-        let (mut binding, mut stockout, mut last_stock) = (0u32, 0u32, 0.0);
+        let mut out = ReplicationSummary {
+            worst_season_fiscal: f64::NEG_INFINITY,
+            ..Default::default()
+        };
+        let mut running = books.opening_stock_cost;
+        let mut peak = running.max(0.0);
+        let (mut fiscal_sum, mut count) = (0.0, 0usize);
+        const CUT: u16 = flags::CAPACITY_FULL | flags::BUDGET_BOUND;
         for (t, r) in periods.enumerate() {
             let r = r?;
-            fold.add(&r, self.discount);
-            pooled.push(&r);
+            fold.add(&r, books);
+            let y = watch.income(&r);
+            let transform = crra_transform(y, scale, watch.risk_aversion);
+            pooled.push(&r, transform);
             acc.fiscal[t] += r.fiscal_cost;
-            binding += u32::from(r.floor_binding());
-            stockout += u32::from(r.stockout);
-            last_stock = r.stock;
+            acc.income[t] += y;
+            acc.transform[t] += transform;
+            if keep_seasons {
+                acc.seasons.push(r.fiscal_cost);
+            }
+            out.floor_binding_periods += u32::from(r.floor_binding());
+            out.stockout_periods += u32::from(r.stockout);
+            out.final_stock = r.stock;
+            fiscal_sum += r.fiscal_cost;
+            count += 1;
+            out.worst_season_fiscal = out.worst_season_fiscal.max(r.fiscal_cost);
+            running += r.fiscal_cost;
+            peak = peak.max(running);
+            out.budget_exceeded_periods +=
+                u32::from(r.fiscal_cost > watch.annual_budget * (1.0 + 1e-12));
+            for (c, a) in out
+                .alert_periods
+                .iter_mut()
+                .zip(&watch.alerts[..watch.alert_count])
+            {
+                *c += u32::from(r.price > *a);
+            }
+            let cut = r.flags & CUT != 0;
+            out.capacity_full_periods += u32::from(r.flags & flags::CAPACITY_FULL != 0);
+            out.budget_bound_periods += u32::from(r.flags & flags::BUDGET_BOUND != 0);
+            out.floor_failed_periods += u32::from(
+                cut && watch
+                    .purchase_floor
+                    .is_some_and(|f| r.producer_price < f * (1.0 - 1e-9)),
+            );
+            out.band_failed_periods += u32::from(watch.band.is_some_and(|(lo, hi)| {
+                let below = cut && r.price < lo * (1.0 - 1e-9);
+                let above =
+                    r.price > hi * (1.0 + 1e-9) && (r.stockout || r.flags & flags::STOCK_OUT != 0);
+                below || above
+            }));
             for (j, which) in self.series.iter().enumerate() {
                 let x = which.of(&r);
                 acc.series_sums[j][t] += x;
@@ -434,12 +656,18 @@ impl Context<'_> {
             }
         }
         acc.pooled.merge(&pooled);
-        Ok(ReplicationSummary {
-            welfare: fold.finish(self.scenario.run.terminal_stock, self.discount),
-            floor_binding_periods: binding,
-            stockout_periods: stockout,
-            final_stock: last_stock,
-        })
+        let per = count.max(1) as f64;
+        out.welfare = fold.finish(books);
+        out.mean_price = pooled.price.mean();
+        out.mean_producer_price = pooled.producer_price.mean();
+        out.mean_harvest = pooled.harvest.mean();
+        out.mean_revenue = pooled.revenue.mean();
+        out.mean_season_fiscal = fiscal_sum / per;
+        if count == 0 {
+            out.worst_season_fiscal = 0.0;
+        }
+        out.peak_cumulative_fiscal = peak;
+        Ok(out)
     }
 }
 
@@ -451,10 +679,14 @@ fn assemble(
     series: &[Series],
     periods: usize,
     reps: usize,
+    watch: Watch,
 ) -> PolicyRuns {
     let mut replications = Vec::with_capacity(reps);
     let mut pooled: Option<Pooled> = None;
     let mut fiscal = vec![0.0; periods];
+    let mut income = vec![0.0; periods];
+    let mut transform = vec![0.0; periods];
+    let mut season_fiscal = Vec::new();
     for c in chunks {
         let p = &c[k];
         replications.extend_from_slice(&p.reps);
@@ -465,8 +697,19 @@ fn assemble(
         for (a, b) in fiscal.iter_mut().zip(&p.fiscal) {
             *a += b;
         }
+        for (a, b) in income.iter_mut().zip(&p.income) {
+            *a += b;
+        }
+        for (a, b) in transform.iter_mut().zip(&p.transform) {
+            *a += b;
+        }
+        season_fiscal.extend_from_slice(&p.seasons);
     }
-    for f in fiscal.iter_mut() {
+    for f in fiscal
+        .iter_mut()
+        .chain(income.iter_mut())
+        .chain(transform.iter_mut())
+    {
         *f /= reps as f64;
     }
     let summaries = series
@@ -512,6 +755,10 @@ fn assemble(
         pooled: pooled.unwrap_or_default(),
         mean_fiscal_cost: fiscal,
         series: summaries,
+        season_fiscal,
+        mean_income: income,
+        mean_income_transform: transform,
+        watch,
     }
 }
 
@@ -536,7 +783,8 @@ mod tests {
         let series = [Series::Price];
         // a budget of one replication rounds up to one chunk of CHUNK replications
         let sources = super::sources(&scenario(200), &none).unwrap();
-        let capped = run_with_budget(&scenario(200), &sources, &series, &NoProgress, 1).unwrap();
+        let capped =
+            run_with_budget(&scenario(200), &none, &sources, &series, &NoProgress, 1).unwrap();
         let full = run_monte_carlo(&scenario(200), &none, &series, &NoProgress).unwrap();
         let leading = run_monte_carlo(&scenario(CHUNK), &none, &series, &NoProgress).unwrap();
         let (c, f, l) = (

@@ -46,6 +46,8 @@ pub fn band_of(policy: &PolicySpec) -> Result<Option<Band>, StorageError> {
         ReleaseSpec::Band => Release::Band,
         ReleaseSpec::Target { target, speed } => Release::Target { target, speed },
         ReleaseSpec::Share { share } => Release::Share { share },
+        // a rotation nets out in the market: the band's equilibrium (records add its handling)
+        ReleaseSpec::Rotate { .. } => Release::Band,
     };
     if stock.capacity <= 0.0 {
         return Ok(None); // a store that holds nothing never trades

@@ -24,13 +24,18 @@ pub fn to_records(
     let floor_purchase = policy
         .floor
         .is_some_and(|f| f.instrument == FloorInstrument::Purchase);
+    // release = "rotate": the quantity rotated, booked as in the period engine
+    let agency = crate::policies::compile(policy).agency;
+    let mut previous = agency.initial;
     path.iter()
         .map(|r| {
+            let rotated = agency.rotated(previous * (1.0 - agency.loss_rate), r.public_stock);
+            previous = r.public_stock;
             let purchase_cost = r.price * r.purchases;
             let sales_revenue = r.price * r.releases;
             let storage_cost = storage_rate * r.public_stock;
             let financing_cost = financing_rate * r.price * r.public_stock;
-            let handling_cost = handling_rate * (r.purchases + r.releases);
+            let handling_cost = handling_rate * (r.purchases + r.releases + 2.0 * rotated);
             let buy = if floor_purchase {
                 flags::FLOOR_BUY
             } else {
@@ -75,7 +80,12 @@ pub fn to_records(
                 financing_cost,
                 handling_cost,
                 deficiency_payments: r.deficiency_payments,
-                flags: bits,
+                rotated,
+                flags: if rotated > 0.0 {
+                    bits | flags::ROTATE
+                } else {
+                    bits
+                },
                 stockout: r.stockout,
             }
         })

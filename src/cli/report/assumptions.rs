@@ -102,6 +102,32 @@ pub fn assumption_table(
         ("run.seed", r.seed.to_string(), common.seed.map(|_| true)),
         ("run.discount_rate", trim(fmt_num(r.discount_rate, 6)), None),
         ("run.risk_aversion", trim(fmt_num(r.risk_aversion, 6)), None),
+        // the accounting conventions in force, named whether or not the file sets them
+        ("run.opening_stock", r.opening_stock.as_str().into(), None),
+        ("run.terminal_stock", r.terminal_stock.as_str().into(), None),
+        (
+            "run.public_funds_cost",
+            trim(fmt_num(r.public_funds_cost, 6)),
+            None,
+        ),
+        (
+            "run.crop_income_share",
+            trim(fmt_num(r.crop_income_share, 6)),
+            None,
+        ),
+        (
+            "run.alert_price",
+            if r.alert_prices.is_empty() {
+                "none".into()
+            } else {
+                r.alert_prices
+                    .iter()
+                    .map(|p| trim(fmt_num(*p, 6)))
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            },
+            None,
+        ),
         ("shocks.yield_cv", trim(fmt_num(s.yield_cv, 6)), None),
         ("shocks.supply_sd", trim(fmt_num(s.supply_sd, 6)), None),
         ("shocks.demand_sd", trim(fmt_num(s.demand_sd, 6)), None),
@@ -122,6 +148,17 @@ pub fn assumption_table(
             ]);
         }
     }
+    t.push(vec![
+        "interest in present values".into(),
+        "only the spread of financing_rate above run.discount_rate (cash outlays show it in full)"
+            .into(),
+        "furrow convention".into(),
+    ]);
+    t.push(vec![
+        "baselines".into(),
+        "the market left alone under each policy's own expectation rule".into(),
+        "furrow convention".into(),
+    ]);
     t.push(vec![
         "steady state price".into(),
         fmt_num(scenario.steady.price, 3),
@@ -211,7 +248,11 @@ pub fn policy_table(
                 fmt_num(target, 2),
                 fmt_num(speed, 2)
             ),
-            ReleaseSpec::Share { share } => format!("share {}", fmt_num(share, 2)),
+            ReleaseSpec::Share { share } => format!("drawdown, share {}", fmt_num(share, 2)),
+            ReleaseSpec::Rotate { share } => format!(
+                "rotate {} of the stock a season (stock unchanged)",
+                fmt_num(share, 2)
+            ),
         })
     }));
     t.push(row(

@@ -161,12 +161,12 @@ pub fn table(r: &CompareResult, pick: &dyn Fn(&str) -> bool) -> TextTable {
     headers.extend(cols.iter().map(|p| p.name.clone()));
     let mut t = TextTable::new(&headers);
     let Some(first) = cols.first() else { return t };
-    for ind in first.indicators.iter().filter(|i| pick(i.key)) {
+    for ind in first.indicators.iter().filter(|i| pick(&i.key)) {
         let mut row = vec![ind.label.trim().to_string(), unit(ind.kind, r)];
         if ind.label.starts_with("  ") {
             row[0] = format!("… {}", ind.label.trim());
         }
-        row.extend(cols.iter().map(|p| cell(p.get(ind.key), ind.kind)));
+        row.extend(cols.iter().map(|p| cell(p.get(&ind.key), ind.kind)));
         t.push(row);
     }
     t
@@ -196,7 +196,7 @@ pub fn with_ranges(r: &CompareResult, mut t: TextTable) -> TextTable {
     let cols = columns(r);
     let Some(first) = cols.first() else { return t };
     let mut rows = Vec::new();
-    for ind in first.indicators.iter().filter(|i| is_welfare(i.key)) {
+    for ind in first.indicators.iter().filter(|i| is_welfare(&i.key)) {
         let label = ind.label.trim().to_string();
         let (lo, hi) = (format!("{}_p05", ind.key), format!("{}_p95", ind.key));
         let mut out_row = None;
