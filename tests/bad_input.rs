@@ -532,7 +532,10 @@ fn every_numeric_key_has_a_finite_range_and_the_readme_lists_it() {
     for schema in [MARKET_SCHEMA, POLICY_SCHEMA] {
         for (section, keys) in schema {
             for (key, kind) in *keys {
-                if matches!(kind, Kind::Number | Kind::Integer | Kind::Numbers) {
+                if matches!(
+                    kind,
+                    Kind::Number | Kind::Integer | Kind::Numbers | Kind::NumberOrNumbers
+                ) {
                     let dotted = format!("{section}.{key}");
                     assert!(range_of(&dotted).is_some(), "{dotted} has no range");
                     numeric.push(dotted);
