@@ -110,6 +110,9 @@ pub fn short_value(v: &toml::Value) -> String {
     if let Some(x) = v.as_float() {
         return super::ranges::short_num(x);
     }
+    if let Some(i) = v.as_integer() {
+        return super::ranges::short_num(i as f64);
+    }
     let s = escape(&v.to_string());
     if s.len() > 40 {
         format!(

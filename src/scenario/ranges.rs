@@ -195,8 +195,7 @@ impl KeyRange {
         if self.integer {
             return format!(
                 "a whole number from {} to {}",
-                short_num(self.lo),
-                short_num(self.hi)
+                self.lo as i64, self.hi as i64
             );
         }
         format!(

@@ -167,7 +167,15 @@ impl Check<'_> {
 
     fn count(&self, key: &str, v: i64, lo: i64, hi: i64) -> Result<usize, InputError> {
         if v < lo || v > hi {
-            return Err(self.bad(key, v, &format!("must be a whole number from {lo} to {hi}")));
+            return Err(self.bad(
+                key,
+                short_num(v as f64),
+                &format!(
+                    "must be a whole number from {} to {}",
+                    short_num(lo as f64),
+                    short_num(hi as f64)
+                ),
+            ));
         }
         Ok(v as usize)
     }

@@ -152,7 +152,7 @@ impl StabilityError {
     /// sets the expectation rule, the market file otherwise.
     pub fn blame<'a>(&self, scenario: &'a Scenario, policy: &'a PolicySpec) -> &'a str {
         let policy_made = !policy.source.is_empty()
-            && (policy.expectations.is_some() || !self.regime().starts_with("free market"));
+            && (policy.expectations.is_some() || self.regime() != "free market");
         if policy_made {
             &policy.source
         } else {
