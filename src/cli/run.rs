@@ -145,7 +145,7 @@ pub fn execute(args: &RunArgs) -> anyhow::Result<()> {
     // equilibrium hands back its path whole; everything else is streamed period by period
     if scenario.storers.is_some() || args.common.plots.is_some() || format == Format::Table {
         let records = one_path(&scenario, &policy)?;
-        for line in furrow::policies::diagnose(&scenario, &policy, &model, &records) {
+        for line in furrow::policies::diagnose(&scenario, &policy, &records) {
             say(&line);
         }
         if let Some(dir) = args.common.plot_dir() {

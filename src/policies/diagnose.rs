@@ -1,7 +1,7 @@
 //! Diagnostics in words: what a path tells an analyst about a scheme's defensibility, and the same
 //! warnings summarised as shares over a Monte Carlo run.
 
-use crate::engine::{Model, PeriodRecord};
+use crate::engine::PeriodRecord;
 use crate::policies::flags;
 use crate::scenario::{FloorInstrument, PolicySpec, Scenario};
 use crate::stochastic::{PolicyRuns, ReplicationSummary};
@@ -147,12 +147,7 @@ impl PathTally {
 
 /// Sentences about the scheme on this path: an indefensible floor (with the stock growth per period
 /// and when capacity or budget runs out), stock-outs, and floors lost to a full store.
-pub fn diagnose(
-    scenario: &Scenario,
-    policy: &PolicySpec,
-    _model: &Model,
-    records: &[PeriodRecord],
-) -> Vec<String> {
+pub fn diagnose(scenario: &Scenario, policy: &PolicySpec, records: &[PeriodRecord]) -> Vec<String> {
     let mut tally = PathTally::default();
     records.iter().for_each(|r| tally.add(r));
     diagnose_tally(scenario, policy, &tally)
