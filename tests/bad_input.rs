@@ -323,8 +323,9 @@ fn binary_exits_2_and_names_the_key_on_a_sample() {
 
 use common::{bin, linear_market, policy};
 use furrow::scenario::policy_for_market;
-use furrow::scenario::ranges::{range_of, RANGES};
-use furrow::scenario::raw::{Kind, MARKET_SCHEMA, POLICY_SCHEMA};
+use furrow::scenario::ranges::{self, range_of};
+use furrow::scenario::raw::Kind;
+use furrow::scenario::schema;
 
 fn tmp(dir: &tempfile::TempDir, name: &str, text: &str) -> String {
     let p = dir.path().join(name);
@@ -529,9 +530,9 @@ fn check_prints_unlimited_not_inf() {
 fn every_numeric_key_has_a_finite_range_and_the_readme_lists_it() {
     // the schema's numeric keys and the range table are the same set
     let mut numeric = Vec::new();
-    for schema in [MARKET_SCHEMA, POLICY_SCHEMA] {
-        for (section, keys) in schema {
-            for (key, kind) in *keys {
+    for schema in [schema::market(), schema::policy()] {
+        for (section, keys) in &schema {
+            for (key, kind) in keys {
                 if matches!(
                     kind,
                     Kind::Number | Kind::Integer | Kind::Numbers | Kind::NumberOrNumbers
@@ -543,7 +544,7 @@ fn every_numeric_key_has_a_finite_range_and_the_readme_lists_it() {
             }
         }
     }
-    for r in RANGES {
+    for r in ranges::all() {
         assert!(
             numeric.iter().any(|k| k == r.key),
             "{} is not in a schema",
@@ -554,7 +555,7 @@ fn every_numeric_key_has_a_finite_range_and_the_readme_lists_it() {
     // the README's table, row for row
     let readme =
         std::fs::read_to_string(format!("{}/README.md", env!("CARGO_MANIFEST_DIR"))).unwrap();
-    let want: Vec<String> = RANGES
+    let want: Vec<String> = ranges::all()
         .iter()
         .map(|r| format!("| `{}` | {} | {} |", r.key, r.describe(), r.note))
         .collect();

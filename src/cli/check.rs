@@ -2,7 +2,6 @@
 
 use clap::Args;
 use furrow::output::{fmt_num, Format, TextTable};
-use furrow::scenario::ranges::short_num;
 use furrow::scenario::{self, FileKind};
 use serde::Serialize;
 
@@ -34,15 +33,6 @@ struct Checked {
     summary: String,
 }
 
-/// A setting that may be unlimited (stored as +∞): the number, or the given word.
-fn limit(v: f64, word: &str) -> String {
-    if v.is_finite() {
-        short_num(v)
-    } else {
-        word.to_string()
-    }
-}
-
 /// Runs `check`.
 pub fn execute(args: &CheckArgs) -> anyhow::Result<()> {
     let mut out = Vec::new();
@@ -62,44 +52,7 @@ pub fn execute(args: &CheckArgs) -> anyhow::Result<()> {
         );
         if kind == FileKind::Policy {
             let p = scenario::policy_from_str(file, &text)?;
-            let mut parts = Vec::new();
-            if let Some(f) = p.floor {
-                parts.push(format!(
-                    "floor {} by {}{}",
-                    short_num(f.price),
-                    match f.instrument {
-                        scenario::FloorInstrument::Purchase => "purchase",
-                        scenario::FloorInstrument::DeficiencyPayment => "deficiency payment",
-                    },
-                    if f.announced { ", announced" } else { "" }
-                ));
-            }
-            if let Some(s) = p.stock {
-                parts.push(format!(
-                    "stock {}, {}, capacity {}, purchase budget {}, release {}",
-                    if s.buy_below > 0.0 {
-                        format!("buys below {}", short_num(s.buy_below))
-                    } else {
-                        "no buying edge".to_string()
-                    },
-                    if s.sell_above.is_finite() {
-                        format!("sells above {}", short_num(s.sell_above))
-                    } else {
-                        "no selling edge".to_string()
-                    },
-                    limit(s.capacity, "unlimited"),
-                    limit(s.purchase_budget, "unlimited"),
-                    match s.release {
-                        scenario::ReleaseSpec::Band => "band".to_string(),
-                        scenario::ReleaseSpec::Target { target, speed } =>
-                            format!("target {} at speed {}", short_num(target), short_num(speed)),
-                        scenario::ReleaseSpec::Share { share } =>
-                            format!("drawdown, share {}", short_num(share)),
-                        scenario::ReleaseSpec::Rotate { share } =>
-                            format!("rotate, share {}", short_num(share)),
-                    }
-                ));
-            }
+            let mut parts: Vec<String> = p.rules.iter().map(|r| r.describe()).collect();
             if let Some(e) = p.expectations {
                 parts.push(format!("expectations {}", e.rule_name()));
             }
@@ -118,8 +71,7 @@ pub fn execute(args: &CheckArgs) -> anyhow::Result<()> {
             });
             policies.push(p);
         } else {
-            let mut s = scenario::market_from_str(file, &text)?;
-            args.common.apply(&mut s)?;
+            let s = args.common.market_from_text(file, &text)?;
             let ss = s.steady;
             out.push(Checked {
                 file: file.clone(),

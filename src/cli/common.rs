@@ -46,29 +46,53 @@ pub fn exit_code(err: &anyhow::Error) -> u8 {
 impl CommonArgs {
     /// Loads and validates a market file, applying the command-line overrides.
     pub fn load_market(&self, path: &str) -> anyhow::Result<Scenario> {
-        let mut s = scenario::load_market(path)?;
-        self.apply(&mut s)?;
-        Ok(s)
+        let text = std::fs::read_to_string(path).map_err(|e| scenario::InputError::Unreadable {
+            file: path.to_string(),
+            reason: e.to_string(),
+        })?;
+        self.market_from_text(path, &text)
     }
 
-    /// Applies `--seed`, `--replications`, `--periods` to a scenario.
-    pub fn apply(&self, s: &mut Scenario) -> anyhow::Result<()> {
-        if let Some(seed) = self.seed {
-            s.run.seed = seed;
+    /// Validates market-file text with `--seed`, `--replications`, `--periods` written into the
+    /// parsed file first: the values are checked once, by the same validation as the file's own.
+    pub fn market_from_text(&self, path: &str, text: &str) -> anyhow::Result<Scenario> {
+        let flags = [
+            ("--seed", "run.seed", self.seed.map(|v| v as u128)),
+            (
+                "--replications",
+                "run.replications",
+                self.replications.map(|v| v as u128),
+            ),
+            ("--periods", "run.periods", self.periods.map(|v| v as u128)),
+        ];
+        let mut overrides = Vec::new();
+        for (flag, key, value) in flags {
+            let Some(v) = value else { continue };
+            let Ok(v) = i64::try_from(v) else {
+                let range = scenario::ranges::range_of(key).map(|r| r.describe());
+                anyhow::bail!("{flag} {v}: must be {}", range.unwrap_or_default());
+            };
+            overrides.push((key, toml::Value::Integer(v)));
         }
-        if let Some(r) = self.replications {
-            if !(1..=10_000_000).contains(&r) {
-                anyhow::bail!("--replications {r}: must be a whole number from 1 to 10000000");
+        scenario::market_from_str_with(path, text, &overrides).map_err(|e| {
+            // name the option, not the file, when the refused value came from the command line
+            match (
+                &e,
+                flags
+                    .iter()
+                    .find(|(_, k, v)| v.is_some() && e.key() == Some(*k)),
+            ) {
+                (
+                    scenario::InputError::BadValue {
+                        value, expected, ..
+                    },
+                    Some((flag, _, _)),
+                ) => {
+                    anyhow::anyhow!("{flag} {value}: {expected}")
+                }
+                _ => e.into(),
             }
-            s.run.replications = r;
-        }
-        if let Some(p) = self.periods {
-            if !(1..=1_000_000).contains(&p) {
-                anyhow::bail!("--periods {p}: must be a whole number from 1 to 1000000");
-            }
-            s.run.periods = p;
-        }
-        Ok(())
+        })
     }
 
     /// Writes a human-readable table with furrow's caution below it (CSV and JSON stay pure data).

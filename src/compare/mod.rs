@@ -172,33 +172,10 @@ pub struct CloseCall {
     pub se: f64,
 }
 
-/// The expectation rule with its parameters, in words (e.g. `adaptive (weight 0.33)`).
+/// The expectation rule with its parameters, in words (e.g. `adaptive (weight 0.33)`; each rule
+/// describes itself, `ExpectationRule::describe`).
 pub fn describe_rule(rule: &ExpectationSpec) -> String {
-    use crate::output::fmt_num;
-    let g = |x: f64| fmt_num(x, 3);
-    match *rule {
-        ExpectationSpec::Naive => "naive".into(),
-        ExpectationSpec::Adaptive {
-            weight,
-            initial_expected_price,
-        } => match initial_expected_price {
-            Some(p) => format!("adaptive (weight {}, initial {})", g(weight), g(p)),
-            None => format!("adaptive (weight {})", g(weight)),
-        },
-        ExpectationSpec::NormalPrice { weight, normal } => match normal {
-            crate::scenario::NormalPrice::Fixed(n) => {
-                format!("normal-price (weight {}, normal {})", g(weight), g(n))
-            }
-            crate::scenario::NormalPrice::Window(w) => {
-                format!("normal-price (weight {}, window {w})", g(weight))
-            }
-        },
-        ExpectationSpec::Extrapolative { weight } => {
-            format!("extrapolative (weight {})", g(weight))
-        }
-        ExpectationSpec::TrailingMean { window } => format!("trailing-mean (window {window})"),
-        ExpectationSpec::Rational => "rational".into(),
-    }
+    crate::expectations::build(rule).describe()
 }
 
 /// Why a comparison could not be made.

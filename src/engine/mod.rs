@@ -71,7 +71,7 @@ pub struct Model {
     /// every period).
     planting_floor: Option<f64>,
     is_rational: bool,
-    /// Some rule sets the producer price or pays producers (looked up once).
+    /// Some rule sets the producer price or pays producers or consumers (looked up once).
     has_payments: bool,
     /// The policy's only rule when it is a plain band (called directly, not through the trait).
     band_only: Option<policies::BandStock>,
@@ -89,7 +89,7 @@ impl Model {
         let rule = expectations::build(&spec);
         let compiled = policies::compile(policy);
         let compiled_floor = compiled.planting_floor();
-        let has_payments = compiled.rules.iter().any(|r| r.pays_producers());
+        let has_payments = compiled.rules.iter().any(|r| r.pays());
         let is_rational = rule.is_rational();
         let adaptive = rule.as_adaptive();
         let band_only = match compiled.rules.as_slice() {
@@ -103,11 +103,8 @@ impl Model {
         for p in &scenario.run.price_history {
             reference = reference.max(*p);
         }
-        if let Some(f) = policy.floor {
-            reference = reference.max(f.price);
-        }
-        if let Some(s) = policy.stock {
-            reference = reference.max(s.buy_below);
+        for r in &policy.rules {
+            reference = reference.max(r.reference_price());
         }
         // pad the history to the rule's number of lags with its oldest value
         let mut history = scenario.run.price_history.clone();
@@ -179,6 +176,16 @@ impl Model {
             rule.trade(&mut m);
         }
         self.settle(planted, harvest, &m)
+    }
+
+    /// The treasury's payments to consumers at market price `price` and consumption `consumption`.
+    #[inline]
+    fn consumer_payments(&self, price: f64, consumption: f64) -> f64 {
+        let mut paid = 0.0;
+        for rule in &self.policy.rules {
+            paid += rule.consumer_payment(price, consumption);
+        }
+        paid
     }
 
     /// The cleared period once the rules have traded on `m`: the price, then the payment rules.
@@ -380,6 +387,11 @@ impl<'m> Simulator<'m> {
         if consumption < 0.0 {
             return Err(diverged(negative_consumption(consumption, c.purchases)));
         }
+        let consumer_payments = if model.has_payments {
+            model.consumer_payments(c.price, consumption)
+        } else {
+            0.0
+        };
         let agency = &model.policy.agency;
         let purchase_cost = c.price * c.purchases;
         let sales_revenue = c.price * c.releases;
@@ -389,11 +401,19 @@ impl<'m> Simulator<'m> {
         // legs) reaches the books; with no rotation `rotated` is +0 and the sum is X + R exactly
         let rotated = agency.rotated(carried, c.stock);
         let handling_cost = agency.handling_cost * (c.purchases + c.releases + 2.0 * rotated);
-        let fiscal_cost = purchase_cost - sales_revenue
+        let mut fiscal_cost = purchase_cost - sales_revenue
             + storage_cost
             + financing_cost
             + handling_cost
             + c.deficiency;
+        let mut consumer_surplus = model.demand.consumer_surplus(c.price, shock.demand);
+        let mut flags = c.flags;
+        if consumer_payments > 0.0 {
+            // consumers pay the ceiling: their surplus is the market's plus the payment (a transfer)
+            fiscal_cost += consumer_payments;
+            consumer_surplus += consumer_payments;
+            flags |= flags::CONSUMER_SUBSIDY;
+        }
         let record = PeriodRecord {
             period: t,
             expected_price: planting,
@@ -406,7 +426,7 @@ impl<'m> Simulator<'m> {
             releases: c.releases,
             stock: c.stock,
             fiscal_cost,
-            consumer_surplus: model.demand.consumer_surplus(c.price, shock.demand),
+            consumer_surplus,
             producer_surplus: c.producer_price * c.harvest
                 - model.supply.production_cost(c.planted),
             purchase_cost,
@@ -415,11 +435,12 @@ impl<'m> Simulator<'m> {
             financing_cost,
             handling_cost,
             deficiency_payments: c.deficiency,
+            consumer_payments,
             rotated,
             flags: if rotated > 0.0 {
-                c.flags | flags::ROTATE
+                flags | flags::ROTATE
             } else {
-                c.flags
+                flags
             },
             stockout: c.price > model.stockout_above && c.stock <= 1e-12,
         };

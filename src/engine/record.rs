@@ -25,9 +25,10 @@ pub struct PeriodRecord {
     pub releases: f64,
     /// Agency stock S_t at the end of the period.
     pub stock: f64,
-    /// Fiscal cost: purchases − sales + storage + financing + handling + deficiency payments.
+    /// Fiscal cost: purchases − sales + storage + financing + handling + deficiency payments +
+    /// consumer payments.
     pub fiscal_cost: f64,
-    /// Consumer surplus at P_t.
+    /// Consumer surplus at the price consumers pay: ∫_{P_t} D(p) dp, plus the consumer payments.
     pub consumer_surplus: f64,
     /// Producer surplus: producer price × harvest − cost of the planted quantity.
     pub producer_surplus: f64,
@@ -43,6 +44,9 @@ pub struct PeriodRecord {
     pub handling_cost: f64,
     /// Deficiency payments (F − P_t)·Q_t when P_t < F.
     pub deficiency_payments: f64,
+    /// Payments to consumers (P_t − c)·C_t when P_t is above a ceiling c kept by consumer subsidy
+    /// (included in `fiscal_cost` and, as a transfer, in `consumer_surplus`).
+    pub consumer_payments: f64,
     /// Quantity rotated (`release = "rotate"`): old grain sold and the same quantity of new grain
     /// bought at P_t in the same period; it nets out of X_t, R_t, consumption and the stock.
     #[serde(skip)]

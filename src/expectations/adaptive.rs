@@ -1,4 +1,4 @@
-use super::{ExpectationInput, ExpectationRule};
+use super::{g, ExpectationInput, ExpectationRule, Layout};
 
 /// Adaptive expectations (Nerlove 1958): P^e_t = P^e_{t−1} + λ (P_{t−1} − P^e_{t−1}), with
 /// P^e_1 = `initial_expected_price` (default P_0).
@@ -22,8 +22,23 @@ impl Adaptive {
 }
 
 impl ExpectationRule for Adaptive {
-    fn name(&self) -> &'static str {
-        "adaptive"
+    fn lags(&self) -> usize {
+        1
+    }
+    fn is_rational(&self) -> bool {
+        false
+    }
+    fn layout(&self) -> Layout {
+        Layout::Expectation(self.weight)
+    }
+    fn rests_anywhere(&self) -> bool {
+        true
+    }
+    fn describe(&self) -> String {
+        match self.initial_expected_price {
+            Some(p) => format!("adaptive (weight {}, initial {})", g(self.weight), g(p)),
+            None => format!("adaptive (weight {})", g(self.weight)),
+        }
     }
     #[inline]
     fn expect(&self, input: &ExpectationInput) -> f64 {

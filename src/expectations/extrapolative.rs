@@ -1,4 +1,4 @@
-use super::{ExpectationInput, ExpectationRule};
+use super::{g, Adaptive, ExpectationInput, ExpectationRule, Layout};
 
 /// Extrapolative expectations (Goodwin 1947): P^e_t = P_{t−1} + ρ (P_{t−1} − P_{t−2}).
 #[derive(Debug, Clone, Copy)]
@@ -8,8 +8,20 @@ pub struct Extrapolative {
 }
 
 impl ExpectationRule for Extrapolative {
-    fn name(&self) -> &'static str {
-        "extrapolative"
+    fn is_rational(&self) -> bool {
+        false
+    }
+    fn as_adaptive(&self) -> Option<Adaptive> {
+        None
+    }
+    fn layout(&self) -> Layout {
+        Layout::Lags(vec![1.0 + self.weight, -self.weight])
+    }
+    fn rests_anywhere(&self) -> bool {
+        true
+    }
+    fn describe(&self) -> String {
+        format!("extrapolative (weight {})", g(self.weight))
     }
     fn lags(&self) -> usize {
         2

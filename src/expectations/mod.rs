@@ -38,25 +38,39 @@ impl ExpectationInput<'_> {
     }
 }
 
-/// One way of forming price expectations.
+/// The shape of a rule's state in the stability analysis (`stability::statespace`).
+#[derive(Debug, Clone, PartialEq)]
+pub enum Layout {
+    /// The k last producer prices (newest first); the expectation is Σ w_i P_{t−i} (+ a constant).
+    Lags(Vec<f64>),
+    /// The rule's own expectation (adaptive, weight λ).
+    Expectation(f64),
+}
+
+/// One way of forming price expectations: everything the program needs of it. No method has a
+/// default: a new rule states each one.
 pub trait ExpectationRule: Send + Sync + std::fmt::Debug {
-    /// The rule's file name.
-    fn name(&self) -> &'static str;
     /// How many past prices the rule reads (history is padded to at least this many).
-    fn lags(&self) -> usize {
-        1
-    }
+    fn lags(&self) -> usize;
     /// The expected producer price for period t.
     fn expect(&self, input: &ExpectationInput) -> f64;
     /// True for the rational rule, whose value the engine solves from the model.
-    fn is_rational(&self) -> bool {
-        false
-    }
+    fn is_rational(&self) -> bool;
     /// The rule as adaptive expectations, when it is that rule (lets the engine call it directly
     /// instead of through the trait object; the value is the same).
-    fn as_adaptive(&self) -> Option<Adaptive> {
-        None
-    }
+    fn as_adaptive(&self) -> Option<Adaptive>;
+    /// Its state in the stability analysis, with the weights of the linear rules.
+    fn layout(&self) -> Layout;
+    /// True when a rule whose past prices all equal p expects p, for every p (then the free steady
+    /// state is where the curves cross; otherwise stability solves the rule's own fixed point).
+    fn rests_anywhere(&self) -> bool;
+    /// The rule with its parameters, in words (e.g. `adaptive (weight 0.33)`).
+    fn describe(&self) -> String;
+}
+
+/// A parameter as the descriptions print it.
+pub(crate) fn g(x: f64) -> String {
+    crate::output::fmt_num(x, 3)
 }
 
 /// Builds the rule a validated spec describes (the single registration point for rules).

@@ -1,4 +1,4 @@
-use super::{ExpectationInput, ExpectationRule};
+use super::{Adaptive, ExpectationInput, ExpectationRule, Layout};
 
 /// Rational expectations (Muth 1961): P^e_t = E_{t−1}[producer price in t] under the model itself.
 /// The engine solves the fixed point; `expect` returns the naive value only as a starting guess.
@@ -6,8 +6,21 @@ use super::{ExpectationInput, ExpectationRule};
 pub struct Rational;
 
 impl ExpectationRule for Rational {
-    fn name(&self) -> &'static str {
-        "rational"
+    fn lags(&self) -> usize {
+        1
+    }
+    fn as_adaptive(&self) -> Option<Adaptive> {
+        None
+    }
+    /// Linearised as the naive map's state (the model solves the expectation itself).
+    fn layout(&self) -> Layout {
+        Layout::Lags(vec![1.0])
+    }
+    fn rests_anywhere(&self) -> bool {
+        true
+    }
+    fn describe(&self) -> String {
+        "rational".into()
     }
     fn expect(&self, input: &ExpectationInput) -> f64 {
         input.lag(1)

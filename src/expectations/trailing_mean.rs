@@ -1,4 +1,4 @@
-use super::{ExpectationInput, ExpectationRule};
+use super::{Adaptive, ExpectationInput, ExpectationRule, Layout};
 
 /// Trailing-mean expectations: P^e_t = mean(P_{t−1}, …, P_{t−k}).
 #[derive(Debug, Clone, Copy)]
@@ -14,8 +14,20 @@ pub(crate) fn mean_of_last(history: &[f64], k: usize) -> f64 {
 }
 
 impl ExpectationRule for TrailingMean {
-    fn name(&self) -> &'static str {
-        "trailing-mean"
+    fn is_rational(&self) -> bool {
+        false
+    }
+    fn as_adaptive(&self) -> Option<Adaptive> {
+        None
+    }
+    fn layout(&self) -> Layout {
+        Layout::Lags(vec![1.0 / self.window as f64; self.window])
+    }
+    fn rests_anywhere(&self) -> bool {
+        true
+    }
+    fn describe(&self) -> String {
+        format!("trailing-mean (window {})", self.window)
     }
     fn lags(&self) -> usize {
         self.window

@@ -20,6 +20,10 @@ pub mod flags {
     pub const ROTATION: u16 = 1 << 5;
     /// The rotation rule sold old grain and bought the same quantity of new grain.
     pub const ROTATE: u16 = 1 << 6;
+    /// The ceiling rule sold from the stock.
+    pub const CEILING_SELL: u16 = 1 << 7;
+    /// Consumers were paid the excess of the price over the ceiling.
+    pub const CONSUMER_SUBSIDY: u16 = 1 << 11;
     /// A buy was cut short because the store was full.
     pub const CAPACITY_FULL: u16 = 1 << 8;
     /// A buy was cut short by the purchase budget.
@@ -36,6 +40,8 @@ pub mod flags {
         (TARGET, "stock-target"),
         (ROTATION, "stock-drawdown"),
         (ROTATE, "stock-rotate"),
+        (CEILING_SELL, "ceiling-sell"),
+        (CONSUMER_SUBSIDY, "consumer-subsidy"),
     ];
 
     /// Names of the warning flags.

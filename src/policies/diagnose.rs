@@ -3,7 +3,7 @@
 
 use crate::engine::PeriodRecord;
 use crate::policies::flags;
-use crate::scenario::{FloorInstrument, PolicySpec, Scenario};
+use crate::scenario::{PolicySpec, Scenario};
 use crate::stochastic::{PolicyRuns, ReplicationSummary};
 
 /// Periods until a store starting at `initial` fills to `capacity` when it takes `growth` a period
@@ -28,61 +28,16 @@ pub fn periods_to_fill(initial: f64, capacity: f64, growth: f64, loss: f64) -> O
     Some(((limit - capacity) / (limit - initial)).ln() / (1.0 - loss).ln())
 }
 
-/// The indefensible floor, in words: a floor above the free-market steady state, with the stock
-/// growth per period and when capacity (losses included) or budget runs out. `None` otherwise.
+/// The rules that cannot be kept up at the free market's steady state, in words (an indefensible
+/// floor or ceiling, a permanent payment; each rule words its own). `None` when there is none.
 pub fn floor_warning(scenario: &Scenario, policy: &PolicySpec) -> Option<String> {
-    let unit = &scenario.market.quantity_unit;
-    let ss = scenario.steady;
-    let (demand, supply) = (&scenario.market.demand, &scenario.market.supply);
-    let f = policy.floor?;
-    if f.price <= ss.price {
-        return None;
-    }
-    let growth = supply.quantity(f.price) - demand.quantity(f.price);
-    Some(match f.instrument {
-        FloorInstrument::Purchase => {
-            let mut s = format!(
-                "the floor {} is above the free-market steady state {:.3}: it cannot be defended for ever; at the floor the agency must take S(F) − D(F) = {:.3} {unit} a period",
-                f.price, ss.price, growth
-            );
-            let agency = super::compile(policy).agency;
-            if agency.capacity.is_finite() {
-                let losses = if agency.loss_rate > 0.0 {
-                    " (losses included)"
-                } else {
-                    ""
-                };
-                match periods_to_fill(agency.initial, agency.capacity, growth, agency.loss_rate) {
-                    Some(t) => s.push_str(&format!(
-                        "; a capacity of {} {unit} fills in about {:.1} periods{losses}",
-                        agency.capacity, t
-                    )),
-                    None => s.push_str(&format!(
-                        "; with losses of {} a period the stock levels off at {:.3} {unit}, below the capacity of {} {unit}",
-                        agency.loss_rate,
-                        growth / agency.loss_rate,
-                        agency.capacity
-                    )),
-                }
-            }
-            if agency.purchase_budget.is_finite() && agency.purchase_budget < f.price * growth {
-                s.push_str(&format!(
-                    "; the purchase budget {} covers only {:.3} of the {:.3} {unit} needed each period",
-                    agency.purchase_budget,
-                    agency.purchase_budget / f.price,
-                    growth
-                ));
-            }
-            s
-        }
-        FloorInstrument::DeficiencyPayment => format!(
-            "the floor {} is above the free-market steady state {:.3}: the payment is permanent, about (F − D⁻¹(S(F)))·S(F) = {:.3} a period once planting settles on the floor",
-            f.price,
-            ss.price,
-            (f.price - demand.price_at(supply.quantity(f.price))).max(0.0)
-                * supply.quantity(f.price)
-        ),
-    })
+    let agency = super::compile(policy).agency;
+    let warnings: Vec<String> = policy
+        .rules
+        .iter()
+        .filter_map(|r| r.warning(scenario, &agency))
+        .collect();
+    (!warnings.is_empty()).then(|| warnings.join("; "))
 }
 
 /// The single-path warnings of [`diagnose`] summarised over a Monte Carlo run of `policy`: the

@@ -1,61 +1,55 @@
 //! Policy rules: how the agency and the treasury act on each period's market.
 //!
-//! Each rule is one small type implementing [`PolicyRule`]; [`compile`] is the single registration
-//! point that turns a validated [`PolicySpec`] into an ordered list of rules. Within a period the rules
-//! act in this documented order: (1) the floor bought by purchase, (2) the buffer-stock rule, then the
-//! market clears, and (3) payment rules (deficiency payment) settle on the cleared price.
+//! A policy file is a list of rules, one per section; each rule is one type in its own file
+//! implementing [`Rule`] (everything the program needs of it) and registered once in
+//! [`SECTIONS`]. [`compile`] turns a validated [`PolicySpec`] into the engine's period actions
+//! ([`PolicyRule`]) in the documented acting order: (1) the floor bought by purchase, (2) the
+//! buffer-stock rule, (3) sales defending a ceiling, then the market clears, and (4) payment rules
+//! (to producers, then to consumers) settle on the cleared price.
 
+pub mod ceiling;
 pub mod clearing;
-mod deficiency;
 mod diagnose;
-mod floor_purchase;
+pub mod floor;
+pub mod rule;
+pub mod stock;
 mod stock_band;
 mod stock_share;
 mod stock_target;
 
 pub use clearing::{flags, Clearing};
-pub use deficiency::DeficiencyPayment;
 pub use diagnose::{
     diagnose, diagnose_tally, floor_warning, periods_to_fill, summarise, PathTally,
 };
-pub use floor_purchase::FloorPurchase;
+pub use floor::{DeficiencyPayment, FloorPurchase};
+pub use rule::{Build, Rule, RuleRef, Section, Watched, SECTIONS};
 pub use stock_band::BandStock;
 pub use stock_share::ShareStock;
 pub use stock_target::TargetStock;
 
-use crate::scenario::{FloorInstrument, PolicySpec, ReleaseSpec};
+use crate::scenario::PolicySpec;
 
-/// One intervention rule.
+/// One period action of a rule, as the engine calls it. Every method is required: an action states
+/// what it does and what it leaves alone.
 pub trait PolicyRule: Send + Sync + std::fmt::Debug {
-    /// Short name (appears in diagnostics).
-    fn name(&self) -> &'static str;
     /// A price below which farmers know their producer price cannot fall (an announced floor).
-    fn planting_floor(&self) -> Option<f64> {
-        None
-    }
+    fn planting_floor(&self) -> Option<f64>;
     /// Agency trade on the period's market (before it clears).
-    fn trade(&self, _market: &mut Clearing) {}
+    fn trade(&self, market: &mut Clearing);
     /// The producer price given the market price (after trade).
-    fn producer_price(&self, market_price: f64) -> f64 {
-        market_price
-    }
+    fn producer_price(&self, market_price: f64) -> f64;
     /// Treasury payment to producers given the market price and the harvest.
-    fn payment(&self, _market_price: f64, _harvest: f64) -> f64 {
-        0.0
-    }
-    /// True for rules that set the producer price or pay producers (`producer_price`, `payment`).
-    fn pays_producers(&self) -> bool {
-        false
-    }
-    /// The rule as a plain price band, when it is exactly one (lets the engine call it directly
+    fn payment(&self, market_price: f64, harvest: f64) -> f64;
+    /// Treasury payment to consumers given the market price and consumption.
+    fn consumer_payment(&self, market_price: f64, consumption: f64) -> f64;
+    /// True for actions that set the producer price or pay anyone (`producer_price`, `payment`,
+    /// `consumer_payment`).
+    fn pays(&self) -> bool;
+    /// The action as a plain price band, when it is exactly one (lets the engine call it directly
     /// instead of through the trait object; the trade is the same).
-    fn as_band(&self) -> Option<BandStock> {
-        None
-    }
-    /// True for rules that buy into or sell from the agency's stock.
-    fn trades_stock(&self) -> bool {
-        false
-    }
+    fn as_band(&self) -> Option<BandStock>;
+    /// True for actions that buy into or sell from the agency's stock.
+    fn trades_stock(&self) -> bool;
 }
 
 /// The agency's standing parameters (from `[stock]`; a floor by purchase alone gets an unlimited,
@@ -133,63 +127,27 @@ impl Policy {
     }
 }
 
-/// Turns a validated policy file into rules in acting order (the registration point for rules).
+/// Turns a validated policy file into period actions in acting order (each rule adds its own).
 pub fn compile(spec: &PolicySpec) -> Policy {
-    let mut rules: Vec<Box<dyn PolicyRule>> = Vec::new();
-    let mut agency = Agency::default();
-    if let Some(s) = &spec.stock {
-        agency = Agency {
-            capacity: s.capacity,
-            initial: s.initial,
-            storage_cost: s.storage_cost,
-            loss_rate: s.loss_rate,
-            purchase_budget: s.purchase_budget,
-            financing_rate: s.financing_rate,
-            handling_cost: s.handling_cost,
-            rotation_share: match s.release {
-                ReleaseSpec::Rotate { share } => share,
-                _ => 0.0,
-            },
-        };
+    let mut build = Build::default();
+    for rule in &spec.rules {
+        rule.build(&mut build);
     }
-    if let Some(f) = &spec.floor {
-        if f.instrument == FloorInstrument::Purchase {
-            rules.push(Box::new(FloorPurchase {
-                price: f.price,
-                announced: f.announced,
-            }));
-        }
-    }
-    if let Some(s) = &spec.stock {
-        let band = BandStock {
-            buy_below: s.buy_below,
-            sell_above: s.sell_above,
-        };
-        match s.release {
-            ReleaseSpec::Band => rules.push(Box::new(band)),
-            ReleaseSpec::Target { target, speed } => rules.push(Box::new(TargetStock {
-                band,
-                target,
-                speed,
-            })),
-            ReleaseSpec::Share { share } => rules.push(Box::new(ShareStock { band, share })),
-            // the rotation itself nets out in the market: the rule trades as the band, and the
-            // engine books the rotated quantity's handling (`Agency::rotated`)
-            ReleaseSpec::Rotate { .. } => rules.push(Box::new(band)),
-        }
-    }
-    if let Some(f) = &spec.floor {
-        if f.instrument == FloorInstrument::DeficiencyPayment {
-            rules.push(Box::new(DeficiencyPayment {
-                price: f.price,
-                announced: f.announced,
-            }));
-        }
-    }
+    // stable: actions of one rank keep the file's order
+    build.actions.sort_by_key(|(rank, _)| *rank);
     Policy {
         name: spec.name.clone(),
-        rules,
-        agency,
-        sell_above: spec.stock.map(|s| s.sell_above).filter(|p| p.is_finite()),
+        rules: build.actions.into_iter().map(|(_, a)| a).collect(),
+        agency: build.agency,
+        sell_above: build.sell_above,
     }
+}
+
+/// What the Monte Carlo watches for `spec` (each rule adds its own).
+pub fn watched(spec: &PolicySpec) -> Watched {
+    let mut w = Watched::default();
+    for rule in &spec.rules {
+        rule.watch(&mut w);
+    }
+    w
 }

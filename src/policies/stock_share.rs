@@ -13,8 +13,20 @@ pub struct ShareStock {
 }
 
 impl PolicyRule for ShareStock {
-    fn name(&self) -> &'static str {
-        "stock-drawdown"
+    fn planting_floor(&self) -> Option<f64> {
+        None
+    }
+    fn pays(&self) -> bool {
+        false
+    }
+    fn producer_price(&self, market_price: f64) -> f64 {
+        market_price
+    }
+    fn payment(&self, _market_price: f64, _harvest: f64) -> f64 {
+        0.0
+    }
+    fn consumer_payment(&self, _market_price: f64, _consumption: f64) -> f64 {
+        0.0
     }
     fn trades_stock(&self) -> bool {
         true
@@ -28,5 +40,8 @@ impl PolicyRule for ShareStock {
         if more > 0.0 {
             market.sell_at_most(more, self.band.buy_below, flags::ROTATION);
         }
+    }
+    fn as_band(&self) -> Option<BandStock> {
+        None
     }
 }

@@ -26,8 +26,20 @@ impl TargetStock {
 }
 
 impl PolicyRule for TargetStock {
-    fn name(&self) -> &'static str {
-        "stock-target"
+    fn planting_floor(&self) -> Option<f64> {
+        None
+    }
+    fn pays(&self) -> bool {
+        false
+    }
+    fn producer_price(&self, market_price: f64) -> f64 {
+        market_price
+    }
+    fn payment(&self, _market_price: f64, _harvest: f64) -> f64 {
+        0.0
+    }
+    fn consumer_payment(&self, _market_price: f64, _consumption: f64) -> f64 {
+        0.0
     }
     fn trades_stock(&self) -> bool {
         true
@@ -43,5 +55,8 @@ impl PolicyRule for TargetStock {
         } else if gap < 0.0 {
             market.sell_at_most(-gap, middle.min(self.band.sell_above), flags::TARGET);
         }
+    }
+    fn as_band(&self) -> Option<BandStock> {
+        None
     }
 }

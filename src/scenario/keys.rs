@@ -24,7 +24,7 @@ pub fn parse_toml(file: &str, text: &str) -> Result<toml::Table, InputError> {
 pub fn check_keys(
     file: &str,
     table: &toml::Table,
-    schema: &[(&str, &[(&str, Kind)])],
+    schema: &super::schema::Schema,
 ) -> Result<(), InputError> {
     for (section, value) in table {
         let Some((_, keys)) = schema.iter().find(|(s, _)| s == section) else {
@@ -159,7 +159,7 @@ mod tests {
     #[test]
     fn unknown_key_gets_a_suggestion() {
         let t = parse_toml("m.toml", "[supply]\nslpoe = 1.0\n").unwrap();
-        let err = check_keys("m.toml", &t, super::super::raw::MARKET_SCHEMA).unwrap_err();
+        let err = check_keys("m.toml", &t, &super::super::schema::market()).unwrap_err();
         let msg = err.to_string();
         assert!(msg.contains("supply.slpoe"), "{msg}");
         assert!(msg.contains("did you mean `slope`"), "{msg}");

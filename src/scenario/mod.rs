@@ -7,6 +7,7 @@
 pub mod keys;
 pub mod ranges;
 pub mod raw;
+pub mod schema;
 pub mod validate;
 
 use serde::Serialize;
@@ -15,8 +16,8 @@ use crate::curves::{Curve, SteadyState};
 
 pub use keys::{apply_override, parse_toml};
 pub use validate::{
-    load_market, load_policy, market_from_str, market_from_table, policy_for_market,
-    policy_from_str, policy_from_table,
+    load_market, load_policy, market_from_str, market_from_str_with, market_from_table,
+    policy_for_market, policy_from_str, policy_from_table,
 };
 
 /// An input problem, always naming the file and, where there is one, the key and the value.
@@ -250,84 +251,35 @@ pub struct Scenario {
     pub steady: SteadyState,
 }
 
-/// Instrument that defends a price floor.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
-#[serde(rename_all = "kebab-case")]
-pub enum FloorInstrument {
-    /// The agency buys everything offered at the floor.
-    Purchase,
-    /// The market clears freely; the treasury pays the gap on the harvest.
-    DeficiencyPayment,
-}
-
-/// The `[floor]` section.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
-pub struct FloorSpec {
-    /// Guaranteed producer price F.
-    pub price: f64,
-    /// How it is defended.
-    pub instrument: FloorInstrument,
-    /// Whether farmers plant on max(expectation, F).
-    pub announced: bool,
-}
-
-/// Release rule of the buffer stock.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
-#[serde(tag = "release", rename_all = "kebab-case")]
-pub enum ReleaseSpec {
-    /// Sells while the price would rise above `sell_above`.
-    Band,
-    /// Steers the stock toward `target` at `speed` while the price is inside the band.
-    Target { target: f64, speed: f64 },
-    /// Draws the stock down: releases `share` of the stock each period (not below `buy_below`).
-    /// File word `"drawdown"` (`"share"` is accepted as an alias).
-    #[serde(rename = "drawdown")]
-    Share { share: f64 },
-    /// Rotates: defends the band, and each period sells `share` of the old stock and buys the same
-    /// quantity of new grain at the same price (stock and price path unchanged; costs handling).
-    Rotate { share: f64 },
-}
-
-/// The `[stock]` section: the public buffer stock agency.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
-pub struct StockSpec {
-    /// Buys while the price would fall below this (0 = never buys on the band).
-    pub buy_below: f64,
-    /// Sells while the price would rise above this (∞ = never sells on the band).
-    pub sell_above: f64,
-    /// Storage capacity (∞ = unlimited).
-    pub capacity: f64,
-    /// Stock held before period 1.
-    pub initial: f64,
-    /// Physical storage cost per unit of end-of-period stock.
-    pub storage_cost: f64,
-    /// Share of carried stock lost per period.
-    pub loss_rate: f64,
-    /// Purchase spending allowed per period (∞ = unlimited).
-    pub purchase_budget: f64,
-    /// Interest per period on the market value of stock held.
-    pub financing_rate: f64,
-    /// Cost per unit bought or sold.
-    pub handling_cost: f64,
-    /// Release rule.
-    pub release: ReleaseSpec,
-}
-
-/// A validated policy file.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+/// A validated policy file: its rules, each read from its own section through the registry
+/// (`policies::SECTIONS`), in acting order.
+#[derive(Debug, Clone, Serialize)]
 pub struct PolicySpec {
     /// The file it came from (empty for the built-in "no intervention").
     pub source: String,
     /// Display name.
     pub name: String,
-    /// Price floor, if any.
-    pub floor: Option<FloorSpec>,
-    /// Buffer stock, if any.
-    pub stock: Option<StockSpec>,
+    /// The rules, in acting order (empty: the market left alone).
+    pub rules: Vec<crate::policies::RuleRef>,
     /// Expectation rule that overrides the market file's.
     pub expectations: Option<ExpectationSpec>,
     /// Money per season the treasury set aside (`[policy] annual_budget`), if any.
     pub annual_budget: Option<f64>,
+}
+
+impl PartialEq for PolicySpec {
+    fn eq(&self, other: &Self) -> bool {
+        self.source == other.source
+            && self.name == other.name
+            && self.expectations == other.expectations
+            && self.annual_budget == other.annual_budget
+            && self.rules.len() == other.rules.len()
+            && self
+                .rules
+                .iter()
+                .zip(&other.rules)
+                .all(|(a, b)| a.section() == b.section() && a.describe() == b.describe())
+    }
 }
 
 impl PolicySpec {
@@ -336,22 +288,26 @@ impl PolicySpec {
         PolicySpec {
             source: String::new(),
             name: "No intervention".into(),
-            floor: None,
-            stock: None,
+            rules: Vec::new(),
             expectations: None,
             annual_budget: None,
         }
     }
 
-    /// True when the policy does nothing (no floor, no stock, no override).
+    /// True when the policy does nothing (no rule, no override).
     pub fn is_none(&self) -> bool {
-        self.floor.is_none() && self.stock.is_none() && self.expectations.is_none()
+        self.rules.is_empty() && self.expectations.is_none()
     }
 
-    /// True when the policy neither trades nor pays (no floor, no stock); it may still override the
+    /// True when some rule trades or pays; a policy without rules may still override the
     /// farmers' expectation rule, which is a change in behaviour, not a policy.
     pub fn intervenes(&self) -> bool {
-        self.floor.is_some() || self.stock.is_some()
+        !self.rules.is_empty()
+    }
+
+    /// The rule read from `section`, if the file has it.
+    pub fn rule(&self, section: &str) -> Option<&crate::policies::RuleRef> {
+        self.rules.iter().find(|r| r.section() == section)
     }
 }
 
@@ -379,15 +335,16 @@ pub enum FileKind {
 /// parser's error.
 pub fn file_kind(file: &str, text: &str) -> Result<(FileKind, Vec<String>), InputError> {
     let table = parse_toml(file, text)?;
-    let only_in = |a: &[(&str, &[(&str, raw::Kind)])], b: &[(&str, &[(&str, raw::Kind)])]| {
+    let only_in = |a: &schema::Schema, b: &schema::Schema| {
         table
             .keys()
             .filter(|k| a.iter().any(|(s, _)| s == k) && !b.iter().any(|(s, _)| s == k))
             .map(|k| format!("[{k}]"))
             .collect::<Vec<_>>()
     };
-    let market = only_in(raw::MARKET_SCHEMA, raw::POLICY_SCHEMA);
-    let policy = only_in(raw::POLICY_SCHEMA, raw::MARKET_SCHEMA);
+    let (market_schema, policy_schema) = (schema::market(), schema::policy());
+    let market = only_in(&market_schema, &policy_schema);
+    let policy = only_in(&policy_schema, &market_schema);
     match (market.is_empty(), policy.is_empty()) {
         (false, true) => Ok((FileKind::Market, market)),
         (true, false) => Ok((FileKind::Policy, policy)),

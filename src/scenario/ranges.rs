@@ -25,7 +25,7 @@ pub struct KeyRange {
     pub note: &'static str,
 }
 
-const fn r(key: &'static str, lo: f64, hi: f64, open_lo: bool, open_hi: bool) -> KeyRange {
+pub const fn r(key: &'static str, lo: f64, hi: f64, open_lo: bool, open_hi: bool) -> KeyRange {
     KeyRange {
         key,
         lo,
@@ -49,7 +49,7 @@ const fn int(key: &'static str, lo: f64, hi: f64) -> KeyRange {
     }
 }
 
-const fn noted(mut k: KeyRange, note: &'static str) -> KeyRange {
+pub const fn noted(mut k: KeyRange, note: &'static str) -> KeyRange {
     k.note = note;
     k
 }
@@ -61,8 +61,9 @@ pub const MONEY: f64 = 1e24;
 /// Largest seed (i64::MAX: TOML integers are signed 64-bit).
 const SEED_MAX: f64 = 9_223_372_036_854_775_807.0;
 
-/// Every numeric key of the market and policy files with its range. Keys of the `[expectations]`
-/// section are shared by both files.
+/// Every numeric key of the market file and of a policy file's own sections with its range (the
+/// rule sections' keys are declared with their rules). Keys of the `[expectations]` section are
+/// shared by both files.
 pub const RANGES: &[KeyRange] = &[
     // market file: curves
     noted(r("demand.intercept", 0.0, BIG, true, false), "linear form"),
@@ -115,26 +116,7 @@ pub const RANGES: &[KeyRange] = &[
     r("storers.storage_cost", 0.0, BIG, false, false),
     r("storers.interest_rate", 0.0, 1.0, false, true),
     r("storers.loss_rate", 0.0, 1.0, false, true),
-    // policy file
-    noted(
-        r("floor.price", 0.0, BIG, true, false),
-        "purchase: below linear demand's choke price",
-    ),
-    noted(
-        r("stock.buy_below", 0.0, BIG, false, false),
-        "≤ sell_above; below linear demand's choke price",
-    ),
-    r("stock.sell_above", 0.0, BIG, true, false),
-    r("stock.capacity", 0.0, BIG, false, false),
-    noted(r("stock.initial", 0.0, BIG, false, false), "≤ capacity"),
-    r("stock.storage_cost", 0.0, BIG, false, false),
-    r("stock.loss_rate", 0.0, 1.0, false, true),
-    r("stock.purchase_budget", 0.0, MONEY, false, false),
-    r("stock.financing_rate", 0.0, 1.0, false, true),
-    r("stock.handling_cost", 0.0, BIG, false, false),
-    noted(r("stock.target", 0.0, BIG, false, false), "≤ capacity"),
-    r("stock.speed", 0.0, 1.0, true, false),
-    r("stock.share", 0.0, 1.0, true, false),
+    // policy file (the rule sections' keys are declared in their rule files)
     r("policy.annual_budget", 0.0, MONEY, true, false),
 ];
 
@@ -142,7 +124,27 @@ pub const RANGES: &[KeyRange] = &[
 /// array's range).
 pub fn range_of(key: &str) -> Option<&'static KeyRange> {
     let base = key.split('[').next().unwrap_or(key);
-    RANGES.iter().find(|k| k.key == base)
+    RANGES.iter().chain(rule_ranges()).find(|k| k.key == base)
+}
+
+/// The ranges the registered policy rules declare for their keys.
+fn rule_ranges() -> impl Iterator<Item = &'static KeyRange> {
+    crate::policies::SECTIONS
+        .iter()
+        .flat_map(|s| s.keys)
+        .filter_map(|k| k.range.as_ref())
+}
+
+/// Every numeric key's range in README order: the market file's, the rule sections' (registry
+/// order), then `[policy]`'s.
+pub fn all() -> Vec<&'static KeyRange> {
+    let (policy, market): (Vec<_>, Vec<_>) =
+        RANGES.iter().partition(|k| k.key.starts_with("policy."));
+    market
+        .into_iter()
+        .chain(rule_ranges())
+        .chain(policy)
+        .collect()
 }
 
 /// A number in short form for messages and tables: plain when it is short, otherwise scientific
@@ -268,7 +270,7 @@ mod tests {
 
     #[test]
     fn every_range_is_finite_and_ordered() {
-        for k in RANGES {
+        for k in all() {
             assert!(
                 k.lo.is_finite() && k.hi.is_finite() && k.lo < k.hi,
                 "{}",

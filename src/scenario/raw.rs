@@ -81,16 +81,7 @@ pub struct RawStorers {
     pub loss_rate: Option<f64>,
 }
 
-/// A policy file as written.
-#[derive(Debug, Clone, Default, Deserialize)]
-#[serde(default)]
-pub struct RawPolicyFile {
-    pub policy: RawPolicy,
-    pub floor: Option<RawFloor>,
-    pub stock: Option<RawStock>,
-    pub expectations: Option<RawExpectations>,
-}
-
+/// The `[policy]` section as written (rule sections are read by their rule files).
 #[derive(Debug, Clone, Default, Deserialize)]
 #[serde(default)]
 pub struct RawPolicy {
@@ -98,34 +89,8 @@ pub struct RawPolicy {
     pub annual_budget: Option<f64>,
 }
 
-#[derive(Debug, Clone, Default, Deserialize)]
-#[serde(default)]
-pub struct RawFloor {
-    pub price: Option<f64>,
-    pub instrument: Option<String>,
-    pub announced: Option<bool>,
-}
-
-#[derive(Debug, Clone, Default, Deserialize)]
-#[serde(default)]
-pub struct RawStock {
-    pub buy_below: Option<f64>,
-    pub sell_above: Option<f64>,
-    pub capacity: Option<f64>,
-    pub initial: Option<f64>,
-    pub storage_cost: Option<f64>,
-    pub loss_rate: Option<f64>,
-    pub purchase_budget: Option<f64>,
-    pub financing_rate: Option<f64>,
-    pub handling_cost: Option<f64>,
-    pub release: Option<String>,
-    pub target: Option<f64>,
-    pub speed: Option<f64>,
-    pub share: Option<f64>,
-}
-
 /// The type a key's value must have.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 pub enum Kind {
     /// A number (integer or float).
     Number,
@@ -193,31 +158,10 @@ pub const MARKET_SCHEMA: &[(&str, &[(&str, Kind)])] = &[
     ),
 ];
 
-/// The keys a policy file allows and their types.
-pub const POLICY_SCHEMA: &[(&str, &[(&str, Kind)])] = &[
+/// The keys of a policy file's own sections (`[policy]` first, `[expectations]` last); the rule
+/// sections between them come from the registry (`scenario::schema::policy`).
+pub const POLICY_GENERAL_SCHEMA: &[(&str, &[(&str, Kind)])] = &[
     ("policy", &[("name", Text), ("annual_budget", Number)]),
-    (
-        "floor",
-        &[("price", Number), ("instrument", Text), ("announced", Bool)],
-    ),
-    (
-        "stock",
-        &[
-            ("buy_below", Number),
-            ("sell_above", Number),
-            ("capacity", Number),
-            ("initial", Number),
-            ("storage_cost", Number),
-            ("loss_rate", Number),
-            ("purchase_budget", Number),
-            ("financing_rate", Number),
-            ("handling_cost", Number),
-            ("release", Text),
-            ("target", Number),
-            ("speed", Number),
-            ("share", Number),
-        ],
-    ),
     ("expectations", EXPECTATION_KEYS),
 ];
 

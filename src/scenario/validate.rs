@@ -22,6 +22,28 @@ pub fn market_from_str(file: &str, text: &str) -> Result<Scenario, InputError> {
     market_from_table(file, parse_toml(file, text)?)
 }
 
+/// Validates market-file text with `overrides` (dotted key, value: e.g. the command line's
+/// `--periods`) written into the parsed file first, so the values are checked once, with the file's
+/// own; `file` names it in errors.
+pub fn market_from_str_with(
+    file: &str,
+    text: &str,
+    overrides: &[(&str, toml::Value)],
+) -> Result<Scenario, InputError> {
+    let mut table = parse_toml(file, text)?;
+    for (key, value) in overrides {
+        super::keys::apply_override(&mut table, key, value.clone()).map_err(|reason| {
+            InputError::BadValue {
+                file: file.into(),
+                key: key.to_string(),
+                value: super::keys::short_value(value),
+                expected: reason,
+            }
+        })?;
+    }
+    market_from_table(file, table)
+}
+
 /// Validates policy-file text; `file` names it in errors.
 pub fn policy_from_str(file: &str, text: &str) -> Result<PolicySpec, InputError> {
     let table = parse_toml(file, text)?;
@@ -74,13 +96,65 @@ fn deserialize<T: serde::de::DeserializeOwned>(
     })
 }
 
-/// A small helper that knows the file name for error messages.
-struct Check<'a> {
+/// A small helper that knows the file name for error messages (rule files read their sections
+/// through it).
+pub struct Check<'a> {
     file: &'a str,
 }
 
-impl Check<'_> {
-    fn bad(&self, key: &str, value: impl std::fmt::Display, expected: &str) -> InputError {
+/// Reads a rule section's table into the rule's raw struct (keys and types were checked against the
+/// schema already, so this only maps values).
+pub fn deserialize_section<T: serde::de::DeserializeOwned>(
+    c: &Check,
+    table: &toml::Table,
+) -> Result<T, InputError> {
+    deserialize(c.file, table.clone())
+}
+
+impl<'a> Check<'a> {
+    /// A checker for `file`.
+    pub fn new(file: &'a str) -> Check<'a> {
+        Check { file }
+    }
+
+    /// The file checked.
+    pub fn file(&self) -> &str {
+        self.file
+    }
+
+    /// A price an agency defends by buying must leave demand something to take at that price
+    /// (linear demand: below its choke price, intercept / |slope|; constant elasticity has none).
+    pub fn absorbs(
+        &self,
+        scenario: &Scenario,
+        key: &str,
+        price: f64,
+        what: &str,
+    ) -> Result<(), InputError> {
+        let Curve::Linear { intercept, slope } = scenario.market.demand else {
+            return Ok(());
+        };
+        if intercept + slope * price > 0.0 {
+            return Ok(());
+        }
+        let choke = intercept / -slope;
+        Err(InputError::BadValue {
+            file: self.file.into(),
+            key: key.into(),
+            value: short_num(price),
+            expected: format!(
+                "{what} must be below {}, the price at which the linear demand of {} falls to zero \
+                 (at a higher price consumption would be ≤ 0 and the agency would buy more than the \
+                 harvest); the largest price demand can absorb is just below {}",
+                short_num(choke),
+                scenario.source,
+                short_num(choke)
+            ),
+        })
+    }
+
+    /// An out-of-range or inconsistent value.
+    pub fn bad(&self, key: &str, value: impl std::fmt::Display, expected: &str) -> InputError {
         InputError::BadValue {
             file: self.file.into(),
             key: key.into(),
@@ -89,7 +163,8 @@ impl Check<'_> {
         }
     }
 
-    fn missing(&self, key: &str, expected: &str) -> InputError {
+    /// A missing key.
+    pub fn missing(&self, key: &str, expected: &str) -> InputError {
         InputError::Missing {
             file: self.file.into(),
             key: key.into(),
@@ -151,8 +226,8 @@ impl Check<'_> {
         Err(self.bad(key, short_num(v), &range))
     }
 
-    /// Checks `v` against the key's range in [`super::ranges::RANGES`].
-    fn within(&self, key: &str, v: f64) -> Result<f64, InputError> {
+    /// Checks `v` against the key's range ([`super::ranges::range_of`]).
+    pub fn within(&self, key: &str, v: f64) -> Result<f64, InputError> {
         match range_of(key) {
             Some(r) => self.range(key, v, r.lo, r.hi, r.open_lo, r.open_hi),
             None => self.finite(key, v),
@@ -377,7 +452,7 @@ fn expectations(c: &Check, raw: &RawExpectations) -> Result<ExpectationSpec, Inp
 
 /// Validates a parsed market file (after any `--vary` overrides were applied to `table`).
 pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, InputError> {
-    check_keys(file, &table, MARKET_SCHEMA)?;
+    check_keys(file, &table, &super::schema::market())?;
     let raw: RawMarketFile = deserialize(file, table)?;
     let c = Check { file };
     let demand_raw = raw
@@ -607,9 +682,10 @@ fn alert_prices(c: &Check, v: Option<&toml::Value>) -> Result<Vec<f64>, InputErr
     Ok(values)
 }
 
-/// Validates a parsed policy file.
+/// Validates a parsed policy file: `[policy]`, each registered rule section (read by its rule,
+/// `policies::SECTIONS`), and an `[expectations]` override.
 pub fn policy_from_table(file: &str, table: toml::Table) -> Result<PolicySpec, InputError> {
-    check_keys(file, &table, POLICY_SCHEMA)?;
+    check_keys(file, &table, &super::schema::policy())?;
     if !table.contains_key("policy") {
         let what = if table.is_empty() {
             "the file has no sections (empty, only comments, or cut short)".to_string()
@@ -619,7 +695,8 @@ pub fn policy_from_table(file: &str, table: toml::Table) -> Result<PolicySpec, I
         };
         return Err(missing_policy_section(file, &what));
     }
-    // a section header with nothing under it is a file cut short (or a slip), never a silent default
+    // a section header with nothing under it is a file cut short (or a slip), never a silent
+    // default (a rule's required keys say so themselves)
     for section in ["stock", "expectations"] {
         if table
             .get(section)
@@ -635,213 +712,46 @@ pub fn policy_from_table(file: &str, table: toml::Table) -> Result<PolicySpec, I
             });
         }
     }
-    let raw: RawPolicyFile = deserialize(file, table)?;
     let c = Check { file };
-    let floor = match &raw.floor {
-        None => None,
-        Some(f) => {
-            let price = f
-                .price
-                .ok_or_else(|| c.missing("floor.price", "a floor needs price > 0"))?;
-            let price = c.within("floor.price", price)?;
-            let instrument = match f.instrument.as_deref().unwrap_or("purchase") {
-                "purchase" => FloorInstrument::Purchase,
-                "deficiency-payment" => FloorInstrument::DeficiencyPayment,
-                other => {
-                    return Err(c.bad(
-                        "floor.instrument",
-                        format!("\"{}\"", escape(other)),
-                        "allowed instruments: \"purchase\", \"deficiency-payment\"",
-                    ))
-                }
-            };
-            Some(FloorSpec {
-                price,
-                instrument,
-                announced: f.announced.unwrap_or(true),
-            })
+    let mut rules = Vec::new();
+    for section in crate::policies::SECTIONS {
+        if let Some(t) = table.get(section.name).and_then(|v| v.as_table()) {
+            rules.push((section.read)(&c, t)?);
         }
+    }
+    let policy: RawPolicy = match table.get("policy").and_then(|v| v.as_table()) {
+        Some(t) => deserialize(file, t.clone())?,
+        None => RawPolicy::default(),
     };
-    let stock = match &raw.stock {
+    let expectations = match table.get("expectations").and_then(|v| v.as_table()) {
+        Some(t) => Some(expectations(&c, &deserialize(file, t.clone())?)?),
         None => None,
-        Some(s) => {
-            let buy_below = c.within("stock.buy_below", s.buy_below.unwrap_or(0.0))?;
-            let sell_above = match s.sell_above {
-                Some(v) => c.within("stock.sell_above", v)?,
-                None => f64::INFINITY,
-            };
-            if buy_below > sell_above {
-                return Err(c.bad(
-                    "stock.buy_below",
-                    short_num(buy_below),
-                    &format!(
-                        "must be ≤ stock.sell_above = {} (equal fixes the price)",
-                        short_num(sell_above)
-                    ),
-                ));
-            }
-            let capacity = match s.capacity {
-                Some(v) => c.within("stock.capacity", v)?,
-                None => f64::INFINITY,
-            };
-            let initial = c.within("stock.initial", s.initial.unwrap_or(0.0))?;
-            if initial > capacity {
-                return Err(c.bad(
-                    "stock.initial",
-                    short_num(initial),
-                    &format!("must be ≤ stock.capacity = {}", short_num(capacity)),
-                ));
-            }
-            let release = match s.release.as_deref().unwrap_or("band") {
-                "band" => ReleaseSpec::Band,
-                "target" => {
-                    let target = s.target.ok_or_else(|| {
-                        c.missing(
-                            "stock.target",
-                            "release = \"target\" needs target ≥ 0 (the stock to steer toward)",
-                        )
-                    })?;
-                    let target = c.within("stock.target", target)?;
-                    if target > capacity {
-                        return Err(c.bad(
-                            "stock.target",
-                            short_num(target),
-                            &format!("must be ≤ stock.capacity = {}", short_num(capacity)),
-                        ));
-                    }
-                    let speed = c.within("stock.speed", s.speed.unwrap_or(1.0))?;
-                    ReleaseSpec::Target { target, speed }
-                }
-                // "share" is the old name of "drawdown", kept as an alias
-                word @ ("drawdown" | "share" | "rotate") => {
-                    let share = s.share.ok_or_else(|| {
-                        c.missing(
-                            "stock.share",
-                            &format!("release = \"{word}\" needs share in (0, 1]"),
-                        )
-                    })?;
-                    let share = c.within("stock.share", share)?;
-                    if word == "rotate" {
-                        ReleaseSpec::Rotate { share }
-                    } else {
-                        ReleaseSpec::Share { share }
-                    }
-                }
-                other => {
-                    return Err(c.bad(
-                        "stock.release",
-                        format!("\"{}\"", escape(other)),
-                        "allowed release rules: \"band\", \"target\", \"drawdown\" (alias \"share\"), \"rotate\"",
-                    ))
-                }
-            };
-            let release_key_unused = |k: &str, present: bool| -> Result<(), InputError> {
-                if present {
-                    Err(c.bad(
-                        &format!("stock.{k}"),
-                        "(set)",
-                        &format!(
-                            "release rule \"{}\" does not use `{k}`",
-                            s.release.as_deref().unwrap_or("band")
-                        ),
-                    ))
-                } else {
-                    Ok(())
-                }
-            };
-            if !matches!(release, ReleaseSpec::Target { .. }) {
-                release_key_unused("target", s.target.is_some())?;
-                release_key_unused("speed", s.speed.is_some())?;
-            }
-            if !matches!(
-                release,
-                ReleaseSpec::Share { .. } | ReleaseSpec::Rotate { .. }
-            ) {
-                release_key_unused("share", s.share.is_some())?;
-            }
-            Some(StockSpec {
-                buy_below,
-                sell_above,
-                capacity,
-                initial,
-                storage_cost: c.within("stock.storage_cost", s.storage_cost.unwrap_or(0.0))?,
-                loss_rate: c.within("stock.loss_rate", s.loss_rate.unwrap_or(0.0))?,
-                purchase_budget: match s.purchase_budget {
-                    Some(v) => c.within("stock.purchase_budget", v)?,
-                    None => f64::INFINITY,
-                },
-                financing_rate: c
-                    .within("stock.financing_rate", s.financing_rate.unwrap_or(0.0))?,
-                handling_cost: c.within("stock.handling_cost", s.handling_cost.unwrap_or(0.0))?,
-                release,
-            })
-        }
     };
-    let expectations = raw
-        .expectations
-        .as_ref()
-        .map(|e| expectations(&c, e))
-        .transpose()?;
     Ok(PolicySpec {
         source: file.to_string(),
-        name: raw.policy.name.clone().unwrap_or_else(|| {
+        name: policy.name.clone().unwrap_or_else(|| {
             std::path::Path::new(file)
                 .file_stem()
                 .map(|s| s.to_string_lossy().to_string())
                 .unwrap_or_else(|| "policy".into())
         }),
-        floor,
-        stock,
+        rules,
         expectations,
-        annual_budget: raw
-            .policy
+        annual_budget: policy
             .annual_budget
             .map(|b| c.within("policy.annual_budget", b))
             .transpose()?,
     })
 }
 
-/// Checks what a policy file asks of the market it is run on (one check for every verb): a
-/// purchase floor, or a buffer stock's `buy_below`, must leave demand something to take at that
-/// price. The agency defending a price F buys the harvest less D(F), so consumption at the floor is
-/// D(F): the floor is defensible only where D(F) > 0, i.e. below the price at which linear demand
-/// falls to zero (its choke price, intercept / |slope|). Constant-elasticity demand has none.
+/// Checks what a policy file asks of the market it is run on (one check for every verb; each rule
+/// checks its own, e.g. a price defended by purchase must leave demand something to take).
 pub fn policy_for_market(scenario: &Scenario, policy: &PolicySpec) -> Result<(), InputError> {
-    let Curve::Linear { intercept, slope } = scenario.market.demand else {
-        return Ok(());
+    let c = Check {
+        file: &policy.source,
     };
-    let choke = intercept / -slope;
-    let absorbs = |price: f64| intercept + slope * price > 0.0;
-    let refuse = |key: &str, price: f64, what: &str| InputError::BadValue {
-        file: policy.source.clone(),
-        key: key.into(),
-        value: short_num(price),
-        expected: format!(
-            "{what} must be below {}, the price at which the linear demand of {} falls to zero \
-             (at a higher price consumption would be ≤ 0 and the agency would buy more than the \
-             harvest); the largest price demand can absorb is just below {}",
-            short_num(choke),
-            scenario.source,
-            short_num(choke)
-        ),
-    };
-    if let Some(f) = policy.floor {
-        if f.instrument == FloorInstrument::Purchase && !absorbs(f.price) {
-            return Err(refuse(
-                "floor.price",
-                f.price,
-                "a floor defended by purchase",
-            ));
-        }
-    }
-    if let Some(s) = policy.stock {
-        if s.buy_below > 0.0 && !absorbs(s.buy_below) {
-            return Err(refuse(
-                "stock.buy_below",
-                s.buy_below,
-                "the price the stock defends by buying",
-            ));
-        }
+    for rule in &policy.rules {
+        rule.check_market(&c, scenario)?;
     }
     Ok(())
 }

@@ -191,13 +191,7 @@ pub fn radius_and_verdict(setup: &Setup) -> Result<(f64, Verdict), StabilityErro
 pub fn free_price(setup: &Setup) -> Result<f64, StabilityError> {
     let steady = crate::curves::steady_state(&setup.demand, &setup.supply);
     let guess = steady.map(|s| s.price).unwrap_or(1.0);
-    let simple = !matches!(
-        setup.rule,
-        ExpectationSpec::NormalPrice {
-            normal: crate::scenario::NormalPrice::Fixed(_),
-            ..
-        }
-    );
+    let simple = crate::expectations::build(&setup.rule).rests_anywhere();
     if let (true, Some(s)) = (simple, steady) {
         return Ok(s.price);
     }
@@ -298,15 +292,8 @@ pub fn analyse_setup(setup: &Setup, unit: &str) -> Result<StabilityReport, Stabi
         let harvest = setup.supply.quantity(planting);
         let market = match cases[0].clearing {
             Clearing::Free { offtake } => setup.demand.price_at(harvest - offtake),
-            Clearing::Pinned(p) => match setup.floor {
-                Some(f)
-                    if f.instrument == crate::scenario::FloorInstrument::DeficiencyPayment
-                        && f.price == p =>
-                {
-                    setup.demand.price_at(harvest)
-                }
-                _ => p,
-            },
+            Clearing::Paid(_) => setup.demand.price_at(harvest),
+            Clearing::Pinned(p) => p,
         };
         if !(market.is_finite() && market > 0.0 && harvest.is_finite() && harvest > 0.0) {
             return Err(StabilityError::NoSteadyState {

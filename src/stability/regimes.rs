@@ -16,7 +16,6 @@
 //! full store buying only its losses ℓ·capacity then holds the steady state.
 
 use super::statespace::{Clearing, Setup, StateMap};
-use crate::scenario::{FloorInstrument, ReleaseSpec};
 
 /// One regime to linearise.
 #[derive(Debug, Clone, PartialEq)]
@@ -37,28 +36,67 @@ pub struct RegimeCase {
     pub floor_applies: bool,
 }
 
-fn case(name: &str, clearing: Clearing, note: Option<String>) -> RegimeCase {
-    RegimeCase {
-        name: name.into(),
-        clearing,
-        holds: false,
-        finite: true,
-        stock_eigenvalue: None,
-        note,
-        floor_applies: true,
+/// What a rule adds its regimes to (`policies::Rule::regimes`): the setup, the free market's
+/// steady producer price, the regimes holding the steady state so far and the others. Rules are
+/// asked in acting order; the first that holds the steady state fills `holding`.
+#[derive(Debug)]
+pub struct Regimes<'a> {
+    /// The market and policy.
+    pub setup: &'a Setup,
+    /// The free market's steady producer price.
+    pub free_price: f64,
+    /// The quantity unit, for notes.
+    pub unit: &'a str,
+    /// The regime(s) holding the steady state (empty until a rule claims it).
+    pub holding: Vec<RegimeCase>,
+    /// The other regimes a shock can bring.
+    pub secondary: Vec<RegimeCase>,
+}
+
+impl Regimes<'_> {
+    /// A regime that does not hold the steady state (a rule sets `holds` on the one that does).
+    pub fn case(name: &str, clearing: Clearing, note: Option<String>) -> RegimeCase {
+        RegimeCase {
+            name: name.into(),
+            clearing,
+            holds: false,
+            finite: true,
+            stock_eigenvalue: None,
+            note,
+            floor_applies: true,
+        }
+    }
+
+    /// `p` lies below `edge` (beyond rounding).
+    pub fn below(p: f64, edge: f64) -> bool {
+        p < edge * (1.0 - 1e-12)
+    }
+
+    /// The market price at rest when the producer price is held at `p` under `clearing` (a payment
+    /// pins the producer price while the market clears the harvest planted on it).
+    pub fn market_price_at_rest(&self, clearing: Clearing, p: f64) -> f64 {
+        let planting = StateMap::new(self.setup, clearing).planting_at_rest(p);
+        self.setup
+            .demand
+            .price_at(self.setup.supply.quantity(planting))
+    }
+
+    /// The regime that holds when the price would settle below a price `edge` the agency defends
+    /// by buying: pinned with a settled stock, no finite stock, or the free market with a full
+    /// store.
+    pub fn purchase_holds(&self, name: &str, edge: f64) -> Vec<RegimeCase> {
+        purchase_holds(self.setup, name, edge, self.unit)
     }
 }
 
-fn below(p: f64, edge: f64) -> bool {
-    p < edge * (1.0 - 1e-12)
+fn case(name: &str, clearing: Clearing, note: Option<String>) -> RegimeCase {
+    Regimes::case(name, clearing, note)
 }
 
 /// The agency's loss rate, capacity and whether its budget is limited.
 fn agency(setup: &Setup) -> (f64, f64, bool) {
-    match setup.stock {
-        Some(s) => (s.loss_rate, s.capacity, s.purchase_budget.is_finite()),
-        None => (0.0, f64::INFINITY, false),
-    }
+    let a = &setup.agency;
+    (a.loss_rate, a.capacity, a.purchase_budget.is_finite())
 }
 
 /// The regime that holds when the price would settle below a price `edge` the agency defends by
@@ -130,185 +168,25 @@ fn purchase_holds(setup: &Setup, name: &str, edge: f64, unit: &str) -> Vec<Regim
     out
 }
 
-/// The idle regime of a target-release reserve. Restocking purchases never lift the price above the
-/// band's middle M (the engine's rule), so: with the free steady state at or above M the reserve
-/// cannot restock and the market is free; below M it settles at S* = speed·T/(1 − (1 − ℓ)(1 − speed))
-/// and buys its losses ℓ·S* each period (a constant offtake), unless that would lift the price above
-/// M, in which case the price is pinned at M and the reserve settles below its target.
-fn target_regime(
-    setup: &Setup,
-    free_price: f64,
-    buy: f64,
-    sell: f64,
-    target: f64,
-    speed: f64,
-    unit: &str,
-) -> (Clearing, f64, String) {
-    let loss = setup.stock.map_or(0.0, |s| s.loss_rate);
-    let middle = if sell.is_finite() {
-        0.5 * (buy + sell)
-    } else {
-        f64::INFINITY
-    };
-    if !below(free_price, middle) {
-        return (
-            Clearing::Free { offtake: 0.0 },
-            1.0 - loss,
-            format!(
-                "the free steady state is at or above the band's middle {middle:.4}: the reserve \
-                 cannot restock there and the market is free"
-            ),
-        );
-    }
-    let settled = speed * target / (1.0 - (1.0 - loss) * (1.0 - speed));
-    let offtake = loss * settled;
-    let interior = Clearing::Free { offtake };
-    let p = StateMap::new(setup, interior).fixed_point(free_price);
-    match p {
-        Some(p) if p <= middle * (1.0 + 1e-12) => (
-            interior,
-            (1.0 - loss) * (1.0 - speed),
-            format!(
-                "inside the band the stock moves toward its target and settles at {settled:.4}; \
-                 the agency then buys its losses ({offtake:.4} {unit} a period)"
-            ),
-        ),
-        _ => (
-            Clearing::Pinned(middle),
-            1.0 - loss,
-            format!(
-                "restocking purchases stop at the band's middle {middle:.4}: the price is pinned \
-                 there and the reserve settles below its target {target}"
-            ),
-        ),
-    }
-}
-
 /// Lists the regimes of `setup` given the free market's steady producer price `free_price`, the one
 /// holding the steady state first.
 pub fn regimes(setup: &Setup, free_price: f64, unit: &str) -> Vec<RegimeCase> {
-    let mut holding: Vec<RegimeCase> = Vec::new();
-    let mut secondary: Vec<RegimeCase> = Vec::new();
+    let mut r = Regimes {
+        setup,
+        free_price,
+        unit,
+        holding: Vec::new(),
+        secondary: Vec::new(),
+    };
+    for rule in &setup.rules {
+        rule.regimes(&mut r);
+    }
+    let Regimes {
+        mut holding,
+        mut secondary,
+        ..
+    } = r;
     let free = Clearing::Free { offtake: 0.0 };
-    if let Some(f) = setup.floor {
-        match f.instrument {
-            FloorInstrument::Purchase => {
-                let name = "floor binding (purchase)";
-                if below(free_price, f.price) {
-                    holding = purchase_holds(setup, name, f.price, unit);
-                } else {
-                    secondary.push(case(
-                        name,
-                        Clearing::Pinned(f.price),
-                        Some(format!(
-                            "after a shock that drives the price below {:.4}: price pinned, the agency buys",
-                            f.price
-                        )),
-                    ));
-                }
-            }
-            FloorInstrument::DeficiencyPayment => {
-                let name = "deficiency payment binding";
-                let pinned = Clearing::Pinned(f.price);
-                if below(free_price, f.price) {
-                    let planting = StateMap::new(setup, pinned).planting_at_rest(f.price);
-                    let market = setup.demand.price_at(setup.supply.quantity(planting));
-                    let mut c = case(
-                        name,
-                        pinned,
-                        Some(format!(
-                            "producer price pinned at {:.4} (expectations anchored); the market clears \
-                             at {:.4} and the treasury pays the gap on the harvest",
-                            f.price, market
-                        )),
-                    );
-                    c.holds = true;
-                    holding.push(c);
-                } else {
-                    secondary.push(case(
-                        name,
-                        pinned,
-                        Some(format!(
-                            "after a shock that drives the price below {:.4}: producers get the floor",
-                            f.price
-                        )),
-                    ));
-                }
-            }
-        }
-    }
-    // a [stock] section without band edges and with the band release is only the floor's store
-    let band = setup.stock.filter(|s| {
-        s.buy_below > 0.0 || s.sell_above.is_finite() || s.release != ReleaseSpec::Band
-    });
-    if let Some(s) = band {
-        let (buy, sell) = (s.buy_below, s.sell_above);
-        let buying = "stock buying at buy_below";
-        let selling = "stock selling at sell_above";
-        if holding.is_empty() {
-            if buy > 0.0 && below(free_price, buy) {
-                holding = purchase_holds(setup, buying, buy, unit);
-            } else if sell.is_finite() && free_price > sell * (1.0 + 1e-12) {
-                let mut c = case(
-                    "stock empty (free market)",
-                    free,
-                    Some(format!(
-                        "the free market's steady state lies above sell_above = {sell:.4}: the agency \
-                         sells until its stock runs out, then the market is free"
-                    )),
-                );
-                c.holds = true;
-                holding.push(c);
-            } else {
-                let loss = s.loss_rate;
-                let (clearing, eig, note) = match s.release {
-                    ReleaseSpec::Band => (
-                        free,
-                        1.0 - loss,
-                        "inside the band the agency does not trade: the free market".to_string(),
-                    ),
-                    ReleaseSpec::Target { target, speed } => {
-                        target_regime(setup, free_price, buy, sell, target, speed, unit)
-                    }
-                    // a rotation swaps old grain for new: the stock and the market as in the band
-                    ReleaseSpec::Rotate { .. } => (
-                        free,
-                        1.0 - loss,
-                        "inside the band the agency only rotates its stock: the free market"
-                            .to_string(),
-                    ),
-                    ReleaseSpec::Share { share } => (
-                        free,
-                        (1.0 - loss) * (1.0 - share),
-                        format!("inside the band the agency releases {share} of its stock a period until it is gone"),
-                    ),
-                };
-                let name = match clearing {
-                    Clearing::Pinned(_) => "stock restocking at the band's middle",
-                    Clearing::Free { .. } => "stock idle (free market)",
-                };
-                let mut c = case(name, clearing, Some(note));
-                c.holds = true;
-                c.stock_eigenvalue = Some(eig);
-                holding.push(c);
-            }
-        }
-        let held = |n: &str, h: &[RegimeCase]| h.iter().any(|c| c.name == n);
-        if buy > 0.0 && !held(buying, &holding) {
-            secondary.push(case(
-                buying,
-                Clearing::Pinned(buy),
-                Some(format!("price pinned at {buy:.4} while the store has room")),
-            ));
-        }
-        if sell.is_finite() {
-            secondary.push(case(
-                selling,
-                Clearing::Pinned(sell),
-                Some(format!("price pinned at {sell:.4} while stock lasts")),
-            ));
-        }
-    }
     if holding.is_empty() {
         let mut c = case("free market", free, None);
         c.holds = true;

@@ -13,10 +13,12 @@ use nalgebra::DMatrix;
 
 use crate::curves::Curve;
 use crate::expectations::{self, ExpectationInput, ExpectationRule};
-use crate::scenario::{ExpectationSpec, FloorSpec, NormalPrice, PolicySpec, Scenario, StockSpec};
+use crate::policies::{Agency, RuleRef};
+use crate::scenario::{ExpectationSpec, PolicySpec, Scenario};
 
-/// What the linearisation needs of a market and a policy (all `Copy`, cheap to patch in a sweep).
-#[derive(Debug, Clone, Copy, PartialEq)]
+/// What the linearisation needs of a market and a policy (cheap to clone and patch in a sweep: the
+/// rules are shared).
+#[derive(Debug, Clone)]
 pub struct Setup {
     /// Demand curve.
     pub demand: Curve,
@@ -24,27 +26,59 @@ pub struct Setup {
     pub supply: Curve,
     /// The expectation rule in force (the policy's override, else the market's).
     pub rule: ExpectationSpec,
-    /// The policy's floor.
-    pub floor: Option<FloorSpec>,
-    /// The policy's buffer stock.
-    pub stock: Option<StockSpec>,
+    /// The policy's rules (each adds its regimes, `Rule::regimes`).
+    pub rules: Vec<RuleRef>,
+    /// The agency's parameters (from the rules).
+    pub agency: Agency,
+    /// The announced planting floor, if any (from the rules).
+    planting_floor: Option<f64>,
 }
 
 impl Setup {
     /// The setup of `scenario` under `policy`.
     pub fn new(scenario: &Scenario, policy: &PolicySpec) -> Setup {
-        Setup {
-            demand: scenario.market.demand,
-            supply: scenario.market.supply,
-            rule: policy.expectations.unwrap_or(scenario.expectations),
-            floor: policy.floor,
-            stock: policy.stock,
-        }
+        Setup::with_rules(
+            scenario.market.demand,
+            scenario.market.supply,
+            policy.expectations.unwrap_or(scenario.expectations),
+            policy.rules.clone(),
+        )
+    }
+
+    /// A setup from its parts.
+    pub fn with_rules(
+        demand: Curve,
+        supply: Curve,
+        rule: ExpectationSpec,
+        rules: Vec<RuleRef>,
+    ) -> Setup {
+        let mut s = Setup {
+            demand,
+            supply,
+            rule,
+            rules: Vec::new(),
+            agency: Agency::default(),
+            planting_floor: None,
+        };
+        s.set_rules(rules);
+        s
+    }
+
+    /// Replaces the policy's rules (and what follows from them).
+    pub fn set_rules(&mut self, rules: Vec<RuleRef>) {
+        let spec = PolicySpec {
+            rules,
+            ..PolicySpec::none()
+        };
+        let compiled = crate::policies::compile(&spec);
+        self.agency = compiled.agency;
+        self.planting_floor = compiled.planting_floor();
+        self.rules = spec.rules;
     }
 
     /// The announced planting floor, if any.
     pub fn planting_floor(&self) -> Option<f64> {
-        self.floor.filter(|f| f.announced).map(|f| f.price)
+        self.planting_floor
     }
 }
 
@@ -56,8 +90,10 @@ pub enum Clearing {
         /// Net quantity the agency takes off the market each period.
         offtake: f64,
     },
-    /// The producer price is pinned (a defended floor or band edge, a deficiency payment).
+    /// The market price is pinned (a defended floor, band edge or ceiling).
     Pinned(f64),
+    /// The producer price is pinned by a payment (a deficiency payment); the market clears freely.
+    Paid(f64),
 }
 
 impl Clearing {
@@ -68,7 +104,7 @@ impl Clearing {
             Clearing::Free { offtake } => setup
                 .demand
                 .price_at(setup.supply.quantity(planting) - offtake),
-            Clearing::Pinned(p) => p,
+            Clearing::Pinned(p) | Clearing::Paid(p) => p,
         }
     }
 
@@ -83,36 +119,17 @@ impl Clearing {
                 setup.supply.slope_at_point(planting, q)
                     / setup.demand.slope_at_point(p, q - offtake)
             }
-            Clearing::Pinned(_) => 0.0,
+            Clearing::Pinned(_) | Clearing::Paid(_) => 0.0,
         }
     }
 }
 
-/// The shape of a rule's state.
-#[derive(Debug, Clone, PartialEq)]
-pub enum Layout {
-    /// The k last producer prices; the expectation is Σ w_i P_{t−i} (+ a constant).
-    Lags(Vec<f64>),
-    /// The rule's own expectation (adaptive, weight λ).
-    Expectation(f64),
-}
+pub use crate::expectations::Layout;
 
-/// The state layout of a rule, with the weights of the linear rules.
+/// The state layout of a rule, with the weights of the linear rules (the rule's own,
+/// `ExpectationRule::layout`).
 pub fn layout(rule: &ExpectationSpec) -> Layout {
-    match *rule {
-        ExpectationSpec::Naive | ExpectationSpec::Rational => Layout::Lags(vec![1.0]),
-        ExpectationSpec::Adaptive { weight, .. } => Layout::Expectation(weight),
-        ExpectationSpec::Extrapolative { weight } => Layout::Lags(vec![1.0 + weight, -weight]),
-        ExpectationSpec::TrailingMean { window } => Layout::Lags(vec![1.0 / window as f64; window]),
-        ExpectationSpec::NormalPrice { weight, normal } => match normal {
-            NormalPrice::Fixed(_) => Layout::Lags(vec![1.0 - weight]),
-            NormalPrice::Window(k) => {
-                let mut w = vec![weight / k as f64; k];
-                w[0] += 1.0 - weight;
-                Layout::Lags(w)
-            }
-        },
-    }
+    expectations::build(rule).layout()
 }
 
 /// The state-space map of one rule inside one regime.
@@ -173,7 +190,7 @@ impl<'a> StateMap<'a> {
 
     /// The steady producer price of this regime: p = h(planting(p)); `None` when none exists.
     pub fn fixed_point(&self, guess: f64) -> Option<f64> {
-        if let Clearing::Pinned(p) = self.clearing {
+        if let Clearing::Pinned(p) | Clearing::Paid(p) = self.clearing {
             return Some(p);
         }
         let g = |p: f64| {

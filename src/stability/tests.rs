@@ -4,21 +4,20 @@ use crate::curves::Curve;
 use crate::scenario::NormalPrice;
 
 fn setup(rule: ExpectationSpec) -> Setup {
-    Setup {
-        demand: Curve::ConstantElasticity {
+    Setup::with_rules(
+        Curve::ConstantElasticity {
             at_price: 100.0,
             at_quantity: 50.0,
             elasticity: -0.4,
         },
-        supply: Curve::ConstantElasticity {
+        Curve::ConstantElasticity {
             at_price: 90.0,
             at_quantity: 45.0,
             elasticity: 0.6,
         },
         rule,
-        floor: None,
-        stock: None,
-    }
+        Vec::new(),
+    )
 }
 
 #[test]

@@ -18,7 +18,7 @@ use super::stats::{ShiftedSums, Summary};
 use super::ShockStream;
 use crate::engine::{Diverged, Model, PeriodRecord, PeriodShock};
 use crate::policies::flags;
-use crate::scenario::{FloorInstrument, PolicySpec, Scenario, MAX_ALERTS};
+use crate::scenario::{PolicySpec, Scenario, MAX_ALERTS};
 use crate::storage::{SolvedStorage, StorageError};
 use crate::welfare::{crra_transform, income, producer_revenue, Books, WelfareFold, WelfarePv};
 
@@ -195,20 +195,15 @@ impl Watch {
         policy: &PolicySpec,
         agency: &crate::policies::Agency,
     ) -> Watch {
+        let watched = crate::policies::watched(policy);
         let mut alerts = [f64::INFINITY; MAX_ALERTS];
         for (slot, p) in alerts.iter_mut().zip(&scenario.run.alert_prices) {
             *slot = *p;
         }
         Watch {
             books: Books::new(scenario, agency),
-            purchase_floor: policy
-                .floor
-                .filter(|f| f.instrument == FloorInstrument::Purchase)
-                .map(|f| f.price),
-            band: policy
-                .stock
-                .filter(|s| s.buy_below > 0.0 || s.sell_above.is_finite())
-                .map(|s| (s.buy_below, s.sell_above)),
+            purchase_floor: watched.purchase_floor,
+            band: watched.band,
             annual_budget: policy.annual_budget.unwrap_or(f64::INFINITY),
             alerts,
             alert_count: scenario.run.alert_prices.len().min(MAX_ALERTS),

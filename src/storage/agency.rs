@@ -1,10 +1,155 @@
-//! The agency's rule inside the storage equilibrium: given the state (availability z, public stock g
-//! carried in) and the price that would result from any end-of-period public stock G,
-//! pg(G) = P(y = z + g − G, G) (increasing in G), decide G the way the period engine's stock rules do
-//! (`src/policies/`): the band first (buy to `buy_below` until full, sell to `sell_above` until
-//! empty), then, inside the band, the target rule (trade speed·(target − g), never pushing the price
-//! past the band's middle) or the share rule (release share·g, never pushing the price below
-//! `buy_below`, unless the band bought).
+//! The agency's rule inside the storage equilibrium.
+//!
+//! What each policy rule does here is written in its own file (`policies::Rule::storage`): each
+//! adds itself to a [`StoragePlan`], and [`band_of`] turns the plan into the agency's [`Band`].
+//! Given the state (availability z, public stock g carried in) and the price that would result
+//! from any end-of-period public stock G, pg(G) = P(y = z + g − G, G) (increasing in G), [`decide`]
+//! fixes G as the period engine's rules do (`src/policies/`): the band first (buy to `buy_below`
+//! until full, sell to `sell_above` until empty), then, inside the band, the target rule (trade
+//! speed·(target − g), never pushing the price past the band's middle) or the share rule (release
+//! share·g, never pushing the price below `buy_below`, unless the band bought); a ceiling defended
+//! by release lowers the selling edge to the ceiling. `tests/rules.rs` runs the engine's period
+//! decision and this one on the same states and checks they agree.
+
+use super::StorageError;
+use crate::scenario::PolicySpec;
+
+/// What the `[stock]` rule contributes to the storage model.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct StockPlan {
+    /// Buys while the price would fall below this.
+    pub buy_below: f64,
+    /// Sells while the price would rise above this (∞: never sells).
+    pub sell_above: f64,
+    /// Store capacity (∞: unlimited).
+    pub capacity: f64,
+    /// 1 − the agency's loss rate.
+    pub keep: f64,
+    /// What the agency does inside the band.
+    pub release: Release,
+    /// Purchase spending allowed per period (∞: unlimited).
+    pub budget: f64,
+}
+
+/// The policy as the storage model sees it, filled in by each rule (`policies::Rule::storage`).
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct StoragePlan {
+    /// A floor defended by purchase.
+    pub purchase_floor: Option<f64>,
+    /// The buffer stock.
+    pub stock: Option<StockPlan>,
+    /// A ceiling defended by release from the stock.
+    pub ceiling: Option<f64>,
+    /// A ceiling kept by paying consumers (changes no decision; the records book the payment).
+    pub consumer_ceiling: Option<f64>,
+    /// The producer price floor farmers plant on (an announced deficiency payment), else 0.
+    pub planting_floor: f64,
+    /// The producer price floor paid by deficiency payments, else 0.
+    pub payment_floor: f64,
+}
+
+/// The plan of `policy`: each rule adds what it does; an error names the rule's section when the
+/// storage model does not cover it as configured.
+pub fn plan_of(policy: &PolicySpec) -> Result<StoragePlan, StorageError> {
+    let mut plan = StoragePlan::default();
+    for rule in &policy.rules {
+        rule.storage(&mut plan)
+            .map_err(|reason| StorageError::UnsupportedPolicy {
+                file: policy.source.clone(),
+                key: format!("[{}]", rule.section()),
+                reason,
+            })?;
+    }
+    Ok(plan)
+}
+
+impl StoragePlan {
+    /// The treasury's payment to consumers at price `price` and consumption `consumption`.
+    pub fn consumer_payment(&self, price: f64, consumption: f64) -> f64 {
+        match self.consumer_ceiling {
+            Some(c) if price > c => (price - c) * consumption,
+            _ => 0.0,
+        }
+    }
+}
+
+/// The agency's rule as a price band inside the storage equilibrium, or `None` for a policy that
+/// does not trade. Covered: a band stock released by the band, the target or the share rule, a floor
+/// defended by purchase (a band that never sells), a ceiling defended by release (the selling edge
+/// lowered to the ceiling; with the target or drawdown release only where it lies at or above
+/// `sell_above`), within a purchase budget if one is set (an unlimited capacity is solved on a
+/// bounded grid, see [`super::solve`]); payments do not trade.
+pub fn band_of(policy: &PolicySpec) -> Result<Option<Band>, StorageError> {
+    let unsupported = |key: &str, reason: &str| StorageError::UnsupportedPolicy {
+        file: policy.source.clone(),
+        key: key.into(),
+        reason: reason.into(),
+    };
+    if let Some(e) = policy.expectations {
+        if e != crate::scenario::ExpectationSpec::Rational {
+            return Err(unsupported(
+                "expectations.rule",
+                &format!("\"{}\": the storage model needs rule = \"rational\" (farmers and storers look ahead)", e.rule_name()),
+            ));
+        }
+    }
+    let plan = plan_of(policy)?;
+    let floor = plan.purchase_floor;
+    let band = match plan.stock {
+        // a purchase floor without a [stock] section: an unlimited store without losses that never
+        // sells (as in the period engine); solved on a bounded grid, see `storage::solve`
+        None => floor.map(|f| Band {
+            buy_below: f,
+            sell_above: f64::INFINITY,
+            capacity: f64::INFINITY,
+            keep: 1.0,
+            release: Release::Band,
+            budget: f64::INFINITY,
+        }),
+        // a store that holds nothing never trades
+        Some(stock) if stock.capacity <= 0.0 => return Ok(None),
+        Some(stock) => {
+            let buy_below = floor.map_or(stock.buy_below, |f| f.max(stock.buy_below));
+            let sell_above = if floor.is_some() && stock.sell_above <= buy_below {
+                f64::INFINITY
+            } else {
+                stock.sell_above
+            };
+            Some(Band {
+                buy_below,
+                sell_above,
+                capacity: stock.capacity,
+                keep: stock.keep,
+                release: stock.release,
+                budget: stock.budget,
+            })
+        }
+    };
+    let (Some(mut band), Some(c)) = (band, plan.ceiling) else {
+        return Ok(band);
+    };
+    if c >= band.sell_above {
+        // the band sells down to sell_above or runs out first: the ceiling never acts
+        return Ok(Some(band));
+    }
+    if c <= band.buy_below {
+        return Err(unsupported(
+            "ceiling.price",
+            "a ceiling at or below the price the agency buys at (floor or stock.buy_below): the \
+             storage model needs the selling edge above the buying one",
+        ));
+    }
+    if band.release != Release::Band {
+        return Err(unsupported(
+            "ceiling.price",
+            "a ceiling below stock.sell_above with release = \"target\" or \"drawdown\" is not \
+             covered by the storage model (set the ceiling at or above sell_above, or use the band \
+             release)",
+        ));
+    }
+    band.sell_above = c;
+    Ok(Some(band))
+}
 
 /// Release rule of the public stock.
 #[derive(Debug, Clone, Copy, PartialEq)]

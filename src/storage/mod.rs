@@ -193,7 +193,7 @@ fn solve_unlimited(
     options: &SolveOptions,
 ) -> Result<Equilibrium, StorageError> {
     let q = m.q_star;
-    let initial = policy.stock.map_or(0.0, |s| s.initial);
+    let initial = crate::policies::compile(policy).agency.initial;
     let limit = UNLIMITED_MAX_BOUND * q;
     band.capacity = (0.5 * q).max(1.5 * initial);
     loop {
@@ -304,7 +304,7 @@ pub fn storage_indicators(
     let without = long_run_of(&base, scenario, 0.0);
     let (eq, with) = if band_of(policy)?.is_some() || payment_floor(policy) > 0.0 {
         let eq = solve(scenario, policy, &options)?;
-        let initial = policy.stock.map_or(0.0, |s| s.initial);
+        let initial = crate::policies::compile(policy).agency.initial;
         let with = long_run_of(&eq, scenario, initial);
         (eq, with)
     } else {

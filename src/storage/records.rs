@@ -8,7 +8,7 @@ use super::agency::Regime;
 use super::simulate::StoragePeriod;
 use crate::engine::PeriodRecord;
 use crate::policies::flags;
-use crate::scenario::{FloorInstrument, PolicySpec, Scenario};
+use crate::scenario::{PolicySpec, Scenario};
 
 /// The engine's record of each simulated storage period under `policy`.
 pub fn to_records(
@@ -18,14 +18,17 @@ pub fn to_records(
 ) -> Vec<PeriodRecord> {
     let demand = &scenario.market.demand;
     let supply = &scenario.market.supply;
-    let (storage_rate, financing_rate, handling_rate) = policy.stock.map_or((0.0, 0.0, 0.0), |s| {
-        (s.storage_cost, s.financing_rate, s.handling_cost)
-    });
-    let floor_purchase = policy
-        .floor
-        .is_some_and(|f| f.instrument == FloorInstrument::Purchase);
     // release = "rotate": the quantity rotated, booked as in the period engine
     let agency = crate::policies::compile(policy).agency;
+    let (storage_rate, financing_rate, handling_rate) = (
+        agency.storage_cost,
+        agency.financing_rate,
+        agency.handling_cost,
+    );
+    let plan = super::agency::plan_of(policy).unwrap_or_default();
+    let floor_purchase = plan.purchase_floor.is_some();
+    // a consumer payment (a transfer: the treasury's cost and consumers' gain); -0.0 adds nothing
+    let paid = |x: f64| if x > 0.0 { x } else { -0.0 };
     let mut previous = agency.initial;
     path.iter()
         .map(|r| {
@@ -56,6 +59,10 @@ pub fn to_records(
             if r.deficiency_payments > 0.0 {
                 bits |= flags::DEFICIENCY;
             }
+            let consumer_payments = plan.consumer_payment(r.price, r.consumption);
+            if consumer_payments > 0.0 {
+                bits |= flags::CONSUMER_SUBSIDY;
+            }
             PeriodRecord {
                 period: r.period,
                 expected_price: r.expected_price,
@@ -71,8 +78,10 @@ pub fn to_records(
                     + storage_cost
                     + financing_cost
                     + handling_cost
-                    + r.deficiency_payments,
-                consumer_surplus: demand.consumer_surplus(r.price, r.demand_shock),
+                    + r.deficiency_payments
+                    + paid(consumer_payments),
+                consumer_surplus: demand.consumer_surplus(r.price, r.demand_shock)
+                    + paid(consumer_payments),
                 producer_surplus: r.producer_price * r.harvest - supply.production_cost(r.planted),
                 purchase_cost,
                 sales_revenue,
@@ -80,6 +89,7 @@ pub fn to_records(
                 financing_cost,
                 handling_cost,
                 deficiency_payments: r.deficiency_payments,
+                consumer_payments,
                 rotated,
                 flags: if rotated > 0.0 {
                     bits | flags::ROTATE
@@ -108,7 +118,7 @@ impl SolvedStorage {
     pub fn new(scenario: &Scenario, policy: &PolicySpec) -> Result<Self, super::StorageError> {
         let equilibrium = super::solve(scenario, policy, &super::SolveOptions::default())?;
         let initial_public = if super::band_of(policy)?.is_some() {
-            policy.stock.map_or(0.0, |s| s.initial)
+            crate::policies::compile(policy).agency.initial
         } else {
             0.0
         };

@@ -1,8 +1,9 @@
 //! Applying `--vary` values to the market or policy file and re-validating them.
 //!
-//! A key belongs to the policy file when it is under `floor.`, `stock.` or `policy.`, and for
-//! `expectations.` only when a policy file is given and has an `[expectations]` section; every other
-//! key belongs to the market file. Without a policy file, policy keys start from an empty policy
+//! A key belongs to the policy file when its section is one only policy files have (`[policy]` and
+//! every registered rule section, from the one schema: `scenario::schema::is_policy_section`), and
+//! for `expectations.` only when a policy file is given and has an `[expectations]` section; every
+//! other key belongs to the market file. Without a policy file, policy keys start from an empty policy
 //! (`[policy]` alone), so `--vary floor.price=...` works on a market by itself.
 //!
 //! Each value of each axis is validated once, through the same path as the files themselves
@@ -12,6 +13,7 @@
 //! state is re-solved at every point). Two keys in the same section are validated together at every
 //! point (slower).
 
+use crate::policies::RuleRef;
 use crate::scenario::ranges::short_num;
 use crate::scenario::{
     apply_override, market_from_table, policy_for_market, policy_from_table, ExpectationSpec,
@@ -74,10 +76,10 @@ impl Base {
     pub fn target(&self, key: &str) -> Target {
         let section = key.split('.').next().unwrap_or("");
         match section {
-            "floor" | "stock" | "policy" => Target::Policy,
             "expectations" if self.has_policy_file && self.policy.contains_key("expectations") => {
                 Target::Policy
             }
+            s if crate::scenario::schema::is_policy_section(s) => Target::Policy,
             _ => Target::Market,
         }
     }
@@ -138,7 +140,7 @@ fn value_for(key: &str, v: f64, file: &str) -> Result<toml::Value, InputError> {
 }
 
 /// The part of the analysis a validated key changed.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone)]
 pub enum Component {
     /// `demand.*`.
     Demand(crate::curves::Curve),
@@ -148,10 +150,8 @@ pub enum Component {
     MarketRule(ExpectationSpec),
     /// `expectations.*` of the policy file.
     PolicyRule(Option<ExpectationSpec>),
-    /// `floor.*`.
-    Floor(Option<crate::scenario::FloorSpec>),
-    /// `stock.*`.
-    Stock(Option<crate::scenario::StockSpec>),
+    /// A key of a policy rule's section: the section and its rule (if the file has it).
+    Rule(&'static str, Option<RuleRef>),
     /// A key that does not enter the linearisation (run, shocks, names).
     Nothing,
 }
@@ -164,14 +164,16 @@ pub fn component(base: &Base, key: &str, s: &Scenario, p: &PolicySpec) -> Compon
         (Target::Market, "supply") => Component::Supply(s.market.supply),
         (Target::Market, "expectations") => Component::MarketRule(s.expectations),
         (Target::Policy, "expectations") => Component::PolicyRule(p.expectations),
-        (Target::Policy, "floor") => Component::Floor(p.floor),
-        (Target::Policy, "stock") => Component::Stock(p.stock),
+        (Target::Policy, s) => match crate::policies::rule::section(s) {
+            Some(section) => Component::Rule(section.name, p.rule(section.name).cloned()),
+            None => Component::Nothing,
+        },
         _ => Component::Nothing,
     }
 }
 
 /// The linearisation inputs before the policy's rule override is resolved.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone)]
 pub struct Parts {
     /// Setup with `rule` = the market's rule.
     pub setup: Setup,
@@ -197,15 +199,33 @@ impl Parts {
             Component::Supply(s) => self.setup.supply = s,
             Component::MarketRule(r) => self.setup.rule = r,
             Component::PolicyRule(r) => self.policy_rule = r,
-            Component::Floor(f) => self.setup.floor = f,
-            Component::Stock(s) => self.setup.stock = s,
+            Component::Rule(section, ref rule) => {
+                // the section's rule replaced at its place (the registry's order), or removed
+                let mut rules: Vec<RuleRef> = self
+                    .setup
+                    .rules
+                    .iter()
+                    .filter(|r| r.section() != section)
+                    .cloned()
+                    .collect();
+                if let Some(rule) = rule {
+                    rules.push(rule.clone());
+                }
+                let place = |r: &RuleRef| {
+                    crate::policies::SECTIONS
+                        .iter()
+                        .position(|s| s.name == r.section())
+                };
+                rules.sort_by_key(place);
+                self.setup.set_rules(rules);
+            }
             Component::Nothing => {}
         }
     }
 
     /// The setup the analysis runs on.
     pub fn resolved(&self) -> Setup {
-        let mut s = self.setup;
+        let mut s = self.setup.clone();
         if let Some(r) = self.policy_rule {
             s.rule = r;
         }

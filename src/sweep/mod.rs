@@ -229,7 +229,7 @@ pub fn sweep(
                 match (&per_axis[0][i], &per_axis[1][j]) {
                     (Err(e), _) | (_, Err(e)) => Err(e.to_string()),
                     (Ok((sa, pa)), Ok((sb, pb))) => {
-                        let mut parts = base_parts;
+                        let mut parts = base_parts.clone();
                         parts.patch(&apply::component(base, &a.key, sa, pa));
                         parts.patch(&apply::component(base, &b.key, sb, pb));
                         let setup = parts.resolved();

@@ -4,9 +4,7 @@
 
 use anyhow::Context;
 use furrow::output::{fmt_num, TextTable};
-use furrow::scenario::{
-    parse_toml, ExpectationSpec, FloorInstrument, PolicySpec, ReleaseSpec, Scenario,
-};
+use furrow::scenario::{parse_toml, ExpectationSpec, PolicySpec, Scenario};
 use sha2::{Digest, Sha256};
 
 use super::super::common::CommonArgs;
@@ -185,6 +183,15 @@ fn money(x: f64) -> String {
     }
 }
 
+fn cell(c: &furrow::policies::rule::Cell) -> String {
+    use furrow::policies::rule::Cell;
+    match c {
+        Cell::Amount(x) => money(*x),
+        Cell::Number(x, decimals) => fmt_num(*x, *decimals),
+        Cell::Text(t) => t.clone(),
+    }
+}
+
 /// Policies side by side: one column per policy, one row per design choice.
 pub fn policy_table(
     policies: &[(String, PolicySpec)],
@@ -210,58 +217,19 @@ pub fn policy_table(
         }));
         r
     });
-    t.push(row(&format!("price floor ({price_unit})"), &|p| {
-        p.floor.map_or("none".into(), |f| fmt_num(f.price, 2))
-    }));
-    t.push(row("floor instrument", &|p| {
-        p.floor.map_or("—".into(), |f| match f.instrument {
-            FloorInstrument::Purchase => "public purchase".into(),
-            FloorInstrument::DeficiencyPayment => "deficiency payment".into(),
-        })
-    }));
-    t.push(row("floor announced", &|p| {
-        p.floor.map_or("—".into(), |f| {
-            if f.announced {
-                "yes".into()
-            } else {
-                "no".into()
-            }
-        })
-    }));
-    t.push(row(&format!("stock buys below ({price_unit})"), &|p| {
-        p.stock.map_or("no stock".into(), |s| money(s.buy_below))
-    }));
-    t.push(row(&format!("stock sells above ({price_unit})"), &|p| {
-        p.stock.map_or("—".into(), |s| money(s.sell_above))
-    }));
-    t.push(row(&format!("capacity ({quantity_unit})"), &|p| {
-        p.stock.map_or("—".into(), |s| money(s.capacity))
-    }));
-    t.push(row(&format!("initial stock ({quantity_unit})"), &|p| {
-        p.stock.map_or("—".into(), |s| money(s.initial))
-    }));
-    t.push(row("release rule", &|p| {
-        p.stock.map_or("—".into(), |s| match s.release {
-            ReleaseSpec::Band => "band".into(),
-            ReleaseSpec::Target { target, speed } => format!(
-                "target {} at speed {}",
-                fmt_num(target, 2),
-                fmt_num(speed, 2)
-            ),
-            ReleaseSpec::Share { share } => format!("drawdown, share {}", fmt_num(share, 2)),
-            ReleaseSpec::Rotate { share } => format!(
-                "rotate {} of the stock a season (stock unchanged)",
-                fmt_num(share, 2)
-            ),
-        })
-    }));
-    t.push(row(
-        &format!("storage cost ({price_unit} per season)"),
-        &|p| p.stock.map_or("—".into(), |s| money(s.storage_cost)),
-    ));
-    t.push(row("loss rate per season", &|p| {
-        p.stock.map_or("—".into(), |s| fmt_num(s.loss_rate, 3))
-    }));
+    // each registered rule section gives its rows (`Rule::rows`), or its "absent" values
+    for section in furrow::policies::SECTIONS {
+        for (i, (label, absent)) in section.absent.iter().enumerate() {
+            let label = label
+                .replace("{price}", price_unit)
+                .replace("{quantity}", quantity_unit);
+            t.push(row(&label, &|p| {
+                p.rule(section.name)
+                    .and_then(|r| r.rows().into_iter().nth(i))
+                    .map_or_else(|| (*absent).to_string(), |r| cell(&r.value))
+            }));
+        }
+    }
     t.push(row("expectations", &|p| {
         p.expectations
             .as_ref()

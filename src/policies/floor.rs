@@ -1,0 +1,379 @@
+//! `[floor]`: a guaranteed producer price, defended by public purchase or paid as a deficiency
+//! payment. Everything the program knows of it is here.
+
+use serde::Deserialize;
+
+use super::rule::{rank, rule_ref, Build, Cell, Row, Rule, RuleRef, Section, Watched};
+use super::{flags, Agency, Clearing, PolicyRule};
+use crate::scenario::ranges::{noted, r, short_num, BIG};
+use crate::scenario::raw::Kind;
+use crate::scenario::schema::Key;
+use crate::scenario::validate::{deserialize_section, Check};
+use crate::scenario::{InputError, Scenario};
+use crate::stability::regimes::Regimes;
+use crate::stability::Clearing as Dynamics;
+use crate::storage::agency::StoragePlan;
+
+/// The registration of `[floor]`.
+pub const SECTION: Section = Section {
+    name: "floor",
+    keys: &[
+        Key {
+            name: "price",
+            kind: Kind::Number,
+            range: Some(noted(
+                r("floor.price", 0.0, BIG, true, false),
+                "purchase: below linear demand's choke price",
+            )),
+        },
+        Key {
+            name: "instrument",
+            kind: Kind::Text,
+            range: None,
+        },
+        Key {
+            name: "announced",
+            kind: Kind::Bool,
+            range: None,
+        },
+    ],
+    read,
+    absent: &[
+        ("price floor ({price})", "none"),
+        ("floor instrument", "—"),
+        ("floor announced", "—"),
+    ],
+    examples: &[
+        "[floor]\nprice = 200.0\ninstrument = \"purchase\"\n",
+        "[floor]\nprice = 200.0\ninstrument = \"deficiency-payment\"\nannounced = false\n",
+    ],
+};
+
+/// How the floor is defended.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Instrument {
+    /// The agency buys everything offered at the floor.
+    Purchase,
+    /// The market clears freely; the treasury pays the gap on the harvest.
+    DeficiencyPayment,
+}
+
+/// A validated `[floor]`.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Floor {
+    /// Guaranteed producer price F.
+    pub price: f64,
+    /// How it is defended.
+    pub instrument: Instrument,
+    /// Whether farmers plant on max(expectation, F).
+    pub announced: bool,
+}
+
+#[derive(Debug, Default, Deserialize)]
+#[serde(default)]
+struct Raw {
+    price: Option<f64>,
+    instrument: Option<String>,
+    announced: Option<bool>,
+}
+
+fn read(c: &Check, table: &toml::Table) -> Result<RuleRef, InputError> {
+    let f: Raw = deserialize_section(c, table)?;
+    let price = f
+        .price
+        .ok_or_else(|| c.missing("floor.price", "a floor needs price > 0"))?;
+    let price = c.within("floor.price", price)?;
+    let instrument = match f.instrument.as_deref().unwrap_or("purchase") {
+        "purchase" => Instrument::Purchase,
+        "deficiency-payment" => Instrument::DeficiencyPayment,
+        other => {
+            return Err(c.bad(
+                "floor.instrument",
+                format!("\"{}\"", crate::scenario::ranges::escape(other)),
+                "allowed instruments: \"purchase\", \"deficiency-payment\"",
+            ))
+        }
+    };
+    Ok(rule_ref(Floor {
+        price,
+        instrument,
+        announced: f.announced.unwrap_or(true),
+    }))
+}
+
+impl Rule for Floor {
+    fn section(&self) -> &'static str {
+        "floor"
+    }
+
+    fn build(&self, build: &mut Build) {
+        match self.instrument {
+            Instrument::Purchase => build.actions.push((
+                rank::FLOOR_PURCHASE,
+                Box::new(FloorPurchase {
+                    price: self.price,
+                    announced: self.announced,
+                }),
+            )),
+            Instrument::DeficiencyPayment => build.actions.push((
+                rank::PRODUCER_PAYMENT,
+                Box::new(DeficiencyPayment {
+                    price: self.price,
+                    announced: self.announced,
+                }),
+            )),
+        }
+    }
+
+    fn storage(&self, plan: &mut StoragePlan) -> Result<(), String> {
+        match self.instrument {
+            // a band that buys at the floor and never sells (within [stock], if any)
+            Instrument::Purchase => plan.purchase_floor = Some(self.price),
+            // planting on E[max(P', F)] when announced; the market clears freely
+            Instrument::DeficiencyPayment => {
+                plan.payment_floor = self.price;
+                if self.announced {
+                    plan.planting_floor = self.price;
+                }
+            }
+        }
+        Ok(())
+    }
+
+    fn regimes(&self, r: &mut Regimes) {
+        let f = self.price;
+        match self.instrument {
+            Instrument::Purchase => {
+                let name = "floor binding (purchase)";
+                if Regimes::below(r.free_price, f) {
+                    r.holding = r.purchase_holds(name, f);
+                } else {
+                    r.secondary.push(Regimes::case(
+                        name,
+                        Dynamics::Pinned(f),
+                        Some(format!(
+                            "after a shock that drives the price below {f:.4}: price pinned, the agency buys"
+                        )),
+                    ));
+                }
+            }
+            Instrument::DeficiencyPayment => {
+                let name = "deficiency payment binding";
+                let paid = Dynamics::Paid(f);
+                if Regimes::below(r.free_price, f) {
+                    let market = r.market_price_at_rest(paid, f);
+                    let mut c = Regimes::case(
+                        name,
+                        paid,
+                        Some(format!(
+                            "producer price pinned at {f:.4} (expectations anchored); the market clears \
+                             at {market:.4} and the treasury pays the gap on the harvest"
+                        )),
+                    );
+                    c.holds = true;
+                    r.holding.push(c);
+                } else {
+                    r.secondary.push(Regimes::case(
+                        name,
+                        paid,
+                        Some(format!(
+                            "after a shock that drives the price below {f:.4}: producers get the floor"
+                        )),
+                    ));
+                }
+            }
+        }
+    }
+
+    fn check_market(&self, c: &Check, scenario: &Scenario) -> Result<(), InputError> {
+        if self.instrument == Instrument::Purchase {
+            c.absorbs(
+                scenario,
+                "floor.price",
+                self.price,
+                "a floor defended by purchase",
+            )?;
+        }
+        Ok(())
+    }
+
+    fn reference_price(&self) -> f64 {
+        self.price
+    }
+
+    fn describe(&self) -> String {
+        format!(
+            "floor {} by {}{}",
+            short_num(self.price),
+            match self.instrument {
+                Instrument::Purchase => "purchase",
+                Instrument::DeficiencyPayment => "deficiency payment",
+            },
+            if self.announced { ", announced" } else { "" }
+        )
+    }
+
+    fn rows(&self) -> Vec<Row> {
+        vec![
+            Row {
+                label: "price floor ({price})",
+                value: Cell::Number(self.price, 2),
+            },
+            Row {
+                label: "floor instrument",
+                value: Cell::Text(
+                    match self.instrument {
+                        Instrument::Purchase => "public purchase",
+                        Instrument::DeficiencyPayment => "deficiency payment",
+                    }
+                    .into(),
+                ),
+            },
+            Row {
+                label: "floor announced",
+                value: Cell::Text(if self.announced { "yes" } else { "no" }.into()),
+            },
+        ]
+    }
+
+    fn warning(&self, scenario: &Scenario, agency: &Agency) -> Option<String> {
+        let unit = &scenario.market.quantity_unit;
+        let ss = scenario.steady;
+        let (demand, supply) = (&scenario.market.demand, &scenario.market.supply);
+        let f = self;
+        if f.price <= ss.price {
+            return None;
+        }
+        let growth = supply.quantity(f.price) - demand.quantity(f.price);
+        Some(match f.instrument {
+            Instrument::Purchase => {
+                let mut s = format!(
+                    "the floor {} is above the free-market steady state {:.3}: it cannot be defended for ever; at the floor the agency must take S(F) − D(F) = {:.3} {unit} a period",
+                    f.price, ss.price, growth
+                );
+                if agency.capacity.is_finite() {
+                    let losses = if agency.loss_rate > 0.0 {
+                        " (losses included)"
+                    } else {
+                        ""
+                    };
+                    match super::periods_to_fill(
+                        agency.initial,
+                        agency.capacity,
+                        growth,
+                        agency.loss_rate,
+                    ) {
+                        Some(t) => s.push_str(&format!(
+                            "; a capacity of {} {unit} fills in about {:.1} periods{losses}",
+                            agency.capacity, t
+                        )),
+                        None => s.push_str(&format!(
+                            "; with losses of {} a period the stock levels off at {:.3} {unit}, below the capacity of {} {unit}",
+                            agency.loss_rate,
+                            growth / agency.loss_rate,
+                            agency.capacity
+                        )),
+                    }
+                }
+                if agency.purchase_budget.is_finite() && agency.purchase_budget < f.price * growth {
+                    s.push_str(&format!(
+                        "; the purchase budget {} covers only {:.3} of the {:.3} {unit} needed each period",
+                        agency.purchase_budget,
+                        agency.purchase_budget / f.price,
+                        growth
+                    ));
+                }
+                s
+            }
+            Instrument::DeficiencyPayment => format!(
+                "the floor {} is above the free-market steady state {:.3}: the payment is permanent, about (F − D⁻¹(S(F)))·S(F) = {:.3} a period once planting settles on the floor",
+                f.price,
+                ss.price,
+                (f.price - demand.price_at(supply.quantity(f.price))).max(0.0)
+                    * supply.quantity(f.price)
+            ),
+        })
+    }
+
+    fn watch(&self, w: &mut Watched) {
+        if self.instrument == Instrument::Purchase {
+            w.purchase_floor = Some(self.price);
+        }
+    }
+}
+
+/// A support price defended by public purchase: the agency buys everything offered at the floor
+/// (within the store's capacity and the purchase budget), so the market price cannot fall below it.
+#[derive(Debug, Clone, Copy)]
+pub struct FloorPurchase {
+    /// Floor price F.
+    pub price: f64,
+    /// Farmers plant on max(expectation, F).
+    pub announced: bool,
+}
+
+impl PolicyRule for FloorPurchase {
+    fn planting_floor(&self) -> Option<f64> {
+        self.announced.then_some(self.price)
+    }
+    fn trades_stock(&self) -> bool {
+        true
+    }
+    fn trade(&self, market: &mut Clearing) {
+        market.buy_to(self.price, flags::FLOOR_BUY);
+    }
+    fn pays(&self) -> bool {
+        false
+    }
+    fn producer_price(&self, market_price: f64) -> f64 {
+        market_price
+    }
+    fn payment(&self, _market_price: f64, _harvest: f64) -> f64 {
+        0.0
+    }
+    fn consumer_payment(&self, _market_price: f64, _consumption: f64) -> f64 {
+        0.0
+    }
+    fn as_band(&self) -> Option<super::BandStock> {
+        None
+    }
+}
+
+/// A support price paid as a deficiency payment: the market clears freely and the treasury pays
+/// (F − P_t)·Q_t whenever P_t < F, so producers receive max(P_t, F).
+#[derive(Debug, Clone, Copy)]
+pub struct DeficiencyPayment {
+    /// Floor price F.
+    pub price: f64,
+    /// Farmers plant on max(expectation, F).
+    pub announced: bool,
+}
+
+impl PolicyRule for DeficiencyPayment {
+    fn planting_floor(&self) -> Option<f64> {
+        self.announced.then_some(self.price)
+    }
+    fn trades_stock(&self) -> bool {
+        false
+    }
+    fn trade(&self, _market: &mut Clearing) {}
+    fn pays(&self) -> bool {
+        true
+    }
+    fn producer_price(&self, market_price: f64) -> f64 {
+        market_price.max(self.price)
+    }
+    fn payment(&self, market_price: f64, harvest: f64) -> f64 {
+        if market_price < self.price {
+            (self.price - market_price) * harvest
+        } else {
+            0.0
+        }
+    }
+    fn consumer_payment(&self, _market_price: f64, _consumption: f64) -> f64 {
+        0.0
+    }
+    fn as_band(&self) -> Option<super::BandStock> {
+        None
+    }
+}

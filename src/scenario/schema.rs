@@ -1,0 +1,55 @@
+//! The one schema of the input files: every section, every key with its type, and every numeric
+//! key's range. The unknown-key check and the type check (`keys::check_keys`), validation's range
+//! checks (`ranges::range_of`), `--vary` routing (`sweep::apply`, by [`is_policy_section`]) and the
+//! README's table of input ranges (`ranges::all`, tested against the README) all read it. Policy
+//! rule sections are not listed here: each rule file declares its keys and registers them in
+//! `policies::SECTIONS`.
+
+use super::ranges::KeyRange;
+use super::raw::{Kind, MARKET_SCHEMA, POLICY_GENERAL_SCHEMA};
+
+/// One key of a rule section: name, type and (numeric keys) range.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Key {
+    /// The key within its section, e.g. `price`.
+    pub name: &'static str,
+    /// Its type.
+    pub kind: Kind,
+    /// Its range (numeric keys), with the dotted key.
+    pub range: Option<KeyRange>,
+}
+
+/// Sections with their keys and types.
+pub type Schema = Vec<(&'static str, Vec<(&'static str, Kind)>)>;
+
+/// The market file's schema.
+pub fn market() -> Schema {
+    MARKET_SCHEMA
+        .iter()
+        .map(|(s, keys)| (*s, keys.to_vec()))
+        .collect()
+}
+
+/// The policy file's schema: `[policy]`, every registered rule section, `[expectations]`.
+pub fn policy() -> Schema {
+    let mut out: Schema = Vec::new();
+    let mut general = POLICY_GENERAL_SCHEMA.iter();
+    if let Some((s, keys)) = general.next() {
+        out.push((*s, keys.to_vec()));
+    }
+    for section in crate::policies::SECTIONS {
+        out.push((
+            section.name,
+            section.keys.iter().map(|k| (k.name, k.kind)).collect(),
+        ));
+    }
+    out.extend(general.map(|(s, keys)| (*s, keys.to_vec())));
+    out
+}
+
+/// True when `section` is a section only policy files have (`--vary` sends its keys to the policy).
+pub fn is_policy_section(section: &str) -> bool {
+    let policy = policy();
+    let market = market();
+    policy.iter().any(|(s, _)| *s == section) && !market.iter().any(|(s, _)| *s == section)
+}
