@@ -16,6 +16,7 @@
 //! full store buying only its losses ℓ·capacity then holds the steady state.
 
 use super::statespace::{Clearing, Setup, StateMap};
+use super::StabilityError;
 use crate::scenario::{FloorInstrument, ReleaseSpec};
 
 /// One regime to linearise.
@@ -63,11 +64,28 @@ fn agency(setup: &Setup) -> (f64, f64, bool) {
 
 /// The regime that holds when the price would settle below a price `edge` the agency defends by
 /// buying: pinned with a settled stock, no finite stock, or the free market with a full store.
-fn purchase_holds(setup: &Setup, name: &str, edge: f64, unit: &str) -> Vec<RegimeCase> {
+/// No steady state when the harvest planted on the defended price is not a finite number (a supply
+/// curve calibrated at a price many orders of magnitude below it).
+fn purchase_holds(
+    setup: &Setup,
+    name: &str,
+    edge: f64,
+    unit: &str,
+) -> Result<Vec<RegimeCase>, StabilityError> {
     let (loss, capacity, budget) = agency(setup);
     let pinned = Clearing::Pinned(edge);
     let planting = StateMap::new(setup, pinned).planting_at_rest(edge);
     let bought = setup.supply.quantity(planting) - setup.demand.quantity(edge);
+    if !bought.is_finite() {
+        return Err(StabilityError::NoSteadyState {
+            regime: name.into(),
+            reason: format!(
+                "the harvest planted on the defended price {} has no finite value (the supply \
+                 curve overflows there)",
+                crate::scenario::ranges::short_num(edge)
+            ),
+        });
+    }
     let budget_note = if budget {
         " The purchase budget is not part of the linearisation."
     } else {
@@ -127,7 +145,7 @@ fn purchase_holds(setup: &Setup, name: &str, edge: f64, unit: &str) -> Vec<Regim
             )),
         ));
     }
-    out
+    Ok(out)
 }
 
 /// The idle regime of a target-release reserve. Restocking purchases never lift the price above the
@@ -185,8 +203,12 @@ fn target_regime(
 }
 
 /// Lists the regimes of `setup` given the free market's steady producer price `free_price`, the one
-/// holding the steady state first.
-pub fn regimes(setup: &Setup, free_price: f64, unit: &str) -> Vec<RegimeCase> {
+/// holding the steady state first; an error when a regime that would hold it has no steady state.
+pub fn regimes(
+    setup: &Setup,
+    free_price: f64,
+    unit: &str,
+) -> Result<Vec<RegimeCase>, StabilityError> {
     let mut holding: Vec<RegimeCase> = Vec::new();
     let mut secondary: Vec<RegimeCase> = Vec::new();
     let free = Clearing::Free { offtake: 0.0 };
@@ -195,7 +217,7 @@ pub fn regimes(setup: &Setup, free_price: f64, unit: &str) -> Vec<RegimeCase> {
             FloorInstrument::Purchase => {
                 let name = "floor binding (purchase)";
                 if below(free_price, f.price) {
-                    holding = purchase_holds(setup, name, f.price, unit);
+                    holding = purchase_holds(setup, name, f.price, unit)?;
                 } else {
                     secondary.push(case(
                         name,
@@ -247,7 +269,7 @@ pub fn regimes(setup: &Setup, free_price: f64, unit: &str) -> Vec<RegimeCase> {
         let selling = "stock selling at sell_above";
         if holding.is_empty() {
             if buy > 0.0 && below(free_price, buy) {
-                holding = purchase_holds(setup, buying, buy, unit);
+                holding = purchase_holds(setup, buying, buy, unit)?;
             } else if sell.is_finite() && free_price > sell * (1.0 + 1e-12) {
                 let mut c = case(
                     "stock empty (free market)",
@@ -326,5 +348,5 @@ pub fn regimes(setup: &Setup, free_price: f64, unit: &str) -> Vec<RegimeCase> {
         secondary.insert(0, c);
     }
     holding.extend(secondary);
-    holding
+    Ok(holding)
 }
