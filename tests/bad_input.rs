@@ -321,7 +321,7 @@ fn binary_exits_2_and_names_the_key_on_a_sample() {
 
 // ---- regression tests for the hardening issue (items 3 to 7) -------------------------------------
 
-use common::{bin, linear_market, policy};
+use common::{bin, linear_market, policy, stdout_of};
 use furrow::scenario::policy_for_market;
 use furrow::scenario::ranges::{self, range_of};
 use furrow::scenario::raw::Kind;
@@ -401,16 +401,8 @@ fn check_decides_the_kind_by_sections_and_validates_like_every_verb() {
     // check says which kind it took and why
     let m = tmp(&dir, "m.toml", MARKET);
     let pol = tmp(&dir, "p.toml", POLICY);
-    let out = bin()
-        .args(["check", &m, &pol, "--format", "json"])
-        .output()
-        .unwrap();
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let out = stdout_of(["check", &m, &pol, "--format", "json"]);
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
     assert_eq!(v[0]["kind"], "market");
     assert!(v[0]["read_as"].as_str().unwrap().contains("[demand]"));
     assert_eq!(v[1]["kind"], "policy");
@@ -509,19 +501,14 @@ fn negative_consumption_is_divergence() {
 
 #[test]
 fn check_prints_unlimited_not_inf() {
-    let out = bin()
-        .args([
-            "check",
-            &format!(
-                "{}/policies/support_purchase.toml",
-                env!("CARGO_MANIFEST_DIR")
-            ),
-            &format!("{}/policies/price_band.toml", env!("CARGO_MANIFEST_DIR")),
-        ])
-        .output()
-        .unwrap();
-    let text = String::from_utf8_lossy(&out.stdout);
-    assert!(out.status.success());
+    let text = stdout_of([
+        "check",
+        &format!(
+            "{}/policies/support_purchase.toml",
+            env!("CARGO_MANIFEST_DIR")
+        ),
+        &format!("{}/policies/price_band.toml", env!("CARGO_MANIFEST_DIR")),
+    ]);
     assert!(text.contains("unlimited"), "{text}");
     assert!(!text.contains("inf"), "{text}");
 }
@@ -652,4 +639,40 @@ fn small_supply_elasticity_leaves_no_blank_welfare_cell() {
         // surplus = revenue − cost with cost = Q·P^e·e/(1 + e) ≤ revenue at P = P^e (by hand)
         assert!(r.producer_surplus > -1e-9 * r.harvest * r.price, "{r:?}");
     }
+}
+
+#[test]
+fn check_of_a_pair_refuses_what_run_refuses_with_the_same_message() {
+    // each file is valid alone; together the band buys above the choke price 150 of Q = 120 − 0.8 P
+    // (by hand). One validation serves every verb: `check MARKET POLICY` (either order) refuses the
+    // pair with exactly the message `run` and `compare` give.
+    let dir = tempfile::tempdir().unwrap();
+    let mk = tmp(
+        &dir,
+        "m.toml",
+        "[demand]\nintercept = 120.0\nslope = -0.8\n[supply]\nintercept = -10.0\nslope = 0.5\n",
+    );
+    let pf = tmp(
+        &dir,
+        "band.toml",
+        "[policy]\nname = \"band\"\n[stock]\nbuy_below = 155.0\nsell_above = 170.0\n",
+    );
+    for alone in [&mk, &pf] {
+        assert!(bin()
+            .args(["check", alone])
+            .output()
+            .unwrap()
+            .status
+            .success());
+    }
+    let refusal = |args: &[&str]| {
+        let out = bin().args(args).output().unwrap();
+        assert_eq!(out.status.code(), Some(2), "{args:?}");
+        String::from_utf8(out.stderr).unwrap()
+    };
+    let run = refusal(&["run", &mk, "--policy", &pf]);
+    assert!(run.contains("band.toml: stock.buy_below"), "{run}");
+    assert_eq!(refusal(&["compare", &mk, &pf]), run);
+    assert_eq!(refusal(&["check", &mk, &pf]), run);
+    assert_eq!(refusal(&["check", &pf, &mk]), run);
 }

@@ -2,7 +2,7 @@
 
 mod common;
 
-use common::bin;
+use common::{bin, stdout_of, succeed};
 
 fn demo(name: &str) -> String {
     format!("{}/examples/{name}", env!("CARGO_MANIFEST_DIR"))
@@ -29,18 +29,13 @@ fn compare_on_the_shipped_demo_prints_every_format() {
     let market = demo("veldmark_weather.toml");
     let files = [policy_file("none.toml"), policy_file("price_band.toml")];
     let run = |format: &str| {
-        let out = bin()
-            .args(["compare", &market])
-            .args(&files)
-            .args(["--replications", "200", "--format", format])
-            .output()
-            .unwrap();
-        assert!(
-            out.status.success(),
-            "{format}: {}",
-            String::from_utf8_lossy(&out.stderr)
-        );
-        String::from_utf8(out.stdout).unwrap()
+        succeed(bin().args(["compare", &market]).args(&files).args([
+            "--replications",
+            "200",
+            "--format",
+            format,
+        ]))
+        .0
     };
     let table = run("table");
     assert!(
@@ -114,16 +109,9 @@ fn compare_names_the_behaviour_change_and_warns_on_close_calls() {
         )
     };
     let (a, b) = (band("A", 76.0), band("B", 76.0));
-    let out = bin()
-        .args(["compare", &market, &cautious, &a, &b, "--format", "json"])
-        .output()
-        .unwrap();
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    let json: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let (out, stderr) =
+        succeed(bin().args(["compare", &market, &cautious, &a, &b, "--format", "json"]));
+    let json: serde_json::Value = serde_json::from_str(&out).unwrap();
     let changes = json["behaviour_changes"].as_array().unwrap();
     assert_eq!(changes.len(), 1);
     assert!(changes[0]["name"]
@@ -137,7 +125,6 @@ fn compare_names_the_behaviour_change_and_warns_on_close_calls() {
     assert!(json["baseline"]["indicators"]["price_above_alert_share"]
         .as_f64()
         .is_some());
-    let stderr = String::from_utf8_lossy(&out.stderr);
     assert!(
         stderr.contains("\"A\" and \"B\"") && stderr.contains("not distinguishable"),
         "{stderr}"
@@ -193,13 +180,7 @@ fn run_with_replications_prints_mean_and_quantile_columns() {
         "m.toml",
         &format!("{MARKET}[shocks]\nsupply_sd = 1.0\n"),
     );
-    let out = bin().args(["run", &m, "--format", "csv"]).output().unwrap();
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    let text = String::from_utf8(out.stdout).unwrap();
+    let text = stdout_of(["run", &m, "--format", "csv"]);
     let mut rows = text.lines();
     let header: Vec<&str> = rows.next().unwrap().split(',').collect();
     let mut want = vec!["period".to_string()];
@@ -224,12 +205,8 @@ fn run_with_replications_on_a_deterministic_market_gives_the_closed_form_path() 
     // and all quantiles coincide with it
     let dir = tempfile::tempdir().unwrap();
     let m = write(&dir, "m.toml", MARKET);
-    let out = bin()
-        .args(["run", &m, "--format", "json"])
-        .output()
-        .unwrap();
-    assert!(out.status.success());
-    let rows: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let rows: serde_json::Value =
+        serde_json::from_str(&stdout_of(["run", &m, "--format", "json"])).unwrap();
     for (t, row) in rows.as_array().unwrap().iter().enumerate() {
         let want = 80.0 + 12.0 * (-0.5f64).powi(t as i32 + 1);
         for k in ["price_mean", "price_p05", "price_p50", "price_p95"] {
@@ -239,5 +216,35 @@ fn run_with_replications_on_a_deterministic_market_gives_the_closed_form_path() 
                 t + 1
             );
         }
+    }
+}
+
+#[test]
+fn revenue_cv_is_defined_when_revenue_underflows() {
+    // iso-elastic curves through (1e-200, 1e-170): P* = 1e-200, Q* = 1e-170 (the point both curves
+    // pass through), so producers' revenue P·Q ≈ 1e-370 is below the smallest double and reads 0 in
+    // every period. Its CV was 0/0, a blank cell; it is 0 (README, "Indicators").
+    let dir = tempfile::tempdir().unwrap();
+    let m = write(
+        &dir,
+        "tiny.toml",
+        "[market]\nname = \"tiny\"\n[demand]\nform = \"constant-elasticity\"\nat_price = 1e-200\n\
+         at_quantity = 1e-170\nelasticity = -1.4\n[supply]\nform = \"constant-elasticity\"\n\
+         at_price = 1e-200\nat_quantity = 1e-170\nelasticity = 0.9\n[run]\nperiods = 10\n",
+    );
+    let p = write(
+        &dir,
+        "adaptive.toml",
+        "[policy]\nname = \"Adaptive\"\n[expectations]\nrule = \"adaptive\"\nweight = 0.6\n",
+    );
+    let csv = stdout_of(["compare", &m, &p, "--replications", "4", "--format", "csv"]);
+    let row = csv
+        .lines()
+        .find(|l| l.starts_with("producer_revenue_cv,"))
+        .unwrap_or_else(|| panic!("no revenue CV row: {csv}"));
+    let cells: Vec<&str> = row.split(',').skip(1).collect();
+    assert!(!cells.is_empty());
+    for c in cells {
+        assert_eq!(c.parse::<f64>(), Ok(0.0), "{row}");
     }
 }

@@ -160,6 +160,36 @@ fn statsmodels_available() -> bool {
         .unwrap_or(false)
 }
 
+/// The reference script `tests/reference/fit_reference.py` run by python3 on the shipped history
+/// with `extra` arguments: its JSON output and the history's text. `None` (the test is skipped,
+/// saying so) when python3 cannot import statsmodels and numpy, unless CI is set: then it fails.
+fn statsmodels_reference(extra: &[&str]) -> Option<(serde_json::Value, String)> {
+    if !statsmodels_available() {
+        if in_ci() {
+            panic!("CI is set but python3 cannot import statsmodels/numpy: pip install -r tests/reference/requirements.txt");
+        }
+        eprintln!(
+            "SKIPPED: python3 with statsmodels and numpy not found (set CI to make this fatal)"
+        );
+        return None;
+    }
+    let root = env!("CARGO_MANIFEST_DIR");
+    let data = format!("{root}/examples/veldmark_history.csv");
+    let out = Command::new("python3")
+        .arg(format!("{root}/tests/reference/fit_reference.py"))
+        .arg(&data)
+        .args(extra)
+        .output()
+        .expect("run python3");
+    assert!(
+        out.status.success(),
+        "reference script failed: {}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let reference: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    Some((reference, std::fs::read_to_string(&data).unwrap()))
+}
+
 fn names(v: &serde_json::Value) -> Vec<String> {
     v.as_array()
         .unwrap()
@@ -238,29 +268,9 @@ fn compare_equation(
 /// with the HC1 sandwich) on examples/veldmark_history.csv, to 1e-8 relative.
 #[test]
 fn statsmodels_reference_on_the_example_history() {
-    if !statsmodels_available() {
-        if in_ci() {
-            panic!("CI is set but python3 cannot import statsmodels/numpy: install them (see tests/reference/fit_reference.py)");
-        }
-        eprintln!(
-            "SKIPPED: python3 with statsmodels and numpy not found (set CI to make this fatal)"
-        );
+    let Some((reference, text)) = statsmodels_reference(&[]) else {
         return;
-    }
-    let root = env!("CARGO_MANIFEST_DIR");
-    let data = format!("{root}/examples/veldmark_history.csv");
-    let out = Command::new("python3")
-        .arg(format!("{root}/tests/reference/fit_reference.py"))
-        .arg(&data)
-        .output()
-        .expect("run python3");
-    assert!(
-        out.status.success(),
-        "reference script failed: {}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    let reference: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
-    let text = std::fs::read_to_string(&data).unwrap();
+    };
     let mut d = Diff::new(1e-8);
     let cases = reference["cases"].as_array().unwrap();
     assert!(cases.len() >= 6);
@@ -644,30 +654,9 @@ fn partial_adjustment_market_follows_the_nerlove_recursion() {
 /// elasticity short-run / (1 − θ) computed there from statsmodels' coefficients (Nerlove 1958).
 #[test]
 fn statsmodels_reference_balance_sheet_and_partial_adjustment() {
-    if !statsmodels_available() {
-        if std::env::var_os("CI").is_some() {
-            panic!("CI is set but python3 cannot import statsmodels/numpy: pip install -r tests/reference/requirements.txt");
-        }
-        eprintln!(
-            "SKIPPED: python3 with statsmodels and numpy not found (set CI to make this fatal)"
-        );
+    let Some((reference, text)) = statsmodels_reference(&["--extended"]) else {
         return;
-    }
-    let root = env!("CARGO_MANIFEST_DIR");
-    let data = format!("{root}/examples/veldmark_history.csv");
-    let out = Command::new("python3")
-        .arg(format!("{root}/tests/reference/fit_reference.py"))
-        .arg(&data)
-        .arg("--extended")
-        .output()
-        .expect("run python3");
-    assert!(
-        out.status.success(),
-        "reference script failed: {}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    let reference: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
-    let text = std::fs::read_to_string(&data).unwrap();
+    };
     let mut d = Diff::new(1e-8);
     let cases = reference["cases"].as_array().unwrap();
     assert!(cases.len() >= 4);

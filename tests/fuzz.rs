@@ -6,8 +6,10 @@
 //!
 //! Asserted (rules of the project, common practice, no source): no panic; a failure maps to exit code
 //! 1 or 2; every error message names the file at fault; accepted input never gives a blank, NaN or
-//! infinite cell in a CSV table or a JSON value, nor a negative price or quantity in a path; `check`
-//! and the simulation verbs agree; a policy file without `[policy]` is an error.
+//! infinite cell in a CSV table or a JSON value, nor a negative price or quantity in a path, nor a
+//! steady state shown at a price ≤ 0; `check` of the pair refuses exactly what `run` and `compare`
+//! refuse as bad input, with the same message; a policy file without `[policy]` is an error. No
+//! violation is tolerated.
 
 #[allow(dead_code, unused_imports)]
 #[path = "../src/cli/mod.rs"]
@@ -29,32 +31,6 @@ const PAIRS: usize = 10_000;
 /// Every `STORAGE_EVERY`-th pair has a storers market, run through `check`, `stability` and
 /// `storage` only (each solve takes about a second).
 const STORAGE_EVERY: usize = 2000;
-
-// ---------------------------------------------------------------------------------------------
-// Known open defects, each with the most cases this seeded corpus may show.
-
-/// Violations still open after the hardening work (issue 12), found by this corpus and written down
-/// in the closing note: a handful of steady states at price 0 that `stability` shows (and the one
-/// blank revenue CV that goes with one of them), and a few policy files that `check` accepts beside a
-/// market while `run` refuses them. Each is tolerated only up to the count seen when it was listed,
-/// so any new case fails the test; every other kind of violation fails it at once.
-const KNOWN_OPEN: &[(Kind, usize, &str)] = &[
-    (
-        Kind::NegativeState,
-        3,
-        "stability reports a steady state at price 0",
-    ),
-    (
-        Kind::BlankCell,
-        1,
-        "revenue CV blank when the price path is 0",
-    ),
-    (
-        Kind::CheckDisagrees,
-        5,
-        "check accepts a pair that run refuses",
-    ),
-];
 
 /// What went wrong, by kind.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
@@ -647,15 +623,20 @@ impl Checker {
         self.verb_code(pair, verb, at_fault).ok()
     }
 
-    /// [`Checker::verb`], with the exit code of a failure (101 for a panic).
-    fn verb_code(&self, pair: &Pair, verb: &[&str], at_fault: Option<&str>) -> Result<String, u8> {
+    /// [`Checker::verb`], with the exit code (101 for a panic) and message of a failure.
+    fn verb_code(
+        &self,
+        pair: &Pair,
+        verb: &[&str],
+        at_fault: Option<&str>,
+    ) -> Result<String, (u8, String)> {
         self.calls
             .fetch_add(1, std::sync::atomic::Ordering::Relaxed);
         let label = format!("#{} `{}`", pair.index, verb.join(" "));
         match invoke(verb) {
             Outcome::Panicked(msg) => {
                 self.report(Kind::Panic, format!("{label}: panicked: {msg}"));
-                Err(101)
+                Err((101, msg))
             }
             Outcome::Failed { code, message } => {
                 if code != 1 && code != 2 {
@@ -684,7 +665,7 @@ impl Checker {
                     }
                     _ => {}
                 }
-                Err(code)
+                Err((code, message))
             }
             Outcome::Ok(text) => Ok(text),
         }
@@ -722,16 +703,38 @@ fn exercise(c: &Checker, pair: &Pair) {
         (true, false) => Some(p),
         _ => None,
     };
-    let disagree = |c: &Checker, verb: &str, code: Option<u8>| {
-        if market_ok && policy_ok && code == Some(2) {
-            c.report(
-                Kind::CheckDisagrees,
-                format!(
-                    "#{}: check accepts both files, {verb} refuses them",
-                    pair.index
-                ),
-            );
+    // check, the two files together: the policy is then also checked against the market, as every
+    // verb does (one validation for every verb)
+    let pair_check = (market_ok && policy_ok && !pair.storers).then(|| {
+        c.calls.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+        invoke(&["check", m, p, "--format", "json"])
+    });
+    let pair_refusal = match &pair_check {
+        Some(Outcome::Failed { code, message }) => Some((*code, message.clone())),
+        _ => None,
+    };
+    // a verb refuses bad input (exit 2) exactly when `check` refuses the pair, with its message
+    let disagree = |c: &Checker, verb: &str, outcome: Result<(), (u8, &str)>| {
+        if !(market_ok && policy_ok) {
+            return;
         }
+        let refused = match outcome {
+            Err((2, message)) => Some(message),
+            _ => None,
+        };
+        let what = match (&pair_refusal, refused) {
+            (None, Some(message)) => {
+                format!("check accepts the pair, {verb} refuses it: {message}")
+            }
+            (Some((_, message)), None) => {
+                format!("check refuses the pair ({message}), {verb} does not refuse it")
+            }
+            (Some((_, want)), Some(got)) if want != got => {
+                format!("check and {verb} refuse the pair differently: `{want}` vs `{got}`")
+            }
+            _ => return,
+        };
+        c.report(Kind::CheckDisagrees, format!("#{}: {what}", pair.index));
     };
     if pair.storers {
         // the storage equilibrium (and no other solve of it: each takes about a second)
@@ -776,41 +779,50 @@ fn exercise(c: &Checker, pair: &Pair) {
                 );
             }
             check_path(c, pair, text);
+            disagree(c, "run", Ok(()));
         }
-        Err(code) => disagree(c, "run", Some(*code)),
+        Err((code, message)) => disagree(c, "run", Err((*code, message))),
     }
     if run.is_err() && !(market_ok && policy_ok) {
         return; // bad input: every verb fails the same way at loading; the message was checked
     }
     // stability: CSV table, and the steady state it reports
-    if let Some(text) = c.verb(
+    let stability = c.verb(
         pair,
         &["stability", m, "--policy", p, "--format", "csv"],
         at_fault,
-    ) {
-        check_stability(c, pair, &text);
+    );
+    if let Some(text) = &stability {
+        check_stability(c, pair, text);
     }
     // compare with few replications
-    if let Some(text) = c.verb(
+    let compare = c.verb_code(
         pair,
         &["compare", m, p, "--replications", "4", "--format", "csv"],
         at_fault,
-    ) {
+    );
+    match &compare {
+        Ok(_) => disagree(c, "compare", Ok(())),
+        Err((code, message)) => disagree(c, "compare", Err((*code, message))),
+    }
+    if let Ok(text) = compare {
         match blank_cells(&text, |_, row| {
             // documented: crowding-out and the private/public stock means exist only with storers
             // and a public stock; the floor, band and budget failure shares only with a floor, a
             // band or an annual budget (README, "null without one")
             let row = row.strip_suffix("_se").unwrap_or(row);
-            matches!(
-                row,
-                "crowding_out"
-                    | "private_stock_mean"
-                    | "public_stock_mean"
-                    | "floor_failed_share"
-                    | "band_failed_share"
-                    | "budget_exceeded_share"
-                    | "budget_ever_exceeded_share"
-            )
+            // and the stability rows are null when `stability` has no answer for the pair
+            (stability.is_none() && matches!(row, "spectral_radius" | "verdict"))
+                || matches!(
+                    row,
+                    "crowding_out"
+                        | "private_stock_mean"
+                        | "public_stock_mean"
+                        | "floor_failed_share"
+                        | "band_failed_share"
+                        | "budget_exceeded_share"
+                        | "budget_ever_exceeded_share"
+                )
         }) {
             Ok(bad) if !bad.is_empty() => c.report(
                 Kind::BlankCell,
@@ -1032,19 +1044,9 @@ fn generated_files_through_every_verb() {
     let violations = checker.violations.into_inner().unwrap();
     let accepted = checker.accepted_runs.into_inner();
     let calls = checker.calls.into_inner();
-    let mut tolerated: BTreeMap<Kind, (usize, &str, Vec<String>)> = BTreeMap::new();
     let mut failures: BTreeMap<Kind, Vec<String>> = BTreeMap::new();
     for v in violations {
-        match KNOWN_OPEN.iter().find(|(k, _, _)| *k == v.kind) {
-            Some((_, _, why)) => {
-                let e = tolerated.entry(v.kind).or_insert((0, why, Vec::new()));
-                e.0 += 1;
-                if e.2.len() < 3 {
-                    e.2.push(v.what);
-                }
-            }
-            None => failures.entry(v.kind).or_default().push(v.what),
-        }
+        failures.entry(v.kind).or_default().push(v.what);
     }
     eprintln!(
         "fuzz: {} files, {calls} verb calls, {accepted} accepted runs; generated in {:.1} s, all in {:.1} s",
@@ -1052,20 +1054,6 @@ fn generated_files_through_every_verb() {
         generated.as_secs_f64(),
         started.elapsed().as_secs_f64()
     );
-    for (kind, (n, why, examples)) in &tolerated {
-        eprintln!("fuzz: tolerated {n} × {kind:?} ({why}); e.g.");
-        let most = KNOWN_OPEN
-            .iter()
-            .find(|(k, _, _)| k == kind)
-            .map_or(0, |(_, most, _)| *most);
-        assert!(
-            *n <= most,
-            "{n} × {kind:?}: more than the {most} known open cases ({why}): {examples:?}"
-        );
-        for e in examples {
-            eprintln!("        {e}");
-        }
-    }
     // the corpus must exercise the simulation, not only the error paths
     assert!(
         accepted > PAIRS / 5,

@@ -9,7 +9,7 @@ use std::os::unix::fs::FileTypeExt;
 use std::path::{Path, PathBuf};
 use std::process::Command;
 
-use common::bin;
+use common::{bin, stdout_of, succeed};
 
 fn demo(name: &str) -> String {
     format!("{}/examples/{name}", env!("CARGO_MANIFEST_DIR"))
@@ -35,13 +35,9 @@ fn temporaries(dir: &Path) -> Vec<PathBuf> {
 
 /// The CSV that `run` prints on stdout for the demo (the reference for every file test below).
 fn run_csv_stdout() -> Vec<u8> {
-    let out = bin()
-        .args(["run", &demo("dunmere_cycle.toml"), "--format", "csv"])
-        .output()
-        .unwrap();
-    assert!(out.status.success());
-    assert!(!out.stdout.is_empty());
-    out.stdout
+    let out = stdout_of(["run", &demo("dunmere_cycle.toml"), "--format", "csv"]);
+    assert!(!out.is_empty());
+    out.into_bytes()
 }
 
 #[test]
@@ -53,21 +49,16 @@ fn out_to_a_fifo_writes_into_the_fifo() {
         let fifo = fifo.clone();
         std::thread::spawn(move || std::fs::read(&fifo).unwrap())
     };
-    let out = bin()
-        .args([
-            "run",
-            &demo("dunmere_cycle.toml"),
-            "--format",
-            "csv",
-            "--out",
-        ])
-        .arg(&fifo)
-        .output()
-        .unwrap();
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
+    succeed(
+        bin()
+            .args([
+                "run",
+                &demo("dunmere_cycle.toml"),
+                "--format",
+                "csv",
+                "--out",
+            ])
+            .arg(&fifo),
     );
     let got = reader.join().unwrap();
     assert_eq!(got, run_csv_stdout());
@@ -87,21 +78,16 @@ fn out_through_a_symlink_replaces_the_target_and_keeps_the_link() {
     std::fs::write(&target, "old contents\n").unwrap();
     let link = dir.path().join("latest.csv");
     std::os::unix::fs::symlink("data/result.csv", &link).unwrap();
-    let out = bin()
-        .args([
-            "run",
-            &demo("dunmere_cycle.toml"),
-            "--format",
-            "csv",
-            "--out",
-        ])
-        .arg(&link)
-        .output()
-        .unwrap();
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
+    succeed(
+        bin()
+            .args([
+                "run",
+                &demo("dunmere_cycle.toml"),
+                "--format",
+                "csv",
+                "--out",
+            ])
+            .arg(&link),
     );
     let meta = std::fs::symlink_metadata(&link).unwrap();
     assert!(meta.file_type().is_symlink(), "the link was replaced");
@@ -122,18 +108,17 @@ fn out_through_a_dangling_symlink_creates_its_target() {
     let dir = tempfile::tempdir().unwrap();
     let link = dir.path().join("l.csv");
     std::os::unix::fs::symlink("new.csv", &link).unwrap();
-    let out = bin()
-        .args([
-            "run",
-            &demo("dunmere_cycle.toml"),
-            "--format",
-            "csv",
-            "--out",
-        ])
-        .arg(&link)
-        .output()
-        .unwrap();
-    assert!(out.status.success());
+    succeed(
+        bin()
+            .args([
+                "run",
+                &demo("dunmere_cycle.toml"),
+                "--format",
+                "csv",
+                "--out",
+            ])
+            .arg(&link),
+    );
     assert!(std::fs::symlink_metadata(&link)
         .unwrap()
         .file_type()
@@ -150,16 +135,7 @@ fn out_to_dev_null_leaves_it_a_character_device() {
         vec!["run", &demo("dunmere_cycle.toml"), "--format", "json"],
         vec!["stability", &demo("dunmere_cycle.toml")],
     ] {
-        let out = bin()
-            .args(&verb)
-            .args(["--out", "/dev/null"])
-            .output()
-            .unwrap();
-        assert!(
-            out.status.success(),
-            "{}",
-            String::from_utf8_lossy(&out.stderr)
-        );
+        succeed(bin().args(&verb).args(["--out", "/dev/null"]));
         let meta = std::fs::symlink_metadata("/dev/null").unwrap();
         assert!(
             meta.file_type().is_char_device(),
@@ -280,13 +256,7 @@ fn plots_manifest_notes_stale_files_and_clean_removes_them() {
         if clean {
             cmd.arg("--clean");
         }
-        let out = cmd.output().unwrap();
-        assert!(
-            out.status.success(),
-            "{}",
-            String::from_utf8_lossy(&out.stderr)
-        );
-        String::from_utf8_lossy(&out.stderr).to_string()
+        succeed(&mut cmd).1
     };
     run(&["none.toml", "price_band.toml"], false);
     let band_cobweb = std::fs::read_dir(&plots)

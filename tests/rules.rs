@@ -69,7 +69,7 @@ fn every_registered_rule_answers_every_behaviour() {
         // stability: the rule adds at least one regime besides the free market
         let setup = Setup::new(&market, &p);
         let free = stability::free_price(&setup).unwrap();
-        let cases = regimes::regimes(&setup, free, "kt");
+        let cases = regimes::regimes(&setup, free, "kt").unwrap();
         assert!(
             cases.iter().any(|c| c.name != "free market"),
             "{what}: no regime of its own"

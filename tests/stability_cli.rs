@@ -1,11 +1,9 @@
 //! The `stability` and `sweep` verbs from the outside (shapes from INTERFACE.md; numbers by hand).
 
-use assert_cmd::Command;
-use std::io::Write;
+mod common;
 
-fn furrow() -> Command {
-    Command::cargo_bin("furrow").unwrap()
-}
+use common::{bin, stdout_of};
+use std::io::Write;
 
 fn file(dir: &tempfile::TempDir, name: &str, text: &str) -> String {
     let path = dir.path().join(name);
@@ -23,12 +21,8 @@ const MARKET: &str = "[market]\nname = \"cli\"\n[demand]\nintercept = 200.0\nslo
 fn stability_json_has_interface_keys() {
     let d = tempfile::tempdir().unwrap();
     let m = file(&d, "m.toml", MARKET);
-    let out = furrow()
-        .args(["stability", &m, "--format", "json"])
-        .output()
-        .unwrap();
-    assert!(out.status.success());
-    let js: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let js: serde_json::Value =
+        serde_json::from_str(&stdout_of(["stability", &m, "--format", "json"])).unwrap();
     assert_eq!(js["verdict"], "stable");
     assert!((js["steady_state"]["price"].as_f64().unwrap() - 140.0).abs() < 1e-9);
     let reg = &js["regimes"][0];
@@ -58,12 +52,7 @@ fn floor_above_steady_state_is_reported_not_linearised() {
         "p.toml",
         "[policy]\nname = \"floor\"\n[floor]\nprice = 150.0\n",
     );
-    let out = furrow()
-        .args(["stability", &m, "--policy", &p])
-        .output()
-        .unwrap();
-    assert!(out.status.success());
-    let text = String::from_utf8(out.stdout).unwrap();
+    let text = stdout_of(["stability", &m, "--policy", &p]);
     assert!(text.contains("no steady state with finite stock"), "{text}");
     assert!(text.contains("(none)"), "{text}");
     assert!(!text.contains("NaN") && !text.contains("inf"), "{text}");
@@ -73,39 +62,29 @@ fn floor_above_steady_state_is_reported_not_linearised() {
 fn sweep_csv_columns_and_long_run() {
     let d = tempfile::tempdir().unwrap();
     let m = file(&d, "m.toml", MARKET);
-    let out = furrow()
-        .args([
-            "sweep",
-            &m,
-            "--vary",
-            "supply.slope=0.5:1.5:3",
-            "--format",
-            "csv",
-        ])
-        .output()
-        .unwrap();
-    assert!(out.status.success());
-    let text = String::from_utf8(out.stdout).unwrap();
+    let text = stdout_of([
+        "sweep",
+        &m,
+        "--vary",
+        "supply.slope=0.5:1.5:3",
+        "--format",
+        "csv",
+    ]);
     let lines: Vec<&str> = text.lines().collect();
     assert_eq!(lines[0], "supply.slope,spectral_radius,verdict");
     assert_eq!(lines[1], "0.5,0.5,stable");
     assert_eq!(lines[2], "1,1,neutral");
     assert_eq!(lines[3], "1.5,1.5,unstable");
-    let out = furrow()
-        .args([
-            "sweep",
-            &m,
-            "--vary",
-            "supply.slope=0.5:1.5:3",
-            "--long-run",
-            "4",
-            "--format",
-            "csv",
-        ])
-        .output()
-        .unwrap();
-    assert!(out.status.success());
-    let text = String::from_utf8(out.stdout).unwrap();
+    let text = stdout_of([
+        "sweep",
+        &m,
+        "--vary",
+        "supply.slope=0.5:1.5:3",
+        "--long-run",
+        "4",
+        "--format",
+        "csv",
+    ]);
     let lines: Vec<&str> = text.lines().collect();
     assert_eq!(
         lines[0],
@@ -141,8 +120,30 @@ fn sweep_bad_input_exits_2() {
             "5",
         ],
     ] {
-        let out = furrow().args(&args).output().unwrap();
+        let out = bin().args(&args).output().unwrap();
         assert_eq!(out.status.code(), Some(2), "{args:?}");
         assert!(!out.stderr.is_empty());
     }
+}
+
+#[test]
+fn a_tiny_steady_price_is_shown_positive_not_as_zero() {
+    // iso-elastic curves through (1e-9, 100) and (1e-9, 50): 100 (P/1e-9)^−0.5 = 50 (P/1e-9)^0.5
+    // gives P* = 1e-9 · 100/50 = 2e-9 (by hand). Four decimals once printed it as 0.0000, a steady
+    // state at price 0.
+    let d = tempfile::tempdir().unwrap();
+    let m = file(
+        &d,
+        "tiny.toml",
+        "[market]\nname = \"tiny\"\n[demand]\nform = \"constant-elasticity\"\nat_price = 1e-9\n\
+         at_quantity = 100.0\nelasticity = -0.5\n[supply]\nform = \"constant-elasticity\"\n\
+         at_price = 1e-9\nat_quantity = 50.0\nelasticity = 0.5\n[run]\ninitial_price = 3e-9\n",
+    );
+    let csv = stdout_of(["stability", &m, "--format", "csv"]);
+    let rows: Vec<Vec<&str>> = csv.lines().map(|l| l.split(',').collect()).collect();
+    let at = rows[0].iter().position(|h| *h == "at_price").unwrap();
+    let p: f64 = rows[1][at].parse().unwrap();
+    assert!((p / 2e-9 - 1.0).abs() < 1e-4, "{csv}");
+    let table = stdout_of(["stability", &m]);
+    assert!(table.contains("steady state: price 2.0000e-9"), "{table}");
 }

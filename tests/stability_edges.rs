@@ -107,3 +107,29 @@ fn deficiency_floor_beyond_what_demand_absorbs_has_no_steady_state() {
     // the policy created the regime: the policy file is blamed
     assert_eq!(err.blame(&s, &p), "pay.toml");
 }
+
+#[test]
+fn a_harvest_that_overflows_at_the_defended_price_is_no_steady_state() {
+    // supply calibrated at 100 t at the price 1e-300 with elasticity 1.2: at the band's buying edge
+    // 50 farmers would grow 100·(50/1e-300)^1.2 ≈ 1e363 t, beyond any double: the regime has no
+    // steady state (it once gave a note "buys inf kt … after about 0 periods" and a verdict)
+    let s = market_from_str(
+        "huge.toml",
+        "[demand]\nform = \"constant-elasticity\"\nat_price = 100.0\nat_quantity = 100.0\nelasticity = -0.5\n\
+         [supply]\nform = \"constant-elasticity\"\nat_price = 1e-300\nat_quantity = 100.0\nelasticity = 1.2\n",
+    )
+    .unwrap();
+    let p = policy_from_str(
+        "band.toml",
+        "[policy]\nname = \"band\"\n[stock]\nbuy_below = 50.0\nsell_above = 80.0\ncapacity = 10.0\nloss_rate = 0.01\n",
+    )
+    .unwrap();
+    let err = analyse(&s, &p).unwrap_err();
+    let msg = err.to_string();
+    assert!(
+        msg.contains("no steady state") && msg.contains("50"),
+        "{msg}"
+    );
+    assert!(!msg.contains("inf"), "{msg}");
+    assert_eq!(err.blame(&s, &p), "band.toml");
+}

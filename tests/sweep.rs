@@ -275,3 +275,47 @@ fn stable_market_started_at_rest_still_settles() {
         assert_relative_eq!(*p, 140.0, max_relative = 1e-12);
     }
 }
+
+#[test]
+fn two_key_sweep_checks_the_floor_against_each_points_demand() {
+    // Q_d = a − P has the choke price a (by hand). Demand's intercept and the purchase floor are
+    // validated apart, each against the other file's base value (a = 200): floor 180 passes there,
+    // but at the grid point a = 150 it lies above the choke price and must be refused like a file
+    // with both values would be (it was analysed as a valid point).
+    let text = "[market]\nname = \"g\"\n[demand]\nintercept = 200.0\nslope = -1.0\n[supply]\nintercept = -10.0\nslope = 0.5\n";
+    let base = Base::new("g.toml", parse_toml("g.toml", text).unwrap(), None);
+    let axes = [
+        sweep::parse_vary("demand.intercept=150:250:3").unwrap(),
+        sweep::parse_vary("floor.price=100:180:2").unwrap(),
+    ];
+    let points = sweep::sweep(&base, &axes, None).unwrap();
+    assert_eq!(points.len(), 6);
+    let mut refused = 0;
+    for pt in &points {
+        let (a, f) = (pt.values[0], pt.values[1]);
+        // the whole-file validation of the same two values decides, point by point
+        match base.validate(&[("demand.intercept", a), ("floor.price", f)]) {
+            Ok((s, p)) => {
+                let rep = analyse(&s, &p).unwrap();
+                assert_eq!(
+                    pt.outcome,
+                    Ok((rep.spectral_radius, rep.verdict)),
+                    "a = {a}, floor = {f}"
+                );
+            }
+            Err(e) => {
+                refused += 1;
+                assert_eq!(pt.outcome, Err(e.to_string()), "a = {a}, floor = {f}");
+            }
+        }
+        if f >= a {
+            let msg = pt.outcome.as_ref().unwrap_err();
+            assert!(
+                msg.contains("floor.price") && msg.contains(&format!("below {a}")),
+                "{msg}"
+            );
+        }
+    }
+    // exactly one point has the floor at or above the choke price: (a = 150, floor = 180)
+    assert_eq!(refused, 1);
+}

@@ -27,6 +27,16 @@ fn eig_text(e: &Eigenvalue) -> String {
     }
 }
 
+/// A price or quantity: four decimals, or five significant digits in scientific form when four
+/// decimals would show a positive number as 0 (or a huge one with dozens of digits).
+fn level(x: f64) -> String {
+    if x != 0.0 && !(1e-3..1e12).contains(&x.abs()) {
+        format!("{x:.4e}")
+    } else {
+        fmt_num(x, 4)
+    }
+}
+
 fn opt(x: Option<f64>) -> String {
     x.map(|v| fmt_num(v, 4)).unwrap_or_else(|| "-".into())
 }
@@ -72,7 +82,7 @@ pub fn render(report: &StabilityReport, format: Format) -> String {
             },
             opt(r.period),
             opt(r.half_life),
-            fmt_num(r.at_price, 4),
+            level(r.at_price),
             opt(r.stock_eigenvalue),
         ]);
     }
@@ -87,10 +97,10 @@ pub fn render(report: &StabilityReport, format: Format) -> String {
     };
     out.push_str(&format!(
         "\nsteady state: price {}, harvest {}, producer price {}, planting price {} (rule {})\n",
-        fmt_num(report.steady_state.price, 4),
-        fmt_num(report.steady_state.quantity, 4),
-        fmt_num(report.producer_price, 4),
-        fmt_num(report.planting_price, 4),
+        level(report.steady_state.price),
+        level(report.steady_state.quantity),
+        level(report.producer_price),
+        level(report.planting_price),
         report.rule
     ));
     out.push_str(&format!(

@@ -376,6 +376,19 @@ const QUANTILE_STEMS: [&str; 4] = [
 /// Indicators that exist only for a market with private storers.
 const STORAGE_KEYS: [&str; 3] = ["private_stock_mean", "public_stock_mean", "crowding_out"];
 
+/// Coefficient of variation of producers' revenue: sd / mean, and 0 when the mean is 0. Revenue
+/// (producer price × harvest) is never negative, so a zero mean means it is 0 in every period of
+/// every replication (a zero harvest diverges, so only a product below the smallest representable
+/// number does this): nothing varies, and the CV is 0 rather than the undefined 0/0 (README,
+/// "Indicators").
+pub fn revenue_cv(sd: f64, mean: f64) -> f64 {
+    if mean > 0.0 {
+        sd / mean
+    } else {
+        0.0
+    }
+}
+
 /// Mean and Monte Carlo standard error (sample sd / √n, divisor n − 1) of per-replication values,
 /// summed in the given order. The standard error is `None` with fewer than two values.
 pub fn mean_se(values: impl Iterator<Item = f64> + Clone) -> (f64, Option<f64>) {
@@ -541,7 +554,7 @@ pub(super) fn build(
     let (rev_mean, rev_sd) = (pooled.revenue.mean(), pooled.revenue.sd());
     per_rep(&mut out, "producer_revenue_mean", &|r| r.mean_revenue);
     out.num("producer_revenue_sd", rev_sd);
-    out.num("producer_revenue_cv", rev_sd / rev_mean);
+    out.num("producer_revenue_cv", revenue_cv(rev_sd, rev_mean));
     let approx = |p: &PolicyRuns| {
         risk_premium(
             p.pooled.revenue.mean() + other,

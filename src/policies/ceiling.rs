@@ -23,6 +23,7 @@ use crate::scenario::validate::{deserialize_section, Check};
 use crate::scenario::{InputError, Scenario};
 use crate::stability::regimes::Regimes;
 use crate::stability::Clearing as Dynamics;
+use crate::stability::StabilityError;
 use crate::storage::agency::StoragePlan;
 
 /// The registration of `[ceiling]`.
@@ -134,7 +135,7 @@ impl Rule for Ceiling {
         Ok(())
     }
 
-    fn regimes(&self, r: &mut Regimes) {
+    fn regimes(&self, r: &mut Regimes) -> Result<(), StabilityError> {
         let c = self.price;
         let above = r.free_price > c * (1.0 + 1e-12);
         match self.instrument {
@@ -186,6 +187,7 @@ impl Rule for Ceiling {
                 }
             }
         }
+        Ok(())
     }
 
     fn check_market(&self, _check: &Check, _scenario: &Scenario) -> Result<(), InputError> {

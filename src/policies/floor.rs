@@ -12,6 +12,7 @@ use crate::scenario::validate::{deserialize_section, Check};
 use crate::scenario::{InputError, Scenario};
 use crate::stability::regimes::Regimes;
 use crate::stability::Clearing as Dynamics;
+use crate::stability::StabilityError;
 use crate::storage::agency::StoragePlan;
 
 /// The registration of `[floor]`.
@@ -140,13 +141,13 @@ impl Rule for Floor {
         Ok(())
     }
 
-    fn regimes(&self, r: &mut Regimes) {
+    fn regimes(&self, r: &mut Regimes) -> Result<(), StabilityError> {
         let f = self.price;
         match self.instrument {
             Instrument::Purchase => {
                 let name = "floor binding (purchase)";
                 if Regimes::below(r.free_price, f) {
-                    r.holding = r.purchase_holds(name, f);
+                    r.holding = r.purchase_holds(name, f)?;
                 } else {
                     r.secondary.push(Regimes::case(
                         name,
@@ -183,6 +184,7 @@ impl Rule for Floor {
                 }
             }
         }
+        Ok(())
     }
 
     fn check_market(&self, c: &Check, scenario: &Scenario) -> Result<(), InputError> {

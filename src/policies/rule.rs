@@ -16,6 +16,7 @@ use crate::scenario::schema::Key;
 use crate::scenario::validate::Check;
 use crate::scenario::{InputError, Scenario};
 use crate::stability::regimes::Regimes;
+use crate::stability::StabilityError;
 use crate::storage::agency::StoragePlan;
 
 /// A rule as the period engine needs it: its period actions (each at its rank in the acting order)
@@ -86,7 +87,7 @@ pub trait Rule: Send + Sync + std::fmt::Debug {
     /// model does not cover this rule as configured.
     fn storage(&self, plan: &mut StoragePlan) -> Result<(), String>;
     /// Stability: adds the regimes it creates (and the one holding the steady state, if it holds it).
-    fn regimes(&self, regimes: &mut Regimes);
+    fn regimes(&self, regimes: &mut Regimes) -> Result<(), StabilityError>;
     /// What it asks of the market it runs on (`scenario::policy_for_market`).
     fn check_market(&self, check: &Check, scenario: &Scenario) -> Result<(), InputError>;
     /// The highest price it defends or pays up to (the engine's divergence bound is 1000 times the

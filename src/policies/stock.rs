@@ -13,6 +13,7 @@ use crate::scenario::schema::Key;
 use crate::scenario::validate::{deserialize_section, Check};
 use crate::scenario::{InputError, Scenario};
 use crate::stability::regimes::{RegimeCase, Regimes};
+use crate::stability::StabilityError;
 use crate::stability::{Clearing as Dynamics, StateMap};
 use crate::storage::agency::{Release as StorageRelease, StockPlan, StoragePlan};
 
@@ -358,10 +359,10 @@ impl Rule for Stock {
         Ok(())
     }
 
-    fn regimes(&self, r: &mut Regimes) {
+    fn regimes(&self, r: &mut Regimes) -> Result<(), StabilityError> {
         // a [stock] section without band edges and with the band release is only the floor's store
         if !(self.buy_below > 0.0 || self.sell_above.is_finite() || self.release != Release::Band) {
-            return;
+            return Ok(());
         }
         let free = Dynamics::Free { offtake: 0.0 };
         let (buy, sell) = (self.buy_below, self.sell_above);
@@ -369,7 +370,7 @@ impl Rule for Stock {
         let selling = "stock selling at sell_above";
         if r.holding.is_empty() {
             if buy > 0.0 && Regimes::below(r.free_price, buy) {
-                r.holding = r.purchase_holds(buying, buy);
+                r.holding = r.purchase_holds(buying, buy)?;
             } else if sell.is_finite() && r.free_price > sell * (1.0 + 1e-12) {
                 let mut c = Regimes::case(
                     "stock empty (free market)",
@@ -428,6 +429,7 @@ impl Rule for Stock {
                 Some(format!("price pinned at {sell:.4} while stock lasts")),
             ));
         }
+        Ok(())
     }
 
     fn check_market(&self, c: &Check, scenario: &Scenario) -> Result<(), InputError> {

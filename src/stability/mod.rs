@@ -278,7 +278,7 @@ fn regime_at(
 /// Analyses a [`Setup`]; `unit` is the quantity unit used in notes.
 pub fn analyse_setup(setup: &Setup, unit: &str) -> Result<StabilityReport, StabilityError> {
     let p_free = free_price(setup)?;
-    let cases = regimes::regimes(setup, p_free, unit);
+    let cases = regimes::regimes(setup, p_free, unit)?;
     let mut out = Vec::with_capacity(cases.len());
     for c in &cases {
         out.push(regime_at(setup, c, p_free)?);

@@ -16,6 +16,7 @@
 //! full store buying only its losses ℓ·capacity then holds the steady state.
 
 use super::statespace::{Clearing, Setup, StateMap};
+use super::StabilityError;
 
 /// One regime to linearise.
 #[derive(Debug, Clone, PartialEq)]
@@ -84,7 +85,7 @@ impl Regimes<'_> {
     /// The regime that holds when the price would settle below a price `edge` the agency defends
     /// by buying: pinned with a settled stock, no finite stock, or the free market with a full
     /// store.
-    pub fn purchase_holds(&self, name: &str, edge: f64) -> Vec<RegimeCase> {
+    pub fn purchase_holds(&self, name: &str, edge: f64) -> Result<Vec<RegimeCase>, StabilityError> {
         purchase_holds(self.setup, name, edge, self.unit)
     }
 }
@@ -101,11 +102,28 @@ fn agency(setup: &Setup) -> (f64, f64, bool) {
 
 /// The regime that holds when the price would settle below a price `edge` the agency defends by
 /// buying: pinned with a settled stock, no finite stock, or the free market with a full store.
-fn purchase_holds(setup: &Setup, name: &str, edge: f64, unit: &str) -> Vec<RegimeCase> {
+/// No steady state when the harvest planted on the defended price is not a finite number (a supply
+/// curve calibrated at a price many orders of magnitude below it).
+fn purchase_holds(
+    setup: &Setup,
+    name: &str,
+    edge: f64,
+    unit: &str,
+) -> Result<Vec<RegimeCase>, StabilityError> {
     let (loss, capacity, budget) = agency(setup);
     let pinned = Clearing::Pinned(edge);
     let planting = StateMap::new(setup, pinned).planting_at_rest(edge);
     let bought = setup.supply.quantity(planting) - setup.demand.quantity(edge);
+    if !bought.is_finite() {
+        return Err(StabilityError::NoSteadyState {
+            regime: name.into(),
+            reason: format!(
+                "the harvest planted on the defended price {} has no finite value (the supply \
+                 curve overflows there)",
+                crate::scenario::ranges::short_num(edge)
+            ),
+        });
+    }
     let budget_note = if budget {
         " The purchase budget is not part of the linearisation."
     } else {
@@ -165,12 +183,16 @@ fn purchase_holds(setup: &Setup, name: &str, edge: f64, unit: &str) -> Vec<Regim
             )),
         ));
     }
-    out
+    Ok(out)
 }
 
 /// Lists the regimes of `setup` given the free market's steady producer price `free_price`, the one
-/// holding the steady state first.
-pub fn regimes(setup: &Setup, free_price: f64, unit: &str) -> Vec<RegimeCase> {
+/// holding the steady state first; an error when a regime that would hold it has no steady state.
+pub fn regimes(
+    setup: &Setup,
+    free_price: f64,
+    unit: &str,
+) -> Result<Vec<RegimeCase>, StabilityError> {
     let mut r = Regimes {
         setup,
         free_price,
@@ -179,7 +201,7 @@ pub fn regimes(setup: &Setup, free_price: f64, unit: &str) -> Vec<RegimeCase> {
         secondary: Vec::new(),
     };
     for rule in &setup.rules {
-        rule.regimes(&mut r);
+        rule.regimes(&mut r)?;
     }
     let Regimes {
         mut holding,
@@ -204,5 +226,5 @@ pub fn regimes(setup: &Setup, free_price: f64, unit: &str) -> Vec<RegimeCase> {
         secondary.insert(0, c);
     }
     holding.extend(secondary);
-    holding
+    Ok(holding)
 }

@@ -10,7 +10,9 @@
 //! (`apply_override`, then `market_from_table` / `policy_from_table`). A grid point then takes the
 //! section each key changed from that axis's validated value: this is exact when the two keys lie in
 //! different sections (the checks that tie keys together are within one section, and the steady
-//! state is re-solved at every point). Two keys in the same section are validated together at every
+//! state is re-solved at every point), except the one check across files, `policy_for_market` (a
+//! purchase price below linear demand's choke price), which every assembled point goes through
+//! again (`policy_fits_market`). Two keys in the same section are validated together at every
 //! point (slower).
 
 use crate::policies::RuleRef;
@@ -117,6 +119,22 @@ impl Base {
         policy_for_market(&scenario, &policy)?;
         Ok((scenario, policy))
     }
+}
+
+/// [`policy_for_market`] at a grid point assembled from sections validated apart (the fast path
+/// of a two-key sweep): the base files `s0`, `p0` with the demand curve, floor and stock of `setup`.
+/// Each axis's value was checked against the base's other file only, so a floor from one axis and
+/// a demand curve from the other meet here for the first time.
+pub fn policy_fits_market(s0: &Scenario, p0: &PolicySpec, setup: &Setup) -> Result<(), InputError> {
+    let linear = matches!(setup.demand, crate::curves::Curve::Linear { .. });
+    if !linear || setup.rules.is_empty() {
+        return Ok(()); // nothing the check looks at (each rule bounds its prices by linear demand)
+    }
+    let mut s = s0.clone();
+    s.market.demand = setup.demand;
+    let mut p = p0.clone();
+    p.rules = setup.rules.clone();
+    policy_for_market(&s, &p)
 }
 
 /// Keys whose values are whole numbers.

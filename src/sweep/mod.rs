@@ -233,7 +233,9 @@ pub fn sweep(
                         parts.patch(&apply::component(base, &a.key, sa, pa));
                         parts.patch(&apply::component(base, &b.key, sb, pb));
                         let setup = parts.resolved();
-                        if crate::curves::steady_state(&setup.demand, &setup.supply).is_none() {
+                        if let Err(e) = apply::policy_fits_market(&s0, &p0, &setup) {
+                            Err(e.to_string())
+                        } else if crate::curves::steady_state(&setup.demand, &setup.supply).is_none() {
                             Err(format!(
                                 "{}: supply and demand do not cross at a positive price and quantity at {} = {}, {} = {}",
                                 base.market_file, a.key, a.values[i], b.key, b.values[j]

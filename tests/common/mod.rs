@@ -24,3 +24,26 @@ pub fn policy(body: &str) -> PolicySpec {
 pub fn bin() -> assert_cmd::Command {
     assert_cmd::Command::cargo_bin("furrow").expect("binary built")
 }
+
+/// Runs `cmd` (a `furrow` command built with [`bin`]), asserts that it exited 0 — its stderr in the
+/// failure message — and returns what it wrote: stdout as text first, stderr second.
+pub fn succeed(cmd: &mut assert_cmd::Command) -> (String, String) {
+    let out = cmd.output().expect("furrow runs");
+    let stderr = String::from_utf8_lossy(&out.stderr).to_string();
+    assert!(
+        out.status.success(),
+        "furrow exited with {:?}: {stderr}",
+        out.status.code()
+    );
+    let stdout = String::from_utf8(out.stdout).expect("stdout is UTF-8");
+    (stdout, stderr)
+}
+
+/// `furrow ARGS`, asserted to succeed (see [`succeed`]); its stdout.
+pub fn stdout_of<I, S>(args: I) -> String
+where
+    I: IntoIterator<Item = S>,
+    S: AsRef<std::ffi::OsStr>,
+{
+    succeed(bin().args(args)).0
+}
