@@ -379,3 +379,83 @@ fn the_ceiling_works_in_every_verb() {
         "{err}"
     );
 }
+
+#[test]
+fn the_ceiling_in_the_storage_equilibrium() {
+    // By definition (README, ceiling by release) a ceiling c below a band's sell_above sells down to
+    // c while stock lasts: the solved equilibrium is that of the band with sell_above = c.
+    let dir = tempfile::tempdir().unwrap();
+    let market = format!(
+        "{}/examples/veldmark_storers.toml",
+        env!("CARGO_MANIFEST_DIR")
+    );
+    let stock = "[stock]\nbuy_below = 190.0\ncapacity = 60.0\ninitial = 20.0\n";
+    let ceiling = write(
+        dir.path(),
+        "ceiling.toml",
+        &format!("[policy]\nname = \"P\"\n{stock}sell_above = 250.0\n[ceiling]\nprice = 230.0\ninstrument = \"release\"\n"),
+    );
+    let band = write(
+        dir.path(),
+        "band.toml",
+        &format!("[policy]\nname = \"P\"\n{stock}sell_above = 230.0\n"),
+    );
+    let solve = |policy: &str| {
+        let out = bin()
+            .args(["storage", &market, "--policy", policy, "--format", "json"])
+            .output()
+            .unwrap();
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        String::from_utf8(out.stdout).unwrap()
+    };
+    let (with_ceiling, with_band) = (solve(&ceiling), solve(&band));
+    assert!(with_ceiling.contains("\"grid\""));
+    assert_eq!(with_ceiling, with_band);
+    // a consumer subsidy changes no decision; its payment is booked on the storage path's records:
+    // fiscal cost = (P − c)·C when P > c (and nothing else: no agency)
+    let subsidy = write(
+        dir.path(),
+        "subsidy.toml",
+        "[policy]\nname = \"S\"\n[ceiling]\nprice = 215.0\ninstrument = \"consumer-subsidy\"\n",
+    );
+    let out = bin()
+        .args([
+            "run",
+            &market,
+            "--policy",
+            &subsidy,
+            "--replications",
+            "1",
+            "--format",
+            "csv",
+        ])
+        .output()
+        .unwrap();
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let mut lines = text.lines();
+    let header: Vec<&str> = lines.next().unwrap().split(',').collect();
+    let col = |name: &str| header.iter().position(|h| *h == name).unwrap();
+    let (price, consumption, fiscal) = (col("price"), col("consumption"), col("fiscal_cost"));
+    let mut paid = 0;
+    for line in lines.filter(|l| !l.is_empty()) {
+        let v: Vec<f64> = line
+            .split(',')
+            .map(|x| x.parse().unwrap_or(f64::NAN))
+            .collect();
+        let want = (v[price] - 215.0).max(0.0) * v[consumption];
+        assert!((v[fiscal] - want).abs() <= 1e-6 * (1.0 + want), "{line}");
+        if want > 0.0 {
+            paid += 1;
+        }
+    }
+    assert!(paid > 0, "{text}");
+}

@@ -5,7 +5,7 @@ mod stability_common;
 
 use approx::assert_relative_eq;
 use furrow::scenario::PolicySpec;
-use furrow::stability::{analyse, Clearing, Eigenvalue, Setup, StateMap, Verdict};
+use furrow::stability::{analyse, Eigenvalue, RegimePrice, Setup, StateMap, Verdict};
 use stability_common::*;
 
 // b = 0.5, d = 1 → b/d = 0.5 unless stated
@@ -242,8 +242,8 @@ fn analytic_jacobian_matches_numerical_on_constant_elasticity_markets() {
         let s = ce(0.4, -0.7, rule);
         let setup = Setup::new(&s, &PolicySpec::none());
         for clearing in [
-            Clearing::Free { offtake: 0.0 },
-            Clearing::Free { offtake: 3.0 },
+            RegimePrice::Free { offtake: 0.0 },
+            RegimePrice::Free { offtake: 3.0 },
         ] {
             let map = StateMap::new(&setup, clearing);
             let p = map.fixed_point(s.steady.price).unwrap();
@@ -268,9 +268,9 @@ fn numerical_jacobian_matches_analytic_on_linear_markets() {
         let s = linear(200.0, 1.3, -10.0, 0.7, rule);
         let setup = Setup::new(&s, &PolicySpec::none());
         for clearing in [
-            Clearing::Free { offtake: 0.0 },
-            Clearing::Free { offtake: 5.0 },
-            Clearing::Pinned(90.0),
+            RegimePrice::Free { offtake: 0.0 },
+            RegimePrice::Free { offtake: 5.0 },
+            RegimePrice::Pinned(90.0),
         ] {
             let map = StateMap::new(&setup, clearing);
             let p = map.fixed_point(s.steady.price).unwrap();

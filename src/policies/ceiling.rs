@@ -22,7 +22,7 @@ use crate::scenario::schema::Key;
 use crate::scenario::validate::{deserialize_section, Check};
 use crate::scenario::{InputError, Scenario};
 use crate::stability::regimes::Regimes;
-use crate::stability::Clearing as Dynamics;
+use crate::stability::RegimePrice;
 use crate::stability::StabilityError;
 use crate::storage::agency::StoragePlan;
 
@@ -143,7 +143,7 @@ impl Rule for Ceiling {
                 if above && r.holding.is_empty() {
                     let mut case = Regimes::case(
                         "ceiling stock empty (free market)",
-                        Dynamics::Free { offtake: 0.0 },
+                        RegimePrice::Free { offtake: 0.0 },
                         Some(format!(
                             "the free market's steady state lies above the ceiling {c:.4}: the agency \
                              sells until its stock runs out, then the market is free"
@@ -154,7 +154,7 @@ impl Rule for Ceiling {
                 }
                 r.secondary.push(Regimes::case(
                     "ceiling defended by release",
-                    Dynamics::Pinned(c),
+                    RegimePrice::Pinned(c),
                     Some(format!(
                         "price pinned at {c:.4} while the agency's stock lasts"
                     )),
@@ -163,7 +163,7 @@ impl Rule for Ceiling {
             Instrument::ConsumerSubsidy => {
                 // consumers' payments do not feed back on planting: the dynamics are the free market's
                 let name = "consumer subsidy paid (free market)";
-                let free = Dynamics::Free { offtake: 0.0 };
+                let free = RegimePrice::Free { offtake: 0.0 };
                 if above && r.holding.is_empty() {
                     let mut case = Regimes::case(
                         name,

@@ -11,7 +11,7 @@ use crate::scenario::schema::Key;
 use crate::scenario::validate::{deserialize_section, Check};
 use crate::scenario::{InputError, Scenario};
 use crate::stability::regimes::Regimes;
-use crate::stability::Clearing as Dynamics;
+use crate::stability::RegimePrice;
 use crate::stability::StabilityError;
 use crate::storage::agency::StoragePlan;
 
@@ -151,7 +151,7 @@ impl Rule for Floor {
                 } else {
                     r.secondary.push(Regimes::case(
                         name,
-                        Dynamics::Pinned(f),
+                        RegimePrice::Pinned(f),
                         Some(format!(
                             "after a shock that drives the price below {f:.4}: price pinned, the agency buys"
                         )),
@@ -160,7 +160,7 @@ impl Rule for Floor {
             }
             Instrument::DeficiencyPayment => {
                 let name = "deficiency payment binding";
-                let paid = Dynamics::Paid(f);
+                let paid = RegimePrice::Paid(f);
                 if Regimes::below(r.free_price, f) {
                     let market = r.market_price_at_rest(paid, f);
                     let mut c = Regimes::case(

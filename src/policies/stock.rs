@@ -14,7 +14,7 @@ use crate::scenario::validate::{deserialize_section, Check};
 use crate::scenario::{InputError, Scenario};
 use crate::stability::regimes::{RegimeCase, Regimes};
 use crate::stability::StabilityError;
-use crate::stability::{Clearing as Dynamics, StateMap};
+use crate::stability::{RegimePrice, StateMap};
 use crate::storage::agency::{Release as StorageRelease, StockPlan, StoragePlan};
 
 const fn num(name: &'static str, range: crate::scenario::ranges::KeyRange) -> Key {
@@ -262,7 +262,7 @@ impl Stock {
     /// S* = speed·T/(1 − (1 − ℓ)(1 − speed)) and buys its losses ℓ·S* each period (a constant
     /// offtake), unless that would lift the price above M, in which case the price is pinned at M
     /// and the reserve settles below its target.
-    fn target_regime(&self, r: &Regimes, target: f64, speed: f64) -> (Dynamics, f64, String) {
+    fn target_regime(&self, r: &Regimes, target: f64, speed: f64) -> (RegimePrice, f64, String) {
         let (free_price, buy, sell, unit) = (r.free_price, self.buy_below, self.sell_above, r.unit);
         let loss = self.loss_rate;
         let middle = if sell.is_finite() {
@@ -272,7 +272,7 @@ impl Stock {
         };
         if !Regimes::below(free_price, middle) {
             return (
-                Dynamics::Free { offtake: 0.0 },
+                RegimePrice::Free { offtake: 0.0 },
                 1.0 - loss,
                 format!(
                     "the free steady state is at or above the band's middle {middle:.4}: the reserve \
@@ -282,7 +282,7 @@ impl Stock {
         }
         let settled = speed * target / (1.0 - (1.0 - loss) * (1.0 - speed));
         let offtake = loss * settled;
-        let interior = Dynamics::Free { offtake };
+        let interior = RegimePrice::Free { offtake };
         let p = StateMap::new(r.setup, interior).fixed_point(free_price);
         match p {
             Some(p) if p <= middle * (1.0 + 1e-12) => (
@@ -294,7 +294,7 @@ impl Stock {
                 ),
             ),
             _ => (
-                Dynamics::Pinned(middle),
+                RegimePrice::Pinned(middle),
                 1.0 - loss,
                 format!(
                     "restocking purchases stop at the band's middle {middle:.4}: the price is pinned \
@@ -364,7 +364,7 @@ impl Rule for Stock {
         if !(self.buy_below > 0.0 || self.sell_above.is_finite() || self.release != Release::Band) {
             return Ok(());
         }
-        let free = Dynamics::Free { offtake: 0.0 };
+        let free = RegimePrice::Free { offtake: 0.0 };
         let (buy, sell) = (self.buy_below, self.sell_above);
         let buying = "stock buying at buy_below";
         let selling = "stock selling at sell_above";
@@ -405,7 +405,7 @@ impl Rule for Stock {
                     ),
                 };
                 let name = match clearing {
-                    Dynamics::Free { .. } => "stock idle (free market)",
+                    RegimePrice::Free { .. } => "stock idle (free market)",
                     _ => "stock restocking at the band's middle",
                 };
                 let mut c = Regimes::case(name, clearing, Some(note));
@@ -418,14 +418,14 @@ impl Rule for Stock {
         if buy > 0.0 && !held(buying, &r.holding) {
             r.secondary.push(Regimes::case(
                 buying,
-                Dynamics::Pinned(buy),
+                RegimePrice::Pinned(buy),
                 Some(format!("price pinned at {buy:.4} while the store has room")),
             ));
         }
         if sell.is_finite() {
             r.secondary.push(Regimes::case(
                 selling,
-                Dynamics::Pinned(sell),
+                RegimePrice::Pinned(sell),
                 Some(format!("price pinned at {sell:.4} while stock lasts")),
             ));
         }

@@ -26,7 +26,7 @@ use crate::curves::SteadyState;
 use crate::scenario::{ExpectationSpec, PolicySpec, Scenario};
 
 pub use conditions::PublishedCondition;
-pub use statespace::{Clearing, Setup, StateMap};
+pub use statespace::{RegimePrice, Setup, StateMap};
 
 /// A complex eigenvalue.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
@@ -195,7 +195,7 @@ pub fn free_price(setup: &Setup) -> Result<f64, StabilityError> {
     if let (true, Some(s)) = (simple, steady) {
         return Ok(s.price);
     }
-    StateMap::with_floor(setup, Clearing::Free { offtake: 0.0 }, false)
+    StateMap::with_floor(setup, RegimePrice::Free { offtake: 0.0 }, false)
         .fixed_point(guess)
         .ok_or_else(|| StabilityError::NoSteadyState {
             regime: "free market".into(),
@@ -211,7 +211,7 @@ fn regime_at(
     let map = StateMap::with_floor(setup, case.clearing, case.floor_applies);
     // the free regime's fixed point is the free market's steady state (solved in closed form for
     // linear curves); an announced floor applies to it only when it lies below that price
-    let at_rest = (case.clearing == Clearing::Free { offtake: 0.0 }).then_some(guess);
+    let at_rest = (case.clearing == RegimePrice::Free { offtake: 0.0 }).then_some(guess);
     let p = at_rest
         .or_else(|| map.fixed_point(guess))
         .filter(|p| p.is_finite() && *p > 0.0)
@@ -291,9 +291,9 @@ pub fn analyse_setup(setup: &Setup, unit: &str) -> Result<StabilityReport, Stabi
         let planting = map.planting_at_rest(pp);
         let harvest = setup.supply.quantity(planting);
         let market = match cases[0].clearing {
-            Clearing::Free { offtake } => setup.demand.price_at(harvest - offtake),
-            Clearing::Paid(_) => setup.demand.price_at(harvest),
-            Clearing::Pinned(p) => p,
+            RegimePrice::Free { offtake } => setup.demand.price_at(harvest - offtake),
+            RegimePrice::Paid(_) => setup.demand.price_at(harvest),
+            RegimePrice::Pinned(p) => p,
         };
         if !(market.is_finite() && market > 0.0 && harvest.is_finite() && harvest > 0.0) {
             return Err(StabilityError::NoSteadyState {
@@ -326,7 +326,7 @@ pub fn analyse_setup(setup: &Setup, unit: &str) -> Result<StabilityReport, Stabi
         )
     };
     // published conditions: the free-market dynamics at the free steady state
-    let free_map = StateMap::with_floor(setup, Clearing::Free { offtake: 0.0 }, false);
+    let free_map = StateMap::with_floor(setup, RegimePrice::Free { offtake: 0.0 }, false);
     let planting = free_map.planting_at_rest(p_free);
     let b = setup.supply.slope_at(planting);
     let d = -setup.demand.slope_at(p_free);

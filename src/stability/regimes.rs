@@ -15,7 +15,7 @@
 //! period. With a capacity limit the store fills and the floor gives way: the free market with the
 //! full store buying only its losses ℓ·capacity then holds the steady state.
 
-use super::statespace::{Clearing, Setup, StateMap};
+use super::statespace::{RegimePrice, Setup, StateMap};
 use super::StabilityError;
 
 /// One regime to linearise.
@@ -24,7 +24,7 @@ pub struct RegimeCase {
     /// Display name.
     pub name: String,
     /// Its clearing function.
-    pub clearing: Clearing,
+    pub clearing: RegimePrice,
     /// True for the regime that holds the steady state.
     pub holds: bool,
     /// False when this regime holds but no steady state with finite stock exists.
@@ -56,7 +56,7 @@ pub struct Regimes<'a> {
 
 impl Regimes<'_> {
     /// A regime that does not hold the steady state (a rule sets `holds` on the one that does).
-    pub fn case(name: &str, clearing: Clearing, note: Option<String>) -> RegimeCase {
+    pub fn case(name: &str, clearing: RegimePrice, note: Option<String>) -> RegimeCase {
         RegimeCase {
             name: name.into(),
             clearing,
@@ -75,7 +75,7 @@ impl Regimes<'_> {
 
     /// The market price at rest when the producer price is held at `p` under `clearing` (a payment
     /// pins the producer price while the market clears the harvest planted on it).
-    pub fn market_price_at_rest(&self, clearing: Clearing, p: f64) -> f64 {
+    pub fn market_price_at_rest(&self, clearing: RegimePrice, p: f64) -> f64 {
         let planting = StateMap::new(self.setup, clearing).planting_at_rest(p);
         self.setup
             .demand
@@ -90,7 +90,7 @@ impl Regimes<'_> {
     }
 }
 
-fn case(name: &str, clearing: Clearing, note: Option<String>) -> RegimeCase {
+fn case(name: &str, clearing: RegimePrice, note: Option<String>) -> RegimeCase {
     Regimes::case(name, clearing, note)
 }
 
@@ -111,7 +111,7 @@ fn purchase_holds(
     unit: &str,
 ) -> Result<Vec<RegimeCase>, StabilityError> {
     let (loss, capacity, budget) = agency(setup);
-    let pinned = Clearing::Pinned(edge);
+    let pinned = RegimePrice::Pinned(edge);
     let planting = StateMap::new(setup, pinned).planting_at_rest(edge);
     let bought = setup.supply.quantity(planting) - setup.demand.quantity(edge);
     if !bought.is_finite() {
@@ -164,7 +164,7 @@ fn purchase_holds(
         let offtake = loss * capacity;
         let mut full = case(
             "free market, store full",
-            Clearing::Free { offtake },
+            RegimePrice::Free { offtake },
             Some(format!(
                 "the store fills (capacity {capacity}) after about {:.0} periods of buying {bought:.4} \
                  {unit}; then the defence of {edge:.4} gives way and the market clears freely, the full \
@@ -208,14 +208,14 @@ pub fn regimes(
         mut secondary,
         ..
     } = r;
-    let free = Clearing::Free { offtake: 0.0 };
+    let free = RegimePrice::Free { offtake: 0.0 };
     if holding.is_empty() {
         let mut c = case("free market", free, None);
         c.holds = true;
         holding.push(c);
     } else if !holding
         .iter()
-        .any(|c| matches!(c.clearing, Clearing::Free { .. }))
+        .any(|c| matches!(c.clearing, RegimePrice::Free { .. }))
     {
         let mut c = case(
             "free market",

@@ -84,7 +84,7 @@ impl Setup {
 
 /// How the producer price answers the planting price inside one regime.
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub enum Clearing {
+pub enum RegimePrice {
     /// The market clears the harvest less a constant net agency offtake: P = D⁻¹(S(P^e) − offtake).
     Free {
         /// Net quantity the agency takes off the market each period.
@@ -96,15 +96,15 @@ pub enum Clearing {
     Paid(f64),
 }
 
-impl Clearing {
+impl RegimePrice {
     /// Producer price for a planting price.
     #[inline]
     pub fn producer_price(&self, setup: &Setup, planting: f64) -> f64 {
         match *self {
-            Clearing::Free { offtake } => setup
+            RegimePrice::Free { offtake } => setup
                 .demand
                 .price_at(setup.supply.quantity(planting) - offtake),
-            Clearing::Pinned(p) | Clearing::Paid(p) => p,
+            RegimePrice::Pinned(p) | RegimePrice::Paid(p) => p,
         }
     }
 
@@ -113,13 +113,13 @@ impl Clearing {
     /// taken at the cleared quantity itself (no round trip through the inverse curve).
     pub fn slope(&self, setup: &Setup, planting: f64) -> f64 {
         match *self {
-            Clearing::Free { offtake } => {
+            RegimePrice::Free { offtake } => {
                 let q = setup.supply.quantity(planting);
                 let p = setup.demand.price_at(q - offtake);
                 setup.supply.slope_at_point(planting, q)
                     / setup.demand.slope_at_point(p, q - offtake)
             }
-            Clearing::Pinned(_) | Clearing::Paid(_) => 0.0,
+            RegimePrice::Pinned(_) | RegimePrice::Paid(_) => 0.0,
         }
     }
 }
@@ -138,18 +138,18 @@ pub struct StateMap<'a> {
     setup: &'a Setup,
     rule: Box<dyn ExpectationRule>,
     layout: Layout,
-    clearing: Clearing,
+    clearing: RegimePrice,
     floor: Option<f64>,
 }
 
 impl<'a> StateMap<'a> {
     /// The map of `setup`'s rule under `clearing` (farmers plant on an announced floor).
-    pub fn new(setup: &'a Setup, clearing: Clearing) -> Self {
+    pub fn new(setup: &'a Setup, clearing: RegimePrice) -> Self {
         Self::with_floor(setup, clearing, true)
     }
 
     /// As [`StateMap::new`]; `floor = false` ignores an announced floor (the market left alone).
-    pub fn with_floor(setup: &'a Setup, clearing: Clearing, floor: bool) -> Self {
+    pub fn with_floor(setup: &'a Setup, clearing: RegimePrice, floor: bool) -> Self {
         StateMap {
             setup,
             rule: expectations::build(&setup.rule),
@@ -190,7 +190,7 @@ impl<'a> StateMap<'a> {
 
     /// The steady producer price of this regime: p = h(planting(p)); `None` when none exists.
     pub fn fixed_point(&self, guess: f64) -> Option<f64> {
-        if let Clearing::Pinned(p) | Clearing::Paid(p) = self.clearing {
+        if let RegimePrice::Pinned(p) | RegimePrice::Paid(p) = self.clearing {
             return Some(p);
         }
         let g = |p: f64| {

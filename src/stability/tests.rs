@@ -39,7 +39,7 @@ fn rules_at_rest_expect_the_resting_price() {
     ];
     for r in rules {
         let s = setup(r);
-        let map = StateMap::new(&s, Clearing::Free { offtake: 0.0 });
+        let map = StateMap::new(&s, RegimePrice::Free { offtake: 0.0 });
         assert!(
             (map.expectation_at_rest(123.0) - 123.0).abs() < 1e-12,
             "{r:?}"
@@ -54,10 +54,10 @@ fn rules_at_rest_expect_the_resting_price() {
 fn clearing_slope_matches_finite_difference() {
     // dP/dP^e = S'(P^e)/D'(P) (chain rule through the inverse demand curve)
     let s = setup(ExpectationSpec::Naive);
-    let c = Clearing::Free { offtake: 3.0 };
+    let c = RegimePrice::Free { offtake: 3.0 };
     let pe = 95.0;
     let h = 1e-5;
     let fd = (c.producer_price(&s, pe + h) - c.producer_price(&s, pe - h)) / (2.0 * h);
     assert!((c.slope(&s, pe) - fd).abs() < 1e-8);
-    assert_eq!(Clearing::Pinned(80.0).slope(&s, pe), 0.0);
+    assert_eq!(RegimePrice::Pinned(80.0).slope(&s, pe), 0.0);
 }
