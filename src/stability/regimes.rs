@@ -1,13 +1,12 @@
 //! Which regimes a policy creates around the steady state, and which one holds it.
 //!
-//! Regimes (each a clearing function for the state-space map):
-//! - free market: P = D⁻¹(S(P^e)); also "stock idle" inside a band, where a target-release store
-//!   takes a constant net offtake ℓ·S* (its losses) and a band or share store takes none;
-//! - floor binding (purchase) and stock buying at `buy_below`: the market price is pinned at the
-//!   defended price while the store has room, so dP/dP^e = 0;
-//! - stock selling at `sell_above`: pinned at the upper edge while stock lasts;
-//! - deficiency payment binding: the producer price is pinned at the floor (the market clears
-//!   freely below it), so expectations formed on producer prices are anchored.
+//! Each policy rule adds its own regimes (`policies::Rule::regimes`, in its rule file) to a
+//! [`Regimes`], in acting order; this file holds what they share — the case type, the purchase
+//! regime that holds below a defended price ([`Regimes::purchase_holds`]) — and adds the free market.
+//! A regime is a [`RegimePrice`] for the state-space map: free (P = D⁻¹(S(P^e) − offtake)), pinned
+//! (a defended floor, band edge or ceiling: dP/dP^e = 0), or paid (a deficiency payment pins the
+//! producer price while the market clears freely, so expectations formed on producer prices are
+//! anchored).
 //!
 //! A pinned purchase regime holds the steady state only when the stock it builds settles: buying
 //! X = S(P^e*) − D(F) a period with loss rate ℓ the stock settles at X/ℓ (if the store is big enough).
