@@ -324,7 +324,7 @@ fn binary_exits_2_and_names_the_key_on_a_sample() {
 use common::{bin, linear_market, policy, stdout_of};
 use furrow::scenario::policy_for_market;
 use furrow::scenario::ranges::{self, range_of};
-use furrow::scenario::raw::Kind;
+use furrow::scenario::raw::ValueType;
 use furrow::scenario::schema;
 
 fn tmp(dir: &tempfile::TempDir, name: &str, text: &str) -> String {
@@ -522,7 +522,10 @@ fn every_numeric_key_has_a_finite_range_and_the_readme_lists_it() {
             for (key, kind) in keys {
                 if matches!(
                     kind,
-                    Kind::Number | Kind::Integer | Kind::Numbers | Kind::NumberOrNumbers
+                    ValueType::Number
+                        | ValueType::Integer
+                        | ValueType::Numbers
+                        | ValueType::NumberOrNumbers
                 ) {
                     let dotted = format!("{section}.{key}");
                     assert!(range_of(&dotted).is_some(), "{dotted} has no range");

@@ -48,7 +48,7 @@ fn every_registered_rule_answers_every_behaviour() {
         for key in section.keys {
             let numeric = !matches!(
                 key.kind,
-                scenario::raw::Kind::Text | scenario::raw::Kind::Bool
+                scenario::raw::ValueType::Text | scenario::raw::ValueType::Bool
             );
             assert_eq!(numeric, key.range.is_some(), "{what}: {}", key.name);
             let dotted = format!("{name}.{}", key.name);

@@ -17,7 +17,7 @@ use serde::Deserialize;
 use super::rule::{rank, rule_ref, Build, Cell, Row, Rule, RuleRef, Section, Watched};
 use super::{flags, Agency, BandStock, Clearing, PolicyRule};
 use crate::scenario::ranges::{escape, noted, r, short_num, BIG};
-use crate::scenario::raw::Kind;
+use crate::scenario::raw::ValueType;
 use crate::scenario::schema::Key;
 use crate::scenario::validate::{deserialize_section, Check};
 use crate::scenario::{InputError, Scenario};
@@ -32,7 +32,7 @@ pub const SECTION: Section = Section {
     keys: &[
         Key {
             name: "price",
-            kind: Kind::Number,
+            kind: ValueType::Number,
             range: Some(noted(
                 r("ceiling.price", 0.0, BIG, true, false),
                 "release: above the floor's and the stock's buying prices",
@@ -40,7 +40,7 @@ pub const SECTION: Section = Section {
         },
         Key {
             name: "instrument",
-            kind: Kind::Text,
+            kind: ValueType::Text,
             range: None,
         },
     ],

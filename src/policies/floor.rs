@@ -6,7 +6,7 @@ use serde::Deserialize;
 use super::rule::{rank, rule_ref, Build, Cell, Row, Rule, RuleRef, Section, Watched};
 use super::{flags, Agency, Clearing, PolicyRule};
 use crate::scenario::ranges::{noted, r, short_num, BIG};
-use crate::scenario::raw::Kind;
+use crate::scenario::raw::ValueType;
 use crate::scenario::schema::Key;
 use crate::scenario::validate::{deserialize_section, Check};
 use crate::scenario::{InputError, Scenario};
@@ -21,7 +21,7 @@ pub const SECTION: Section = Section {
     keys: &[
         Key {
             name: "price",
-            kind: Kind::Number,
+            kind: ValueType::Number,
             range: Some(noted(
                 r("floor.price", 0.0, BIG, true, false),
                 "purchase: below linear demand's choke price",
@@ -29,12 +29,12 @@ pub const SECTION: Section = Section {
         },
         Key {
             name: "instrument",
-            kind: Kind::Text,
+            kind: ValueType::Text,
             range: None,
         },
         Key {
             name: "announced",
-            kind: Kind::Bool,
+            kind: ValueType::Bool,
             range: None,
         },
     ],

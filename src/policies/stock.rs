@@ -8,7 +8,7 @@ use serde::Deserialize;
 use super::rule::{rank, rule_ref, Build, Cell, Row, Rule, RuleRef, Section, Watched};
 use super::{Agency, BandStock, ShareStock, TargetStock};
 use crate::scenario::ranges::{escape, noted, r, short_num, BIG, MONEY};
-use crate::scenario::raw::Kind;
+use crate::scenario::raw::ValueType;
 use crate::scenario::schema::Key;
 use crate::scenario::validate::{deserialize_section, Check};
 use crate::scenario::{InputError, Scenario};
@@ -20,7 +20,7 @@ use crate::storage::agency::{Release as StorageRelease, StockPlan, StoragePlan};
 const fn num(name: &'static str, range: crate::scenario::ranges::KeyRange) -> Key {
     Key {
         name,
-        kind: Kind::Number,
+        kind: ValueType::Number,
         range: Some(range),
     }
 }
@@ -52,7 +52,7 @@ pub const SECTION: Section = Section {
         num("handling_cost", r("stock.handling_cost", 0.0, BIG, false, false)),
         Key {
             name: "release",
-            kind: Kind::Text,
+            kind: ValueType::Text,
             range: None,
         },
         num(

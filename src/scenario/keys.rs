@@ -2,7 +2,7 @@
 //! key overrides (`--vary supply.slope=...`).
 
 use super::ranges::escape;
-use super::raw::Kind;
+use super::raw::ValueType;
 use super::InputError;
 
 /// Parses TOML text, naming the file in the error (the parser's message carries line and column).
@@ -53,14 +53,14 @@ pub fn check_keys(
                 });
             };
             let fits = match kind {
-                Kind::Number => v.is_float() || v.is_integer(),
-                Kind::Integer => v.is_integer(),
-                Kind::Text => v.is_str(),
-                Kind::Bool => v.is_bool(),
-                Kind::Numbers => v
+                ValueType::Number => v.is_float() || v.is_integer(),
+                ValueType::Integer => v.is_integer(),
+                ValueType::Text => v.is_str(),
+                ValueType::Bool => v.is_bool(),
+                ValueType::Numbers => v
                     .as_array()
                     .is_some_and(|a| a.iter().all(|x| x.is_float() || x.is_integer())),
-                Kind::NumberOrNumbers => {
+                ValueType::NumberOrNumbers => {
                     v.is_float()
                         || v.is_integer()
                         || v.as_array()
@@ -69,12 +69,14 @@ pub fn check_keys(
             };
             if !fits {
                 let want = match kind {
-                    Kind::Number => "must be a number",
-                    Kind::Integer => "must be a whole number",
-                    Kind::Text => "must be a quoted string",
-                    Kind::Bool => "must be true or false",
-                    Kind::Numbers => "must be an array of numbers, e.g. [90.0, 95.0]",
-                    Kind::NumberOrNumbers => "must be a number or an array of numbers, e.g. 230.0",
+                    ValueType::Number => "must be a number",
+                    ValueType::Integer => "must be a whole number",
+                    ValueType::Text => "must be a quoted string",
+                    ValueType::Bool => "must be true or false",
+                    ValueType::Numbers => "must be an array of numbers, e.g. [90.0, 95.0]",
+                    ValueType::NumberOrNumbers => {
+                        "must be a number or an array of numbers, e.g. 230.0"
+                    }
                 };
                 return Err(InputError::BadValue {
                     file: file.into(),

@@ -91,7 +91,7 @@ pub struct RawPolicy {
 
 /// The type a key's value must have.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
-pub enum Kind {
+pub enum ValueType {
     /// A number (integer or float).
     Number,
     /// A whole number.
@@ -106,11 +106,11 @@ pub enum Kind {
     NumberOrNumbers,
 }
 
-use Kind::*;
+use ValueType::*;
 
 /// The keys each section allows and their types, for the unknown-key check (with nearest-key
 /// suggestions) and the type check.
-pub const MARKET_SCHEMA: &[(&str, &[(&str, Kind)])] = &[
+pub const MARKET_SCHEMA: &[(&str, &[(&str, ValueType)])] = &[
     (
         "market",
         &[
@@ -160,12 +160,12 @@ pub const MARKET_SCHEMA: &[(&str, &[(&str, Kind)])] = &[
 
 /// The keys of a policy file's own sections (`[policy]` first, `[expectations]` last); the rule
 /// sections between them come from the registry (`scenario::schema::policy`).
-pub const POLICY_GENERAL_SCHEMA: &[(&str, &[(&str, Kind)])] = &[
+pub const POLICY_GENERAL_SCHEMA: &[(&str, &[(&str, ValueType)])] = &[
     ("policy", &[("name", Text), ("annual_budget", Number)]),
     ("expectations", EXPECTATION_KEYS),
 ];
 
-const CURVE_KEYS: &[(&str, Kind)] = &[
+const CURVE_KEYS: &[(&str, ValueType)] = &[
     ("form", Text),
     ("intercept", Number),
     ("slope", Number),
@@ -173,7 +173,7 @@ const CURVE_KEYS: &[(&str, Kind)] = &[
     ("at_quantity", Number),
     ("elasticity", Number),
 ];
-const EXPECTATION_KEYS: &[(&str, Kind)] = &[
+const EXPECTATION_KEYS: &[(&str, ValueType)] = &[
     ("rule", Text),
     ("weight", Number),
     ("window", Integer),

@@ -6,7 +6,7 @@
 //! `policies::SECTIONS`.
 
 use super::ranges::KeyRange;
-use super::raw::{Kind, MARKET_SCHEMA, POLICY_GENERAL_SCHEMA};
+use super::raw::{ValueType, MARKET_SCHEMA, POLICY_GENERAL_SCHEMA};
 
 /// One key of a rule section: name, type and (numeric keys) range.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -14,13 +14,13 @@ pub struct Key {
     /// The key within its section, e.g. `price`.
     pub name: &'static str,
     /// Its type.
-    pub kind: Kind,
+    pub kind: ValueType,
     /// Its range (numeric keys), with the dotted key.
     pub range: Option<KeyRange>,
 }
 
 /// Sections with their keys and types.
-pub type Schema = Vec<(&'static str, Vec<(&'static str, Kind)>)>;
+pub type Schema = Vec<(&'static str, Vec<(&'static str, ValueType)>)>;
 
 /// The market file's schema.
 pub fn market() -> Schema {
