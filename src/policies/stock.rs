@@ -15,7 +15,9 @@ use crate::scenario::{InputError, Scenario};
 use crate::stability::regimes::{RegimeCase, Regimes};
 use crate::stability::StabilityError;
 use crate::stability::{RegimePrice, StateMap};
-use crate::storage::agency::{Release as StorageRelease, StockPlan, StoragePlan};
+use crate::storage::agency::{
+    Band, Decision, Regime, Release as StorageRelease, StockPlan, StoragePlan,
+};
 
 const fn num(name: &'static str, range: crate::scenario::ranges::KeyRange) -> Key {
     Key {
@@ -535,6 +537,97 @@ impl Rule for Stock {
     fn watch(&self, w: &mut Watched) {
         if self.buy_below > 0.0 || self.sell_above.is_finite() {
             w.band = Some((self.buy_below, self.sell_above));
+        }
+    }
+}
+
+/// The `[stock]` rule's decision inside the storage equilibrium, before the purchase budget's cut
+/// (`storage::agency::decide`): the band first (buy to `buy_below` until full, sell to `sell_above`
+/// until empty; a purchase floor and a ceiling by release set these edges), then inside the band the
+/// target rule (trade speed·(target − g), never pushing the price past the band's middle) or the
+/// drawdown rule (release share·g, never pushing the price below `buy_below`), as the period actions
+/// `stock_band.rs`, `stock_target.rs`, `stock_share.rs` do (`tests/rules.rs` checks they agree).
+/// `pg(G)` is the price (and dP/dz) at end-of-period public stock G; returns the price, dP/dz, the
+/// regime and the decision.
+#[inline]
+pub fn decide_in_storage<F: Fn(f64) -> (f64, f64)>(
+    band: &Band,
+    g: f64,
+    pg: &F,
+) -> (f64, f64, Regime, Decision) {
+    let fixed = |gg: f64, regime: Regime| {
+        let (p, d) = pg(gg);
+        (p, d, regime, Decision::Stock(gg))
+    };
+    let held = |price: f64, lo: f64, hi: f64, regime: Regime| {
+        (price, 0.0, regime, Decision::AtPrice { price, lo, hi })
+    };
+    let (p, d) = pg(g);
+    let cap = band.capacity;
+    if p < band.buy_below {
+        let (pc, _) = pg(cap);
+        return if pc < band.buy_below {
+            fixed(cap, Regime::Full)
+        } else {
+            held(band.buy_below, g, cap, Regime::Buying)
+        };
+    }
+    match band.release {
+        StorageRelease::Band | StorageRelease::Target { .. } if p > band.sell_above => {
+            let (p0, _) = pg(0.0);
+            if p0 > band.sell_above {
+                fixed(0.0, Regime::Empty)
+            } else {
+                held(band.sell_above, 0.0, g, Regime::Selling)
+            }
+        }
+        StorageRelease::Band => (p, d, Regime::Inside, Decision::Stock(g)),
+        StorageRelease::Target { target, speed } => {
+            let middle = if band.sell_above.is_finite() {
+                0.5 * (band.buy_below + band.sell_above)
+            } else {
+                f64::INFINITY
+            };
+            let gap = speed * (target - g);
+            if gap > 0.0 && p < middle {
+                let to = (g + gap).min(cap);
+                if pg(to).0 <= middle {
+                    fixed(to, Regime::Steering)
+                } else {
+                    held(middle, g, to, Regime::Steering)
+                }
+            } else if gap < 0.0 && p > middle.min(band.sell_above) {
+                let limit = middle.min(band.sell_above);
+                let to = (g + gap).max(0.0);
+                if pg(to).0 >= limit {
+                    fixed(to, Regime::Steering)
+                } else {
+                    held(limit, to, g, Regime::Steering)
+                }
+            } else {
+                (p, d, Regime::Inside, Decision::Stock(g))
+            }
+        }
+        StorageRelease::Share { share } => {
+            let to = (1.0 - share) * g;
+            if p > band.sell_above {
+                let (p0, _) = pg(0.0);
+                if p0 > band.sell_above {
+                    return fixed(0.0, Regime::Empty);
+                }
+                if pg(to).0 >= band.sell_above {
+                    // the band's sale already releases at least the share
+                    return held(band.sell_above, 0.0, g, Regime::Selling);
+                }
+            }
+            if to >= g {
+                return (p, d, Regime::Inside, Decision::Stock(g));
+            }
+            if pg(to).0 >= band.buy_below {
+                fixed(to, Regime::Rotating)
+            } else {
+                held(band.buy_below, to, g, Regime::Rotating)
+            }
         }
     }
 }

@@ -4,11 +4,10 @@
 //! adds itself to a [`StoragePlan`], and [`band_of`] turns the plan into the agency's [`Band`].
 //! Given the state (availability z, public stock g carried in) and the price that would result
 //! from any end-of-period public stock G, pg(G) = P(y = z + g − G, G) (increasing in G), [`decide`]
-//! fixes G as the period engine's rules do (`src/policies/`): the band first (buy to `buy_below`
-//! until full, sell to `sell_above` until empty), then, inside the band, the target rule (trade
-//! speed·(target − g), never pushing the price past the band's middle) or the share rule (release
-//! share·g, never pushing the price below `buy_below`, unless the band bought); a ceiling defended
-//! by release lowers the selling edge to the ceiling. `tests/rules.rs` runs the engine's period
+//! fixes G as the period engine's rules do: the stock rule decides (`policies::stock::
+//! decide_in_storage`, in the rule's own file: the band, then the target or drawdown rule inside
+//! it; a purchase floor and a ceiling by release set the band's edges), then the purchase budget
+//! cuts what it spends (here). `tests/rules.rs` runs the engine's period
 //! decision and this one on the same states and checks they agree.
 
 use super::StorageError;
@@ -221,7 +220,8 @@ pub fn decide<F: Fn(f64) -> (f64, f64)>(
     g: f64,
     pg: &F,
 ) -> (f64, f64, Regime, Decision) {
-    let out = decide_unbudgeted(band, g, pg);
+    // the stock rule decides (with the edges a purchase floor and a ceiling set), in its own file
+    let out = crate::policies::stock::decide_in_storage(band, g, pg);
     if band.budget.is_finite() {
         if let Some((lo, hi)) = budget_bracket(band.budget, g, out.0, out.3, pg) {
             return spend_budget(band.budget, g, lo, hi, pg);
@@ -274,90 +274,6 @@ fn spend_budget<F: Fn(f64) -> (f64, f64)>(
         p_y
     };
     (p, slope, Regime::BudgetBound, Decision::Stock(to))
-}
-
-/// The rule's decision without a purchase budget.
-#[inline]
-fn decide_unbudgeted<F: Fn(f64) -> (f64, f64)>(
-    band: &Band,
-    g: f64,
-    pg: &F,
-) -> (f64, f64, Regime, Decision) {
-    let fixed = |gg: f64, regime: Regime| {
-        let (p, d) = pg(gg);
-        (p, d, regime, Decision::Stock(gg))
-    };
-    let held = |price: f64, lo: f64, hi: f64, regime: Regime| {
-        (price, 0.0, regime, Decision::AtPrice { price, lo, hi })
-    };
-    let (p, d) = pg(g);
-    let cap = band.capacity;
-    if p < band.buy_below {
-        let (pc, _) = pg(cap);
-        return if pc < band.buy_below {
-            fixed(cap, Regime::Full)
-        } else {
-            held(band.buy_below, g, cap, Regime::Buying)
-        };
-    }
-    match band.release {
-        Release::Band | Release::Target { .. } if p > band.sell_above => {
-            let (p0, _) = pg(0.0);
-            if p0 > band.sell_above {
-                fixed(0.0, Regime::Empty)
-            } else {
-                held(band.sell_above, 0.0, g, Regime::Selling)
-            }
-        }
-        Release::Band => (p, d, Regime::Inside, Decision::Stock(g)),
-        Release::Target { target, speed } => {
-            let middle = if band.sell_above.is_finite() {
-                0.5 * (band.buy_below + band.sell_above)
-            } else {
-                f64::INFINITY
-            };
-            let gap = speed * (target - g);
-            if gap > 0.0 && p < middle {
-                let to = (g + gap).min(cap);
-                if pg(to).0 <= middle {
-                    fixed(to, Regime::Steering)
-                } else {
-                    held(middle, g, to, Regime::Steering)
-                }
-            } else if gap < 0.0 && p > middle.min(band.sell_above) {
-                let limit = middle.min(band.sell_above);
-                let to = (g + gap).max(0.0);
-                if pg(to).0 >= limit {
-                    fixed(to, Regime::Steering)
-                } else {
-                    held(limit, to, g, Regime::Steering)
-                }
-            } else {
-                (p, d, Regime::Inside, Decision::Stock(g))
-            }
-        }
-        Release::Share { share } => {
-            let to = (1.0 - share) * g;
-            if p > band.sell_above {
-                let (p0, _) = pg(0.0);
-                if p0 > band.sell_above {
-                    return fixed(0.0, Regime::Empty);
-                }
-                if pg(to).0 >= band.sell_above {
-                    // the band's sale already releases at least the share
-                    return held(band.sell_above, 0.0, g, Regime::Selling);
-                }
-            }
-            if to >= g {
-                return (p, d, Regime::Inside, Decision::Stock(g));
-            }
-            if pg(to).0 >= band.buy_below {
-                fixed(to, Regime::Rotating)
-            } else {
-                held(band.buy_below, to, g, Regime::Rotating)
-            }
-        }
-    }
 }
 
 #[cfg(test)]
