@@ -177,6 +177,7 @@ fn fan_png_and_svg() {
             .collect(),
         mean: Some(vec![211.0; 30]),
         colour: None,
+        stride: 1,
     };
     let p = fan(
         "Price fan",

@@ -5,8 +5,8 @@ use std::path::{Path, PathBuf};
 use std::process::Command;
 
 use assert_cmd::cargo::CommandCargoExt;
+use furrow::briefing::{Briefing, Section};
 use furrow::output::TextTable;
-use furrow::report::{Briefing, Section};
 
 const MARKET: &str = "examples/veldmark.toml";
 const POLICIES: &[&str] = &["policies/support_purchase.toml", "policies/price_band.toml"];
@@ -67,6 +67,7 @@ fn briefing_escapes_text_and_inlines_svg() {
         caution: "Model results, not forecasts.".into(),
         sections: vec![s],
         provenance: vec![("seed".into(), "7".into())],
+        ..Default::default()
     };
     let html = b.to_html();
     assert_self_contained(&html);
