@@ -84,6 +84,11 @@ fn range(p: &PolicyComparison, key: &str, scale: &MoneyScale) -> String {
     }
 }
 
+/// A range for a table cell: kept on one line (no-break spaces).
+fn range_cell(p: &PolicyComparison, key: &str, scale: &MoneyScale) -> String {
+    range(p, key, scale).replace(' ', "\u{a0}")
+}
+
 fn two_lines(first: String, second: String) -> String {
     if second.is_empty() {
         first
@@ -216,7 +221,16 @@ pub fn first_page(r: &CompareResult, intervenes: &[bool], storers: bool) -> Firs
             if tied.is_empty() {
                 let rng = range(best, "net_welfare_change_pv", &pv);
                 answer.push(format!(
-                    "“{}” gives the largest {what}: {} {} against leaving the market alone{}.",
+                    "{}“{}” gives the largest {what}: {} {} against leaving the market alone{}.",
+                    if gains.len() > 1 {
+                        format!(
+                            "{} of the {} schemes beat leaving the market alone; ",
+                            gains.len(),
+                            schemes.len()
+                        )
+                    } else {
+                        String::new()
+                    },
                     best.name,
                     pv.show(net(best)),
                     pv.label,
@@ -345,7 +359,7 @@ pub fn first_page(r: &CompareResult, intervenes: &[bool], storers: bool) -> Firs
             }
             two_lines(
                 num(p, key).map_or("n/a".into(), |x| pv.show(x)),
-                range(p, key, &pv),
+                range_cell(p, key, &pv),
             )
         };
         let net_cell = if k == 0 {
@@ -363,7 +377,7 @@ pub fn first_page(r: &CompareResult, intervenes: &[bool], storers: bool) -> Firs
             };
             two_lines(
                 format!("{first} ({tag})"),
-                range(p, "net_welfare_change_pv", &pv),
+                range_cell(p, "net_welfare_change_pv", &pv),
             )
         };
         let who = if k == 0 {

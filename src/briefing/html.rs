@@ -85,7 +85,7 @@ nav.toc a { color: var(--lake); margin-right: 14px; text-decoration: none; }
 table { border-collapse: collapse; margin: 8px 0 6px; font-size: 14px; width: auto; max-width: 100%; }
 .tablewrap { overflow-x: auto; max-width: 100%; }
 .tablegroup { margin: 10px 0 14px; }
-th, td { overflow-wrap: anywhere; }
+th, td { overflow-wrap: break-word; }
 section.keyfigures table { width: 100%; }
 section.keyfigures td, section.keyfigures th { font-size: 13px; }
 section.caveats { font-size: 14px; color: var(--ink); }

@@ -227,8 +227,12 @@ fn cell_html(c: &str) -> String {
     c.split('\n').map(escape).collect::<Vec<_>>().join("<br>")
 }
 
-fn render_table(out: &mut String, caption: &str, t: &TextTable) {
-    let blocks = column_blocks(t);
+fn render_table(out: &mut String, caption: &str, t: &TextTable, split: bool) {
+    let blocks = if split {
+        column_blocks(t)
+    } else {
+        vec![(0..t.headers.len()).collect()]
+    };
     // A column is right-aligned when every non-empty cell in it is a number.
     let numeric: Vec<bool> = (0..t.headers.len())
         .map(|j| {
@@ -316,7 +320,7 @@ impl Briefing {
             o.push_str("</ul></section>\n");
             if let Some((caption, t)) = &self.key_table {
                 o.push_str("<section class=\"keyfigures\" id=\"key-figures\">\n");
-                render_table(&mut o, caption, t);
+                render_table(&mut o, caption, t, false);
                 o.push_str("</section>\n");
             }
             if !self.caveats.is_empty() {
@@ -350,7 +354,7 @@ impl Briefing {
                 match b {
                     Block::Paragraph(t) => o.push_str(&format!("<p>{}</p>\n", escape(t))),
                     Block::Note(t) => o.push_str(&format!("<p class=\"note\">{}</p>\n", escape(t))),
-                    Block::Table { caption, table } => render_table(&mut o, caption, table),
+                    Block::Table { caption, table } => render_table(&mut o, caption, table, true),
                     Block::Figure { caption, svg } => {
                         o.push_str("<figure>\n");
                         o.push_str(&inline_svg(svg, caption));
@@ -372,6 +376,7 @@ impl Briefing {
             &mut o,
             "How this briefing was produced (re-running with these inputs gives the same numbers)",
             &t,
+            true,
         );
         o.push_str("</section>\n");
         if !self.caution.is_empty() {
