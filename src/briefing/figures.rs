@@ -99,7 +99,8 @@ pub fn path_figures(
     let stride = runs.first().map_or(1, |d| d.stride);
     let thinned = if stride > 1 {
         format!(
-            "; {periods} seasons drawn as the lowest and highest value of every {stride} (full data: `run --format csv`)"
+            "; {} seasons drawn as the lowest and highest value of every {stride}",
+            crate::units::group(periods as f64, 0)
         )
     } else {
         String::new()
@@ -162,6 +163,12 @@ pub fn path_figures(
     ];
     // fiscal charts: only policies that spend or receive something
     let spenders: Vec<&PathDigest> = runs.iter().filter(|d| !d.no_fiscal).collect();
+    let palette: Vec<usize> = runs
+        .iter()
+        .enumerate()
+        .filter(|(_, d)| !d.no_fiscal)
+        .map(|(i, _)| i)
+        .collect();
     if spenders.is_empty() {
         return figs;
     }
@@ -173,12 +180,15 @@ pub fn path_figures(
         })
         .collect();
     let money = scale_money(&units, &mut per_season);
-    let fiscal = plots::fiscal(
+    let mut fiscal = plots::fiscal(
         &format!("{}: fiscal cost by period", m.name),
         "period (season)",
         &format!("fiscal cost ({money})"),
         per_season,
     );
+    if let Plot::Lines(l) = &mut fiscal {
+        l.palette = palette.clone();
+    }
     let mut cumulative: Vec<Series> = spenders
         .iter()
         .map(|d| Series {
@@ -198,6 +208,7 @@ pub fn path_figures(
             "running total, undiscounted; stock still held is not yet credited".into();
         l.include_zero = true;
         l.reference_first = false;
+        l.palette = palette;
     }
     figs.push(Figure {
         stem: "fiscal_cost".into(),

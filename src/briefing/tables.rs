@@ -119,10 +119,9 @@ pub fn figures(r: &CompareResult) -> Vec<Figure> {
             plot,
         });
     }
-    let spenders: Vec<&&PolicyComparison> = cols
-        .iter()
-        .filter(|p| p.fan.mean_fiscal_cost.iter().any(|x| *x != 0.0))
-        .collect();
+    let spends = |p: &PolicyComparison| p.fan.mean_fiscal_cost.iter().any(|x| *x != 0.0);
+    let spenders: Vec<&&PolicyComparison> = cols.iter().filter(|p| spends(p)).collect();
+    let palette: Vec<usize> = (0..cols.len()).filter(|&i| spends(cols[i])).collect();
     if spenders.is_empty() {
         return figs;
     }
@@ -144,18 +143,22 @@ pub fn figures(r: &CompareResult) -> Vec<Figure> {
     for s in &mut per_season {
         s.points.iter_mut().for_each(|p| p.1 /= scale.divisor);
     }
+    let mut plot = plots::fiscal(
+        &format!("{}: mean fiscal cost by period", r.market),
+        "period (season)",
+        &format!("mean fiscal cost ({})", scale.label),
+        per_season,
+    );
+    if let plots::Plot::Lines(l) = &mut plot {
+        l.palette = palette.clone();
+    }
     figs.push(Figure {
         stem: "fiscal_cost_mean".into(),
         caption: format!(
             "Mean fiscal cost per season over {} simulated weather paths (policies that spend nothing are left out).",
             r.replications
         ),
-        plot: plots::fiscal(
-            &format!("{}: mean fiscal cost by period", r.market),
-            "period (season)",
-            &format!("mean fiscal cost ({})", scale.label),
-            per_season,
-        ),
+        plot,
     });
     let mut cumulative: Vec<Series> = spenders
         .iter()
@@ -193,6 +196,7 @@ pub fn figures(r: &CompareResult) -> Vec<Figure> {
         );
         l.include_zero = true;
         l.reference_first = false;
+        l.palette = palette;
     }
     figs.push(Figure {
         stem: "fiscal_cumulative_mean".into(),

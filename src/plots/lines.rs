@@ -3,6 +3,7 @@
 
 use plotters::coord::Shift;
 use plotters::prelude::*;
+use plotters::style::RGBColor;
 
 use super::frame::{builder, de, frame, mesh, Titles};
 use super::style::{self, LegendEntry, LegendKey};
@@ -61,20 +62,37 @@ pub struct LineChart {
     /// The first series is the market left alone: with more than [`OVERLAY_MAX`] series the chart
     /// becomes small multiples, one panel per other series with the first in grey behind it.
     pub reference_first: bool,
+    /// Palette index of each series (keeps a policy's colour the same across figures when some
+    /// series are left out); empty or short: the series' position.
+    pub palette: Vec<usize>,
 }
 
 /// Most lines overlaid in one chart; beyond, one panel per policy (small multiples).
 pub const OVERLAY_MAX: usize = 4;
 
 impl LineChart {
+    /// The colour of series `i`.
+    pub fn colour(&self, i: usize) -> RGBColor {
+        style::series_colour(self.palette.get(i).copied().unwrap_or(i))
+    }
+
     /// True when drawn as small multiples.
     pub fn is_panelled(&self) -> bool {
-        self.reference_first && self.series.len() > OVERLAY_MAX
+        self.series.len() > OVERLAY_MAX
+    }
+
+    /// The series that get a panel each: all but the first when it is the reference.
+    fn panel_series(&self) -> usize {
+        if self.reference_first {
+            1
+        } else {
+            0
+        }
     }
 
     /// Panels (columns, rows) of the small multiples: one per series after the first.
     pub fn panel_grid(&self) -> (usize, usize) {
-        let n = self.series.len().saturating_sub(1).max(1);
+        let n = (self.series.len() - self.panel_series().min(self.series.len())).max(1);
         let cols = if n <= 4 { 2 } else { 3 };
         (cols, n.div_ceil(cols))
     }
@@ -104,6 +122,7 @@ pub fn paths(title: &str, x_label: &str, y_label: &str, series: Vec<Series>) -> 
         include_zero: false,
         series_references: Vec::new(),
         reference_first: true,
+        palette: Vec::new(),
     })
 }
 
@@ -149,6 +168,7 @@ pub fn fiscal(title: &str, x_label: &str, y_label: &str, series: Vec<Series>) ->
             include_zero: true,
             series_references: Vec::new(),
             reference_first: false,
+            palette: Vec::new(),
         })
     }
 }
@@ -186,7 +206,7 @@ impl LineChart {
             .enumerate()
             .map(|(i, s)| LegendEntry {
                 name: s.name.clone(),
-                colour: style::series_colour(i),
+                colour: self.colour(i),
                 key: LegendKey::Line,
             })
             .collect();
@@ -245,7 +265,7 @@ impl LineChart {
                     vec![(x0, r.value), (x1, r.value)],
                     10,
                     6,
-                    style::series_colour(*i).stroke_width(2),
+                    self.colour(*i).stroke_width(2),
                 ))
                 .map_err(de)?;
         }
@@ -260,7 +280,7 @@ impl LineChart {
         let crowded = self.series.len() > 4;
         let width = if crowded { 2 } else { 3 };
         for (i, s) in self.series.iter().enumerate() {
-            let c = style::series_colour(i);
+            let c = self.colour(i);
             for run in finite_runs(&s.points) {
                 chart
                     .draw_series(LineSeries::new(run.clone(), c.stroke_width(width)))
@@ -288,7 +308,7 @@ impl LineChart {
         let (cols, rows) = self.panel_grid();
         let grey = style::MUTED;
         let mut legend = Vec::new();
-        if let Some(first) = self.series.first() {
+        if let Some(first) = self.series.first().filter(|_| self.reference_first) {
             legend.push(LegendEntry {
                 name: format!("{} (grey, in every panel)", first.name),
                 colour: grey,
@@ -310,19 +330,19 @@ impl LineChart {
             });
         }
         let mut titles = self.titles.clone();
-        titles.subtitle = format!(
-            "{}{}x: {}; y: {}",
-            titles.subtitle,
-            if titles.subtitle.is_empty() { "" } else { "; " },
-            self.x_label,
-            self.y_label
-        );
+        // panels have no axis titles: the y quantity and unit go into the subtitle
+        titles.subtitle = if titles.subtitle.is_empty() {
+            format!("y: {}", self.y_label)
+        } else {
+            format!("y: {}; {}", self.y_label, titles.subtitle)
+        };
         let body = frame(root, &titles, &legend)?;
         let (x0, x1) = x_range(&self.series);
         let panels = body.split_evenly((rows, cols));
-        for (k, (s, area)) in self.series.iter().skip(1).zip(panels.iter()).enumerate() {
-            let i = k + 1;
-            let c = style::series_colour(i);
+        let skip = self.panel_series();
+        for (k, (s, area)) in self.series.iter().skip(skip).zip(panels.iter()).enumerate() {
+            let i = k + skip;
+            let c = self.colour(i);
             let mut chart = ChartBuilder::on(area)
                 .margin(6)
                 .margin_right(14)
@@ -374,7 +394,7 @@ impl LineChart {
                     ))
                     .map_err(de)?;
             }
-            if let Some(first) = self.series.first() {
+            if let Some(first) = self.series.first().filter(|_| self.reference_first) {
                 for run in finite_runs(&first.points) {
                     chart
                         .draw_series(LineSeries::new(run, grey.mix(0.7).stroke_width(2)))

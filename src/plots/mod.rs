@@ -104,6 +104,7 @@ impl Plot {
         match self {
             Plot::Fan(f) => (style::WIDTH, fan::height(f.bands.len())),
             Plot::Lines(l) => (style::WIDTH, l.height()),
+            Plot::Eigen(e) => (style::WIDTH, eigen::height(e.groups())),
             _ => (style::WIDTH, style::HEIGHT),
         }
     }

@@ -160,6 +160,12 @@ pub enum LegendKey {
     Dot,
     /// A solid box (bars).
     Bar,
+    /// A filled square (scatter points of a second group).
+    Square,
+    /// A filled triangle (a third group).
+    Triangle,
+    /// A cross (a fourth group, or points apart from the data).
+    Cross,
 }
 
 /// Left edge of the legend strip's first key, in pixels.
