@@ -45,8 +45,6 @@ pub fn verdict(x: f64, se: Option<f64>) -> Verdict {
         Verdict::Gains
     } else if x < -noise {
         Verdict::Loses
-    } else if noise == 0.0 && x < 0.0 {
-        Verdict::Loses
     } else {
         Verdict::WithinNoise
     }

@@ -58,7 +58,7 @@ impl Thinned {
                 }
             }
         }
-        if t % self.stride == 0 {
+        if t.is_multiple_of(self.stride) {
             self.flush();
         }
     }
