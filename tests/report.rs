@@ -516,3 +516,27 @@ fn report_states_the_steady_state_and_the_stability_verdict() {
     );
     assert!(html.contains(">stable<"));
 }
+
+/// Options a verb cannot honour are refused with a message naming them, never silently ignored.
+#[test]
+fn plots_are_refused_where_no_figure_is_drawn() {
+    let dir = tempfile::tempdir().unwrap();
+    for args in [
+        vec!["check", MARKET],
+        vec!["storage", "examples/veldmark_storers.toml"],
+    ] {
+        let o = Command::cargo_bin("furrow")
+            .unwrap()
+            .args(&args)
+            .arg("--plots")
+            .arg(dir.path().join("p"))
+            .output()
+            .unwrap();
+        assert_eq!(o.status.code(), Some(2), "{args:?}");
+        assert!(
+            String::from_utf8_lossy(&o.stderr).contains("--plots is not available"),
+            "{args:?}"
+        );
+        assert!(!dir.path().join("p").exists());
+    }
+}
