@@ -280,15 +280,28 @@ pub fn first_page(r: &CompareResult, intervenes: &[bool], storers: bool) -> Firs
         ) {
             let sd = num(steadiest, "price_sd").unwrap_or(base_sd);
             if sd < base_sd {
+                let outlay = num(steadiest, "fiscal_cost_season_mean").unwrap_or(0.0);
+                // a negative cost is a receipt and is said so
+                let treasury = if outlay < 0.0 {
+                    format!(
+                        "with the treasury taking in {} {} a season on average",
+                        season.show(-outlay),
+                        season.label
+                    )
+                } else {
+                    format!(
+                        "at an average treasury cost of {} {} a season",
+                        season.show(outlay),
+                        season.label
+                    )
+                };
                 answer.push(format!(
-                    "“{}” steadies the price most: standard deviation {} against {} {} left alone ({} less), at an average treasury cost of {} {} a season.",
+                    "“{}” steadies the price most: standard deviation {} against {} {} left alone ({} less), {treasury}.",
                     steadiest.name,
                     group(sd, 2),
                     group(base_sd, 2),
                     r.price_unit,
                     percent(1.0 - sd / base_sd.max(1e-12)),
-                    season.show(num(steadiest, "fiscal_cost_season_mean").unwrap_or(0.0)),
-                    season.label
                 ));
             } else {
                 answer.push(format!(
@@ -456,6 +469,120 @@ pub fn first_page(r: &CompareResult, intervenes: &[bool], storers: bool) -> Firs
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::compare::{CloseCall, Fan, Indicator, Kind, Value};
+
+    fn column(name: &str, baseline: bool, net: f64, se: f64) -> PolicyComparison {
+        let ind = |key: &str, v: f64| Indicator {
+            key: key.into(),
+            label: key.into(),
+            kind: Kind::Money,
+            value: Value::Number(v),
+        };
+        PolicyComparison {
+            name: name.into(),
+            file: String::new(),
+            is_baseline: baseline,
+            baseline: "No intervention".into(),
+            expectations: "naive".into(),
+            indicators: vec![
+                ind("mean_price", 200.0),
+                ind("price_sd", 20.0),
+                ind("fiscal_cost_pv", 50.0),
+                ind("fiscal_cost_season_mean", 5.0),
+                ind("fiscal_cost_season_p95", 9.0),
+                ind("net_welfare_change_pv", net),
+                ind("net_welfare_change_pv_se", se),
+                ind("net_welfare_change_pv_p05", net - 3.0 * se),
+                ind("net_welfare_change_pv_p95", net + 3.0 * se),
+            ],
+            warnings: vec![],
+            fan: Fan {
+                price: vec![],
+                stock: vec![],
+                mean_fiscal_cost: vec![],
+            },
+        }
+    }
+
+    fn result(policies: Vec<PolicyComparison>, close: Vec<(&str, &str)>) -> CompareResult {
+        CompareResult {
+            market: "m".into(),
+            price_unit: "crowns per t".into(),
+            quantity_unit: "kt".into(),
+            replications: 500,
+            periods: 30,
+            seed: 1,
+            discount_rate: 0.05,
+            risk_aversion: 2.0,
+            public_funds_cost: 1.0,
+            baseline: column("No intervention", true, 0.0, 0.0),
+            policies,
+            behaviour: vec![],
+            close_calls: close
+                .into_iter()
+                .map(|(a, b)| CloseCall {
+                    first: a.into(),
+                    second: b.into(),
+                    difference: 1.0,
+                    se: 1.0,
+                })
+                .collect(),
+        }
+    }
+
+    /// The answer follows the noise rules stated in the module (two standard errors; close calls).
+    #[test]
+    fn the_answer_never_ranks_losers_noise_or_ties() {
+        // all lose, one within noise of zero: no scheme beats the market left alone
+        let r = result(
+            vec![
+                column("A", false, -500.0, 10.0),
+                column("B", false, -5.0, 10.0),
+            ],
+            vec![],
+        );
+        let page = first_page(&r, &[true, true], false);
+        assert!(page.answer[0].starts_with("No scheme beats leaving the market alone"));
+        assert!(page.answer.iter().all(|s| !s.contains("largest")));
+        // a clear winner is named
+        let r = result(
+            vec![
+                column("A", false, 500.0, 10.0),
+                column("B", false, 100.0, 10.0),
+            ],
+            vec![],
+        );
+        let page = first_page(&r, &[true, true], false);
+        assert!(
+            page.answer[0].contains("“A” gives the largest"),
+            "{:?}",
+            page.answer
+        );
+        // two winners within noise of each other: neither is first
+        let r = result(
+            vec![
+                column("A", false, 500.0, 10.0),
+                column("B", false, 495.0, 10.0),
+            ],
+            vec![("A", "B")],
+        );
+        let page = first_page(&r, &[true, true], false);
+        assert!(
+            page.answer[0].contains("neither is ranked first"),
+            "{:?}",
+            page.answer
+        );
+        // a file that does not intervene is never a scheme
+        let r = result(vec![column("Idle", false, 900.0, 1.0)], vec![]);
+        let page = first_page(&r, &[false], false);
+        assert!(page.answer[0].starts_with("Only the market left alone"));
+        // the market left alone is the first row; every row is there
+        assert_eq!(page.table.rows[0][0], "No intervention");
+        assert!(page
+            .caveats
+            .iter()
+            .any(|c| c.contains("no private storage")));
+    }
 
     /// Two standard errors as the noise band is common practice (about a 95 % interval under a
     /// normal approximation), no source.
