@@ -563,3 +563,30 @@ fn monte_carlo_run_plots_fans() {
         assert_figure(&out, stem);
     }
 }
+
+/// A long zig-zag (a thinned path of thousands of seasons) stays inside its plotting area: the
+/// top strip of the PNG, above the title, is untouched paper (wide strokes of sharp zig-zags
+/// once drew spikes across the whole figure).
+#[test]
+fn dense_paths_stay_inside_the_chart() {
+    let values: Vec<f64> = (0..1800)
+        .map(|t| if t % 2 == 0 { 100.0 } else { 800.0 })
+        .collect();
+    let p = paths(
+        "dense",
+        "period",
+        "price",
+        vec![Series::periods("zig-zag", &values)],
+    );
+    let dir = tempfile::tempdir().unwrap();
+    let png = dir.path().join("dense.png");
+    p.write_png(&png).unwrap();
+    let img = image::open(&png).unwrap().to_rgb8();
+    let paper = furrow::plots::style::PAPER;
+    for y in 0..8 {
+        for x in 0..img.width() {
+            let px = img.get_pixel(x, y).0;
+            assert_eq!(px, [paper.0, paper.1, paper.2], "pixel ({x}, {y}) drawn on");
+        }
+    }
+}

@@ -119,9 +119,9 @@ pub fn path_figures(
     if let Plot::Lines(l) = &mut price {
         let lines = policies.iter().any(|p| !policy_lines(p).is_empty());
         l.titles.subtitle = format!(
-            "{shocks}; grey dashed: the steady-state price without intervention{}{thinned}",
+            "{shocks}; dashed: the steady state{}{thinned}",
             if lines {
-                "; coloured dashed: each policy's floor and band"
+                " (grey) and each policy's floor and band (its colour)"
             } else {
                 ""
             }

@@ -134,7 +134,8 @@ fn draw_centre<DB: DrawingBackend>(
     chart
         .draw_series(LineSeries::new(
             period_points(&b.p50, b.stride),
-            c.stroke_width(3),
+            // dense medians 1 px wide (wide zig-zags get spiky joins in the bitmap backend)
+            c.stroke_width(if b.p50.len() > 200 { 1 } else { 3 }),
         ))
         .map_err(de)?;
     if let Some(m) = &b.mean {

@@ -278,7 +278,22 @@ impl LineChart {
             > 60;
         // Many policies: thinner lines and no markers, so the overlaid paths stay apart.
         let crowded = self.series.len() > 4;
-        let width = if crowded { 2 } else { 3 };
+        // Dense series are drawn 1 px wide: wide strokes of a zig-zag get spiky joins in the bitmap
+        // backend that run far outside the plotting area.
+        let dense = self
+            .series
+            .iter()
+            .map(|s| s.points.len())
+            .max()
+            .unwrap_or(0)
+            > 200;
+        let width = if dense {
+            1
+        } else if crowded {
+            2
+        } else {
+            3
+        };
         for (i, s) in self.series.iter().enumerate() {
             let c = self.colour(i);
             for run in finite_runs(&s.points) {
@@ -340,6 +355,14 @@ impl LineChart {
         let (x0, x1) = x_range(&self.series);
         let panels = body.split_evenly((rows, cols));
         let skip = self.panel_series();
+        let dense = self
+            .series
+            .iter()
+            .map(|s| s.points.len())
+            .max()
+            .unwrap_or(0)
+            > 200;
+        let width = if dense { 1 } else { 2 };
         for (k, (s, area)) in self.series.iter().skip(skip).zip(panels.iter()).enumerate() {
             let i = k + skip;
             let c = self.colour(i);
@@ -397,13 +420,13 @@ impl LineChart {
             if let Some(first) = self.series.first().filter(|_| self.reference_first) {
                 for run in finite_runs(&first.points) {
                     chart
-                        .draw_series(LineSeries::new(run, grey.mix(0.7).stroke_width(2)))
+                        .draw_series(LineSeries::new(run, grey.mix(0.7).stroke_width(width)))
                         .map_err(de)?;
                 }
             }
             for run in finite_runs(&s.points) {
                 chart
-                    .draw_series(LineSeries::new(run, c.stroke_width(2)))
+                    .draw_series(LineSeries::new(run, c.stroke_width(width)))
                     .map_err(de)?;
             }
         }
