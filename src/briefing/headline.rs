@@ -164,10 +164,10 @@ pub fn first_page(r: &CompareResult, intervenes: &[bool], storers: bool) -> Firs
             let mut s = if noise.is_empty() {
                 format!(
                     "No scheme beats leaving the market alone: {} lower{} the {what}.",
-                    if loses.len() == 1 {
-                        "the one scheme compared".to_string()
-                    } else {
-                        format!("all {} schemes compared", loses.len())
+                    match loses.len() {
+                        1 => "the one scheme compared".to_string(),
+                        2 => "both schemes compared".to_string(),
+                        n => format!("all {n} schemes compared"),
                     },
                     if loses.len() == 1 { "s" } else { "" }
                 )
