@@ -22,6 +22,7 @@
 pub const CAUTION: &str = "These are model results under the stated assumptions, not forecasts. \
 Magnitudes depend on elasticities, expectations and shocks that are uncertain. Check them against official \
 analysis and the applicable law and rules before acting on them.";
+pub mod briefing;
 pub mod compare;
 pub mod curves;
 pub mod engine;
@@ -32,10 +33,10 @@ pub mod numeric;
 pub mod output;
 pub mod plots;
 pub mod policies;
-pub mod report;
 pub mod scenario;
 pub mod stability;
 pub mod stochastic;
 pub mod storage;
 pub mod sweep;
+pub mod units;
 pub mod welfare;

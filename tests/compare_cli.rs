@@ -248,3 +248,72 @@ fn revenue_cv_is_defined_when_revenue_underflows() {
         assert_eq!(c.parse::<f64>(), Ok(0.0), "{row}");
     }
 }
+
+/// Every shipped policy file (as a shell glob orders them).
+fn all_policy_files() -> Vec<String> {
+    let mut v: Vec<String> = std::fs::read_dir(format!("{}/policies", env!("CARGO_MANIFEST_DIR")))
+        .unwrap()
+        .filter_map(|e| e.ok())
+        .map(|e| e.path().to_string_lossy().to_string())
+        .filter(|n| n.ends_with(".toml"))
+        .collect();
+    v.sort();
+    v
+}
+
+/// `compare examples/veldmark_weather.toml policies/*.toml` fits a 120-column terminal in every
+/// layout and lists the market left alone first (P0), whatever the glob order; the long layout
+/// names every policy, the wide one splits into blocks (a terminal-width rule: common practice,
+/// no source).
+#[test]
+fn compare_of_every_policy_fits_120_columns_with_the_market_left_alone_first() {
+    let market = demo("veldmark_weather.toml");
+    let files = all_policy_files();
+    assert!(files.len() >= 8);
+    assert!(
+        !files[0].ends_with("none.toml"),
+        "the glob does not put none.toml first"
+    );
+    for layout in ["auto", "long", "wide"] {
+        let out = bin()
+            .args(["compare", &market])
+            .args(&files)
+            .args(["--replications", "100", "--layout", layout])
+            .output()
+            .unwrap();
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let text = String::from_utf8(out.stdout).unwrap();
+        let widest = text.lines().map(|l| l.chars().count()).max().unwrap();
+        assert!(widest <= 120, "{layout}: {widest} columns\n{text}");
+        assert!(!text.contains("NaN") && !text.contains("inf"));
+        assert!(
+            text.contains("P0 No intervention ("),
+            "{layout}: legend\n{text}"
+        );
+        if layout != "wide" {
+            // the first data row is the market left alone
+            let first_row = text
+                .lines()
+                .find(|l| l.starts_with("│ P"))
+                .unwrap_or_default();
+            assert!(
+                first_row.starts_with("│ P0 ") && first_row.contains("No intervention"),
+                "{layout}: {first_row}"
+            );
+        } else {
+            assert!(text.contains("(part 2 of"), "wide splits into blocks");
+            let header = text.lines().find(|l| l.contains("Indicator")).unwrap();
+            assert!(header.contains("│ P0 "), "{header}");
+            assert!(header.find("P0") < header.find("P1"));
+        }
+        for f in &files {
+            let name: toml::Table = std::fs::read_to_string(f).unwrap().parse().unwrap();
+            let name = name["policy"]["name"].as_str().unwrap();
+            assert!(text.contains(name), "{layout}: {name} missing");
+        }
+    }
+}

@@ -177,6 +177,7 @@ fn fan_png_and_svg() {
             .collect(),
         mean: Some(vec![211.0; 30]),
         colour: None,
+        stride: 1,
     };
     let p = fan(
         "Price fan",
@@ -445,10 +446,102 @@ fn compare_plots_on_the_demo_writes_every_figure() {
             n.starts_with("cobweb_") && n.ends_with(".png")
         })
         .count();
-    assert_eq!(
-        cobwebs,
-        policies.len() + usize::from(!policies.iter().any(|p| p.ends_with("none.toml")))
+    // under random weather a single path's cobweb is a tangle: none is drawn
+    assert_eq!(cobwebs, 0);
+    // without shocks, one cobweb per column (the market left alone first)
+    let det = dir.path().join("det");
+    furrow_ok(
+        &[
+            "compare",
+            "examples/veldmark.toml",
+            "policies/support_purchase.toml",
+            "policies/price_band.toml",
+        ],
+        &det,
     );
+    for stem in [
+        "cobweb_0_no_intervention",
+        "cobweb_1_support_price_200_public_purchase",
+        "cobweb_2_band_195_230_60_kt_reserve",
+    ] {
+        assert_figure(&det, stem);
+    }
+}
+
+/// More than four lines become small multiples (one panel per policy, taller figure); a policy's
+/// floor and band lines are part of the chart; the eigenvalue plot of many policies is panelled
+/// (small multiples as a reading aid: Tufte 1983, from memory).
+#[test]
+fn many_policies_make_small_multiples() {
+    use furrow::plots::{eigenvalues, paths, EigenPoint, Plot, Reference, Series};
+    let series: Vec<Series> = (0..6)
+        .map(|k| {
+            Series::periods(
+                format!("policy {k}"),
+                &(0..30)
+                    .map(|t| 200.0 + ((t * (k + 1)) % 7) as f64)
+                    .collect::<Vec<_>>(),
+            )
+        })
+        .collect();
+    let mut few = paths("p", "period", "price", series[..3].to_vec());
+    let mut many = paths("p", "period", "price", series.clone());
+    for p in [&mut few, &mut many] {
+        if let Plot::Lines(l) = p {
+            l.series_references.push((
+                1,
+                Reference {
+                    label: "floor 195".into(),
+                    value: 195.0,
+                },
+            ));
+        }
+    }
+    assert_eq!(few.size().1, furrow::plots::style::HEIGHT);
+    assert!(
+        many.size().1 > furrow::plots::style::HEIGHT,
+        "panels are taller"
+    );
+    let svg = many.svg_string().unwrap();
+    for k in 1..6 {
+        assert!(svg.contains(&format!("policy {k}")), "panel title {k}");
+    }
+    // the floor line extends the y range down to 195 (data stay at or above 200)
+    if let Plot::Lines(l) = &few {
+        assert!(l.series_references.iter().any(|(_, r)| r.value == 195.0));
+    }
+    let pts: Vec<EigenPoint> = (0..5)
+        .map(|k| EigenPoint {
+            re: -0.5,
+            im: 0.0,
+            group: format!("policy {k}"),
+            primary: true,
+        })
+        .collect();
+    let e = eigenvalues("eig", pts.clone());
+    assert!(e.size().1 > furrow::plots::style::HEIGHT);
+    let svg = e.svg_string().unwrap();
+    assert!(svg.contains("one panel per policy"));
+    let e2 = eigenvalues("eig", pts[..2].to_vec());
+    assert_eq!(e2.size().1, furrow::plots::style::HEIGHT);
+}
+
+/// Prices spanning more than two decades get a log axis, and values without a bounded long run
+/// are drawn in their own strip, not among the data.
+#[test]
+fn bifurcation_uses_a_log_axis_for_prices_over_decades() {
+    let values: Vec<f64> = (0..10).map(|i| i as f64).collect();
+    let mut prices: Vec<Vec<f64>> = values.iter().map(|v| vec![10f64.powf(*v / 3.0)]).collect();
+    prices[9] = vec![];
+    let p = furrow::plots::bifurcation("k", "crowns per t", values.clone(), prices, None);
+    let svg = p.svg_string().unwrap();
+    assert!(svg.contains("log scale") && svg.contains("log price axis"));
+    assert!(svg.contains("diverged"));
+    let flat: Vec<Vec<f64>> = values.iter().map(|v| vec![100.0 + v]).collect();
+    let svg = furrow::plots::bifurcation("k", "crowns per t", values, flat, None)
+        .svg_string()
+        .unwrap();
+    assert!(!svg.contains("log scale"));
 }
 
 #[test]
@@ -468,5 +561,32 @@ fn monte_carlo_run_plots_fans() {
     );
     for stem in ["price_fan", "harvest_fan", "stock_fan", "fiscal_cost_mean"] {
         assert_figure(&out, stem);
+    }
+}
+
+/// A long zig-zag (a thinned path of thousands of seasons) stays inside its plotting area: the
+/// top strip of the PNG, above the title, is untouched paper (wide strokes of sharp zig-zags
+/// once drew spikes across the whole figure).
+#[test]
+fn dense_paths_stay_inside_the_chart() {
+    let values: Vec<f64> = (0..1800)
+        .map(|t| if t % 2 == 0 { 100.0 } else { 800.0 })
+        .collect();
+    let p = paths(
+        "dense",
+        "period",
+        "price",
+        vec![Series::periods("zig-zag", &values)],
+    );
+    let dir = tempfile::tempdir().unwrap();
+    let png = dir.path().join("dense.png");
+    p.write_png(&png).unwrap();
+    let img = image::open(&png).unwrap().to_rgb8();
+    let paper = furrow::plots::style::PAPER;
+    for y in 0..8 {
+        for x in 0..img.width() {
+            let px = img.get_pixel(x, y).0;
+            assert_eq!(px, [paper.0, paper.1, paper.2], "pixel ({x}, {y}) drawn on");
+        }
     }
 }

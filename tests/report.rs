@@ -5,18 +5,28 @@ use std::path::{Path, PathBuf};
 use std::process::Command;
 
 use assert_cmd::cargo::CommandCargoExt;
+use furrow::briefing::{Briefing, Section};
 use furrow::output::TextTable;
-use furrow::report::{Briefing, Section};
 
 const MARKET: &str = "examples/veldmark.toml";
 const POLICIES: &[&str] = &["policies/support_purchase.toml", "policies/price_band.toml"];
 
 fn write_report(dir: &Path, market: &str, policies: &[&str]) -> (PathBuf, String) {
+    write_report_with(dir, market, policies, &[])
+}
+
+fn write_report_with(
+    dir: &Path,
+    market: &str,
+    policies: &[&str],
+    extra: &[&str],
+) -> (PathBuf, String) {
     let out = dir.join("brief.html");
     let mut cmd = Command::cargo_bin("furrow").unwrap();
     cmd.arg("report")
         .arg(market)
         .args(policies)
+        .args(extra)
         .arg("--out")
         .arg(&out);
     let o = cmd.output().unwrap();
@@ -67,6 +77,7 @@ fn briefing_escapes_text_and_inlines_svg() {
         caution: "Model results, not forecasts.".into(),
         sections: vec![s],
         provenance: vec![("seed".into(), "7".into())],
+        ..Default::default()
     };
     let html = b.to_html();
     assert_self_contained(&html);
@@ -251,6 +262,238 @@ fn report_renders_in_headless_chromium() {
     );
 }
 
+/// Every shipped policy file, in the order a shell glob gives them.
+fn all_policies() -> Vec<String> {
+    let mut v: Vec<String> = std::fs::read_dir("policies")
+        .unwrap()
+        .filter_map(|e| e.ok())
+        .map(|e| format!("policies/{}", e.file_name().to_string_lossy()))
+        .filter(|n| n.ends_with(".toml"))
+        .collect();
+    v.sort();
+    v
+}
+
+/// A script appended to a copy of the page (the briefing itself never has one): for every table
+/// group it records whether any table container overflows (scrollWidth > clientWidth) and the
+/// group's visible text, into a `<pre id="furrow-check">` the DOM dump carries out.
+const PROBE: &str = r#"<script>
+(function () {
+  var out = [];
+  document.querySelectorAll('.tablegroup').forEach(function (g) {
+    var over = [];
+    g.querySelectorAll('.tablewrap').forEach(function (w) {
+      if (w.scrollWidth > w.clientWidth) { over.push(w.scrollWidth + '>' + w.clientWidth); }
+    });
+    var cap = g.querySelector('caption');
+    out.push({ caption: cap ? cap.textContent : '', overflow: over, text: g.innerText });
+  });
+  var pre = document.createElement('pre');
+  pre.id = 'furrow-check';
+  pre.textContent = 'BEGIN' + JSON.stringify(out) + 'END';
+  document.body.appendChild(pre);
+})();
+</script>"#;
+
+/// Loads `html` (with the probe) at `width` px and returns the probe's records.
+fn probe(bin: &Path, dir: &Path, html: &str, width: u32, name: &str) -> Vec<serde_json::Value> {
+    let page = dir.join(name);
+    std::fs::write(&page, html.replace("</body>", &format!("{PROBE}</body>"))).unwrap();
+    let profile = tempfile::tempdir().unwrap();
+    let o = chromium_cmd(bin, profile.path())
+        .arg(format!("--window-size={width},1400"))
+        .arg("--dump-dom")
+        .arg(format!("file://{}", page.canonicalize().unwrap().display()))
+        .output()
+        .unwrap();
+    assert!(
+        o.status.success(),
+        "chromium failed: {}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    let dom = String::from_utf8_lossy(&o.stdout);
+    // the script's own text holds 'BEGIN' too, never followed by the JSON's bracket
+    let a = dom.find("BEGIN[").expect("probe output") + 5;
+    let b = dom[a..].find("]END").expect("probe end") + a + 1;
+    let json = dom[a..b]
+        .replace("&quot;", "\"")
+        .replace("&lt;", "<")
+        .replace("&gt;", ">")
+        .replace("&amp;", "&");
+    serde_json::from_str::<Vec<serde_json::Value>>(&json).expect("probe JSON")
+}
+
+/// The briefing of every shipped policy: no table container overflows on a 1 280-px screen nor at
+/// the width of A4 portrait (186 mm at 96 px per inch = 703 px, the page less 12 mm margins, with
+/// the print rules applied), and each policy table names every policy; it also prints to a PDF
+/// (W3C CSSOM View: scrollWidth > clientWidth means clipped content; common practice, no source).
+#[test]
+fn report_tables_fit_a_screen_and_a_printed_page() {
+    let Some(bin) = chromium() else { return };
+    let dir = tempfile::tempdir().unwrap();
+    let files = all_policies();
+    let refs: Vec<&str> = files.iter().map(String::as_str).collect();
+    let (page, html) = write_report_with(
+        dir.path(),
+        "examples/veldmark_weather.toml",
+        &refs,
+        &["--replications", "100"],
+    );
+    let names: Vec<String> = files
+        .iter()
+        .map(|f| {
+            let t: toml::Table = std::fs::read_to_string(f).unwrap().parse().unwrap();
+            t["policy"]["name"].as_str().unwrap().to_string()
+        })
+        .collect();
+    let printed = html.replace("@media print", "@media all");
+    for (width, page_html, what) in [(1280, &html, "screen"), (703, &printed, "A4 print")] {
+        let groups = probe(&bin, dir.path(), page_html, width, &format!("{what}.html"));
+        assert!(groups.len() >= 6, "{what}: {} table groups", groups.len());
+        for g in &groups {
+            let caption = g["caption"].as_str().unwrap_or("");
+            assert!(
+                g["overflow"].as_array().unwrap().is_empty(),
+                "{what}: table “{caption}” overflows: {}",
+                g["overflow"]
+            );
+            let policy_table = [
+                "Each policy",
+                "Policy designs",
+                "Risk figures",
+                "Welfare and fiscal cost",
+                "Stability verdicts",
+            ]
+            .iter()
+            .any(|c| caption.starts_with(c));
+            if policy_table {
+                let text = g["text"]
+                    .as_str()
+                    .unwrap()
+                    .split_whitespace()
+                    .collect::<Vec<_>>()
+                    .join(" ");
+                for n in &names {
+                    assert!(
+                        text.contains(n.as_str()),
+                        "{what}: “{n}” missing from “{caption}”"
+                    );
+                }
+            }
+        }
+    }
+    let pdf = dir.path().join("brief.pdf");
+    let profile = tempfile::tempdir().unwrap();
+    let o = chromium_cmd(&bin, profile.path())
+        .arg("--no-pdf-header-footer")
+        .arg(format!("--print-to-pdf={}", pdf.display()))
+        .arg(format!("file://{}", page.canonicalize().unwrap().display()))
+        .output()
+        .unwrap();
+    assert!(
+        o.status.success(),
+        "print to PDF failed: {}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    let bytes = std::fs::read(&pdf).unwrap();
+    assert!(
+        bytes.starts_with(b"%PDF") && bytes.len() > 20_000,
+        "PDF of {} bytes",
+        bytes.len()
+    );
+}
+
+/// The text of the first page (from "In brief" to the caution), tags removed.
+fn first_page(html: &str) -> String {
+    let a = html.find("In brief").expect("summary");
+    let b = html.find("Caution.").expect("caution");
+    let mut out = String::new();
+    let mut tag = false;
+    for c in html[a..b].chars() {
+        match c {
+            '<' => tag = true,
+            '>' => {
+                tag = false;
+                out.push(' ');
+            }
+            c if !tag => out.push(c),
+            _ => {}
+        }
+    }
+    out.split_whitespace().collect::<Vec<_>>().join(" ")
+}
+
+/// Two support prices above what the free market pays on average lose for the economy as a whole
+/// (a price floor defended by purchases creates a deadweight loss: Wallace 1962, from memory), so
+/// the first page must say that no scheme beats leaving the market alone and rank none as best.
+#[test]
+fn with_only_losing_policies_the_first_page_says_so() {
+    let dir = tempfile::tempdir().unwrap();
+    let (_, html) = write_report_with(
+        dir.path(),
+        "examples/veldmark_weather.toml",
+        &[
+            "policies/support_purchase.toml",
+            "policies/support_high_purchase.toml",
+        ],
+        &["--replications", "200"],
+    );
+    let page = first_page(&html);
+    assert!(
+        page.contains("No scheme beats leaving the market alone"),
+        "{page}"
+    );
+    for word in ["best", "largest net benefit", "does best"] {
+        assert!(!page.contains(word), "“{word}” on a page of losers: {page}");
+    }
+    assert!(page.contains("5–95 %"), "ranges on the first page: {page}");
+    assert!(page.contains("million crowns") || page.contains("thousand crowns"));
+    assert!(html.contains(furrow::CAUTION));
+    // the first page comes before the annexes, and the settings table is in an annex
+    assert!(html.find("Each policy at a glance") < html.find("Every setting"));
+}
+
+/// A long run keeps the briefing small: paths are thinned to the extremes of each pixel column
+/// (common practice, no source), so a million seasons make a page of well under 5 MB.
+#[test]
+fn a_million_seasons_make_a_small_briefing() {
+    let dir = tempfile::tempdir().unwrap();
+    let (_, html) = write_report_with(dir.path(), MARKET, POLICIES, &["--periods", "1000000"]);
+    assert!(html.len() < 5_000_000, "{} bytes", html.len());
+    assert!(
+        html.contains("lowest and highest value of every"),
+        "the thinning is stated"
+    );
+    assert!(html.contains("1,000,000 seasons are simulated"));
+}
+
+#[test]
+fn report_refuses_other_formats_and_writes_to_stdout() {
+    let o = Command::cargo_bin("furrow")
+        .unwrap()
+        .args([
+            "report",
+            MARKET,
+            POLICIES[0],
+            "--out",
+            "-",
+            "--format",
+            "json",
+        ])
+        .output()
+        .unwrap();
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("--format json"));
+    let o = Command::cargo_bin("furrow")
+        .unwrap()
+        .args(["report", MARKET, POLICIES[0], "--out", "-"])
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let page = String::from_utf8(o.stdout).unwrap();
+    assert!(page.starts_with("<!DOCTYPE html>") && page.trim_end().ends_with("</html>"));
+}
+
 /// The market paragraph states the steady state of the linear Dunmere market: a + bP = c + dP gives
 /// P* = (a − c)/(d − b) = (300 + 40)/(1.1 + 1.25) = 144.68, Q* = 300 − 1.25 P* = 119.15 (the market
 /// equilibrium of Ezekiel 1938's cobweb model, worked by hand).
@@ -272,4 +515,28 @@ fn report_states_the_steady_state_and_the_stability_verdict() {
         "spectral radius 0.880 missing"
     );
     assert!(html.contains(">stable<"));
+}
+
+/// Options a verb cannot honour are refused with a message naming them, never silently ignored.
+#[test]
+fn plots_are_refused_where_no_figure_is_drawn() {
+    let dir = tempfile::tempdir().unwrap();
+    for args in [
+        vec!["check", MARKET],
+        vec!["storage", "examples/veldmark_storers.toml"],
+    ] {
+        let o = Command::cargo_bin("furrow")
+            .unwrap()
+            .args(&args)
+            .arg("--plots")
+            .arg(dir.path().join("p"))
+            .output()
+            .unwrap();
+        assert_eq!(o.status.code(), Some(2), "{args:?}");
+        assert!(
+            String::from_utf8_lossy(&o.stderr).contains("--plots is not available"),
+            "{args:?}"
+        );
+        assert!(!dir.path().join("p").exists());
+    }
 }

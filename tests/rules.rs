@@ -77,6 +77,7 @@ fn every_registered_rule_answers_every_behaviour() {
         // description: a line, a reference price, and its table rows under its section's labels
         assert!(!rule.describe().is_empty());
         assert!(rule.reference_price() > 0.0, "{what}");
+        assert!(!rule.price_lines().is_empty(), "{what}: no price line");
         let labels: Vec<&str> = rule.rows().iter().map(|r| r.label).collect();
         let absent: Vec<&str> = section.absent.iter().map(|(l, _)| *l).collect();
         assert_eq!(labels, absent, "{what}");

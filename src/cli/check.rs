@@ -35,6 +35,9 @@ struct Checked {
 
 /// Runs `check`.
 pub fn execute(args: &CheckArgs) -> anyhow::Result<()> {
+    if args.common.plots.is_some() {
+        anyhow::bail!("check draws no figures: --plots is not available for it (use run, compare or report --plots)");
+    }
     let mut out = Vec::new();
     let (mut markets, mut policies) = (Vec::new(), Vec::new());
     for file in &args.files {

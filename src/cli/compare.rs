@@ -19,8 +19,17 @@ pub struct CompareArgs {
     /// One or more policy files (each compared with the market left alone).
     #[arg(required = true, num_args = 1..)]
     pub policies: Vec<String>,
+    /// Table layout: `wide` (indicators as rows, policies as columns, split into blocks that fit
+    /// 120 columns), `long` (policies as rows, key indicators as columns), or `auto` (wide when it
+    /// fits, else long).
+    #[arg(long, default_value = "auto", value_parser = parse_layout)]
+    pub layout: render::Layout,
     #[command(flatten)]
     pub common: CommonArgs,
+}
+
+fn parse_layout(s: &str) -> Result<render::Layout, String> {
+    s.parse()
 }
 
 /// Runs `compare`.
@@ -51,8 +60,11 @@ pub fn execute(args: &CompareArgs) -> anyhow::Result<()> {
     if let Some(dir) = args.common.plot_dir() {
         super::report::plot_compare(&dir, &scenario, &args.policies, &result)?;
     }
-    args.common
-        .emit(&render::render(&result, args.common.format))
+    args.common.emit(&render::render_with(
+        &result,
+        args.common.format,
+        args.layout,
+    ))
 }
 
 /// A progress bar on stderr for long Monte Carlo runs when stderr is a terminal; silent otherwise.

@@ -1,18 +1,15 @@
-//! `furrow report MARKET POLICY... --out FILE.html` and the `--plots` glue of the other verbs.
-
-mod assumptions;
-mod brief;
-mod figures;
-mod mc;
+//! `furrow report MARKET POLICY... --out FILE.html` and the `--plots` glue of the other verbs. The
+//! briefing itself is built by `furrow::briefing`; this file parses, calls and writes.
 
 use anyhow::Context;
 use clap::Args;
+use furrow::briefing::{self, figures, Figure, Overrides};
 use furrow::engine::PeriodRecord;
+use furrow::output::Format;
 use furrow::scenario::{PolicySpec, Scenario};
 use furrow::stability::StabilityReport;
 
 use super::common::{load_policy, say, CommonArgs, PlotDir};
-pub use figures::Figure;
 
 /// Arguments of `report`.
 #[derive(Debug, Args)]
@@ -44,97 +41,40 @@ fn columns(files: &[String], market: &Scenario) -> anyhow::Result<Vec<(String, P
 
 /// Runs `report`.
 pub fn execute(args: &ReportArgs) -> anyhow::Result<()> {
-    let out = match &args.common.out {
-        Some(p) if p.as_os_str() != "-" => p.clone(),
-        _ => anyhow::bail!("report needs --out FILE.html (the briefing is one HTML file)"),
+    let Some(out) = args.common.out.clone() else {
+        anyhow::bail!("report needs --out FILE.html (the briefing is one HTML file; `--out -` writes it to stdout)")
     };
+    if args.common.format != Format::Table {
+        let f = format!("{:?}", args.common.format).to_lowercase();
+        anyhow::bail!(
+            "report writes one HTML briefing: --format {f} is not available for it (for the numbers as CSV or JSON use `furrow compare … --format {f}`)"
+        );
+    }
     let scenario = args.common.load_market(&args.market)?;
     let cols = columns(&args.policies, &scenario)?;
-    let mut runs = Vec::new();
-    for (_, p) in &cols {
-        let recs = super::run::one_path(&scenario, p)
-            .with_context(|| format!("the path under “{}” failed", p.name))?;
-        runs.push((p.name.clone(), recs));
-    }
-    let stability = stability_of(&scenario, &cols);
     let result = run_compare(&scenario, &cols)?;
-    let mut figs = report_figures(&scenario, &cols, &runs, &stability);
-    if scenario.run.replications > 1 {
-        figs.extend(mc::figures(&result));
-    }
-    let headlines = mc::headlines(&result);
-    let welfare = mc::with_ranges(&result, mc::table(&result, &mc::is_welfare));
-    let basis = if scenario.run.replications > 1 {
-        format!(
-            "Monte Carlo, {} replications of {} seasons, seed {}",
-            result.replications, result.periods, result.seed
-        )
-    } else if scenario.shocks.is_deterministic() {
-        "one deterministic path".to_string()
-    } else {
-        format!("one simulated weather path, seed {}", scenario.run.seed)
-    };
-    let risk = mc::table(&result, &mc::is_risk);
-    let mut provenance = vec![
-        (
-            "furrow version".to_string(),
-            env!("CARGO_PKG_VERSION").to_string(),
-        ),
-        (
-            "command".into(),
-            std::env::args().collect::<Vec<_>>().join(" "),
-        ),
-        ("seed".into(), scenario.run.seed.to_string()),
-        ("replications".into(), scenario.run.replications.to_string()),
-        ("periods".into(), scenario.run.periods.to_string()),
-        ("results basis".into(), basis.clone()),
-    ];
-    let mut inputs = vec![args.market.clone()];
-    inputs.extend(args.policies.iter().cloned());
-    for f in &inputs {
-        provenance.push((format!("SHA-256 of {f}"), assumptions::sha256_file(f)?));
-    }
-    if let Some(dir) = args.common.plot_dir() {
-        figures::write_all(&dir, &figs)?;
-    }
-    let page = brief::build(brief::Inputs {
+    let built = briefing::build(&briefing::Request {
         scenario: &scenario,
         market_path: &args.market,
-        policies: &cols,
-        assumptions: assumptions::assumption_table(&scenario, &args.market, &cols, &args.common)?,
-        headlines,
-        basis,
-        welfare,
-        risk,
-        stability,
-        figures: figs,
-        provenance,
-        subtitle: format!(
-            "{} policy file{} against the market left alone — furrow {}",
-            args.policies.len(),
-            if args.policies.len() == 1 { "" } else { "s" },
-            env!("CARGO_PKG_VERSION")
-        ),
-    });
-    furrow::output::write_whole(&out, page.to_html().as_bytes())
+        policy_paths: &args.policies,
+        columns: &cols,
+        comparison: &result,
+        overrides: Overrides {
+            seed: args.common.seed.is_some(),
+            replications: args.common.replications.is_some(),
+            periods: args.common.periods.is_some(),
+        },
+        command: std::env::args().collect::<Vec<_>>().join(" "),
+    })?;
+    if let Some(dir) = args.common.plot_dir() {
+        write_all(&dir, &built.figures)?;
+    }
+    furrow::output::write_whole(&out, built.briefing.to_html().as_bytes())
         .with_context(|| format!("cannot write {}", out.display()))?;
-    say(&format!("wrote the briefing to {}", out.display()));
+    if out.as_os_str() != "-" {
+        say(&format!("wrote the briefing to {}", out.display()));
+    }
     Ok(())
-}
-
-/// Stability of each column; a failed analysis keeps its message.
-fn stability_of(
-    scenario: &Scenario,
-    cols: &[(String, PolicySpec)],
-) -> Vec<(String, Result<StabilityReport, String>)> {
-    cols.iter()
-        .map(|(_, p)| {
-            (
-                p.name.clone(),
-                furrow::stability::analyse(scenario, p).map_err(|e| e.to_string()),
-            )
-        })
-        .collect()
 }
 
 /// The Monte Carlo comparison of the columns after the first (the market left alone).
@@ -154,32 +94,64 @@ fn run_compare(
     Ok(result?)
 }
 
-/// Paths, a cobweb per column and the eigenvalues (when the analysis worked).
-fn report_figures(
-    scenario: &Scenario,
-    cols: &[(String, PolicySpec)],
-    runs: &[(String, Vec<PeriodRecord>)],
-    stability: &[(String, Result<StabilityReport, String>)],
-) -> Vec<Figure> {
-    let mut figs = figures::path_figures(scenario, runs);
-    for (i, ((_, p), (_, recs))) in cols.iter().zip(runs).enumerate() {
-        figs.push(figures::cobweb_figure(
-            scenario,
-            p,
-            recs,
-            &format!("cobweb_{}_{}", i, figures::slug(&p.name)),
+/// Writes every figure into `dir` (PNG and SVG, each whole or not at all), records them in the
+/// folder's manifest, and says where; figures an earlier run wrote there and this one did not are
+/// removed with `--clean`, otherwise named on stderr.
+pub fn write_all(dir: &PlotDir, figures: &[Figure]) -> anyhow::Result<()> {
+    let mut written = Vec::new();
+    for f in figures {
+        match f.plot.write(&dir.path, &f.stem) {
+            Ok(paths) => written.extend(
+                paths
+                    .iter()
+                    .filter_map(|p| p.file_name().map(|n| n.to_string_lossy().to_string())),
+            ),
+            Err(furrow::plots::PlotError::Empty(_)) => say(&format!(
+                "plot `{}` skipped: no finite values to draw",
+                f.stem
+            )),
+            Err(e) => {
+                return Err(e).with_context(|| {
+                    format!(
+                        "cannot draw the plot `{}` into {}",
+                        f.stem,
+                        dir.path.display()
+                    )
+                })
+            }
+        }
+    }
+    if written.is_empty() {
+        std::fs::create_dir_all(&dir.path)
+            .with_context(|| format!("cannot create {}", dir.path.display()))?;
+    }
+    let update = furrow::plots::update_manifest(&dir.path, &written, dir.clean)
+        .with_context(|| format!("cannot update the plot list in {}", dir.path.display()))?;
+    say(&format!(
+        "wrote {} plots (PNG and SVG) into {}",
+        written.len() / 2,
+        dir.path.display()
+    ));
+    if !update.removed.is_empty() {
+        say(&format!(
+            "--clean: removed {} files an earlier run wrote there: {}",
+            update.removed.len(),
+            update.removed.join(", ")
         ));
     }
-    let ok: Vec<(String, StabilityReport)> = stability
-        .iter()
-        .filter_map(|(n, r)| r.as_ref().ok().map(|r| (n.clone(), r.clone())))
-        .collect();
-    figs.extend(figures::eigen_figure(&ok));
-    figs
+    if !update.stale.is_empty() {
+        say(&format!(
+            "{} stale plot files from an earlier run are present in {} ({}); pass --clean to remove them",
+            update.stale.len(),
+            dir.path.display(),
+            update.stale.join(", ")
+        ));
+    }
+    Ok(())
 }
 
-/// Writes the plots of `compare` into `dir`: one path per policy (price, harvest, cobwebs, fiscal
-/// cost), the Monte Carlo fans and mean fiscal cost, and the eigenvalues.
+/// Writes the plots of `compare` into `dir`: one path per policy, cobwebs (no shocks), the
+/// eigenvalues, and the Monte Carlo fans and mean fiscal cost.
 pub fn plot_compare(
     dir: &PlotDir,
     scenario: &Scenario,
@@ -187,18 +159,9 @@ pub fn plot_compare(
     result: &furrow::compare::CompareResult,
 ) -> anyhow::Result<()> {
     let cols = columns(files, scenario)?;
-    let mut runs = Vec::new();
-    for (_, p) in &cols {
-        let recs = super::run::one_path(scenario, p)
-            .with_context(|| format!("the path under “{}” failed", p.name))?;
-        runs.push((p.name.clone(), recs));
-    }
-    let stability = stability_of(scenario, &cols);
-    let mut figs = report_figures(scenario, &cols, &runs, &stability);
-    if result.replications > 1 {
-        figs.extend(mc::figures(result));
-    }
-    figures::write_all(dir, &figs)
+    let stability = briefing::stability_of(scenario, &cols);
+    let figs = briefing::comparison_figures(scenario, &cols, result, &stability)?;
+    write_all(dir, &figs)
 }
 
 /// Writes the plots of one path into `dir`: price and harvest paths, the cobweb, the fiscal cost.
@@ -208,7 +171,7 @@ pub fn plot_run(
     policy: &PolicySpec,
     records: &[PeriodRecord],
 ) -> anyhow::Result<()> {
-    figures::write_all(dir, &figures::run_figures(scenario, policy, records))
+    write_all(dir, &figures::run_figures(scenario, policy, records))
 }
 
 /// Writes the eigenvalue plot of one stability report into `dir`.
@@ -220,7 +183,7 @@ pub fn plot_stability(
     let figs: Vec<Figure> = figures::eigen_figure(&[(policy_name.to_string(), report.clone())])
         .into_iter()
         .collect();
-    figures::write_all(dir, &figs)
+    write_all(dir, &figs)
 }
 
 /// Writes the plots of a sweep into `dir`: the stability map (two keys) or the spectral radius and
@@ -236,7 +199,7 @@ pub fn plot_sweep(
         say("sweep: nothing to plot");
         return Ok(());
     }
-    figures::write_all(dir, &figs)
+    write_all(dir, &figs)
 }
 
 /// The sweep's grid points as plain numbers for [`plot_sweep`].
@@ -262,5 +225,8 @@ pub fn plot_mc_run(
     runs: &furrow::stochastic::PolicyRuns,
     replications: usize,
 ) -> anyhow::Result<()> {
-    figures::write_all(dir, &mc::run_figures(scenario, runs, replications))
+    write_all(
+        dir,
+        &briefing::tables::run_figures(scenario, runs, replications),
+    )
 }

@@ -38,6 +38,9 @@ pub struct StorageArgs {
 
 /// Runs `storage`.
 pub fn execute(args: &StorageArgs) -> anyhow::Result<()> {
+    if args.common.plots.is_some() {
+        anyhow::bail!("storage draws no figures: --plots is not available for it (use run or compare on the same market --plots)");
+    }
     let scenario = args.common.load_market(&args.market)?;
     let policy = load_policy(args.policy.as_deref(), &scenario)?;
     let d = SolveOptions::default();

@@ -5,7 +5,7 @@
 use plotters::coord::Shift;
 use plotters::prelude::*;
 
-use super::frame::{builder, de, frame, mesh, Titles};
+use super::frame::{builder, de, frame, mesh_with, Titles};
 use super::style::{self, LegendEntry, LegendKey};
 use super::{Plot, PlotError};
 
@@ -99,22 +99,68 @@ impl Bifurcation {
         let miss_c = style::series_colour(2);
         if !missing.is_empty() {
             legend.push(LegendEntry {
-                name: "no bounded long run (diverged)".into(),
+                name: "diverged: no bounded long run (strip below the chart, not data)".into(),
                 colour: miss_c,
-                key: LegendKey::Bar,
+                key: LegendKey::Cross,
             });
         }
-        let body = frame(root, &self.titles, &legend)?;
+        // a log price axis when the prices span more than two decades
+        let lo = dots.iter().map(|p| p.1).fold(f64::INFINITY, f64::min);
+        let hi = dots.iter().map(|p| p.1).fold(0.0f64, f64::max);
+        let log = lo > 0.0 && hi / lo > 100.0;
+        let tf = |y: f64| if log { y.log10() } else { y };
+        let mut titles = self.titles.clone();
+        if log {
+            titles.subtitle = format!(
+                "{}; log price axis (prices span {} decades)",
+                titles.subtitle,
+                style::tick((hi / lo).log10().floor())
+            );
+        }
+        let body = frame(root, &titles, &legend)?;
+        // diverged values go into their own strip under the chart, apart from the data
+        let (body, strip) = if missing.is_empty() {
+            (body, None)
+        } else {
+            let (_, h) = body.dim_in_pixel();
+            let (a, b) = body.split_vertically(h.saturating_sub(44));
+            (a, Some(b))
+        };
         let (x0, x1) = style::padded_range(self.values.iter().copied(), 0.03);
         let (y0, y1) = style::padded_range(
-            dots.iter().map(|p| p.1).chain(steady.iter().map(|p| p.1)),
+            dots.iter()
+                .map(|p| tf(p.1))
+                .chain(steady.iter().filter(|p| !log || p.1 > 0.0).map(|p| tf(p.1))),
             0.06,
         );
+        let y0 = if log { y0 } else { y0.max(0.0) };
         let mut chart = builder(&body)
-            .build_cartesian_2d(x0..x1, y0.max(0.0)..y1)
+            .build_cartesian_2d(x0..x1, y0..y1)
             .map_err(de)?;
         chart.plotting_area().fill(&style::FIELD).map_err(de)?;
-        mesh(&mut chart, &self.x_label, &self.y_label)?;
+        let y_label = if log {
+            format!("{} (log scale)", self.y_label)
+        } else {
+            self.y_label.clone()
+        };
+        if log {
+            // labels at whole decades only (10, 100, …); the grid lines between stay unlabelled
+            mesh_with(&mut chart, &self.x_label, &y_label, &|v| {
+                if (v - v.round()).abs() < 1e-6 {
+                    style::tick(10f64.powf(v.round()))
+                } else {
+                    String::new()
+                }
+            })?;
+        } else {
+            mesh_with(&mut chart, &self.x_label, &y_label, &|v| style::tick(*v))?;
+        }
+        let steady: Vec<(f64, f64)> = steady
+            .into_iter()
+            .filter(|p| !log || p.1 > 0.0)
+            .map(|(x, y)| (x, tf(y)))
+            .collect();
+        let dots: Vec<(f64, f64)> = dots.into_iter().map(|(x, y)| (x, tf(y))).collect();
         if steady.len() >= 2 {
             chart
                 .draw_series(DashedLineSeries::new(
@@ -125,17 +171,27 @@ impl Bifurcation {
                 ))
                 .map_err(de)?;
         }
-        if !missing.is_empty() {
-            let h = (y1 - y0.max(0.0)) * 0.025;
-            let w = (x1 - x0) / (self.values.len().max(1) as f64) * 0.45;
-            chart
-                .draw_series(missing.iter().map(|&x| {
-                    Rectangle::new(
-                        [(x - w, y0.max(0.0)), (x + w, y0.max(0.0) + h)],
-                        miss_c.filled(),
-                    )
-                }))
+        if let Some(strip) = strip {
+            let mut band = ChartBuilder::on(&strip)
+                .margin_left(16)
+                .margin_right(28)
+                .margin_top(4)
+                .y_label_area_size(74)
+                .build_cartesian_2d(x0..x1, 0.0..1.0)
                 .map_err(de)?;
+            band.plotting_area().fill(&miss_c.mix(0.08)).map_err(de)?;
+            band.draw_series(std::iter::once(Text::new(
+                "diverged".to_string(),
+                (x0, 0.85),
+                style::text(12, style::MUTED),
+            )))
+            .map_err(de)?;
+            band.draw_series(
+                missing
+                    .iter()
+                    .map(|&x| Cross::new((x, 0.45), 5, miss_c.stroke_width(2))),
+            )
+            .map_err(de)?;
         }
         let r = if dots.len() > 4000 {
             1

@@ -25,6 +25,9 @@ pub struct FanBand {
     pub mean: Option<Vec<f64>>,
     /// Palette index (keeps a policy's colour the same across figures); `None`: its position.
     pub colour: Option<usize>,
+    /// Periods per value (1: one value per period; k: value i stands for periods ik+1 …
+    /// (i+1)k, drawn at the first of them), for long runs thinned before plotting.
+    pub stride: usize,
 }
 
 impl FanBand {
@@ -70,10 +73,11 @@ pub fn fan(
     })
 }
 
-fn period_points(v: &[f64]) -> Vec<(f64, f64)> {
+fn period_points(v: &[f64], stride: usize) -> Vec<(f64, f64)> {
+    let k = stride.max(1);
     v.iter()
         .enumerate()
-        .map(|(i, &y)| ((i + 1) as f64, y))
+        .map(|(i, &y)| ((i * k + 1) as f64, y))
         .filter(|p| p.1.is_finite())
         .collect()
 }
@@ -104,8 +108,8 @@ fn draw_band<DB: DrawingBackend>(
     c: RGBColor,
     alpha: f64,
 ) -> Result<(), PlotError> {
-    let lo = period_points(&b.p05);
-    let hi = period_points(&b.p95);
+    let lo = period_points(&b.p05, b.stride);
+    let hi = period_points(&b.p95, b.stride);
     if lo.len() >= 2 && lo.len() == hi.len() {
         let mut poly = hi.clone();
         poly.extend(lo.iter().rev().copied());
@@ -128,12 +132,16 @@ fn draw_centre<DB: DrawingBackend>(
     c: RGBColor,
 ) -> Result<(), PlotError> {
     chart
-        .draw_series(LineSeries::new(period_points(&b.p50), c.stroke_width(3)))
+        .draw_series(LineSeries::new(
+            period_points(&b.p50, b.stride),
+            // dense medians 1 px wide (wide zig-zags get spiky joins in the bitmap backend)
+            c.stroke_width(if b.p50.len() > 200 { 1 } else { 3 }),
+        ))
         .map_err(de)?;
     if let Some(m) = &b.mean {
         chart
             .draw_series(DashedLineSeries::new(
-                period_points(m),
+                period_points(m, b.stride),
                 7,
                 5,
                 c.stroke_width(2),
@@ -158,7 +166,7 @@ impl FanChart {
         let n = self
             .bands
             .iter()
-            .map(|b| b.p50.len())
+            .map(|b| (b.p50.len().max(1) - 1) * b.stride.max(1) + 1)
             .max()
             .unwrap_or(1)
             .max(2);

@@ -37,10 +37,21 @@ pub fn frame<DB: DrawingBackend>(
     ))
     .map_err(de)?;
     if !titles.subtitle.is_empty() {
+        // a long subtitle gets a smaller font (down to 10 px) rather than running off the figure
+        let mut size = 14;
+        while size > 10 {
+            let fits = root
+                .estimate_text_size(&titles.subtitle, &style::text(size, style::MUTED))
+                .map_or(true, |(tw, _)| tw + 48 <= w);
+            if fits {
+                break;
+            }
+            size -= 1;
+        }
         root.draw(&Text::new(
             titles.subtitle.clone(),
             (24, 42),
-            style::text(14, style::MUTED),
+            style::text(size, style::MUTED),
         ))
         .map_err(de)?;
     }
@@ -115,6 +126,24 @@ fn draw_legend<DB: DrawingBackend>(
                         .draw(&Circle::new((x + 14, y), 5, c.filled()))
                         .map_err(de)?;
                 }
+                LegendKey::Square => {
+                    strip
+                        .draw(&Rectangle::new(
+                            [(x + 9, y - 5), (x + 19, y + 5)],
+                            c.filled(),
+                        ))
+                        .map_err(de)?;
+                }
+                LegendKey::Triangle => {
+                    strip
+                        .draw(&TriangleMarker::new((x + 14, y), 6, c.filled()))
+                        .map_err(de)?;
+                }
+                LegendKey::Cross => {
+                    strip
+                        .draw(&Cross::new((x + 14, y), 5, c.stroke_width(2)))
+                        .map_err(de)?;
+                }
             }
             let label = Text::new(
                 e.name.clone(),
@@ -137,6 +166,16 @@ pub fn mesh<DB: DrawingBackend>(
     x_label: &str,
     y_label: &str,
 ) -> Result<(), PlotError> {
+    mesh_with(chart, x_label, y_label, &|v| style::tick(*v))
+}
+
+/// [`mesh`] with its own y tick labels (e.g. a log axis drawn on log10 values).
+pub fn mesh_with<DB: DrawingBackend>(
+    chart: &mut ChartContext<'_, DB, Cartesian2d<RangedCoordf64, RangedCoordf64>>,
+    x_label: &str,
+    y_label: &str,
+    y_ticks: &dyn Fn(&f64) -> String,
+) -> Result<(), PlotError> {
     chart
         .configure_mesh()
         .x_desc(x_label)
@@ -151,7 +190,7 @@ pub fn mesh<DB: DrawingBackend>(
         .x_max_light_lines(1)
         .y_max_light_lines(1)
         .x_label_formatter(&|v| style::tick(*v))
-        .y_label_formatter(&|v| style::tick(*v))
+        .y_label_formatter(y_ticks)
         .draw()
         .map_err(de)
 }

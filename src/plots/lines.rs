@@ -3,6 +3,7 @@
 
 use plotters::coord::Shift;
 use plotters::prelude::*;
+use plotters::style::RGBColor;
 
 use super::frame::{builder, de, frame, mesh, Titles};
 use super::style::{self, LegendEntry, LegendKey};
@@ -55,6 +56,56 @@ pub struct LineChart {
     pub references: Vec<Reference>,
     /// Keep zero inside the y range (for costs).
     pub include_zero: bool,
+    /// Dashed lines that belong to one series (its floor, its band), drawn in its colour:
+    /// (series index, line).
+    pub series_references: Vec<(usize, Reference)>,
+    /// The first series is the market left alone: with more than [`OVERLAY_MAX`] series the chart
+    /// becomes small multiples, one panel per other series with the first in grey behind it.
+    pub reference_first: bool,
+    /// Palette index of each series (keeps a policy's colour the same across figures when some
+    /// series are left out); empty or short: the series' position.
+    pub palette: Vec<usize>,
+}
+
+/// Most lines overlaid in one chart; beyond, one panel per policy (small multiples).
+pub const OVERLAY_MAX: usize = 4;
+
+impl LineChart {
+    /// The colour of series `i`.
+    pub fn colour(&self, i: usize) -> RGBColor {
+        style::series_colour(self.palette.get(i).copied().unwrap_or(i))
+    }
+
+    /// True when drawn as small multiples.
+    pub fn is_panelled(&self) -> bool {
+        self.series.len() > OVERLAY_MAX
+    }
+
+    /// The series that get a panel each: all but the first when it is the reference.
+    fn panel_series(&self) -> usize {
+        if self.reference_first {
+            1
+        } else {
+            0
+        }
+    }
+
+    /// Panels (columns, rows) of the small multiples: one per series after the first.
+    pub fn panel_grid(&self) -> (usize, usize) {
+        let n = (self.series.len() - self.panel_series().min(self.series.len())).max(1);
+        let cols = if n <= 4 { 2 } else { 3 };
+        (cols, n.div_ceil(cols))
+    }
+
+    /// Pixel height: the standard height, or 250 px per row of panels.
+    pub fn height(&self) -> u32 {
+        if self.is_panelled() {
+            let (_, rows) = self.panel_grid();
+            style::TITLE_BLOCK + 2 * style::LEGEND_ROW + 30 + rows as u32 * 250
+        } else {
+            style::HEIGHT
+        }
+    }
 }
 
 /// Lines overlaid across policies (price or harvest paths).
@@ -69,6 +120,9 @@ pub fn paths(title: &str, x_label: &str, y_label: &str, series: Vec<Series>) -> 
         series,
         references: Vec::new(),
         include_zero: false,
+        series_references: Vec::new(),
+        reference_first: true,
+        palette: Vec::new(),
     })
 }
 
@@ -112,6 +166,9 @@ pub fn fiscal(title: &str, x_label: &str, y_label: &str, series: Vec<Series>) ->
             series,
             references: Vec::new(),
             include_zero: true,
+            series_references: Vec::new(),
+            reference_first: false,
+            palette: Vec::new(),
         })
     }
 }
@@ -136,13 +193,20 @@ impl LineChart {
         if !ys.clone().any(f64::is_finite) {
             return Err(PlotError::Empty(self.titles.title.clone()));
         }
+        let own = self.series_references.iter().map(|(_, r)| r.value);
+        if self.is_panelled() {
+            let extra = self.references.iter().map(|r| r.value).chain(own);
+            let zero = if self.include_zero { Some(0.0) } else { None };
+            let (y0, y1) = style::padded_range(ys.chain(extra).chain(zero), 0.06);
+            return self.draw_panels(root, y0, y1);
+        }
         let mut legend: Vec<LegendEntry> = self
             .series
             .iter()
             .enumerate()
             .map(|(i, s)| LegendEntry {
                 name: s.name.clone(),
-                colour: style::series_colour(i),
+                colour: self.colour(i),
                 key: LegendKey::Line,
             })
             .collect();
@@ -153,8 +217,22 @@ impl LineChart {
                 key: LegendKey::Dashed,
             });
         }
-        let body = frame(root, &self.titles, &legend)?;
-        let extra = self.references.iter().map(|r| r.value);
+        let mut titles = self.titles.clone();
+        if !self.series_references.is_empty() {
+            let lines: Vec<String> = self
+                .series_references
+                .iter()
+                .map(|(i, r)| match self.series.get(*i) {
+                    Some(s) if self.series.len() > 1 => format!("{}: {}", s.name, r.label),
+                    _ => r.label.clone(),
+                })
+                .collect();
+            if titles.subtitle.is_empty() {
+                titles.subtitle = format!("dashed: {}", lines.join("; "));
+            }
+        }
+        let body = frame(root, &titles, &legend)?;
+        let extra = self.references.iter().map(|r| r.value).chain(own);
         let zero = if self.include_zero { Some(0.0) } else { None };
         let (y0, y1) = style::padded_range(ys.chain(extra).chain(zero), 0.06);
         let (x0, x1) = x_range(&self.series);
@@ -181,6 +259,16 @@ impl LineChart {
                 ))
                 .map_err(de)?;
         }
+        for (i, r) in &self.series_references {
+            chart
+                .draw_series(DashedLineSeries::new(
+                    vec![(x0, r.value), (x1, r.value)],
+                    10,
+                    6,
+                    self.colour(*i).stroke_width(2),
+                ))
+                .map_err(de)?;
+        }
         let many_points = self
             .series
             .iter()
@@ -190,9 +278,24 @@ impl LineChart {
             > 60;
         // Many policies: thinner lines and no markers, so the overlaid paths stay apart.
         let crowded = self.series.len() > 4;
-        let width = if crowded { 2 } else { 3 };
+        // Dense series are drawn 1 px wide: wide strokes of a zig-zag get spiky joins in the bitmap
+        // backend that run far outside the plotting area.
+        let dense = self
+            .series
+            .iter()
+            .map(|s| s.points.len())
+            .max()
+            .unwrap_or(0)
+            > 200;
+        let width = if dense {
+            1
+        } else if crowded {
+            2
+        } else {
+            3
+        };
         for (i, s) in self.series.iter().enumerate() {
-            let c = style::series_colour(i);
+            let c = self.colour(i);
             for run in finite_runs(&s.points) {
                 chart
                     .draw_series(LineSeries::new(run.clone(), c.stroke_width(width)))
@@ -202,6 +305,129 @@ impl LineChart {
                         .draw_series(run.iter().map(|&p| Circle::new(p, 3, c.filled())))
                         .map_err(de)?;
                 }
+            }
+        }
+        Ok(())
+    }
+}
+
+impl LineChart {
+    /// Small multiples: one panel per series after the first, shared axes, the first series (the
+    /// market left alone) in grey in each, and the series' own dashed lines.
+    fn draw_panels<DB: DrawingBackend>(
+        &self,
+        root: &DrawingArea<DB, Shift>,
+        y0: f64,
+        y1: f64,
+    ) -> Result<(), PlotError> {
+        let (cols, rows) = self.panel_grid();
+        let grey = style::MUTED;
+        let mut legend = Vec::new();
+        if let Some(first) = self.series.first().filter(|_| self.reference_first) {
+            legend.push(LegendEntry {
+                name: format!("{} (grey, in every panel)", first.name),
+                colour: grey,
+                key: LegendKey::Line,
+            });
+        }
+        for r in &self.references {
+            legend.push(LegendEntry {
+                name: r.label.clone(),
+                colour: style::REFERENCE,
+                key: LegendKey::Dashed,
+            });
+        }
+        if !self.series_references.is_empty() {
+            legend.push(LegendEntry {
+                name: "the policy's floor and band".into(),
+                colour: style::INK,
+                key: LegendKey::Dashed,
+            });
+        }
+        let mut titles = self.titles.clone();
+        // panels have no axis titles: the y quantity and unit go into the subtitle
+        titles.subtitle = if titles.subtitle.is_empty() {
+            format!("y: {}", self.y_label)
+        } else {
+            format!("y: {}; {}", self.y_label, titles.subtitle)
+        };
+        let body = frame(root, &titles, &legend)?;
+        let (x0, x1) = x_range(&self.series);
+        let panels = body.split_evenly((rows, cols));
+        let skip = self.panel_series();
+        let dense = self
+            .series
+            .iter()
+            .map(|s| s.points.len())
+            .max()
+            .unwrap_or(0)
+            > 200;
+        let width = if dense { 1 } else { 2 };
+        for (k, (s, area)) in self.series.iter().skip(skip).zip(panels.iter()).enumerate() {
+            let i = k + skip;
+            let c = self.colour(i);
+            let mut chart = ChartBuilder::on(area)
+                .margin(6)
+                .margin_right(14)
+                .caption(s.name.clone(), style::bold(14, style::INK))
+                .x_label_area_size(22)
+                .y_label_area_size(52)
+                .build_cartesian_2d(x0..x1, y0..y1)
+                .map_err(de)?;
+            chart.plotting_area().fill(&style::FIELD).map_err(de)?;
+            chart
+                .configure_mesh()
+                .label_style(style::text(11, style::MUTED))
+                .light_line_style(style::GRID_LIGHT)
+                .bold_line_style(style::GRID_BOLD)
+                .axis_style(style::MUTED)
+                .x_labels(6)
+                .y_labels(5)
+                .x_max_light_lines(1)
+                .y_max_light_lines(1)
+                .x_label_formatter(&|v| style::tick(*v))
+                .y_label_formatter(&|v| style::tick(*v))
+                .draw()
+                .map_err(de)?;
+            if self.include_zero {
+                chart
+                    .draw_series(LineSeries::new(
+                        vec![(x0, 0.0), (x1, 0.0)],
+                        style::MUTED.stroke_width(1),
+                    ))
+                    .map_err(de)?;
+            }
+            for r in &self.references {
+                chart
+                    .draw_series(DashedLineSeries::new(
+                        vec![(x0, r.value), (x1, r.value)],
+                        8,
+                        6,
+                        style::REFERENCE.stroke_width(1),
+                    ))
+                    .map_err(de)?;
+            }
+            for (_, r) in self.series_references.iter().filter(|(j, _)| *j == i) {
+                chart
+                    .draw_series(DashedLineSeries::new(
+                        vec![(x0, r.value), (x1, r.value)],
+                        10,
+                        6,
+                        c.stroke_width(2),
+                    ))
+                    .map_err(de)?;
+            }
+            if let Some(first) = self.series.first().filter(|_| self.reference_first) {
+                for run in finite_runs(&first.points) {
+                    chart
+                        .draw_series(LineSeries::new(run, grey.mix(0.7).stroke_width(width)))
+                        .map_err(de)?;
+                }
+            }
+            for run in finite_runs(&s.points) {
+                chart
+                    .draw_series(LineSeries::new(run, c.stroke_width(width)))
+                    .map_err(de)?;
             }
         }
         Ok(())

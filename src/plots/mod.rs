@@ -31,7 +31,7 @@ pub use eigen::{eigenvalues, EigenPlot, EigenPoint};
 pub use fan::{fan, FanBand, FanChart};
 pub use frame::Titles;
 pub use heatmap::{contour_segments, heatmap, StabilityMap};
-pub use lines::{fiscal, paths, BarChart, LineChart, Reference, Series};
+pub use lines::{fiscal, paths, BarChart, LineChart, Reference, Series, OVERLAY_MAX};
 
 /// Why a figure could not be drawn or written.
 #[derive(Debug, thiserror::Error)]
@@ -103,6 +103,8 @@ impl Plot {
     pub fn size(&self) -> (u32, u32) {
         match self {
             Plot::Fan(f) => (style::WIDTH, fan::height(f.bands.len())),
+            Plot::Lines(l) => (style::WIDTH, l.height()),
+            Plot::Eigen(e) => (style::WIDTH, eigen::height(e.groups())),
             _ => (style::WIDTH, style::HEIGHT),
         }
     }

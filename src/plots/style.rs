@@ -126,21 +126,9 @@ pub fn tick(v: f64) -> String {
     }
 }
 
-/// An integer with a space between groups of three digits ("12 500").
+/// An integer with thousands separators, as every table writes it ([`crate::units::group`]).
 fn group_thousands(n: i64) -> String {
-    let digits = n.unsigned_abs().to_string();
-    let mut out = String::new();
-    for (i, c) in digits.chars().enumerate() {
-        if i > 0 && (digits.len() - i).is_multiple_of(3) {
-            out.push(' ');
-        }
-        out.push(c);
-    }
-    if n < 0 {
-        format!("-{out}")
-    } else {
-        out
-    }
+    crate::units::group(n as f64, 0)
 }
 
 /// Heights of the parts of a figure.
@@ -172,6 +160,12 @@ pub enum LegendKey {
     Dot,
     /// A solid box (bars).
     Bar,
+    /// A filled square (scatter points of a second group).
+    Square,
+    /// A filled triangle (a third group).
+    Triangle,
+    /// A cross (a fourth group, or points apart from the data).
+    Cross,
 }
 
 /// Left edge of the legend strip's first key, in pixels.
@@ -224,8 +218,8 @@ mod tests {
     #[test]
     fn ticks_are_short_and_consistent() {
         assert_eq!(tick(8000.0), "8000");
-        assert_eq!(tick(12500.0), "12 500");
-        assert_eq!(tick(-250000.0), "-250 000");
+        assert_eq!(tick(12500.0), "12,500");
+        assert_eq!(tick(-250000.0), "-250,000");
         assert_eq!(tick(2.5e7), "25.0M");
         assert_eq!(tick(0.25), "0.25");
         assert_eq!(tick(-0.0), "0");

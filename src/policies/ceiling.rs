@@ -210,11 +210,15 @@ impl Rule for Ceiling {
         )
     }
 
+    fn price_lines(&self) -> Vec<(&'static str, f64)> {
+        vec![("ceiling", self.price)]
+    }
+
     fn rows(&self) -> Vec<Row> {
         vec![
             Row {
                 label: "price ceiling ({price})",
-                value: Cell::Number(self.price, 2),
+                value: Cell::Price(self.price),
             },
             Row {
                 label: "ceiling instrument",

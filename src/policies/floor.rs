@@ -215,11 +215,15 @@ impl Rule for Floor {
         )
     }
 
+    fn price_lines(&self) -> Vec<(&'static str, f64)> {
+        vec![("floor", self.price)]
+    }
+
     fn rows(&self) -> Vec<Row> {
         vec![
             Row {
                 label: "price floor ({price})",
-                value: Cell::Number(self.price, 2),
+                value: Cell::Price(self.price),
             },
             Row {
                 label: "floor instrument",

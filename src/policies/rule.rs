@@ -68,8 +68,10 @@ pub struct Row {
 /// A value in the assumptions table.
 #[derive(Debug, Clone, PartialEq)]
 pub enum Cell {
-    /// A price or quantity (∞ shows as "unlimited").
-    Amount(f64),
+    /// A price (∞ shows as "unlimited").
+    Price(f64),
+    /// A quantity (∞ shows as "unlimited").
+    Quantity(f64),
     /// A plain number with this many decimals.
     Number(f64, usize),
     /// Words.
@@ -95,6 +97,8 @@ pub trait Rule: Send + Sync + std::fmt::Debug {
     fn reference_price(&self) -> f64;
     /// One line for `check`, e.g. `floor 95 by purchase, announced`.
     fn describe(&self) -> String;
+    /// The prices it defends, to draw on a price chart: (words before the price, price), finite only.
+    fn price_lines(&self) -> Vec<(&'static str, f64)>;
     /// Its rows of the policy assumptions table (see [`Section::absent`] for a policy without it).
     fn rows(&self) -> Vec<Row>;
     /// A warning in words when the rule cannot be kept up at the free market's steady state.

@@ -482,24 +482,35 @@ impl Rule for Stock {
         )
     }
 
+    fn price_lines(&self) -> Vec<(&'static str, f64)> {
+        let mut out = Vec::new();
+        if self.buy_below.is_finite() && self.buy_below > 0.0 {
+            out.push(("buys below", self.buy_below));
+        }
+        if self.sell_above.is_finite() {
+            out.push(("sells above", self.sell_above));
+        }
+        out
+    }
+
     fn rows(&self) -> Vec<Row> {
         use crate::output::fmt_num;
         vec![
             Row {
                 label: "stock buys below ({price})",
-                value: Cell::Amount(self.buy_below),
+                value: Cell::Price(self.buy_below),
             },
             Row {
                 label: "stock sells above ({price})",
-                value: Cell::Amount(self.sell_above),
+                value: Cell::Price(self.sell_above),
             },
             Row {
                 label: "capacity ({quantity})",
-                value: Cell::Amount(self.capacity),
+                value: Cell::Quantity(self.capacity),
             },
             Row {
                 label: "initial stock ({quantity})",
-                value: Cell::Amount(self.initial),
+                value: Cell::Quantity(self.initial),
             },
             Row {
                 label: "release rule",
@@ -519,7 +530,7 @@ impl Rule for Stock {
             },
             Row {
                 label: "storage cost ({price} per season)",
-                value: Cell::Amount(self.storage_cost),
+                value: Cell::Price(self.storage_cost),
             },
             Row {
                 label: "loss rate per season",

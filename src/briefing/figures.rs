@@ -1,13 +1,13 @@
-//! From engine results to figures: which plots each verb draws, their file stems, captions, axis
-//! labels and units (taken from the market file). Drawing itself is `furrow::plots`.
+//! From results to figures: which plots the briefing and each verb's `--plots` draw, their file
+//! stems, captions, axis labels and units (from the market file, money through [`crate::units`]).
+//! Drawing itself is [`crate::plots`]; long series arrive thinned ([`super::path`]).
 
-use anyhow::Context;
-use furrow::engine::{Model, PeriodRecord};
-use furrow::plots::{self, CobwebStep, EigenPoint, Plot, Series};
-use furrow::scenario::{PolicySpec, Scenario};
-use furrow::stability::StabilityReport;
-
-use super::super::common::{say, PlotDir};
+use super::path::{PathDigest, COBWEB_SEASONS};
+use crate::engine::{Model, PeriodRecord};
+use crate::plots::{self, CobwebStep, EigenPoint, Plot, Series};
+use crate::scenario::{PolicySpec, Scenario};
+use crate::stability::StabilityReport;
+use crate::units::Units;
 
 /// A figure with its file stem and the caption the report shows.
 pub struct Figure {
@@ -17,19 +17,6 @@ pub struct Figure {
     pub caption: String,
     /// The plot.
     pub plot: Plot,
-}
-
-/// The unit of money: price unit × quantity unit, with "X per t × kt" read as "thousand X".
-pub fn money_unit(price_unit: &str, quantity_unit: &str) -> String {
-    if let Some(cur) = price_unit.strip_suffix(" per t") {
-        match quantity_unit {
-            "t" => return cur.to_string(),
-            "kt" => return format!("thousand {cur}"),
-            "Mt" => return format!("million {cur}"),
-            _ => {}
-        }
-    }
-    format!("{price_unit} × {quantity_unit}")
 }
 
 /// A file-name-safe stem fragment.
@@ -50,15 +37,62 @@ pub fn slug(s: &str) -> String {
     }
 }
 
-/// Price, harvest and fiscal-cost paths of one simulated path per policy, overlaid.
-pub fn path_figures(scenario: &Scenario, runs: &[(String, Vec<PeriodRecord>)]) -> Vec<Figure> {
+/// The price lines a policy defends, to draw on its price chart (each rule's, when finite: the floor,
+/// the stock's purchase and sale prices, the ceiling).
+pub fn policy_lines(policy: &PolicySpec) -> Vec<plots::Reference> {
+    let mut out = Vec::new();
+    let g = |x: f64| crate::units::group(x, crate::units::decimals(crate::units::Measure::Price));
+    // each rule names the prices it defends (`Rule::price_lines`)
+    for rule in &policy.rules {
+        for (words, value) in rule.price_lines() {
+            out.push(plots::Reference {
+                label: format!("{words} {}", g(value)),
+                value,
+            });
+        }
+    }
+    out
+}
+
+/// Money series scaled to one unit chosen by their magnitude; returns the unit's name.
+fn scale_money(units: &Units, series: &mut [Series]) -> String {
+    let scale = units.money_scale(series.iter().flat_map(|s| s.points.iter().map(|p| p.1)));
+    for s in series.iter_mut() {
+        for p in &mut s.points {
+            p.1 /= scale.divisor;
+        }
+    }
+    scale.label
+}
+
+/// Price, harvest and fiscal-cost paths of one simulated path per policy (the market left alone
+/// first): overlaid up to four lines, one panel per policy beyond (the market left alone in grey in
+/// each). Price charts carry each policy's floor and band lines. Fiscal charts leave out policies
+/// that never spend and are not drawn at all when none does.
+pub fn path_figures(
+    scenario: &Scenario,
+    policies: &[&PolicySpec],
+    runs: &[PathDigest],
+) -> Vec<Figure> {
     let m = &scenario.market;
-    let series = |f: fn(&PeriodRecord) -> f64| -> Vec<Series> {
+    let units = Units::new(&m.price_unit, &m.quantity_unit);
+    let series = |f: fn(&PathDigest) -> &Vec<(f64, f64)>| -> Vec<Series> {
         runs.iter()
-            .map(|(name, recs)| {
-                Series::periods(name.clone(), &recs.iter().map(f).collect::<Vec<_>>())
+            .map(|d| Series {
+                name: d.name.clone(),
+                points: f(d).clone(),
             })
             .collect()
+    };
+    let periods = runs.first().map_or(0, |d| d.periods);
+    let stride = runs.first().map_or(1, |d| d.stride);
+    let thinned = if stride > 1 {
+        format!(
+            "; {} seasons drawn as the lowest and highest value of every {stride}",
+            crate::units::group(periods as f64, 0)
+        )
+    } else {
+        String::new()
     };
     let shocks = if scenario.shocks.is_deterministic() {
         "no shocks".to_string()
@@ -69,64 +103,42 @@ pub fn path_figures(scenario: &Scenario, runs: &[(String, Vec<PeriodRecord>)]) -
         &format!("{}: market price by policy", m.name),
         "period (season)",
         &format!("market price ({})", m.price_unit),
-        series(|r| r.price),
+        series(|d| &d.price),
     );
     if let Plot::Lines(l) = &mut price {
-        l.titles.subtitle =
-            format!("{shocks}; dashed: the steady-state price without intervention");
+        let lines = policies.iter().any(|p| !policy_lines(p).is_empty());
+        l.titles.subtitle = format!(
+            "{shocks}; dashed: the steady state{}{thinned}",
+            if lines {
+                " (grey) and each policy's floor and band (its colour)"
+            } else {
+                ""
+            }
+        );
         l.references.push(plots::Reference {
             label: "steady state".into(),
             value: scenario.steady.price,
         });
+        for (i, p) in policies.iter().enumerate() {
+            for r in policy_lines(p) {
+                l.series_references.push((i, r));
+            }
+        }
     }
     let mut harvest = plots::paths(
         &format!("{}: harvest by policy", m.name),
         "period (season)",
         &format!("harvest ({})", m.quantity_unit),
-        series(|r| r.harvest),
+        series(|d| &d.harvest),
     );
     if let Plot::Lines(l) = &mut harvest {
-        l.titles.subtitle = format!("{shocks}; dashed: the steady-state quantity");
+        l.titles.subtitle = format!("{shocks}; dashed: the steady-state quantity{thinned}");
         l.references.push(plots::Reference {
             label: "steady state".into(),
             value: scenario.steady.quantity,
         });
     }
-    let fiscal = plots::fiscal(
-        &format!("{}: fiscal cost by period", m.name),
-        "period (season)",
-        &format!(
-            "fiscal cost ({})",
-            money_unit(&m.price_unit, &m.quantity_unit)
-        ),
-        series(|r| r.fiscal_cost),
-    );
-    let cumulative: Vec<Series> = series(|r| r.fiscal_cost)
-        .into_iter()
-        .map(|mut s| {
-            let mut acc = 0.0;
-            for p in &mut s.points {
-                acc += p.1;
-                p.1 = acc;
-            }
-            s
-        })
-        .collect();
-    let mut cum = plots::paths(
-        &format!("{}: cumulative fiscal cost", m.name),
-        "period (season)",
-        &format!(
-            "cumulative fiscal cost ({})",
-            money_unit(&m.price_unit, &m.quantity_unit)
-        ),
-        cumulative,
-    );
-    if let Plot::Lines(l) = &mut cum {
-        l.titles.subtitle =
-            "running total, undiscounted; stock still held is not yet credited".into();
-        l.include_zero = true;
-    }
-    vec![
+    let mut figs = vec![
         Figure {
             stem: "price_paths".into(),
             caption: format!("Market price per season under each policy ({shocks})."),
@@ -137,20 +149,69 @@ pub fn path_figures(scenario: &Scenario, runs: &[(String, Vec<PeriodRecord>)]) -
             caption: format!("Harvest per season under each policy ({shocks})."),
             plot: harvest,
         },
-        Figure {
-            stem: "fiscal_cost".into(),
-            caption:
-                "Fiscal cost per season: purchases, storage, financing and payments, less sales."
-                    .into(),
-            plot: fiscal,
-        },
-        Figure {
-            stem: "fiscal_cumulative".into(),
-            caption: "Cumulative fiscal cost: what each policy has cost the treasury so far."
+    ];
+    // fiscal charts: only policies that spend or receive something
+    let spenders: Vec<&PathDigest> = runs.iter().filter(|d| !d.no_fiscal).collect();
+    let palette: Vec<usize> = runs
+        .iter()
+        .enumerate()
+        .filter(|(_, d)| !d.no_fiscal)
+        .map(|(i, _)| i)
+        .collect();
+    if spenders.is_empty() {
+        return figs;
+    }
+    let mut per_season: Vec<Series> = spenders
+        .iter()
+        .map(|d| Series {
+            name: d.name.clone(),
+            points: d.fiscal.clone(),
+        })
+        .collect();
+    let money = scale_money(&units, &mut per_season);
+    let mut fiscal = plots::fiscal(
+        &format!("{}: fiscal cost by period", m.name),
+        "period (season)",
+        &format!("fiscal cost ({money})"),
+        per_season,
+    );
+    if let Plot::Lines(l) = &mut fiscal {
+        l.palette = palette.clone();
+    }
+    let mut cumulative: Vec<Series> = spenders
+        .iter()
+        .map(|d| Series {
+            name: d.name.clone(),
+            points: d.cumulative_fiscal.clone(),
+        })
+        .collect();
+    let money = scale_money(&units, &mut cumulative);
+    let mut cum = plots::paths(
+        &format!("{}: cumulative fiscal cost", m.name),
+        "period (season)",
+        &format!("cumulative fiscal cost ({money})"),
+        cumulative,
+    );
+    if let Plot::Lines(l) = &mut cum {
+        l.titles.subtitle =
+            "running total, undiscounted; stock still held is not yet credited".into();
+        l.include_zero = true;
+        l.reference_first = false;
+        l.palette = palette;
+    }
+    figs.push(Figure {
+        stem: "fiscal_cost".into(),
+        caption:
+            "Fiscal cost per season: purchases, storage, financing and payments, less sales (policies that spend nothing are left out)."
                 .into(),
-            plot: cum,
-        },
-    ]
+        plot: fiscal,
+    });
+    figs.push(Figure {
+        stem: "fiscal_cumulative".into(),
+        caption: "Cumulative fiscal cost: what each policy has cost the treasury so far.".into(),
+        plot: cum,
+    });
+    figs
 }
 
 /// The cobweb diagram of one path.
@@ -161,7 +222,8 @@ pub fn cobweb_figure(
     stem: &str,
 ) -> Figure {
     let model = Model::new(scenario, policy);
-    let steps = records
+    let shown = records.len().min(COBWEB_SEASONS);
+    let steps = records[..shown]
         .iter()
         .map(|r| CobwebStep {
             quantity: r.harvest,
@@ -181,8 +243,13 @@ pub fn cobweb_figure(
     Figure {
         stem: stem.into(),
         caption: format!(
-            "Cobweb diagram under “{}”: demand and supply with the simulated path as the staircase between them.",
-            policy.name
+            "Cobweb diagram under “{}”: demand and supply with the simulated path as the staircase between them{}.",
+            policy.name,
+            if shown < scenario.run.periods {
+                format!(" (the first {shown} of {} seasons)", scenario.run.periods)
+            } else {
+                String::new()
+            }
         ),
         plot,
     }
@@ -218,69 +285,14 @@ pub fn eigen_figure(reports: &[(String, StabilityReport)]) -> Option<Figure> {
     })
 }
 
-/// Writes every figure into `dir` (PNG and SVG, each whole or not at all), records them in the
-/// folder's manifest, and says where; figures an earlier run wrote there and this one did not are
-/// removed with `--clean`, otherwise named on stderr.
-pub fn write_all(dir: &PlotDir, figures: &[Figure]) -> anyhow::Result<()> {
-    let mut written = Vec::new();
-    for f in figures {
-        match f.plot.write(&dir.path, &f.stem) {
-            Ok(paths) => written.extend(
-                paths
-                    .iter()
-                    .filter_map(|p| p.file_name().map(|n| n.to_string_lossy().to_string())),
-            ),
-            Err(furrow::plots::PlotError::Empty(_)) => say(&format!(
-                "plot `{}` skipped: no finite values to draw",
-                f.stem
-            )),
-            Err(e) => {
-                return Err(e).with_context(|| {
-                    format!(
-                        "cannot draw the plot `{}` into {}",
-                        f.stem,
-                        dir.path.display()
-                    )
-                })
-            }
-        }
-    }
-    if written.is_empty() {
-        std::fs::create_dir_all(&dir.path)
-            .with_context(|| format!("cannot create {}", dir.path.display()))?;
-    }
-    let update = plots::update_manifest(&dir.path, &written, dir.clean)
-        .with_context(|| format!("cannot update the plot list in {}", dir.path.display()))?;
-    say(&format!(
-        "wrote {} plots (PNG and SVG) into {}",
-        written.len() / 2,
-        dir.path.display()
-    ));
-    if !update.removed.is_empty() {
-        say(&format!(
-            "--clean: removed {} files an earlier run wrote there: {}",
-            update.removed.len(),
-            update.removed.join(", ")
-        ));
-    }
-    if !update.stale.is_empty() {
-        say(&format!(
-            "{} stale plot files from an earlier run are present in {} ({}); pass --clean to remove them",
-            update.stale.len(),
-            dir.path.display(),
-            update.stale.join(", ")
-        ));
-    }
-    Ok(())
-}
-
 /// The figures of `run --plots`: paths, the cobweb and the fiscal cost of one path.
 pub fn run_figures(
     scenario: &Scenario,
     policy: &PolicySpec,
     records: &[PeriodRecord],
 ) -> Vec<Figure> {
-    let mut figs = path_figures(scenario, &[(policy.name.clone(), records.to_vec())]);
+    let digest = super::path::digest_records(&policy.name, records);
+    let mut figs = path_figures(scenario, &[policy], &[digest]);
     figs.insert(1, cobweb_figure(scenario, policy, records, "cobweb"));
     figs
 }

@@ -56,10 +56,10 @@ fn strip_attr(tag: &str, name: &str) -> String {
 /// True when a table cell holds a number, a range of numbers or n/a (right-aligned in tables).
 pub fn is_numeric(cell: &str) -> bool {
     let one = |s: &str| {
-        let t = s.trim().trim_end_matches('%');
-        t == "n/a" || (!t.is_empty() && t.parse::<f64>().is_ok())
+        let t = s.trim();
+        t == "n/a" || crate::units::parse_grouped(t).is_some()
     };
-    cell.split(" … ").all(one)
+    !cell.contains('\n') && cell.split(" … ").flat_map(|p| p.split(" ± ")).all(one)
 }
 
 /// The page's whole style sheet (inline; no fonts or images are fetched).
@@ -83,7 +83,14 @@ aside.caution strong { color: var(--soil); }
 nav.toc { font-size: 14px; color: var(--muted); margin: 12px 0 0; }
 nav.toc a { color: var(--lake); margin-right: 14px; text-decoration: none; }
 table { border-collapse: collapse; margin: 8px 0 6px; font-size: 14px; width: auto; max-width: 100%; }
-.tablewrap { overflow-x: auto; }
+.tablewrap { overflow-x: auto; max-width: 100%; }
+.tablegroup { margin: 10px 0 14px; }
+th, td { overflow-wrap: break-word; }
+section.keyfigures table { width: 100%; }
+section.keyfigures td, section.keyfigures th { font-size: 13px; }
+section.caveats { font-size: 14px; color: var(--ink); }
+section.caveats h3 { margin-top: 10px; }
+section.caveats li { margin: 3px 0; }
 caption { caption-side: top; text-align: left; font-weight: bold; padding: 4px 0; }
 th, td { padding: 4px 10px; border-bottom: 1px solid #ebe5d8; vertical-align: top; }
 thead th { background: #f1ece1; border-bottom: 2px solid var(--rule); text-align: left; }
@@ -96,5 +103,18 @@ figcaption { font-size: 14px; color: var(--muted); margin-top: 4px; }
 p.note { font-size: 14px; color: var(--muted); }
 code { font-size: 90%; background:#f1ece1; padding: 0 3px; }
 footer { margin-top: 40px; font-size: 13px; color: var(--muted); border-top: 1px solid var(--rule); padding-top: 8px; }
-@media print { main { border: none; max-width: none; } figure, table { page-break-inside: avoid; } }
+@media print {
+  @page { size: A4; margin: 12mm; }
+  body { background: none; font-size: 11px; }
+  main { border: none; max-width: none; padding: 0; }
+  table, section.keyfigures td, section.keyfigures th { font-size: 10px; }
+  th, td { padding: 2px 5px; }
+  .tablewrap { overflow: visible; }
+  nav.toc { display: none; }
+  figure, tr, .tablewrap { break-inside: avoid; page-break-inside: avoid; }
+  h2, h3, caption { break-after: avoid; page-break-after: avoid; }
+  figure svg { max-height: 230mm; }
+  aside.caution { break-inside: avoid; }
+  section.annexes-start { break-before: page; page-break-before: always; }
+}
 "#;

@@ -2,12 +2,12 @@
 //! that took a default or a command-line override, and the derived steady state; plus the
 //! side-by-side table of policies and the provenance rows.
 
-use anyhow::Context;
-use furrow::output::{fmt_num, TextTable};
-use furrow::scenario::{parse_toml, ExpectationSpec, PolicySpec, Scenario};
 use sha2::{Digest, Sha256};
 
-use super::super::common::CommonArgs;
+use super::{BriefingError, Overrides};
+use crate::output::{fmt_num, TextTable};
+use crate::scenario::{parse_toml, ExpectationSpec, PolicySpec, Scenario};
+use crate::units::{group, Measure};
 
 fn value_text(v: &toml::Value) -> String {
     match v {
@@ -45,8 +45,11 @@ fn trim(s: String) -> String {
 }
 
 /// The keys written in `path`, flattened to dotted names (sorted by section and key).
-pub fn file_keys(path: &str) -> anyhow::Result<Vec<(String, String)>> {
-    let text = std::fs::read_to_string(path).with_context(|| format!("cannot read {path}"))?;
+pub fn file_keys(path: &str) -> Result<Vec<(String, String)>, BriefingError> {
+    let text = std::fs::read_to_string(path).map_err(|source| BriefingError::Read {
+        path: path.to_string(),
+        source,
+    })?;
     let table = parse_toml(path, &text)?;
     let mut out = Vec::new();
     flatten("", &table, &mut out);
@@ -54,8 +57,11 @@ pub fn file_keys(path: &str) -> anyhow::Result<Vec<(String, String)>> {
 }
 
 /// The SHA-256 of a file, in hex.
-pub fn sha256_file(path: &str) -> anyhow::Result<String> {
-    let bytes = std::fs::read(path).with_context(|| format!("cannot read {path}"))?;
+pub fn sha256_file(path: &str) -> Result<String, BriefingError> {
+    let bytes = std::fs::read(path).map_err(|source| BriefingError::Read {
+        path: path.to_string(),
+        source,
+    })?;
     let digest = Sha256::digest(&bytes);
     Ok(digest.iter().map(|b| format!("{b:02x}")).collect())
 }
@@ -65,16 +71,16 @@ pub fn assumption_table(
     scenario: &Scenario,
     market_path: &str,
     policies: &[(String, PolicySpec)],
-    common: &CommonArgs,
-) -> anyhow::Result<TextTable> {
+    common: &Overrides,
+) -> Result<TextTable, BriefingError> {
     let mut t = TextTable::new(&["setting", "value", "source"]);
     let written = file_keys(market_path)?;
     let has = |k: &str| written.iter().any(|(w, _)| w == k);
     for (k, v) in &written {
         let overridden = match k.as_str() {
-            "run.seed" => common.seed.is_some(),
-            "run.replications" => common.replications.is_some(),
-            "run.periods" => common.periods.is_some(),
+            "run.seed" => common.seed,
+            "run.replications" => common.replications,
+            "run.periods" => common.periods,
             _ => false,
         };
         let src = if overridden {
@@ -86,32 +92,40 @@ pub fn assumption_table(
     }
     let r = &scenario.run;
     let s = &scenario.shocks;
-    let effective: Vec<(&str, String, Option<bool>)> = vec![
-        (
-            "run.periods",
-            r.periods.to_string(),
-            common.periods.map(|_| true),
-        ),
+    let effective: Vec<(&str, String, bool)> = vec![
+        ("run.periods", r.periods.to_string(), common.periods),
         (
             "run.replications",
             r.replications.to_string(),
-            common.replications.map(|_| true),
+            common.replications,
         ),
-        ("run.seed", r.seed.to_string(), common.seed.map(|_| true)),
-        ("run.discount_rate", trim(fmt_num(r.discount_rate, 6)), None),
-        ("run.risk_aversion", trim(fmt_num(r.risk_aversion, 6)), None),
+        ("run.seed", r.seed.to_string(), common.seed),
+        (
+            "run.discount_rate",
+            trim(fmt_num(r.discount_rate, 6)),
+            false,
+        ),
+        (
+            "run.risk_aversion",
+            trim(fmt_num(r.risk_aversion, 6)),
+            false,
+        ),
         // the accounting conventions in force, named whether or not the file sets them
-        ("run.opening_stock", r.opening_stock.as_str().into(), None),
-        ("run.terminal_stock", r.terminal_stock.as_str().into(), None),
+        ("run.opening_stock", r.opening_stock.as_str().into(), false),
+        (
+            "run.terminal_stock",
+            r.terminal_stock.as_str().into(),
+            false,
+        ),
         (
             "run.public_funds_cost",
             trim(fmt_num(r.public_funds_cost, 6)),
-            None,
+            false,
         ),
         (
             "run.crop_income_share",
             trim(fmt_num(r.crop_income_share, 6)),
-            None,
+            false,
         ),
         (
             "run.alert_price",
@@ -124,19 +138,19 @@ pub fn assumption_table(
                     .collect::<Vec<_>>()
                     .join(", ")
             },
-            None,
+            false,
         ),
-        ("shocks.yield_cv", trim(fmt_num(s.yield_cv, 6)), None),
-        ("shocks.supply_sd", trim(fmt_num(s.supply_sd, 6)), None),
-        ("shocks.demand_sd", trim(fmt_num(s.demand_sd, 6)), None),
+        ("shocks.yield_cv", trim(fmt_num(s.yield_cv, 6)), false),
+        ("shocks.supply_sd", trim(fmt_num(s.supply_sd, 6)), false),
+        ("shocks.demand_sd", trim(fmt_num(s.demand_sd, 6)), false),
         (
             "shocks.demand_persistence",
             trim(fmt_num(s.demand_persistence, 6)),
-            None,
+            false,
         ),
     ];
     for (k, v, cli) in effective {
-        if cli.is_some() {
+        if cli {
             t.push(vec![k.to_string(), v, "command line".into()]);
         } else if !has(k) {
             t.push(vec![
@@ -159,12 +173,12 @@ pub fn assumption_table(
     ]);
     t.push(vec![
         "steady state price".into(),
-        fmt_num(scenario.steady.price, 3),
+        group(scenario.steady.price, 3),
         "derived: D(P) = S(P)".into(),
     ]);
     t.push(vec![
         "steady state quantity".into(),
-        fmt_num(scenario.steady.quantity, 3),
+        group(scenario.steady.quantity, 3),
         "derived: D(P) = S(P)".into(),
     ]);
     for (path, _) in policies.iter().filter(|(p, _)| !p.is_empty()) {
@@ -175,18 +189,19 @@ pub fn assumption_table(
     Ok(t)
 }
 
-fn money(x: f64) -> String {
+fn level(x: f64, m: Measure) -> String {
     if x.is_finite() {
-        fmt_num(x, 2)
+        group(x, crate::units::decimals(m))
     } else {
         "unlimited".into()
     }
 }
 
-fn cell(c: &furrow::policies::rule::Cell) -> String {
-    use furrow::policies::rule::Cell;
+fn cell(c: &crate::policies::rule::Cell) -> String {
+    use crate::policies::rule::Cell;
     match c {
-        Cell::Amount(x) => money(*x),
+        Cell::Price(x) => level(*x, Measure::Price),
+        Cell::Quantity(x) => level(*x, Measure::Quantity),
         Cell::Number(x, decimals) => fmt_num(*x, *decimals),
         Cell::Text(t) => t.clone(),
     }
@@ -218,7 +233,7 @@ pub fn policy_table(
         r
     });
     // each registered rule section gives its rows (`Rule::rows`), or its "absent" values
-    for section in furrow::policies::SECTIONS {
+    for section in crate::policies::SECTIONS {
         for (i, (label, absent)) in section.absent.iter().enumerate() {
             let label = label
                 .replace("{price}", price_unit)
