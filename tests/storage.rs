@@ -85,7 +85,8 @@ fn prohibitive_storage_cost_gives_the_inverse_demand_of_the_harvest() {
             "{z}: {}",
             row.price
         );
-        assert!((row.planted - 480.0).abs() < 1e-8, "{}", row.planted);
+        // (the continuous-shock quadrature integrates E[Y] = 1 to about 1e-10 relative)
+        assert!((row.planted - 480.0).abs() < 1e-7, "{}", row.planted);
     }
     // simulated prices are then i.i.d. with sd = Q*·cv(Y)/|b| (linear transform of the yield factor)
     let path = simulate(&Equilibrium::Private(sol), &s.shocks, 11, 0, 0.0, 20_000);

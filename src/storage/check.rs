@@ -42,9 +42,6 @@ impl PrivateSolution {
             }
             hi = next;
         }
-        if let Some(s) = &self.rule.spline {
-            hi = hi.min(*s.knots().last().unwrap_or(&hi));
-        }
         let mut lo = lo;
         if hi - lo < 0.05 * m.q_star {
             lo = lo.min(0.9 * m.q_star);
@@ -85,7 +82,7 @@ impl PrivateSolution {
         let price = self.rule.price(m, z);
         let x = self.rule.stock(m, z);
         let q = self.planted_at(x);
-        let (psi, _) = expected_next(m, m.keep * x, q, &|v| self.rule.eval(m, v));
+        let (psi, _) = expected_next(m, m.keep * x, q, &self.rule, &self.breaks);
         if price <= 0.0 {
             return 0.0;
         }
