@@ -100,7 +100,16 @@ impl Equilibrium {
     pub fn stock_top(&self) -> f64 {
         match self {
             Equilibrium::Private(s) => match &s.rule.spline {
-                Some(sp) => s.stocks[(sp.knots().len() - 1).min(s.stocks.len() - 1)],
+                // the grid ends where the price reaches zero (free disposal): no storer carries
+                // more than the stock there, so the rule covers every stock a path can hold
+                Some(sp) if sp.knots().len() < s.stocks.len() => {
+                    let choke = s.market.demand.quantity(0.0);
+                    match s.rule.zero_price_point() {
+                        Some(z0) if choke.is_finite() => z0 - choke,
+                        _ => s.stocks[sp.knots().len() - 1],
+                    }
+                }
+                Some(sp) => s.stocks[sp.knots().len() - 1],
                 None => *s.stocks.last().unwrap_or(&0.0),
             },
             Equilibrium::Public(s) => *s.stocks.last().unwrap_or(&0.0),

@@ -53,11 +53,29 @@ impl PriceRule {
     }
 
     /// Private stock carried out of a period with availability `z`: z − D(P(z)), zero below the kink.
+    /// Where the price has fallen to zero (linear demand, free disposal) storers hold what they hold
+    /// where it reaches zero, [`Self::zero_price_point`] − D(0): carrying more would not pay, and the
+    /// rest is disposed of.
     pub fn stock(&self, m: &StorageMarket, z: f64) -> f64 {
         if z <= self.kink {
             return 0.0;
         }
-        (z - m.demand.quantity(self.price(m, z))).max(0.0)
+        let (p, _) = self.eval(m, z);
+        if p <= 0.0 {
+            if let Some(z0) = self.zero_price_point() {
+                return (z0.min(z) - m.demand.quantity(0.0)).max(0.0);
+            }
+        }
+        (z - m.demand.quantity(p)).max(0.0)
+    }
+
+    /// The availability at which the rule's price reaches zero (the last knot's value continued
+    /// with its end tangent, as [`Monotone::eval`] extends it), if it does.
+    pub fn zero_price_point(&self) -> Option<f64> {
+        let s = self.spline.as_ref()?;
+        let (z, p) = (*s.knots().last()?, *s.values().last()?);
+        let (_, d) = s.eval(z);
+        (d < 0.0).then(|| z - p / d)
     }
 }
 
@@ -265,6 +283,9 @@ pub struct PrivateSolution {
     pub breaks: Vec<f64>,
     /// Largest Euler residual over the checked range, once measured (NaN before).
     pub residual: f64,
+    /// The availabilities (net of the demand shock) the indicator path reaches, lowest and highest,
+    /// once simulated: the range the residual is checked on ([`Self::range`]).
+    pub reach: Option<(f64, f64)>,
 }
 
 impl PrivateSolution {
@@ -455,6 +476,7 @@ fn iterate(
                 change,
                 breaks,
                 residual: f64::NAN,
+                reach: None,
             });
         }
     }
