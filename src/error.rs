@@ -9,12 +9,13 @@ use std::error::Error;
 pub struct RunFailed(pub String);
 
 /// Exit code of a failed verb: 1 when a run failed (an error in the chain is a diverging path,
-/// [`crate::engine::Diverged`], or [`RunFailed`]), 2 for anything else (bad input or usage).
+/// [`crate::engine::Diverged`], [`RunFailed`], or a storage solve that did not converge), 2 for anything else (bad input or usage).
 pub fn exit_code(err: &(dyn Error + 'static)) -> u8 {
     let mut e: Option<&(dyn Error + 'static)> = Some(err);
     while let Some(cur) = e {
         if cur.downcast_ref::<crate::engine::Diverged>().is_some()
             || cur.downcast_ref::<RunFailed>().is_some()
+            || crate::storage::run_failure(cur)
         {
             return 1;
         }

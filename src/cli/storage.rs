@@ -22,9 +22,17 @@ pub struct StorageArgs {
     /// Points of the public-stock grid (only with a policy that holds stock).
     #[arg(long, default_value_t = 16)]
     pub public_grid: usize,
-    /// Gauss–Hermite nodes per shock.
+    /// Gauss–Hermite nodes over the yield factor, used only when the market also has an additive
+    /// shock (supply_sd or demand_sd): the continuous shock (the additive one, or the yield factor
+    /// alone) is integrated exactly between the breakpoints of next season's price, so more nodes do
+    /// not change the result otherwise.
     #[arg(long, default_value_t = 10)]
     pub nodes: usize,
+    /// Convergence tolerance: largest change of the price rule between iterations, relative to the
+    /// steady-state price. However loose, the solve fails (exit 1) if its Euler residual ends above
+    /// 1e-6.
+    #[arg(long, default_value_t = 1e-9)]
+    pub tolerance: f64,
     /// Rows of the printed grid of availability.
     #[arg(long, default_value_t = 21)]
     pub rows: usize,
@@ -49,6 +57,7 @@ pub fn execute(args: &StorageArgs) -> anyhow::Result<()> {
         grid_2d: args.grid.unwrap_or(d.grid_2d),
         public_grid: args.public_grid,
         nodes: args.nodes,
+        tolerance: args.tolerance,
         ..d
     };
     if args.path {

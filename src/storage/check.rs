@@ -25,27 +25,35 @@ pub struct GridRow {
 }
 
 impl PrivateSolution {
-    /// The availability range the equilibrium is reported and checked on: from the harvest at −3 sd of
-    /// the shocks (with nothing carried in) up to the availability reached by a run of +3 sd harvests
-    /// with storers carrying what the rule says (the ergodic upper end), and always past the kink.
+    /// The availability range the equilibrium is reported and checked on: the availabilities the
+    /// indicator path reaches (set by [`super::solve`], [`PrivateSolution::reach`]); before that
+    /// (a bare solve) from the harvest at −3 sd of the shocks (with nothing carried in) up to the
+    /// availability reached by a run of +3 sd harvests with storers carrying what the rule says,
+    /// but not past the solved grid. Always at least 5 % of Q* wide and past the kink, so that the
+    /// check reaches where storers hold stock.
     pub fn range(&self) -> (f64, f64) {
         let m = &self.market;
-        let q0 = self.planted[0];
-        let (lo, hi0) = m.harvest_range(q0);
-        let mut hi = hi0;
-        for _ in 0..200 {
-            let x = self.rule.stock(m, hi);
-            let next = m.keep * x + m.harvest_range(self.planted_at(x)).1;
-            if (next - hi).abs() <= 1e-9 * m.q_star {
-                hi = next;
-                break;
+        let (mut lo, mut hi) = match self.reach {
+            Some(r) => r,
+            None => {
+                let q0 = self.planted[0];
+                let (lo, hi0) = m.harvest_range(q0);
+                let mut hi = hi0;
+                for _ in 0..200 {
+                    let x = self.rule.stock(m, hi);
+                    let next = m.keep * x + m.harvest_range(self.planted_at(x)).1;
+                    if (next - hi).abs() <= 1e-9 * m.q_star {
+                        hi = next;
+                        break;
+                    }
+                    hi = next;
+                }
+                if let Some(s) = &self.rule.spline {
+                    hi = hi.min(*s.knots().last().unwrap_or(&hi));
+                }
+                (lo, hi)
             }
-            hi = next;
-        }
-        if let Some(s) = &self.rule.spline {
-            hi = hi.min(*s.knots().last().unwrap_or(&hi));
-        }
-        let mut lo = lo;
+        };
         if hi - lo < 0.05 * m.q_star {
             lo = lo.min(0.9 * m.q_star);
             hi = hi.max(1.1 * m.q_star);
@@ -85,7 +93,7 @@ impl PrivateSolution {
         let price = self.rule.price(m, z);
         let x = self.rule.stock(m, z);
         let q = self.planted_at(x);
-        let (psi, _) = expected_next(m, m.keep * x, q, &|v| self.rule.eval(m, v));
+        let (psi, _) = expected_next(m, m.keep * x, q, &self.rule, &self.breaks);
         if price <= 0.0 {
             return 0.0;
         }

@@ -58,7 +58,13 @@ fn stocks(band: &Band, g: f64) -> Vec<f64> {
 /// `tol`. Bisection until the bracket is narrower than `near`, then Newton steps kept inside the
 /// bracket (bisection where a step would leave it), so that a far start in a steep, convex region
 /// (constant-elasticity demand near zero consumption) cannot stall the search.
-fn boundary<F: Fn(f64) -> (f64, f64)>(f: F, mut lo: f64, mut hi: f64, tol: f64, near: f64) -> f64 {
+pub(crate) fn boundary<F: Fn(f64) -> (f64, f64)>(
+    f: F,
+    mut lo: f64,
+    mut hi: f64,
+    tol: f64,
+    near: f64,
+) -> f64 {
     let mut x = 0.5 * (lo + hi);
     for _ in 0..300 {
         let (v, d) = f(x);

@@ -68,6 +68,11 @@ pub struct PublicSolution {
     pub iterations: usize,
     /// Last change of the rules (relative to P*).
     pub change: f64,
+    /// Largest Euler residual over the checked range, once measured (NaN before).
+    pub residual: f64,
+    /// The box of states (availability low, high; public stock carried in low, high) the indicator
+    /// path reaches, once simulated: the range the residual is checked on.
+    pub reach: Option<[f64; 4]>,
 }
 
 pub(crate) use super::blend::row_price;
@@ -220,6 +225,9 @@ impl PublicSolution {
     /// The availability range reported and checked: the harvest at ±3 sd of the shocks around the
     /// steady state, widened above by a quarter for carried stock.
     pub fn range(&self) -> (f64, f64) {
+        if let Some(r) = self.reach {
+            return (r[0], r[1]);
+        }
         let m = &self.market;
         let (lo, hi) = m.harvest_range(m.q_star);
         if hi - lo < 0.05 * m.q_star {
@@ -254,7 +262,11 @@ impl PublicSolution {
         (0..ng)
             .into_par_iter()
             .map(|l| {
-                let g = self.band.keep * self.band.capacity * l as f64 / (ng - 1) as f64;
+                let (g_lo, g_hi) = match self.reach {
+                    Some(r) => (r[2], r[3]),
+                    None => (0.0, self.band.keep * self.band.capacity),
+                };
+                let g = g_lo + (g_hi - g_lo) * l as f64 / (ng - 1) as f64;
                 (0..nz)
                     .map(|i| self.euler_residual(lo + (hi - lo) * i as f64 / (nz - 1) as f64, g))
                     .fold(0.0_f64, f64::max)

@@ -19,11 +19,9 @@ pub fn solve_public(
 ) -> Result<PublicSolution, StorageError> {
     let n = o.grid_2d.max(8);
     let mm = o.public_grid.max(2);
-    let x_max = if m.harvest_sd > 0.0 {
-        (10.0 * m.harvest_sd).min(m.q_star)
-    } else {
-        0.1 * m.q_star
-    };
+    let x_max = o
+        .stock_bound
+        .unwrap_or_else(|| super::solve::first_stock_bound(&m));
     let stocks: Vec<f64> = (0..n)
         .map(|j| x_max * (j as f64 / (n - 1) as f64).powi(2))
         .collect();
@@ -130,6 +128,30 @@ pub fn refine_public(
     Ok(sol)
 }
 
+/// Extends the private-stock grid of a two-state solution up to `x_max` (long paths carry more than
+/// the grid held) and solves again from the current rules.
+pub fn extend_public(
+    sol: PublicSolution,
+    x_max: f64,
+    o: &SolveOptions,
+) -> Result<PublicSolution, StorageError> {
+    let mut stocks = Vec::new();
+    let planted: Vec<Vec<f64>> = sol
+        .planted
+        .iter()
+        .map(|row| {
+            let (s, q) = super::solve::continue_grid(&sol.stocks, row, x_max);
+            stocks = s;
+            q
+        })
+        .collect();
+    let total = sol.iterations;
+    let start = (sol.publics.clone(), sol.rows.clone());
+    let mut out = iterate(sol.market, sol.band, stocks, sol.publics, planted, start, o)?;
+    out.iterations += total;
+    Ok(out)
+}
+
 /// `v` with the midpoint of every interval whose flag is set inserted.
 fn halve(v: &[f64], split: &[bool]) -> Vec<f64> {
     let mut out = Vec::with_capacity(v.len() * 2);
@@ -229,6 +251,8 @@ fn iterate(
                 planted,
                 iterations: it,
                 change,
+                residual: f64::NAN,
+                reach: None,
             });
         }
     }

@@ -115,8 +115,13 @@ pub struct SolvedStorage {
 
 impl SolvedStorage {
     /// Solves the equilibrium of `scenario` under `policy` with the default numerical settings.
+    ///
+    /// Each (market, policy) pair is solved once per process: `compare`, its `--plots` and `report`
+    /// ask for the same equilibria more than once, and a solve of the same validated inputs with the
+    /// default settings gives the same rules, so later requests reuse the first solution (an
+    /// in-process cache of the last [`CACHE_SIZE`] solves, compared by value).
     pub fn new(scenario: &Scenario, policy: &PolicySpec) -> Result<Self, super::StorageError> {
-        let equilibrium = super::solve(scenario, policy, &super::SolveOptions::default())?;
+        let equilibrium = cached_solve(scenario, policy)?;
         let initial_public = if super::band_of(policy)?.is_some() {
             crate::policies::compile(policy).agency.initial
         } else {
@@ -167,4 +172,37 @@ impl SolvedStorage {
             &self.path(replication, periods),
         )
     }
+}
+
+/// Solves kept for reuse within one process ([`SolvedStorage::new`]).
+pub const CACHE_SIZE: usize = 16;
+
+type Cache = Vec<(Scenario, PolicySpec, super::simulate::Equilibrium)>;
+
+fn cache() -> &'static std::sync::Mutex<Cache> {
+    static CACHE: std::sync::OnceLock<std::sync::Mutex<Cache>> = std::sync::OnceLock::new();
+    CACHE.get_or_init(|| std::sync::Mutex::new(Vec::new()))
+}
+
+/// The default-settings solve of (`scenario`, `policy`), from the cache when it was solved before.
+fn cached_solve(
+    scenario: &Scenario,
+    policy: &PolicySpec,
+) -> Result<super::simulate::Equilibrium, super::StorageError> {
+    let found = cache().lock().ok().and_then(|c| {
+        c.iter()
+            .find(|(s, p, _)| s == scenario && p == policy)
+            .map(|e| e.2.clone())
+    });
+    if let Some(eq) = found {
+        return Ok(eq);
+    }
+    let eq = super::solve(scenario, policy, &super::SolveOptions::default())?;
+    if let Ok(mut c) = cache().lock() {
+        if c.len() >= CACHE_SIZE {
+            c.remove(0);
+        }
+        c.push((scenario.clone(), policy.clone(), eq.clone()));
+    }
+    Ok(eq)
 }

@@ -21,6 +21,9 @@ pub struct StorageReport {
     pub iterations: usize,
     /// Price above which private storers hold nothing.
     pub stockout_price: f64,
+    /// Share of the periods of the indicator path (the longest path furrow simulates: 10 200
+    /// seasons) whose private stock lies beyond the solved grid, where the rules are extrapolated.
+    pub extrapolated_share: f64,
     /// Points of the solution grid.
     pub grid_points: usize,
     /// Points of the dense test grid.
@@ -39,15 +42,18 @@ pub fn report(
 ) -> Result<StorageReport, StorageError> {
     check_options(options, rows)?;
     let eq = solve(scenario, policy, options)?;
+    let residual = eq.euler_residual_max();
+    let extrapolated = super::extrapolated_share(&eq, scenario, super::initial_public(policy)?);
     let (market, policy) = (scenario.market.name.clone(), policy.name.clone());
     Ok(match eq {
         Equilibrium::Private(sol) => StorageReport {
             market,
             policy,
-            method: "endogenous grid method on private stock (Carroll 2006), monotone cubic interpolation (Fritsch-Carlson), Gauss-Hermite quadrature, grid refined where the residual exceeds 1e-7".into(),
-            euler_residual_max: sol.euler_residual_max(options.test_points),
+            method: "endogenous grid method on private stock (Carroll 2006), monotone cubic interpolation (Fritsch-Carlson), expectations by Gauss-Legendre quadrature over the shock split at the breakpoints of next period's price, grid refined where the residual exceeds 1e-7 and extended as far as simulated paths carry stock".into(),
+            euler_residual_max: residual,
             iterations: sol.iterations,
             stockout_price: sol.stockout_price(),
+            extrapolated_share: extrapolated,
             grid_points: sol.stocks.len(),
             test_points: options.test_points,
             grid: sol.grid(rows),
@@ -76,9 +82,10 @@ pub fn report(
                 market,
                 policy,
                 method: "endogenous grid method on private stock for each public stock of a grid (Carroll 2006), monotone cubic interpolation in availability (Fritsch-Carlson), cubic Lagrange in public stock with the stockout points aligned, expectations by Gauss-Legendre quadrature over the shock split at the breakpoints of next period's price".into(),
-                euler_residual_max: sol.euler_residual_max(nz, 9),
+                euler_residual_max: residual,
                 iterations: sol.iterations,
                 stockout_price: sol.stockout_price(0.0),
+                extrapolated_share: extrapolated,
                 grid_points: sol.stocks.len() * sol.publics.len(),
                 test_points: nz * 9,
                 grid,

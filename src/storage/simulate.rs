@@ -61,11 +61,66 @@ impl Equilibrium {
         }
     }
 
-    /// Largest arbitrage residual on the default test grid.
+    /// Largest arbitrage residual on the test grid (as measured by [`Self::measure_residual`] when
+    /// the equilibrium was solved; on the default test grid otherwise).
     pub fn euler_residual_max(&self) -> f64 {
         match self {
+            Equilibrium::Private(s) if s.residual.is_finite() => s.residual,
+            Equilibrium::Public(s) if s.residual.is_finite() => s.residual,
             Equilibrium::Private(s) => s.euler_residual_max(2001),
             Equilibrium::Public(s) => s.euler_residual_max(201, 9),
+        }
+    }
+
+    /// Measures the largest arbitrage residual on `points` test points (one state; two states:
+    /// `points`/10 + 1 availabilities × 9 public stocks), keeps it and returns it.
+    pub fn measure_residual(&mut self, points: usize) -> f64 {
+        match self {
+            Equilibrium::Private(s) => {
+                s.residual = s.euler_residual_max(points);
+                s.residual
+            }
+            Equilibrium::Public(s) => {
+                s.residual = s.euler_residual_max(points / 10 + 1, 9);
+                s.residual
+            }
+        }
+    }
+
+    /// Points of the residual test grid for `points` requested ([`Self::measure_residual`]).
+    pub fn test_points(&self, points: usize) -> usize {
+        match self {
+            Equilibrium::Private(_) => points,
+            Equilibrium::Public(_) => (points / 10 + 1) * 9,
+        }
+    }
+
+    /// Largest private stock carried out that the solved grid holds (beyond it the rules are
+    /// extrapolated).
+    pub fn stock_top(&self) -> f64 {
+        match self {
+            Equilibrium::Private(s) => match &s.rule.spline {
+                // the grid ends where the price reaches zero (free disposal): no storer carries
+                // more than the stock there, so the rule covers every stock a path can hold
+                Some(sp) if sp.knots().len() < s.stocks.len() => {
+                    let choke = s.market.demand.quantity(0.0);
+                    match s.rule.zero_price_point() {
+                        Some(z0) if choke.is_finite() => z0 - choke,
+                        _ => s.stocks[sp.knots().len() - 1],
+                    }
+                }
+                Some(sp) => s.stocks[sp.knots().len() - 1],
+                None => *s.stocks.last().unwrap_or(&0.0),
+            },
+            Equilibrium::Public(s) => *s.stocks.last().unwrap_or(&0.0),
+        }
+    }
+
+    /// Private stock carried out at the upper end of the range the residual is checked on.
+    pub fn range_stock(&self) -> f64 {
+        match self {
+            Equilibrium::Private(s) => s.rule.stock(&s.market, s.range().1),
+            Equilibrium::Public(s) => s.clear(s.range().1, 0.0).private_stock,
         }
     }
 
@@ -97,7 +152,7 @@ impl Equilibrium {
         let m = self.market();
         match self {
             Equilibrium::Private(s) => {
-                super::solve::expected_producer(m, m.keep * x, q, &|z| s.rule.eval(m, z)).0
+                super::solve::expected_producer(m, m.keep * x, q, &s.rule, &s.breaks).0
             }
             Equilibrium::Public(s) => s.expected_producer(x, public, q),
         }
@@ -116,25 +171,28 @@ impl Equilibrium {
     }
 
     /// Planting for next season and the expected price it is planted on, after a period that
-    /// cleared at `price` with `x` private and `public` public units carried out. With a public stock
-    /// and no planting floor the expectation is read off the storers' arbitrage condition instead of
+    /// cleared at `price` with `x` private and `public` public units carried out. Without a planting
+    /// floor the expectation is read off the storers' arbitrage condition instead of
     /// being integrated again: the solved rules satisfy β·E[P'] − k = P wherever private stock is
     /// carried, and β·E[P' | x = 0] − k = the stockout price at the public stock carried where none is
     /// (the endogenous grid's own relation), so E[P'] = (P + k)/β up to the equilibrium's Euler
     /// residual, and planting is S(E[P']). Otherwise as [`Self::plant_and_expect`].
     pub fn plant_after(&self, price: f64, x: f64, public: f64) -> (f64, f64) {
-        if let Equilibrium::Public(s) = self {
-            let m = &s.market;
-            if m.planting_floor <= 0.0 {
-                let at = if x > 1e-9 * m.q_star {
-                    Some(price)
-                } else {
-                    super::blend::stockout_price(&s.publics, &s.rows, public)
-                };
-                if let Some(p) = at {
-                    let expected = (p + m.cost) / m.discount;
-                    return (m.supply_at(expected).0, expected);
+        let m = self.market();
+        if m.planting_floor <= 0.0 {
+            let at = if x > 1e-9 * m.q_star {
+                Some(price)
+            } else {
+                match self {
+                    Equilibrium::Private(s) => s.rule.spline.as_ref().map(|_| s.stockout_price()),
+                    Equilibrium::Public(s) => {
+                        super::blend::stockout_price(&s.publics, &s.rows, public)
+                    }
                 }
+            };
+            if let Some(p) = at {
+                let expected = (p + m.cost) / m.discount;
+                return (m.supply_at(expected).0, expected);
             }
         }
         self.plant_and_expect(x, public)

@@ -9,6 +9,7 @@
 
 use super::interp::Monotone;
 use super::market::StorageMarket;
+use super::split::next_nodes;
 use super::StorageError;
 
 /// The equilibrium price as a function of availability (net of the demand shock).
@@ -52,62 +53,113 @@ impl PriceRule {
     }
 
     /// Private stock carried out of a period with availability `z`: z − D(P(z)), zero below the kink.
+    /// Where the price has fallen to zero (linear demand, free disposal) storers hold what they hold
+    /// where it reaches zero, [`Self::zero_price_point`] − D(0): carrying more would not pay, and the
+    /// rest is disposed of.
     pub fn stock(&self, m: &StorageMarket, z: f64) -> f64 {
         if z <= self.kink {
             return 0.0;
         }
-        (z - m.demand.quantity(self.price(m, z))).max(0.0)
+        let (p, _) = self.eval(m, z);
+        if p <= 0.0 {
+            if let Some(z0) = self.zero_price_point() {
+                return (z0.min(z) - m.demand.quantity(0.0)).max(0.0);
+            }
+        }
+        (z - m.demand.quantity(p)).max(0.0)
+    }
+
+    /// The availability at which the rule's price reaches zero (the last knot's value continued
+    /// with its end tangent, as [`Monotone::eval`] extends it), if it does.
+    pub fn zero_price_point(&self) -> Option<f64> {
+        let s = self.spline.as_ref()?;
+        let (z, p) = (*s.knots().last()?, *s.values().last()?);
+        let (_, d) = s.eval(z);
+        (d < 0.0).then(|| z - p / d)
     }
 }
 
+/// The ascending availabilities in (0, `hi`) where the rule z ↦ P(z) (or the producer price
+/// max(P, F) with F the planting floor) is not smooth: the stockout kink, where the price reaches
+/// zero (linear demand, free disposal) and where it crosses the planting floor. Found once per rule;
+/// the expectations integrate the continuous shock exactly between them ([`super::split`]), as the
+/// two-state solve does.
+pub fn rule_breaks(m: &StorageMarket, rule: &PriceRule, hi: f64) -> Vec<f64> {
+    let lo = 1e-6 * m.q_star;
+    let tol = 1e-12 * m.q_star.max(1.0);
+    let near = 1e-3 * m.q_star.max(1.0);
+    let mut out = Vec::with_capacity(3);
+    if rule.kink.is_finite() && rule.kink > lo && rule.kink < hi {
+        out.push(rule.kink);
+    }
+    let mut levels = vec![0.0];
+    if m.planting_floor > 0.0 {
+        levels.push(m.planting_floor);
+    }
+    for level in levels {
+        let f = |z: f64| {
+            let (p, d) = rule.eval(m, z);
+            (p - level, d)
+        };
+        if f(lo).0 > 0.0 && f(hi).0 <= 0.0 {
+            out.push(super::next_price::boundary(f, lo, hi, tol, near));
+        }
+    }
+    out.sort_by(f64::total_cmp);
+    out.dedup_by(|a, b| (*a - *b).abs() <= tol);
+    out
+}
+
+/// Highest next availability the one-state breakpoints are searched up to (as
+/// [`super::public::reach`] for the two-state solve).
+pub fn reach(m: &StorageMarket, stocks: &[f64]) -> f64 {
+    super::public::reach(m, stocks)
+}
+
 /// Expected next price E[P'] and its derivative in planted `q`, when `carried` units of private stock
-/// arrive next period and `next(z)` gives next period's price and slope.
+/// arrive next period and `rule` gives next period's price, by the breakpoint-splitting quadrature
+/// over the continuous shock ([`super::split::next_nodes`]) at the rule's breakpoints `breaks`
+/// ([`rule_breaks`]).
 #[inline]
-pub fn expected_next<F: Fn(f64) -> (f64, f64)>(
+pub fn expected_next(
     m: &StorageMarket,
     carried: f64,
     q: f64,
-    next: &F,
+    rule: &PriceRule,
+    breaks: &[f64],
 ) -> (f64, f64) {
     let (mut e, mut d) = (0.0, 0.0);
-    for n in &m.nodes {
-        let h = q * n.y + n.e;
-        let (p, dp) = next(carried + h.max(0.0));
-        e += n.w * p;
-        if h > 0.0 {
-            d += n.w * dp * n.y;
-        }
-    }
+    next_nodes(m, carried, q, breaks, |z, dz, w| {
+        let (p, dp) = rule.eval(m, z);
+        e += w * p;
+        d += w * dp * dz;
+    });
     (e, d)
 }
 
 /// Expected next producer price E[max(P', floor)] and its derivative in `q`, with the expected market
-/// price E[P'] (the same when there is no deficiency-payment floor).
+/// price E[P'] (the same when there is no deficiency-payment floor), by the breakpoint-splitting
+/// quadrature as [`expected_next`].
 #[inline]
-pub fn expected_producer<F: Fn(f64) -> (f64, f64)>(
+pub fn expected_producer(
     m: &StorageMarket,
     carried: f64,
     q: f64,
-    next: &F,
+    rule: &PriceRule,
+    breaks: &[f64],
 ) -> (f64, f64, f64) {
-    if m.planting_floor <= 0.0 {
-        let (e, d) = expected_next(m, carried, q, next);
-        return (e, d, e);
-    }
+    let floor = m.planting_floor;
     let (mut ep, mut d, mut e) = (0.0, 0.0, 0.0);
-    for n in &m.nodes {
-        let h = q * n.y + n.e;
-        let (p, dp) = next(carried + h.max(0.0));
-        e += n.w * p;
-        if p > m.planting_floor {
-            ep += n.w * p;
-            if h > 0.0 {
-                d += n.w * dp * n.y;
-            }
+    next_nodes(m, carried, q, breaks, |z, dz, w| {
+        let (p, dp) = rule.eval(m, z);
+        e += w * p;
+        if p > floor {
+            ep += w * p;
+            d += w * dp * dz;
         } else {
-            ep += n.w * m.planting_floor;
+            ep += w * floor;
         }
-    }
+    });
     (ep, d, e)
 }
 
@@ -116,13 +168,16 @@ pub fn expected_producer<F: Fn(f64) -> (f64, f64)>(
 ///
 /// g(q) = q − S(E[P'(q)]) is increasing with slope ≥ 1 (more planted, lower expected price), g(0) ≤ 0,
 /// so the root is unique; Newton steps are kept inside the bracket, with bisection as a fallback.
-pub fn plant<F: Fn(f64) -> (f64, f64)>(
+pub fn plant(
     m: &StorageMarket,
     carried: f64,
     guess: f64,
-    next: &F,
+    rule: &PriceRule,
+    breaks: &[f64],
 ) -> (f64, f64) {
-    plant_with(m, guess, &|q| expected_producer(m, carried, q, next))
+    plant_with(m, guess, &|q| {
+        expected_producer(m, carried, q, rule, breaks)
+    })
 }
 
 /// [`plant`] with the expectation given as a function of planted q: `expect(q)` returns
@@ -190,6 +245,8 @@ pub struct SolveOptions {
     pub grid_2d: usize,
     /// Points of the public-stock grid of the two-state solve.
     pub public_grid: usize,
+    /// Largest private stock of the first grid (None: [`first_stock_bound`]).
+    pub stock_bound: Option<f64>,
 }
 
 impl Default for SolveOptions {
@@ -202,6 +259,7 @@ impl Default for SolveOptions {
             test_points: 2001,
             grid_2d: 150,
             public_grid: 16,
+            stock_bound: None,
         }
     }
 }
@@ -221,6 +279,13 @@ pub struct PrivateSolution {
     pub iterations: usize,
     /// Last change of the price rule (relative to P*).
     pub change: f64,
+    /// The rule's breakpoints ([`rule_breaks`]) the expectations are split at.
+    pub breaks: Vec<f64>,
+    /// Largest Euler residual over the checked range, once measured (NaN before).
+    pub residual: f64,
+    /// The availabilities (net of the demand shock) the indicator path reaches, lowest and highest,
+    /// once simulated: the range the residual is checked on ([`Self::range`]).
+    pub reach: Option<(f64, f64)>,
 }
 
 impl PrivateSolution {
@@ -233,7 +298,7 @@ impl PrivateSolution {
             - 1;
         let guess = self.planted[k];
         let m = &self.market;
-        plant(m, m.keep * x, guess, &|z| self.rule.eval(m, z)).0
+        plant(m, m.keep * x, guess, &self.rule, &self.breaks).0
     }
 
     /// The stockout price: storers hold stock only when the price is below it (0 when nobody ever stores).
@@ -245,15 +310,53 @@ impl PrivateSolution {
     }
 }
 
+/// The largest private stock of the first grid: ten harvest standard deviations, at most Q*, and at
+/// least 0.1·Q* (with tiny risk the rule must still reach past the stockout point the paths and the
+/// residual check visit; the grid is extended later where long paths go further, [`extend`]).
+pub fn first_stock_bound(m: &StorageMarket) -> f64 {
+    (10.0 * m.harvest_sd).min(m.q_star).max(0.1 * m.q_star)
+}
+
+/// `stocks` continued past its end up to `x_max` with the spacing of its last interval; `planted`
+/// continued with its last value (Newton's starting guesses).
+pub fn continue_grid(stocks: &[f64], planted: &[f64], x_max: f64) -> (Vec<f64>, Vec<f64>) {
+    let n = stocks.len();
+    let last = stocks[n - 1];
+    let h = (last - stocks[n - 2]).max(1e-9 * x_max.abs().max(1.0));
+    let extra = ((x_max - last) / h).ceil().max(0.0) as usize;
+    let step = if extra > 0 {
+        (x_max - last) / extra as f64
+    } else {
+        h
+    };
+    let mut s = stocks.to_vec();
+    let mut q = planted.to_vec();
+    for i in 1..=extra {
+        s.push(last + step * i as f64);
+        q.push(planted[n - 1]);
+    }
+    (s, q)
+}
+
+/// Extends the stock grid of a solution up to `x_max` (long paths carry more than the grid held)
+/// and solves again from the current rule.
+pub fn extend(
+    sol: PrivateSolution,
+    x_max: f64,
+    o: &SolveOptions,
+) -> Result<PrivateSolution, StorageError> {
+    let (stocks, planted) = continue_grid(&sol.stocks, &sol.planted, x_max);
+    let total = sol.iterations;
+    let mut out = iterate(sol.market, stocks, planted, sol.rule, o)?;
+    out.iterations += total;
+    Ok(out)
+}
+
 /// Solves the private-storage equilibrium by the endogenous grid method on `o.grid` points of private
 /// stock, spaced quadratically (dense near zero stock, where the price rule bends most).
 pub fn solve_private(m: StorageMarket, o: &SolveOptions) -> Result<PrivateSolution, StorageError> {
     let n = o.grid.max(8);
-    let x_max = if m.harvest_sd > 0.0 {
-        (10.0 * m.harvest_sd).min(m.q_star)
-    } else {
-        0.1 * m.q_star
-    };
+    let x_max = first_stock_bound(&m);
     let stocks: Vec<f64> = (0..n)
         .map(|j| x_max * (j as f64 / (n - 1) as f64).powi(2))
         .collect();
@@ -326,11 +429,13 @@ fn iterate(
     let mut old: Vec<f64> = Vec::new();
     let mut change = f64::INFINITY;
     let (mut zs, mut ps) = (Vec::with_capacity(n), Vec::with_capacity(n));
+    let hi = reach(&m, &stocks);
+    let mut breaks = rule_breaks(&m, &rule, hi);
     for it in 1..=o.max_iterations {
         zs.clear();
         ps.clear();
         for (j, &x) in stocks.iter().enumerate() {
-            let (q, psi) = plant(&m, m.keep * x, planted[j], &|z| rule.eval(&m, z));
+            let (q, psi) = plant(&m, m.keep * x, planted[j], &rule, &breaks);
             planted[j] = q;
             let p = m.discount * psi - m.cost;
             if p <= 0.0 || ps.last().is_some_and(|&last| p > last) {
@@ -360,6 +465,7 @@ fn iterate(
         } else {
             PriceRule::no_storage()
         };
+        breaks = rule_breaks(&m, &rule, hi);
         if change < o.tolerance {
             return Ok(PrivateSolution {
                 market: m,
@@ -368,6 +474,9 @@ fn iterate(
                 planted,
                 iterations: it,
                 change,
+                breaks,
+                residual: f64::NAN,
+                reach: None,
             });
         }
     }
