@@ -256,7 +256,7 @@ pub fn solve(
 /// The public stock simulated paths start with: the policy's initial stock when it runs a band.
 pub fn initial_public(policy: &PolicySpec) -> Result<f64, StorageError> {
     Ok(if band_of(policy)?.is_some() {
-        policy.stock.map_or(0.0, |s| s.initial)
+        crate::policies::compile(policy).agency.initial
     } else {
         0.0
     })
