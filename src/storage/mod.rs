@@ -106,7 +106,9 @@ fn describe_change(change: f64) -> String {
 
 /// Arbitrage residual the grid refinement aims below (relative to the price).
 pub const REFINE_TARGET: f64 = 1e-7;
-/// Arbitrage residual the two-state grid refinement aims below (target release rule only).
+/// Arbitrage residual at which the two-state grid refinement splits an interval (the target release
+/// rule always; other two-state solves whose residual is above the limit that applies, stopping once
+/// it is under that limit or a round no longer cuts it by a tenth).
 pub const REFINE_TARGET_2D: f64 = 1e-6;
 /// Largest refined grid.
 pub const REFINE_MAX_POINTS: usize = 5000;
@@ -209,7 +211,11 @@ pub fn solve(
             Equilibrium::Public(if matches!(band.release, agency::Release::Target { .. }) {
                 // the target rule's kinks lie on curves across the public-stock levels: refine
                 // where the residual exceeds the 2-D target (demo: 16 to 32 levels, 1.2e-5 to 9e-7)
-                public_solve::refine_public(sol, options, REFINE_TARGET_2D, 400, 64)?
+                let stop = public_solve::RefineStop {
+                    limit: REFINE_TARGET_2D,
+                    measure: None,
+                };
+                public_solve::refine_public(sol, options, REFINE_TARGET_2D, 400, 64, stop)?
             } else {
                 sol
             })
@@ -232,16 +238,30 @@ pub fn solve(
             // refine the two-state grids where the residual is too large (an unlimited store's
             // bound is wide and its stock mostly low: the public-stock levels are split there),
             // then measure again on the refined rules' own path
+            // each round is judged by the residual the check below uses: refinement stops once it
+            // is under the limit that applies (with a binding budget 1e-3, where the budget-bound
+            // kink keeps the 1e-6 target out of reach) or once a round no longer cuts it by a tenth
+            let mut measure = |s: &mut public::PublicSolution| -> f64 {
+                // (the path is simulated on a copy: simulation reads an equilibrium)
+                let path = indicator_path(&Equilibrium::Public(s.clone()), scenario, initial);
+                s.reach = Some(path_box(&path, s.band.keep, initial));
+                s.residual = s.euler_residual_max(options.test_points / 10 + 1, 9);
+                s.residual
+            };
+            let stop = public_solve::RefineStop {
+                limit,
+                measure: Some(&mut measure),
+            };
             let r = public_solve::refine_public(
                 s,
                 options,
                 REFINE_TARGET_2D,
                 REFINE_MAX_STOCKS_2D,
                 REFINE_MAX_PUBLICS_2D,
+                stop,
             )?;
             eq = Equilibrium::Public(r);
-            let _ = set_reach(&mut eq, scenario, initial);
-            residual = eq.measure_residual(options.test_points);
+            residual = eq.euler_residual_max();
         }
     }
     if residual.is_nan() || residual > limit {

@@ -44,51 +44,63 @@ pub fn solve_public(
     iterate(m, band, stocks, publics, planted, start, o)
 }
 
+/// A refinement round that does not cut the residual below this fraction of the last one is not
+/// material: refinement stops there (common practice, no source).
+pub const REFINE_STALL: f64 = 0.9;
+
+/// How a two-state refinement judges its progress: `measure` gives the residual of a solution (the
+/// one the caller's accuracy check uses; `None`: the largest residual the refinement's own scan of
+/// the grid finds), and refinement stops once it is at or below `limit`. A solution whose
+/// `residual` is already set is taken as measured.
+pub struct RefineStop<'a> {
+    pub limit: f64,
+    pub measure: Option<&'a mut dyn FnMut(&mut PublicSolution) -> f64>,
+}
+
 /// Refines a two-state solution: halves every private-stock interval where some row's residual at
 /// its quarter points exceeds `target`, and every public-stock interval where the residual at its
-/// midpoint does, then solves again from the current rules; stops when nothing is too coarse or the
-/// grids would pass `max_stocks` × `max_publics` points.
+/// midpoint does, then solves again from the current rules. Stops when nothing is too coarse, the
+/// grids would pass `max_stocks` × `max_publics` points, the residual ([`RefineStop`]) is at or below
+/// `stop.limit`, or a round cut it by less than a tenth ([`REFINE_STALL`]); returns the solution
+/// with the lowest residual reached.
 pub fn refine_public(
     mut sol: PublicSolution,
     o: &SolveOptions,
     target: f64,
     max_stocks: usize,
     max_publics: usize,
+    mut stop: RefineStop<'_>,
 ) -> Result<PublicSolution, StorageError> {
     let mut total = sol.iterations;
+    // residual of the best solution so far (measured lazily for the scan's own residual)
+    let mut best: Option<(PublicSolution, f64)> = None;
+    // (a residual the caller measured already is taken as the first one)
+    let mut reached = match stop.measure.as_mut() {
+        Some(_) if sol.residual.is_finite() => Some(sol.residual),
+        Some(f) => Some(f(&mut sol)),
+        None => None,
+    };
     for _ in 0..12 {
-        let nx = sol.stocks.len();
-        let mut split_x = vec![false; nx - 1];
-        let mut split_g = vec![false; sol.publics.len() - 1];
-        let m = &sol.market;
-        for (mi, &g) in sol.publics.iter().enumerate() {
-            // y at the knots of this row: y_j = x_j + D(π_jm)
-            let ys: Vec<f64> = match &sol.rows[mi].spline {
-                Some(s) => s.knots().to_vec(),
-                None => continue,
-            };
-            for j in 0..ys.len() - 1 {
-                let worst = [0.25, 0.5, 0.75]
-                    .iter()
-                    .map(|f| sol.end_residual(ys[j] + f * (ys[j + 1] - ys[j]), g))
-                    .fold(0.0, f64::max);
-                if worst > target {
-                    split_x[j] = true;
+        let (split_x, split_g, scanned) = scan(&sol, target);
+        let residual = reached.unwrap_or(scanned);
+        if let Some((_, last)) = &best {
+            if residual > REFINE_STALL * last {
+                // not a material improvement: keep the better of the two and stop
+                if residual >= *last {
+                    sol = best.take().map_or(sol, |b| b.0);
                 }
-                if mi + 1 < sol.publics.len() && !split_g[mi] {
-                    let gm = 0.5 * (g + sol.publics[mi + 1]);
-                    if sol.end_residual(0.5 * (ys[j] + ys[j + 1]), gm) > target {
-                        split_g[mi] = true;
-                    }
-                }
+                return Ok(with_total(sol, total));
             }
-            let _ = m;
+        }
+        if residual <= stop.limit {
+            break;
         }
         let add_x = split_x.iter().filter(|&&b| b).count();
         let add_g = split_g.iter().filter(|&&b| b).count();
         if add_x + add_g == 0 {
             break;
         }
+        let nx = sol.stocks.len();
         let add_x = if nx + add_x > max_stocks { 0 } else { add_x };
         let add_g = if sol.publics.len() + add_g > max_publics {
             0
@@ -113,7 +125,7 @@ pub fn refine_public(
             .map(|&g| stocks.iter().map(|&x| sol.planted_guess(x, g)).collect())
             .collect();
         let start = (sol.publics.clone(), sol.rows.clone());
-        sol = iterate(
+        let mut next = iterate(
             sol.market.clone(),
             sol.band,
             stocks,
@@ -122,10 +134,55 @@ pub fn refine_public(
             start,
             o,
         )?;
-        total += sol.iterations;
-        sol.iterations = total;
+        total += next.iterations;
+        reached = match stop.measure.as_mut() {
+            Some(f) => Some(f(&mut next)),
+            None => None,
+        };
+        best = Some((std::mem::replace(&mut sol, next), residual));
     }
-    Ok(sol)
+    Ok(with_total(sol, total))
+}
+
+fn with_total(mut sol: PublicSolution, total: usize) -> PublicSolution {
+    sol.iterations = total;
+    sol
+}
+
+/// The intervals of both grids a refinement round splits (private stock: some row's residual at the
+/// quarter points above `target`; public stock: the residual at the midpoint above it) and the
+/// largest residual the scan met.
+fn scan(sol: &PublicSolution, target: f64) -> (Vec<bool>, Vec<bool>, f64) {
+    let mut split_x = vec![false; sol.stocks.len() - 1];
+    let mut split_g = vec![false; sol.publics.len() - 1];
+    let mut most = 0.0_f64;
+    for (mi, &g) in sol.publics.iter().enumerate() {
+        // y at the knots of this row: y_j = x_j + D(π_jm)
+        let ys: Vec<f64> = match &sol.rows[mi].spline {
+            Some(s) => s.knots().to_vec(),
+            None => continue,
+        };
+        for j in 0..ys.len() - 1 {
+            let worst = [0.25, 0.5, 0.75]
+                .iter()
+                .map(|f| sol.end_residual(ys[j] + f * (ys[j + 1] - ys[j]), g))
+                .fold(0.0, f64::max);
+            most = most.max(worst);
+            if worst > target {
+                split_x[j] = true;
+            }
+            // (every midpoint is evaluated: the largest residual met is compared between rounds)
+            if mi + 1 < sol.publics.len() {
+                let gm = 0.5 * (g + sol.publics[mi + 1]);
+                let r = sol.end_residual(0.5 * (ys[j] + ys[j + 1]), gm);
+                most = most.max(r);
+                if r > target {
+                    split_g[mi] = true;
+                }
+            }
+        }
+    }
+    (split_x, split_g, most)
 }
 
 /// Extends the private-stock grid of a two-state solution up to `x_max` (long paths carry more than
