@@ -135,10 +135,7 @@ pub fn refine_public(
             o,
         )?;
         total += next.iterations;
-        reached = match stop.measure.as_mut() {
-            Some(f) => Some(f(&mut next)),
-            None => None,
-        };
+        reached = stop.measure.as_mut().map(|f| f(&mut next));
         best = Some((std::mem::replace(&mut sol, next), residual));
     }
     Ok(with_total(sol, total))
