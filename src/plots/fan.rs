@@ -6,7 +6,7 @@ use plotters::coord::Shift;
 use plotters::prelude::*;
 use plotters::style::RGBColor;
 
-use super::frame::{builder, de, frame, mesh, Titles};
+use super::frame::{builder, de, frame, mesh, panel_mesh, Titles};
 use super::style::{self, LegendEntry, LegendKey};
 use super::{Plot, PlotError};
 
@@ -252,20 +252,7 @@ impl FanChart {
                 .build_cartesian_2d(1.0..n as f64, y0..y1)
                 .map_err(de)?;
             chart.plotting_area().fill(&style::FIELD).map_err(de)?;
-            chart
-                .configure_mesh()
-                .label_style(style::text(11, style::MUTED))
-                .light_line_style(style::GRID_LIGHT)
-                .bold_line_style(style::GRID_BOLD)
-                .axis_style(style::MUTED)
-                .x_labels(6)
-                .y_labels(5)
-                .x_max_light_lines(1)
-                .y_max_light_lines(1)
-                .x_label_formatter(&|v| style::tick(*v))
-                .y_label_formatter(&|v| style::tick(*v))
-                .draw()
-                .map_err(de)?;
+            panel_mesh(&mut chart)?;
             if i > 0 && self.reference_first {
                 if let Some(first) = self.bands.first() {
                     draw_band(&mut chart, first, grey, 0.12)?;

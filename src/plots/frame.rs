@@ -195,6 +195,27 @@ pub fn mesh_with<DB: DrawingBackend>(
         .map_err(de)
 }
 
+/// The grid and tick labels of one small-multiple panel (no axis titles: the figure's subtitle
+/// names the axes).
+pub fn panel_mesh<DB: DrawingBackend>(
+    chart: &mut ChartContext<'_, DB, Cartesian2d<RangedCoordf64, RangedCoordf64>>,
+) -> Result<(), PlotError> {
+    chart
+        .configure_mesh()
+        .label_style(style::text(11, style::MUTED))
+        .light_line_style(style::GRID_LIGHT)
+        .bold_line_style(style::GRID_BOLD)
+        .axis_style(style::MUTED)
+        .x_labels(6)
+        .y_labels(5)
+        .x_max_light_lines(1)
+        .y_max_light_lines(1)
+        .x_label_formatter(&|v| style::tick(*v))
+        .y_label_formatter(&|v| style::tick(*v))
+        .draw()
+        .map_err(de)
+}
+
 /// A chart builder on `area` with the house margins and label areas.
 pub fn builder<'a, 'b, DB: DrawingBackend>(
     area: &'a DrawingArea<DB, Shift>,

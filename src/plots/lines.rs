@@ -1,11 +1,12 @@
 //! Paths over periods: price and harvest across policies, and fiscal cost (bars for one policy,
 //! lines for several).
 
+use plotters::coord::types::RangedCoordf64;
 use plotters::coord::Shift;
 use plotters::prelude::*;
 use plotters::style::RGBColor;
 
-use super::frame::{builder, de, frame, mesh, Titles};
+use super::frame::{builder, de, frame, mesh, panel_mesh, Titles};
 use super::style::{self, LegendEntry, LegendKey};
 use super::{finite_runs, Plot, PlotError};
 
@@ -241,34 +242,7 @@ impl LineChart {
             .map_err(de)?;
         chart.plotting_area().fill(&style::FIELD).map_err(de)?;
         mesh(&mut chart, &self.x_label, &self.y_label)?;
-        if self.include_zero {
-            chart
-                .draw_series(LineSeries::new(
-                    vec![(x0, 0.0), (x1, 0.0)],
-                    style::MUTED.stroke_width(1),
-                ))
-                .map_err(de)?;
-        }
-        for r in &self.references {
-            chart
-                .draw_series(DashedLineSeries::new(
-                    vec![(x0, r.value), (x1, r.value)],
-                    8,
-                    6,
-                    style::REFERENCE.stroke_width(1),
-                ))
-                .map_err(de)?;
-        }
-        for (i, r) in &self.series_references {
-            chart
-                .draw_series(DashedLineSeries::new(
-                    vec![(x0, r.value), (x1, r.value)],
-                    10,
-                    6,
-                    self.colour(*i).stroke_width(2),
-                ))
-                .map_err(de)?;
-        }
+        self.draw_levels(&mut chart, (x0, x1), None)?;
         let many_points = self
             .series
             .iter()
@@ -312,6 +286,49 @@ impl LineChart {
 }
 
 impl LineChart {
+    /// The horizontal level lines: zero (when asked), the shared references, and the series' own
+    /// levels — every series' on a single chart, only series `only`'s on its panel.
+    fn draw_levels<DB: DrawingBackend>(
+        &self,
+        chart: &mut ChartContext<'_, DB, Cartesian2d<RangedCoordf64, RangedCoordf64>>,
+        (x0, x1): (f64, f64),
+        only: Option<usize>,
+    ) -> Result<(), PlotError> {
+        if self.include_zero {
+            chart
+                .draw_series(LineSeries::new(
+                    vec![(x0, 0.0), (x1, 0.0)],
+                    style::MUTED.stroke_width(1),
+                ))
+                .map_err(de)?;
+        }
+        for r in &self.references {
+            chart
+                .draw_series(DashedLineSeries::new(
+                    vec![(x0, r.value), (x1, r.value)],
+                    8,
+                    6,
+                    style::REFERENCE.stroke_width(1),
+                ))
+                .map_err(de)?;
+        }
+        let own = self
+            .series_references
+            .iter()
+            .filter(|(j, _)| only.is_none_or(|k| *j == k));
+        for (i, r) in own {
+            chart
+                .draw_series(DashedLineSeries::new(
+                    vec![(x0, r.value), (x1, r.value)],
+                    10,
+                    6,
+                    self.colour(*i).stroke_width(2),
+                ))
+                .map_err(de)?;
+        }
+        Ok(())
+    }
+
     /// Small multiples: one panel per series after the first, shared axes, the first series (the
     /// market left alone) in grey in each, and the series' own dashed lines.
     fn draw_panels<DB: DrawingBackend>(
@@ -375,48 +392,8 @@ impl LineChart {
                 .build_cartesian_2d(x0..x1, y0..y1)
                 .map_err(de)?;
             chart.plotting_area().fill(&style::FIELD).map_err(de)?;
-            chart
-                .configure_mesh()
-                .label_style(style::text(11, style::MUTED))
-                .light_line_style(style::GRID_LIGHT)
-                .bold_line_style(style::GRID_BOLD)
-                .axis_style(style::MUTED)
-                .x_labels(6)
-                .y_labels(5)
-                .x_max_light_lines(1)
-                .y_max_light_lines(1)
-                .x_label_formatter(&|v| style::tick(*v))
-                .y_label_formatter(&|v| style::tick(*v))
-                .draw()
-                .map_err(de)?;
-            if self.include_zero {
-                chart
-                    .draw_series(LineSeries::new(
-                        vec![(x0, 0.0), (x1, 0.0)],
-                        style::MUTED.stroke_width(1),
-                    ))
-                    .map_err(de)?;
-            }
-            for r in &self.references {
-                chart
-                    .draw_series(DashedLineSeries::new(
-                        vec![(x0, r.value), (x1, r.value)],
-                        8,
-                        6,
-                        style::REFERENCE.stroke_width(1),
-                    ))
-                    .map_err(de)?;
-            }
-            for (_, r) in self.series_references.iter().filter(|(j, _)| *j == i) {
-                chart
-                    .draw_series(DashedLineSeries::new(
-                        vec![(x0, r.value), (x1, r.value)],
-                        10,
-                        6,
-                        c.stroke_width(2),
-                    ))
-                    .map_err(de)?;
-            }
+            panel_mesh(&mut chart)?;
+            self.draw_levels(&mut chart, (x0, x1), Some(i))?;
             if let Some(first) = self.series.first().filter(|_| self.reference_first) {
                 for run in finite_runs(&first.points) {
                     chart
