@@ -3,22 +3,10 @@
 
 use super::figures::Figure;
 use super::path::COLUMNS;
-use crate::compare::{CompareResult, Kind, PolicyComparison, Value};
+use crate::compare::{render, CompareResult, Kind, PolicyComparison, Value};
 use crate::output::TextTable;
 use crate::plots::{self, FanBand, Series};
-use crate::units::{Measure, MoneyScale, Units};
-
-/// The measure of an indicator kind (`None` for words).
-pub fn measure(kind: Kind) -> Option<Measure> {
-    match kind {
-        Kind::Price => Some(Measure::Price),
-        Kind::Quantity => Some(Measure::Quantity),
-        Kind::Money => Some(Measure::Money),
-        Kind::Share => Some(Measure::Share),
-        Kind::Number => Some(Measure::Number),
-        Kind::Text => None,
-    }
-}
+use crate::units::{MoneyScale, Units};
 
 /// A per-period series thinned for a figure: blocks of `stride` periods (so at most
 /// [`COLUMNS`] of them), each reduced by `pick`.
@@ -208,17 +196,14 @@ pub fn figures(r: &CompareResult) -> Vec<Figure> {
 }
 
 fn unit(kind: Kind, units: &Units, scale: &MoneyScale) -> String {
-    measure(kind).map_or(String::new(), |m| units.unit(m, scale))
+    kind.measure()
+        .map_or(String::new(), |m| units.unit(m, scale))
 }
 
-/// One cell: numbers in the shared decimals with thousands separators (money in `scale`, shares
-/// as percentages), words as they are, "n/a" for what is missing.
-pub fn cell(v: Option<&Value>, kind: Kind, units: &Units, scale: &MoneyScale) -> String {
-    match (v, measure(kind)) {
-        (Some(Value::Number(x)), Some(m)) if x.is_finite() => units.show(*x, m, scale),
-        (Some(Value::Text(t)), _) => t.clone(),
-        _ => "n/a".into(),
-    }
+/// One cell, as the comparison's own tables show it (`compare::render::cell`); a missing value is
+/// "n/a".
+fn cell(v: Option<&Value>, kind: Kind, units: &Units, scale: &MoneyScale) -> String {
+    render::cell(v.unwrap_or(&Value::Missing), kind, units, scale)
 }
 
 /// The money scale of a whole comparison: one unit for every money figure of the page.

@@ -63,6 +63,21 @@ pub enum Kind {
     Text,
 }
 
+impl Kind {
+    /// The unit measure a number of this kind is shown in (`None` for words).
+    pub fn measure(self) -> Option<crate::units::Measure> {
+        use crate::units::Measure;
+        match self {
+            Kind::Price => Some(Measure::Price),
+            Kind::Quantity => Some(Measure::Quantity),
+            Kind::Money => Some(Measure::Money),
+            Kind::Share => Some(Measure::Share),
+            Kind::Number => Some(Measure::Number),
+            Kind::Text => None,
+        }
+    }
+}
+
 /// One row of the comparison.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Indicator {

@@ -22,7 +22,7 @@
 
 use super::{CompareResult, Kind, PolicyComparison, Value};
 use crate::output::{fmt_full, Format, TextTable};
-use crate::units::{group, Measure, MoneyScale, Units};
+use crate::units::{group, MoneyScale, Units};
 
 /// Columns of the terminal a table must fit.
 pub const TERMINAL_WIDTH: usize = 120;
@@ -195,17 +195,6 @@ pub fn money_scale(result: &CompareResult) -> MoneyScale {
     }))
 }
 
-fn measure(kind: Kind) -> Option<Measure> {
-    match kind {
-        Kind::Price => Some(Measure::Price),
-        Kind::Quantity => Some(Measure::Quantity),
-        Kind::Money => Some(Measure::Money),
-        Kind::Share => Some(Measure::Share),
-        Kind::Number => Some(Measure::Number),
-        Kind::Text => None,
-    }
-}
-
 /// Indicators as rows, one column per policy (full names, or the short codes when `codes`).
 pub fn wide_table(result: &CompareResult, codes: bool) -> TextTable {
     let columns = ordered_columns(result);
@@ -231,7 +220,10 @@ pub fn wide_table(result: &CompareResult, codes: bool) -> TextTable {
         if (is_quantile(&ind.key) || ind.key.ends_with("_se")) && first.get(stem).is_some() {
             continue;
         }
-        let unit = measure(ind.kind).map_or(String::new(), |m| units.unit(m, &scale));
+        let unit = ind
+            .kind
+            .measure()
+            .map_or(String::new(), |m| units.unit(m, &scale));
         let mut cells = vec![ind.label.clone(), unit];
         let se_key = format!("{}_se", ind.key);
         cells.extend(columns.iter().map(|(_, p)| {
@@ -475,8 +467,10 @@ fn is_quantile(key: &str) -> bool {
     key.ends_with("_p05") || key.ends_with("_p50") || key.ends_with("_p95")
 }
 
-fn cell(v: &Value, kind: Kind, units: &Units, scale: &MoneyScale) -> String {
-    match (v, measure(kind)) {
+/// One cell: numbers in the shared decimals with thousands separators (money in `scale`, shares
+/// as percentages), words as they are, "n/a" for what is missing.
+pub fn cell(v: &Value, kind: Kind, units: &Units, scale: &MoneyScale) -> String {
+    match (v, kind.measure()) {
         (Value::Number(x), Some(m)) if x.is_finite() => units.show(*x, m, scale),
         (Value::Text(s), _) => s.clone(),
         _ => "n/a".into(),
