@@ -311,22 +311,11 @@ fn statsmodels_reference_on_the_example_history() {
 }
 
 fn demo_options() -> FitOptions {
-    FitOptions {
-        demand_shifters: vec!["trend".into()],
-        supply_shifters: vec!["fertiliser_price".into(), "rainfall".into()],
-        method: FitMethod::TwoStage,
-        balance: Balance {
-            production: Some("production".into()),
-            domestic_use: Some("use".into()),
-            imports: Some("imports".into()),
-            exports: Some("exports".into()),
-            stock_change: Some("stock_change".into()),
-            area: Some("area".into()),
-            yield_col: Some("yield".into()),
-            ..FitOptions::default().balance
-        },
-        ..FitOptions::default()
-    }
+    let mut o = balance_options();
+    o.supply_shifters = vec!["fertiliser_price".into(), "rainfall".into()];
+    o.balance.area = Some("area".into());
+    o.balance.yield_col = Some("yield".into());
+    o
 }
 
 /// Checks every generator parameter is within `k` classical standard errors of its estimate.
