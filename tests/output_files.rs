@@ -40,15 +40,8 @@ fn run_csv_stdout() -> Vec<u8> {
     out.into_bytes()
 }
 
-#[test]
-fn out_to_a_fifo_writes_into_the_fifo() {
-    let dir = tempfile::tempdir().unwrap();
-    let fifo = dir.path().join("pipe");
-    mkfifo(&fifo);
-    let reader = {
-        let fifo = fifo.clone();
-        std::thread::spawn(move || std::fs::read(&fifo).unwrap())
-    };
+/// Runs the demo with `--format csv --out path`, asserting success.
+fn run_csv_to(path: &Path) {
     succeed(
         bin()
             .args([
@@ -58,8 +51,20 @@ fn out_to_a_fifo_writes_into_the_fifo() {
                 "csv",
                 "--out",
             ])
-            .arg(&fifo),
+            .arg(path),
     );
+}
+
+#[test]
+fn out_to_a_fifo_writes_into_the_fifo() {
+    let dir = tempfile::tempdir().unwrap();
+    let fifo = dir.path().join("pipe");
+    mkfifo(&fifo);
+    let reader = {
+        let fifo = fifo.clone();
+        std::thread::spawn(move || std::fs::read(&fifo).unwrap())
+    };
+    run_csv_to(&fifo);
     let got = reader.join().unwrap();
     assert_eq!(got, run_csv_stdout());
     // still a FIFO, and nothing else left in the folder
@@ -78,17 +83,7 @@ fn out_through_a_symlink_replaces_the_target_and_keeps_the_link() {
     std::fs::write(&target, "old contents\n").unwrap();
     let link = dir.path().join("latest.csv");
     std::os::unix::fs::symlink("data/result.csv", &link).unwrap();
-    succeed(
-        bin()
-            .args([
-                "run",
-                &demo("dunmere_cycle.toml"),
-                "--format",
-                "csv",
-                "--out",
-            ])
-            .arg(&link),
-    );
+    run_csv_to(&link);
     let meta = std::fs::symlink_metadata(&link).unwrap();
     assert!(meta.file_type().is_symlink(), "the link was replaced");
     assert_eq!(
@@ -108,17 +103,7 @@ fn out_through_a_dangling_symlink_creates_its_target() {
     let dir = tempfile::tempdir().unwrap();
     let link = dir.path().join("l.csv");
     std::os::unix::fs::symlink("new.csv", &link).unwrap();
-    succeed(
-        bin()
-            .args([
-                "run",
-                &demo("dunmere_cycle.toml"),
-                "--format",
-                "csv",
-                "--out",
-            ])
-            .arg(&link),
-    );
+    run_csv_to(&link);
     assert!(std::fs::symlink_metadata(&link)
         .unwrap()
         .file_type()
