@@ -37,7 +37,7 @@ pub const fn r(key: &'static str, lo: f64, hi: f64, open_lo: bool, open_hi: bool
     }
 }
 
-const fn int(key: &'static str, lo: f64, hi: f64) -> KeyRange {
+pub const fn int(key: &'static str, lo: f64, hi: f64) -> KeyRange {
     KeyRange {
         key,
         lo,
@@ -62,8 +62,8 @@ pub const MONEY: f64 = 1e24;
 const SEED_MAX: f64 = 9_223_372_036_854_775_807.0;
 
 /// Every numeric key of the market file and of a policy file's own sections with its range (the
-/// rule sections' keys are declared with their rules). Keys of the `[expectations]` section are
-/// shared by both files.
+/// rule sections' keys and the `[expectations]` keys, shared by both files, are declared with their
+/// rules).
 pub const RANGES: &[KeyRange] = &[
     // market file: curves
     noted(r("demand.intercept", 0.0, BIG, true, false), "linear form"),
@@ -79,14 +79,6 @@ pub const RANGES: &[KeyRange] = &[
     r("supply.at_price", 0.0, BIG, true, false),
     r("supply.at_quantity", 0.0, BIG, true, false),
     r("supply.elasticity", 0.0, 50.0, true, false),
-    // expectations (market and policy files)
-    noted(
-        r("expectations.weight", -1.0, 1.0, true, false),
-        "adaptive (0, 1]; normal-price [0, 1]; extrapolative (−1, 1)",
-    ),
-    int("expectations.window", 1.0, 1000.0),
-    r("expectations.normal_price", 0.0, BIG, true, false),
-    r("expectations.initial_expected_price", 0.0, BIG, true, false),
     // run
     int("run.periods", 1.0, 1_000_000.0),
     r("run.initial_price", 0.0, BIG, true, false),
@@ -124,7 +116,11 @@ pub const RANGES: &[KeyRange] = &[
 /// array's range).
 pub fn range_of(key: &str) -> Option<&'static KeyRange> {
     let base = key.split('[').next().unwrap_or(key);
-    RANGES.iter().chain(rule_ranges()).find(|k| k.key == base)
+    RANGES
+        .iter()
+        .chain(crate::expectations::key_ranges())
+        .chain(rule_ranges())
+        .find(|k| k.key == base)
 }
 
 /// The ranges the registered policy rules declare for their keys.
@@ -135,13 +131,15 @@ fn rule_ranges() -> impl Iterator<Item = &'static KeyRange> {
         .filter_map(|k| k.range.as_ref())
 }
 
-/// Every numeric key's range in README order: the market file's, the rule sections' (registry
+/// Every numeric key's range in README order: the market file's own, the `[expectations]` keys
+/// (over the rules that read each, `expectations::key_ranges`), the rule sections' (registry
 /// order), then `[policy]`'s.
 pub fn all() -> Vec<&'static KeyRange> {
     let (policy, market): (Vec<_>, Vec<_>) =
         RANGES.iter().partition(|k| k.key.starts_with("policy."));
     market
         .into_iter()
+        .chain(crate::expectations::key_ranges())
         .chain(rule_ranges())
         .chain(policy)
         .collect()

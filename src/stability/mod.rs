@@ -23,7 +23,7 @@ pub mod statespace;
 use serde::Serialize;
 
 use crate::curves::SteadyState;
-use crate::scenario::{ExpectationSpec, PolicySpec, Scenario};
+use crate::scenario::{PolicySpec, Scenario};
 
 pub use conditions::PublishedCondition;
 pub use statespace::{RegimePrice, Setup, StateMap};
@@ -219,11 +219,12 @@ fn regime_at(
             regime: case.name.clone(),
             reason: "the regime's map has no positive fixed point".into(),
         })?;
-    let rational = matches!(setup.rule, ExpectationSpec::Rational);
+    // a rule the model solves sits at its steady state from period 1: the eigenvalue 0
+    let settled = setup.rule.rule().settles_at_once().is_some();
     // both curve forms have closed-form derivatives: the Jacobian is analytic for every market
     let (eigenvalues, jacobian, tolerance) = if !case.finite {
         (Vec::new(), "none", eigen::NEUTRAL_TOLERANCE)
-    } else if rational {
+    } else if settled {
         (
             vec![Eigenvalue { re: 0.0, im: 0.0 }],
             "none",
@@ -330,20 +331,9 @@ pub fn analyse_setup(setup: &Setup, unit: &str) -> Result<StabilityReport, Stabi
     let planting = free_map.planting_at_rest(p_free);
     let b = setup.supply.slope_at(planting);
     let d = -setup.demand.slope_at(p_free);
-    let conditions = if matches!(setup.rule, ExpectationSpec::Rational) {
-        Vec::new()
-    } else {
-        conditions::conditions(&setup.rule, b, d)
-    };
-    let note = if matches!(setup.rule, ExpectationSpec::Rational) {
-        Some(
-            "rational expectations: without shocks the perfect-foresight market sits at its steady \
-             state from period 1, so every regime reports the eigenvalue 0"
-                .to_string(),
-        )
-    } else {
-        None
-    };
+    let rule = setup.rule.rule();
+    let conditions = rule.conditions(&conditions::Slopes { b, d });
+    let note = rule.settles_at_once().map(str::to_string);
     Ok(StabilityReport {
         steady_state,
         verdict: hold.verdict,

@@ -17,8 +17,8 @@
 
 use crate::engine::{Model, PeriodShock};
 use crate::expectations::ExpectationInput;
-use crate::scenario::{ExpectationSpec, PolicySpec, Scenario};
-use crate::stability::statespace::{layout, numerical_jacobian, Layout};
+use crate::scenario::{PolicySpec, Scenario};
+use crate::stability::statespace::{numerical_jacobian, Layout};
 
 /// What happened to the orbit.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -29,8 +29,9 @@ pub enum Orbit {
     Diverged,
     /// The tangent vector vanished (a pinned price): the exponent is −∞, reported as none.
     Superstable,
-    /// Rational expectations: no exponent is estimated (the perfect-foresight path is at rest).
-    Rational,
+    /// The rule settles at once (the model solves it, `ExpectationRule::settles_at_once`): the path
+    /// is at rest and no exponent is estimated; the word is the rule's name (e.g. `rational`).
+    Settled(&'static str),
 }
 
 impl Orbit {
@@ -40,7 +41,7 @@ impl Orbit {
             Orbit::Ok => "ok",
             Orbit::Diverged => "diverged",
             Orbit::Superstable => "superstable",
-            Orbit::Rational => "rational",
+            Orbit::Settled(rule) => rule,
         }
     }
 }
@@ -104,15 +105,16 @@ impl EngineMap<'_> {
     }
 }
 
-/// The rule state before period 1 (newest price first; for the adaptive rule P^e_1).
-fn initial_state(model: &Model, spec: &ExpectationSpec, dim: usize) -> Vec<f64> {
+/// The rule state before period 1: the last prices (newest first), or the rule's own expectation
+/// for period 1 (its expectation with no previous one).
+fn initial_state(model: &Model, layout: &Layout, dim: usize) -> Vec<f64> {
     let h = &model.price_history;
-    match spec {
-        ExpectationSpec::Adaptive {
-            initial_expected_price,
-            ..
-        } => vec![initial_expected_price.unwrap_or(h[h.len() - 1])],
-        _ => (0..dim).map(|i| h[h.len() - 1 - i]).collect(),
+    match layout {
+        Layout::Expectation(_) => vec![model.rule.expect(&ExpectationInput {
+            history: h,
+            previous: None,
+        })],
+        Layout::Lags(_) => (0..dim).map(|i| h[h.len() - 1 - i]).collect(),
     }
 }
 
@@ -122,17 +124,18 @@ fn initial_state(model: &Model, spec: &ExpectationSpec, dim: usize) -> Vec<f64> 
 /// them), and reported with [`Orbit::Diverged`]; none when fewer than two seasons were completed.
 pub fn lyapunov(scenario: &Scenario, policy: &PolicySpec, periods: usize) -> (Option<f64>, Orbit) {
     let spec = policy.expectations.unwrap_or(scenario.expectations);
-    if spec == ExpectationSpec::Rational {
-        return (None, Orbit::Rational);
+    let rule = spec.rule();
+    if rule.settles_at_once().is_some() {
+        return (None, Orbit::Settled(spec.rule_name()));
     }
     let model = Model::new(scenario, policy);
     let map = EngineMap {
         model: &model,
-        layout: layout(&spec),
+        layout: rule.layout(),
         floor: model.policy.planting_floor(),
     };
     let n = map.dim();
-    let mut x = initial_state(&model, &spec, n);
+    let mut x = initial_state(&model, &map.layout, n);
     let mut stock = model.policy.agency.initial;
     let mut v = vec![1.0 / (n as f64).sqrt(); n];
     let mut next = vec![0.0; n];
