@@ -61,11 +61,10 @@ pub const MONEY: f64 = 1e24;
 /// Largest seed (i64::MAX: TOML integers are signed 64-bit).
 const SEED_MAX: f64 = 9_223_372_036_854_775_807.0;
 
-/// Every numeric key of the market file and of a policy file's own sections with its range (the
-/// rule sections' keys and the `[expectations]` keys, shared by both files, are declared with their
-/// rules).
-pub const RANGES: &[KeyRange] = &[
-    // market file: curves
+/// Every numeric key of the market file and of a policy file's own sections with its range, in two
+/// parts around `[expectations]` (the rule sections' keys and the `[expectations]` keys, shared by
+/// both files, are declared with their rules): the curves' keys here.
+pub const CURVE_RANGES: &[KeyRange] = &[
     noted(r("demand.intercept", 0.0, BIG, true, false), "linear form"),
     noted(r("demand.slope", -BIG, 0.0, false, true), "linear form"),
     r("demand.at_price", 0.0, BIG, true, false),
@@ -79,6 +78,10 @@ pub const RANGES: &[KeyRange] = &[
     r("supply.at_price", 0.0, BIG, true, false),
     r("supply.at_quantity", 0.0, BIG, true, false),
     r("supply.elasticity", 0.0, 50.0, true, false),
+];
+
+/// The rest of the market file's numeric keys (after `[expectations]`) and `[policy]`'s.
+pub const RANGES: &[KeyRange] = &[
     // run
     int("run.periods", 1.0, 1_000_000.0),
     r("run.initial_price", 0.0, BIG, true, false),
@@ -116,8 +119,9 @@ pub const RANGES: &[KeyRange] = &[
 /// array's range).
 pub fn range_of(key: &str) -> Option<&'static KeyRange> {
     let base = key.split('[').next().unwrap_or(key);
-    RANGES
+    CURVE_RANGES
         .iter()
+        .chain(RANGES)
         .chain(crate::expectations::key_ranges())
         .chain(rule_ranges())
         .find(|k| k.key == base)
@@ -131,15 +135,16 @@ fn rule_ranges() -> impl Iterator<Item = &'static KeyRange> {
         .filter_map(|k| k.range.as_ref())
 }
 
-/// Every numeric key's range in README order: the market file's own, the `[expectations]` keys
-/// (over the rules that read each, `expectations::key_ranges`), the rule sections' (registry
-/// order), then `[policy]`'s.
+/// Every numeric key's range in README order: the market file's curves, the `[expectations]` keys
+/// (over the rules that read each, `expectations::key_ranges`), the rest of the market file's, the
+/// rule sections' (registry order), then `[policy]`'s.
 pub fn all() -> Vec<&'static KeyRange> {
     let (policy, market): (Vec<_>, Vec<_>) =
         RANGES.iter().partition(|k| k.key.starts_with("policy."));
-    market
-        .into_iter()
+    CURVE_RANGES
+        .iter()
         .chain(crate::expectations::key_ranges())
+        .chain(market)
         .chain(rule_ranges())
         .chain(policy)
         .collect()
