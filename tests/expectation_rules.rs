@@ -7,7 +7,7 @@ mod common;
 
 use furrow::engine::{Model, PeriodShock};
 use furrow::expectations::{
-    section_keys, ExpectationInput, ExpectationRule, ExpectationSpec, Layout, RULES,
+    section_keys, ExpectationInput, ExpectationRule, ExpectationSpec, StateLayout, RULES,
 };
 use furrow::scenario::{self, ranges::range_of, schema, PolicySpec, Scenario};
 use furrow::stability::{self, conditions::Slopes, Verdict};
@@ -164,7 +164,7 @@ fn every_rule_expects_what_its_state_layout_says() {
         let a: Vec<f64> = (0..k + 2).map(|i| 100.0 + 7.0 * i as f64).collect();
         let b: Vec<f64> = (0..k + 2).map(|i| 130.0 - 3.0 * (i * i) as f64).collect();
         match rule.layout() {
-            Layout::Lags(w) => {
+            StateLayout::Lags(w) => {
                 // affine in the last prices with the layout's weights (newest first)
                 assert!(w.len() <= k, "{text}");
                 let diff = expect(&*rule, &a, None) - expect(&*rule, &b, None);
@@ -176,7 +176,7 @@ fn every_rule_expects_what_its_state_layout_says() {
                 assert!((diff - want).abs() < 1e-9, "{text}: {diff} vs {want}");
                 assert!(rule.as_adaptive().is_none(), "{text}");
             }
-            Layout::Expectation(w) => {
+            StateLayout::Expectation(w) => {
                 // P^e_t = P^e_{t−1} + w (P_{t−1} − P^e_{t−1}) (Nerlove 1958)
                 assert!(w > 0.0 && w <= 1.0, "{text}");
                 let e = expect(&*rule, &[120.0], Some(90.0));
@@ -205,16 +205,16 @@ fn published_conditions_agree_with_the_eigenvalues() {
     // (Ezekiel 1938; Nerlove 1958; Jury 1964 for second-order rules, from memory)
     let mut compared = 0;
     for (_, text, _) in every_example() {
-        for ratio in [0.3, 0.8, 1.3, 1.7, 2.6, 3.5, 6.0] {
+        for ratio in [0.3, 0.8, 1.3, 1.7, 1.9, 2.1, 2.3, 2.6, 3.5, 4.5, 6.0] {
             let Ok(s) = market(0.5 * ratio, text) else {
                 continue;
             };
-            let Ok(report) = stability::analyse(&s, &PolicySpec::none()) else {
+            let Ok(analysis) = stability::analyse(&s, &PolicySpec::none()) else {
                 continue;
             };
             let rule = s.expectations.rule();
             if rule.settles_at_once().is_some() {
-                assert!(report.conditions.is_empty(), "{text}");
+                assert!(analysis.conditions.is_empty(), "{text}");
                 continue;
             }
             // linear curves: the slopes are the file's
@@ -222,14 +222,14 @@ fn published_conditions_agree_with_the_eigenvalues() {
                 b: 0.5 * ratio,
                 d: 0.5,
             });
-            assert_eq!(direct, report.conditions, "{text}");
-            for c in &report.conditions {
-                if c.on_boundary || report.verdict == Verdict::Neutral {
+            assert_eq!(direct, analysis.conditions, "{text}");
+            for c in &analysis.conditions {
+                if c.on_boundary || analysis.verdict == Verdict::Neutral {
                     continue;
                 }
                 assert_eq!(
                     c.holds,
-                    report.verdict == Verdict::Stable,
+                    analysis.verdict == Verdict::Stable,
                     "{text} at b/d = {ratio}: {} {}",
                     c.name,
                     c.detail
@@ -247,8 +247,8 @@ fn the_stability_steady_state_is_where_a_long_engine_run_ends() {
     // b/d = 0.3 is stable under every registered example
     for (_, text, _) in every_example() {
         let s = market(0.15, text).unwrap();
-        let report = stability::analyse(&s, &PolicySpec::none()).unwrap();
-        assert_eq!(report.verdict, Verdict::Stable, "{text}");
+        let analysis = stability::analyse(&s, &PolicySpec::none()).unwrap();
+        assert_eq!(analysis.verdict, Verdict::Stable, "{text}");
         let model = Model::new(&s, &PolicySpec::none());
         let mut sim = model.simulator();
         let mut first = None;
@@ -258,7 +258,7 @@ fn the_stability_steady_state_is_where_a_long_engine_run_ends() {
             first.get_or_insert(r.price);
             last = r.price;
         }
-        let steady = report.steady_state.price;
+        let steady = analysis.steady_state.price;
         assert!(
             (last - steady).abs() <= 1e-8 * steady,
             "{text}: run ends at {last}, stability's steady state {steady}"
@@ -283,12 +283,12 @@ fn a_rule_that_settles_at_once_says_so_in_stability_and_long_runs() {
     for (name, text, _) in every_example() {
         let s = market(0.15, text).unwrap();
         let rule = s.expectations.rule();
-        let report = stability::analyse(&s, &PolicySpec::none()).unwrap();
+        let analysis = stability::analyse(&s, &PolicySpec::none()).unwrap();
         let lr = sweep::longrun::long_run(&s, &PolicySpec::none(), 200, 4);
         match rule.settles_at_once() {
             Some(note) => {
-                assert_eq!(report.note.as_deref(), Some(note), "{text}");
-                for r in &report.regimes {
+                assert_eq!(analysis.note.as_deref(), Some(note), "{text}");
+                for r in &analysis.regimes {
                     assert!(r.eigenvalues.iter().all(|e| e.re == 0.0 && e.im == 0.0));
                 }
                 assert_eq!(lr.orbit, Orbit::Settled(name));
@@ -296,7 +296,7 @@ fn a_rule_that_settles_at_once_says_so_in_stability_and_long_runs() {
                 assert!(lr.lyapunov.is_none());
             }
             None => {
-                assert_eq!(report.note, None, "{text}");
+                assert_eq!(analysis.note, None, "{text}");
                 assert_eq!(lr.orbit, Orbit::Ok, "{text}");
                 // a stable orbit contracts: a negative exponent
                 assert!(lr.lyapunov.is_some_and(|l| l < 0.0), "{text}: {lr:?}");

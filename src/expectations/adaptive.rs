@@ -1,7 +1,7 @@
 //! `rule = "adaptive"`: farmers revise their expectation by a share of last season's surprise
 //! (Nerlove 1958). Everything the program knows of it is here.
 
-use super::{g, g6, ExpectationInput, ExpectationRule, Layout, Reader, Registration, Values};
+use super::{g, g6, ExpectationInput, ExpectationRule, Reader, Registration, StateLayout, Values};
 use crate::scenario::ranges::{r, BIG};
 use crate::scenario::raw::ValueType;
 use crate::scenario::schema::Key;
@@ -83,8 +83,8 @@ impl ExpectationRule for Adaptive {
     fn is_rational(&self) -> bool {
         false
     }
-    fn layout(&self) -> Layout {
-        Layout::Expectation(self.weight)
+    fn layout(&self) -> StateLayout {
+        StateLayout::Expectation(self.weight)
     }
     fn rests_anywhere(&self) -> bool {
         true

@@ -2,7 +2,7 @@
 //! the program knows of it is here.
 
 use super::{
-    g, g6, Adaptive, ExpectationInput, ExpectationRule, Layout, Reader, Registration, Values,
+    g, g6, Adaptive, ExpectationInput, ExpectationRule, Reader, Registration, StateLayout, Values,
 };
 use crate::scenario::ranges::r;
 use crate::scenario::raw::ValueType;
@@ -51,8 +51,8 @@ impl ExpectationRule for Extrapolative {
     fn as_adaptive(&self) -> Option<Adaptive> {
         None
     }
-    fn layout(&self) -> Layout {
-        Layout::Lags(vec![1.0 + self.weight, -self.weight])
+    fn layout(&self) -> StateLayout {
+        StateLayout::Lags(vec![1.0 + self.weight, -self.weight])
     }
     fn rests_anywhere(&self) -> bool {
         true

@@ -106,7 +106,7 @@ impl ExpectationInput<'_> {
 /// The shape of a rule's state in the stability analysis (`stability::statespace`) and the long
 /// runs (`sweep::longrun`).
 #[derive(Debug, Clone, PartialEq)]
-pub enum Layout {
+pub enum StateLayout {
     /// The k last producer prices (newest first); the expectation is Σ w_i P_{t−i} (+ a constant).
     Lags(Vec<f64>),
     /// The rule's own expectation (a rule that updates it with this weight); its value before
@@ -127,7 +127,7 @@ pub trait ExpectationRule: Send + Sync + std::fmt::Debug {
     /// instead of through the trait object; the value is the same).
     fn as_adaptive(&self) -> Option<Adaptive>;
     /// Its state in the stability analysis, with the weights of the linear rules.
-    fn layout(&self) -> Layout;
+    fn layout(&self) -> StateLayout;
     /// True when a rule whose past prices all equal p expects p, for every p (then the free steady
     /// state is where the curves cross; otherwise stability solves the rule's own fixed point).
     fn rests_anywhere(&self) -> bool;

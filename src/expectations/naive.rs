@@ -1,7 +1,9 @@
 //! `rule = "naive"`: farmers expect last season's price (the classic cobweb). Everything the program
 //! knows of it is here.
 
-use super::{Adaptive, ExpectationInput, ExpectationRule, Layout, Reader, Registration, Values};
+use super::{
+    Adaptive, ExpectationInput, ExpectationRule, Reader, Registration, StateLayout, Values,
+};
 use crate::scenario::InputError;
 use crate::stability::conditions::{PublishedCondition, Slopes};
 
@@ -37,8 +39,8 @@ impl ExpectationRule for Naive {
     fn as_adaptive(&self) -> Option<Adaptive> {
         None
     }
-    fn layout(&self) -> Layout {
-        Layout::Lags(vec![1.0])
+    fn layout(&self) -> StateLayout {
+        StateLayout::Lags(vec![1.0])
     }
     fn rests_anywhere(&self) -> bool {
         true

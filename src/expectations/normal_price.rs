@@ -2,7 +2,7 @@
 //! or the mean of recent prices. Everything the program knows of it is here.
 
 use super::{
-    g, g6, Adaptive, ExpectationInput, ExpectationRule, Layout, Reader, Registration, Values,
+    g, g6, Adaptive, ExpectationInput, ExpectationRule, Reader, Registration, StateLayout, Values,
 };
 use crate::scenario::ranges::{int, r, BIG};
 use crate::scenario::raw::ValueType;
@@ -97,13 +97,13 @@ impl ExpectationRule for NormalPriceRule {
     fn as_adaptive(&self) -> Option<Adaptive> {
         None
     }
-    fn layout(&self) -> Layout {
+    fn layout(&self) -> StateLayout {
         match self.normal {
-            NormalPrice::Fixed(_) => Layout::Lags(vec![1.0 - self.weight]),
+            NormalPrice::Fixed(_) => StateLayout::Lags(vec![1.0 - self.weight]),
             NormalPrice::Window(k) => {
                 let mut w = vec![self.weight / k as f64; k];
                 w[0] += 1.0 - self.weight;
-                Layout::Lags(w)
+                StateLayout::Lags(w)
             }
         }
     }

@@ -1,7 +1,9 @@
 //! `rule = "rational"`: farmers expect what the model itself predicts (Muth 1961). The engine solves
 //! the expectation (`engine::rational`); everything else the program knows of the rule is here.
 
-use super::{Adaptive, ExpectationInput, ExpectationRule, Layout, Reader, Registration, Values};
+use super::{
+    Adaptive, ExpectationInput, ExpectationRule, Reader, Registration, StateLayout, Values,
+};
 use crate::scenario::InputError;
 use crate::stability::conditions::{PublishedCondition, Slopes};
 
@@ -37,8 +39,8 @@ impl ExpectationRule for Rational {
     }
     /// Linearised as the naive map's state (the model solves the expectation itself; the map
     /// serves the regimes' fixed points).
-    fn layout(&self) -> Layout {
-        Layout::Lags(vec![1.0])
+    fn layout(&self) -> StateLayout {
+        StateLayout::Lags(vec![1.0])
     }
     fn rests_anywhere(&self) -> bool {
         true

@@ -1,7 +1,9 @@
 //! `rule = "trailing-mean"`: farmers expect the mean of the last k prices. Everything the program
 //! knows of it is here.
 
-use super::{Adaptive, ExpectationInput, ExpectationRule, Layout, Reader, Registration, Values};
+use super::{
+    Adaptive, ExpectationInput, ExpectationRule, Reader, Registration, StateLayout, Values,
+};
 use crate::scenario::ranges::int;
 use crate::scenario::raw::ValueType;
 use crate::scenario::schema::Key;
@@ -59,8 +61,8 @@ impl ExpectationRule for TrailingMean {
     fn as_adaptive(&self) -> Option<Adaptive> {
         None
     }
-    fn layout(&self) -> Layout {
-        Layout::Lags(vec![1.0 / self.window as f64; self.window])
+    fn layout(&self) -> StateLayout {
+        StateLayout::Lags(vec![1.0 / self.window as f64; self.window])
     }
     fn rests_anywhere(&self) -> bool {
         true

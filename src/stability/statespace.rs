@@ -124,11 +124,11 @@ impl RegimePrice {
     }
 }
 
-pub use crate::expectations::Layout;
+pub use crate::expectations::StateLayout;
 
 /// The state layout of a rule, with the weights of the linear rules (the rule's own,
 /// `ExpectationRule::layout`).
-pub fn layout(rule: &ExpectationSpec) -> Layout {
+pub fn layout(rule: &ExpectationSpec) -> StateLayout {
     expectations::build(rule).layout()
 }
 
@@ -137,7 +137,7 @@ pub fn layout(rule: &ExpectationSpec) -> Layout {
 pub struct StateMap<'a> {
     setup: &'a Setup,
     rule: Box<dyn ExpectationRule>,
-    layout: Layout,
+    layout: StateLayout,
     clearing: RegimePrice,
     floor: Option<f64>,
 }
@@ -162,8 +162,8 @@ impl<'a> StateMap<'a> {
     /// Dimension of the state.
     pub fn dim(&self) -> usize {
         match &self.layout {
-            Layout::Lags(w) => w.len(),
-            Layout::Expectation(_) => 1,
+            StateLayout::Lags(w) => w.len(),
+            StateLayout::Expectation(_) => 1,
         }
     }
 
@@ -210,15 +210,15 @@ impl<'a> StateMap<'a> {
     /// The state at rest at producer price `p`.
     pub fn rest_state(&self, p: f64) -> Vec<f64> {
         match self.layout {
-            Layout::Lags(_) => vec![p; self.dim()],
-            Layout::Expectation(_) => vec![self.expectation_at_rest(p)],
+            StateLayout::Lags(_) => vec![p; self.dim()],
+            StateLayout::Expectation(_) => vec![self.expectation_at_rest(p)],
         }
     }
 
     /// x ↦ F(x), written into `out`.
     pub fn apply(&self, x: &[f64], out: &mut [f64]) {
         match self.layout {
-            Layout::Lags(_) => {
+            StateLayout::Lags(_) => {
                 let k = x.len();
                 let history = lags_as_history(x);
                 let e = self.rule.expect(&ExpectationInput {
@@ -229,7 +229,7 @@ impl<'a> StateMap<'a> {
                 out[0] = p;
                 out[1..k].copy_from_slice(&x[..k - 1]);
             }
-            Layout::Expectation(_) => {
+            StateLayout::Expectation(_) => {
                 let pe = x[0];
                 let p = self.clearing.producer_price(self.setup, self.plant(pe));
                 let history = [p, p];
@@ -259,7 +259,7 @@ impl<'a> StateMap<'a> {
             self.clearing.slope(self.setup, planting)
         };
         match &self.layout {
-            Layout::Lags(w) => {
+            StateLayout::Lags(w) => {
                 let k = w.len();
                 let mut m = DMatrix::<f64>::zeros(k, k);
                 for (j, wj) in w.iter().enumerate() {
@@ -270,7 +270,7 @@ impl<'a> StateMap<'a> {
                 }
                 m
             }
-            Layout::Expectation(l) => DMatrix::from_element(1, 1, 1.0 - l + l * c),
+            StateLayout::Expectation(l) => DMatrix::from_element(1, 1, 1.0 - l + l * c),
         }
     }
 }

@@ -1,4 +1,4 @@
-use super::statespace::{layout, Layout};
+use super::statespace::{layout, StateLayout};
 use super::*;
 use crate::curves::Curve;
 use crate::scenario::ExpectationSpec;
@@ -39,7 +39,7 @@ fn rules_at_rest_expect_the_resting_price() {
             (map.expectation_at_rest(123.0) - 123.0).abs() < 1e-12,
             "{r:?}"
         );
-        if let Layout::Lags(w) = layout(&r) {
+        if let StateLayout::Lags(w) = layout(&r) {
             assert!((w.iter().sum::<f64>() - 1.0).abs() < 1e-15, "{r:?}");
         }
     }

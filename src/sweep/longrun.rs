@@ -18,7 +18,7 @@
 use crate::engine::{Model, PeriodShock};
 use crate::expectations::ExpectationInput;
 use crate::scenario::{PolicySpec, Scenario};
-use crate::stability::statespace::{numerical_jacobian, Layout};
+use crate::stability::statespace::{numerical_jacobian, StateLayout};
 
 /// What happened to the orbit.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -48,7 +48,7 @@ impl Orbit {
 
 /// The long-run result at one grid value.
 #[derive(Debug, Clone, PartialEq)]
-pub struct LongRun {
+pub struct LongRunOrbit {
     /// The last N market prices (before the divergence when the run diverged; empty when it
     /// diverged in its first period).
     pub prices: Vec<f64>,
@@ -63,15 +63,15 @@ pub struct LongRun {
 /// The engine's one-period map on (rule state, stock).
 struct EngineMap<'m> {
     model: &'m Model,
-    layout: Layout,
+    layout: StateLayout,
     floor: Option<f64>,
 }
 
 impl EngineMap<'_> {
     fn dim(&self) -> usize {
         match &self.layout {
-            Layout::Lags(w) => w.len(),
-            Layout::Expectation(_) => 1,
+            StateLayout::Lags(w) => w.len(),
+            StateLayout::Expectation(_) => 1,
         }
     }
 
@@ -80,7 +80,7 @@ impl EngineMap<'_> {
         let carried = stock * (1.0 - self.model.policy.agency.loss_rate);
         let plant = |e: f64| self.floor.map_or(e, |f| e.max(f));
         match self.layout {
-            Layout::Lags(_) => {
+            StateLayout::Lags(_) => {
                 let k = x.len();
                 let history = crate::stability::statespace::lags_as_history(x);
                 let e = self.model.rule.expect(&ExpectationInput {
@@ -92,7 +92,7 @@ impl EngineMap<'_> {
                 out[1..k].copy_from_slice(&x[..k - 1]);
                 c.stock
             }
-            Layout::Expectation(_) => {
+            StateLayout::Expectation(_) => {
                 let c = self.model.clear(plant(x[0]), &PeriodShock::NONE, carried);
                 let history = [c.producer_price, c.producer_price];
                 out[0] = self.model.rule.expect(&ExpectationInput {
@@ -107,14 +107,14 @@ impl EngineMap<'_> {
 
 /// The rule state before period 1: the last prices (newest first), or the rule's own expectation
 /// for period 1 (its expectation with no previous one).
-fn initial_state(model: &Model, layout: &Layout, dim: usize) -> Vec<f64> {
+fn initial_state(model: &Model, layout: &StateLayout, dim: usize) -> Vec<f64> {
     let h = &model.price_history;
     match layout {
-        Layout::Expectation(_) => vec![model.rule.expect(&ExpectationInput {
+        StateLayout::Expectation(_) => vec![model.rule.expect(&ExpectationInput {
             history: h,
             previous: None,
         })],
-        Layout::Lags(_) => (0..dim).map(|i| h[h.len() - 1 - i]).collect(),
+        StateLayout::Lags(_) => (0..dim).map(|i| h[h.len() - 1 - i]).collect(),
     }
 }
 
@@ -195,7 +195,12 @@ pub fn lyapunov(scenario: &Scenario, policy: &PolicySpec, periods: usize) -> (Op
 /// Simulates `periods` periods without shocks and keeps the last `keep` market prices; estimates the
 /// largest Lyapunov exponent along the same orbit. A run that diverges keeps the last `keep` prices
 /// before it did, and the exponent over those seasons (an unstable market shows a positive one).
-pub fn long_run(scenario: &Scenario, policy: &PolicySpec, periods: usize, keep: usize) -> LongRun {
+pub fn long_run(
+    scenario: &Scenario,
+    policy: &PolicySpec,
+    periods: usize,
+    keep: usize,
+) -> LongRunOrbit {
     let model = Model::new(scenario, policy);
     let mut sim = model.simulator();
     let mut prices = std::collections::VecDeque::with_capacity(keep.min(periods));
@@ -220,7 +225,7 @@ pub fn long_run(scenario: &Scenario, policy: &PolicySpec, periods: usize, keep: 
     }
     let (lyapunov, orbit) = lyapunov(scenario, policy, completed);
     let prices: Vec<f64> = prices.into();
-    LongRun {
+    LongRunOrbit {
         first_period: completed + 1 - prices.len(),
         prices,
         lyapunov,

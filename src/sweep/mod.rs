@@ -18,7 +18,7 @@ use crate::stability::{self, Verdict};
 
 pub use apply::{Base, Target};
 pub use grid::{parse_vary, Axis};
-pub use longrun::{LongRun, Orbit};
+pub use longrun::{LongRunOrbit, Orbit};
 
 /// Why a sweep could not be run.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -55,7 +55,7 @@ pub struct Point {
     /// Spectral radius and verdict, or why the point is invalid.
     pub outcome: Result<(f64, Verdict), String>,
     /// The long run (one key with `--long-run` only).
-    pub long_run: Option<LongRun>,
+    pub long_run: Option<LongRunOrbit>,
 }
 
 /// Long-run settings.
