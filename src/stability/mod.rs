@@ -114,7 +114,7 @@ pub struct StabilityAnalysis {
     pub rule: &'static str,
     /// Published conditions evaluated for the free-market dynamics at its steady state.
     pub conditions: Vec<PublishedCondition>,
-    /// General remarks (rational expectations, omitted features).
+    /// General remarks (a rule that settles at once, omitted features).
     pub note: Option<String>,
 }
 

@@ -4,9 +4,9 @@
 //! (central differences with Richardson extrapolation) serves the Lyapunov estimate along orbits and
 //! the tests.
 //!
-//! State per rule (newest first): naive, fixed normal price and rational: [P_{t−1}]; adaptive:
-//! [P^e_t]; extrapolative: [P_{t−1}, P_{t−2}]; trailing mean and normal price over a window k: the k
-//! last producer prices. The map uses the real rule (`expectations::build`) and a regime's clearing
+//! The state is the rule's own (`ExpectationRule::layout`): the k last producer prices, newest first,
+//! for a rule linear in them (`StateLayout::Lags`), or the rule's own expectation P^e_t for a rule
+//! that updates it (`StateLayout::Expectation`). The map uses the real rule (`expectations::build`) and a regime's clearing
 //! function (planting price → producer price), so it is the engine's dynamics inside that regime.
 
 use nalgebra::DMatrix;
@@ -248,7 +248,7 @@ impl<'a> StateMap<'a> {
 
     /// Analytic Jacobian of F at rest at producer price `p` (companion form of the linear rule):
     /// with c = dh/dP^e (0 where an announced floor pins planting), first row c·w for the lag rules,
-    /// 1 − λ + λc for the adaptive rule.
+    /// 1 − λ + λc for a rule whose state is its own expectation, updated with weight λ.
     pub fn analytic_jacobian(&self, p: f64) -> DMatrix<f64> {
         let e = self.expectation_at_rest(p);
         let planting = self.plant(e);

@@ -7,7 +7,7 @@
 //! differences of the engine's clearing with the rule's real `expect`), renormalised every period,
 //! and the exponent is the mean log growth over the second half of the run (an even number of
 //! periods, so a 2-cycle is averaged without bias; the error otherwise falls as 1/periods). For a one-dimensional
-//! state (naive, adaptive, fixed normal price) this is the mean of ln|f′(x_t)| along the orbit. The
+//! state (one lag, or the rule's own expectation) this is the mean of ln|f′(x_t)| along the orbit. The
 //! tangent space is the rule's price/expectation state; the agency's stock is taken along the orbit
 //! as given (it does not feed back on prices inside a regime). A season with a pinned price in the
 //! first half (a floor that binds once in the transient) restarts the tangent vector; one in the
