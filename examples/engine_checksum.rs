@@ -8,7 +8,7 @@
 use std::hash::Hasher;
 
 use furrow::engine::{Model, PeriodRecord};
-use furrow::scenario::{load_market, load_policy, ExpectationSpec, NormalPrice, PolicySpec};
+use furrow::scenario::{load_market, load_policy, ExpectationSpec, PolicySpec};
 use furrow::stochastic::ShockStream;
 
 /// FNV-1a, 64 bit (stable across Rust versions, unlike `DefaultHasher`).
@@ -69,46 +69,32 @@ fn main() {
         .nth(1)
         .map(|a| a.parse().unwrap())
         .unwrap_or(1200);
+    let rule = |text: &str| Some(ExpectationSpec::parse(text).unwrap());
     let rules: Vec<(&str, Option<ExpectationSpec>)> = vec![
         ("file", None),
-        ("naive", Some(ExpectationSpec::Naive)),
-        (
-            "adaptive",
-            Some(ExpectationSpec::Adaptive {
-                weight: 0.45,
-                initial_expected_price: None,
-            }),
-        ),
+        ("naive", rule("rule = \"naive\"")),
+        ("adaptive", rule("rule = \"adaptive\"\nweight = 0.45")),
         (
             "adaptive-init",
-            Some(ExpectationSpec::Adaptive {
-                weight: 0.7,
-                initial_expected_price: Some(205.0),
-            }),
+            rule("rule = \"adaptive\"\nweight = 0.7\ninitial_expected_price = 205.0"),
         ),
         (
             "normal-fixed",
-            Some(ExpectationSpec::NormalPrice {
-                weight: 0.4,
-                normal: NormalPrice::Fixed(212.0),
-            }),
+            rule("rule = \"normal-price\"\nweight = 0.4\nnormal_price = 212.0"),
         ),
         (
             "normal-window",
-            Some(ExpectationSpec::NormalPrice {
-                weight: 0.4,
-                normal: NormalPrice::Window(3),
-            }),
+            rule("rule = \"normal-price\"\nweight = 0.4\nwindow = 3"),
         ),
         (
             "extrapolative",
-            Some(ExpectationSpec::Extrapolative { weight: -0.3 }),
+            rule("rule = \"extrapolative\"\nweight = -0.3"),
         ),
         (
             "trailing-mean",
-            Some(ExpectationSpec::TrailingMean { window: 4 }),
+            rule("rule = \"trailing-mean\"\nwindow = 4"),
         ),
-        ("rational", Some(ExpectationSpec::Rational)),
+        ("rational", rule("rule = \"rational\"")),
     ];
     let mut policies: Vec<(String, PolicySpec)> = vec![("none()".into(), PolicySpec::none())];
     for p in files("policies") {

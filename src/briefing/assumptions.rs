@@ -253,15 +253,11 @@ pub fn policy_table(
     t
 }
 
-/// A short description of an expectation rule and its parameters.
+/// A short description of an expectation rule and its parameters: its name and its main setting
+/// (`ExpectationRule::setting`), e.g. `adaptive, weight 0.4`.
 pub fn expectation_text(e: &ExpectationSpec) -> String {
-    match e {
-        ExpectationSpec::Adaptive { weight, .. }
-        | ExpectationSpec::NormalPrice { weight, .. }
-        | ExpectationSpec::Extrapolative { weight } => {
-            format!("{}, weight {}", e.rule_name(), trim(fmt_num(*weight, 6)))
-        }
-        ExpectationSpec::TrailingMean { window } => format!("{}, window {window}", e.rule_name()),
-        _ => e.rule_name().to_string(),
+    match e.rule().setting() {
+        Some(setting) => format!("{}, {setting}", e.rule_name()),
+        None => e.rule_name().to_string(),
     }
 }

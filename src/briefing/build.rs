@@ -11,7 +11,7 @@ use super::{Briefing, BriefingError, Overrides, Section};
 use crate::compare::CompareResult;
 use crate::output::TextTable;
 use crate::scenario::{PolicySpec, Scenario};
-use crate::stability::StabilityReport;
+use crate::stability::StabilityAnalysis;
 use crate::units::{group, Units};
 
 /// The caution every briefing carries.
@@ -44,7 +44,7 @@ pub struct Built {
 }
 
 /// Stability verdict table; a failed analysis shows its reason.
-pub fn stability_table(reports: &[(String, Result<StabilityReport, String>)]) -> TextTable {
+pub fn stability_table(reports: &[(String, Result<StabilityAnalysis, String>)]) -> TextTable {
     let mut t = TextTable::new(&[
         "policy",
         "verdict",
@@ -106,7 +106,7 @@ fn add_figures(sec: &mut Section, figures: &[Figure], stems: &[&str]) {
 pub fn stability_of(
     scenario: &Scenario,
     cols: &[(String, PolicySpec)],
-) -> Vec<(String, Result<StabilityReport, String>)> {
+) -> Vec<(String, Result<StabilityAnalysis, String>)> {
     cols.iter()
         .map(|(_, p)| {
             (
@@ -124,7 +124,7 @@ pub fn comparison_figures(
     scenario: &Scenario,
     cols: &[(String, PolicySpec)],
     comparison: &CompareResult,
-    stability: &[(String, Result<StabilityReport, String>)],
+    stability: &[(String, Result<StabilityAnalysis, String>)],
 ) -> Result<Vec<Figure>, BriefingError> {
     let mut digests: Vec<PathDigest> = Vec::with_capacity(cols.len());
     for (_, p) in cols {
@@ -142,7 +142,7 @@ pub fn comparison_figures(
             ));
         }
     }
-    let ok: Vec<(String, StabilityReport)> = stability
+    let ok: Vec<(String, StabilityAnalysis)> = stability
         .iter()
         .filter_map(|(n, r)| r.as_ref().ok().map(|r| (n.clone(), r.clone())))
         .collect();

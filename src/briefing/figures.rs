@@ -6,7 +6,7 @@ use super::path::{PathDigest, COBWEB_SEASONS};
 use crate::engine::{Model, PeriodRecord};
 use crate::plots::{self, CobwebStep, EigenPoint, Plot, Series};
 use crate::scenario::{PolicySpec, Scenario};
-use crate::stability::StabilityReport;
+use crate::stability::StabilityAnalysis;
 use crate::units::Units;
 
 /// A figure with its file stem and the caption the report shows.
@@ -256,7 +256,7 @@ pub fn cobweb_figure(
 }
 
 /// Eigenvalues of every regime of every report, in the complex plane.
-pub fn eigen_figure(reports: &[(String, StabilityReport)]) -> Option<Figure> {
+pub fn eigen_figure(reports: &[(String, StabilityAnalysis)]) -> Option<Figure> {
     // One policy: a colour per regime. Several: a colour per policy, its steady-state regime
     // filled and the other regimes as rings (a legend entry per regime would crowd out the chart).
     let many = reports.len() > 1;

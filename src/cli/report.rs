@@ -7,7 +7,7 @@ use furrow::briefing::{self, figures, Figure, Overrides};
 use furrow::engine::PeriodRecord;
 use furrow::output::Format;
 use furrow::scenario::{PolicySpec, Scenario};
-use furrow::stability::StabilityReport;
+use furrow::stability::StabilityAnalysis;
 
 use super::common::{load_policy, say, CommonArgs, PlotDir};
 
@@ -178,7 +178,7 @@ pub fn plot_run(
 pub fn plot_stability(
     dir: &PlotDir,
     policy_name: &str,
-    report: &StabilityReport,
+    report: &StabilityAnalysis,
 ) -> anyhow::Result<()> {
     let figs: Vec<Figure> = figures::eigen_figure(&[(policy_name.to_string(), report.clone())])
         .into_iter()

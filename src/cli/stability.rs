@@ -2,7 +2,7 @@
 
 use clap::Args;
 use furrow::output::{fmt_num, Format, TextTable};
-use furrow::stability::{self, Eigenvalue, StabilityReport};
+use furrow::stability::{self, Eigenvalue, StabilityAnalysis};
 
 use super::common::{load_policy, say, CommonArgs};
 
@@ -42,7 +42,7 @@ fn opt(x: Option<f64>) -> String {
 }
 
 /// Renders a report as a table (one row per regime) followed by the conditions and notes.
-pub fn render(report: &StabilityReport, format: Format) -> String {
+pub fn render(report: &StabilityAnalysis, format: Format) -> String {
     if format == Format::Json {
         return serde_json::to_string_pretty(report).unwrap_or_default() + "\n";
     }

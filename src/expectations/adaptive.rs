@@ -1,4 +1,59 @@
-use super::{g, ExpectationInput, ExpectationRule, Layout};
+//! `rule = "adaptive"`: farmers revise their expectation by a share of last season's surprise
+//! (Nerlove 1958). Everything the program knows of it is here.
+
+use super::{g, g6, ExpectationInput, ExpectationRule, Reader, Registration, StateLayout, Values};
+use crate::scenario::ranges::{r, BIG};
+use crate::scenario::raw::ValueType;
+use crate::scenario::schema::Key;
+use crate::scenario::InputError;
+use crate::stability::conditions::{PublishedCondition, Slopes};
+
+/// The registration of `rule = "adaptive"`.
+pub const RULE: Registration = Registration {
+    name: "adaptive",
+    keys: &[
+        Key {
+            name: "weight",
+            kind: ValueType::Number,
+            range: Some(r("expectations.weight", 0.0, 1.0, true, false)),
+        },
+        Key {
+            name: "initial_expected_price",
+            kind: ValueType::Number,
+            range: Some(r(
+                "expectations.initial_expected_price",
+                0.0,
+                BIG,
+                true,
+                false,
+            )),
+        },
+    ],
+    read,
+    build,
+    starting: &["initial_expected_price"],
+    examples: &[
+        "[expectations]\nrule = \"adaptive\"\nweight = 0.4\n",
+        "[expectations]\nrule = \"adaptive\"\nweight = 0.7\ninitial_expected_price = 205.0\n",
+    ],
+};
+
+fn read(r: &Reader) -> Result<Values, InputError> {
+    let weight = r
+        .number("weight")?
+        .ok_or_else(|| r.missing("weight", "a weight in (0, 1]"))?;
+    Ok(Values::new().with("weight", weight).with_opt(
+        "initial_expected_price",
+        r.number("initial_expected_price")?,
+    ))
+}
+
+fn build(v: &Values) -> Box<dyn ExpectationRule> {
+    Box::new(Adaptive {
+        weight: v.number("weight"),
+        initial_expected_price: v.get("initial_expected_price"),
+    })
+}
 
 /// Adaptive expectations (Nerlove 1958): P^e_t = P^e_{t−1} + λ (P_{t−1} − P^e_{t−1}), with
 /// P^e_1 = `initial_expected_price` (default P_0).
@@ -28,17 +83,27 @@ impl ExpectationRule for Adaptive {
     fn is_rational(&self) -> bool {
         false
     }
-    fn layout(&self) -> Layout {
-        Layout::Expectation(self.weight)
+    fn layout(&self) -> StateLayout {
+        StateLayout::Expectation(self.weight)
     }
     fn rests_anywhere(&self) -> bool {
         true
+    }
+    fn settles_at_once(&self) -> Option<&'static str> {
+        None
+    }
+    /// b/d < (2 − λ)/λ (Nerlove 1958).
+    fn conditions(&self, slopes: &Slopes) -> Vec<PublishedCondition> {
+        vec![slopes.nerlove(self.weight)]
     }
     fn describe(&self) -> String {
         match self.initial_expected_price {
             Some(p) => format!("adaptive (weight {}, initial {})", g(self.weight), g(p)),
             None => format!("adaptive (weight {})", g(self.weight)),
         }
+    }
+    fn setting(&self) -> Option<String> {
+        Some(format!("weight {}", g6(self.weight)))
     }
     #[inline]
     fn expect(&self, input: &ExpectationInput) -> f64 {

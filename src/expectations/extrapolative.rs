@@ -1,4 +1,41 @@
-use super::{g, Adaptive, ExpectationInput, ExpectationRule, Layout};
+//! `rule = "extrapolative"`: farmers extend last season's price change (Goodwin 1947). Everything
+//! the program knows of it is here.
+
+use super::{
+    g, g6, Adaptive, ExpectationInput, ExpectationRule, Reader, Registration, StateLayout, Values,
+};
+use crate::scenario::ranges::r;
+use crate::scenario::raw::ValueType;
+use crate::scenario::schema::Key;
+use crate::scenario::InputError;
+use crate::stability::conditions::{PublishedCondition, Slopes};
+
+/// The registration of `rule = "extrapolative"`.
+pub const RULE: Registration = Registration {
+    name: "extrapolative",
+    keys: &[Key {
+        name: "weight",
+        kind: ValueType::Number,
+        range: Some(r("expectations.weight", -1.0, 1.0, true, true)),
+    }],
+    read,
+    build,
+    starting: &[],
+    examples: &["[expectations]\nrule = \"extrapolative\"\nweight = -0.3\n"],
+};
+
+fn read(r: &Reader) -> Result<Values, InputError> {
+    let weight = r
+        .number("weight")?
+        .ok_or_else(|| r.missing("weight", "a weight in (−1, 1)"))?;
+    Ok(Values::new().with("weight", weight))
+}
+
+fn build(v: &Values) -> Box<dyn ExpectationRule> {
+    Box::new(Extrapolative {
+        weight: v.number("weight"),
+    })
+}
 
 /// Extrapolative expectations (Goodwin 1947): P^e_t = P_{t−1} + ρ (P_{t−1} − P_{t−2}).
 #[derive(Debug, Clone, Copy)]
@@ -14,14 +51,24 @@ impl ExpectationRule for Extrapolative {
     fn as_adaptive(&self) -> Option<Adaptive> {
         None
     }
-    fn layout(&self) -> Layout {
-        Layout::Lags(vec![1.0 + self.weight, -self.weight])
+    fn layout(&self) -> StateLayout {
+        StateLayout::Lags(vec![1.0 + self.weight, -self.weight])
     }
     fn rests_anywhere(&self) -> bool {
         true
     }
+    fn settles_at_once(&self) -> Option<&'static str> {
+        None
+    }
+    /// Second order: Jury's conditions on z² + (b/d)(1 + ρ) z − (b/d) ρ.
+    fn conditions(&self, slopes: &Slopes) -> Vec<PublishedCondition> {
+        vec![slopes.second_order(1.0 + self.weight, -self.weight)]
+    }
     fn describe(&self) -> String {
         format!("extrapolative (weight {})", g(self.weight))
+    }
+    fn setting(&self) -> Option<String> {
+        Some(format!("weight {}", g6(self.weight)))
     }
     fn lags(&self) -> usize {
         2

@@ -1,4 +1,29 @@
-use super::{Adaptive, ExpectationInput, ExpectationRule, Layout};
+//! `rule = "rational"`: farmers expect what the model itself predicts (Muth 1961). The engine solves
+//! the expectation (`engine::rational`); everything else the program knows of the rule is here.
+
+use super::{
+    Adaptive, ExpectationInput, ExpectationRule, Reader, Registration, StateLayout, Values,
+};
+use crate::scenario::InputError;
+use crate::stability::conditions::{PublishedCondition, Slopes};
+
+/// The registration of `rule = "rational"` (no keys of its own).
+pub const RULE: Registration = Registration {
+    name: "rational",
+    keys: &[],
+    read,
+    build,
+    starting: &[],
+    examples: &["[expectations]\nrule = \"rational\"\n"],
+};
+
+fn read(_: &Reader) -> Result<Values, InputError> {
+    Ok(Values::new())
+}
+
+fn build(_: &Values) -> Box<dyn ExpectationRule> {
+    Box::new(Rational)
+}
 
 /// Rational expectations (Muth 1961): P^e_t = E_{t−1}[producer price in t] under the model itself.
 /// The engine solves the fixed point; `expect` returns the naive value only as a starting guess.
@@ -12,15 +37,29 @@ impl ExpectationRule for Rational {
     fn as_adaptive(&self) -> Option<Adaptive> {
         None
     }
-    /// Linearised as the naive map's state (the model solves the expectation itself).
-    fn layout(&self) -> Layout {
-        Layout::Lags(vec![1.0])
+    /// Linearised as the naive map's state (the model solves the expectation itself; the map
+    /// serves the regimes' fixed points).
+    fn layout(&self) -> StateLayout {
+        StateLayout::Lags(vec![1.0])
     }
     fn rests_anywhere(&self) -> bool {
         true
     }
+    fn settles_at_once(&self) -> Option<&'static str> {
+        Some(
+            "rational expectations: without shocks the perfect-foresight market sits at its steady \
+             state from period 1, so every regime reports the eigenvalue 0",
+        )
+    }
+    /// None: the market does not move away from its steady state.
+    fn conditions(&self, _: &Slopes) -> Vec<PublishedCondition> {
+        Vec::new()
+    }
     fn describe(&self) -> String {
         "rational".into()
+    }
+    fn setting(&self) -> Option<String> {
+        None
     }
     fn expect(&self, input: &ExpectationInput) -> f64 {
         input.lag(1)

@@ -14,7 +14,7 @@
 
 use serde::Deserialize;
 
-use super::rule::{rank, rule_ref, Build, Cell, Row, Rule, RuleRef, Section, Watched};
+use super::rule::{rank, rule_ref, Build, Cell, Row, Rule, RuleRef, RuleSection, Watched};
 use super::{flags, Agency, BandStock, Clearing, PolicyRule};
 use crate::scenario::ranges::{escape, noted, r, short_num, BIG};
 use crate::scenario::raw::ValueType;
@@ -27,7 +27,7 @@ use crate::stability::StabilityError;
 use crate::storage::agency::StoragePlan;
 
 /// The registration of `[ceiling]`.
-pub const SECTION: Section = Section {
+pub const SECTION: RuleSection = RuleSection {
     name: "ceiling",
     keys: &[
         Key {
@@ -57,7 +57,7 @@ pub const SECTION: Section = Section {
 
 /// How the ceiling is kept.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Instrument {
+pub enum CeilingInstrument {
     /// The agency sells from its stock down to the ceiling.
     Release,
     /// The treasury pays consumers the excess of the price over the ceiling.
@@ -70,7 +70,7 @@ pub struct Ceiling {
     /// Ceiling price c.
     pub price: f64,
     /// How it is kept.
-    pub instrument: Instrument,
+    pub instrument: CeilingInstrument,
 }
 
 #[derive(Debug, Default, Deserialize)]
@@ -87,8 +87,8 @@ fn read(c: &Check, table: &toml::Table) -> Result<RuleRef, InputError> {
         .ok_or_else(|| c.missing("ceiling.price", "a ceiling needs price > 0"))?;
     let price = c.within("ceiling.price", price)?;
     let instrument = match raw.instrument.as_deref() {
-        Some("release") => Instrument::Release,
-        Some("consumer-subsidy") => Instrument::ConsumerSubsidy,
+        Some("release") => CeilingInstrument::Release,
+        Some("consumer-subsidy") => CeilingInstrument::ConsumerSubsidy,
         Some(other) => {
             return Err(c.bad(
                 "ceiling.instrument",
@@ -114,11 +114,11 @@ impl Rule for Ceiling {
 
     fn build(&self, build: &mut Build) {
         match self.instrument {
-            Instrument::Release => build.actions.push((
+            CeilingInstrument::Release => build.actions.push((
                 rank::CEILING_RELEASE,
                 Box::new(CeilingRelease { price: self.price }),
             )),
-            Instrument::ConsumerSubsidy => build.actions.push((
+            CeilingInstrument::ConsumerSubsidy => build.actions.push((
                 rank::CONSUMER_PAYMENT,
                 Box::new(ConsumerSubsidy { price: self.price }),
             )),
@@ -127,10 +127,10 @@ impl Rule for Ceiling {
 
     fn storage(&self, plan: &mut StoragePlan) -> Result<(), String> {
         match self.instrument {
-            Instrument::Release => plan.ceiling = Some(self.price),
+            CeilingInstrument::Release => plan.ceiling = Some(self.price),
             // the payment changes no one's decision: the equilibrium is the free one; the records
             // book the payment
-            Instrument::ConsumerSubsidy => plan.consumer_ceiling = Some(self.price),
+            CeilingInstrument::ConsumerSubsidy => plan.consumer_ceiling = Some(self.price),
         }
         Ok(())
     }
@@ -139,7 +139,7 @@ impl Rule for Ceiling {
         let c = self.price;
         let above = r.free_price > c * (1.0 + 1e-12);
         match self.instrument {
-            Instrument::Release => {
+            CeilingInstrument::Release => {
                 if above && r.holding.is_empty() {
                     let mut case = Regimes::case(
                         "ceiling stock empty (free market)",
@@ -160,7 +160,7 @@ impl Rule for Ceiling {
                     )),
                 ));
             }
-            Instrument::ConsumerSubsidy => {
+            CeilingInstrument::ConsumerSubsidy => {
                 // consumers' payments do not feed back on planting: the dynamics are the free market's
                 let name = "consumer subsidy paid (free market)";
                 let free = RegimePrice::Free { offtake: 0.0 };
@@ -204,8 +204,8 @@ impl Rule for Ceiling {
             "ceiling {} by {}",
             short_num(self.price),
             match self.instrument {
-                Instrument::Release => "release from stock",
-                Instrument::ConsumerSubsidy => "consumer subsidy",
+                CeilingInstrument::Release => "release from stock",
+                CeilingInstrument::ConsumerSubsidy => "consumer subsidy",
             }
         )
     }
@@ -224,8 +224,8 @@ impl Rule for Ceiling {
                 label: "ceiling instrument",
                 value: Cell::Text(
                     match self.instrument {
-                        Instrument::Release => "release from stock",
-                        Instrument::ConsumerSubsidy => "consumer subsidy",
+                        CeilingInstrument::Release => "release from stock",
+                        CeilingInstrument::ConsumerSubsidy => "consumer subsidy",
                     }
                     .into(),
                 ),
@@ -242,14 +242,14 @@ impl Rule for Ceiling {
         let unit = &scenario.market.quantity_unit;
         let (demand, supply) = (&scenario.market.demand, &scenario.market.supply);
         Some(match self.instrument {
-            Instrument::Release => format!(
+            CeilingInstrument::Release => format!(
                 "the ceiling {c} is below the free-market steady state {:.3}: it cannot be defended for \
                  ever; at the ceiling the agency must supply D(c) − S(c) = {:.3} {unit} a period from \
                  its stock",
                 ss.price,
                 demand.quantity(c) - supply.quantity(c)
             ),
-            Instrument::ConsumerSubsidy => format!(
+            CeilingInstrument::ConsumerSubsidy => format!(
                 "the ceiling {c} is below the free-market steady state {:.3}: the payment is \
                  permanent, about (P* − c)·Q* = {:.3} a period",
                 ss.price,
@@ -283,18 +283,7 @@ impl PolicyRule for CeilingRelease {
             market.sell_to(self.price, flags::CEILING_SELL);
         }
     }
-    fn pays(&self) -> bool {
-        false
-    }
-    fn producer_price(&self, market_price: f64) -> f64 {
-        market_price
-    }
-    fn payment(&self, _market_price: f64, _harvest: f64) -> f64 {
-        0.0
-    }
-    fn consumer_payment(&self, _market_price: f64, _consumption: f64) -> f64 {
-        0.0
-    }
+    pays_nothing!();
     fn as_band(&self) -> Option<BandStock> {
         None
     }
@@ -311,10 +300,7 @@ impl PolicyRule for ConsumerSubsidy {
     fn planting_floor(&self) -> Option<f64> {
         None
     }
-    fn trades_stock(&self) -> bool {
-        false
-    }
-    fn trade(&self, _market: &mut Clearing) {}
+    trades_nothing!();
     fn pays(&self) -> bool {
         true
     }

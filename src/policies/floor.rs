@@ -3,7 +3,7 @@
 
 use serde::Deserialize;
 
-use super::rule::{rank, rule_ref, Build, Cell, Row, Rule, RuleRef, Section, Watched};
+use super::rule::{rank, rule_ref, Build, Cell, Row, Rule, RuleRef, RuleSection, Watched};
 use super::{flags, Agency, Clearing, PolicyRule};
 use crate::scenario::ranges::{noted, r, short_num, BIG};
 use crate::scenario::raw::ValueType;
@@ -16,7 +16,7 @@ use crate::stability::StabilityError;
 use crate::storage::agency::StoragePlan;
 
 /// The registration of `[floor]`.
-pub const SECTION: Section = Section {
+pub const SECTION: RuleSection = RuleSection {
     name: "floor",
     keys: &[
         Key {
@@ -52,7 +52,7 @@ pub const SECTION: Section = Section {
 
 /// How the floor is defended.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Instrument {
+pub enum FloorInstrument {
     /// The agency buys everything offered at the floor.
     Purchase,
     /// The market clears freely; the treasury pays the gap on the harvest.
@@ -65,7 +65,7 @@ pub struct Floor {
     /// Guaranteed producer price F.
     pub price: f64,
     /// How it is defended.
-    pub instrument: Instrument,
+    pub instrument: FloorInstrument,
     /// Whether farmers plant on max(expectation, F).
     pub announced: bool,
 }
@@ -85,8 +85,8 @@ fn read(c: &Check, table: &toml::Table) -> Result<RuleRef, InputError> {
         .ok_or_else(|| c.missing("floor.price", "a floor needs price > 0"))?;
     let price = c.within("floor.price", price)?;
     let instrument = match f.instrument.as_deref().unwrap_or("purchase") {
-        "purchase" => Instrument::Purchase,
-        "deficiency-payment" => Instrument::DeficiencyPayment,
+        "purchase" => FloorInstrument::Purchase,
+        "deficiency-payment" => FloorInstrument::DeficiencyPayment,
         other => {
             return Err(c.bad(
                 "floor.instrument",
@@ -109,14 +109,14 @@ impl Rule for Floor {
 
     fn build(&self, build: &mut Build) {
         match self.instrument {
-            Instrument::Purchase => build.actions.push((
+            FloorInstrument::Purchase => build.actions.push((
                 rank::FLOOR_PURCHASE,
                 Box::new(FloorPurchase {
                     price: self.price,
                     announced: self.announced,
                 }),
             )),
-            Instrument::DeficiencyPayment => build.actions.push((
+            FloorInstrument::DeficiencyPayment => build.actions.push((
                 rank::PRODUCER_PAYMENT,
                 Box::new(DeficiencyPayment {
                     price: self.price,
@@ -129,9 +129,9 @@ impl Rule for Floor {
     fn storage(&self, plan: &mut StoragePlan) -> Result<(), String> {
         match self.instrument {
             // a band that buys at the floor and never sells (within [stock], if any)
-            Instrument::Purchase => plan.purchase_floor = Some(self.price),
+            FloorInstrument::Purchase => plan.purchase_floor = Some(self.price),
             // planting on E[max(P', F)] when announced; the market clears freely
-            Instrument::DeficiencyPayment => {
+            FloorInstrument::DeficiencyPayment => {
                 plan.payment_floor = self.price;
                 if self.announced {
                     plan.planting_floor = self.price;
@@ -144,7 +144,7 @@ impl Rule for Floor {
     fn regimes(&self, r: &mut Regimes) -> Result<(), StabilityError> {
         let f = self.price;
         match self.instrument {
-            Instrument::Purchase => {
+            FloorInstrument::Purchase => {
                 let name = "floor binding (purchase)";
                 if Regimes::below(r.free_price, f) {
                     r.holding = r.purchase_holds(name, f)?;
@@ -158,7 +158,7 @@ impl Rule for Floor {
                     ));
                 }
             }
-            Instrument::DeficiencyPayment => {
+            FloorInstrument::DeficiencyPayment => {
                 let name = "deficiency payment binding";
                 let paid = RegimePrice::Paid(f);
                 if Regimes::below(r.free_price, f) {
@@ -188,7 +188,7 @@ impl Rule for Floor {
     }
 
     fn check_market(&self, c: &Check, scenario: &Scenario) -> Result<(), InputError> {
-        if self.instrument == Instrument::Purchase {
+        if self.instrument == FloorInstrument::Purchase {
             c.absorbs(
                 scenario,
                 "floor.price",
@@ -208,8 +208,8 @@ impl Rule for Floor {
             "floor {} by {}{}",
             short_num(self.price),
             match self.instrument {
-                Instrument::Purchase => "purchase",
-                Instrument::DeficiencyPayment => "deficiency payment",
+                FloorInstrument::Purchase => "purchase",
+                FloorInstrument::DeficiencyPayment => "deficiency payment",
             },
             if self.announced { ", announced" } else { "" }
         )
@@ -229,8 +229,8 @@ impl Rule for Floor {
                 label: "floor instrument",
                 value: Cell::Text(
                     match self.instrument {
-                        Instrument::Purchase => "public purchase",
-                        Instrument::DeficiencyPayment => "deficiency payment",
+                        FloorInstrument::Purchase => "public purchase",
+                        FloorInstrument::DeficiencyPayment => "deficiency payment",
                     }
                     .into(),
                 ),
@@ -252,7 +252,7 @@ impl Rule for Floor {
         }
         let growth = supply.quantity(f.price) - demand.quantity(f.price);
         Some(match f.instrument {
-            Instrument::Purchase => {
+            FloorInstrument::Purchase => {
                 let mut s = format!(
                     "the floor {} is above the free-market steady state {:.3}: it cannot be defended for ever; at the floor the agency must take S(F) − D(F) = {:.3} {unit} a period",
                     f.price, ss.price, growth
@@ -291,7 +291,7 @@ impl Rule for Floor {
                 }
                 s
             }
-            Instrument::DeficiencyPayment => format!(
+            FloorInstrument::DeficiencyPayment => format!(
                 "the floor {} is above the free-market steady state {:.3}: the payment is permanent, about (F − D⁻¹(S(F)))·S(F) = {:.3} a period once planting settles on the floor",
                 f.price,
                 ss.price,
@@ -302,7 +302,7 @@ impl Rule for Floor {
     }
 
     fn watch(&self, w: &mut Watched) {
-        if self.instrument == Instrument::Purchase {
+        if self.instrument == FloorInstrument::Purchase {
             w.purchase_floor = Some(self.price);
         }
     }
@@ -328,18 +328,7 @@ impl PolicyRule for FloorPurchase {
     fn trade(&self, market: &mut Clearing) {
         market.buy_to(self.price, flags::FLOOR_BUY);
     }
-    fn pays(&self) -> bool {
-        false
-    }
-    fn producer_price(&self, market_price: f64) -> f64 {
-        market_price
-    }
-    fn payment(&self, _market_price: f64, _harvest: f64) -> f64 {
-        0.0
-    }
-    fn consumer_payment(&self, _market_price: f64, _consumption: f64) -> f64 {
-        0.0
-    }
+    pays_nothing!();
     fn as_band(&self) -> Option<super::BandStock> {
         None
     }
@@ -359,10 +348,7 @@ impl PolicyRule for DeficiencyPayment {
     fn planting_floor(&self) -> Option<f64> {
         self.announced.then_some(self.price)
     }
-    fn trades_stock(&self) -> bool {
-        false
-    }
-    fn trade(&self, _market: &mut Clearing) {}
+    trades_nothing!();
     fn pays(&self) -> bool {
         true
     }

@@ -7,6 +7,37 @@
 //! buffer-stock rule, (3) sales defending a ceiling, then the market clears, and (4) payment rules
 //! (to producers, then to consumers) settle on the cleared price.
 
+/// The [`PolicyRule`] methods of an action that pays no one: the producer price is the market
+/// price and nothing goes to producers or consumers. An action that pays nothing invokes it inside
+/// its `impl PolicyRule` (the trait keeps no default bodies: each action still states it).
+macro_rules! pays_nothing {
+    () => {
+        fn pays(&self) -> bool {
+            false
+        }
+        fn producer_price(&self, market_price: f64) -> f64 {
+            market_price
+        }
+        fn payment(&self, _market_price: f64, _harvest: f64) -> f64 {
+            0.0
+        }
+        fn consumer_payment(&self, _market_price: f64, _consumption: f64) -> f64 {
+            0.0
+        }
+    };
+}
+
+/// The [`PolicyRule`] methods of an action that does not trade: it neither buys into nor sells
+/// from the agency's stock. Invoked inside its `impl PolicyRule`, as [`pays_nothing`].
+macro_rules! trades_nothing {
+    () => {
+        fn trades_stock(&self) -> bool {
+            false
+        }
+        fn trade(&self, _market: &mut Clearing) {}
+    };
+}
+
 pub mod ceiling;
 pub mod clearing;
 mod diagnose;
@@ -22,7 +53,7 @@ pub use diagnose::{
     diagnose, diagnose_tally, floor_warning, periods_to_fill, summarise, PathTally,
 };
 pub use floor::{DeficiencyPayment, FloorPurchase};
-pub use rule::{Build, Rule, RuleRef, Section, Watched, SECTIONS};
+pub use rule::{Build, Rule, RuleRef, RuleSection, Watched, SECTIONS};
 pub use stock_band::BandStock;
 pub use stock_share::ShareStock;
 pub use stock_target::TargetStock;

@@ -99,7 +99,7 @@ pub trait Rule: Send + Sync + std::fmt::Debug {
     fn describe(&self) -> String;
     /// The prices it defends, to draw on a price chart: (words before the price, price), finite only.
     fn price_lines(&self) -> Vec<(&'static str, f64)>;
-    /// Its rows of the policy assumptions table (see [`Section::absent`] for a policy without it).
+    /// Its rows of the policy assumptions table (see [`RuleSection::absent`] for a policy without it).
     fn rows(&self) -> Vec<Row>;
     /// A warning in words when the rule cannot be kept up at the free market's steady state.
     fn warning(&self, scenario: &Scenario, agency: &Agency) -> Option<String>;
@@ -131,7 +131,7 @@ impl Serialize for RuleRef {
 /// A registered rule section: its keys (one schema: types, ranges, documentation) and how it is
 /// read.
 #[derive(Debug, Clone, Copy)]
-pub struct Section {
+pub struct RuleSection {
     /// The section name, e.g. `ceiling`.
     pub name: &'static str,
     /// Its keys with types and ranges.
@@ -146,14 +146,14 @@ pub struct Section {
 }
 
 /// Every rule section, in file order (the only registration point for policy rules).
-pub const SECTIONS: &[Section] = &[
+pub const SECTIONS: &[RuleSection] = &[
     super::floor::SECTION,
     super::stock::SECTION,
     super::ceiling::SECTION,
 ];
 
 /// The registered section called `name`.
-pub fn section(name: &str) -> Option<&'static Section> {
+pub fn section(name: &str) -> Option<&'static RuleSection> {
     SECTIONS.iter().find(|s| s.name == name)
 }
 

@@ -5,7 +5,7 @@
 
 use serde::Deserialize;
 
-use super::rule::{rank, rule_ref, Build, Cell, Row, Rule, RuleRef, Section, Watched};
+use super::rule::{rank, rule_ref, Build, Cell, Row, Rule, RuleRef, RuleSection, Watched};
 use super::{Agency, BandStock, ShareStock, TargetStock};
 use crate::scenario::ranges::{escape, noted, r, short_num, BIG, MONEY};
 use crate::scenario::raw::ValueType;
@@ -28,7 +28,7 @@ const fn num(name: &'static str, range: crate::scenario::ranges::KeyRange) -> Ke
 }
 
 /// The registration of `[stock]`.
-pub const SECTION: Section = Section {
+pub const SECTION: RuleSection = RuleSection {
     name: "stock",
     keys: &[
         num(

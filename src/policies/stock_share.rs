@@ -16,18 +16,7 @@ impl PolicyRule for ShareStock {
     fn planting_floor(&self) -> Option<f64> {
         None
     }
-    fn pays(&self) -> bool {
-        false
-    }
-    fn producer_price(&self, market_price: f64) -> f64 {
-        market_price
-    }
-    fn payment(&self, _market_price: f64, _harvest: f64) -> f64 {
-        0.0
-    }
-    fn consumer_payment(&self, _market_price: f64, _consumption: f64) -> f64 {
-        0.0
-    }
+    pays_nothing!();
     fn trades_stock(&self) -> bool {
         true
     }

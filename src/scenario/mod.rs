@@ -80,50 +80,9 @@ pub struct Market {
     pub supply: Curve,
 }
 
-/// How the normal price of the normal-price rule is formed.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
-#[serde(rename_all = "kebab-case")]
-pub enum NormalPrice {
-    /// A fixed normal price N.
-    Fixed(f64),
-    /// The mean of the last `window` producer prices.
-    Window(usize),
-}
-
-/// A validated expectation rule with its parameters.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
-#[serde(tag = "rule", rename_all = "kebab-case")]
-pub enum ExpectationSpec {
-    /// P^e_t = P_{t−1}.
-    Naive,
-    /// P^e_t = P^e_{t−1} + λ (P_{t−1} − P^e_{t−1}).
-    Adaptive {
-        weight: f64,
-        initial_expected_price: Option<f64>,
-    },
-    /// P^e_t = P_{t−1} + η (N_t − P_{t−1}).
-    NormalPrice { weight: f64, normal: NormalPrice },
-    /// P^e_t = P_{t−1} + ρ (P_{t−1} − P_{t−2}).
-    Extrapolative { weight: f64 },
-    /// P^e_t = mean(P_{t−1}, …, P_{t−k}).
-    TrailingMean { window: usize },
-    /// P^e_t = E_{t−1}[producer price in t] under the model.
-    Rational,
-}
-
-impl ExpectationSpec {
-    /// The rule's file name (`rule = "..."`).
-    pub fn rule_name(&self) -> &'static str {
-        match self {
-            ExpectationSpec::Naive => "naive",
-            ExpectationSpec::Adaptive { .. } => "adaptive",
-            ExpectationSpec::NormalPrice { .. } => "normal-price",
-            ExpectationSpec::Extrapolative { .. } => "extrapolative",
-            ExpectationSpec::TrailingMean { .. } => "trailing-mean",
-            ExpectationSpec::Rational => "rational",
-        }
-    }
-}
+/// A validated `[expectations]` section (the expectation rule with its parameters; defined with
+/// the rules, `expectations::ExpectationSpec`).
+pub use crate::expectations::ExpectationSpec;
 
 /// How agency stock left at the last period is valued.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]

@@ -37,7 +37,7 @@ pub const fn r(key: &'static str, lo: f64, hi: f64, open_lo: bool, open_hi: bool
     }
 }
 
-const fn int(key: &'static str, lo: f64, hi: f64) -> KeyRange {
+pub const fn int(key: &'static str, lo: f64, hi: f64) -> KeyRange {
     KeyRange {
         key,
         lo,
@@ -61,11 +61,10 @@ pub const MONEY: f64 = 1e24;
 /// Largest seed (i64::MAX: TOML integers are signed 64-bit).
 const SEED_MAX: f64 = 9_223_372_036_854_775_807.0;
 
-/// Every numeric key of the market file and of a policy file's own sections with its range (the
-/// rule sections' keys are declared with their rules). Keys of the `[expectations]` section are
-/// shared by both files.
-pub const RANGES: &[KeyRange] = &[
-    // market file: curves
+/// Every numeric key of the market file and of a policy file's own sections with its range, in two
+/// parts around `[expectations]` (the rule sections' keys and the `[expectations]` keys, shared by
+/// both files, are declared with their rules): the curves' keys here.
+pub const CURVE_RANGES: &[KeyRange] = &[
     noted(r("demand.intercept", 0.0, BIG, true, false), "linear form"),
     noted(r("demand.slope", -BIG, 0.0, false, true), "linear form"),
     r("demand.at_price", 0.0, BIG, true, false),
@@ -79,14 +78,10 @@ pub const RANGES: &[KeyRange] = &[
     r("supply.at_price", 0.0, BIG, true, false),
     r("supply.at_quantity", 0.0, BIG, true, false),
     r("supply.elasticity", 0.0, 50.0, true, false),
-    // expectations (market and policy files)
-    noted(
-        r("expectations.weight", -1.0, 1.0, true, false),
-        "adaptive (0, 1]; normal-price [0, 1]; extrapolative (−1, 1)",
-    ),
-    int("expectations.window", 1.0, 1000.0),
-    r("expectations.normal_price", 0.0, BIG, true, false),
-    r("expectations.initial_expected_price", 0.0, BIG, true, false),
+];
+
+/// The rest of the market file's numeric keys (after `[expectations]`) and `[policy]`'s.
+pub const RANGES: &[KeyRange] = &[
     // run
     int("run.periods", 1.0, 1_000_000.0),
     r("run.initial_price", 0.0, BIG, true, false),
@@ -124,7 +119,12 @@ pub const RANGES: &[KeyRange] = &[
 /// array's range).
 pub fn range_of(key: &str) -> Option<&'static KeyRange> {
     let base = key.split('[').next().unwrap_or(key);
-    RANGES.iter().chain(rule_ranges()).find(|k| k.key == base)
+    CURVE_RANGES
+        .iter()
+        .chain(RANGES)
+        .chain(crate::expectations::key_ranges())
+        .chain(rule_ranges())
+        .find(|k| k.key == base)
 }
 
 /// The ranges the registered policy rules declare for their keys.
@@ -135,13 +135,16 @@ fn rule_ranges() -> impl Iterator<Item = &'static KeyRange> {
         .filter_map(|k| k.range.as_ref())
 }
 
-/// Every numeric key's range in README order: the market file's, the rule sections' (registry
-/// order), then `[policy]`'s.
+/// Every numeric key's range in README order: the market file's curves, the `[expectations]` keys
+/// (over the rules that read each, `expectations::key_ranges`), the rest of the market file's, the
+/// rule sections' (registry order), then `[policy]`'s.
 pub fn all() -> Vec<&'static KeyRange> {
     let (policy, market): (Vec<_>, Vec<_>) =
         RANGES.iter().partition(|k| k.key.starts_with("policy."));
-    market
-        .into_iter()
+    CURVE_RANGES
+        .iter()
+        .chain(crate::expectations::key_ranges())
+        .chain(market)
         .chain(rule_ranges())
         .chain(policy)
         .collect()

@@ -11,7 +11,6 @@ pub struct RawMarketFile {
     pub market: RawMarket,
     pub demand: Option<RawCurve>,
     pub supply: Option<RawCurve>,
-    pub expectations: Option<RawExpectations>,
     pub run: RawRun,
     pub shocks: RawShocks,
     pub storers: Option<RawStorers>,
@@ -34,16 +33,6 @@ pub struct RawCurve {
     pub at_price: Option<f64>,
     pub at_quantity: Option<f64>,
     pub elasticity: Option<f64>,
-}
-
-#[derive(Debug, Clone, Default, Deserialize)]
-#[serde(default)]
-pub struct RawExpectations {
-    pub rule: Option<String>,
-    pub weight: Option<f64>,
-    pub window: Option<i64>,
-    pub normal_price: Option<f64>,
-    pub initial_expected_price: Option<f64>,
 }
 
 #[derive(Debug, Clone, Default, Deserialize)]
@@ -108,9 +97,10 @@ pub enum ValueType {
 
 use ValueType::*;
 
-/// The keys each section allows and their types, for the unknown-key check (with nearest-key
-/// suggestions) and the type check.
-pub const MARKET_SCHEMA: &[(&str, &[(&str, ValueType)])] = &[
+/// The keys each section of the market file allows and their types, for the unknown-key check
+/// (with nearest-key suggestions) and the type check: the sections before `[expectations]` (whose
+/// keys the expectation rules declare, `expectations::section_keys`) and those after it.
+pub const MARKET_SCHEMA_BEFORE: &[(&str, &[(&str, ValueType)])] = &[
     (
         "market",
         &[
@@ -121,7 +111,10 @@ pub const MARKET_SCHEMA: &[(&str, &[(&str, ValueType)])] = &[
     ),
     ("demand", CURVE_KEYS),
     ("supply", CURVE_KEYS),
-    ("expectations", EXPECTATION_KEYS),
+];
+
+/// The market file's sections after `[expectations]`.
+pub const MARKET_SCHEMA_AFTER: &[(&str, &[(&str, ValueType)])] = &[
     (
         "run",
         &[
@@ -158,12 +151,10 @@ pub const MARKET_SCHEMA: &[(&str, &[(&str, ValueType)])] = &[
     ),
 ];
 
-/// The keys of a policy file's own sections (`[policy]` first, `[expectations]` last); the rule
-/// sections between them come from the registry (`scenario::schema::policy`).
-pub const POLICY_GENERAL_SCHEMA: &[(&str, &[(&str, ValueType)])] = &[
-    ("policy", &[("name", Text), ("annual_budget", Number)]),
-    ("expectations", EXPECTATION_KEYS),
-];
+/// The keys of a policy file's `[policy]` section; the rule sections after it come from the
+/// registry and `[expectations]` last from the expectation rules (`scenario::schema::policy`).
+pub const POLICY_SCHEMA: &[(&str, &[(&str, ValueType)])] =
+    &[("policy", &[("name", Text), ("annual_budget", Number)])];
 
 const CURVE_KEYS: &[(&str, ValueType)] = &[
     ("form", Text),
@@ -172,11 +163,4 @@ const CURVE_KEYS: &[(&str, ValueType)] = &[
     ("at_price", Number),
     ("at_quantity", Number),
     ("elasticity", Number),
-];
-const EXPECTATION_KEYS: &[(&str, ValueType)] = &[
-    ("rule", Text),
-    ("weight", Number),
-    ("window", Integer),
-    ("normal_price", Number),
-    ("initial_expected_price", Number),
 ];

@@ -2,11 +2,11 @@
 //! key's range. The unknown-key check and the type check (`keys::check_keys`), validation's range
 //! checks (`ranges::range_of`), `--vary` routing (`sweep::apply`, by [`is_policy_section`]) and the
 //! README's table of input ranges (`ranges::all`, tested against the README) all read it. Policy
-//! rule sections are not listed here: each rule file declares its keys and registers them in
-//! `policies::SECTIONS`.
+//! rule sections and the `[expectations]` keys are not listed here: each rule file declares its
+//! keys and registers them (`policies::SECTIONS`, `expectations::RULES`).
 
 use super::ranges::KeyRange;
-use super::raw::{ValueType, MARKET_SCHEMA, POLICY_GENERAL_SCHEMA};
+use super::raw::{ValueType, MARKET_SCHEMA_AFTER, MARKET_SCHEMA_BEFORE, POLICY_SCHEMA};
 
 /// One key of a rule section: name, type and (numeric keys) range.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -22,28 +22,32 @@ pub struct Key {
 /// Sections with their keys and types.
 pub type Schema = Vec<(&'static str, Vec<(&'static str, ValueType)>)>;
 
-/// The market file's schema.
+/// The market file's schema (its own sections, `[expectations]` from the expectation rules).
 pub fn market() -> Schema {
-    MARKET_SCHEMA
-        .iter()
-        .map(|(s, keys)| (*s, keys.to_vec()))
-        .collect()
+    let own = |part: &[(&'static str, &'static [(&'static str, ValueType)])]| {
+        part.iter()
+            .map(|(s, keys)| (*s, keys.to_vec()))
+            .collect::<Schema>()
+    };
+    let mut out = own(MARKET_SCHEMA_BEFORE);
+    out.push(("expectations", crate::expectations::section_keys()));
+    out.extend(own(MARKET_SCHEMA_AFTER));
+    out
 }
 
 /// The policy file's schema: `[policy]`, every registered rule section, `[expectations]`.
 pub fn policy() -> Schema {
-    let mut out: Schema = Vec::new();
-    let mut general = POLICY_GENERAL_SCHEMA.iter();
-    if let Some((s, keys)) = general.next() {
-        out.push((*s, keys.to_vec()));
-    }
+    let mut out: Schema = POLICY_SCHEMA
+        .iter()
+        .map(|(s, keys)| (*s, keys.to_vec()))
+        .collect();
     for section in crate::policies::SECTIONS {
         out.push((
             section.name,
             section.keys.iter().map(|k| (k.name, k.kind)).collect(),
         ));
     }
-    out.extend(general.map(|(s, keys)| (*s, keys.to_vec())));
+    out.push(("expectations", crate::expectations::section_keys()));
     out
 }
 

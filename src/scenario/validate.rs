@@ -226,6 +226,23 @@ impl<'a> Check<'a> {
         Err(self.bad(key, short_num(v), &range))
     }
 
+    /// Checks `v` against `range` (a rule's own range for one of its keys).
+    pub fn in_range(&self, range: &super::ranges::KeyRange, v: f64) -> Result<f64, InputError> {
+        self.range(
+            range.key,
+            v,
+            range.lo,
+            range.hi,
+            range.open_lo,
+            range.open_hi,
+        )
+    }
+
+    /// A whole number checked against `range` (a rule's own range for one of its keys).
+    pub fn whole_in(&self, range: &super::ranges::KeyRange, v: i64) -> Result<usize, InputError> {
+        self.count(range.key, v, range.lo as i64, range.hi as i64)
+    }
+
     /// Checks `v` against the key's range ([`super::ranges::range_of`]).
     pub fn within(&self, key: &str, v: f64) -> Result<f64, InputError> {
         match range_of(key) {
@@ -348,111 +365,14 @@ fn curve(c: &Check, section: &str, raw: &RawCurve, demand: bool) -> Result<Curve
     }
 }
 
-fn expectations(c: &Check, raw: &RawExpectations) -> Result<ExpectationSpec, InputError> {
-    let rule = raw.rule.as_deref().unwrap_or("naive");
-    let weight = |lo: f64, hi: f64, open_lo: bool, open_hi: bool, what: &str| {
-        let w = raw.weight.ok_or_else(|| {
-            c.missing(
-                "expectations.weight",
-                &format!("rule \"{rule}\" needs a weight {what}"),
-            )
-        })?;
-        c.range("expectations.weight", w, lo, hi, open_lo, open_hi)
-    };
-    let unused = |k: &str, present: bool| -> Result<(), InputError> {
-        if present {
-            Err(c.bad(
-                &format!("expectations.{k}"),
-                "(set)",
-                &format!("rule \"{rule}\" does not use `{k}`; remove it"),
-            ))
-        } else {
-            Ok(())
-        }
-    };
-    let spec = match rule {
-        "naive" => {
-            unused("weight", raw.weight.is_some())?;
-            unused("window", raw.window.is_some())?;
-            ExpectationSpec::Naive
-        }
-        "adaptive" => {
-            unused("window", raw.window.is_some())?;
-            let weight = weight(0.0, 1.0, true, false, "in (0, 1]")?;
-            let initial_expected_price = raw
-                .initial_expected_price
-                .map(|p| c.within("expectations.initial_expected_price", p))
-                .transpose()?;
-            ExpectationSpec::Adaptive {
-                weight,
-                initial_expected_price,
-            }
-        }
-        "normal-price" => {
-            let weight = weight(0.0, 1.0, false, false, "in [0, 1]")?;
-            let normal = match (raw.normal_price, raw.window) {
-                (Some(_), Some(_)) => {
-                    return Err(c.bad(
-                        "expectations.normal_price",
-                        "(set)",
-                        "give either normal_price (fixed) or window (trailing mean), not both",
-                    ))
-                }
-                (Some(n), None) => NormalPrice::Fixed(c.within("expectations.normal_price", n)?),
-                (None, Some(w)) => NormalPrice::Window(c.whole("expectations.window", w)?),
-                (None, None) => {
-                    return Err(c.missing(
-                        "expectations.normal_price",
-                        "rule \"normal-price\" needs normal_price > 0 or window ≥ 1",
-                    ))
-                }
-            };
-            ExpectationSpec::NormalPrice { weight, normal }
-        }
-        "extrapolative" => {
-            unused("window", raw.window.is_some())?;
-            ExpectationSpec::Extrapolative {
-                weight: weight(-1.0, 1.0, true, true, "in (−1, 1)")?,
-            }
-        }
-        "trailing-mean" => {
-            unused("weight", raw.weight.is_some())?;
-            let w = raw.window.ok_or_else(|| {
-                c.missing(
-                    "expectations.window",
-                    "rule \"trailing-mean\" needs a window ≥ 1",
-                )
-            })?;
-            ExpectationSpec::TrailingMean {
-                window: c.whole("expectations.window", w)?,
-            }
-        }
-        "rational" => {
-            unused("weight", raw.weight.is_some())?;
-            unused("window", raw.window.is_some())?;
-            ExpectationSpec::Rational
-        }
-        other => return Err(c.bad(
-            "expectations.rule",
-            format!("\"{}\"", escape(other)),
-            "allowed rules: naive, adaptive, normal-price, extrapolative, trailing-mean, rational",
-        )),
-    };
-    if !matches!(spec, ExpectationSpec::NormalPrice { .. }) {
-        unused("normal_price", raw.normal_price.is_some())?;
-    }
-    if !matches!(spec, ExpectationSpec::Adaptive { .. }) {
-        unused(
-            "initial_expected_price",
-            raw.initial_expected_price.is_some(),
-        )?;
-    }
-    Ok(spec)
-}
-
 /// Validates a parsed market file (after any `--vary` overrides were applied to `table`).
 pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, InputError> {
     check_keys(file, &table, &super::schema::market())?;
+    // the `[expectations]` section is read by its rule (`expectations::RULES`)
+    let expectations_table = match table.get("expectations").and_then(|v| v.as_table()) {
+        Some(t) => t.clone(),
+        None => toml::Table::new(),
+    };
     let raw: RawMarketFile = deserialize(file, table)?;
     let c = Check { file };
     let demand_raw = raw
@@ -524,7 +444,7 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
         demand,
         supply,
     };
-    let expectations = expectations(&c, &raw.expectations.clone().unwrap_or_default())?;
+    let expectations = crate::expectations::read(&c, &expectations_table)?;
 
     let r = &raw.run;
     let periods = c.whole("run.periods", r.periods.unwrap_or(40))?;
@@ -606,7 +526,7 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
     let storers = match &raw.storers {
         None => None,
         Some(st) => {
-            if expectations != ExpectationSpec::Rational {
+            if !expectations.is_rational() {
                 return Err(c.bad(
                     "expectations.rule",
                     format!("\"{}\"", expectations.rule_name()),
@@ -724,7 +644,7 @@ pub fn policy_from_table(file: &str, table: toml::Table) -> Result<PolicySpec, I
         None => RawPolicy::default(),
     };
     let expectations = match table.get("expectations").and_then(|v| v.as_table()) {
-        Some(t) => Some(expectations(&c, &deserialize(file, t.clone())?)?),
+        Some(t) => Some(crate::expectations::read(&c, t)?),
         None => None,
     };
     Ok(PolicySpec {

@@ -1,8 +1,9 @@
 //! Published stability conditions, evaluated for the market at hand, beside the eigenvalues.
 //!
 //! With b = S'(P^e*) (supply slope) and d = |D'(P*)| (demand slope in absolute value) at the steady
-//! state, the linearised price answers the planting price with −b/d. The conditions below are the
-//! closed forms for each rule; the eigenvalues decide in every case, these are for the reader.
+//! state, the linearised price answers the planting price with −b/d. The closed forms below
+//! ([`Slopes`]) name no rule: each expectation rule picks the ones that apply to it
+//! (`ExpectationRule::conditions`). The eigenvalues decide in every case, these are for the reader.
 //!
 //! Every condition is a strict inequality. Where the market sits on its boundary — within the
 //! neutral band of the verdict ([`super::eigen::NEUTRAL_TOLERANCE`], measured in the same units as
@@ -10,8 +11,6 @@
 //! holding because of a rounding error in b/d.
 
 use serde::Serialize;
-
-use crate::scenario::{ExpectationSpec, NormalPrice};
 
 /// A closed-form stability condition and whether this market meets it.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -79,79 +78,84 @@ pub fn jury_quadratic(a1: f64, a0: f64) -> PublishedCondition {
     }
 }
 
-/// The conditions that apply to `rule` with supply slope `b` and demand slope `d` (> 0).
-pub fn conditions(rule: &ExpectationSpec, b: f64, d: f64) -> Vec<PublishedCondition> {
-    let r = b / d;
-    let slopes = format!(
-        "b = S'(P*) = {}, d = |D'(P*)| = {}, b/d = {}",
-        f(b),
-        f(d),
-        f(r)
-    );
-    // ρ = b/d: the margin 1 − b/d
-    let (ez_holds, ez_edge) = strict(1.0 - r);
-    let ezekiel = || PublishedCondition {
-        name: "b < d".into(),
-        source: "Ezekiel (1938), The cobweb theorem, Quarterly Journal of Economics 52(2)".into(),
-        holds: ez_holds,
-        on_boundary: ez_edge,
-        detail: slopes.clone(),
-    };
-    // second-order rules: P^e = w1 P_{t−1} + w2 P_{t−2}; characteristic polynomial z² + r w1 z + r w2
-    let quadratic = |w1: f64, w2: f64| jury_quadratic(r * w1, r * w2);
-    match *rule {
-        ExpectationSpec::Naive => vec![ezekiel()],
-        ExpectationSpec::TrailingMean { window: 1 } => vec![ezekiel()],
-        ExpectationSpec::Adaptive { weight, .. } => {
-            let bound = (2.0 - weight) / weight;
-            // beyond the bound ρ = λ(1 + b/d) − 1, so 1 − ρ = λ·((2 − λ)/λ − b/d)
-            let (holds, on_boundary) = strict(weight * (bound - r));
-            vec![PublishedCondition {
-                name: "b/d < (2 − λ)/λ".into(),
-                source: "Nerlove (1958), Adaptive expectations and cobweb phenomena, Quarterly \
-                         Journal of Economics 72(2)"
+/// The steady-state slopes the published conditions are evaluated with: b = S'(P^e*) and
+/// d = |D'(P*)| (> 0). Each expectation rule picks its conditions (`ExpectationRule::conditions`)
+/// from the closed forms below.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Slopes {
+    /// Supply slope at the steady planting price.
+    pub b: f64,
+    /// Demand slope at the steady price, in absolute value.
+    pub d: f64,
+}
+
+impl Slopes {
+    /// b/d.
+    fn ratio(&self) -> f64 {
+        self.b / self.d
+    }
+
+    fn words(&self) -> String {
+        format!(
+            "b = S'(P*) = {}, d = |D'(P*)| = {}, b/d = {}",
+            f(self.b),
+            f(self.d),
+            f(self.ratio())
+        )
+    }
+
+    /// The cobweb theorem for naive expectations: b < d (ρ = b/d: the margin 1 − b/d).
+    pub fn ezekiel(&self) -> PublishedCondition {
+        let (holds, on_boundary) = strict(1.0 - self.ratio());
+        PublishedCondition {
+            name: "b < d".into(),
+            source: "Ezekiel (1938), The cobweb theorem, Quarterly Journal of Economics 52(2)"
+                .into(),
+            holds,
+            on_boundary,
+            detail: self.words(),
+        }
+    }
+
+    /// Adaptive expectations of weight λ: b/d < (2 − λ)/λ.
+    pub fn nerlove(&self, weight: f64) -> PublishedCondition {
+        let bound = (2.0 - weight) / weight;
+        // beyond the bound ρ = λ(1 + b/d) − 1, so 1 − ρ = λ·((2 − λ)/λ − b/d)
+        let (holds, on_boundary) = strict(weight * (bound - self.ratio()));
+        PublishedCondition {
+            name: "b/d < (2 − λ)/λ".into(),
+            source: "Nerlove (1958), Adaptive expectations and cobweb phenomena, Quarterly \
+                     Journal of Economics 72(2)"
+                .into(),
+            holds,
+            on_boundary,
+            detail: format!(
+                "{}, λ = {}, (2 − λ)/λ = {}",
+                self.words(),
+                f(weight),
+                f(bound)
+            ),
+        }
+    }
+
+    /// A second-order rule P^e = w1 P_{t−1} + w2 P_{t−2}: Jury's conditions on the characteristic
+    /// polynomial z² + (b/d) w1 z + (b/d) w2.
+    pub fn second_order(&self, w1: f64, w2: f64) -> PublishedCondition {
+        jury_quadratic(self.ratio() * w1, self.ratio() * w2)
+    }
+
+    /// A first-order rule with w = dP^e/dP_{t−1}: its root −(b/d)·w inside the unit circle.
+    pub fn first_order(&self, w: f64) -> PublishedCondition {
+        let (holds, on_boundary) = strict(1.0 - self.ratio() * w);
+        PublishedCondition {
+            name: "(b/d)·w < 1 with w = dP^e/dP_{t−1}".into(),
+            source:
+                "first-order root −(b/d)·w of the rule; derived here (no published source checked)"
                     .into(),
-                holds,
-                on_boundary,
-                detail: format!("{slopes}, λ = {}, (2 − λ)/λ = {}", f(weight), f(bound)),
-            }]
+            holds,
+            on_boundary,
+            detail: format!("{}, w = {}", self.words(), f(w)),
         }
-        ExpectationSpec::Extrapolative { weight } => vec![quadratic(1.0 + weight, -weight)],
-        ExpectationSpec::TrailingMean { window: 2 } => vec![quadratic(0.5, 0.5)],
-        ExpectationSpec::NormalPrice {
-            weight,
-            normal: NormalPrice::Window(2),
-        } => vec![quadratic(1.0 - weight + weight / 2.0, weight / 2.0)],
-        ExpectationSpec::NormalPrice {
-            weight,
-            normal: NormalPrice::Window(1),
-        }
-        | ExpectationSpec::NormalPrice {
-            weight,
-            normal: NormalPrice::Fixed(_),
-        } => {
-            let w = if matches!(
-                rule,
-                ExpectationSpec::NormalPrice {
-                    normal: NormalPrice::Window(1),
-                    ..
-                }
-            ) {
-                1.0
-            } else {
-                1.0 - weight
-            };
-            let (holds, on_boundary) = strict(1.0 - r * w);
-            vec![PublishedCondition {
-                name: "(b/d)·w < 1 with w = dP^e/dP_{t−1}".into(),
-                source: "first-order root −(b/d)·w of the rule; derived here (no published source checked)"
-                    .into(),
-                holds,
-                on_boundary,
-                detail: format!("{slopes}, w = {}", f(w)),
-            }]
-        }
-        _ => Vec::new(),
     }
 }
 
@@ -179,17 +183,18 @@ mod tests {
     fn nerlove_boundary_is_not_reported_as_holding() {
         // b/d = 0.3/0.1 rounds to 2.9999999999999996 < 3 = (2 − λ)/λ at λ = 0.5: on the boundary
         // (Nerlove 1958: the adaptive cobweb is stable iff b/d < (2 − λ)/λ)
-        let spec = ExpectationSpec::Adaptive {
-            weight: 0.5,
-            initial_expected_price: None,
-        };
-        let c = &conditions(&spec, 0.3, 0.1)[0];
+        let at = |b: f64, d: f64| Slopes { b, d }.nerlove(0.5);
+        let c = at(0.3, 0.1);
         assert!(!c.holds && c.on_boundary, "{c:?}");
         assert_eq!(c.status(), "on the boundary");
-        assert!(conditions(&spec, 0.29, 0.1)[0].holds);
-        assert_eq!(conditions(&spec, 0.31, 0.1)[0].status(), "fails");
+        assert!(at(0.29, 0.1).holds);
+        assert_eq!(at(0.31, 0.1).status(), "fails");
         // Ezekiel (1938): b = d is the boundary of b < d
-        let n = &conditions(&ExpectationSpec::Naive, 0.7, 0.7000000000000001)[0];
+        let n = Slopes {
+            b: 0.7,
+            d: 0.7000000000000001,
+        }
+        .ezekiel();
         assert_eq!(n.status(), "on the boundary");
     }
 }

@@ -11,7 +11,7 @@
 //! the holding regime has no steady state with finite stock (a purchase floor above the free
 //! market's steady state, no losses, no capacity limit), that regime has no eigenvalues, its
 //! spectral radius is reported as 1 (the stock's unit root) and the verdict is "neutral", as for any
-//! unit root: the price is pinned while the stock drifts upward without end (the report says "no
+//! unit root: the price is pinned while the stock drifts upward without end (the analysis says "no
 //! steady state with finite stock"). A regime whose steady state would need a market price ≤ 0 has
 //! no steady state at all: that is an error, never a verdict.
 
@@ -23,7 +23,7 @@ pub mod statespace;
 use serde::Serialize;
 
 use crate::curves::SteadyState;
-use crate::scenario::{ExpectationSpec, PolicySpec, Scenario};
+use crate::scenario::{PolicySpec, Scenario};
 
 pub use conditions::PublishedCondition;
 pub use statespace::{RegimePrice, Setup, StateMap};
@@ -60,9 +60,9 @@ impl Verdict {
     }
 }
 
-/// One regime's linearisation.
+/// One regime's linearisation and its verdict.
 #[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct Regime {
+pub struct RegimeStability {
     /// Regime name, e.g. "free market".
     pub name: String,
     /// Eigenvalues of the Jacobian.
@@ -92,14 +92,14 @@ pub struct Regime {
     pub note: Option<String>,
 }
 
-/// The stability report of a market under a policy.
+/// The stability analysis of a market under a policy.
 #[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct StabilityReport {
+pub struct StabilityAnalysis {
     /// The steady state the linearisation is taken at: market price and harvest of the regime that
     /// holds it (the free market's when no steady state with finite stock exists).
     pub steady_state: SteadyState,
     /// Regimes, the one holding the steady state first.
-    pub regimes: Vec<Regime>,
+    pub regimes: Vec<RegimeStability>,
     /// Verdict of the regime that holds the steady state.
     pub verdict: Verdict,
     /// The largest modulus in that regime.
@@ -114,11 +114,11 @@ pub struct StabilityReport {
     pub rule: &'static str,
     /// Published conditions evaluated for the free-market dynamics at its steady state.
     pub conditions: Vec<PublishedCondition>,
-    /// General remarks (rational expectations, omitted features).
+    /// General remarks (a rule that settles at once, omitted features).
     pub note: Option<String>,
 }
 
-/// Why no stability report could be made.
+/// Why no stability analysis could be made.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum StabilityError {
     /// The linearisation has no finite value.
@@ -165,20 +165,20 @@ impl StabilityError {
 pub fn analyse(
     scenario: &Scenario,
     policy: &PolicySpec,
-) -> Result<StabilityReport, StabilityError> {
-    let mut report = analyse_setup(
+) -> Result<StabilityAnalysis, StabilityError> {
+    let mut analysis = analyse_setup(
         &Setup::new(scenario, policy),
         &scenario.market.quantity_unit,
     )?;
     if scenario.storers.is_some() {
         let extra =
             "the market's private storers are not part of the linearisation (see `storage`)";
-        report.note = Some(match report.note.take() {
+        analysis.note = Some(match analysis.note.take() {
             Some(n) => format!("{n}; {extra}"),
             None => extra.to_string(),
         });
     }
-    Ok(report)
+    Ok(analysis)
 }
 
 /// Spectral radius and verdict only (what a sweep needs).
@@ -207,7 +207,7 @@ fn regime_at(
     setup: &Setup,
     case: &regimes::RegimeCase,
     guess: f64,
-) -> Result<Regime, StabilityError> {
+) -> Result<RegimeStability, StabilityError> {
     let map = StateMap::with_floor(setup, case.clearing, case.floor_applies);
     // the free regime's fixed point is the free market's steady state (solved in closed form for
     // linear curves); an announced floor applies to it only when it lies below that price
@@ -219,11 +219,12 @@ fn regime_at(
             regime: case.name.clone(),
             reason: "the regime's map has no positive fixed point".into(),
         })?;
-    let rational = matches!(setup.rule, ExpectationSpec::Rational);
+    // a rule the model solves sits at its steady state from period 1: the eigenvalue 0
+    let settled = setup.rule.rule().settles_at_once().is_some();
     // both curve forms have closed-form derivatives: the Jacobian is analytic for every market
     let (eigenvalues, jacobian, tolerance) = if !case.finite {
         (Vec::new(), "none", eigen::NEUTRAL_TOLERANCE)
-    } else if rational {
+    } else if settled {
         (
             vec![Eigenvalue { re: 0.0, im: 0.0 }],
             "none",
@@ -258,7 +259,7 @@ fn regime_at(
     } else {
         (false, None, None)
     };
-    Ok(Regime {
+    Ok(RegimeStability {
         name: case.name.clone(),
         eigenvalues,
         spectral_radius: rho,
@@ -276,7 +277,7 @@ fn regime_at(
 }
 
 /// Analyses a [`Setup`]; `unit` is the quantity unit used in notes.
-pub fn analyse_setup(setup: &Setup, unit: &str) -> Result<StabilityReport, StabilityError> {
+pub fn analyse_setup(setup: &Setup, unit: &str) -> Result<StabilityAnalysis, StabilityError> {
     let p_free = free_price(setup)?;
     let cases = regimes::regimes(setup, p_free, unit)?;
     let mut out = Vec::with_capacity(cases.len());
@@ -330,21 +331,10 @@ pub fn analyse_setup(setup: &Setup, unit: &str) -> Result<StabilityReport, Stabi
     let planting = free_map.planting_at_rest(p_free);
     let b = setup.supply.slope_at(planting);
     let d = -setup.demand.slope_at(p_free);
-    let conditions = if matches!(setup.rule, ExpectationSpec::Rational) {
-        Vec::new()
-    } else {
-        conditions::conditions(&setup.rule, b, d)
-    };
-    let note = if matches!(setup.rule, ExpectationSpec::Rational) {
-        Some(
-            "rational expectations: without shocks the perfect-foresight market sits at its steady \
-             state from period 1, so every regime reports the eigenvalue 0"
-                .to_string(),
-        )
-    } else {
-        None
-    };
-    Ok(StabilityReport {
+    let rule = setup.rule.rule();
+    let conditions = rule.conditions(&conditions::Slopes { b, d });
+    let note = rule.settles_at_once().map(str::to_string);
+    Ok(StabilityAnalysis {
         steady_state,
         verdict: hold.verdict,
         spectral_radius: hold.spectral_radius,

@@ -4,9 +4,9 @@
 //! (central differences with Richardson extrapolation) serves the Lyapunov estimate along orbits and
 //! the tests.
 //!
-//! State per rule (newest first): naive, fixed normal price and rational: [P_{t−1}]; adaptive:
-//! [P^e_t]; extrapolative: [P_{t−1}, P_{t−2}]; trailing mean and normal price over a window k: the k
-//! last producer prices. The map uses the real rule (`expectations::build`) and a regime's clearing
+//! The state is the rule's own (`ExpectationRule::layout`): the k last producer prices, newest first,
+//! for a rule linear in them (`StateLayout::Lags`), or the rule's own expectation P^e_t for a rule
+//! that updates it (`StateLayout::Expectation`). The map uses the real rule (`expectations::build`) and a regime's clearing
 //! function (planting price → producer price), so it is the engine's dynamics inside that regime.
 
 use nalgebra::DMatrix;
@@ -124,11 +124,11 @@ impl RegimePrice {
     }
 }
 
-pub use crate::expectations::Layout;
+pub use crate::expectations::StateLayout;
 
 /// The state layout of a rule, with the weights of the linear rules (the rule's own,
 /// `ExpectationRule::layout`).
-pub fn layout(rule: &ExpectationSpec) -> Layout {
+pub fn layout(rule: &ExpectationSpec) -> StateLayout {
     expectations::build(rule).layout()
 }
 
@@ -137,7 +137,7 @@ pub fn layout(rule: &ExpectationSpec) -> Layout {
 pub struct StateMap<'a> {
     setup: &'a Setup,
     rule: Box<dyn ExpectationRule>,
-    layout: Layout,
+    layout: StateLayout,
     clearing: RegimePrice,
     floor: Option<f64>,
 }
@@ -162,8 +162,8 @@ impl<'a> StateMap<'a> {
     /// Dimension of the state.
     pub fn dim(&self) -> usize {
         match &self.layout {
-            Layout::Lags(w) => w.len(),
-            Layout::Expectation(_) => 1,
+            StateLayout::Lags(w) => w.len(),
+            StateLayout::Expectation(_) => 1,
         }
     }
 
@@ -210,15 +210,15 @@ impl<'a> StateMap<'a> {
     /// The state at rest at producer price `p`.
     pub fn rest_state(&self, p: f64) -> Vec<f64> {
         match self.layout {
-            Layout::Lags(_) => vec![p; self.dim()],
-            Layout::Expectation(_) => vec![self.expectation_at_rest(p)],
+            StateLayout::Lags(_) => vec![p; self.dim()],
+            StateLayout::Expectation(_) => vec![self.expectation_at_rest(p)],
         }
     }
 
     /// x ↦ F(x), written into `out`.
     pub fn apply(&self, x: &[f64], out: &mut [f64]) {
         match self.layout {
-            Layout::Lags(_) => {
+            StateLayout::Lags(_) => {
                 let k = x.len();
                 let history = lags_as_history(x);
                 let e = self.rule.expect(&ExpectationInput {
@@ -229,7 +229,7 @@ impl<'a> StateMap<'a> {
                 out[0] = p;
                 out[1..k].copy_from_slice(&x[..k - 1]);
             }
-            Layout::Expectation(_) => {
+            StateLayout::Expectation(_) => {
                 let pe = x[0];
                 let p = self.clearing.producer_price(self.setup, self.plant(pe));
                 let history = [p, p];
@@ -248,7 +248,7 @@ impl<'a> StateMap<'a> {
 
     /// Analytic Jacobian of F at rest at producer price `p` (companion form of the linear rule):
     /// with c = dh/dP^e (0 where an announced floor pins planting), first row c·w for the lag rules,
-    /// 1 − λ + λc for the adaptive rule.
+    /// 1 − λ + λc for a rule whose state is its own expectation, updated with weight λ.
     pub fn analytic_jacobian(&self, p: f64) -> DMatrix<f64> {
         let e = self.expectation_at_rest(p);
         let planting = self.plant(e);
@@ -259,7 +259,7 @@ impl<'a> StateMap<'a> {
             self.clearing.slope(self.setup, planting)
         };
         match &self.layout {
-            Layout::Lags(w) => {
+            StateLayout::Lags(w) => {
                 let k = w.len();
                 let mut m = DMatrix::<f64>::zeros(k, k);
                 for (j, wj) in w.iter().enumerate() {
@@ -270,7 +270,7 @@ impl<'a> StateMap<'a> {
                 }
                 m
             }
-            Layout::Expectation(l) => DMatrix::from_element(1, 1, 1.0 - l + l * c),
+            StateLayout::Expectation(l) => DMatrix::from_element(1, 1, 1.0 - l + l * c),
         }
     }
 }

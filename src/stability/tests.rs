@@ -1,7 +1,7 @@
-use super::statespace::{layout, Layout};
+use super::statespace::{layout, StateLayout};
 use super::*;
 use crate::curves::Curve;
-use crate::scenario::NormalPrice;
+use crate::scenario::ExpectationSpec;
 
 fn setup(rule: ExpectationSpec) -> Setup {
     Setup::with_rules(
@@ -25,26 +25,21 @@ fn rules_at_rest_expect_the_resting_price() {
     // a rule whose past prices are all p expects p (weights sum to one), except a fixed normal price
     // (definition of each rule, INTERFACE.md)
     let rules = [
-        ExpectationSpec::Naive,
-        ExpectationSpec::Adaptive {
-            weight: 0.3,
-            initial_expected_price: None,
-        },
-        ExpectationSpec::Extrapolative { weight: -0.4 },
-        ExpectationSpec::TrailingMean { window: 5 },
-        ExpectationSpec::NormalPrice {
-            weight: 0.5,
-            normal: NormalPrice::Window(3),
-        },
+        "rule = \"naive\"",
+        "rule = \"adaptive\"\nweight = 0.3",
+        "rule = \"extrapolative\"\nweight = -0.4",
+        "rule = \"trailing-mean\"\nwindow = 5",
+        "rule = \"normal-price\"\nweight = 0.5\nwindow = 3",
     ];
-    for r in rules {
+    for text in rules {
+        let r = ExpectationSpec::parse(text).unwrap();
         let s = setup(r);
         let map = StateMap::new(&s, RegimePrice::Free { offtake: 0.0 });
         assert!(
             (map.expectation_at_rest(123.0) - 123.0).abs() < 1e-12,
             "{r:?}"
         );
-        if let Layout::Lags(w) = layout(&r) {
+        if let StateLayout::Lags(w) = layout(&r) {
             assert!((w.iter().sum::<f64>() - 1.0).abs() < 1e-15, "{r:?}");
         }
     }
@@ -53,7 +48,7 @@ fn rules_at_rest_expect_the_resting_price() {
 #[test]
 fn clearing_slope_matches_finite_difference() {
     // dP/dP^e = S'(P^e)/D'(P) (chain rule through the inverse demand curve)
-    let s = setup(ExpectationSpec::Naive);
+    let s = setup(ExpectationSpec::parse("rule = \"naive\"").unwrap());
     let c = RegimePrice::Free { offtake: 3.0 };
     let pe = 95.0;
     let h = 1e-5;

@@ -85,7 +85,7 @@ pub fn band_of(policy: &PolicySpec) -> Result<Option<Band>, StorageError> {
         reason: reason.into(),
     };
     if let Some(e) = policy.expectations {
-        if e != crate::scenario::ExpectationSpec::Rational {
+        if !e.is_rational() {
             return Err(unsupported(
                 "expectations.rule",
                 &format!("\"{}\": the storage model needs rule = \"rational\" (farmers and storers look ahead)", e.rule_name()),

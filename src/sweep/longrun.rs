@@ -7,7 +7,7 @@
 //! differences of the engine's clearing with the rule's real `expect`), renormalised every period,
 //! and the exponent is the mean log growth over the second half of the run (an even number of
 //! periods, so a 2-cycle is averaged without bias; the error otherwise falls as 1/periods). For a one-dimensional
-//! state (naive, adaptive, fixed normal price) this is the mean of ln|f′(x_t)| along the orbit. The
+//! state (one lag, or the rule's own expectation) this is the mean of ln|f′(x_t)| along the orbit. The
 //! tangent space is the rule's price/expectation state; the agency's stock is taken along the orbit
 //! as given (it does not feed back on prices inside a regime). A season with a pinned price in the
 //! first half (a floor that binds once in the transient) restarts the tangent vector; one in the
@@ -17,8 +17,8 @@
 
 use crate::engine::{Model, PeriodShock};
 use crate::expectations::ExpectationInput;
-use crate::scenario::{ExpectationSpec, PolicySpec, Scenario};
-use crate::stability::statespace::{layout, numerical_jacobian, Layout};
+use crate::scenario::{PolicySpec, Scenario};
+use crate::stability::statespace::{numerical_jacobian, StateLayout};
 
 /// What happened to the orbit.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -29,8 +29,9 @@ pub enum Orbit {
     Diverged,
     /// The tangent vector vanished (a pinned price): the exponent is −∞, reported as none.
     Superstable,
-    /// Rational expectations: no exponent is estimated (the perfect-foresight path is at rest).
-    Rational,
+    /// The rule settles at once (the model solves it, `ExpectationRule::settles_at_once`): the path
+    /// is at rest and no exponent is estimated; the word is the rule's name (e.g. `rational`).
+    Settled(&'static str),
 }
 
 impl Orbit {
@@ -40,14 +41,14 @@ impl Orbit {
             Orbit::Ok => "ok",
             Orbit::Diverged => "diverged",
             Orbit::Superstable => "superstable",
-            Orbit::Rational => "rational",
+            Orbit::Settled(rule) => rule,
         }
     }
 }
 
 /// The long-run result at one grid value.
 #[derive(Debug, Clone, PartialEq)]
-pub struct LongRun {
+pub struct LongRunOrbit {
     /// The last N market prices (before the divergence when the run diverged; empty when it
     /// diverged in its first period).
     pub prices: Vec<f64>,
@@ -62,15 +63,15 @@ pub struct LongRun {
 /// The engine's one-period map on (rule state, stock).
 struct EngineMap<'m> {
     model: &'m Model,
-    layout: Layout,
+    layout: StateLayout,
     floor: Option<f64>,
 }
 
 impl EngineMap<'_> {
     fn dim(&self) -> usize {
         match &self.layout {
-            Layout::Lags(w) => w.len(),
-            Layout::Expectation(_) => 1,
+            StateLayout::Lags(w) => w.len(),
+            StateLayout::Expectation(_) => 1,
         }
     }
 
@@ -79,7 +80,7 @@ impl EngineMap<'_> {
         let carried = stock * (1.0 - self.model.policy.agency.loss_rate);
         let plant = |e: f64| self.floor.map_or(e, |f| e.max(f));
         match self.layout {
-            Layout::Lags(_) => {
+            StateLayout::Lags(_) => {
                 let k = x.len();
                 let history = crate::stability::statespace::lags_as_history(x);
                 let e = self.model.rule.expect(&ExpectationInput {
@@ -91,7 +92,7 @@ impl EngineMap<'_> {
                 out[1..k].copy_from_slice(&x[..k - 1]);
                 c.stock
             }
-            Layout::Expectation(_) => {
+            StateLayout::Expectation(_) => {
                 let c = self.model.clear(plant(x[0]), &PeriodShock::NONE, carried);
                 let history = [c.producer_price, c.producer_price];
                 out[0] = self.model.rule.expect(&ExpectationInput {
@@ -104,15 +105,16 @@ impl EngineMap<'_> {
     }
 }
 
-/// The rule state before period 1 (newest price first; for the adaptive rule P^e_1).
-fn initial_state(model: &Model, spec: &ExpectationSpec, dim: usize) -> Vec<f64> {
+/// The rule state before period 1: the last prices (newest first), or the rule's own expectation
+/// for period 1 (its expectation with no previous one).
+fn initial_state(model: &Model, layout: &StateLayout, dim: usize) -> Vec<f64> {
     let h = &model.price_history;
-    match spec {
-        ExpectationSpec::Adaptive {
-            initial_expected_price,
-            ..
-        } => vec![initial_expected_price.unwrap_or(h[h.len() - 1])],
-        _ => (0..dim).map(|i| h[h.len() - 1 - i]).collect(),
+    match layout {
+        StateLayout::Expectation(_) => vec![model.rule.expect(&ExpectationInput {
+            history: h,
+            previous: None,
+        })],
+        StateLayout::Lags(_) => (0..dim).map(|i| h[h.len() - 1 - i]).collect(),
     }
 }
 
@@ -122,17 +124,18 @@ fn initial_state(model: &Model, spec: &ExpectationSpec, dim: usize) -> Vec<f64> 
 /// them), and reported with [`Orbit::Diverged`]; none when fewer than two seasons were completed.
 pub fn lyapunov(scenario: &Scenario, policy: &PolicySpec, periods: usize) -> (Option<f64>, Orbit) {
     let spec = policy.expectations.unwrap_or(scenario.expectations);
-    if spec == ExpectationSpec::Rational {
-        return (None, Orbit::Rational);
+    let rule = spec.rule();
+    if rule.settles_at_once().is_some() {
+        return (None, Orbit::Settled(spec.rule_name()));
     }
     let model = Model::new(scenario, policy);
     let map = EngineMap {
         model: &model,
-        layout: layout(&spec),
+        layout: rule.layout(),
         floor: model.policy.planting_floor(),
     };
     let n = map.dim();
-    let mut x = initial_state(&model, &spec, n);
+    let mut x = initial_state(&model, &map.layout, n);
     let mut stock = model.policy.agency.initial;
     let mut v = vec![1.0 / (n as f64).sqrt(); n];
     let mut next = vec![0.0; n];
@@ -192,7 +195,12 @@ pub fn lyapunov(scenario: &Scenario, policy: &PolicySpec, periods: usize) -> (Op
 /// Simulates `periods` periods without shocks and keeps the last `keep` market prices; estimates the
 /// largest Lyapunov exponent along the same orbit. A run that diverges keeps the last `keep` prices
 /// before it did, and the exponent over those seasons (an unstable market shows a positive one).
-pub fn long_run(scenario: &Scenario, policy: &PolicySpec, periods: usize, keep: usize) -> LongRun {
+pub fn long_run(
+    scenario: &Scenario,
+    policy: &PolicySpec,
+    periods: usize,
+    keep: usize,
+) -> LongRunOrbit {
     let model = Model::new(scenario, policy);
     let mut sim = model.simulator();
     let mut prices = std::collections::VecDeque::with_capacity(keep.min(periods));
@@ -217,7 +225,7 @@ pub fn long_run(scenario: &Scenario, policy: &PolicySpec, periods: usize, keep: 
     }
     let (lyapunov, orbit) = lyapunov(scenario, policy, completed);
     let prices: Vec<f64> = prices.into();
-    LongRun {
+    LongRunOrbit {
         first_period: completed + 1 - prices.len(),
         prices,
         lyapunov,

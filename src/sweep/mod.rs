@@ -18,7 +18,7 @@ use crate::stability::{self, Verdict};
 
 pub use apply::{Base, Target};
 pub use grid::{parse_vary, Axis};
-pub use longrun::{LongRun, Orbit};
+pub use longrun::{LongRunOrbit, Orbit};
 
 /// Why a sweep could not be run.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -55,7 +55,7 @@ pub struct Point {
     /// Spectral radius and verdict, or why the point is invalid.
     pub outcome: Result<(f64, Verdict), String>,
     /// The long run (one key with `--long-run` only).
-    pub long_run: Option<LongRun>,
+    pub long_run: Option<LongRunOrbit>,
 }
 
 /// Long-run settings.
@@ -79,20 +79,13 @@ pub const MAX_LONG_RUN_ROWS: usize = 10_000_000;
 /// would stay there and show an unstable market as settled.
 pub const REST_PERTURBATION: f64 = 1e-3;
 
-/// True when every starting price (and an adaptive rule's initial expectation) is the steady-state
-/// price `p_star` within 1e-9 relative.
+/// True when every starting price (and every value that sets the rule's state before period 1, e.g.
+/// an initial expected price) is the steady-state price `p_star` within 1e-9 relative.
 fn starts_at_rest(s: &crate::scenario::Scenario, policy: &crate::scenario::PolicySpec) -> bool {
     let p_star = s.steady.price;
     let at = |p: f64| (p - p_star).abs() <= 1e-9 * p_star;
     let rule = policy.expectations.unwrap_or(s.expectations);
-    let expectation_at_rest = match rule {
-        crate::scenario::ExpectationSpec::Adaptive {
-            initial_expected_price: Some(e),
-            ..
-        } => at(e),
-        _ => true,
-    };
-    s.run.price_history.iter().all(|p| at(*p)) && expectation_at_rest
+    s.run.price_history.iter().all(|p| at(*p)) && rule.starting_values().all(at)
 }
 
 fn is_key_error(e: &InputError) -> bool {
@@ -193,13 +186,7 @@ pub fn sweep(
                             let p0 = s.steady.price * (1.0 + REST_PERTURBATION);
                             s.run.initial_price = p0;
                             s.run.price_history = vec![p0];
-                            if let crate::scenario::ExpectationSpec::Adaptive {
-                                initial_expected_price,
-                                ..
-                            } = &mut s.expectations
-                            {
-                                *initial_expected_price = None;
-                            }
+                            s.expectations = s.expectations.restarted();
                         }
                         longrun::long_run(&s, p, lr.periods, lr.keep)
                     });

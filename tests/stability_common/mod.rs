@@ -64,7 +64,7 @@ pub fn quadratic_roots(a1: f64, a0: f64) -> Vec<Eigenvalue> {
     sorted(v)
 }
 
-pub fn free(s: &Scenario) -> stability::Regime {
+pub fn free(s: &Scenario) -> stability::RegimeStability {
     let r = analyse(s, &PolicySpec::none()).unwrap();
     assert!(r.regimes[0].holds_steady_state);
     r.regimes[0].clone()

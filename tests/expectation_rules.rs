@@ -1,0 +1,306 @@
+//! Expectation rules written once: every registered rule (every example of it) answers every
+//! behaviour the program asks of it — its keys in the one schema, its reading, its expectation against
+//! its own state layout, its published stability conditions against the eigenvalues, its settling, its
+//! descriptions — and the steady state of its stability map is where a long engine run ends.
+
+mod common;
+
+use furrow::engine::{Model, PeriodShock};
+use furrow::expectations::{
+    section_keys, ExpectationInput, ExpectationRule, ExpectationSpec, StateLayout, RULES,
+};
+use furrow::scenario::{self, ranges::range_of, schema, PolicySpec, Scenario};
+use furrow::stability::{self, conditions::Slopes, Verdict};
+use furrow::sweep::{self, Base, Orbit, Target};
+
+/// Demand Q = 100 − 0.5 P, supply Q = 10 + s P, starting at P_0 = 150.
+fn market(s: f64, expectations: &str) -> Result<Scenario, scenario::InputError> {
+    scenario::market_from_str(
+        "m.toml",
+        &format!(
+            "[demand]\nintercept = 100.0\nslope = -0.5\n[supply]\nintercept = 10.0\nslope = {s:?}\n\
+             [run]\ninitial_price = 150.0\nperiods = 10\n{expectations}"
+        ),
+    )
+}
+
+/// Every example of every registered rule: (rule name, example section, the validated spec).
+fn every_example() -> Vec<(&'static str, &'static str, ExpectationSpec)> {
+    let mut out = Vec::new();
+    for rule in RULES {
+        assert!(!rule.examples.is_empty(), "{} has no example", rule.name);
+        for text in rule.examples {
+            let s = market(0.15, text).unwrap_or_else(|e| panic!("{text}: {e}"));
+            out.push((rule.name, *text, s.expectations));
+        }
+    }
+    out
+}
+
+#[test]
+fn the_registry_names_each_rule_once_and_the_first_is_the_default() {
+    let names: Vec<&str> = RULES.iter().map(|r| r.name).collect();
+    for (i, n) in names.iter().enumerate() {
+        assert!(!names[..i].contains(n), "{n} registered twice");
+    }
+    // a market file without [expectations] takes the first registered rule
+    assert_eq!(market(0.15, "").unwrap().expectations.rule_name(), names[0]);
+    // an unknown rule is refused, listing every registered one
+    let e = market(0.15, "[expectations]\nrule = \"psychic\"\n")
+        .unwrap_err()
+        .to_string();
+    assert!(e.contains(&names.join(", ")), "{e}");
+}
+
+#[test]
+fn every_rule_declares_its_keys_in_the_one_schema_and_reads_only_them() {
+    let section = section_keys();
+    let base = Base::new("m.toml", toml::Table::new(), None);
+    for rule in RULES {
+        for key in rule.keys {
+            // a key in the section's schema with the same type for every rule that reads it
+            assert!(
+                section.contains(&(key.name, key.kind)),
+                "{}: {} ({:?}) not in {section:?}",
+                rule.name,
+                key.name,
+                key.kind
+            );
+            let dotted = format!("expectations.{}", key.name);
+            let range = key.range.unwrap_or_else(|| panic!("{dotted}: no range"));
+            assert_eq!(range.key, dotted);
+            // the table's row spans the rule's own range
+            let row = range_of(&dotted).unwrap();
+            assert!(row.lo <= range.lo && row.hi >= range.hi, "{dotted}");
+            // both files have the section; --vary sends it to the market file
+            assert!(schema::market().iter().any(|(s, _)| *s == "expectations"));
+            assert!(schema::policy().iter().any(|(s, _)| *s == "expectations"));
+            assert_eq!(base.target(&dotted), Target::Market, "{dotted}");
+            // a value beyond the rule's range is refused, naming the key
+            let example = rule
+                .examples
+                .iter()
+                .find(|e| e.contains(&format!("\n{} =", key.name)))
+                .unwrap_or_else(|| panic!("{}: no example sets {}", rule.name, key.name));
+            let beyond = format!("{:?}", range.hi + 1.0 + range.hi.abs());
+            let beyond = if range.integer {
+                format!("{}", range.hi as i64 + 1)
+            } else {
+                beyond
+            };
+            let text: String = example
+                .lines()
+                .map(|l| {
+                    if l.starts_with(&format!("{} =", key.name)) {
+                        format!("{} = {beyond}\n", key.name)
+                    } else {
+                        format!("{l}\n")
+                    }
+                })
+                .collect();
+            let e = market(0.15, &text).unwrap_err().to_string();
+            assert!(e.contains(&dotted), "{text}: {e}");
+        }
+        // the keys it does not read are refused for it by name
+        for (key, _) in section.iter().skip(1) {
+            if rule.keys.iter().any(|k| k.name == *key) {
+                continue;
+            }
+            let value = if *key == "window" { "2" } else { "0.5" };
+            let text = format!("{}{key} = {value}\n", rule.examples[0]);
+            let e = market(0.15, &text).unwrap_err().to_string();
+            assert!(
+                e.contains(&format!("expectations.{key}")) && e.contains("does not use"),
+                "{text}: {e}"
+            );
+        }
+        for key in rule.starting {
+            assert!(rule.keys.iter().any(|k| k.name == *key), "{key}");
+        }
+    }
+}
+
+#[test]
+fn every_example_reads_alike_in_both_files_and_keeps_only_its_keys() {
+    for (name, text, spec) in every_example() {
+        assert_eq!(spec.rule_name(), name);
+        let rule = RULES.iter().find(|r| r.name == name).unwrap();
+        for (key, value) in spec.values().iter() {
+            assert!(rule.keys.iter().any(|k| k.name == key), "{text}: {key}");
+            assert!(value.is_finite(), "{text}: {key}");
+        }
+        // the same section as a policy file's override
+        let p = common::policy(text);
+        assert_eq!(p.expectations, Some(spec), "{text}");
+        // written on its own
+        let body = text.trim_start_matches("[expectations]\n");
+        assert_eq!(ExpectationSpec::parse(body).unwrap(), spec, "{text}");
+        // restarting drops exactly the starting keys
+        let restarted = spec.restarted();
+        assert_eq!(restarted.starting_values().count(), 0);
+        assert_eq!(
+            restarted.values().iter().count() + spec.starting_values().count(),
+            spec.values().iter().count()
+        );
+    }
+}
+
+/// The rule's expectation from `history` (oldest first) and its previous expectation.
+fn expect(rule: &dyn ExpectationRule, history: &[f64], previous: Option<f64>) -> f64 {
+    rule.expect(&ExpectationInput { history, previous })
+}
+
+#[test]
+fn every_rule_expects_what_its_state_layout_says() {
+    for (_, text, spec) in every_example() {
+        let rule = spec.rule();
+        let k = rule.lags();
+        assert!(k >= 1, "{text}");
+        let describe = rule.describe();
+        assert!(describe.starts_with(spec.rule_name()), "{text}: {describe}");
+        // a rule with parameters shows its main one in the briefing's table
+        let has_keys = spec.values().iter().count() > 0;
+        assert_eq!(rule.setting().is_some(), has_keys, "{text}");
+        let a: Vec<f64> = (0..k + 2).map(|i| 100.0 + 7.0 * i as f64).collect();
+        let b: Vec<f64> = (0..k + 2).map(|i| 130.0 - 3.0 * (i * i) as f64).collect();
+        match rule.layout() {
+            StateLayout::Lags(w) => {
+                // affine in the last prices with the layout's weights (newest first)
+                assert!(w.len() <= k, "{text}");
+                let diff = expect(&*rule, &a, None) - expect(&*rule, &b, None);
+                let want: f64 = w
+                    .iter()
+                    .enumerate()
+                    .map(|(i, wi)| wi * (a[a.len() - 1 - i] - b[b.len() - 1 - i]))
+                    .sum();
+                assert!((diff - want).abs() < 1e-9, "{text}: {diff} vs {want}");
+                assert!(rule.as_adaptive().is_none(), "{text}");
+            }
+            StateLayout::Expectation(w) => {
+                // P^e_t = P^e_{t−1} + w (P_{t−1} − P^e_{t−1}) (Nerlove 1958)
+                assert!(w > 0.0 && w <= 1.0, "{text}");
+                let e = expect(&*rule, &[120.0], Some(90.0));
+                assert!((e - (90.0 + w * 30.0)).abs() < 1e-12, "{text}");
+                // the engine's direct call is the same rule
+                let direct = rule
+                    .as_adaptive()
+                    .expect("an expectation state is adaptive");
+                assert_eq!(direct.weight, w);
+                assert_eq!(direct.next(Some(90.0), 120.0), e);
+                assert_eq!(direct.next(None, 120.0), expect(&*rule, &[120.0], None));
+            }
+        }
+        // at rest: a rule that rests anywhere expects the resting price whatever it is
+        let rests = [55.0, 123.0, 300.0].iter().all(|&p| {
+            let h = vec![p; k + 1];
+            (expect(&*rule, &h, Some(p)) - p).abs() < 1e-9 * p
+        });
+        assert_eq!(rests, rule.rests_anywhere(), "{text}");
+    }
+}
+
+#[test]
+fn published_conditions_agree_with_the_eigenvalues() {
+    // each condition is exact for its rule: it holds iff the linearised free market is stable
+    // (Ezekiel 1938; Nerlove 1958; Jury 1964 for second-order rules, from memory)
+    let mut compared = 0;
+    for (_, text, _) in every_example() {
+        for ratio in [0.3, 0.8, 1.3, 1.7, 1.9, 2.1, 2.3, 2.6, 3.5, 4.5, 6.0] {
+            let Ok(s) = market(0.5 * ratio, text) else {
+                continue;
+            };
+            let Ok(analysis) = stability::analyse(&s, &PolicySpec::none()) else {
+                continue;
+            };
+            let rule = s.expectations.rule();
+            if rule.settles_at_once().is_some() {
+                assert!(analysis.conditions.is_empty(), "{text}");
+                continue;
+            }
+            // linear curves: the slopes are the file's
+            let direct = rule.conditions(&Slopes {
+                b: 0.5 * ratio,
+                d: 0.5,
+            });
+            assert_eq!(direct, analysis.conditions, "{text}");
+            for c in &analysis.conditions {
+                if c.on_boundary || analysis.verdict == Verdict::Neutral {
+                    continue;
+                }
+                assert_eq!(
+                    c.holds,
+                    analysis.verdict == Verdict::Stable,
+                    "{text} at b/d = {ratio}: {} {}",
+                    c.name,
+                    c.detail
+                );
+                compared += 1;
+            }
+        }
+    }
+    assert!(compared >= 30, "{compared}");
+}
+
+#[test]
+fn the_stability_steady_state_is_where_a_long_engine_run_ends() {
+    // a stable map's fixed point is the limit of its iteration (contraction mapping; from memory):
+    // b/d = 0.3 is stable under every registered example
+    for (_, text, _) in every_example() {
+        let s = market(0.15, text).unwrap();
+        let analysis = stability::analyse(&s, &PolicySpec::none()).unwrap();
+        assert_eq!(analysis.verdict, Verdict::Stable, "{text}");
+        let model = Model::new(&s, &PolicySpec::none());
+        let mut sim = model.simulator();
+        let mut first = None;
+        let mut last = f64::NAN;
+        for _ in 0..3000 {
+            let r = sim.step(&PeriodShock::NONE).unwrap();
+            first.get_or_insert(r.price);
+            last = r.price;
+        }
+        let steady = analysis.steady_state.price;
+        assert!(
+            (last - steady).abs() <= 1e-8 * steady,
+            "{text}: run ends at {last}, stability's steady state {steady}"
+        );
+        let rule = s.expectations.rule();
+        // a rule the model solves is at its steady state from period 1 (Muth 1961: without shocks
+        // the rational expectation is the steady price); every other starts from P_0 = 150
+        let first = first.unwrap();
+        assert_eq!(
+            (first - steady).abs() <= 1e-8 * steady,
+            rule.is_rational(),
+            "{text}: first price {first}, steady {steady}"
+        );
+        // the storage model needs a rule that looks ahead
+        let storers = format!("{text}[storers]\nstorage_cost = 1.0\ninterest_rate = 0.05\n");
+        assert_eq!(market(0.15, &storers).is_ok(), rule.is_rational(), "{text}");
+    }
+}
+
+#[test]
+fn a_rule_that_settles_at_once_says_so_in_stability_and_long_runs() {
+    for (name, text, _) in every_example() {
+        let s = market(0.15, text).unwrap();
+        let rule = s.expectations.rule();
+        let analysis = stability::analyse(&s, &PolicySpec::none()).unwrap();
+        let lr = sweep::longrun::long_run(&s, &PolicySpec::none(), 200, 4);
+        match rule.settles_at_once() {
+            Some(note) => {
+                assert_eq!(analysis.note.as_deref(), Some(note), "{text}");
+                for r in &analysis.regimes {
+                    assert!(r.eigenvalues.iter().all(|e| e.re == 0.0 && e.im == 0.0));
+                }
+                assert_eq!(lr.orbit, Orbit::Settled(name));
+                assert_eq!(lr.orbit.as_str(), name);
+                assert!(lr.lyapunov.is_none());
+            }
+            None => {
+                assert_eq!(analysis.note, None, "{text}");
+                assert_eq!(lr.orbit, Orbit::Ok, "{text}");
+                // a stable orbit contracts: a negative exponent
+                assert!(lr.lyapunov.is_some_and(|l| l < 0.0), "{text}: {lr:?}");
+            }
+        }
+    }
+}
