@@ -3,7 +3,7 @@
 use furrow::compare::compare;
 use furrow::engine::Model;
 use furrow::scenario::{market_from_table, parse_toml, policy_from_table, PolicySpec, Scenario};
-use furrow::stochastic::{run_monte_carlo, NoProgress, Series, ShockStream};
+use furrow::stochastic::{run_monte_carlo, NoProgress, PathVariable, ShockStream};
 
 /// Demand Q = 200 − 2P, supply Q = −40 + P^e: P* = 80, Q* = 40 (the interface-check market).
 fn market(expectations: &str, run: &str, shocks: &str) -> Scenario {
@@ -65,7 +65,13 @@ fn monte_carlo_price_spread_matches_the_ar1_variance() {
         "periods = 30\ninitial_price = 80.0\nseed = 5\nreplications = 20000",
         &format!("supply_sd = {SIGMA}"),
     );
-    let mc = run_monte_carlo(&s, &[PolicySpec::none()], &[Series::Price], &NoProgress).unwrap();
+    let mc = run_monte_carlo(
+        &s,
+        &[PolicySpec::none()],
+        &[PathVariable::Price],
+        &NoProgress,
+    )
+    .unwrap();
     let fan = &mc.policies[0].series[0].periods;
     let v = stationary_variance();
     for t in [1usize, 2, 5, 30] {
@@ -159,7 +165,7 @@ fn results_are_identical_across_thread_counts_and_runs() {
     // common practice, no source: one stream per replication, fixed chunks, sequential reduction
     let s = band_market(700);
     let policies = [PolicySpec::none(), band_policy()];
-    let series = [Series::Price, Series::Stock];
+    let series = [PathVariable::Price, PathVariable::Stock];
     let run = |threads: usize| {
         rayon::ThreadPoolBuilder::new()
             .num_threads(threads)
