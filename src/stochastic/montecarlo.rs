@@ -334,7 +334,7 @@ pub fn run_monte_carlo(
 }
 
 /// [`run_monte_carlo`] over given models (one per policy, in order, built from `policies`): the
-/// period engine or the solved storage equilibrium alike ([`crate::path::with_models`] builds them).
+/// period engine or the solved storage equilibrium alike (`path::with_models` builds them).
 pub fn run_models<M: PathModel>(
     scenario: &Scenario,
     policies: &[PolicySpec],
