@@ -8,7 +8,7 @@ use criterion::{criterion_group, criterion_main, BatchSize, Criterion, Throughpu
 use furrow::compare::compare;
 use furrow::engine::{Model, PeriodShock};
 use furrow::scenario::{market_from_table, parse_toml, policy_from_table, PolicySpec, Scenario};
-use furrow::stochastic::{run_monte_carlo, NoProgress, Series, ShockStream};
+use furrow::stochastic::{run_monte_carlo, NoProgress, PathVariable, ShockStream};
 
 const MARKET: &str = r#"
 [market]
@@ -104,7 +104,7 @@ fn steps(c: &mut Criterion) {
                 run_monte_carlo(
                     &one,
                     std::slice::from_ref(&band),
-                    &[Series::Price, Series::Stock],
+                    &[PathVariable::Price, PathVariable::Stock],
                     &NoProgress,
                 )
                 .unwrap()

@@ -31,6 +31,7 @@ pub mod expectations;
 pub mod fit;
 pub mod numeric;
 pub mod output;
+pub mod path;
 pub mod plots;
 pub mod policies;
 pub mod scenario;

@@ -161,3 +161,69 @@ fn indefensible_floor_is_reported_in_words() {
         "{err}"
     );
 }
+
+#[test]
+fn a_diverging_path_prints_nothing_on_stdout_in_any_streamed_format() {
+    // naive cobweb with b/d = 0.8/0.5 = 1.6 > 1: the price oscillates ever wider (Ezekiel 1938) and
+    // leaves the sanity bound; streamed formats walk the path once before the first row
+    let dir = tempfile::tempdir().unwrap();
+    let bad = dir.path().join("explode.toml");
+    std::fs::write(
+        &bad,
+        "[demand]\nintercept = 120.0\nslope = -0.5\n[supply]\nintercept = -10.0\nslope = 0.8\n[run]\ninitial_price = 90.0\nperiods = 300\n",
+    )
+    .unwrap();
+    for format in ["csv", "markdown", "json", "table"] {
+        let failed = bin()
+            .args(["run", bad.to_str().unwrap(), "--format", format])
+            .output()
+            .unwrap();
+        assert_eq!(failed.status.code(), Some(1), "{format}");
+        assert!(
+            failed.stdout.is_empty(),
+            "{format}: printed a diverging path"
+        );
+        let err = String::from_utf8_lossy(&failed.stderr);
+        assert!(err.contains("diverging"), "{format}: {err}");
+    }
+}
+
+#[test]
+fn a_streamed_path_is_the_held_path_with_or_without_storers() {
+    // `--plots` holds the whole path, stdout streams it: the rows must be the same bytes
+    // (a consistency check of the one runner; no outside source)
+    let dir = tempfile::tempdir().unwrap();
+    for (market, policy) in [
+        ("veldmark.toml", "price_band.toml"),
+        ("veldmark_storers.toml", "price_band.toml"),
+    ] {
+        for format in ["csv", "json", "markdown"] {
+            let args = [
+                "run",
+                &demo(market),
+                "--policy",
+                &policy_file(policy),
+                "--replications",
+                "1",
+                "--periods",
+                "12",
+                "--format",
+                format,
+            ];
+            let streamed = bin().args(args).output().unwrap();
+            assert!(streamed.status.success(), "{market} {format}");
+            let held = bin()
+                .args(args)
+                .arg("--plots")
+                .arg(dir.path().join(format!("{market}-{format}")))
+                .output()
+                .unwrap();
+            assert!(held.status.success(), "{market} {format}");
+            assert_eq!(
+                String::from_utf8_lossy(&streamed.stdout),
+                String::from_utf8_lossy(&held.stdout),
+                "{market} {format}"
+            );
+        }
+    }
+}

@@ -3,7 +3,7 @@
 use furrow::compare::compare;
 use furrow::engine::Model;
 use furrow::scenario::{market_from_table, parse_toml, policy_from_table, PolicySpec, Scenario};
-use furrow::stochastic::{run_monte_carlo, NoProgress, Series, ShockStream};
+use furrow::stochastic::{run_monte_carlo, NoProgress, PathVariable, ShockStream};
 
 /// Demand Q = 200 − 2P, supply Q = −40 + P^e: P* = 80, Q* = 40 (the interface-check market).
 fn market(expectations: &str, run: &str, shocks: &str) -> Scenario {
@@ -65,7 +65,13 @@ fn monte_carlo_price_spread_matches_the_ar1_variance() {
         "periods = 30\ninitial_price = 80.0\nseed = 5\nreplications = 20000",
         &format!("supply_sd = {SIGMA}"),
     );
-    let mc = run_monte_carlo(&s, &[PolicySpec::none()], &[Series::Price], &NoProgress).unwrap();
+    let mc = run_monte_carlo(
+        &s,
+        &[PolicySpec::none()],
+        &[PathVariable::Price],
+        &NoProgress,
+    )
+    .unwrap();
     let fan = &mc.policies[0].series[0].periods;
     let v = stationary_variance();
     for t in [1usize, 2, 5, 30] {
@@ -159,7 +165,7 @@ fn results_are_identical_across_thread_counts_and_runs() {
     // common practice, no source: one stream per replication, fixed chunks, sequential reduction
     let s = band_market(700);
     let policies = [PolicySpec::none(), band_policy()];
-    let series = [Series::Price, Series::Stock];
+    let series = [PathVariable::Price, PathVariable::Stock];
     let run = |threads: usize| {
         rayon::ThreadPoolBuilder::new()
             .num_threads(threads)
@@ -225,4 +231,74 @@ fn a_diverging_replication_names_policy_replication_and_period() {
     );
     let source = std::error::Error::source(&err).expect("the engine's Diverged is the source");
     assert!(source.to_string().contains("period"), "{source}");
+}
+
+/// One path of any model on the given shocks, through the path-model trait.
+fn walk<M: furrow::engine::PathModel>(
+    model: &M,
+    shocks: &[furrow::engine::PeriodShock],
+) -> Vec<furrow::engine::PeriodRecord> {
+    use furrow::engine::Stepper;
+    let mut path = model.start();
+    shocks.iter().map(|s| path.step(s).unwrap()).collect()
+}
+
+#[test]
+fn the_engine_through_the_path_model_is_the_engine() {
+    // the trait only hands the shocks on: bit-identical records (an identity, no outside source)
+    let s = band_market(1);
+    let model = Model::new(&s, &band_policy());
+    let mut shocks = vec![furrow::engine::PeriodShock::NONE; s.run.periods];
+    furrow::stochastic::draw_shocks(&s, 0, &mut shocks);
+    let direct = model.run(s.run.periods, |t| shocks[t - 1]).unwrap();
+    assert_eq!(walk(&model, &shocks), direct);
+    // the shocks drawn once are replication 0's stream, drawn period by period
+    let mut stream = ShockStream::new(&s.shocks, s.run.seed, 0);
+    for x in &shocks {
+        assert_eq!(*x, stream.next_shock());
+    }
+}
+
+#[test]
+fn the_storage_model_steps_on_the_shocks_it_is_handed() {
+    // a market with private storers: the Monte Carlo draws each replication's shocks once and hands
+    // them to the solved equilibrium; the result must be what the equilibrium gives on its own
+    // stream of the same replication (common random numbers; an identity, no outside source)
+    let path = concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/examples/veldmark_storers.toml"
+    );
+    let text = std::fs::read_to_string(path).unwrap();
+    let mut table = parse_toml(path, &text).unwrap();
+    let run = table.get_mut("run").unwrap().as_table_mut().unwrap();
+    run.insert("replications".into(), toml::Value::Integer(70));
+    run.insert("periods".into(), toml::Value::Integer(15));
+    let s = market_from_table(path, table).unwrap();
+    let none = PolicySpec::none();
+    let solved = furrow::storage::SolvedStorage::new(&s, &none).unwrap();
+    let mc = furrow::stochastic::run_models(
+        &s,
+        std::slice::from_ref(&none),
+        std::slice::from_ref(&solved),
+        &[PathVariable::Price],
+        &NoProgress,
+    )
+    .unwrap();
+    let mut sums = vec![0.0; 15];
+    let mut shocks = vec![furrow::engine::PeriodShock::NONE; 15];
+    for rep in 0..70 {
+        let own = solved.records(rep as u64, 15);
+        furrow::stochastic::draw_shocks(&s, rep as u64, &mut shocks);
+        assert_eq!(walk(&solved, &shocks), own, "replication {rep}");
+        let mean = own.iter().map(|r| r.price).sum::<f64>() / 15.0;
+        let got = mc.policies[0].replications[rep].mean_price;
+        assert!((got - mean).abs() < 1e-12 * mean, "replication {rep}");
+        for (a, r) in sums.iter_mut().zip(&own) {
+            *a += r.price;
+        }
+    }
+    for (t, q) in mc.policies[0].series[0].periods.iter().enumerate() {
+        let mean = sums[t] / 70.0;
+        assert!((q.mean - mean).abs() < 1e-12 * mean, "period {}", t + 1);
+    }
 }

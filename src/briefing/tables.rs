@@ -328,7 +328,7 @@ pub fn run_figures(
     runs: &crate::stochastic::PolicyRuns,
     replications: usize,
 ) -> Vec<Figure> {
-    use crate::stochastic::Series as S;
+    use crate::stochastic::PathVariable as S;
     let m = &scenario.market;
     let units = Units::new(&m.price_unit, &m.quantity_unit);
     let stride = fan_stride(scenario.run.periods);

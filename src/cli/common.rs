@@ -1,11 +1,15 @@
-//! Options every verb shares, loading with overrides, output and exit codes.
+//! Options every verb shares, loading with overrides, output, the progress bar and exit codes.
 
+use std::io::IsTerminal;
 use std::path::PathBuf;
 
 use anyhow::Context;
 use clap::Args;
 use furrow::output::{write_whole, Format};
+use furrow::path::PathError;
 use furrow::scenario::{self, PolicySpec, Scenario};
+use furrow::stochastic::{NoProgress, Progress};
+use indicatif::{ProgressBar, ProgressStyle};
 
 /// Options common to the verbs that read a market.
 #[derive(Debug, Clone, Args)]
@@ -163,7 +167,84 @@ pub fn load_policy(path: Option<&str>, market: &Scenario) -> anyhow::Result<Poli
     Ok(policy)
 }
 
+/// The policies of a report or comparison as (file, spec), the market left alone first (the
+/// built-in one unless a given file is a do-nothing policy).
+pub fn columns(files: &[String], market: &Scenario) -> anyhow::Result<Vec<(String, PolicySpec)>> {
+    let mut cols = Vec::new();
+    for f in files {
+        cols.push((f.clone(), load_policy(Some(f), market)?));
+    }
+    if let Some(i) = cols.iter().position(|(_, p)| p.is_none()) {
+        let base = cols.remove(i);
+        cols.insert(0, base);
+    } else {
+        cols.insert(0, (String::new(), PolicySpec::none()));
+    }
+    Ok(cols)
+}
+
 /// Prints a note to stderr (talk, never data).
 pub fn say(msg: &str) {
     eprintln!("furrow: {msg}");
+}
+
+/// The library's error of a path or a Monte Carlo run as the error itself (so that the exit code and
+/// the message are those of the divergence, the failed replication or the failed solve).
+pub fn lift(e: PathError) -> anyhow::Error {
+    match e {
+        PathError::Diverged(d) => d.into(),
+        PathError::Failed(f) => f.into(),
+        PathError::Storage(s) => s.into(),
+        PathError::Write(w) => w.into(),
+    }
+}
+
+/// A progress bar on stderr for long Monte Carlo runs when stderr is a terminal; silent otherwise.
+pub struct Bar(Option<ProgressBar>);
+
+impl Progress for Bar {
+    fn advance(&self, replications: u64) {
+        if let Some(b) = &self.0 {
+            b.inc(replications);
+        }
+    }
+}
+
+impl Bar {
+    /// The observer to hand to the library.
+    pub fn observer(&self) -> &dyn Progress {
+        if self.0.is_some() {
+            self
+        } else {
+            &NoProgress
+        }
+    }
+
+    /// Clears the bar.
+    pub fn finish(&self) {
+        if let Some(b) = &self.0 {
+            b.finish_and_clear();
+        }
+    }
+}
+
+/// Period-steps above which a run counts as long enough for a bar.
+const LONG_RUN_STEPS: usize = 20_000_000;
+
+/// A bar for `models` models of `scenario`'s replications and periods.
+pub fn progress_for(scenario: &Scenario, models: usize) -> Bar {
+    let reps = scenario.run.replications;
+    let steps = reps
+        .saturating_mul(scenario.run.periods)
+        .saturating_mul(models);
+    if steps < LONG_RUN_STEPS || !std::io::stderr().is_terminal() {
+        return Bar(None);
+    }
+    let b = ProgressBar::new(reps as u64);
+    if let Ok(style) =
+        ProgressStyle::with_template("furrow: {bar:40} {pos}/{len} replications, {eta} left")
+    {
+        b.set_style(style);
+    }
+    Bar(Some(b))
 }

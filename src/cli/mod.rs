@@ -4,8 +4,8 @@
 mod check;
 mod common;
 mod compare;
+mod figures;
 mod fit;
-mod mc_run;
 mod report;
 mod run;
 mod stability;

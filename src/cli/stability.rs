@@ -142,7 +142,7 @@ pub fn execute(args: &StabilityArgs) -> anyhow::Result<()> {
     let report = stability::analyse(&scenario, &policy)
         .map_err(|e| anyhow::anyhow!("{}: {e}", e.blame(&scenario, &policy)))?;
     if let Some(dir) = args.common.plot_dir() {
-        super::report::plot_stability(&dir, &policy.name, &report)?;
+        super::figures::plot_stability(&dir, &policy.name, &report)?;
     }
     if !report.steady_state_exists {
         say("no steady state with finite stock exists under this policy (see notes)");

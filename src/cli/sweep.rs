@@ -189,10 +189,10 @@ pub fn execute(args: &SweepArgs) -> anyhow::Result<()> {
             .and_then(|u| u.as_str())
             .unwrap_or("price units")
             .to_string();
-        super::report::plot_sweep(
+        super::figures::plot_sweep(
             &dir,
             &keys,
-            &super::report::sweep_points(&points),
+            &super::figures::sweep_points(&points),
             &price_unit,
         )?;
     }

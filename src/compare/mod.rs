@@ -18,9 +18,10 @@ use serde::Serialize;
 
 pub use indicators::indicator_keys;
 
+use crate::path::{with_models, LongRunModel, WithModels};
 use crate::scenario::{ExpectationSpec, PolicySpec, Scenario};
 use crate::stochastic::{
-    run_monte_carlo_sources, sources, PathSource, Progress, ReplicationFailed, Series, Summary,
+    run_models, MonteCarlo, PathVariable, Progress, ReplicationFailed, Summary,
 };
 use crate::storage::LongRun;
 
@@ -207,6 +208,30 @@ pub enum CompareError {
     Storage(#[from] crate::storage::StorageError),
 }
 
+/// The Monte Carlo of every column on the market's models, and the long-run stocks of each model
+/// that has them (the storage equilibrium's, one long path each on the same solved rules).
+struct Simulate<'a> {
+    scenario: &'a Scenario,
+    specs: &'a [PolicySpec],
+    progress: &'a dyn Progress,
+}
+
+impl WithModels for Simulate<'_> {
+    type Output = Result<(MonteCarlo, Vec<Option<LongRun>>), ReplicationFailed>;
+
+    fn with<M: LongRunModel>(self, models: &[M]) -> Self::Output {
+        let mc = run_models(
+            self.scenario,
+            self.specs,
+            models,
+            &[PathVariable::Price, PathVariable::Stock],
+            self.progress,
+        )?;
+        let long = models.par_iter().map(|m| m.long_run()).collect();
+        Ok((mc, long))
+    }
+}
+
 /// Compares `policies` (in order) with the market left alone under `scenario`'s shocks,
 /// replications, seed and periods.
 pub fn compare(
@@ -256,22 +281,15 @@ pub fn compare(
             }
         })
         .collect();
-    let paths = sources(scenario, &specs)?;
-    let mc = run_monte_carlo_sources(
+    let (mc, long) = with_models(
         scenario,
         &specs,
-        &paths,
-        &[Series::Price, Series::Stock],
-        progress,
-    )?;
-    // long-run stocks of each solved storage equilibrium, simulated once per policy
-    let long: Vec<Option<LongRun>> = paths
-        .par_iter()
-        .map(|p| match p {
-            PathSource::Storage(s) => Some(crate::storage::long_run(s)),
-            PathSource::Engine(_) => None,
-        })
-        .collect();
+        Simulate {
+            scenario,
+            specs: &specs,
+            progress,
+        },
+    )??;
     let column = |spec: &PolicySpec, slot: usize, base: usize| {
         let runs = &mc.policies[slot];
         PolicyComparison {

@@ -9,14 +9,16 @@
 //! The engine knows nothing of files, TOML or the terminal: it takes a validated [`Scenario`] and
 //! [`PolicySpec`] and a stream of [`PeriodShock`]s.
 
+mod path;
 mod rational;
 mod record;
 
-pub use record::PeriodRecord;
+pub use path::{PathModel, Stepper};
+pub use record::{PeriodRecord, Settled};
 
 use crate::curves::Curve;
 use crate::expectations::{self, ExpectationInput, ExpectationRule};
-use crate::policies::{self, flags, Clearing, Policy};
+use crate::policies::{self, Clearing, Policy};
 use crate::scenario::{PolicySpec, Scenario, ShockSpec};
 
 /// The shocks that hit one period.
@@ -200,10 +202,6 @@ impl Model {
                 deficiency += rule.payment(price, harvest);
             }
         }
-        let mut flags = m.flags;
-        if deficiency > 0.0 {
-            flags |= flags::DEFICIENCY;
-        }
         Cleared {
             planted,
             harvest,
@@ -213,7 +211,7 @@ impl Model {
             releases: m.releases,
             stock: m.stock(),
             deficiency,
-            flags,
+            flags: m.flags,
         }
     }
 }
@@ -393,57 +391,31 @@ impl<'m> Simulator<'m> {
             0.0
         };
         let agency = &model.policy.agency;
-        let purchase_cost = c.price * c.purchases;
-        let sales_revenue = c.price * c.releases;
-        let storage_cost = agency.storage_cost * c.stock;
-        let financing_cost = agency.financing_rate * c.price * c.stock;
-        // a rotation sells old grain and buys as much new grain at P_t: only its handling (both
-        // legs) reaches the books; with no rotation `rotated` is +0 and the sum is X + R exactly
-        let rotated = agency.rotated(carried, c.stock);
-        let handling_cost = agency.handling_cost * (c.purchases + c.releases + 2.0 * rotated);
-        let mut fiscal_cost = purchase_cost - sales_revenue
-            + storage_cost
-            + financing_cost
-            + handling_cost
-            + c.deficiency;
-        let mut consumer_surplus = model.demand.consumer_surplus(c.price, shock.demand);
-        let mut flags = c.flags;
-        if consumer_payments > 0.0 {
-            // consumers pay the ceiling: their surplus is the market's plus the payment (a transfer)
-            fiscal_cost += consumer_payments;
-            consumer_surplus += consumer_payments;
-            flags |= flags::CONSUMER_SUBSIDY;
-        }
-        let record = PeriodRecord {
-            period: t,
-            expected_price: planting,
-            planted: c.planted,
-            harvest: c.harvest,
-            price: c.price,
-            producer_price: c.producer_price,
-            consumption,
-            purchases: c.purchases,
-            releases: c.releases,
-            stock: c.stock,
-            fiscal_cost,
-            consumer_surplus,
-            producer_surplus: c.producer_price * c.harvest
-                - model.supply.production_cost(c.planted),
-            purchase_cost,
-            sales_revenue,
-            storage_cost,
-            financing_cost,
-            handling_cost,
-            deficiency_payments: c.deficiency,
-            consumer_payments,
-            rotated,
-            flags: if rotated > 0.0 {
-                flags | flags::ROTATE
-            } else {
-                flags
+        let record = PeriodRecord::book(
+            &Settled {
+                period: t,
+                expected_price: planting,
+                planted: c.planted,
+                harvest: c.harvest,
+                price: c.price,
+                producer_price: c.producer_price,
+                consumption,
+                purchases: c.purchases,
+                releases: c.releases,
+                stock: c.stock,
+                deficiency_payments: c.deficiency,
+                consumer_payments,
+                // a rotation sells old grain and buys as much new grain at P_t: only its handling
+                // (both legs) reaches the books
+                rotated: agency.rotated(carried, c.stock),
+                demand_shock: shock.demand,
+                flags: c.flags,
+                stockout: c.price > model.stockout_above && c.stock <= 1e-12,
             },
-            stockout: c.price > model.stockout_above && c.stock <= 1e-12,
-        };
+            agency,
+            &model.demand,
+            &model.supply,
+        );
         // advance the state
         self.previous = Some(rule_expectation);
         self.stock = c.stock;

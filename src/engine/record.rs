@@ -1,6 +1,7 @@
 use serde::Serialize;
 
-use crate::policies::flags;
+use crate::curves::Curve;
+use crate::policies::{flags, Agency};
 
 /// Everything recorded for one period (the `run` table's columns and the fiscal parts).
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
@@ -68,5 +69,106 @@ impl PeriodRecord {
     /// The "acted" column.
     pub fn acted(&self) -> String {
         flags::describe(self.flags)
+    }
+}
+
+/// What one period decided before its books are made up: the quantities and prices of the
+/// clearing, the payments the rules settled, and which rules acted. The period engine and the
+/// storage equilibrium both fill it and turn it into a [`PeriodRecord`] with [`PeriodRecord::book`],
+/// so the fiscal cost and the surpluses are written once.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Settled {
+    /// Period t (1-based).
+    pub period: usize,
+    /// The price farmers planted on.
+    pub expected_price: f64,
+    /// Planted quantity.
+    pub planted: f64,
+    /// Harvest Q_t.
+    pub harvest: f64,
+    /// Market price P_t.
+    pub price: f64,
+    /// Price producers received.
+    pub producer_price: f64,
+    /// Consumption C_t.
+    pub consumption: f64,
+    /// Agency purchases X_t.
+    pub purchases: f64,
+    /// Agency releases R_t.
+    pub releases: f64,
+    /// Agency stock S_t at the end of the period.
+    pub stock: f64,
+    /// Deficiency payments to producers.
+    pub deficiency_payments: f64,
+    /// Payments to consumers (≤ 0 means none).
+    pub consumer_payments: f64,
+    /// Quantity rotated (both legs pay handling).
+    pub rotated: f64,
+    /// The period's additive demand shock (consumer surplus is measured on the shifted curve).
+    pub demand_shock: f64,
+    /// Which rules acted in the clearing (the booking adds deficiency, consumer subsidy, rotation).
+    pub flags: u16,
+    /// The price was above `sell_above` while the agency had no stock.
+    pub stockout: bool,
+}
+
+impl PeriodRecord {
+    /// The books of one settled period (INTERFACE.md, "Welfare"): fiscal cost = P·X − P·R +
+    /// storage + financing + handling (X + R + 2·rotated) + deficiency payments + consumer
+    /// payments; consumer surplus ∫_P D(p) dp on the shocked demand curve plus the consumer payments
+    /// (a transfer); producer surplus = producer price × harvest − cost of the planted quantity.
+    /// The one place these sums are written; the period engine and the storage records call it.
+    #[inline(always)]
+    pub fn book(s: &Settled, agency: &Agency, demand: &Curve, supply: &Curve) -> PeriodRecord {
+        let purchase_cost = s.price * s.purchases;
+        let sales_revenue = s.price * s.releases;
+        let storage_cost = agency.storage_cost * s.stock;
+        let financing_cost = agency.financing_rate * s.price * s.stock;
+        // with no rotation `rotated` is +0 and the sum is X + R exactly
+        let handling_cost = agency.handling_cost * (s.purchases + s.releases + 2.0 * s.rotated);
+        let mut fiscal_cost = purchase_cost - sales_revenue
+            + storage_cost
+            + financing_cost
+            + handling_cost
+            + s.deficiency_payments;
+        let mut consumer_surplus = demand.consumer_surplus(s.price, s.demand_shock);
+        let mut bits = s.flags;
+        if s.deficiency_payments > 0.0 {
+            bits |= flags::DEFICIENCY;
+        }
+        if s.consumer_payments > 0.0 {
+            // consumers pay the ceiling: their surplus is the market's plus the payment
+            fiscal_cost += s.consumer_payments;
+            consumer_surplus += s.consumer_payments;
+            bits |= flags::CONSUMER_SUBSIDY;
+        }
+        if s.rotated > 0.0 {
+            bits |= flags::ROTATE;
+        }
+        PeriodRecord {
+            period: s.period,
+            expected_price: s.expected_price,
+            planted: s.planted,
+            harvest: s.harvest,
+            price: s.price,
+            producer_price: s.producer_price,
+            consumption: s.consumption,
+            purchases: s.purchases,
+            releases: s.releases,
+            stock: s.stock,
+            fiscal_cost,
+            consumer_surplus,
+            producer_surplus: s.producer_price * s.harvest - supply.production_cost(s.planted),
+            purchase_cost,
+            sales_revenue,
+            storage_cost,
+            financing_cost,
+            handling_cost,
+            deficiency_payments: s.deficiency_payments,
+            consumer_payments: s.consumer_payments,
+            rotated: s.rotated,
+            flags: bits,
+            stockout: s.stockout,
+        }
     }
 }

@@ -10,9 +10,8 @@ mod shocks;
 pub mod stats;
 
 pub use montecarlo::{
-    run_monte_carlo, run_monte_carlo_sources, sources, MonteCarlo, NoProgress, PathSource,
-    PolicyRuns, Pooled, Progress, ReplicationFailed, ReplicationSummary, Series, SeriesSummary,
-    Watch,
+    run_models, run_monte_carlo, MonteCarlo, NoProgress, PathVariable, PolicyRuns, Pooled,
+    Progress, ReplicationFailed, ReplicationSummary, SeriesSummary, Watch,
 };
-pub use shocks::{single_path_shocks, ShockStream};
+pub use shocks::{draw_shocks, single_path_shocks, ShockStream};
 pub use stats::{quantiles, ShiftedSums, Summary};

@@ -14,12 +14,11 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 use rayon::prelude::*;
 use serde::Serialize;
 
+use super::draw_shocks;
 use super::stats::{ShiftedSums, Summary};
-use super::ShockStream;
-use crate::engine::{Diverged, Model, PeriodRecord, PeriodShock};
+use crate::engine::{Diverged, Model, PathModel, PeriodRecord, PeriodShock, Stepper};
 use crate::policies::flags;
 use crate::scenario::{PolicySpec, Scenario, MAX_ALERTS};
-use crate::storage::{SolvedStorage, StorageError};
 use crate::welfare::{crra_transform, income, producer_revenue, Books, WelfareFold, WelfarePv};
 
 /// Replications per parallel work item (fixed, so the order of float sums never depends on threads).
@@ -31,10 +30,10 @@ pub const SERIES_BUDGET_BYTES: usize = 128 << 20;
 /// Memory allowed for the per-season fiscal outlays kept for their pooled quantiles (all policies).
 pub const SEASON_BUDGET_BYTES: usize = 256 << 20;
 
-/// A per-period series that can be kept for quantiles.
+/// A per-period variable of a path that can be kept for quantiles (fan charts).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "snake_case")]
-pub enum Series {
+pub enum PathVariable {
     /// Market price P_t.
     Price,
     /// Producer price.
@@ -45,24 +44,24 @@ pub enum Series {
     Stock,
 }
 
-impl Series {
+impl PathVariable {
     /// The column stem (`price`, `producer_price`, `harvest`, `stock`).
     pub fn name(&self) -> &'static str {
         match self {
-            Series::Price => "price",
-            Series::ProducerPrice => "producer_price",
-            Series::Harvest => "harvest",
-            Series::Stock => "stock",
+            PathVariable::Price => "price",
+            PathVariable::ProducerPrice => "producer_price",
+            PathVariable::Harvest => "harvest",
+            PathVariable::Stock => "stock",
         }
     }
 
     #[inline]
     fn of(&self, r: &PeriodRecord) -> f64 {
         match self {
-            Series::Price => r.price,
-            Series::ProducerPrice => r.producer_price,
-            Series::Harvest => r.harvest,
-            Series::Stock => r.stock,
+            PathVariable::Price => r.price,
+            PathVariable::ProducerPrice => r.producer_price,
+            PathVariable::Harvest => r.harvest,
+            PathVariable::Stock => r.stock,
         }
     }
 }
@@ -233,7 +232,7 @@ impl Watch {
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct SeriesSummary {
     /// Which series.
-    pub series: Series,
+    pub series: PathVariable,
     /// Replications the quantiles come from (the first ones; all of them unless the run is very large).
     /// Means always use every replication.
     pub quantile_replications: usize,
@@ -315,18 +314,15 @@ type ChunkOutcome = Result<Vec<ChunkPolicy>, ReplicationFailed>;
 /// Simulates every policy in `policies` over `scenario.run.replications` replications of
 /// `scenario.run.periods` periods under the same shocks, keeping the per-period `series` for quantiles.
 /// The first failing replication (lowest replication, then lowest policy index) fails the whole run.
-/// This runs the period engine; for a market with private storers build the sources with
-/// [`sources`] and call [`run_monte_carlo_sources`].
+/// This runs the period engine; for any market (private storers too) see [`run_models`] and
+/// `path::with_models`.
 pub fn run_monte_carlo(
     scenario: &Scenario,
     policies: &[PolicySpec],
-    series: &[Series],
+    series: &[PathVariable],
     progress: &dyn Progress,
 ) -> Result<MonteCarlo, ReplicationFailed> {
-    let models: Vec<PathSource> = policies
-        .iter()
-        .map(|p| PathSource::Engine(Box::new(Model::new(scenario, p))))
-        .collect();
+    let models: Vec<Model> = policies.iter().map(|p| Model::new(scenario, p)).collect();
     run_with_budget(
         scenario,
         policies,
@@ -337,68 +333,30 @@ pub fn run_monte_carlo(
     )
 }
 
-/// [`run_monte_carlo`] over given path sources (one per policy, in order, built from `policies`).
-pub fn run_monte_carlo_sources(
+/// [`run_monte_carlo`] over given models (one per policy, in order, built from `policies`): the
+/// period engine or the solved storage equilibrium alike (`path::with_models` builds them).
+pub fn run_models<M: PathModel>(
     scenario: &Scenario,
     policies: &[PolicySpec],
-    sources: &[PathSource],
-    series: &[Series],
+    models: &[M],
+    variables: &[PathVariable],
     progress: &dyn Progress,
 ) -> Result<MonteCarlo, ReplicationFailed> {
     run_with_budget(
         scenario,
         policies,
-        sources,
-        series,
+        models,
+        variables,
         progress,
         SERIES_BUDGET_BYTES,
     )
 }
 
-/// Where a policy's simulated periods come from.
-#[derive(Debug)]
-pub enum PathSource {
-    /// The period engine (every market without private storers).
-    Engine(Box<Model>),
-    /// The solved competitive storage equilibrium (a market with `[storers]`): each replication is
-    /// simulated with the solved rules on the same random stream as everywhere else.
-    Storage(Box<SolvedStorage>),
-}
-
-impl PathSource {
-    /// The policy's display name.
-    pub fn name(&self) -> &str {
-        match self {
-            PathSource::Engine(m) => &m.policy.name,
-            PathSource::Storage(s) => &s.policy().name,
-        }
-    }
-}
-
-/// The path sources for `policies` on `scenario`: the storage equilibrium (solved once per policy)
-/// when the market has private storers, the period engine otherwise.
-pub fn sources(
+fn run_with_budget<M: PathModel>(
     scenario: &Scenario,
     policies: &[PolicySpec],
-) -> Result<Vec<PathSource>, StorageError> {
-    // the storage solves are independent: in parallel, collected in policy order
-    policies
-        .par_iter()
-        .map(|p| {
-            Ok(if scenario.storers.is_some() {
-                PathSource::Storage(Box::new(SolvedStorage::new(scenario, p)?))
-            } else {
-                PathSource::Engine(Box::new(Model::new(scenario, p)))
-            })
-        })
-        .collect()
-}
-
-fn run_with_budget(
-    scenario: &Scenario,
-    policies: &[PolicySpec],
-    models: &[PathSource],
-    series: &[Series],
+    models: &[M],
+    series: &[PathVariable],
     progress: &dyn Progress,
     budget: usize,
 ) -> Result<MonteCarlo, ReplicationFailed> {
@@ -468,18 +426,18 @@ fn run_with_budget(
     })
 }
 
-struct Context<'a> {
+struct Context<'a, M> {
     scenario: &'a Scenario,
-    models: &'a [PathSource],
+    models: &'a [M],
     watches: &'a [Watch],
-    series: &'a [Series],
+    series: &'a [PathVariable],
     series_reps: usize,
     season_reps: usize,
     first_failure: &'a AtomicUsize,
     progress: &'a dyn Progress,
 }
 
-impl Context<'_> {
+impl<M: PathModel> Context<'_, M> {
     fn chunk(&self, from: usize, to: usize) -> ChunkOutcome {
         let s = self.scenario;
         let periods = s.run.periods;
@@ -513,14 +471,9 @@ impl Context<'_> {
             })
             .collect();
         let mut shocks = vec![PeriodShock::NONE; periods];
-        let deterministic = s.shocks.is_deterministic();
         for rep in from..to {
-            if !deterministic {
-                let mut stream = ShockStream::new(&s.shocks, s.run.seed, rep as u64);
-                for x in shocks.iter_mut() {
-                    *x = stream.next_shock();
-                }
-            }
+            // the replication's shocks, drawn once and handed to every model
+            draw_shocks(s, rep as u64, &mut shocks);
             for (k, model) in self.models.iter().enumerate() {
                 let keep_seasons = from < self.season_reps;
                 let summary = self
@@ -528,7 +481,7 @@ impl Context<'_> {
                         model,
                         &self.watches[k],
                         &shocks,
-                        (rep, rep - from, n, keep_seasons),
+                        (rep - from, n, keep_seasons),
                         &mut out[k],
                     )
                     .map_err(|source| ReplicationFailed {
@@ -548,33 +501,20 @@ impl Context<'_> {
         Ok(out)
     }
 
-    /// One replication (number `slot` of the chunk's `n`) of one model, folded into `acc`; returns
-    /// the replication's summary.
-    /// `at` = (replication, slot in the chunk, chunk size, keep the season outlays).
+    /// One replication (number `slot` of the chunk's `n`) of one model on `shocks`, folded into
+    /// `acc`; returns the replication's summary.
+    /// `at` = (slot in the chunk, chunk size, keep the season outlays).
+    #[inline]
     fn replicate(
         &self,
-        source: &PathSource,
+        model: &M,
         watch: &Watch,
         shocks: &[PeriodShock],
-        at: (usize, usize, usize, bool),
+        at: (usize, usize, bool),
         acc: &mut ChunkPolicy,
     ) -> Result<ReplicationSummary, Diverged> {
-        let (rep, slot, n, keep) = at;
-        match source {
-            PathSource::Engine(model) => {
-                let mut sim = model.simulator();
-                self.fold(
-                    shocks.iter().map(|s| sim.step(s)),
-                    watch,
-                    (slot, n, keep),
-                    acc,
-                )
-            }
-            PathSource::Storage(solved) => {
-                let records = solved.records(rep as u64, shocks.len());
-                self.fold(records.into_iter().map(Ok), watch, (slot, n, keep), acc)
-            }
-        }
+        let mut path = model.start();
+        self.fold(shocks.iter().map(|s| path.step(s)), watch, at, acc)
     }
 
     /// Folds one replication's periods into `acc`; `at` = (slot in the chunk, chunk size, keep the
@@ -671,7 +611,7 @@ fn assemble(
     name: &str,
     k: usize,
     chunks: &[Vec<ChunkPolicy>],
-    series: &[Series],
+    series: &[PathVariable],
     periods: usize,
     reps: usize,
     watch: Watch,
@@ -775,11 +715,11 @@ mod tests {
     #[test]
     fn over_budget_quantiles_come_from_the_leading_replications_and_means_from_all() {
         let none = [PolicySpec::none()];
-        let series = [Series::Price];
+        let series = [PathVariable::Price];
         // a budget of one replication rounds up to one chunk of CHUNK replications
-        let sources = super::sources(&scenario(200), &none).unwrap();
+        let models = [Model::new(&scenario(200), &none[0])];
         let capped =
-            run_with_budget(&scenario(200), &none, &sources, &series, &NoProgress, 1).unwrap();
+            run_with_budget(&scenario(200), &none, &models, &series, &NoProgress, 1).unwrap();
         let full = run_monte_carlo(&scenario(200), &none, &series, &NoProgress).unwrap();
         let leading = run_monte_carlo(&scenario(CHUNK), &none, &series, &NoProgress).unwrap();
         let (c, f, l) = (

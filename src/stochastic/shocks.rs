@@ -62,6 +62,21 @@ pub fn single_path_shocks(scenario: &Scenario) -> Vec<PeriodShock> {
     (0..scenario.run.periods).map(|_| s.next_shock()).collect()
 }
 
+/// The shocks of replication `replication` into `into` (one per period): none for a market without
+/// shocks, else the replication's own stream drawn in period order (the same values as
+/// [`single_path_shocks`] for replication 0). Monte Carlo draws each replication's shocks once with
+/// this and hands them to every model of the replication.
+pub fn draw_shocks(scenario: &Scenario, replication: u64, into: &mut [PeriodShock]) {
+    if scenario.shocks.is_deterministic() {
+        into.fill(PeriodShock::NONE);
+        return;
+    }
+    let mut stream = ShockStream::new(&scenario.shocks, scenario.run.seed, replication);
+    for x in into.iter_mut() {
+        *x = stream.next_shock();
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

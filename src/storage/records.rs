@@ -1,13 +1,15 @@
 //! Simulated storage periods as the period engine's records, so that `run` and `compare` can show a
-//! market with private storers with their usual columns and welfare accounting (INTERFACE.md,
-//! "Order within a period" and "Welfare"): fiscal cost = P·X − P·R + storage + financing + handling +
-//! deficiency payments; consumer surplus at P with the period's demand shock; producer surplus =
-//! producer price × harvest − cost of the planted quantity.
+//! market with private storers with their usual columns and welfare accounting: the books of a
+//! period are made up by the engine's one booking, [`PeriodRecord::book`] (INTERFACE.md, "Order
+//! within a period" and "Welfare"); here only the agency's regime becomes the "acted" flags.
+//!
+//! [`SolvedStorage`] is a [`PathModel`]: solved once, stepped for as many replications as needed on
+//! the shocks it is handed (the same shocks every model of the replication gets).
 
-use super::agency::Regime;
-use super::simulate::StoragePeriod;
-use crate::engine::PeriodRecord;
-use crate::policies::flags;
+use super::agency::{Regime, StoragePlan};
+use super::simulate::{StoragePeriod, Walk};
+use crate::engine::{Diverged, PathModel, PeriodRecord, PeriodShock, Settled, Stepper};
+use crate::policies::{flags, Agency};
 use crate::scenario::{PolicySpec, Scenario};
 
 /// The engine's record of each simulated storage period under `policy`.
@@ -16,54 +18,60 @@ pub fn to_records(
     policy: &PolicySpec,
     path: &[StoragePeriod],
 ) -> Vec<PeriodRecord> {
-    let demand = &scenario.market.demand;
-    let supply = &scenario.market.supply;
-    // release = "rotate": the quantity rotated, booked as in the period engine
-    let agency = crate::policies::compile(policy).agency;
-    let (storage_rate, financing_rate, handling_rate) = (
-        agency.storage_cost,
-        agency.financing_rate,
-        agency.handling_cost,
-    );
-    let plan = super::agency::plan_of(policy).unwrap_or_default();
-    let floor_purchase = plan.purchase_floor.is_some();
-    // a consumer payment (a transfer: the treasury's cost and consumers' gain); -0.0 adds nothing
-    let paid = |x: f64| if x > 0.0 { x } else { -0.0 };
-    let mut previous = agency.initial;
+    let books = Books::new(scenario, policy);
+    let mut previous = books.agency.initial;
     path.iter()
-        .map(|r| {
-            let rotated = agency.rotated(previous * (1.0 - agency.loss_rate), r.public_stock);
-            previous = r.public_stock;
-            let purchase_cost = r.price * r.purchases;
-            let sales_revenue = r.price * r.releases;
-            let storage_cost = storage_rate * r.public_stock;
-            let financing_cost = financing_rate * r.price * r.public_stock;
-            let handling_cost = handling_rate * (r.purchases + r.releases + 2.0 * rotated);
-            let buy = if floor_purchase {
-                flags::FLOOR_BUY
-            } else {
-                flags::BAND_BUY
-            };
-            let mut bits = match r.regime {
-                Regime::Buying => buy,
-                Regime::Full if r.purchases > 0.0 => flags::CAPACITY_FULL | buy,
-                Regime::Full => flags::CAPACITY_FULL,
-                Regime::Selling => flags::BAND_SELL,
-                Regime::Empty if r.releases > 0.0 => flags::STOCK_OUT | flags::BAND_SELL,
-                Regime::Empty => flags::STOCK_OUT,
-                Regime::Rotating => flags::ROTATION,
-                Regime::Steering => flags::TARGET,
-                Regime::BudgetBound => buy | flags::BUDGET_BOUND,
-                Regime::Inside => 0,
-            };
-            if r.deficiency_payments > 0.0 {
-                bits |= flags::DEFICIENCY;
-            }
-            let consumer_payments = plan.consumer_payment(r.price, r.consumption);
-            if consumer_payments > 0.0 {
-                bits |= flags::CONSUMER_SUBSIDY;
-            }
-            PeriodRecord {
+        .map(|r| books.record(r, &mut previous))
+        .collect()
+}
+
+/// What turns a simulated storage period into a record: the agency's rates and the policy's plan.
+#[derive(Debug, Clone)]
+struct Books {
+    agency: Agency,
+    plan: StoragePlan,
+    floor_purchase: bool,
+    demand: crate::curves::Curve,
+    supply: crate::curves::Curve,
+}
+
+impl Books {
+    fn new(scenario: &Scenario, policy: &PolicySpec) -> Books {
+        let plan = super::agency::plan_of(policy).unwrap_or_default();
+        Books {
+            // release = "rotate": the quantity rotated, booked as in the period engine
+            agency: crate::policies::compile(policy).agency,
+            floor_purchase: plan.purchase_floor.is_some(),
+            plan,
+            demand: scenario.market.demand,
+            supply: scenario.market.supply,
+        }
+    }
+
+    /// The record of `r`; `previous` is the public stock carried out of the period before (updated).
+    fn record(&self, r: &StoragePeriod, previous: &mut f64) -> PeriodRecord {
+        let agency = &self.agency;
+        let rotated = agency.rotated(*previous * (1.0 - agency.loss_rate), r.public_stock);
+        *previous = r.public_stock;
+        let buy = if self.floor_purchase {
+            flags::FLOOR_BUY
+        } else {
+            flags::BAND_BUY
+        };
+        let bits = match r.regime {
+            Regime::Buying => buy,
+            Regime::Full if r.purchases > 0.0 => flags::CAPACITY_FULL | buy,
+            Regime::Full => flags::CAPACITY_FULL,
+            Regime::Selling => flags::BAND_SELL,
+            Regime::Empty if r.releases > 0.0 => flags::STOCK_OUT | flags::BAND_SELL,
+            Regime::Empty => flags::STOCK_OUT,
+            Regime::Rotating => flags::ROTATION,
+            Regime::Steering => flags::TARGET,
+            Regime::BudgetBound => buy | flags::BUDGET_BOUND,
+            Regime::Inside => 0,
+        };
+        PeriodRecord::book(
+            &Settled {
                 period: r.period,
                 expected_price: r.expected_price,
                 planted: r.planted,
@@ -74,32 +82,18 @@ pub fn to_records(
                 purchases: r.purchases,
                 releases: r.releases,
                 stock: r.public_stock,
-                fiscal_cost: purchase_cost - sales_revenue
-                    + storage_cost
-                    + financing_cost
-                    + handling_cost
-                    + r.deficiency_payments
-                    + paid(consumer_payments),
-                consumer_surplus: demand.consumer_surplus(r.price, r.demand_shock)
-                    + paid(consumer_payments),
-                producer_surplus: r.producer_price * r.harvest - supply.production_cost(r.planted),
-                purchase_cost,
-                sales_revenue,
-                storage_cost,
-                financing_cost,
-                handling_cost,
                 deficiency_payments: r.deficiency_payments,
-                consumer_payments,
+                consumer_payments: self.plan.consumer_payment(r.price, r.consumption),
                 rotated,
-                flags: if rotated > 0.0 {
-                    bits | flags::ROTATE
-                } else {
-                    bits
-                },
+                demand_shock: r.demand_shock,
+                flags: bits,
                 stockout: r.stockout,
-            }
-        })
-        .collect()
+            },
+            agency,
+            &self.demand,
+            &self.supply,
+        )
+    }
 }
 
 /// A market's storage equilibrium under one policy, solved once and simulated for as many
@@ -111,6 +105,7 @@ pub struct SolvedStorage {
     scenario: Scenario,
     policy: PolicySpec,
     initial_public: f64,
+    books: Books,
 }
 
 impl SolvedStorage {
@@ -132,6 +127,7 @@ impl SolvedStorage {
             scenario: scenario.clone(),
             policy: policy.clone(),
             initial_public,
+            books: Books::new(scenario, policy),
         })
     }
 
@@ -151,8 +147,8 @@ impl SolvedStorage {
         self.initial_public
     }
 
-    /// `periods` periods of replication `replication` (the market file's seed), starting with no
-    /// private stock and the policy's initial public stock.
+    /// `periods` periods of replication `replication` (the market file's seed, drawn from its own
+    /// stream), starting with no private stock and the policy's initial public stock.
     pub fn path(&self, replication: u64, periods: usize) -> Vec<StoragePeriod> {
         super::simulate(
             &self.equilibrium,
@@ -166,11 +162,43 @@ impl SolvedStorage {
 
     /// The same periods as the period engine's records.
     pub fn records(&self, replication: u64, periods: usize) -> Vec<PeriodRecord> {
-        to_records(
-            &self.scenario,
-            &self.policy,
-            &self.path(replication, periods),
-        )
+        let mut previous = self.books.agency.initial;
+        self.path(replication, periods)
+            .iter()
+            .map(|r| self.books.record(r, &mut previous))
+            .collect()
+    }
+}
+
+/// A path of a [`SolvedStorage`] stepped on the shocks it is handed.
+#[derive(Debug, Clone)]
+pub struct StorageStepper<'a> {
+    walk: Walk<'a>,
+    books: &'a Books,
+    previous: f64,
+}
+
+impl Stepper for StorageStepper<'_> {
+    #[inline]
+    fn step(&mut self, shock: &PeriodShock) -> Result<PeriodRecord, Diverged> {
+        let period = self.walk.step(shock);
+        Ok(self.books.record(&period, &mut self.previous))
+    }
+}
+
+impl PathModel for SolvedStorage {
+    type Stepper<'a> = StorageStepper<'a>;
+
+    fn name(&self) -> &str {
+        &self.policy.name
+    }
+
+    fn start(&self) -> StorageStepper<'_> {
+        StorageStepper {
+            walk: Walk::new(&self.equilibrium, self.initial_public),
+            books: &self.books,
+            previous: self.books.agency.initial,
+        }
     }
 }
 

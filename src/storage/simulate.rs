@@ -11,6 +11,7 @@ use serde::Serialize;
 use super::public::{PublicSolution, Regime};
 use super::solve::PrivateSolution;
 use super::StorageMarket;
+use crate::engine::PeriodShock;
 use crate::scenario::ShockSpec;
 use crate::stochastic::ShockStream;
 
@@ -245,37 +246,51 @@ pub struct StoragePeriod {
     pub regime: Regime,
 }
 
-/// Simulates `periods` periods of replication `replication` under `seed`, starting with no private
-/// stock and `initial_public` public stock held before period 1.
-pub fn simulate(
-    eq: &Equilibrium,
-    shocks: &ShockSpec,
-    seed: u64,
-    replication: u64,
-    initial_public: f64,
-    periods: usize,
-) -> Vec<StoragePeriod> {
-    let m = eq.market();
-    let mut stream = ShockStream::new(shocks, seed, replication);
-    let mut x = 0.0;
-    let mut public = initial_public;
-    let (mut planted, mut expected) = eq.plant_and_expect(0.0, public);
-    let mut out = Vec::with_capacity(periods);
-    for t in 1..=periods {
-        let s = stream.next_shock();
-        let harvest = (planted * s.yield_factor + s.supply).max(0.0);
-        let availability = m.keep * x + harvest;
-        let g = eq.public_keep() * public;
+/// A path under the solved rules, one period at a time: the state is the private and public stock
+/// carried out and the planting (and the price it was planted on) for the next harvest.
+#[derive(Debug, Clone)]
+pub struct Walk<'a> {
+    eq: &'a Equilibrium,
+    x: f64,
+    public: f64,
+    planted: f64,
+    expected: f64,
+    period: usize,
+}
+
+impl<'a> Walk<'a> {
+    /// A path at period 0 with no private stock and `initial_public` public stock held before
+    /// period 1.
+    pub fn new(eq: &'a Equilibrium, initial_public: f64) -> Walk<'a> {
+        let (planted, expected) = eq.plant_and_expect(0.0, initial_public);
+        Walk {
+            eq,
+            x: 0.0,
+            public: initial_public,
+            planted,
+            expected,
+            period: 0,
+        }
+    }
+
+    /// The next period under `s`.
+    pub fn step(&mut self, s: &PeriodShock) -> StoragePeriod {
+        let eq = self.eq;
+        let m = eq.market();
+        let harvest = (self.planted * s.yield_factor + s.supply).max(0.0);
+        let availability = m.keep * self.x + harvest;
+        let g = eq.public_keep() * self.public;
         let o = eq.outcome(availability - s.demand, g);
         let trade = o.public_stock - g;
         let consumption = (availability + g - o.public_stock - o.private_stock).max(0.0);
-        x = o.private_stock;
-        public = o.public_stock;
-        let (planted_now, expected_now) = (planted, expected);
-        (planted, expected) = eq.plant_after(o.price, x, public);
+        self.x = o.private_stock;
+        self.public = o.public_stock;
+        let (planted_now, expected_now) = (self.planted, self.expected);
+        (self.planted, self.expected) = eq.plant_after(o.price, self.x, self.public);
         let gap = (m.payment_floor - o.price).max(0.0);
-        out.push(StoragePeriod {
-            period: t,
+        self.period += 1;
+        StoragePeriod {
+            period: self.period,
             expected_price: expected_now,
             planted: planted_now,
             harvest,
@@ -284,16 +299,32 @@ pub fn simulate(
             producer_price: o.price + gap,
             deficiency_payments: gap * harvest,
             consumption,
-            private_stock: x,
+            private_stock: self.x,
             purchases: trade.max(0.0),
             releases: (-trade).max(0.0),
-            public_stock: public,
+            public_stock: self.public,
             stockout: o.regime == Regime::Empty,
             demand_shock: s.demand,
             regime: o.regime,
-        });
+        }
     }
-    out
+}
+
+/// Simulates `periods` periods of replication `replication` under `seed` (its own [`ShockStream`]),
+/// starting with no private stock and `initial_public` public stock held before period 1.
+pub fn simulate(
+    eq: &Equilibrium,
+    shocks: &ShockSpec,
+    seed: u64,
+    replication: u64,
+    initial_public: f64,
+    periods: usize,
+) -> Vec<StoragePeriod> {
+    let mut stream = ShockStream::new(shocks, seed, replication);
+    let mut walk = Walk::new(eq, initial_public);
+    (0..periods)
+        .map(|_| walk.step(&stream.next_shock()))
+        .collect()
 }
 
 /// Long-run indicators of the market under a storage equilibrium.
