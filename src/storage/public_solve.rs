@@ -7,7 +7,7 @@ use super::interp::Monotone;
 use super::market::StorageMarket;
 use super::next_price::NextPrice;
 use super::public::{reach, Band, PublicSolution};
-use super::solve::{plant_with, PriceRule, SolveOptions};
+use super::solve::{plant_accepting, PriceRule, SolveOptions};
 use super::StorageError;
 
 /// Solves the two-state equilibrium on `o.grid_2d` private-stock points × `o.public_grid`
@@ -219,6 +219,11 @@ fn halve(v: &[f64], split: &[bool]) -> Vec<f64> {
     out
 }
 
+/// Longest planting step (× Q*) taken without evaluating the expectation again in the two-state
+/// iteration: errors of order (1e-4·Q*)² ≈ 2e-3 t² times the curvature of E[P'] in q while the rules still change
+/// by about 1e-4, vanishing with the change (common practice, no source).
+pub const PLANT_ACCEPT: f64 = 1e-4;
+
 /// Endogenous-grid iteration to the tolerance; the first expectation uses the rules `start` (on their
 /// own public-stock grid).
 fn iterate(
@@ -236,6 +241,12 @@ fn iterate(
     let mut old: Vec<Vec<f64>> = vec![Vec::new(); mm];
     let mut change = f64::INFINITY;
     let hi = reach(&m, &stocks);
+    // one Newton step of planting per point once it is short (see [`plant_accepting`]), except
+    // under the target rule, whose next price jumps (the derivative in q misses the jumps)
+    let accept = match band.release {
+        super::agency::Release::Target { .. } => 0.0,
+        _ => PLANT_ACCEPT,
+    };
     for it in 1..=o.max_iterations {
         // rows are independent given last iteration's rules: solved in parallel, collected in order
         // (the result does not depend on the number of threads)
@@ -244,13 +255,17 @@ fn iterate(
             .zip(planted.par_iter_mut())
             .zip(old.par_iter_mut())
             .map(|((&gm, planted_row), old_row)| {
-                let np = NextPrice::new(&m, &band, &prev_publics, &rows, band.keep * gm);
+                let np = NextPrice::prepared(&m, &band, &prev_publics, &rows, band.keep * gm);
                 let breaks = np.breaks(hi);
                 let (mut ys, mut ps) = (Vec::with_capacity(n), Vec::with_capacity(n));
                 let mut raw = vec![f64::NAN; n];
                 for (j, &x) in stocks.iter().enumerate() {
-                    let (q, psi) =
-                        plant_with(&m, planted_row[j], &|q| np.expect(m.keep * x, q, &breaks));
+                    let (q, psi) = plant_accepting(
+                        &m,
+                        planted_row[j],
+                        &|q| np.expect(m.keep * x, q, &breaks),
+                        accept,
+                    );
                     planted_row[j] = q;
                     let p = m.discount * psi - m.cost;
                     if p <= 0.0 {
