@@ -120,6 +120,9 @@ pub fn refine_public(
         } else {
             sol.publics.clone()
         };
+        super::progress::report(super::progress::ProgressEvent::Stage(
+            super::progress::Stage::Refining,
+        ));
         let planted: Vec<Vec<f64>> = publics
             .iter()
             .map(|&g| stocks.iter().map(|&x| sol.planted_guess(x, g)).collect())
@@ -310,6 +313,12 @@ fn iterate(
         rows = new_rows;
         prev_publics.clone_from(&publics);
         change = worst;
+        super::progress::report(super::progress::ProgressEvent::Iteration {
+            iteration: it,
+            change,
+            tolerance: o.tolerance,
+            points: n * mm,
+        });
         if change < o.tolerance {
             return Ok(PublicSolution {
                 market: m,

@@ -484,6 +484,12 @@ fn iterate(
             PriceRule::no_storage()
         };
         breaks = rule_breaks(&m, &rule, hi);
+        super::progress::report(super::progress::ProgressEvent::Iteration {
+            iteration: it,
+            change,
+            tolerance: o.tolerance,
+            points: n,
+        });
         if change < o.tolerance {
             return Ok(PrivateSolution {
                 market: m,
