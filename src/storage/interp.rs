@@ -55,6 +55,14 @@ impl Monotone {
                 ms[k + 1] = t * b * d[k];
             }
         }
+        Monotone::hermite(xs, ys, ms)
+    }
+
+    /// The piecewise cubic Hermite interpolant with the given values and first derivatives at
+    /// strictly increasing knots (at least 2), as given (no limiting).
+    pub fn hermite(xs: Vec<f64>, ys: Vec<f64>, ms: Vec<f64>) -> Monotone {
+        let n = xs.len();
+        debug_assert!(n >= 2 && ys.len() == n && ms.len() == n);
         let bins = 2 * n;
         let per_unit = bins as f64 / (xs[n - 1] - xs[0]);
         let start = (0..bins)
@@ -70,6 +78,11 @@ impl Monotone {
             start,
             per_unit,
         }
+    }
+
+    /// The first derivatives at the knots.
+    pub fn tangents(&self) -> &[f64] {
+        &self.ms
     }
 
     /// The interval k with x_k ≤ x < x_{k+1}, for x_0 < x < x_{n−1}.

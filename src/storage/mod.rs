@@ -17,6 +17,7 @@ pub mod interp;
 pub mod market;
 pub mod next_price;
 pub mod policy;
+pub mod progress;
 pub mod public;
 pub mod public_solve;
 pub mod records;
@@ -28,6 +29,7 @@ pub mod split;
 pub use check::GridRow;
 pub use market::{Node, StorageMarket};
 pub use policy::{band_of, payment_floor, planting_floor};
+pub use progress::{set_progress, ProgressEvent, SolveProgress, Stage};
 pub use records::SolvedStorage;
 pub use report::{report, StorageReport};
 pub use simulate::{simulate, Equilibrium, StorageIndicators, StoragePeriod};
@@ -192,6 +194,20 @@ pub fn solve(
     policy: &PolicySpec,
     options: &SolveOptions,
 ) -> Result<Equilibrium, StorageError> {
+    progress::report(ProgressEvent::Started {
+        public: matches!(band_of(policy), Ok(Some(_))),
+    });
+    let out = solve_reporting(scenario, policy, options);
+    progress::report(ProgressEvent::Finished);
+    out
+}
+
+/// [`solve`] between its start and end events.
+fn solve_reporting(
+    scenario: &Scenario,
+    policy: &PolicySpec,
+    options: &SolveOptions,
+) -> Result<Equilibrium, StorageError> {
     let mut m = StorageMarket::new(scenario, options.nodes)?;
     m.planting_floor = planting_floor(policy);
     m.payment_floor = payment_floor(policy);
@@ -222,6 +238,7 @@ pub fn solve(
         }
         Some(band) => solve_unlimited(scenario, policy, m, band, options)?,
     };
+    progress::report(ProgressEvent::Stage(Stage::Checking));
     let mut eq = cover_paths(eq, scenario, initial, options)?;
     // the residual is checked over the states the indicator path reaches
     // a purchase budget that binds somewhere on the path has its own limit; one that never binds
@@ -340,6 +357,7 @@ fn cover_paths(
             break;
         }
         let x_max = 1.25 * reach;
+        progress::report(ProgressEvent::Stage(Stage::Covering));
         eq = match eq {
             Equilibrium::Private(s) => Equilibrium::Private(solve::extend(s, x_max, options)?),
             Equilibrium::Public(s) => {

@@ -11,7 +11,7 @@
 //! function of z' (safeguarded Newton).
 
 use super::agency::{decide, Band, Release};
-use super::blend::{row_kinks, Blend};
+use super::blend::{row_kinks, Blend, Merged};
 use super::market::StorageMarket;
 use super::solve::PriceRule;
 use super::split::next_nodes;
@@ -25,6 +25,8 @@ pub struct NextPrice<'a> {
     gn: f64,
     /// The interpolation prepared at each public stock the rule can fix.
     fixed: Vec<(f64, Blend)>,
+    /// Its merged form where one applies ([`Self::prepared`]; empty otherwise).
+    merged: Vec<Option<Merged>>,
 }
 
 /// The end-of-period public stocks the agency's rule can fix when it carries in `g` (computed as
@@ -113,25 +115,54 @@ impl<'a> NextPrice<'a> {
             rows,
             gn,
             fixed,
+            merged: Vec::new(),
         }
     }
 
-    /// The interpolation at public stock `gg` (prepared when the rule can fix it).
+    /// [`Self::new`] with every prepared interpolation also summed into one spline
+    /// ([`Merged`]): the same prices up to rounding, several times cheaper to evaluate, worth it
+    /// when one next-price function serves many expectations (a row of the solve).
+    pub fn prepared(
+        m: &'a StorageMarket,
+        band: &'a Band,
+        publics: &'a [f64],
+        rows: &'a [PriceRule],
+        gn: f64,
+    ) -> NextPrice<'a> {
+        let mut np = NextPrice::new(m, band, publics, rows, gn);
+        np.merged = np
+            .fixed
+            .iter()
+            .map(|&(_, b)| Merged::new(rows, b))
+            .collect();
+        np
+    }
+
+    /// The price and dP/dy at `y` of the `i`-th prepared interpolation.
     #[inline]
-    fn blend(&self, gg: f64) -> Blend {
-        for &(g, b) in &self.fixed {
+    fn fixed_price(&self, i: usize, y: f64) -> (f64, f64) {
+        match self.merged.get(i) {
+            Some(Some(mg)) => mg.price(self.m, self.rows, y),
+            _ => self.fixed[i].1.price(self.m, self.rows, y),
+        }
+    }
+
+    /// The price and dP/dy at `y` when the public stock `gg` is carried out.
+    #[inline]
+    fn price_at(&self, gg: f64, y: f64) -> (f64, f64) {
+        for (i, &(g, _)) in self.fixed.iter().enumerate() {
             if g == gg {
-                return b;
+                return self.fixed_price(i, y);
             }
         }
-        Blend::at(self.m, self.publics, self.rows, gg)
+        Blend::at(self.m, self.publics, self.rows, gg).price(self.m, self.rows, y)
     }
 
     /// Price and dP'/dz' at next availability `z` under the agency's rule.
     #[inline]
     pub fn price(&self, z: f64) -> (f64, f64) {
         let w = z + self.gn;
-        let pg = |gg: f64| self.blend(gg).price(self.m, self.rows, w - gg);
+        let pg = |gg: f64| self.price_at(gg, w - gg);
         let (p, d, _, _) = decide(self.band, self.gn, &pg);
         (p, d)
     }
@@ -161,7 +192,7 @@ impl<'a> NextPrice<'a> {
             }
         }
         let mut out = Vec::with_capacity(24);
-        for &(gg, blend) in &self.fixed {
+        for (i, &(gg, _)) in self.fixed.iter().enumerate() {
             // the row at gg as a function of z': y = z' + g' − gg
             let shift = self.gn - gg;
             for k in row_kinks(m, self.publics, self.rows, gg) {
@@ -172,7 +203,7 @@ impl<'a> NextPrice<'a> {
             }
             for &level in &levels {
                 let f = |z: f64| {
-                    let (p, d) = blend.price(m, self.rows, z + shift);
+                    let (p, d) = self.fixed_price(i, z + shift);
                     (p - level, d)
                 };
                 if f(lo).0 > 0.0 && f(hi).0 <= 0.0 {

@@ -254,6 +254,40 @@ impl PublicSolution {
         }
     }
 
+    /// [`Self::end_residual`] at every `y` of `ys` at the same end-of-period public stock `public`:
+    /// next season's price function, its breakpoints and the blend at `public` are prepared once
+    /// (the refinement's scan evaluates hundreds of points per level).
+    pub fn end_residuals(&self, ys: &[f64], public: f64) -> Vec<f64> {
+        let m = &self.market;
+        let np = NextPrice::prepared(
+            m,
+            &self.band,
+            &self.publics,
+            &self.rows,
+            self.band.keep * public,
+        );
+        let breaks = np.breaks(reach(m, &self.stocks));
+        let blend = super::blend::Blend::at(m, &self.publics, &self.rows, public);
+        ys.iter()
+            .map(|&y| {
+                let (price, _) = blend.price(m, &self.rows, y);
+                if price <= 0.0 {
+                    return 0.0;
+                }
+                let x = (y - m.demand.quantity(price)).max(0.0);
+                let (_, psi) = plant_with(m, self.planted_guess(x, public), &|q| {
+                    np.expect(m.keep * x, q, &breaks)
+                });
+                let r = (m.discount * psi - m.cost) / price - 1.0;
+                if x > 1e-9 * m.q_star {
+                    r.abs()
+                } else {
+                    r.max(0.0)
+                }
+            })
+            .collect()
+    }
+
     /// Largest arbitrage residual on `nz` availabilities × `ng` public stocks carried in.
     pub fn euler_residual_max(&self, nz: usize, ng: usize) -> f64 {
         let (lo, hi) = self.range();

@@ -7,7 +7,7 @@ use super::interp::Monotone;
 use super::market::StorageMarket;
 use super::next_price::NextPrice;
 use super::public::{reach, Band, PublicSolution};
-use super::solve::{plant_with, PriceRule, SolveOptions};
+use super::solve::{plant_accepting, PriceRule, SolveOptions};
 use super::StorageError;
 
 /// Solves the two-state equilibrium on `o.grid_2d` private-stock points × `o.public_grid`
@@ -81,8 +81,14 @@ pub fn refine_public(
         None => None,
     };
     for _ in 0..12 {
-        let (split_x, split_g, scanned) = scan(&sol, target);
-        let residual = reached.unwrap_or(scanned);
+        // (with a measure the scan waits until the stop rules below have been checked: after the
+        // last round it would only be thrown away)
+        let mut scanned = if reached.is_none() {
+            Some(scan(&sol, target))
+        } else {
+            None
+        };
+        let residual = reached.unwrap_or_else(|| scanned.as_ref().map_or(f64::NAN, |s| s.2));
         if let Some((_, last)) = &best {
             if residual > REFINE_STALL * last {
                 // not a material improvement: keep the better of the two and stop
@@ -95,6 +101,10 @@ pub fn refine_public(
         if residual <= stop.limit {
             break;
         }
+        let (split_x, split_g, _) = match scanned.take() {
+            Some(s) => s,
+            None => scan(&sol, target),
+        };
         let add_x = split_x.iter().filter(|&&b| b).count();
         let add_g = split_g.iter().filter(|&&b| b).count();
         if add_x + add_g == 0 {
@@ -120,6 +130,9 @@ pub fn refine_public(
         } else {
             sol.publics.clone()
         };
+        super::progress::report(super::progress::ProgressEvent::Stage(
+            super::progress::Stage::Refining,
+        ));
         let planted: Vec<Vec<f64>> = publics
             .iter()
             .map(|&g| stocks.iter().map(|&x| sol.planted_guess(x, g)).collect())
@@ -153,29 +166,45 @@ fn scan(sol: &PublicSolution, target: f64) -> (Vec<bool>, Vec<bool>, f64) {
     let mut split_x = vec![false; sol.stocks.len() - 1];
     let mut split_g = vec![false; sol.publics.len() - 1];
     let mut most = 0.0_f64;
-    for (mi, &g) in sol.publics.iter().enumerate() {
-        // y at the knots of this row: y_j = x_j + D(π_jm)
-        let ys: Vec<f64> = match &sol.rows[mi].spline {
-            Some(s) => s.knots().to_vec(),
-            None => continue,
+    // levels in parallel, collected in order (flags are or-ed and residuals maxed: the same at
+    // any number of threads)
+    let levels: Vec<Option<(Vec<f64>, Vec<f64>)>> = (0..sol.publics.len())
+        .into_par_iter()
+        .map(|mi| {
+            let g = sol.publics[mi];
+            // y at the knots of this row: y_j = x_j + D(π_jm)
+            let ys: Vec<f64> = sol.rows[mi].spline.as_ref()?.knots().to_vec();
+            let quarters: Vec<f64> = ys
+                .windows(2)
+                .flat_map(|w| [0.25, 0.5, 0.75].map(|f| w[0] + f * (w[1] - w[0])))
+                .collect();
+            let at_quarters = sol.end_residuals(&quarters, g);
+            // (every midpoint is evaluated: the largest residual met is compared between rounds)
+            let at_mid = if mi + 1 < sol.publics.len() {
+                let gm = 0.5 * (g + sol.publics[mi + 1]);
+                let mids: Vec<f64> = ys.windows(2).map(|w| 0.5 * (w[0] + w[1])).collect();
+                sol.end_residuals(&mids, gm)
+            } else {
+                Vec::new()
+            };
+            Some((at_quarters, at_mid))
+        })
+        .collect();
+    for (mi, level) in levels.into_iter().enumerate() {
+        let Some((at_quarters, at_mid)) = level else {
+            continue;
         };
-        for j in 0..ys.len() - 1 {
-            let worst = [0.25, 0.5, 0.75]
-                .iter()
-                .map(|f| sol.end_residual(ys[j] + f * (ys[j + 1] - ys[j]), g))
-                .fold(0.0, f64::max);
+        for (j, r3) in at_quarters.chunks(3).enumerate() {
+            let worst = r3.iter().copied().fold(0.0, f64::max);
             most = most.max(worst);
             if worst > target {
                 split_x[j] = true;
             }
-            // (every midpoint is evaluated: the largest residual met is compared between rounds)
-            if mi + 1 < sol.publics.len() {
-                let gm = 0.5 * (g + sol.publics[mi + 1]);
-                let r = sol.end_residual(0.5 * (ys[j] + ys[j + 1]), gm);
-                most = most.max(r);
-                if r > target {
-                    split_g[mi] = true;
-                }
+        }
+        for &r in &at_mid {
+            most = most.max(r);
+            if r > target {
+                split_g[mi] = true;
             }
         }
     }
@@ -219,6 +248,12 @@ fn halve(v: &[f64], split: &[bool]) -> Vec<f64> {
     out
 }
 
+/// Longest planting step (× Q\*) taken without evaluating the expectation again in the two-state
+/// iteration ([`plant_accepting`]): the step is about S'·ΔE[P'], so points take one evaluation
+/// once the rules change by less than about 1e-4 (the last two thirds of the iterations), and the
+/// errors this leaves vanish with the change (common practice, no source).
+pub const PLANT_ACCEPT: f64 = 1e-4;
+
 /// Endogenous-grid iteration to the tolerance; the first expectation uses the rules `start` (on their
 /// own public-stock grid).
 fn iterate(
@@ -236,6 +271,8 @@ fn iterate(
     let mut old: Vec<Vec<f64>> = vec![Vec::new(); mm];
     let mut change = f64::INFINITY;
     let hi = reach(&m, &stocks);
+    // one Newton step of planting per point once it is short (see [`plant_accepting`])
+    let accept = PLANT_ACCEPT;
     for it in 1..=o.max_iterations {
         // rows are independent given last iteration's rules: solved in parallel, collected in order
         // (the result does not depend on the number of threads)
@@ -244,13 +281,17 @@ fn iterate(
             .zip(planted.par_iter_mut())
             .zip(old.par_iter_mut())
             .map(|((&gm, planted_row), old_row)| {
-                let np = NextPrice::new(&m, &band, &prev_publics, &rows, band.keep * gm);
+                let np = NextPrice::prepared(&m, &band, &prev_publics, &rows, band.keep * gm);
                 let breaks = np.breaks(hi);
                 let (mut ys, mut ps) = (Vec::with_capacity(n), Vec::with_capacity(n));
                 let mut raw = vec![f64::NAN; n];
                 for (j, &x) in stocks.iter().enumerate() {
-                    let (q, psi) =
-                        plant_with(&m, planted_row[j], &|q| np.expect(m.keep * x, q, &breaks));
+                    let (q, psi) = plant_accepting(
+                        &m,
+                        planted_row[j],
+                        &|q| np.expect(m.keep * x, q, &breaks),
+                        accept,
+                    );
                     planted_row[j] = q;
                     let p = m.discount * psi - m.cost;
                     if p <= 0.0 {
@@ -295,6 +336,12 @@ fn iterate(
         rows = new_rows;
         prev_publics.clone_from(&publics);
         change = worst;
+        super::progress::report(super::progress::ProgressEvent::Iteration {
+            iteration: it,
+            change,
+            tolerance: o.tolerance,
+            points: n * mm,
+        });
         if change < o.tolerance {
             return Ok(PublicSolution {
                 market: m,

@@ -187,6 +187,24 @@ pub fn plant_with<E: Fn(f64) -> (f64, f64, f64)>(
     guess: f64,
     expect: &E,
 ) -> (f64, f64) {
+    plant_accepting(m, guess, expect, 0.0)
+}
+
+/// [`plant_with`] that also stops after a Newton step shorter than `accept` × Q\* from the guess,
+/// without evaluating the expectation again: E[P'] at the new q is then the first-order
+/// value E + (dE/dq)·Δq. Inside an iteration warm-started from the last planting the step shrinks
+/// with the change of the rules, and at the fixed point (q no longer moves) q − S(E) = 0 and E[P']
+/// is the integrated one, so the errors vanish with the change: of order Δq² where dE/dq is exact,
+/// of order Δq where next season's price jumps (the target rule: dE/dq misses the jumps; on the
+/// demo the rules then agree with the full solve to 5e-12, with one more iteration). Most points
+/// take one evaluation instead of two. Only when the producer price is the market price at every
+/// node (no planting floor binding): otherwise the full solve.
+pub fn plant_accepting<E: Fn(f64) -> (f64, f64, f64)>(
+    m: &StorageMarket,
+    guess: f64,
+    expect: &E,
+    accept: f64,
+) -> (f64, f64) {
     let scale = m.q_star.max(1e-12);
     let (mut lo, mut hi) = (0.0_f64, f64::INFINITY);
     let mut q = if guess.is_finite() && guess > 0.0 {
@@ -216,6 +234,8 @@ pub fn plant_with<E: Fn(f64) -> (f64, f64, f64)>(
             } else {
                 2.0 * q + scale
             };
+        } else if (next_q - q).abs() <= accept * scale && ep == e {
+            return (next_q, e + de * (next_q - q));
         }
         if (next_q - q).abs() <= 1e-15 * scale {
             return (next_q, psi);
@@ -466,6 +486,12 @@ fn iterate(
             PriceRule::no_storage()
         };
         breaks = rule_breaks(&m, &rule, hi);
+        super::progress::report(super::progress::ProgressEvent::Iteration {
+            iteration: it,
+            change,
+            tolerance: o.tolerance,
+            points: n,
+        });
         if change < o.tolerance {
             return Ok(PrivateSolution {
                 market: m,
