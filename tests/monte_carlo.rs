@@ -284,7 +284,7 @@ fn the_storage_model_steps_on_the_shocks_it_is_handed() {
         &NoProgress,
     )
     .unwrap();
-    let mut sums = vec![0.0; 15];
+    let mut sums = [0.0; 15];
     let mut shocks = vec![furrow::engine::PeriodShock::NONE; 15];
     for rep in 0..70 {
         let own = solved.records(rep as u64, 15);

@@ -6,7 +6,7 @@ use std::path::PathBuf;
 use anyhow::Context;
 use clap::Args;
 use furrow::output::{write_whole, Format};
-use furrow::path::PathError;
+use furrow::path::RunError;
 use furrow::scenario::{self, PolicySpec, Scenario};
 use furrow::stochastic::{NoProgress, Progress};
 use indicatif::{ProgressBar, ProgressStyle};
@@ -190,12 +190,12 @@ pub fn say(msg: &str) {
 
 /// The library's error of a path or a Monte Carlo run as the error itself (so that the exit code and
 /// the message are those of the divergence, the failed replication or the failed solve).
-pub fn lift(e: PathError) -> anyhow::Error {
+pub fn lift(e: RunError) -> anyhow::Error {
     match e {
-        PathError::Diverged(d) => d.into(),
-        PathError::Failed(f) => f.into(),
-        PathError::Storage(s) => s.into(),
-        PathError::Write(w) => w.into(),
+        RunError::Diverged(d) => d.into(),
+        RunError::Failed(f) => f.into(),
+        RunError::Storage(s) => s.into(),
+        RunError::Write(w) => w.into(),
     }
 }
 

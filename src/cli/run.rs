@@ -3,7 +3,7 @@
 use anyhow::Context;
 use clap::Args;
 use furrow::output::{write_streamed, Format};
-use furrow::path::{self, Divergence, PathError, PathStream};
+use furrow::path::{self, Divergence, PathStream, RunError};
 use furrow::policies::{diagnose, diagnose_tally, summarise};
 
 use super::common::{check_memory, lift, load_policy, progress_for, say, CommonArgs};
@@ -82,7 +82,7 @@ pub fn execute(args: &RunArgs) -> anyhow::Result<()> {
         });
         match walked {
             Ok(t) => tally = Some(t),
-            Err(PathError::Write(e)) => return Err(e),
+            Err(RunError::Write(e)) => return Err(e),
             Err(e) => {
                 failure = Some(lift(e));
                 return Err(std::io::Error::other("the run failed"));

@@ -68,7 +68,7 @@ pub fn with_models<W: WithModels>(
 
 /// Why a path or a Monte Carlo run stopped.
 #[derive(Debug, thiserror::Error)]
-pub enum PathError {
+pub enum RunError {
     /// The single path diverged.
     #[error("{0}")]
     Diverged(Diverged),
@@ -95,7 +95,7 @@ pub enum Divergence {
 
 /// The single path of `scenario` under `policy` (replication 0's shocks, or none for a market
 /// without shocks), whole.
-pub fn one_path(scenario: &Scenario, policy: &PolicySpec) -> Result<Vec<PeriodRecord>, PathError> {
+pub fn one_path(scenario: &Scenario, policy: &PolicySpec) -> Result<Vec<PeriodRecord>, RunError> {
     let mut records = Vec::with_capacity(scenario.run.periods.min(1 << 20));
     stream_path(scenario, policy, Divergence::AsItComes, |r| {
         records.push(*r);
@@ -112,14 +112,14 @@ pub fn stream_path(
     policy: &PolicySpec,
     divergence: Divergence,
     row: impl FnMut(&PeriodRecord) -> std::io::Result<()>,
-) -> Result<PathTally, PathError> {
-    struct Walk<'s, F> {
+) -> Result<PathTally, RunError> {
+    struct OnePath<'s, F> {
         scenario: &'s Scenario,
         divergence: Divergence,
         row: F,
     }
-    impl<F: FnMut(&PeriodRecord) -> std::io::Result<()>> WithModels for Walk<'_, F> {
-        type Output = Result<PathTally, PathError>;
+    impl<F: FnMut(&PeriodRecord) -> std::io::Result<()>> WithModels for OnePath<'_, F> {
+        type Output = Result<PathTally, RunError>;
         fn with<M: LongRunModel>(mut self, models: &[M]) -> Self::Output {
             let model = &models[0];
             if self.divergence == Divergence::CheckFirst {
@@ -128,12 +128,12 @@ pub fn stream_path(
             walk(model, self.scenario, &mut self.row)
         }
     }
-    let user = Walk {
+    let user = OnePath {
         scenario,
         divergence,
         row,
     };
-    with_models(scenario, std::slice::from_ref(policy), user).map_err(PathError::Storage)?
+    with_models(scenario, std::slice::from_ref(policy), user).map_err(RunError::Storage)?
 }
 
 /// Walks one path of `model` on the single-path shocks (replication 0's stream, drawn as the
@@ -142,7 +142,7 @@ pub fn walk<M: PathModel>(
     model: &M,
     scenario: &Scenario,
     mut row: impl FnMut(&PeriodRecord) -> std::io::Result<()>,
-) -> Result<PathTally, PathError> {
+) -> Result<PathTally, RunError> {
     let mut stream = (!scenario.shocks.is_deterministic())
         .then(|| ShockStream::new(&scenario.shocks, scenario.run.seed, 0));
     let mut stepper = model.start();
@@ -151,9 +151,9 @@ pub fn walk<M: PathModel>(
         let shock = stream
             .as_mut()
             .map_or(PeriodShock::NONE, |s| s.next_shock());
-        let r = stepper.step(&shock).map_err(PathError::Diverged)?;
+        let r = stepper.step(&shock).map_err(RunError::Diverged)?;
         tally.add(&r);
-        row(&r).map_err(PathError::Write)?;
+        row(&r).map_err(RunError::Write)?;
     }
     Ok(tally)
 }

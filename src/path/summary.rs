@@ -1,7 +1,7 @@
 //! `run` with replications > 1: per-period mean and 5/50/95 % quantiles (Hyndman–Fan type 7)
 //! across replications of the price, producer price, harvest and stock, for one policy.
 
-use super::{with_models, LongRunModel, PathError, WithModels};
+use super::{with_models, LongRunModel, RunError, WithModels};
 use crate::output::{fmt_full, fmt_num, Format, TextTable};
 use crate::scenario::{PolicySpec, Scenario};
 use crate::stochastic::{run_models, MonteCarlo, PathVariable, PolicyRuns, Progress};
@@ -35,14 +35,14 @@ pub fn run_summary(
     scenario: &Scenario,
     policy: &PolicySpec,
     progress: &dyn Progress,
-) -> Result<MonteCarlo, PathError> {
-    struct Summary<'a> {
+) -> Result<MonteCarlo, RunError> {
+    struct SummaryRun<'a> {
         scenario: &'a Scenario,
         policy: &'a PolicySpec,
         progress: &'a dyn Progress,
     }
-    impl WithModels for Summary<'_> {
-        type Output = Result<MonteCarlo, PathError>;
+    impl WithModels for SummaryRun<'_> {
+        type Output = Result<MonteCarlo, RunError>;
         fn with<M: LongRunModel>(self, models: &[M]) -> Self::Output {
             run_models(
                 self.scenario,
@@ -51,15 +51,15 @@ pub fn run_summary(
                 &SUMMARY_VARIABLES,
                 self.progress,
             )
-            .map_err(PathError::Failed)
+            .map_err(RunError::Failed)
         }
     }
-    let user = Summary {
+    let user = SummaryRun {
         scenario,
         policy,
         progress,
     };
-    with_models(scenario, std::slice::from_ref(policy), user).map_err(PathError::Storage)?
+    with_models(scenario, std::slice::from_ref(policy), user).map_err(RunError::Storage)?
 }
 
 /// The summary's table (the first policy of `mc`) in `format`: one row per period, the mean and

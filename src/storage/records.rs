@@ -7,7 +7,7 @@
 //! the shocks it is handed (the same shocks every model of the replication gets).
 
 use super::agency::{Regime, StoragePlan};
-use super::simulate::{StoragePeriod, Walk};
+use super::simulate::{SolvedPath, StoragePeriod};
 use crate::engine::{Diverged, PathModel, PeriodRecord, PeriodShock, Settled, Stepper};
 use crate::policies::{flags, Agency};
 use crate::scenario::{PolicySpec, Scenario};
@@ -173,7 +173,7 @@ impl SolvedStorage {
 /// A path of a [`SolvedStorage`] stepped on the shocks it is handed.
 #[derive(Debug, Clone)]
 pub struct StorageStepper<'a> {
-    walk: Walk<'a>,
+    walk: SolvedPath<'a>,
     books: &'a Books,
     previous: f64,
 }
@@ -195,7 +195,7 @@ impl PathModel for SolvedStorage {
 
     fn start(&self) -> StorageStepper<'_> {
         StorageStepper {
-            walk: Walk::new(&self.equilibrium, self.initial_public),
+            walk: SolvedPath::new(&self.equilibrium, self.initial_public),
             books: &self.books,
             previous: self.books.agency.initial,
         }

@@ -249,7 +249,7 @@ pub struct StoragePeriod {
 /// A path under the solved rules, one period at a time: the state is the private and public stock
 /// carried out and the planting (and the price it was planted on) for the next harvest.
 #[derive(Debug, Clone)]
-pub struct Walk<'a> {
+pub struct SolvedPath<'a> {
     eq: &'a Equilibrium,
     x: f64,
     public: f64,
@@ -258,12 +258,12 @@ pub struct Walk<'a> {
     period: usize,
 }
 
-impl<'a> Walk<'a> {
+impl<'a> SolvedPath<'a> {
     /// A path at period 0 with no private stock and `initial_public` public stock held before
     /// period 1.
-    pub fn new(eq: &'a Equilibrium, initial_public: f64) -> Walk<'a> {
+    pub fn new(eq: &'a Equilibrium, initial_public: f64) -> SolvedPath<'a> {
         let (planted, expected) = eq.plant_and_expect(0.0, initial_public);
-        Walk {
+        SolvedPath {
             eq,
             x: 0.0,
             public: initial_public,
@@ -321,7 +321,7 @@ pub fn simulate(
     periods: usize,
 ) -> Vec<StoragePeriod> {
     let mut stream = ShockStream::new(shocks, seed, replication);
-    let mut walk = Walk::new(eq, initial_public);
+    let mut walk = SolvedPath::new(eq, initial_public);
     (0..periods)
         .map(|_| walk.step(&stream.next_shock()))
         .collect()
