@@ -1,9 +1,11 @@
 //! Timing of the storage solvers (issue 14's targets): the one-state solve on 200 points to 1e-9 and
-//! the whole no-policy solve with grid coverage and the residual check (target < 50 ms), and the
-//! two-state solve with a band reserve (target < 300 ms).
+//! the whole no-policy solve with grid coverage and the residual check (target < 50 ms), the
+//! two-state solve with a band reserve, alone and as `storage::solve` runs it for the demo's
+//! `policies/price_band.toml` with grid coverage and the residual check (target < 300 ms), and the
+//! whole solve of `policies/target_reserve.toml` with its refinement (target < 1 s).
 
 use criterion::{criterion_group, criterion_main, Criterion};
-use furrow::scenario::{load_market, parse_toml, policy_from_table};
+use furrow::scenario::{load_market, load_policy, parse_toml, policy_from_table};
 use furrow::storage::{self, public_solve, solve_private, SolveOptions, StorageMarket};
 
 fn bench(c: &mut Criterion) {
@@ -36,6 +38,14 @@ fn bench(c: &mut Criterion) {
             let m = StorageMarket::new(&s, o.nodes).unwrap();
             public_solve::solve_public(m, band, &o).unwrap()
         })
+    });
+    let band_file = load_policy("policies/price_band.toml").expect("demo policy");
+    g.bench_function("band_demo_full_solve_with_cover_and_residual", |b| {
+        b.iter(|| storage::solve(&s, &band_file, &o).unwrap())
+    });
+    let target_file = load_policy("policies/target_reserve.toml").expect("demo policy");
+    g.bench_function("target_demo_full_solve_with_refinement", |b| {
+        b.iter(|| storage::solve(&s, &target_file, &o).unwrap())
     });
     g.finish();
 }

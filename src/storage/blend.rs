@@ -103,9 +103,19 @@ impl Blend {
         let kink = if cnt == 1 {
             f64::NAN
         } else {
-            match stockout_price(publics, rows, g) {
-                Some(p0) => m.demand.quantity(p0),
-                None => f64::NAN,
+            // the blended stockout price, as [`stockout_price`] computes it (same weights)
+            let mut p0 = 0.0;
+            let mut all = true;
+            for i in 0..cnt {
+                match rows[start + i].spline.as_ref() {
+                    Some(s) => p0 += w[i] * s.values()[0],
+                    None => all = false,
+                }
+            }
+            if all {
+                m.demand.quantity(p0)
+            } else {
+                f64::NAN
             }
         };
         Blend {

@@ -7,7 +7,7 @@ use super::interp::Monotone;
 use super::market::StorageMarket;
 use super::next_price::NextPrice;
 use super::public::{reach, Band, PublicSolution};
-use super::solve::{plant_accepting, PriceRule, SolveOptions};
+use super::solve::{plant_accepting, PriceRule, SolveOptions, PLANT_ACCEPT};
 use super::StorageError;
 
 /// Solves the two-state equilibrium on `o.grid_2d` private-stock points × `o.public_grid`
@@ -247,12 +247,6 @@ fn halve(v: &[f64], split: &[bool]) -> Vec<f64> {
     }
     out
 }
-
-/// Longest planting step (× Q\*) taken without evaluating the expectation again in the two-state
-/// iteration ([`plant_accepting`]): the step is about S'·ΔE[P'], so points take one evaluation
-/// once the rules change by less than about 1e-4 (the last two thirds of the iterations), and the
-/// errors this leaves vanish with the change (common practice, no source).
-pub const PLANT_ACCEPT: f64 = 1e-4;
 
 /// Endogenous-grid iteration to the tolerance; the first expectation uses the rules `start` (on their
 /// own public-stock grid).
