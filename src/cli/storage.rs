@@ -213,7 +213,7 @@ impl SolveProgress for SolveBar {
                 if let Some(b) = st.bar() {
                     b.set_position((100.0 * done) as u64);
                     b.set_message(format!(
-                        "iteration {iteration}, change {change:.1e} of the tolerance {tolerance:.0e} ({points} grid points)"
+                        "iteration {iteration}: change {change:.1e}, tolerance {tolerance:.0e} ({points} grid points)"
                     ));
                 }
             }
