@@ -4,7 +4,7 @@
 use clap::Args;
 use furrow::compare::{compare, render};
 
-use super::common::{check_memory, load_policy, progress_for, say, CommonArgs};
+use super::common::{check_memory, install_progress, load_policy, progress_for, say, CommonArgs};
 use super::figures;
 
 /// Arguments of `compare`.
@@ -31,6 +31,7 @@ fn parse_layout(s: &str) -> Result<render::Layout, String> {
 /// Runs `compare`.
 pub fn execute(args: &CompareArgs) -> anyhow::Result<()> {
     let scenario = args.common.load_market(&args.market)?;
+    install_progress(); // storage solves of a market with storers, after a second
     let policies = args
         .policies
         .iter()

@@ -7,7 +7,7 @@ use furrow::briefing::{self, Overrides};
 use furrow::output::Format;
 use furrow::scenario::{PolicySpec, Scenario};
 
-use super::common::{check_memory, columns, progress_for, say, CommonArgs};
+use super::common::{check_memory, columns, install_progress, progress_for, say, CommonArgs};
 use super::figures;
 
 /// Arguments of `report`.
@@ -34,6 +34,7 @@ pub fn execute(args: &ReportArgs) -> anyhow::Result<()> {
         );
     }
     let scenario = args.common.load_market(&args.market)?;
+    install_progress(); // storage solves of a market with storers, after a second
     let cols = columns(&args.policies, &scenario)?;
     let result = run_compare(&scenario, &cols)?;
     let built = briefing::build(&briefing::Request {

@@ -1,18 +1,11 @@
 //! `furrow storage MARKET [--policy POLICY]`: the competitive storage equilibrium with private storers
 //! (and the public stock rule when the policy holds one), printed on a grid of availability.
 
-use std::io::IsTerminal;
-use std::sync::{Arc, Mutex};
-use std::time::{Duration, Instant};
-
 use clap::Args;
 use furrow::output::{fmt_num, Format, TextTable};
-use furrow::storage::{
-    self, ProgressEvent, SolveOptions, SolveProgress, Stage, StoragePeriod, StorageReport,
-};
-use indicatif::{ProgressBar, ProgressStyle};
+use furrow::storage::{self, SolveOptions, StoragePeriod, StorageReport};
 
-use super::common::{load_policy, say, CommonArgs};
+use super::common::{install_progress, load_policy, say, CommonArgs};
 
 /// Arguments of `storage`.
 #[derive(Debug, Args)]
@@ -162,97 +155,4 @@ fn render(r: &StorageReport, format: Format) -> String {
     }
     out.push_str(&t.render(format));
     out
-}
-
-/// How long storage solves run before the bar appears.
-const BAR_AFTER: Duration = Duration::from_secs(1);
-
-/// Draws the progress of storage solves on stderr (when it is a terminal) once they have run
-/// [`BAR_AFTER`]: how far the current iteration is from the tolerance (on a log scale, as the
-/// change falls about geometrically), the iteration and the stage. Solves that overlap (`compare`
-/// solves its policies in parallel) share the bar, which clears when the last one ends.
-struct SolveBar(Mutex<BarState>);
-
-#[derive(Default)]
-struct BarState {
-    since: Option<Instant>,
-    running: usize,
-    bar: Option<ProgressBar>,
-}
-
-impl SolveProgress for SolveBar {
-    fn event(&self, event: ProgressEvent) {
-        let Ok(mut st) = self.0.lock() else {
-            return;
-        };
-        match event {
-            ProgressEvent::Started { .. } => {
-                st.running += 1;
-                st.since.get_or_insert_with(Instant::now);
-            }
-            ProgressEvent::Finished => {
-                st.running = st.running.saturating_sub(1);
-                if st.running == 0 {
-                    if let Some(b) = st.bar.take() {
-                        b.finish_and_clear();
-                    }
-                    st.since = None;
-                }
-            }
-            ProgressEvent::Iteration {
-                iteration,
-                change,
-                tolerance,
-                points,
-            } => {
-                let done = if change.is_finite() && change > 0.0 {
-                    (change.ln() / tolerance.ln()).clamp(0.0, 1.0)
-                } else {
-                    0.0
-                };
-                if let Some(b) = st.bar() {
-                    b.set_position((100.0 * done) as u64);
-                    b.set_message(format!(
-                        "iteration {iteration}: change {change:.1e}, tolerance {tolerance:.0e} ({points} grid points)"
-                    ));
-                }
-            }
-            ProgressEvent::Stage(stage) => {
-                let what = match stage {
-                    Stage::Refining => "refining the grid where the residual is too large",
-                    Stage::Covering => "extending the grid over the simulated path",
-                    Stage::Checking => "checking the Euler residual over the simulated path",
-                };
-                if let Some(b) = st.bar() {
-                    b.set_message(what);
-                }
-            }
-        }
-    }
-}
-
-impl BarState {
-    /// The bar, drawn once the solves have run long enough.
-    fn bar(&mut self) -> Option<&ProgressBar> {
-        let since = self.since?;
-        if self.bar.is_none() && since.elapsed() >= BAR_AFTER {
-            let b = ProgressBar::new(100);
-            if let Ok(style) =
-                ProgressStyle::with_template("furrow: storage equilibrium {bar:30} {msg}")
-            {
-                b.set_style(style);
-            }
-            self.bar = Some(b);
-        }
-        self.bar.as_ref()
-    }
-}
-
-/// Installs the storage solves' progress bar for this process when stderr is a terminal (any
-/// command that solves storage equilibria may call it; nothing is drawn for solves under a
-/// second).
-pub fn install_progress() {
-    if std::io::stderr().is_terminal() {
-        storage::set_progress(Some(Arc::new(SolveBar(Mutex::new(BarState::default())))));
-    }
 }
