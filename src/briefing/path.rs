@@ -3,9 +3,9 @@
 //! million seasons therefore costs a few kilobytes here, whatever `periods` is; the full data stay
 //! in `run`'s CSV and JSON.
 
-use crate::engine::{Diverged, Model, PeriodRecord, PeriodShock};
+use crate::engine::{Diverged, PeriodRecord};
+use crate::path::{Divergence, RunError};
 use crate::scenario::{PolicySpec, Scenario};
-use crate::stochastic::ShockStream;
 
 /// Pixel columns a thinned series keeps (two points each at most): the figures are 960 px wide.
 pub const COLUMNS: usize = 900;
@@ -179,6 +179,14 @@ pub enum PathError {
         /// The divergence.
         source: Diverged,
     },
+    /// The path could not be run for another reason (writing; not expected of a digest).
+    #[error("the path under “{policy}” failed: {source}")]
+    Run {
+        /// Policy name.
+        policy: String,
+        /// The runner's error.
+        source: RunError,
+    },
     /// The storage equilibrium could not be solved.
     #[error("the path under “{policy}” failed: {source}")]
     Storage {
@@ -193,34 +201,24 @@ pub enum PathError {
 /// simulated: the records are never all held, except that a market with private storers hands its
 /// solved path back whole.
 pub fn digest(scenario: &Scenario, policy: &PolicySpec) -> Result<PathDigest, PathError> {
-    let periods = scenario.run.periods;
-    let mut d = Digester::new(periods);
-    if scenario.storers.is_some() {
-        let recs = crate::storage::storage_records(scenario, policy, 0).map_err(|source| {
-            PathError::Storage {
-                policy: policy.name.clone(),
-                source,
-            }
-        })?;
-        for r in &recs {
-            d.push(r);
+    let mut d = Digester::new(scenario.run.periods);
+    let mut periods = 0;
+    crate::path::stream_path(scenario, policy, Divergence::AsItComes, |r| {
+        d.push(r);
+        periods += 1;
+        Ok(())
+    })
+    .map_err(|e| {
+        let policy = policy.name.clone();
+        match e {
+            RunError::Diverged(source) => PathError::Diverged { policy, source },
+            RunError::Storage(source) => PathError::Storage { policy, source },
+            other => PathError::Run {
+                policy,
+                source: other,
+            },
         }
-        return Ok(d.finish(&policy.name, recs.len()));
-    }
-    let model = Model::new(scenario, policy);
-    let mut sim = model.simulator();
-    let mut shocks = (!scenario.shocks.is_deterministic())
-        .then(|| ShockStream::new(&scenario.shocks, scenario.run.seed, 0));
-    for _ in 0..periods {
-        let shock = shocks
-            .as_mut()
-            .map_or(PeriodShock::NONE, ShockStream::next_shock);
-        let r = sim.step(&shock).map_err(|source| PathError::Diverged {
-            policy: policy.name.clone(),
-            source,
-        })?;
-        d.push(&r);
-    }
+    })?;
     Ok(d.finish(&policy.name, periods))
 }
 
