@@ -15,11 +15,22 @@ pub fn exit_code(err: &(dyn Error + 'static)) -> u8 {
     while let Some(cur) = e {
         if cur.downcast_ref::<crate::engine::Diverged>().is_some()
             || cur.downcast_ref::<RunFailed>().is_some()
-            || crate::storage::run_failure(cur)
+            || storage_run_failure(cur)
         {
             return 1;
         }
         e = cur.source();
     }
     2
+}
+
+/// True when `e` is a storage solve that ran but failed numerically, directly or inside a compare
+/// error (which forwards the solver's error transparently, so the chain does not reach it).
+fn storage_run_failure(e: &(dyn Error + 'static)) -> bool {
+    use crate::compare::CompareError;
+    use crate::storage::StorageError;
+    if let Some(s) = e.downcast_ref::<StorageError>() {
+        return s.is_run_failure();
+    }
+    matches!(e.downcast_ref::<CompareError>(), Some(CompareError::Storage(s)) if s.is_run_failure())
 }

@@ -86,18 +86,6 @@ impl StorageError {
     }
 }
 
-/// True when `e` is a storage solve that ran but failed numerically, directly or inside a compare
-/// error (exit code 1 at the command line).
-pub fn run_failure(e: &(dyn std::error::Error + 'static)) -> bool {
-    if let Some(s) = e.downcast_ref::<StorageError>() {
-        return s.is_run_failure();
-    }
-    matches!(
-        e.downcast_ref::<crate::compare::CompareError>(),
-        Some(crate::compare::CompareError::Storage(s)) if s.is_run_failure()
-    )
-}
-
 fn describe_change(change: f64) -> String {
     if change.is_finite() {
         format!("last change {change:.3e} of the steady-state price")
