@@ -4,13 +4,14 @@
 //! adds itself to a [`StoragePlan`], and [`band_of`] turns the plan into the agency's [`Band`].
 //! Given the state (availability z, public stock g carried in) and the price that would result
 //! from any end-of-period public stock G, pg(G) = P(y = z + g − G, G) (increasing in G), [`decide`]
-//! fixes G as the period engine's rules do: the stock rule decides (`policies::stock::
-//! decide_in_storage`, in the rule's own file: the band, then the target or drawdown rule inside
-//! it; a purchase floor and a ceiling by release set the band's edges), then the purchase budget
-//! cuts what it spends (here). `tests/rules.rs` runs the engine's period
+//! fixes G as the period engine's rules do: the stock's release rule decides
+//! ([`ReleaseInStorage::decide`], in the rule's own file `policies/stock.rs`: the band, then what the
+//! release rule does inside it; a purchase floor and a ceiling by release set the band's edges), then
+//! the purchase budget cuts what it spends (here). Nothing here names a release rule. `tests/rules.rs` runs the engine's period
 //! decision and this one on the same states and checks they agree.
 
 use super::StorageError;
+pub use crate::policies::stock::Release;
 use crate::scenario::PolicySpec;
 
 /// What the `[stock]` rule contributes to the storage model.
@@ -102,7 +103,7 @@ pub fn band_of(policy: &PolicySpec) -> Result<Option<Band>, StorageError> {
             sell_above: f64::INFINITY,
             capacity: f64::INFINITY,
             keep: 1.0,
-            release: Release::Band,
+            release: Release::band_only(),
             budget: f64::INFINITY,
         }),
         // a store that holds nothing never trades
@@ -138,7 +139,7 @@ pub fn band_of(policy: &PolicySpec) -> Result<Option<Band>, StorageError> {
              storage model needs the selling edge above the buying one",
         ));
     }
-    if band.release != Release::Band {
+    if band.release.trades_inside_band() {
         return Err(unsupported(
             "ceiling.price",
             "a ceiling below stock.sell_above with release = \"target\" or \"drawdown\" is not \
@@ -150,15 +151,34 @@ pub fn band_of(policy: &PolicySpec) -> Result<Option<Band>, StorageError> {
     Ok(Some(band))
 }
 
-/// Release rule of the public stock.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub enum Release {
-    /// Only the band.
-    Band,
-    /// Steer the stock toward `target` at `speed` inside the band.
-    Target { target: f64, speed: f64 },
-    /// Release `share` of the carried stock each period (rotation).
-    Share { share: f64 },
+/// What the storage model needs of the stock's release rule, implemented in the rule's own file
+/// (`policies::stock`): nothing in `storage` names a release rule or matches on which one it is.
+pub trait ReleaseInStorage: Copy {
+    /// The release that only defends the band (a purchase floor's store without a `[stock]`).
+    fn band_only() -> Self;
+    /// The rule's decision when it carries in `g`, given the price (and dP/dz) `pg(G)` at
+    /// end-of-period public stock G, before the purchase budget's cut ([`decide`]): the price,
+    /// dP/dz, the regime and the decision.
+    fn decide<F: Fn(f64) -> (f64, f64)>(
+        &self,
+        band: &Band,
+        g: f64,
+        pg: &F,
+    ) -> (f64, f64, Regime, Decision);
+    /// The end-of-period public stock the rule trades to inside the band when it carries in `g`,
+    /// besides g, the capacity and 0 (a point where next season's price may bend), if any.
+    fn inner_stock(&self, g: f64, capacity: f64) -> Option<f64>;
+    /// The price inside the band (finite `sell_above`) where the rule changes what it does (a
+    /// breakpoint of next season's price), if any.
+    fn inner_price(&self, band: &Band) -> Option<f64>;
+    /// The carried-in public stock where the rule's decision bends as a function of it (the solver
+    /// puts it on the public-stock grid twice), if any; `keep` is 1 − the loss rate.
+    fn bend(&self, keep: f64) -> Option<f64>;
+    /// Whether its kinks lie on curves across the public-stock levels, so that the two-state solve
+    /// refines its grids where the residual exceeds the 2-D target.
+    fn refines_levels(&self) -> bool;
+    /// Whether it trades inside the band (a ceiling below `sell_above` is then not covered).
+    fn trades_inside_band(&self) -> bool;
 }
 
 /// The agency's rule as the storage model sees it.
@@ -221,7 +241,7 @@ pub fn decide<F: Fn(f64) -> (f64, f64)>(
     pg: &F,
 ) -> (f64, f64, Regime, Decision) {
     // the stock rule decides (with the edges a purchase floor and a ceiling set), in its own file
-    let out = crate::policies::stock::decide_in_storage(band, g, pg);
+    let out = band.release.decide(band, g, pg);
     if band.budget.is_finite() {
         if let Some((lo, hi)) = budget_bracket(band.budget, g, out.0, out.3, pg) {
             return spend_budget(band.budget, g, lo, hi, pg);

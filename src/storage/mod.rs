@@ -36,7 +36,7 @@ pub use simulate::{simulate, Equilibrium, StorageIndicators, StoragePeriod};
 pub use solve::{solve_private, PriceRule, PrivateSolution, SolveOptions};
 
 use crate::scenario::{PolicySpec, Scenario};
-use agency::Band;
+use agency::{Band, ReleaseInStorage};
 
 /// Why the storage equilibrium could not be solved.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -224,7 +224,7 @@ fn solve_reporting(
         }
         Some(band) if band.capacity.is_finite() => {
             let sol = public_solve::solve_public(m, band, options)?;
-            Equilibrium::Public(if matches!(band.release, agency::Release::Target { .. }) {
+            Equilibrium::Public(if band.release.refines_levels() {
                 // the target rule's kinks lie on curves across the public-stock levels: refine
                 // where the residual exceeds the 2-D target (demo: 16 to 32 levels, 1.2e-5 to 9e-7)
                 let stop = public_solve::RefineStop {
