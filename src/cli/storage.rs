@@ -8,7 +8,7 @@ use std::time::{Duration, Instant};
 use clap::Args;
 use furrow::output::{fmt_num, Format, TextTable};
 use furrow::storage::{
-    self, ProgressEvent, SolveOptions, SolveProgress, Stage, StoragePeriod, StorageReport,
+    self, ProgressEvent, SolveOptions, SolveProgress, Stage, StoragePeriod, StorageSummary,
 };
 use indicatif::{ProgressBar, ProgressStyle};
 
@@ -73,7 +73,7 @@ pub fn execute(args: &StorageArgs) -> anyhow::Result<()> {
         let path = solved.path(0, scenario.run.periods);
         return args.common.emit(&render_path(&path, args.common.format));
     }
-    let report = storage::report(&scenario, &policy, &options, args.rows)?;
+    let report = storage::summary(&scenario, &policy, &options, args.rows)?;
     say(&format!(
         "solved in {} iterations; largest Euler residual {:.2e}; private stocks are zero above {} {}",
         report.iterations,
@@ -126,7 +126,7 @@ fn render_path(path: &[StoragePeriod], format: Format) -> String {
     t.render(format)
 }
 
-fn render(r: &StorageReport, format: Format) -> String {
+fn render(r: &StorageSummary, format: Format) -> String {
     if format == Format::Json {
         return serde_json::to_string_pretty(r).unwrap_or_default() + "\n";
     }

@@ -15,7 +15,7 @@ use crate::scenario::{InputError, Scenario};
 use crate::stability::regimes::{RegimeCase, Regimes};
 use crate::stability::StabilityError;
 use crate::stability::{RegimePrice, StateMap};
-use crate::storage::agency::{Band, Decision, Regime, ReleaseInStorage, StockPlan, StoragePlan};
+use crate::storage::agency::{AgencyMode, Band, Decision, ReleaseInStorage, StoragePlan};
 
 const fn num(name: &'static str, range: crate::scenario::ranges::KeyRange) -> Key {
     Key {
@@ -342,7 +342,7 @@ impl Rule for Stock {
     }
 
     fn storage(&self, plan: &mut StoragePlan) -> Result<(), String> {
-        plan.stock = Some(StockPlan {
+        plan.stock = Some(Band {
             buy_below: self.buy_below,
             sell_above: self.sell_above,
             capacity: self.capacity,
@@ -569,22 +569,22 @@ impl ReleaseInStorage for Release {
         band: &Band,
         g: f64,
         pg: &F,
-    ) -> (f64, f64, Regime, Decision) {
-        let fixed = |gg: f64, regime: Regime| {
+    ) -> (f64, f64, AgencyMode, Decision) {
+        let fixed = |gg: f64, mode: AgencyMode| {
             let (p, d) = pg(gg);
-            (p, d, regime, Decision::Stock(gg))
+            (p, d, mode, Decision::Stock(gg))
         };
-        let held = |price: f64, lo: f64, hi: f64, regime: Regime| {
-            (price, 0.0, regime, Decision::AtPrice { price, lo, hi })
+        let held = |price: f64, lo: f64, hi: f64, mode: AgencyMode| {
+            (price, 0.0, mode, Decision::AtPrice { price, lo, hi })
         };
         let (p, d) = pg(g);
         let cap = band.capacity;
         if p < band.buy_below {
             let (pc, _) = pg(cap);
             return if pc < band.buy_below {
-                fixed(cap, Regime::Full)
+                fixed(cap, AgencyMode::Full)
             } else {
-                held(band.buy_below, g, cap, Regime::Buying)
+                held(band.buy_below, g, cap, AgencyMode::Buying)
             };
         }
         match *self {
@@ -593,12 +593,14 @@ impl ReleaseInStorage for Release {
             {
                 let (p0, _) = pg(0.0);
                 if p0 > band.sell_above {
-                    fixed(0.0, Regime::Empty)
+                    fixed(0.0, AgencyMode::Empty)
                 } else {
-                    held(band.sell_above, 0.0, g, Regime::Selling)
+                    held(band.sell_above, 0.0, g, AgencyMode::Selling)
                 }
             }
-            Release::Band | Release::Rotate { .. } => (p, d, Regime::Inside, Decision::Stock(g)),
+            Release::Band | Release::Rotate { .. } => {
+                (p, d, AgencyMode::Inside, Decision::Stock(g))
+            }
             Release::Target { target, speed } => {
                 let middle = if band.sell_above.is_finite() {
                     0.5 * (band.buy_below + band.sell_above)
@@ -609,20 +611,20 @@ impl ReleaseInStorage for Release {
                 if gap > 0.0 && p < middle {
                     let to = (g + gap).min(cap);
                     if pg(to).0 <= middle {
-                        fixed(to, Regime::Steering)
+                        fixed(to, AgencyMode::Steering)
                     } else {
-                        held(middle, g, to, Regime::Steering)
+                        held(middle, g, to, AgencyMode::Steering)
                     }
                 } else if gap < 0.0 && p > middle.min(band.sell_above) {
                     let limit = middle.min(band.sell_above);
                     let to = (g + gap).max(0.0);
                     if pg(to).0 >= limit {
-                        fixed(to, Regime::Steering)
+                        fixed(to, AgencyMode::Steering)
                     } else {
-                        held(limit, to, g, Regime::Steering)
+                        held(limit, to, g, AgencyMode::Steering)
                     }
                 } else {
-                    (p, d, Regime::Inside, Decision::Stock(g))
+                    (p, d, AgencyMode::Inside, Decision::Stock(g))
                 }
             }
             Release::Share { share } => {
@@ -630,20 +632,20 @@ impl ReleaseInStorage for Release {
                 if p > band.sell_above {
                     let (p0, _) = pg(0.0);
                     if p0 > band.sell_above {
-                        return fixed(0.0, Regime::Empty);
+                        return fixed(0.0, AgencyMode::Empty);
                     }
                     if pg(to).0 >= band.sell_above {
                         // the band's sale already releases at least the share
-                        return held(band.sell_above, 0.0, g, Regime::Selling);
+                        return held(band.sell_above, 0.0, g, AgencyMode::Selling);
                     }
                 }
                 if to >= g {
-                    return (p, d, Regime::Inside, Decision::Stock(g));
+                    return (p, d, AgencyMode::Inside, Decision::Stock(g));
                 }
                 if pg(to).0 >= band.buy_below {
-                    fixed(to, Regime::Rotating)
+                    fixed(to, AgencyMode::Rotating)
                 } else {
-                    held(band.buy_below, to, g, Regime::Rotating)
+                    held(band.buy_below, to, g, AgencyMode::Rotating)
                 }
             }
         }

@@ -31,7 +31,7 @@ pub use market::{Node, StorageMarket};
 pub use policy::{band_of, payment_floor, planting_floor};
 pub use progress::{set_progress, ProgressEvent, SolveProgress, Stage};
 pub use records::SolvedStorage;
-pub use report::{report, StorageReport};
+pub use report::{summary, StorageSummary};
 pub use simulate::{simulate, Equilibrium, StorageIndicators, StoragePeriod};
 pub use solve::{solve_private, PriceRule, PrivateSolution, SolveOptions};
 
@@ -303,7 +303,9 @@ pub fn initial_public(policy: &PolicySpec) -> Result<f64, StorageError> {
 /// true when a purchase budget binds somewhere on that path.
 fn set_reach(eq: &mut Equilibrium, scenario: &Scenario, initial: f64) -> bool {
     let path = indicator_path(eq, scenario, initial);
-    let bound = path.iter().any(|r| r.regime == agency::Regime::BudgetBound);
+    let bound = path
+        .iter()
+        .any(|r| r.mode == agency::AgencyMode::BudgetBound);
     match eq {
         Equilibrium::Private(s) => {
             let b = path_box(&path, 1.0, initial);
@@ -432,7 +434,7 @@ fn solve_unlimited(
 /// Long-run means of one solved equilibrium: one path on the market file's shocks (its seed,
 /// replication 0, [`simulate::BURN_IN`] periods dropped, [`simulate::INDICATOR_PERIODS`] averaged),
 /// starting with no private stock and the policy's initial public stock.
-pub fn long_run(solved: &SolvedStorage) -> LongRun {
+pub fn long_run(solved: &SolvedStorage) -> LongRunMeans {
     long_run_of(
         &solved.equilibrium,
         solved.scenario(),
@@ -453,11 +455,11 @@ fn indicator_path(eq: &Equilibrium, scenario: &Scenario, initial: f64) -> Vec<St
     )
 }
 
-fn long_run_of(eq: &Equilibrium, scenario: &Scenario, initial: f64) -> LongRun {
+fn long_run_of(eq: &Equilibrium, scenario: &Scenario, initial: f64) -> LongRunMeans {
     let path = indicator_path(eq, scenario, initial);
     let [mean_price, price_sd, mean_harvest, private_stock, public_stock, private_stockout_share, stockout_share, mean_producer_price, deficiency_payments] =
         simulate::moments(&path[simulate::BURN_IN..]);
-    LongRun {
+    LongRunMeans {
         mean_price,
         price_sd,
         mean_harvest,
@@ -472,7 +474,7 @@ fn long_run_of(eq: &Equilibrium, scenario: &Scenario, initial: f64) -> LongRun {
 
 /// Means over one long simulated path of a solved equilibrium ([`long_run`]).
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct LongRun {
+pub struct LongRunMeans {
     /// Mean price.
     pub mean_price: f64,
     /// Standard deviation of the price.
@@ -493,11 +495,11 @@ pub struct LongRun {
     pub deficiency_payments: f64,
 }
 
-impl LongRun {
+impl LongRunMeans {
     /// Crowding-out of private stock by the public one, `self` being the path with the policy and
     /// `without` the same market without it: (mean private stock without − with) / mean public
     /// stock with; `None` when the agency holds (almost) nothing (below 1e-6 × `q_star`).
-    pub fn crowding_out(&self, without: &LongRun, q_star: f64) -> Option<f64> {
+    pub fn crowding_out(&self, without: &LongRunMeans, q_star: f64) -> Option<f64> {
         (self.public_stock > 1e-6 * q_star)
             .then(|| (without.private_stock - self.private_stock) / self.public_stock)
     }
