@@ -3,37 +3,50 @@
 //! the rational expectation of next period's price, and optionally a public buffer stock whose rule
 //! the storers know. See `docs/storage.md` for the model, the method and the assumptions.
 //!
+//! Files, by part (the module paths stay flat, `storage::solve`, `storage::agency`, …):
+//! - `private/`: [`solve`], the one-state equilibrium of the private storers (endogenous grid
+//!   method), whose price rules and planting the two-state solve reuses;
+//! - `public/`: the public stock as a second state — [`public`] (the two-state solution),
+//!   [`public_solve`] (its iteration and refinement), [`agency`] (the agency's rule as the model
+//!   sees it), [`next_price`] (next season's price and its breakpoints), [`blend`] (interpolation
+//!   across public-stock levels);
 //! - [`market`]: curves, carrying terms and the Gauss–Hermite quadrature over next period's shocks;
-//! - [`split`], [`next_price`], [`blend`]: the two-state model's breakpoint-splitting quadrature,
-//!   the breakpoints of next period's price, and the interpolation across public-stock levels;
-//! - [`interp`]: monotone cubic interpolation (Fritsch and Carlson 1980);
-//! - [`solve`]: the one-state equilibrium (endogenous grid method);
-//! - [`check`]: Euler residuals on a dense grid and the printed grid.
+//! - [`split`]: the breakpoint-splitting quadrature every expectation goes through;
+//! - [`check`]: Euler residuals on a dense grid and the printed grid;
+//! - [`simulate`], [`records`]: paths with the solved rules; [`summary`]: what the `storage` verb
+//!   prints; this file: the solve's entry point and the long-run means.
+//!
+//! Monotone cubic interpolation (Fritsch and Carlson 1980) is `crate::numeric::interp`.
 
+#[path = "public/agency.rs"]
 pub mod agency;
+#[path = "public/blend.rs"]
 pub mod blend;
 pub mod check;
-pub mod interp;
 pub mod market;
+#[path = "public/next_price.rs"]
 pub mod next_price;
 pub mod policy;
 pub mod progress;
+#[path = "public/public.rs"]
 pub mod public;
+#[path = "public/public_solve.rs"]
 pub mod public_solve;
 pub mod records;
-pub mod report;
 pub mod simulate;
+#[path = "private/solve.rs"]
 pub mod solve;
 pub mod split;
+pub mod summary;
 
 pub use check::GridRow;
 pub use market::{Node, StorageMarket};
 pub use policy::{band_of, payment_floor, planting_floor};
 pub use progress::{set_progress, ProgressEvent, SolveProgress, Stage};
 pub use records::SolvedStorage;
-pub use report::{summary, StorageSummary};
 pub use simulate::{simulate, Equilibrium, StorageIndicators, StoragePeriod};
 pub use solve::{solve_private, PriceRule, PrivateSolution, SolveOptions};
+pub use summary::{summary, StorageSummary};
 
 use crate::scenario::{PolicySpec, Scenario};
 use agency::{Band, ReleaseInStorage};

@@ -4,12 +4,12 @@
 use rayon::prelude::*;
 
 use super::agency::ReleaseInStorage;
-use super::interp::Monotone;
 use super::market::StorageMarket;
 use super::next_price::NextPrice;
 use super::public::{reach, Band, PublicSolution};
 use super::solve::{plant_accepting, PriceRule, SolveOptions, PLANT_ACCEPT};
 use super::StorageError;
+use crate::numeric::interp::Monotone;
 
 /// Solves the two-state equilibrium on `o.grid_2d` private-stock points × `o.public_grid`
 /// public-stock points (no refinement).
