@@ -32,7 +32,8 @@ fn tiny_risk_markets_solve_to_a_residual_below_1e_minus_6() {
                 o.push(("demand.form", toml::Value::String("linear".into())));
             }
             let s = example_with(&o);
-            let r = storage::report(&s, &PolicySpec::none(), &SolveOptions::default(), 21).unwrap();
+            let r =
+                storage::summary(&s, &PolicySpec::none(), &SolveOptions::default(), 21).unwrap();
             assert!(
                 r.euler_residual_max < 1e-6,
                 "cv {cv}, linear {linear}: residual {:e} after {} iterations",
@@ -79,7 +80,7 @@ fn a_zero_cost_zero_loss_market_keeps_every_simulated_period_on_the_grid() {
         ("storers.storage_cost", toml::Value::Float(0.0)),
         ("storers.loss_rate", toml::Value::Float(0.0)),
     ]);
-    let r = storage::report(&s, &PolicySpec::none(), &SolveOptions::default(), 21).unwrap();
+    let r = storage::summary(&s, &PolicySpec::none(), &SolveOptions::default(), 21).unwrap();
     assert_eq!(r.extrapolated_share, 0.0);
     assert!(r.euler_residual_max < 1e-6, "{:e}", r.euler_residual_max);
     // such a market carries a lot: the long path holds more than a tenth of the steady-state harvest

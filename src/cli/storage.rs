@@ -3,7 +3,7 @@
 
 use clap::Args;
 use furrow::output::{fmt_num, Format, TextTable};
-use furrow::storage::{self, SolveOptions, StoragePeriod, StorageReport};
+use furrow::storage::{self, SolveOptions, StoragePeriod, StorageSummary};
 
 use super::common::{install_progress, load_policy, say, CommonArgs};
 
@@ -66,7 +66,7 @@ pub fn execute(args: &StorageArgs) -> anyhow::Result<()> {
         let path = solved.path(0, scenario.run.periods);
         return args.common.emit(&render_path(&path, args.common.format));
     }
-    let report = storage::report(&scenario, &policy, &options, args.rows)?;
+    let report = storage::summary(&scenario, &policy, &options, args.rows)?;
     say(&format!(
         "solved in {} iterations; largest Euler residual {:.2e}; private stocks are zero above {} {}",
         report.iterations,
@@ -119,7 +119,7 @@ fn render_path(path: &[StoragePeriod], format: Format) -> String {
     t.render(format)
 }
 
-fn render(r: &StorageReport, format: Format) -> String {
+fn render(r: &StorageSummary, format: Format) -> String {
     if format == Format::Json {
         return serde_json::to_string_pretty(r).unwrap_or_default() + "\n";
     }

@@ -48,7 +48,7 @@
 use super::{Indicator, Kind, Value};
 use crate::scenario::{PolicySpec, Scenario, MAX_ALERTS};
 use crate::stochastic::{quantiles, PolicyRuns, ReplicationSummary};
-use crate::storage::LongRun;
+use crate::storage::LongRunMeans;
 use crate::welfare::{crra_premium, risk_premium, WelfarePv};
 
 /// Keys of the alert shares: the first alert price, then the second, …
@@ -418,7 +418,7 @@ pub(super) fn build(
     spec: &PolicySpec,
     runs: &PolicyRuns,
     base: &PolicyRuns,
-    storage: Option<(&LongRun, &LongRun)>,
+    storage: Option<(&LongRunMeans, &LongRunMeans)>,
 ) -> Vec<Indicator> {
     let periods = scenario.run.periods.max(1) as f64;
     let lambda = scenario.run.public_funds_cost;

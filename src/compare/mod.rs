@@ -23,7 +23,7 @@ use crate::scenario::{ExpectationSpec, PolicySpec, Scenario};
 use crate::stochastic::{
     run_models, MonteCarlo, PathVariable, Progress, ReplicationFailed, Summary,
 };
-use crate::storage::LongRun;
+use crate::storage::LongRunMeans;
 
 /// The value of one indicator.
 #[derive(Debug, Clone, PartialEq)]
@@ -217,7 +217,7 @@ struct Simulate<'a> {
 }
 
 impl WithModels for Simulate<'_> {
-    type Output = Result<(MonteCarlo, Vec<Option<LongRun>>), ReplicationFailed>;
+    type Output = Result<(MonteCarlo, Vec<Option<LongRunMeans>>), ReplicationFailed>;
 
     fn with<M: LongRunModel>(self, models: &[M]) -> Self::Output {
         let mc = run_models(

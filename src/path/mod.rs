@@ -15,24 +15,24 @@ use crate::engine::{Diverged, Model, PathModel, PeriodRecord, PeriodShock, Stepp
 use crate::policies::PathTally;
 use crate::scenario::{PolicySpec, Scenario};
 use crate::stochastic::{ReplicationFailed, ShockStream};
-use crate::storage::{LongRun, SolvedStorage, StorageError};
+use crate::storage::{LongRunMeans, SolvedStorage, StorageError};
 
 /// A [`PathModel`] with what `compare` reads off the model itself beyond its paths.
 pub trait LongRunModel: PathModel {
     /// Long-run indicators of the model (one long path after a burn-in) where the model has them
     /// (the storage equilibrium's stocks and crowding-out, [`crate::storage::long_run`]); `None`
     /// for the period engine.
-    fn long_run(&self) -> Option<LongRun>;
+    fn long_run(&self) -> Option<LongRunMeans>;
 }
 
 impl LongRunModel for Model {
-    fn long_run(&self) -> Option<LongRun> {
+    fn long_run(&self) -> Option<LongRunMeans> {
         None
     }
 }
 
 impl LongRunModel for SolvedStorage {
-    fn long_run(&self) -> Option<LongRun> {
+    fn long_run(&self) -> Option<LongRunMeans> {
         Some(crate::storage::long_run(self))
     }
 }

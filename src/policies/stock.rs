@@ -15,9 +15,7 @@ use crate::scenario::{InputError, Scenario};
 use crate::stability::regimes::{RegimeCase, Regimes};
 use crate::stability::StabilityError;
 use crate::stability::{RegimePrice, StateMap};
-use crate::storage::agency::{
-    Band, Decision, Regime, Release as StorageRelease, StockPlan, StoragePlan,
-};
+use crate::storage::agency::{AgencyMode, Band, Decision, ReleaseInStorage, StoragePlan};
 
 const fn num(name: &'static str, range: crate::scenario::ranges::KeyRange) -> Key {
     Key {
@@ -344,17 +342,15 @@ impl Rule for Stock {
     }
 
     fn storage(&self, plan: &mut StoragePlan) -> Result<(), String> {
-        plan.stock = Some(StockPlan {
+        plan.stock = Some(Band {
             buy_below: self.buy_below,
             sell_above: self.sell_above,
             capacity: self.capacity,
             keep: 1.0 - self.loss_rate,
             release: match self.release {
-                Release::Band => StorageRelease::Band,
-                Release::Target { target, speed } => StorageRelease::Target { target, speed },
-                Release::Share { share } => StorageRelease::Share { share },
                 // a rotation nets out in the market: the band's equilibrium (records add its handling)
-                Release::Rotate { .. } => StorageRelease::Band,
+                Release::Rotate { .. } => Release::Band,
+                other => other,
             },
             budget: self.purchase_budget,
         });
@@ -552,93 +548,152 @@ impl Rule for Stock {
     }
 }
 
-/// The `[stock]` rule's decision inside the storage equilibrium, before the purchase budget's cut
-/// (`storage::agency::decide`): the band first (buy to `buy_below` until full, sell to `sell_above`
-/// until empty; a purchase floor and a ceiling by release set these edges), then inside the band the
-/// target rule (trade speed·(target − g), never pushing the price past the band's middle) or the
-/// drawdown rule (release share·g, never pushing the price below `buy_below`), as the period actions
-/// `stock_band.rs`, `stock_target.rs`, `stock_share.rs` do (`tests/rules.rs` checks they agree).
-/// `pg(G)` is the price (and dP/dz) at end-of-period public stock G; returns the price, dP/dz, the
-/// regime and the decision.
-#[inline]
-pub fn decide_in_storage<F: Fn(f64) -> (f64, f64)>(
-    band: &Band,
-    g: f64,
-    pg: &F,
-) -> (f64, f64, Regime, Decision) {
-    let fixed = |gg: f64, regime: Regime| {
-        let (p, d) = pg(gg);
-        (p, d, regime, Decision::Stock(gg))
-    };
-    let held = |price: f64, lo: f64, hi: f64, regime: Regime| {
-        (price, 0.0, regime, Decision::AtPrice { price, lo, hi })
-    };
-    let (p, d) = pg(g);
-    let cap = band.capacity;
-    if p < band.buy_below {
-        let (pc, _) = pg(cap);
-        return if pc < band.buy_below {
-            fixed(cap, Regime::Full)
-        } else {
-            held(band.buy_below, g, cap, Regime::Buying)
-        };
+/// What the storage equilibrium needs of the release rule (`storage::agency::ReleaseInStorage`).
+/// A rotation reaches the storage model as the band (`Rule::storage`); it is treated as the band here too.
+impl ReleaseInStorage for Release {
+    fn band_only() -> Self {
+        Release::Band
     }
-    match band.release {
-        StorageRelease::Band | StorageRelease::Target { .. } if p > band.sell_above => {
-            let (p0, _) = pg(0.0);
-            if p0 > band.sell_above {
-                fixed(0.0, Regime::Empty)
+
+    /// The `[stock]` rule's decision inside the storage equilibrium, before the purchase budget's
+    /// cut (`storage::agency::decide`): the band first (buy to `buy_below` until full, sell to
+    /// `sell_above` until empty; a purchase floor and a ceiling by release set these edges), then
+    /// inside the band the target rule (trade speed·(target − g), never pushing the price past the
+    /// band's middle) or the drawdown rule (release share·g, never pushing the price below
+    /// `buy_below`), as the period actions `stock_band.rs`, `stock_target.rs`, `stock_share.rs` do
+    /// (`tests/rules.rs` checks they agree). `pg(G)` is the price (and dP/dz) at end-of-period
+    /// public stock G; returns the price, dP/dz, the regime and the decision.
+    #[inline]
+    fn decide<F: Fn(f64) -> (f64, f64)>(
+        &self,
+        band: &Band,
+        g: f64,
+        pg: &F,
+    ) -> (f64, f64, AgencyMode, Decision) {
+        let fixed = |gg: f64, mode: AgencyMode| {
+            let (p, d) = pg(gg);
+            (p, d, mode, Decision::Stock(gg))
+        };
+        let held = |price: f64, lo: f64, hi: f64, mode: AgencyMode| {
+            (price, 0.0, mode, Decision::AtPrice { price, lo, hi })
+        };
+        let (p, d) = pg(g);
+        let cap = band.capacity;
+        if p < band.buy_below {
+            let (pc, _) = pg(cap);
+            return if pc < band.buy_below {
+                fixed(cap, AgencyMode::Full)
             } else {
-                held(band.sell_above, 0.0, g, Regime::Selling)
-            }
-        }
-        StorageRelease::Band => (p, d, Regime::Inside, Decision::Stock(g)),
-        StorageRelease::Target { target, speed } => {
-            let middle = if band.sell_above.is_finite() {
-                0.5 * (band.buy_below + band.sell_above)
-            } else {
-                f64::INFINITY
+                held(band.buy_below, g, cap, AgencyMode::Buying)
             };
-            let gap = speed * (target - g);
-            if gap > 0.0 && p < middle {
-                let to = (g + gap).min(cap);
-                if pg(to).0 <= middle {
-                    fixed(to, Regime::Steering)
-                } else {
-                    held(middle, g, to, Regime::Steering)
-                }
-            } else if gap < 0.0 && p > middle.min(band.sell_above) {
-                let limit = middle.min(band.sell_above);
-                let to = (g + gap).max(0.0);
-                if pg(to).0 >= limit {
-                    fixed(to, Regime::Steering)
-                } else {
-                    held(limit, to, g, Regime::Steering)
-                }
-            } else {
-                (p, d, Regime::Inside, Decision::Stock(g))
-            }
         }
-        StorageRelease::Share { share } => {
-            let to = (1.0 - share) * g;
-            if p > band.sell_above {
+        match *self {
+            Release::Band | Release::Rotate { .. } | Release::Target { .. }
+                if p > band.sell_above =>
+            {
                 let (p0, _) = pg(0.0);
                 if p0 > band.sell_above {
-                    return fixed(0.0, Regime::Empty);
-                }
-                if pg(to).0 >= band.sell_above {
-                    // the band's sale already releases at least the share
-                    return held(band.sell_above, 0.0, g, Regime::Selling);
+                    fixed(0.0, AgencyMode::Empty)
+                } else {
+                    held(band.sell_above, 0.0, g, AgencyMode::Selling)
                 }
             }
-            if to >= g {
-                return (p, d, Regime::Inside, Decision::Stock(g));
+            Release::Band | Release::Rotate { .. } => {
+                (p, d, AgencyMode::Inside, Decision::Stock(g))
             }
-            if pg(to).0 >= band.buy_below {
-                fixed(to, Regime::Rotating)
-            } else {
-                held(band.buy_below, to, g, Regime::Rotating)
+            Release::Target { target, speed } => {
+                let middle = if band.sell_above.is_finite() {
+                    0.5 * (band.buy_below + band.sell_above)
+                } else {
+                    f64::INFINITY
+                };
+                let gap = speed * (target - g);
+                if gap > 0.0 && p < middle {
+                    let to = (g + gap).min(cap);
+                    if pg(to).0 <= middle {
+                        fixed(to, AgencyMode::Steering)
+                    } else {
+                        held(middle, g, to, AgencyMode::Steering)
+                    }
+                } else if gap < 0.0 && p > middle.min(band.sell_above) {
+                    let limit = middle.min(band.sell_above);
+                    let to = (g + gap).max(0.0);
+                    if pg(to).0 >= limit {
+                        fixed(to, AgencyMode::Steering)
+                    } else {
+                        held(limit, to, g, AgencyMode::Steering)
+                    }
+                } else {
+                    (p, d, AgencyMode::Inside, Decision::Stock(g))
+                }
+            }
+            Release::Share { share } => {
+                let to = (1.0 - share) * g;
+                if p > band.sell_above {
+                    let (p0, _) = pg(0.0);
+                    if p0 > band.sell_above {
+                        return fixed(0.0, AgencyMode::Empty);
+                    }
+                    if pg(to).0 >= band.sell_above {
+                        // the band's sale already releases at least the share
+                        return held(band.sell_above, 0.0, g, AgencyMode::Selling);
+                    }
+                }
+                if to >= g {
+                    return (p, d, AgencyMode::Inside, Decision::Stock(g));
+                }
+                if pg(to).0 >= band.buy_below {
+                    fixed(to, AgencyMode::Rotating)
+                } else {
+                    held(band.buy_below, to, g, AgencyMode::Rotating)
+                }
             }
         }
+    }
+
+    /// The target rule trades to g + speed·(target − g) within [0, capacity]; the drawdown rule
+    /// releases to (1 − share)·g.
+    fn inner_stock(&self, g: f64, capacity: f64) -> Option<f64> {
+        match *self {
+            Release::Band | Release::Rotate { .. } => None,
+            Release::Target { target, speed } => {
+                let gap = speed * (target - g);
+                Some(if gap > 0.0 {
+                    (g + gap).min(capacity)
+                } else {
+                    (g + gap).max(0.0)
+                })
+            }
+            Release::Share { share } => Some((1.0 - share) * g),
+        }
+    }
+
+    /// The target rule stops at the band's middle.
+    fn inner_price(&self, band: &Band) -> Option<f64> {
+        match *self {
+            Release::Target { .. } if band.sell_above.is_finite() => {
+                Some(0.5 * (band.buy_below + band.sell_above))
+            }
+            _ => None,
+        }
+    }
+
+    /// The target rule switches from restocking to running down where the carried-in stock equals
+    /// the target, G* = target/keep.
+    fn bend(&self, keep: f64) -> Option<f64> {
+        match *self {
+            Release::Target { target, .. } => Some(target / keep),
+            _ => None,
+        }
+    }
+
+    /// The target rule's kinks lie on curves across the public-stock levels.
+    fn refines_levels(&self) -> bool {
+        matches!(self, Release::Target { .. })
+    }
+
+    /// The target and drawdown rules trade inside the band.
+    fn trades_inside_band(&self) -> bool {
+        matches!(self, Release::Target { .. } | Release::Share { .. })
     }
 }

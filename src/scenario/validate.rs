@@ -616,21 +616,29 @@ pub fn policy_from_table(file: &str, table: toml::Table) -> Result<PolicySpec, I
         return Err(missing_policy_section(file, &what));
     }
     // a section header with nothing under it is a file cut short (or a slip), never a silent
-    // default (a rule's required keys say so themselves)
-    for section in ["stock", "expectations"] {
-        if table
-            .get(section)
+    // default: refused here for a rule section its registration would read with every key
+    // defaulted and for [expectations] (a rule with required keys says so itself, in its read)
+    let empty = |name: &str| {
+        table
+            .get(name)
             .and_then(|v| v.as_table())
             .is_some_and(|t| t.is_empty())
-        {
-            return Err(InputError::Missing {
-                file: file.into(),
-                key: format!("[{section}]"),
-                expected: format!(
-                    "the [{section}] section is empty (a cut-short file?): give its keys or remove it"
-                ),
-            });
-        }
+    };
+    let nothing = toml::Table::new();
+    let silent = crate::policies::SECTIONS
+        .iter()
+        .filter(|s| empty(s.name) && (s.read)(&Check { file }, &nothing).is_ok())
+        .map(|s| s.name)
+        .chain(["expectations"].into_iter().filter(|&n| empty(n)))
+        .next();
+    if let Some(section) = silent {
+        return Err(InputError::Missing {
+            file: file.into(),
+            key: format!("[{section}]"),
+            expected: format!(
+                "the [{section}] section is empty (a cut-short file?): give its keys or remove it"
+            ),
+        });
     }
     let c = Check { file };
     let mut rules = Vec::new();

@@ -3,40 +3,57 @@
 //! the rational expectation of next period's price, and optionally a public buffer stock whose rule
 //! the storers know. See `docs/storage.md` for the model, the method and the assumptions.
 //!
+//! Files, by part (the module paths stay flat, `storage::solve`, `storage::agency`, …):
+//! - `private/`: [`solve`], the one-state equilibrium of the private storers (endogenous grid
+//!   method), whose price rules and planting the two-state solve reuses;
+//! - `public/`: the public stock as a second state — [`public`] (the two-state solution),
+//!   [`public_solve`] (its iteration and refinement), [`agency`] (the agency's rule as the model
+//!   sees it), [`next_price`] (next season's price and its breakpoints), [`blend`] (interpolation
+//!   across public-stock levels);
 //! - [`market`]: curves, carrying terms and the Gauss–Hermite quadrature over next period's shocks;
-//! - [`split`], [`next_price`], [`blend`]: the two-state model's breakpoint-splitting quadrature,
-//!   the breakpoints of next period's price, and the interpolation across public-stock levels;
-//! - [`interp`]: monotone cubic interpolation (Fritsch and Carlson 1980);
-//! - [`solve`]: the one-state equilibrium (endogenous grid method);
-//! - [`check`]: Euler residuals on a dense grid and the printed grid.
+//! - [`split`]: the breakpoint-splitting quadrature every expectation goes through;
+//! - [`check`]: Euler residuals on a dense grid and the printed grid;
+//! - [`simulate`], [`records`]: paths with the solved rules; [`summary`]: what the `storage` verb
+//!   prints; `long_run.rs`: the long-run means and the storage indicators; this file: the solve's
+//!   entry point.
+//!
+//! Monotone cubic interpolation (Fritsch and Carlson 1980) is `crate::numeric::interp`.
 
+#[path = "public/agency.rs"]
 pub mod agency;
+#[path = "public/blend.rs"]
 pub mod blend;
 pub mod check;
-pub mod interp;
 pub mod market;
+#[path = "public/next_price.rs"]
 pub mod next_price;
 pub mod policy;
 pub mod progress;
+#[path = "public/public.rs"]
 pub mod public;
+#[path = "public/public_solve.rs"]
 pub mod public_solve;
 pub mod records;
-pub mod report;
 pub mod simulate;
+#[path = "private/solve.rs"]
 pub mod solve;
 pub mod split;
+pub mod summary;
+
+mod long_run;
 
 pub use check::GridRow;
+pub use long_run::{long_run, storage_indicators, LongRunMeans};
 pub use market::{Node, StorageMarket};
 pub use policy::{band_of, payment_floor, planting_floor};
 pub use progress::{set_progress, ProgressEvent, SolveProgress, Stage};
 pub use records::SolvedStorage;
-pub use report::{report, StorageReport};
 pub use simulate::{simulate, Equilibrium, StorageIndicators, StoragePeriod};
 pub use solve::{solve_private, PriceRule, PrivateSolution, SolveOptions};
+pub use summary::{summary, StorageSummary};
 
 use crate::scenario::{PolicySpec, Scenario};
-use agency::Band;
+use agency::{Band, ReleaseInStorage};
 
 /// Why the storage equilibrium could not be solved.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -212,7 +229,7 @@ fn solve_reporting(
         }
         Some(band) if band.capacity.is_finite() => {
             let sol = public_solve::solve_public(m, band, options)?;
-            Equilibrium::Public(if matches!(band.release, agency::Release::Target { .. }) {
+            Equilibrium::Public(if band.release.refines_levels() {
                 // the target rule's kinks lie on curves across the public-stock levels: refine
                 // where the residual exceeds the 2-D target (demo: 16 to 32 levels, 1.2e-5 to 9e-7)
                 let stop = public_solve::RefineStop {
@@ -291,7 +308,9 @@ pub fn initial_public(policy: &PolicySpec) -> Result<f64, StorageError> {
 /// true when a purchase budget binds somewhere on that path.
 fn set_reach(eq: &mut Equilibrium, scenario: &Scenario, initial: f64) -> bool {
     let path = indicator_path(eq, scenario, initial);
-    let bound = path.iter().any(|r| r.regime == agency::Regime::BudgetBound);
+    let bound = path
+        .iter()
+        .any(|r| r.mode == agency::AgencyMode::BudgetBound);
     match eq {
         Equilibrium::Private(s) => {
             let b = path_box(&path, 1.0, initial);
@@ -417,17 +436,6 @@ fn solve_unlimited(
     }
 }
 
-/// Long-run means of one solved equilibrium: one path on the market file's shocks (its seed,
-/// replication 0, [`simulate::BURN_IN`] periods dropped, [`simulate::INDICATOR_PERIODS`] averaged),
-/// starting with no private stock and the policy's initial public stock.
-pub fn long_run(solved: &SolvedStorage) -> LongRun {
-    long_run_of(
-        &solved.equilibrium,
-        solved.scenario(),
-        solved.initial_public(),
-    )
-}
-
 /// The long path the indicators average (and an unlimited store's bound is checked on): the market
 /// file's seed, replication 0, [`simulate::BURN_IN`] + [`simulate::INDICATOR_PERIODS`] periods.
 fn indicator_path(eq: &Equilibrium, scenario: &Scenario, initial: f64) -> Vec<StoragePeriod> {
@@ -439,96 +447,6 @@ fn indicator_path(eq: &Equilibrium, scenario: &Scenario, initial: f64) -> Vec<St
         initial,
         simulate::BURN_IN + simulate::INDICATOR_PERIODS,
     )
-}
-
-fn long_run_of(eq: &Equilibrium, scenario: &Scenario, initial: f64) -> LongRun {
-    let path = indicator_path(eq, scenario, initial);
-    let [mean_price, price_sd, mean_harvest, private_stock, public_stock, private_stockout_share, stockout_share, mean_producer_price, deficiency_payments] =
-        simulate::moments(&path[simulate::BURN_IN..]);
-    LongRun {
-        mean_price,
-        price_sd,
-        mean_harvest,
-        private_stock,
-        public_stock,
-        private_stockout_share,
-        stockout_share,
-        mean_producer_price,
-        deficiency_payments,
-    }
-}
-
-/// Means over one long simulated path of a solved equilibrium ([`long_run`]).
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct LongRun {
-    /// Mean price.
-    pub mean_price: f64,
-    /// Standard deviation of the price.
-    pub price_sd: f64,
-    /// Mean harvest.
-    pub mean_harvest: f64,
-    /// Mean private stock carried out.
-    pub private_stock: f64,
-    /// Mean public stock carried out.
-    pub public_stock: f64,
-    /// Share of periods with no private stock carried out.
-    pub private_stockout_share: f64,
-    /// Share of periods with the price above the selling price and the agency's stock out.
-    pub stockout_share: f64,
-    /// Mean producer price (with deficiency payments).
-    pub mean_producer_price: f64,
-    /// Mean deficiency payments per period.
-    pub deficiency_payments: f64,
-}
-
-impl LongRun {
-    /// Crowding-out of private stock by the public one, `self` being the path with the policy and
-    /// `without` the same market without it: (mean private stock without − with) / mean public
-    /// stock with; `None` when the agency holds (almost) nothing (below 1e-6 × `q_star`).
-    pub fn crowding_out(&self, without: &LongRun, q_star: f64) -> Option<f64> {
-        (self.public_stock > 1e-6 * q_star)
-            .then(|| (without.private_stock - self.private_stock) / self.public_stock)
-    }
-}
-
-/// The storage indicators of `policy` on `scenario`: both equilibria (without and with the policy)
-/// solved, then one long path each on the same shocks ([`long_run`]).
-pub fn storage_indicators(
-    scenario: &Scenario,
-    policy: &PolicySpec,
-) -> Result<StorageIndicators, StorageError> {
-    let options = SolveOptions::default();
-    let base = solve(scenario, &PolicySpec::none(), &options)?;
-    let without = long_run_of(&base, scenario, 0.0);
-    let (eq, with) = if band_of(policy)?.is_some() || payment_floor(policy) > 0.0 {
-        let eq = solve(scenario, policy, &options)?;
-        let initial = crate::policies::compile(policy).agency.initial;
-        let with = long_run_of(&eq, scenario, initial);
-        (eq, with)
-    } else {
-        (base, without)
-    };
-    Ok(StorageIndicators {
-        mean_price: with.mean_price,
-        price_sd: with.price_sd,
-        price_cv: if with.mean_price > 0.0 {
-            with.price_sd / with.mean_price
-        } else {
-            0.0
-        },
-        mean_harvest: with.mean_harvest,
-        mean_producer_price: with.mean_producer_price,
-        deficiency_payments_mean: with.deficiency_payments,
-        private_stock_mean: with.private_stock,
-        public_stock_mean: with.public_stock,
-        private_stock_mean_without_policy: without.private_stock,
-        crowding_out: with.crowding_out(&without, scenario.steady.quantity),
-        private_stockout_share: with.private_stockout_share,
-        stockout_share: with.stockout_share,
-        euler_residual_max: eq.euler_residual_max(),
-        iterations: eq.iterations(),
-        periods: simulate::INDICATOR_PERIODS,
-    })
 }
 
 /// One simulated path of `scenario` under `policy` with the solved rules, for `run`: the file's

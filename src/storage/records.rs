@@ -6,7 +6,7 @@
 //! [`SolvedStorage`] is a [`PathModel`]: solved once, stepped for as many replications as needed on
 //! the shocks it is handed (the same shocks every model of the replication gets).
 
-use super::agency::{Regime, StoragePlan};
+use super::agency::{AgencyMode, StoragePlan};
 use super::simulate::{SolvedPath, StoragePeriod};
 use crate::engine::{Diverged, PathModel, PeriodRecord, PeriodShock, Settled, Stepper};
 use crate::policies::{flags, Agency};
@@ -58,17 +58,17 @@ impl Books {
         } else {
             flags::BAND_BUY
         };
-        let bits = match r.regime {
-            Regime::Buying => buy,
-            Regime::Full if r.purchases > 0.0 => flags::CAPACITY_FULL | buy,
-            Regime::Full => flags::CAPACITY_FULL,
-            Regime::Selling => flags::BAND_SELL,
-            Regime::Empty if r.releases > 0.0 => flags::STOCK_OUT | flags::BAND_SELL,
-            Regime::Empty => flags::STOCK_OUT,
-            Regime::Rotating => flags::ROTATION,
-            Regime::Steering => flags::TARGET,
-            Regime::BudgetBound => buy | flags::BUDGET_BOUND,
-            Regime::Inside => 0,
+        let bits = match r.mode {
+            AgencyMode::Buying => buy,
+            AgencyMode::Full if r.purchases > 0.0 => flags::CAPACITY_FULL | buy,
+            AgencyMode::Full => flags::CAPACITY_FULL,
+            AgencyMode::Selling => flags::BAND_SELL,
+            AgencyMode::Empty if r.releases > 0.0 => flags::STOCK_OUT | flags::BAND_SELL,
+            AgencyMode::Empty => flags::STOCK_OUT,
+            AgencyMode::Rotating => flags::ROTATION,
+            AgencyMode::Steering => flags::TARGET,
+            AgencyMode::BudgetBound => buy | flags::BUDGET_BOUND,
+            AgencyMode::Inside => 0,
         };
         PeriodRecord::book(
             &Settled {

@@ -8,7 +8,7 @@
 
 use serde::Serialize;
 
-use super::public::{PublicSolution, Regime};
+use super::public::{AgencyMode, PublicSolution};
 use super::solve::PrivateSolution;
 use super::StorageMarket;
 use crate::engine::PeriodShock;
@@ -34,7 +34,7 @@ pub struct Outcome {
     /// Public stock carried out.
     pub public_stock: f64,
     /// Agency regime (always `Inside` without a public stock).
-    pub regime: Regime,
+    pub mode: AgencyMode,
 }
 
 impl Equilibrium {
@@ -133,7 +133,7 @@ impl Equilibrium {
                 price: s.rule.price(&s.market, z),
                 private_stock: s.rule.stock(&s.market, z),
                 public_stock: 0.0,
-                regime: Regime::Inside,
+                mode: AgencyMode::Inside,
             },
             Equilibrium::Public(s) => {
                 let c = s.clear(z, g);
@@ -141,7 +141,7 @@ impl Equilibrium {
                     price: c.price,
                     private_stock: c.private_stock,
                     public_stock: c.public_stock,
-                    regime: c.regime,
+                    mode: c.mode,
                 }
             }
         }
@@ -243,7 +243,7 @@ pub struct StoragePeriod {
     pub demand_shock: f64,
     /// What the agency did.
     #[serde(skip)]
-    pub regime: Regime,
+    pub mode: AgencyMode,
 }
 
 /// A path under the solved rules, one period at a time: the state is the private and public stock
@@ -303,9 +303,9 @@ impl<'a> SolvedPath<'a> {
             purchases: trade.max(0.0),
             releases: (-trade).max(0.0),
             public_stock: self.public,
-            stockout: o.regime == Regime::Empty,
+            stockout: o.mode == AgencyMode::Empty,
             demand_shock: s.demand,
-            regime: o.regime,
+            mode: o.mode,
         }
     }
 }

@@ -20,7 +20,7 @@
 use rayon::prelude::*;
 
 use super::agency::decide;
-pub use super::agency::{Band, Decision, Regime, Release};
+pub use super::agency::{AgencyMode, Band, Decision};
 use super::market::StorageMarket;
 use super::next_price::NextPrice;
 use super::solve::{plant_with, PriceRule};
@@ -45,8 +45,8 @@ pub struct Cleared {
     pub public_stock: f64,
     /// Private stock carried out.
     pub private_stock: f64,
-    /// Regime.
-    pub regime: Regime,
+    /// AgencyMode.
+    pub mode: AgencyMode,
 }
 
 /// The solved two-state equilibrium.
@@ -87,7 +87,7 @@ pub(crate) fn state_decision(
     rows: &[PriceRule],
     z: f64,
     g: f64,
-) -> (f64, f64, Regime, Decision) {
+) -> (f64, f64, AgencyMode, Decision) {
     let w = z + g;
     decide(band, g, &|gg: f64| row_price(m, publics, rows, w - gg, gg))
 }
@@ -96,7 +96,7 @@ impl PublicSolution {
     /// The period's outcome at availability `z` with public stock `g` carried in.
     pub fn clear(&self, z: f64, g: f64) -> Cleared {
         let m = &self.market;
-        let (price, slope, regime, decision) =
+        let (price, slope, mode, decision) =
             state_decision(m, &self.band, &self.publics, &self.rows, z, g);
         let w = z + g;
         let public_stock = match decision {
@@ -113,7 +113,7 @@ impl PublicSolution {
             slope,
             public_stock,
             private_stock,
-            regime,
+            mode,
         }
     }
 

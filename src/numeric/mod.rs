@@ -1,5 +1,8 @@
-//! Small numerical helpers shared by the engine: a bracketed root finder (Brent's method from the
-//! `roots` crate) with automatic bracket expansion, and Gauss–Hermite quadrature nodes.
+//! Small numerical helpers shared by the engine and the storage model: a bracketed root finder
+//! (Brent's method from the `roots` crate) with automatic bracket expansion, Gauss–Hermite
+//! quadrature nodes, and monotone cubic interpolation ([`interp`]).
+
+pub mod interp;
 
 use nalgebra::{DMatrix, SymmetricEigen};
 

@@ -9,9 +9,9 @@
 //! instead of being smeared over four places). Error O(h⁴) in the public-stock spacing h for
 //! smooth rules, against O(h²) for the linear blend used before (measured in docs/storage.md).
 
-use super::interp::Monotone;
 use super::market::StorageMarket;
 use super::solve::PriceRule;
+use crate::numeric::interp::Monotone;
 
 /// The rows and weights that interpolate at public stock `g` (clamped to the grid): (first row,
 /// weights, number of rows used). A level that appears twice on the grid is a barrier: the

@@ -7,10 +7,10 @@
 //! z_j = x_j + D(p_j). The pairs (z_j, p_j) are the new price rule above the stockout point z_0; below
 //! it nobody stores and P = D⁻¹(z). Iterate to a fixed point of the price rule.
 
-use super::interp::Monotone;
 use super::market::StorageMarket;
 use super::split::next_nodes;
 use super::StorageError;
+use crate::numeric::interp::Monotone;
 
 /// The equilibrium price as a function of availability (net of the demand shock).
 #[derive(Debug, Clone)]

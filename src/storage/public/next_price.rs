@@ -10,7 +10,7 @@
 //! points are found once per g': the kinks analytically, the others as roots of a decreasing
 //! function of z' (safeguarded Newton).
 
-use super::agency::{decide, Band, Release};
+use super::agency::{decide, Band, ReleaseInStorage};
 use super::blend::{row_kinks, Blend, Merged};
 use super::market::StorageMarket;
 use super::solve::PriceRule;
@@ -34,17 +34,8 @@ pub struct NextPrice<'a> {
 fn stocks(band: &Band, g: f64) -> Vec<f64> {
     let cap = band.capacity;
     let mut v = vec![g, cap, 0.0];
-    match band.release {
-        Release::Band => {}
-        Release::Target { target, speed } => {
-            let gap = speed * (target - g);
-            v.push(if gap > 0.0 {
-                (g + gap).min(cap)
-            } else {
-                (g + gap).max(0.0)
-            });
-        }
-        Release::Share { share } => v.push((1.0 - share) * g),
+    if let Some(gg) = band.release.inner_stock(g, cap) {
+        v.push(gg);
     }
     if band.budget.is_finite() && band.buy_below > 0.0 {
         // where the budget runs out while the price is held at buy_below
@@ -178,8 +169,8 @@ impl<'a> NextPrice<'a> {
         let mut levels = vec![b.buy_below, 0.0];
         if b.sell_above.is_finite() {
             levels.push(b.sell_above);
-            if let Release::Target { .. } = b.release {
-                levels.push(0.5 * (b.buy_below + b.sell_above));
+            if let Some(level) = b.release.inner_price(b) {
+                levels.push(level);
             }
         }
         if b.budget.is_finite() {

@@ -3,12 +3,13 @@
 
 use rayon::prelude::*;
 
-use super::interp::Monotone;
+use super::agency::ReleaseInStorage;
 use super::market::StorageMarket;
 use super::next_price::NextPrice;
 use super::public::{reach, Band, PublicSolution};
 use super::solve::{plant_accepting, PriceRule, SolveOptions, PLANT_ACCEPT};
 use super::StorageError;
+use crate::numeric::interp::Monotone;
 
 /// Solves the two-state equilibrium on `o.grid_2d` private-stock points × `o.public_grid`
 /// public-stock points (no refinement).
@@ -28,11 +29,10 @@ pub fn solve_public(
     let mut publics: Vec<f64> = (0..mm)
         .map(|i| band.capacity * i as f64 / (mm - 1) as f64)
         .collect();
-    // The target rule switches from restocking to running down where the carried-in stock equals
-    // the target, G* = target/keep_g: the rules bend there as functions of G. The level is put on
+    // A release rule may switch what it does at a carried-in stock G* (the target rule: from
+    // restocking to running down): the rules bend there as functions of G. The level is put on
     // the grid twice, and interpolation never reaches across it (see [`super::blend::weights`]).
-    if let super::agency::Release::Target { target, .. } = band.release {
-        let gs = target / band.keep;
+    if let Some(gs) = band.release.bend(band.keep) {
         if gs > 0.0 && gs < band.capacity {
             let k = publics.partition_point(|&v| v < gs);
             publics.splice(k..k, [gs, gs]);

@@ -4,39 +4,23 @@
 //! adds itself to a [`StoragePlan`], and [`band_of`] turns the plan into the agency's [`Band`].
 //! Given the state (availability z, public stock g carried in) and the price that would result
 //! from any end-of-period public stock G, pg(G) = P(y = z + g − G, G) (increasing in G), [`decide`]
-//! fixes G as the period engine's rules do: the stock rule decides (`policies::stock::
-//! decide_in_storage`, in the rule's own file: the band, then the target or drawdown rule inside
-//! it; a purchase floor and a ceiling by release set the band's edges), then the purchase budget
-//! cuts what it spends (here). `tests/rules.rs` runs the engine's period
+//! fixes G as the period engine's rules do: the stock's release rule decides
+//! ([`ReleaseInStorage::decide`], in the rule's own file `policies/stock.rs`: the band, then what the
+//! release rule does inside it; a purchase floor and a ceiling by release set the band's edges), then
+//! the purchase budget cuts what it spends (here). Nothing here names a release rule. `tests/rules.rs` runs the engine's period
 //! decision and this one on the same states and checks they agree.
 
 use super::StorageError;
+use crate::policies::stock::Release;
 use crate::scenario::PolicySpec;
-
-/// What the `[stock]` rule contributes to the storage model.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct StockPlan {
-    /// Buys while the price would fall below this.
-    pub buy_below: f64,
-    /// Sells while the price would rise above this (∞: never sells).
-    pub sell_above: f64,
-    /// Store capacity (∞: unlimited).
-    pub capacity: f64,
-    /// 1 − the agency's loss rate.
-    pub keep: f64,
-    /// What the agency does inside the band.
-    pub release: Release,
-    /// Purchase spending allowed per period (∞: unlimited).
-    pub budget: f64,
-}
 
 /// The policy as the storage model sees it, filled in by each rule (`policies::Rule::storage`).
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
 pub struct StoragePlan {
     /// A floor defended by purchase.
     pub purchase_floor: Option<f64>,
-    /// The buffer stock.
-    pub stock: Option<StockPlan>,
+    /// The buffer stock (its band, store and release rule, before a floor or a ceiling sets its edges).
+    pub stock: Option<Band>,
     /// A ceiling defended by release from the stock.
     pub ceiling: Option<f64>,
     /// A ceiling kept by paying consumers (changes no decision; the records book the payment).
@@ -102,7 +86,7 @@ pub fn band_of(policy: &PolicySpec) -> Result<Option<Band>, StorageError> {
             sell_above: f64::INFINITY,
             capacity: f64::INFINITY,
             keep: 1.0,
-            release: Release::Band,
+            release: Release::band_only(),
             budget: f64::INFINITY,
         }),
         // a store that holds nothing never trades
@@ -138,7 +122,7 @@ pub fn band_of(policy: &PolicySpec) -> Result<Option<Band>, StorageError> {
              storage model needs the selling edge above the buying one",
         ));
     }
-    if band.release != Release::Band {
+    if band.release.trades_inside_band() {
         return Err(unsupported(
             "ceiling.price",
             "a ceiling below stock.sell_above with release = \"target\" or \"drawdown\" is not \
@@ -150,25 +134,45 @@ pub fn band_of(policy: &PolicySpec) -> Result<Option<Band>, StorageError> {
     Ok(Some(band))
 }
 
-/// Release rule of the public stock.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub enum Release {
-    /// Only the band.
-    Band,
-    /// Steer the stock toward `target` at `speed` inside the band.
-    Target { target: f64, speed: f64 },
-    /// Release `share` of the carried stock each period (rotation).
-    Share { share: f64 },
+/// What the storage model needs of the stock's release rule, implemented in the rule's own file
+/// (`policies::stock`): nothing in `storage` names a release rule or matches on which one it is.
+pub trait ReleaseInStorage: Copy {
+    /// The release that only defends the band (a purchase floor's store without a `[stock]`).
+    fn band_only() -> Self;
+    /// The rule's decision when it carries in `g`, given the price (and dP/dz) `pg(G)` at
+    /// end-of-period public stock G, before the purchase budget's cut ([`decide`]): the price,
+    /// dP/dz, the regime and the decision.
+    fn decide<F: Fn(f64) -> (f64, f64)>(
+        &self,
+        band: &Band,
+        g: f64,
+        pg: &F,
+    ) -> (f64, f64, AgencyMode, Decision);
+    /// The end-of-period public stock the rule trades to inside the band when it carries in `g`,
+    /// besides g, the capacity and 0 (a point where next season's price may bend), if any.
+    fn inner_stock(&self, g: f64, capacity: f64) -> Option<f64>;
+    /// The price inside the band (finite `sell_above`) where the rule changes what it does (a
+    /// breakpoint of next season's price), if any.
+    fn inner_price(&self, band: &Band) -> Option<f64>;
+    /// The carried-in public stock where the rule's decision bends as a function of it (the solver
+    /// puts it on the public-stock grid twice), if any; `keep` is 1 − the loss rate.
+    fn bend(&self, keep: f64) -> Option<f64>;
+    /// Whether its kinks lie on curves across the public-stock levels, so that the two-state solve
+    /// refines its grids where the residual exceeds the 2-D target.
+    fn refines_levels(&self) -> bool;
+    /// Whether it trades inside the band (a ceiling below `sell_above` is then not covered).
+    fn trades_inside_band(&self) -> bool;
 }
 
-/// The agency's rule as the storage model sees it.
+/// The agency's rule as the storage model sees it: a price band, a store and a release rule (what
+/// `[stock]` contributes to [`StoragePlan`], and what [`band_of`] makes of the whole plan).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Band {
     /// Buys while the price would fall below this.
     pub buy_below: f64,
     /// Sells while the price would rise above this (∞: never sells).
     pub sell_above: f64,
-    /// Store capacity (finite).
+    /// Store capacity (∞: unlimited, solved on a bounded grid, see [`super::solve`]).
     pub capacity: f64,
     /// 1 − the agency's loss rate.
     pub keep: f64,
@@ -178,9 +182,9 @@ pub struct Band {
     pub budget: f64,
 }
 
-/// Regime of the market in a period.
+/// AgencyMode of the market in a period.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Regime {
+pub enum AgencyMode {
     /// The agency does not trade.
     Inside,
     /// The agency buys at the lower band price.
@@ -213,15 +217,15 @@ pub enum Decision {
 /// With a finite purchase budget B, purchases G − g > 0 are cut, as in the period engine
 /// (`Clearing::buy_at_most`), so that the spending at the price they leave, (G − g)·pg(G), is at most
 /// B: when the rule's own decision would spend more, G solves (G − g)·pg(G) = B (Brent's method; the
-/// left side increases with G) and the regime is [`Regime::BudgetBound`].
+/// left side increases with G) and the regime is [`AgencyMode::BudgetBound`].
 #[inline]
 pub fn decide<F: Fn(f64) -> (f64, f64)>(
     band: &Band,
     g: f64,
     pg: &F,
-) -> (f64, f64, Regime, Decision) {
+) -> (f64, f64, AgencyMode, Decision) {
     // the stock rule decides (with the edges a purchase floor and a ceiling set), in its own file
-    let out = crate::policies::stock::decide_in_storage(band, g, pg);
+    let out = band.release.decide(band, g, pg);
     if band.budget.is_finite() {
         if let Some((lo, hi)) = budget_bracket(band.budget, g, out.0, out.3, pg) {
             return spend_budget(band.budget, g, lo, hi, pg);
@@ -259,7 +263,7 @@ fn spend_budget<F: Fn(f64) -> (f64, f64)>(
     lo: f64,
     hi: f64,
     pg: &F,
-) -> (f64, f64, Regime, Decision) {
+) -> (f64, f64, AgencyMode, Decision) {
     let spend = |gg: f64| (gg - g) * pg(gg).0 - budget;
     let scale = hi.abs().max(1.0);
     let to = crate::numeric::brent(spend, lo, hi, 1e-13 * scale).unwrap_or(0.5 * (lo + hi));
@@ -273,7 +277,7 @@ fn spend_budget<F: Fn(f64) -> (f64, f64)>(
     } else {
         p_y
     };
-    (p, slope, Regime::BudgetBound, Decision::Stock(to))
+    (p, slope, AgencyMode::BudgetBound, Decision::Stock(to))
 }
 
 #[cfg(test)]
@@ -306,7 +310,7 @@ mod tests {
         // it would rise above sell_above (within stock).
         let b = band(Release::Band);
         let (p, _, r, d) = decide(&b, 10.0, &pg(150.0)); // pg(10) = 170 < 195: buy to 195 at G = 22.5
-        assert_eq!((p, r), (195.0, Regime::Buying));
+        assert_eq!((p, r), (195.0, AgencyMode::Buying));
         assert_eq!(
             d,
             Decision::AtPrice {
@@ -316,11 +320,11 @@ mod tests {
             }
         );
         let (p, _, r, _) = decide(&b, 10.0, &pg(50.0)); // pg(60) = 170 < 195: store full
-        assert_eq!((p, r), (170.0, Regime::Full));
+        assert_eq!((p, r), (170.0, AgencyMode::Full));
         let (p, _, r, _) = decide(&b, 10.0, &pg(240.0)); // pg(0) = 240 > 230: stock out
-        assert_eq!((p, r), (240.0, Regime::Empty));
+        assert_eq!((p, r), (240.0, AgencyMode::Empty));
         let (p, _, r, _) = decide(&b, 10.0, &pg(190.0)); // 210: inside
-        assert_eq!((p, r), (210.0, Regime::Inside));
+        assert_eq!((p, r), (210.0, AgencyMode::Inside));
     }
 
     #[test]
@@ -332,7 +336,10 @@ mod tests {
         });
         // carried 10 (price 196, inside), gap 15 → G = 25: pg(25) = 211 ≤ middle 212.5, all of it
         let (p, _, r, d) = decide(&t, 10.0, &pg_with(186.0, 1.0));
-        assert_eq!((p, r, d), (211.0, Regime::Steering, Decision::Stock(25.0)));
+        assert_eq!(
+            (p, r, d),
+            (211.0, AgencyMode::Steering, Decision::Stock(25.0))
+        );
         // steeper: pg(25) = 230 > 212.5, so it buys only until the price reaches the middle
         let (p, _, _, d) = decide(&t, 10.0, &pg(180.0));
         assert_eq!(p, 212.5);
@@ -358,7 +365,10 @@ mod tests {
         let s = band(Release::Share { share: 0.25 });
         // carried 40, release to 30 → pg(30) = 140 + 60 = 200 ≥ 195
         let (p, _, r, d) = decide(&s, 40.0, &pg(140.0));
-        assert_eq!((p, r, d), (200.0, Regime::Rotating, Decision::Stock(30.0)));
+        assert_eq!(
+            (p, r, d),
+            (200.0, AgencyMode::Rotating, Decision::Stock(30.0))
+        );
         // release would push the price below 195: held at 195
         let (p, _, _, d) = decide(&s, 40.0, &pg(120.0));
         assert_eq!(p, 195.0);
@@ -380,7 +390,7 @@ mod tests {
         let mut b = band(Release::Band);
         b.budget = 1000.0;
         let (p, slope, r, d) = decide(&b, 10.0, &pg(150.0));
-        assert_eq!(r, Regime::BudgetBound);
+        assert_eq!(r, AgencyMode::BudgetBound);
         let Decision::Stock(to) = d else {
             panic!("a budget-bound decision fixes the stock")
         };
@@ -394,7 +404,7 @@ mod tests {
         assert!((slope - numeric).abs() < 1e-6, "{slope} vs {numeric}");
         // a budget large enough changes nothing
         b.budget = 2437.5 + 1e-6;
-        assert_eq!(decide(&b, 10.0, &pg(150.0)).2, Regime::Buying);
+        assert_eq!(decide(&b, 10.0, &pg(150.0)).2, AgencyMode::Buying);
         // the target rule's restocking is cut the same way
         let mut t = band(Release::Target {
             target: 40.0,
@@ -402,7 +412,7 @@ mod tests {
         });
         t.budget = 100.0;
         let (p, _, r, d) = decide(&t, 10.0, &pg_with(186.0, 1.0));
-        assert_eq!(r, Regime::BudgetBound);
+        assert_eq!(r, AgencyMode::BudgetBound);
         let Decision::Stock(to) = d else { panic!() };
         assert!(((to - 10.0) * p - 100.0).abs() < 1e-9);
     }

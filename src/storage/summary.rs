@@ -6,9 +6,9 @@ use super::solve::SolveOptions;
 use super::{check_options, solve, StorageError};
 use crate::scenario::{PolicySpec, Scenario};
 
-/// What `storage` reports.
+/// The storage equilibrium summed up: what the `storage` verb prints.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
-pub struct StorageReport {
+pub struct StorageSummary {
     /// Market name.
     pub market: String,
     /// Policy name.
@@ -32,21 +32,21 @@ pub struct StorageReport {
     pub grid: Vec<GridRow>,
 }
 
-/// Solves the storage equilibrium of `scenario` under `policy` and reports it on `rows` rows of
+/// Solves the storage equilibrium of `scenario` under `policy` and sums it up on `rows` rows of
 /// availability (times 5 levels of public stock carried in when the policy holds a stock).
-pub fn report(
+pub fn summary(
     scenario: &Scenario,
     policy: &PolicySpec,
     options: &SolveOptions,
     rows: usize,
-) -> Result<StorageReport, StorageError> {
+) -> Result<StorageSummary, StorageError> {
     check_options(options, rows)?;
     let eq = solve(scenario, policy, options)?;
     let residual = eq.euler_residual_max();
     let extrapolated = super::extrapolated_share(&eq, scenario, super::initial_public(policy)?);
     let (market, policy) = (scenario.market.name.clone(), policy.name.clone());
     Ok(match eq {
-        Equilibrium::Private(sol) => StorageReport {
+        Equilibrium::Private(sol) => StorageSummary {
             market,
             policy,
             method: "endogenous grid method on private stock (Carroll 2006), monotone cubic interpolation (Fritsch-Carlson), expectations by Gauss-Legendre quadrature over the shock split at the breakpoints of next period's price, grid refined where the residual exceeds 1e-7 and extended as far as simulated paths carry stock".into(),
@@ -78,7 +78,7 @@ pub fn report(
                 }
             }
             let nz = options.test_points / 10 + 1;
-            StorageReport {
+            StorageSummary {
                 market,
                 policy,
                 method: "endogenous grid method on private stock for each public stock of a grid (Carroll 2006), monotone cubic interpolation in availability (Fritsch-Carlson), cubic Lagrange in public stock with the stockout points aligned, expectations by Gauss-Legendre quadrature over the shock split at the breakpoints of next period's price".into(),
