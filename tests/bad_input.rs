@@ -434,6 +434,31 @@ fn check_decides_the_kind_by_sections_and_validates_like_every_verb() {
     }
 }
 
+/// A policy that makes farmers backward-looking on a market with private storers is refused by
+/// every verb alike, naming the policy file and the key (the storage model needs rational farmers).
+#[test]
+fn a_backward_looking_override_on_a_storers_market_is_refused_by_every_verb() {
+    let m = "examples/veldmark_storers.toml";
+    let p = "policies/band_cautious_farmers.toml";
+    let mut messages = Vec::new();
+    for verb in [
+        vec!["check", m, p],
+        vec!["run", m, "--policy", p],
+        vec!["compare", m, p],
+        vec!["storage", m, "--policy", p],
+    ] {
+        let out = bin().args(&verb).output().unwrap();
+        let msg = String::from_utf8_lossy(&out.stderr).to_string();
+        assert_eq!(out.status.code(), Some(2), "{verb:?}: {msg}");
+        assert!(
+            msg.contains(&format!("{p}: expectations.rule = \"adaptive\"")),
+            "{verb:?}: {msg}"
+        );
+        messages.push(msg);
+    }
+    assert!(messages.windows(2).all(|w| w[0] == w[1]), "{messages:?}");
+}
+
 #[test]
 fn purchase_floor_beyond_the_choke_price_is_refused_naming_the_largest_floor() {
     // Q_d = 120 − 0.8 P falls to zero at P = 150 (the choke price; by hand). At a purchase floor F

@@ -678,6 +678,17 @@ pub fn policy_for_market(scenario: &Scenario, policy: &PolicySpec) -> Result<(),
     let c = Check {
         file: &policy.source,
     };
+    if let (Some(_), Some(e)) = (&scenario.storers, policy.expectations) {
+        // the storage equilibrium needs forward-looking farmers (a market file's own rule is
+        // checked with its [storers]; a policy's override is checked here, for every verb alike)
+        if !e.is_rational() {
+            return Err(c.bad(
+                "expectations.rule",
+                format!("\"{}\"", e.rule_name()),
+                "the market has [storers]: the storage model needs rule = \"rational\" (farmers and storers look ahead)",
+            ));
+        }
+    }
     for rule in &policy.rules {
         rule.check_market(&c, scenario)?;
     }
