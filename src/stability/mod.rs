@@ -18,6 +18,7 @@
 pub mod conditions;
 pub mod eigen;
 pub mod regimes;
+mod render;
 pub mod statespace;
 
 use serde::Serialize;
@@ -26,6 +27,7 @@ use crate::curves::SteadyState;
 use crate::scenario::{PolicySpec, Scenario};
 
 pub use conditions::PublishedCondition;
+pub use render::render;
 pub use statespace::{RegimePrice, Setup, StateMap};
 
 /// A complex eigenvalue.

@@ -10,6 +10,7 @@
 pub mod apply;
 pub mod grid;
 pub mod longrun;
+mod render;
 
 use rayon::prelude::*;
 
@@ -19,6 +20,7 @@ use crate::stability::{self, Verdict};
 pub use apply::{Base, Target};
 pub use grid::{parse_vary, Axis};
 pub use longrun::{LongRunOrbit, Orbit};
+pub use render::render;
 
 /// Why a sweep could not be run.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
