@@ -2,8 +2,8 @@
 //! (and the public stock rule when the policy holds one), printed on a grid of availability.
 
 use clap::Args;
-use furrow::output::{fmt_num, Format, TextTable};
-use furrow::storage::{self, SolveOptions, StoragePeriod, StorageSummary};
+use furrow::output::fmt_num;
+use furrow::storage::{self, SolveOptions};
 
 use super::common::{install_progress, load_policy, say, CommonArgs};
 
@@ -64,7 +64,9 @@ pub fn execute(args: &StorageArgs) -> anyhow::Result<()> {
     if args.path {
         let solved = storage::SolvedStorage::new(&scenario, &policy)?;
         let path = solved.path(0, scenario.run.periods);
-        return args.common.emit(&render_path(&path, args.common.format));
+        return args
+            .common
+            .emit(&storage::render_path(&path, args.common.format));
     }
     let report = storage::summary(&scenario, &policy, &options, args.rows)?;
     say(&format!(
@@ -74,85 +76,6 @@ pub fn execute(args: &StorageArgs) -> anyhow::Result<()> {
         fmt_num(report.stockout_price, 2),
         scenario.market.price_unit
     ));
-    args.common.emit(&render(&report, args.common.format))
-}
-
-/// Columns of `storage --path`.
-const PATH_COLUMNS: &[&str] = &[
-    "period",
-    "expected_price",
-    "planted",
-    "harvest",
-    "availability",
-    "price",
-    "producer_price",
-    "consumption",
-    "private_stock",
-    "purchases",
-    "releases",
-    "public_stock",
-];
-
-fn render_path(path: &[StoragePeriod], format: Format) -> String {
-    if format == Format::Json {
-        return serde_json::to_string_pretty(path).unwrap_or_default() + "\n";
-    }
-    let digits = if format == Format::Csv { 6 } else { 2 };
-    let mut t = TextTable::new(PATH_COLUMNS);
-    for r in path {
-        let f = |x: f64| fmt_num(x, digits);
-        t.push(vec![
-            r.period.to_string(),
-            f(r.expected_price),
-            f(r.planted),
-            f(r.harvest),
-            f(r.availability),
-            f(r.price),
-            f(r.producer_price),
-            f(r.consumption),
-            f(r.private_stock),
-            f(r.purchases),
-            f(r.releases),
-            f(r.public_stock),
-        ]);
-    }
-    t.render(format)
-}
-
-fn render(r: &StorageSummary, format: Format) -> String {
-    if format == Format::Json {
-        return serde_json::to_string_pretty(r).unwrap_or_default() + "\n";
-    }
-    let public = r.grid.iter().any(|g| g.public_stock.is_some());
-    let mut headers = vec!["availability", "price", "private_stock", "planted"];
-    if public {
-        headers.insert(1, "public_stock");
-    }
-    let mut t = TextTable::new(&headers);
-    let digits = if format == Format::Csv { 6 } else { 2 };
-    for g in &r.grid {
-        let mut row = vec![
-            fmt_num(g.availability, digits),
-            fmt_num(g.price, digits),
-            fmt_num(g.private_stock, digits),
-            fmt_num(g.planted, digits),
-        ];
-        if public {
-            row.insert(1, fmt_num(g.public_stock.unwrap_or(0.0), digits));
-        }
-        t.push(row);
-    }
-    let mut out = String::new();
-    if format != Format::Csv {
-        out.push_str(&format!(
-            "{} — {}\nEuler residual max {:.2e}, iterations {}, stockout price {}\n",
-            r.market,
-            r.policy,
-            r.euler_residual_max,
-            r.iterations,
-            fmt_num(r.stockout_price, 2)
-        ));
-    }
-    out.push_str(&t.render(format));
-    out
+    args.common
+        .emit(&storage::render_summary(&report, args.common.format))
 }

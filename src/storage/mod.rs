@@ -50,7 +50,7 @@ pub use progress::{set_progress, ProgressEvent, SolveProgress, Stage};
 pub use records::SolvedStorage;
 pub use simulate::{simulate, Equilibrium, StorageIndicators, StoragePeriod};
 pub use solve::{solve_private, PriceRule, PrivateSolution, SolveOptions};
-pub use summary::{summary, StorageSummary};
+pub use summary::{render_path, render_summary, summary, StorageSummary};
 
 use crate::scenario::{PolicySpec, Scenario};
 use agency::{Band, ReleaseInStorage};

@@ -2,8 +2,10 @@
 
 use super::check::GridRow;
 use super::simulate::Equilibrium;
+use super::simulate::StoragePeriod;
 use super::solve::SolveOptions;
 use super::{check_options, solve, StorageError};
+use crate::output::{fmt_num, Format, TextTable};
 use crate::scenario::{PolicySpec, Scenario};
 
 /// The storage equilibrium summed up: what the `storage` verb prints.
@@ -92,4 +94,86 @@ pub fn summary(
             }
         }
     })
+}
+
+/// Columns of `storage --path`.
+const PATH_COLUMNS: &[&str] = &[
+    "period",
+    "expected_price",
+    "planted",
+    "harvest",
+    "availability",
+    "price",
+    "producer_price",
+    "consumption",
+    "private_stock",
+    "purchases",
+    "releases",
+    "public_stock",
+];
+
+/// A storage path (`storage --path`) in `format`.
+pub fn render_path(path: &[StoragePeriod], format: Format) -> String {
+    if format == Format::Json {
+        return serde_json::to_string_pretty(path).unwrap_or_default() + "\n";
+    }
+    let digits = if format == Format::Csv { 6 } else { 2 };
+    let mut t = TextTable::new(PATH_COLUMNS);
+    for r in path {
+        let f = |x: f64| fmt_num(x, digits);
+        t.push(vec![
+            r.period.to_string(),
+            f(r.expected_price),
+            f(r.planted),
+            f(r.harvest),
+            f(r.availability),
+            f(r.price),
+            f(r.producer_price),
+            f(r.consumption),
+            f(r.private_stock),
+            f(r.purchases),
+            f(r.releases),
+            f(r.public_stock),
+        ]);
+    }
+    t.render(format)
+}
+
+/// The summary in `format`: a heading with the accuracy (not in CSV), then the grid.
+pub fn render_summary(r: &StorageSummary, format: Format) -> String {
+    if format == Format::Json {
+        return serde_json::to_string_pretty(r).unwrap_or_default() + "\n";
+    }
+    let public = r.grid.iter().any(|g| g.public_stock.is_some());
+    let mut headers = vec!["availability", "price", "private_stock", "planted"];
+    if public {
+        headers.insert(1, "public_stock");
+    }
+    let mut t = TextTable::new(&headers);
+    let digits = if format == Format::Csv { 6 } else { 2 };
+    for g in &r.grid {
+        let mut row = vec![
+            fmt_num(g.availability, digits),
+            fmt_num(g.price, digits),
+            fmt_num(g.private_stock, digits),
+            fmt_num(g.planted, digits),
+        ];
+        if public {
+            row.insert(1, fmt_num(g.public_stock.unwrap_or(0.0), digits));
+        }
+        t.push(row);
+    }
+    let mut out = String::new();
+    if format != Format::Csv {
+        out.push_str(&format!(
+            "{} — {}\nEuler residual max {:.2e}, iterations {}, stockout price {}\n",
+            r.market,
+            r.policy,
+            r.euler_residual_max,
+            r.iterations,
+            fmt_num(r.stockout_price, 2)
+        ));
+    }
+    out.push_str(&t.render(format));
+    out
 }
