@@ -27,10 +27,10 @@ fn opt(x: Option<f64>) -> String {
     x.map(|v| fmt_num(v, 4)).unwrap_or_else(|| "-".into())
 }
 
-/// Renders a report as a table (one row per regime) followed by the conditions and notes.
-pub fn render(report: &StabilityAnalysis, format: Format) -> String {
+/// Renders the analysis as a table (one row per regime) followed by the conditions and notes.
+pub fn render(analysis: &StabilityAnalysis, format: Format) -> String {
     if format == Format::Json {
-        return serde_json::to_string_pretty(report).unwrap_or_default() + "\n";
+        return serde_json::to_string_pretty(analysis).unwrap_or_default() + "\n";
     }
     let headers = [
         "regime",
@@ -45,7 +45,7 @@ pub fn render(report: &StabilityAnalysis, format: Format) -> String {
         "stock_eigenvalue",
     ];
     let mut t = TextTable::new(&headers);
-    for r in &report.regimes {
+    for r in &analysis.regimes {
         let eigs: Vec<String> = r.eigenvalues.iter().map(eig_text).collect();
         t.push(vec![
             r.name.clone(),
@@ -83,20 +83,20 @@ pub fn render(report: &StabilityAnalysis, format: Format) -> String {
     };
     out.push_str(&format!(
         "\nsteady state: price {}, harvest {}, producer price {}, planting price {} (rule {})\n",
-        level(report.steady_state.price),
-        level(report.steady_state.quantity),
-        level(report.producer_price),
-        level(report.planting_price),
-        report.rule
+        level(analysis.steady_state.price),
+        level(analysis.steady_state.quantity),
+        level(analysis.producer_price),
+        level(analysis.planting_price),
+        analysis.rule
     ));
     out.push_str(&format!(
         "verdict: {} (spectral radius {}; neutral within 1e-9 of 1)\n",
-        report.verdict.as_str(),
-        fmt_num(report.spectral_radius, 6)
+        analysis.verdict.as_str(),
+        fmt_num(analysis.spectral_radius, 6)
     ));
-    if !report.conditions.is_empty() {
+    if !analysis.conditions.is_empty() {
         out.push_str("\npublished conditions (free market at its steady state):\n");
-        for c in &report.conditions {
+        for c in &analysis.conditions {
             out.push_str(&format!(
                 "{bullet}{}: {} — {}; {}\n",
                 c.name,
@@ -106,11 +106,11 @@ pub fn render(report: &StabilityAnalysis, format: Format) -> String {
             ));
         }
     }
-    let notes: Vec<String> = report
+    let notes: Vec<String> = analysis
         .regimes
         .iter()
         .filter_map(|r| r.note.as_ref().map(|n| format!("{}: {n}", r.name)))
-        .chain(report.note.clone())
+        .chain(analysis.note.clone())
         .collect();
     if !notes.is_empty() {
         out.push_str("\nnotes:\n");
