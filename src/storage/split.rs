@@ -175,6 +175,37 @@ pub fn next_nodes<V: FnMut(f64, f64, f64)>(
     }
 }
 
+/// A linear test market (210 crowns, 480 kt, elasticity −0.25 both ways) with lognormal yield
+/// risk `yield_sigma` on Gauss–Hermite nodes and an additive shock `additive_sd`; the unit tests of
+/// the storage model's pieces share it.
+#[cfg(test)]
+pub(crate) fn test_market(yield_sigma: f64, additive_sd: f64) -> StorageMarket {
+    let c = crate::curves::Curve::linear_at_point(210.0, 480.0, -0.25);
+    let rule = crate::numeric::gauss_hermite(10);
+    StorageMarket {
+        demand: c,
+        supply: c,
+        keep: 1.0,
+        discount: 0.9,
+        cost: 0.0,
+        nodes: Vec::new(),
+        yield_nodes: if yield_sigma > 0.0 {
+            rule.iter()
+                .map(|&(z, w)| ((yield_sigma * z - 0.5 * yield_sigma * yield_sigma).exp(), w))
+                .collect()
+        } else {
+            vec![(1.0, 1.0)]
+        },
+        p_star: 210.0,
+        q_star: 480.0,
+        harvest_sd: 0.0,
+        yield_sigma,
+        additive_sd,
+        planting_floor: 0.0,
+        payment_floor: 0.0,
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -291,39 +322,12 @@ mod tests {
         assert!((got - (phi_cdf(a + h) - phi_cdf(a))).abs() > 1e-13);
     }
 
-    fn market(yield_sigma: f64, additive_sd: f64) -> StorageMarket {
-        let c = crate::curves::Curve::linear_at_point(210.0, 480.0, -0.25);
-        let rule = crate::numeric::gauss_hermite(10);
-        StorageMarket {
-            demand: c,
-            supply: c,
-            keep: 1.0,
-            discount: 0.9,
-            cost: 0.0,
-            nodes: Vec::new(),
-            yield_nodes: if yield_sigma > 0.0 {
-                rule.iter()
-                    .map(|&(z, w)| ((yield_sigma * z - 0.5 * yield_sigma * yield_sigma).exp(), w))
-                    .collect()
-            } else {
-                vec![(1.0, 1.0)]
-            },
-            p_star: 210.0,
-            q_star: 480.0,
-            harvest_sd: 0.0,
-            yield_sigma,
-            additive_sd,
-            planting_floor: 0.0,
-            payment_floor: 0.0,
-        }
-    }
-
     #[test]
     fn next_availability_nodes_integrate_kinked_functions_of_the_harvest() {
         // Lognormal yield Y = exp(σs − σ²/2): E[max(qY, c)] = q·Φ(σ − s*) + c·Φ(s*),
         // s* = (ln(c/q) + σ²/2)/σ (the lognormal partial expectation, as in Black and Scholes 1973).
         let (q, sigma): (f64, f64) = (480.0, 0.12);
-        let m = market(sigma, 0.0);
+        let m = test_market(sigma, 0.0);
         for &c in &[430.0, 480.0, 560.0] {
             let s_star = ((c / q).ln() + 0.5 * sigma * sigma) / sigma;
             let want = q * phi_cdf(sigma - s_star) + c * phi_cdf(s_star);
@@ -338,7 +342,7 @@ mod tests {
         // additive normal shock (no yield risk): carried + max(0, q + e) against a kink at c above
         // the carried stock is the normal partial expectation with a = carried + q
         let (carried, sd) = (20.0, 40.0);
-        let m = market(0.0, sd);
+        let m = test_market(0.0, sd);
         for &c in &[470.0, 500.0, 555.0] {
             let alpha = (c - carried - q) / sd;
             let a = carried + q;

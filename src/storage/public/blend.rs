@@ -254,23 +254,7 @@ mod tests {
     use super::*;
 
     fn market() -> StorageMarket {
-        let c = crate::curves::Curve::linear_at_point(210.0, 480.0, -0.25);
-        StorageMarket {
-            demand: c,
-            supply: c,
-            keep: 1.0,
-            discount: 0.9,
-            cost: 0.0,
-            nodes: Vec::new(),
-            yield_nodes: vec![(1.0, 1.0)],
-            p_star: 210.0,
-            q_star: 480.0,
-            harvest_sd: 0.0,
-            yield_sigma: 0.0,
-            additive_sd: 0.0,
-            planting_floor: 0.0,
-            payment_floor: 0.0,
-        }
+        crate::storage::split::test_market(0.0, 0.0)
     }
 
     #[test]
