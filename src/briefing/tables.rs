@@ -206,20 +206,10 @@ fn cell(v: Option<&Value>, kind: Kind, units: &Units, scale: &MoneyScale) -> Str
     render::cell(v.unwrap_or(&Value::Missing), kind, units, scale)
 }
 
-/// The money scale of a whole comparison: one unit for every money figure of the page.
+/// The money scale of a whole comparison: one unit for every money figure of the page, the same
+/// as the comparison's own tables (`compare::render::money_scale`).
 pub fn money_scale(r: &CompareResult) -> MoneyScale {
-    let units = Units::new(&r.price_unit, &r.quantity_unit);
-    let mut all: Vec<&PolicyComparison> = columns(r);
-    all.extend(r.behaviour.iter());
-    units.money_scale(all.iter().flat_map(|p| {
-        p.indicators
-            .iter()
-            .filter(|i| i.kind == Kind::Money && !i.key.ends_with("_se"))
-            .filter_map(|i| match i.value {
-                Value::Number(x) => Some(x),
-                _ => None,
-            })
-    }))
+    render::money_scale(r)
 }
 
 /// A table of the indicators whose keys pass `pick`, one column per policy.
