@@ -183,6 +183,15 @@ fn x_range(series: &[Series]) -> (f64, f64) {
 }
 
 impl LineChart {
+    /// The number of points of the longest series (what the line widths and markers depend on).
+    fn longest_series(&self) -> usize {
+        self.series
+            .iter()
+            .map(|s| s.points.len())
+            .max()
+            .unwrap_or(0)
+    }
+
     pub(crate) fn draw<DB: DrawingBackend>(
         &self,
         root: &DrawingArea<DB, Shift>,
@@ -243,24 +252,12 @@ impl LineChart {
         chart.plotting_area().fill(&style::FIELD).map_err(de)?;
         mesh(&mut chart, &self.x_label, &self.y_label)?;
         self.draw_levels(&mut chart, (x0, x1), None)?;
-        let many_points = self
-            .series
-            .iter()
-            .map(|s| s.points.len())
-            .max()
-            .unwrap_or(0)
-            > 60;
+        let many_points = self.longest_series() > 60;
         // Many policies: thinner lines and no markers, so the overlaid paths stay apart.
         let crowded = self.series.len() > 4;
         // Dense series are drawn 1 px wide: wide strokes of a zig-zag get spiky joins in the bitmap
         // backend that run far outside the plotting area.
-        let dense = self
-            .series
-            .iter()
-            .map(|s| s.points.len())
-            .max()
-            .unwrap_or(0)
-            > 200;
+        let dense = self.longest_series() > 200;
         let width = if dense {
             1
         } else if crowded {
@@ -372,13 +369,7 @@ impl LineChart {
         let (x0, x1) = x_range(&self.series);
         let panels = body.split_evenly((rows, cols));
         let skip = self.panel_series();
-        let dense = self
-            .series
-            .iter()
-            .map(|s| s.points.len())
-            .max()
-            .unwrap_or(0)
-            > 200;
+        let dense = self.longest_series() > 200;
         let width = if dense { 1 } else { 2 };
         for (k, (s, area)) in self.series.iter().skip(skip).zip(panels.iter()).enumerate() {
             let i = k + skip;
