@@ -27,7 +27,7 @@ pub struct FirstPage {
 
 /// How a policy's net welfare change compares with zero.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Verdict {
+pub enum WelfareSign {
     /// Positive, and beyond two standard errors (or no noise: one deterministic run).
     Gains,
     /// Negative, beyond two standard errors.
@@ -36,17 +36,17 @@ pub enum Verdict {
     WithinNoise,
 }
 
-/// The verdict on a change `x` with standard error `se` (None or zero: no noise measured).
-pub fn verdict(x: f64, se: Option<f64>) -> Verdict {
+/// The sign of a change `x` with standard error `se` (None or zero: no noise measured).
+pub fn welfare_sign(x: f64, se: Option<f64>) -> WelfareSign {
     let noise = se
         .filter(|s| s.is_finite() && *s > 0.0)
         .map_or(0.0, |s| 2.0 * s);
     if x > noise {
-        Verdict::Gains
+        WelfareSign::Gains
     } else if x < -noise {
-        Verdict::Loses
+        WelfareSign::Loses
     } else {
-        Verdict::WithinNoise
+        WelfareSign::WithinNoise
     }
 }
 
@@ -148,17 +148,17 @@ pub fn first_page(r: &CompareResult, intervenes: &[bool], storers: bool) -> Firs
             r.price_unit
         ));
     } else {
-        let by = |v: Verdict| -> Vec<&PolicyComparison> {
+        let by = |v: WelfareSign| -> Vec<&PolicyComparison> {
             schemes
                 .iter()
                 .copied()
-                .filter(|p| verdict(net(p), net_se(p)) == v)
+                .filter(|p| welfare_sign(net(p), net_se(p)) == v)
                 .collect()
         };
         let (gains, loses, noise) = (
-            by(Verdict::Gains),
-            by(Verdict::Loses),
-            by(Verdict::WithinNoise),
+            by(WelfareSign::Gains),
+            by(WelfareSign::Loses),
+            by(WelfareSign::WithinNoise),
         );
         if gains.is_empty() {
             let mut s = if noise.is_empty() {
@@ -377,14 +377,14 @@ pub fn first_page(r: &CompareResult, intervenes: &[bool], storers: bool) -> Firs
             "— (the reference)".to_string()
         } else {
             let x = net(p);
-            let first = match (verdict(x, net_se(p)), net_se(p)) {
+            let first = match (welfare_sign(x, net_se(p)), net_se(p)) {
                 (_, Some(se)) if se > 0.0 => format!("{} ± {}", pv.show(x), pv.show(se)),
                 _ => pv.show(x),
             };
-            let tag = match verdict(x, net_se(p)) {
-                Verdict::Gains => "gain",
-                Verdict::Loses => "loss",
-                Verdict::WithinNoise => "not distinguishable from zero",
+            let tag = match welfare_sign(x, net_se(p)) {
+                WelfareSign::Gains => "gain",
+                WelfareSign::Loses => "loss",
+                WelfareSign::WithinNoise => "not distinguishable from zero",
             };
             two_lines(
                 format!("{first} ({tag})"),
@@ -588,12 +588,12 @@ mod tests {
     /// normal approximation), no source.
     #[test]
     fn verdicts_respect_the_noise_band() {
-        assert_eq!(verdict(10.0, Some(4.0)), Verdict::Gains);
-        assert_eq!(verdict(7.0, Some(4.0)), Verdict::WithinNoise);
-        assert_eq!(verdict(-7.0, Some(4.0)), Verdict::WithinNoise);
-        assert_eq!(verdict(-9.0, Some(4.0)), Verdict::Loses);
-        assert_eq!(verdict(-1.0, None), Verdict::Loses);
-        assert_eq!(verdict(0.0, None), Verdict::WithinNoise);
-        assert_eq!(verdict(1.0, Some(0.0)), Verdict::Gains);
+        assert_eq!(welfare_sign(10.0, Some(4.0)), WelfareSign::Gains);
+        assert_eq!(welfare_sign(7.0, Some(4.0)), WelfareSign::WithinNoise);
+        assert_eq!(welfare_sign(-7.0, Some(4.0)), WelfareSign::WithinNoise);
+        assert_eq!(welfare_sign(-9.0, Some(4.0)), WelfareSign::Loses);
+        assert_eq!(welfare_sign(-1.0, None), WelfareSign::Loses);
+        assert_eq!(welfare_sign(0.0, None), WelfareSign::WithinNoise);
+        assert_eq!(welfare_sign(1.0, Some(0.0)), WelfareSign::Gains);
     }
 }
