@@ -3,8 +3,7 @@
 use anyhow::Context;
 use clap::Args;
 use furrow::output::{write_streamed, Format};
-use furrow::path::{self, Divergence, PathStream, RunError};
-use furrow::policies::{diagnose, diagnose_tally, summarise};
+use furrow::path::{self, diagnose, diagnose_tally, summarise, Divergence, PathStream, RunError};
 
 use super::common::{check_memory, lift, load_policy, progress_for, say, CommonArgs};
 use super::figures;

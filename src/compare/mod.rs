@@ -305,7 +305,7 @@ pub fn compare(
                 &mc.policies[base],
                 long[slot].as_ref().zip(long[base].as_ref()),
             ),
-            warnings: crate::policies::summarise(scenario, &specs[slot], runs),
+            warnings: crate::path::summarise(scenario, &specs[slot], runs),
             fan: Fan {
                 price: runs.series[0].periods.clone(),
                 stock: runs.series[1].periods.clone(),

@@ -5,14 +5,15 @@
 //! [`PathModel`]s (`engine::path`); code handed the models is generic over them and never asks
 //! which model it has. [`render`] turns a path into the `run` table.
 
+mod diagnose;
 pub mod render;
 mod summary;
 
+pub use diagnose::{diagnose, diagnose_tally, floor_warning, summarise, PathTally};
 pub use render::{render_path, PathStream, RUN_COLUMNS};
 pub use summary::{render_summary, run_summary, SUMMARY_VARIABLES};
 
 use crate::engine::{Diverged, Model, PathModel, PeriodRecord, PeriodShock, Stepper};
-use crate::policies::PathTally;
 use crate::scenario::{PolicySpec, Scenario};
 use crate::stochastic::{ReplicationFailed, ShockStream};
 use crate::storage::{LongRunMeans, SolvedStorage, StorageError};
@@ -106,7 +107,7 @@ pub fn one_path(scenario: &Scenario, policy: &PolicySpec) -> Result<Vec<PeriodRe
 
 /// Streams the single path of `scenario` under `policy` period by period into `row`, holding no
 /// more than one period (the shocks are drawn as the periods go); returns the tally the path's
-/// diagnostics need (`policies::diagnose_tally`).
+/// diagnostics need (`diagnose_tally`).
 pub fn stream_path(
     scenario: &Scenario,
     policy: &PolicySpec,

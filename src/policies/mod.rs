@@ -40,7 +40,7 @@ macro_rules! trades_nothing {
 
 pub mod ceiling;
 pub mod clearing;
-mod diagnose;
+mod fill;
 pub mod floor;
 pub mod rule;
 pub mod stock;
@@ -49,9 +49,7 @@ mod stock_share;
 mod stock_target;
 
 pub use clearing::{flags, Clearing};
-pub use diagnose::{
-    diagnose, diagnose_tally, floor_warning, periods_to_fill, summarise, PathTally,
-};
+pub use fill::periods_to_fill;
 pub use floor::{DeficiencyPayment, FloorPurchase};
 pub use rule::{Build, Rule, RuleRef, RuleSection, Watched, SECTIONS};
 pub use stock_band::BandStock;
