@@ -14,6 +14,7 @@
 
 use serde::Deserialize;
 
+use super::in_storage::StoragePlan;
 use super::rule::{rank, rule_ref, Build, Cell, Row, Rule, RuleRef, RuleSection, Watched};
 use super::{flags, Agency, BandStock, Clearing, PolicyRule};
 use crate::scenario::ranges::{escape, noted, r, short_num, BIG};
@@ -24,7 +25,6 @@ use crate::scenario::{InputError, Scenario};
 use crate::stability::regimes::Regimes;
 use crate::stability::RegimePrice;
 use crate::stability::StabilityError;
-use crate::storage::agency::StoragePlan;
 
 /// The registration of `[ceiling]`.
 pub const SECTION: RuleSection = RuleSection {

@@ -3,6 +3,7 @@
 
 use serde::Deserialize;
 
+use super::in_storage::StoragePlan;
 use super::rule::{rank, rule_ref, Build, Cell, Row, Rule, RuleRef, RuleSection, Watched};
 use super::{flags, Agency, Clearing, PolicyRule};
 use crate::scenario::ranges::{noted, r, short_num, BIG};
@@ -13,7 +14,6 @@ use crate::scenario::{InputError, Scenario};
 use crate::stability::regimes::Regimes;
 use crate::stability::RegimePrice;
 use crate::stability::StabilityError;
-use crate::storage::agency::StoragePlan;
 
 /// The registration of `[floor]`.
 pub const SECTION: RuleSection = RuleSection {

@@ -42,6 +42,7 @@ pub mod ceiling;
 pub mod clearing;
 mod fill;
 pub mod floor;
+pub mod in_storage;
 pub mod rule;
 pub mod stock;
 mod stock_band;

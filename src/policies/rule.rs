@@ -11,13 +11,13 @@ use std::sync::Arc;
 
 use serde::Serialize;
 
+use super::in_storage::StoragePlan;
 use super::{Agency, PolicyRule};
 use crate::scenario::schema::Key;
 use crate::scenario::validate::Check;
 use crate::scenario::{InputError, Scenario};
 use crate::stability::regimes::Regimes;
 use crate::stability::StabilityError;
-use crate::storage::agency::StoragePlan;
 
 /// A rule as the period engine needs it: its period actions (each at its rank in the acting order)
 /// and its share of the agency's standing parameters.

@@ -5,6 +5,7 @@
 
 use serde::Deserialize;
 
+use super::in_storage::{AgencyMode, Band, Decision, ReleaseInStorage, StoragePlan};
 use super::rule::{rank, rule_ref, Build, Cell, Row, Rule, RuleRef, RuleSection, Watched};
 use super::{Agency, BandStock, ShareStock, TargetStock};
 use crate::scenario::ranges::{escape, noted, r, short_num, BIG, MONEY};
@@ -15,7 +16,6 @@ use crate::scenario::{InputError, Scenario};
 use crate::stability::regimes::{RegimeCase, Regimes};
 use crate::stability::StabilityError;
 use crate::stability::{RegimePrice, StateMap};
-use crate::storage::agency::{AgencyMode, Band, Decision, ReleaseInStorage, StoragePlan};
 
 const fn num(name: &'static str, range: crate::scenario::ranges::KeyRange) -> Key {
     Key {
@@ -548,7 +548,7 @@ impl Rule for Stock {
     }
 }
 
-/// What the storage equilibrium needs of the release rule (`storage::agency::ReleaseInStorage`).
+/// What the storage equilibrium needs of the release rule (`in_storage::ReleaseInStorage`).
 /// A rotation reaches the storage model as the band (`Rule::storage`); it is treated as the band here too.
 impl ReleaseInStorage for Release {
     fn band_only() -> Self {
