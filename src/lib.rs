@@ -34,6 +34,7 @@ pub mod output;
 pub mod path;
 pub mod plots;
 pub mod policies;
+pub mod regime;
 pub mod scenario;
 pub mod stability;
 pub mod stochastic;

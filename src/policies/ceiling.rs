@@ -17,14 +17,14 @@ use serde::Deserialize;
 use super::in_storage::StoragePlan;
 use super::rule::{rank, rule_ref, Build, Cell, Row, Rule, RuleRef, RuleSection, Watched};
 use super::{flags, Agency, BandStock, Clearing, PolicyRule};
+use crate::regime::RegimePrice;
+use crate::regime::Regimes;
+use crate::regime::StabilityError;
 use crate::scenario::ranges::{escape, noted, r, short_num, BIG};
 use crate::scenario::raw::ValueType;
 use crate::scenario::schema::Key;
 use crate::scenario::validate::{deserialize_section, Check};
 use crate::scenario::{InputError, Scenario};
-use crate::stability::regimes::Regimes;
-use crate::stability::RegimePrice;
-use crate::stability::StabilityError;
 
 /// The registration of `[ceiling]`.
 pub const SECTION: RuleSection = RuleSection {

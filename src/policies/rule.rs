@@ -13,11 +13,11 @@ use serde::Serialize;
 
 use super::in_storage::StoragePlan;
 use super::{Agency, PolicyRule};
+use crate::regime::Regimes;
+use crate::regime::StabilityError;
 use crate::scenario::schema::Key;
 use crate::scenario::validate::Check;
 use crate::scenario::{InputError, Scenario};
-use crate::stability::regimes::Regimes;
-use crate::stability::StabilityError;
 
 /// A rule as the period engine needs it: its period actions (each at its rank in the acting order)
 /// and its share of the agency's standing parameters.

@@ -8,14 +8,14 @@ use serde::Deserialize;
 use super::in_storage::{AgencyMode, Band, Decision, ReleaseInStorage, StoragePlan};
 use super::rule::{rank, rule_ref, Build, Cell, Row, Rule, RuleRef, RuleSection, Watched};
 use super::{Agency, BandStock, ShareStock, TargetStock};
+use crate::regime::RegimePrice;
+use crate::regime::StabilityError;
+use crate::regime::{RegimeCase, Regimes};
 use crate::scenario::ranges::{escape, noted, r, short_num, BIG, MONEY};
 use crate::scenario::raw::ValueType;
 use crate::scenario::schema::Key;
 use crate::scenario::validate::{deserialize_section, Check};
 use crate::scenario::{InputError, Scenario};
-use crate::stability::regimes::{RegimeCase, Regimes};
-use crate::stability::StabilityError;
-use crate::stability::{RegimePrice, StateMap};
 
 const fn num(name: &'static str, range: crate::scenario::ranges::KeyRange) -> Key {
     Key {
@@ -283,7 +283,7 @@ impl Stock {
         let settled = speed * target / (1.0 - (1.0 - loss) * (1.0 - speed));
         let offtake = loss * settled;
         let interior = RegimePrice::Free { offtake };
-        let p = StateMap::new(r.setup, interior).fixed_point(free_price);
+        let p = r.fixed_point(interior, free_price);
         match p {
             Some(p) if p <= middle * (1.0 + 1e-12) => (
                 interior,

@@ -26,9 +26,10 @@ use serde::Serialize;
 use crate::curves::SteadyState;
 use crate::scenario::{PolicySpec, Scenario};
 
+pub use crate::regime::{RegimePrice, StabilityError};
 pub use conditions::PublishedCondition;
 pub use render::render;
-pub use statespace::{RegimePrice, Setup, StateMap};
+pub use statespace::{Setup, StateMap};
 
 /// A complex eigenvalue.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
@@ -118,27 +119,6 @@ pub struct StabilityAnalysis {
     pub conditions: Vec<PublishedCondition>,
     /// General remarks (a rule that settles at once, omitted features).
     pub note: Option<String>,
-}
-
-/// Why no stability analysis could be made.
-#[derive(Debug, Clone, PartialEq, thiserror::Error)]
-pub enum StabilityError {
-    /// The linearisation has no finite value.
-    #[error("cannot linearise the {regime} regime: {reason}")]
-    Linearisation {
-        /// The regime.
-        regime: String,
-        /// Why.
-        reason: String,
-    },
-    /// The map of a regime has no fixed point.
-    #[error("no steady state in the {regime} regime: {reason}")]
-    NoSteadyState {
-        /// The regime.
-        regime: String,
-        /// Why.
-        reason: String,
-    },
 }
 
 impl StabilityError {

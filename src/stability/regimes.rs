@@ -14,78 +14,28 @@
 //! period. With a capacity limit the store fills and the floor gives way: the free market with the
 //! full store buying only its losses ℓ·capacity then holds the steady state.
 
-use super::statespace::{RegimePrice, Setup, StateMap};
-use super::StabilityError;
+use super::statespace::{Setup, StateMap};
+pub use crate::regime::{RegimeCase, RegimeMaps, Regimes};
+use crate::regime::{RegimePrice, StabilityError};
 
-/// One regime to linearise.
-#[derive(Debug, Clone, PartialEq)]
-pub struct RegimeCase {
-    /// Display name.
-    pub name: String,
-    /// Its clearing function.
-    pub clearing: RegimePrice,
-    /// True for the regime that holds the steady state.
-    pub holds: bool,
-    /// False when this regime holds but no steady state with finite stock exists.
-    pub finite: bool,
-    /// The eigenvalue of the agency's stock in this regime (it does not feed back on prices).
-    pub stock_eigenvalue: Option<f64>,
-    /// Explanation for the reader.
-    pub note: Option<String>,
-    /// Farmers plant on an announced floor in this regime (false for the market left alone).
-    pub floor_applies: bool,
-}
-
-/// What a rule adds its regimes to (`policies::Rule::regimes`): the setup, the free market's
-/// steady producer price, the regimes holding the steady state so far and the others. Rules are
-/// asked in acting order; the first that holds the steady state fills `holding`.
-#[derive(Debug)]
-pub struct Regimes<'a> {
-    /// The market and policy.
-    pub setup: &'a Setup,
-    /// The free market's steady producer price.
-    pub free_price: f64,
-    /// The quantity unit, for notes.
-    pub unit: &'a str,
-    /// The regime(s) holding the steady state (empty until a rule claims it).
-    pub holding: Vec<RegimeCase>,
-    /// The other regimes a shock can bring.
-    pub secondary: Vec<RegimeCase>,
-}
-
-impl Regimes<'_> {
-    /// A regime that does not hold the steady state (a rule sets `holds` on the one that does).
-    pub fn case(name: &str, clearing: RegimePrice, note: Option<String>) -> RegimeCase {
-        RegimeCase {
-            name: name.into(),
-            clearing,
-            holds: false,
-            finite: true,
-            stock_eigenvalue: None,
-            note,
-            floor_applies: true,
-        }
+/// The maps a rule's regimes are worked out on: the market and policy's own (`StateMap`).
+impl RegimeMaps for Setup {
+    fn market_price_at_rest(&self, clearing: RegimePrice, p: f64) -> f64 {
+        let planting = StateMap::new(self, clearing).planting_at_rest(p);
+        self.demand.price_at(self.supply.quantity(planting))
     }
 
-    /// `p` lies below `edge` (beyond rounding).
-    pub fn below(p: f64, edge: f64) -> bool {
-        p < edge * (1.0 - 1e-12)
+    fn purchase_holds(
+        &self,
+        name: &str,
+        edge: f64,
+        unit: &str,
+    ) -> Result<Vec<RegimeCase>, StabilityError> {
+        purchase_holds(self, name, edge, unit)
     }
 
-    /// The market price at rest when the producer price is held at `p` under `clearing` (a payment
-    /// pins the producer price while the market clears the harvest planted on it).
-    pub fn market_price_at_rest(&self, clearing: RegimePrice, p: f64) -> f64 {
-        let planting = StateMap::new(self.setup, clearing).planting_at_rest(p);
-        self.setup
-            .demand
-            .price_at(self.setup.supply.quantity(planting))
-    }
-
-    /// The regime that holds when the price would settle below a price `edge` the agency defends
-    /// by buying: pinned with a settled stock, no finite stock, or the free market with a full
-    /// store.
-    pub fn purchase_holds(&self, name: &str, edge: f64) -> Result<Vec<RegimeCase>, StabilityError> {
-        purchase_holds(self.setup, name, edge, self.unit)
+    fn fixed_point(&self, clearing: RegimePrice, guess: f64) -> Option<f64> {
+        StateMap::new(self, clearing).fixed_point(guess)
     }
 }
 
@@ -193,7 +143,7 @@ pub fn regimes(
     unit: &str,
 ) -> Result<Vec<RegimeCase>, StabilityError> {
     let mut r = Regimes {
-        setup,
+        maps: setup,
         free_price,
         unit,
         holding: Vec::new(),

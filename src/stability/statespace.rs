@@ -14,6 +14,7 @@ use nalgebra::DMatrix;
 use crate::curves::Curve;
 use crate::expectations::{self, ExpectationInput, ExpectationRule};
 use crate::policies::{Agency, RuleRef};
+use crate::regime::RegimePrice;
 use crate::scenario::{ExpectationSpec, PolicySpec, Scenario};
 
 /// What the linearisation needs of a market and a policy (cheap to clone and patch in a sweep: the
@@ -80,20 +81,6 @@ impl Setup {
     pub fn planting_floor(&self) -> Option<f64> {
         self.planting_floor
     }
-}
-
-/// How the producer price answers the planting price inside one regime.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub enum RegimePrice {
-    /// The market clears the harvest less a constant net agency offtake: P = D⁻¹(S(P^e) − offtake).
-    Free {
-        /// Net quantity the agency takes off the market each period.
-        offtake: f64,
-    },
-    /// The market price is pinned (a defended floor, band edge or ceiling).
-    Pinned(f64),
-    /// The producer price is pinned by a payment (a deficiency payment); the market clears freely.
-    Paid(f64),
 }
 
 impl RegimePrice {
