@@ -3,6 +3,9 @@
 //! the market's maps (`stability::Setup`, through [`RegimeMaps`]) what it needs; `stability`
 //! linearises them. This module imports neither side, so the rules do not import `stability`.
 
+/// |ρ − 1| ≤ this counts as neutral (a unit root); below 1 − tol is stable, above 1 + tol unstable.
+pub const NEUTRAL_TOLERANCE: f64 = 1e-9;
+
 /// Why no stability analysis could be made.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum StabilityError {

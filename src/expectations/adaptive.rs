@@ -1,12 +1,12 @@
 //! `rule = "adaptive"`: farmers revise their expectation by a share of last season's surprise
 //! (Nerlove 1958). Everything the program knows of it is here.
 
+use super::conditions::{PublishedCondition, Slopes};
 use super::{g, g6, ExpectationInput, ExpectationRule, Reader, Registration, StateLayout, Values};
 use crate::scenario::ranges::{r, BIG};
 use crate::scenario::raw::ValueType;
 use crate::scenario::schema::Key;
 use crate::scenario::InputError;
-use crate::stability::conditions::{PublishedCondition, Slopes};
 
 /// The registration of `rule = "adaptive"`.
 pub const RULE: Registration = Registration {

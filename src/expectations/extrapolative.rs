@@ -1,6 +1,7 @@
 //! `rule = "extrapolative"`: farmers extend last season's price change (Goodwin 1947). Everything
 //! the program knows of it is here.
 
+use super::conditions::{PublishedCondition, Slopes};
 use super::{
     g, g6, Adaptive, ExpectationInput, ExpectationRule, Reader, Registration, StateLayout, Values,
 };
@@ -8,7 +9,6 @@ use crate::scenario::ranges::r;
 use crate::scenario::raw::ValueType;
 use crate::scenario::schema::Key;
 use crate::scenario::InputError;
-use crate::stability::conditions::{PublishedCondition, Slopes};
 
 /// The registration of `rule = "extrapolative"`.
 pub const RULE: Registration = Registration {

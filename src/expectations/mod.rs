@@ -13,6 +13,7 @@
 //! declares so (`is_rational`); the engine solves it (see `engine::rational`).
 
 mod adaptive;
+pub mod conditions;
 mod extrapolative;
 mod naive;
 mod normal_price;
@@ -36,7 +37,7 @@ use crate::scenario::raw::ValueType;
 use crate::scenario::schema::Key;
 use crate::scenario::validate::Check;
 use crate::scenario::InputError;
-use crate::stability::conditions::{PublishedCondition, Slopes};
+use conditions::{PublishedCondition, Slopes};
 
 /// Every registered expectation rule, in the order the documentation and messages list them; the
 /// first is the rule of a file that names none (the only registration point for expectation rules).

@@ -1,11 +1,11 @@
 //! `rule = "naive"`: farmers expect last season's price (the classic cobweb). Everything the program
 //! knows of it is here.
 
+use super::conditions::{PublishedCondition, Slopes};
 use super::{
     Adaptive, ExpectationInput, ExpectationRule, Reader, Registration, StateLayout, Values,
 };
 use crate::scenario::InputError;
-use crate::stability::conditions::{PublishedCondition, Slopes};
 
 /// The registration of `rule = "naive"` (no keys of its own).
 pub const RULE: Registration = Registration {

@@ -1,6 +1,7 @@
 //! `rule = "normal-price"`: farmers expect last season's price pulled toward a normal price, fixed
 //! or the mean of recent prices. Everything the program knows of it is here.
 
+use super::conditions::{PublishedCondition, Slopes};
 use super::{
     g, g6, Adaptive, ExpectationInput, ExpectationRule, Reader, Registration, StateLayout, Values,
 };
@@ -8,7 +9,6 @@ use crate::scenario::ranges::{int, r, BIG};
 use crate::scenario::raw::ValueType;
 use crate::scenario::schema::Key;
 use crate::scenario::InputError;
-use crate::stability::conditions::{PublishedCondition, Slopes};
 
 /// The registration of `rule = "normal-price"`.
 pub const RULE: Registration = Registration {

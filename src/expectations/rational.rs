@@ -1,11 +1,11 @@
 //! `rule = "rational"`: farmers expect what the model itself predicts (Muth 1961). The engine solves
 //! the expectation (`engine::rational`); everything else the program knows of the rule is here.
 
+use super::conditions::{PublishedCondition, Slopes};
 use super::{
     Adaptive, ExpectationInput, ExpectationRule, Reader, Registration, StateLayout, Values,
 };
 use crate::scenario::InputError;
-use crate::stability::conditions::{PublishedCondition, Slopes};
 
 /// The registration of `rule = "rational"` (no keys of its own).
 pub const RULE: Registration = Registration {

@@ -1,6 +1,7 @@
 //! `rule = "trailing-mean"`: farmers expect the mean of the last k prices. Everything the program
 //! knows of it is here.
 
+use super::conditions::{PublishedCondition, Slopes};
 use super::{
     Adaptive, ExpectationInput, ExpectationRule, Reader, Registration, StateLayout, Values,
 };
@@ -8,7 +9,6 @@ use crate::scenario::ranges::int;
 use crate::scenario::raw::ValueType;
 use crate::scenario::schema::Key;
 use crate::scenario::InputError;
-use crate::stability::conditions::{PublishedCondition, Slopes};
 
 /// The registration of `rule = "trailing-mean"`.
 pub const RULE: Registration = Registration {

@@ -12,8 +12,7 @@ use nalgebra::{DMatrix, Schur};
 
 use super::{Eigenvalue, Verdict};
 
-/// |ρ − 1| ≤ this counts as neutral (a unit root); below 1 − tol is stable, above 1 + tol unstable.
-pub const NEUTRAL_TOLERANCE: f64 = 1e-9;
+pub use crate::regime::NEUTRAL_TOLERANCE;
 
 /// Iteration cap of the Schur decomposition.
 const SCHUR_MAX_ITER: usize = 10_000;

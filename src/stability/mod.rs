@@ -15,7 +15,6 @@
 //! steady state with finite stock"). A regime whose steady state would need a market price ≤ 0 has
 //! no steady state at all: that is an error, never a verdict.
 
-pub mod conditions;
 pub mod eigen;
 pub mod regimes;
 mod render;
@@ -26,8 +25,8 @@ use serde::Serialize;
 use crate::curves::SteadyState;
 use crate::scenario::{PolicySpec, Scenario};
 
+pub use crate::expectations::conditions::{self, PublishedCondition};
 pub use crate::regime::{RegimePrice, StabilityError};
-pub use conditions::PublishedCondition;
 pub use render::render;
 pub use statespace::{Setup, StateMap};
 

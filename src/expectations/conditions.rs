@@ -6,7 +6,7 @@
 //! (`ExpectationRule::conditions`). The eigenvalues decide in every case, these are for the reader.
 //!
 //! Every condition is a strict inequality. Where the market sits on its boundary — within the
-//! neutral band of the verdict ([`super::eigen::NEUTRAL_TOLERANCE`], measured in the same units as
+//! neutral band of the verdict ([`crate::regime::NEUTRAL_TOLERANCE`], measured in the same units as
 //! the spectral radius) — the condition does not hold and is reported as "on the boundary", never as
 //! holding because of a rounding error in b/d.
 
@@ -31,7 +31,7 @@ fn f(x: f64) -> String {
     crate::output::fmt_num(x, 6)
 }
 
-use super::eigen::NEUTRAL_TOLERANCE;
+use crate::regime::NEUTRAL_TOLERANCE;
 
 /// (holds, on the boundary) for a condition `margin > 0` whose margin is measured in units of the
 /// spectral radius (1 − ρ at the boundary's side).
