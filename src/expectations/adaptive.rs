@@ -3,10 +3,10 @@
 
 use super::conditions::{PublishedCondition, Slopes};
 use super::{g, g6, ExpectationInput, ExpectationRule, Reader, Registration, StateLayout, Values};
-use crate::scenario::ranges::{r, BIG};
-use crate::scenario::raw::ValueType;
-use crate::scenario::schema::Key;
-use crate::scenario::InputError;
+use crate::input::ranges::{r, BIG};
+use crate::input::InputError;
+use crate::input::Key;
+use crate::input::ValueType;
 
 /// The registration of `rule = "adaptive"`.
 pub const RULE: Registration = Registration {

@@ -5,10 +5,10 @@ use super::conditions::{PublishedCondition, Slopes};
 use super::{
     g, g6, Adaptive, ExpectationInput, ExpectationRule, Reader, Registration, StateLayout, Values,
 };
-use crate::scenario::ranges::r;
-use crate::scenario::raw::ValueType;
-use crate::scenario::schema::Key;
-use crate::scenario::InputError;
+use crate::input::ranges::r;
+use crate::input::InputError;
+use crate::input::Key;
+use crate::input::ValueType;
 
 /// The registration of `rule = "extrapolative"`.
 pub const RULE: Registration = Registration {

@@ -31,12 +31,12 @@ use std::sync::OnceLock;
 
 use serde::Serialize;
 
-use crate::scenario::keys::{check_keys, parse_toml};
-use crate::scenario::ranges::{escape, KeyRange};
-use crate::scenario::raw::ValueType;
-use crate::scenario::schema::Key;
-use crate::scenario::validate::Check;
-use crate::scenario::InputError;
+use crate::input::keys::{check_keys, parse_toml};
+use crate::input::ranges::{escape, KeyRange};
+use crate::input::Check;
+use crate::input::InputError;
+use crate::input::Key;
+use crate::input::ValueType;
 use conditions::{PublishedCondition, Slopes};
 
 /// Every registered expectation rule, in the order the documentation and messages list them; the

@@ -5,7 +5,7 @@ use super::conditions::{PublishedCondition, Slopes};
 use super::{
     Adaptive, ExpectationInput, ExpectationRule, Reader, Registration, StateLayout, Values,
 };
-use crate::scenario::InputError;
+use crate::input::InputError;
 
 /// The registration of `rule = "naive"` (no keys of its own).
 pub const RULE: Registration = Registration {

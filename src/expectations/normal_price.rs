@@ -5,10 +5,10 @@ use super::conditions::{PublishedCondition, Slopes};
 use super::{
     g, g6, Adaptive, ExpectationInput, ExpectationRule, Reader, Registration, StateLayout, Values,
 };
-use crate::scenario::ranges::{int, r, BIG};
-use crate::scenario::raw::ValueType;
-use crate::scenario::schema::Key;
-use crate::scenario::InputError;
+use crate::input::ranges::{int, r, BIG};
+use crate::input::InputError;
+use crate::input::Key;
+use crate::input::ValueType;
 
 /// The registration of `rule = "normal-price"`.
 pub const RULE: Registration = Registration {

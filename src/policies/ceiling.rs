@@ -17,14 +17,15 @@ use serde::Deserialize;
 use super::in_storage::StoragePlan;
 use super::rule::{rank, rule_ref, Build, Cell, Row, Rule, RuleRef, RuleSection, Watched};
 use super::{flags, Agency, BandStock, Clearing, PolicyRule};
+use crate::input::ranges::{escape, noted, r, short_num, BIG};
+use crate::input::InputError;
+use crate::input::Key;
+use crate::input::ValueType;
+use crate::input::{deserialize_section, Check};
 use crate::regime::RegimePrice;
 use crate::regime::Regimes;
 use crate::regime::StabilityError;
-use crate::scenario::ranges::{escape, noted, r, short_num, BIG};
-use crate::scenario::raw::ValueType;
-use crate::scenario::schema::Key;
-use crate::scenario::validate::{deserialize_section, Check};
-use crate::scenario::{InputError, Scenario};
+use crate::scenario::Scenario;
 
 /// The registration of `[ceiling]`.
 pub const SECTION: RuleSection = RuleSection {

@@ -13,11 +13,12 @@ use serde::Serialize;
 
 use super::in_storage::StoragePlan;
 use super::{Agency, PolicyRule};
+use crate::input::Check;
+use crate::input::InputError;
+use crate::input::Key;
 use crate::regime::Regimes;
 use crate::regime::StabilityError;
-use crate::scenario::schema::Key;
-use crate::scenario::validate::Check;
-use crate::scenario::{InputError, Scenario};
+use crate::scenario::Scenario;
 
 /// A rule as the period engine needs it: its period actions (each at its rank in the acting order)
 /// and its share of the agency's standing parameters.

@@ -8,14 +8,15 @@ use serde::Deserialize;
 use super::in_storage::{AgencyMode, Band, Decision, ReleaseInStorage, StoragePlan};
 use super::rule::{rank, rule_ref, Build, Cell, Row, Rule, RuleRef, RuleSection, Watched};
 use super::{Agency, BandStock, ShareStock, TargetStock};
+use crate::input::ranges::{escape, noted, r, short_num, BIG, MONEY};
+use crate::input::InputError;
+use crate::input::Key;
+use crate::input::ValueType;
+use crate::input::{deserialize_section, Check};
 use crate::regime::RegimePrice;
 use crate::regime::StabilityError;
 use crate::regime::{RegimeCase, Regimes};
-use crate::scenario::ranges::{escape, noted, r, short_num, BIG, MONEY};
-use crate::scenario::raw::ValueType;
-use crate::scenario::schema::Key;
-use crate::scenario::validate::{deserialize_section, Check};
-use crate::scenario::{InputError, Scenario};
+use crate::scenario::Scenario;
 
 const fn num(name: &'static str, range: crate::scenario::ranges::KeyRange) -> Key {
     Key {

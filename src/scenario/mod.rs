@@ -4,7 +4,6 @@
 //! and builds a [`Scenario`] (market file) or a [`PolicySpec`] (policy file). Everything downstream —
 //! engine, stability, Monte Carlo — trusts these values and never re-checks them.
 
-pub mod keys;
 pub mod ranges;
 pub mod raw;
 pub mod schema;
@@ -14,56 +13,12 @@ use serde::Serialize;
 
 use crate::curves::{Curve, SteadyState};
 
-pub use keys::{apply_override, parse_toml};
+pub use crate::input::keys::{self, apply_override, parse_toml};
+pub use crate::input::InputError;
 pub use validate::{
     load_market, load_policy, market_from_str, market_from_str_with, market_from_table,
     policy_for_market, policy_from_str, policy_from_table,
 };
-
-/// An input problem, always naming the file and, where there is one, the key and the value.
-#[derive(Debug, Clone, PartialEq, thiserror::Error)]
-pub enum InputError {
-    /// The file could not be read.
-    #[error("{file}: cannot read: {reason}")]
-    Unreadable { file: String, reason: String },
-    /// TOML syntax or type error, with line and column where the parser gave them.
-    #[error("{file}: {message}")]
-    Syntax { file: String, message: String },
-    /// A key that no section allows.
-    #[error("{file}: {key}: unknown key{suggestion}")]
-    UnknownKey {
-        file: String,
-        key: String,
-        suggestion: String,
-    },
-    /// A key whose value is out of range or inconsistent with others.
-    #[error("{file}: {key} = {value}: {expected}")]
-    BadValue {
-        file: String,
-        key: String,
-        value: String,
-        expected: String,
-    },
-    /// A required key is missing.
-    #[error("{file}: {key}: missing; {expected}")]
-    Missing {
-        file: String,
-        key: String,
-        expected: String,
-    },
-}
-
-impl InputError {
-    /// The dotted key the error is about, when it is about one.
-    pub fn key(&self) -> Option<&str> {
-        match self {
-            InputError::UnknownKey { key, .. }
-            | InputError::BadValue { key, .. }
-            | InputError::Missing { key, .. } => Some(key),
-            _ => None,
-        }
-    }
-}
 
 /// What the market is: curves and units.
 #[derive(Debug, Clone, PartialEq, Serialize)]

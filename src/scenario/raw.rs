@@ -78,23 +78,7 @@ pub struct RawPolicy {
     pub annual_budget: Option<f64>,
 }
 
-/// The type a key's value must have.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
-pub enum ValueType {
-    /// A number (integer or float).
-    Number,
-    /// A whole number.
-    Integer,
-    /// A string.
-    Text,
-    /// true or false.
-    Bool,
-    /// An array of numbers.
-    Numbers,
-    /// A number or an array of numbers.
-    NumberOrNumbers,
-}
-
+pub use crate::input::ValueType;
 use ValueType::*;
 
 /// The keys each section of the market file allows and their types, for the unknown-key check

@@ -5,22 +5,10 @@
 //! rule sections and the `[expectations]` keys are not listed here: each rule file declares its
 //! keys and registers them (`policies::SECTIONS`, `expectations::RULES`).
 
-use super::ranges::KeyRange;
 use super::raw::{ValueType, MARKET_SCHEMA_AFTER, MARKET_SCHEMA_BEFORE, POLICY_SCHEMA};
+pub use crate::input::Key;
 
-/// One key of a rule section: name, type and (numeric keys) range.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Key {
-    /// The key within its section, e.g. `price`.
-    pub name: &'static str,
-    /// Its type.
-    pub kind: ValueType,
-    /// Its range (numeric keys), with the dotted key.
-    pub range: Option<KeyRange>,
-}
-
-/// Sections with their keys and types.
-pub type Schema = Vec<(&'static str, Vec<(&'static str, ValueType)>)>;
+pub use crate::input::Schema;
 
 /// The market file's schema (its own sections, `[expectations]` from the expectation rules).
 pub fn market() -> Schema {

@@ -2,8 +2,8 @@
 //! key overrides (`--vary supply.slope=...`).
 
 use super::ranges::escape;
-use super::raw::ValueType;
 use super::InputError;
+use super::ValueType;
 
 /// Parses TOML text, naming the file in the error (the parser's message carries line and column).
 pub fn parse_toml(file: &str, text: &str) -> Result<toml::Table, InputError> {
@@ -24,7 +24,7 @@ pub fn parse_toml(file: &str, text: &str) -> Result<toml::Table, InputError> {
 pub fn check_keys(
     file: &str,
     table: &toml::Table,
-    schema: &super::schema::Schema,
+    schema: &super::Schema,
 ) -> Result<(), InputError> {
     for (section, value) in table {
         let Some((_, keys)) = schema.iter().find(|(s, _)| s == section) else {
@@ -161,7 +161,7 @@ mod tests {
     #[test]
     fn unknown_key_gets_a_suggestion() {
         let t = parse_toml("m.toml", "[supply]\nslpoe = 1.0\n").unwrap();
-        let err = check_keys("m.toml", &t, &super::super::schema::market()).unwrap_err();
+        let err = check_keys("m.toml", &t, &crate::scenario::schema::market()).unwrap_err();
         let msg = err.to_string();
         assert!(msg.contains("supply.slpoe"), "{msg}");
         assert!(msg.contains("did you mean `slope`"), "{msg}");
