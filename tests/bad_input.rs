@@ -322,8 +322,8 @@ fn binary_exits_2_and_names_the_key_on_a_sample() {
 // ---- regression tests for the hardening issue (items 3 to 7) -------------------------------------
 
 use common::{bin, linear_market, policy, stdout_of};
+use furrow::policies::file::{all_ranges, range_of};
 use furrow::scenario::policy_for_market;
-use furrow::scenario::ranges::{self, range_of};
 use furrow::scenario::raw::ValueType;
 use furrow::scenario::schema;
 
@@ -542,7 +542,7 @@ fn check_prints_unlimited_not_inf() {
 fn every_numeric_key_has_a_finite_range_and_the_readme_lists_it() {
     // the schema's numeric keys and the range table are the same set
     let mut numeric = Vec::new();
-    for schema in [schema::market(), schema::policy()] {
+    for schema in [schema::market(), furrow::policies::file::schema()] {
         for (section, keys) in &schema {
             for (key, kind) in keys {
                 if matches!(
@@ -559,7 +559,7 @@ fn every_numeric_key_has_a_finite_range_and_the_readme_lists_it() {
             }
         }
     }
-    for r in ranges::all() {
+    for r in all_ranges() {
         assert!(
             numeric.iter().any(|k| k == r.key),
             "{} is not in a schema",
@@ -570,7 +570,7 @@ fn every_numeric_key_has_a_finite_range_and_the_readme_lists_it() {
     // the README's table, row for row
     let readme =
         std::fs::read_to_string(format!("{}/README.md", env!("CARGO_MANIFEST_DIR"))).unwrap();
-    let want: Vec<String> = ranges::all()
+    let want: Vec<String> = all_ranges()
         .iter()
         .map(|r| format!("| `{}` | {} | {} |", r.key, r.describe(), r.note))
         .collect();

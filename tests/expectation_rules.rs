@@ -74,7 +74,9 @@ fn every_rule_declares_its_keys_in_the_one_schema_and_reads_only_them() {
             assert!(row.lo <= range.lo && row.hi >= range.hi, "{dotted}");
             // both files have the section; --vary sends it to the market file
             assert!(schema::market().iter().any(|(s, _)| *s == "expectations"));
-            assert!(schema::policy().iter().any(|(s, _)| *s == "expectations"));
+            assert!(furrow::policies::file::schema()
+                .iter()
+                .any(|(s, _)| *s == "expectations"));
             assert_eq!(base.target(&dotted), Target::Market, "{dotted}");
             // a value beyond the rule's range is refused, naming the key
             let example = rule

@@ -6,8 +6,9 @@ mod common;
 
 use common::{bin, linear_market, policy};
 use furrow::engine::{Model, PeriodShock};
+use furrow::policies::file::is_policy_section;
 use furrow::policies::{self, Clearing, SECTIONS};
-use furrow::scenario::{self, schema, PolicySpec};
+use furrow::scenario::{self, PolicySpec};
 use furrow::stability::{self, regimes, Setup};
 use furrow::storage::agency::{self, decide, Decision, StoragePlan};
 use furrow::sweep::apply::{Base, Target};
@@ -57,7 +58,7 @@ fn every_registered_rule_answers_every_behaviour() {
             }
             assert_eq!(base.target(&dotted), Target::Policy, "{dotted}");
         }
-        assert!(schema::is_policy_section(name));
+        assert!(is_policy_section(name));
         // period engine: at least one period action, and the policy intervenes
         let compiled = policies::compile(&p);
         assert!(!compiled.rules.is_empty(), "{what}: no period action");

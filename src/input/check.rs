@@ -2,7 +2,7 @@
 //! name, and turns a value outside a key's range into a message naming file, key, value and range.
 
 use super::ranges::{short_num, KeyRange};
-use super::InputError;
+use super::{InputError, Key};
 
 /// A small helper that knows the file name for error messages (rule files read their sections
 /// through it).
@@ -146,5 +146,17 @@ impl<'a> Check<'a> {
             ));
         }
         Ok(v as usize)
+    }
+
+    /// Checks `v` against the range a rule declares for `key` among its own `keys` (its
+    /// registration); a key declared without a range is only checked to be finite.
+    pub fn within_keys(&self, keys: &[Key], key: &str, v: f64) -> Result<f64, InputError> {
+        match keys
+            .iter()
+            .find_map(|k| k.range.as_ref().filter(|r| r.key == key))
+        {
+            Some(range) => self.in_range(range, v),
+            None => self.finite(key, v),
+        }
     }
 }

@@ -86,7 +86,7 @@ fn read(c: &Check, table: &toml::Table) -> Result<RuleRef, InputError> {
     let price = raw
         .price
         .ok_or_else(|| c.missing("ceiling.price", "a ceiling needs price > 0"))?;
-    let price = c.within("ceiling.price", price)?;
+    let price = c.within_keys(SECTION.keys, "ceiling.price", price)?;
     let instrument = match raw.instrument.as_deref() {
         Some("release") => CeilingInstrument::Release,
         Some("consumer-subsidy") => CeilingInstrument::ConsumerSubsidy,

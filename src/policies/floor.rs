@@ -84,7 +84,7 @@ fn read(c: &Check, table: &toml::Table) -> Result<RuleRef, InputError> {
     let price = f
         .price
         .ok_or_else(|| c.missing("floor.price", "a floor needs price > 0"))?;
-    let price = c.within("floor.price", price)?;
+    let price = c.within_keys(SECTION.keys, "floor.price", price)?;
     let instrument = match f.instrument.as_deref().unwrap_or("purchase") {
         "purchase" => FloorInstrument::Purchase,
         "deficiency-payment" => FloorInstrument::DeficiencyPayment,

@@ -40,6 +40,7 @@ macro_rules! trades_nothing {
 
 pub mod ceiling;
 pub mod clearing;
+pub mod file;
 mod fill;
 pub mod floor;
 pub mod in_storage;
@@ -50,14 +51,13 @@ mod stock_share;
 mod stock_target;
 
 pub use clearing::{flags, Clearing};
+pub use file::PolicySpec;
 pub use fill::periods_to_fill;
 pub use floor::{DeficiencyPayment, FloorPurchase};
 pub use rule::{Build, Rule, RuleRef, RuleSection, Watched, SECTIONS};
 pub use stock_band::BandStock;
 pub use stock_share::ShareStock;
 pub use stock_target::TargetStock;
-
-use crate::scenario::PolicySpec;
 
 /// One period action of a rule, as the engine calls it. Every method is required: an action states
 /// what it does and what it leaves alone.

@@ -141,9 +141,9 @@ struct Raw {
 
 fn read(c: &Check, table: &toml::Table) -> Result<RuleRef, InputError> {
     let s: Raw = deserialize_section(c, table)?;
-    let buy_below = c.within("stock.buy_below", s.buy_below.unwrap_or(0.0))?;
+    let buy_below = c.within_keys(SECTION.keys, "stock.buy_below", s.buy_below.unwrap_or(0.0))?;
     let sell_above = match s.sell_above {
-        Some(v) => c.within("stock.sell_above", v)?,
+        Some(v) => c.within_keys(SECTION.keys, "stock.sell_above", v)?,
         None => f64::INFINITY,
     };
     if buy_below > sell_above {
@@ -157,10 +157,10 @@ fn read(c: &Check, table: &toml::Table) -> Result<RuleRef, InputError> {
         ));
     }
     let capacity = match s.capacity {
-        Some(v) => c.within("stock.capacity", v)?,
+        Some(v) => c.within_keys(SECTION.keys, "stock.capacity", v)?,
         None => f64::INFINITY,
     };
-    let initial = c.within("stock.initial", s.initial.unwrap_or(0.0))?;
+    let initial = c.within_keys(SECTION.keys, "stock.initial", s.initial.unwrap_or(0.0))?;
     if initial > capacity {
         return Err(c.bad(
             "stock.initial",
@@ -177,7 +177,7 @@ fn read(c: &Check, table: &toml::Table) -> Result<RuleRef, InputError> {
                     "release = \"target\" needs target ≥ 0 (the stock to steer toward)",
                 )
             })?;
-            let target = c.within("stock.target", target)?;
+            let target = c.within_keys(SECTION.keys, "stock.target", target)?;
             if target > capacity {
                 return Err(c.bad(
                     "stock.target",
@@ -185,7 +185,7 @@ fn read(c: &Check, table: &toml::Table) -> Result<RuleRef, InputError> {
                     &format!("must be ≤ stock.capacity = {}", short_num(capacity)),
                 ));
             }
-            let speed = c.within("stock.speed", s.speed.unwrap_or(1.0))?;
+            let speed = c.within_keys(SECTION.keys, "stock.speed", s.speed.unwrap_or(1.0))?;
             Release::Target { target, speed }
         }
         // "share" is the old name of "drawdown", kept as an alias
@@ -196,7 +196,7 @@ fn read(c: &Check, table: &toml::Table) -> Result<RuleRef, InputError> {
                     &format!("release = \"{word}\" needs share in (0, 1]"),
                 )
             })?;
-            let share = c.within("stock.share", share)?;
+            let share = c.within_keys(SECTION.keys, "stock.share", share)?;
             if word == "rotate" {
                 Release::Rotate { share }
             } else {
@@ -237,14 +237,26 @@ fn read(c: &Check, table: &toml::Table) -> Result<RuleRef, InputError> {
         sell_above,
         capacity,
         initial,
-        storage_cost: c.within("stock.storage_cost", s.storage_cost.unwrap_or(0.0))?,
-        loss_rate: c.within("stock.loss_rate", s.loss_rate.unwrap_or(0.0))?,
+        storage_cost: c.within_keys(
+            SECTION.keys,
+            "stock.storage_cost",
+            s.storage_cost.unwrap_or(0.0),
+        )?,
+        loss_rate: c.within_keys(SECTION.keys, "stock.loss_rate", s.loss_rate.unwrap_or(0.0))?,
         purchase_budget: match s.purchase_budget {
-            Some(v) => c.within("stock.purchase_budget", v)?,
+            Some(v) => c.within_keys(SECTION.keys, "stock.purchase_budget", v)?,
             None => f64::INFINITY,
         },
-        financing_rate: c.within("stock.financing_rate", s.financing_rate.unwrap_or(0.0))?,
-        handling_cost: c.within("stock.handling_cost", s.handling_cost.unwrap_or(0.0))?,
+        financing_rate: c.within_keys(
+            SECTION.keys,
+            "stock.financing_rate",
+            s.financing_rate.unwrap_or(0.0),
+        )?,
+        handling_cost: c.within_keys(
+            SECTION.keys,
+            "stock.handling_cost",
+            s.handling_cost.unwrap_or(0.0),
+        )?,
         release,
     }))
 }

@@ -15,10 +15,11 @@ use crate::curves::{Curve, SteadyState};
 
 pub use crate::input::keys::{self, apply_override, parse_toml};
 pub use crate::input::InputError;
-pub use validate::{
-    load_market, load_policy, market_from_str, market_from_str_with, market_from_table,
-    policy_for_market, policy_from_str, policy_from_table,
+pub use crate::policies::file::{
+    file_kind, is_policy_text, load_policy, policy_for_market, policy_from_str, policy_from_table,
+    FileKind, PolicySpec,
 };
+pub use validate::{load_market, market_from_str, market_from_str_with, market_from_table};
 
 /// What the market is: curves and units.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -163,134 +164,4 @@ pub struct Scenario {
     pub storers: Option<Storers>,
     /// The steady state of the free market (exists: checked when the file was read).
     pub steady: SteadyState,
-}
-
-/// A validated policy file: its rules, each read from its own section through the registry
-/// (`policies::SECTIONS`), in acting order.
-#[derive(Debug, Clone, Serialize)]
-pub struct PolicySpec {
-    /// The file it came from (empty for the built-in "no intervention").
-    pub source: String,
-    /// Display name.
-    pub name: String,
-    /// The rules, in acting order (empty: the market left alone).
-    pub rules: Vec<crate::policies::RuleRef>,
-    /// Expectation rule that overrides the market file's.
-    pub expectations: Option<ExpectationSpec>,
-    /// Money per season the treasury set aside (`[policy] annual_budget`), if any.
-    pub annual_budget: Option<f64>,
-}
-
-impl PartialEq for PolicySpec {
-    fn eq(&self, other: &Self) -> bool {
-        self.source == other.source
-            && self.name == other.name
-            && self.expectations == other.expectations
-            && self.annual_budget == other.annual_budget
-            && self.rules.len() == other.rules.len()
-            && self
-                .rules
-                .iter()
-                .zip(&other.rules)
-                .all(|(a, b)| a.section() == b.section() && a.describe() == b.describe())
-    }
-}
-
-impl PolicySpec {
-    /// The market left alone.
-    pub fn none() -> PolicySpec {
-        PolicySpec {
-            source: String::new(),
-            name: "No intervention".into(),
-            rules: Vec::new(),
-            expectations: None,
-            annual_budget: None,
-        }
-    }
-
-    /// True when the policy does nothing (no rule, no override).
-    pub fn is_none(&self) -> bool {
-        self.rules.is_empty() && self.expectations.is_none()
-    }
-
-    /// True when some rule trades or pays; a policy without rules may still override the
-    /// farmers' expectation rule, which is a change in behaviour, not a policy.
-    pub fn intervenes(&self) -> bool {
-        !self.rules.is_empty()
-    }
-
-    /// The rule read from `section`, if the file has it.
-    pub fn rule(&self, section: &str) -> Option<&crate::policies::RuleRef> {
-        self.rules.iter().find(|r| r.section() == section)
-    }
-}
-
-/// Reads a file and tells whether it is a policy file (it has a `[policy]` section).
-pub fn is_policy_text(text: &str) -> bool {
-    match text.parse::<toml::Table>() {
-        Ok(t) => t.contains_key("policy"),
-        Err(_) => text.lines().any(|l| l.trim() == "[policy]"),
-    }
-}
-
-/// What a file is, decided by the sections it has.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
-#[serde(rename_all = "lowercase")]
-pub enum FileKind {
-    /// A market file: it has sections only a market file takes (`[demand]`, `[supply]`, `[run]` …).
-    Market,
-    /// A policy file: it has sections only a policy file takes (`[policy]`, `[floor]`, `[stock]`).
-    Policy,
-}
-
-/// Decides whether `text` is a market or a policy file by the sections present (`[expectations]`
-/// belongs to both), and says which sections decided it. A file with sections of both kinds, or
-/// with none that decides, is an error naming the file; a file that does not parse gives the
-/// parser's error.
-pub fn file_kind(file: &str, text: &str) -> Result<(FileKind, Vec<String>), InputError> {
-    let table = parse_toml(file, text)?;
-    let only_in = |a: &schema::Schema, b: &schema::Schema| {
-        table
-            .keys()
-            .filter(|k| a.iter().any(|(s, _)| s == k) && !b.iter().any(|(s, _)| s == k))
-            .map(|k| format!("[{k}]"))
-            .collect::<Vec<_>>()
-    };
-    let (market_schema, policy_schema) = (schema::market(), schema::policy());
-    let market = only_in(&market_schema, &policy_schema);
-    let policy = only_in(&policy_schema, &market_schema);
-    match (market.is_empty(), policy.is_empty()) {
-        (false, true) => Ok((FileKind::Market, market)),
-        (true, false) => Ok((FileKind::Policy, policy)),
-        (false, false) => Err(InputError::Syntax {
-            file: file.into(),
-            message: format!(
-                "mixes market sections ({}) and policy sections ({}): a market and a policy go in \
-                 separate files",
-                market.join(", "),
-                policy.join(", ")
-            ),
-        }),
-        (true, true) => {
-            let what = if text.trim().is_empty() {
-                "the file is empty".to_string()
-            } else if table.is_empty() {
-                "the file has no sections (only comments, or cut short)".to_string()
-            } else {
-                let found: Vec<String> = table
-                    .keys()
-                    .map(|k| format!("[{}]", ranges::escape(k)))
-                    .collect();
-                format!("it has only {}", found.join(", "))
-            };
-            Err(InputError::Missing {
-                file: file.into(),
-                key: "[demand] or [policy]".into(),
-                expected: format!(
-                    "neither a market file (needs [demand] and [supply]) nor a policy file (needs \
-                     [policy]): {what}"
-                ),
-            })
-        }
-    }
 }

@@ -60,8 +60,6 @@ pub const RANGES: &[KeyRange] = &[
     r("storers.storage_cost", 0.0, BIG, false, false),
     r("storers.interest_rate", 0.0, 1.0, false, true),
     r("storers.loss_rate", 0.0, 1.0, false, true),
-    // policy file (the rule sections' keys are declared in their rule files)
-    r("policy.annual_budget", 0.0, MONEY, true, false),
 ];
 
 /// The range of `key` (a dotted key; an indexed key such as `run.price_history[3]` takes its
@@ -72,31 +70,7 @@ pub fn range_of(key: &str) -> Option<&'static KeyRange> {
         .iter()
         .chain(RANGES)
         .chain(crate::expectations::key_ranges())
-        .chain(rule_ranges())
         .find(|k| k.key == base)
-}
-
-/// The ranges the registered policy rules declare for their keys.
-fn rule_ranges() -> impl Iterator<Item = &'static KeyRange> {
-    crate::policies::SECTIONS
-        .iter()
-        .flat_map(|s| s.keys)
-        .filter_map(|k| k.range.as_ref())
-}
-
-/// Every numeric key's range in README order: the market file's curves, the `[expectations]` keys
-/// (over the rules that read each, `expectations::key_ranges`), the rest of the market file's, the
-/// rule sections' (registry order), then `[policy]`'s.
-pub fn all() -> Vec<&'static KeyRange> {
-    let (policy, market): (Vec<_>, Vec<_>) =
-        RANGES.iter().partition(|k| k.key.starts_with("policy."));
-    CURVE_RANGES
-        .iter()
-        .chain(crate::expectations::key_ranges())
-        .chain(market)
-        .chain(rule_ranges())
-        .chain(policy)
-        .collect()
 }
 
 #[cfg(test)]
@@ -125,17 +99,6 @@ mod tests {
             // the short form reads back within its five significant digits
             let back: f64 = short_num(v).parse().unwrap();
             assert!((back - v).abs() <= 1e-4 * v.abs(), "{v} {back}");
-        }
-    }
-
-    #[test]
-    fn every_range_is_finite_and_ordered() {
-        for k in all() {
-            assert!(
-                k.lo.is_finite() && k.hi.is_finite() && k.lo < k.hi,
-                "{}",
-                k.key
-            );
         }
     }
 

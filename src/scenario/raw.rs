@@ -70,14 +70,6 @@ pub struct RawStorers {
     pub loss_rate: Option<f64>,
 }
 
-/// The `[policy]` section as written (rule sections are read by their rule files).
-#[derive(Debug, Clone, Default, Deserialize)]
-#[serde(default)]
-pub struct RawPolicy {
-    pub name: Option<String>,
-    pub annual_budget: Option<f64>,
-}
-
 pub use crate::input::ValueType;
 use ValueType::*;
 
@@ -134,11 +126,6 @@ pub const MARKET_SCHEMA_AFTER: &[(&str, &[(&str, ValueType)])] = &[
         ],
     ),
 ];
-
-/// The keys of a policy file's `[policy]` section; the rule sections after it come from the
-/// registry and `[expectations]` last from the expectation rules (`scenario::schema::policy`).
-pub const POLICY_SCHEMA: &[(&str, &[(&str, ValueType)])] =
-    &[("policy", &[("name", Text), ("annual_budget", Number)])];
 
 const CURVE_KEYS: &[(&str, ValueType)] = &[
     ("form", Text),

@@ -5,7 +5,7 @@
 //! rule sections and the `[expectations]` keys are not listed here: each rule file declares its
 //! keys and registers them (`policies::SECTIONS`, `expectations::RULES`).
 
-use super::raw::{ValueType, MARKET_SCHEMA_AFTER, MARKET_SCHEMA_BEFORE, POLICY_SCHEMA};
+use super::raw::{ValueType, MARKET_SCHEMA_AFTER, MARKET_SCHEMA_BEFORE};
 pub use crate::input::Key;
 
 pub use crate::input::Schema;
@@ -21,27 +21,4 @@ pub fn market() -> Schema {
     out.push(("expectations", crate::expectations::section_keys()));
     out.extend(own(MARKET_SCHEMA_AFTER));
     out
-}
-
-/// The policy file's schema: `[policy]`, every registered rule section, `[expectations]`.
-pub fn policy() -> Schema {
-    let mut out: Schema = POLICY_SCHEMA
-        .iter()
-        .map(|(s, keys)| (*s, keys.to_vec()))
-        .collect();
-    for section in crate::policies::SECTIONS {
-        out.push((
-            section.name,
-            section.keys.iter().map(|k| (k.name, k.kind)).collect(),
-        ));
-    }
-    out.push(("expectations", crate::expectations::section_keys()));
-    out
-}
-
-/// True when `section` is a section only policy files have (`--vary` sends its keys to the policy).
-pub fn is_policy_section(section: &str) -> bool {
-    let policy = policy();
-    let market = market();
-    policy.iter().any(|(s, _)| *s == section) && !market.iter().any(|(s, _)| *s == section)
 }

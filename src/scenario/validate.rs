@@ -14,11 +14,6 @@ pub fn load_market(path: &str) -> Result<Scenario, InputError> {
     market_from_str(path, &read(path)?)
 }
 
-/// Reads and validates a policy file from disk.
-pub fn load_policy(path: &str) -> Result<PolicySpec, InputError> {
-    policy_from_str(path, &read(path)?)
-}
-
 /// Validates market-file text; `file` names it in errors.
 pub fn market_from_str(file: &str, text: &str) -> Result<Scenario, InputError> {
     market_from_table(file, parse_toml(file, text)?)
@@ -46,41 +41,7 @@ pub fn market_from_str_with(
     market_from_table(file, table)
 }
 
-/// Validates policy-file text; `file` names it in errors.
-pub fn policy_from_str(file: &str, text: &str) -> Result<PolicySpec, InputError> {
-    let table = parse_toml(file, text)?;
-    if !table.contains_key("policy") {
-        let blank = text.trim().is_empty();
-        let comments = text
-            .lines()
-            .all(|l| l.trim().is_empty() || l.trim_start().starts_with('#'));
-        let what = if blank {
-            "the file is empty"
-        } else if comments {
-            "the file holds only comments"
-        } else {
-            ""
-        };
-        if !what.is_empty() {
-            return Err(missing_policy_section(file, what));
-        }
-    }
-    policy_from_table(file, table)
-}
-
-/// The error for a policy file without `[policy]`: such a file is never read as "no intervention".
-fn missing_policy_section(file: &str, what: &str) -> InputError {
-    InputError::Missing {
-        file: file.into(),
-        key: "[policy]".into(),
-        expected: format!(
-            "a policy file starts with a [policy] section (name = \"...\"; a file with only [policy] is \
-             the market left alone); {what}"
-        ),
-    }
-}
-
-fn read(path: &str) -> Result<String, InputError> {
+pub(crate) fn read(path: &str) -> Result<String, InputError> {
     std::fs::read_to_string(path).map_err(|e| InputError::Unreadable {
         file: path.to_string(),
         reason: e.to_string(),
@@ -463,97 +424,4 @@ fn alert_prices(c: &Check, v: Option<&toml::Value>) -> Result<Vec<f64>, InputErr
         c.within(&key, *p)?;
     }
     Ok(values)
-}
-
-/// Validates a parsed policy file: `[policy]`, each registered rule section (read by its rule,
-/// `policies::SECTIONS`), and an `[expectations]` override.
-pub fn policy_from_table(file: &str, table: toml::Table) -> Result<PolicySpec, InputError> {
-    check_keys(file, &table, &super::schema::policy())?;
-    if !table.contains_key("policy") {
-        let what = if table.is_empty() {
-            "the file has no sections (empty, only comments, or cut short)".to_string()
-        } else {
-            let found: Vec<String> = table.keys().map(|k| format!("[{}]", escape(k))).collect();
-            format!("this file has {} but no [policy]", found.join(", "))
-        };
-        return Err(missing_policy_section(file, &what));
-    }
-    // a section header with nothing under it is a file cut short (or a slip), never a silent
-    // default: refused here for a rule section its registration would read with every key
-    // defaulted and for [expectations] (a rule with required keys says so itself, in its read)
-    let empty = |name: &str| {
-        table
-            .get(name)
-            .and_then(|v| v.as_table())
-            .is_some_and(|t| t.is_empty())
-    };
-    let nothing = toml::Table::new();
-    let silent = crate::policies::SECTIONS
-        .iter()
-        .filter(|s| empty(s.name) && (s.read)(&Check { file }, &nothing).is_ok())
-        .map(|s| s.name)
-        .chain(["expectations"].into_iter().filter(|&n| empty(n)))
-        .next();
-    if let Some(section) = silent {
-        return Err(InputError::Missing {
-            file: file.into(),
-            key: format!("[{section}]"),
-            expected: format!(
-                "the [{section}] section is empty (a cut-short file?): give its keys or remove it"
-            ),
-        });
-    }
-    let c = Check { file };
-    let mut rules = Vec::new();
-    for section in crate::policies::SECTIONS {
-        if let Some(t) = table.get(section.name).and_then(|v| v.as_table()) {
-            rules.push((section.read)(&c, t)?);
-        }
-    }
-    let policy: RawPolicy = match table.get("policy").and_then(|v| v.as_table()) {
-        Some(t) => deserialize(file, t.clone())?,
-        None => RawPolicy::default(),
-    };
-    let expectations = match table.get("expectations").and_then(|v| v.as_table()) {
-        Some(t) => Some(crate::expectations::read(&c, t)?),
-        None => None,
-    };
-    Ok(PolicySpec {
-        source: file.to_string(),
-        name: policy.name.clone().unwrap_or_else(|| {
-            std::path::Path::new(file)
-                .file_stem()
-                .map(|s| s.to_string_lossy().to_string())
-                .unwrap_or_else(|| "policy".into())
-        }),
-        rules,
-        expectations,
-        annual_budget: policy
-            .annual_budget
-            .map(|b| c.within("policy.annual_budget", b))
-            .transpose()?,
-    })
-}
-
-/// Checks what a policy file asks of the market it is run on (one check for every verb; each rule
-/// checks its own, e.g. a price defended by purchase must leave demand something to take).
-pub fn policy_for_market(scenario: &Scenario, policy: &PolicySpec) -> Result<(), InputError> {
-    let c = Check {
-        file: &policy.source,
-    };
-    if let (Some(_), Some(e)) = (&scenario.storers, policy.expectations) {
-        // the storage equilibrium needs forward-looking farmers (a market file's own rule is
-        // checked with its [storers]; a policy's override is checked here, for every verb alike)
-        if !e.is_rational() {
-            return Err(c.bad(
-                "expectations.rule",
-                format!("\"{}\"", e.rule_name()),
-                "the market has [storers]: the storage model needs rule = \"rational\" (farmers and storers look ahead)",
-            ));
-        }
-    }
-    for rule in &policy.rules {
-        rule.check_market(&c, scenario)?;
-    }
-    Ok(())
 }

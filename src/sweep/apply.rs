@@ -81,7 +81,7 @@ impl Base {
             "expectations" if self.has_policy_file && self.policy.contains_key("expectations") => {
                 Target::Policy
             }
-            s if crate::scenario::schema::is_policy_section(s) => Target::Policy,
+            s if crate::policies::file::is_policy_section(s) => Target::Policy,
             _ => Target::Market,
         }
     }
