@@ -7,7 +7,9 @@
 use criterion::{criterion_group, criterion_main, BatchSize, Criterion, Throughput};
 use furrow::compare::compare;
 use furrow::engine::{Model, PeriodShock};
-use furrow::scenario::{market_from_table, parse_toml, policy_from_table, PolicySpec, Scenario};
+use furrow::policies::file::policy_from_table;
+use furrow::policies::PolicySpec;
+use furrow::scenario::{market_from_table, parse_toml, Scenario};
 use furrow::stochastic::{run_monte_carlo, NoProgress, PathVariable, ShockStream};
 
 const MARKET: &str = r#"

@@ -5,7 +5,8 @@
 //! whole solve of `policies/target_reserve.toml` with its refinement (target < 1 s).
 
 use criterion::{criterion_group, criterion_main, Criterion};
-use furrow::scenario::{load_market, load_policy, parse_toml, policy_from_table};
+use furrow::policies::file::{load_policy, policy_from_table};
+use furrow::scenario::{load_market, parse_toml};
 use furrow::storage::{self, public_solve, solve_private, SolveOptions, StorageMarket};
 
 fn bench(c: &mut Criterion) {
@@ -28,7 +29,7 @@ fn bench(c: &mut Criterion) {
         })
     });
     g.bench_function("no_policy_full_solve_with_cover_and_residual", |b| {
-        b.iter(|| storage::solve(&s, &furrow::scenario::PolicySpec::none(), &o).unwrap())
+        b.iter(|| storage::solve(&s, &furrow::policies::PolicySpec::none(), &o).unwrap())
     });
     let text = "[policy]\nname = \"band\"\n[stock]\nbuy_below = 195.0\nsell_above = 230.0\ncapacity = 60.0\nrelease = \"band\"\n";
     let p = policy_from_table("band.toml", parse_toml("band.toml", text).unwrap()).unwrap();

@@ -8,7 +8,9 @@
 use std::hash::Hasher;
 
 use furrow::engine::{Model, PeriodRecord};
-use furrow::scenario::{load_market, load_policy, ExpectationSpec, PolicySpec};
+use furrow::policies::file::load_policy;
+use furrow::policies::PolicySpec;
+use furrow::scenario::{load_market, ExpectationSpec};
 use furrow::stochastic::ShockStream;
 
 /// FNV-1a, 64 bit (stable across Rust versions, unlike `DefaultHasher`).

@@ -2,7 +2,8 @@
 //! callgrind: `valgrind --tool=callgrind target/release/examples/engine_steps 20000`.
 
 use furrow::engine::{Model, PeriodShock};
-use furrow::scenario::{market_from_str, policy_from_str};
+use furrow::policies::file::policy_from_str;
+use furrow::scenario::market_from_str;
 use furrow::stochastic::ShockStream;
 
 const MARKET: &str =

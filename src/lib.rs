@@ -4,7 +4,8 @@
 //!
 //! ```
 //! use furrow::engine::{Model, PeriodShock};
-//! use furrow::scenario::{market_from_str, PolicySpec};
+//! use furrow::scenario::market_from_str;
+//! use furrow::policies::PolicySpec;
 //!
 //! let market = market_from_str(
 //!     "demo.toml",

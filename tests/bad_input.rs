@@ -3,7 +3,8 @@
 
 mod common;
 
-use furrow::scenario::{market_from_str, policy_from_str};
+use furrow::policies::file::policy_from_str;
+use furrow::scenario::market_from_str;
 use rand::{RngExt, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 
@@ -221,7 +222,7 @@ fn check_one(policy: bool, text: &str) -> Result<(), String> {
                 .map(|s| {
                     // a valid market must also simulate without panicking
                     let model =
-                        furrow::engine::Model::new(&s, &furrow::scenario::PolicySpec::none());
+                        furrow::engine::Model::new(&s, &furrow::policies::PolicySpec::none());
                     let _ = model.run(s.run.periods.min(50), |_| furrow::engine::PeriodShock::NONE);
                 })
                 .map_err(|e| e.to_string())
@@ -322,8 +323,8 @@ fn binary_exits_2_and_names_the_key_on_a_sample() {
 // ---- regression tests for the hardening issue (items 3 to 7) -------------------------------------
 
 use common::{bin, linear_market, policy, stdout_of};
+use furrow::policies::file::policy_for_market;
 use furrow::policies::file::{all_ranges, range_of};
-use furrow::scenario::policy_for_market;
 use furrow::scenario::raw::ValueType;
 use furrow::scenario::schema;
 
@@ -659,7 +660,7 @@ fn small_supply_elasticity_leaves_no_blank_welfare_cell() {
                 [supply]\nform = \"constant-elasticity\"\nat_price = 210.0\nat_quantity = 480.0\nelasticity = 0.005\n\
                 [run]\nperiods = 5\ninitial_price = 230.0\n";
     let m = market_from_str("ce.toml", text).unwrap();
-    let recs = furrow::engine::Model::new(&m, &furrow::scenario::PolicySpec::none())
+    let recs = furrow::engine::Model::new(&m, &furrow::policies::PolicySpec::none())
         .run(5, |_| furrow::engine::PeriodShock::NONE)
         .unwrap();
     for r in &recs {

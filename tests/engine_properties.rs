@@ -4,7 +4,7 @@ mod common;
 
 use common::{linear_market, policy};
 use furrow::engine::{Model, PeriodShock};
-use furrow::scenario::PolicySpec;
+use furrow::policies::PolicySpec;
 use proptest::prelude::*;
 use proptest::test_runner::{FileFailurePersistence, RngAlgorithm, RngSeed};
 

@@ -9,7 +9,8 @@ use furrow::engine::{Model, PeriodShock};
 use furrow::expectations::{
     section_keys, ExpectationInput, ExpectationRule, ExpectationSpec, StateLayout, RULES,
 };
-use furrow::scenario::{self, ranges::range_of, schema, PolicySpec, Scenario};
+use furrow::policies::PolicySpec;
+use furrow::scenario::{self, ranges::range_of, schema, Scenario};
 use furrow::stability::{self, conditions::Slopes, Verdict};
 use furrow::sweep::{self, Base, Orbit, Target};
 

@@ -609,7 +609,7 @@ fn partial_adjustment_market_follows_the_nerlove_recursion() {
     assert_eq!(v["expectations"]["rule"].as_str(), Some("adaptive"));
     assert!(rel(v["expectations"]["weight"].as_float().unwrap(), 1.0 - theta) < 1e-11);
     let scenario = furrow::scenario::market_from_str("pa.toml", &text).unwrap();
-    let model = furrow::engine::Model::new(&scenario, &furrow::scenario::PolicySpec::none());
+    let model = furrow::engine::Model::new(&scenario, &furrow::policies::PolicySpec::none());
     let mut sim = model.simulator();
     // the recursion, from the last observed season
     let last: Vec<f64> = csv

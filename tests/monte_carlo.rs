@@ -2,7 +2,9 @@
 
 use furrow::compare::compare;
 use furrow::engine::Model;
-use furrow::scenario::{market_from_table, parse_toml, policy_from_table, PolicySpec, Scenario};
+use furrow::policies::file::policy_from_table;
+use furrow::policies::PolicySpec;
+use furrow::scenario::{market_from_table, parse_toml, Scenario};
 use furrow::stochastic::{run_monte_carlo, NoProgress, PathVariable, ShockStream};
 
 /// Demand Q = 200 − 2P, supply Q = −40 + P^e: P* = 80, Q* = 40 (the interface-check market).

@@ -7,8 +7,9 @@ mod common;
 use common::{bin, linear_market, policy};
 use furrow::engine::{Model, PeriodShock};
 use furrow::policies::file::is_policy_section;
+use furrow::policies::PolicySpec;
 use furrow::policies::{self, Clearing, SECTIONS};
-use furrow::scenario::{self, PolicySpec};
+use furrow::scenario;
 use furrow::stability::{self, regimes, Setup};
 use furrow::storage::agency::{self, decide, Decision, StoragePlan};
 use furrow::sweep::apply::{Base, Target};
@@ -83,7 +84,7 @@ fn every_registered_rule_answers_every_behaviour() {
         let absent: Vec<&str> = section.absent.iter().map(|(l, _)| *l).collect();
         assert_eq!(labels, absent, "{what}");
         // its check against the market it runs on
-        scenario::policy_for_market(&market, &p).unwrap();
+        policies::file::policy_for_market(&market, &p).unwrap();
     }
 }
 

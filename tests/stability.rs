@@ -4,7 +4,7 @@
 mod stability_common;
 
 use approx::assert_relative_eq;
-use furrow::scenario::PolicySpec;
+use furrow::policies::PolicySpec;
 use furrow::stability::{analyse, Eigenvalue, RegimePrice, Setup, StateMap, Verdict};
 use stability_common::*;
 

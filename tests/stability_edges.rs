@@ -3,7 +3,9 @@
 
 mod stability_common;
 
-use furrow::scenario::{market_from_str, policy_from_str, PolicySpec};
+use furrow::policies::file::policy_from_str;
+use furrow::policies::PolicySpec;
+use furrow::scenario::market_from_str;
 use furrow::stability::{analyse, Verdict};
 use stability_common::*;
 

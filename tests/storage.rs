@@ -2,9 +2,9 @@
 //! moments and crowding-out. Each check names its outside source.
 
 use assert_cmd::Command;
-use furrow::scenario::{
-    apply_override, market_from_table, parse_toml, policy_from_table, PolicySpec, Scenario,
-};
+use furrow::policies::file::policy_from_table;
+use furrow::policies::PolicySpec;
+use furrow::scenario::{apply_override, market_from_table, parse_toml, Scenario};
 use furrow::storage::{self, simulate, Equilibrium, SolveOptions, StorageError};
 
 const EXAMPLE: &str = "examples/veldmark_storers.toml";

@@ -1,7 +1,9 @@
 //! A purchase budget inside the storage equilibrium: the agency's spending per season, price ×
 //! quantity bought, never exceeds it, and a budget that never binds changes nothing.
 
-use furrow::scenario::{load_market, parse_toml, policy_from_table, PolicySpec};
+use furrow::policies::file::policy_from_table;
+use furrow::policies::PolicySpec;
+use furrow::scenario::{load_market, parse_toml};
 use furrow::storage::{self, SolvedStorage};
 
 const EXAMPLE: &str = "examples/veldmark_storers.toml";

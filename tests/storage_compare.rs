@@ -66,7 +66,7 @@ fn run_with_storers_is_the_equilibrium_path() {
     let mut s12 = s.clone();
     s12.run.periods = 12;
     let recs =
-        furrow::storage::storage_records(&s12, &furrow::scenario::PolicySpec::none(), 0).unwrap();
+        furrow::storage::storage_records(&s12, &furrow::policies::PolicySpec::none(), 0).unwrap();
     let last: f64 = text
         .lines()
         .last()

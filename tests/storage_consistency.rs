@@ -9,9 +9,9 @@
 //! table needed.
 
 use furrow::compare::{compare, Kind, Value};
-use furrow::scenario::{
-    apply_override, market_from_table, parse_toml, policy_from_table, PolicySpec, Scenario,
-};
+use furrow::policies::file::policy_from_table;
+use furrow::policies::PolicySpec;
+use furrow::scenario::{apply_override, market_from_table, parse_toml, Scenario};
 use furrow::stochastic::NoProgress;
 use furrow::storage::{self, Equilibrium, SolveOptions};
 

@@ -8,9 +8,9 @@
 //! consumption at zero, so the test recomputes the balance from the stocks and checks that the
 //! clamp never acts (and that the balance meets demand), not just the recorded value.
 
-use furrow::scenario::{
-    apply_override, load_market, load_policy, market_from_table, parse_toml, PolicySpec, Scenario,
-};
+use furrow::policies::file::load_policy;
+use furrow::policies::PolicySpec;
+use furrow::scenario::{apply_override, load_market, market_from_table, parse_toml, Scenario};
 use furrow::storage::{self, simulate, SolveOptions};
 
 const EXAMPLE: &str = "examples/veldmark_storers.toml";

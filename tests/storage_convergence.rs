@@ -9,7 +9,8 @@
 
 mod common;
 
-use furrow::scenario::{apply_override, market_from_table, parse_toml, PolicySpec, Scenario};
+use furrow::policies::PolicySpec;
+use furrow::scenario::{apply_override, market_from_table, parse_toml, Scenario};
 use furrow::storage::{self, SolveOptions, StorageError};
 
 const EXAMPLE: &str = "examples/veldmark_storers.toml";

@@ -1,7 +1,8 @@
 //! Simulated paths with a public stock read next season's expected price off the storers'
 //! arbitrage condition instead of integrating it again; both must agree to the equilibrium's accuracy.
 
-use furrow::scenario::{load_market, load_policy};
+use furrow::policies::file::load_policy;
+use furrow::scenario::load_market;
 use furrow::storage::{self, simulate, SolveOptions};
 
 #[test]

@@ -16,7 +16,8 @@
 //! the secant method (furrow: a bracketed root finder), iteration to a change below 1e-12 of the
 //! price. The reference itself is checked for discretisation error by solving it on two grids.
 
-use furrow::scenario::{apply_override, market_from_table, parse_toml, PolicySpec, Scenario};
+use furrow::policies::PolicySpec;
+use furrow::scenario::{apply_override, market_from_table, parse_toml, Scenario};
 use furrow::storage::{self, Equilibrium, SolveOptions};
 
 const EXAMPLE: &str = "examples/veldmark_storers.toml";

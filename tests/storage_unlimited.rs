@@ -1,7 +1,9 @@
 //! A public store without a capacity inside the storage equilibrium: solved on a bounded grid whose
 //! bound never binds, or refused when the stock has no stationary level.
 
-use furrow::scenario::{load_market, parse_toml, policy_from_table, PolicySpec};
+use furrow::policies::file::policy_from_table;
+use furrow::policies::PolicySpec;
+use furrow::scenario::{load_market, parse_toml};
 use furrow::storage::{self, simulate, Equilibrium, SolveOptions, StorageError};
 
 const EXAMPLE: &str = "examples/veldmark_storers.toml";

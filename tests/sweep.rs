@@ -4,7 +4,8 @@
 mod stability_common;
 
 use approx::assert_relative_eq;
-use furrow::scenario::{market_from_table, parse_toml, PolicySpec};
+use furrow::policies::PolicySpec;
+use furrow::scenario::{market_from_table, parse_toml};
 use furrow::stability::{analyse, Verdict};
 use furrow::sweep::{self, Base};
 use stability_common::*;

@@ -3,7 +3,9 @@
 
 use furrow::compare::{compare, CompareResult};
 use furrow::engine::{Model, PeriodShock};
-use furrow::scenario::{market_from_table, parse_toml, policy_from_table, PolicySpec, Scenario};
+use furrow::policies::file::policy_from_table;
+use furrow::policies::PolicySpec;
+use furrow::scenario::{market_from_table, parse_toml, Scenario};
 use furrow::stochastic::NoProgress;
 use furrow::welfare::{crra_certainty_equivalent, path_pv, risk_premium, Books};
 

@@ -6,7 +6,8 @@ use sha2::{Digest, Sha256};
 
 use super::{BriefingError, Overrides};
 use crate::output::{fmt_num, TextTable};
-use crate::scenario::{parse_toml, ExpectationSpec, PolicySpec, Scenario};
+use crate::policies::PolicySpec;
+use crate::scenario::{parse_toml, ExpectationSpec, Scenario};
 use crate::units::{group, Measure};
 
 fn value_text(v: &toml::Value) -> String {

@@ -10,7 +10,8 @@ use super::tables;
 use super::{Briefing, BriefingError, Overrides, Section};
 use crate::compare::CompareResult;
 use crate::output::TextTable;
-use crate::scenario::{PolicySpec, Scenario};
+use crate::policies::PolicySpec;
+use crate::scenario::Scenario;
 use crate::stability::StabilityAnalysis;
 use crate::units::{group, Units};
 

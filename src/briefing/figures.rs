@@ -5,7 +5,8 @@
 use super::path::{PathDigest, COBWEB_SEASONS};
 use crate::engine::{Model, PeriodRecord};
 use crate::plots::{self, CobwebStep, EigenPoint, Plot, Series};
-use crate::scenario::{PolicySpec, Scenario};
+use crate::policies::PolicySpec;
+use crate::scenario::Scenario;
 use crate::stability::StabilityAnalysis;
 use crate::units::Units;
 

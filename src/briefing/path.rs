@@ -5,7 +5,8 @@
 
 use crate::engine::{Diverged, PeriodRecord};
 use crate::path::{Divergence, RunError};
-use crate::scenario::{PolicySpec, Scenario};
+use crate::policies::PolicySpec;
+use crate::scenario::Scenario;
 
 /// Pixel columns a thinned series keeps (two points each at most): the figures are 960 px wide.
 pub const COLUMNS: usize = 900;

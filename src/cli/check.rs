@@ -2,7 +2,7 @@
 
 use clap::Args;
 use furrow::output::{fmt_num, Format, TextTable};
-use furrow::scenario::{self, FileKind};
+use furrow::policies::file::FileKind;
 use serde::Serialize;
 
 use super::common::CommonArgs;
@@ -44,7 +44,7 @@ pub fn execute(args: &CheckArgs) -> anyhow::Result<()> {
         let text = std::fs::read_to_string(file)
             .map_err(|e| anyhow::anyhow!("{file}: cannot read: {e}"))?;
         // the same validation as every other verb; the kind is decided by the sections present
-        let (kind, because) = scenario::file_kind(file, &text)?;
+        let (kind, because) = furrow::policies::file::file_kind(file, &text)?;
         let read_as = format!(
             "{} file (it has {})",
             match kind {
@@ -54,7 +54,7 @@ pub fn execute(args: &CheckArgs) -> anyhow::Result<()> {
             because.join(", ")
         );
         if kind == FileKind::Policy {
-            let p = scenario::policy_from_str(file, &text)?;
+            let p = furrow::policies::file::policy_from_str(file, &text)?;
             let mut parts: Vec<String> = p.rules.iter().map(|r| r.describe()).collect();
             if let Some(e) = p.expectations {
                 parts.push(format!("expectations {}", e.rule_name()));
@@ -99,7 +99,7 @@ pub fn execute(args: &CheckArgs) -> anyhow::Result<()> {
     // several markets it is not known which policy is meant for which)
     if let [m] = markets.as_slice() {
         for p in &policies {
-            scenario::policy_for_market(m, p)?;
+            furrow::policies::file::policy_for_market(m, p)?;
         }
     }
     let text = match args.common.format {

@@ -9,7 +9,8 @@ use anyhow::Context;
 use clap::Args;
 use furrow::output::{write_whole, Format};
 use furrow::path::RunError;
-use furrow::scenario::{self, PolicySpec, Scenario};
+use furrow::policies::PolicySpec;
+use furrow::scenario::{self, Scenario};
 use furrow::stochastic::{NoProgress, Progress};
 use furrow::storage::{self, ProgressEvent, SolveProgress, Stage};
 use indicatif::{ProgressBar, ProgressStyle};
@@ -160,13 +161,13 @@ pub struct PlotDir {
 }
 
 /// Loads a policy file, or the market left alone when `path` is `None`, and checks it against the
-/// market it will run on (`scenario::policy_for_market`: the same check for every verb).
+/// market it will run on (`furrow::policies::file::policy_for_market`: the same check for every verb).
 pub fn load_policy(path: Option<&str>, market: &Scenario) -> anyhow::Result<PolicySpec> {
     let policy = match path {
-        Some(p) => scenario::load_policy(p)?,
+        Some(p) => furrow::policies::file::load_policy(p)?,
         None => PolicySpec::none(),
     };
-    scenario::policy_for_market(market, &policy)?;
+    furrow::policies::file::policy_for_market(market, &policy)?;
     Ok(policy)
 }
 

@@ -4,7 +4,8 @@
 use anyhow::Context;
 use furrow::briefing::{self, figures, Figure};
 use furrow::engine::PeriodRecord;
-use furrow::scenario::{PolicySpec, Scenario};
+use furrow::policies::PolicySpec;
+use furrow::scenario::Scenario;
 use furrow::stability::StabilityAnalysis;
 
 use super::common::{columns, say, PlotDir};

@@ -5,7 +5,8 @@ use anyhow::Context;
 use clap::Args;
 use furrow::briefing::{self, Overrides};
 use furrow::output::Format;
-use furrow::scenario::{PolicySpec, Scenario};
+use furrow::policies::PolicySpec;
+use furrow::scenario::Scenario;
 
 use super::common::{check_memory, columns, install_progress, progress_for, say, CommonArgs};
 use super::figures;

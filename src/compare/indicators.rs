@@ -46,7 +46,8 @@
 //!   stock without the policy − with it) / mean public stock with it (null when the agency holds none).
 
 use super::{Indicator, Kind, Value};
-use crate::scenario::{PolicySpec, Scenario, MAX_ALERTS};
+use crate::policies::PolicySpec;
+use crate::scenario::{Scenario, MAX_ALERTS};
 use crate::stochastic::{quantiles, PolicyRuns, ReplicationSummary};
 use crate::storage::LongRunMeans;
 use crate::welfare::{crra_premium, risk_premium, WelfarePv};

@@ -19,7 +19,8 @@ use serde::Serialize;
 pub use indicators::indicator_keys;
 
 use crate::path::{with_models, LongRunModel, WithModels};
-use crate::scenario::{ExpectationSpec, PolicySpec, Scenario};
+use crate::policies::PolicySpec;
+use crate::scenario::{ExpectationSpec, Scenario};
 use crate::stochastic::{
     run_models, MonteCarlo, PathVariable, Progress, ReplicationFailed, Summary,
 };

@@ -18,8 +18,9 @@ pub use record::{PeriodRecord, Settled};
 
 use crate::curves::Curve;
 use crate::expectations::{self, ExpectationInput, ExpectationRule};
+use crate::policies::PolicySpec;
 use crate::policies::{self, Clearing, Policy};
-use crate::scenario::{PolicySpec, Scenario, ShockSpec};
+use crate::scenario::{Scenario, ShockSpec};
 
 /// The shocks that hit one period.
 #[derive(Debug, Clone, Copy, PartialEq)]

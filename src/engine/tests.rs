@@ -1,5 +1,6 @@
 use super::*;
-use crate::scenario::{self, PolicySpec};
+use crate::policies::PolicySpec;
+use crate::scenario;
 use approx::assert_relative_eq;
 
 pub(crate) fn market(extra: &str) -> Scenario {
@@ -12,7 +13,7 @@ pub(crate) fn market(extra: &str) -> Scenario {
 
 pub(crate) fn policy(text: &str) -> PolicySpec {
     let t = scenario::parse_toml("p.toml", &format!("[policy]\nname = \"p\"\n{text}")).unwrap();
-    scenario::policy_from_table("p.toml", t).unwrap()
+    crate::policies::file::policy_from_table("p.toml", t).unwrap()
 }
 
 #[test]

@@ -13,7 +13,8 @@ use serde::Serialize;
 
 use super::{CheckRow, FitError, FitReport, HistoryCheck};
 use crate::engine::Model;
-use crate::scenario::{market_from_str, PolicySpec};
+use crate::policies::PolicySpec;
+use crate::scenario::market_from_str;
 use crate::stochastic::{quantiles, ShockStream};
 
 /// Coefficients of variation and lag-1 autocorrelations of one price and quantity history.

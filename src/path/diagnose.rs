@@ -2,8 +2,9 @@
 //! warnings summarised as shares over a Monte Carlo run.
 
 use crate::engine::PeriodRecord;
+use crate::policies::PolicySpec;
 use crate::policies::{compile, flags};
-use crate::scenario::{PolicySpec, Scenario};
+use crate::scenario::Scenario;
 use crate::stochastic::{PolicyRuns, ReplicationSummary};
 
 /// The rules that cannot be kept up at the free market's steady state, in words (an indefensible

@@ -14,7 +14,8 @@ pub use render::{render_path, PathStream, RUN_COLUMNS};
 pub use summary::{render_summary, run_summary, SUMMARY_VARIABLES};
 
 use crate::engine::{Diverged, Model, PathModel, PeriodRecord, PeriodShock, Stepper};
-use crate::scenario::{PolicySpec, Scenario};
+use crate::policies::PolicySpec;
+use crate::scenario::Scenario;
 use crate::stochastic::{ReplicationFailed, ShockStream};
 use crate::storage::{LongRunMeans, SolvedStorage, StorageError};
 

@@ -3,7 +3,8 @@
 
 use super::{with_models, LongRunModel, RunError, WithModels};
 use crate::output::{fmt_full, fmt_num, Format, TextTable};
-use crate::scenario::{PolicySpec, Scenario};
+use crate::policies::PolicySpec;
+use crate::scenario::Scenario;
 use crate::stochastic::{run_models, MonteCarlo, PathVariable, PolicyRuns, Progress};
 
 /// The variables the summary keeps per period, in column order.

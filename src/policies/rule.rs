@@ -91,7 +91,7 @@ pub trait Rule: Send + Sync + std::fmt::Debug {
     fn storage(&self, plan: &mut StoragePlan) -> Result<(), String>;
     /// Stability: adds the regimes it creates (and the one holding the steady state, if it holds it).
     fn regimes(&self, regimes: &mut Regimes) -> Result<(), StabilityError>;
-    /// What it asks of the market it runs on (`scenario::policy_for_market`).
+    /// What it asks of the market it runs on (`crate::policies::file::policy_for_market`).
     fn check_market(&self, check: &Check, scenario: &Scenario) -> Result<(), InputError>;
     /// The highest price it defends or pays up to (the engine's divergence bound is 1000 times the
     /// largest reference price); 0 when it defends none.

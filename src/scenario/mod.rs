@@ -15,10 +15,6 @@ use crate::curves::{Curve, SteadyState};
 
 pub use crate::input::keys::{self, apply_override, parse_toml};
 pub use crate::input::InputError;
-pub use crate::policies::file::{
-    file_kind, is_policy_text, load_policy, policy_for_market, policy_from_str, policy_from_table,
-    FileKind, PolicySpec,
-};
 pub use validate::{load_market, market_from_str, market_from_str_with, market_from_table};
 
 /// What the market is: curves and units.

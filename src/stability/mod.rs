@@ -23,7 +23,8 @@ pub mod statespace;
 use serde::Serialize;
 
 use crate::curves::SteadyState;
-use crate::scenario::{PolicySpec, Scenario};
+use crate::policies::PolicySpec;
+use crate::scenario::Scenario;
 
 pub use crate::expectations::conditions::{self, PublishedCondition};
 pub use crate::regime::{RegimePrice, StabilityError};

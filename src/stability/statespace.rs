@@ -13,9 +13,10 @@ use nalgebra::DMatrix;
 
 use crate::curves::Curve;
 use crate::expectations::{self, ExpectationInput, ExpectationRule};
+use crate::policies::PolicySpec;
 use crate::policies::{Agency, RuleRef};
 use crate::regime::RegimePrice;
-use crate::scenario::{ExpectationSpec, PolicySpec, Scenario};
+use crate::scenario::{ExpectationSpec, Scenario};
 
 /// What the linearisation needs of a market and a policy (cheap to clone and patch in a sweep: the
 /// rules are shared).

@@ -18,7 +18,8 @@ use super::draw_shocks;
 use super::stats::{ShiftedSums, Summary};
 use crate::engine::{Diverged, Model, PathModel, PeriodRecord, PeriodShock, Stepper};
 use crate::policies::flags;
-use crate::scenario::{PolicySpec, Scenario, MAX_ALERTS};
+use crate::policies::PolicySpec;
+use crate::scenario::{Scenario, MAX_ALERTS};
 use crate::welfare::{crra_transform, income, producer_revenue, Books, WelfareFold, WelfarePv};
 
 /// Replications per parallel work item (fixed, so the order of float sums never depends on threads).

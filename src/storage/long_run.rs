@@ -7,7 +7,8 @@ use super::StorageError;
 use super::{
     band_of, indicator_path, payment_floor, solve, Equilibrium, SolveOptions, SolvedStorage,
 };
-use crate::scenario::{PolicySpec, Scenario};
+use crate::policies::PolicySpec;
+use crate::scenario::Scenario;
 
 /// Long-run means of one solved equilibrium: one path on the market file's shocks (its seed,
 /// replication 0, [`simulate::BURN_IN`] periods dropped, [`simulate::INDICATOR_PERIODS`] averaged),

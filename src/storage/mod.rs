@@ -52,7 +52,8 @@ pub use simulate::{simulate, Equilibrium, StorageIndicators, StoragePeriod};
 pub use solve::{solve_private, PriceRule, PrivateSolution, SolveOptions};
 pub use summary::{render_path, render_summary, summary, StorageSummary};
 
-use crate::scenario::{PolicySpec, Scenario};
+use crate::policies::PolicySpec;
+use crate::scenario::Scenario;
 use agency::{Band, ReleaseInStorage};
 
 /// Why the storage equilibrium could not be solved.

@@ -1,10 +1,10 @@
 //! How a policy file enters the storage equilibrium: each rule says so itself
-//! (`policies::Rule::storage`, collected in [`super::agency::plan_of`]); these are the storage
+//! (`crate::policies::Rule::storage`, collected in [`super::agency::plan_of`]); these are the storage
 //! model's entry points.
 
 use super::agency::{plan_of, Band};
 use super::StorageError;
-use crate::scenario::PolicySpec;
+use crate::policies::PolicySpec;
 
 /// The agency's rule as a price band inside the storage equilibrium, or `None` for a policy that
 /// does not trade (see [`super::agency::band_of`]).

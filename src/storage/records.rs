@@ -9,8 +9,9 @@
 use super::agency::{AgencyMode, StoragePlan};
 use super::simulate::{SolvedPath, StoragePeriod};
 use crate::engine::{Diverged, PathModel, PeriodRecord, PeriodShock, Settled, Stepper};
+use crate::policies::PolicySpec;
 use crate::policies::{flags, Agency};
-use crate::scenario::{PolicySpec, Scenario};
+use crate::scenario::Scenario;
 
 /// The engine's record of each simulated storage period under `policy`.
 pub fn to_records(

@@ -6,7 +6,8 @@ use super::simulate::StoragePeriod;
 use super::solve::SolveOptions;
 use super::{check_options, solve, StorageError};
 use crate::output::{fmt_num, Format, TextTable};
-use crate::scenario::{PolicySpec, Scenario};
+use crate::policies::PolicySpec;
+use crate::scenario::Scenario;
 
 /// The storage equilibrium summed up: what the `storage` verb prints.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]

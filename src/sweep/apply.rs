@@ -15,12 +15,11 @@
 //! again (`policy_fits_market`). Two keys in the same section are validated together at every
 //! point (slower).
 
+use crate::policies::file::{policy_for_market, policy_from_table};
+use crate::policies::PolicySpec;
 use crate::policies::RuleRef;
 use crate::scenario::ranges::short_num;
-use crate::scenario::{
-    apply_override, market_from_table, policy_for_market, policy_from_table, ExpectationSpec,
-    InputError, PolicySpec, Scenario,
-};
+use crate::scenario::{apply_override, market_from_table, ExpectationSpec, InputError, Scenario};
 use crate::stability::Setup;
 
 /// Which file a key is applied to.

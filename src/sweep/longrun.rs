@@ -17,7 +17,8 @@
 
 use crate::engine::{Model, PeriodShock};
 use crate::expectations::ExpectationInput;
-use crate::scenario::{PolicySpec, Scenario};
+use crate::policies::PolicySpec;
+use crate::scenario::Scenario;
 use crate::stability::statespace::{numerical_jacobian, StateLayout};
 
 /// What happened to the orbit.

@@ -83,7 +83,7 @@ pub const REST_PERTURBATION: f64 = 1e-3;
 
 /// True when every starting price (and every value that sets the rule's state before period 1, e.g.
 /// an initial expected price) is the steady-state price `p_star` within 1e-9 relative.
-fn starts_at_rest(s: &crate::scenario::Scenario, policy: &crate::scenario::PolicySpec) -> bool {
+fn starts_at_rest(s: &crate::scenario::Scenario, policy: &crate::policies::PolicySpec) -> bool {
     let p_star = s.steady.price;
     let at = |p: f64| (p - p_star).abs() <= 1e-9 * p_star;
     let rule = policy.expectations.unwrap_or(s.expectations);

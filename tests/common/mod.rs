@@ -1,7 +1,8 @@
 //! Shared helpers for the integration tests.
 #![allow(dead_code)]
 
-use furrow::scenario::{self, PolicySpec, Scenario};
+use furrow::policies::PolicySpec;
+use furrow::scenario::{self, Scenario};
 
 /// A linear market with demand Q = a + b P (b < 0) and supply Q = c + d P^e, plus extra TOML.
 pub fn linear_market(a: f64, b: f64, c: f64, d: f64, extra: &str) -> Scenario {
@@ -13,7 +14,7 @@ pub fn linear_market(a: f64, b: f64, c: f64, d: f64, extra: &str) -> Scenario {
 
 /// A policy from the body of a policy file (the [policy] header is added).
 pub fn policy(body: &str) -> PolicySpec {
-    scenario::policy_from_str(
+    furrow::policies::file::policy_from_str(
         "test-policy.toml",
         &format!("[policy]\nname = \"test\"\n{body}"),
     )

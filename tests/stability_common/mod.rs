@@ -2,7 +2,9 @@
 //! through the real file reader.
 #![allow(dead_code)]
 
-use furrow::scenario::{market_from_table, parse_toml, policy_from_table, PolicySpec, Scenario};
+use furrow::policies::file::policy_from_table;
+use furrow::policies::PolicySpec;
+use furrow::scenario::{market_from_table, parse_toml, Scenario};
 use furrow::stability::{self, analyse, Eigenvalue};
 
 /// Linear market Q_d = a − d P, Q_s = c + b P^e with the given expectations section body.

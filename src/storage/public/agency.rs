@@ -1,6 +1,6 @@
 //! The agency's rule inside the storage equilibrium.
 //!
-//! What each policy rule does here is written in its own file (`policies::Rule::storage`): each
+//! What each policy rule does here is written in its own file (`crate::policies::Rule::storage`): each
 //! adds itself to a [`StoragePlan`], and [`band_of`] turns the plan into the agency's [`Band`].
 //! Given the state (availability z, public stock g carried in) and the price that would result
 //! from any end-of-period public stock G, pg(G) = P(y = z + g − G, G) (increasing in G), [`decide`]
@@ -13,7 +13,7 @@
 use super::StorageError;
 pub use crate::policies::in_storage::{AgencyMode, Band, Decision, ReleaseInStorage, StoragePlan};
 use crate::policies::stock::Release;
-use crate::scenario::PolicySpec;
+use crate::policies::PolicySpec;
 
 /// The plan of `policy`: each rule adds what it does; an error names the rule's section when the
 /// storage model does not cover it as configured.
