@@ -443,6 +443,17 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
             .unwrap_or_else(|| "per unit".into()),
         demand,
         supply,
+        plants_on: match supply_raw.plants_on.as_deref().unwrap_or("price") {
+            "price" => PlantsOn::Price,
+            "revenue" => PlantsOn::Revenue,
+            other => {
+                return Err(c.bad(
+                    "supply.plants_on",
+                    format!("\"{}\"", escape(other)),
+                    "allowed: \"price\" (default), \"revenue\"",
+                ))
+            }
+        },
     };
     let expectations = crate::expectations::read(&c, &expectations_table)?;
 

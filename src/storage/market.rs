@@ -53,6 +53,10 @@ pub struct StorageMarket {
     /// Price floor of deficiency payments, announced or not (0: none): the treasury pays
     /// (floor − P)·harvest when the price is below it.
     pub payment_floor: f64,
+    /// Farmers plant on revenue (`[supply] plants_on = "revenue"`): on E[max(P', F)·Y] (E[Y] = 1,
+    /// Wright and Williams 1991) instead of E[max(P', F)]; storers still trade on E[P']. False
+    /// without yield risk, where the two are the same.
+    pub revenue: bool,
 }
 
 impl StorageMarket {
@@ -121,7 +125,16 @@ impl StorageMarket {
             additive_sd: add_sd,
             planting_floor: 0.0,
             payment_floor: 0.0,
+            // without yield risk (Y = 1) revenue is the price: solved as such, bit for bit
+            revenue: s.market.plants_on == crate::scenario::PlantsOn::Revenue && sigma > 0.0,
         })
+    }
+
+    /// True when farmers plant on the expected market price itself (no planting floor, not on
+    /// revenue): then the planting expectation is the storers' E[P'].
+    #[inline]
+    pub fn plants_on_market_price(&self) -> bool {
+        self.planting_floor <= 0.0 && !self.revenue
     }
 
     /// Inverse demand with free disposal: the price at which consumers take `c`, never below zero,

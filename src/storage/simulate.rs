@@ -177,10 +177,11 @@ impl Equilibrium {
     /// being integrated again: the solved rules satisfy β·E[P'] − k = P wherever private stock is
     /// carried, and β·E[P' | x = 0] − k = the stockout price at the public stock carried where none is
     /// (the endogenous grid's own relation), so E[P'] = (P + k)/β up to the equilibrium's Euler
-    /// residual, and planting is S(E[P']). Otherwise as [`Self::plant_and_expect`].
+    /// residual, and planting is S(E[P']). Otherwise (a planting floor, or planting on revenue) as
+    /// [`Self::plant_and_expect`].
     pub fn plant_after(&self, price: f64, x: f64, public: f64) -> (f64, f64) {
         let m = self.market();
-        if m.planting_floor <= 0.0 {
+        if m.plants_on_market_price() {
             let at = if x > 1e-9 * m.q_star {
                 Some(price)
             } else {

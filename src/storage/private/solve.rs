@@ -8,7 +8,7 @@
 //! it nobody stores and P = D⁻¹(z). Iterate to a fixed point of the price rule.
 
 use super::market::StorageMarket;
-use super::split::next_nodes;
+use super::split::{next_nodes, next_nodes_yield};
 use super::StorageError;
 use crate::numeric::interp::Monotone;
 
@@ -139,7 +139,8 @@ pub fn expected_next(
 
 /// Expected next producer price E[max(P', floor)] and its derivative in `q`, with the expected market
 /// price E[P'] (the same when there is no deficiency-payment floor), by the breakpoint-splitting
-/// quadrature as [`expected_next`].
+/// quadrature as [`expected_next`]. Farmers who plant on revenue get E[max(P', floor)·Y] instead
+/// (E[Y] = 1; Wright and Williams 1991).
 #[inline]
 pub fn expected_producer(
     m: &StorageMarket,
@@ -150,6 +151,21 @@ pub fn expected_producer(
 ) -> (f64, f64, f64) {
     let floor = m.planting_floor;
     let (mut ep, mut d, mut e) = (0.0, 0.0, 0.0);
+    if m.revenue {
+        // on revenue: E[max(P', F)·Y] (E[Y] = 1) and its derivative
+        next_nodes_yield(m, carried, q, breaks, |z, dz, y, w| {
+            let (p, dp) = rule.eval(m, z);
+            e += w * p;
+            let wy = w * y;
+            if p > floor {
+                ep += wy * p;
+                d += wy * dp * dz;
+            } else {
+                ep += wy * floor;
+            }
+        });
+        return (ep, d, e);
+    }
     next_nodes(m, carried, q, breaks, |z, dz, w| {
         let (p, dp) = rule.eval(m, z);
         e += w * p;
