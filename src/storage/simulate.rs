@@ -181,6 +181,11 @@ impl Equilibrium {
     /// [`Self::plant_and_expect`].
     pub fn plant_after(&self, price: f64, x: f64, public: f64) -> (f64, f64) {
         let m = self.market();
+        if let Some(f) = m.farmers {
+            // farmers on a backward-looking rule plant on their rule of today's price
+            let expected = f.expect(price);
+            return (m.supply_at(expected).0, expected);
+        }
         if m.plants_on_market_price() {
             let at = if x > 1e-9 * m.q_star {
                 Some(price)
@@ -263,7 +268,12 @@ impl<'a> SolvedPath<'a> {
     /// A path at period 0 with no private stock and `initial_public` public stock held before
     /// period 1.
     pub fn new(eq: &'a Equilibrium, initial_public: f64) -> SolvedPath<'a> {
-        let (planted, expected) = eq.plant_and_expect(0.0, initial_public);
+        let m = eq.market();
+        let (planted, expected) = match m.farmers {
+            // backward-looking farmers plant on their rule at the file's price history
+            Some(f) => (m.supply_at(f.first).0, f.first),
+            None => eq.plant_and_expect(0.0, initial_public),
+        };
         SolvedPath {
             eq,
             x: 0.0,

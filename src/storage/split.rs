@@ -218,6 +218,7 @@ pub(crate) fn test_market(yield_sigma: f64, additive_sd: f64) -> StorageMarket {
         planting_floor: 0.0,
         payment_floor: 0.0,
         revenue: false,
+        farmers: None,
     }
 }
 

@@ -343,6 +343,16 @@ impl PrivateSolution {
         plant(m, m.keep * x, guess, &self.rule, &self.breaks).0
     }
 
+    /// Planted quantity after a period that cleared at `price` with `x` units carried out: farmers
+    /// on a backward-looking rule plant on their rule of the price; rational farmers as
+    /// [`Self::planted_at`].
+    pub fn planted_after(&self, price: f64, x: f64) -> f64 {
+        match self.market.farmers {
+            Some(f) => self.market.supply_at(f.expect(price)).0,
+            None => self.planted_at(x),
+        }
+    }
+
     /// The stockout price: storers hold stock only when the price is below it (0 when nobody ever stores).
     pub fn stockout_price(&self) -> f64 {
         match &self.rule.spline {
@@ -478,12 +488,24 @@ fn iterate(
         ps.clear();
         for (j, &x) in stocks.iter().enumerate() {
             let carried = m.keep * x;
-            let (q, psi) = plant_accepting(
-                &m,
-                planted[j],
-                &|q| expected_producer(&m, carried, q, &rule, &breaks),
-                PLANT_ACCEPT,
-            );
+            let (q, psi) = match m.farmers {
+                None => plant_accepting(
+                    &m,
+                    planted[j],
+                    &|q| expected_producer(&m, carried, q, &rule, &breaks),
+                    PLANT_ACCEPT,
+                ),
+                // farmers plant on their rule of today's price, which the arbitrage condition
+                // sets at every grid stock: P = β·E[P'(q)] − k, q = S(F(P))
+                Some(f) => plant_with(&m, planted[j], &|q| {
+                    let (_, de, e) = expected_producer(&m, carried, q, &rule, &breaks);
+                    (
+                        f.expect(m.discount * e - m.cost),
+                        f.weight * m.discount * de,
+                        e,
+                    )
+                }),
+            };
             planted[j] = q;
             let p = m.discount * psi - m.cost;
             if p <= 0.0 || ps.last().is_some_and(|&last| p > last) {
