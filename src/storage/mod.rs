@@ -12,6 +12,8 @@
 //!   across public-stock levels);
 //! - [`market`]: curves, carrying terms and the Gauss–Hermite quadrature over next period's shocks;
 //! - [`split`]: the breakpoint-splitting quadrature every expectation goes through;
+//! - [`fixed_point`]: the one fixed-point driver both solves' iterations run under (stopping rule,
+//!   iteration count, the final residual check);
 //! - [`check`]: Euler residuals on a dense grid and the printed grid;
 //! - [`simulate`], [`records`]: paths with the solved rules; [`summary`]: what the `storage` verb
 //!   prints; `long_run.rs`: the long-run means and the storage indicators; this file: the solve's
@@ -24,6 +26,7 @@ pub mod agency;
 #[path = "public/blend.rs"]
 pub mod blend;
 pub mod check;
+pub mod fixed_point;
 pub mod market;
 #[path = "public/next_price.rs"]
 pub mod next_price;
@@ -307,12 +310,7 @@ fn solve_reporting(
             residual = eq.euler_residual_max();
         }
     }
-    if residual.is_nan() || residual > limit {
-        return Err(StorageError::Inaccurate {
-            residual,
-            iterations: eq.iterations(),
-        });
-    }
+    fixed_point::accept(residual, limit, eq.iterations())?;
     Ok(eq)
 }
 

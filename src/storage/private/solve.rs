@@ -399,9 +399,8 @@ pub fn extend(
 ) -> Result<PrivateSolution, StorageError> {
     let (stocks, planted) = continue_grid(&sol.stocks, &sol.planted, x_max);
     let total = sol.iterations;
-    let mut out = iterate(sol.market, stocks, planted, sol.rule, o)?;
-    out.iterations += total;
-    Ok(out)
+    let out = iterate(sol.market, stocks, planted, sol.rule, o)?;
+    Ok(super::fixed_point::after(total, out))
 }
 
 /// Solves the private-storage equilibrium by the endogenous grid method on `o.grid` points of private
@@ -462,14 +461,14 @@ pub fn refine(
             }
         }
         let rule = sol.rule.clone();
-        sol = iterate(sol.market, stocks, planted, rule, o)?;
-        total += sol.iterations;
-        sol.iterations = total;
+        sol = super::fixed_point::after(total, iterate(sol.market, stocks, planted, rule, o)?);
+        total = sol.iterations;
     }
     Ok(sol)
 }
 
-/// Endogenous-grid iteration from `rule` on the stock grid `stocks` to the tolerance.
+/// Endogenous-grid iteration from `rule` on the stock grid `stocks` to the tolerance (the stopping
+/// rule and the count are the shared driver's, [`super::fixed_point::iterate`]).
 fn iterate(
     m: StorageMarket,
     stocks: Vec<f64>,
@@ -479,11 +478,10 @@ fn iterate(
 ) -> Result<PrivateSolution, StorageError> {
     let n = stocks.len();
     let mut old: Vec<f64> = Vec::new();
-    let mut change = f64::INFINITY;
     let (mut zs, mut ps) = (Vec::with_capacity(n), Vec::with_capacity(n));
     let hi = reach(&m, &stocks);
     let mut breaks = rule_breaks(&m, &rule, hi);
-    for it in 1..=o.max_iterations {
+    let done = super::fixed_point::iterate(o, n, |it| {
         zs.clear();
         ps.clear();
         for (j, &x) in stocks.iter().enumerate() {
@@ -514,7 +512,7 @@ fn iterate(
             zs.push(x + m.demand.quantity(p));
             ps.push(p);
         }
-        change = if ps.len() == old.len() {
+        let mut change = if ps.len() == old.len() {
             ps.iter()
                 .zip(&old)
                 .map(|(a, b)| (a - b).abs())
@@ -536,28 +534,23 @@ fn iterate(
             PriceRule::no_storage()
         };
         breaks = rule_breaks(&m, &rule, hi);
-        super::progress::report(super::progress::ProgressEvent::Iteration {
-            iteration: it,
-            change,
-            tolerance: o.tolerance,
-            points: n,
-        });
-        if change < o.tolerance {
-            return Ok(PrivateSolution {
-                market: m,
-                rule,
-                stocks,
-                planted,
-                iterations: it,
-                change,
-                breaks,
-                residual: f64::NAN,
-                reach: None,
-            });
-        }
-    }
-    Err(StorageError::NotConverged {
-        iterations: o.max_iterations,
-        change,
+        change
+    })?;
+    Ok(PrivateSolution {
+        market: m,
+        rule,
+        stocks,
+        planted,
+        iterations: done.iterations,
+        change: done.change,
+        breaks,
+        residual: f64::NAN,
+        reach: None,
     })
+}
+
+impl super::fixed_point::Iterated for PrivateSolution {
+    fn iterations_mut(&mut self) -> &mut usize {
+        &mut self.iterations
+    }
 }
