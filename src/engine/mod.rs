@@ -83,6 +83,10 @@ pub struct Model {
     stockout_above: f64,
     /// The rule when it is adaptive expectations (called directly, not through the trait).
     adaptive: Option<expectations::Adaptive>,
+    /// Farmers plant on revenue (`[supply] plants_on = "revenue"`): the rational rule solves
+    /// P^e = E[producer price · Y] (E[Y] = 1) and backward-looking rules read the revenue-equivalent
+    /// price P_t·Y_t instead of P_t (docs/storage.md, "Planting on revenue").
+    revenue: bool,
 }
 
 impl Model {
@@ -133,6 +137,7 @@ impl Model {
             band_only,
             stockout_above,
             adaptive,
+            revenue: scenario.market.plants_on == crate::scenario::PlantsOn::Revenue,
         }
     }
 
@@ -422,7 +427,13 @@ impl<'m> Simulator<'m> {
         self.stock = c.stock;
         self.last_demand_shock = shock.demand;
         self.period = t;
-        self.push_price(c.producer_price);
+        // planting on revenue: the rules read what a unit of expected harvest earned, P_t·Y_t/E[Y]
+        // (E[Y] = 1), the price itself when there is no yield risk
+        self.push_price(if model.revenue {
+            c.producer_price * shock.yield_factor
+        } else {
+            c.producer_price
+        });
         Ok(record)
     }
 }

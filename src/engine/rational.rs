@@ -3,6 +3,11 @@
 //! Gauss–Hermite quadrature, with the policy's rules and the agency's stock as it stands. The map
 //! P^e ↦ E[producer price] − P^e is strictly decreasing (more planting, lower prices), so the fixed
 //! point is unique and is found by bracketing and Brent's method.
+//!
+//! Farmers who plant on revenue (`[supply] plants_on = "revenue"`) plant on E[producer price · Y]/E[Y]
+//! instead, Y the yield factor with E[Y] = 1 (Wright and Williams 1991): each node's price is
+//! weighted by its yield factor. The map stays decreasing in P^e where the price falls with the
+//! harvest (more planting lowers P at every node and leaves Y as it is).
 
 use super::{Model, PeriodShock};
 use crate::numeric::{gauss_hermite, root_decreasing};
@@ -70,6 +75,7 @@ pub(crate) fn solve(
 ) -> Option<f64> {
     let nodes = &model.nodes;
     let mean_demand = nodes.persistence * last_demand_shock;
+    let revenue = model.revenue;
     let expected = |p: f64| -> f64 {
         let planting = floor.map_or(p, |f| p.max(f));
         nodes
@@ -81,7 +87,13 @@ pub(crate) fn solve(
                     supply: s,
                     demand: mean_demand + d,
                 };
-                w * model.clear(planting, &shock, carried).producer_price
+                let paid = model.clear(planting, &shock, carried).producer_price;
+                // on revenue: E[P·Y] (E[Y] = 1); without yield risk y = 1 and this is w·P exactly
+                if revenue {
+                    w * (paid * y)
+                } else {
+                    w * paid
+                }
             })
             .sum::<f64>()
     };

@@ -30,6 +30,38 @@ pub struct Market {
     pub demand: Curve,
     /// Supply Q = S(P^e).
     pub supply: Curve,
+    /// What farmers plant on (`[supply] plants_on`; left out of serialised output when it is the
+    /// default, so existing outputs keep their bytes).
+    #[serde(skip_serializing_if = "PlantsOn::is_price")]
+    pub plants_on: PlantsOn,
+}
+
+/// What farmers plant on (`[supply] plants_on`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum PlantsOn {
+    /// The expected producer price (the default).
+    #[default]
+    Price,
+    /// The expected revenue per unit of expected harvest, E[P·Y]/E[Y] with Y the yield factor
+    /// (mean 1): Wright and Williams (1991). Backward-looking rules forecast the revenue-equivalent
+    /// price P_t·Y_t; without yield risk (Y = 1) it is the price, bit for bit.
+    Revenue,
+}
+
+impl PlantsOn {
+    /// The file's word for it.
+    pub fn as_str(&self) -> &'static str {
+        match self {
+            PlantsOn::Price => "price",
+            PlantsOn::Revenue => "revenue",
+        }
+    }
+
+    /// True for the default, `"price"`.
+    pub fn is_price(&self) -> bool {
+        *self == PlantsOn::Price
+    }
 }
 
 /// A validated `[expectations]` section (the expectation rule with its parameters; defined with

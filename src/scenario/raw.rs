@@ -33,6 +33,8 @@ pub struct RawCurve {
     pub at_price: Option<f64>,
     pub at_quantity: Option<f64>,
     pub elasticity: Option<f64>,
+    /// `[supply] plants_on` only (the schema refuses it under `[demand]`).
+    pub plants_on: Option<String>,
 }
 
 #[derive(Debug, Clone, Default, Deserialize)]
@@ -86,7 +88,7 @@ pub const MARKET_SCHEMA_BEFORE: &[(&str, &[(&str, ValueType)])] = &[
         ],
     ),
     ("demand", CURVE_KEYS),
-    ("supply", CURVE_KEYS),
+    ("supply", SUPPLY_KEYS),
 ];
 
 /// The market file's sections after `[expectations]`.
@@ -134,4 +136,15 @@ const CURVE_KEYS: &[(&str, ValueType)] = &[
     ("at_price", Number),
     ("at_quantity", Number),
     ("elasticity", Number),
+];
+
+/// `[supply]`: a curve's keys and what farmers plant on (`"price"` | `"revenue"`).
+const SUPPLY_KEYS: &[(&str, ValueType)] = &[
+    ("form", Text),
+    ("intercept", Number),
+    ("slope", Number),
+    ("at_price", Number),
+    ("at_quantity", Number),
+    ("elasticity", Number),
+    ("plants_on", Text),
 ];

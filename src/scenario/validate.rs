@@ -267,6 +267,17 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
             .unwrap_or_else(|| "per unit".into()),
         demand,
         supply,
+        plants_on: match supply_raw.plants_on.as_deref().unwrap_or("price") {
+            "price" => PlantsOn::Price,
+            "revenue" => PlantsOn::Revenue,
+            other => {
+                return Err(c.bad(
+                    "supply.plants_on",
+                    format!("\"{}\"", escape(other)),
+                    "allowed: \"price\" (default), \"revenue\"",
+                ))
+            }
+        },
     };
     let expectations = crate::expectations::read(&c, &expectations_table)?;
 
@@ -350,12 +361,29 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
     let storers = match &raw.storers {
         None => None,
         Some(st) => {
+            // farmers look ahead, or plant on a rule of the last price alone (the storage
+            // model's `storage::market::Farmers`, which asks the rule the same questions)
             if !expectations.is_rational() {
-                return Err(c.bad(
-                    "expectations.rule",
-                    format!("\"{}\"", expectations.rule_name()),
-                    "a market with [storers] needs rule = \"rational\" (storers and farmers look ahead)",
-                ));
+                let rule = expectations.rule();
+                let last_price_only = rule.lags() == 1
+                    && matches!(rule.layout(), crate::expectations::StateLayout::Lags(w) if w.len() == 1);
+                if !last_price_only {
+                    return Err(c.bad(
+                        "expectations.rule",
+                        format!("\"{}\"", expectations.rule_name()),
+                        "a market with [storers] needs rule = \"rational\" (storers and farmers look ahead) \
+                         or a backward-looking rule that reads only the last price: \"naive\", \
+                         \"normal-price\" with a fixed normal_price, \"trailing-mean\" with window = 1",
+                    ));
+                }
+                if market.plants_on == PlantsOn::Revenue {
+                    return Err(c.bad(
+                        "supply.plants_on",
+                        "\"revenue\"",
+                        "a market with [storers] plants on revenue only with rule = \"rational\"; \
+                         with a backward-looking rule use \"price\"",
+                    ));
+                }
             }
             // the storage equilibrium (every verb on such a market) takes independent demand shocks
             if shocks.demand_persistence != 0.0 && shocks.demand_sd > 0.0 {

@@ -41,7 +41,8 @@ impl PrivateSolution {
                 let mut hi = hi0;
                 for _ in 0..200 {
                     let x = self.rule.stock(m, hi);
-                    let next = m.keep * x + m.harvest_range(self.planted_at(x)).1;
+                    let q = self.planted_after(self.rule.price(m, hi), x);
+                    let next = m.keep * x + m.harvest_range(q).1;
                     if (next - hi).abs() <= 1e-9 * m.q_star {
                         hi = next;
                         break;
@@ -73,7 +74,7 @@ impl PrivateSolution {
             availability: z,
             price,
             private_stock: x,
-            planted: self.planted_at(x),
+            planted: self.planted_after(price, x),
             public_stock: None,
         }
     }
@@ -92,7 +93,7 @@ impl PrivateSolution {
         let m = &self.market;
         let price = self.rule.price(m, z);
         let x = self.rule.stock(m, z);
-        let q = self.planted_at(x);
+        let q = self.planted_after(price, x);
         let (psi, _) = expected_next(m, m.keep * x, q, &self.rule, &self.breaks);
         if price <= 0.0 {
             return 0.0;

@@ -19,6 +19,58 @@ pub struct Node {
     pub w: f64,
 }
 
+/// Farmers who plant on a backward-looking rule that reads only the last producer price: next
+/// season's planting price is `weight`·P_t + `constant` (the rule's own expectation at a history of
+/// one price), so the equilibrium keeps one state (availability) and the storers know the planting
+/// each price brings. Built from the rule through its trait ([`Farmers::of`]); rules with more state
+/// (several lags, their own last expectation) are refused (docs/storage.md, "Farmers who look back").
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Farmers {
+    /// dP^e/dP_t.
+    pub weight: f64,
+    /// P^e at P_t = 0.
+    pub constant: f64,
+    /// The price planted on for period 1 (the rule's expectation at the file's price history).
+    pub first: f64,
+}
+
+impl Farmers {
+    /// The farmers of `spec` on a market whose price history before period 1 is `history` (newest
+    /// last): `None` for the rational rule (farmers look ahead), `Err(())` for a backward-looking
+    /// rule with more state than the last price.
+    #[allow(clippy::result_unit_err)]
+    pub fn of(
+        spec: &crate::expectations::ExpectationSpec,
+        history: &[f64],
+    ) -> Result<Option<Farmers>, ()> {
+        if spec.is_rational() {
+            return Ok(None);
+        }
+        let rule = spec.rule();
+        let weight = match rule.layout() {
+            crate::expectations::StateLayout::Lags(w) if w.len() == 1 && rule.lags() == 1 => w[0],
+            _ => return Err(()),
+        };
+        let at = |h: &[f64]| {
+            rule.expect(&crate::expectations::ExpectationInput {
+                history: h,
+                previous: None,
+            })
+        };
+        Ok(Some(Farmers {
+            weight,
+            constant: at(&[0.0]),
+            first: at(history),
+        }))
+    }
+
+    /// The price farmers plant on next season after a season that cleared at `price`.
+    #[inline]
+    pub fn expect(&self, price: f64) -> f64 {
+        self.weight * price + self.constant
+    }
+}
+
 /// Curves, carrying terms and shock quadrature of a market with private storers.
 #[derive(Debug, Clone)]
 pub struct StorageMarket {
@@ -53,6 +105,12 @@ pub struct StorageMarket {
     /// Price floor of deficiency payments, announced or not (0: none): the treasury pays
     /// (floor − P)·harvest when the price is below it.
     pub payment_floor: f64,
+    /// Farmers plant on revenue (`[supply] plants_on = "revenue"`): on E[max(P', F)·Y] (E[Y] = 1,
+    /// Wright and Williams 1991) instead of E[max(P', F)]; storers still trade on E[P']. False
+    /// without yield risk, where the two are the same.
+    pub revenue: bool,
+    /// Farmers who plant on a backward-looking rule of the last price (`None`: rational farmers).
+    pub farmers: Option<Farmers>,
 }
 
 impl StorageMarket {
@@ -121,7 +179,27 @@ impl StorageMarket {
             additive_sd: add_sd,
             planting_floor: 0.0,
             payment_floor: 0.0,
+            // without yield risk (Y = 1) revenue is the price: solved as such, bit for bit
+            revenue: s.market.plants_on == crate::scenario::PlantsOn::Revenue && sigma > 0.0,
+            farmers: farmers_of(s, &s.expectations)?,
         })
+    }
+
+    /// Sets the farmers' rule to `spec` (a policy's override of the market's rule).
+    pub fn set_farmers(
+        &mut self,
+        s: &Scenario,
+        spec: &crate::expectations::ExpectationSpec,
+    ) -> Result<(), StorageError> {
+        self.farmers = farmers_of(s, spec)?;
+        Ok(())
+    }
+
+    /// True when farmers plant on the expected market price itself (no planting floor, not on
+    /// revenue): then the planting expectation is the storers' E[P'].
+    #[inline]
+    pub fn plants_on_market_price(&self) -> bool {
+        self.planting_floor <= 0.0 && !self.revenue
     }
 
     /// Inverse demand with free disposal: the price at which consumers take `c`, never below zero,
@@ -161,4 +239,27 @@ impl StorageMarket {
         let hi = q * (3.0 * s - 0.5 * s * s).exp() + 3.0 * self.additive_sd;
         (lo.max(0.0), hi.max(0.0))
     }
+}
+
+/// The farmers of `spec` on the market `s` (see [`Farmers::of`]), refusing a rule with more state
+/// and planting on revenue beside backward-looking farmers.
+fn farmers_of(
+    s: &Scenario,
+    spec: &crate::expectations::ExpectationSpec,
+) -> Result<Option<Farmers>, StorageError> {
+    let farmers =
+        Farmers::of(spec, &s.run.price_history).map_err(|()| StorageError::UnsupportedFarmers {
+            file: s.source.clone(),
+            rule: spec.rule().describe(),
+        })?;
+    if farmers.is_some() && s.market.plants_on == crate::scenario::PlantsOn::Revenue {
+        return Err(StorageError::UnsupportedFarmers {
+            file: s.source.clone(),
+            rule: format!(
+                "{} on revenue (supply.plants_on = \"revenue\")",
+                spec.rule().describe()
+            ),
+        });
+    }
+    Ok(farmers)
 }

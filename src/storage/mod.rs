@@ -12,6 +12,8 @@
 //!   across public-stock levels);
 //! - [`market`]: curves, carrying terms and the Gauss–Hermite quadrature over next period's shocks;
 //! - [`split`]: the breakpoint-splitting quadrature every expectation goes through;
+//! - [`fixed_point`]: the one fixed-point driver both solves' iterations run under (stopping rule,
+//!   iteration count, the final residual check);
 //! - [`check`]: Euler residuals on a dense grid and the printed grid;
 //! - [`simulate`], [`records`]: paths with the solved rules; [`summary`]: what the `storage` verb
 //!   prints; `long_run.rs`: the long-run means and the storage indicators; this file: the solve's
@@ -24,6 +26,7 @@ pub mod agency;
 #[path = "public/blend.rs"]
 pub mod blend;
 pub mod check;
+pub mod fixed_point;
 pub mod market;
 #[path = "public/next_price.rs"]
 pub mod next_price;
@@ -72,6 +75,9 @@ pub enum StorageError {
     /// Storage that costs nothing has no stationary equilibrium.
     #[error("{file}: storers.interest_rate = 0 and storers.loss_rate = 0: carrying stock must cost something (interest or loss > 0) for the storage equilibrium to exist")]
     NoCarryingCost { file: String },
+    /// Farmers whose rule the storage model does not cover beside private storers.
+    #[error("{file}: expectations.rule: {rule}: a market with [storers] needs rule = \"rational\" or a backward-looking rule that reads only the last price (\"naive\", \"normal-price\" with a fixed normal_price, \"trailing-mean\" with window = 1), planting on price")]
+    UnsupportedFarmers { file: String, rule: String },
     /// A policy element the storage model does not cover.
     #[error("{file}: {key}: {reason}")]
     UnsupportedPolicy {
@@ -215,9 +221,27 @@ fn solve_reporting(
     options: &SolveOptions,
 ) -> Result<Equilibrium, StorageError> {
     let mut m = StorageMarket::new(scenario, options.nodes)?;
+    if let Some(spec) = &policy.expectations {
+        m.set_farmers(scenario, spec)?;
+    }
     m.planting_floor = planting_floor(policy);
     m.payment_floor = payment_floor(policy);
     let initial = initial_public(policy)?;
+    if m.farmers.is_some()
+        && (band_of(policy)?.is_some() || m.planting_floor > 0.0 || m.payment_floor > 0.0)
+    {
+        // the two-state solve and the floors assume farmers who look ahead
+        return Err(StorageError::UnsupportedPolicy {
+            file: policy.source.clone(),
+            key: "[stock] / [floor]".into(),
+            reason: format!(
+                "the market {} has farmers on a backward-looking rule beside private storers: the \
+                 storage model solves it without a public stock, a price floor or deficiency \
+                 payments; use rule = \"rational\" in the market file",
+                scenario.source
+            ),
+        });
+    }
     let eq = match band_of(policy)? {
         None => {
             let sol = solve_private(m, options)?;
@@ -287,12 +311,7 @@ fn solve_reporting(
             residual = eq.euler_residual_max();
         }
     }
-    if residual.is_nan() || residual > limit {
-        return Err(StorageError::Inaccurate {
-            residual,
-            iterations: eq.iterations(),
-        });
-    }
+    fixed_point::accept(residual, limit, eq.iterations())?;
     Ok(eq)
 }
 

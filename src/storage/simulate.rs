@@ -177,10 +177,16 @@ impl Equilibrium {
     /// being integrated again: the solved rules satisfy β·E[P'] − k = P wherever private stock is
     /// carried, and β·E[P' | x = 0] − k = the stockout price at the public stock carried where none is
     /// (the endogenous grid's own relation), so E[P'] = (P + k)/β up to the equilibrium's Euler
-    /// residual, and planting is S(E[P']). Otherwise as [`Self::plant_and_expect`].
+    /// residual, and planting is S(E[P']). Otherwise (a planting floor, or planting on revenue) as
+    /// [`Self::plant_and_expect`].
     pub fn plant_after(&self, price: f64, x: f64, public: f64) -> (f64, f64) {
         let m = self.market();
-        if m.planting_floor <= 0.0 {
+        if let Some(f) = m.farmers {
+            // farmers on a backward-looking rule plant on their rule of today's price
+            let expected = f.expect(price);
+            return (m.supply_at(expected).0, expected);
+        }
+        if m.plants_on_market_price() {
             let at = if x > 1e-9 * m.q_star {
                 Some(price)
             } else {
@@ -262,7 +268,12 @@ impl<'a> SolvedPath<'a> {
     /// A path at period 0 with no private stock and `initial_public` public stock held before
     /// period 1.
     pub fn new(eq: &'a Equilibrium, initial_public: f64) -> SolvedPath<'a> {
-        let (planted, expected) = eq.plant_and_expect(0.0, initial_public);
+        let m = eq.market();
+        let (planted, expected) = match m.farmers {
+            // backward-looking farmers plant on their rule at the file's price history
+            Some(f) => (m.supply_at(f.first).0, f.first),
+            None => eq.plant_and_expect(0.0, initial_public),
+        };
         SolvedPath {
             eq,
             x: 0.0,

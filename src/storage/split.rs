@@ -118,7 +118,21 @@ pub fn normal_nodes_with<V: FnMut(f64, f64)>(breaks: &[f64], pw: f64, mut visit:
 /// Nodes for next availability z' = `carried` + max(0, q·Y + e) when P' is smooth between the
 /// ascending availabilities `breaks`: calls `visit(z', dz'/dq, w)` (weights sum to 1 up to the tail
 /// mass). With no shocks, one node.
+#[inline]
 pub fn next_nodes<V: FnMut(f64, f64, f64)>(
+    m: &StorageMarket,
+    carried: f64,
+    q: f64,
+    breaks: &[f64],
+    mut visit: V,
+) {
+    next_nodes_yield(m, carried, q, breaks, |z, dz, _, w| visit(z, dz, w));
+}
+
+/// [`next_nodes`] that also hands each node's yield factor Y: `visit(z', dz'/dq, Y, w)` (dz'/dq is
+/// Y where the harvest is positive, 0 where it is held at zero). Planting on revenue weights each
+/// node's price by Y.
+pub fn next_nodes_yield<V: FnMut(f64, f64, f64, f64)>(
     m: &StorageMarket,
     carried: f64,
     q: f64,
@@ -152,9 +166,9 @@ pub fn next_nodes<V: FnMut(f64, f64, f64)>(
             normal_nodes(&ts, |t, w| {
                 let h = base + sd * t;
                 if h > 0.0 {
-                    visit(carried + h, y, wy * w);
+                    visit(carried + h, y, y, wy * w);
                 } else {
-                    visit(carried, 0.0, wy * w);
+                    visit(carried, 0.0, y, wy * w);
                 }
             });
         }
@@ -168,10 +182,10 @@ pub fn next_nodes<V: FnMut(f64, f64, f64)>(
         }
         normal_nodes(&ss, |s, w| {
             let y = (sigma * s - shift).exp();
-            visit(carried + q * y, y, w);
+            visit(carried + q * y, y, y, w);
         });
     } else {
-        visit(carried + q.max(0.0), 1.0, 1.0);
+        visit(carried + q.max(0.0), 1.0, 1.0, 1.0);
     }
 }
 
@@ -203,6 +217,8 @@ pub(crate) fn test_market(yield_sigma: f64, additive_sd: f64) -> StorageMarket {
         additive_sd,
         planting_floor: 0.0,
         payment_floor: 0.0,
+        revenue: false,
+        farmers: None,
     }
 }
 

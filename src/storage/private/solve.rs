@@ -8,7 +8,7 @@
 //! it nobody stores and P = D⁻¹(z). Iterate to a fixed point of the price rule.
 
 use super::market::StorageMarket;
-use super::split::next_nodes;
+use super::split::{next_nodes, next_nodes_yield};
 use super::StorageError;
 use crate::numeric::interp::Monotone;
 
@@ -139,7 +139,8 @@ pub fn expected_next(
 
 /// Expected next producer price E[max(P', floor)] and its derivative in `q`, with the expected market
 /// price E[P'] (the same when there is no deficiency-payment floor), by the breakpoint-splitting
-/// quadrature as [`expected_next`].
+/// quadrature as [`expected_next`]. Farmers who plant on revenue get E[max(P', floor)·Y] instead
+/// (E[Y] = 1; Wright and Williams 1991).
 #[inline]
 pub fn expected_producer(
     m: &StorageMarket,
@@ -150,6 +151,21 @@ pub fn expected_producer(
 ) -> (f64, f64, f64) {
     let floor = m.planting_floor;
     let (mut ep, mut d, mut e) = (0.0, 0.0, 0.0);
+    if m.revenue {
+        // on revenue: E[max(P', F)·Y] (E[Y] = 1) and its derivative
+        next_nodes_yield(m, carried, q, breaks, |z, dz, y, w| {
+            let (p, dp) = rule.eval(m, z);
+            e += w * p;
+            let wy = w * y;
+            if p > floor {
+                ep += wy * p;
+                d += wy * dp * dz;
+            } else {
+                ep += wy * floor;
+            }
+        });
+        return (ep, d, e);
+    }
     next_nodes(m, carried, q, breaks, |z, dz, w| {
         let (p, dp) = rule.eval(m, z);
         e += w * p;
@@ -327,6 +343,16 @@ impl PrivateSolution {
         plant(m, m.keep * x, guess, &self.rule, &self.breaks).0
     }
 
+    /// Planted quantity after a period that cleared at `price` with `x` units carried out: farmers
+    /// on a backward-looking rule plant on their rule of the price; rational farmers as
+    /// [`Self::planted_at`].
+    pub fn planted_after(&self, price: f64, x: f64) -> f64 {
+        match self.market.farmers {
+            Some(f) => self.market.supply_at(f.expect(price)).0,
+            None => self.planted_at(x),
+        }
+    }
+
     /// The stockout price: storers hold stock only when the price is below it (0 when nobody ever stores).
     pub fn stockout_price(&self) -> f64 {
         match &self.rule.spline {
@@ -373,9 +399,8 @@ pub fn extend(
 ) -> Result<PrivateSolution, StorageError> {
     let (stocks, planted) = continue_grid(&sol.stocks, &sol.planted, x_max);
     let total = sol.iterations;
-    let mut out = iterate(sol.market, stocks, planted, sol.rule, o)?;
-    out.iterations += total;
-    Ok(out)
+    let out = iterate(sol.market, stocks, planted, sol.rule, o)?;
+    Ok(super::fixed_point::after(total, out))
 }
 
 /// Solves the private-storage equilibrium by the endogenous grid method on `o.grid` points of private
@@ -436,14 +461,14 @@ pub fn refine(
             }
         }
         let rule = sol.rule.clone();
-        sol = iterate(sol.market, stocks, planted, rule, o)?;
-        total += sol.iterations;
-        sol.iterations = total;
+        sol = super::fixed_point::after(total, iterate(sol.market, stocks, planted, rule, o)?);
+        total = sol.iterations;
     }
     Ok(sol)
 }
 
-/// Endogenous-grid iteration from `rule` on the stock grid `stocks` to the tolerance.
+/// Endogenous-grid iteration from `rule` on the stock grid `stocks` to the tolerance (the stopping
+/// rule and the count are the shared driver's, [`super::fixed_point::iterate`]).
 fn iterate(
     m: StorageMarket,
     stocks: Vec<f64>,
@@ -453,21 +478,32 @@ fn iterate(
 ) -> Result<PrivateSolution, StorageError> {
     let n = stocks.len();
     let mut old: Vec<f64> = Vec::new();
-    let mut change = f64::INFINITY;
     let (mut zs, mut ps) = (Vec::with_capacity(n), Vec::with_capacity(n));
     let hi = reach(&m, &stocks);
     let mut breaks = rule_breaks(&m, &rule, hi);
-    for it in 1..=o.max_iterations {
+    let done = super::fixed_point::iterate(o, n, |it| {
         zs.clear();
         ps.clear();
         for (j, &x) in stocks.iter().enumerate() {
             let carried = m.keep * x;
-            let (q, psi) = plant_accepting(
-                &m,
-                planted[j],
-                &|q| expected_producer(&m, carried, q, &rule, &breaks),
-                PLANT_ACCEPT,
-            );
+            let (q, psi) = match m.farmers {
+                None => plant_accepting(
+                    &m,
+                    planted[j],
+                    &|q| expected_producer(&m, carried, q, &rule, &breaks),
+                    PLANT_ACCEPT,
+                ),
+                // farmers plant on their rule of today's price, which the arbitrage condition
+                // sets at every grid stock: P = β·E[P'(q)] − k, q = S(F(P))
+                Some(f) => plant_with(&m, planted[j], &|q| {
+                    let (_, de, e) = expected_producer(&m, carried, q, &rule, &breaks);
+                    (
+                        f.expect(m.discount * e - m.cost),
+                        f.weight * m.discount * de,
+                        e,
+                    )
+                }),
+            };
             planted[j] = q;
             let p = m.discount * psi - m.cost;
             if p <= 0.0 || ps.last().is_some_and(|&last| p > last) {
@@ -476,7 +512,7 @@ fn iterate(
             zs.push(x + m.demand.quantity(p));
             ps.push(p);
         }
-        change = if ps.len() == old.len() {
+        let mut change = if ps.len() == old.len() {
             ps.iter()
                 .zip(&old)
                 .map(|(a, b)| (a - b).abs())
@@ -498,28 +534,23 @@ fn iterate(
             PriceRule::no_storage()
         };
         breaks = rule_breaks(&m, &rule, hi);
-        super::progress::report(super::progress::ProgressEvent::Iteration {
-            iteration: it,
-            change,
-            tolerance: o.tolerance,
-            points: n,
-        });
-        if change < o.tolerance {
-            return Ok(PrivateSolution {
-                market: m,
-                rule,
-                stocks,
-                planted,
-                iterations: it,
-                change,
-                breaks,
-                residual: f64::NAN,
-                reach: None,
-            });
-        }
-    }
-    Err(StorageError::NotConverged {
-        iterations: o.max_iterations,
-        change,
+        change
+    })?;
+    Ok(PrivateSolution {
+        market: m,
+        rule,
+        stocks,
+        planted,
+        iterations: done.iterations,
+        change: done.change,
+        breaks,
+        residual: f64::NAN,
+        reach: None,
     })
+}
+
+impl super::fixed_point::Iterated for PrivateSolution {
+    fn iterations_mut(&mut self) -> &mut usize {
+        &mut self.iterations
+    }
 }

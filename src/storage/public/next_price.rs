@@ -14,7 +14,7 @@ use super::agency::{decide, Band, ReleaseInStorage};
 use super::blend::{row_kinks, Blend, Merged};
 use super::market::StorageMarket;
 use super::solve::PriceRule;
-use super::split::next_nodes;
+use super::split::{next_nodes, next_nodes_yield};
 
 /// Next period's price at carried-in public stock `gn` under the rows `rows` on `publics`.
 pub struct NextPrice<'a> {
@@ -222,6 +222,21 @@ impl<'a> NextPrice<'a> {
     pub fn expect(&self, carried: f64, q: f64, breaks: &[f64]) -> (f64, f64, f64) {
         let floor = self.m.planting_floor;
         let (mut ep, mut de, mut e) = (0.0, 0.0, 0.0);
+        if self.m.revenue {
+            // on revenue: E[max(P', F)·Y] (E[Y] = 1) and its derivative
+            next_nodes_yield(self.m, carried, q, breaks, |z, dz, y, w| {
+                let (p, dp) = self.price(z);
+                e += w * p;
+                let wy = w * y;
+                if p > floor {
+                    ep += wy * p;
+                    de += wy * dp * dz;
+                } else {
+                    ep += wy * floor;
+                }
+            });
+            return (ep, de, e);
+        }
         next_nodes(self.m, carried, q, breaks, |z, dz, w| {
             let (p, dp) = self.price(z);
             e += w * p;

@@ -174,7 +174,7 @@ impl PublicSolution {
         let (q, psi) = plant_with(m, self.planted_guess(x, public), &|q| {
             np.expect(m.keep * x, q, &breaks)
         });
-        if m.planting_floor > 0.0 {
+        if !m.plants_on_market_price() {
             (q, np.expect(m.keep * x, q, &breaks).0)
         } else {
             (q, psi)

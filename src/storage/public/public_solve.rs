@@ -154,6 +154,7 @@ pub fn refine_public(
     Ok(with_total(sol, total))
 }
 
+/// `sol` with the count of every solve of the refinement (`total` already holds its own).
 fn with_total(mut sol: PublicSolution, total: usize) -> PublicSolution {
     sol.iterations = total;
     sol
@@ -230,9 +231,8 @@ pub fn extend_public(
         .collect();
     let total = sol.iterations;
     let start = (sol.publics.clone(), sol.rows.clone());
-    let mut out = iterate(sol.market, sol.band, stocks, sol.publics, planted, start, o)?;
-    out.iterations += total;
-    Ok(out)
+    let out = iterate(sol.market, sol.band, stocks, sol.publics, planted, start, o)?;
+    Ok(super::fixed_point::after(total, out))
 }
 
 /// `v` with the midpoint of every interval whose flag is set inserted.
@@ -249,7 +249,8 @@ fn halve(v: &[f64], split: &[bool]) -> Vec<f64> {
 }
 
 /// Endogenous-grid iteration to the tolerance; the first expectation uses the rules `start` (on their
-/// own public-stock grid).
+/// own public-stock grid). The stopping rule and the count are the shared driver's
+/// ([`super::fixed_point::iterate`]).
 fn iterate(
     m: StorageMarket,
     band: Band,
@@ -263,11 +264,10 @@ fn iterate(
     let mm = publics.len();
     let (mut prev_publics, mut rows) = start;
     let mut old: Vec<Vec<f64>> = vec![Vec::new(); mm];
-    let mut change = f64::INFINITY;
     let hi = reach(&m, &stocks);
     // one Newton step of planting per point once it is short (see [`plant_accepting`])
     let accept = PLANT_ACCEPT;
-    for it in 1..=o.max_iterations {
+    let done = super::fixed_point::iterate(o, n * mm, |it| {
         // rows are independent given last iteration's rules: solved in parallel, collected in order
         // (the result does not depend on the number of threads)
         let results: Vec<(PriceRule, f64)> = publics
@@ -326,33 +326,26 @@ fn iterate(
             })
             .collect();
         let worst = results.iter().map(|r| r.1).fold(0.0_f64, f64::max);
-        let new_rows: Vec<PriceRule> = results.into_iter().map(|r| r.0).collect();
-        rows = new_rows;
+        rows = results.into_iter().map(|r| r.0).collect();
         prev_publics.clone_from(&publics);
-        change = worst;
-        super::progress::report(super::progress::ProgressEvent::Iteration {
-            iteration: it,
-            change,
-            tolerance: o.tolerance,
-            points: n * mm,
-        });
-        if change < o.tolerance {
-            return Ok(PublicSolution {
-                market: m,
-                band,
-                publics,
-                rows,
-                stocks,
-                planted,
-                iterations: it,
-                change,
-                residual: f64::NAN,
-                reach: None,
-            });
-        }
-    }
-    Err(StorageError::NotConverged {
-        iterations: o.max_iterations,
-        change,
+        worst
+    })?;
+    Ok(PublicSolution {
+        market: m,
+        band,
+        publics,
+        rows,
+        stocks,
+        planted,
+        iterations: done.iterations,
+        change: done.change,
+        residual: f64::NAN,
+        reach: None,
     })
+}
+
+impl super::fixed_point::Iterated for PublicSolution {
+    fn iterations_mut(&mut self) -> &mut usize {
+        &mut self.iterations
+    }
 }
