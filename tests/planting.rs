@@ -3,9 +3,9 @@
 //! storage equilibrium alike. Each check names its source; the closed forms are derived in the tests.
 
 use furrow::engine::{Model, PeriodRecord, PeriodShock};
-use furrow::scenario::{
-    apply_override, market_from_table, parse_toml, policy_from_table, PolicySpec, Scenario,
-};
+use furrow::policies::file::policy_from_table;
+use furrow::policies::PolicySpec;
+use furrow::scenario::{apply_override, market_from_table, parse_toml, Scenario};
 use furrow::storage::{self, Equilibrium, SolveOptions};
 
 fn market(text: &str, plants_on: &str) -> Scenario {

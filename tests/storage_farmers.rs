@@ -4,9 +4,9 @@
 //! next season's planting is the farmers' rule of today's price, which the storers know.
 
 use furrow::engine::Model;
-use furrow::scenario::{
-    apply_override, market_from_table, parse_toml, policy_from_table, PolicySpec, Scenario,
-};
+use furrow::policies::file::policy_from_table;
+use furrow::policies::PolicySpec;
+use furrow::scenario::{apply_override, market_from_table, parse_toml, Scenario};
 use furrow::stochastic::ShockStream;
 use furrow::storage::{self, Equilibrium, SolveOptions, SolvedStorage, StorageError};
 
