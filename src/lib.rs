@@ -24,6 +24,7 @@ Magnitudes depend on elasticities, expectations and shocks that are uncertain. C
 analysis and the applicable law and rules before acting on them.";
 pub mod briefing;
 pub mod compare;
+pub mod design;
 pub mod curves;
 pub mod engine;
 pub mod error;

@@ -1,0 +1,117 @@
+//! The cost–risk frontier: every design as a point (risk across, cost up), the non-dominated ones
+//! joined by a line and labelled with their settings.
+
+use plotters::coord::Shift;
+use plotters::prelude::*;
+
+use super::frame::{builder, de, frame, mesh, Titles};
+use super::style::{self, LegendEntry, LegendKey};
+use super::{Plot, PlotError};
+
+/// One design on the frontier plot.
+#[derive(Debug, Clone, PartialEq)]
+pub struct FrontierPoint {
+    /// The risk indicator (across).
+    pub risk: f64,
+    /// The cost indicator (up).
+    pub cost: f64,
+    /// On the frontier (drawn filled, joined and labelled).
+    pub chosen: bool,
+    /// The label (the design's settings), drawn for frontier designs.
+    pub label: String,
+}
+
+/// Frontier plot data.
+#[derive(Debug, Clone, PartialEq)]
+pub struct FrontierPlot {
+    /// Title and subtitle.
+    pub titles: Titles,
+    /// Axis label across (the risk indicator).
+    pub x_label: String,
+    /// Axis label up (the cost indicator).
+    pub y_label: String,
+    /// Every design.
+    pub points: Vec<FrontierPoint>,
+}
+
+/// Most frontier labels drawn (beyond, every k-th so they stay readable).
+pub const MAX_LABELS: usize = 12;
+
+/// The frontier of `points` with risk `risk` across and cost `cost` up.
+pub fn frontier(risk: &str, cost: &str, points: Vec<FrontierPoint>) -> Plot {
+    Plot::Frontier(FrontierPlot {
+        titles: Titles {
+            title: format!("Cost–risk frontier: {risk} against {cost}"),
+            subtitle: "every design a point; filled and joined: no other design is lower on both"
+                .into(),
+        },
+        x_label: risk.into(),
+        y_label: cost.into(),
+        points,
+    })
+}
+
+impl FrontierPlot {
+    pub(crate) fn draw<DB: DrawingBackend>(
+        &self,
+        root: &DrawingArea<DB, Shift>,
+    ) -> Result<(), PlotError> {
+        let pts: Vec<&FrontierPoint> = self
+            .points
+            .iter()
+            .filter(|p| p.risk.is_finite() && p.cost.is_finite())
+            .collect();
+        if pts.is_empty() {
+            return Err(PlotError::Empty(self.titles.title.clone()));
+        }
+        let legend = vec![
+            LegendEntry {
+                name: "design".into(),
+                colour: style::MUTED,
+                key: LegendKey::Dot,
+            },
+            LegendEntry {
+                name: "frontier design".into(),
+                colour: style::series_colour(0),
+                key: LegendKey::Line,
+            },
+        ];
+        let body = frame(root, &self.titles, &legend)?;
+        let (x0, x1) = style::padded_range(pts.iter().map(|p| p.risk), 0.06);
+        let (y0, y1) = style::padded_range(pts.iter().map(|p| p.cost), 0.08);
+        let mut chart = builder(&body)
+            .build_cartesian_2d(x0..x1, y0..y1)
+            .map_err(de)?;
+        chart.plotting_area().fill(&style::FIELD).map_err(de)?;
+        mesh(&mut chart, &self.x_label, &self.y_label)?;
+        let c = style::series_colour(0);
+        chart
+            .draw_series(
+                pts.iter()
+                    .filter(|p| !p.chosen)
+                    .map(|p| Circle::new((p.risk, p.cost), 4, style::MUTED.stroke_width(1))),
+            )
+            .map_err(de)?;
+        let mut front: Vec<&&FrontierPoint> = pts.iter().filter(|p| p.chosen).collect();
+        front.sort_by(|a, b| a.risk.total_cmp(&b.risk));
+        chart
+            .draw_series(LineSeries::new(
+                front.iter().map(|p| (p.risk, p.cost)),
+                c.stroke_width(2),
+            ))
+            .map_err(de)?;
+        chart
+            .draw_series(front.iter().map(|p| Circle::new((p.risk, p.cost), 6, c.filled())))
+            .map_err(de)?;
+        let every = front.len().div_ceil(MAX_LABELS).max(1);
+        for p in front.iter().step_by(every) {
+            chart
+                .draw_series(std::iter::once(
+                    EmptyElement::at((p.risk, p.cost))
+                        + Text::new(p.label.clone(), (8, -16), style::text(12, style::INK)),
+                ))
+                .map_err(de)?;
+        }
+        Ok(())
+    }
+}
