@@ -24,8 +24,8 @@ Magnitudes depend on elasticities, expectations and shocks that are uncertain. C
 analysis and the applicable law and rules before acting on them.";
 pub mod briefing;
 pub mod compare;
-pub mod design;
 pub mod curves;
+pub mod design;
 pub mod engine;
 pub mod error;
 pub mod expectations;

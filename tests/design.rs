@@ -2,6 +2,8 @@
 //! that keeps the stock-out probability under a target (reflection principle with Siegmund's
 //! correction), and the frontier against brute force.
 
+mod common;
+
 use furrow::design::{self, frontier::pareto, Objective, Requirement, Spec};
 use furrow::scenario::parse_toml;
 use furrow::stochastic::NoProgress;
@@ -34,7 +36,8 @@ fn break_even_deficiency_floor_is_the_root_of_a_quadratic() {
     // F = (120 + √(8100 + 3B/A))/1.5 (the larger root; at B = 0 it is P* = 140).
     let (t, r, budget) = (20.0, 0.05, 20_000.0);
     let market = linear_market("periods = 20\nreplications = 1\n");
-    let policy = "[policy]\nname = \"dp\"\n[floor]\nprice = 150.0\ninstrument = \"deficiency-payment\"\n";
+    let policy =
+        "[policy]\nname = \"dp\"\n[floor]\nprice = 150.0\ninstrument = \"deficiency-payment\"\n";
     let b = base(&market, policy);
     let axes = [design::parse_vary("floor.price=140:195:12").unwrap()];
     let spec = Spec {
@@ -52,8 +55,17 @@ fn break_even_deficiency_floor_is_the_root_of_a_quadratic() {
     assert!(lo <= want + 1e-9 && want <= hi + 1e-9, "{lo} {want} {hi}");
     // the fiscal PV at the answer is the closed form's too
     let pay = (1.5 * got - 210.0) * (0.5 * got - 10.0);
-    let pv = found.chosen.as_ref().unwrap().number("fiscal_cost_pv").unwrap();
-    assert!((pv - pay * a).abs() < 1e-6 * pv.abs().max(1.0), "{pv} {}", pay * a);
+    let pv = found
+        .chosen
+        .as_ref()
+        .unwrap()
+        .number("fiscal_cost_pv")
+        .unwrap();
+    assert!(
+        (pv - pay * a).abs() < 1e-6 * pv.abs().max(1.0),
+        "{pv} {}",
+        pay * a
+    );
 
     // --maximise the key itself gives the same answer; a budget no grid floor meets says so
     let spec_max = Spec {
@@ -68,7 +80,11 @@ fn break_even_deficiency_floor_is_the_root_of_a_quadratic() {
     };
     let found = design::search(&b, &axes, &none, &NoProgress).unwrap();
     assert!(found.chosen.is_none() && !found.met);
-    assert!(found.notes[0].contains("no grid value meets"), "{:?}", found.notes);
+    assert!(
+        found.notes[0].contains("no grid value meets"),
+        "{:?}",
+        found.notes
+    );
     // an unknown indicator is refused with the valid names
     let bad = Spec {
         requirements: vec![Requirement::parse("fiscal_cots_pv<=1").unwrap()],
@@ -77,7 +93,10 @@ fn break_even_deficiency_floor_is_the_root_of_a_quadratic() {
     let e = design::search(&b, &axes, &bad, &NoProgress)
         .unwrap_err()
         .to_string();
-    assert!(e.contains("fiscal_cots_pv") && e.contains("fiscal_cost_pv"), "{e}");
+    assert!(
+        e.contains("fiscal_cots_pv") && e.contains("fiscal_cost_pv"),
+        "{e}"
+    );
 }
 
 /// Φ(x) = ½ erfc(−x/√2), erfc by Abramowitz and Stegun (1964) 7.1.26 (absolute error ≤ 1.5e−7).
@@ -86,7 +105,8 @@ fn phi(x: f64) -> f64 {
     let t = 1.0 / (1.0 + 0.327_591_1 * z);
     let poly = t
         * (0.254_829_592
-            + t * (-0.284_496_736 + t * (1.421_413_741 + t * (-1.453_152_027 + t * 1.061_405_429))));
+            + t * (-0.284_496_736
+                + t * (1.421_413_741 + t * (-1.453_152_027 + t * 1.061_405_429))));
     let erfc = poly * (-z * z).exp();
     if x >= 0.0 {
         1.0 - 0.5 * erfc
@@ -141,11 +161,14 @@ fn smallest_opening_stock_meets_the_stock_out_target_of_a_random_walk() {
     // 2φ(z)/(σ√T); bisection stops within two of those, and the estimate itself is off by about
     // one: allow four (about 1.8 here), well inside the correction ρσ ≈ 5.8 the test must resolve.
     let z = phi_inv(1.0 - p / 2.0);
-    let slope = 2.0 * (-0.5 * z * z).exp() / (2.0 * std::f64::consts::PI).sqrt()
-        / (sigma * periods.sqrt());
+    let slope =
+        2.0 * (-0.5 * z * z).exp() / (2.0 * std::f64::consts::PI).sqrt() / (sigma * periods.sqrt());
     let se = (p * (1.0 - p) / reps as f64).sqrt() / slope;
     let tol = 4.0 * se;
-    assert!(tol < 0.5 * rho * sigma, "the test could not tell the correction apart");
+    assert!(
+        tol < 0.5 * rho * sigma,
+        "the test could not tell the correction apart"
+    );
     assert!(
         (got - want).abs() < tol,
         "opening stock {got}, Siegmund-corrected reflection {want} (± {tol})"
@@ -155,7 +178,10 @@ fn smallest_opening_stock_meets_the_stock_out_target_of_a_random_walk() {
     let share = chosen.number("stockout_any_share").unwrap();
     let share_se = chosen.number("stockout_any_share_se").unwrap();
     let formula = 2.0 * phi(-(got / sigma + rho) / periods.sqrt());
-    assert!((share - formula).abs() < 3.0 * share_se + 2e-3, "{share} {formula} {share_se}");
+    assert!(
+        (share - formula).abs() < 3.0 * share_se + 2e-3,
+        "{share} {formula} {share_se}"
+    );
 }
 
 /// A small linear congruential generator for test data (Knuth's MMIX constants).
@@ -247,4 +273,79 @@ fn design_frontier_over_a_grid_is_the_brute_force_set() {
     let mut got = found.frontier.clone();
     got.sort();
     assert_eq!(got, want);
+}
+
+#[test]
+fn cli_design_json_and_sweep_outcomes_at_any_thread_count() {
+    // the fixed JSON shape {"key", "value", "met", "indicators"} and byte-identical output on one
+    // and two threads (common practice, no source)
+    let dir = tempfile::tempdir().unwrap();
+    let m = dir.path().join("m.toml");
+    std::fs::write(&m, linear_market("periods = 20\nreplications = 1\n")).unwrap();
+    let p = dir.path().join("p.toml");
+    std::fs::write(
+        &p,
+        "[policy]\nname = \"dp\"\n[floor]\nprice = 150.0\ninstrument = \"deficiency-payment\"\n",
+    )
+    .unwrap();
+    let (m, p) = (m.to_str().unwrap(), p.to_str().unwrap());
+    let (out, _) = common::succeed(common::bin().args([
+        "design",
+        m,
+        "--policy",
+        p,
+        "--vary",
+        "floor.price=140:195",
+        "--require",
+        "fiscal_cost_pv<=20000",
+        "--format",
+        "json",
+    ]));
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert_eq!(v["key"], "floor.price");
+    assert_eq!(v["met"], true);
+    assert!(v["value"].as_f64().unwrap() > 150.0);
+    assert!(v["indicators"]["fiscal_cost_pv"].as_f64().unwrap() <= 20000.0);
+    // an unknown indicator: exit 2 and the valid names
+    let out = common::bin()
+        .args([
+            "design",
+            m,
+            "--policy",
+            p,
+            "--vary",
+            "floor.price=140:195",
+            "--require",
+            "fiscal<=1",
+        ])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        err.contains("fiscal") && err.contains("fiscal_cost_pv"),
+        "{err}"
+    );
+    let args = [
+        "sweep",
+        "examples/veldmark_weather.toml",
+        "--policy",
+        "policies/price_band.toml",
+        "--vary",
+        "stock.capacity=20:200:5",
+        "--indicators",
+        "all",
+        "--replications",
+        "200",
+        "--format",
+        "csv",
+    ];
+    let one = common::succeed(common::bin().env("RAYON_NUM_THREADS", "1").args(args)).0;
+    let two = common::succeed(common::bin().env("RAYON_NUM_THREADS", "2").args(args)).0;
+    assert_eq!(one, two);
+    assert!(
+        one.starts_with("stock.capacity,mean_price,mean_price_se,"),
+        "{one}"
+    );
+    assert_eq!(one.lines().count(), 6);
 }

@@ -337,7 +337,8 @@ fn monte_carlo_sweep_points_are_compare_bit_for_bit() {
         sweep::parse_vary("demand.elasticity=-0.3:-0.2:2").unwrap(),
     ];
     let points =
-        sweep::outcomes::outcomes(&base, &axes, &furrow::stochastic::NoProgress, &|_| Ok(())).unwrap();
+        sweep::outcomes::outcomes(&base, &axes, &furrow::stochastic::NoProgress, &|_| Ok(()))
+            .unwrap();
     assert_eq!(points.len(), 6);
     for pt in &points {
         let cap = format!("capacity = {:?}", pt.values[0]);
@@ -345,26 +346,22 @@ fn monte_carlo_sweep_points_are_compare_bit_for_bit() {
         let m = market.replacen("elasticity = -0.25", &el, 1);
         let p = policy_text.replace("capacity = 60.0", &cap);
         let s = furrow::scenario::market_from_str("w.toml", &m).unwrap();
-        let spec = furrow::scenario::policy_from_table(
-            "band.toml",
-            parse_toml("band.toml", &p).unwrap(),
-        )
-        .unwrap();
+        let spec =
+            furrow::scenario::policy_from_table("band.toml", parse_toml("band.toml", &p).unwrap())
+                .unwrap();
         let want = furrow::compare::compare(&s, &[spec], &furrow::stochastic::NoProgress).unwrap();
         let got = pt.indicators.as_ref().unwrap();
         assert_eq!(got, &want.policies[0].indicators, "at {:?}", pt.values);
     }
     // the same shocks at every point: capacity changes the figures, a one-thread pool does not
-    assert_ne!(
-        points[0].number("price_cv"),
-        points[4].number("price_cv")
-    );
+    assert_ne!(points[0].number("price_cv"), points[4].number("price_cv"));
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(1)
         .build()
         .unwrap();
     let again = pool.install(|| {
-        sweep::outcomes::outcomes(&base, &axes, &furrow::stochastic::NoProgress, &|_| Ok(())).unwrap()
+        sweep::outcomes::outcomes(&base, &axes, &furrow::stochastic::NoProgress, &|_| Ok(()))
+            .unwrap()
     });
     assert_eq!(again, points);
     // names: `_se` follows each, unknown names list the valid ones
@@ -379,5 +376,8 @@ fn monte_carlo_sweep_points_are_compare_bit_for_bit() {
         .columns(first)
         .unwrap_err()
         .to_string();
-    assert!(err.contains("price_vc") && err.contains("price_cv"), "{err}");
+    assert!(
+        err.contains("price_vc") && err.contains("price_cv"),
+        "{err}"
+    );
 }

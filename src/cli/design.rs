@@ -129,7 +129,10 @@ fn plot_frontier(
                 .keys
                 .iter()
                 .zip(&o.values)
-                .map(|(k, v)| format!("{} {}", k, furrow::output::fmt_num(*v, 6)))
+                .map(|(k, v)| {
+                    let short = k.split('.').next_back().unwrap_or(k);
+                    format!("{short} {}", furrow::plots::style::tick(*v))
+                })
                 .collect::<Vec<_>>()
                 .join(", "),
         })

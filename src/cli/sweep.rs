@@ -259,7 +259,10 @@ fn plot_outcomes(
         }
         figs.push(Figure {
             stem: format!("sweep_{}", slug(c)),
-            caption: format!("{c} against {} (Monte Carlo, the same shocks at every point).", keys[0]),
+            caption: format!(
+                "{c} against {} (Monte Carlo, the same shocks at every point).",
+                keys[0]
+            ),
             plot: paths(&format!("{c} as {} varies", keys[0]), &keys[0], c, series),
         });
     }

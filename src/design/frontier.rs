@@ -44,7 +44,14 @@ mod tests {
 
     #[test]
     fn a_small_case_by_hand() {
-        let pts = [(1.0, 5.0), (2.0, 3.0), (2.0, 4.0), (3.0, 3.0), (4.0, 1.0), (1.0, 5.0)];
+        let pts = [
+            (1.0, 5.0),
+            (2.0, 3.0),
+            (2.0, 4.0),
+            (3.0, 3.0),
+            (4.0, 1.0),
+            (1.0, 5.0),
+        ];
         // (2,4) is beaten by (2,3); (3,3) by (2,3); the two (1,5) are equal and both kept
         assert_eq!(pareto(&pts), vec![0, 5, 1, 4]);
     }

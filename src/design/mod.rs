@@ -94,7 +94,9 @@ fn meets(reqs: &[Requirement], o: &Outcome) -> bool {
 
 /// A `--vary` of `design`: `KEY=FROM:TO` (11 grid values) or `KEY=FROM:TO:STEPS`.
 pub fn parse_vary(spec: &str) -> Result<Axis, SweepError> {
-    let parts = spec.split_once('=').map_or(0, |(_, r)| r.split(':').count());
+    let parts = spec
+        .split_once('=')
+        .map_or(0, |(_, r)| r.split(':').count());
     if parts == 2 {
         crate::sweep::parse_vary(&format!("{spec}:11"))
     } else {
@@ -276,9 +278,9 @@ fn choose_best_grid_point(design: &mut Design, key: Option<usize>) {
         Some(i) => {
             design.chosen = Some(design.grid[i].clone());
             if design.keys.len() == 2 {
-                design
-                    .notes
-                    .push("the best grid point (two keys are not refined between grid points)".into());
+                design.notes.push(
+                    "the best grid point (two keys are not refined between grid points)".into(),
+                );
             }
         }
         None => no_value_meets(design),
@@ -404,7 +406,9 @@ fn bisect(design: &mut Design, base: &Base, axis: &Axis, i: usize, j: usize) {
         if (b - a).abs() <= tol {
             break;
         }
-        if at_b.indicators.is_ok() && noise_width(&reqs, &at_a, &at_b).is_some_and(|w| (b - a).abs() <= w) {
+        if at_b.indicators.is_ok()
+            && noise_width(&reqs, &at_a, &at_b).is_some_and(|w| (b - a).abs() <= w)
+        {
             noise_limited = true;
             break;
         }

@@ -29,14 +29,21 @@ pub fn render(d: &Design, format: Format) -> String {
         r.extend(o.values.iter().map(|v| num(*v)));
         r.push(if d.meets(o) { "yes" } else { "no" }.into());
         for c in &d.columns {
-            r.push(match o.indicators.as_ref().ok().and_then(|l| l.iter().find(|i| &i.key == c)) {
-                Some(i) => match &i.value {
-                    Value::Number(x) if x.is_finite() => num(*x),
-                    Value::Text(s) => s.clone(),
-                    _ => missing.into(),
+            r.push(
+                match o
+                    .indicators
+                    .as_ref()
+                    .ok()
+                    .and_then(|l| l.iter().find(|i| &i.key == c))
+                {
+                    Some(i) => match &i.value {
+                        Value::Number(x) if x.is_finite() => num(*x),
+                        Value::Text(s) => s.clone(),
+                        _ => missing.into(),
+                    },
+                    None => missing.into(),
                 },
-                None => missing.into(),
-            });
+            );
         }
         t.push(r);
     };
@@ -69,7 +76,12 @@ pub fn render(d: &Design, format: Format) -> String {
 fn headline(d: &Design) -> String {
     let Some(c) = &d.chosen else {
         return if d.spec.frontier.is_some() && !d.frontier.is_empty() {
-            format!("Design: {} frontier designs (no other grid design is better on both).", d.frontier.len())
+            format!(
+                "Design: {} frontier designs (no other grid design is better on both).",
+                d.frontier.len()
+            )
+        } else if d.grid.iter().any(|o| d.meets(o)) {
+            "Design: no single value chosen (see the note).".into()
         } else {
             "Design: no value meets every requirement.".into()
         };
@@ -96,9 +108,15 @@ fn headline(d: &Design) -> String {
 fn key_value(d: &Design, o: Option<&Outcome>) -> (serde_json::Value, serde_json::Value) {
     use serde_json::json;
     if d.keys.len() == 1 {
-        (json!(d.keys[0]), o.map_or(serde_json::Value::Null, |o| json!(o.values[0])))
+        (
+            json!(d.keys[0]),
+            o.map_or(serde_json::Value::Null, |o| json!(o.values[0])),
+        )
     } else {
-        (json!(d.keys), o.map_or(serde_json::Value::Null, |o| json!(o.values)))
+        (
+            json!(d.keys),
+            o.map_or(serde_json::Value::Null, |o| json!(o.values)),
+        )
     }
 }
 

@@ -101,17 +101,67 @@ impl FrontierPlot {
             ))
             .map_err(de)?;
         chart
-            .draw_series(front.iter().map(|p| Circle::new((p.risk, p.cost), 6, c.filled())))
+            .draw_series(
+                front
+                    .iter()
+                    .map(|p| Circle::new((p.risk, p.cost), 6, c.filled())),
+            )
             .map_err(de)?;
+        // labels beside their points, on the inner side of the chart so none runs off it
         let every = front.len().div_ceil(MAX_LABELS).max(1);
+        let mid = 0.5 * (x0 + x1);
         for p in front.iter().step_by(every) {
+            use plotters::style::text_anchor::{HPos, Pos, VPos};
+            let (dx, h) = if p.risk > mid {
+                (-10, HPos::Right)
+            } else {
+                (10, HPos::Left)
+            };
+            let font = style::text(12, style::INK).pos(Pos::new(h, VPos::Bottom));
             chart
                 .draw_series(std::iter::once(
-                    EmptyElement::at((p.risk, p.cost))
-                        + Text::new(p.label.clone(), (8, -16), style::text(12, style::INK)),
+                    EmptyElement::at((p.risk, p.cost)) + Text::new(p.label.clone(), (dx, -4), font),
                 ))
                 .map_err(de)?;
         }
         Ok(())
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn draws_text_and_refuses_nothing_to_draw() {
+        let pts = vec![
+            FrontierPoint {
+                risk: 0.1,
+                cost: 50.0,
+                chosen: true,
+                label: "capacity 100".into(),
+            },
+            FrontierPoint {
+                risk: 0.2,
+                cost: 60.0,
+                chosen: false,
+                label: "capacity 20".into(),
+            },
+        ];
+        let svg = frontier("stockout_any_share", "fiscal_cost_pv", pts)
+            .svg_string()
+            .unwrap();
+        assert!(svg.contains("capacity 100") && svg.contains("Cost–risk frontier"));
+        assert!(!svg.contains("capacity 20"), "only frontier designs are labelled");
+        let none = vec![FrontierPoint {
+            risk: f64::NAN,
+            cost: 1.0,
+            chosen: true,
+            label: String::new(),
+        }];
+        assert!(matches!(
+            frontier("r", "c", none).svg_string(),
+            Err(PlotError::Empty(_))
+        ));
     }
 }

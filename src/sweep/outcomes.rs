@@ -108,8 +108,8 @@ pub fn evaluate(
     progress: &dyn Progress,
 ) -> Result<Vec<Indicator>, String> {
     let (scenario, policy) = base.validate(overrides).map_err(|e| e.to_string())?;
-    let result = compare(&scenario, std::slice::from_ref(&policy), progress)
-        .map_err(|e| e.to_string())?;
+    let result =
+        compare(&scenario, std::slice::from_ref(&policy), progress).map_err(|e| e.to_string())?;
     result
         .policies
         .into_iter()
