@@ -152,7 +152,10 @@ mod tests {
             .svg_string()
             .unwrap();
         assert!(svg.contains("capacity 100") && svg.contains("Cost–risk frontier"));
-        assert!(!svg.contains("capacity 20"), "only frontier designs are labelled");
+        assert!(
+            !svg.contains("capacity 20"),
+            "only frontier designs are labelled"
+        );
         let none = vec![FrontierPoint {
             risk: f64::NAN,
             cost: 1.0,
