@@ -244,7 +244,7 @@ fn plot_outcomes(
             .iter()
             .map(|y| Series {
                 name: match y {
-                    Some(y) => format!("{} = {}", keys[1], furrow::output::fmt_num(*y, 6)),
+                    Some(y) => format!("{} = {}", keys[1], furrow::plots::style::tick(*y)),
                     None => c.clone(),
                 },
                 points: points
@@ -263,7 +263,15 @@ fn plot_outcomes(
                 "{c} against {} (Monte Carlo, the same shocks at every point).",
                 keys[0]
             ),
-            plot: paths(&format!("{c} as {} varies", keys[0]), &keys[0], c, series),
+            plot: {
+                let mut plot = paths(&format!("{c} as {} varies", keys[0]), &keys[0], c, series);
+                if let furrow::plots::Plot::Lines(l) = &mut plot {
+                    l.titles.subtitle =
+                        "Monte Carlo against the market left alone; the same shocks at every point"
+                            .into();
+                }
+                plot
+            },
         });
     }
     if figs.is_empty() {
