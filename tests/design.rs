@@ -349,3 +349,57 @@ fn cli_design_json_and_sweep_outcomes_at_any_thread_count() {
     );
     assert_eq!(one.lines().count(), 6);
 }
+
+#[test]
+fn frontier_over_policy_files_is_compares_columns_brute_forced() {
+    // each file a design: the frontier of (price_cv, fiscal_cost_pv) over compare's own columns
+    // against brute force (common practice, no source), and the chosen design the best met column
+    let market = std::fs::read_to_string("examples/veldmark_weather.toml")
+        .unwrap()
+        .replace("replications = 2000", "replications = 50");
+    let s = furrow::scenario::market_from_str("w.toml", &market).unwrap();
+    let files = [
+        "policies/price_band.toml",
+        "policies/target_reserve.toml",
+        "policies/drawdown_reserve.toml",
+        "policies/deficiency_payment.toml",
+        "policies/support_purchase.toml",
+    ];
+    let specs: Vec<_> = files
+        .iter()
+        .map(|f| furrow::scenario::load_policy(f).unwrap())
+        .collect();
+    let spec = Spec {
+        frontier: Some(("price_cv".into(), "fiscal_cost_pv".into())),
+        objective: Some(Objective::Maximise("net_welfare_change_pv".into())),
+        requirements: vec![Requirement::parse("fiscal_cost_pv<=1e9").unwrap()],
+    };
+    let found = design::search_policies(&s, &specs, &spec, &NoProgress).unwrap();
+    let cmp = furrow::compare::compare(&s, &specs, &NoProgress).unwrap();
+    let pts: Vec<(f64, f64)> = cmp
+        .policies
+        .iter()
+        .map(|c| {
+            (
+                c.number("price_cv").unwrap(),
+                c.number("fiscal_cost_pv").unwrap(),
+            )
+        })
+        .collect();
+    let mut got = found.frontier.clone();
+    got.sort();
+    assert_eq!(got, brute(&pts));
+    let best = cmp
+        .policies
+        .iter()
+        .enumerate()
+        .max_by(|a, b| {
+            a.1.number("net_welfare_change_pv")
+                .unwrap()
+                .total_cmp(&b.1.number("net_welfare_change_pv").unwrap())
+        })
+        .unwrap()
+        .0;
+    assert_eq!(found.chosen.unwrap().values[0], (best + 1) as f64);
+    assert_eq!(found.labels[best], cmp.policies[best].name);
+}

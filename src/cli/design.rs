@@ -15,11 +15,11 @@ pub struct DesignArgs {
     /// The market file.
     pub market: String,
     /// The policy file whose key is searched (default: no intervention; policy keys then start
-    /// from an empty policy).
+    /// from an empty policy). Given several times without --vary: each file is a design.
     #[arg(long)]
-    pub policy: Option<String>,
+    pub policy: Vec<String>,
     /// A dotted file key and its grid, KEY=FROM:TO (11 values) or KEY=FROM:TO:STEPS; once or twice.
-    #[arg(long, value_name = "KEY=FROM:TO[:STEPS]", required = true)]
+    #[arg(long, value_name = "KEY=FROM:TO[:STEPS]")]
     pub vary: Vec<String>,
     /// A requirement every design must meet, "INDICATOR<=VALUE" (or >=, <, >); repeatable.
     #[arg(long, value_name = "INDICATOR<=VALUE")]
@@ -77,19 +77,41 @@ pub fn execute(args: &DesignArgs) -> anyhow::Result<()> {
         objective,
         frontier,
     };
-    let market = with_run_flags(read_table(&args.market)?, &args.common)?;
-    let policy = match &args.policy {
-        Some(p) => Some((p.as_str(), read_table(p)?)),
-        None => None,
+    let found = if args.policy.len() > 1 {
+        if !axes.is_empty() {
+            anyhow::bail!("--vary with several --policy files: vary a key of one policy, or compare whole files without --vary");
+        }
+        let scenario = args.common.load_market(&args.market)?;
+        let policies = args
+            .policy
+            .iter()
+            .map(|p| super::common::load_policy(Some(p), &scenario))
+            .collect::<anyhow::Result<Vec<_>>>()?;
+        super::common::check_memory("design", &scenario, policies.len() + 1, 2)?;
+        let bar = GridBar::new(scenario.run.replications as u64);
+        let found = design::search_policies(&scenario, &policies, &spec, &bar);
+        bar.finish();
+        found?
+    } else {
+        if axes.is_empty() {
+            anyhow::bail!(
+                "design needs --vary KEY=FROM:TO (once or twice), or several --policy files"
+            );
+        }
+        let market = with_run_flags(read_table(&args.market)?, &args.common)?;
+        let policy = match args.policy.first() {
+            Some(p) => Some((p.as_str(), read_table(p)?)),
+            None => None,
+        };
+        let base = Base::new(&args.market, market, policy);
+        let (scenario, reps) = replications_of(&base)?;
+        super::common::check_memory("design", &scenario, 2, 2)?;
+        let total: usize = axes.iter().map(|a| a.values.len()).product();
+        let bar = GridBar::new((reps * total) as u64);
+        let found = design::search(&base, &axes, &spec, &bar);
+        bar.finish();
+        found?
     };
-    let base = Base::new(&args.market, market, policy);
-    let (scenario, reps) = replications_of(&base)?;
-    super::common::check_memory("design", &scenario, 2, 2)?;
-    let total: usize = axes.iter().map(|a| a.values.len()).product();
-    let bar = GridBar::new((reps * total) as u64);
-    let found = design::search(&base, &axes, &spec, &bar);
-    bar.finish();
-    let found = found?;
     for p in found.grid.iter().filter(|p| p.indicators.is_err()).take(5) {
         if let Err(msg) = &p.indicators {
             say(&format!("invalid grid point: {msg}"));
@@ -125,16 +147,20 @@ fn plot_frontier(
             risk: o.number(risk).unwrap_or(f64::NAN),
             cost: o.number(cost).unwrap_or(f64::NAN),
             chosen: found.frontier.contains(&i),
-            label: found
-                .keys
-                .iter()
-                .zip(&o.values)
-                .map(|(k, v)| {
-                    let short = k.split('.').next_back().unwrap_or(k);
-                    format!("{short} {}", furrow::plots::style::tick(*v))
-                })
-                .collect::<Vec<_>>()
-                .join(", "),
+            label: if found.labels.is_empty() {
+                found
+                    .keys
+                    .iter()
+                    .zip(&o.values)
+                    .map(|(k, v)| {
+                        let short = k.split('.').next_back().unwrap_or(k);
+                        format!("{short} {}", furrow::plots::style::tick(*v))
+                    })
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            } else {
+                design::render::shown(found, o, &|v| v.to_string()).join(", ")
+            },
         })
         .collect();
     super::figures::write_all(

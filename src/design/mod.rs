@@ -16,7 +16,7 @@
 //! both indicators, both smaller being better ([`frontier::pareto`]).
 
 pub mod frontier;
-mod render;
+pub mod render;
 pub mod requirement;
 
 use crate::stochastic::{NoProgress, Progress};
@@ -57,8 +57,10 @@ pub const ALWAYS_SHOWN: [&str; 2] = ["net_welfare_change_pv", "fiscal_cost_pv"];
 /// The search's outcome.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Design {
-    /// The varied keys.
+    /// The varied keys (`policy` for a list of policy files).
     pub keys: Vec<String>,
+    /// For a list of policy files: each design's policy name (empty for a grid of key values).
+    pub labels: Vec<String>,
     /// The request.
     pub spec: Spec,
     /// Every grid point, in grid order.
@@ -146,14 +148,41 @@ pub fn search(
     let grid = outcomes::outcomes(base, axes, progress, &|first| {
         asked.iter().try_for_each(|n| check_name(n, first))
     })?;
+    let mut design = assemble(keys, spec, grid, key_objective)?;
+    if design.spec.frontier.is_some() && spec.objective.is_none() && spec.requirements.is_empty() {
+        return Ok(design);
+    }
+    if design.keys.len() == 2 || (spec.objective.is_none() && spec.frontier.is_some()) {
+        choose_best_grid_point(&mut design, key_objective);
+    } else {
+        choose_one_key(&mut design, base, &axes[0], key_objective);
+    }
+    settle(&mut design);
+    Ok(design)
+}
+
+/// The met flags of the chosen design.
+fn settle(design: &mut Design) {
+    if let Some(c) = &design.chosen {
+        design.met = design.meets(c);
+        design.within_noise = design.spec.requirements.iter().any(|r| r.within_noise(c));
+    }
+}
+
+/// Checks the names against the first valid design, picks the reported columns and finds the
+/// frontier.
+fn assemble(
+    keys: Vec<String>,
+    spec: &Spec,
+    grid: Vec<Outcome>,
+    key_objective: Option<usize>,
+) -> Result<Design, DesignError> {
     let Some(first) = outcomes::first_valid(&grid) else {
         let msg = grid
             .iter()
             .find_map(|p| p.indicators.as_ref().err().cloned())
             .unwrap_or_default();
-        return Err(DesignError::Usage(format!(
-            "no grid value could be run: {msg}"
-        )));
+        return Err(DesignError::Usage(format!("no design could be run: {msg}")));
     };
     let mut names: Vec<String> = spec
         .requirements
@@ -176,6 +205,7 @@ pub fn search(
 
     let mut design = Design {
         keys,
+        labels: Vec::new(),
         spec: spec.clone(),
         grid,
         tried: Vec::new(),
@@ -215,18 +245,42 @@ pub fn search(
                 format!("no design has finite {risk} and {cost}: the frontier is empty")
             });
         }
-        if spec.objective.is_none() && spec.requirements.is_empty() {
-            return Ok(design);
-        }
     }
-    if design.keys.len() == 2 || (spec.objective.is_none() && spec.frontier.is_some()) {
-        choose_best_grid_point(&mut design, key_objective);
-    } else {
-        choose_one_key(&mut design, base, &axes[0], key_objective);
+    Ok(design)
+}
+
+/// The designs are whole policy files (a list of `--policy`): one `compare` of them all on common
+/// random numbers, each file a design (`labels`: the policies' names; `values`: its place, 1, 2, …).
+/// The best by the objective among those meeting every requirement, and the frontier.
+pub fn search_policies(
+    scenario: &crate::scenario::Scenario,
+    policies: &[crate::scenario::PolicySpec],
+    spec: &Spec,
+    progress: &dyn Progress,
+) -> Result<Design, DesignError> {
+    if spec.objective.is_none() && spec.frontier.is_none() {
+        return Err(DesignError::Usage(
+            "with several policy files say which is best: --minimise or --maximise an indicator, \
+             or --frontier RISK,COST"
+                .into(),
+        ));
     }
-    if let Some(c) = &design.chosen {
-        design.met = design.meets(c);
-        design.within_noise = spec.requirements.iter().any(|r| r.within_noise(c));
+    let result = crate::compare::compare(scenario, policies, progress)
+        .map_err(|e| DesignError::Usage(e.to_string()))?;
+    let grid: Vec<Outcome> = result
+        .policies
+        .iter()
+        .enumerate()
+        .map(|(i, c)| Outcome {
+            values: vec![(i + 1) as f64],
+            indicators: Ok(c.indicators.clone()),
+        })
+        .collect();
+    let mut design = assemble(vec!["policy".into()], spec, grid, None)?;
+    design.labels = result.policies.iter().map(|c| c.name.clone()).collect();
+    if spec.objective.is_some() || !spec.requirements.is_empty() {
+        choose_best_grid_point(&mut design, None);
+        settle(&mut design);
     }
     Ok(design)
 }

@@ -26,7 +26,7 @@ pub fn render(d: &Design, format: Format) -> String {
     let mut t = TextTable::new(&headers);
     let mut row = |what: &str, o: &Outcome| {
         let mut r = vec![what.to_string()];
-        r.extend(o.values.iter().map(|v| num(*v)));
+        r.extend(shown(d, o, &num));
         r.push(if d.meets(o) { "yes" } else { "no" }.into());
         for c in &d.columns {
             r.push(
@@ -89,8 +89,8 @@ fn headline(d: &Design) -> String {
     let at: Vec<String> = d
         .keys
         .iter()
-        .zip(&c.values)
-        .map(|(k, v)| format!("{k} = {}", fmt_num(*v, 6)))
+        .zip(shown(d, c, &|v| fmt_num(v, 6)))
+        .map(|(k, v)| format!("{k} = {v}"))
         .collect();
     let met = if d.met {
         "every requirement met"
@@ -105,9 +105,28 @@ fn headline(d: &Design) -> String {
     format!("Design: {} ({met}{noise}).", at.join(", "))
 }
 
+/// A design's settings as shown: the key values, or the policy's name for a list of policy files.
+pub fn shown(d: &Design, o: &Outcome, num: &dyn Fn(f64) -> String) -> Vec<String> {
+    match label(d, o) {
+        Some(l) => vec![l.to_string()],
+        None => o.values.iter().map(|v| num(*v)).collect(),
+    }
+}
+
+fn label<'a>(d: &'a Design, o: &Outcome) -> Option<&'a str> {
+    let i = *o.values.first()? as usize;
+    d.labels.get(i.checked_sub(1)?).map(String::as_str)
+}
+
 fn key_value(d: &Design, o: Option<&Outcome>) -> (serde_json::Value, serde_json::Value) {
     use serde_json::json;
-    if d.keys.len() == 1 {
+    if !d.labels.is_empty() {
+        (
+            json!("policy"),
+            o.and_then(|o| label(d, o))
+                .map_or(serde_json::Value::Null, |l| json!(l)),
+        )
+    } else if d.keys.len() == 1 {
         (
             json!(d.keys[0]),
             o.map_or(serde_json::Value::Null, |o| json!(o.values[0])),
