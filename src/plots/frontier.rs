@@ -107,20 +107,37 @@ impl FrontierPlot {
                     .map(|p| Circle::new((p.risk, p.cost), 6, c.filled())),
             )
             .map_err(de)?;
-        // labels beside their points, on the inner side of the chart so none runs off it
+        // labels beside their points, on the inner side of the chart so none runs off it, moved up
+        // or down past labels already placed (boxes estimated at 7 px a character, 14 px high)
         let every = front.len().div_ceil(MAX_LABELS).max(1);
         let mid = 0.5 * (x0 + x1);
+        let mut placed: Vec<(i32, i32, i32, i32)> = Vec::new();
         for p in front.iter().step_by(every) {
             use plotters::style::text_anchor::{HPos, Pos, VPos};
-            let (dx, h) = if p.risk > mid {
+            let (px, py) = chart.backend_coord(&(p.risk, p.cost));
+            let w = 7 * p.label.chars().count() as i32;
+            let right = p.risk > mid;
+            let (dx, h) = if right {
                 (-10, HPos::Right)
             } else {
                 (10, HPos::Left)
             };
+            let left_edge = if right { px + dx - w } else { px + dx };
+            let boxed = |dy: i32| (left_edge, py + dy - 14, left_edge + w, py + dy);
+            let clash = |b: (i32, i32, i32, i32)| {
+                placed
+                    .iter()
+                    .any(|q| b.0 < q.2 && q.0 < b.2 && b.1 < q.3 && q.1 < b.3)
+            };
+            let dy = [-4, 18, -20, 34, -36, 50, -52]
+                .into_iter()
+                .find(|&dy| !clash(boxed(dy)))
+                .unwrap_or(-4);
+            placed.push(boxed(dy));
             let font = style::text(12, style::INK).pos(Pos::new(h, VPos::Bottom));
             chart
                 .draw_series(std::iter::once(
-                    EmptyElement::at((p.risk, p.cost)) + Text::new(p.label.clone(), (dx, -4), font),
+                    EmptyElement::at((p.risk, p.cost)) + Text::new(p.label.clone(), (dx, dy), font),
                 ))
                 .map_err(de)?;
         }
