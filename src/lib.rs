@@ -26,6 +26,7 @@ analysis and the applicable law and rules before acting on them.";
 pub mod briefing;
 pub mod compare;
 pub mod curves;
+pub mod design;
 pub mod engine;
 pub mod error;
 pub mod expectations;

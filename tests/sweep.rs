@@ -320,3 +320,65 @@ fn two_key_sweep_checks_the_floor_against_each_points_demand() {
     // exactly one point has the floor at or above the choke price: (a = 150, floor = 180)
     assert_eq!(refused, 1);
 }
+
+#[test]
+fn monte_carlo_sweep_points_are_compare_bit_for_bit() {
+    // each grid point's indicators against a separate `compare` of the policy file with the key set
+    // in the file itself (two code paths must agree; common practice, no source)
+    let market = std::fs::read_to_string("examples/veldmark_weather.toml").unwrap();
+    let market = market.replace("replications = 2000", "replications = 60");
+    let policy_text = std::fs::read_to_string("policies/price_band.toml").unwrap();
+    let base = Base::new(
+        "w.toml",
+        parse_toml("w.toml", &market).unwrap(),
+        Some(("band.toml", parse_toml("band.toml", &policy_text).unwrap())),
+    );
+    let axes = [
+        sweep::parse_vary("stock.capacity=20:100:3").unwrap(),
+        sweep::parse_vary("demand.elasticity=-0.3:-0.2:2").unwrap(),
+    ];
+    let points =
+        sweep::outcomes::outcomes(&base, &axes, &furrow::stochastic::NoProgress, &|_| Ok(()))
+            .unwrap();
+    assert_eq!(points.len(), 6);
+    for pt in &points {
+        let cap = format!("capacity = {:?}", pt.values[0]);
+        let el = format!("elasticity = {:?}", pt.values[1]);
+        let m = market.replacen("elasticity = -0.25", &el, 1);
+        let p = policy_text.replace("capacity = 60.0", &cap);
+        let s = furrow::scenario::market_from_str("w.toml", &m).unwrap();
+        let spec =
+            furrow::scenario::policy_from_table("band.toml", parse_toml("band.toml", &p).unwrap())
+                .unwrap();
+        let want = furrow::compare::compare(&s, &[spec], &furrow::stochastic::NoProgress).unwrap();
+        let got = pt.indicators.as_ref().unwrap();
+        assert_eq!(got, &want.policies[0].indicators, "at {:?}", pt.values);
+    }
+    // the same shocks at every point: capacity changes the figures, a one-thread pool does not
+    assert_ne!(points[0].number("price_cv"), points[4].number("price_cv"));
+    let pool = rayon::ThreadPoolBuilder::new()
+        .num_threads(1)
+        .build()
+        .unwrap();
+    let again = pool.install(|| {
+        sweep::outcomes::outcomes(&base, &axes, &furrow::stochastic::NoProgress, &|_| Ok(()))
+            .unwrap()
+    });
+    assert_eq!(again, points);
+    // names: `_se` follows each, unknown names list the valid ones
+    let first = sweep::outcomes::first_valid(&points).unwrap();
+    let cols = sweep::outcomes::Selection::parse("price_cv,mean_price")
+        .unwrap()
+        .columns(first)
+        .unwrap();
+    assert_eq!(cols, ["price_cv", "mean_price", "mean_price_se"]);
+    let err = sweep::outcomes::Selection::parse("price_vc")
+        .unwrap()
+        .columns(first)
+        .unwrap_err()
+        .to_string();
+    assert!(
+        err.contains("price_vc") && err.contains("price_cv"),
+        "{err}"
+    );
+}

@@ -4,6 +4,7 @@
 mod check;
 mod common;
 mod compare;
+mod design;
 mod figures;
 mod fit;
 mod report;
@@ -35,6 +36,8 @@ pub enum Verb {
     Stability(stability::StabilityArgs),
     /// Stability over a grid of one or two file keys (and long-run prices for one key).
     Sweep(sweep::SweepArgs),
+    /// Goal-seek a key (or two) that meets requirements; the cost–risk frontier.
+    Design(design::DesignArgs),
     /// Side-by-side indicators for each policy against the market without intervention.
     Compare(compare::CompareArgs),
     /// A self-contained HTML briefing: tables, plots, cautions.
@@ -55,6 +58,7 @@ pub fn dispatch(cli: Cli) -> anyhow::Result<()> {
         Verb::Stability(a) => stability::execute(&a),
         Verb::Sweep(a) => sweep::execute(&a),
         Verb::Compare(a) => compare::execute(&a),
+        Verb::Design(a) => design::execute(&a),
         Verb::Report(a) => report::execute(&a),
         Verb::Storage(a) => storage::execute(&a),
         Verb::Fit(a) => fit::execute(&a).and_then(|text| {
@@ -84,6 +88,7 @@ fn inputs_of(verb: &Verb) -> (&'static str, Vec<String>) {
         Verb::Run(a) => with("run", &a.market, a.policy.iter().collect()),
         Verb::Stability(a) => with("stability", &a.market, a.policy.iter().collect()),
         Verb::Sweep(a) => with("sweep", &a.market, a.policy.iter().collect()),
+        Verb::Design(a) => with("design", &a.market, a.policy.iter().collect()),
         Verb::Compare(a) => with("compare", &a.market, a.policies.iter().collect()),
         Verb::Report(a) => with("report", &a.market, a.policies.iter().collect()),
         Verb::Storage(a) => with("storage", &a.market, a.policy.iter().collect()),

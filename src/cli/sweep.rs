@@ -21,6 +21,11 @@ pub struct SweepArgs {
     /// Lyapunov exponent (runs 1000 + N periods, or --periods).
     #[arg(long, value_name = "N")]
     pub long_run: Option<usize>,
+    /// Instead of stability: at each grid point the Monte Carlo of the policy against the market
+    /// left alone (as `compare` runs it, the same shocks at every point); LIST is indicator names
+    /// separated by commas (each with its `_se`), or `all`.
+    #[arg(long, value_name = "LIST", conflicts_with = "long_run")]
+    pub indicators: Option<String>,
     #[command(flatten)]
     pub common: CommonArgs,
 }
@@ -61,6 +66,9 @@ pub fn execute(args: &SweepArgs) -> anyhow::Result<()> {
         Some(p) => Some((p.as_str(), read_table(p)?)),
         None => None,
     };
+    if let Some(list) = &args.indicators {
+        return execute_outcomes(args, &axes, list, market, policy);
+    }
     let base = Base::new(&args.market, market, policy);
     let points = sweep::sweep(&base, &axes, long_run)?;
     let invalid: Vec<&Point> = points.iter().filter(|p| p.outcome.is_err()).collect();
@@ -103,4 +111,172 @@ pub fn execute(args: &SweepArgs) -> anyhow::Result<()> {
     }
     args.common
         .emit(&sweep::render(&points, &keys, long_run, args.common.format))
+}
+
+/// Writes `--seed`, `--replications` and `--periods` into the parsed market file (validated with it
+/// at every grid point, so a bad value is named by the file's own check).
+pub fn with_run_flags(mut market: toml::Table, common: &CommonArgs) -> anyhow::Result<toml::Table> {
+    let flags = [
+        ("run.seed", common.seed.map(|v| v as u128)),
+        ("run.replications", common.replications.map(|v| v as u128)),
+        ("run.periods", common.periods.map(|v| v as u128)),
+    ];
+    for (key, value) in flags {
+        let Some(v) = value else { continue };
+        let v = i64::try_from(v).map_err(|_| anyhow::anyhow!("--{} {v}: too large", &key[4..]))?;
+        furrow::scenario::apply_override(&mut market, key, toml::Value::Integer(v))
+            .map_err(|e| anyhow::anyhow!("--{} {v}: {e}", &key[4..]))?;
+    }
+    Ok(market)
+}
+
+/// A progress bar on stderr over `total` replications (all grid points), drawn only when stderr is
+/// a terminal.
+pub struct GridBar(Option<indicatif::ProgressBar>);
+
+impl furrow::stochastic::Progress for GridBar {
+    fn advance(&self, replications: u64) {
+        if let Some(b) = &self.0 {
+            b.inc(replications);
+        }
+    }
+}
+
+impl GridBar {
+    /// A bar for `total` replications.
+    pub fn new(total: u64) -> GridBar {
+        use std::io::IsTerminal;
+        if !std::io::stderr().is_terminal() {
+            return GridBar(None);
+        }
+        let b = indicatif::ProgressBar::new(total);
+        if let Ok(style) = indicatif::ProgressStyle::with_template(
+            "furrow: {bar:40} {pos}/{len} replications over the grid, {eta} left",
+        ) {
+            b.set_style(style);
+        }
+        GridBar(Some(b))
+    }
+
+    /// Clears the bar.
+    pub fn finish(&self) {
+        if let Some(b) = &self.0 {
+            b.finish_and_clear();
+        }
+    }
+}
+
+/// The replications of one point of `base` (after the command-line flags).
+pub fn replications_of(base: &Base) -> anyhow::Result<(furrow::scenario::Scenario, usize)> {
+    let (s, _) = base.validate(&[])?;
+    let r = s.run.replications;
+    Ok((s, r))
+}
+
+/// `sweep --indicators`: the Monte Carlo outcomes at each grid point.
+fn execute_outcomes(
+    args: &SweepArgs,
+    axes: &[sweep::Axis],
+    list: &str,
+    market: toml::Table,
+    policy: Option<(&str, toml::Table)>,
+) -> anyhow::Result<()> {
+    use furrow::sweep::outcomes;
+    let selection = outcomes::Selection::parse(list)?;
+    let market = with_run_flags(market, &args.common)?;
+    let base = Base::new(&args.market, market, policy);
+    outcomes::check_axes(axes, outcomes::MAX_MC_POINTS)?;
+    let (scenario, reps) = replications_of(&base)?;
+    super::common::check_memory("sweep", &scenario, 2, 2)?;
+    let total: usize = axes.iter().map(|a| a.values.len()).product();
+    let bar = GridBar::new((reps * total) as u64);
+    let points = outcomes::outcomes(&base, axes, &bar, &|first| {
+        selection.columns(first).map(|_| ())
+    });
+    bar.finish();
+    let points = points?;
+    let Some(first) = outcomes::first_valid(&points) else {
+        let msg = points
+            .iter()
+            .find_map(|p| p.indicators.as_ref().err().cloned())
+            .unwrap_or_default();
+        anyhow::bail!("no grid point could be run: {msg}");
+    };
+    let columns = selection.columns(first)?;
+    let invalid: Vec<&outcomes::Outcome> =
+        points.iter().filter(|p| p.indicators.is_err()).collect();
+    for p in invalid.iter().take(5) {
+        if let Err(msg) = &p.indicators {
+            say(&format!("invalid grid point: {msg}"));
+        }
+    }
+    if invalid.len() > 5 {
+        say(&format!("… {} invalid grid points in all", invalid.len()));
+    }
+    let keys: Vec<String> = axes.iter().map(|a| a.key.clone()).collect();
+    if let Some(dir) = args.common.plot_dir() {
+        plot_outcomes(&dir, &keys, &columns, &points)?;
+    }
+    let text = outcomes::render(&points, &keys, &columns, args.common.format);
+    args.common.emit_with_caution(&text)
+}
+
+/// One line chart per indicator (standard errors left out) against the first key; with two keys one
+/// line per value of the second.
+fn plot_outcomes(
+    dir: &super::common::PlotDir,
+    keys: &[String],
+    columns: &[String],
+    points: &[furrow::sweep::outcomes::Outcome],
+) -> anyhow::Result<()> {
+    use furrow::briefing::{figures::slug, Figure};
+    use furrow::plots::{paths, Series};
+    let mut seconds: Vec<Option<f64>> = Vec::new();
+    for p in points {
+        let y = p.values.get(1).copied();
+        if !seconds.contains(&y) {
+            seconds.push(y);
+        }
+    }
+    let mut figs = Vec::new();
+    for c in columns.iter().filter(|c| !c.ends_with("_se")) {
+        let series: Vec<Series> = seconds
+            .iter()
+            .map(|y| Series {
+                name: match y {
+                    Some(y) => format!("{} = {}", keys[1], furrow::plots::style::tick(*y)),
+                    None => c.clone(),
+                },
+                points: points
+                    .iter()
+                    .filter(|p| p.values.get(1).copied() == *y)
+                    .filter_map(|p| p.number(c).map(|v| (p.values[0], v)))
+                    .collect(),
+            })
+            .collect();
+        if series.iter().all(|s| s.points.is_empty()) {
+            continue;
+        }
+        figs.push(Figure {
+            stem: format!("sweep_{}", slug(c)),
+            caption: format!(
+                "{c} against {} (Monte Carlo, the same shocks at every point).",
+                keys[0]
+            ),
+            plot: {
+                let mut plot = paths(&format!("{c} as {} varies", keys[0]), &keys[0], c, series);
+                if let furrow::plots::Plot::Lines(l) = &mut plot {
+                    l.titles.subtitle =
+                        "Monte Carlo against the market left alone; the same shocks at every point"
+                            .into();
+                }
+                plot
+            },
+        });
+    }
+    if figs.is_empty() {
+        say("sweep: nothing to plot (no numeric indicator)");
+        return Ok(());
+    }
+    super::figures::write_all(dir, &figs)
 }

@@ -10,6 +10,7 @@
 pub mod apply;
 pub mod grid;
 pub mod longrun;
+pub mod outcomes;
 mod render;
 
 use rayon::prelude::*;

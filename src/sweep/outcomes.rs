@@ -1,0 +1,304 @@
+//! Monte Carlo outcomes over a grid (`sweep --indicators`): at each grid point the files are
+//! validated with the point's values exactly as the stability sweep validates them
+//! ([`Base::validate`]) and the point's policy is compared with the market left alone by
+//! [`crate::compare::compare`] itself, so every indicator is `compare`'s own.
+//!
+//! Common random numbers: every point runs `compare` with the same seed, replications and periods,
+//! so replication i sees the same weather at every point (unless a varied key changes the shocks
+//! themselves) and differences between points are not sampling noise. Points run in parallel and are
+//! collected in grid order; `compare` is itself bit-identical at any thread count, so the output is
+//! too.
+
+use rayon::prelude::*;
+
+use super::{apply::Base, grid::Axis, SweepError, MAX_POINTS};
+use crate::compare::{compare, Indicator, Kind, Value};
+use crate::stochastic::Progress;
+
+/// Which indicators a sweep reports.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum Selection {
+    /// Every indicator `compare` gives (in its order, standard errors and quantiles included).
+    All,
+    /// These names, each followed by its `_se` where `compare` gives one.
+    Names(Vec<String>),
+}
+
+impl Selection {
+    /// Parses `--indicators LIST|all` (comma-separated names; empty names are refused).
+    pub fn parse(list: &str) -> Result<Selection, SweepError> {
+        if list.trim() == "all" {
+            return Ok(Selection::All);
+        }
+        let names: Vec<String> = list.split(',').map(|s| s.trim().to_string()).collect();
+        if names.iter().any(|n| n.is_empty()) {
+            return Err(SweepError::Usage(format!(
+                "--indicators `{list}`: expected indicator names separated by commas, or `all`"
+            )));
+        }
+        Ok(Selection::Names(names))
+    }
+
+    /// The columns this selection gives for a point with `indicators`, or an error naming the unknown
+    /// indicator and listing the valid names.
+    pub fn columns(&self, indicators: &[Indicator]) -> Result<Vec<String>, SweepError> {
+        let has = |k: &str| indicators.iter().any(|i| i.key == k);
+        match self {
+            Selection::All => Ok(indicators.iter().map(|i| i.key.clone()).collect()),
+            Selection::Names(names) => {
+                let mut cols = Vec::new();
+                for n in names {
+                    check_name(n, indicators)?;
+                    if !cols.contains(n) {
+                        cols.push(n.clone());
+                    }
+                    let se = format!("{n}_se");
+                    if !n.ends_with("_se") && has(&se) && !cols.contains(&se) {
+                        cols.push(se);
+                    }
+                }
+                Ok(cols)
+            }
+        }
+    }
+}
+
+/// Ok when `name` is one of `indicators`' keys; otherwise an error listing the valid names.
+pub fn check_name(name: &str, indicators: &[Indicator]) -> Result<(), SweepError> {
+    if indicators.iter().any(|i| i.key == name) {
+        return Ok(());
+    }
+    let valid: Vec<&str> = indicators
+        .iter()
+        .filter(|i| i.kind != Kind::Text)
+        .map(|i| i.key.as_str())
+        .collect();
+    Err(SweepError::Usage(format!(
+        "unknown indicator `{name}`; valid names: {}",
+        valid.join(", ")
+    )))
+}
+
+/// The outcome at one grid point (or one value a design search tried).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Outcome {
+    /// The value of each varied key, in `--vary` order.
+    pub values: Vec<f64>,
+    /// The policy's indicators (`compare`'s column for it, in `compare`'s order), or why the point
+    /// is invalid (its files do not validate, or a replication diverged).
+    pub indicators: Result<Vec<Indicator>, String>,
+}
+
+impl Outcome {
+    /// The numeric value of indicator `key` (None when invalid, missing or not a finite number).
+    pub fn number(&self, key: &str) -> Option<f64> {
+        let inds = self.indicators.as_ref().ok()?;
+        match inds.iter().find(|i| i.key == key).map(|i| &i.value) {
+            Some(Value::Number(x)) if x.is_finite() => Some(*x),
+            _ => None,
+        }
+    }
+}
+
+/// Runs `compare` of the base's policy with `overrides` written into the files. Invalid files or a
+/// failed run give `Err` with the message.
+pub fn evaluate(
+    base: &Base,
+    overrides: &[(&str, f64)],
+    progress: &dyn Progress,
+) -> Result<Vec<Indicator>, String> {
+    let (scenario, policy) = base.validate(overrides).map_err(|e| e.to_string())?;
+    let result =
+        compare(&scenario, std::slice::from_ref(&policy), progress).map_err(|e| e.to_string())?;
+    result
+        .policies
+        .into_iter()
+        .next()
+        .map(|c| c.indicators)
+        .ok_or_else(|| "compare gave no column".to_string())
+}
+
+/// The grid points of `axes` (one or two), the first axis outermost.
+pub fn grid_points(axes: &[Axis]) -> Vec<Vec<f64>> {
+    match axes {
+        [a] => a.values.iter().map(|v| vec![*v]).collect(),
+        [a, b] => a
+            .values
+            .iter()
+            .flat_map(|x| b.values.iter().map(move |y| vec![*x, *y]))
+            .collect(),
+        _ => Vec::new(),
+    }
+}
+
+/// Checks the axes as the stability sweep does: one or two, distinct, at most [`MAX_POINTS`].
+pub fn check_axes(axes: &[Axis], most: usize) -> Result<(), SweepError> {
+    if axes.is_empty() || axes.len() > 2 {
+        return Err(SweepError::Usage(format!(
+            "one or two --vary keys, got {}",
+            axes.len()
+        )));
+    }
+    if axes.len() == 2 && axes[0].key == axes[1].key {
+        return Err(SweepError::Usage(format!(
+            "--vary {} given twice",
+            axes[0].key
+        )));
+    }
+    let total: usize = axes.iter().map(|a| a.values.len()).product();
+    if total > most.min(MAX_POINTS) {
+        return Err(SweepError::Usage(format!(
+            "the grid has {total} points; at most {} with a Monte Carlo at each (use fewer STEPS)",
+            most.min(MAX_POINTS)
+        )));
+    }
+    Ok(())
+}
+
+/// Most grid points of a Monte Carlo sweep.
+pub const MAX_MC_POINTS: usize = 100_000;
+
+/// Evaluates every grid point of `axes` (see [`evaluate`]) in parallel, collected in grid order.
+/// The base files must validate; an unknown key, or a key none of whose grid values validates,
+/// fails the whole sweep (as in the stability sweep). `check` sees the first valid point's
+/// indicators before the rest of the grid is run (e.g. to refuse an unknown indicator name at
+/// once); its error ends the sweep.
+pub fn outcomes(
+    base: &Base,
+    axes: &[Axis],
+    progress: &dyn Progress,
+    check: &(dyn Fn(&[Indicator]) -> Result<(), SweepError> + Sync),
+) -> Result<Vec<Outcome>, SweepError> {
+    check_axes(axes, MAX_MC_POINTS)?;
+    base.validate(&[]).map_err(SweepError::Input)?;
+    for axis in axes {
+        let checked: Vec<_> = axis
+            .values
+            .iter()
+            .map(|v| base.validate(&[(axis.key.as_str(), *v)]))
+            .collect();
+        let all_bad = checked.iter().all(|r| r.is_err());
+        if let Some(Err(e)) = checked.iter().find(|r| {
+            all_bad
+                || matches!(r, Err(e) if matches!(e, crate::scenario::InputError::UnknownKey { .. } | crate::scenario::InputError::Syntax { .. }))
+        }) {
+            return Err(SweepError::Key {
+                key: axis.key.clone(),
+                problem: e.clone(),
+            });
+        }
+    }
+    let run = |values: &Vec<f64>| {
+        let overrides: Vec<(&str, f64)> = axes
+            .iter()
+            .zip(values)
+            .map(|(a, v)| (a.key.as_str(), *v))
+            .collect();
+        Outcome {
+            values: values.clone(),
+            indicators: evaluate(base, &overrides, progress),
+        }
+    };
+    let points = grid_points(axes);
+    // the grid in order up to the first valid point, checked, then the rest in parallel
+    let mut done = Vec::new();
+    for values in &points {
+        let o = run(values);
+        let valid = o.indicators.is_ok();
+        if let Ok(list) = &o.indicators {
+            check(list)?;
+        }
+        done.push(o);
+        if valid {
+            break;
+        }
+    }
+    let rest: Vec<Outcome> = points[done.len()..].par_iter().map(run).collect();
+    done.extend(rest);
+    Ok(done)
+}
+
+/// The first valid point's indicators (for checking names), if any point is valid.
+pub fn first_valid(points: &[Outcome]) -> Option<&[Indicator]> {
+    points
+        .iter()
+        .find_map(|p| p.indicators.as_ref().ok().map(|v| v.as_slice()))
+}
+
+/// The sweep's outcomes as text in `format`: one row per grid point, the varied keys first, then each
+/// column of `columns`, then `status` (`ok` or `invalid`). JSON: `{"keys": [...], "indicators":
+/// [...], "points": [{"values": {KEY: v}, "indicators": {NAME: v}, "message"}]}`.
+pub fn render(
+    points: &[Outcome],
+    keys: &[String],
+    columns: &[String],
+    format: crate::output::Format,
+) -> String {
+    use crate::output::{fmt_full, fmt_num, Format, TextTable};
+    if format == Format::Json {
+        return render_json(points, keys, columns);
+    }
+    let full = format == Format::Csv;
+    let num = |x: f64| if full { fmt_full(x) } else { fmt_num(x, 6) };
+    let missing = if full { "" } else { "n/a" };
+    let mut headers: Vec<String> = keys.to_vec();
+    headers.extend(columns.iter().cloned());
+    headers.push("status".into());
+    let mut t = TextTable::new(&headers);
+    for p in points {
+        let mut row: Vec<String> = p.values.iter().map(|v| num(*v)).collect();
+        match &p.indicators {
+            Ok(inds) => {
+                for c in columns {
+                    row.push(match inds.iter().find(|i| &i.key == c).map(|i| &i.value) {
+                        Some(Value::Number(x)) if x.is_finite() => num(*x),
+                        Some(Value::Text(s)) => s.clone(),
+                        _ => missing.into(),
+                    });
+                }
+                row.push("ok".into());
+            }
+            Err(_) => {
+                row.extend(columns.iter().map(|_| missing.to_string()));
+                row.push("invalid".into());
+            }
+        }
+        t.push(row);
+    }
+    t.render(format)
+}
+
+fn render_json(points: &[Outcome], keys: &[String], columns: &[String]) -> String {
+    use serde_json::{json, Map};
+    let pts: Vec<serde_json::Value> = points
+        .iter()
+        .map(|p| {
+            let mut values = Map::new();
+            for (k, v) in keys.iter().zip(&p.values) {
+                values.insert(k.clone(), json!(v));
+            }
+            let (inds, message) = match &p.indicators {
+                Ok(list) => (indicator_map(list, columns), serde_json::Value::Null),
+                Err(m) => (serde_json::Value::Null, json!(m)),
+            };
+            json!({ "values": values, "indicators": inds, "message": message })
+        })
+        .collect();
+    serde_json::to_string_pretty(&json!({ "keys": keys, "indicators": columns, "points": pts }))
+        .unwrap_or_default()
+        + "\n"
+}
+
+/// `{NAME: value}` for `columns` in order (non-finite numbers and missing values as null).
+pub fn indicator_map(list: &[Indicator], columns: &[String]) -> serde_json::Value {
+    let mut m = serde_json::Map::new();
+    for c in columns {
+        let v = list
+            .iter()
+            .find(|i| &i.key == c)
+            .map(|i| serde_json::to_value(&i.value).unwrap_or(serde_json::Value::Null))
+            .unwrap_or(serde_json::Value::Null);
+        m.insert(c.clone(), v);
+    }
+    serde_json::Value::Object(m)
+}
