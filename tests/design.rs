@@ -367,7 +367,7 @@ fn frontier_over_policy_files_is_compares_columns_brute_forced() {
     ];
     let specs: Vec<_> = files
         .iter()
-        .map(|f| furrow::scenario::load_policy(f).unwrap())
+        .map(|f| furrow::policies::file::load_policy(f).unwrap())
         .collect();
     let spec = Spec {
         frontier: Some(("price_cv".into(), "fiscal_cost_pv".into())),

@@ -347,9 +347,11 @@ fn monte_carlo_sweep_points_are_compare_bit_for_bit() {
         let m = market.replacen("elasticity = -0.25", &el, 1);
         let p = policy_text.replace("capacity = 60.0", &cap);
         let s = furrow::scenario::market_from_str("w.toml", &m).unwrap();
-        let spec =
-            furrow::scenario::policy_from_table("band.toml", parse_toml("band.toml", &p).unwrap())
-                .unwrap();
+        let spec = furrow::policies::file::policy_from_table(
+            "band.toml",
+            parse_toml("band.toml", &p).unwrap(),
+        )
+        .unwrap();
         let want = furrow::compare::compare(&s, &[spec], &furrow::stochastic::NoProgress).unwrap();
         let got = pt.indicators.as_ref().unwrap();
         assert_eq!(got, &want.policies[0].indicators, "at {:?}", pt.values);

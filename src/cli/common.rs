@@ -345,3 +345,72 @@ pub fn install_progress() {
         storage::set_progress(Some(Arc::new(SolveBar(Mutex::new(BarState::default())))));
     }
 }
+
+/// Writes `--seed`, `--replications` and `--periods` into the parsed market file (validated with it
+/// at every grid point, so a bad value is named by the file's own check).
+pub fn with_run_flags(mut market: toml::Table, common: &CommonArgs) -> anyhow::Result<toml::Table> {
+    let flags = [
+        ("run.seed", common.seed.map(|v| v as u128)),
+        ("run.replications", common.replications.map(|v| v as u128)),
+        ("run.periods", common.periods.map(|v| v as u128)),
+    ];
+    for (key, value) in flags {
+        let Some(v) = value else { continue };
+        let v = i64::try_from(v).map_err(|_| anyhow::anyhow!("--{} {v}: too large", &key[4..]))?;
+        furrow::scenario::apply_override(&mut market, key, toml::Value::Integer(v))
+            .map_err(|e| anyhow::anyhow!("--{} {v}: {e}", &key[4..]))?;
+    }
+    Ok(market)
+}
+
+/// A progress bar on stderr over `total` replications (all grid points), drawn only when stderr is
+/// a terminal.
+pub struct GridBar(Option<indicatif::ProgressBar>);
+
+impl furrow::stochastic::Progress for GridBar {
+    fn advance(&self, replications: u64) {
+        if let Some(b) = &self.0 {
+            b.inc(replications);
+        }
+    }
+}
+
+impl GridBar {
+    /// A bar for `total` replications.
+    pub fn new(total: u64) -> GridBar {
+        use std::io::IsTerminal;
+        if !std::io::stderr().is_terminal() {
+            return GridBar(None);
+        }
+        let b = indicatif::ProgressBar::new(total);
+        if let Ok(style) = indicatif::ProgressStyle::with_template(
+            "furrow: {bar:40} {pos}/{len} replications over the grid, {eta} left",
+        ) {
+            b.set_style(style);
+        }
+        GridBar(Some(b))
+    }
+
+    /// Clears the bar.
+    pub fn finish(&self) {
+        if let Some(b) = &self.0 {
+            b.finish_and_clear();
+        }
+    }
+}
+
+/// The replications of one point of `base` (after the command-line flags).
+pub fn replications_of(
+    base: &furrow::sweep::Base,
+) -> anyhow::Result<(furrow::scenario::Scenario, usize)> {
+    let (s, _) = base.validate(&[])?;
+    let r = s.run.replications;
+    Ok((s, r))
+}
+
+/// A TOML file parsed (not validated), for the verbs that patch keys before validating.
+pub fn read_table(path: &str) -> anyhow::Result<toml::Table> {
+    let text =
+        std::fs::read_to_string(path).map_err(|e| anyhow::anyhow!("{path}: cannot read: {e}"))?;
+    Ok(furrow::scenario::parse_toml(path, &text)?)
+}

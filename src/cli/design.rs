@@ -3,11 +3,9 @@
 
 use clap::Args;
 use furrow::design::{self, Objective, Requirement, Spec};
-use furrow::scenario::parse_toml;
 use furrow::sweep::Base;
 
-use super::common::{say, CommonArgs};
-use super::sweep::{replications_of, with_run_flags, GridBar};
+use super::common::{read_table, replications_of, say, with_run_flags, CommonArgs, GridBar};
 
 /// Arguments of `design`.
 #[derive(Debug, Args)]
@@ -36,12 +34,6 @@ pub struct DesignArgs {
     pub frontier: Option<String>,
     #[command(flatten)]
     pub common: CommonArgs,
-}
-
-fn read_table(path: &str) -> anyhow::Result<toml::Table> {
-    let text =
-        std::fs::read_to_string(path).map_err(|e| anyhow::anyhow!("{path}: cannot read: {e}"))?;
-    Ok(parse_toml(path, &text)?)
 }
 
 /// Runs `design`.

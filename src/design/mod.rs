@@ -254,7 +254,7 @@ fn assemble(
 /// The best by the objective among those meeting every requirement, and the frontier.
 pub fn search_policies(
     scenario: &crate::scenario::Scenario,
-    policies: &[crate::scenario::PolicySpec],
+    policies: &[crate::policies::PolicySpec],
     spec: &Spec,
     progress: &dyn Progress,
 ) -> Result<Design, DesignError> {
