@@ -35,6 +35,7 @@ pub mod path;
 pub mod plots;
 pub mod policies;
 pub mod scenario;
+pub mod sensitivity;
 pub mod stability;
 pub mod stochastic;
 pub mod storage;

@@ -1,0 +1,92 @@
+//! `furrow sensitivity MARKET POLICY... [--rules LIST] [--range KEY=LOW:HIGH ...] [--indicator NAME ...]`:
+//! the assumption panel, the forecast-error decomposition and the tornado.
+
+use clap::Args;
+use furrow::scenario::{apply_override, parse_toml};
+use furrow::sensitivity::{self, Inputs, Request};
+
+use super::common::{check_memory, install_progress, load_policy, progress_for, CommonArgs};
+
+/// Arguments of `sensitivity`.
+#[derive(Debug, Args)]
+pub struct SensitivityArgs {
+    /// The market file.
+    pub market: String,
+    /// One or more policy files.
+    #[arg(required = true, num_args = 1..)]
+    pub policies: Vec<String>,
+    /// Expectation rules of the panel, comma-separated, each NAME[:NUMBER][:KEY=VALUE]...
+    /// (e.g. `naive,adaptive:0.6,normal-price:0.5,trailing-mean:3,rational`); default: every
+    /// registered rule in its short form.
+    #[arg(long, value_name = "LIST", default_value = "")]
+    pub rules: String,
+    /// A file key and its low and high value for the tornado, KEY=LOW:HIGH; repeatable.
+    #[arg(long, value_name = "KEY=LOW:HIGH")]
+    pub range: Vec<String>,
+    /// An indicator of the panel (with its `_se`); repeatable; the first is the tornado's.
+    /// Default: net_welfare_change_pv, fiscal_cost_pv, price_cv.
+    #[arg(long, value_name = "NAME")]
+    pub indicator: Vec<String>,
+    #[command(flatten)]
+    pub common: CommonArgs,
+}
+
+fn read_table(path: &str) -> anyhow::Result<toml::Table> {
+    let text =
+        std::fs::read_to_string(path).map_err(|e| anyhow::anyhow!("{path}: cannot read: {e}"))?;
+    Ok(parse_toml(path, &text)?)
+}
+
+/// Runs `sensitivity`.
+pub fn execute(args: &SensitivityArgs) -> anyhow::Result<()> {
+    // the files as given, validated first (errors name the file or the option)
+    let scenario = args.common.load_market(&args.market)?;
+    for p in &args.policies {
+        load_policy(Some(p), &scenario)?;
+    }
+    let rules = sensitivity::parse_rules(&args.rules)?;
+    let ranges = args
+        .range
+        .iter()
+        .map(|r| sensitivity::parse_range(r))
+        .collect::<Result<Vec<_>, _>>()?;
+    let mut market = read_table(&args.market)?;
+    let flags = [
+        ("run.seed", args.common.seed.map(|v| v as i64)),
+        (
+            "run.replications",
+            args.common.replications.map(|v| v as i64),
+        ),
+        ("run.periods", args.common.periods.map(|v| v as i64)),
+    ];
+    for (key, value) in flags {
+        if let Some(v) = value {
+            apply_override(&mut market, key, toml::Value::Integer(v))
+                .map_err(anyhow::Error::msg)?;
+        }
+    }
+    let policies = args
+        .policies
+        .iter()
+        .map(|p| Ok((p.clone(), read_table(p)?)))
+        .collect::<anyhow::Result<Vec<_>>>()?;
+    let inputs = Inputs {
+        market_file: args.market.clone(),
+        market,
+        policies,
+    };
+    let request = Request {
+        rules,
+        ranges,
+        indicators: args.indicator.clone(),
+    };
+    install_progress();
+    check_memory("sensitivity", &scenario, args.policies.len() + 2, 2)?;
+    let runs = request.rules.len() * 2 + request.ranges.len() * 2 + 1;
+    let bar = progress_for(&scenario, (args.policies.len() + 2) * runs);
+    let result = sensitivity::sensitivity(&inputs, &request, bar.observer());
+    bar.finish();
+    let result = result?;
+    args.common
+        .emit_with_caution(&sensitivity::render(&result, args.common.format))
+}
