@@ -507,3 +507,45 @@ fn every_format_renders_without_non_numbers() {
         }
     }
 }
+
+#[test]
+fn plots_write_one_tornado_per_policy_in_png_and_svg() {
+    let dir = tempfile::tempdir().unwrap();
+    let plots = dir.path().join("figs");
+    stdout_of([
+        "sensitivity",
+        MARKET,
+        BAND,
+        PAYMENT,
+        "--rules",
+        "naive",
+        "--range",
+        "demand.elasticity=-0.4:-0.15",
+        "--range",
+        "supply.elasticity=0.1:0.4",
+        "--replications",
+        "10",
+        "--format",
+        "csv",
+        "--plots",
+        plots.to_str().unwrap(),
+    ]);
+    let mut names: Vec<String> = std::fs::read_dir(&plots)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().to_string())
+        .filter(|n| !n.starts_with('.'))
+        .collect();
+    names.sort();
+    assert_eq!(names.len(), 4, "{names:?}");
+    assert!(names.iter().all(|n| n.starts_with("tornado_")));
+    for n in &names {
+        let bytes = std::fs::read(plots.join(n)).unwrap();
+        if n.ends_with(".png") {
+            assert_eq!(&bytes[..8], b"\x89PNG\r\n\x1a\n");
+        } else {
+            let svg = String::from_utf8(bytes).unwrap();
+            assert!(svg.contains("demand.elasticity") && svg.contains("supply.elasticity"));
+            assert!(!svg.contains("NaN"));
+        }
+    }
+}

@@ -87,6 +87,15 @@ pub fn execute(args: &SensitivityArgs) -> anyhow::Result<()> {
     let result = sensitivity::sensitivity(&inputs, &request, bar.observer());
     bar.finish();
     let result = result?;
+    if let Some(dir) = args.common.plot_dir() {
+        let figures = sensitivity::figures(&result);
+        if figures.is_empty() {
+            super::common::say(
+                "--plots: the tornado needs at least one --range; no figure written",
+            );
+        }
+        super::figures::write_all(&dir, &figures)?;
+    }
     args.common
         .emit_with_caution(&sensitivity::render(&result, args.common.format))
 }

@@ -19,6 +19,7 @@ pub mod frame;
 mod heatmap;
 mod lines;
 pub mod style;
+mod tornado;
 
 use std::path::{Path, PathBuf};
 
@@ -32,6 +33,7 @@ pub use fan::{fan, FanBand, FanChart};
 pub use frame::Titles;
 pub use heatmap::{contour_segments, heatmap, StabilityMap};
 pub use lines::{fiscal, paths, BarChart, LineChart, Reference, Series, OVERLAY_MAX};
+pub use tornado::{tornado, Tornado, TornadoRow};
 
 /// Why a figure could not be drawn or written.
 #[derive(Debug, thiserror::Error)]
@@ -69,6 +71,8 @@ pub enum Plot {
     Heat(StabilityMap),
     /// Long-run prices against one swept key.
     Bifurcation(Bifurcation),
+    /// One policy's indicator with each varied key at its low and high value.
+    Tornado(Tornado),
 }
 
 impl Plot {
@@ -82,6 +86,7 @@ impl Plot {
             Plot::Eigen(p) => &p.titles.title,
             Plot::Heat(p) => &p.titles.title,
             Plot::Bifurcation(p) => &p.titles.title,
+            Plot::Tornado(p) => &p.titles.title,
         }
     }
 
@@ -96,6 +101,7 @@ impl Plot {
             Plot::Eigen(p) => p.draw(root),
             Plot::Heat(p) => p.draw(root),
             Plot::Bifurcation(p) => p.draw(root),
+            Plot::Tornado(p) => p.draw(root),
         }
     }
 
@@ -105,6 +111,7 @@ impl Plot {
             Plot::Fan(f) => (style::WIDTH, fan::height(f.bands.len())),
             Plot::Lines(l) => (style::WIDTH, l.height()),
             Plot::Eigen(e) => (style::WIDTH, eigen::height(e.groups())),
+            Plot::Tornado(t) => (style::WIDTH, tornado::height(t.rows.len())),
             _ => (style::WIDTH, style::HEIGHT),
         }
     }

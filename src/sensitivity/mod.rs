@@ -21,7 +21,7 @@ mod tornado;
 
 use serde::Serialize;
 
-pub use render::render;
+pub use render::{figures, render};
 pub use tornado::{parse_range, Range, TornadoBar};
 
 use crate::compare::{compare, CompareError, Indicator, Kind, PolicyComparison, Value};

@@ -301,3 +301,71 @@ fn tornado_table(s: &Sensitivity, units: &Units, format: Format) -> String {
         t.render(format)
     )
 }
+
+/// The tornado figures, one per policy (stem `tornado_POLICY`), values in the tables' units.
+pub fn figures(s: &Sensitivity) -> Vec<crate::briefing::Figure> {
+    let Some(first) = s.tornado.first() else {
+        return Vec::new();
+    };
+    let units = Units::new(&s.price_unit, &s.quantity_unit);
+    let key = &first.indicator;
+    let kind = kind_of(s, key);
+    let mut out = Vec::new();
+    let mut seen: Vec<&str> = Vec::new();
+    for (k, b0) in s.tornado.iter().enumerate() {
+        if seen.contains(&b0.file.as_str()) {
+            continue;
+        }
+        seen.push(&b0.file);
+        let bars: Vec<_> = s.tornado[k..]
+            .iter()
+            .filter(|b| b.file == b0.file)
+            .collect();
+        let scale = units.money_scale(
+            bars.iter()
+                .flat_map(|b| [b.base, b.at_low, b.at_high])
+                .flatten(),
+        );
+        let factor = match kind.measure() {
+            Some(crate::units::Measure::Money) => 1.0 / scale.divisor,
+            Some(crate::units::Measure::Share) => 100.0,
+            _ => 1.0,
+        };
+        let unit = kind
+            .measure()
+            .map(|m| units.unit(m, &scale))
+            .unwrap_or_default();
+        let rows = bars
+            .iter()
+            .map(|b| crate::plots::TornadoRow {
+                label: format!(
+                    "{} {} … {}",
+                    b.key,
+                    crate::plots::style::tick(b.low),
+                    crate::plots::style::tick(b.high)
+                ),
+                at_low: b.at_low.map(|x| x * factor),
+                at_high: b.at_high.map(|x| x * factor),
+            })
+            .collect();
+        let x_label = if unit.is_empty() {
+            label_of(s, key)
+        } else {
+            format!("{} ({unit})", label_of(s, key))
+        };
+        let stem = format!(
+            "tornado_{}",
+            crate::briefing::figures::slug(&format!("{} {}", seen.len(), b0.policy))
+        );
+        out.push(crate::briefing::Figure {
+            stem,
+            caption: format!(
+                "{}: {} with one key at a time at its low and high value",
+                b0.policy,
+                label_of(s, key)
+            ),
+            plot: crate::plots::tornado(&b0.policy, &x_label, b0.base.map(|x| x * factor), rows),
+        });
+    }
+    out
+}
