@@ -14,6 +14,7 @@
 
 mod adaptive;
 mod extrapolative;
+mod learning;
 mod naive;
 mod normal_price;
 mod rational;
@@ -21,6 +22,7 @@ mod trailing_mean;
 
 pub use adaptive::Adaptive;
 pub use extrapolative::Extrapolative;
+pub use learning::Learning;
 pub use naive::Naive;
 pub use normal_price::{NormalPrice, NormalPriceRule};
 pub use rational::Rational;
@@ -46,6 +48,7 @@ pub const RULES: &[Registration] = &[
     normal_price::RULE,
     extrapolative::RULE,
     trailing_mean::RULE,
+    learning::RULE,
     rational::RULE,
 ];
 
