@@ -5,7 +5,53 @@ use clap::Args;
 use furrow::scenario::{apply_override, parse_toml};
 use furrow::sensitivity::{self, Inputs, Request};
 
-use super::common::{check_memory, install_progress, load_policy, progress_for, CommonArgs};
+use std::io::IsTerminal;
+
+use furrow::stochastic::{NoProgress, Progress};
+use indicatif::{ProgressBar, ProgressStyle};
+
+use super::common::{check_memory, install_progress, load_policy, CommonArgs};
+
+/// A bar over every comparison's replications (each comparison advances it by its own), on stderr
+/// when it is a terminal and the work is long.
+struct Bar(Option<ProgressBar>);
+
+impl Progress for Bar {
+    fn advance(&self, replications: u64) {
+        if let Some(b) = &self.0 {
+            b.inc(replications);
+        }
+    }
+}
+
+impl Bar {
+    fn new(replications: usize, steps: usize) -> Bar {
+        if steps < 20_000_000 || !std::io::stderr().is_terminal() {
+            return Bar(None);
+        }
+        let b = ProgressBar::new(replications as u64);
+        if let Ok(style) = ProgressStyle::with_template(
+            "furrow: {bar:40} {pos}/{len} replications over all comparisons, {eta} left",
+        ) {
+            b.set_style(style);
+        }
+        Bar(Some(b))
+    }
+
+    fn observer(&self) -> &dyn Progress {
+        if self.0.is_some() {
+            self
+        } else {
+            &NoProgress
+        }
+    }
+
+    fn finish(&self) {
+        if let Some(b) = &self.0 {
+            b.finish_and_clear();
+        }
+    }
+}
 
 /// Arguments of `sensitivity`.
 #[derive(Debug, Args)]
@@ -82,8 +128,27 @@ pub fn execute(args: &SensitivityArgs) -> anyhow::Result<()> {
     };
     install_progress();
     check_memory("sensitivity", &scenario, args.policies.len() + 2, 2)?;
-    let runs = request.rules.len() * 2 + request.ranges.len() * 2 + 1;
-    let bar = progress_for(&scenario, (args.policies.len() + 2) * runs);
+    // a comparison per rule plus one for its forecast errors (two models), the base and two ends
+    // per range (every policy and the baseline)
+    let reps = scenario.run.replications;
+    let columns = args.policies.len() + 1;
+    let models = request.rules.len() * (columns + 2)
+        + if request.ranges.is_empty() {
+            0
+        } else {
+            (1 + 2 * request.ranges.len()) * columns
+        };
+    let compares = request.rules.len() * 2
+        + if request.ranges.is_empty() {
+            0
+        } else {
+            1 + 2 * request.ranges.len()
+        };
+    let bar = Bar::new(
+        reps.saturating_mul(compares),
+        reps.saturating_mul(scenario.run.periods)
+            .saturating_mul(models),
+    );
     let result = sensitivity::sensitivity(&inputs, &request, bar.observer());
     bar.finish();
     let result = result?;

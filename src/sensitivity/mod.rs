@@ -43,17 +43,17 @@ pub enum SensitivityError {
     /// A malformed option (`--rules`, `--range`, `--indicator`).
     #[error("{0}")]
     Usage(String),
-    /// An option's value, or the files with it applied, do not validate.
-    #[error("{what}: {source}")]
+    /// An option's value, or the files with it applied, do not validate (the message names the
+    /// option, then the file, key, value and allowed range).
+    #[error("{what}: {error}")]
     Input {
         /// The option and value that led to it (e.g. `--rules naive`).
         what: String,
-        /// The validation error.
-        #[source]
-        source: InputError,
+        /// The validation error (in the message, not the chain: it is bad input, exit 2).
+        error: InputError,
     },
-    /// A comparison failed (a diverging replication, a storage solve).
-    #[error("{what}: {source}")]
+    /// A comparison failed (a storage solve); the cause follows in the error chain.
+    #[error("{what}")]
     Compare {
         /// The assumption it ran under.
         what: String,
@@ -94,11 +94,8 @@ pub fn parse_rules(list: &str) -> Result<Vec<Assumption>, SensitivityError> {
     let mut out: Vec<Assumption> = Vec::new();
     for item in items {
         let what = format!("--rules {item}");
-        let spec =
-            ExpectationSpec::from_short(item, &what).map_err(|source| SensitivityError::Input {
-                what: "--rules".into(),
-                source,
-            })?;
+        let spec = ExpectationSpec::from_short(item, &what)
+            .map_err(|error| SensitivityError::Usage(error.to_string()))?;
         if out.iter().any(|a| a.spec == spec) {
             return Err(SensitivityError::Usage(format!(
                 "--rules {item}: the same rule is listed twice"
@@ -373,9 +370,9 @@ pub fn sensitivity(
     let mut checked = false;
     for rule in &request.rules {
         let what = format!("--rules: {}", rule.describe());
-        let input = |source| SensitivityError::Input {
+        let input = |error| SensitivityError::Input {
             what: what.clone(),
-            source,
+            error,
         };
         let scenario = market_under(inputs, &rule.spec).map_err(input)?;
         let policies = policies_under(inputs, &scenario).map_err(input)?;

@@ -144,9 +144,9 @@ fn run_at(
         Some((key, v)) => format!("--range {key}={}", crate::output::fmt_full(v)),
         None => "--range (the files as given)".to_string(),
     };
-    let (scenario, policies) = files_at(inputs, set).map_err(|source| SensitivityError::Input {
+    let (scenario, policies) = files_at(inputs, set).map_err(|error| SensitivityError::Input {
         what: what.clone(),
-        source,
+        error,
     })?;
     let names: Vec<String> = policies.iter().map(|p| p.name.clone()).collect();
     let result = match super::diverged_or(compare(&scenario, &policies, progress), &what)? {
