@@ -129,7 +129,7 @@ fn text(s: &Sensitivity, format: Format) -> String {
         } else {
             format!("{} ({unit})", label_of(s, key))
         };
-        out.push_str(&format!("{title}\n"));
+        out.push_str(&format!("{title}\n\n"));
         let mut headers = vec!["Farmers' expectations".to_string()];
         headers.extend(s.policies.iter().cloned());
         let mut t = TextTable::new(&headers);
@@ -176,7 +176,28 @@ fn text(s: &Sensitivity, format: Format) -> String {
     if !s.forecasts.is_empty() {
         out.push_str(&forecast_table(s, &units, format));
     }
-    for r in &s.robustness {
+    for (k, r) in s.robustness.iter().enumerate() {
+        // of the policy's gain under each rule, what better forecasts alone would be worth
+        let shares: Vec<String> = s
+            .forecasts
+            .iter()
+            .enumerate()
+            .filter_map(|(i, f)| {
+                let c = s.panel.get(i * n + k)?;
+                let gain = c.number(NET_WELFARE)?;
+                let se = c.number(&format!("{NET_WELFARE}_se")).unwrap_or(0.0);
+                let alone = f.net_welfare_change_pv?;
+                (gain > 2.0 * se && alone > 0.0)
+                    .then(|| format!("{} % under {}", group(100.0 * alone / gain, 0), f.rule))
+            })
+            .collect();
+        if !shares.is_empty() {
+            out.push_str(&format!(
+                "{}: better forecasts alone would be worth, as a share of its net welfare gain, {}.\n",
+                r.policy,
+                shares.join(", ")
+            ));
+        }
         out.push_str(&format!(
             "{}: net welfare gain under {} of {} assumptions, loss under {} (beyond two standard errors){}{}.\n",
             r.policy,
@@ -260,7 +281,7 @@ fn forecast_table(s: &Sensitivity, units: &Units, format: Format) -> String {
     }
     format!(
         "Forecast errors: net welfare change, present value ({}); \"better forecasts alone\" is the market \
-         left alone under rational expectations against the market left alone under the rule.\n{}\n",
+         left alone under rational expectations against the market left alone under the rule.\n\n{}\n",
         scale.label,
         t.render(format)
     )
@@ -296,7 +317,7 @@ fn tornado_table(s: &Sensitivity, units: &Units, format: Format) -> String {
         .unwrap_or_default();
     format!(
         "Tornado: {} ({unit}), one key at a time at its low and high value, the others at base; widest \
-         swing first.\n{}",
+         swing first.\n\n{}",
         label_of(s, key),
         t.render(format)
     )
