@@ -39,6 +39,7 @@ pub mod plots;
 pub mod policies;
 pub mod regime;
 pub mod scenario;
+pub mod sensitivity;
 pub mod stability;
 pub mod stochastic;
 pub mod storage;

@@ -314,3 +314,67 @@ fn a_rule_that_settles_at_once_says_so_in_stability_and_long_runs() {
         }
     }
 }
+
+#[test]
+fn constant_gain_learning_equals_adaptive_expectations_bit_for_bit() {
+    // a_t = a_{t−1} + γ (P_{t−1} − a_{t−1}) is Nerlove's (1958) adaptive recursion with λ = γ
+    // (Evans and Honkapohja 2001, constant-gain estimation of a mean): the same numbers, under
+    // shocks and under a policy, in every indicator of a comparison
+    let text = std::fs::read_to_string("examples/veldmark_weather.toml").unwrap();
+    let mut table: toml::Table = text.parse().unwrap();
+    table["run"]
+        .as_table_mut()
+        .unwrap()
+        .insert("replications".into(), toml::Value::Integer(30));
+    let policies: Vec<PolicySpec> = [
+        "policies/price_band.toml",
+        "policies/deficiency_payment.toml",
+    ]
+    .iter()
+    .map(|p| scenario::load_policy(p).unwrap())
+    .collect();
+    for (gain, initial) in [(0.6, None), (0.25, Some(205.0)), (1.0, None)] {
+        let with = |section: String| {
+            let mut t = table.clone();
+            t.insert(
+                "expectations".into(),
+                toml::Value::Table(section.parse().unwrap()),
+            );
+            scenario::market_from_table("m.toml", t).unwrap()
+        };
+        let start = initial
+            .map(|p: f64| format!("\ninitial_expected_price = {p:?}"))
+            .unwrap_or_default();
+        let learning = with(format!("rule = \"learning\"\ngain = {gain:?}{start}"));
+        let adaptive = with(format!("rule = \"adaptive\"\nweight = {gain:?}{start}"));
+        let a = furrow::compare::compare(&learning, &policies, &furrow::stochastic::NoProgress)
+            .unwrap();
+        let b = furrow::compare::compare(&adaptive, &policies, &furrow::stochastic::NoProgress)
+            .unwrap();
+        for (x, y) in a.policies.iter().zip(&b.policies) {
+            assert_eq!(x.indicators.len(), y.indicators.len());
+            for (i, j) in x.indicators.iter().zip(&y.indicators) {
+                match (&i.value, &j.value) {
+                    (furrow::compare::Value::Number(p), furrow::compare::Value::Number(q)) => {
+                        assert_eq!(p.to_bits(), q.to_bits(), "γ = {gain}: {}", i.key)
+                    }
+                    (p, q) => assert_eq!(p, q, "{}", i.key),
+                }
+            }
+        }
+        // and the path itself, without shocks, period by period
+        let run = |s: &Scenario| {
+            let model = Model::new(s, &policies[0]);
+            let mut sim = model.simulator();
+            (0..60)
+                .map(|_| {
+                    sim.step(&PeriodShock::NONE)
+                        .unwrap()
+                        .expected_price
+                        .to_bits()
+                })
+                .collect::<Vec<u64>>()
+        };
+        assert_eq!(run(&learning), run(&adaptive), "γ = {gain}");
+    }
+}

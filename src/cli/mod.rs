@@ -9,6 +9,7 @@ mod figures;
 mod fit;
 mod report;
 mod run;
+mod sensitivity;
 mod stability;
 mod storage;
 mod sweep;
@@ -46,6 +47,8 @@ pub enum Verb {
     Storage(storage::StorageArgs),
     /// Estimate supply and demand from a history of seasons and write a market file.
     Fit(fit::FitArgs),
+    /// How the comparison depends on the expectation rule and on file keys (panel, tornado).
+    Sensitivity(sensitivity::SensitivityArgs),
 }
 
 /// Runs one verb. An error that names none of the verb's input files gets them in front (a diverging
@@ -61,6 +64,7 @@ pub fn dispatch(cli: Cli) -> anyhow::Result<()> {
         Verb::Design(a) => design::execute(&a),
         Verb::Report(a) => report::execute(&a),
         Verb::Storage(a) => storage::execute(&a),
+        Verb::Sensitivity(a) => sensitivity::execute(&a),
         Verb::Fit(a) => fit::execute(&a).and_then(|text| {
             furrow::output::write_whole(std::path::Path::new("-"), text.as_bytes())?;
             Ok(())
@@ -93,5 +97,6 @@ fn inputs_of(verb: &Verb) -> (&'static str, Vec<String>) {
         Verb::Report(a) => with("report", &a.market, a.policies.iter().collect()),
         Verb::Storage(a) => with("storage", &a.market, a.policy.iter().collect()),
         Verb::Fit(a) => ("fit", vec![a.data.display().to_string()]),
+        Verb::Sensitivity(a) => with("sensitivity", &a.market, a.policies.iter().collect()),
     }
 }

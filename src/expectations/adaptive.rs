@@ -32,6 +32,8 @@ pub const RULE: Registration = Registration {
     read,
     build,
     starting: &["initial_expected_price"],
+    main_key: Some("weight"),
+    short_form: "weight = 0.5",
     examples: &[
         "[expectations]\nrule = \"adaptive\"\nweight = 0.4\n",
         "[expectations]\nrule = \"adaptive\"\nweight = 0.7\ninitial_expected_price = 205.0\n",

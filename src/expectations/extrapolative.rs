@@ -21,6 +21,8 @@ pub const RULE: Registration = Registration {
     read,
     build,
     starting: &[],
+    main_key: Some("weight"),
+    short_form: "weight = -0.3",
     examples: &["[expectations]\nrule = \"extrapolative\"\nweight = -0.3\n"],
 };
 

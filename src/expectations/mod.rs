@@ -15,6 +15,7 @@
 mod adaptive;
 pub mod conditions;
 mod extrapolative;
+mod learning;
 mod naive;
 mod normal_price;
 mod rational;
@@ -22,6 +23,7 @@ mod trailing_mean;
 
 pub use adaptive::Adaptive;
 pub use extrapolative::Extrapolative;
+pub use learning::Learning;
 pub use naive::Naive;
 pub use normal_price::{NormalPrice, NormalPriceRule};
 pub use rational::Rational;
@@ -47,6 +49,7 @@ pub const RULES: &[Registration] = &[
     normal_price::RULE,
     extrapolative::RULE,
     trailing_mean::RULE,
+    learning::RULE,
     rational::RULE,
 ];
 
@@ -77,6 +80,13 @@ pub struct Registration {
     /// Keys that set the rule's state before period 1 (a long run restarted from a perturbed price
     /// drops them, `ExpectationSpec::restarted`).
     pub starting: &'static [&'static str],
+    /// The key a number in the short form `NAME:NUMBER` sets (`--rules adaptive:0.6`); `None` for a
+    /// rule without parameters.
+    pub main_key: Option<&'static str>,
+    /// The keys the short form fills in (TOML lines without the header, e.g. `weight = 0.5`): a
+    /// bare `NAME` means the rule with these values (the default assumption panel of
+    /// `sensitivity`), `NAME:NUMBER` these with the main key set to NUMBER.
+    pub short_form: &'static str,
     /// One `[expectations]` section per variant (TOML, header included), for the documentation
     /// and for the tests, which run every behaviour of every variant.
     pub examples: &'static [&'static str],
@@ -346,6 +356,110 @@ impl ExpectationSpec {
         whole.insert("expectations".into(), toml::Value::Table(table.clone()));
         check_keys(file, &whole, &vec![("expectations", section_keys())])?;
         read(&Check::new(file), &table)
+    }
+}
+
+impl ExpectationSpec {
+    /// Reads a rule in its short form `NAME[:NUMBER][:KEY=VALUE]...` (e.g. `adaptive:0.6`,
+    /// `trailing-mean:3`, `normal-price:0.5:normal_price=212`): the registration's `short_form`
+    /// keys, the main key set to NUMBER, then each KEY=VALUE (when any is given, the short form's
+    /// other keys are dropped, so that a rule's alternatives can be chosen). Checked exactly as the
+    /// same `[expectations]` section in a file; errors name `what` (e.g. `--rules adaptive:1.5`).
+    pub fn from_short(item: &str, what: &str) -> Result<ExpectationSpec, InputError> {
+        let bad = |value: &str, expected: &str| InputError::BadValue {
+            file: what.to_string(),
+            key: "expectations.rule".into(),
+            value: format!("\"{}\"", escape(value)),
+            expected: expected.to_string(),
+        };
+        let mut parts = item.split(':');
+        let name = parts.next().unwrap_or("").trim();
+        let Some(registration) = registered(name) else {
+            let names: Vec<&str> = RULES.iter().map(|r| r.name).collect();
+            return Err(bad(name, &format!("allowed rules: {}", names.join(", "))));
+        };
+        let value_of = |text: &str| -> Option<toml::Value> {
+            format!("v = {}", text.trim())
+                .parse::<toml::Table>()
+                .ok()
+                .and_then(|mut t| t.remove("v"))
+                .filter(|v| v.is_float() || v.is_integer())
+        };
+        let mut table = parse_toml(what, registration.short_form)?;
+        let mut explicit = toml::Table::new();
+        let mut number = None;
+        for (i, part) in parts.enumerate() {
+            match part.split_once('=') {
+                Some((key, value)) => {
+                    let Some(v) = value_of(value) else {
+                        return Err(bad(part, "KEY=VALUE with a number, e.g. window=3"));
+                    };
+                    explicit.insert(key.trim().to_string(), v);
+                }
+                None if i == 0 => {
+                    let Some(main) = registration.main_key else {
+                        return Err(bad(
+                            item,
+                            &format!("rule \"{name}\" takes no number; write `{name}`"),
+                        ));
+                    };
+                    let Some(v) = value_of(part) else {
+                        return Err(bad(
+                            item,
+                            &format!("NAME:NUMBER, the number being its {main}"),
+                        ));
+                    };
+                    number = Some((main, v));
+                }
+                None => {
+                    return Err(bad(item, "NAME[:NUMBER][:KEY=VALUE]..."));
+                }
+            }
+        }
+        if !explicit.is_empty() {
+            table.retain(|k, _| registration.main_key == Some(k));
+        }
+        if let Some((main, v)) = number {
+            table.insert(main.to_string(), v);
+        }
+        table.extend(explicit);
+        table.insert("rule".into(), toml::Value::String(name.to_string()));
+        let mut whole = toml::Table::new();
+        whole.insert("expectations".into(), toml::Value::Table(table.clone()));
+        check_keys(what, &whole, &vec![("expectations", section_keys())])?;
+        read(&Check::new(what), &table)
+    }
+
+    /// The section as a file would hold it (`rule` and the values of its keys), to write into a
+    /// parsed market or policy file.
+    pub fn to_table(&self) -> toml::Table {
+        let mut t = toml::Table::new();
+        t.insert(
+            "rule".into(),
+            toml::Value::String(self.registration.name.into()),
+        );
+        for (k, v) in self.values.iter() {
+            let whole = self
+                .registration
+                .keys
+                .iter()
+                .any(|key| key.name == k && key.kind == ValueType::Integer);
+            let value = if whole {
+                toml::Value::Integer(v as i64)
+            } else {
+                toml::Value::Float(v)
+            };
+            t.insert(k.into(), value);
+        }
+        t
+    }
+
+    /// Every registered rule in its short form (`Registration::short_form`), in registry order.
+    pub fn short_forms() -> Vec<ExpectationSpec> {
+        RULES
+            .iter()
+            .filter_map(|r| ExpectationSpec::from_short(r.name, "short form").ok())
+            .collect()
     }
 }
 

@@ -33,6 +33,8 @@ pub const RULE: Registration = Registration {
     read,
     build,
     starting: &[],
+    main_key: Some("weight"),
+    short_form: "weight = 0.5\nwindow = 3",
     examples: &[
         "[expectations]\nrule = \"normal-price\"\nweight = 0.4\nnormal_price = 212.0\n",
         "[expectations]\nrule = \"normal-price\"\nweight = 0.3\nwindow = 1\n",

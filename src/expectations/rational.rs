@@ -14,6 +14,8 @@ pub const RULE: Registration = Registration {
     read,
     build,
     starting: &[],
+    main_key: None,
+    short_form: "",
     examples: &["[expectations]\nrule = \"rational\"\n"],
 };
 

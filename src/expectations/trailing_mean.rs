@@ -21,6 +21,8 @@ pub const RULE: Registration = Registration {
     read,
     build,
     starting: &[],
+    main_key: Some("window"),
+    short_form: "window = 3",
     examples: &[
         "[expectations]\nrule = \"trailing-mean\"\nwindow = 1\n",
         "[expectations]\nrule = \"trailing-mean\"\nwindow = 2\n",

@@ -20,6 +20,7 @@ mod frontier;
 mod heatmap;
 mod lines;
 pub mod style;
+mod tornado;
 
 use std::path::{Path, PathBuf};
 
@@ -34,6 +35,7 @@ pub use frame::Titles;
 pub use frontier::{frontier, FrontierPlot, FrontierPoint};
 pub use heatmap::{contour_segments, heatmap, StabilityMap};
 pub use lines::{fiscal, paths, BarChart, LineChart, Reference, Series, OVERLAY_MAX};
+pub use tornado::{tornado, Tornado, TornadoRow};
 
 /// Why a figure could not be drawn or written.
 #[derive(Debug, thiserror::Error)]
@@ -73,6 +75,8 @@ pub enum Plot {
     Bifurcation(Bifurcation),
     /// Designs by risk and cost with the non-dominated ones joined.
     Frontier(FrontierPlot),
+    /// One policy's indicator with each varied key at its low and high value.
+    Tornado(Tornado),
 }
 
 impl Plot {
@@ -87,6 +91,7 @@ impl Plot {
             Plot::Heat(p) => &p.titles.title,
             Plot::Bifurcation(p) => &p.titles.title,
             Plot::Frontier(p) => &p.titles.title,
+            Plot::Tornado(p) => &p.titles.title,
         }
     }
 
@@ -102,6 +107,7 @@ impl Plot {
             Plot::Heat(p) => p.draw(root),
             Plot::Bifurcation(p) => p.draw(root),
             Plot::Frontier(p) => p.draw(root),
+            Plot::Tornado(p) => p.draw(root),
         }
     }
 
@@ -111,6 +117,7 @@ impl Plot {
             Plot::Fan(f) => (style::WIDTH, fan::height(f.bands.len())),
             Plot::Lines(l) => (style::WIDTH, l.height()),
             Plot::Eigen(e) => (style::WIDTH, eigen::height(e.groups())),
+            Plot::Tornado(t) => (style::WIDTH, tornado::height(t.rows.len())),
             _ => (style::WIDTH, style::HEIGHT),
         }
     }

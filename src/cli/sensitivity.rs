@@ -1,0 +1,166 @@
+//! `furrow sensitivity MARKET POLICY... [--rules LIST] [--range KEY=LOW:HIGH ...] [--indicator NAME ...]`:
+//! the assumption panel, the forecast-error decomposition and the tornado.
+
+use clap::Args;
+use furrow::scenario::{apply_override, parse_toml};
+use furrow::sensitivity::{self, Inputs, Request};
+
+use std::io::IsTerminal;
+
+use furrow::stochastic::{NoProgress, Progress};
+use indicatif::{ProgressBar, ProgressStyle};
+
+use super::common::{check_memory, install_progress, load_policy, CommonArgs};
+
+/// A bar over every comparison's replications (each comparison advances it by its own), on stderr
+/// when it is a terminal and the work is long.
+struct Bar(Option<ProgressBar>);
+
+impl Progress for Bar {
+    fn advance(&self, replications: u64) {
+        if let Some(b) = &self.0 {
+            b.inc(replications);
+        }
+    }
+}
+
+impl Bar {
+    fn new(replications: usize, steps: usize) -> Bar {
+        if steps < 20_000_000 || !std::io::stderr().is_terminal() {
+            return Bar(None);
+        }
+        let b = ProgressBar::new(replications as u64);
+        if let Ok(style) = ProgressStyle::with_template(
+            "furrow: {bar:40} {pos}/{len} replications over all comparisons, {eta} left",
+        ) {
+            b.set_style(style);
+        }
+        Bar(Some(b))
+    }
+
+    fn observer(&self) -> &dyn Progress {
+        if self.0.is_some() {
+            self
+        } else {
+            &NoProgress
+        }
+    }
+
+    fn finish(&self) {
+        if let Some(b) = &self.0 {
+            b.finish_and_clear();
+        }
+    }
+}
+
+/// Arguments of `sensitivity`.
+#[derive(Debug, Args)]
+pub struct SensitivityArgs {
+    /// The market file.
+    pub market: String,
+    /// One or more policy files.
+    #[arg(required = true, num_args = 1..)]
+    pub policies: Vec<String>,
+    /// Expectation rules of the panel, comma-separated, each NAME[:NUMBER][:KEY=VALUE]...
+    /// (e.g. `naive,adaptive:0.6,normal-price:0.5,trailing-mean:3,rational`); default: every
+    /// registered rule in its short form.
+    #[arg(long, value_name = "LIST", default_value = "")]
+    pub rules: String,
+    /// A file key and its low and high value for the tornado, KEY=LOW:HIGH; repeatable.
+    #[arg(long, value_name = "KEY=LOW:HIGH")]
+    pub range: Vec<String>,
+    /// An indicator of the panel (with its `_se`); repeatable; the first is the tornado's.
+    /// Default: net_welfare_change_pv, fiscal_cost_pv, price_cv.
+    #[arg(long, value_name = "NAME")]
+    pub indicator: Vec<String>,
+    #[command(flatten)]
+    pub common: CommonArgs,
+}
+
+fn read_table(path: &str) -> anyhow::Result<toml::Table> {
+    let text =
+        std::fs::read_to_string(path).map_err(|e| anyhow::anyhow!("{path}: cannot read: {e}"))?;
+    Ok(parse_toml(path, &text)?)
+}
+
+/// Runs `sensitivity`.
+pub fn execute(args: &SensitivityArgs) -> anyhow::Result<()> {
+    // the files as given, validated first (errors name the file or the option)
+    let scenario = args.common.load_market(&args.market)?;
+    for p in &args.policies {
+        load_policy(Some(p), &scenario)?;
+    }
+    let rules = sensitivity::parse_rules(&args.rules)?;
+    let ranges = args
+        .range
+        .iter()
+        .map(|r| sensitivity::parse_range(r))
+        .collect::<Result<Vec<_>, _>>()?;
+    let mut market = read_table(&args.market)?;
+    let flags = [
+        ("run.seed", args.common.seed.map(|v| v as i64)),
+        (
+            "run.replications",
+            args.common.replications.map(|v| v as i64),
+        ),
+        ("run.periods", args.common.periods.map(|v| v as i64)),
+    ];
+    for (key, value) in flags {
+        if let Some(v) = value {
+            apply_override(&mut market, key, toml::Value::Integer(v))
+                .map_err(anyhow::Error::msg)?;
+        }
+    }
+    let policies = args
+        .policies
+        .iter()
+        .map(|p| Ok((p.clone(), read_table(p)?)))
+        .collect::<anyhow::Result<Vec<_>>>()?;
+    let inputs = Inputs {
+        market_file: args.market.clone(),
+        market,
+        policies,
+    };
+    let request = Request {
+        rules,
+        ranges,
+        indicators: args.indicator.clone(),
+    };
+    install_progress();
+    check_memory("sensitivity", &scenario, args.policies.len() + 2, 2)?;
+    // a comparison per rule plus one for its forecast errors (two models), the base and two ends
+    // per range (every policy and the baseline)
+    let reps = scenario.run.replications;
+    let columns = args.policies.len() + 1;
+    let models = request.rules.len() * (columns + 2)
+        + if request.ranges.is_empty() {
+            0
+        } else {
+            (1 + 2 * request.ranges.len()) * columns
+        };
+    let compares = request.rules.len() * 2
+        + if request.ranges.is_empty() {
+            0
+        } else {
+            1 + 2 * request.ranges.len()
+        };
+    let bar = Bar::new(
+        reps.saturating_mul(compares),
+        reps.saturating_mul(scenario.run.periods)
+            .saturating_mul(models),
+    );
+    let result = sensitivity::sensitivity(&inputs, &request, bar.observer());
+    bar.finish();
+    let result = result?;
+    if let Some(dir) = args.common.plot_dir() {
+        let figures = sensitivity::figures(&result);
+        if figures.is_empty() {
+            super::common::say(
+                "--plots: the tornado needs at least one --range; no figure written",
+            );
+        }
+        super::figures::write_all(&dir, &figures)?;
+    }
+    args.common
+        .emit_with_caution(&sensitivity::render(&result, args.common.format))
+}
