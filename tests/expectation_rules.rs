@@ -331,7 +331,7 @@ fn constant_gain_learning_equals_adaptive_expectations_bit_for_bit() {
         "policies/deficiency_payment.toml",
     ]
     .iter()
-    .map(|p| scenario::load_policy(p).unwrap())
+    .map(|p| furrow::policies::file::load_policy(p).unwrap())
     .collect();
     for (gain, initial) in [(0.6, None), (0.25, Some(205.0)), (1.0, None)] {
         let with = |section: String| {

@@ -6,7 +6,8 @@ mod common;
 
 use common::{bin, stdout_of};
 use furrow::compare::{compare, CompareResult};
-use furrow::scenario::{market_from_str, policy_from_str, ExpectationSpec};
+use furrow::policies::file::policy_from_str;
+use furrow::scenario::{market_from_str, ExpectationSpec};
 use furrow::sensitivity::{parse_range, parse_rules, sensitivity, Inputs, Request};
 use furrow::stochastic::NoProgress;
 use serde_json::Value;

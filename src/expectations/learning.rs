@@ -4,14 +4,14 @@
 //! adaptive expectations with weight γ (the recursion is the same, so the engine calls it
 //! directly). Everything the program knows of it is here.
 
+use super::conditions::{PublishedCondition, Slopes};
 use super::{
     g, g6, Adaptive, ExpectationInput, ExpectationRule, Reader, Registration, StateLayout, Values,
 };
-use crate::scenario::ranges::{r, BIG};
-use crate::scenario::raw::ValueType;
-use crate::scenario::schema::Key;
-use crate::scenario::InputError;
-use crate::stability::conditions::{PublishedCondition, Slopes};
+use crate::input::ranges::{r, BIG};
+use crate::input::InputError;
+use crate::input::Key;
+use crate::input::ValueType;
 
 /// The registration of `rule = "learning"`.
 pub const RULE: Registration = Registration {

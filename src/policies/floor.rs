@@ -91,7 +91,7 @@ fn read(c: &Check, table: &toml::Table) -> Result<RuleRef, InputError> {
         other => {
             return Err(c.bad(
                 "floor.instrument",
-                format!("\"{}\"", crate::scenario::ranges::escape(other)),
+                format!("\"{}\"", crate::input::ranges::escape(other)),
                 "allowed instruments: \"purchase\", \"deficiency-payment\"",
             ))
         }

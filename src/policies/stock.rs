@@ -18,7 +18,7 @@ use crate::regime::StabilityError;
 use crate::regime::{RegimeCase, Regimes};
 use crate::scenario::Scenario;
 
-const fn num(name: &'static str, range: crate::scenario::ranges::KeyRange) -> Key {
+const fn num(name: &'static str, range: crate::input::KeyRange) -> Key {
     Key {
         name,
         kind: ValueType::Number,

@@ -25,10 +25,9 @@ pub use render::{figures, render};
 pub use tornado::{parse_range, Range, TornadoBar};
 
 use crate::compare::{compare, CompareError, Indicator, Kind, PolicyComparison, Value};
-use crate::scenario::{
-    market_from_table, policy_for_market, policy_from_table, ExpectationSpec, InputError,
-    PolicySpec, Scenario,
-};
+use crate::policies::file::{policy_for_market, policy_from_table};
+use crate::policies::PolicySpec;
+use crate::scenario::{market_from_table, ExpectationSpec, InputError, Scenario};
 use crate::stochastic::Progress;
 
 /// The indicators a panel shows when none is asked for.

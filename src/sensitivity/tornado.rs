@@ -7,9 +7,9 @@ use serde::Serialize;
 
 use super::{SensitivityError, Value};
 use crate::compare::compare;
-use crate::scenario::{
-    market_from_table, policy_for_market, policy_from_table, InputError, PolicySpec, Scenario,
-};
+use crate::policies::file::{policy_for_market, policy_from_table};
+use crate::policies::PolicySpec;
+use crate::scenario::{market_from_table, InputError, Scenario};
 use crate::stochastic::Progress;
 use crate::sweep::{Base, Target};
 
