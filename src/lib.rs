@@ -29,6 +29,7 @@ pub mod engine;
 pub mod error;
 pub mod expectations;
 pub mod fit;
+pub mod households;
 pub mod numeric;
 pub mod output;
 pub mod path;
