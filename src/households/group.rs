@@ -174,11 +174,14 @@ pub fn measure(
     groups
         .iter()
         .map(|g| {
-            let (pr, cr) = (g.production_share, g.consumption_share);
-            // per replication: [Σw·δp, Σw·δc, Σw·δp², Σw·δc²]; the measures are linear in them
-            let (first, first_se) = changes.combination([pr, -cr, 0.0, 0.0]);
-            let (full, full_se) =
-                changes.combination([pr, -cr, 0.5 * pr * eps_s, -0.5 * cr * eps_d]);
+            // per replication: [Σw·δp, Σw·δc, Σw·δp², Σw·δc²]; the measures are linear in them,
+            // with the coefficients read off the formulas themselves
+            let first_order = [g.first_order(1.0, 0.0), g.first_order(0.0, 1.0), 0.0, 0.0];
+            let mut full_order = first_order;
+            full_order[2] = g.second_order(1.0, 0.0, eps_s, eps_d);
+            full_order[3] = g.second_order(0.0, 1.0, eps_s, eps_d);
+            let (first, first_se) = changes.combination(first_order);
+            let (full, full_se) = changes.combination(full_order);
             GroupOutcome {
                 first_order: first,
                 first_order_se: first_se,

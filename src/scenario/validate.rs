@@ -669,7 +669,13 @@ fn households(
         if (total - 1.0).abs() > 1e-6 {
             return Err(c.bad(
                 "households.population_share",
-                format!("{} in total", short_num(total)),
+                // nine decimals: a sum just outside the tolerance must not print as "1"
+                format!(
+                    "{} in total",
+                    format!("{total:.9}")
+                        .trim_end_matches('0')
+                        .trim_end_matches('.')
+                ),
                 "the groups' population shares must sum to 1 (± 1e-6): each is the group's share \
                  of all households",
             ));
