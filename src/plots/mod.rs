@@ -16,6 +16,7 @@ mod cobweb;
 mod eigen;
 mod fan;
 pub mod frame;
+mod groups;
 mod heatmap;
 mod lines;
 pub mod style;
@@ -30,6 +31,7 @@ pub use cobweb::{cobweb, Cobweb, CobwebStep};
 pub use eigen::{eigenvalues, EigenPlot, EigenPoint};
 pub use fan::{fan, FanBand, FanChart};
 pub use frame::Titles;
+pub use groups::{group_bars, GroupBar, GroupBars};
 pub use heatmap::{contour_segments, heatmap, StabilityMap};
 pub use lines::{fiscal, paths, BarChart, LineChart, Reference, Series, OVERLAY_MAX};
 
@@ -69,6 +71,8 @@ pub enum Plot {
     Heat(StabilityMap),
     /// Long-run prices against one swept key.
     Bifurcation(Bifurcation),
+    /// One household group's welfare change under each policy.
+    GroupBars(GroupBars),
 }
 
 impl Plot {
@@ -82,6 +86,7 @@ impl Plot {
             Plot::Eigen(p) => &p.titles.title,
             Plot::Heat(p) => &p.titles.title,
             Plot::Bifurcation(p) => &p.titles.title,
+            Plot::GroupBars(p) => &p.titles.title,
         }
     }
 
@@ -96,6 +101,7 @@ impl Plot {
             Plot::Eigen(p) => p.draw(root),
             Plot::Heat(p) => p.draw(root),
             Plot::Bifurcation(p) => p.draw(root),
+            Plot::GroupBars(p) => p.draw(root),
         }
     }
 
