@@ -255,7 +255,7 @@ fn the_monte_carlo_measures_match_a_direct_recomputation() {
         "[shocks]\nsupply_sd = 4.0\nyield_cv = 0.05\n",
     );
     let band = policy("[stock]\nbuy_below = 97.0\nsell_above = 103.0\ncapacity = 30.0\n");
-    let (_, h) = run(&s, &[band.clone()]);
+    let (_, h) = run(&s, std::slice::from_ref(&band));
     let periods = 8;
     let v: f64 = 1.0 / 1.1;
     let raw: Vec<f64> = (1..=periods).map(|t| v.powi(t as i32)).collect();

@@ -312,12 +312,13 @@ impl PairedChanges {
         self.n += 1;
         let n = self.n as f64;
         let d: [f64; 4] = std::array::from_fn(|i| x[i] - self.mean[i]);
-        for i in 0..4 {
-            self.mean[i] += d[i] / n;
+        for (m, di) in self.mean.iter_mut().zip(&d) {
+            *m += di / n;
         }
-        for i in 0..4 {
-            for j in 0..4 {
-                self.comoment[i][j] += d[i] * (x[j] - self.mean[j]);
+        let after: [f64; 4] = std::array::from_fn(|j| x[j] - self.mean[j]);
+        for (row, di) in self.comoment.iter_mut().zip(&d) {
+            for (c, aj) in row.iter_mut().zip(&after) {
+                *c += di * aj;
             }
         }
     }
@@ -333,13 +334,13 @@ impl PairedChanges {
         let (na, nb) = (self.n as f64, o.n as f64);
         let n = na + nb;
         let d: [f64; 4] = std::array::from_fn(|i| o.mean[i] - self.mean[i]);
-        for i in 0..4 {
-            for j in 0..4 {
-                self.comoment[i][j] += o.comoment[i][j] + d[i] * d[j] * na * nb / n;
+        for ((row, other), di) in self.comoment.iter_mut().zip(&o.comoment).zip(&d) {
+            for ((c, oc), dj) in row.iter_mut().zip(other).zip(&d) {
+                *c += oc + di * dj * na * nb / n;
             }
         }
-        for i in 0..4 {
-            self.mean[i] += d[i] * nb / n;
+        for (m, di) in self.mean.iter_mut().zip(&d) {
+            *m += di * nb / n;
         }
         self.n += o.n;
     }
