@@ -706,6 +706,9 @@ impl<M: PathModel> Context<'_, M> {
             }
         }
         self.progress.advance(n as u64);
+        for c in &mut out {
+            c.path = Vec::new(); // one replication's scratch: not kept with the chunk
+        }
         Ok((out, paired))
     }
 
