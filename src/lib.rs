@@ -32,6 +32,7 @@ pub mod error;
 pub mod expectations;
 pub mod fit;
 pub mod input;
+pub mod households;
 pub mod numeric;
 pub mod output;
 pub mod path;

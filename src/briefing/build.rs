@@ -156,6 +156,16 @@ pub fn comparison_figures(
 
 /// Builds the briefing.
 pub fn build(req: &Request<'_>) -> Result<Built, BriefingError> {
+    build_with_households(req, None)
+}
+
+/// Builds the briefing with, when `households` is given (a market with `[[households]]`, from
+/// `compare::compare_with_households` on the same comparison), the "who gains" annex: the groups,
+/// their welfare change under each policy and a bar chart per group.
+pub fn build_with_households(
+    req: &Request<'_>,
+    households: Option<&crate::households::HouseholdResult>,
+) -> Result<Built, BriefingError> {
     let s = req.scenario;
     let m = &s.market;
     let r = req.comparison;
@@ -322,6 +332,21 @@ pub fn build(req: &Request<'_>) -> Result<Built, BriefingError> {
     for f in &inputs {
         provenance.push((format!("SHA-256 of {f}"), assumptions::sha256_file(f)?));
     }
+    let mut sections = vec![market, pol, paths, risk, welfare, stab];
+    let mut figs = figs;
+    if let Some(h) = households {
+        let (who, group_figures) = super::households::section(r, h);
+        sections.push(who);
+        figs.extend(group_figures);
+        summary.push(format!(
+            "Who gains among the market file's {} household groups: see {}.",
+            h.groups.len(),
+            super::households::HEADING
+                .split(':')
+                .next()
+                .unwrap_or("the annex")
+        ));
+    }
     let n = req.policy_paths.len();
     let briefing = Briefing {
         title: format!("Briefing: {}", m.name),
@@ -338,7 +363,7 @@ pub fn build(req: &Request<'_>) -> Result<Built, BriefingError> {
         )),
         caveats: first.caveats,
         caution: CAUTION.into(),
-        sections: vec![market, pol, paths, risk, welfare, stab],
+        sections,
         provenance,
     };
     Ok(Built {

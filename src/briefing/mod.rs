@@ -17,11 +17,14 @@ pub mod assumptions;
 mod build;
 pub mod figures;
 pub mod headline;
+mod households;
 mod html;
 pub mod path;
 pub mod tables;
 
-pub use build::{build, comparison_figures, stability_of, Built, Request, CAUTION};
+pub use build::{
+    build, build_with_households, comparison_figures, stability_of, Built, Request, CAUTION,
+};
 pub use figures::Figure;
 pub use html::{escape, inline_svg, is_numeric};
 

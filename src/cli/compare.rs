@@ -2,7 +2,7 @@
 //! left alone under the same shocks.
 
 use clap::Args;
-use furrow::compare::{compare, render};
+use furrow::compare::{compare_with_households, render};
 
 use super::common::{check_memory, install_progress, load_policy, progress_for, say, CommonArgs};
 use super::figures;
@@ -20,6 +20,11 @@ pub struct CompareArgs {
     /// fits, else long).
     #[arg(long, default_value = "auto", value_parser = parse_layout)]
     pub layout: render::Layout,
+    /// Add the household groups' block (the market file's `[[households]]`): welfare change of
+    /// each group as a share of its income, first order and with response, and the change in the
+    /// cost of price risk, for every policy.
+    #[arg(long)]
+    pub households: bool,
     #[command(flatten)]
     pub common: CommonArgs,
 }
@@ -31,6 +36,17 @@ fn parse_layout(s: &str) -> Result<render::Layout, String> {
 /// Runs `compare`.
 pub fn execute(args: &CompareArgs) -> anyhow::Result<()> {
     let scenario = args.common.load_market(&args.market)?;
+    if args.households && scenario.households.is_empty() {
+        return Err(furrow::scenario::InputError::Missing {
+            file: args.market.clone(),
+            key: "[[households]]".into(),
+            expected: "--households needs household groups in the market file: one \
+                       [[households]] table per group with name, population_share, income, \
+                       production_share and consumption_share (see the README)"
+                .into(),
+        }
+        .into());
+    }
     install_progress(); // storage solves of a market with storers, after a second
     let policies = args
         .policies
@@ -43,9 +59,9 @@ pub fn execute(args: &CompareArgs) -> anyhow::Result<()> {
     // compare keeps two per-period series (price and stock) for its fan charts
     check_memory("compare", &scenario, policies.len() + 1, 2)?;
     let bar = progress_for(&scenario, policies.len() + 1);
-    let result = compare(&scenario, &policies, bar.observer());
+    let result = compare_with_households(&scenario, &policies, bar.observer());
     bar.finish();
-    let result = result?;
+    let (result, households) = result?;
     for column in &result.policies {
         for line in &column.warnings {
             say(&format!("warning: \"{}\": {line}", column.name));
@@ -57,8 +73,9 @@ pub fn execute(args: &CompareArgs) -> anyhow::Result<()> {
     if let Some(dir) = args.common.plot_dir() {
         figures::plot_compare(&dir, &scenario, &args.policies, &result)?;
     }
-    args.common.emit(&render::render_with(
+    args.common.emit(&render::render_with_households(
         &result,
+        households.as_ref().filter(|_| args.households),
         args.common.format,
         args.layout,
     ))

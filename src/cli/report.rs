@@ -37,20 +37,23 @@ pub fn execute(args: &ReportArgs) -> anyhow::Result<()> {
     let scenario = args.common.load_market(&args.market)?;
     install_progress(); // storage solves of a market with storers, after a second
     let cols = columns(&args.policies, &scenario)?;
-    let result = run_compare(&scenario, &cols)?;
-    let built = briefing::build(&briefing::Request {
-        scenario: &scenario,
-        market_path: &args.market,
-        policy_paths: &args.policies,
-        columns: &cols,
-        comparison: &result,
-        overrides: Overrides {
-            seed: args.common.seed.is_some(),
-            replications: args.common.replications.is_some(),
-            periods: args.common.periods.is_some(),
+    let (result, households) = run_compare(&scenario, &cols)?;
+    let built = briefing::build_with_households(
+        &briefing::Request {
+            scenario: &scenario,
+            market_path: &args.market,
+            policy_paths: &args.policies,
+            columns: &cols,
+            comparison: &result,
+            overrides: Overrides {
+                seed: args.common.seed.is_some(),
+                replications: args.common.replications.is_some(),
+                periods: args.common.periods.is_some(),
+            },
+            command: std::env::args().collect::<Vec<_>>().join(" "),
         },
-        command: std::env::args().collect::<Vec<_>>().join(" "),
-    })?;
+        households.as_ref(),
+    )?;
     if let Some(dir) = args.common.plot_dir() {
         figures::write_all(&dir, &built.figures)?;
     }
@@ -62,11 +65,15 @@ pub fn execute(args: &ReportArgs) -> anyhow::Result<()> {
     Ok(())
 }
 
-/// The Monte Carlo comparison of the columns after the first (the market left alone).
+/// The Monte Carlo comparison of the columns after the first (the market left alone), with the
+/// household groups' block when the market has `[[households]]` (the briefing's "who gains").
 fn run_compare(
     scenario: &Scenario,
     cols: &[(String, PolicySpec)],
-) -> anyhow::Result<furrow::compare::CompareResult> {
+) -> anyhow::Result<(
+    furrow::compare::CompareResult,
+    Option<furrow::households::HouseholdResult>,
+)> {
     let mut specs: Vec<PolicySpec> = cols.iter().skip(1).map(|(_, p)| p.clone()).collect();
     if specs.is_empty() {
         specs.push(cols[0].1.clone());
@@ -74,7 +81,7 @@ fn run_compare(
     // compare keeps two per-period series (price and stock) for its fan charts
     check_memory("report", scenario, specs.len() + 1, 2)?;
     let bar = progress_for(scenario, specs.len() + 1);
-    let result = furrow::compare::compare(scenario, &specs, bar.observer());
+    let result = furrow::compare::compare_with_households(scenario, &specs, bar.observer());
     bar.finish();
     Ok(result?)
 }

@@ -22,7 +22,7 @@ use crate::path::{with_models, LongRunModel, WithModels};
 use crate::policies::PolicySpec;
 use crate::scenario::{ExpectationSpec, Scenario};
 use crate::stochastic::{
-    run_models, MonteCarlo, PathVariable, Progress, ReplicationFailed, Summary,
+    run_models_paired, MonteCarlo, PathVariable, Progress, ReplicationFailed, Summary,
 };
 use crate::storage::LongRunMeans;
 
@@ -215,18 +215,22 @@ struct Simulate<'a> {
     scenario: &'a Scenario,
     specs: &'a [PolicySpec],
     progress: &'a dyn Progress,
+    /// (column, its baseline) pairs whose paired price changes the household groups need (empty
+    /// without `[[households]]`: the plain Monte Carlo)
+    pairs: &'a [(usize, usize)],
 }
 
 impl WithModels for Simulate<'_> {
     type Output = Result<(MonteCarlo, Vec<Option<LongRunMeans>>), ReplicationFailed>;
 
     fn with<M: LongRunModel>(self, models: &[M]) -> Self::Output {
-        let mc = run_models(
+        let mc = run_models_paired(
             self.scenario,
             self.specs,
             models,
             &[PathVariable::Price, PathVariable::Stock],
             self.progress,
+            self.pairs,
         )?;
         let long = models.par_iter().map(|m| m.long_run()).collect();
         Ok((mc, long))
@@ -240,6 +244,17 @@ pub fn compare(
     policies: &[PolicySpec],
     progress: &dyn Progress,
 ) -> Result<CompareResult, CompareError> {
+    compare_with_households(scenario, policies, progress).map(|(result, _)| result)
+}
+
+/// [`compare`], and for a market with `[[households]]` the household groups' welfare under every
+/// column from the same Monte Carlo (`households::measure`; `None` for a market without groups,
+/// whose run is then exactly [`compare`]'s).
+pub fn compare_with_households(
+    scenario: &Scenario,
+    policies: &[PolicySpec],
+    progress: &dyn Progress,
+) -> Result<(CompareResult, Option<crate::households::HouseholdResult>), CompareError> {
     if policies.is_empty() {
         return Err(CompareError::NoPolicies);
     }
@@ -282,6 +297,21 @@ pub fn compare(
             }
         })
         .collect();
+    // the household groups need each column against its baseline in the same replication: the
+    // policies' (slot, baseline) and the behaviour changes' (rule i, the market's rule)
+    let mut pairs: Vec<(usize, usize)> = Vec::new();
+    if !scenario.households.is_empty() {
+        let wanted = slots
+            .iter()
+            .zip(&baseline_of)
+            .map(|(&s, &b)| (s, b))
+            .chain((1..rules.len()).map(|i| (i, 0)));
+        for pair in wanted {
+            if pair.0 != pair.1 && !pairs.contains(&pair) {
+                pairs.push(pair);
+            }
+        }
+    }
     let (mc, long) = with_models(
         scenario,
         &specs,
@@ -289,8 +319,47 @@ pub fn compare(
             scenario,
             specs: &specs,
             progress,
+            pairs: &pairs,
         },
     )??;
+    let households = (!scenario.households.is_empty()).then(|| {
+        let column = |name: &str, slot: usize, base: usize| crate::households::HouseholdColumn {
+            policy: name.to_string(),
+            outcomes: crate::households::measure(
+                scenario,
+                &mc,
+                pairs.iter().position(|p| *p == (slot, base)),
+                slot,
+                base,
+            ),
+        };
+        let (eps_s, eps_d) = crate::households::elasticities(scenario);
+        crate::households::HouseholdResult {
+            groups: scenario.households.clone(),
+            supply_elasticity: eps_s,
+            demand_elasticity: eps_d,
+            risk_aversion: scenario.run.risk_aversion,
+            pv_factor: crate::households::pv_factor(scenario, mc.periods),
+            baseline: column(&specs[0].name, 0, 0),
+            policies: policies
+                .iter()
+                .enumerate()
+                .map(|(k, p)| column(&p.name, slots[k], baseline_of[k]))
+                .collect(),
+            behaviour: (1..rules.len())
+                .map(|i| {
+                    column(
+                        &format!(
+                            "Behaviour change: {} farmers (not a policy)",
+                            describe_rule(&rules[i])
+                        ),
+                        i,
+                        0,
+                    )
+                })
+                .collect(),
+        }
+    });
     let column = |spec: &PolicySpec, slot: usize, base: usize| {
         let runs = &mc.policies[slot];
         PolicyComparison {
@@ -351,7 +420,7 @@ pub fn compare(
             }
         }
     }
-    Ok(CompareResult {
+    let result = CompareResult {
         market: scenario.market.name.clone(),
         price_unit: scenario.market.price_unit.clone(),
         quantity_unit: scenario.market.quantity_unit.clone(),
@@ -369,5 +438,6 @@ pub fn compare(
             .collect(),
         behaviour,
         close_calls,
-    })
+    };
+    Ok((result, households))
 }

@@ -100,8 +100,101 @@ pub fn render_with(result: &CompareResult, format: Format, layout: Layout) -> St
     }
 }
 
+/// The comparison with the household groups' block (`compare --households`): in a table or
+/// Markdown the block goes before the caution, in CSV its rows follow the indicators
+/// (`household:GROUP:MEASURE`), in JSON it is the `"households"` array (one entry per given policy
+/// and group) with `"household_settings"`. Without groups this is [`render_with`] exactly.
+pub fn render_with_households(
+    result: &CompareResult,
+    households: Option<&crate::households::HouseholdResult>,
+    format: Format,
+    layout: Layout,
+) -> String {
+    use crate::households::render as hh;
+    let Some(h) = households else {
+        return render_with(result, format, layout);
+    };
+    match format {
+        Format::Json => {
+            let mut doc = json_doc(result);
+            if let Some(map) = doc.as_object_mut() {
+                map.insert("households".into(), hh::json(h));
+                map.insert("household_settings".into(), hh::settings_json(h));
+            }
+            serde_json::to_string_pretty(&doc).unwrap_or_default() + "\n"
+        }
+        Format::Csv => {
+            let mut t = csv(result);
+            for row in hh::csv_rows(h) {
+                t.push(row);
+            }
+            t.render(Format::Csv)
+        }
+        Format::Table | Format::Markdown => {
+            let codes = format == Format::Table;
+            let columns = household_columns(result, h, codes);
+            let mut block = hh::block(h, &columns, format);
+            if codes {
+                // the note wrapped to the terminal like the caption
+                let (table, note) = block.split_at(block.trim_end().rfind('\n').unwrap_or(0));
+                block = format!(
+                    "{table}\n{}\n",
+                    wrap(note.trim(), TERMINAL_WIDTH).join("\n")
+                );
+            }
+            let text = render_with(result, format, layout);
+            match text.rfind("Caution: ") {
+                Some(at) => format!("{}{block}\n{}", &text[..at], &text[at..]),
+                None => format!("{text}\n{block}"),
+            }
+        }
+    }
+}
+
+/// The household columns in the table's order ([`ordered_columns`]): headed by the short codes
+/// when `codes`, by the policies' names otherwise.
+fn household_columns<'a>(
+    result: &CompareResult,
+    h: &'a crate::households::HouseholdResult,
+    codes: bool,
+) -> Vec<(String, &'a crate::households::HouseholdColumn)> {
+    let mut out = Vec::new();
+    let given_base = result.policies.iter().position(|p| p.is_baseline);
+    let base = given_base.map_or(&h.baseline, |k| &h.policies[k]);
+    let name = |code: &str, p: &PolicyComparison| {
+        if codes {
+            code.to_string()
+        } else {
+            p.name.clone()
+        }
+    };
+    out.push((
+        name(
+            "P0",
+            given_base.map_or(&result.baseline, |k| &result.policies[k]),
+        ),
+        base,
+    ));
+    let mut k = 0;
+    for (i, p) in result.policies.iter().enumerate() {
+        if !p.is_baseline {
+            k += 1;
+            out.push((name(&format!("P{k}"), p), &h.policies[i]));
+        }
+    }
+    for (i, p) in result.behaviour.iter().enumerate() {
+        out.push((name(&format!("B{}", i + 1), p), &h.behaviour[i]));
+    }
+    out
+}
+
 /// The JSON document.
 pub fn json(result: &CompareResult) -> String {
+    serde_json::to_string_pretty(&json_doc(result)).unwrap_or_default() + "\n"
+}
+
+/// The JSON document as a value.
+fn json_doc(result: &CompareResult) -> serde_json::Value {
     let column = |p: &PolicyComparison| {
         let indicators: serde_json::Map<String, serde_json::Value> = p
             .indicators
@@ -121,7 +214,7 @@ pub fn json(result: &CompareResult) -> String {
             "indicators": indicators,
         })
     };
-    let doc = serde_json::json!({
+    serde_json::json!({
         "market": result.market,
         "replications": result.replications,
         "periods": result.periods,
@@ -133,8 +226,7 @@ pub fn json(result: &CompareResult) -> String {
         "policies": result.policies.iter().map(column).collect::<Vec<_>>(),
         "baseline": column(&result.baseline),
         "behaviour_changes": result.behaviour.iter().map(column).collect::<Vec<_>>(),
-    });
-    serde_json::to_string_pretty(&doc).unwrap_or_default() + "\n"
+    })
 }
 
 /// One row per key, one column per given policy, full precision.

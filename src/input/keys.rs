@@ -35,6 +35,28 @@ pub fn check_keys(
                 suggestion: suggest(section, &names, "sections"),
             });
         };
+        if super::raw::ARRAY_SECTIONS.contains(&section.as_str()) {
+            // `[[section]]`: every table of the array against the section's keys
+            let tables = value
+                .as_array()
+                .filter(|a| !a.is_empty() && a.iter().all(|t| t.is_table()));
+            let Some(tables) = tables else {
+                return Err(InputError::BadValue {
+                    file: file.into(),
+                    key: escape(section),
+                    value: short_value(value),
+                    expected: format!(
+                        "must be one or more tables written `[[{section}]]` (one per entry)"
+                    ),
+                });
+            };
+            for (i, t) in tables.iter().enumerate() {
+                if let Some(t) = t.as_table() {
+                    check_section(file, &format!("{section}[{i}]"), t, keys)?;
+                }
+            }
+            continue;
+        }
         let Some(inner) = value.as_table() else {
             return Err(InputError::BadValue {
                 file: file.into(),
@@ -43,48 +65,57 @@ pub fn check_keys(
                 expected: format!("must be a section `[{section}]`"),
             });
         };
-        for (key, v) in inner {
-            let Some((_, kind)) = keys.iter().find(|(k, _)| k == key) else {
-                let names: Vec<&str> = keys.iter().map(|(k, _)| *k).collect();
-                return Err(InputError::UnknownKey {
-                    file: file.into(),
-                    key: format!("{section}.{}", escape(key)),
-                    suggestion: suggest(key, &names, "keys"),
-                });
-            };
-            let fits = match kind {
-                ValueType::Number => v.is_float() || v.is_integer(),
-                ValueType::Integer => v.is_integer(),
-                ValueType::Text => v.is_str(),
-                ValueType::Bool => v.is_bool(),
-                ValueType::Numbers => v
-                    .as_array()
-                    .is_some_and(|a| a.iter().all(|x| x.is_float() || x.is_integer())),
-                ValueType::NumberOrNumbers => {
-                    v.is_float()
-                        || v.is_integer()
-                        || v.as_array()
-                            .is_some_and(|a| a.iter().all(|x| x.is_float() || x.is_integer()))
-                }
-            };
-            if !fits {
-                let want = match kind {
-                    ValueType::Number => "must be a number",
-                    ValueType::Integer => "must be a whole number",
-                    ValueType::Text => "must be a quoted string",
-                    ValueType::Bool => "must be true or false",
-                    ValueType::Numbers => "must be an array of numbers, e.g. [90.0, 95.0]",
-                    ValueType::NumberOrNumbers => {
-                        "must be a number or an array of numbers, e.g. 230.0"
-                    }
-                };
-                return Err(InputError::BadValue {
-                    file: file.into(),
-                    key: format!("{section}.{key}"),
-                    value: short_value(v),
-                    expected: want.into(),
-                });
+        check_section(file, section, inner, keys)?;
+    }
+    Ok(())
+}
+
+/// Checks one section's (or one array entry's, named `section[i]`) keys and their types.
+fn check_section(
+    file: &str,
+    section: &str,
+    inner: &toml::Table,
+    keys: &[(&str, ValueType)],
+) -> Result<(), InputError> {
+    for (key, v) in inner {
+        let Some((_, kind)) = keys.iter().find(|(k, _)| k == key) else {
+            let names: Vec<&str> = keys.iter().map(|(k, _)| *k).collect();
+            return Err(InputError::UnknownKey {
+                file: file.into(),
+                key: format!("{section}.{}", escape(key)),
+                suggestion: suggest(key, &names, "keys"),
+            });
+        };
+        let fits = match kind {
+            ValueType::Number => v.is_float() || v.is_integer(),
+            ValueType::Integer => v.is_integer(),
+            ValueType::Text => v.is_str(),
+            ValueType::Bool => v.is_bool(),
+            ValueType::Numbers => v
+                .as_array()
+                .is_some_and(|a| a.iter().all(|x| x.is_float() || x.is_integer())),
+            ValueType::NumberOrNumbers => {
+                v.is_float()
+                    || v.is_integer()
+                    || v.as_array()
+                        .is_some_and(|a| a.iter().all(|x| x.is_float() || x.is_integer()))
             }
+        };
+        if !fits {
+            let want = match kind {
+                ValueType::Number => "must be a number",
+                ValueType::Integer => "must be a whole number",
+                ValueType::Text => "must be a quoted string",
+                ValueType::Bool => "must be true or false",
+                ValueType::Numbers => "must be an array of numbers, e.g. [90.0, 95.0]",
+                ValueType::NumberOrNumbers => "must be a number or an array of numbers, e.g. 230.0",
+            };
+            return Err(InputError::BadValue {
+                file: file.into(),
+                key: format!("{section}.{key}"),
+                value: short_value(v),
+                expected: want.into(),
+            });
         }
     }
     Ok(())

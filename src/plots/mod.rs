@@ -17,6 +17,7 @@ mod eigen;
 mod fan;
 pub mod frame;
 mod frontier;
+mod groups;
 mod heatmap;
 mod lines;
 pub mod style;
@@ -33,6 +34,7 @@ pub use eigen::{eigenvalues, EigenPlot, EigenPoint};
 pub use fan::{fan, FanBand, FanChart};
 pub use frame::Titles;
 pub use frontier::{frontier, FrontierPlot, FrontierPoint};
+pub use groups::{group_bars, GroupBar, GroupBars};
 pub use heatmap::{contour_segments, heatmap, StabilityMap};
 pub use lines::{fiscal, paths, BarChart, LineChart, Reference, Series, OVERLAY_MAX};
 pub use tornado::{tornado, Tornado, TornadoRow};
@@ -77,6 +79,8 @@ pub enum Plot {
     Frontier(FrontierPlot),
     /// One policy's indicator with each varied key at its low and high value.
     Tornado(Tornado),
+    /// One household group's welfare change under each policy.
+    GroupBars(GroupBars),
 }
 
 impl Plot {
@@ -92,6 +96,7 @@ impl Plot {
             Plot::Bifurcation(p) => &p.titles.title,
             Plot::Frontier(p) => &p.titles.title,
             Plot::Tornado(p) => &p.titles.title,
+            Plot::GroupBars(p) => &p.titles.title,
         }
     }
 
@@ -108,6 +113,7 @@ impl Plot {
             Plot::Bifurcation(p) => p.draw(root),
             Plot::Frontier(p) => p.draw(root),
             Plot::Tornado(p) => p.draw(root),
+            Plot::GroupBars(p) => p.draw(root),
         }
     }
 

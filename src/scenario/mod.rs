@@ -192,4 +192,7 @@ pub struct Scenario {
     pub storers: Option<Storers>,
     /// The steady state of the free market (exists: checked when the file was read).
     pub steady: SteadyState,
+    /// Household groups (`[[households]]`; empty when the file has none).
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub households: Vec<crate::households::HouseholdGroup>,
 }

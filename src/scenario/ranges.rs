@@ -60,11 +60,39 @@ pub const RANGES: &[KeyRange] = &[
     r("storers.storage_cost", 0.0, BIG, false, false),
     r("storers.interest_rate", 0.0, 1.0, false, true),
     r("storers.loss_rate", 0.0, 1.0, false, true),
+    // household groups (`[[households]]`, each group)
+    noted(
+        r("households.population_share", 0.0, 1.0, true, false),
+        "each group; the groups' shares sum to 1 ± 1e-6",
+    ),
+    noted(
+        r("households.income", 0.0, BIG, true, false),
+        "each group, per household per season",
+    ),
+    noted(
+        r("households.production_share", 0.0, 1.0, false, false),
+        "each group",
+    ),
+    noted(
+        r("households.consumption_share", 0.0, 1.0, false, false),
+        "each group",
+    ),
 ];
 
 /// The range of `key` (a dotted key; an indexed key such as `run.price_history[3]` takes its
-/// array's range).
+/// array's range, and a key of an array of tables such as `households[2].income` its section's).
 pub fn range_of(key: &str) -> Option<&'static KeyRange> {
+    let unindexed;
+    let key = match key.split_once('[') {
+        Some((section, rest)) if !section.contains('.') => match rest.split_once("].") {
+            Some((_, inner)) => {
+                unindexed = format!("{section}.{inner}");
+                unindexed.as_str()
+            }
+            None => key,
+        },
+        _ => key,
+    };
     let base = key.split('[').next().unwrap_or(key);
     CURVE_RANGES
         .iter()

@@ -14,6 +14,19 @@ pub struct RawMarketFile {
     pub run: RawRun,
     pub shocks: RawShocks,
     pub storers: Option<RawStorers>,
+    /// `[[households]]`: an array of tables, one per household group.
+    pub households: Option<Vec<RawHousehold>>,
+}
+
+/// One `[[households]]` table as written.
+#[derive(Debug, Clone, Default, Deserialize)]
+#[serde(default)]
+pub struct RawHousehold {
+    pub name: Option<String>,
+    pub population_share: Option<f64>,
+    pub income: Option<f64>,
+    pub production_share: Option<f64>,
+    pub consumption_share: Option<f64>,
 }
 
 #[derive(Debug, Clone, Default, Deserialize)]
@@ -127,7 +140,21 @@ pub const MARKET_SCHEMA_AFTER: &[(&str, &[(&str, ValueType)])] = &[
             ("loss_rate", Number),
         ],
     ),
+    (
+        "households",
+        &[
+            ("name", Text),
+            ("population_share", Number),
+            ("income", Number),
+            ("production_share", Number),
+            ("consumption_share", Number),
+        ],
+    ),
 ];
+
+/// Sections written as arrays of tables (`[[households]]`): the key check reads every table of
+/// the array against the section's keys and names them `section[i].key` (0-based).
+pub const ARRAY_SECTIONS: &[&str] = &["households"];
 
 const CURVE_KEYS: &[(&str, ValueType)] = &[
     ("form", Text),

@@ -402,6 +402,7 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
             })
         }
     };
+    let households = households(&c, raw.households.as_deref().unwrap_or_default())?;
     Ok(Scenario {
         source: file.to_string(),
         market,
@@ -423,7 +424,116 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
         shocks,
         storers,
         steady,
+        households,
     })
+}
+
+/// At most this many `[[households]]` groups.
+pub const MAX_HOUSEHOLD_GROUPS: usize = 50;
+
+/// `[[households]]`: every key of every group required and in its range (named `households[i].key`,
+/// 0-based, with the group's name), a zero population share refused, names distinct and the
+/// population shares summing to 1 ± 1e-6.
+fn households(
+    c: &Check,
+    raw: &[RawHousehold],
+) -> Result<Vec<crate::households::HouseholdGroup>, InputError> {
+    if raw.len() > MAX_HOUSEHOLD_GROUPS {
+        return Err(c.bad(
+            "households",
+            format!("{} groups", raw.len()),
+            &format!("at most {MAX_HOUSEHOLD_GROUPS} [[households]] groups"),
+        ));
+    }
+    let mut groups: Vec<crate::households::HouseholdGroup> = Vec::with_capacity(raw.len());
+    for (i, h) in raw.iter().enumerate() {
+        let key = |k: &str| format!("households[{i}].{k}");
+        let name = match h.name.as_deref().map(str::trim) {
+            Some(n) if !n.is_empty() => n.to_string(),
+            Some(_) => {
+                return Err(c.bad(
+                    &key("name"),
+                    "\"\"",
+                    "a group needs a name (free text, e.g. \"Smallholders, hills\")",
+                ))
+            }
+            None => {
+                return Err(c.missing(
+                    &key("name"),
+                    "every [[households]] group needs name, population_share, income, \
+                     production_share and consumption_share",
+                ))
+            }
+        };
+        if groups.iter().any(|g| g.name == name) {
+            return Err(c.bad(
+                &key("name"),
+                format!("\"{}\"", escape(&name)),
+                "two groups have this name: give each [[households]] group its own name",
+            ));
+        }
+        let of = |k: &str, v: Option<f64>| -> Result<f64, InputError> {
+            let v = v.ok_or_else(|| {
+                c.missing(
+                    &key(k),
+                    &format!(
+                        "group \"{}\" needs {k} (see the README's household groups)",
+                        escape(&name)
+                    ),
+                )
+            })?;
+            c.within(&key(k), v).map_err(|e| match e {
+                InputError::BadValue {
+                    file,
+                    key,
+                    value,
+                    expected,
+                } => InputError::BadValue {
+                    file,
+                    key,
+                    value,
+                    expected: format!("{expected} (group \"{}\")", escape(&name)),
+                },
+                other => other,
+            })
+        };
+        if h.population_share == Some(0.0) {
+            return Err(c.bad(
+                &key("population_share"),
+                "0",
+                &format!(
+                    "group \"{}\" has no households: a group with a zero population share is \
+                     refused; remove it or give it a share in (0, 1]",
+                    escape(&name)
+                ),
+            ));
+        }
+        groups.push(crate::households::HouseholdGroup {
+            population_share: of("population_share", h.population_share)?,
+            income: of("income", h.income)?,
+            production_share: of("production_share", h.production_share)?,
+            consumption_share: of("consumption_share", h.consumption_share)?,
+            name,
+        });
+    }
+    if !groups.is_empty() {
+        let total: f64 = groups.iter().map(|g| g.population_share).sum();
+        if (total - 1.0).abs() > 1e-6 {
+            return Err(c.bad(
+                "households.population_share",
+                // nine decimals: a sum just outside the tolerance must not print as "1"
+                format!(
+                    "{} in total",
+                    format!("{total:.9}")
+                        .trim_end_matches('0')
+                        .trim_end_matches('.')
+                ),
+                "the groups' population shares must sum to 1 (± 1e-6): each is the group's share \
+                 of all households",
+            ));
+        }
+    }
+    Ok(groups)
 }
 
 /// `[run] alert_price`: one price or a list of at most [`MAX_ALERTS`], each > 0.

@@ -10,8 +10,9 @@ mod shocks;
 pub mod stats;
 
 pub use montecarlo::{
-    run_models, run_monte_carlo, MonteCarlo, NoProgress, PathVariable, PolicyRuns, Pooled,
-    Progress, ReplicationFailed, ReplicationSummary, SeriesSummary, Watch,
+    consumer_price, run_models, run_models_paired, run_monte_carlo, MonteCarlo, NoProgress,
+    PairedChanges, PathVariable, PolicyRuns, Pooled, Progress, ReplicationFailed,
+    ReplicationSummary, SeasonPrices, SeriesSummary, Watch,
 };
 pub use shocks::{draw_shocks, single_path_shocks, ShockStream};
 pub use stats::{quantiles, ShiftedSums, Summary};

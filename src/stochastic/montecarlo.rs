@@ -274,6 +274,131 @@ pub struct MonteCarlo {
     pub periods: usize,
     /// One entry per policy.
     pub policies: Vec<PolicyRuns>,
+    /// One entry per pair asked of [`run_models_paired`], in that order (empty otherwise).
+    pub paired: Vec<PairedChanges>,
+    /// Per model, the season-by-season price moments across replications (empty unless pairs
+    /// were asked for).
+    pub season_prices: Vec<SeasonPrices>,
+}
+
+/// The price consumers pay in a period: the market price less the consumer payment per unit
+/// consumed (a ceiling kept by consumer subsidy), the market price otherwise.
+#[inline]
+pub fn consumer_price(r: &PeriodRecord) -> f64 {
+    if r.consumer_payments > 0.0 && r.consumption > 0.0 {
+        r.price - r.consumer_payments / r.consumption
+    } else {
+        r.price
+    }
+}
+
+/// Proportional price changes of one model against another stepped on the same shocks (a policy
+/// against its baseline, common random numbers), folded over replications. Per replication, with
+/// season weights w_t = (1 + r)^−t / Σ_s (1 + r)^−s (r the discount rate), the statistics are
+/// `[Σ w·δ_prod, Σ w·δ_cons, Σ w·δ_prod², Σ w·δ_cons²]` where δ = (p_policy − p_base) / p_base season
+/// by season, for the producer price and the price consumers pay. Folded as means and the
+/// co-moment matrix (Welford, merged pairwise in chunk order: the same bits at any thread count).
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct PairedChanges {
+    /// Replications folded.
+    pub n: usize,
+    /// Mean of each statistic over replications.
+    pub mean: [f64; 4],
+    /// Σ over replications of (x − mean)(x − mean)ᵀ.
+    pub comoment: [[f64; 4]; 4],
+}
+
+impl PairedChanges {
+    fn push(&mut self, x: [f64; 4]) {
+        self.n += 1;
+        let n = self.n as f64;
+        let d: [f64; 4] = std::array::from_fn(|i| x[i] - self.mean[i]);
+        for (m, di) in self.mean.iter_mut().zip(&d) {
+            *m += di / n;
+        }
+        let after: [f64; 4] = std::array::from_fn(|j| x[j] - self.mean[j]);
+        for (row, di) in self.comoment.iter_mut().zip(&d) {
+            for (c, aj) in row.iter_mut().zip(&after) {
+                *c += di * aj;
+            }
+        }
+    }
+
+    fn merge(&mut self, o: &PairedChanges) {
+        if o.n == 0 {
+            return;
+        }
+        if self.n == 0 {
+            *self = *o;
+            return;
+        }
+        let (na, nb) = (self.n as f64, o.n as f64);
+        let n = na + nb;
+        let d: [f64; 4] = std::array::from_fn(|i| o.mean[i] - self.mean[i]);
+        for ((row, other), di) in self.comoment.iter_mut().zip(&o.comoment).zip(&d) {
+            for ((c, oc), dj) in row.iter_mut().zip(other).zip(&d) {
+                *c += oc + di * dj * na * nb / n;
+            }
+        }
+        for (m, di) in self.mean.iter_mut().zip(&d) {
+            *m += di * nb / n;
+        }
+        self.n += o.n;
+    }
+
+    /// Mean and standard error of the mean of the linear combination g·x over replications
+    /// (no standard error below two replications).
+    pub fn combination(&self, g: [f64; 4]) -> (f64, Option<f64>) {
+        let mean: f64 = (0..4).map(|i| g[i] * self.mean[i]).sum();
+        if self.n < 2 {
+            return (mean, None);
+        }
+        let mut ss = 0.0;
+        for i in 0..4 {
+            for j in 0..4 {
+                ss += g[i] * g[j] * self.comoment[i][j];
+            }
+        }
+        let n = self.n as f64;
+        (mean, Some((ss.max(0.0) / (n - 1.0)).sqrt() / n.sqrt()))
+    }
+}
+
+/// One model's producer price and consumer price season by season across replications: per
+/// season, with a = producer price − reference and b = consumer price − reference,
+/// `[Σa, Σb, Σa², Σb², Σab]` over replications (shifted sums: the reference is the steady-state
+/// price, so the squares do not swamp the spread).
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct SeasonPrices {
+    /// The shift.
+    pub reference: f64,
+    /// Replications summed.
+    pub n: usize,
+    /// Per season t = 1..T at index t − 1.
+    pub sums: Vec<[f64; 5]>,
+}
+
+impl SeasonPrices {
+    /// Season `t` (0-based): the mean producer price, the mean consumer price, their variances and
+    /// their covariance across replications (n − 1 in the denominator; zeros below two).
+    pub fn moments(&self, t: usize) -> ([f64; 2], [f64; 3]) {
+        let n = self.n.max(1) as f64;
+        let s = self.sums.get(t).copied().unwrap_or_default();
+        let (ma, mb) = (s[0] / n, s[1] / n);
+        let means = [self.reference + ma, self.reference + mb];
+        if self.n < 2 {
+            return (means, [0.0; 3]);
+        }
+        let d = n - 1.0;
+        (
+            means,
+            [
+                ((s[2] - n * ma * ma) / d).max(0.0),
+                ((s[3] - n * mb * mb) / d).max(0.0),
+                (s[4] - n * ma * mb) / d,
+            ],
+        )
+    }
 }
 
 /// A replication that failed.
@@ -303,6 +428,10 @@ struct ChunkPolicy {
     transform: Vec<f64>,
     /// season outlays, replication-major (empty beyond the season budget)
     seasons: Vec<f64>,
+    /// this replication's (producer price, consumer price) per period (empty without pairs)
+    path: Vec<[f64; 2]>,
+    /// per-period sums of the shifted prices (see [`SeasonPrices`]; empty without pairs)
+    season: Vec<[f64; 5]>,
     /// kept series, each period-major: [t][rep in chunk], so a period's values are contiguous
     /// (empty when this chunk lies beyond the series budget)
     series: Vec<Vec<f64>>,
@@ -310,7 +439,7 @@ struct ChunkPolicy {
     series_sums: Vec<Vec<f64>>,
 }
 
-type ChunkOutcome = Result<Vec<ChunkPolicy>, ReplicationFailed>;
+type ChunkOutcome = Result<(Vec<ChunkPolicy>, Vec<PairedChanges>), ReplicationFailed>;
 
 /// Simulates every policy in `policies` over `scenario.run.replications` replications of
 /// `scenario.run.periods` periods under the same shocks, keeping the per-period `series` for quantiles.
@@ -328,7 +457,7 @@ pub fn run_monte_carlo(
         scenario,
         policies,
         &models,
-        series,
+        (series, &[]),
         progress,
         SERIES_BUDGET_BYTES,
     )
@@ -347,7 +476,30 @@ pub fn run_models<M: PathModel>(
         scenario,
         policies,
         models,
-        variables,
+        (variables, &[]),
+        progress,
+        SERIES_BUDGET_BYTES,
+    )
+}
+
+/// [`run_models`] that also folds, for each pair (model, its baseline) of `pairs` (indices into
+/// `models`), the proportional price changes of the model against the baseline in the same
+/// replication ([`PairedChanges`]) and every model's season-by-season price moments
+/// ([`SeasonPrices`]); household groups are measured from them (`households`). With no pairs this is
+/// [`run_models`] exactly.
+pub fn run_models_paired<M: PathModel>(
+    scenario: &Scenario,
+    policies: &[PolicySpec],
+    models: &[M],
+    variables: &[PathVariable],
+    progress: &dyn Progress,
+    pairs: &[(usize, usize)],
+) -> Result<MonteCarlo, ReplicationFailed> {
+    run_with_budget(
+        scenario,
+        policies,
+        models,
+        (variables, pairs),
         progress,
         SERIES_BUDGET_BYTES,
     )
@@ -357,7 +509,7 @@ fn run_with_budget<M: PathModel>(
     scenario: &Scenario,
     policies: &[PolicySpec],
     models: &[M],
-    series: &[PathVariable],
+    (series, pairs): (&[PathVariable], &[(usize, usize)]),
     progress: &dyn Progress,
     budget: usize,
 ) -> Result<MonteCarlo, ReplicationFailed> {
@@ -376,7 +528,18 @@ fn run_with_budget<M: PathModel>(
     let per_replication = (periods * series.len() * models.len() * 8).max(1);
     // at least one chunk, so quantiles always exist
     let series_reps = (budget / per_replication).max(1).div_ceil(CHUNK) * CHUNK;
+    // season weights of the paired changes: (1 + r)^−t normalised to sum to 1
+    let weights: Vec<f64> = if pairs.is_empty() {
+        Vec::new()
+    } else {
+        let v = 1.0 / (1.0 + scenario.run.discount_rate);
+        let raw: Vec<f64> = (1..=periods).map(|t| v.powi(t as i32)).collect();
+        let total: f64 = raw.iter().sum();
+        raw.iter().map(|w| w / total).collect()
+    };
     let ctx = Context {
+        pairs,
+        weights: &weights,
         series_reps,
         season_reps,
         scenario,
@@ -400,9 +563,34 @@ fn run_with_budget<M: PathModel>(
         })
         .collect();
     let mut chunk_results = Vec::with_capacity(chunks);
+    let mut paired = vec![PairedChanges::default(); pairs.len()];
+    let mut season_prices: Vec<SeasonPrices> = if pairs.is_empty() {
+        Vec::new()
+    } else {
+        (0..models.len())
+            .map(|_| SeasonPrices {
+                reference: scenario.steady.price,
+                n: 0,
+                sums: vec![[0.0; 5]; periods],
+            })
+            .collect()
+    };
     for o in outcomes {
         match o {
-            Some(Ok(v)) => chunk_results.push(v),
+            Some(Ok((v, p))) => {
+                for (a, b) in paired.iter_mut().zip(&p) {
+                    a.merge(b);
+                }
+                for (acc, c) in season_prices.iter_mut().zip(&v) {
+                    acc.n += c.reps.len();
+                    for (a, b) in acc.sums.iter_mut().zip(&c.season) {
+                        for i in 0..5 {
+                            a[i] += b[i];
+                        }
+                    }
+                }
+                chunk_results.push(v)
+            }
             Some(Err(e)) => return Err(e),
             None => unreachable!("a chunk is skipped only after an earlier chunk failed"),
         }
@@ -424,10 +612,16 @@ fn run_with_budget<M: PathModel>(
         replications: reps,
         periods,
         policies,
+        paired,
+        season_prices,
     })
 }
 
 struct Context<'a, M> {
+    /// (model, baseline) pairs whose paired price changes are folded (empty: none)
+    pairs: &'a [(usize, usize)],
+    /// season weights of the paired changes (empty without pairs)
+    weights: &'a [f64],
     scenario: &'a Scenario,
     models: &'a [M],
     watches: &'a [Watch],
@@ -452,6 +646,16 @@ impl<M: PathModel> Context<'_, M> {
                 fiscal: vec![0.0; periods],
                 income: vec![0.0; periods],
                 transform: vec![0.0; periods],
+                path: if self.pairs.is_empty() {
+                    Vec::new()
+                } else {
+                    vec![[0.0; 2]; periods]
+                },
+                season: if self.pairs.is_empty() {
+                    Vec::new()
+                } else {
+                    vec![[0.0; 5]; periods]
+                },
                 seasons: if from < self.season_reps {
                     Vec::with_capacity(n * periods)
                 } else {
@@ -471,6 +675,7 @@ impl<M: PathModel> Context<'_, M> {
                 series_sums: self.series.iter().map(|_| vec![0.0; periods]).collect(),
             })
             .collect();
+        let mut paired = vec![PairedChanges::default(); self.pairs.len()];
         let mut shocks = vec![PeriodShock::NONE; periods];
         for rep in from..to {
             // the replication's shocks, drawn once and handed to every model
@@ -494,12 +699,46 @@ impl<M: PathModel> Context<'_, M> {
                     })?;
                 out[k].reps.push(summary);
             }
+            if !self.pairs.is_empty() {
+                self.pair_up(&mut out, &mut paired);
+            }
             if self.first_failure.load(Ordering::Relaxed) < from / CHUNK {
                 break; // an earlier chunk failed; this chunk's figures will not be used
             }
         }
         self.progress.advance(n as u64);
-        Ok(out)
+        for c in &mut out {
+            c.path = Vec::new(); // one replication's scratch: not kept with the chunk
+        }
+        Ok((out, paired))
+    }
+
+    /// After every model stepped one replication: each pair's proportional price changes and each
+    /// model's shifted price sums.
+    fn pair_up(&self, out: &mut [ChunkPolicy], paired: &mut [PairedChanges]) {
+        let change = |p: f64, base: f64| if base > 0.0 { (p - base) / base } else { 0.0 };
+        for (acc, &(k, b)) in paired.iter_mut().zip(self.pairs) {
+            let mut x = [0.0; 4];
+            for ((pk, pb), w) in out[k].path.iter().zip(&out[b].path).zip(self.weights) {
+                let (dp, dc) = (change(pk[0], pb[0]), change(pk[1], pb[1]));
+                x[0] += w * dp;
+                x[1] += w * dc;
+                x[2] += w * dp * dp;
+                x[3] += w * dc * dc;
+            }
+            acc.push(x);
+        }
+        let reference = self.scenario.steady.price;
+        for c in out.iter_mut() {
+            for (s, p) in c.season.iter_mut().zip(&c.path) {
+                let (a, b) = (p[0] - reference, p[1] - reference);
+                s[0] += a;
+                s[1] += b;
+                s[2] += a * a;
+                s[3] += b * b;
+                s[4] += a * b;
+            }
+        }
     }
 
     /// One replication (number `slot` of the chunk's `n`) of one model on `shocks`, folded into
@@ -546,6 +785,9 @@ impl<M: PathModel> Context<'_, M> {
             let y = watch.income(&r);
             let transform = crra_transform(y, scale, watch.risk_aversion);
             pooled.push(&r, transform);
+            if let Some(cell) = acc.path.get_mut(t) {
+                *cell = [r.producer_price, consumer_price(&r)];
+            }
             acc.fiscal[t] += r.fiscal_cost;
             acc.income[t] += y;
             acc.transform[t] += transform;
@@ -719,8 +961,15 @@ mod tests {
         let series = [PathVariable::Price];
         // a budget of one replication rounds up to one chunk of CHUNK replications
         let models = [Model::new(&scenario(200), &none[0])];
-        let capped =
-            run_with_budget(&scenario(200), &none, &models, &series, &NoProgress, 1).unwrap();
+        let capped = run_with_budget(
+            &scenario(200),
+            &none,
+            &models,
+            (&series, &[]),
+            &NoProgress,
+            1,
+        )
+        .unwrap();
         let full = run_monte_carlo(&scenario(200), &none, &series, &NoProgress).unwrap();
         let leading = run_monte_carlo(&scenario(CHUNK), &none, &series, &NoProgress).unwrap();
         let (c, f, l) = (
