@@ -8,7 +8,9 @@ use common::{bin, stdout_of};
 use furrow::compare::compare_with_households;
 use furrow::engine::{Model, PeriodShock};
 use furrow::households::{HouseholdGroup, HouseholdResult};
-use furrow::scenario::{market_from_str, policy_from_str, PolicySpec, Scenario};
+use furrow::policies::file::policy_from_str;
+use furrow::policies::PolicySpec;
+use furrow::scenario::{market_from_str, Scenario};
 use furrow::stochastic::{consumer_price, draw_shocks, NoProgress};
 
 /// Demand Q = 120 − 0.8 P, supply Q = −10 + 0.5 P^e: P* = 100, Q* = 40, so at the steady state

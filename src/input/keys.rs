@@ -35,7 +35,7 @@ pub fn check_keys(
                 suggestion: suggest(section, &names, "sections"),
             });
         };
-        if super::raw::ARRAY_SECTIONS.contains(&section.as_str()) {
+        if super::ARRAY_SECTIONS.contains(&section.as_str()) {
             // `[[section]]`: every table of the array against the section's keys
             let tables = value
                 .as_array()

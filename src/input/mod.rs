@@ -85,3 +85,7 @@ pub struct Key {
 
 /// Sections with their keys and types.
 pub type Schema = Vec<(&'static str, Vec<(&'static str, ValueType)>)>;
+
+/// Sections written as arrays of tables (`[[households]]`): the key check (`keys::check_keys`) reads every table of
+/// the array against the section's keys and names them `section[i].key` (0-based).
+pub const ARRAY_SECTIONS: &[&str] = &["households"];

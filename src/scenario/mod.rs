@@ -4,6 +4,7 @@
 //! and builds a [`Scenario`] (market file) or a [`PolicySpec`] (policy file). Everything downstream —
 //! engine, stability, Monte Carlo — trusts these values and never re-checks them.
 
+mod households;
 pub mod ranges;
 pub mod raw;
 pub mod schema;
@@ -15,6 +16,7 @@ use crate::curves::{Curve, SteadyState};
 
 pub use crate::input::keys::{self, apply_override, parse_toml};
 pub use crate::input::InputError;
+pub use households::HouseholdGroup;
 pub use validate::{load_market, market_from_str, market_from_str_with, market_from_table};
 
 /// What the market is: curves and units.
@@ -194,5 +196,5 @@ pub struct Scenario {
     pub steady: SteadyState,
     /// Household groups (`[[households]]`; empty when the file has none).
     #[serde(skip_serializing_if = "Vec::is_empty")]
-    pub households: Vec<crate::households::HouseholdGroup>,
+    pub households: Vec<HouseholdGroup>,
 }

@@ -152,10 +152,6 @@ pub const MARKET_SCHEMA_AFTER: &[(&str, &[(&str, ValueType)])] = &[
     ),
 ];
 
-/// Sections written as arrays of tables (`[[households]]`): the key check reads every table of
-/// the array against the section's keys and names them `section[i].key` (0-based).
-pub const ARRAY_SECTIONS: &[&str] = &["households"];
-
 const CURVE_KEYS: &[(&str, ValueType)] = &[
     ("form", Text),
     ("intercept", Number),

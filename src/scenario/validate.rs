@@ -434,10 +434,7 @@ pub const MAX_HOUSEHOLD_GROUPS: usize = 50;
 /// `[[households]]`: every key of every group required and in its range (named `households[i].key`,
 /// 0-based, with the group's name), a zero population share refused, names distinct and the
 /// population shares summing to 1 ± 1e-6.
-fn households(
-    c: &Check,
-    raw: &[RawHousehold],
-) -> Result<Vec<crate::households::HouseholdGroup>, InputError> {
+fn households(c: &Check, raw: &[RawHousehold]) -> Result<Vec<HouseholdGroup>, InputError> {
     if raw.len() > MAX_HOUSEHOLD_GROUPS {
         return Err(c.bad(
             "households",
@@ -445,7 +442,7 @@ fn households(
             &format!("at most {MAX_HOUSEHOLD_GROUPS} [[households]] groups"),
         ));
     }
-    let mut groups: Vec<crate::households::HouseholdGroup> = Vec::with_capacity(raw.len());
+    let mut groups: Vec<HouseholdGroup> = Vec::with_capacity(raw.len());
     for (i, h) in raw.iter().enumerate() {
         let key = |k: &str| format!("households[{i}].{k}");
         let name = match h.name.as_deref().map(str::trim) {
@@ -508,7 +505,7 @@ fn households(
                 ),
             ));
         }
-        groups.push(crate::households::HouseholdGroup {
+        groups.push(HouseholdGroup {
             population_share: of("population_share", h.population_share)?,
             income: of("income", h.income)?,
             production_share: of("production_share", h.production_share)?,
