@@ -221,12 +221,13 @@ fn solve_reporting(
     options: &SolveOptions,
 ) -> Result<Equilibrium, StorageError> {
     let mut m = StorageMarket::new(scenario, options.nodes)?;
+    // (the policy is read first: a backward-looking override is refused there, naming its file)
+    let initial = initial_public(policy)?;
     if let Some(spec) = &policy.expectations {
         m.set_farmers(scenario, spec)?;
     }
     m.planting_floor = planting_floor(policy);
     m.payment_floor = payment_floor(policy);
-    let initial = initial_public(policy)?;
     if m.farmers.is_some()
         && (band_of(policy)?.is_some() || m.planting_floor > 0.0 || m.payment_floor > 0.0)
     {
