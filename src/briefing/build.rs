@@ -34,6 +34,9 @@ pub struct Request<'a> {
     pub overrides: Overrides,
     /// The command that made it (provenance), e.g. the program's arguments joined.
     pub command: String,
+    /// `(RISK, COST)`: two indicators of the comparison to place the policies by, with the
+    /// cost–risk annex and its frontier figure (`report --frontier`); names checked by the caller.
+    pub frontier: Option<(String, String)>,
 }
 
 /// A built briefing and its figures (for a `--plots` folder).
@@ -345,6 +348,15 @@ pub fn build_with_households(
                 .split(':')
                 .next()
                 .unwrap_or("the annex")
+        ));
+    }
+    if let Some((risk, cost)) = &req.frontier {
+        let (designs, frontier_figures) = super::frontier::section(r, risk, cost);
+        sections.push(designs);
+        figs.extend(frontier_figures);
+        summary.push(format!(
+            "The policies as designs by {risk} and {cost}, with those no other beats on both: see \
+             Annex H."
         ));
     }
     let n = req.policy_paths.len();

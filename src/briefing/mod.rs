@@ -16,6 +16,7 @@
 pub mod assumptions;
 mod build;
 pub mod figures;
+pub mod frontier;
 pub mod headline;
 mod households;
 mod html;

@@ -19,6 +19,10 @@ pub struct ReportArgs {
     /// One or more policy files (each compared with the market left alone).
     #[arg(required = true, num_args = 1..)]
     pub policies: Vec<String>,
+    /// Place the policies by two indicators of the comparison, RISK across and COST up (both smaller
+    /// is better), in an annex with the frontier figure, e.g. `price_cv,fiscal_cost_pv`.
+    #[arg(long, value_name = "RISK,COST")]
+    pub frontier: Option<String>,
     #[command(flatten)]
     pub common: CommonArgs,
 }
@@ -37,7 +41,22 @@ pub fn execute(args: &ReportArgs) -> anyhow::Result<()> {
     let scenario = args.common.load_market(&args.market)?;
     install_progress(); // storage solves of a market with storers, after a second
     let cols = columns(&args.policies, &scenario)?;
+    let frontier = match &args.frontier {
+        Some(pair) => Some(frontier_pair(pair)?),
+        None => None,
+    };
     let (result, households) = run_compare(&scenario, &cols)?;
+    if let (Some((risk, cost)), Some(first)) = (&frontier, result.policies.first()) {
+        for name in [risk, cost] {
+            if !first.indicators.iter().any(|i| &i.key == name) {
+                let known: Vec<&str> = first.indicators.iter().map(|i| i.key.as_str()).collect();
+                anyhow::bail!(
+                    "--frontier: \"{name}\" is not an indicator of this comparison; known: {}",
+                    known.join(", ")
+                );
+            }
+        }
+    }
     let built = briefing::build_with_households(
         &briefing::Request {
             scenario: &scenario,
@@ -51,6 +70,7 @@ pub fn execute(args: &ReportArgs) -> anyhow::Result<()> {
                 periods: args.common.periods.is_some(),
             },
             command: std::env::args().collect::<Vec<_>>().join(" "),
+            frontier,
         },
         households.as_ref(),
     )?;
@@ -84,4 +104,16 @@ fn run_compare(
     let result = furrow::compare::compare_with_households(scenario, &specs, bar.observer());
     bar.finish();
     Ok(result?)
+}
+
+/// `RISK,COST` as two indicator names.
+fn frontier_pair(pair: &str) -> anyhow::Result<(String, String)> {
+    match pair.split_once(',') {
+        Some((r, c)) if !r.trim().is_empty() && !c.trim().is_empty() && !c.contains(',') => {
+            Ok((r.trim().to_string(), c.trim().to_string()))
+        }
+        _ => anyhow::bail!(
+            "--frontier {pair}: give two indicator names, RISK,COST (e.g. price_cv,fiscal_cost_pv)"
+        ),
+    }
 }

@@ -1,0 +1,98 @@
+//! The briefing's cost–risk annex (`report … --frontier RISK,COST`): the policies compared as designs,
+//! each a point by two of the comparison's indicators (both smaller is better), the non-dominated ones
+//! named (`design::frontier::pareto`), with the frontier figure.
+
+use super::figures::Figure;
+use super::Section;
+use crate::compare::{CompareResult, Value};
+use crate::design::frontier::pareto;
+use crate::output::TextTable;
+use crate::plots::{frontier, FrontierPoint};
+use crate::units::group;
+
+/// Heading of the annex.
+pub const HEADING: &str = "Annex H: the designs by risk and cost";
+
+/// The indicator `key` of every compared policy that is not the market left alone, in order.
+fn values(r: &CompareResult, key: &str) -> Vec<f64> {
+    r.policies
+        .iter()
+        .filter(|p| !p.is_baseline)
+        .map(
+            |p| match p.indicators.iter().find(|i| i.key == key).map(|i| &i.value) {
+                Some(Value::Number(x)) if x.is_finite() => *x,
+                _ => f64::NAN,
+            },
+        )
+        .collect()
+}
+
+/// The annex and its figure. `risk` and `cost` are indicator names of the comparison (checked by
+/// the caller against its list).
+pub fn section(r: &CompareResult, risk: &str, cost: &str) -> (Section, Vec<Figure>) {
+    let names: Vec<String> = r
+        .policies
+        .iter()
+        .filter(|p| !p.is_baseline)
+        .map(|p| p.name.clone())
+        .collect();
+    let points: Vec<(f64, f64)> = values(r, risk).into_iter().zip(values(r, cost)).collect();
+    let front = pareto(&points);
+    let mut sec = Section::new(HEADING);
+    sec.paragraph(format!(
+        "Each policy compared is a design, placed by {risk} (across) and {cost} (up); smaller is \
+         better on both. A design is on the frontier when no other design is at least as low on both \
+         and lower on one: choosing among frontier designs trades one for the other, and a design off \
+         the frontier is beaten on both by some design on it. Figures are the comparison's own (the \
+         same shocks for every design)."
+    ));
+    let mut table = TextTable::new(&["policy", risk, cost, "on the frontier"]);
+    for (i, (name, (x, y))) in names.iter().zip(&points).enumerate() {
+        let shown = |v: f64| {
+            if v.is_finite() {
+                group(v, 3)
+            } else {
+                "n/a".to_string()
+            }
+        };
+        table.push(vec![
+            name.clone(),
+            shown(*x),
+            shown(*y),
+            if front.contains(&i) { "yes" } else { "no" }.to_string(),
+        ]);
+    }
+    sec.table(format!("The designs by {risk} and {cost}"), table);
+    let plot = frontier(
+        risk,
+        cost,
+        names
+            .iter()
+            .zip(&points)
+            .enumerate()
+            .map(|(i, (name, (x, y)))| FrontierPoint {
+                risk: *x,
+                cost: *y,
+                chosen: front.contains(&i),
+                label: name.clone(),
+            })
+            .collect(),
+    );
+    let figure = Figure {
+        stem: "frontier".into(),
+        caption: format!("The designs by {risk} and {cost}; the frontier filled and joined."),
+        plot,
+    };
+    match figure.plot.svg_string() {
+        Ok(svg) => {
+            sec.figure(figure.caption.clone(), svg);
+        }
+        Err(_) => {
+            sec.note(format!(
+                "(figure “{}” could not be drawn: no design has finite {risk} and {cost})",
+                figure.caption
+            ));
+        }
+    }
+    (sec, vec![figure])
+}
