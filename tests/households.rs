@@ -526,3 +526,12 @@ fn without_the_flag_the_comparison_is_the_same_as_without_groups() {
         }
     }
 }
+
+#[test]
+fn check_names_the_groups_as_an_array_of_tables() {
+    // `check` says which sections made it read the file as a market file; the groups are written
+    // `[[households]]` in the file and named so
+    let out = stdout_of(["check", "examples/veldmark.toml", "--format", "json"]);
+    assert!(out.contains("[[households]]"), "{out}");
+    assert!(!out.contains(", [households]"), "{out}");
+}

@@ -311,7 +311,13 @@ pub fn file_kind(file: &str, text: &str) -> Result<(FileKind, Vec<String>), Inpu
         table
             .keys()
             .filter(|k| a.iter().any(|(s, _)| s == k) && !b.iter().any(|(s, _)| s == k))
-            .map(|k| format!("[{k}]"))
+            .map(|k| {
+                if crate::input::ARRAY_SECTIONS.contains(&k.as_str()) {
+                    format!("[[{k}]]")
+                } else {
+                    format!("[{k}]")
+                }
+            })
             .collect::<Vec<_>>()
     };
     let (market_schema, policy_schema) = (crate::scenario::schema::market(), schema());
