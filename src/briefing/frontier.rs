@@ -4,7 +4,7 @@
 
 use super::figures::Figure;
 use super::Section;
-use crate::compare::{CompareResult, Value};
+use crate::compare::{finite_number, CompareResult};
 use crate::design::frontier::pareto;
 use crate::output::TextTable;
 use crate::plots::{frontier, FrontierPoint};
@@ -18,12 +18,7 @@ fn values(r: &CompareResult, key: &str) -> Vec<f64> {
     r.policies
         .iter()
         .filter(|p| !p.is_baseline)
-        .map(
-            |p| match p.indicators.iter().find(|i| i.key == key).map(|i| &i.value) {
-                Some(Value::Number(x)) if x.is_finite() => *x,
-                _ => f64::NAN,
-            },
-        )
+        .map(|p| finite_number(&p.indicators, key).unwrap_or(f64::NAN))
         .collect()
 }
 

@@ -125,6 +125,14 @@ pub struct PolicyComparison {
     pub fan: Fan,
 }
 
+/// The finite number of indicator `key` in `indicators` (None when missing, text or not finite).
+pub fn finite_number(indicators: &[Indicator], key: &str) -> Option<f64> {
+    match indicators.iter().find(|i| i.key == key).map(|i| &i.value) {
+        Some(Value::Number(x)) if x.is_finite() => Some(*x),
+        _ => None,
+    }
+}
+
 impl PolicyComparison {
     /// The value of indicator `key`, if there is one.
     pub fn get(&self, key: &str) -> Option<&Value> {

@@ -175,13 +175,7 @@ impl Serialize for Cell {
 impl Cell {
     /// The number of indicator `key`, if it is one.
     pub fn number(&self, key: &str) -> Option<f64> {
-        self.indicators
-            .iter()
-            .find(|i| i.key == key)
-            .and_then(|i| match i.value {
-                Value::Number(x) if x.is_finite() => Some(x),
-                _ => None,
-            })
+        crate::compare::finite_number(&self.indicators, key)
     }
 }
 

@@ -92,11 +92,7 @@ pub struct Outcome {
 impl Outcome {
     /// The numeric value of indicator `key` (None when invalid, missing or not a finite number).
     pub fn number(&self, key: &str) -> Option<f64> {
-        let inds = self.indicators.as_ref().ok()?;
-        match inds.iter().find(|i| i.key == key).map(|i| &i.value) {
-            Some(Value::Number(x)) if x.is_finite() => Some(*x),
-            _ => None,
-        }
+        crate::compare::finite_number(self.indicators.as_ref().ok()?, key)
     }
 }
 
