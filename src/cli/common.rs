@@ -64,15 +64,7 @@ impl CommonArgs {
     /// Validates market-file text with `--seed`, `--replications`, `--periods` written into the
     /// parsed file first: the values are checked once, by the same validation as the file's own.
     pub fn market_from_text(&self, path: &str, text: &str) -> anyhow::Result<Scenario> {
-        let flags = [
-            ("--seed", "run.seed", self.seed.map(|v| v as u128)),
-            (
-                "--replications",
-                "run.replications",
-                self.replications.map(|v| v as u128),
-            ),
-            ("--periods", "run.periods", self.periods.map(|v| v as u128)),
-        ];
+        let flags = self.run_flags();
         let mut overrides = Vec::new();
         for (flag, key, value) in flags {
             let Some(v) = value else { continue };
@@ -101,6 +93,19 @@ impl CommonArgs {
                 _ => e.into(),
             }
         })
+    }
+
+    /// The run settings the command line sets: (option, market-file key, value if given).
+    fn run_flags(&self) -> [(&'static str, &'static str, Option<u128>); 3] {
+        [
+            ("--seed", "run.seed", self.seed.map(|v| v as u128)),
+            (
+                "--replications",
+                "run.replications",
+                self.replications.map(|v| v as u128),
+            ),
+            ("--periods", "run.periods", self.periods.map(|v| v as u128)),
+        ]
     }
 
     /// Writes a human-readable table with furrow's caution below it (CSV and JSON stay pure data).
@@ -349,16 +354,11 @@ pub fn install_progress() {
 /// Writes `--seed`, `--replications` and `--periods` into the parsed market file (validated with it
 /// at every grid point, so a bad value is named by the file's own check).
 pub fn with_run_flags(mut market: toml::Table, common: &CommonArgs) -> anyhow::Result<toml::Table> {
-    let flags = [
-        ("run.seed", common.seed.map(|v| v as u128)),
-        ("run.replications", common.replications.map(|v| v as u128)),
-        ("run.periods", common.periods.map(|v| v as u128)),
-    ];
-    for (key, value) in flags {
+    for (flag, key, value) in common.run_flags() {
         let Some(v) = value else { continue };
-        let v = i64::try_from(v).map_err(|_| anyhow::anyhow!("--{} {v}: too large", &key[4..]))?;
+        let v = i64::try_from(v).map_err(|_| anyhow::anyhow!("{flag} {v}: too large"))?;
         furrow::scenario::apply_override(&mut market, key, toml::Value::Integer(v))
-            .map_err(|e| anyhow::anyhow!("--{} {v}: {e}", &key[4..]))?;
+            .map_err(|e| anyhow::anyhow!("{flag} {v}: {e}"))?;
     }
     Ok(market)
 }
