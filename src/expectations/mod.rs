@@ -439,11 +439,7 @@ impl ExpectationSpec {
             toml::Value::String(self.registration.name.into()),
         );
         for (k, v) in self.values.iter() {
-            let whole = self
-                .registration
-                .keys
-                .iter()
-                .any(|key| key.name == k && key.kind == ValueType::Integer);
+            let whole = self.is_whole(k);
             let value = if whole {
                 toml::Value::Integer(v as i64)
             } else {
@@ -452,6 +448,14 @@ impl ExpectationSpec {
             t.insert(k.into(), value);
         }
         t
+    }
+
+    /// Whether the rule declares `key` a whole number (written and serialised as an integer).
+    fn is_whole(&self, key: &str) -> bool {
+        self.registration
+            .keys
+            .iter()
+            .any(|k| k.name == key && k.kind == ValueType::Integer)
     }
 
     /// Every registered rule in its short form (`Registration::short_form`), in registry order.
@@ -486,11 +490,7 @@ impl Serialize for ExpectationSpec {
         let mut m = s.serialize_map(Some(1 + self.values.len))?;
         m.serialize_entry("rule", self.registration.name)?;
         for (k, v) in self.values.iter() {
-            let whole = self
-                .registration
-                .keys
-                .iter()
-                .any(|key| key.name == k && key.kind == ValueType::Integer);
+            let whole = self.is_whole(k);
             if whole {
                 m.serialize_entry(k, &(v as i64))?;
             } else {
