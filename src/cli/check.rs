@@ -41,8 +41,7 @@ pub fn execute(args: &CheckArgs) -> anyhow::Result<()> {
     let mut out = Vec::new();
     let (mut markets, mut policies) = (Vec::new(), Vec::new());
     for file in &args.files {
-        let text = std::fs::read_to_string(file)
-            .map_err(|e| anyhow::anyhow!("{file}: cannot read: {e}"))?;
+        let text = furrow::input::read_file(file)?;
         // the same validation as every other verb; the kind is decided by the sections present
         let (kind, because) = furrow::policies::file::file_kind(file, &text)?;
         let read_as = format!(

@@ -54,10 +54,7 @@ pub fn exit_code(err: &anyhow::Error) -> u8 {
 impl CommonArgs {
     /// Loads and validates a market file, applying the command-line overrides.
     pub fn load_market(&self, path: &str) -> anyhow::Result<Scenario> {
-        let text = std::fs::read_to_string(path).map_err(|e| scenario::InputError::Unreadable {
-            file: path.to_string(),
-            reason: e.to_string(),
-        })?;
+        let text = furrow::input::read_file(path)?;
         self.market_from_text(path, &text)
     }
 
@@ -410,7 +407,6 @@ pub fn replications_of(
 
 /// A TOML file parsed (not validated), for the verbs that patch keys before validating.
 pub fn read_table(path: &str) -> anyhow::Result<toml::Table> {
-    let text =
-        std::fs::read_to_string(path).map_err(|e| anyhow::anyhow!("{path}: cannot read: {e}"))?;
+    let text = furrow::input::read_file(path)?;
     Ok(furrow::scenario::parse_toml(path, &text)?)
 }

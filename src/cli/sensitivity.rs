@@ -2,7 +2,7 @@
 //! the assumption panel, the forecast-error decomposition and the tornado.
 
 use clap::Args;
-use furrow::scenario::{apply_override, parse_toml};
+use furrow::scenario::apply_override;
 use furrow::sensitivity::{self, Inputs, Request};
 
 use std::io::IsTerminal;
@@ -10,7 +10,7 @@ use std::io::IsTerminal;
 use furrow::stochastic::{NoProgress, Progress};
 use indicatif::{ProgressBar, ProgressStyle};
 
-use super::common::{check_memory, install_progress, load_policy, CommonArgs};
+use super::common::{check_memory, install_progress, load_policy, read_table, CommonArgs};
 
 /// A bar over every comparison's replications (each comparison advances it by its own), on stderr
 /// when it is a terminal and the work is long.
@@ -75,12 +75,6 @@ pub struct SensitivityArgs {
     pub indicator: Vec<String>,
     #[command(flatten)]
     pub common: CommonArgs,
-}
-
-fn read_table(path: &str) -> anyhow::Result<toml::Table> {
-    let text =
-        std::fs::read_to_string(path).map_err(|e| anyhow::anyhow!("{path}: cannot read: {e}"))?;
-    Ok(parse_toml(path, &text)?)
 }
 
 /// Runs `sensitivity`.

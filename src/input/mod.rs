@@ -8,6 +8,14 @@ pub mod keys;
 pub mod ranges;
 
 pub use check::{deserialize_section, Check};
+
+/// The text of the file at `path`; an unreadable file is an error naming it.
+pub fn read_file(path: &str) -> Result<String, InputError> {
+    std::fs::read_to_string(path).map_err(|e| InputError::Unreadable {
+        file: path.to_string(),
+        reason: e.to_string(),
+    })
+}
 pub use ranges::KeyRange;
 
 /// An input problem, always naming the file and, where there is one, the key and the value.

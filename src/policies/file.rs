@@ -97,7 +97,7 @@ pub const POLICY_SCHEMA: &[(&str, &[(&str, ValueType)])] = &[(
 
 /// Reads and validates a policy file from disk.
 pub fn load_policy(path: &str) -> Result<PolicySpec, InputError> {
-    policy_from_str(path, &crate::scenario::validate::read(path)?)
+    policy_from_str(path, &crate::input::read_file(path)?)
 }
 
 /// Validates policy-file text; `file` names it in errors.

@@ -11,7 +11,7 @@ pub use crate::input::{deserialize_section, Check};
 
 /// Reads and validates a market file from disk.
 pub fn load_market(path: &str) -> Result<Scenario, InputError> {
-    market_from_str(path, &read(path)?)
+    market_from_str(path, &crate::input::read_file(path)?)
 }
 
 /// Validates market-file text; `file` names it in errors.
@@ -39,13 +39,6 @@ pub fn market_from_str_with(
         })?;
     }
     market_from_table(file, table)
-}
-
-pub(crate) fn read(path: &str) -> Result<String, InputError> {
-    std::fs::read_to_string(path).map_err(|e| InputError::Unreadable {
-        file: path.to_string(),
-        reason: e.to_string(),
-    })
 }
 
 /// The checks that read the market's own ranges and curves (rule files check their own keys
