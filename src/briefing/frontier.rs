@@ -8,7 +8,7 @@ use crate::compare::{finite_number, CompareResult};
 use crate::design::frontier::pareto;
 use crate::output::TextTable;
 use crate::plots::{frontier, FrontierPoint};
-use crate::units::group;
+use crate::units::{group, Units};
 
 /// Heading of the annex.
 pub const HEADING: &str = "Annex H: the designs by risk and cost";
@@ -41,19 +41,33 @@ pub fn section(r: &CompareResult, risk: &str, cost: &str) -> (Section, Vec<Figur
          the frontier is beaten on both by some design on it. Figures are the comparison's own (the \
          same shocks for every design)."
     ));
-    let mut table = TextTable::new(&["policy", risk, cost, "on the frontier"]);
+    // the two columns in the page's units and money scale, as the other tables print them
+    let units = Units::new(&r.price_unit, &r.quantity_unit);
+    let scale = super::tables::money_scale(r);
+    let kind = |key: &str| {
+        r.policies
+            .iter()
+            .flat_map(|p| p.indicators.iter())
+            .find(|i| i.key == key)
+            .map(|i| (i.label.clone(), i.kind.measure()))
+    };
+    let header = |key: &str| match kind(key) {
+        Some((label, Some(m))) => format!("{label} ({key}), {}", units.unit(m, &scale)),
+        Some((label, None)) => format!("{label} ({key})"),
+        None => key.to_string(),
+    };
+    let shown = |key: &str, v: f64| match (v.is_finite(), kind(key).and_then(|(_, m)| m)) {
+        (false, _) => "n/a".to_string(),
+        (true, Some(m)) => units.show(v, m, &scale),
+        (true, None) => group(v, 3),
+    };
+    let (risk_header, cost_header) = (header(risk), header(cost));
+    let mut table = TextTable::new(&["policy", &risk_header, &cost_header, "on the frontier"]);
     for (i, (name, (x, y))) in names.iter().zip(&points).enumerate() {
-        let shown = |v: f64| {
-            if v.is_finite() {
-                group(v, 3)
-            } else {
-                "n/a".to_string()
-            }
-        };
         table.push(vec![
             name.clone(),
-            shown(*x),
-            shown(*y),
+            shown(risk, *x),
+            shown(cost, *y),
             if front.contains(&i) { "yes" } else { "no" }.to_string(),
         ]);
     }
