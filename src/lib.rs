@@ -45,5 +45,6 @@ pub mod stability;
 pub mod stochastic;
 pub mod storage;
 pub mod sweep;
+pub mod trade;
 pub mod units;
 pub mod welfare;

@@ -75,6 +75,8 @@ pub struct Regimes<'a> {
     pub holding: Vec<RegimeCase>,
     /// The other regimes a shock can bring.
     pub secondary: Vec<RegimeCase>,
+    /// Border measures (free trade unless `[border]` sets them; they act on a trading market).
+    pub border: crate::trade::BorderMeasures,
 }
 
 impl Regimes<'_> {

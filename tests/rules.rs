@@ -22,6 +22,15 @@ fn veldmark() -> scenario::Scenario {
     .unwrap()
 }
 
+/// The Veldmark market with a border (world price 210, trade costs 20 each way), for the rules that
+/// act only on a market that trades.
+fn veldmark_trading() -> scenario::Scenario {
+    let path = format!("{}/examples/veldmark.toml", env!("CARGO_MANIFEST_DIR"));
+    let text = std::fs::read_to_string(&path).unwrap()
+        + "\n[trade]\nworld_price = 210.0\nimport_cost = 20.0\nexport_cost = 20.0\n";
+    scenario::market_from_str(&path, &text).unwrap()
+}
+
 /// Every variant of every registered rule, as a policy file.
 fn every_example() -> Vec<(&'static str, PolicySpec)> {
     let mut out = Vec::new();
@@ -36,10 +45,15 @@ fn every_example() -> Vec<(&'static str, PolicySpec)> {
 
 #[test]
 fn every_registered_rule_answers_every_behaviour() {
-    let market = veldmark();
+    let closed = veldmark();
+    let trading = veldmark_trading();
     let sections: Vec<&str> = SECTIONS.iter().map(|s| s.name).collect();
     assert!(sections.contains(&"ceiling"), "{sections:?}");
     for (name, p) in every_example() {
+        // border measures act only where the market trades, and defend no price of their own
+        // unless a variable levy sets a target
+        let border = name == "border";
+        let market = if border { &trading } else { &closed };
         let what = format!("[{name}] {}", p.rules[0].describe());
         assert_eq!(p.rules.len(), 1, "{what}");
         let rule = &p.rules[0];
@@ -62,14 +76,17 @@ fn every_registered_rule_answers_every_behaviour() {
         assert!(is_policy_section(name));
         // period engine: at least one period action, and the policy intervenes
         let compiled = policies::compile(&p);
-        assert!(!compiled.rules.is_empty(), "{what}: no period action");
+        assert!(
+            !compiled.rules.is_empty() || compiled.border != furrow::trade::BorderMeasures::FREE,
+            "{what}: no period action"
+        );
         assert!(p.intervenes());
         // storage: the rule changes the agency's plan
         let mut plan = StoragePlan::default();
         rule.storage(&mut plan).unwrap();
         assert_ne!(plan, StoragePlan::default(), "{what}: storage ignores it");
         // stability: the rule adds at least one regime besides the free market
-        let setup = Setup::new(&market, &p);
+        let setup = Setup::new(market, &p);
         let free = stability::free_price(&setup).unwrap();
         let cases = regimes::regimes(&setup, free, "kt").unwrap();
         assert!(
@@ -78,13 +95,21 @@ fn every_registered_rule_answers_every_behaviour() {
         );
         // description: a line, a reference price, and its table rows under its section's labels
         assert!(!rule.describe().is_empty());
-        assert!(rule.reference_price() > 0.0, "{what}");
-        assert!(!rule.price_lines().is_empty(), "{what}: no price line");
+        let levy = compiled.border.import_price_target.is_some();
+        if !border || levy {
+            assert!(rule.reference_price() > 0.0, "{what}");
+            assert!(!rule.price_lines().is_empty(), "{what}: no price line");
+        }
         let labels: Vec<&str> = rule.rows().iter().map(|r| r.label).collect();
         let absent: Vec<&str> = section.absent.iter().map(|(l, _)| *l).collect();
         assert_eq!(labels, absent, "{what}");
         // its check against the market it runs on
-        policies::file::policy_for_market(&market, &p).unwrap();
+        policies::file::policy_for_market(market, &p).unwrap();
+        if border {
+            // and it is refused on a closed market, naming its section
+            let e = policies::file::policy_for_market(&closed, &p).unwrap_err();
+            assert!(e.to_string().contains("[border]"), "{e}");
+        }
     }
 }
 

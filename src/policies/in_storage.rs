@@ -20,6 +20,8 @@ pub struct StoragePlan {
     pub planting_floor: f64,
     /// The producer price floor paid by deficiency payments, else 0.
     pub payment_floor: f64,
+    /// Border measures (free trade unless `[border]` sets them; they act on a trading market).
+    pub border: crate::trade::BorderMeasures,
 }
 
 impl StoragePlan {

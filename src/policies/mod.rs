@@ -38,6 +38,7 @@ macro_rules! trades_nothing {
     };
 }
 
+pub mod border;
 pub mod ceiling;
 pub mod clearing;
 pub mod file;
@@ -140,6 +141,9 @@ pub struct Policy {
     pub agency: Agency,
     /// Price above which a stock-out counts (the band's `sell_above`), if any.
     pub sell_above: Option<f64>,
+    /// Border measures (`[border]`; free trade without them). They act only on a market that
+    /// trades.
+    pub border: crate::trade::BorderMeasures,
 }
 
 impl Policy {
@@ -170,6 +174,7 @@ pub fn compile(spec: &PolicySpec) -> Policy {
         rules: build.actions.into_iter().map(|(_, a)| a).collect(),
         agency: build.agency,
         sell_above: build.sell_above,
+        border: build.border,
     }
 }
 

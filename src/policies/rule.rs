@@ -30,6 +30,8 @@ pub struct Build {
     pub agency: Agency,
     /// Price above which a stock-out counts, if any.
     pub sell_above: Option<f64>,
+    /// Border measures (free trade unless `[border]` sets them).
+    pub border: crate::trade::BorderMeasures,
 }
 
 /// Acting order within a period (the documented order): purchases defending a floor, the stock
@@ -151,6 +153,7 @@ pub const SECTIONS: &[RuleSection] = &[
     super::floor::SECTION,
     super::stock::SECTION,
     super::ceiling::SECTION,
+    super::border::SECTION,
 ];
 
 /// The registered section called `name`.

@@ -16,6 +16,7 @@ use crate::curves::{Curve, SteadyState};
 
 pub use crate::input::keys::{self, apply_override, parse_toml};
 pub use crate::input::InputError;
+pub use crate::trade::Trade;
 pub use households::HouseholdGroup;
 pub use validate::{load_market, market_from_str, market_from_str_with, market_from_table};
 
@@ -192,6 +193,9 @@ pub struct Scenario {
     pub shocks: ShockSpec,
     /// Private storers, when present.
     pub storers: Option<Storers>,
+    /// The border (`[trade]`), when the market trades; a market without it is closed.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub trade: Option<Trade>,
     /// The steady state of the free market (exists: checked when the file was read).
     pub steady: SteadyState,
     /// Household groups (`[[households]]`; empty when the file has none).

@@ -60,6 +60,12 @@ pub const RANGES: &[KeyRange] = &[
     r("storers.storage_cost", 0.0, BIG, false, false),
     r("storers.interest_rate", 0.0, 1.0, false, true),
     r("storers.loss_rate", 0.0, 1.0, false, true),
+    // the border
+    r("trade.world_price", 0.0, BIG, true, false),
+    r("trade.world_price_cv", 0.0, 2.0, false, false),
+    r("trade.world_price_persistence", -1.0, 1.0, true, true),
+    r("trade.import_cost", 0.0, BIG, false, false),
+    r("trade.export_cost", 0.0, BIG, false, false),
     // household groups (`[[households]]`, each group)
     noted(
         r("households.population_share", 0.0, 1.0, true, false),

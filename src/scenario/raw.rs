@@ -14,6 +14,7 @@ pub struct RawMarketFile {
     pub run: RawRun,
     pub shocks: RawShocks,
     pub storers: Option<RawStorers>,
+    pub trade: Option<RawTrade>,
     /// `[[households]]`: an array of tables, one per household group.
     pub households: Option<Vec<RawHousehold>>,
 }
@@ -85,6 +86,16 @@ pub struct RawStorers {
     pub loss_rate: Option<f64>,
 }
 
+#[derive(Debug, Clone, Default, Deserialize)]
+#[serde(default)]
+pub struct RawTrade {
+    pub world_price: Option<f64>,
+    pub world_price_cv: Option<f64>,
+    pub world_price_persistence: Option<f64>,
+    pub import_cost: Option<f64>,
+    pub export_cost: Option<f64>,
+}
+
 pub use crate::input::ValueType;
 use ValueType::*;
 
@@ -138,6 +149,16 @@ pub const MARKET_SCHEMA_AFTER: &[(&str, &[(&str, ValueType)])] = &[
             ("storage_cost", Number),
             ("interest_rate", Number),
             ("loss_rate", Number),
+        ],
+    ),
+    (
+        "trade",
+        &[
+            ("world_price", Number),
+            ("world_price_cv", Number),
+            ("world_price_persistence", Number),
+            ("import_cost", Number),
+            ("export_cost", Number),
         ],
     ),
     (

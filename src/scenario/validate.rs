@@ -395,6 +395,27 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
             })
         }
     };
+    let trade = match &raw.trade {
+        None => None,
+        Some(t) => Some(Trade {
+            world_price: c.within(
+                "trade.world_price",
+                t.world_price.ok_or_else(|| {
+                    c.missing(
+                        "trade.world_price",
+                        "a market with [trade] needs its world price",
+                    )
+                })?,
+            )?,
+            world_price_cv: c.within("trade.world_price_cv", t.world_price_cv.unwrap_or(0.0))?,
+            world_price_persistence: c.within(
+                "trade.world_price_persistence",
+                t.world_price_persistence.unwrap_or(0.0),
+            )?,
+            import_cost: c.within("trade.import_cost", t.import_cost.unwrap_or(0.0))?,
+            export_cost: c.within("trade.export_cost", t.export_cost.unwrap_or(0.0))?,
+        }),
+    };
     let households = households(&c, raw.households.as_deref().unwrap_or_default())?;
     Ok(Scenario {
         source: file.to_string(),
@@ -416,6 +437,7 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
         },
         shocks,
         storers,
+        trade,
         steady,
         households,
     })

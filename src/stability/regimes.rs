@@ -148,6 +148,7 @@ pub fn regimes(
         unit,
         holding: Vec::new(),
         secondary: Vec::new(),
+        border: crate::trade::BorderMeasures::FREE,
     };
     for rule in &setup.rules {
         rule.regimes(&mut r)?;

@@ -119,6 +119,15 @@ impl StorageMarket {
         let st = s.storers.ok_or_else(|| StorageError::NoStorers {
             file: s.source.clone(),
         })?;
+        if s.trade.is_some() {
+            return Err(StorageError::UnsupportedPolicy {
+                file: s.source.clone(),
+                key: "[trade]".into(),
+                reason: "the storage equilibrium does not yet cover a market that trades; remove \
+                         [trade] for a closed market"
+                    .into(),
+            });
+        }
         if s.shocks.demand_persistence != 0.0 && s.shocks.demand_sd > 0.0 {
             return Err(StorageError::PersistentDemand {
                 file: s.source.clone(),
