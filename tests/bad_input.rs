@@ -519,6 +519,7 @@ fn negative_consumption_is_divergence() {
         yield_factor: 1.0,
         supply: 0.0,
         demand: -20.0,
+        world_factor: 1.0,
     };
     let err = sim.step(&shock).unwrap_err();
     assert_eq!(err.period, 1);

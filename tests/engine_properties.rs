@@ -192,7 +192,7 @@ proptest! {
         let model = Model::new(&s, &pol);
         let shock_at = |t: usize| {
             let (y, sup, dem) = shocks[(t - 1) % shocks.len()];
-            PeriodShock { yield_factor: y, supply: sup * q_star, demand: dem * q_star }
+            PeriodShock { yield_factor: y, supply: sup * q_star, demand: dem * q_star, world_factor: 1.0 }
         };
         let mut sim = model.simulator();
         let mut prev = initial;
@@ -235,7 +235,7 @@ proptest! {
         let model = Model::new(&s, &pol);
         let mut sim = model.simulator();
         for (t, y) in shocks.iter().enumerate() {
-            let Ok(r) = sim.step(&PeriodShock { yield_factor: *y, supply: 0.0, demand: 0.0 }) else { break };
+            let Ok(r) = sim.step(&PeriodShock { yield_factor: *y, supply: 0.0, demand: 0.0, world_factor: 1.0 }) else { break };
             let limited = r.flags & (furrow::policies::flags::CAPACITY_FULL
                 | furrow::policies::flags::STOCK_OUT | furrow::policies::flags::BUDGET_BOUND) != 0;
             if !limited {

@@ -64,6 +64,7 @@ fn without_yield_risk_revenue_is_the_price_bit_for_bit() {
             yield_factor: 1.0,
             supply: 4.0 * z(t),
             demand: 3.0 * z(t + 7),
+            world_factor: 1.0,
         };
         for p in [PolicySpec::none(), floor.clone()] {
             let a = run(&market(&text, "price"), &p, shock);
@@ -90,6 +91,7 @@ fn rational_planting_on_revenue_with_linear_curves_is_the_closed_form() {
         yield_factor: yield_factor(cv, z(t)),
         supply: 0.0,
         demand: 0.0,
+        world_factor: 1.0,
     };
     let revenue = run(&market(&text, "revenue"), &PolicySpec::none(), shock);
     let price = run(&market(&text, "price"), &PolicySpec::none(), shock);
@@ -143,6 +145,7 @@ fn rational_planting_on_revenue_with_constant_elasticity_demand_matches_a_quadra
         yield_factor: yield_factor(cv, z(t)),
         supply: 0.0,
         demand: 0.0,
+        world_factor: 1.0,
     };
     let path = run(&market(&text, "revenue"), &PolicySpec::none(), shock);
     for r in &path {
@@ -167,6 +170,7 @@ fn backward_looking_rules_on_revenue_read_the_revenue_equivalent_price() {
         yield_factor: yield_factor(cv, z(t)),
         supply: 0.0,
         demand: 0.0,
+        world_factor: 1.0,
     };
     let path = run(&market(text, "revenue"), &PolicySpec::none(), shock);
     assert_eq!(path[0].expected_price, 90.0);
@@ -242,6 +246,7 @@ fn engine_and_storage_agree_on_revenue_planting_when_storage_is_prohibitive() {
         yield_factor: yield_factor(cv, z(t)),
         supply: 0.0,
         demand: 0.0,
+        world_factor: 1.0,
     };
     let path = Model::new(&s, &PolicySpec::none()).run(20, shock).unwrap();
     for r in &path {

@@ -136,7 +136,7 @@ pub fn comparison_figures(
     }
     let specs: Vec<&PolicySpec> = cols.iter().map(|(_, p)| p).collect();
     let mut figs = figures::path_figures(scenario, &specs, &digests);
-    if scenario.shocks.is_deterministic() {
+    if scenario.is_deterministic() {
         for (i, ((_, p), d)) in cols.iter().zip(&digests).enumerate() {
             figs.push(figures::cobweb_figure(
                 scenario,
@@ -180,7 +180,7 @@ pub fn build_with_households(
             "Monte Carlo, {} replications of {} seasons, seed {}",
             r.replications, r.periods, r.seed
         )
-    } else if s.shocks.is_deterministic() {
+    } else if s.is_deterministic() {
         "one deterministic path".to_string()
     } else {
         format!("one simulated weather path, seed {}", s.run.seed)
@@ -261,7 +261,7 @@ pub fn build_with_households(
         &figs,
         &["price_paths", "harvest_paths", "cobweb*"],
     );
-    if !s.shocks.is_deterministic() {
+    if !s.is_deterministic() {
         paths.note("No cobweb diagrams: under random weather one path's staircase is a tangle; the fan charts under Risk show the spread instead.");
     }
 

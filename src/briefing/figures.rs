@@ -95,7 +95,7 @@ pub fn path_figures(
     } else {
         String::new()
     };
-    let shocks = if scenario.shocks.is_deterministic() {
+    let shocks = if scenario.is_deterministic() {
         "no shocks".to_string()
     } else {
         format!("one simulated weather path (seed {})", scenario.run.seed)

@@ -53,7 +53,7 @@ pub fn execute(args: &CompareArgs) -> anyhow::Result<()> {
         .iter()
         .map(|p| load_policy(Some(p), &scenario))
         .collect::<anyhow::Result<Vec<_>>>()?;
-    if scenario.shocks.is_deterministic() && scenario.run.replications > 1 {
+    if scenario.is_deterministic() && scenario.run.replications > 1 {
         say("the market has no shocks: every replication is the same path");
     }
     // compare keeps two per-period series (price and stock) for its fan charts

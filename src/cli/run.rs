@@ -70,7 +70,7 @@ pub fn execute(args: &RunArgs) -> anyhow::Result<()> {
     let mut tally = None;
     let written = write_streamed(&out, |w| {
         // the header goes out with the first row (after the library's first walk), or at the end
-        let mut table = PathStream::new(common.format);
+        let mut table = PathStream::new(common.format).trading(scenario.trade.is_some());
         let mut started = false;
         let walked = path::stream_path(&scenario, &policy, divergence, |r| {
             if !started {

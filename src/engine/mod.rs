@@ -14,13 +14,14 @@ mod rational;
 mod record;
 
 pub use path::{PathModel, Stepper};
-pub use record::{PeriodRecord, Settled};
+pub use record::{PeriodRecord, Settled, TradeRecord};
 
 use crate::curves::Curve;
 use crate::expectations::{self, ExpectationInput, ExpectationRule};
 use crate::policies::PolicySpec;
 use crate::policies::{self, Clearing, Policy};
 use crate::scenario::{Scenario, ShockSpec};
+use crate::trade::{BorderMeasures, Trade, Traded};
 
 /// The shocks that hit one period.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -31,6 +32,8 @@ pub struct PeriodShock {
     pub supply: f64,
     /// Additive demand shock (already including its AR(1) part).
     pub demand: f64,
+    /// Multiplicative world-price factor (mean 1; 1 for a closed market or a fixed world price).
+    pub world_factor: f64,
 }
 
 impl PeriodShock {
@@ -39,6 +42,7 @@ impl PeriodShock {
         yield_factor: 1.0,
         supply: 0.0,
         demand: 0.0,
+        world_factor: 1.0,
     };
 }
 
@@ -87,6 +91,9 @@ pub struct Model {
     /// P^e = E[producer price · Y] (E[Y] = 1) and backward-looking rules read the revenue-equivalent
     /// price P_t·Y_t instead of P_t (docs/storage.md, "Planting on revenue").
     revenue: bool,
+    /// The market's border (`[trade]`; None: closed) and the policy's border measures.
+    trade: Option<Trade>,
+    measures: BorderMeasures,
 }
 
 impl Model {
@@ -96,6 +103,7 @@ impl Model {
         let rule = expectations::build(&spec);
         let compiled = policies::compile(policy);
         let compiled_floor = compiled.planting_floor();
+        let compiled_border = compiled.border;
         let has_payments = compiled.rules.iter().any(|r| r.pays());
         let is_rational = rule.is_rational();
         let adaptive = rule.as_adaptive();
@@ -107,6 +115,9 @@ impl Model {
             .sell_above
             .map_or(f64::INFINITY, |s| s * (1.0 + 1e-12));
         let mut reference = scenario.steady.price.max(scenario.run.initial_price);
+        if let Some(t) = &scenario.trade {
+            reference = reference.max(t.world_price + t.import_cost);
+        }
         for p in &scenario.run.price_history {
             reference = reference.max(*p);
         }
@@ -138,6 +149,8 @@ impl Model {
             stockout_above,
             adaptive,
             revenue: scenario.market.plants_on == crate::scenario::PlantsOn::Revenue,
+            trade: scenario.trade,
+            measures: compiled_border,
         }
     }
 
@@ -162,6 +175,9 @@ impl Model {
         let planted = self.supply.quantity(planting_price);
         let harvest = (planted * shock.yield_factor + shock.supply).max(0.0);
         let agency = &self.policy.agency;
+        if let Some(trade) = &self.trade {
+            return self.clear_open(trade, planted, harvest, shock, carried);
+        }
         let market = || {
             Clearing::new(
                 &self.demand,
@@ -186,6 +202,45 @@ impl Model {
         self.settle(planted, harvest, &m)
     }
 
+    /// [`Model::clear`] on a market that trades: the period's border terms at its world price, the
+    /// rules trading on the kinked curve, then private trade.
+    #[inline(never)]
+    fn clear_open(
+        &self,
+        trade: &Trade,
+        planted: f64,
+        harvest: f64,
+        shock: &PeriodShock,
+        carried: f64,
+    ) -> Cleared {
+        let agency = &self.policy.agency;
+        let world = trade.world_price_at(shock.world_factor);
+        let terms = trade.terms(world, &self.measures);
+        let mut m = Clearing::new(
+            &self.demand,
+            shock.demand,
+            harvest,
+            carried,
+            agency.capacity,
+            agency.purchase_budget,
+        )
+        .with_border(terms);
+        for rule in &self.policy.rules {
+            rule.trade(&mut m);
+        }
+        let traded = m.traded();
+        let mut c = self.settle_at(planted, harvest, &m, traded.price);
+        c.trade = Some(TradeRecord {
+            world_price: world,
+            imports: traded.imports,
+            exports: traded.exports,
+            border_revenue: terms.receipts(&traded),
+            quota_rent: terms.quota_rent(&traded),
+        });
+        c.traded = traded;
+        c
+    }
+
     /// The treasury's payments to consumers at market price `price` and consumption `consumption`.
     #[inline]
     fn consumer_payments(&self, price: f64, consumption: f64) -> f64 {
@@ -199,7 +254,12 @@ impl Model {
     /// The cleared period once the rules have traded on `m`: the price, then the payment rules.
     #[inline(always)]
     fn settle(&self, planted: f64, harvest: f64, m: &Clearing) -> Cleared {
-        let price = m.price();
+        self.settle_at(planted, harvest, m, m.price())
+    }
+
+    /// [`Model::settle`] at the period's clearing price `price`.
+    #[inline(always)]
+    fn settle_at(&self, planted: f64, harvest: f64, m: &Clearing, price: f64) -> Cleared {
         let mut producer_price = price;
         let mut deficiency = 0.0;
         if self.has_payments {
@@ -218,6 +278,12 @@ impl Model {
             stock: m.stock(),
             deficiency,
             flags: m.flags,
+            trade: None,
+            traded: Traded {
+                price,
+                imports: 0.0,
+                exports: 0.0,
+            },
         }
     }
 }
@@ -261,6 +327,19 @@ fn negative_consumption(consumption: f64, purchases: f64) -> String {
     )
 }
 
+/// Why an unbounded purchase ends a run (built only when it happens).
+#[cold]
+fn unbounded_purchase(c: &Cleared) -> String {
+    let world = c.trade.map_or(0.0, |t| t.world_price);
+    format!(
+        "the agency defends a price above import parity (world price {}) with neither \
+         capacity nor purchase budget: it would buy every unit traders bring in (limit
+         stock.capacity or stock.purchase_budget, lower floor.price or stock.buy_below, or raise \
+         trade.world_price or trade.import_cost)",
+        crate::scenario::ranges::short_num(world)
+    )
+}
+
 /// The outcome of clearing one period.
 #[derive(Debug, Clone, Copy)]
 pub(crate) struct Cleared {
@@ -273,6 +352,10 @@ pub(crate) struct Cleared {
     pub stock: f64,
     pub deficiency: f64,
     pub flags: u16,
+    /// Private trade (None for a closed market).
+    pub trade: Option<TradeRecord>,
+    /// The price with private trade, imports and exports (no trade for a closed market).
+    pub traded: Traded,
 }
 
 /// Steps a [`Model`] forward one period at a time.
@@ -371,6 +454,9 @@ impl<'m> Simulator<'m> {
             )));
         }
         let c = model.clear(planting, shock, carried);
+        if c.flags & crate::policies::flags::UNBOUNDED != 0 {
+            return Err(diverged(unbounded_purchase(&c)));
+        }
         if c.planted <= 0.0 {
             return Err(diverged(format!(
                 "farmers plant nothing at the expected price {}",
@@ -380,14 +466,18 @@ impl<'m> Simulator<'m> {
         if c.harvest <= 0.0 {
             return Err(diverged("the harvest fell to zero".into()));
         }
+        let consumption = if c.trade.is_some() {
+            c.harvest - c.purchases + c.releases + c.traded.imports - c.traded.exports
+        } else {
+            c.harvest - c.purchases + c.releases
+        };
         if !(c.price > 0.0 && c.price <= model.price_bound) {
             return Err(diverged(price_failure(
                 c.price,
-                c.harvest - c.purchases + c.releases,
+                consumption,
                 model.price_bound,
             )));
         }
-        let consumption = c.harvest - c.purchases + c.releases;
         if consumption < 0.0 {
             return Err(diverged(negative_consumption(consumption, c.purchases)));
         }
@@ -422,6 +512,10 @@ impl<'m> Simulator<'m> {
             &model.demand,
             &model.supply,
         );
+        let record = match c.trade {
+            Some(trade) => record.with_trade(trade),
+            None => record,
+        };
         // advance the state
         self.previous = Some(rule_expectation);
         self.stock = c.stock;

@@ -86,6 +86,7 @@ pub(crate) fn solve(
                     yield_factor: y,
                     supply: s,
                     demand: mean_demand + d,
+                    world_factor: 1.0,
                 };
                 let paid = model.clear(planting, &shock, carried).producer_price;
                 // on revenue: E[P·Y] (E[Y] = 1); without yield risk y = 1 and this is w·P exactly

@@ -58,9 +58,63 @@ pub struct PeriodRecord {
     /// The price was above `sell_above` while the agency had no stock.
     #[serde(skip)]
     pub stockout: bool,
+    /// Private trade across the border (None for a closed market, whose record and output carry
+    /// no trade columns at all).
+    #[serde(flatten, skip_serializing_if = "Option::is_none")]
+    pub trade: Option<TradeRecord>,
+}
+
+/// One period of private trade across the border.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct TradeRecord {
+    /// The period's world price W_t.
+    pub world_price: f64,
+    /// Private imports M_t.
+    pub imports: f64,
+    /// Private exports X_t (never both imports and exports).
+    pub exports: f64,
+    /// Treasury receipts from the border: import duties and levies on M_t plus export taxes on
+    /// X_t (a receipt: it lowers the fiscal cost).
+    pub border_revenue: f64,
+    /// Quota rents to the traders holding licences, (P_t − import parity)·M_t or (export parity −
+    /// P_t)·X_t when a quota binds (domestic traders' income, counted in net welfare).
+    pub quota_rent: f64,
 }
 
 impl PeriodRecord {
+    /// Private imports (0 in a closed market).
+    #[inline]
+    pub fn imports(&self) -> f64 {
+        self.trade.map_or(0.0, |t| t.imports)
+    }
+
+    /// Private exports (0 in a closed market).
+    #[inline]
+    pub fn exports(&self) -> f64 {
+        self.trade.map_or(0.0, |t| t.exports)
+    }
+
+    /// Border receipts: duties, levies and export taxes (0 in a closed market).
+    #[inline]
+    pub fn border_revenue(&self) -> f64 {
+        self.trade.map_or(0.0, |t| t.border_revenue)
+    }
+
+    /// Quota rents to traders (0 in a closed market).
+    #[inline]
+    pub fn quota_rent(&self) -> f64 {
+        self.trade.map_or(0.0, |t| t.quota_rent)
+    }
+
+    /// This record with the period's private trade: the trade columns, and the border receipts
+    /// taken off the fiscal cost (a treasury receipt on its own line, `border_revenue`).
+    #[inline]
+    pub fn with_trade(mut self, trade: TradeRecord) -> PeriodRecord {
+        self.fiscal_cost -= trade.border_revenue;
+        self.trade = Some(trade);
+        self
+    }
+
     /// The agency bought or a deficiency payment was made.
     pub fn floor_binding(&self) -> bool {
         self.purchases > 0.0 || self.deficiency_payments > 0.0
@@ -169,6 +223,7 @@ impl PeriodRecord {
             rotated: s.rotated,
             flags: bits,
             stockout: s.stockout,
+            trade: None,
         }
     }
 }

@@ -91,7 +91,7 @@ pub fn measure(
     let (eps_s, eps_d) = elasticities(scenario);
     let (w, pv_factor) = weights(scenario, mc.periods);
     let risk = |g: &HouseholdGroup| -> Option<f64> {
-        if scenario.shocks.is_deterministic() {
+        if scenario.is_deterministic() {
             return Some(0.0); // every weather draw is the same path: no price risk
         }
         if mc.replications < 2 {

@@ -10,7 +10,7 @@ pub mod render;
 mod summary;
 
 pub use diagnose::{diagnose, diagnose_tally, floor_warning, summarise, PathTally};
-pub use render::{render_path, PathStream, RUN_COLUMNS};
+pub use render::{render_path, PathStream, RUN_COLUMNS, RUN_COLUMNS_TRADE};
 pub use summary::{render_summary, run_summary, SUMMARY_VARIABLES};
 
 use crate::engine::{Diverged, Model, PathModel, PeriodRecord, PeriodShock, Stepper};
@@ -145,8 +145,8 @@ pub fn walk<M: PathModel>(
     scenario: &Scenario,
     mut row: impl FnMut(&PeriodRecord) -> std::io::Result<()>,
 ) -> Result<PathTally, RunError> {
-    let mut stream = (!scenario.shocks.is_deterministic())
-        .then(|| ShockStream::new(&scenario.shocks, scenario.run.seed, 0));
+    let mut stream = (!scenario.is_deterministic())
+        .then(|| ShockStream::for_scenario(scenario, 0));
     let mut stepper = model.start();
     let mut tally = PathTally::default();
     for _ in 0..scenario.run.periods {

@@ -28,6 +28,53 @@ pub const RUN_COLUMNS: &[&str] = &[
     "acted",
 ];
 
+/// Columns of the one-path table of a market that trades: [`RUN_COLUMNS`] with `world_price`,
+/// `imports`, `exports` after `price` and the border's fiscal line and quota rents before `acted`.
+pub const RUN_COLUMNS_TRADE: &[&str] = &[
+    "period",
+    "expected_price",
+    "harvest",
+    "price",
+    "world_price",
+    "imports",
+    "exports",
+    "producer_price",
+    "consumption",
+    "purchases",
+    "releases",
+    "stock",
+    "fiscal_cost",
+    "consumer_surplus",
+    "producer_surplus",
+    "planted",
+    "purchase_cost",
+    "sales_revenue",
+    "storage_cost",
+    "financing_cost",
+    "handling_cost",
+    "deficiency_payments",
+    "border_revenue",
+    "quota_rent",
+    "acted",
+];
+
+/// Columns the terminal table shows of a market that trades.
+const TABLE_COLUMNS_TRADE: &[&str] = &[
+    "period",
+    "expected_price",
+    "harvest",
+    "price",
+    "world_price",
+    "imports",
+    "exports",
+    "producer_price",
+    "purchases",
+    "releases",
+    "stock",
+    "fiscal_cost",
+    "acted",
+];
+
 /// Columns the terminal table shows (the full set goes to CSV, Markdown and JSON).
 const TABLE_COLUMNS: &[&str] = &[
     "period",
@@ -64,6 +111,11 @@ fn cell(r: &PeriodRecord, col: &str, full: bool) -> String {
         "financing_cost" => f(r.financing_cost),
         "handling_cost" => f(r.handling_cost),
         "deficiency_payments" => f(r.deficiency_payments),
+        "world_price" => r.trade.map_or(String::new(), |t| f(t.world_price)),
+        "imports" => f(r.imports()),
+        "exports" => f(r.exports()),
+        "border_revenue" => f(r.border_revenue()),
+        "quota_rent" => f(r.quota_rent()),
         "acted" => r.acted(),
         _ => String::new(),
     }
@@ -87,10 +139,12 @@ pub fn render_path(records: &[PeriodRecord], format: Format) -> String {
             serde_json::to_string_pretty(&rows).unwrap_or_default() + "\n"
         }
         f => {
-            let cols = if f == Format::Table {
-                TABLE_COLUMNS
-            } else {
-                RUN_COLUMNS
+            let trading = records.first().is_some_and(|r| r.trade.is_some());
+            let cols = match (f == Format::Table, trading) {
+                (true, false) => TABLE_COLUMNS,
+                (true, true) => TABLE_COLUMNS_TRADE,
+                (false, false) => RUN_COLUMNS,
+                (false, true) => RUN_COLUMNS_TRADE,
             };
             let full = f == Format::Csv;
             let mut t = TextTable::new(cols);
@@ -108,6 +162,7 @@ pub fn render_path(records: &[PeriodRecord], format: Format) -> String {
 pub struct PathStream {
     format: Format,
     first: bool,
+    columns: &'static [&'static str],
 }
 
 impl PathStream {
@@ -116,12 +171,24 @@ impl PathStream {
         PathStream {
             format,
             first: true,
+            columns: RUN_COLUMNS,
         }
+    }
+
+    /// This stream for a market that trades (`trading`: the trade columns, [`RUN_COLUMNS_TRADE`])
+    /// or a closed one ([`RUN_COLUMNS`]).
+    pub fn trading(mut self, trading: bool) -> PathStream {
+        self.columns = if trading {
+            RUN_COLUMNS_TRADE
+        } else {
+            RUN_COLUMNS
+        };
+        self
     }
 
     /// What comes before the first row.
     pub fn header(&self) -> String {
-        let cols: Vec<String> = RUN_COLUMNS.iter().map(|c| c.to_string()).collect();
+        let cols: Vec<String> = self.columns.iter().map(|c| c.to_string()).collect();
         match self.format {
             Format::Json => "[".into(),
             Format::Markdown => {
@@ -143,7 +210,7 @@ impl PathStream {
             }
             f => {
                 let full = f != Format::Markdown;
-                let cells: Vec<String> = RUN_COLUMNS.iter().map(|c| cell(r, c, full)).collect();
+                let cells: Vec<String> = self.columns.iter().map(|c| cell(r, c, full)).collect();
                 if full {
                     csv_row(&cells)
                 } else {

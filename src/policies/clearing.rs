@@ -1,8 +1,15 @@
 //! One period's market under agency trade: the harvest, the agency's stock, and the trades that
 //! policy rules make on it. Every trade keeps consumption C = Q − X + R and the stock
 //! S = carried + X − R exact by construction; all trades happen at the period's clearing price.
+//!
+//! On a market that trades ([`Clearing::with_border`]) the agency trades first on the kinked curve
+//! of private trade ([`BorderTerms`]): a rule that buys to hold the price up counts what traders
+//! export at export parity (an agency buying below export parity never buys: traders export
+//! first), a rule that sells to hold the price down counts what they import at import parity; then
+//! private trade clears what the agency leaves, C = Q − X + R + M − X_p.
 
 use crate::curves::Curve;
+use crate::trade::{BorderTerms, Traded};
 
 /// Bit flags saying which rule acted and what went wrong in a period.
 pub mod flags {
@@ -30,6 +37,9 @@ pub mod flags {
     pub const BUDGET_BOUND: u16 = 1 << 9;
     /// A sale was cut short because the stock ran out.
     pub const STOCK_OUT: u16 = 1 << 10;
+    /// A purchase had no bound: the defended price is above import parity and neither capacity
+    /// nor budget limits the agency (the engine reports the run as diverging).
+    pub const UNBOUNDED: u16 = 1 << 12;
 
     /// Names of the "acted" flags, in the order they are printed.
     pub const ACTED_NAMES: &[(u16, &str)] = &[
@@ -91,6 +101,10 @@ pub struct Clearing<'a> {
     /// The price before any trade, D⁻¹(Q − shift), computed once (rules and the engine ask for it
     /// repeatedly while nothing has been traded).
     untraded_price: f64,
+    /// The period's border ([`BorderTerms::CLOSED`] for a closed market) and whether trade can
+    /// happen at all (false: every method takes the closed market's arithmetic exactly).
+    border: BorderTerms,
+    trades: bool,
 }
 
 impl<'a> Clearing<'a> {
@@ -114,10 +128,54 @@ impl<'a> Clearing<'a> {
             releases: 0.0,
             flags: 0,
             untraded_price: demand.price_at(harvest - demand_shift),
+            border: BorderTerms::CLOSED,
+            trades: false,
         }
     }
 
-    /// Consumption C = Q − X + R.
+    /// This market open to private trade on `border` (a closed border leaves it closed).
+    #[inline]
+    pub fn with_border(mut self, border: BorderTerms) -> Self {
+        self.trades = !border.is_closed();
+        self.border = border;
+        self
+    }
+
+    /// The period's border terms ([`BorderTerms::CLOSED`] for a closed market).
+    #[inline]
+    pub fn border(&self) -> &BorderTerms {
+        &self.border
+    }
+
+    /// Private trade on what the agency leaves in the market: the clearing price, imports and
+    /// exports (no trade and the closed market's price when the market is closed).
+    #[inline]
+    pub fn traded(&self) -> Traded {
+        let supply = self.consumption();
+        let untraded = self.price_before_trade(supply);
+        if !self.trades {
+            return Traded {
+                price: untraded,
+                imports: 0.0,
+                exports: 0.0,
+            };
+        }
+        self.border
+            .clear_from(self.demand, self.demand_shift, supply, untraded)
+    }
+
+    /// The price at which `supply` (= self.consumption()) clears without private trade.
+    #[inline]
+    fn price_before_trade(&self, supply: f64) -> f64 {
+        if self.purchases == 0.0 && self.releases == 0.0 {
+            self.untraded_price
+        } else {
+            self.price_if_consumption(supply)
+        }
+    }
+
+    /// What the agency leaves in the market, Q − X + R (consumption in a closed market; private
+    /// trade adds M − X_p to it in an open one, see [`Clearing::traded`]).
     ///
     /// A zero trade is left out of the sum rather than added: the result is the same number
     /// (Q − 0 = Q exactly, and (Q − X) + 0 = Q − X exactly when X > 0), one or two dependent
@@ -133,9 +191,13 @@ impl<'a> Clearing<'a> {
         }
     }
 
-    /// Clearing price P = D⁻¹(C) of the shifted demand curve.
+    /// Clearing price P = D⁻¹(C) of the shifted demand curve (after private trade in an open
+    /// market).
     #[inline]
     pub fn price(&self) -> f64 {
+        if self.trades {
+            return self.traded().price;
+        }
         if self.purchases == 0.0 && self.releases == 0.0 {
             // the same value as below: consumption() is exactly the harvest when nothing is traded
             self.untraded_price
@@ -155,6 +217,30 @@ impl<'a> Clearing<'a> {
         self.demand.quantity_unclamped(p) + self.demand_shift
     }
 
+    /// The most the agency may leave in the market with the price still at least `p`: what
+    /// consumers take at `p`, plus exports when traders export at `p` (closed: D(p) + shift).
+    #[inline]
+    fn most_left_at_least(&self, p: f64) -> f64 {
+        if self.trades {
+            self.border
+                .most_supply_at_least(self.demand, self.demand_shift, p)
+        } else {
+            self.demanded_at(p)
+        }
+    }
+
+    /// The least the agency must leave in the market for the price to be at most `p`: what
+    /// consumers take at `p`, less imports when traders import at `p` (closed: D(p) + shift).
+    #[inline]
+    fn least_left_at_most(&self, p: f64) -> f64 {
+        if self.trades {
+            self.border
+                .least_supply_at_most(self.demand, self.demand_shift, p)
+        } else {
+            self.demanded_at(p)
+        }
+    }
+
     /// End-of-period stock S = carried + X − R.
     #[inline]
     pub fn stock(&self) -> f64 {
@@ -164,7 +250,7 @@ impl<'a> Clearing<'a> {
     /// Buys until the price reaches `target`, within capacity and budget. Returns the amount bought.
     #[inline]
     pub fn buy_to(&mut self, target: f64, acted: u16) -> f64 {
-        let excess = self.consumption() - self.demanded_at(target);
+        let excess = self.consumption() - self.most_left_at_least(target);
         if excess <= 1e-12 * self.harvest.max(1.0) {
             return 0.0;
         }
@@ -186,6 +272,13 @@ impl<'a> Clearing<'a> {
         if self.budget.is_finite() {
             amount = self.within_budget(amount);
         }
+        if !amount.is_finite() {
+            // no capacity and no budget bound a purchase that trade refills without end (a
+            // defended price above import parity): leave the market as it is and let the engine
+            // report it (see `Clearing::unbounded`)
+            self.flags |= flags::UNBOUNDED;
+            return 0.0;
+        }
         if amount <= 0.0 {
             return 0.0;
         }
@@ -197,14 +290,26 @@ impl<'a> Clearing<'a> {
     /// `amount` cut so that the period's spending P(X)·X stays within the budget.
     #[inline]
     fn within_budget(&mut self, amount: f64) -> f64 {
-        let (amount, bound) = budget_cut(
-            self.demand,
-            self.demand_shift,
-            self.harvest + self.releases,
-            self.budget,
-            self.purchases,
-            amount,
-        );
+        let (amount, bound) = if self.trades {
+            budget_cut_open(
+                self.demand,
+                self.demand_shift,
+                &self.border,
+                self.harvest + self.releases,
+                self.budget,
+                self.purchases,
+                amount,
+            )
+        } else {
+            budget_cut(
+                self.demand,
+                self.demand_shift,
+                self.harvest + self.releases,
+                self.budget,
+                self.purchases,
+                amount,
+            )
+        };
         if bound {
             self.flags |= flags::BUDGET_BOUND;
         }
@@ -214,7 +319,7 @@ impl<'a> Clearing<'a> {
     /// Sells until the price falls to `target`, as far as the stock allows. Returns the amount sold.
     #[inline]
     pub fn sell_to(&mut self, target: f64, acted: u16) -> f64 {
-        let shortfall = self.demanded_at(target) - self.consumption();
+        let shortfall = self.least_left_at_most(target) - self.consumption();
         if shortfall <= 1e-12 * self.harvest.max(1.0) {
             return 0.0;
         }
@@ -227,13 +332,13 @@ impl<'a> Clearing<'a> {
 
     /// Sells `want` but never so much that the price falls below `not_below`. Returns the amount sold.
     pub fn sell_at_most(&mut self, want: f64, not_below: f64, acted: u16) -> f64 {
-        let room = (self.demanded_at(not_below) - self.consumption()).max(0.0);
+        let room = (self.most_left_at_least(not_below) - self.consumption()).max(0.0);
         self.sell(want.min(room), acted)
     }
 
     /// Buys `want` but never so much that the price rises above `not_above`. Returns the amount bought.
     pub fn buy_at_most(&mut self, want: f64, not_above: f64, acted: u16) -> f64 {
-        let room = (self.consumption() - self.demanded_at(not_above)).max(0.0);
+        let room = (self.consumption() - self.least_left_at_most(not_above)).max(0.0);
         self.buy(want.min(room), acted)
     }
 
@@ -247,6 +352,37 @@ impl<'a> Clearing<'a> {
         self.flags |= acted;
         amount
     }
+}
+
+/// [`budget_cut`] on an open market: the clearing price after private trade on `border`.
+#[inline(never)]
+fn budget_cut_open(
+    demand: &Curve,
+    shift: f64,
+    border: &BorderTerms,
+    supply_left: f64,
+    budget: f64,
+    before: f64,
+    amount: f64,
+) -> (f64, bool) {
+    let total = before + amount;
+    // spending P(X)·X at the price after private trade; non-decreasing in X
+    let spend = |x: f64| x * border.clear(demand, shift, supply_left - x).price;
+    if !total.is_finite() || spend(total) > budget {
+        if spend(before) >= budget {
+            return (0.0, true);
+        }
+        // with unlimited imports at parity the spending is at most X·import parity: bracket there
+        let mut hi = if total.is_finite() { total } else { before.max(1.0) };
+        while spend(hi) <= budget && hi.is_finite() {
+            hi *= 2.0;
+        }
+        let solved =
+            crate::numeric::brent(|x| spend(x) - budget, before, hi, 1e-12 * hi.max(1.0))
+                .unwrap_or(before);
+        return (solved - before, true);
+    }
+    (amount, false)
 }
 
 /// `total + amount` for a trade `amount` > 0; the first trade of the period is assigned, since

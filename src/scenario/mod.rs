@@ -202,3 +202,11 @@ pub struct Scenario {
     #[serde(skip_serializing_if = "Vec::is_empty")]
     pub households: Vec<HouseholdGroup>,
 }
+
+impl Scenario {
+    /// True when nothing random happens: no weather or demand shock and no varying world price
+    /// (a market whose only randomness is the world price is stochastic).
+    pub fn is_deterministic(&self) -> bool {
+        self.shocks.is_deterministic() && self.trade.is_none_or(|t| t.world_price_cv == 0.0)
+    }
+}
