@@ -156,6 +156,13 @@ pub struct WelfarePv {
     pub opening_stock_cost: f64,
     /// Value of the agency stock left at T, discounted (per `terminal_stock`).
     pub terminal_stock_value: f64,
+    /// Border receipts (import duties and levies, export taxes; a receipt, already taken off
+    /// `fiscal_cost`). 0 for a closed market.
+    #[serde(skip)]
+    pub border_revenue: f64,
+    /// Quota rents to domestic traders (counted in [`WelfarePv::net`]). 0 for a closed market.
+    #[serde(skip)]
+    pub quota_rent: f64,
 }
 
 impl WelfarePv {
@@ -166,9 +173,16 @@ impl WelfarePv {
 
     /// Consumer + producer surplus − λ·(fiscal cost − terminal stock value), the
     /// level whose difference against the market left alone is the net welfare change; λ is the
-    /// marginal cost of public funds (1 = none).
+    /// marginal cost of public funds (1 = none). On a market that trades, the quota rents go to
+    /// domestic traders and count too (the fiscal cost already has the border receipts off).
     pub fn net(&self, public_funds_cost: f64) -> f64 {
-        self.consumer_surplus + self.producer_surplus - public_funds_cost * self.net_fiscal()
+        let net =
+            self.consumer_surplus + self.producer_surplus - public_funds_cost * self.net_fiscal();
+        if self.quota_rent != 0.0 {
+            net + self.quota_rent
+        } else {
+            net
+        }
     }
 
     /// Item-by-item difference `self − base`.
@@ -185,6 +199,8 @@ impl WelfarePv {
             deficiency_payments: self.deficiency_payments - base.deficiency_payments,
             opening_stock_cost: self.opening_stock_cost - base.opening_stock_cost,
             terminal_stock_value: self.terminal_stock_value - base.terminal_stock_value,
+            border_revenue: self.border_revenue - base.border_revenue,
+            quota_rent: self.quota_rent - base.quota_rent,
         }
     }
 }
@@ -219,6 +235,10 @@ impl WelfareFold {
         pv.financing_cost += f * financing;
         pv.handling_cost += f * r.handling_cost;
         pv.deficiency_payments += f * r.deficiency_payments;
+        if let Some(t) = &r.trade {
+            pv.border_revenue += f * t.border_revenue;
+            pv.quota_rent += f * t.quota_rent;
+        }
         self.last_price = r.price;
         self.last_stock = r.stock;
         self.last_period = r.period;

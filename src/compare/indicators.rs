@@ -41,6 +41,11 @@
 //!   changes the sd of the paired differences. `risk_adjusted_net_welfare_change_pv_se` is that of
 //!   the net welfare change (the premium's own sampling error is not included).
 //! - `spectral_radius`, `verdict`: from the stability analysis (null / "n/a" when unavailable).
+//! - markets with `[trade]` only: `imports_mean`, `exports_mean` (private imports and exports per
+//!   season, mean over replications of each replication's mean), `import_season_share`,
+//!   `export_season_share` (share of seasons with imports, with exports), `border_revenue_pv`
+//!   (duties, levies and export taxes, a treasury receipt already off `fiscal_cost_pv`) and
+//!   `quota_rent_pv` (rents to domestic traders, counted in `net_welfare_change_pv`).
 //! - markets with `[storers]` only: `private_stock_mean`, `public_stock_mean` (long-run means along one
 //!   long path of the solved storage equilibrium, after burn-in) and `crowding_out` = (mean private
 //!   stock without the policy − with it) / mean public stock with it (null when the agency holds none).
@@ -70,7 +75,7 @@ const ALERT_KEYS: [&str; MAX_ALERTS] = [
 pub fn indicator_keys() -> Vec<String> {
     let mut keys = Vec::new();
     for (key, _, _, se) in SPECS {
-        if *key == "alerts" || STORAGE_KEYS.contains(key) {
+        if *key == "alerts" || STORAGE_KEYS.contains(key) || TRADE_KEYS.contains(key) {
             continue;
         }
         keys.push(key.to_string());
@@ -170,6 +175,30 @@ const SPECS: &[(&str, &str, Kind, bool)] = &[
         Kind::Quantity,
         true,
     ),
+    (
+        "imports_mean",
+        "Private imports per season (mean)",
+        Kind::Quantity,
+        true,
+    ),
+    (
+        "exports_mean",
+        "Private exports per season (mean)",
+        Kind::Quantity,
+        true,
+    ),
+    (
+        "import_season_share",
+        "Share of seasons with imports",
+        Kind::Share,
+        true,
+    ),
+    (
+        "export_season_share",
+        "Share of seasons with exports",
+        Kind::Share,
+        true,
+    ),
     ("fiscal_cost_pv", "Fiscal cost, PV", Kind::Money, true),
     (
         "purchase_cost_pv",
@@ -204,6 +233,18 @@ const SPECS: &[(&str, &str, Kind, bool)] = &[
     (
         "deficiency_payments_pv",
         "Fiscal cost: deficiency payments, PV",
+        Kind::Money,
+        true,
+    ),
+    (
+        "border_revenue_pv",
+        "Fiscal receipts: border duties and export taxes, PV",
+        Kind::Money,
+        true,
+    ),
+    (
+        "quota_rent_pv",
+        "Quota rents to traders, PV",
         Kind::Money,
         true,
     ),
@@ -374,6 +415,16 @@ const QUANTILE_STEMS: [&str; 4] = [
     "net_welfare_change_pv",
 ];
 
+/// Indicators that exist only for a market that trades (`[trade]`).
+const TRADE_KEYS: [&str; 6] = [
+    "imports_mean",
+    "exports_mean",
+    "import_season_share",
+    "export_season_share",
+    "border_revenue_pv",
+    "quota_rent_pv",
+];
+
 /// Indicators that exist only for a market with private storers.
 const STORAGE_KEYS: [&str; 3] = ["private_stock_mean", "public_stock_mean", "crowding_out"];
 
@@ -479,6 +530,16 @@ pub(super) fn build(
     // a diverged replication fails the run (exit 1), so every replication here completed
     per_rep(&mut out, "diverged_share", &|_| 0.0);
     per_rep(&mut out, "final_stock", &|r| r.final_stock);
+    if scenario.trade.is_some() {
+        per_rep(&mut out, "imports_mean", &|r| r.mean_imports);
+        per_rep(&mut out, "exports_mean", &|r| r.mean_exports);
+        per_rep(&mut out, "import_season_share", &|r| {
+            share(r.import_periods)
+        });
+        per_rep(&mut out, "export_season_share", &|r| {
+            share(r.export_periods)
+        });
+    }
     let welfare_mean = |out: &mut Out, key: &'static str, f: fn(&WelfarePv) -> f64| {
         per_rep(out, key, &|r| f(&r.welfare));
     };
@@ -495,6 +556,10 @@ pub(super) fn build(
     welfare_mean(&mut out, "deficiency_payments_pv", |w| {
         w.deficiency_payments
     });
+    if scenario.trade.is_some() {
+        welfare_mean(&mut out, "border_revenue_pv", |w| w.border_revenue);
+        welfare_mean(&mut out, "quota_rent_pv", |w| w.quota_rent);
+    }
     welfare_mean(&mut out, "opening_stock_cost", |w| w.opening_stock_cost);
     welfare_mean(&mut out, "terminal_stock_value_pv", |w| {
         w.terminal_stock_value
@@ -630,6 +695,9 @@ fn arrange(scenario: &Scenario, out: Out) -> Vec<Indicator> {
     let unit = scenario.market.price_unit.as_str();
     for (key, label, kind, has_se) in SPECS {
         if STORAGE_KEYS.contains(key) && scenario.storers.is_none() {
+            continue;
+        }
+        if TRADE_KEYS.contains(key) && scenario.trade.is_none() {
             continue;
         }
         if *key == "alerts" {

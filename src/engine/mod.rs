@@ -141,7 +141,7 @@ impl Model {
             shocks: scenario.shocks,
             price_history: history,
             price_bound: 1e3 * reference,
-            nodes: rational::Nodes::new(&scenario.shocks),
+            nodes: rational::Nodes::new(&scenario.shocks, scenario.trade.as_ref()),
             planting_floor: compiled_floor,
             is_rational,
             has_payments,
@@ -373,6 +373,9 @@ pub struct Simulator<'m> {
     previous: Option<f64>,
     stock: f64,
     last_demand_shock: f64,
+    /// Last period's log world-price factor (None before the first period; kept only for the
+    /// rational rule on a market whose world price varies).
+    last_world: Option<f64>,
     period: usize,
 }
 
@@ -391,6 +394,7 @@ impl<'m> Simulator<'m> {
             previous: None,
             stock: model.policy.agency.initial,
             last_demand_shock: 0.0,
+            last_world: None,
             period: 0,
         }
     }
@@ -425,14 +429,20 @@ impl<'m> Simulator<'m> {
         let floor = model.planting_floor;
         let rule_expectation = if model.is_rational {
             let guess = self.last_price;
-            rational::solve(model, carried, self.last_demand_shock, floor, guess).ok_or_else(
-                || {
-                    diverged(
-                        "no rational expectation exists (the fixed point could not be bracketed)"
-                            .into(),
-                    )
-                },
-            )?
+            rational::solve(
+                model,
+                carried,
+                self.last_demand_shock,
+                floor,
+                guess,
+                self.last_world,
+            )
+            .ok_or_else(|| {
+                diverged(
+                    "no rational expectation exists (the fixed point could not be bracketed)"
+                        .into(),
+                )
+            })?
         } else {
             match &model.adaptive {
                 Some(adaptive) => adaptive.next(self.previous, self.last_price),
@@ -520,6 +530,9 @@ impl<'m> Simulator<'m> {
         self.previous = Some(rule_expectation);
         self.stock = c.stock;
         self.last_demand_shock = shock.demand;
+        if c.trade.is_some() {
+            self.last_world = Some(model.nodes.log_world(shock.world_factor));
+        }
         self.period = t;
         // planting on revenue: the rules read what a unit of expected harvest earned, P_t·Y_t/E[Y]
         // (E[Y] = 1), the price itself when there is no yield risk

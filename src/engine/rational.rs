@@ -8,10 +8,17 @@
 //! instead, Y the yield factor with E[Y] = 1 (Wright and Williams 1991): each node's price is
 //! weighted by its yield factor. The map stays decreasing in P^e where the price falls with the
 //! harvest (more planting lowers P at every node and leaves Y as it is).
+//!
+//! On a market that trades, every node clears on the kinked curve of private trade (the engine's
+//! own clearing), and a varying world price is one more dimension of the quadrature: the log world
+//! factor is AR(1), x_t = ρ x_{t−1} + s √(1 − ρ²) e_t, so given last period's x the period's factor
+//! is exp(ρ x_{t−1} + s √(1 − ρ²) z − s²/2) at the node z (before the first period x is drawn from
+//! its stationary law N(0, s²): the factor exp(s z − s²/2)).
 
 use super::{Model, PeriodShock};
 use crate::numeric::{gauss_hermite, root_decreasing};
 use crate::scenario::ShockSpec;
+use crate::trade::Trade;
 
 /// Quadrature nodes over the period's independent standard-normal shocks.
 #[derive(Debug, Clone)]
@@ -19,16 +26,21 @@ pub(crate) struct Nodes {
     /// (weight, yield factor, supply shock, demand innovation)
     points: Vec<(f64, f64, f64, f64)>,
     persistence: f64,
+    /// The world price's standard-normal nodes and weights (empty: no world-price risk), s and ρ.
+    world: Vec<(f64, f64)>,
+    world_s: f64,
+    world_rho: f64,
 }
 
 impl Nodes {
-    pub fn new(spec: &ShockSpec) -> Nodes {
+    pub fn new(spec: &ShockSpec, trade: Option<&Trade>) -> Nodes {
+        let world_on = trade.is_some_and(|t| t.world_price_cv > 0.0);
         let active = [
             spec.yield_cv > 0.0,
             spec.supply_sd > 0.0,
             spec.demand_sd > 0.0,
         ];
-        let count = active.iter().filter(|a| **a).count();
+        let count = active.iter().filter(|a| **a).count() + usize::from(world_on);
         let n = match count {
             0 => 1,
             1 => 15,
@@ -58,10 +70,46 @@ impl Nodes {
                 }
             }
         }
+        let (world, world_s, world_rho) = match trade.filter(|_| world_on) {
+            Some(t) => (
+                rule.clone(),
+                (1.0 + t.world_price_cv * t.world_price_cv).ln().sqrt(),
+                t.world_price_persistence,
+            ),
+            None => (Vec::new(), 0.0, 0.0),
+        };
         Nodes {
             points,
             persistence: spec.demand_persistence,
+            world,
+            world_s,
+            world_rho,
         }
+    }
+
+    /// The world factors and weights of the coming period given last period's log world factor
+    /// (None before the first period); `[(1, 1)]` without world-price risk.
+    fn world_factors(&self, last: Option<f64>) -> Vec<(f64, f64)> {
+        if self.world.is_empty() {
+            return vec![(1.0, 1.0)];
+        }
+        let s = self.world_s;
+        let (mean, sd) = match last {
+            None => (0.0, s),
+            Some(x) => (
+                self.world_rho * x,
+                s * (1.0 - self.world_rho * self.world_rho).sqrt(),
+            ),
+        };
+        self.world
+            .iter()
+            .map(|&(z, w)| ((mean + sd * z - 0.5 * s * s).exp(), w))
+            .collect()
+    }
+
+    /// The log world factor x of a period whose factor was `factor` (x − s²/2 = ln factor).
+    pub fn log_world(&self, factor: f64) -> f64 {
+        factor.ln() + 0.5 * self.world_s * self.world_s
     }
 }
 
@@ -72,31 +120,40 @@ pub(crate) fn solve(
     last_demand_shock: f64,
     floor: Option<f64>,
     guess: f64,
+    last_world: Option<f64>,
 ) -> Option<f64> {
     let nodes = &model.nodes;
     let mean_demand = nodes.persistence * last_demand_shock;
     let revenue = model.revenue;
+    let worlds = nodes.world_factors(last_world);
     let expected = |p: f64| -> f64 {
         let planting = floor.map_or(p, |f| p.max(f));
-        nodes
-            .points
-            .iter()
-            .map(|&(w, y, s, d)| {
-                let shock = PeriodShock {
-                    yield_factor: y,
-                    supply: s,
-                    demand: mean_demand + d,
-                    world_factor: 1.0,
-                };
-                let paid = model.clear(planting, &shock, carried).producer_price;
-                // on revenue: E[P·Y] (E[Y] = 1); without yield risk y = 1 and this is w·P exactly
-                if revenue {
-                    w * (paid * y)
-                } else {
-                    w * paid
-                }
-            })
-            .sum::<f64>()
+        let at = |world_factor: f64| {
+            nodes
+                .points
+                .iter()
+                .map(|&(w, y, s, d)| {
+                    let shock = PeriodShock {
+                        yield_factor: y,
+                        supply: s,
+                        demand: mean_demand + d,
+                        world_factor,
+                    };
+                    let paid = model.clear(planting, &shock, carried).producer_price;
+                    // on revenue: E[P·Y] (E[Y] = 1); without yield risk y = 1 and this is w·P
+                    // exactly
+                    if revenue {
+                        w * (paid * y)
+                    } else {
+                        w * paid
+                    }
+                })
+                .sum::<f64>()
+        };
+        match worlds.as_slice() {
+            [(f, _)] if *f == 1.0 => at(1.0),
+            _ => worlds.iter().map(|&(f, w)| w * at(f)).sum::<f64>(),
+        }
     };
     let guess = if guess.is_finite() && guess > 0.0 {
         guess

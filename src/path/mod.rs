@@ -145,8 +145,7 @@ pub fn walk<M: PathModel>(
     scenario: &Scenario,
     mut row: impl FnMut(&PeriodRecord) -> std::io::Result<()>,
 ) -> Result<PathTally, RunError> {
-    let mut stream = (!scenario.is_deterministic())
-        .then(|| ShockStream::for_scenario(scenario, 0));
+    let mut stream = (!scenario.is_deterministic()).then(|| ShockStream::for_scenario(scenario, 0));
     let mut stepper = model.start();
     let mut tally = PathTally::default();
     for _ in 0..scenario.run.periods {

@@ -105,6 +105,53 @@ fn read(c: &Check, table: &toml::Table) -> Result<RuleRef, InputError> {
     Ok(rule_ref(Border { measures }))
 }
 
+/// What a policy asks of a market that trades, across its rules (called for every verb by
+/// `policies::file::policy_for_market`): a price defended by purchase above import parity, with
+/// neither a store limit nor a purchase budget, would have the agency buy every unit traders bring
+/// in (imports refill the market at parity whatever it buys): refused, naming the price's key and
+/// `trade.world_price`. The check is at the mean world price; a varying world price that falls far
+/// enough ends such a run as diverging, with the same keys named.
+pub fn check_open_market(
+    c: &Check,
+    scenario: &Scenario,
+    policy: &super::PolicySpec,
+) -> Result<(), InputError> {
+    let Some(trade) = &scenario.trade else {
+        return Ok(());
+    };
+    let compiled = super::compile(policy);
+    let agency = &compiled.agency;
+    if agency.capacity.is_finite() || agency.purchase_budget.is_finite() {
+        return Ok(());
+    }
+    let terms = trade.terms(trade.world_price, &compiled.border);
+    if terms.import_quota.is_finite() {
+        return Ok(());
+    }
+    let watched = super::watched(policy);
+    let defended = [
+        watched.purchase_floor.map(|p| ("floor.price", p)),
+        watched.band.map(|(lo, _)| ("stock.buy_below", lo)),
+    ];
+    for (key, price) in defended.into_iter().flatten() {
+        if price > terms.import_parity {
+            return Err(c.bad(
+                key,
+                short_num(price),
+                &format!(
+                    "a price at or below import parity {} (trade.world_price {} + import_cost {} \
+                     + duties) on a market that trades: above it, with neither stock.capacity \
+                     nor stock.purchase_budget, the agency would buy every unit traders import",
+                    short_num(terms.import_parity),
+                    short_num(trade.world_price),
+                    short_num(trade.import_cost)
+                ),
+            ));
+        }
+    }
+    Ok(())
+}
+
 impl Border {
     /// The measures in words, e.g. `import duty 10 + 5 % of the world price, export ban`.
     fn words(&self) -> String {

@@ -373,13 +373,16 @@ fn budget_cut_open(
             return (0.0, true);
         }
         // with unlimited imports at parity the spending is at most X·import parity: bracket there
-        let mut hi = if total.is_finite() { total } else { before.max(1.0) };
+        let mut hi = if total.is_finite() {
+            total
+        } else {
+            before.max(1.0)
+        };
         while spend(hi) <= budget && hi.is_finite() {
             hi *= 2.0;
         }
-        let solved =
-            crate::numeric::brent(|x| spend(x) - budget, before, hi, 1e-12 * hi.max(1.0))
-                .unwrap_or(before);
+        let solved = crate::numeric::brent(|x| spend(x) - budget, before, hi, 1e-12 * hi.max(1.0))
+            .unwrap_or(before);
         return (solved - before, true);
     }
     (amount, false)

@@ -224,6 +224,7 @@ pub fn policy_for_market(scenario: &Scenario, policy: &PolicySpec) -> Result<(),
     for rule in &policy.rules {
         rule.check_market(&c, scenario)?;
     }
+    super::border::check_open_market(&c, scenario, policy)?;
     Ok(())
 }
 

@@ -118,6 +118,18 @@ pub struct ReplicationSummary {
     pub capacity_full_periods: u32,
     /// Seasons a purchase was cut short by the purchase budget.
     pub budget_bound_periods: u32,
+    /// Mean private imports per season (0 for a closed market).
+    #[serde(skip)]
+    pub mean_imports: f64,
+    /// Mean private exports per season.
+    #[serde(skip)]
+    pub mean_exports: f64,
+    /// Seasons with private imports.
+    #[serde(skip)]
+    pub import_periods: u32,
+    /// Seasons with private exports.
+    #[serde(skip)]
+    pub export_periods: u32,
 }
 
 /// Pooled moments over all periods and replications of one policy.
@@ -794,6 +806,12 @@ impl<M: PathModel> Context<'_, M> {
             if keep_seasons {
                 acc.seasons.push(r.fiscal_cost);
             }
+            if let Some(trade) = &r.trade {
+                out.mean_imports += trade.imports;
+                out.mean_exports += trade.exports;
+                out.import_periods += u32::from(trade.imports > 0.0);
+                out.export_periods += u32::from(trade.exports > 0.0);
+            }
             out.floor_binding_periods += u32::from(r.floor_binding());
             out.stockout_periods += u32::from(r.stockout);
             out.final_stock = r.stock;
@@ -841,6 +859,8 @@ impl<M: PathModel> Context<'_, M> {
         out.mean_harvest = pooled.harvest.mean();
         out.mean_revenue = pooled.revenue.mean();
         out.mean_season_fiscal = fiscal_sum / per;
+        out.mean_imports /= per;
+        out.mean_exports /= per;
         if count == 0 {
             out.worst_season_fiscal = 0.0;
         }

@@ -70,8 +70,11 @@ impl ShockStream {
     /// The stream of replication `replication` of `scenario`: its weather and, when the market
     /// trades with a varying world price, the world price's own stream.
     pub fn for_scenario(scenario: &Scenario, replication: u64) -> ShockStream {
-        ShockStream::new(&scenario.shocks, scenario.run.seed, replication)
-            .with_world(scenario.trade.as_ref(), scenario.run.seed, replication)
+        ShockStream::new(&scenario.shocks, scenario.run.seed, replication).with_world(
+            scenario.trade.as_ref(),
+            scenario.run.seed,
+            replication,
+        )
     }
 
     /// This stream with the world price of `trade` drawn on its own stream (seed `seed`, stream
