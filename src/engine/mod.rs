@@ -333,7 +333,7 @@ fn unbounded_purchase(c: &Cleared) -> String {
     let world = c.trade.map_or(0.0, |t| t.world_price);
     format!(
         "the agency defends a price above import parity (world price {}) with neither \
-         capacity nor purchase budget: it would buy every unit traders bring in (limit
+         capacity nor purchase budget: it would buy every unit traders bring in (limit \
          stock.capacity or stock.purchase_budget, lower floor.price or stock.buy_below, or raise \
          trade.world_price or trade.import_cost)",
         crate::scenario::ranges::short_num(world)

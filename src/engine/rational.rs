@@ -87,24 +87,17 @@ impl Nodes {
         }
     }
 
-    /// The world factors and weights of the coming period given last period's log world factor
-    /// (None before the first period); `[(1, 1)]` without world-price risk.
-    fn world_factors(&self, last: Option<f64>) -> Vec<(f64, f64)> {
-        if self.world.is_empty() {
-            return vec![(1.0, 1.0)];
-        }
+    /// The mean and standard deviation of the coming period's log world factor given last period's
+    /// (None before the first period): (ρ x, s √(1 − ρ²)), or the stationary (0, s).
+    fn world_law(&self, last: Option<f64>) -> (f64, f64) {
         let s = self.world_s;
-        let (mean, sd) = match last {
+        match last {
             None => (0.0, s),
             Some(x) => (
                 self.world_rho * x,
                 s * (1.0 - self.world_rho * self.world_rho).sqrt(),
             ),
-        };
-        self.world
-            .iter()
-            .map(|&(z, w)| ((mean + sd * z - 0.5 * s * s).exp(), w))
-            .collect()
+        }
     }
 
     /// The log world factor x of a period whose factor was `factor` (x − s²/2 = ln factor).
@@ -125,7 +118,8 @@ pub(crate) fn solve(
     let nodes = &model.nodes;
     let mean_demand = nodes.persistence * last_demand_shock;
     let revenue = model.revenue;
-    let worlds = nodes.world_factors(last_world);
+    let (world_mean, world_sd) = nodes.world_law(last_world);
+    let half_s2 = 0.5 * nodes.world_s * nodes.world_s;
     let expected = |p: f64| -> f64 {
         let planting = floor.map_or(p, |f| p.max(f));
         let at = |world_factor: f64| {
@@ -150,9 +144,14 @@ pub(crate) fn solve(
                 })
                 .sum::<f64>()
         };
-        match worlds.as_slice() {
-            [(f, _)] if *f == 1.0 => at(1.0),
-            _ => worlds.iter().map(|&(f, w)| w * at(f)).sum::<f64>(),
+        if nodes.world.is_empty() {
+            at(1.0)
+        } else {
+            nodes
+                .world
+                .iter()
+                .map(|&(z, w)| w * at((world_mean + world_sd * z - half_s2).exp()))
+                .sum::<f64>()
         }
     };
     let guess = if guess.is_finite() && guess > 0.0 {
