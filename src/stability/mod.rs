@@ -360,10 +360,7 @@ fn trade_analysis(
     } else {
         (0.0, 0.0)
     };
-    let mut note = format!(
-        "the world price is taken at its mean {}",
-        num(world)
-    );
+    let mut note = format!("the world price is taken at its mean {}", num(world));
     if cv > 0.0 {
         note.push_str(&format!(
             " (world_price_cv {} is treated at the mean for the steady state and the regimes)",

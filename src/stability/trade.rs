@@ -275,8 +275,14 @@ pub(crate) fn merge(
     match first {
         RegimePrice::Pinned(e) => {
             let buying = e > free_price;
-            let importing = trade.holding.as_ref().is_some_and(|c| c.name == "importing");
-            let exporting = trade.holding.as_ref().is_some_and(|c| c.name == "exporting");
+            let importing = trade
+                .holding
+                .as_ref()
+                .is_some_and(|c| c.name == "importing");
+            let exporting = trade
+                .holding
+                .as_ref()
+                .is_some_and(|c| c.name == "exporting");
             if !buying && importing && e >= pm {
                 demote = true;
             } else if buying && exporting && e <= px {
@@ -310,7 +316,8 @@ pub(crate) fn merge(
     if demote {
         for c in holding.iter_mut() {
             c.holds = false;
-            let extra = "with trade, traders reach their parity first: the regime does not hold at rest";
+            let extra =
+                "with trade, traders reach their parity first: the regime does not hold at rest";
             c.note = Some(match c.note.take() {
                 Some(n) => format!("{n} ({extra})"),
                 None => extra.into(),
@@ -359,9 +366,8 @@ pub(crate) fn bounded_orbit(setup: &Setup, terms: &BorderTerms, p: f64) -> Optio
     let high = kept.iter().copied().fold(f64::NEG_INFINITY, f64::max);
     let tol = 1e-9 * high.max(1.0);
     let period = (1..=64).find(|&k| (k..KEEP).all(|i| (kept[i] - kept[i - k]).abs() <= tol));
-    let pinned = |v: f64| {
-        (v - terms.import_parity).abs() <= tol || (v - terms.export_parity).abs() <= tol
-    };
+    let pinned =
+        |v: f64| (v - terms.import_parity).abs() <= tol || (v - terms.export_parity).abs() <= tol;
     let at_parity_share = kept.iter().filter(|v| pinned(**v)).count() as f64 / KEEP as f64;
     Some(BoundedCycle {
         low,
