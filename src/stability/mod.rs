@@ -368,9 +368,7 @@ fn trade_analysis(
         ));
     }
     note.push_str(&format!(
-        "; import parity {}, export parity {}; the steady state is held by the {} regime",
-        import_parity.map(num).unwrap_or_else(|| "none".into()),
-        export_parity.map(num).unwrap_or_else(|| "none".into()),
+        "; the steady state is held by the {} regime",
         hold.name
     ));
     let policy_regimes = cases

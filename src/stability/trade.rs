@@ -334,6 +334,29 @@ pub(crate) fn merge(
         c.holds = false;
         secondary.push(c);
     }
+    // a rule's pinned price beyond a parity where trade is unlimited is reached only if trade stops
+    for c in secondary.iter_mut().filter(|c| !is_trade_regime(&c.name)) {
+        let RegimePrice::Pinned(e) = c.clearing else {
+            continue;
+        };
+        let extra = if unlimited_imports && e > pm * (1.0 + 1e-12) {
+            format!(
+                "above import parity {}: traders import before the price gets there",
+                num(pm)
+            )
+        } else if t.export_quota > 0.0 && unlimited_exports && e < px * (1.0 - 1e-12) {
+            format!(
+                "below export parity {}: traders export before the price gets there",
+                num(px)
+            )
+        } else {
+            continue;
+        };
+        c.note = Some(match c.note.take() {
+            Some(n) => format!("{n} ({extra})"),
+            None => extra,
+        });
+    }
     secondary.append(&mut trade.secondary);
 }
 
