@@ -85,6 +85,11 @@ fn num(x: f64) -> String {
     crate::scenario::ranges::short_num(x)
 }
 
+/// `case` is the regime called `name`.
+fn named(case: &Option<RegimeCase>, name: &str) -> bool {
+    case.as_ref().is_some_and(|c| c.name == name)
+}
+
 /// Lists the trade regimes (`unit`: the quantity unit for the notes).
 pub(crate) fn cases(setup: &Setup, border: &BorderMeasures, unit: &str) -> Option<TradeCases> {
     let trade = setup.trade?;
@@ -160,7 +165,7 @@ pub(crate) fn cases(setup: &Setup, border: &BorderMeasures, unit: &str) -> Optio
                 out.imports = quota;
             }
         }
-        if !out.holding.as_ref().is_some_and(|c| c.name == name) {
+        if !named(&out.holding, name) {
             out.secondary.push(Regimes::case(
                 name,
                 RegimePrice::Pinned(pm),
@@ -172,7 +177,7 @@ pub(crate) fn cases(setup: &Setup, border: &BorderMeasures, unit: &str) -> Optio
             ));
         }
         if let Some(Some(c)) = full_case {
-            if !out.holding.as_ref().is_some_and(|h| h.name == full) {
+            if !named(&out.holding, full) {
                 out.secondary.push(c);
             }
         }
@@ -227,7 +232,7 @@ pub(crate) fn cases(setup: &Setup, border: &BorderMeasures, unit: &str) -> Optio
                 out.exports = quota;
             }
         }
-        if !out.holding.as_ref().is_some_and(|c| c.name == name) {
+        if !named(&out.holding, name) {
             out.secondary.push(Regimes::case(
                 name,
                 RegimePrice::Pinned(px),
@@ -239,7 +244,7 @@ pub(crate) fn cases(setup: &Setup, border: &BorderMeasures, unit: &str) -> Optio
             ));
         }
         if let Some(Some(c)) = full_case {
-            if !out.holding.as_ref().is_some_and(|h| h.name == full) {
+            if !named(&out.holding, full) {
                 out.secondary.push(c);
             }
         }
@@ -283,9 +288,8 @@ pub(crate) fn merge(
                 .holding
                 .as_ref()
                 .is_some_and(|c| c.name == "exporting");
-            if !buying && importing && e >= pm {
-                demote = true;
-            } else if buying && exporting && e <= px {
+            // traders reach their parity before the agency trades at its price
+            if (!buying && importing && e >= pm) || (buying && exporting && e <= px) {
                 demote = true;
             } else if buying && unlimited_imports && e > pm * (1.0 + 1e-12) {
                 let h = &mut holding[0];
