@@ -322,3 +322,37 @@ fn sweep_over_import_cost_switches_the_holding_regime_at_p_star() {
         .collect();
     assert_eq!(radius, [0.0, 0.0, 0.0, 0.5]);
 }
+
+#[test]
+fn a_binding_export_quota_leaves_the_domestic_curve_less_the_quota() {
+    // W = 200: free trade would export S(180) − D(180) = 45; a quota of 20 binds and the market
+    // clears harvest − quota: A − d·P = c + b·P − q  ⇒  P = (A − c + q)/(b + d), below P_x.
+    let b = 0.5;
+    let q = 20.0;
+    let s = market(b, &trade(200.0, 20.0, 20.0));
+    assert!(supply(b, 180.0) - demand(180.0) > q);
+    let a = analyse(&s, &policy(&format!("[border]\nexport_quota = {q:?}\n")));
+    assert_eq!(a.regimes[0].name, "exporting, quota full");
+    let p = (A - intercept(b) + q) / (b + D);
+    assert!(p < 180.0 && close(a.steady_state.price, p), "{a:#?}");
+    assert!(close(a.regimes[0].eigenvalues[0].re, -b / D));
+    let t = a.trade.as_ref().unwrap();
+    assert_eq!((t.imports, t.exports), (0.0, q));
+}
+
+#[test]
+fn a_closed_market_reports_no_trade() {
+    // INTERFACE.md's stability JSON: steady_state, regimes, verdict — and no trade part without
+    // [trade]
+    let a = analyse(&market(0.5, ""), &PolicySpec::none());
+    let json: serde_json::Value =
+        serde_json::from_str(&stability::render(&a, furrow::output::Format::Json)).unwrap();
+    assert!(json.get("trade").is_none());
+    for key in ["steady_state", "regimes", "verdict"] {
+        assert!(json.get(key).is_some(), "{key}");
+    }
+    let open = analyse(&market(0.5, &trade(100.0, 20.0, 20.0)), &PolicySpec::none());
+    let json: serde_json::Value =
+        serde_json::from_str(&stability::render(&open, furrow::output::Format::Json)).unwrap();
+    assert_eq!(json["trade"]["holding"], "importing");
+}

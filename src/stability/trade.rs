@@ -90,13 +90,44 @@ fn named(case: &Option<RegimeCase>, name: &str) -> bool {
     case.as_ref().is_some_and(|c| c.name == name)
 }
 
+/// One side of the border, as [`cases`] lists it.
+struct Side {
+    /// The pinned regime's name.
+    name: &'static str,
+    /// The quota-full regime's name.
+    full: &'static str,
+    /// The parity.
+    parity: f64,
+    /// The quota (∞ without one).
+    quota: f64,
+    /// +1 for imports (they add to the harvest), −1 for exports.
+    sign: f64,
+}
+
+impl Side {
+    /// The untraded price at rest lies beyond the parity (above import parity, below export
+    /// parity).
+    fn beyond(&self, untraded: f64) -> bool {
+        if self.sign > 0.0 {
+            untraded > self.parity * (1.0 + 1e-12)
+        } else {
+            untraded < self.parity * (1.0 - 1e-12)
+        }
+    }
+
+    fn words(&self) -> (&'static str, &'static str, &'static str) {
+        if self.sign > 0.0 {
+            ("import", "above", "plus")
+        } else {
+            ("export", "below", "less")
+        }
+    }
+}
+
 /// Lists the trade regimes (`unit`: the quantity unit for the notes).
 pub(crate) fn cases(setup: &Setup, border: &BorderMeasures, unit: &str) -> Option<TradeCases> {
     let trade = setup.trade?;
     let t = trade.terms(trade.world_price, border);
-    let (pm, px) = (t.import_parity, t.export_parity);
-    let can_import = t.import_quota > 0.0 && pm.is_finite();
-    let can_export = t.export_quota > 0.0;
     let mut out = TradeCases {
         terms: t,
         holding: None,
@@ -104,148 +135,121 @@ pub(crate) fn cases(setup: &Setup, border: &BorderMeasures, unit: &str) -> Optio
         imports: 0.0,
         exports: 0.0,
     };
-    // the untraded market price and the harvest when the producer price rests at `p`
-    let at_rest = |p: f64| {
-        let planting = StateMap::new(setup, RegimePrice::Pinned(p)).planting_at_rest(p);
-        let harvest = setup.supply.quantity(planting);
-        (setup.demand.price_at(harvest), harvest)
-    };
-    let shifted = |offtake: f64, guess: f64| {
-        setup
-            .fixed_point(RegimePrice::Free { offtake }, guess)
-            .filter(|p| p.is_finite() && *p > 0.0)
-    };
-    if can_import {
-        let name = "importing";
-        let (untraded, harvest) = at_rest(pm);
-        let wanted = setup.demand.quantity_unclamped(pm) - harvest;
-        let quota = t.import_quota;
-        let full = "importing, quota full";
-        let full_case = quota.is_finite().then(|| {
-            shifted(-quota, pm).map(|p| {
-                Regimes::case(
-                    full,
-                    RegimePrice::Free { offtake: -quota },
-                    Some(format!(
-                        "the import quota {} {unit} binds: the domestic curve clears the harvest \
-                         plus the quota, above import parity {} (rest at {})",
-                        num(quota),
-                        num(pm),
-                        num(p)
-                    )),
-                )
-            })
+    let mut sides = Vec::with_capacity(2);
+    if t.import_quota > 0.0 && t.import_parity.is_finite() {
+        sides.push(Side {
+            name: "importing",
+            full: "importing, quota full",
+            parity: t.import_parity,
+            quota: t.import_quota,
+            sign: 1.0,
         });
-        if untraded > pm * (1.0 + 1e-12) && wanted <= quota {
-            let mut c = Regimes::case(
-                name,
-                RegimePrice::Pinned(pm),
-                Some(format!(
-                    "the closed market would settle above import parity {}: the price rests there \
-                     and traders import D(P_m) − S(P_m) = {} {unit} a period",
-                    num(pm),
-                    num(wanted)
-                )),
-            );
-            c.holds = true;
-            out.holding = Some(c);
-            out.imports = wanted;
-        } else if untraded > pm * (1.0 + 1e-12) {
-            if let Some(Some(mut c)) = full_case.clone() {
-                c.holds = true;
-                c.note = Some(format!(
-                    "the closed market would settle above import parity {} and traders would \
-                     import {} {unit} a period, more than the quota {}: the price rests above the \
-                     parity where the harvest plus the quota clears",
-                    num(pm),
-                    num(wanted),
-                    num(quota)
-                ));
-                out.holding = Some(c);
-                out.imports = quota;
-            }
-        }
-        if !named(&out.holding, name) {
-            out.secondary.push(Regimes::case(
-                name,
-                RegimePrice::Pinned(pm),
-                Some(format!(
-                    "after a short harvest that lifts the price to import parity {}: price pinned, \
-                     traders import the gap",
-                    num(pm)
-                )),
-            ));
-        }
-        if let Some(Some(c)) = full_case {
-            if !named(&out.holding, full) {
-                out.secondary.push(c);
-            }
-        }
     }
-    if can_export {
-        let name = "exporting";
-        let (untraded, harvest) = at_rest(px);
-        let surplus = harvest - setup.demand.quantity_unclamped(px);
-        let quota = t.export_quota;
-        let full = "exporting, quota full";
-        let full_case = quota.is_finite().then(|| {
-            shifted(quota, px).map(|p| {
-                Regimes::case(
-                    full,
-                    RegimePrice::Free { offtake: quota },
-                    Some(format!(
-                        "the export quota {} {unit} binds: the domestic curve clears the harvest \
-                         less the quota, below export parity {} (rest at {})",
-                        num(quota),
-                        num(px),
-                        num(p)
-                    )),
-                )
-            })
+    if t.export_quota > 0.0 {
+        sides.push(Side {
+            name: "exporting",
+            full: "exporting, quota full",
+            parity: t.export_parity,
+            quota: t.export_quota,
+            sign: -1.0,
         });
-        if untraded < px * (1.0 - 1e-12) && surplus <= quota {
+    }
+    for side in &sides {
+        let (trade_word, where_word, plus) = side.words();
+        let parity = side.parity;
+        // at rest on the parity: the harvest planted on it and the untraded price it would fetch
+        let planting = StateMap::new(setup, RegimePrice::Pinned(parity)).planting_at_rest(parity);
+        let harvest = setup.supply.quantity(planting);
+        let untraded = setup.demand.price_at(harvest);
+        // what traders move at rest: D(P_m) − S(P_m) in, or S(P_x) − D(P_x) out
+        let traded = side.sign * (setup.demand.quantity_unclamped(parity) - harvest);
+        // beyond a binding quota: the domestic curve clears the harvest plus (less) the quota
+        let full_case = side
+            .quota
+            .is_finite()
+            .then(|| {
+                let clearing = RegimePrice::Free {
+                    offtake: -side.sign * side.quota,
+                };
+                setup
+                    .fixed_point(clearing, parity)
+                    .filter(|p| p.is_finite() && *p > 0.0)
+                    .map(|p| {
+                        Regimes::case(
+                            side.full,
+                            clearing,
+                            Some(format!(
+                                "the {trade_word} quota {} {unit} binds: the domestic curve clears \
+                                 the harvest {plus} the quota, {where_word} {trade_word} parity {} \
+                                 (rest at {})",
+                                num(side.quota),
+                                num(parity),
+                                num(p)
+                            )),
+                        )
+                    })
+            })
+            .flatten();
+        let mut holds_here = None;
+        if side.beyond(untraded) && traded <= side.quota {
             let mut c = Regimes::case(
-                name,
-                RegimePrice::Pinned(px),
+                side.name,
+                RegimePrice::Pinned(parity),
                 Some(format!(
-                    "the closed market would settle below export parity {}: the price rests there \
-                     and traders export S(P_x) − D(P_x) = {} {unit} a period",
-                    num(px),
-                    num(surplus)
+                    "the closed market would settle {where_word} {trade_word} parity {}: the price \
+                     rests there and traders {trade_word} {} {unit} a period ({})",
+                    num(parity),
+                    num(traded),
+                    if side.sign > 0.0 {
+                        "D(P_m) − S(P_m)"
+                    } else {
+                        "S(P_x) − D(P_x)"
+                    }
                 )),
             );
             c.holds = true;
-            out.holding = Some(c);
-            out.exports = surplus;
-        } else if untraded < px * (1.0 - 1e-12) {
-            if let Some(Some(mut c)) = full_case.clone() {
+            holds_here = Some((c, traded));
+        } else if side.beyond(untraded) {
+            if let Some(mut c) = full_case.clone() {
                 c.holds = true;
                 c.note = Some(format!(
-                    "the closed market would settle below export parity {} and traders would \
-                     export {} {unit} a period, more than the quota {}: the price rests below the \
-                     parity where the harvest less the quota clears",
-                    num(px),
-                    num(surplus),
-                    num(quota)
+                    "the closed market would settle {where_word} {trade_word} parity {} and \
+                     traders would {trade_word} {} {unit} a period, more than the quota {}: the \
+                     price rests {where_word} the parity where the harvest {plus} the quota clears",
+                    num(parity),
+                    num(traded),
+                    num(side.quota)
                 ));
-                out.holding = Some(c);
-                out.exports = quota;
+                holds_here = Some((c, side.quota));
             }
         }
-        if !named(&out.holding, name) {
+        let held = holds_here.as_ref().map(|(c, _)| c.name.as_str());
+        if held != Some(side.name) {
+            let (event, verb) = if side.sign > 0.0 {
+                ("a short harvest that lifts", "import the gap")
+            } else {
+                ("a big harvest that drives", "export the surplus")
+            };
             out.secondary.push(Regimes::case(
-                name,
-                RegimePrice::Pinned(px),
+                side.name,
+                RegimePrice::Pinned(parity),
                 Some(format!(
-                    "after a big harvest that drives the price to export parity {}: price pinned, \
-                     traders export the surplus",
-                    num(px)
+                    "after {event} the price to {trade_word} parity {}: price pinned, traders {verb}",
+                    num(parity)
                 )),
             ));
         }
-        if let Some(Some(c)) = full_case {
-            if !named(&out.holding, full) {
+        if let Some(c) = full_case {
+            if held != Some(side.full) {
                 out.secondary.push(c);
+            }
+        }
+        if let Some((c, amount)) = holds_here {
+            out.holding = Some(c);
+            if side.sign > 0.0 {
+                out.imports = amount;
+            } else {
+                out.exports = amount;
             }
         }
     }
@@ -280,14 +284,8 @@ pub(crate) fn merge(
     match first {
         RegimePrice::Pinned(e) => {
             let buying = e > free_price;
-            let importing = trade
-                .holding
-                .as_ref()
-                .is_some_and(|c| c.name == "importing");
-            let exporting = trade
-                .holding
-                .as_ref()
-                .is_some_and(|c| c.name == "exporting");
+            let importing = named(&trade.holding, "importing");
+            let exporting = named(&trade.holding, "exporting");
             // traders reach their parity before the agency trades at its price
             if (!buying && importing && e >= pm) || (buying && exporting && e <= px) {
                 demote = true;
