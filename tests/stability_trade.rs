@@ -356,3 +356,22 @@ fn a_closed_market_reports_no_trade() {
         serde_json::from_str(&stability::render(&open, furrow::output::Format::Json)).unwrap();
     assert_eq!(json["trade"]["holding"], "importing");
 }
+
+#[test]
+fn a_deficiency_payment_above_export_parity_exports_the_surplus_at_parity() {
+    // Producers are paid F = 170 > P* = 150, plant S(170); the market price would be
+    // D⁻¹(S(170)) = A − S(170) (d = 1) = 140 < P_x = 145 (W = 165), so traders export
+    // S(170) − D(145) and the market price rests at P_x; the producer price stays F.
+    let b = 0.5;
+    let s = market(b, &trade(165.0, 20.0, 20.0));
+    let a = analyse(
+        &s,
+        &policy("[floor]\nprice = 170.0\ninstrument = \"deficiency-payment\"\n"),
+    );
+    assert_eq!(a.regimes[0].name, "deficiency payment binding");
+    assert!(A - supply(b, 170.0) < 145.0);
+    assert!(close(a.producer_price, 170.0));
+    assert!(close(a.steady_state.price, 145.0), "{a:#?}");
+    let t = a.trade.as_ref().unwrap();
+    assert!(close(t.exports, supply(b, 170.0) - demand(145.0)), "{t:?}");
+}

@@ -281,7 +281,11 @@ pub fn analyse_setup(setup: &Setup, unit: &str) -> Result<StabilityAnalysis, Sta
         let harvest = setup.supply.quantity(planting);
         let market = match cases[0].clearing {
             RegimePrice::Free { offtake } => setup.demand.price_at(harvest - offtake),
-            RegimePrice::Paid(_) => setup.demand.price_at(harvest),
+            // a payment holds the producer price; the market clears the harvest, with trade if any
+            RegimePrice::Paid(_) => match &trade_cases {
+                Some(t) => t.terms.clear(&setup.demand, 0.0, harvest).price,
+                None => setup.demand.price_at(harvest),
+            },
             RegimePrice::Pinned(p) => p,
         };
         if !(market.is_finite() && market > 0.0 && harvest.is_finite() && harvest > 0.0) {
@@ -322,7 +326,16 @@ pub fn analyse_setup(setup: &Setup, unit: &str) -> Result<StabilityAnalysis, Sta
     let rule = setup.rule.rule();
     let conditions = rule.conditions(&conditions::Slopes { b, d });
     let note = rule.settles_at_once().map(str::to_string);
-    let trade = trade_cases.map(|t| trade_analysis(setup, &t, &cases, hold, producer_price));
+    let trade = trade_cases.map(|t| {
+        trade_analysis(
+            setup,
+            &t,
+            &cases,
+            hold,
+            producer_price,
+            steady_state.quantity,
+        )
+    });
     Ok(StabilityAnalysis {
         steady_state,
         verdict: hold.verdict,
@@ -346,6 +359,7 @@ fn trade_analysis(
     cases: &[regimes::RegimeCase],
     hold: &RegimeStability,
     producer_price: f64,
+    harvest: f64,
 ) -> TradeAnalysis {
     let num = crate::scenario::ranges::short_num;
     let world = setup.trade.map(|t| t.world_price).unwrap_or(0.0);
@@ -357,6 +371,10 @@ fn trade_analysis(
     let by_trade = trade::is_trade_regime(&hold.name);
     let (imports, exports) = if by_trade {
         (t.imports, t.exports)
+    } else if let RegimePrice::Paid(_) = cases[0].clearing {
+        // a deficiency payment holds the producer price; the market trades what it would
+        let traded = terms.clear(&setup.demand, 0.0, harvest);
+        (traded.imports, traded.exports)
     } else {
         (0.0, 0.0)
     };
