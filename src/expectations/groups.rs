@@ -121,7 +121,11 @@ pub(crate) fn read_groups(
     }
     for (i, v) in numbers.iter().enumerate() {
         if let Err(expected) = check_number(*v) {
-            return Err(r.bad(&format!("{key}[{i}]"), &crate::output::fmt_num(*v, 6), &expected));
+            return Err(r.bad(
+                &format!("{key}[{i}]"),
+                &crate::output::fmt_num(*v, 6),
+                &expected,
+            ));
         }
     }
     Ok(GroupSet::intern(GroupSet {

@@ -5,7 +5,7 @@
 use super::conditions::{PublishedCondition, Slopes};
 use super::groups::{read_groups, values_with, Groups, ShareRule};
 use super::{ExpectationRule, Reader, Registration, Values};
-use crate::input::ranges::r;
+use crate::input::ranges::{r, KeyRange};
 use crate::input::InputError;
 use crate::input::Key;
 use crate::input::ValueType;
@@ -25,7 +25,10 @@ pub const RULE: Registration = Registration {
         Key {
             name: "shares",
             kind: ValueType::Numbers,
-            range: Some(r("expectations.shares", 0.0, 1.0, false, false)),
+            range: Some(KeyRange {
+                note: "each group; the shares sum to 1 ± 1e-6",
+                ..r("expectations.shares", 0.0, 1.0, false, false)
+            }),
         },
     ],
     read,

@@ -9,7 +9,7 @@
 
 use super::groups::{read_groups, values_with, Groups, ShareRule};
 use super::{ExpectationRule, Reader, Registration, Values};
-use crate::input::ranges::{r, BIG};
+use crate::input::ranges::{r, KeyRange, BIG};
 use crate::input::InputError;
 use crate::input::Key;
 use crate::input::ValueType;
@@ -26,7 +26,10 @@ pub const RULE: Registration = Registration {
         Key {
             name: "cost",
             kind: ValueType::Numbers,
-            range: Some(r("expectations.cost", 0.0, BIG, false, false)),
+            range: Some(KeyRange {
+                note: "each group, per season, in squared price units",
+                ..r("expectations.cost", 0.0, BIG, false, false)
+            }),
         },
         Key {
             name: "intensity",
