@@ -157,12 +157,42 @@ fn shares_that_do_not_sum_to_one_are_refused_naming_file_key_value_and_range() {
         )
     };
     for (groups, shares, key, needle) in [
-        ("rational, naive", "[0.5, 0.6]", "expectations.shares", "summing to 1"),
-        ("rational, naive", "[0.5]", "expectations.shares", "one number per group"),
-        ("rational, naive", "[1.5, -0.5]", "expectations.shares[0]", "[0, 1]"),
-        ("rational, rational", "[0.5, 0.5]", "expectations.groups", "at most one rational"),
-        ("naive, mixed", "[0.5, 0.5]", "expectations.groups", "a single rule"),
-        ("naive, adaptive:1.7", "[0.5, 0.5]", "expectations.groups", "adaptive:1.7"),
+        (
+            "rational, naive",
+            "[0.5, 0.6]",
+            "expectations.shares",
+            "summing to 1",
+        ),
+        (
+            "rational, naive",
+            "[0.5]",
+            "expectations.shares",
+            "one number per group",
+        ),
+        (
+            "rational, naive",
+            "[1.5, -0.5]",
+            "expectations.shares[0]",
+            "[0, 1]",
+        ),
+        (
+            "rational, rational",
+            "[0.5, 0.5]",
+            "expectations.groups",
+            "at most one rational",
+        ),
+        (
+            "naive, mixed",
+            "[0.5, 0.5]",
+            "expectations.groups",
+            "a single rule",
+        ),
+        (
+            "naive, adaptive:1.7",
+            "[0.5, 0.5]",
+            "expectations.groups",
+            "adaptive:1.7",
+        ),
     ] {
         let p = write("bad.toml", &body(groups, shares));
         let out = bin().arg("check").arg(&p).output().unwrap();
@@ -174,7 +204,10 @@ fn shares_that_do_not_sum_to_one_are_refused_naming_file_key_value_and_range() {
         assert!(!err.contains("panicked"), "{err}");
     }
     // within 1e-6 of 1 is accepted
-    let p = write("ok.toml", &body("rational, naive", "[0.3333333, 0.6666667]"));
+    let p = write(
+        "ok.toml",
+        &body("rational, naive", "[0.3333333, 0.6666667]"),
+    );
     let out = bin().arg("check").arg(&p).output().unwrap();
     assert!(
         out.status.success(),

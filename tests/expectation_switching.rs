@@ -36,7 +36,11 @@ fn intensity_zero_equals_mixed_with_equal_shares_bit_for_bit() {
     for (groups, k, costs) in [
         ("rational, naive", 2, "[3.0, 0.0]"),
         ("naive, adaptive:0.4", 2, "[0.0, 7.5]"),
-        ("naive, adaptive:0.4, trailing-mean:3, rational", 4, "[0.0, 1.0, 2.0, 3.0]"),
+        (
+            "naive, adaptive:0.4, trailing-mean:3, rational",
+            4,
+            "[0.0, 1.0, 2.0, 3.0]",
+        ),
     ] {
         let shares = vec![format!("{:?}", 1.0 / k as f64); k].join(", ");
         let m = market(

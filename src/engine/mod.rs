@@ -343,41 +343,40 @@ impl<'m> Simulator<'m> {
         let diverged = |reason: String| Diverged { period: t, reason };
         let carried = self.stock * (1.0 - model.policy.agency.loss_rate);
         let floor = model.planting_floor;
-        let rule_expectation = if let (Some(g), Some(state)) =
-            (model.rule.groups(), self.groups.as_mut())
-        {
-            // farmers in groups plant Σ n_i S(P^e_i): the planting-equivalent price
-            let history = &self.ring[self.head..self.head + self.keep];
-            let last_shock = self.last_demand_shock;
-            g.season(state, history, &model.supply, floor, |p| {
-                rational::expected_price(model, carried, last_shock, p)
-            })
-            .ok_or_else(|| {
-                diverged(
-                    "no rational expectation exists for the rational group (the fixed point \
-                     could not be bracketed)"
-                        .into(),
-                )
-            })?
-        } else if model.is_rational {
-            let guess = self.last_price;
-            rational::solve(model, carried, self.last_demand_shock, floor, guess).ok_or_else(
-                || {
+        let rule_expectation =
+            if let (Some(g), Some(state)) = (model.rule.groups(), self.groups.as_mut()) {
+                // farmers in groups plant Σ n_i S(P^e_i): the planting-equivalent price
+                let history = &self.ring[self.head..self.head + self.keep];
+                let last_shock = self.last_demand_shock;
+                g.season(state, history, &model.supply, floor, |p| {
+                    rational::expected_price(model, carried, last_shock, p)
+                })
+                .ok_or_else(|| {
                     diverged(
+                        "no rational expectation exists for the rational group (the fixed point \
+                     could not be bracketed)"
+                            .into(),
+                    )
+                })?
+            } else if model.is_rational {
+                let guess = self.last_price;
+                rational::solve(model, carried, self.last_demand_shock, floor, guess).ok_or_else(
+                    || {
+                        diverged(
                         "no rational expectation exists (the fixed point could not be bracketed)"
                             .into(),
                     )
-                },
-            )?
-        } else {
-            match &model.adaptive {
-                Some(adaptive) => adaptive.next(self.previous, self.last_price),
-                None => model.rule.expect(&ExpectationInput {
-                    history: self.history(),
-                    previous: self.previous,
-                }),
-            }
-        };
+                    },
+                )?
+            } else {
+                match &model.adaptive {
+                    Some(adaptive) => adaptive.next(self.previous, self.last_price),
+                    None => model.rule.expect(&ExpectationInput {
+                        history: self.history(),
+                        previous: self.previous,
+                    }),
+                }
+            };
         let planting = match floor {
             Some(f) => rule_expectation.max(f),
             None => rule_expectation,
