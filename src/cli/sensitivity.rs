@@ -132,8 +132,7 @@ pub fn analyse(
                 .map_err(anyhow::Error::msg)?;
         }
     }
-    let policies = args
-        .policies
+    let policies = policy_paths
         .iter()
         .map(|p| Ok((p.clone(), read_table(p)?)))
         .collect::<anyhow::Result<Vec<_>>>()?;
