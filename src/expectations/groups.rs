@@ -475,7 +475,15 @@ impl ExpectationRule for Groups {
         }
     }
     fn setting(&self) -> Option<String> {
-        Some(self.listing())
+        Some(match self.shares {
+            ShareRule::Fixed => self.listing(),
+            ShareRule::Switching { intensity, memory } => format!(
+                "intensity {}, memory {}; {}",
+                super::g6(intensity),
+                super::g6(memory),
+                self.listing()
+            ),
+        })
     }
     fn groups(&self) -> Option<&Groups> {
         Some(self)
