@@ -158,6 +158,7 @@ impl<'a> StateMap<'a> {
         match &self.layout {
             StateLayout::Lags(w) => w.len(),
             StateLayout::Expectation(_) => 1,
+            StateLayout::Groups(n) => *n,
         }
     }
 
@@ -179,6 +180,9 @@ impl<'a> StateMap<'a> {
 
     /// The planting price at rest when every past producer price is `p`.
     pub fn planting_at_rest(&self, p: f64) -> f64 {
+        if let Some(g) = self.rule.groups() {
+            return g.planting_at_rest(p, &self.setup.supply, self.floor);
+        }
         self.plant(self.expectation_at_rest(p))
     }
 
@@ -206,6 +210,10 @@ impl<'a> StateMap<'a> {
         match self.layout {
             StateLayout::Lags(_) => vec![p; self.dim()],
             StateLayout::Expectation(_) => vec![self.expectation_at_rest(p)],
+            StateLayout::Groups(_) => self
+                .rule
+                .groups()
+                .map_or_else(|| vec![p], |g| g.rest_state(p)),
         }
     }
 
@@ -240,6 +248,12 @@ impl<'a> StateMap<'a> {
                     history: &history,
                     previous: Some(pe),
                 });
+            }
+            StateLayout::Groups(_) => {
+                if let Some(g) = self.rule.groups() {
+                    let price = |pl: f64| self.clearing.producer_price(self.setup, pl);
+                    g.apply(x, out, &self.setup.supply, self.floor, &price);
+                }
             }
         }
     }
@@ -283,6 +297,8 @@ impl<'a> StateMap<'a> {
                 m
             }
             StateLayout::Expectation(l) => DMatrix::from_element(1, 1, 1.0 - l + l * c),
+            // farmers in groups: the map's own Jacobian at rest, numerically
+            StateLayout::Groups(_) => self.numerical_jacobian(&self.rest_state(p)),
         }
     }
 }
