@@ -223,6 +223,8 @@ fn solve_reporting(
     let mut m = StorageMarket::new(scenario, options.nodes)?;
     // (the policy is read first: a backward-looking override is refused there, naming its file)
     let initial = initial_public(policy)?;
+    // the policy's border measures move the parities (free trade without them)
+    m.set_border(scenario, &agency::plan_of(policy)?.border, &policy.source)?;
     if let Some(spec) = &policy.expectations {
         m.set_farmers(scenario, spec)?;
     }
