@@ -27,6 +27,7 @@ pub mod agency;
 pub mod blend;
 pub mod check;
 pub mod fixed_point;
+pub mod leakage;
 pub mod market;
 #[path = "public/next_price.rs"]
 pub mod next_price;
@@ -46,6 +47,7 @@ pub mod summary;
 mod long_run;
 
 pub use check::GridRow;
+pub use leakage::{trade_report, TradeReport};
 pub use long_run::{long_run, storage_indicators, LongRunMeans};
 pub use market::{Node, StorageMarket};
 pub use policy::{band_of, payment_floor, planting_floor};

@@ -152,9 +152,13 @@ impl Blend {
                 d += self.w[i] * di;
             }
         }
-        if m.floor > 0.0 && p <= m.floor {
-            // exports at export parity
+        // exports at export parity, imports at import parity (the rows' weights sum to one only
+        // up to rounding)
+        if m.floor > 0.0 && p <= m.floor * (1.0 + 1e-12) {
             return (m.floor, 0.0);
+        }
+        if p >= m.ceiling * (1.0 - 1e-12) {
+            return (m.ceiling, 0.0);
         }
         (p.max(0.0), d)
     }
