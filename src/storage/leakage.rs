@@ -20,7 +20,7 @@
 use serde::Serialize;
 
 use super::simulate::{self, Equilibrium, StoragePeriod};
-use super::{indicator_path, initial_public, solve, SolveOptions, StorageError};
+use super::{indicator_path, initial_public, solve_bordered, SolveOptions, StorageError};
 use crate::policies::PolicySpec;
 use crate::scenario::Scenario;
 
@@ -51,15 +51,6 @@ pub struct TradeReport {
     /// Mean net exports (exports − imports) with the policy less without it.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub net_exports_change: Option<f64>,
-}
-
-/// The policy's border measures alone: `policy` without its other rules (the market as the
-/// agency's stock would find it).
-pub fn border_only(policy: &PolicySpec) -> PolicySpec {
-    let mut p = policy.clone();
-    p.rules.retain(|r| r.section() == "border");
-    p.name = format!("{} (border measures only)", policy.name);
-    p
 }
 
 /// Means over one path after the burn-in: (imports, exports, import share, export share, net
@@ -134,7 +125,14 @@ pub fn trade_report(
         net_exports_change: None,
     };
     if let Equilibrium::Public(s) = eq {
-        let base = solve(scenario, &border_only(policy), options)?;
+        let border = super::agency::plan_of(policy)?.border;
+        let base = solve_bordered(
+            scenario,
+            &PolicySpec::none(),
+            &border,
+            &policy.source,
+            options,
+        )?;
         let base_path = indicator_path(&base, scenario, 0.0);
         let [.., nx0, private0, _] = trade_means(&base_path[from..]);
         report.crowding_out = (public > 1e-6 * m.q_star).then(|| (private0 - private) / public);
