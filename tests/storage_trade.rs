@@ -273,3 +273,50 @@ fn a_tariff_moves_the_ceiling_by_its_amount() {
         assert!(r.price <= 225.0 + 1e-9);
     }
 }
+
+#[test]
+fn an_export_ban_without_imports_is_the_closed_market() {
+    // Trade::terms: an export ban leaves no export (export quota 0) and a prohibitive import cost
+    // puts import parity above every price reached, so nothing can cross the border: the
+    // equilibrium is the closed one (same stockout price to 1e-9), whatever the world price.
+    let closed = private(&market(None));
+    let s = market(Some((120.0, 1e5, 0.0)));
+    let ban = policy("[policy]\nname = \"ban\"\n[border]\nexport_ban = true\n");
+    let eq = storage::solve(&s, &ban, &SolveOptions::default()).unwrap();
+    assert_eq!(eq.market().floor, 0.0);
+    let Equilibrium::Private(open) = &eq else {
+        panic!("no public stock expected")
+    };
+    let (a, b) = (closed.stockout_price(), open.stockout_price());
+    assert!((a - b).abs() <= 1e-9 * a, "{a} against {b}");
+}
+
+#[test]
+fn the_summary_reports_trade_only_for_a_market_that_trades() {
+    // The JSON keys of docs/storage.md, "A market that trades"; a closed market's summary has none.
+    let o = SolveOptions::default();
+    let closed = storage::summary(&market(None), &PolicySpec::none(), &o, 3).unwrap();
+    assert!(closed.trade.is_none());
+    let json = storage::render_summary(&closed, furrow::output::Format::Json);
+    assert!(!json.contains("import_parity") && !json.contains("leakage"));
+    let s = market(Some((205.0, 20.0, 20.0)));
+    let open = storage::summary(&s, &band(195.0, 215.0), &o, 3).unwrap();
+    let json = storage::render_summary(&open, furrow::output::Format::Json);
+    for key in [
+        "\"import_parity\"",
+        "\"export_parity\"",
+        "\"imports_mean\"",
+        "\"exports_mean\"",
+        "\"import_season_share\"",
+        "\"export_season_share\"",
+        "\"crowding_out\"",
+        "\"leakage\"",
+        "\"private_stock_change\"",
+        "\"net_exports_change\"",
+    ] {
+        assert!(json.contains(key), "{key} missing");
+    }
+    let t = open.trade.unwrap();
+    // shares are shares; a season cannot both import and export (trade.rs, Traded)
+    assert!(t.import_season_share + t.export_season_share <= 1.0);
+}

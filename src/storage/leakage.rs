@@ -142,3 +142,55 @@ pub fn trade_report(
     }
     Ok(Some(report))
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::storage::public::AgencyMode;
+
+    fn period(public_stock: f64, imports: f64, exports: f64) -> StoragePeriod {
+        StoragePeriod {
+            period: 0,
+            expected_price: 0.0,
+            planted: 0.0,
+            harvest: 0.0,
+            availability: 0.0,
+            price: 0.0,
+            producer_price: 0.0,
+            deficiency_payments: 0.0,
+            consumption: 0.0,
+            private_stock: 0.0,
+            purchases: 0.0,
+            releases: 0.0,
+            public_stock,
+            stockout: false,
+            demand_shock: 0.0,
+            imports,
+            exports,
+            mode: AgencyMode::Inside,
+        }
+    }
+
+    #[test]
+    fn leakage_is_the_least_squares_share_of_net_purchases_that_changes_net_exports() {
+        // Constructed so that every net purchase a_t changes net exports by exactly −0.7·a_t (a
+        // purchase cuts exports, a sale cuts imports): the least-squares slope through the origin,
+        // −Σ ΔNX·a / Σ a², is then 0.7 (the normal equation of a one-regressor fit).
+        let keep = 0.9;
+        let stocks = [10.0, 25.0, 12.0, 40.0, 30.0];
+        let base: Vec<_> = (0..5).map(|_| period(0.0, 0.0, 20.0)).collect();
+        let mut with = Vec::new();
+        let mut carried = 5.0;
+        for &g in &stocks {
+            let a: f64 = g - keep * carried;
+            carried = g;
+            // net exports 20 − 0.7·a: fewer exports when buying, more when selling
+            with.push(period(g, 0.0, 20.0 - 0.7 * a));
+        }
+        let l = leakage(&with, &base, keep, 5.0, 0).unwrap();
+        assert!((l - 0.7).abs() < 1e-12, "{l}");
+        // an agency that never trades has no leakage
+        let idle: Vec<_> = (0..5).map(|_| period(0.0, 0.0, 20.0)).collect();
+        assert_eq!(leakage(&idle, &base, keep, 0.0, 0), None);
+    }
+}
