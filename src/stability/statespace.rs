@@ -251,7 +251,6 @@ impl<'a> StateMap<'a> {
             }
             StateLayout::Groups(_) => {
                 if let Some(g) = self.rule.groups() {
-                    let price = |pl: f64| self.clearing.producer_price(self.setup, pl);
                     g.apply(x, out, &self.setup.supply, self.floor, &price);
                 }
             }
@@ -262,7 +261,8 @@ impl<'a> StateMap<'a> {
     /// is its own expectation the price `price` gives for planting on it.
     pub fn price_in(&self, x: &[f64], price: impl Fn(f64) -> f64) -> f64 {
         match self.layout {
-            StateLayout::Lags(_) => x[0],
+            // farmers in groups keep the price lags first
+            StateLayout::Lags(_) | StateLayout::Groups(_) => x[0],
             StateLayout::Expectation(_) => price(self.plant(x[0])),
         }
     }
