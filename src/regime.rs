@@ -30,12 +30,14 @@ pub enum StabilityError {
 /// How the producer price answers the planting price inside one regime.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum RegimePrice {
-    /// The market clears the harvest less a constant net agency offtake: P = D⁻¹(S(P^e) − offtake).
+    /// The market clears the harvest less a constant net offtake: P = D⁻¹(S(P^e) − offtake).
     Free {
-        /// Net quantity the agency takes off the market each period.
+        /// Net quantity taken off the market each period: the agency's purchases, or a binding
+        /// export quota; negative for a binding import quota (it adds to the harvest).
         offtake: f64,
     },
-    /// The market price is pinned (a defended floor, band edge or ceiling).
+    /// The market price is pinned (a defended floor, band edge or ceiling, or a trade parity while
+    /// traders import or export).
     Pinned(f64),
     /// The producer price is pinned by a payment (a deficiency payment); the market clears freely.
     Paid(f64),

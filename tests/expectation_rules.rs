@@ -7,7 +7,7 @@ mod common;
 
 use furrow::engine::{Model, PeriodShock};
 use furrow::expectations::{
-    section_keys, ExpectationInput, ExpectationRule, ExpectationSpec, StateLayout, RULES,
+    section_keys, ExpectationInput, ExpectationRule, ExpectationSpec, ShareRule, StateLayout, RULES,
 };
 use furrow::policies::PolicySpec;
 use furrow::scenario::{self, ranges::range_of, schema, Scenario};
@@ -68,6 +68,23 @@ fn every_rule_declares_its_keys_in_the_one_schema_and_reads_only_them() {
                 key.kind
             );
             let dotted = format!("expectations.{}", key.name);
+            if key.kind == furrow::input::ValueType::Text {
+                // a text key (the groups of `mixed` and `switching`) has no numeric range; a
+                // number in its place is refused by the schema, naming the key
+                let text: String = rule.examples[0]
+                    .lines()
+                    .map(|l| {
+                        if l.starts_with(&format!("{} =", key.name)) {
+                            format!("{} = 0.5\n", key.name)
+                        } else {
+                            format!("{l}\n")
+                        }
+                    })
+                    .collect();
+                let e = market(0.15, &text).unwrap_err().to_string();
+                assert!(e.contains(&dotted), "{text}: {e}");
+                continue;
+            }
             let range = key.range.unwrap_or_else(|| panic!("{dotted}: no range"));
             assert_eq!(range.key, dotted);
             // the table's row spans the rule's own range
@@ -109,7 +126,12 @@ fn every_rule_declares_its_keys_in_the_one_schema_and_reads_only_them() {
             if rule.keys.iter().any(|k| k.name == *key) {
                 continue;
             }
-            let value = if *key == "window" { "2" } else { "0.5" };
+            let value = match *key {
+                "window" => "2",
+                "groups" => "\"naive, naive\"",
+                "shares" | "cost" => "[0.5, 0.5]",
+                _ => "0.5",
+            };
             let text = format!("{}{key} = {value}\n", rule.examples[0]);
             let e = market(0.15, &text).unwrap_err().to_string();
             assert!(
@@ -162,7 +184,7 @@ fn every_rule_expects_what_its_state_layout_says() {
         let describe = rule.describe();
         assert!(describe.starts_with(spec.rule_name()), "{text}: {describe}");
         // a rule with parameters shows its main one in the briefing's table
-        let has_keys = spec.values().iter().count() > 0;
+        let has_keys = spec.values().iter().count() > 0 || spec.values().groups().is_some();
         assert_eq!(rule.setting().is_some(), has_keys, "{text}");
         let a: Vec<f64> = (0..k + 2).map(|i| 100.0 + 7.0 * i as f64).collect();
         let b: Vec<f64> = (0..k + 2).map(|i| 130.0 - 3.0 * (i * i) as f64).collect();
@@ -191,6 +213,14 @@ fn every_rule_expects_what_its_state_layout_says() {
                 assert_eq!(direct.weight, w);
                 assert_eq!(direct.next(Some(90.0), 120.0), e);
                 assert_eq!(direct.next(None, 120.0), expect(&*rule, &[120.0], None));
+            }
+            StateLayout::Groups(n) => {
+                // farmers in groups: the groups' own map carries the state (price lags, then the
+                // groups that keep their own expectation)
+                let groups = rule.groups().expect("a group layout has groups");
+                assert_eq!(groups.state_dim(), n, "{text}");
+                assert_eq!(groups.rest_state(123.0).len(), n, "{text}");
+                assert!(rule.as_adaptive().is_none(), "{text}");
             }
         }
         // at rest: a rule that rests anywhere expects the resting price whatever it is
@@ -304,6 +334,13 @@ fn a_rule_that_settles_at_once_says_so_in_stability_and_long_runs() {
                 assert_eq!(lr.orbit, Orbit::Settled(name));
                 assert_eq!(lr.orbit.as_str(), name);
                 assert!(lr.lyapunov.is_none());
+            }
+            None if rule.groups().is_some_and(|g| g.shares != ShareRule::Fixed) => {
+                // switching: the shares move with squared errors, which the state map holds at
+                // rest, so a long run estimates no exponent
+                assert_eq!(analysis.note, None, "{text}");
+                assert_eq!(lr.orbit, Orbit::Ok, "{text}");
+                assert!(lr.lyapunov.is_none(), "{text}: {lr:?}");
             }
             None => {
                 assert_eq!(analysis.note, None, "{text}");

@@ -37,6 +37,10 @@ pub struct Request<'a> {
     /// `(RISK, COST)`: two indicators of the comparison to place the policies by, with the
     /// cost–risk annex and its frontier figure (`report --frontier`); names checked by the caller.
     pub frontier: Option<(String, String)>,
+    /// Annexes built elsewhere, appended in order (the assumption annex of `report
+    /// --sensitivity`, built by `sensitivity::annex` from the analysis itself; the caller writes
+    /// their figures).
+    pub annexes: Vec<Section>,
 }
 
 /// A built briefing and its figures (for a `--plots` folder).
@@ -357,6 +361,14 @@ pub fn build_with_households(
         summary.push(format!(
             "The policies as designs by {risk} and {cost}, with those no other beats on both: see \
              Annex H."
+        ));
+    }
+    for annex in &req.annexes {
+        sections.push(annex.clone());
+        summary.push(format!(
+            "{}: see {}.",
+            annex.heading.split(": ").nth(1).unwrap_or("an annex"),
+            annex.heading.split(':').next().unwrap_or("the annex")
         ));
     }
     let n = req.policy_paths.len();

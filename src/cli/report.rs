@@ -23,6 +23,25 @@ pub struct ReportArgs {
     /// is better), in an annex with the frontier figure, e.g. `price_cv,fiscal_cost_pv`.
     #[arg(long, value_name = "RISK,COST")]
     pub frontier: Option<String>,
+    /// Add the assumption annex: every policy under each expectation rule (the panel of
+    /// `furrow sensitivity`), the forecast-error decomposition and, with --range, the tornado.
+    #[arg(long)]
+    pub sensitivity: bool,
+    /// With --sensitivity: the panel's rules, as `sensitivity --rules`.
+    #[arg(
+        long,
+        value_name = "LIST",
+        default_value = "",
+        requires = "sensitivity"
+    )]
+    pub rules: String,
+    /// With --sensitivity: a file key and its low and high value for the tornado, KEY=LOW:HIGH;
+    /// repeatable.
+    #[arg(long, value_name = "KEY=LOW:HIGH", requires = "sensitivity")]
+    pub range: Vec<String>,
+    /// With --sensitivity: an indicator of the panel, as `sensitivity --indicator`; repeatable.
+    #[arg(long, value_name = "NAME", requires = "sensitivity")]
+    pub indicator: Vec<String>,
     #[command(flatten)]
     pub common: CommonArgs,
 }
@@ -46,6 +65,20 @@ pub fn execute(args: &ReportArgs) -> anyhow::Result<()> {
         None => None,
     };
     let (result, households) = run_compare(&scenario, &cols)?;
+    let annex = if args.sensitivity {
+        Some(furrow::sensitivity::annex::annex(
+            &super::sensitivity::analyse(
+                &args.market,
+                &args.policies,
+                &args.rules,
+                &args.range,
+                &args.indicator,
+                &args.common,
+            )?,
+        ))
+    } else {
+        None
+    };
     if let (Some((risk, cost)), Some(first)) = (&frontier, result.policies.first()) {
         for name in [risk, cost] {
             if !first.indicators.iter().any(|i| &i.key == name) {
@@ -71,11 +104,15 @@ pub fn execute(args: &ReportArgs) -> anyhow::Result<()> {
             },
             command: std::env::args().collect::<Vec<_>>().join(" "),
             frontier,
+            annexes: annex.iter().map(|(section, _)| section.clone()).collect(),
         },
         households.as_ref(),
     )?;
     if let Some(dir) = args.common.plot_dir() {
         figures::write_all(&dir, &built.figures)?;
+        if let Some((_, annex_figures)) = &annex {
+            figures::write_all(&dir, annex_figures)?;
+        }
     }
     furrow::output::write_whole(&out, built.briefing.to_html().as_bytes())
         .with_context(|| format!("cannot write {}", out.display()))?;

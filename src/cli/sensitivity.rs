@@ -79,25 +79,52 @@ pub struct SensitivityArgs {
 
 /// Runs `sensitivity`.
 pub fn execute(args: &SensitivityArgs) -> anyhow::Result<()> {
+    let result = analyse(
+        &args.market,
+        &args.policies,
+        &args.rules,
+        &args.range,
+        &args.indicator,
+        &args.common,
+    )?;
+    if let Some(dir) = args.common.plot_dir() {
+        let figures = sensitivity::figures(&result);
+        if figures.is_empty() {
+            super::common::say(
+                "--plots: the tornado needs at least one --range; no figure written",
+            );
+        }
+        super::figures::write_all(&dir, &figures)?;
+    }
+    args.common
+        .emit_with_caution(&sensitivity::render(&result, args.common.format))
+}
+
+/// The analysis of `sensitivity` (also the assumption annex of `report --sensitivity`): the files
+/// validated first, then the panel, the forecast errors and the tornado.
+pub fn analyse(
+    market_path: &str,
+    policy_paths: &[String],
+    rules: &str,
+    range: &[String],
+    indicator: &[String],
+    common: &CommonArgs,
+) -> anyhow::Result<sensitivity::Sensitivity> {
     // the files as given, validated first (errors name the file or the option)
-    let scenario = args.common.load_market(&args.market)?;
-    for p in &args.policies {
+    let scenario = common.load_market(market_path)?;
+    for p in policy_paths {
         load_policy(Some(p), &scenario)?;
     }
-    let rules = sensitivity::parse_rules(&args.rules)?;
-    let ranges = args
-        .range
+    let rules = sensitivity::parse_rules(rules)?;
+    let ranges = range
         .iter()
         .map(|r| sensitivity::parse_range(r))
         .collect::<Result<Vec<_>, _>>()?;
-    let mut market = read_table(&args.market)?;
+    let mut market = read_table(market_path)?;
     let flags = [
-        ("run.seed", args.common.seed.map(|v| v as i64)),
-        (
-            "run.replications",
-            args.common.replications.map(|v| v as i64),
-        ),
-        ("run.periods", args.common.periods.map(|v| v as i64)),
+        ("run.seed", common.seed.map(|v| v as i64)),
+        ("run.replications", common.replications.map(|v| v as i64)),
+        ("run.periods", common.periods.map(|v| v as i64)),
     ];
     for (key, value) in flags {
         if let Some(v) = value {
@@ -105,27 +132,26 @@ pub fn execute(args: &SensitivityArgs) -> anyhow::Result<()> {
                 .map_err(anyhow::Error::msg)?;
         }
     }
-    let policies = args
-        .policies
+    let policies = policy_paths
         .iter()
         .map(|p| Ok((p.clone(), read_table(p)?)))
         .collect::<anyhow::Result<Vec<_>>>()?;
     let inputs = Inputs {
-        market_file: args.market.clone(),
+        market_file: market_path.to_string(),
         market,
         policies,
     };
     let request = Request {
         rules,
         ranges,
-        indicators: args.indicator.clone(),
+        indicators: indicator.to_vec(),
     };
     install_progress();
-    check_memory("sensitivity", &scenario, args.policies.len() + 2, 2)?;
+    check_memory("sensitivity", &scenario, policy_paths.len() + 2, 2)?;
     // a comparison per rule plus one for its forecast errors (two models), the base and two ends
     // per range (every policy and the baseline)
     let reps = scenario.run.replications;
-    let columns = args.policies.len() + 1;
+    let columns = policy_paths.len() + 1;
     let models = request.rules.len() * (columns + 2)
         + if request.ranges.is_empty() {
             0
@@ -145,16 +171,5 @@ pub fn execute(args: &SensitivityArgs) -> anyhow::Result<()> {
     );
     let result = sensitivity::sensitivity(&inputs, &request, bar.observer());
     bar.finish();
-    let result = result?;
-    if let Some(dir) = args.common.plot_dir() {
-        let figures = sensitivity::figures(&result);
-        if figures.is_empty() {
-            super::common::say(
-                "--plots: the tornado needs at least one --range; no figure written",
-            );
-        }
-        super::figures::write_all(&dir, &figures)?;
-    }
-    args.common
-        .emit_with_caution(&sensitivity::render(&result, args.common.format))
+    Ok(result?)
 }

@@ -377,6 +377,8 @@ pub struct Simulator<'m> {
     /// rational rule on a market whose world price varies).
     last_world: Option<f64>,
     period: usize,
+    /// Farmers in groups (`mixed`, `switching`): each group's forecasts and errors.
+    groups: Option<expectations::GroupState>,
 }
 
 impl<'m> Simulator<'m> {
@@ -396,6 +398,7 @@ impl<'m> Simulator<'m> {
             last_demand_shock: 0.0,
             last_world: None,
             period: 0,
+            groups: model.rule.groups().map(|g| g.start()),
         }
     }
 
@@ -427,31 +430,47 @@ impl<'m> Simulator<'m> {
         let diverged = |reason: String| Diverged { period: t, reason };
         let carried = self.stock * (1.0 - model.policy.agency.loss_rate);
         let floor = model.planting_floor;
-        let rule_expectation = if model.is_rational {
-            let guess = self.last_price;
-            rational::solve(
-                model,
-                carried,
-                self.last_demand_shock,
-                floor,
-                guess,
-                self.last_world,
-            )
-            .ok_or_else(|| {
-                diverged(
-                    "no rational expectation exists (the fixed point could not be bracketed)"
-                        .into(),
+        let rule_expectation =
+            if let (Some(g), Some(state)) = (model.rule.groups(), self.groups.as_mut()) {
+                // farmers in groups plant Σ n_i S(P^e_i): the planting-equivalent price
+                let history = &self.ring[self.head..self.head + self.keep];
+                let last_shock = self.last_demand_shock;
+                let last_world = self.last_world;
+                g.season(state, history, &model.supply, floor, |p| {
+                    rational::expected_price(model, carried, last_shock, p, last_world)
+                })
+                .ok_or_else(|| {
+                    diverged(
+                        "no rational expectation exists for the rational group (the fixed point \
+                     could not be bracketed)"
+                            .into(),
+                    )
+                })?
+            } else if model.is_rational {
+                let guess = self.last_price;
+                rational::solve(
+                    model,
+                    carried,
+                    self.last_demand_shock,
+                    floor,
+                    guess,
+                    self.last_world,
                 )
-            })?
-        } else {
-            match &model.adaptive {
-                Some(adaptive) => adaptive.next(self.previous, self.last_price),
-                None => model.rule.expect(&ExpectationInput {
-                    history: self.history(),
-                    previous: self.previous,
-                }),
-            }
-        };
+                .ok_or_else(|| {
+                    diverged(
+                        "no rational expectation exists (the fixed point could not be bracketed)"
+                            .into(),
+                    )
+                })?
+            } else {
+                match &model.adaptive {
+                    Some(adaptive) => adaptive.next(self.previous, self.last_price),
+                    None => model.rule.expect(&ExpectationInput {
+                        history: self.history(),
+                        previous: self.previous,
+                    }),
+                }
+            };
         let planting = match floor {
             Some(f) => rule_expectation.max(f),
             None => rule_expectation,
@@ -536,11 +555,15 @@ impl<'m> Simulator<'m> {
         self.period = t;
         // planting on revenue: the rules read what a unit of expected harvest earned, P_t·Y_t/E[Y]
         // (E[Y] = 1), the price itself when there is no yield risk
-        self.push_price(if model.revenue {
+        let read = if model.revenue {
             c.producer_price * shock.yield_factor
         } else {
             c.producer_price
-        });
+        };
+        self.push_price(read);
+        if let (Some(g), Some(state)) = (model.rule.groups(), self.groups.as_mut()) {
+            g.settle(state, read);
+        }
         Ok(record)
     }
 }

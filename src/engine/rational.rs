@@ -4,6 +4,10 @@
 //! P^e ↦ E[producer price] − P^e is strictly decreasing (more planting, lower prices), so the fixed
 //! point is unique and is found by bracketing and Brent's method.
 //!
+//! Farmers in groups with a rational group (`mixed`, `switching`): the group's forecast is the
+//! expected price given every group's planting (`expected_price` at the planting-equivalent price,
+//! solved in `expectations::Groups::season`).
+//!
 //! Farmers who plant on revenue (`[supply] plants_on = "revenue"`) plant on E[producer price · Y]/E[Y]
 //! instead, Y the yield factor with E[Y] = 1 (Wright and Williams 1991): each node's price is
 //! weighted by its yield factor. The map stays decreasing in P^e where the price falls with the
@@ -106,6 +110,53 @@ impl Nodes {
     }
 }
 
+/// The expected producer price (or, planting on revenue, E[producer price · Y]) when farmers plant
+/// on `planting`, given the carried stock, last period's demand shock and last period's log world
+/// factor (integrated over the world price's nodes when it varies).
+#[inline]
+pub(crate) fn expected_price(
+    model: &Model,
+    carried: f64,
+    last_demand_shock: f64,
+    planting: f64,
+    last_world: Option<f64>,
+) -> f64 {
+    let nodes = &model.nodes;
+    let mean_demand = nodes.persistence * last_demand_shock;
+    let revenue = model.revenue;
+    let at = |world_factor: f64| {
+        nodes
+            .points
+            .iter()
+            .map(|&(w, y, s, d)| {
+                let shock = PeriodShock {
+                    yield_factor: y,
+                    supply: s,
+                    demand: mean_demand + d,
+                    world_factor,
+                };
+                let paid = model.clear(planting, &shock, carried).producer_price;
+                // on revenue: E[P·Y] (E[Y] = 1); without yield risk y = 1 and this is w·P exactly
+                if revenue {
+                    w * (paid * y)
+                } else {
+                    w * paid
+                }
+            })
+            .sum::<f64>()
+    };
+    if nodes.world.is_empty() {
+        return at(1.0);
+    }
+    let (world_mean, world_sd) = nodes.world_law(last_world);
+    let half_s2 = 0.5 * nodes.world_s * nodes.world_s;
+    nodes
+        .world
+        .iter()
+        .map(|&(z, w)| w * at((world_mean + world_sd * z - half_s2).exp()))
+        .sum::<f64>()
+}
+
 /// The rational expected producer price given the carried stock and last period's demand shock.
 pub(crate) fn solve(
     model: &Model,
@@ -115,44 +166,9 @@ pub(crate) fn solve(
     guess: f64,
     last_world: Option<f64>,
 ) -> Option<f64> {
-    let nodes = &model.nodes;
-    let mean_demand = nodes.persistence * last_demand_shock;
-    let revenue = model.revenue;
-    let (world_mean, world_sd) = nodes.world_law(last_world);
-    let half_s2 = 0.5 * nodes.world_s * nodes.world_s;
     let expected = |p: f64| -> f64 {
         let planting = floor.map_or(p, |f| p.max(f));
-        let at = |world_factor: f64| {
-            nodes
-                .points
-                .iter()
-                .map(|&(w, y, s, d)| {
-                    let shock = PeriodShock {
-                        yield_factor: y,
-                        supply: s,
-                        demand: mean_demand + d,
-                        world_factor,
-                    };
-                    let paid = model.clear(planting, &shock, carried).producer_price;
-                    // on revenue: E[P·Y] (E[Y] = 1); without yield risk y = 1 and this is w·P
-                    // exactly
-                    if revenue {
-                        w * (paid * y)
-                    } else {
-                        w * paid
-                    }
-                })
-                .sum::<f64>()
-        };
-        if nodes.world.is_empty() {
-            at(1.0)
-        } else {
-            nodes
-                .world
-                .iter()
-                .map(|&(z, w)| w * at((world_mean + world_sd * z - half_s2).exp()))
-                .sum::<f64>()
-        }
+        expected_price(model, carried, last_demand_shock, planting, last_world)
     };
     let guess = if guess.is_finite() && guess > 0.0 {
         guess

@@ -114,4 +114,7 @@ impl ExpectationRule for Adaptive {
     fn as_adaptive(&self) -> Option<Adaptive> {
         Some(*self)
     }
+    fn groups(&self) -> Option<&super::Groups> {
+        None
+    }
 }

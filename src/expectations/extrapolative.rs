@@ -79,4 +79,7 @@ impl ExpectationRule for Extrapolative {
         let (p1, p2) = (input.lag(1), input.lag(2));
         p1 + self.weight * (p1 - p2)
     }
+    fn groups(&self) -> Option<&super::Groups> {
+        None
+    }
 }

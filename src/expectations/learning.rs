@@ -128,4 +128,7 @@ impl ExpectationRule for Learning {
     fn as_adaptive(&self) -> Option<Adaptive> {
         Some(self.as_recursion())
     }
+    fn groups(&self) -> Option<&super::Groups> {
+        None
+    }
 }

@@ -15,15 +15,20 @@
 mod adaptive;
 pub mod conditions;
 mod extrapolative;
+mod groups;
 mod learning;
+mod mixed;
 mod naive;
 mod normal_price;
 mod rational;
+mod switching;
 mod trailing_mean;
 
 pub use adaptive::Adaptive;
 pub use extrapolative::Extrapolative;
+pub use groups::{GroupSet, GroupState, Groups, ShareRule, MAX_GROUPS};
 pub use learning::Learning;
+pub use mixed::SUM_TOLERANCE;
 pub use naive::Naive;
 pub use normal_price::{NormalPrice, NormalPriceRule};
 pub use rational::Rational;
@@ -51,6 +56,8 @@ pub const RULES: &[Registration] = &[
     trailing_mean::RULE,
     learning::RULE,
     rational::RULE,
+    mixed::RULE,
+    switching::RULE,
 ];
 
 /// Most keys one rule reads (besides `rule`); checked for every registered rule at compile time.
@@ -123,6 +130,9 @@ pub enum StateLayout {
     /// The rule's own expectation (a rule that updates it with this weight); its value before
     /// period 1 is the rule's expectation with no previous one.
     Expectation(f64),
+    /// Farmers in groups (`mixed`, `switching`) with a state of this dimension: the rule's own map
+    /// ([`Groups::apply`]) carries it.
+    Groups(usize),
 }
 
 /// One way of forming price expectations: everything the program needs of it. No method has a
@@ -156,6 +166,9 @@ pub trait ExpectationRule: Send + Sync + std::fmt::Debug {
     /// Its main parameter in words for the briefing's policy table (e.g. `weight 0.4`); none for a
     /// rule without parameters.
     fn setting(&self) -> Option<String>;
+    /// The groups, for a rule of farmers in groups (`mixed`, `switching`): the engine and the
+    /// stability map plant Σ n_i S(P^e_i) through them. `None` for a single rule.
+    fn groups(&self) -> Option<&Groups>;
 }
 
 /// A parameter as the descriptions print it.
@@ -179,6 +192,8 @@ pub(crate) fn g6(x: f64) -> String {
 pub struct Values {
     items: [(&'static str, f64); MAX_KEYS],
     len: usize,
+    /// The groups of `mixed` and `switching` (interned, so the values stay cheap to copy).
+    groups: Option<&'static GroupSet>,
 }
 
 impl Values {
@@ -197,6 +212,17 @@ impl Values {
             self.len += 1;
         }
         self
+    }
+
+    /// With the groups of `mixed` or `switching`.
+    pub fn with_groups(mut self, set: &'static GroupSet) -> Values {
+        self.groups = Some(set);
+        self
+    }
+
+    /// The groups, for `mixed` and `switching`.
+    pub fn groups(&self) -> Option<&'static GroupSet> {
+        self.groups
     }
 
     /// With `key` = `value` when there is one.
@@ -224,9 +250,14 @@ impl Values {
     }
 
     fn without(self, keys: &[&str]) -> Values {
-        self.iter()
+        let kept = self
+            .iter()
             .filter(|(k, _)| !keys.contains(k))
-            .fold(Values::new(), |v, (k, x)| v.with(k, x))
+            .fold(Values::new(), |v, (k, x)| v.with(k, x));
+        Values {
+            groups: self.groups,
+            ..kept
+        }
     }
 }
 
@@ -285,6 +316,30 @@ impl Reader<'_> {
                 "the rule declares no range for this key",
             )),
         }
+    }
+
+    /// The text under `key`; `None` when absent.
+    pub fn text(&self, key: &str) -> Option<String> {
+        self.table
+            .get(key)
+            .and_then(|v| v.as_str())
+            .map(str::to_string)
+    }
+
+    /// The numbers of the array under `key` (a single number counts as an array of one; NaN for
+    /// an entry that is not a number, so that the caller's range check refuses it); `None` when
+    /// absent.
+    pub fn numbers(&self, key: &str) -> Option<Vec<f64>> {
+        let v = self.table.get(key)?;
+        let one = |v: &toml::Value| {
+            v.as_float()
+                .or_else(|| v.as_integer().map(|i| i as f64))
+                .unwrap_or(f64::NAN)
+        };
+        Some(match v.as_array() {
+            Some(a) => a.iter().map(one).collect(),
+            None => vec![one(v)],
+        })
     }
 
     /// A required key is missing: `rule "NAME" needs NEEDS`.
@@ -447,7 +502,28 @@ impl ExpectationSpec {
             };
             t.insert(k.into(), value);
         }
+        if let Some(set) = self.values.groups {
+            t.insert("groups".into(), toml::Value::String(set.text()));
+            t.insert(
+                set.key.into(),
+                toml::Value::Array(set.numbers.iter().map(|n| toml::Value::Float(*n)).collect()),
+            );
+        }
         t
+    }
+
+    /// The rule in its short form `NAME[:KEY=VALUE]...` with every value written out, which
+    /// [`ExpectationSpec::from_short`] reads back to the same rule (a rule with groups has none).
+    pub fn short_form(&self) -> String {
+        let mut out = self.registration.name.to_string();
+        for (k, v) in self.values.iter() {
+            if self.is_whole(k) {
+                out.push_str(&format!(":{k}={}", v as i64));
+            } else {
+                out.push_str(&format!(":{k}={v:?}"));
+            }
+        }
+        out
     }
 
     /// Whether the rule declares `key` a whole number (written and serialised as an integer).
@@ -480,6 +556,10 @@ impl std::fmt::Debug for ExpectationSpec {
         for (k, v) in self.values.iter() {
             d.field(k, &v);
         }
+        if let Some(set) = self.values.groups {
+            d.field("groups", &set.text());
+            d.field(set.key, &set.numbers);
+        }
         d.finish()
     }
 }
@@ -487,7 +567,8 @@ impl std::fmt::Debug for ExpectationSpec {
 impl Serialize for ExpectationSpec {
     fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
         use serde::ser::SerializeMap;
-        let mut m = s.serialize_map(Some(1 + self.values.len))?;
+        let extra = if self.values.groups.is_some() { 2 } else { 0 };
+        let mut m = s.serialize_map(Some(1 + self.values.len + extra))?;
         m.serialize_entry("rule", self.registration.name)?;
         for (k, v) in self.values.iter() {
             let whole = self.is_whole(k);
@@ -496,6 +577,10 @@ impl Serialize for ExpectationSpec {
             } else {
                 m.serialize_entry(k, &v)?;
             }
+        }
+        if let Some(set) = self.values.groups {
+            m.serialize_entry("groups", &set.text())?;
+            m.serialize_entry(set.key, &set.numbers)?;
         }
         m.end()
     }

@@ -63,4 +63,7 @@ impl ExpectationRule for Naive {
     fn expect(&self, input: &ExpectationInput) -> f64 {
         input.lag(1)
     }
+    fn groups(&self) -> Option<&super::Groups> {
+        None
+    }
 }

@@ -155,4 +155,7 @@ impl ExpectationRule for NormalPriceRule {
         };
         last + self.weight * (normal - last)
     }
+    fn groups(&self) -> Option<&super::Groups> {
+        None
+    }
 }

@@ -69,4 +69,7 @@ impl ExpectationRule for Rational {
     fn is_rational(&self) -> bool {
         true
     }
+    fn groups(&self) -> Option<&super::Groups> {
+        None
+    }
 }

@@ -93,4 +93,7 @@ impl ExpectationRule for TrailingMean {
     fn expect(&self, input: &ExpectationInput) -> f64 {
         mean_of_last(input.history, self.window)
     }
+    fn groups(&self) -> Option<&super::Groups> {
+        None
+    }
 }

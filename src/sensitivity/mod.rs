@@ -16,6 +16,7 @@
 //! Rules are named by their short form (`ExpectationSpec::from_short`: `adaptive:0.6`); nothing
 //! here names an expectation rule (the rational one is found by asking `is_rational`).
 
+pub mod annex;
 mod render;
 mod tornado;
 

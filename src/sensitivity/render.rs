@@ -81,7 +81,7 @@ pub fn csv(s: &Sensitivity) -> TextTable {
 }
 
 /// The kind of indicator `key` in the panel.
-fn kind_of(s: &Sensitivity, key: &str) -> Kind {
+pub(super) fn kind_of(s: &Sensitivity, key: &str) -> Kind {
     s.panel
         .iter()
         .flat_map(|c| c.indicators.iter())
@@ -90,14 +90,14 @@ fn kind_of(s: &Sensitivity, key: &str) -> Kind {
         .unwrap_or(Kind::Number)
 }
 
-fn show(units: &Units, kind: Kind, x: Option<f64>, scale: &MoneyScale) -> String {
+pub(super) fn show(units: &Units, kind: Kind, x: Option<f64>, scale: &MoneyScale) -> String {
     match (x.filter(|x| x.is_finite()), kind.measure()) {
         (Some(x), Some(m)) => units.show(x, m, scale),
         _ => "n/a".into(),
     }
 }
 
-fn label_of(s: &Sensitivity, key: &str) -> String {
+pub(super) fn label_of(s: &Sensitivity, key: &str) -> String {
     s.panel
         .iter()
         .flat_map(|c| c.indicators.iter())
@@ -223,7 +223,7 @@ fn text(s: &Sensitivity, format: Format) -> String {
     out
 }
 
-fn with_se(
+pub(super) fn with_se(
     units: &Units,
     kind: Kind,
     c: &Cell,

@@ -19,6 +19,7 @@ pub mod eigen;
 pub mod regimes;
 mod render;
 pub mod statespace;
+pub mod trade;
 
 use serde::Serialize;
 
@@ -30,6 +31,7 @@ pub use crate::expectations::conditions::{self, PublishedCondition};
 pub use crate::regime::{RegimePrice, StabilityError};
 pub use render::render;
 pub use statespace::{Setup, StateMap};
+pub use trade::{BoundedCycle, TradeAnalysis};
 
 /// A complex eigenvalue.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
@@ -119,6 +121,10 @@ pub struct StabilityAnalysis {
     pub conditions: Vec<PublishedCondition>,
     /// General remarks (a rule that settles at once, omitted features).
     pub note: Option<String>,
+    /// On a trading market: the parities at the mean world price, the regime holding the steady
+    /// state and its steady imports and exports (absent for a closed market).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub trade: Option<TradeAnalysis>,
 }
 
 impl StabilityError {
@@ -261,7 +267,7 @@ fn regime_at(
 /// Analyses a [`Setup`]; `unit` is the quantity unit used in notes.
 pub fn analyse_setup(setup: &Setup, unit: &str) -> Result<StabilityAnalysis, StabilityError> {
     let p_free = free_price(setup)?;
-    let cases = regimes::regimes(setup, p_free, unit)?;
+    let (cases, trade_cases) = regimes::regimes_and_trade(setup, p_free, unit)?;
     let mut out = Vec::with_capacity(cases.len());
     for c in &cases {
         out.push(regime_at(setup, c, p_free)?);
@@ -275,7 +281,11 @@ pub fn analyse_setup(setup: &Setup, unit: &str) -> Result<StabilityAnalysis, Sta
         let harvest = setup.supply.quantity(planting);
         let market = match cases[0].clearing {
             RegimePrice::Free { offtake } => setup.demand.price_at(harvest - offtake),
-            RegimePrice::Paid(_) => setup.demand.price_at(harvest),
+            // a payment holds the producer price; the market clears the harvest, with trade if any
+            RegimePrice::Paid(_) => match &trade_cases {
+                Some(t) => t.terms.clear(&setup.demand, 0.0, harvest).price,
+                None => setup.demand.price_at(harvest),
+            },
             RegimePrice::Pinned(p) => p,
         };
         if !(market.is_finite() && market > 0.0 && harvest.is_finite() && harvest > 0.0) {
@@ -316,6 +326,16 @@ pub fn analyse_setup(setup: &Setup, unit: &str) -> Result<StabilityAnalysis, Sta
     let rule = setup.rule.rule();
     let conditions = rule.conditions(&conditions::Slopes { b, d });
     let note = rule.settles_at_once().map(str::to_string);
+    let trade = trade_cases.map(|t| {
+        trade_analysis(
+            setup,
+            &t,
+            &cases,
+            hold,
+            producer_price,
+            steady_state.quantity,
+        )
+    });
     Ok(StabilityAnalysis {
         steady_state,
         verdict: hold.verdict,
@@ -327,7 +347,91 @@ pub fn analyse_setup(setup: &Setup, unit: &str) -> Result<StabilityAnalysis, Sta
         rule: setup.rule.rule_name(),
         conditions,
         note,
+        trade,
     })
+}
+
+/// The trade part of the analysis: parities, the holding regime's steady trade, and where prices
+/// settle when the free market holds an unstable steady state that trade bounds.
+fn trade_analysis(
+    setup: &Setup,
+    t: &trade::TradeCases,
+    cases: &[regimes::RegimeCase],
+    hold: &RegimeStability,
+    producer_price: f64,
+    harvest: f64,
+) -> TradeAnalysis {
+    let num = crate::scenario::ranges::short_num;
+    let world = setup.trade.map(|t| t.world_price).unwrap_or(0.0);
+    let cv = setup.trade.map(|t| t.world_price_cv).unwrap_or(0.0);
+    let terms = t.terms;
+    let import_parity = (terms.import_quota > 0.0 && terms.import_parity.is_finite())
+        .then_some(terms.import_parity);
+    let export_parity = (terms.export_quota > 0.0).then_some(terms.export_parity);
+    let by_trade = trade::is_trade_regime(&hold.name);
+    let (imports, exports) = if by_trade {
+        (t.imports, t.exports)
+    } else if let RegimePrice::Paid(_) = cases[0].clearing {
+        // a deficiency payment holds the producer price; the market trades what it would
+        let traded = terms.clear(&setup.demand, 0.0, harvest);
+        (traded.imports, traded.exports)
+    } else {
+        (0.0, 0.0)
+    };
+    let mut note = format!("the world price is taken at its mean {}", num(world));
+    if cv > 0.0 {
+        note.push_str(&format!(
+            " (world_price_cv {} is treated at the mean for the steady state and the regimes)",
+            num(cv)
+        ));
+    }
+    note.push_str(&format!(
+        "; the steady state is held by the {} regime",
+        hold.name
+    ));
+    let policy_regimes = cases
+        .iter()
+        .any(|c| c.name != "free market" && !trade::is_trade_regime(&c.name));
+    let mut bounded_cycle = None;
+    if hold.name == "free market" && hold.verdict == Verdict::Unstable {
+        if policy_regimes {
+            note.push_str(
+                "; the free market's steady state is unstable; the orbit with the policy's regimes \
+                 and trade together is not followed here (see `run`)",
+            );
+        } else {
+            bounded_cycle = trade::bounded_orbit(setup, &terms, producer_price);
+            match &bounded_cycle {
+                Some(b) => note.push_str(&format!(
+                    "; the steady state is unstable at home (spectral radius {}), but trade bounds \
+                     the cobweb: without shocks prices settle {} between {} and {} (at a parity in \
+                     {} % of periods) — a bounded cycle, not divergence",
+                    crate::output::fmt_num(hold.spectral_radius, 6),
+                    b.period
+                        .map(|k| format!("on a cycle of period {k}"))
+                        .unwrap_or_else(|| "on no short cycle".into()),
+                    num(b.low),
+                    num(b.high),
+                    num(100.0 * b.at_parity_share)
+                )),
+                None => note.push_str(
+                    "; the steady state is unstable at home and trade does not bound the cobweb \
+                     on the side without trade: the orbit leaves positive prices",
+                ),
+            }
+        }
+    }
+    TradeAnalysis {
+        world_price: world,
+        world_price_cv: cv,
+        import_parity,
+        export_parity,
+        holding: hold.name.clone(),
+        imports,
+        exports,
+        bounded_cycle,
+        note,
+    }
 }
 
 #[cfg(test)]

@@ -137,11 +137,21 @@ fn purchase_holds(
 
 /// Lists the regimes of `setup` given the free market's steady producer price `free_price`, the one
 /// holding the steady state first; an error when a regime that would hold it has no steady state.
+/// On a trading market importing and exporting are among them (`stability::trade`).
 pub fn regimes(
     setup: &Setup,
     free_price: f64,
     unit: &str,
 ) -> Result<Vec<RegimeCase>, StabilityError> {
+    regimes_and_trade(setup, free_price, unit).map(|(cases, _)| cases)
+}
+
+/// [`regimes`] and, on a trading market, its border at the mean world price with the steady trade.
+pub(crate) fn regimes_and_trade(
+    setup: &Setup,
+    free_price: f64,
+    unit: &str,
+) -> Result<(Vec<RegimeCase>, Option<super::trade::TradeCases>), StabilityError> {
     let mut r = Regimes {
         maps: setup,
         free_price,
@@ -156,8 +166,14 @@ pub fn regimes(
     let Regimes {
         mut holding,
         mut secondary,
+        border,
         ..
     } = r;
+    let policy_holds = !holding.is_empty();
+    let mut trade = super::trade::cases(setup, &border, unit);
+    if let Some(t) = trade.as_mut() {
+        super::trade::merge(t, &mut holding, &mut secondary, free_price);
+    }
     let free = RegimePrice::Free { offtake: 0.0 };
     if holding.is_empty() {
         let mut c = case("free market", free, None);
@@ -167,14 +183,15 @@ pub fn regimes(
         .iter()
         .any(|c| matches!(c.clearing, RegimePrice::Free { .. }))
     {
-        let mut c = case(
-            "free market",
-            free,
-            Some("the market left alone, for comparison (no policy rule acts)".into()),
-        );
+        let note = if policy_holds || trade.is_none() {
+            "the market left alone, for comparison (no policy rule acts)".to_string()
+        } else {
+            "between export parity and import parity: the market clears at home, no trade".into()
+        };
+        let mut c = case("free market", free, Some(note));
         c.floor_applies = false;
         secondary.insert(0, c);
     }
     holding.extend(secondary);
-    Ok(holding)
+    Ok((holding, trade))
 }

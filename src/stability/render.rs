@@ -94,6 +94,18 @@ pub fn render(analysis: &StabilityAnalysis, format: Format) -> String {
         analysis.verdict.as_str(),
         fmt_num(analysis.spectral_radius, 6)
     ));
+    if let Some(t) = &analysis.trade {
+        out.push_str(&format!(
+            "trade: import parity {}, export parity {}; at the steady state imports {}, exports {} \
+             a period ({} regime)\n",
+            t.import_parity.map(level).unwrap_or_else(|| "none".into()),
+            t.export_parity.map(level).unwrap_or_else(|| "none".into()),
+            level(t.imports),
+            level(t.exports),
+            t.holding
+        ));
+        out.push_str(&format!("trade: {}\n", t.note));
+    }
     if !analysis.conditions.is_empty() {
         out.push_str("\npublished conditions (free market at its steady state):\n");
         for c in &analysis.conditions {

@@ -17,6 +17,7 @@ use crate::policies::PolicySpec;
 use crate::policies::{Agency, RuleRef};
 use crate::regime::RegimePrice;
 use crate::scenario::{ExpectationSpec, Scenario};
+use crate::trade::Trade;
 
 /// What the linearisation needs of a market and a policy (cheap to clone and patch in a sweep: the
 /// rules are shared).
@@ -34,20 +35,24 @@ pub struct Setup {
     pub agency: Agency,
     /// The announced planting floor, if any (from the rules).
     planting_floor: Option<f64>,
+    /// The border (`[trade]`), when the market trades (its world price taken at its mean).
+    pub trade: Option<Trade>,
 }
 
 impl Setup {
     /// The setup of `scenario` under `policy`.
     pub fn new(scenario: &Scenario, policy: &PolicySpec) -> Setup {
-        Setup::with_rules(
+        let mut s = Setup::with_rules(
             scenario.market.demand,
             scenario.market.supply,
             policy.expectations.unwrap_or(scenario.expectations),
             policy.rules.clone(),
-        )
+        );
+        s.trade = scenario.trade;
+        s
     }
 
-    /// A setup from its parts.
+    /// A setup from its parts (a closed market: set `trade` for one that trades).
     pub fn with_rules(
         demand: Curve,
         supply: Curve,
@@ -61,6 +66,7 @@ impl Setup {
             rules: Vec::new(),
             agency: Agency::default(),
             planting_floor: None,
+            trade: None,
         };
         s.set_rules(rules);
         s
@@ -152,6 +158,7 @@ impl<'a> StateMap<'a> {
         match &self.layout {
             StateLayout::Lags(w) => w.len(),
             StateLayout::Expectation(_) => 1,
+            StateLayout::Groups(n) => *n,
         }
     }
 
@@ -173,6 +180,9 @@ impl<'a> StateMap<'a> {
 
     /// The planting price at rest when every past producer price is `p`.
     pub fn planting_at_rest(&self, p: f64) -> f64 {
+        if let Some(g) = self.rule.groups() {
+            return g.planting_at_rest(p, &self.setup.supply, self.floor);
+        }
         self.plant(self.expectation_at_rest(p))
     }
 
@@ -200,11 +210,24 @@ impl<'a> StateMap<'a> {
         match self.layout {
             StateLayout::Lags(_) => vec![p; self.dim()],
             StateLayout::Expectation(_) => vec![self.expectation_at_rest(p)],
+            StateLayout::Groups(_) => self
+                .rule
+                .groups()
+                .map_or_else(|| vec![p], |g| g.rest_state(p)),
         }
     }
 
     /// x ↦ F(x), written into `out`.
     pub fn apply(&self, x: &[f64], out: &mut [f64]) {
+        self.apply_with(x, out, |planting| {
+            self.clearing.producer_price(self.setup, planting)
+        });
+    }
+
+    /// x ↦ F(x) with the producer price given by `price` (planting price → producer price) in
+    /// place of the regime's clearing: the map of a market whose clearing changes regime along the
+    /// way (the kinked curve of private trade).
+    pub fn apply_with(&self, x: &[f64], out: &mut [f64], price: impl Fn(f64) -> f64) {
         match self.layout {
             StateLayout::Lags(_) => {
                 let k = x.len();
@@ -213,19 +236,34 @@ impl<'a> StateMap<'a> {
                     history: &history,
                     previous: None,
                 });
-                let p = self.clearing.producer_price(self.setup, self.plant(e));
+                let p = price(self.plant(e));
                 out[0] = p;
                 out[1..k].copy_from_slice(&x[..k - 1]);
             }
             StateLayout::Expectation(_) => {
                 let pe = x[0];
-                let p = self.clearing.producer_price(self.setup, self.plant(pe));
+                let p = price(self.plant(pe));
                 let history = [p, p];
                 out[0] = self.rule.expect(&ExpectationInput {
                     history: &history,
                     previous: Some(pe),
                 });
             }
+            StateLayout::Groups(_) => {
+                if let Some(g) = self.rule.groups() {
+                    g.apply(x, out, &self.setup.supply, self.floor, &price);
+                }
+            }
+        }
+    }
+
+    /// A producer price on the orbit through state `x`: the newest lag, or for a rule whose state
+    /// is its own expectation the price `price` gives for planting on it.
+    pub fn price_in(&self, x: &[f64], price: impl Fn(f64) -> f64) -> f64 {
+        match self.layout {
+            // farmers in groups keep the price lags first
+            StateLayout::Lags(_) | StateLayout::Groups(_) => x[0],
+            StateLayout::Expectation(_) => price(self.plant(x[0])),
         }
     }
 
@@ -259,6 +297,8 @@ impl<'a> StateMap<'a> {
                 m
             }
             StateLayout::Expectation(l) => DMatrix::from_element(1, 1, 1.0 - l + l * c),
+            // farmers in groups: the map's own Jacobian at rest, numerically
+            StateLayout::Groups(_) => self.numerical_jacobian(&self.rest_state(p)),
         }
     }
 }

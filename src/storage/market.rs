@@ -4,6 +4,7 @@
 use crate::curves::Curve;
 use crate::numeric::gauss_hermite;
 use crate::scenario::Scenario;
+use crate::trade::{BorderMeasures, BorderTerms};
 
 use super::StorageError;
 
@@ -111,6 +112,15 @@ pub struct StorageMarket {
     pub revenue: bool,
     /// Farmers who plant on a backward-looking rule of the last price (`None`: rational farmers).
     pub farmers: Option<Farmers>,
+    /// The border at the (constant) world price under the policy's border measures (`None`: a
+    /// closed market). Set by [`StorageMarket::set_border`].
+    pub border: Option<BorderTerms>,
+    /// The lowest price the market can reach: export parity when traders may export without limit
+    /// (exports take any surplus there), else 0 (free disposal).
+    pub floor: f64,
+    /// The highest price the market can reach: import parity when traders may import without limit
+    /// (imports fill any gap there), else ∞.
+    pub ceiling: f64,
 }
 
 impl StorageMarket {
@@ -119,14 +129,19 @@ impl StorageMarket {
         let st = s.storers.ok_or_else(|| StorageError::NoStorers {
             file: s.source.clone(),
         })?;
-        if s.trade.is_some() {
-            return Err(StorageError::UnsupportedPolicy {
-                file: s.source.clone(),
-                key: "[trade]".into(),
-                reason: "the storage equilibrium does not yet cover a market that trades; remove \
-                         [trade] for a closed market"
-                    .into(),
-            });
+        if let Some(t) = &s.trade {
+            if t.world_price_cv > 0.0 {
+                return Err(StorageError::UnsupportedPolicy {
+                    file: s.source.clone(),
+                    key: "trade.world_price_cv".into(),
+                    reason: format!(
+                        "{}: the storage equilibrium solves a market that trades at a constant world \
+                         price (a varying world price would be another state variable); set \
+                         trade.world_price_cv = 0",
+                        t.world_price_cv
+                    ),
+                });
+            }
         }
         if s.shocks.demand_persistence != 0.0 && s.shocks.demand_sd > 0.0 {
             return Err(StorageError::PersistentDemand {
@@ -191,7 +206,64 @@ impl StorageMarket {
             // without yield risk (Y = 1) revenue is the price: solved as such, bit for bit
             revenue: s.market.plants_on == crate::scenario::PlantsOn::Revenue && sigma > 0.0,
             farmers: farmers_of(s, &s.expectations)?,
+            border: None,
+            floor: 0.0,
+            ceiling: f64::INFINITY,
         })
+        .and_then(|mut m| {
+            m.set_border(s, &BorderMeasures::FREE, &s.source)?;
+            Ok(m)
+        })
+    }
+
+    /// Puts the border of `s` (its `[trade]` section, if any) under `measures` into the model:
+    /// the parities become the floor and ceiling of the price. A quota that limits trade to a
+    /// positive amount is refused (naming `policy_file`): the flats of the kinked curve would then
+    /// end inside the range of availability, which this model does not cover yet; a quota of 0
+    /// (no trade that way) and an export ban are covered.
+    pub fn set_border(
+        &mut self,
+        s: &Scenario,
+        measures: &BorderMeasures,
+        policy_file: &str,
+    ) -> Result<(), StorageError> {
+        let Some(t) = &s.trade else {
+            return Ok(());
+        };
+        let terms = t.terms(t.world_price, measures);
+        for (key, quota) in [
+            ("border.import_quota", terms.import_quota),
+            ("border.export_quota", terms.export_quota),
+        ] {
+            if quota > 0.0 && quota.is_finite() {
+                return Err(StorageError::UnsupportedPolicy {
+                    file: policy_file.into(),
+                    key: key.into(),
+                    reason: format!(
+                        "{quota}: the storage equilibrium covers unlimited trade, no trade (a quota \
+                         of 0) and an export ban; a positive quota is not covered yet"
+                    ),
+                });
+            }
+        }
+        self.floor = if terms.export_quota > 0.0 {
+            terms.export_parity.max(0.0)
+        } else {
+            0.0
+        };
+        self.ceiling = if terms.import_quota > 0.0 {
+            terms.import_parity
+        } else {
+            f64::INFINITY
+        };
+        self.border = Some(terms);
+        Ok(())
+    }
+
+    /// True when traders may import or export.
+    #[inline]
+    pub fn trades(&self) -> bool {
+        self.floor > 0.0 || self.ceiling.is_finite()
     }
 
     /// Sets the farmers' rule to `spec` (a policy's override of the market's rule).
@@ -211,14 +283,20 @@ impl StorageMarket {
         self.planting_floor <= 0.0 && !self.revenue
     }
 
-    /// Inverse demand with free disposal: the price at which consumers take `c`, never below zero,
-    /// and its derivative dP/dc (0 where the price is held at zero).
+    /// Inverse demand with free disposal and the border: the price at which consumers and private
+    /// traders take `c` (consumers take D(P), exports fill at export parity, imports at import
+    /// parity), never below [`Self::floor`] (zero in a closed market) nor above
+    /// [`Self::ceiling`], and its derivative dP/dc (0 where the price is held there).
     #[inline]
     pub fn inverse_demand(&self, c: f64) -> (f64, f64) {
         let c = c.max(1e-9 * self.q_star);
         let p = self.demand.price_at(c);
-        if p <= 0.0 {
-            (0.0, 0.0)
+        if p <= self.floor {
+            // (free disposal at 0; exports at export parity)
+            (self.floor, 0.0)
+        } else if p >= self.ceiling {
+            // imports at import parity
+            (self.ceiling, 0.0)
         } else {
             (p, 1.0 / self.demand.slope_at_point(p, c))
         }

@@ -27,6 +27,7 @@ pub mod agency;
 pub mod blend;
 pub mod check;
 pub mod fixed_point;
+pub mod leakage;
 pub mod market;
 #[path = "public/next_price.rs"]
 pub mod next_price;
@@ -46,6 +47,7 @@ pub mod summary;
 mod long_run;
 
 pub use check::GridRow;
+pub use leakage::{trade_report, TradeReport};
 pub use long_run::{long_run, storage_indicators, LongRunMeans};
 pub use market::{Node, StorageMarket};
 pub use policy::{band_of, payment_floor, planting_floor};
@@ -206,10 +208,24 @@ pub fn solve(
     policy: &PolicySpec,
     options: &SolveOptions,
 ) -> Result<Equilibrium, StorageError> {
+    let border = agency::plan_of(policy)?.border;
+    solve_bordered(scenario, policy, &border, &policy.source, options)
+}
+
+/// [`solve`] with the border measures `border` (named in messages as from `border_file`) instead of
+/// the policy's own: the market as the agency's stock would find it is the market left alone under
+/// the policy's border measures ([`leakage::trade_report`]).
+pub(crate) fn solve_bordered(
+    scenario: &Scenario,
+    policy: &PolicySpec,
+    border: &crate::trade::BorderMeasures,
+    border_file: &str,
+    options: &SolveOptions,
+) -> Result<Equilibrium, StorageError> {
     progress::report(ProgressEvent::Started {
         public: matches!(band_of(policy), Ok(Some(_))),
     });
-    let out = solve_reporting(scenario, policy, options);
+    let out = solve_reporting(scenario, policy, border, border_file, options);
     progress::report(ProgressEvent::Finished);
     out
 }
@@ -218,11 +234,15 @@ pub fn solve(
 fn solve_reporting(
     scenario: &Scenario,
     policy: &PolicySpec,
+    border: &crate::trade::BorderMeasures,
+    border_file: &str,
     options: &SolveOptions,
 ) -> Result<Equilibrium, StorageError> {
     let mut m = StorageMarket::new(scenario, options.nodes)?;
     // (the policy is read first: a backward-looking override is refused there, naming its file)
     let initial = initial_public(policy)?;
+    // border measures move the parities (free trade without them)
+    m.set_border(scenario, border, border_file)?;
     if let Some(spec) = &policy.expectations {
         m.set_farmers(scenario, spec)?;
     }

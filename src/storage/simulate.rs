@@ -104,8 +104,8 @@ impl Equilibrium {
                 // the grid ends where the price reaches zero (free disposal): no storer carries
                 // more than the stock there, so the rule covers every stock a path can hold
                 Some(sp) if sp.knots().len() < s.stocks.len() => {
-                    let choke = s.market.demand.quantity(0.0);
-                    match s.rule.zero_price_point() {
+                    let choke = s.market.demand.quantity(s.market.floor);
+                    match s.rule.zero_price_point(s.market.floor) {
                         Some(z0) if choke.is_finite() => z0 - choke,
                         _ => s.stocks[sp.knots().len() - 1],
                     }
@@ -247,6 +247,12 @@ pub struct StoragePeriod {
     pub stockout: bool,
     /// Additive demand shock of the period (quantity units).
     pub demand_shock: f64,
+    /// Private imports (at import parity; 0 in a closed market).
+    #[serde(skip)]
+    pub imports: f64,
+    /// Private exports (at export parity; 0 in a closed market).
+    #[serde(skip)]
+    pub exports: f64,
     /// What the agency did.
     #[serde(skip)]
     pub mode: AgencyMode,
@@ -293,7 +299,20 @@ impl<'a> SolvedPath<'a> {
         let g = eq.public_keep() * self.public;
         let o = eq.outcome(availability - s.demand, g);
         let trade = o.public_stock - g;
-        let consumption = (availability + g - o.public_stock - o.private_stock).max(0.0);
+        let left = availability + g - o.public_stock - o.private_stock;
+        // private trade fills the gap to what consumers take at import parity, or takes the
+        // surplus at export parity (a closed market: none)
+        let (imports, exports) = if o.price >= m.ceiling {
+            (
+                (m.demand.quantity(m.ceiling) + s.demand - left).max(0.0),
+                0.0,
+            )
+        } else if m.floor > 0.0 && o.price <= m.floor {
+            (0.0, (left - m.demand.quantity(m.floor) - s.demand).max(0.0))
+        } else {
+            (0.0, 0.0)
+        };
+        let consumption = (left + imports - exports).max(0.0);
         self.x = o.private_stock;
         self.public = o.public_stock;
         let (planted_now, expected_now) = (self.planted, self.expected);
@@ -316,6 +335,8 @@ impl<'a> SolvedPath<'a> {
             public_stock: self.public,
             stockout: o.mode == AgencyMode::Empty,
             demand_shock: s.demand,
+            imports,
+            exports,
             mode: o.mode,
         }
     }

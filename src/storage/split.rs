@@ -219,6 +219,9 @@ pub(crate) fn test_market(yield_sigma: f64, additive_sd: f64) -> StorageMarket {
         payment_floor: 0.0,
         revenue: false,
         farmers: None,
+        border: None,
+        floor: 0.0,
+        ceiling: f64::INFINITY,
     }
 }
 

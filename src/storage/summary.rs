@@ -33,6 +33,10 @@ pub struct StorageSummary {
     pub test_points: usize,
     /// The solved rules on an even grid of availability.
     pub grid: Vec<GridRow>,
+    /// In a market that trades: the parities, private trade on the indicator path, and a public
+    /// stock's crowding-out and leakage (keys at the top level; none for a closed market).
+    #[serde(flatten)]
+    pub trade: Option<super::TradeReport>,
 }
 
 /// Solves the storage equilibrium of `scenario` under `policy` and sums it up on `rows` rows of
@@ -45,6 +49,7 @@ pub fn summary(
 ) -> Result<StorageSummary, StorageError> {
     check_options(options, rows)?;
     let eq = solve(scenario, policy, options)?;
+    let trade = super::trade_report(scenario, policy, &eq, options)?;
     let residual = eq.euler_residual_max();
     let extrapolated = super::extrapolated_share(&eq, scenario, super::initial_public(policy)?);
     let (market, policy) = (scenario.market.name.clone(), policy.name.clone());
@@ -60,6 +65,7 @@ pub fn summary(
             grid_points: sol.stocks.len(),
             test_points: options.test_points,
             grid: sol.grid(rows),
+            trade,
         },
         Equilibrium::Public(sol) => {
             let (lo, hi) = sol.range();
@@ -92,6 +98,7 @@ pub fn summary(
                 grid_points: sol.stocks.len() * sol.publics.len(),
                 test_points: nz * 9,
                 grid,
+                trade,
             }
         }
     })
@@ -174,7 +181,36 @@ pub fn render_summary(r: &StorageSummary, format: Format) -> String {
             r.iterations,
             fmt_num(r.stockout_price, 2)
         ));
+        if let Some(t) = &r.trade {
+            out.push_str(&trade_lines(t));
+        }
     }
     out.push_str(&t.render(format));
+    out
+}
+
+/// The heading lines of a market that trades: parities, private trade, and with a public stock
+/// its crowding-out and leakage.
+fn trade_lines(t: &super::TradeReport) -> String {
+    let parity = |p: Option<f64>| p.map_or_else(|| "none".to_string(), |v| fmt_num(v, 2));
+    let share = |v: Option<f64>| v.map_or_else(|| "–".to_string(), |v| fmt_num(v, 3));
+    let mut out = format!(
+        "import parity {}, export parity {}; imports {} a season on average ({} of seasons), exports {} ({} of seasons)\n",
+        parity(t.import_parity),
+        parity(t.export_parity),
+        fmt_num(t.imports_mean, 2),
+        fmt_num(t.import_season_share, 3),
+        fmt_num(t.exports_mean, 2),
+        fmt_num(t.export_season_share, 3),
+    );
+    if t.private_stock_change.is_some() || t.net_exports_change.is_some() {
+        out.push_str(&format!(
+            "against the same border without the agency: crowding-out {}, leakage {}, private stock change {}, net exports change {}\n",
+            share(t.crowding_out),
+            share(t.leakage),
+            share(t.private_stock_change),
+            share(t.net_exports_change),
+        ));
+    }
     out
 }

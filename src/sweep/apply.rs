@@ -167,6 +167,8 @@ pub enum Component {
     MarketRule(ExpectationSpec),
     /// `expectations.*` of the policy file.
     PolicyRule(Option<ExpectationSpec>),
+    /// `trade.*` of the market file (the border).
+    Trade(Option<crate::trade::Trade>),
     /// A key of a policy rule's section: the section and its rule (if the file has it).
     Rule(&'static str, Option<RuleRef>),
     /// A key that does not enter the linearisation (run, shocks, names).
@@ -179,6 +181,7 @@ pub fn component(base: &Base, key: &str, s: &Scenario, p: &PolicySpec) -> Compon
     match (base.target(key), section) {
         (Target::Market, "demand") => Component::Demand(s.market.demand),
         (Target::Market, "supply") => Component::Supply(s.market.supply),
+        (Target::Market, "trade") => Component::Trade(s.trade),
         (Target::Market, "expectations") => Component::MarketRule(s.expectations),
         (Target::Policy, "expectations") => Component::PolicyRule(p.expectations),
         (Target::Policy, s) => match crate::policies::rule::section(s) {
@@ -215,6 +218,7 @@ impl Parts {
             Component::Demand(d) => self.setup.demand = d,
             Component::Supply(s) => self.setup.supply = s,
             Component::MarketRule(r) => self.setup.rule = r,
+            Component::Trade(t) => self.setup.trade = t,
             Component::PolicyRule(r) => self.policy_rule = r,
             Component::Rule(section, ref rule) => {
                 // the section's rule replaced at its place (the registry's order), or removed

@@ -73,6 +73,7 @@ impl EngineMap<'_> {
         match &self.layout {
             StateLayout::Lags(w) => w.len(),
             StateLayout::Expectation(_) => 1,
+            StateLayout::Groups(n) => *n,
         }
     }
 
@@ -102,6 +103,19 @@ impl EngineMap<'_> {
                 });
                 c.stock
             }
+            StateLayout::Groups(_) => {
+                // farmers in groups: the groups' own map (shares at rest), cleared by the engine
+                let Some(g) = self.model.rule.groups() else {
+                    return stock;
+                };
+                let price = |pl: f64| {
+                    self.model
+                        .clear(pl, &PeriodShock::NONE, carried)
+                        .producer_price
+                };
+                let pbar = g.apply(x, out, &self.model.supply, self.floor, &price);
+                self.model.clear(pbar, &PeriodShock::NONE, carried).stock
+            }
         }
     }
 }
@@ -116,6 +130,10 @@ fn initial_state(model: &Model, layout: &StateLayout, dim: usize) -> Vec<f64> {
             previous: None,
         })],
         StateLayout::Lags(_) => (0..dim).map(|i| h[h.len() - 1 - i]).collect(),
+        StateLayout::Groups(_) => model
+            .rule
+            .groups()
+            .map_or_else(|| vec![h[h.len() - 1]; dim], |g| g.initial_state(h)),
     }
 }
 
@@ -128,6 +146,13 @@ pub fn lyapunov(scenario: &Scenario, policy: &PolicySpec, periods: usize) -> (Op
     let rule = spec.rule();
     if rule.settles_at_once().is_some() {
         return (None, Orbit::Settled(spec.rule_name()));
+    }
+    if rule
+        .groups()
+        .is_some_and(|g| matches!(g.shares, crate::expectations::ShareRule::Switching { .. }))
+    {
+        // the shares move with the squared errors, which the state map holds at rest
+        return (None, Orbit::Ok);
     }
     let model = Model::new(scenario, policy);
     let map = EngineMap {

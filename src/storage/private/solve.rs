@@ -36,8 +36,8 @@ impl PriceRule {
         match &self.spline {
             Some(s) if z > self.kink => {
                 let (p, d) = s.eval(z);
-                if p <= 0.0 {
-                    (0.0, 0.0)
+                if p <= m.floor {
+                    (m.floor, 0.0)
                 } else {
                     (p, d)
                 }
@@ -53,29 +53,35 @@ impl PriceRule {
     }
 
     /// Private stock carried out of a period with availability `z`: z − D(P(z)), zero below the kink.
-    /// Where the price has fallen to zero (linear demand, free disposal) storers hold what they hold
-    /// where it reaches zero, [`Self::zero_price_point`] − D(0): carrying more would not pay, and the
-    /// rest is disposed of.
+    /// Where the price has fallen to the market's floor (zero with linear demand, free disposal;
+    /// export parity in a market that exports) storers hold what they hold where it reaches the
+    /// floor, [`Self::zero_price_point`] − D(floor): carrying more would not pay, and the rest is
+    /// disposed of or exported.
     pub fn stock(&self, m: &StorageMarket, z: f64) -> f64 {
         if z <= self.kink {
             return 0.0;
         }
         let (p, _) = self.eval(m, z);
-        if p <= 0.0 {
-            if let Some(z0) = self.zero_price_point() {
-                return (z0.min(z) - m.demand.quantity(0.0)).max(0.0);
+        if p <= m.floor {
+            if let Some(z0) = self.zero_price_point(m.floor) {
+                return (z0.min(z) - m.demand.quantity(m.floor)).max(0.0);
             }
         }
         (z - m.demand.quantity(p)).max(0.0)
     }
 
-    /// The availability at which the rule's price reaches zero (the last knot's value continued
-    /// with its end tangent, as [`Monotone::eval`] extends it), if it does.
-    pub fn zero_price_point(&self) -> Option<f64> {
+    /// The availability at which the rule's price reaches `floor` (zero, or export parity; the
+    /// last knot's value continued with its end tangent, as [`Monotone::eval`] extends it), if it
+    /// does.
+    pub fn zero_price_point(&self, floor: f64) -> Option<f64> {
         let s = self.spline.as_ref()?;
         let (z, p) = (*s.knots().last()?, *s.values().last()?);
+        if p <= floor {
+            // the last knot is the point where exports start
+            return Some(z);
+        }
         let (_, d) = s.eval(z);
-        (d < 0.0).then(|| z - p / d)
+        (d < 0.0).then(|| z - (p - floor) / d)
     }
 }
 
@@ -92,7 +98,15 @@ pub fn rule_breaks(m: &StorageMarket, rule: &PriceRule, hi: f64) -> Vec<f64> {
     if rule.kink.is_finite() && rule.kink > lo && rule.kink < hi {
         out.push(rule.kink);
     }
-    let mut levels = vec![0.0];
+    if m.ceiling.is_finite() {
+        // imports start where consumers alone would pay import parity
+        let zc = m.demand.quantity(m.ceiling);
+        if zc > lo && zc < hi {
+            out.push(zc);
+        }
+    }
+    // where the price reaches zero (free disposal) or export parity (exports start)
+    let mut levels = vec![m.floor];
     if m.planting_floor > 0.0 {
         levels.push(m.planting_floor);
     }
@@ -506,7 +520,26 @@ fn iterate(
             };
             planted[j] = q;
             let p = m.discount * psi - m.cost;
-            if p <= 0.0 || ps.last().is_some_and(|&last| p > last) {
+            if p <= m.floor || ps.last().is_some_and(|&last| p > last) {
+                if p <= m.floor && m.floor > 0.0 && m.farmers.is_none() && j > 0 && ps.len() == j {
+                    // exports start: the stock where arbitrage gives export parity, between the
+                    // last two grid stocks, is the rule's last knot (beyond it the price stays at
+                    // export parity and the surplus goes abroad)
+                    let at = |x: f64| {
+                        let carried = m.keep * x;
+                        let (_, psi) = plant_with(&m, planted[j], &|q| {
+                            expected_producer(&m, carried, q, &rule, &breaks)
+                        });
+                        m.discount * psi - m.cost - m.floor
+                    };
+                    let tol = 1e-13 * m.q_star.max(1.0);
+                    if let Some(xf) = crate::numeric::brent(at, stocks[j - 1], x, tol) {
+                        if xf > stocks[j - 1] {
+                            zs.push(xf + m.demand.quantity(m.floor));
+                            ps.push(m.floor);
+                        }
+                    }
+                }
                 break;
             }
             zs.push(x + m.demand.quantity(p));

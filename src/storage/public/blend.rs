@@ -152,6 +152,14 @@ impl Blend {
                 d += self.w[i] * di;
             }
         }
+        // exports at export parity, imports at import parity (the rows' weights sum to one only
+        // up to rounding)
+        if m.floor > 0.0 && p <= m.floor * (1.0 + 1e-12) {
+            return (m.floor, 0.0);
+        }
+        if p >= m.ceiling * (1.0 - 1e-12) {
+            return (m.ceiling, 0.0);
+        }
         (p.max(0.0), d)
     }
 }
@@ -172,7 +180,7 @@ pub(crate) struct Merged {
 
 impl Merged {
     /// The merged form of `blend` over `rows`, when it applies (see the type notes).
-    pub(crate) fn new(rows: &[PriceRule], blend: Blend) -> Option<Merged> {
+    pub(crate) fn new(rows: &[PriceRule], blend: Blend, floor: f64) -> Option<Merged> {
         if blend.cnt < 2 || !blend.kink.is_finite() {
             return None;
         }
@@ -182,12 +190,14 @@ impl Merged {
         for r in &rows[s..s + blend.cnt] {
             let sp = r.spline.as_ref()?;
             let (xs, ys, ms) = (sp.knots(), sp.values(), sp.tangents());
-            if !r.kink.is_finite() || ys.iter().any(|&v| v <= 0.0) || ms.iter().any(|&d| d > 0.0) {
+            if !r.kink.is_finite() || ys.iter().any(|&v| v <= floor) || ms.iter().any(|&d| d > 0.0)
+            {
                 return None;
             }
             let n = xs.len();
             if ms[n - 1] < 0.0 {
-                reach = reach.min(xs[n - 1] + ys[n - 1] / -ms[n - 1] - r.kink);
+                // (where it reaches the floor: zero, or export parity)
+                reach = reach.min(xs[n - 1] + (ys[n - 1] - floor) / -ms[n - 1] - r.kink);
             }
             offs.extend(xs.iter().map(|&x| x - r.kink).filter(|&u| u > 0.0));
         }
@@ -232,6 +242,9 @@ impl Merged {
             return b.price(m, rows, y);
         }
         let (p, d) = self.sum.eval(off);
+        if m.floor > 0.0 && p <= m.floor {
+            return (m.floor, 0.0);
+        }
         (p.max(0.0), d)
     }
 }
@@ -285,7 +298,7 @@ mod tests {
         let publics = [0.0, 15.0, 30.0, 45.0, 60.0];
         for g in [3.0, 21.7, 44.0, 58.0] {
             let b = Blend::at(&m, &publics, &rows, g);
-            let mg = Merged::new(&rows, b).expect("rows that store and decrease");
+            let mg = Merged::new(&rows, b, 0.0).expect("rows that store and decrease");
             // (y up to 2000: past every row's knots and past where their extensions reach zero)
             for k in 0..3400 {
                 let y = 300.0 + 0.5 * k as f64;
@@ -301,7 +314,7 @@ mod tests {
         // a row that never stores: no merged form
         let mut never = rows.clone();
         never[2] = PriceRule::no_storage();
-        assert!(Merged::new(&never, Blend::at(&m, &publics, &never, 25.0)).is_none());
+        assert!(Merged::new(&never, Blend::at(&m, &publics, &never, 25.0), 0.0).is_none());
     }
 
     #[test]

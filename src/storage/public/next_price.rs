@@ -124,7 +124,7 @@ impl<'a> NextPrice<'a> {
         np.merged = np
             .fixed
             .iter()
-            .map(|&(_, b)| Merged::new(rows, b))
+            .map(|&(_, b)| Merged::new(rows, b, m.floor))
             .collect();
         np
     }
@@ -166,7 +166,8 @@ impl<'a> NextPrice<'a> {
         let lo = 1e-6 * m.q_star;
         let tol = 1e-12 * m.q_star.max(1.0);
         let near = 1e-3 * m.q_star.max(1.0);
-        let mut levels = vec![b.buy_below, 0.0];
+        // (the floor: zero, free disposal, or export parity, where exports start)
+        let mut levels = vec![b.buy_below, m.floor];
         if b.sell_above.is_finite() {
             levels.push(b.sell_above);
             if let Some(level) = b.release.inner_price(b) {
@@ -189,6 +190,13 @@ impl<'a> NextPrice<'a> {
             for k in row_kinks(m, self.publics, self.rows, gg) {
                 let z = k - shift;
                 if z.is_finite() && z > lo && z < hi {
+                    out.push(z);
+                }
+            }
+            if m.ceiling.is_finite() {
+                // imports start where consumers alone would pay import parity
+                let z = m.demand.quantity(m.ceiling) - shift;
+                if z > lo && z < hi {
                     out.push(z);
                 }
             }

@@ -92,6 +92,33 @@ pub(crate) fn state_decision(
     decide(band, g, &|gg: f64| row_price(m, publics, rows, w - gg, gg))
 }
 
+/// Private stock carried out when `y` is left to consumers, private storers and exports with the
+/// public stock `gg` carried out and the price at export parity (the market's floor): storers hold
+/// what they hold where the row rule at `gg` reaches the floor (the rest is exported), or nothing
+/// when it is there already without stock.
+pub(crate) fn floor_stock(
+    m: &StorageMarket,
+    publics: &[f64],
+    rows: &[PriceRule],
+    y: f64,
+    gg: f64,
+) -> f64 {
+    let dq = m.demand.quantity(m.floor);
+    let f = |v: f64| {
+        let (p, d) = row_price(m, publics, rows, v, gg);
+        (p - m.floor, d)
+    };
+    if y <= dq || f(dq).0 <= 0.0 {
+        return 0.0;
+    }
+    if f(y).0 > 0.0 {
+        return y - dq;
+    }
+    let tol = 1e-12 * m.q_star.max(1.0);
+    let near = 1e-3 * m.q_star.max(1.0);
+    (super::next_price::boundary(f, dq, y, tol, near) - dq).max(0.0)
+}
+
 impl PublicSolution {
     /// The period's outcome at availability `z` with public stock `g` carried in.
     pub fn clear(&self, z: f64, g: f64) -> Cleared {
@@ -107,7 +134,11 @@ impl PublicSolution {
                     .unwrap_or(0.5 * (lo + hi))
             }
         };
-        let private_stock = (w - public_stock - m.demand.quantity(price)).max(0.0);
+        let private_stock = if price <= m.floor && m.floor > 0.0 {
+            floor_stock(m, &self.publics, &self.rows, w - public_stock, public_stock)
+        } else {
+            (w - public_stock - m.demand.quantity(price)).max(0.0)
+        };
         Cleared {
             price,
             slope,
@@ -241,7 +272,7 @@ impl PublicSolution {
     pub fn end_residual(&self, y: f64, public: f64) -> f64 {
         let m = &self.market;
         let (price, _) = row_price(m, &self.publics, &self.rows, y, public);
-        if price <= 0.0 {
+        if price <= m.floor {
             return 0.0;
         }
         let x = (y - m.demand.quantity(price)).max(0.0);
@@ -271,7 +302,9 @@ impl PublicSolution {
         ys.iter()
             .map(|&y| {
                 let (price, _) = blend.price(m, &self.rows, y);
-                if price <= 0.0 {
+                if price <= m.floor {
+                    // (at zero or export parity storers hold what they hold where the price
+                    // reaches it, checked from below)
                     return 0.0;
                 }
                 let x = (y - m.demand.quantity(price)).max(0.0);

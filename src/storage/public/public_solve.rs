@@ -288,7 +288,7 @@ fn iterate(
                     );
                     planted_row[j] = q;
                     let p = m.discount * psi - m.cost;
-                    if p <= 0.0 {
+                    if p <= m.floor {
                         break;
                     }
                     raw[j] = p;
