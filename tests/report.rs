@@ -540,3 +540,34 @@ fn plots_are_refused_where_no_figure_is_drawn() {
         assert!(!dir.path().join("p").exists());
     }
 }
+
+/// A briefing on a market that trades says so: the parities come from the market file's own
+/// numbers (import parity = world price + import cost, export parity = world price − export cost,
+/// by definition), and the closed-market caveat is gone.
+#[test]
+fn a_trading_market_briefing_names_its_parities() {
+    let market = "examples/veldmark_border.toml";
+    let text = std::fs::read_to_string(market).unwrap();
+    let table: toml::Table = text.parse().unwrap();
+    let t = table["trade"].as_table().unwrap();
+    let num = |k: &str| t[k].as_float().unwrap();
+    let (w, mi, xo) = (num("world_price"), num("import_cost"), num("export_cost"));
+    let dir = tempfile::tempdir().unwrap();
+    let (_, html) = write_report_with(
+        dir.path(),
+        market,
+        &["policies/border/band.toml"],
+        &["--replications", "40"],
+    );
+    assert!(html.contains("The market trades"), "no border paragraph");
+    assert!(html.contains(&format!(
+        "import parity {}",
+        furrow::units::group(w + mi, 1)
+    )));
+    assert!(html.contains(&format!(
+        "export parity {}",
+        furrow::units::group(w - xo, 1)
+    )));
+    assert!(!html.contains("modelled closed"));
+    assert!(html.contains("abroad"));
+}

@@ -202,7 +202,7 @@ pub fn build_with_households(
                 .is_none_or(|(_, c)| c.intervenes())
         })
         .collect();
-    let first = headline::first_page(r, &intervenes, s.storers.is_some());
+    let first = headline::first_page(r, &intervenes, s.storers.is_some(), s.trade.is_some());
     let mut summary = first.answer;
     let unstable: Vec<&String> = stability
         .iter()
@@ -244,6 +244,21 @@ pub fn build_with_households(
             String::new()
         }
     ));
+    if let Some(t) = &s.trade {
+        let free = t.terms(t.world_price, &crate::trade::BorderMeasures::FREE);
+        market.paragraph(format!(
+            "The market trades: at the world price {w} {pu}{vary}, traders import when the domestic price reaches import parity {m} {pu} and export when it falls to export parity {x} {pu} (before any border measure of a policy). A public reserve in such a market buys what traders would have exported and sells what they would have imported, so much of its effort moves trade rather than the domestic price; border measures beside it (a duty, a variable levy, an export ban) decide how much stays at home.",
+            w = group(t.world_price, 1),
+            pu = m.price_unit,
+            vary = if t.world_price_cv > 0.0 {
+                format!(" on average (varying by {} % a season)", group(100.0 * t.world_price_cv, 0))
+            } else {
+                String::new()
+            },
+            m = group(free.import_parity, 1),
+            x = group(free.export_parity, 1),
+        ));
+    }
     market.table(
         "Every setting, with the file it came from",
         assumptions::assumption_table(s, req.market_path, req.columns, &req.overrides)?,

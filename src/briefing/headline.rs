@@ -98,7 +98,12 @@ fn two_lines(first: String, second: String) -> String {
 /// Builds the first page from a comparison. `intervenes[i]` says whether `r.policies[i]` trades or
 /// pays (a file that does neither is the market left alone and is never ranked); `storers` whether
 /// the market has private storage.
-pub fn first_page(r: &CompareResult, intervenes: &[bool], storers: bool) -> FirstPage {
+pub fn first_page(
+    r: &CompareResult,
+    intervenes: &[bool],
+    storers: bool,
+    trading: bool,
+) -> FirstPage {
     let units = Units::new(&r.price_unit, &r.quantity_unit);
     let schemes: Vec<&PolicyComparison> = r
         .policies
@@ -440,9 +445,11 @@ pub fn first_page(r: &CompareResult, intervenes: &[bool], storers: bool) -> Firs
             "The market has no private storage: traders' stocks, which smooth prices without any scheme, are left out, so a public stock's effect may be overstated.".to_string(),
         );
     }
-    caveats.push(
-        "The market is modelled closed: no imports or exports, so world prices do not bound the domestic price as they would with trade.".to_string(),
-    );
+    caveats.push(if trading {
+        "The market trades: imports at import parity and exports at export parity bound the domestic price, so part of what a reserve buys or sells changes trade instead of the domestic price (buying in a surplus season takes the place of exports, selling in a short one the place of imports). What traders, buyers and sellers abroad gain or lose is not counted; only the domestic consumers, producers and treasury (with border duties) are.".to_string()
+    } else {
+        "The market is modelled closed: no imports or exports, so world prices do not bound the domestic price as they would with trade.".to_string()
+    });
     if !several {
         caveats.push(
             "One simulated path only: no ranges and no noise estimates. Set replications above 1 (with shocks) for 5–95 % ranges.".to_string(),
@@ -541,7 +548,7 @@ mod tests {
             ],
             vec![],
         );
-        let page = first_page(&r, &[true, true], false);
+        let page = first_page(&r, &[true, true], false, false);
         assert!(page.answer[0].starts_with("No scheme beats leaving the market alone"));
         assert!(page.answer.iter().all(|s| !s.contains("largest")));
         // a clear winner is named
@@ -552,7 +559,7 @@ mod tests {
             ],
             vec![],
         );
-        let page = first_page(&r, &[true, true], false);
+        let page = first_page(&r, &[true, true], false, false);
         assert!(
             page.answer[0].contains("“A” gives the largest"),
             "{:?}",
@@ -566,7 +573,7 @@ mod tests {
             ],
             vec![("A", "B")],
         );
-        let page = first_page(&r, &[true, true], false);
+        let page = first_page(&r, &[true, true], false, false);
         assert!(
             page.answer[0].contains("neither is ranked first"),
             "{:?}",
@@ -574,7 +581,7 @@ mod tests {
         );
         // a file that does not intervene is never a scheme
         let r = result(vec![column("Idle", false, 900.0, 1.0)], vec![]);
-        let page = first_page(&r, &[false], false);
+        let page = first_page(&r, &[false], false, false);
         assert!(page.answer[0].starts_with("Only the market left alone"));
         // the market left alone is the first row; every row is there
         assert_eq!(page.table.rows[0][0], "No intervention");
@@ -582,6 +589,18 @@ mod tests {
             .caveats
             .iter()
             .any(|c| c.contains("no private storage")));
+        // the border caveat follows the market: closed, or trading at the parities
+        assert!(page.caveats.iter().any(|c| c.contains("modelled closed")));
+        let page = first_page(&r, &[false], true, true);
+        assert!(!page.caveats.iter().any(|c| c.contains("modelled closed")));
+        assert!(!page
+            .caveats
+            .iter()
+            .any(|c| c.contains("no private storage")));
+        assert!(page
+            .caveats
+            .iter()
+            .any(|c| c.contains("import parity") && c.contains("abroad")));
     }
 
     /// Two standard errors as the noise band is common practice (about a 95 % interval under a
