@@ -7,8 +7,10 @@
 //! replication 0, [`simulate::BURN_IN`] periods dropped, [`simulate::INDICATOR_PERIODS`]
 //! averaged):
 //!
-//!     crowding_out = (mean private stock without − with) / mean public stock with
-//!     leakage      = −Σ_t ΔNX_t·a_t / Σ_t a_t²
+//! ```text
+//! crowding_out = (mean private stock without − with) / mean public stock with
+//! leakage      = −Σ_t ΔNX_t·a_t / Σ_t a_t²
+//! ```
 //!
 //! with a_t = G_t − g_t the agency's net purchase in season t and ΔNX_t the change in private net
 //! exports (exports − imports) that season against the path without the stock: the least-squares
