@@ -3,6 +3,7 @@
 //! correction), and the frontier against brute force.
 
 mod common;
+use common::phi;
 
 use furrow::design::{self, frontier::pareto, Objective, Requirement, Spec};
 use furrow::scenario::parse_toml;
@@ -97,22 +98,6 @@ fn break_even_deficiency_floor_is_the_root_of_a_quadratic() {
         e.contains("fiscal_cots_pv") && e.contains("fiscal_cost_pv"),
         "{e}"
     );
-}
-
-/// Φ(x) = ½ erfc(−x/√2), erfc by Abramowitz and Stegun (1964) 7.1.26 (absolute error ≤ 1.5e−7).
-fn phi(x: f64) -> f64 {
-    let z = x.abs() / std::f64::consts::SQRT_2;
-    let t = 1.0 / (1.0 + 0.327_591_1 * z);
-    let poly = t
-        * (0.254_829_592
-            + t * (-0.284_496_736
-                + t * (1.421_413_741 + t * (-1.453_152_027 + t * 1.061_405_429))));
-    let erfc = poly * (-z * z).exp();
-    if x >= 0.0 {
-        1.0 - 0.5 * erfc
-    } else {
-        0.5 * erfc
-    }
 }
 
 /// Φ⁻¹(q) by bisection on [`phi`].

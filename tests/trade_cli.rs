@@ -3,6 +3,7 @@
 //! market's output without any trade column, and refusals naming their keys.
 
 mod common;
+use common::phi;
 
 use common::{bin, stdout_of};
 
@@ -25,23 +26,6 @@ fn market(trade: &str) -> String {
 }
 
 const FREE: &str = "[trade]\nworld_price = 210.0\nimport_cost = 20.0\nexport_cost = 20.0\n";
-
-/// Φ(x), the standard normal distribution function, through erfc by Abramowitz and Stegun (1964)
-/// 7.1.26 (absolute error below 1.5e-7).
-fn phi(x: f64) -> f64 {
-    let z = x.abs() / std::f64::consts::SQRT_2;
-    let t = 1.0 / (1.0 + 0.327_591_1 * z);
-    let poly = t
-        * (0.254_829_592
-            + t * (-0.284_496_736
-                + t * (1.421_413_741 + t * (-1.453_152_027 + t * 1.061_405_429))));
-    let erfc = poly * (-z * z).exp();
-    if x >= 0.0 {
-        1.0 - 0.5 * erfc
-    } else {
-        0.5 * erfc
-    }
-}
 
 /// Derived here (see tests/trade_engine.rs for the steps): with planting fixed at Q̄ and
 /// ln Y ~ N(−σ²/2, σ²), traders import iff Y < k = D(P_m)/Q̄, so the share of importing seasons

@@ -2,6 +2,9 @@
 //! trading on the kinked curve, border measures, and the world price on its own random stream.
 //! Every check names its source or derives its closed form here.
 
+mod common;
+use common::phi;
+
 use furrow::engine::{Model, PeriodRecord, PeriodShock};
 use furrow::policies::file::{policy_for_market, policy_from_table};
 use furrow::policies::PolicySpec;
@@ -35,23 +38,6 @@ fn path(s: &Scenario, p: &PolicySpec, periods: usize) -> Vec<PeriodRecord> {
     let mut stream = ShockStream::for_scenario(s, 0);
     let shocks: Vec<PeriodShock> = (0..periods).map(|_| stream.next_shock()).collect();
     Model::new(s, p).run(periods, |t| shocks[t - 1]).unwrap()
-}
-
-/// Φ(x), the standard normal distribution function, through erfc by Abramowitz and Stegun (1964)
-/// 7.1.26 (absolute error below 1.5e-7).
-fn phi(x: f64) -> f64 {
-    let z = x.abs() / std::f64::consts::SQRT_2;
-    let t = 1.0 / (1.0 + 0.327_591_1 * z);
-    let poly = t
-        * (0.254_829_592
-            + t * (-0.284_496_736
-                + t * (1.421_413_741 + t * (-1.453_152_027 + t * 1.061_405_429))));
-    let erfc = poly * (-z * z).exp();
-    if x >= 0.0 {
-        1.0 - 0.5 * erfc
-    } else {
-        0.5 * erfc
-    }
 }
 
 /// D(P) = 480 (P/210)^−0.25.

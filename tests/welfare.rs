@@ -1,6 +1,9 @@
 //! Welfare accounting against textbook closed forms, and the classic results on gains from price
 //! stabilisation reproduced by a costless buffer stock.
 
+mod common;
+use common::phi;
+
 use furrow::compare::{compare, CompareResult};
 use furrow::engine::{Model, PeriodShock};
 use furrow::policies::file::policy_from_table;
@@ -519,23 +522,6 @@ fn a_file_that_only_changes_the_farmers_rule_is_a_behaviour_change_not_a_policy(
         sum += path_pv(&a, &books).consumer_surplus - path_pv(&n, &books).consumer_surplus;
     }
     close_to(line, "consumer_surplus_change_pv", sum / 64.0, 1e-9);
-}
-
-/// Φ(x), the standard normal distribution function, through erfc by Abramowitz and Stegun (1964)
-/// 7.1.26 (absolute error below 1.5e-7).
-fn phi(x: f64) -> f64 {
-    let z = x.abs() / std::f64::consts::SQRT_2;
-    let t = 1.0 / (1.0 + 0.327_591_1 * z);
-    let poly = t
-        * (0.254_829_592
-            + t * (-0.284_496_736
-                + t * (1.421_413_741 + t * (-1.453_152_027 + t * 1.061_405_429))));
-    let erfc = poly * (-z * z).exp();
-    if x >= 0.0 {
-        1.0 - 0.5 * erfc
-    } else {
-        0.5 * erfc
-    }
 }
 
 /// A market with (almost) fixed planting Q̄ = 100 (linear supply 100 + 10⁻⁶·P^e: planting moves by

@@ -3,7 +3,7 @@
 //! tornado with its figures — the numbers of `sensitivity` itself (the same analysis, shown in the
 //! page's units), never recomputed.
 
-use super::render::{kind_of, label_of, show, with_se};
+use super::render::{kind_of, label_of, robustness_line, show, with_se};
 use super::{Sensitivity, NET_WELFARE};
 use crate::briefing::{Figure, Section};
 use crate::compare::Kind;
@@ -110,24 +110,7 @@ pub fn annex(s: &Sensitivity) -> (Section, Vec<Figure>) {
         );
     }
     for r in &s.robustness {
-        sec.paragraph(format!(
-            "{}: a net welfare gain under {} of {} assumptions, a loss under {} (beyond two standard \
-             errors){}{}.",
-            r.policy,
-            r.gains,
-            r.assumptions,
-            r.losses,
-            if r.diverged > 0 {
-                format!("; diverged under {}", r.diverged)
-            } else {
-                String::new()
-            },
-            if r.sign_changes.iter().any(|k| k == NET_WELFARE) {
-                "; the sign depends on how farmers forecast"
-            } else {
-                ""
-            }
-        ));
+        sec.paragraph(robustness_line(r));
     }
     let mut figures = Vec::new();
     if let Some(first) = s.tornado.first() {

@@ -198,23 +198,8 @@ fn text(s: &Sensitivity, format: Format) -> String {
                 shares.join(", ")
             ));
         }
-        out.push_str(&format!(
-            "{}: net welfare gain under {} of {} assumptions, loss under {} (beyond two standard errors){}{}.\n",
-            r.policy,
-            r.gains,
-            r.assumptions,
-            r.losses,
-            if r.diverged > 0 {
-                format!("; diverged under {}", r.diverged)
-            } else {
-                String::new()
-            },
-            if r.sign_changes.iter().any(|k| k == NET_WELFARE) {
-                "; the sign depends on how farmers forecast"
-            } else {
-                ""
-            }
-        ));
+        out.push_str(&robustness_line(r));
+        out.push('\n');
     }
     if !s.tornado.is_empty() {
         out.push('\n');
@@ -389,4 +374,27 @@ pub fn figures(s: &Sensitivity) -> Vec<crate::briefing::Figure> {
         });
     }
     out
+}
+
+/// A policy's robustness in one sentence: under how many of the assumptions its net welfare
+/// gains or loses beyond two standard errors, how many diverged, and whether the sign moves.
+pub(super) fn robustness_line(r: &super::Robustness) -> String {
+    format!(
+        "{}: a net welfare gain under {} of {} assumptions, a loss under {} (beyond two standard \
+         errors){}{}.",
+        r.policy,
+        r.gains,
+        r.assumptions,
+        r.losses,
+        if r.diverged > 0 {
+            format!("; diverged under {}", r.diverged)
+        } else {
+            String::new()
+        },
+        if r.sign_changes.iter().any(|k| k == NET_WELFARE) {
+            "; the sign depends on how farmers forecast"
+        } else {
+            ""
+        }
+    )
 }

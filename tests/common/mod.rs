@@ -48,3 +48,20 @@ where
 {
     succeed(bin().args(args)).0
 }
+
+/// Φ(x), the standard normal distribution function: ½ erfc(−x/√2), erfc by Abramowitz and Stegun
+/// (1964) 7.1.26 (absolute error below 1.5e-7).
+pub fn phi(x: f64) -> f64 {
+    let z = x.abs() / std::f64::consts::SQRT_2;
+    let t = 1.0 / (1.0 + 0.327_591_1 * z);
+    let poly = t
+        * (0.254_829_592
+            + t * (-0.284_496_736
+                + t * (1.421_413_741 + t * (-1.453_152_027 + t * 1.061_405_429))));
+    let erfc = poly * (-z * z).exp();
+    if x >= 0.0 {
+        1.0 - 0.5 * erfc
+    } else {
+        0.5 * erfc
+    }
+}
