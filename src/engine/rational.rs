@@ -60,7 +60,7 @@ impl Nodes {
                 &single
             }
         };
-        let sigma = (1.0 + spec.yield_cv * spec.yield_cv).ln().sqrt();
+        let sigma = crate::numeric::lognormal_sigma(spec.yield_cv);
         let mut points = Vec::new();
         for &(zy, wy) in pick(active[0]) {
             for &(zs, ws) in pick(active[1]) {
@@ -77,7 +77,7 @@ impl Nodes {
         let (world, world_s, world_rho) = match trade.filter(|_| world_on) {
             Some(t) => (
                 rule.clone(),
-                (1.0 + t.world_price_cv * t.world_price_cv).ln().sqrt(),
+                crate::numeric::lognormal_sigma(t.world_price_cv),
                 t.world_price_persistence,
             ),
             None => (Vec::new(), 0.0, 0.0),

@@ -61,6 +61,14 @@ pub fn root_decreasing<F: FnMut(f64) -> f64>(mut f: F, guess: f64, tol: f64) -> 
     brent(f, lo, hi, tol)
 }
 
+/// The standard deviation σ of ln X for a lognormal X with mean 1 and coefficient of variation
+/// `cv`: σ² = ln(1 + cv²) (Aitchison and Brown 1957). Every lognormal factor of the model (yields,
+/// the world price) is exp(σ z − σ²/2) with z standard normal.
+#[inline]
+pub fn lognormal_sigma(cv: f64) -> f64 {
+    (1.0 + cv * cv).ln().sqrt()
+}
+
 /// Gauss–Hermite rule for the standard normal (probabilists' weight): nodes `z_i` and weights `w_i`
 /// with Σ w_i g(z_i) ≈ E[g(Z)], Z ~ N(0, 1). Computed by the Golub–Welsch method (Golub and Welsch
 /// 1969): the nodes are the eigenvalues of the symmetric tridiagonal Jacobi matrix with off-diagonal

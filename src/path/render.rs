@@ -2,6 +2,8 @@
 //! verb's output (INTERFACE.md's columns first, then the fiscal parts).
 
 use crate::engine::PeriodRecord;
+use std::sync::LazyLock;
+
 use crate::output::{csv_row, fmt_full, fmt_num, markdown_row, Format, TextTable};
 
 /// Columns of the one-path table, in order (INTERFACE.md's first, then the fiscal parts).
@@ -28,52 +30,37 @@ pub const RUN_COLUMNS: &[&str] = &[
     "acted",
 ];
 
+/// The trade columns, shown right after `price` on a market that trades.
+const TRADE_COLUMNS: &[&str] = &["world_price", "imports", "exports"];
+
+/// The border's fiscal line and the quota rents, the last columns before `acted` of the full table
+/// of a market that trades.
+const BORDER_BOOK_COLUMNS: &[&str] = &["border_revenue", "quota_rent"];
+
+/// `base` for a market that trades: [`TRADE_COLUMNS`] after `price`, and with `books` the
+/// [`BORDER_BOOK_COLUMNS`] before `acted`.
+fn with_trade(base: &[&'static str], books: bool) -> Vec<&'static str> {
+    let mut out = Vec::with_capacity(base.len() + 5);
+    for &c in base {
+        if c == "acted" && books {
+            out.extend_from_slice(BORDER_BOOK_COLUMNS);
+        }
+        out.push(c);
+        if c == "price" {
+            out.extend_from_slice(TRADE_COLUMNS);
+        }
+    }
+    out
+}
+
 /// Columns of the one-path table of a market that trades: [`RUN_COLUMNS`] with `world_price`,
 /// `imports`, `exports` after `price` and the border's fiscal line and quota rents before `acted`.
-pub const RUN_COLUMNS_TRADE: &[&str] = &[
-    "period",
-    "expected_price",
-    "harvest",
-    "price",
-    "world_price",
-    "imports",
-    "exports",
-    "producer_price",
-    "consumption",
-    "purchases",
-    "releases",
-    "stock",
-    "fiscal_cost",
-    "consumer_surplus",
-    "producer_surplus",
-    "planted",
-    "purchase_cost",
-    "sales_revenue",
-    "storage_cost",
-    "financing_cost",
-    "handling_cost",
-    "deficiency_payments",
-    "border_revenue",
-    "quota_rent",
-    "acted",
-];
+pub static RUN_COLUMNS_TRADE: LazyLock<Vec<&'static str>> =
+    LazyLock::new(|| with_trade(RUN_COLUMNS, true));
 
-/// Columns the terminal table shows of a market that trades.
-const TABLE_COLUMNS_TRADE: &[&str] = &[
-    "period",
-    "expected_price",
-    "harvest",
-    "price",
-    "world_price",
-    "imports",
-    "exports",
-    "producer_price",
-    "purchases",
-    "releases",
-    "stock",
-    "fiscal_cost",
-    "acted",
-];
+/// Columns the terminal table shows of a market that trades (the trade columns only).
+static TABLE_COLUMNS_TRADE: LazyLock<Vec<&'static str>> =
+    LazyLock::new(|| with_trade(TABLE_COLUMNS, false));
 
 /// Columns the terminal table shows (the full set goes to CSV, Markdown and JSON).
 const TABLE_COLUMNS: &[&str] = &[
@@ -142,9 +129,9 @@ pub fn render_path(records: &[PeriodRecord], format: Format) -> String {
             let trading = records.first().is_some_and(|r| r.trade.is_some());
             let cols = match (f == Format::Table, trading) {
                 (true, false) => TABLE_COLUMNS,
-                (true, true) => TABLE_COLUMNS_TRADE,
+                (true, true) => TABLE_COLUMNS_TRADE.as_slice(),
                 (false, false) => RUN_COLUMNS,
-                (false, true) => RUN_COLUMNS_TRADE,
+                (false, true) => RUN_COLUMNS_TRADE.as_slice(),
             };
             let full = f == Format::Csv;
             let mut t = TextTable::new(cols);
@@ -179,7 +166,7 @@ impl PathStream {
     /// or a closed one ([`RUN_COLUMNS`]).
     pub fn trading(mut self, trading: bool) -> PathStream {
         self.columns = if trading {
-            RUN_COLUMNS_TRADE
+            RUN_COLUMNS_TRADE.as_slice()
         } else {
             RUN_COLUMNS
         };

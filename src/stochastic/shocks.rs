@@ -61,7 +61,7 @@ impl ShockStream {
         ShockStream {
             rng,
             spec: *spec,
-            sigma: (1.0 + spec.yield_cv * spec.yield_cv).ln().sqrt(),
+            sigma: crate::numeric::lognormal_sigma(spec.yield_cv),
             demand: 0.0,
             world: None,
         }
@@ -87,7 +87,7 @@ impl ShockStream {
             let rho = t.world_price_persistence;
             WorldStream {
                 rng,
-                s: (1.0 + t.world_price_cv * t.world_price_cv).ln().sqrt(),
+                s: crate::numeric::lognormal_sigma(t.world_price_cv),
                 rho,
                 innovation: (1.0 - rho * rho).sqrt(),
                 x: None,

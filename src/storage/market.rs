@@ -156,7 +156,7 @@ impl StorageMarket {
                 file: s.source.clone(),
             });
         }
-        let sigma = (1.0 + s.shocks.yield_cv.powi(2)).ln().sqrt();
+        let sigma = crate::numeric::lognormal_sigma(s.shocks.yield_cv);
         let add_sd = (s.shocks.supply_sd.powi(2) + s.shocks.demand_sd.powi(2)).sqrt();
         let rule = gauss_hermite(nodes.max(2));
         let ys: Vec<(f64, f64)> = if sigma > 0.0 {
