@@ -55,6 +55,7 @@ impl Trade {
         BorderTerms {
             import_parity,
             export_parity,
+            landed,
             import_quota: measures.import_quota.unwrap_or(f64::INFINITY),
             export_quota,
             import_receipt: import_parity - landed,
@@ -82,6 +83,11 @@ pub struct BorderMeasures {
     pub export_quota: Option<f64>,
     /// A variable import levy keeps the landed, duty-paid price at or above this price.
     pub import_price_target: Option<f64>,
+    /// State trading: the agency imports (at the landed price, duty free) while the domestic price
+    /// would be above this price.
+    pub public_import_above: Option<f64>,
+    /// The most the agency imports per season (none: as much as the trigger price needs).
+    pub public_import_max: Option<f64>,
 }
 
 impl BorderMeasures {
@@ -95,6 +101,8 @@ impl BorderMeasures {
         import_quota: None,
         export_quota: None,
         import_price_target: None,
+        public_import_above: None,
+        public_import_max: None,
     };
 }
 
@@ -112,6 +120,9 @@ pub struct BorderTerms {
     pub import_parity: f64,
     /// Domestic price at which traders export.
     pub export_parity: f64,
+    /// The landed price W + import_cost, what a unit bought abroad costs at the border before
+    /// duties (what the agency pays for its own imports; ∞ for a closed market).
+    pub landed: f64,
     /// Most imports this period (∞ without a quota; 0 for a closed market).
     pub import_quota: f64,
     /// Most exports this period (0 under a ban or for a closed market).
@@ -146,6 +157,7 @@ impl BorderTerms {
     pub const CLOSED: BorderTerms = BorderTerms {
         import_parity: f64::INFINITY,
         export_parity: 0.0,
+        landed: f64::INFINITY,
         import_quota: 0.0,
         export_quota: 0.0,
         import_receipt: 0.0,

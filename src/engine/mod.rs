@@ -236,6 +236,12 @@ impl Model {
             exports: traded.exports,
             border_revenue: terms.receipts(&traded),
             quota_rent: terms.quota_rent(&traded),
+            public_imports: m.public_imports,
+            public_import_cost: if m.public_imports > 0.0 {
+                terms.landed * m.public_imports
+            } else {
+                0.0
+            },
         });
         c.traded = traded;
         c
@@ -542,7 +548,7 @@ impl<'m> Simulator<'m> {
             &model.supply,
         );
         let record = match c.trade {
-            Some(trade) => record.with_trade(trade),
+            Some(trade) => record.with_trade(trade, agency.handling_cost),
             None => record,
         };
         // advance the state

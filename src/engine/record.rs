@@ -79,6 +79,12 @@ pub struct TradeRecord {
     /// Quota rents to the traders holding licences, (P_t − import parity)·M_t or (export parity −
     /// P_t)·X_t when a quota binds (domestic traders' income, counted in net welfare).
     pub quota_rent: f64,
+    /// Public imports Z_t (state trading): bought abroad at the landed price into the agency's
+    /// stock and released in the same season (inside `releases`).
+    pub public_imports: f64,
+    /// What the public imports cost the treasury: the landed price W_t + import_cost times Z_t (no
+    /// duty; their handling is in `handling_cost`, their sale in `sales_revenue`).
+    pub public_import_cost: f64,
 }
 
 impl PeriodRecord {
@@ -107,12 +113,31 @@ impl PeriodRecord {
     }
 
     /// This record with the period's private trade: the trade columns, and the border receipts
-    /// taken off the fiscal cost (a treasury receipt on its own line, `border_revenue`).
+    /// taken off the fiscal cost (a treasury receipt on its own line, `border_revenue`). Public
+    /// imports add their cost (`public_import_cost`) and the handling of their entry into the
+    /// stock, `handling` per unit (their release is handled, and sold, with the other releases).
     #[inline]
-    pub fn with_trade(mut self, trade: TradeRecord) -> PeriodRecord {
+    pub fn with_trade(mut self, trade: TradeRecord, handling: f64) -> PeriodRecord {
         self.fiscal_cost -= trade.border_revenue;
+        if trade.public_imports > 0.0 {
+            let entry = handling * trade.public_imports;
+            self.handling_cost += entry;
+            self.fiscal_cost += trade.public_import_cost + entry;
+        }
         self.trade = Some(trade);
         self
+    }
+
+    /// Public imports (state trading; 0 without it or in a closed market).
+    #[inline]
+    pub fn public_imports(&self) -> f64 {
+        self.trade.map_or(0.0, |t| t.public_imports)
+    }
+
+    /// What the public imports cost at the landed price (0 without them).
+    #[inline]
+    pub fn public_import_cost(&self) -> f64 {
+        self.trade.map_or(0.0, |t| t.public_import_cost)
     }
 
     /// The agency bought or a deficiency payment was made.

@@ -33,14 +33,19 @@ pub const RUN_COLUMNS: &[&str] = &[
 /// The trade columns, shown right after `price` on a market that trades.
 const TRADE_COLUMNS: &[&str] = &["world_price", "imports", "exports"];
 
-/// The border's fiscal line and the quota rents, the last columns before `acted` of the full table
-/// of a market that trades.
-const BORDER_BOOK_COLUMNS: &[&str] = &["border_revenue", "quota_rent"];
+/// The border's fiscal line, the quota rents and the public imports (state trading) with their
+/// cost, the last columns before `acted` of the full table of a market that trades.
+const BORDER_BOOK_COLUMNS: &[&str] = &[
+    "border_revenue",
+    "quota_rent",
+    "public_imports",
+    "public_import_cost",
+];
 
 /// `base` for a market that trades: [`TRADE_COLUMNS`] after `price`, and with `books` the
 /// [`BORDER_BOOK_COLUMNS`] before `acted`.
 fn with_trade(base: &[&'static str], books: bool) -> Vec<&'static str> {
-    let mut out = Vec::with_capacity(base.len() + 5);
+    let mut out = Vec::with_capacity(base.len() + 7);
     for &c in base {
         if c == "acted" && books {
             out.extend_from_slice(BORDER_BOOK_COLUMNS);
@@ -103,6 +108,8 @@ fn cell(r: &PeriodRecord, col: &str, full: bool) -> String {
         "exports" => f(r.exports()),
         "border_revenue" => f(r.border_revenue()),
         "quota_rent" => f(r.quota_rent()),
+        "public_imports" => f(r.public_imports()),
+        "public_import_cost" => f(r.public_import_cost()),
         "acted" => r.acted(),
         _ => String::new(),
     }

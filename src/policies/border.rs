@@ -10,8 +10,8 @@
 use serde::Deserialize;
 
 use super::in_storage::StoragePlan;
-use super::rule::{rule_ref, Build, Cell, Row, Rule, RuleRef, RuleSection, Watched};
-use super::Agency;
+use super::rule::{rank, rule_ref, Build, Cell, Row, Rule, RuleRef, RuleSection, Watched};
+use super::{flags, Agency, BandStock, Clearing, PolicyRule};
 use crate::input::ranges::{r, short_num, BIG};
 use crate::input::InputError;
 use crate::input::Key;
@@ -47,6 +47,8 @@ pub const SECTION: RuleSection = RuleSection {
         number("import_quota", "border.import_quota", 0.0, BIG, false),
         number("export_quota", "border.export_quota", 0.0, BIG, false),
         number("import_price_target", "border.import_price_target", 0.0, BIG, true),
+        number("public_import_above", "border.public_import_above", 0.0, BIG, true),
+        number("public_import_max", "border.public_import_max", 0.0, BIG, true),
     ],
     read,
     absent: &[("border measures", "none")],
@@ -54,6 +56,7 @@ pub const SECTION: RuleSection = RuleSection {
         "[border]\nimport_tariff = 10.0\nimport_tariff_rate = 0.05\nexport_tax = 5.0\nexport_tax_rate = 0.02\nimport_quota = 50.0\nexport_quota = 40.0\n",
         "[border]\nexport_ban = true\n",
         "[border]\nimport_price_target = 240.0\n",
+        "[border]\npublic_import_above = 225.0\npublic_import_max = 40.0\n",
     ],
 };
 
@@ -75,6 +78,8 @@ struct Raw {
     import_quota: Option<f64>,
     export_quota: Option<f64>,
     import_price_target: Option<f64>,
+    public_import_above: Option<f64>,
+    public_import_max: Option<f64>,
 }
 
 fn read(c: &Check, table: &toml::Table) -> Result<RuleRef, InputError> {
@@ -94,7 +99,19 @@ fn read(c: &Check, table: &toml::Table) -> Result<RuleRef, InputError> {
         import_quota: opt("border.import_quota", raw.import_quota)?,
         export_quota: opt("border.export_quota", raw.export_quota)?,
         import_price_target: opt("border.import_price_target", raw.import_price_target)?,
+        public_import_above: opt("border.public_import_above", raw.public_import_above)?,
+        public_import_max: opt("border.public_import_max", raw.public_import_max)?,
     };
+    if measures.public_import_above.is_none() {
+        if let Some(max) = measures.public_import_max {
+            return Err(c.bad(
+                "border.public_import_max",
+                short_num(max),
+                "set border.public_import_above too (the domestic price above which the agency \
+                 imports), or leave public_import_max out",
+            ));
+        }
+    }
     if measures.export_ban && measures.export_quota.is_some() {
         return Err(c.bad(
             "border.export_quota",
@@ -120,6 +137,26 @@ pub fn check_open_market(
         return Ok(());
     };
     let compiled = super::compile(policy);
+    let watched = super::watched(policy);
+    if let Some(trigger) = compiled.border.public_import_above {
+        let bought = [
+            watched.purchase_floor.map(|p| ("floor.price", p)),
+            watched.band.map(|(lo, _)| ("stock.buy_below", lo)),
+        ];
+        for (key, price) in bought.into_iter().flatten() {
+            if trigger < price {
+                return Err(c.bad(
+                    "border.public_import_above",
+                    short_num(trigger),
+                    &format!(
+                        "must be ≥ {key} = {}: below it the agency would import and buy at home \
+                         in the same season",
+                        short_num(price)
+                    ),
+                ));
+            }
+        }
+    }
     let agency = &compiled.agency;
     if agency.capacity.is_finite() || agency.purchase_budget.is_finite() {
         return Ok(());
@@ -128,7 +165,6 @@ pub fn check_open_market(
     if terms.import_quota.is_finite() {
         return Ok(());
     }
-    let watched = super::watched(policy);
     let defended = [
         watched.purchase_floor.map(|p| ("floor.price", p)),
         watched.band.map(|(lo, _)| ("stock.buy_below", lo)),
@@ -185,6 +221,16 @@ impl Border {
         if let Some(q) = m.export_quota {
             parts.push(format!("export quota {}", short_num(q)));
         }
+        if let Some(p) = m.public_import_above {
+            parts.push(match m.public_import_max {
+                Some(q) => format!(
+                    "public imports above {} (at most {} a season)",
+                    short_num(p),
+                    short_num(q)
+                ),
+                None => format!("public imports above {}", short_num(p)),
+            });
+        }
         if parts.is_empty() {
             "free trade".into()
         } else {
@@ -200,9 +246,26 @@ impl Rule for Border {
 
     fn build(&self, build: &mut Build) {
         build.border = self.measures;
+        if let Some(above) = self.measures.public_import_above {
+            build.actions.push((
+                rank::PUBLIC_IMPORT,
+                Box::new(PublicImport {
+                    above,
+                    max: self.measures.public_import_max.unwrap_or(f64::INFINITY),
+                }),
+            ));
+        }
     }
 
     fn storage(&self, plan: &mut StoragePlan) -> Result<(), String> {
+        if let Some(p) = self.measures.public_import_above {
+            return Err(format!(
+                "border.public_import_above = {}: the storage equilibrium does not cover state \
+                 trading (public imports at a trigger price); use `run` or `compare` with the \
+                 period engine, or leave public_import_above out",
+                short_num(p)
+            ));
+        }
         plan.border = self.measures;
         Ok(())
     }
@@ -228,7 +291,10 @@ impl Rule for Border {
     }
 
     fn reference_price(&self) -> f64 {
-        self.measures.import_price_target.unwrap_or(0.0)
+        let m = &self.measures;
+        m.import_price_target
+            .unwrap_or(0.0)
+            .max(m.public_import_above.unwrap_or(0.0))
     }
 
     fn describe(&self) -> String {
@@ -236,10 +302,11 @@ impl Rule for Border {
     }
 
     fn price_lines(&self) -> Vec<(&'static str, f64)> {
-        self.measures
-            .import_price_target
+        let m = &self.measures;
+        m.import_price_target
             .map(|t| ("import price target", t))
             .into_iter()
+            .chain(m.public_import_above.map(|p| ("public imports above", p)))
             .collect()
     }
 
@@ -256,5 +323,32 @@ impl Rule for Border {
 
     fn watch(&self, _watched: &mut Watched) {
         // neither a purchase floor nor a band
+    }
+}
+
+/// The period action of state trading (`public_import_above`, `public_import_max`): after the
+/// agency's domestic trades, while the price would be above `above` it imports at the landed price
+/// into its stock and releases it at once (see [`Clearing::import_to`]).
+#[derive(Debug, Clone, Copy)]
+pub struct PublicImport {
+    /// The trigger price.
+    pub above: f64,
+    /// The most imported a season (∞: no limit but the store and the budget).
+    pub max: f64,
+}
+
+impl PolicyRule for PublicImport {
+    fn planting_floor(&self) -> Option<f64> {
+        None
+    }
+    fn trades_stock(&self) -> bool {
+        true
+    }
+    fn trade(&self, market: &mut Clearing) {
+        market.import_to(self.above, self.max, flags::PUBLIC_IMPORT);
+    }
+    pays_nothing!();
+    fn as_band(&self) -> Option<BandStock> {
+        None
     }
 }

@@ -40,6 +40,8 @@ pub mod flags {
     /// A purchase had no bound: the defended price is above import parity and neither capacity
     /// nor budget limits the agency (the engine reports the run as diverging).
     pub const UNBOUNDED: u16 = 1 << 12;
+    /// The agency imported at the landed price into its stock and released it (state trading).
+    pub const PUBLIC_IMPORT: u16 = 1 << 13;
 
     /// Names of the "acted" flags, in the order they are printed.
     pub const ACTED_NAMES: &[(u16, &str)] = &[
@@ -52,6 +54,7 @@ pub mod flags {
         (ROTATE, "stock-rotate"),
         (CEILING_SELL, "ceiling-sell"),
         (CONSUMER_SUBSIDY, "consumer-subsidy"),
+        (PUBLIC_IMPORT, "public-import"),
     ];
 
     /// Names of the warning flags.
@@ -96,6 +99,9 @@ pub struct Clearing<'a> {
     pub purchases: f64,
     /// Releases R_t so far.
     pub releases: f64,
+    /// Public imports Z_t so far: bought abroad at the landed price into the stock (and released
+    /// with R_t in the same season; see [`Clearing::import_to`]).
+    pub public_imports: f64,
     /// What acted (see [`flags`]).
     pub flags: u16,
     /// The price before any trade, D⁻¹(Q − shift), computed once (rules and the engine ask for it
@@ -126,6 +132,7 @@ impl<'a> Clearing<'a> {
             budget,
             purchases: 0.0,
             releases: 0.0,
+            public_imports: 0.0,
             flags: 0,
             untraded_price: demand.price_at(harvest - demand_shift),
             border: BorderTerms::CLOSED,
@@ -241,10 +248,68 @@ impl<'a> Clearing<'a> {
         }
     }
 
-    /// End-of-period stock S = carried + X − R.
+    /// End-of-period stock S = carried + X + Z − R (Z the public imports, 0 but under state
+    /// trading: the closed market's sum is carried + X − R as it always was).
     #[inline]
     pub fn stock(&self) -> f64 {
-        self.carried + self.purchases - self.releases
+        if self.public_imports == 0.0 {
+            self.carried + self.purchases - self.releases
+        } else {
+            self.carried + self.purchases + self.public_imports - self.releases
+        }
+    }
+
+    /// State trading: while the price (after the agency's domestic trades and private trade)
+    /// would be above `trigger`, the agency buys abroad at the landed price
+    /// ([`BorderTerms::landed`], no duty) as much as brings the price down to `trigger` — at most
+    /// `max`, the store's room and what the purchase budget has left at the landed price — puts it
+    /// into its stock (Z) and releases it on the domestic market at once (R). Returns Z.
+    ///
+    /// On the kinked curve: with the trigger at or above import parity private traders already
+    /// hold the price there and the agency never imports (the shortfall is −∞ or ≤ 0); a trigger
+    /// below export parity counts as export parity (what the agency brought in below it, traders
+    /// would export again).
+    pub fn import_to(&mut self, trigger: f64, max: f64, acted: u16) -> f64 {
+        if !self.trades {
+            return 0.0;
+        }
+        // never below export parity: traders would export what the agency brings in
+        let target = if self.border.export_quota > 0.0 {
+            trigger.max(self.border.export_parity)
+        } else {
+            trigger
+        };
+        let shortfall = self.least_left_at_most(target) - self.consumption();
+        // −∞ (traders import at the trigger) and NaN fail this too
+        if !(shortfall > 1e-12 * self.harvest.max(1.0)) {
+            return 0.0;
+        }
+        let mut amount = shortfall.min(max);
+        let room = (self.capacity - self.stock()).max(0.0);
+        if amount > room {
+            amount = room;
+            self.flags |= flags::CAPACITY_FULL;
+        }
+        let landed = self.border.landed;
+        if self.budget.is_finite() {
+            let spent = if self.purchases > 0.0 {
+                self.purchases * self.price()
+            } else {
+                0.0
+            };
+            let affordable = ((self.budget - spent) / landed).max(0.0);
+            if amount > affordable {
+                amount = affordable;
+                self.flags |= flags::BUDGET_BOUND;
+            }
+        }
+        if !(amount > 0.0 && amount.is_finite()) {
+            return 0.0;
+        }
+        self.public_imports = accumulate(self.public_imports, amount);
+        self.releases = accumulate(self.releases, amount);
+        self.flags |= acted;
+        amount
     }
 
     /// Buys until the price reaches `target`, within capacity and budget. Returns the amount bought.

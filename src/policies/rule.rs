@@ -35,7 +35,8 @@ pub struct Build {
 }
 
 /// Acting order within a period (the documented order): purchases defending a floor, the stock
-/// rule, sales defending a ceiling; the market clears; then payments on the cleared price.
+/// rule, sales defending a ceiling, public imports; the market clears; then payments on the
+/// cleared price.
 pub mod rank {
     /// A floor defended by purchase.
     pub const FLOOR_PURCHASE: u8 = 0;
@@ -43,10 +44,13 @@ pub mod rank {
     pub const STOCK: u8 = 1;
     /// A ceiling defended by release.
     pub const CEILING_RELEASE: u8 = 2;
+    /// Public imports (state trading, `[border] public_import_above`): what the agency's domestic
+    /// trades leave above the trigger price.
+    pub const PUBLIC_IMPORT: u8 = 3;
     /// Payments to producers.
-    pub const PRODUCER_PAYMENT: u8 = 3;
+    pub const PRODUCER_PAYMENT: u8 = 4;
     /// Payments to consumers.
-    pub const CONSUMER_PAYMENT: u8 = 4;
+    pub const CONSUMER_PAYMENT: u8 = 5;
 }
 
 /// What the Monte Carlo watches for a policy (its failure shares).

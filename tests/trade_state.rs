@@ -1,0 +1,368 @@
+//! State trading (`[border] public_import_above`, `public_import_max`): the agency imports at the
+//! landed price into its stock and releases it in the same season while the domestic price would
+//! be above its trigger. The checks are identities of the books and closed forms derived here from
+//! the kinked curve of private trade (import parity P_m = W + import_cost; the agency pays the
+//! landed price W + import_cost, no duty).
+
+use furrow::engine::{Model, PeriodRecord, PeriodShock};
+use furrow::policies::file::{policy_for_market, policy_from_table};
+use furrow::policies::PolicySpec;
+use furrow::scenario::{market_from_table, parse_toml, Scenario};
+use furrow::stochastic::ShockStream;
+use furrow::storage::{self, SolveOptions};
+use proptest::prelude::*;
+use proptest::test_runner::{FileFailurePersistence, RngAlgorithm, RngSeed};
+
+/// The property tests' fixed seed (the same cases on every run; `PROPTEST_RNG_SEED=N` explores).
+const PROPTEST_SEED: u64 = 0x5747_e7ad_1e00_0016;
+
+fn config(cases: u32) -> ProptestConfig {
+    let seed = std::env::var("PROPTEST_RNG_SEED")
+        .ok()
+        .and_then(|s| s.parse::<u64>().ok())
+        .unwrap_or(PROPTEST_SEED);
+    ProptestConfig {
+        cases,
+        rng_algorithm: RngAlgorithm::ChaCha,
+        rng_seed: RngSeed::Fixed(seed),
+        failure_persistence: Some(Box::new(FileFailurePersistence::WithSource(
+            "proptest-regressions",
+        ))),
+        ..ProptestConfig::default()
+    }
+}
+
+fn market(text: &str) -> Scenario {
+    market_from_table("m.toml", parse_toml("m.toml", text).unwrap()).unwrap()
+}
+
+fn policy(text: &str) -> PolicySpec {
+    let t = parse_toml("p.toml", &format!("[policy]\nname = \"p\"\n{text}")).unwrap();
+    policy_from_table("p.toml", t).unwrap()
+}
+
+/// Constant-elasticity demand through (480, 210) with elasticity −0.25, planting fixed at 480 to
+/// within 10⁻⁴ (supply elasticity 10⁻⁶), naive farmers, lognormal yields with CV `cv`, a border
+/// with import cost 20 and export cost 20 at world price 210 (CV `world_cv`).
+fn open_market(cv: f64, world_cv: f64, seed: u64) -> Scenario {
+    market(&format!(
+        "[demand]\nform = \"constant-elasticity\"\nat_price = 210.0\nat_quantity = 480.0\n\
+         elasticity = -0.25\n[supply]\nform = \"linear\"\nat_price = 210.0\nat_quantity = 480.0\n\
+         elasticity = 0.000001\n[expectations]\nrule = \"naive\"\n[run]\ninitial_price = 210.0\n\
+         periods = 10\nseed = {seed}\n[shocks]\nyield_cv = {cv}\n[trade]\nworld_price = 210.0\n\
+         world_price_cv = {world_cv}\nimport_cost = 20.0\nexport_cost = 20.0\n"
+    ))
+}
+
+/// D⁻¹(C) = 210 (C/480)^−4 (no demand shock in these markets).
+fn inverse_demand(c: f64) -> f64 {
+    210.0 * (c / 480.0).powf(-4.0)
+}
+
+/// D(P) = 480 (P/210)^−0.25.
+fn demand(p: f64) -> f64 {
+    480.0 * (p / 210.0).powf(-0.25)
+}
+
+/// `periods` seasons of replication 0's shocks (the world price on its own stream).
+fn path(s: &Scenario, p: &PolicySpec, periods: usize) -> Vec<PeriodRecord> {
+    let mut stream = ShockStream::for_scenario(s, 0);
+    let shocks: Vec<PeriodShock> = (0..periods).map(|_| stream.next_shock()).collect();
+    Model::new(s, p).run(periods, |t| shocks[t - 1]).unwrap()
+}
+
+fn close(a: f64, b: f64, scale: f64) -> bool {
+    (a - b).abs() <= 1e-9 * scale.abs().max(1.0)
+}
+
+/// The price the season would have cleared at without its public imports, on the kinked curve of
+/// free trade: the agency's other trades leave Q − X + (R − Z); traders import at
+/// P_m = W + 20 + `tariff` and export at P_x = W − 20.
+fn price_without_imports(r: &PeriodRecord, tariff: f64) -> f64 {
+    let world = r.trade.unwrap().world_price;
+    let left = r.harvest - r.purchases + (r.releases - r.public_imports());
+    inverse_demand(left)
+        .max(world - 20.0)
+        .min(world + 20.0 + tariff)
+}
+
+proptest! {
+    #![proptest_config(config(48))]
+
+    #[test]
+    fn stock_balance_books_and_trigger_hold_every_season(
+        trigger in 196.0..245.0f64,
+        max in 0.5..80.0f64,
+        capacity in 5.0..150.0f64,
+        fill in 0.0..1.0f64,
+        sell_above in 200.0..240.0f64,
+        buy_below in 150.0..195.0f64,
+        loss in 0.0..0.1f64,
+        handling in 0.0..5.0f64,
+        budget in prop::option::of(500.0..20_000.0f64),
+        tariff in 0.0..10.0f64,
+        cv in 0.05..0.3f64,
+        world_cv in 0.0..0.2f64,
+        seed in 1u64..1000,
+    ) {
+        let s = open_market(cv, world_cv, seed);
+        let budget_line = budget.map_or(String::new(), |b| format!("purchase_budget = {b:?}\n"));
+        let p = policy(&format!(
+            "[stock]\nbuy_below = {buy_below:?}\nsell_above = {sell_above:?}\n\
+             capacity = {capacity:?}\ninitial = {:?}\nloss_rate = {loss:?}\n\
+             handling_cost = {handling:?}\nstorage_cost = 3.0\nfinancing_rate = 0.03\n{budget_line}\
+             [border]\nimport_tariff = {tariff:?}\npublic_import_above = {trigger:?}\n\
+             public_import_max = {max:?}\n",
+            fill * capacity
+        ));
+        policy_for_market(&s, &p).unwrap();
+        let records = path(&s, &p, 80);
+        let mut before = fill * capacity;
+        for r in &records {
+            let z = r.public_imports();
+            let carried = (1.0 - loss) * before;
+            // stock balance: S_t = (1 − loss) S_{t−1} + X_t + Z_t − R_t (the task's identity)
+            prop_assert!(
+                close(r.stock, carried + r.purchases + z - r.releases, capacity),
+                "t {}: {} vs {}", r.period, r.stock, carried + r.purchases + z - r.releases
+            );
+            // public imports are released in the season: R_t ≥ Z_t, and never above the store
+            prop_assert!(r.releases >= z - 1e-12);
+            prop_assert!(r.stock <= capacity * (1.0 + 1e-12));
+            // the fiscal identity: the public import cost is the landed price times the quantity
+            let world = r.trade.unwrap().world_price;
+            prop_assert!(close(r.public_import_cost(), (world + 20.0) * z, r.public_import_cost()));
+            // the books: fiscal cost = P·X − P·R + storage + financing + handling + deficiency
+            // + consumer payments − border receipts + public import cost (INTERFACE.md's sum with
+            // the border's two lines)
+            let books = r.purchase_cost - r.sales_revenue + r.storage_cost + r.financing_cost
+                + r.handling_cost + r.deficiency_payments + r.consumer_payments
+                - r.border_revenue() + r.public_import_cost();
+            prop_assert!(close(r.fiscal_cost, books, books.abs() + r.sales_revenue));
+            // handling on both legs of the public import (entry and release)
+            let handled = handling * (r.purchases + r.releases + z);
+            prop_assert!(close(r.handling_cost, handled, handled));
+            // limits: the season's maximum, the budget at the landed price
+            prop_assert!(z <= max * (1.0 + 1e-12));
+            if let Some(b) = budget {
+                prop_assert!((world + 20.0) * z <= b * (1.0 + 1e-9));
+            }
+            // the trigger: the agency imports only when the price without its imports would be
+            // above it (and above export parity: what it brought in below that, traders would
+            // export again); then the price ends at that level, or above it when a limit bound
+            let without = price_without_imports(r, tariff);
+            let target = trigger.max(world - 20.0);
+            if z > 0.0 {
+                prop_assert!(without > target, "t {}: imported {z} at {without}", r.period);
+                prop_assert!(r.price >= target * (1.0 - 1e-9));
+                prop_assert_eq!(r.exports(), 0.0);
+                let parity = world + 20.0 + tariff;
+                if r.price < parity * (1.0 - 1e-12) {
+                    // below import parity the imports lower the price: no private imports left
+                    prop_assert!(r.price < without);
+                    prop_assert_eq!(r.imports(), 0.0);
+                } else {
+                    // still at import parity: the public imports displace private ones unit
+                    // for unit, M = D(P_m) − (Q − X + R) = M without them − Z
+                    let left = r.harvest - r.purchases + r.releases;
+                    prop_assert!(close(r.price, parity, parity));
+                    prop_assert!(close(r.imports(), demand(parity) - left, left));
+                    prop_assert!(close(r.imports() + z, demand(parity) - (left - z), left));
+                }
+                let limited = z >= max * (1.0 - 1e-12)
+                    || r.acted().contains("capacity-full")
+                    || r.acted().contains("budget-bound");
+                if !limited {
+                    prop_assert!(close(r.price, target, target), "{} vs {target}", r.price);
+                }
+            } else if without > target * (1.0 + 1e-9) {
+                // above the trigger without imports: only a full store or a spent budget stops it
+                prop_assert!(
+                    r.acted().contains("capacity-full") || r.acted().contains("budget-bound")
+                        || r.stock >= capacity * (1.0 - 1e-12),
+                    "t {}: no import at {without} above {trigger}: {}", r.period, r.acted()
+                );
+            }
+            before = r.stock;
+        }
+    }
+}
+
+#[test]
+fn a_trigger_at_or_above_import_parity_never_imports() {
+    // Derived here: private traders import whenever the price would pass import parity
+    // P_m = 210 + 20 = 230 (no quota), so after private trade P_t ≤ P_m ≤ trigger in every season and
+    // the agency's shortfall to the trigger is never positive. The path is the one of the same
+    // policy without state trading, bit for bit.
+    let s = open_market(0.25, 0.0, 7);
+    let band = "[stock]\nbuy_below = 195.0\nsell_above = 215.0\ncapacity = 15.0\ninitial = 5.0\n";
+    let without = path(&s, &policy(band), 400);
+    assert!(
+        without.iter().any(|r| r.imports() > 0.0),
+        "the test needs imports"
+    );
+    for trigger in [230.0, 235.0, 300.0] {
+        let with = path(
+            &s,
+            &policy(&format!(
+                "{band}[border]\npublic_import_above = {trigger:?}\n"
+            )),
+            400,
+        );
+        assert!(with.iter().all(|r| r.public_imports() == 0.0));
+        assert_eq!(with, without, "trigger {trigger}");
+    }
+}
+
+#[test]
+fn imports_lower_the_price_against_the_same_policy_without_them() {
+    // Derived here: a small band stock runs out in short harvests; above it the price rises to
+    // import parity 230. With state trading at 222 (most 25 a season) the agency imports the gap
+    // D(222) − (Q − X + R) up to 25: the price is 222, or D⁻¹(Q − X + R + 25) when 25 is not enough
+    // — below the price without imports in every such season, unless even that is above import
+    // parity, where traders import the rest (25 fewer units than without state trading). Planting is fixed (supply elasticity
+    // 10⁻⁶), so the two paths see the same harvests to within 10⁻⁶ relative. The imports pass
+    // through the store, so its room (capacity 10 less the stock) bounds them too.
+    let s = open_market(0.25, 0.0, 3);
+    let band = "[stock]\nbuy_below = 190.0\nsell_above = 215.0\ncapacity = 10.0\ninitial = 5.0\n";
+    let base = path(&s, &policy(band), 2000);
+    let with = path(
+        &s,
+        &policy(&format!(
+            "{band}[border]\npublic_import_above = 222.0\npublic_import_max = 25.0\n"
+        )),
+        2000,
+    );
+    let mut bound = 0;
+    let mut capped = 0;
+    for (a, b) in with.iter().zip(&base) {
+        let z = a.public_imports();
+        if z > 0.0 {
+            bound += 1;
+            if a.price >= 230.0 {
+                // 25 was not enough to bring the price below import parity: traders still import
+                // there, Z fewer units (the agency displaces them; the price stays at P_m)
+                assert!((b.imports() - a.imports() - z).abs() < 1e-3 * b.imports().max(1.0));
+                continue;
+            }
+            assert!(
+                a.price < b.price - 1e-6,
+                "t {}: {} vs {}",
+                a.period,
+                a.price,
+                b.price
+            );
+            if z < 25.0 * (1.0 - 1e-12) && !a.acted().contains("capacity-full") {
+                assert!((a.price - 222.0).abs() < 1e-9, "{}", a.price);
+            } else {
+                capped += 1;
+                assert!(z <= 25.0 * (1.0 + 1e-12) && a.stock <= 10.0 * (1.0 + 1e-12));
+                let left = a.harvest - a.purchases + a.releases;
+                assert!((a.price - inverse_demand(left).min(230.0)).abs() < 1e-9 * a.price);
+            }
+            // the agency displaces private imports first: none while it holds the price below P_m
+            if a.price < 230.0 {
+                assert_eq!(a.imports(), 0.0);
+            }
+        } else {
+            // no public import: the same season as without state trading (to planting's 10⁻⁶)
+            assert!(
+                (a.price - b.price).abs() < 1e-4 * b.price,
+                "{} {}",
+                a.price,
+                b.price
+            );
+        }
+    }
+    assert!(
+        bound > 50 && capped > 0,
+        "{bound} seasons imported, {capped} at the maximum"
+    );
+    let mean = |v: &[PeriodRecord]| v.iter().map(|r| r.price).sum::<f64>() / v.len() as f64;
+    assert!(mean(&with) < mean(&base));
+    // the books: imports landed at 230 and sold at ≥ 222 cost at most 8 a unit more than they fetch
+    for r in &with {
+        let z = r.public_imports();
+        if z > 0.0 {
+            assert!((r.public_import_cost() - 230.0 * z).abs() < 1e-9 * r.public_import_cost());
+        }
+    }
+}
+
+#[test]
+fn a_full_store_and_a_spent_budget_bind_public_imports() {
+    // Derived here. A store full at the start (capacity = initial = 20, no band) has no room for
+    // the imports to pass through: none happen. A purchase budget B lets the agency spend at most
+    // B at the landed price 230 a season: Z ≤ B/230.
+    let s = open_market(0.25, 0.0, 5);
+    let full = path(
+        &s,
+        &policy(
+            "[stock]\ncapacity = 20.0\ninitial = 20.0\n[border]\npublic_import_above = 215.0\n",
+        ),
+        300,
+    );
+    assert!(full.iter().all(|r| r.public_imports() == 0.0));
+    assert!(full.iter().any(|r| r.acted().contains("capacity-full")));
+    let budget = path(
+        &s,
+        &policy("[stock]\npurchase_budget = 2300.0\n[border]\npublic_import_above = 215.0\n"),
+        300,
+    );
+    let most = budget
+        .iter()
+        .map(|r| r.public_imports())
+        .fold(0.0, f64::max);
+    assert!(most > 0.0 && most <= 10.0 * (1.0 + 1e-12), "{most}");
+    assert!(budget.iter().any(|r| r.acted().contains("budget-bound")));
+    // without a stock section the store is unlimited: the imports pass through it, S stays 0
+    let plain = path(&s, &policy("[border]\npublic_import_above = 215.0\n"), 300);
+    assert!(plain.iter().any(|r| r.public_imports() > 0.0));
+    assert!(plain.iter().all(|r| r.stock.abs() < 1e-9));
+}
+
+#[test]
+fn what_state_trading_cannot_be_is_refused_by_key() {
+    let s = open_market(0.2, 0.0, 1);
+    // a limit without a trigger
+    let t = parse_toml(
+        "p.toml",
+        "[policy]\nname = \"p\"\n[border]\npublic_import_max = 40.0\n",
+    )
+    .unwrap();
+    let e = policy_from_table("p.toml", t).unwrap_err().to_string();
+    assert!(
+        e.contains("border.public_import_max") && e.contains("public_import_above"),
+        "{e}"
+    );
+    // a trigger below the price the agency buys at
+    let p = policy(
+        "[stock]\nbuy_below = 200.0\ncapacity = 50.0\n[border]\npublic_import_above = 195.0\n",
+    );
+    let e = policy_for_market(&s, &p).unwrap_err().to_string();
+    assert!(
+        e.contains("border.public_import_above") && e.contains("stock.buy_below"),
+        "{e}"
+    );
+    // out of range
+    let t = parse_toml(
+        "p.toml",
+        "[policy]\nname = \"p\"\n[border]\npublic_import_above = -1.0\n",
+    )
+    .unwrap();
+    let e = policy_from_table("p.toml", t).unwrap_err().to_string();
+    assert!(e.contains("border.public_import_above"), "{e}");
+    // the storage equilibrium does not cover it: refused naming the key
+    let text = std::fs::read_to_string("examples/veldmark_storers.toml").unwrap()
+        + "\n[trade]\nworld_price = 205.0\nimport_cost = 20.0\nexport_cost = 20.0\n";
+    let storers = market_from_table(
+        "examples/veldmark_storers.toml",
+        parse_toml("examples/veldmark_storers.toml", &text).unwrap(),
+    )
+    .unwrap();
+    let p = policy("[border]\npublic_import_above = 215.0\n");
+    let e = storage::solve(&storers, &p, &SolveOptions::default())
+        .unwrap_err()
+        .to_string();
+    assert!(e.contains("border.public_import_above"), "{e}");
+}
