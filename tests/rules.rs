@@ -83,8 +83,14 @@ fn every_registered_rule_answers_every_behaviour() {
         assert!(p.intervenes());
         // storage: the rule changes the agency's plan
         let mut plan = StoragePlan::default();
-        rule.storage(&mut plan).unwrap();
-        assert_ne!(plan, StoragePlan::default(), "{what}: storage ignores it");
+        if compiled.border.public_import_above.is_some() {
+            // state trading is outside the storage model: refused, naming the key
+            let e = rule.storage(&mut plan).unwrap_err();
+            assert!(e.contains("border.public_import_above"), "{what}: {e}");
+        } else {
+            rule.storage(&mut plan).unwrap();
+            assert_ne!(plan, StoragePlan::default(), "{what}: storage ignores it");
+        }
         // stability: the rule adds at least one regime besides the free market
         let setup = Setup::new(market, &p);
         let free = stability::free_price(&setup).unwrap();
