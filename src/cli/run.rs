@@ -26,7 +26,12 @@ pub fn execute(args: &RunArgs) -> anyhow::Result<()> {
     let policy = load_policy(args.policy.as_deref(), &scenario)?;
     let common = &args.common;
     if scenario.run.replications > 1 {
-        check_memory("run", &scenario, 1, path::SUMMARY_VARIABLES.len())?;
+        let kept = if scenario.trade.is_some() {
+            path::SUMMARY_VARIABLES_TRADE.len()
+        } else {
+            path::SUMMARY_VARIABLES.len()
+        };
+        check_memory("run", &scenario, 1, kept)?;
         let bar = progress_for(&scenario, 1);
         let mc = path::run_summary(&scenario, &policy, bar.observer());
         bar.finish();

@@ -44,8 +44,13 @@
 //! - markets with `[trade]` only: `imports_mean`, `exports_mean` (private imports and exports per
 //!   season, mean over replications of each replication's mean), `import_season_share`,
 //!   `export_season_share` (share of seasons with imports, with exports), `border_revenue_pv`
-//!   (duties, levies and export taxes, a treasury receipt already off `fiscal_cost_pv`) and
-//!   `quota_rent_pv` (rents to domestic traders, counted in `net_welfare_change_pv`).
+//!   (duties, levies and export taxes, a treasury receipt already off `fiscal_cost_pv`),
+//!   `quota_rent_pv` (rents to domestic traders, counted in `net_welfare_change_pv`) and `leakage`
+//!   with `leakage_se`: −Σ ΔNX_t·a_t / Σ a_t² pooled over replications, a_t = X_t − R_t the agency's
+//!   net purchase at home and ΔNX_t the change in private net exports against the market left
+//!   alone on the same shocks — the share of each unit the agency buys (sells) that private trade
+//!   offsets instead of the domestic price moving (the storage module's definition; null when the
+//!   agency never trades or the market has private storers).
 //! - markets with `[storers]` only: `private_stock_mean`, `public_stock_mean` (long-run means along one
 //!   long path of the solved storage equilibrium, after burn-in) and `crowding_out` = (mean private
 //!   stock without the policy − with it) / mean public stock with it (null when the agency holds none).
@@ -249,6 +254,12 @@ const SPECS: &[(&str, &str, Kind, bool)] = &[
         true,
     ),
     (
+        "leakage",
+        "Leakage: share of the agency's net purchases offset by private trade",
+        Kind::Share,
+        true,
+    ),
+    (
         "opening_stock_cost",
         "Opening stock bought at t = 0",
         Kind::Money,
@@ -416,13 +427,14 @@ const QUANTILE_STEMS: [&str; 4] = [
 ];
 
 /// Indicators that exist only for a market that trades (`[trade]`).
-const TRADE_KEYS: [&str; 6] = [
+const TRADE_KEYS: [&str; 7] = [
     "imports_mean",
     "exports_mean",
     "import_season_share",
     "export_season_share",
     "border_revenue_pv",
     "quota_rent_pv",
+    "leakage",
 ];
 
 /// Indicators that exist only for a market with private storers.
@@ -461,6 +473,57 @@ pub fn mean_se(values: impl Iterator<Item = f64> + Clone) -> (f64, Option<f64>) 
         mean,
         Some((ss / (n as f64 - 1.0)).sqrt() / (n as f64).sqrt()),
     )
+}
+
+/// The leakage of `spec`'s agency trades abroad and its Monte Carlo standard error, on the period
+/// engine (None for a market with private storers: the storage report has its own): each
+/// replication's policy path and the path of the market left alone under the same expectation rule
+/// are stepped on the replication's shocks (common random numbers), and with a_t = X_t − R_t the
+/// agency's net purchase at home and ΔNX_t the change in private net exports, the sums
+/// (−Σ ΔNX_t·a_t, Σ a_t²) of `storage::leakage::leakage_sums` (the one formula) are pooled over
+/// replications: leakage = Σ_i num_i / Σ_i den_i (None when the agency never trades), with the
+/// ratio estimator's standard error √(Σ_i (num_i − L·den_i)² / (n(n − 1))) / mean(den) (Cochran
+/// 1977, ch. 6, from memory).
+fn leakage(scenario: &Scenario, spec: &PolicySpec) -> Option<(Option<f64>, Option<f64>)> {
+    use rayon::prelude::*;
+    if scenario.storers.is_some() || !spec.intervenes() {
+        return None;
+    }
+    let mut alone = PolicySpec::none();
+    alone.expectations = spec.expectations;
+    let model = crate::engine::Model::new(scenario, spec);
+    let base = crate::engine::Model::new(scenario, &alone);
+    let periods = scenario.run.periods;
+    let reps = scenario.run.replications.max(1);
+    let sums: Vec<Option<(f64, f64)>> = (0..reps)
+        .into_par_iter()
+        .map(|rep| {
+            let mut shocks = vec![crate::engine::PeriodShock::NONE; periods];
+            crate::stochastic::draw_shocks(scenario, rep as u64, &mut shocks);
+            let with = model.run(periods, |t| shocks[t - 1]).ok()?;
+            let without = base.run(periods, |t| shocks[t - 1]).ok()?;
+            let net_exports = |r: &crate::engine::PeriodRecord| r.exports() - r.imports();
+            Some(crate::storage::leakage::leakage_sums(
+                with.iter()
+                    .zip(&without)
+                    .map(|(a, b)| (a.purchases - a.releases, net_exports(a) - net_exports(b))),
+            ))
+        })
+        .collect();
+    let sums: Vec<(f64, f64)> = sums.into_iter().collect::<Option<_>>()?;
+    let n = sums.len() as f64;
+    let (num, den) = sums
+        .iter()
+        .fold((0.0, 0.0), |(a, b), (x, y)| (a + x, b + y));
+    if !(den > 0.0) {
+        return Some((None, None));
+    }
+    let l = num / den;
+    let se = (sums.len() > 1).then(|| {
+        let ss: f64 = sums.iter().map(|(x, y)| (x - l * y).powi(2)).sum();
+        (ss / (n * (n - 1.0))).sqrt() / (den / n)
+    });
+    Some((Some(l), se))
 }
 
 /// Builds the indicators of `runs` (under `spec`) against its baseline `base` (the market left alone
@@ -559,6 +622,10 @@ pub(super) fn build(
     if scenario.trade.is_some() {
         welfare_mean(&mut out, "border_revenue_pv", |w| w.border_revenue);
         welfare_mean(&mut out, "quota_rent_pv", |w| w.quota_rent);
+        let (l, se) = leakage(scenario, spec).unwrap_or((None, None));
+        out.0
+            .push(("leakage".into(), l.map_or(Value::Missing, Value::Number)));
+        out.se("leakage", se);
     }
     welfare_mean(&mut out, "opening_stock_cost", |w| w.opening_stock_cost);
     welfare_mean(&mut out, "terminal_stock_value_pv", |w| {

@@ -11,7 +11,7 @@ mod summary;
 
 pub use diagnose::{diagnose, diagnose_tally, floor_warning, summarise, PathTally};
 pub use render::{render_path, PathStream, RUN_COLUMNS, RUN_COLUMNS_TRADE};
-pub use summary::{render_summary, run_summary, SUMMARY_VARIABLES};
+pub use summary::{render_summary, run_summary, SUMMARY_VARIABLES, SUMMARY_VARIABLES_TRADE};
 
 use crate::engine::{Diverged, Model, PathModel, PeriodRecord, PeriodShock, Stepper};
 use crate::policies::PolicySpec;

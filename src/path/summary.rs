@@ -1,5 +1,6 @@
 //! `run` with replications > 1: per-period mean and 5/50/95 % quantiles (Hyndman–Fan type 7)
-//! across replications of the price, producer price, harvest and stock, for one policy.
+//! across replications of the price, producer price, harvest and stock, for one policy (and of the
+//! world price, private imports and exports on a market that trades).
 
 use super::{with_models, LongRunModel, RunError, WithModels};
 use crate::output::{fmt_full, fmt_num, Format, TextTable};
@@ -15,6 +16,18 @@ pub const SUMMARY_VARIABLES: [PathVariable; 4] = [
     PathVariable::Stock,
 ];
 
+/// The variables kept for a market that trades (run by the period engine): [`SUMMARY_VARIABLES`],
+/// then the world price, private imports and exports.
+pub const SUMMARY_VARIABLES_TRADE: [PathVariable; 7] = [
+    PathVariable::Price,
+    PathVariable::ProducerPrice,
+    PathVariable::Harvest,
+    PathVariable::Stock,
+    PathVariable::WorldPrice,
+    PathVariable::Imports,
+    PathVariable::Exports,
+];
+
 /// Columns shown by the terminal table (every column goes to CSV, Markdown and JSON).
 const TABLE_COLUMNS: &[&str] = &[
     "period",
@@ -28,6 +41,9 @@ const TABLE_COLUMNS: &[&str] = &[
     "harvest_p95",
     "stock_mean",
     "stock_p95",
+    "world_price_mean",
+    "imports_mean",
+    "exports_mean",
 ];
 
 /// The Monte Carlo of `policy` on `scenario`'s model (the period engine, or the storage
@@ -45,11 +61,19 @@ pub fn run_summary(
     impl WithModels for SummaryRun<'_> {
         type Output = Result<MonteCarlo, RunError>;
         fn with<M: LongRunModel>(self, models: &[M]) -> Self::Output {
+            // the trade series for a market that trades on the period engine (the storage
+            // equilibrium's records carry no trade)
+            let s = self.scenario;
+            let variables: &[PathVariable] = if s.trade.is_some() && s.storers.is_none() {
+                &SUMMARY_VARIABLES_TRADE
+            } else {
+                &SUMMARY_VARIABLES
+            };
             run_models(
-                self.scenario,
+                s,
                 std::slice::from_ref(self.policy),
                 models,
-                &SUMMARY_VARIABLES,
+                variables,
                 self.progress,
             )
             .map_err(RunError::Failed)

@@ -43,16 +43,26 @@ pub enum PathVariable {
     Harvest,
     /// Agency stock S_t.
     Stock,
+    /// World price W_t (a market that trades; 0 for a closed one).
+    WorldPrice,
+    /// Private imports M_t (0 for a closed market).
+    Imports,
+    /// Private exports (0 for a closed market).
+    Exports,
 }
 
 impl PathVariable {
-    /// The column stem (`price`, `producer_price`, `harvest`, `stock`).
+    /// The column stem (`price`, `producer_price`, `harvest`, `stock`, `world_price`, `imports`,
+    /// `exports`).
     pub fn name(&self) -> &'static str {
         match self {
             PathVariable::Price => "price",
             PathVariable::ProducerPrice => "producer_price",
             PathVariable::Harvest => "harvest",
             PathVariable::Stock => "stock",
+            PathVariable::WorldPrice => "world_price",
+            PathVariable::Imports => "imports",
+            PathVariable::Exports => "exports",
         }
     }
 
@@ -63,6 +73,9 @@ impl PathVariable {
             PathVariable::ProducerPrice => r.producer_price,
             PathVariable::Harvest => r.harvest,
             PathVariable::Stock => r.stock,
+            PathVariable::WorldPrice => r.trade.map_or(0.0, |t| t.world_price),
+            PathVariable::Imports => r.imports(),
+            PathVariable::Exports => r.exports(),
         }
     }
 }

@@ -81,19 +81,31 @@ pub fn leakage(
     initial: f64,
     from: usize,
 ) -> Option<f64> {
-    let (mut num, mut den) = (0.0, 0.0);
     let mut carried = initial;
-    for (t, (a, b)) in with.iter().zip(without).enumerate() {
-        let bought = a.public_stock - keep * carried;
-        carried = a.public_stock;
-        if t < from {
-            continue;
-        }
-        let dnx = (a.exports - a.imports) - (b.exports - b.imports);
+    let pairs = with
+        .iter()
+        .zip(without)
+        .enumerate()
+        .filter_map(|(t, (a, b))| {
+            let bought = a.public_stock - keep * carried;
+            carried = a.public_stock;
+            let dnx = (a.exports - a.imports) - (b.exports - b.imports);
+            (t >= from).then_some((bought, dnx))
+        });
+    let (num, den) = leakage_sums(pairs);
+    (den > 0.0).then(|| num / den)
+}
+
+/// The two sums of the leakage, (−Σ ΔNX_t·a_t, Σ a_t²), over (a_t, ΔNX_t) pairs: the agency's net
+/// purchase and the change in private net exports in season t (the one formula; `compare` pools
+/// them over replications of the period engine).
+pub fn leakage_sums(pairs: impl IntoIterator<Item = (f64, f64)>) -> (f64, f64) {
+    let (mut num, mut den) = (0.0, 0.0);
+    for (bought, dnx) in pairs {
         num -= dnx * bought;
         den += bought * bought;
     }
-    (den > 0.0).then(|| num / den)
+    (num, den)
 }
 
 /// The trade report of the solved equilibrium `eq` of `policy` on `scenario` (`None` for a closed
