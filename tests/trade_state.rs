@@ -400,3 +400,61 @@ fn compare_measures_the_leakage_of_public_imports_that_displace_private_ones() {
     assert!(value(0, "leakage_se").is_some_and(|se| se >= 0.0 && se < 1e-3));
     assert_eq!(value(1, "leakage"), None);
 }
+
+#[test]
+fn the_demo_briefing_and_run_summary_show_state_trading() {
+    // The briefing's border paragraph names the policy's trigger and limit from its file; the run
+    // summary of a trading market carries the world price, imports and exports (their means are
+    // checked against the definition: imports and exports are never negative, the world price
+    // mean lies near the file's mean, 210, within its 10 % variation).
+    use assert_cmd::Command;
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("brief.html");
+    let o = Command::cargo_bin("furrow")
+        .unwrap()
+        .args([
+            "report",
+            "examples/veldmark_border.toml",
+            "policies/border/band_public_imports.toml",
+            "--replications",
+            "40",
+            "--out",
+        ])
+        .arg(&out)
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let html = std::fs::read_to_string(&out).unwrap();
+    assert!(html.contains("State trading"), "no state trading paragraph");
+    assert!(
+        html.contains("above 240"),
+        "the trigger from the policy file"
+    );
+    assert!(
+        html.contains("at most 40"),
+        "the limit from the policy file"
+    );
+    let o = Command::cargo_bin("furrow")
+        .unwrap()
+        .args([
+            "run",
+            "examples/veldmark_border.toml",
+            "--policy",
+            "policies/border/band_public_imports.toml",
+            "--replications",
+            "200",
+            "--format",
+            "json",
+        ])
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let rows: Vec<serde_json::Value> = serde_json::from_slice(&o.stdout).unwrap();
+    assert_eq!(rows.len(), 30);
+    for r in &rows {
+        let w = r["world_price_mean"].as_f64().unwrap();
+        assert!((w - 210.0).abs() < 0.1 * 210.0, "{w}");
+        assert!(r["imports_mean"].as_f64().unwrap() >= 0.0);
+        assert!(r["exports_p05"].as_f64().unwrap() >= 0.0);
+    }
+}

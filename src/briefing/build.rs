@@ -258,6 +258,26 @@ pub fn build_with_households(
             m = group(free.import_parity, 1),
             x = group(free.export_parity, 1),
         ));
+        // state trading: the agency's own imports, in words, for each policy that has them
+        let traders: Vec<String> = req
+            .columns
+            .iter()
+            .filter_map(|(name, spec)| {
+                let b = crate::policies::compile(spec).border;
+                b.public_import_above.map(|above| {
+                    let most = b.public_import_max.map_or(String::new(), |q| {
+                        format!(", at most {} {} a season", group(q, 1), m.quantity_unit)
+                    });
+                    format!("{name} (above {} {}{most})", group(above, 1), m.price_unit)
+                })
+            })
+            .collect();
+        if !traders.is_empty() {
+            market.paragraph(format!(
+                "State trading: under {} the agency itself imports when the domestic price would pass its trigger, buying abroad at the world price plus the import cost (no duty) and selling the grain at home in the same season. Its imports take the place of private imports first and lower the price only once those are gone; the treasury pays the landed price and receives the domestic price, so it gains when it sells above the landed price and loses below it.",
+                traders.join("; ")
+            ));
+        }
     }
     market.table(
         "Every setting, with the file it came from",
