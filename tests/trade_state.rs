@@ -352,10 +352,6 @@ fn what_state_trading_cannot_be_is_refused_by_key() {
     .unwrap();
     let e = policy_from_table("p.toml", t).unwrap_err().to_string();
     assert!(e.contains("border.public_import_above"), "{e}");
-    // the stability analysis does not cover it yet: refused naming the key
-    let p = policy("[border]\npublic_import_above = 215.0\n");
-    let e = furrow::stability::analyse(&s, &p).unwrap_err().to_string();
-    assert!(e.contains("border.public_import_above"), "{e}");
     // the storage equilibrium does not cover it: refused naming the key
     let text = std::fs::read_to_string("examples/veldmark_storers.toml").unwrap()
         + "\n[trade]\nworld_price = 205.0\nimport_cost = 20.0\nexport_cost = 20.0\n";
@@ -457,4 +453,78 @@ fn the_demo_briefing_and_run_summary_show_state_trading() {
         assert!(r["imports_mean"].as_f64().unwrap() >= 0.0);
         assert!(r["exports_p05"].as_f64().unwrap() >= 0.0);
     }
+}
+
+/// Linear market Q_d = 300 − P, Q_s = c + b·P^e with the closed steady state at P* = 150
+/// (c = 300 − (1 + b)·150), naive farmers, a border at world price 100 with costs 40: import
+/// parity 140, export parity 60.
+fn linear_open(b: f64) -> Scenario {
+    let c = 300.0 - (1.0 + b) * 150.0;
+    market(&format!(
+        "[demand]\nform = \"linear\"\nintercept = 300.0\nslope = -1.0\n[supply]\nform = \"linear\"\n\
+         intercept = {c:?}\nslope = {b:?}\n[expectations]\nrule = \"naive\"\n[run]\n\
+         initial_price = 150.0\nperiods = 10\n[trade]\nworld_price = 100.0\nimport_cost = 40.0\n\
+         export_cost = 40.0\n"
+    ))
+}
+
+#[test]
+fn the_agency_importing_regime_pins_the_price_at_its_trigger() {
+    // Derived here. The closed market rests at P* = 150, above import parity 140, so free trade
+    // rests at 140 importing D(140) − S(140). With state trading at 130 < 140 the agency's imports
+    // reach first: the price rests at 130 (pinned: dP/dP^e = 0, so the naive map's eigenvalue is
+    // 0, as for private imports at a parity), with public imports D(130) − S(130) = 170 − (c + 130b)
+    // and no private imports. With a limit L below that gap, the domestic curve clears the harvest
+    // plus L: 300 − P = c + b·P + L ⇒ P = (300 − c − L)/(1 + b) (the cobweb eigenvalue −b), and
+    // when that price is above 140 traders import the rest at parity: D(140) − S(140) − L.
+    let b = 0.5;
+    let c = 300.0 - 1.5 * 150.0;
+    let s = linear_open(b);
+    let a =
+        furrow::stability::analyse(&s, &policy("[border]\npublic_import_above = 130.0\n")).unwrap();
+    let hold = &a.regimes[0];
+    assert_eq!(hold.name, "agency importing");
+    assert!(hold.holds_steady_state);
+    assert_eq!((hold.eigenvalues[0].re, hold.eigenvalues[0].im), (0.0, 0.0));
+    assert!((a.steady_state.price - 130.0).abs() < 1e-9);
+    let t = a.trade.as_ref().unwrap();
+    let gap = 170.0 - (c + 130.0 * b);
+    assert!((t.public_imports.unwrap() - gap).abs() < 1e-9, "{t:?}");
+    assert_eq!(t.imports, 0.0);
+    // a limit L = 5 below the gap 42.5, price (300 − c − 5)/1.5 = 146.67 > 140: traders import
+    // D(140) − S(140) − 5 = 160 − 145 − 5 = 10 at parity, the agency its 5
+    let a = furrow::stability::analyse(
+        &s,
+        &policy("[border]\npublic_import_above = 130.0\npublic_import_max = 5.0\n"),
+    )
+    .unwrap();
+    assert_eq!(a.regimes[0].name, "importing", "{a:#?}");
+    let t = a.trade.as_ref().unwrap();
+    assert!(
+        (t.imports - (160.0 - (c + 140.0 * b) - 5.0)).abs() < 1e-9,
+        "{t:?}"
+    );
+    assert_eq!(t.public_imports, Some(5.0));
+    // a limit L = 20: (300 − c − 20)/1.5 = 136.67 < 140: the agency's limit holds, no traders
+    let a = furrow::stability::analyse(
+        &s,
+        &policy("[border]\npublic_import_above = 130.0\npublic_import_max = 20.0\n"),
+    )
+    .unwrap();
+    let hold = &a.regimes[0];
+    assert_eq!(hold.name, "agency importing, at its limit", "{a:#?}");
+    let p = (300.0 - c - 20.0) / (1.0 + b);
+    assert!(
+        (a.steady_state.price - p).abs() < 1e-9,
+        "{} vs {p}",
+        a.steady_state.price
+    );
+    assert!((hold.eigenvalues[0].re + b).abs() < 1e-9);
+    let t = a.trade.as_ref().unwrap();
+    assert_eq!((t.imports, t.public_imports), (0.0, Some(20.0)));
+    // a trigger at or above import parity never imports: free trade's steady state
+    let a =
+        furrow::stability::analyse(&s, &policy("[border]\npublic_import_above = 145.0\n")).unwrap();
+    assert_eq!(a.regimes[0].name, "importing");
+    assert!(a.regimes.iter().all(|r| !r.name.starts_with("agency")));
 }

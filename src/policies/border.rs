@@ -271,17 +271,7 @@ impl Rule for Border {
     }
 
     fn regimes(&self, r: &mut Regimes) -> Result<(), StabilityError> {
-        if let Some(p) = self.measures.public_import_above {
-            return Err(StabilityError::Linearisation {
-                regime: "agency importing (state trading)".into(),
-                reason: format!(
-                    "border.public_import_above = {}: the stability analysis does not cover \
-                     public imports yet; leave public_import_above out to analyse the market \
-                     under the other border measures",
-                    short_num(p)
-                ),
-            });
-        }
+        // the agency's imports are a regime of the border (`stability::trade`)
         r.border = self.measures;
         Ok(())
     }

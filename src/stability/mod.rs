@@ -421,6 +421,14 @@ fn trade_analysis(
             }
         }
     }
+    let agency = hold.name == trade::AGENCY_IMPORTING || hold.name == trade::AGENCY_IMPORTING_FULL;
+    let public_imports = t.public_trigger.map(|_| {
+        if agency || by_trade {
+            t.public_imports
+        } else {
+            0.0
+        }
+    });
     TradeAnalysis {
         world_price: world,
         world_price_cv: cv,
@@ -429,6 +437,7 @@ fn trade_analysis(
         holding: hold.name.clone(),
         imports,
         exports,
+        public_imports,
         bounded_cycle,
         note,
     }

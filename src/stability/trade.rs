@@ -42,6 +42,9 @@ pub struct TradeAnalysis {
     pub imports: f64,
     /// Exports per period at the steady state.
     pub exports: f64,
+    /// The agency's imports per period at the steady state (state trading; absent without it).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub public_imports: Option<f64>,
     /// Where prices settle when the steady state is unstable and trade bounds the cobweb.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub bounded_cycle: Option<BoundedCycle>,
@@ -62,7 +65,15 @@ pub struct BoundedCycle {
     pub at_parity_share: f64,
 }
 
-/// True for the regimes this module lists.
+/// The regime where the agency imports (state trading, `[border] public_import_above`): the price
+/// pinned at its trigger while its imports fill the gap.
+pub const AGENCY_IMPORTING: &str = "agency importing";
+/// The agency's imports at their season limit (`public_import_max`): the domestic curve clears the
+/// harvest plus the limit.
+pub const AGENCY_IMPORTING_FULL: &str = "agency importing, at its limit";
+
+/// True for the regimes of private trade this module lists (the agency's own imports are a
+/// policy's regime).
 pub fn is_trade_regime(name: &str) -> bool {
     name.starts_with("importing") || name.starts_with("exporting")
 }
@@ -79,6 +90,11 @@ pub(crate) struct TradeCases {
     pub imports: f64,
     /// Steady exports.
     pub exports: f64,
+    /// Steady public imports (state trading) of the holding regime.
+    pub public_imports: f64,
+    /// The price above which the agency imports (its trigger, at least export parity), when it
+    /// imports below import parity at all.
+    pub public_trigger: Option<f64>,
 }
 
 fn num(x: f64) -> String {
@@ -134,8 +150,32 @@ pub(crate) fn cases(setup: &Setup, border: &BorderMeasures, unit: &str) -> Optio
         secondary: Vec::new(),
         imports: 0.0,
         exports: 0.0,
+        public_imports: 0.0,
+        public_trigger: None,
     };
-    let mut sides = Vec::with_capacity(2);
+    let mut sides = Vec::with_capacity(3);
+    // state trading first: below import parity the agency's imports hold the price at its trigger
+    // before traders would import (a trigger below export parity counts as export parity)
+    if let Some(trigger) = border.public_import_above {
+        let floor = if t.export_quota > 0.0 {
+            t.export_parity
+        } else {
+            0.0
+        };
+        let at = trigger.max(floor);
+        let below_parity = !(t.import_quota > 0.0 && t.import_parity.is_finite())
+            || at < t.import_parity * (1.0 - 1e-12);
+        if below_parity {
+            out.public_trigger = Some(at);
+            sides.push(Side {
+                name: AGENCY_IMPORTING,
+                full: AGENCY_IMPORTING_FULL,
+                parity: at,
+                quota: border.public_import_max.unwrap_or(f64::INFINITY),
+                sign: 1.0,
+            });
+        }
+    }
     if t.import_quota > 0.0 && t.import_parity.is_finite() {
         sides.push(Side {
             name: "importing",
@@ -154,22 +194,45 @@ pub(crate) fn cases(setup: &Setup, border: &BorderMeasures, unit: &str) -> Optio
             sign: -1.0,
         });
     }
+    // what the agency's imports leave to traders at rest: nothing once they hold the price below
+    // import parity; at their limit, traders import the rest less the limit
+    let mut agency_holds = false;
+    let mut agency_limit = 0.0;
     for side in &sides {
+        let agency = side.name == AGENCY_IMPORTING;
+        if side.name == "importing" && agency_holds {
+            out.secondary.push(Regimes::case(
+                side.name,
+                RegimePrice::Pinned(side.parity),
+                Some(format!(
+                    "after a short harvest the agency's imports cannot cover: the price reaches \
+                     import parity {}, traders import the gap",
+                    num(side.parity)
+                )),
+            ));
+            continue;
+        }
         let (trade_word, where_word, plus) = side.words();
         let parity = side.parity;
         // at rest on the parity: the harvest planted on it and the untraded price it would fetch
         let planting = StateMap::new(setup, RegimePrice::Pinned(parity)).planting_at_rest(parity);
         let harvest = setup.supply.quantity(planting);
         let untraded = setup.demand.price_at(harvest);
-        // what traders move at rest: D(P_m) − S(P_m) in, or S(P_x) − D(P_x) out
-        let traded = side.sign * (setup.demand.quantity_unclamped(parity) - harvest);
+        // what traders move at rest: D(P_m) − S(P_m) in, or S(P_x) − D(P_x) out (less what the
+        // agency imports at its limit)
+        let before = if side.name == "importing" {
+            agency_limit
+        } else {
+            0.0
+        };
+        let traded = side.sign * (setup.demand.quantity_unclamped(parity) - harvest) - before;
         // beyond a binding quota: the domestic curve clears the harvest plus (less) the quota
         let full_case = side
             .quota
             .is_finite()
             .then(|| {
                 let clearing = RegimePrice::Free {
-                    offtake: -side.sign * side.quota,
+                    offtake: -side.sign * side.quota - before,
                 };
                 setup
                     .fixed_point(clearing, parity)
@@ -223,6 +286,27 @@ pub(crate) fn cases(setup: &Setup, border: &BorderMeasures, unit: &str) -> Optio
                 holds_here = Some((c, side.quota));
             }
         }
+        if agency {
+            let rest_above_parity = holds_here.as_ref().is_some_and(|(c, _)| {
+                c.name == AGENCY_IMPORTING_FULL
+                    && matches!(c.clearing, RegimePrice::Free { .. })
+                    && setup
+                        .fixed_point(c.clearing, parity)
+                        .is_some_and(|p| t.import_quota > 0.0 && p > t.import_parity)
+            });
+            if rest_above_parity {
+                // the limit leaves the price above import parity: traders import the rest there
+                agency_limit = side.quota;
+                if let Some((mut c, _)) = holds_here.take() {
+                    c.holds = false;
+                    out.secondary.push(c);
+                }
+            } else if holds_here.is_some() {
+                agency_holds = true;
+            } else if side.beyond(untraded) {
+                agency_limit = side.quota;
+            }
+        }
         let held = holds_here.as_ref().map(|(c, _)| c.name.as_str());
         if held != Some(side.name) {
             let (event, verb) = if side.sign > 0.0 {
@@ -246,11 +330,35 @@ pub(crate) fn cases(setup: &Setup, border: &BorderMeasures, unit: &str) -> Optio
         }
         if let Some((c, amount)) = holds_here {
             out.holding = Some(c);
-            if side.sign > 0.0 {
+            if agency {
+                out.public_imports = amount;
+            } else if side.sign > 0.0 {
                 out.imports = amount;
+                if side.name == "importing" {
+                    out.public_imports = agency_limit;
+                }
             } else {
                 out.exports = amount;
             }
+        }
+    }
+    // the agency's own regimes in its words (the notes above speak of traders and quotas)
+    let trigger = out.public_trigger.unwrap_or(0.0);
+    let cases = out.holding.iter_mut().chain(out.secondary.iter_mut());
+    for c in cases {
+        if c.name == AGENCY_IMPORTING {
+            c.note = Some(format!(
+                "state trading: the agency imports at the landed price and sells at home to hold \
+                 the price at its trigger {} (below import parity, so traders do not import)",
+                num(trigger)
+            ));
+        } else if c.name == AGENCY_IMPORTING_FULL {
+            c.note = Some(format!(
+                "state trading at its limit ({} {unit} a season): the domestic curve clears the \
+                 harvest plus the agency's imports, above its trigger {}",
+                num(border.public_import_max.unwrap_or(f64::INFINITY)),
+                num(trigger)
+            ));
         }
     }
     Some(out)
@@ -286,8 +394,14 @@ pub(crate) fn merge(
             let buying = e > free_price;
             let importing = named(&trade.holding, "importing");
             let exporting = named(&trade.holding, "exporting");
-            // traders reach their parity before the agency trades at its price
-            if (!buying && importing && e >= pm) || (buying && exporting && e <= px) {
+            let agency = named(&trade.holding, AGENCY_IMPORTING)
+                || named(&trade.holding, AGENCY_IMPORTING_FULL);
+            let trigger = trade.public_trigger.unwrap_or(f64::INFINITY);
+            // traders reach their parity (the agency its trigger) before the rule trades at its price
+            if (!buying && importing && e >= pm)
+                || (buying && exporting && e <= px)
+                || (!buying && agency && e >= trigger)
+            {
                 demote = true;
             } else if buying && unlimited_imports && e > pm * (1.0 + 1e-12) {
                 let h = &mut holding[0];
