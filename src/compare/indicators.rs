@@ -515,7 +515,7 @@ fn leakage(scenario: &Scenario, spec: &PolicySpec) -> Option<(Option<f64>, Optio
     let (num, den) = sums
         .iter()
         .fold((0.0, 0.0), |(a, b), (x, y)| (a + x, b + y));
-    if !(den > 0.0) {
+    if den.is_nan() || den <= 0.0 {
         return Some((None, None));
     }
     let l = num / den;

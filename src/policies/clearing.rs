@@ -281,7 +281,7 @@ impl<'a> Clearing<'a> {
         };
         let shortfall = self.least_left_at_most(target) - self.consumption();
         // −∞ (traders import at the trigger) and NaN fail this too
-        if !(shortfall > 1e-12 * self.harvest.max(1.0)) {
+        if shortfall.is_nan() || shortfall <= 1e-12 * self.harvest.max(1.0) {
             return 0.0;
         }
         let mut amount = shortfall.min(max);
