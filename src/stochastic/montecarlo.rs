@@ -16,6 +16,7 @@ use serde::Serialize;
 
 use super::draw_shocks;
 use super::stats::{ShiftedSums, Summary};
+use crate::curves::SteadyState;
 use crate::engine::{Diverged, Model, PathModel, PeriodRecord, PeriodShock, Stepper};
 use crate::policies::flags;
 use crate::policies::PolicySpec;
@@ -612,7 +613,7 @@ fn run_with_budget<M: PathModel>(
             assemble(
                 models[k].name(),
                 k,
-                &chunk_results,
+                &mut chunk_results,
                 series,
                 periods,
                 reps,
@@ -689,27 +690,51 @@ impl<M: PathModel> Context<'_, M> {
             .collect();
         let mut paired = vec![PairedChanges::default(); self.pairs.len()];
         let mut shocks = vec![PeriodShock::NONE; periods];
+        let keep_seasons = from < self.season_reps;
+        // one path and one replication fold per model, reused from replication to replication
+        let mut paths: Vec<M::Stepper<'_>> = Vec::with_capacity(self.models.len());
+        let mut folds: Vec<RepFold> = Vec::with_capacity(self.models.len());
         for rep in from..to {
             // the replication's shocks, drawn once and handed to every model
             draw_shocks(s, rep as u64, &mut shocks);
-            for (k, model) in self.models.iter().enumerate() {
-                let keep_seasons = from < self.season_reps;
-                let summary = self
-                    .replicate(
-                        model,
-                        &self.watches[k],
-                        &shocks,
-                        (rep - from, n, keep_seasons),
-                        &mut out[k],
-                    )
+            paths.clear();
+            paths.extend(self.models.iter().map(|m| m.start()));
+            folds.clear();
+            folds.extend(self.watches.iter().map(|w| RepFold::new(w, &s.steady)));
+            let at = (rep - from, n, keep_seasons);
+            // lockstep: period by period, every model of the replication steps on the same shock
+            for (t, shock) in shocks.iter().enumerate() {
+                for (((path, fold), acc), watch) in paths
+                    .iter_mut()
+                    .zip(folds.iter_mut())
+                    .zip(out.iter_mut())
+                    .zip(self.watches)
+                {
+                    if fold.failed.is_none() {
+                        match path.step(shock) {
+                            Ok(r) => fold.add(t, &r, watch, self.series, at, acc),
+                            Err(e) => fold.failed = Some(e),
+                        }
+                    }
+                }
+            }
+            // the first failing model (lowest index) fails the replication
+            for (k, ((fold, acc), watch)) in folds
+                .drain(..)
+                .zip(out.iter_mut())
+                .zip(self.watches)
+                .enumerate()
+            {
+                let summary = fold
+                    .finish(watch, acc)
                     .map_err(|source| ReplicationFailed {
-                        policy: model.name().to_string(),
+                        policy: self.models[k].name().to_string(),
                         policy_index: k,
                         replication: rep,
                         seed: s.run.seed,
                         source,
                     })?;
-                out[k].reps.push(summary);
+                acc.reps.push(summary);
             }
             if !self.pairs.is_empty() {
                 self.pair_up(&mut out, &mut paired);
@@ -752,108 +777,129 @@ impl<M: PathModel> Context<'_, M> {
             }
         }
     }
+}
 
-    /// One replication (number `slot` of the chunk's `n`) of one model on `shocks`, folded into
-    /// `acc`; returns the replication's summary.
-    /// `at` = (slot in the chunk, chunk size, keep the season outlays).
-    #[inline]
-    fn replicate(
-        &self,
-        model: &M,
-        watch: &Watch,
-        shocks: &[PeriodShock],
-        at: (usize, usize, bool),
-        acc: &mut ChunkPolicy,
-    ) -> Result<ReplicationSummary, Diverged> {
-        let mut path = model.start();
-        self.fold(shocks.iter().map(|s| path.step(s)), watch, at, acc)
+/// One replication of one model in progress: its welfare fold, pooled moments and counts.
+struct RepFold {
+    fold: WelfareFold,
+    pooled: Pooled,
+    out: ReplicationSummary,
+    running: f64,
+    peak: f64,
+    fiscal_sum: f64,
+    count: usize,
+    /// Why this model's path ended early (the replication then fails).
+    failed: Option<Diverged>,
+}
+
+impl RepFold {
+    fn new(watch: &Watch, steady: &SteadyState) -> RepFold {
+        let running = watch.books.opening_stock_cost;
+        RepFold {
+            fold: WelfareFold::new(),
+            pooled: Pooled::new(steady.price, steady.quantity),
+            out: ReplicationSummary {
+                worst_season_fiscal: f64::NEG_INFINITY,
+                ..Default::default()
+            },
+            running,
+            peak: running.max(0.0),
+            fiscal_sum: 0.0,
+            count: 0,
+            failed: None,
+        }
     }
 
-    /// Folds one replication's periods into `acc`; `at` = (slot in the chunk, chunk size, keep the
-    /// season outlays).
-    fn fold(
-        &self,
-        periods: impl Iterator<Item = Result<PeriodRecord, Diverged>>,
+    /// Folds period `t` (0-based) of the replication into this fold and into the chunk's sums `acc`;
+    /// `at` = (slot in the chunk, chunk size, keep the season outlays).
+    #[inline(always)]
+    fn add(
+        &mut self,
+        t: usize,
+        r: &PeriodRecord,
         watch: &Watch,
-        at: (usize, usize, bool),
+        series: &[PathVariable],
+        (slot, n, keep_seasons): (usize, usize, bool),
         acc: &mut ChunkPolicy,
-    ) -> Result<ReplicationSummary, Diverged> {
-        let (slot, n, keep_seasons) = at;
-        let books = &watch.books;
-        let scale = watch.income_scale();
-        let mut fold = WelfareFold::new();
-        let mut pooled = Pooled::new(acc.pooled.price.reference, acc.pooled.harvest.reference);
-        let mut out = ReplicationSummary {
-            worst_season_fiscal: f64::NEG_INFINITY,
-            ..Default::default()
-        };
-        let mut running = books.opening_stock_cost;
-        let mut peak = running.max(0.0);
-        let (mut fiscal_sum, mut count) = (0.0, 0usize);
+    ) {
         const CUT: u16 = flags::CAPACITY_FULL | flags::BUDGET_BOUND;
-        for (t, r) in periods.enumerate() {
-            let r = r?;
-            fold.add(&r, books);
-            let y = watch.income(&r);
-            let transform = crra_transform(y, scale, watch.risk_aversion);
-            pooled.push(&r, transform);
-            if let Some(cell) = acc.path.get_mut(t) {
-                *cell = [r.producer_price, consumer_price(&r)];
-            }
-            acc.fiscal[t] += r.fiscal_cost;
-            acc.income[t] += y;
-            acc.transform[t] += transform;
-            if keep_seasons {
-                acc.seasons.push(r.fiscal_cost);
-            }
-            if let Some(trade) = &r.trade {
-                out.mean_imports += trade.imports;
-                out.mean_exports += trade.exports;
-                out.import_periods += u32::from(trade.imports > 0.0);
-                out.export_periods += u32::from(trade.exports > 0.0);
-            }
-            out.floor_binding_periods += u32::from(r.floor_binding());
-            out.stockout_periods += u32::from(r.stockout);
-            out.final_stock = r.stock;
-            fiscal_sum += r.fiscal_cost;
-            count += 1;
-            out.worst_season_fiscal = out.worst_season_fiscal.max(r.fiscal_cost);
-            running += r.fiscal_cost;
-            peak = peak.max(running);
-            out.budget_exceeded_periods +=
-                u32::from(r.fiscal_cost > watch.annual_budget * (1.0 + 1e-12));
-            for (c, a) in out
-                .alert_periods
-                .iter_mut()
-                .zip(&watch.alerts[..watch.alert_count])
-            {
-                *c += u32::from(r.price > *a);
-            }
-            let cut = r.flags & CUT != 0;
-            out.capacity_full_periods += u32::from(r.flags & flags::CAPACITY_FULL != 0);
-            out.budget_bound_periods += u32::from(r.flags & flags::BUDGET_BOUND != 0);
-            out.floor_failed_periods += u32::from(
-                cut && watch
-                    .purchase_floor
-                    .is_some_and(|f| r.producer_price < f * (1.0 - 1e-9)),
-            );
-            out.band_failed_periods += u32::from(watch.band.is_some_and(|(lo, hi)| {
-                let below = cut && r.price < lo * (1.0 - 1e-9);
-                let above =
-                    r.price > hi * (1.0 + 1e-9) && (r.stockout || r.flags & flags::STOCK_OUT != 0);
-                below || above
-            }));
-            for (j, which) in self.series.iter().enumerate() {
-                let x = which.of(&r);
-                acc.series_sums[j][t] += x;
-                if let Some(cell) = acc.series[j].get_mut(t * n + slot) {
-                    *cell = x;
-                }
+        let out = &mut self.out;
+        self.fold.add(r, &watch.books);
+        let y = watch.income(r);
+        let transform = crra_transform(y, watch.income_scale(), watch.risk_aversion);
+        self.pooled.push(r, transform);
+        if let Some(cell) = acc.path.get_mut(t) {
+            *cell = [r.producer_price, consumer_price(r)];
+        }
+        acc.fiscal[t] += r.fiscal_cost;
+        acc.income[t] += y;
+        acc.transform[t] += transform;
+        if keep_seasons {
+            acc.seasons.push(r.fiscal_cost);
+        }
+        if let Some(trade) = &r.trade {
+            out.mean_imports += trade.imports;
+            out.mean_exports += trade.exports;
+            out.import_periods += u32::from(trade.imports > 0.0);
+            out.export_periods += u32::from(trade.exports > 0.0);
+        }
+        out.floor_binding_periods += u32::from(r.floor_binding());
+        out.stockout_periods += u32::from(r.stockout);
+        out.final_stock = r.stock;
+        self.fiscal_sum += r.fiscal_cost;
+        self.count += 1;
+        out.worst_season_fiscal = out.worst_season_fiscal.max(r.fiscal_cost);
+        self.running += r.fiscal_cost;
+        self.peak = self.peak.max(self.running);
+        out.budget_exceeded_periods +=
+            u32::from(r.fiscal_cost > watch.annual_budget * (1.0 + 1e-12));
+        for (c, a) in out
+            .alert_periods
+            .iter_mut()
+            .zip(&watch.alerts[..watch.alert_count])
+        {
+            *c += u32::from(r.price > *a);
+        }
+        let cut = r.flags & CUT != 0;
+        out.capacity_full_periods += u32::from(r.flags & flags::CAPACITY_FULL != 0);
+        out.budget_bound_periods += u32::from(r.flags & flags::BUDGET_BOUND != 0);
+        out.floor_failed_periods += u32::from(
+            cut && watch
+                .purchase_floor
+                .is_some_and(|f| r.producer_price < f * (1.0 - 1e-9)),
+        );
+        out.band_failed_periods += u32::from(watch.band.is_some_and(|(lo, hi)| {
+            let below = cut && r.price < lo * (1.0 - 1e-9);
+            let above =
+                r.price > hi * (1.0 + 1e-9) && (r.stockout || r.flags & flags::STOCK_OUT != 0);
+            below || above
+        }));
+        for (j, which) in series.iter().enumerate() {
+            let x = which.of(r);
+            acc.series_sums[j][t] += x;
+            if let Some(cell) = acc.series[j].get_mut(t * n + slot) {
+                *cell = x;
             }
         }
+    }
+
+    /// The replication's summary (or why its path ended early); merges its pooled moments into `acc`.
+    fn finish(self, watch: &Watch, acc: &mut ChunkPolicy) -> Result<ReplicationSummary, Diverged> {
+        if let Some(e) = self.failed {
+            return Err(e);
+        }
+        let RepFold {
+            fold,
+            pooled,
+            mut out,
+            peak,
+            fiscal_sum,
+            count,
+            ..
+        } = self;
         acc.pooled.merge(&pooled);
         let per = count.max(1) as f64;
-        out.welfare = fold.finish(books);
+        out.welfare = fold.finish(&watch.books);
         out.mean_price = pooled.price.mean();
         out.mean_producer_price = pooled.producer_price.mean();
         out.mean_harvest = pooled.harvest.mean();
@@ -873,7 +919,7 @@ impl<M: PathModel> Context<'_, M> {
 fn assemble(
     name: &str,
     k: usize,
-    chunks: &[Vec<ChunkPolicy>],
+    chunks: &mut [Vec<ChunkPolicy>],
     series: &[PathVariable],
     periods: usize,
     reps: usize,
@@ -885,9 +931,11 @@ fn assemble(
     let mut income = vec![0.0; periods];
     let mut transform = vec![0.0; periods];
     let mut season_fiscal = Vec::new();
-    for c in chunks {
-        let p = &c[k];
-        replications.extend_from_slice(&p.reps);
+    for c in chunks.iter_mut() {
+        let p = &mut c[k];
+        // moved, not copied: each chunk's part is freed as it is taken, so the summaries are held
+        // about once at the peak (not twice)
+        replications.extend(std::mem::take(&mut p.reps));
         match &mut pooled {
             None => pooled = Some(p.pooled),
             Some(acc) => acc.merge(&p.pooled),
@@ -901,8 +949,9 @@ fn assemble(
         for (a, b) in transform.iter_mut().zip(&p.transform) {
             *a += b;
         }
-        season_fiscal.extend_from_slice(&p.seasons);
+        season_fiscal.extend(std::mem::take(&mut p.seasons));
     }
+    let chunks: &[Vec<ChunkPolicy>] = chunks;
     for f in fiscal
         .iter_mut()
         .chain(income.iter_mut())
