@@ -433,14 +433,13 @@ pub struct ReplicationFailed {
 
 /// What a chunk of replications hands back, per policy.
 struct ChunkPolicy {
-    reps: Vec<ReplicationSummary>,
+    /// replications folded
+    n: usize,
     pooled: Pooled,
     fiscal: Vec<f64>,
     /// per-period sums over the chunk's replications of income and of its CRRA transform
     income: Vec<f64>,
     transform: Vec<f64>,
-    /// season outlays, replication-major (empty beyond the season budget)
-    seasons: Vec<f64>,
     /// this replication's (producer price, consumer price) per period (empty without pairs)
     path: Vec<[f64; 2]>,
     /// per-period sums of the shifted prices (see [`SeasonPrices`]; empty without pairs)
@@ -450,6 +449,13 @@ struct ChunkPolicy {
     series: Vec<Vec<f64>>,
     /// per-period sums of each kept series over the chunk's replications: [series][t]
     series_sums: Vec<Vec<f64>>,
+}
+
+/// Where one chunk writes its replications' summaries and season outlays: per model, the chunk's
+/// slice of the final lists (no season slices beyond the season budget).
+struct Slots<'a> {
+    reps: Vec<&'a mut [ReplicationSummary]>,
+    seasons: Vec<&'a mut [f64]>,
 }
 
 type ChunkOutcome = Result<(Vec<ChunkPolicy>, Vec<PairedChanges>), ReplicationFailed>;
@@ -554,7 +560,6 @@ fn run_with_budget<M: PathModel>(
         pairs,
         weights: &weights,
         series_reps,
-        season_reps,
         scenario,
         models,
         watches: &watches,
@@ -562,13 +567,44 @@ fn run_with_budget<M: PathModel>(
         first_failure: &first_failure,
         progress,
     };
-    let outcomes: Vec<Option<ChunkOutcome>> = (0..chunks)
+    // the final lists, written in place by the chunks (each chunk its own slices), so that no
+    // replication summary or season outlay is copied or held twice
+    let kept_seasons = season_reps.min(reps);
+    let mut lists: Vec<Vec<ReplicationSummary>> = models
+        .iter()
+        .map(|_| vec![ReplicationSummary::default(); reps])
+        .collect();
+    let mut season_lists: Vec<Vec<f64>> = models
+        .iter()
+        .map(|_| vec![0.0; kept_seasons * periods])
+        .collect();
+    let mut slots: Vec<Slots> = (0..chunks)
+        .map(|_| Slots {
+            reps: Vec::with_capacity(models.len()),
+            seasons: Vec::new(),
+        })
+        .collect();
+    for list in lists.iter_mut() {
+        for (slot, part) in slots.iter_mut().zip(list.chunks_mut(CHUNK)) {
+            slot.reps.push(part);
+        }
+    }
+    for list in season_lists.iter_mut() {
+        for (slot, part) in slots
+            .iter_mut()
+            .zip(list.chunks_mut((CHUNK * periods).max(1)))
+        {
+            slot.seasons.push(part);
+        }
+    }
+    let outcomes: Vec<Option<ChunkOutcome>> = slots
         .into_par_iter()
-        .map(|c| {
+        .enumerate()
+        .map(|(c, slots)| {
             if first_failure.load(Ordering::Relaxed) < c {
                 return None; // an earlier chunk failed: this one cannot be the first failure
             }
-            let out = ctx.chunk(c * CHUNK, ((c + 1) * CHUNK).min(reps));
+            let out = ctx.chunk(c * CHUNK, ((c + 1) * CHUNK).min(reps), slots);
             if out.is_err() {
                 first_failure.fetch_min(c, Ordering::Relaxed);
             }
@@ -595,7 +631,7 @@ fn run_with_budget<M: PathModel>(
                     a.merge(b);
                 }
                 for (acc, c) in season_prices.iter_mut().zip(&v) {
-                    acc.n += c.reps.len();
+                    acc.n += c.n;
                     for (a, b) in acc.sums.iter_mut().zip(&c.season) {
                         for i in 0..5 {
                             a[i] += b[i];
@@ -609,11 +645,13 @@ fn run_with_budget<M: PathModel>(
         }
     }
     let policies = (0..models.len())
-        .map(|k| {
+        .zip(lists.into_iter().zip(season_lists))
+        .map(|(k, (replications, season_fiscal))| {
             assemble(
                 models[k].name(),
                 k,
-                &mut chunk_results,
+                (replications, season_fiscal),
+                &chunk_results,
                 series,
                 periods,
                 reps,
@@ -640,13 +678,12 @@ struct Context<'a, M> {
     watches: &'a [Watch],
     series: &'a [PathVariable],
     series_reps: usize,
-    season_reps: usize,
     first_failure: &'a AtomicUsize,
     progress: &'a dyn Progress,
 }
 
 impl<M: PathModel> Context<'_, M> {
-    fn chunk(&self, from: usize, to: usize) -> ChunkOutcome {
+    fn chunk(&self, from: usize, to: usize, mut slots: Slots) -> ChunkOutcome {
         let s = self.scenario;
         let periods = s.run.periods;
         let n = to - from;
@@ -654,7 +691,7 @@ impl<M: PathModel> Context<'_, M> {
             .models
             .iter()
             .map(|_| ChunkPolicy {
-                reps: Vec::with_capacity(n),
+                n,
                 pooled: Pooled::new(s.steady.price, s.steady.quantity),
                 fiscal: vec![0.0; periods],
                 income: vec![0.0; periods],
@@ -668,11 +705,6 @@ impl<M: PathModel> Context<'_, M> {
                     Vec::new()
                 } else {
                     vec![[0.0; 5]; periods]
-                },
-                seasons: if from < self.season_reps {
-                    Vec::with_capacity(n * periods)
-                } else {
-                    Vec::new()
                 },
                 series: self
                     .series
@@ -690,7 +722,6 @@ impl<M: PathModel> Context<'_, M> {
             .collect();
         let mut paired = vec![PairedChanges::default(); self.pairs.len()];
         let mut shocks = vec![PeriodShock::NONE; periods];
-        let keep_seasons = from < self.season_reps;
         // one path and one replication fold per model, reused from replication to replication
         let mut paths: Vec<M::Stepper<'_>> = Vec::with_capacity(self.models.len());
         let mut folds: Vec<RepFold> = Vec::with_capacity(self.models.len());
@@ -701,18 +732,29 @@ impl<M: PathModel> Context<'_, M> {
             paths.extend(self.models.iter().map(|m| m.start()));
             folds.clear();
             folds.extend(self.watches.iter().map(|w| RepFold::new(w, &s.steady)));
-            let at = (rep - from, n, keep_seasons);
+            let at = (rep - from, n);
             // lockstep: period by period, every model of the replication steps on the same shock
             for (t, shock) in shocks.iter().enumerate() {
-                for (((path, fold), acc), watch) in paths
+                for (k, (((path, fold), acc), watch)) in paths
                     .iter_mut()
                     .zip(folds.iter_mut())
                     .zip(out.iter_mut())
                     .zip(self.watches)
+                    .enumerate()
                 {
                     if fold.failed.is_none() {
                         match path.step(shock) {
-                            Ok(r) => fold.add(t, &r, watch, self.series, at, acc),
+                            Ok(r) => {
+                                // the season outlays of the leading replications (within budget)
+                                if let Some(cell) = slots
+                                    .seasons
+                                    .get_mut(k)
+                                    .and_then(|row| row.get_mut((rep - from) * periods + t))
+                                {
+                                    *cell = r.fiscal_cost;
+                                }
+                                fold.add(t, &r, watch, self.series, at, acc)
+                            }
                             Err(e) => fold.failed = Some(e),
                         }
                     }
@@ -734,7 +776,7 @@ impl<M: PathModel> Context<'_, M> {
                         seed: s.run.seed,
                         source,
                     })?;
-                acc.reps.push(summary);
+                slots.reps[k][rep - from] = summary;
             }
             if !self.pairs.is_empty() {
                 self.pair_up(&mut out, &mut paired);
@@ -811,7 +853,7 @@ impl RepFold {
     }
 
     /// Folds period `t` (0-based) of the replication into this fold and into the chunk's sums `acc`;
-    /// `at` = (slot in the chunk, chunk size, keep the season outlays).
+    /// `at` = (slot in the chunk, chunk size).
     #[inline(always)]
     fn add(
         &mut self,
@@ -819,7 +861,7 @@ impl RepFold {
         r: &PeriodRecord,
         watch: &Watch,
         series: &[PathVariable],
-        (slot, n, keep_seasons): (usize, usize, bool),
+        (slot, n): (usize, usize),
         acc: &mut ChunkPolicy,
     ) {
         const CUT: u16 = flags::CAPACITY_FULL | flags::BUDGET_BOUND;
@@ -834,9 +876,6 @@ impl RepFold {
         acc.fiscal[t] += r.fiscal_cost;
         acc.income[t] += y;
         acc.transform[t] += transform;
-        if keep_seasons {
-            acc.seasons.push(r.fiscal_cost);
-        }
         if let Some(trade) = &r.trade {
             out.mean_imports += trade.imports;
             out.mean_exports += trade.exports;
@@ -919,23 +958,19 @@ impl RepFold {
 fn assemble(
     name: &str,
     k: usize,
-    chunks: &mut [Vec<ChunkPolicy>],
+    (replications, season_fiscal): (Vec<ReplicationSummary>, Vec<f64>),
+    chunks: &[Vec<ChunkPolicy>],
     series: &[PathVariable],
     periods: usize,
     reps: usize,
     watch: Watch,
 ) -> PolicyRuns {
-    let mut replications = Vec::with_capacity(reps);
     let mut pooled: Option<Pooled> = None;
     let mut fiscal = vec![0.0; periods];
     let mut income = vec![0.0; periods];
     let mut transform = vec![0.0; periods];
-    let mut season_fiscal = Vec::new();
-    for c in chunks.iter_mut() {
-        let p = &mut c[k];
-        // moved, not copied: each chunk's part is freed as it is taken, so the summaries are held
-        // about once at the peak (not twice)
-        replications.extend(std::mem::take(&mut p.reps));
+    for c in chunks {
+        let p = &c[k];
         match &mut pooled {
             None => pooled = Some(p.pooled),
             Some(acc) => acc.merge(&p.pooled),
@@ -949,9 +984,7 @@ fn assemble(
         for (a, b) in transform.iter_mut().zip(&p.transform) {
             *a += b;
         }
-        season_fiscal.extend(std::mem::take(&mut p.seasons));
     }
-    let chunks: &[Vec<ChunkPolicy>] = chunks;
     for f in fiscal
         .iter_mut()
         .chain(income.iter_mut())
