@@ -654,7 +654,6 @@ fn run_with_budget<M: PathModel>(
                 &chunk_results,
                 series,
                 periods,
-                reps,
                 watches[k].clone(),
             )
         })
@@ -962,9 +961,10 @@ fn assemble(
     chunks: &[Vec<ChunkPolicy>],
     series: &[PathVariable],
     periods: usize,
-    reps: usize,
     watch: Watch,
 ) -> PolicyRuns {
+    // the final list holds every replication
+    let reps = replications.len();
     let mut pooled: Option<Pooled> = None;
     let mut fiscal = vec![0.0; periods];
     let mut income = vec![0.0; periods];
