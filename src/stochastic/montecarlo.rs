@@ -1,13 +1,16 @@
 //! Monte Carlo over replications, several policies under the same shocks (common random numbers).
 //!
 //! Replication i draws its shocks from its own stream ([`ShockStream`] with stream i), once, and every
-//! policy is simulated on that same draw. Replications are split into chunks of a fixed size
+//! policy is simulated on that same draw, all policies of the replication stepped in lockstep (period by
+//! period, each record folded at once and not kept). Replications are split into chunks of a fixed size
 //! ([`CHUNK`]) that run in parallel (rayon); each chunk folds its periods in order into
 //! per-replication summaries and sums, the chunks are collected in order and reduced sequentially, so
-//! every figure is bit-identical whatever the number of threads. Nothing per period is kept except the
-//! series asked for (period values across replications, needed for fan-chart quantiles), and those only
-//! for the first replications that fit in [`SERIES_BUDGET_BYTES`]: per-period quantiles of very large runs
-//! come from that leading subset, per-period means and every other figure from all replications.
+//! every figure is bit-identical whatever the number of threads. Each chunk writes its replications'
+//! summaries and season outlays into its own slices of the final lists, so nothing is copied or held
+//! twice. Nothing per period is kept except the series asked for (period values across replications,
+//! needed for fan-chart quantiles), and those only for the first replications that fit in
+//! [`SERIES_BUDGET_BYTES`]: per-period quantiles of very large runs come from that leading subset,
+//! per-period means and every other figure from all replications.
 
 use std::sync::atomic::{AtomicUsize, Ordering};
 
