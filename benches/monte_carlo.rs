@@ -2,7 +2,11 @@
 //! whole `compare` of 10 000 replications × 100 periods × 5 policies.
 //!
 //! Targets (issue 5): ≥ 40 million period-steps per second per core with a band policy; the compare
-//! in under 0.5 s on 2 cores.
+//! in under 0.5 s on 2 cores. Issue 22: five policies stepped in lockstep on each replication's draw
+//! (`monte_carlo_lockstep`, on 1 and on 2 threads, for the 2-core/1-core ratio) and one policy
+//! (`monte_carlo_1_thread`); the figures, the machine and the side-by-side vectorised script
+//! (`/work/shared/bench/peer_numpy.py` in the team's tree, the same job in numpy) are in
+//! docs/montecarlo.md. Throughput is in policy-period-steps.
 
 use criterion::{criterion_group, criterion_main, BatchSize, Criterion, Throughput};
 use furrow::compare::compare;
@@ -113,6 +117,31 @@ fn steps(c: &mut Criterion) {
             })
         })
     });
+    g.finish();
+
+    let all = policies();
+    let mut g = c.benchmark_group("monte_carlo_lockstep");
+    g.sample_size(10);
+    g.throughput(Throughput::Elements(1000 * 100 * all.len() as u64));
+    for threads in [1, 2] {
+        let pool = rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .build()
+            .unwrap();
+        g.bench_function(format!("5_policies_1000x100_{threads}_threads"), |b| {
+            b.iter(|| {
+                pool.install(|| {
+                    run_monte_carlo(
+                        &one,
+                        &all,
+                        &[PathVariable::Price, PathVariable::Stock],
+                        &NoProgress,
+                    )
+                    .unwrap()
+                })
+            })
+        });
+    }
     g.finish();
 }
 

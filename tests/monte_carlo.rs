@@ -304,3 +304,113 @@ fn the_storage_model_steps_on_the_shocks_it_is_handed() {
         assert!((q.mean - mean).abs() < 1e-12 * mean, "period {}", t + 1);
     }
 }
+
+/// Five policies of different kinds (a band with losses and storage cost, a purchase floor with
+/// capacity, a deficiency payment, a target release, one with its own expectation rule).
+fn five_policies() -> Vec<PolicySpec> {
+    vec![
+        PolicySpec::none(),
+        band_policy(),
+        policy(
+            "[policy]\nname = \"Floor\"\n[floor]\nprice = 79.0\ninstrument = \"purchase\"\n\
+             [stock]\ncapacity = 15.0\nstorage_cost = 0.4\nloss_rate = 0.03\n",
+        ),
+        policy("[policy]\nname = \"DP\"\n[floor]\nprice = 78.0\ninstrument = \"deficiency-payment\"\n"),
+        policy(
+            "[policy]\nname = \"Target\"\n[expectations]\nrule = \"naive\"\n[stock]\nbuy_below = 77.0\n\
+             sell_above = 83.0\ncapacity = 25.0\ninitial = 10.0\nrelease = \"target\"\ntarget = 10.0\n\
+             speed = 0.3\n",
+        ),
+    ]
+}
+
+#[test]
+fn policies_stepped_in_lockstep_get_what_each_gets_alone() {
+    // the Monte Carlo steps all policies of a replication period by period on the one draw; each
+    // policy's figures must be those of a run of that policy alone, bit for bit, on several markets
+    // (an identity of the engine with itself, no outside source)
+    let series = [PathVariable::Price, PathVariable::Stock];
+    for (i, (rule, shocks)) in [
+        (
+            "rule = \"adaptive\"\nweight = 0.5",
+            "yield_cv = 0.1\ndemand_sd = 1.0\ndemand_persistence = 0.4",
+        ),
+        ("rule = \"naive\"", "supply_sd = 1.5"),
+        (
+            "rule = \"adaptive\"\nweight = 0.3",
+            "yield_cv = 0.05\nsupply_sd = 0.5\ndemand_sd = 2.0",
+        ),
+    ]
+    .iter()
+    .enumerate()
+    {
+        let s = market(
+            rule,
+            &format!(
+                "periods = 30\ninitial_price = 84.0\nseed = {}\nreplications = 150",
+                40 + i
+            ),
+            shocks,
+        );
+        let all = five_policies();
+        let together = run_monte_carlo(&s, &all, &series, &NoProgress).unwrap();
+        for (k, p) in all.iter().enumerate() {
+            let alone = run_monte_carlo(&s, std::slice::from_ref(p), &series, &NoProgress).unwrap();
+            assert_eq!(
+                together.policies[k], alone.policies[0],
+                "market {i}, policy {k}"
+            );
+        }
+    }
+}
+
+#[test]
+fn a_replication_summary_is_the_fold_of_its_own_one_path_run() {
+    // each replication of the Monte Carlo must be the one-path engine run on that replication's
+    // draw, its present values the same fold (`welfare::path_pv`) over the same records: bit for bit
+    // (an identity, no outside source)
+    let s = band_market(90);
+    let all = five_policies();
+    let mc = run_monte_carlo(&s, &all, &[], &NoProgress).unwrap();
+    let mut shocks = vec![furrow::engine::PeriodShock::NONE; s.run.periods];
+    for rep in [0usize, 1, 63, 64, 89] {
+        furrow::stochastic::draw_shocks(&s, rep as u64, &mut shocks);
+        for (k, p) in all.iter().enumerate() {
+            let records = Model::new(&s, p)
+                .run(s.run.periods, |t| shocks[t - 1])
+                .unwrap();
+            let runs = &mc.policies[k];
+            let got = &runs.replications[rep];
+            let pv = furrow::welfare::path_pv(&records, &runs.watch.books);
+            assert_eq!(got.welfare, pv, "replication {rep}, policy {k}");
+            let last = records.last().unwrap();
+            assert_eq!(got.final_stock, last.stock);
+            let worst = records
+                .iter()
+                .map(|r| r.fiscal_cost)
+                .fold(f64::NEG_INFINITY, f64::max);
+            assert_eq!(got.worst_season_fiscal, worst);
+            let binding = records.iter().filter(|r| r.floor_binding()).count() as u32;
+            assert_eq!(got.floor_binding_periods, binding);
+        }
+    }
+}
+
+#[test]
+fn compare_is_byte_identical_on_one_and_two_threads() {
+    // common practice, no source: fixed chunks and a sequential reduction make the thread count
+    // invisible; the whole comparison (five policies in lockstep) is compared, JSON byte for byte
+    let s = band_market(300);
+    let all: Vec<PolicySpec> = five_policies().into_iter().skip(1).collect();
+    let run = |threads: usize| {
+        let r = rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .build()
+            .unwrap()
+            .install(|| compare(&s, &all, &NoProgress).unwrap());
+        serde_json::to_string(&r).unwrap()
+    };
+    let one = run(1);
+    assert_eq!(one, run(2));
+    assert_eq!(one, run(1));
+}

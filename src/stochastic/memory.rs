@@ -1,18 +1,19 @@
 //! How much memory a Monte Carlo run needs, estimated before it starts, and how much the machine has.
 //!
 //! What a run keeps (see `montecarlo.rs`): for every replication and every column (the baseline and
-//! each policy) one [`ReplicationSummary`], held twice at the peak (the chunks' results and the
-//! assembled list side by side), and one `f64` of scratch while the 5/50/95 % quantiles of a present
-//! value are selected; per chunk of [`CHUNK`] replications, per-period sums of the fiscal cost and of
-//! each kept series (amortised: `8 · periods · (1 + series) / CHUNK` bytes a replication); the
-//! per-period values kept for fan-chart quantiles, capped at [`SERIES_BUDGET_BYTES`] in all; and the
-//! program itself ([`BASE_BYTES`]). With 40 periods and two kept series that is 215 bytes per
-//! replication per column (measured: 214, from the peak resident size of `compare` at 2·10⁵ and
-//! 10⁶ replications with 2 and 4 columns).
+//! each policy) one [`ReplicationSummary`], held once (the chunks write their replications into the
+//! final lists in place; issue 22 — before, the chunks' results and the assembled list stood side by
+//! side), and one `f64` of scratch while the 5/50/95 % quantiles of a present value are selected;
+//! per chunk of [`CHUNK`] replications, per-period sums of the fiscal cost, income, its CRRA
+//! transform and each kept series (amortised: `8 · periods · (3 + series) / CHUNK` bytes a
+//! replication); the per-period values kept for fan-chart quantiles, capped at
+//! [`SERIES_BUDGET_BYTES`] in all; the season outlays kept for pooled quantiles, capped at
+//! [`SEASON_BUDGET_BYTES`] in all; and the program itself ([`BASE_BYTES`]). The measured peaks are
+//! in docs/montecarlo.md.
 
 use std::mem::size_of;
 
-use super::montecarlo::{ReplicationSummary, CHUNK, SERIES_BUDGET_BYTES};
+use super::montecarlo::{ReplicationSummary, CHUNK, SEASON_BUDGET_BYTES, SERIES_BUDGET_BYTES};
 
 /// The program, its tables and thread stacks, before any replication (measured about 10 MB; rounded
 /// up).
@@ -35,7 +36,8 @@ pub struct MemoryEstimate {
     pub columns: usize,
     /// Bytes per replication per column.
     pub per_replication_per_column: u64,
-    /// Bytes of per-period values kept for fan-chart quantiles (capped).
+    /// Bytes of per-period values kept for fan-chart quantiles and of season outlays kept for pooled
+    /// quantiles (both capped).
     pub series_bytes: u64,
     /// Total bytes at the peak.
     pub total: u64,
@@ -43,9 +45,9 @@ pub struct MemoryEstimate {
 
 /// Bytes per replication per column for `periods` periods and `series` kept series.
 pub fn bytes_per_replication_per_column(periods: usize, series: usize) -> u64 {
-    let summaries = 2 * size_of::<ReplicationSummary>() as u64;
+    let summaries = size_of::<ReplicationSummary>() as u64;
     let quantile_scratch = size_of::<f64>() as u64;
-    let per_chunk = 8 * periods as u64 * (1 + series as u64);
+    let per_chunk = 8 * periods as u64 * (3 + series as u64);
     summaries + quantile_scratch + per_chunk.div_ceil(CHUNK as u64)
 }
 
@@ -65,7 +67,15 @@ pub fn estimate(
         .div_ceil(CHUNK as u64)
         .saturating_mul(CHUNK as u64)
         .min(reps.div_ceil(CHUNK as u64) * CHUNK as u64);
-    let series_bytes = kept_reps.saturating_mul(per_rep_series);
+    // the season outlays likewise, within their own budget
+    let per_rep_season = (periods as u64 * cols * 8).max(1);
+    let season_reps = ((SEASON_BUDGET_BYTES as u64 / per_rep_season).max(1))
+        .div_ceil(CHUNK as u64)
+        .saturating_mul(CHUNK as u64)
+        .min(reps);
+    let series_bytes = kept_reps
+        .saturating_mul(per_rep_series)
+        .saturating_add(season_reps.saturating_mul(per_rep_season));
     let total = per
         .saturating_mul(reps)
         .saturating_mul(cols)
@@ -217,7 +227,11 @@ mod tests {
         let var = |e: &MemoryEstimate| e.total - e.series_bytes - BASE_BYTES;
         assert_eq!(var(&b), 2 * var(&a));
         assert_eq!(var(&c), 2 * var(&a));
-        assert!(a.series_bytes <= SERIES_BUDGET_BYTES as u64 + 40 * 2 * 2 * 8 * CHUNK as u64);
+        assert!(
+            a.series_bytes
+                <= (SERIES_BUDGET_BYTES + SEASON_BUDGET_BYTES) as u64
+                    + 40 * 3 * 2 * 8 * CHUNK as u64
+        );
     }
 
     #[test]

@@ -1,13 +1,16 @@
 //! Monte Carlo over replications, several policies under the same shocks (common random numbers).
 //!
 //! Replication i draws its shocks from its own stream ([`ShockStream`] with stream i), once, and every
-//! policy is simulated on that same draw. Replications are split into chunks of a fixed size
+//! policy is simulated on that same draw, all policies of the replication stepped in lockstep (period by
+//! period, each record folded at once and not kept). Replications are split into chunks of a fixed size
 //! ([`CHUNK`]) that run in parallel (rayon); each chunk folds its periods in order into
 //! per-replication summaries and sums, the chunks are collected in order and reduced sequentially, so
-//! every figure is bit-identical whatever the number of threads. Nothing per period is kept except the
-//! series asked for (period values across replications, needed for fan-chart quantiles), and those only
-//! for the first replications that fit in [`SERIES_BUDGET_BYTES`]: per-period quantiles of very large runs
-//! come from that leading subset, per-period means and every other figure from all replications.
+//! every figure is bit-identical whatever the number of threads. Each chunk writes its replications'
+//! summaries and season outlays into its own slices of the final lists, so nothing is copied or held
+//! twice. Nothing per period is kept except the series asked for (period values across replications,
+//! needed for fan-chart quantiles), and those only for the first replications that fit in
+//! [`SERIES_BUDGET_BYTES`]: per-period quantiles of very large runs come from that leading subset,
+//! per-period means and every other figure from all replications.
 
 use std::sync::atomic::{AtomicUsize, Ordering};
 
@@ -16,6 +19,7 @@ use serde::Serialize;
 
 use super::draw_shocks;
 use super::stats::{ShiftedSums, Summary};
+use crate::curves::SteadyState;
 use crate::engine::{Diverged, Model, PathModel, PeriodRecord, PeriodShock, Stepper};
 use crate::policies::flags;
 use crate::policies::PolicySpec;
@@ -445,14 +449,13 @@ pub struct ReplicationFailed {
 
 /// What a chunk of replications hands back, per policy.
 struct ChunkPolicy {
-    reps: Vec<ReplicationSummary>,
+    /// replications folded
+    n: usize,
     pooled: Pooled,
     fiscal: Vec<f64>,
     /// per-period sums over the chunk's replications of income and of its CRRA transform
     income: Vec<f64>,
     transform: Vec<f64>,
-    /// season outlays, replication-major (empty beyond the season budget)
-    seasons: Vec<f64>,
     /// this replication's (producer price, consumer price) per period (empty without pairs)
     path: Vec<[f64; 2]>,
     /// per-period sums of the shifted prices (see [`SeasonPrices`]; empty without pairs)
@@ -462,6 +465,13 @@ struct ChunkPolicy {
     series: Vec<Vec<f64>>,
     /// per-period sums of each kept series over the chunk's replications: [series][t]
     series_sums: Vec<Vec<f64>>,
+}
+
+/// Where one chunk writes its replications' summaries and season outlays: per model, the chunk's
+/// slice of the final lists (no season slices beyond the season budget).
+struct Slots<'a> {
+    reps: Vec<&'a mut [ReplicationSummary]>,
+    seasons: Vec<&'a mut [f64]>,
 }
 
 type ChunkOutcome = Result<(Vec<ChunkPolicy>, Vec<PairedChanges>), ReplicationFailed>;
@@ -566,7 +576,6 @@ fn run_with_budget<M: PathModel>(
         pairs,
         weights: &weights,
         series_reps,
-        season_reps,
         scenario,
         models,
         watches: &watches,
@@ -574,13 +583,44 @@ fn run_with_budget<M: PathModel>(
         first_failure: &first_failure,
         progress,
     };
-    let outcomes: Vec<Option<ChunkOutcome>> = (0..chunks)
+    // the final lists, written in place by the chunks (each chunk its own slices), so that no
+    // replication summary or season outlay is copied or held twice
+    let kept_seasons = season_reps.min(reps);
+    let mut lists: Vec<Vec<ReplicationSummary>> = models
+        .iter()
+        .map(|_| vec![ReplicationSummary::default(); reps])
+        .collect();
+    let mut season_lists: Vec<Vec<f64>> = models
+        .iter()
+        .map(|_| vec![0.0; kept_seasons * periods])
+        .collect();
+    let mut slots: Vec<Slots> = (0..chunks)
+        .map(|_| Slots {
+            reps: Vec::with_capacity(models.len()),
+            seasons: Vec::new(),
+        })
+        .collect();
+    for list in lists.iter_mut() {
+        for (slot, part) in slots.iter_mut().zip(list.chunks_mut(CHUNK)) {
+            slot.reps.push(part);
+        }
+    }
+    for list in season_lists.iter_mut() {
+        for (slot, part) in slots
+            .iter_mut()
+            .zip(list.chunks_mut((CHUNK * periods).max(1)))
+        {
+            slot.seasons.push(part);
+        }
+    }
+    let outcomes: Vec<Option<ChunkOutcome>> = slots
         .into_par_iter()
-        .map(|c| {
+        .enumerate()
+        .map(|(c, slots)| {
             if first_failure.load(Ordering::Relaxed) < c {
                 return None; // an earlier chunk failed: this one cannot be the first failure
             }
-            let out = ctx.chunk(c * CHUNK, ((c + 1) * CHUNK).min(reps));
+            let out = ctx.chunk(c * CHUNK, ((c + 1) * CHUNK).min(reps), slots);
             if out.is_err() {
                 first_failure.fetch_min(c, Ordering::Relaxed);
             }
@@ -607,7 +647,7 @@ fn run_with_budget<M: PathModel>(
                     a.merge(b);
                 }
                 for (acc, c) in season_prices.iter_mut().zip(&v) {
-                    acc.n += c.reps.len();
+                    acc.n += c.n;
                     for (a, b) in acc.sums.iter_mut().zip(&c.season) {
                         for i in 0..5 {
                             a[i] += b[i];
@@ -621,14 +661,15 @@ fn run_with_budget<M: PathModel>(
         }
     }
     let policies = (0..models.len())
-        .map(|k| {
+        .zip(lists.into_iter().zip(season_lists))
+        .map(|(k, (replications, season_fiscal))| {
             assemble(
                 models[k].name(),
                 k,
+                (replications, season_fiscal),
                 &chunk_results,
                 series,
                 periods,
-                reps,
                 watches[k].clone(),
             )
         })
@@ -652,13 +693,12 @@ struct Context<'a, M> {
     watches: &'a [Watch],
     series: &'a [PathVariable],
     series_reps: usize,
-    season_reps: usize,
     first_failure: &'a AtomicUsize,
     progress: &'a dyn Progress,
 }
 
 impl<M: PathModel> Context<'_, M> {
-    fn chunk(&self, from: usize, to: usize) -> ChunkOutcome {
+    fn chunk(&self, from: usize, to: usize, mut slots: Slots) -> ChunkOutcome {
         let s = self.scenario;
         let periods = s.run.periods;
         let n = to - from;
@@ -666,7 +706,7 @@ impl<M: PathModel> Context<'_, M> {
             .models
             .iter()
             .map(|_| ChunkPolicy {
-                reps: Vec::with_capacity(n),
+                n,
                 pooled: Pooled::new(s.steady.price, s.steady.quantity),
                 fiscal: vec![0.0; periods],
                 income: vec![0.0; periods],
@@ -680,11 +720,6 @@ impl<M: PathModel> Context<'_, M> {
                     Vec::new()
                 } else {
                     vec![[0.0; 5]; periods]
-                },
-                seasons: if from < self.season_reps {
-                    Vec::with_capacity(n * periods)
-                } else {
-                    Vec::new()
                 },
                 series: self
                     .series
@@ -702,27 +737,61 @@ impl<M: PathModel> Context<'_, M> {
             .collect();
         let mut paired = vec![PairedChanges::default(); self.pairs.len()];
         let mut shocks = vec![PeriodShock::NONE; periods];
+        // one path and one replication fold per model, reused from replication to replication
+        let mut paths: Vec<M::Stepper<'_>> = Vec::with_capacity(self.models.len());
+        let mut folds: Vec<RepFold> = Vec::with_capacity(self.models.len());
         for rep in from..to {
             // the replication's shocks, drawn once and handed to every model
             draw_shocks(s, rep as u64, &mut shocks);
-            for (k, model) in self.models.iter().enumerate() {
-                let keep_seasons = from < self.season_reps;
-                let summary = self
-                    .replicate(
-                        model,
-                        &self.watches[k],
-                        &shocks,
-                        (rep - from, n, keep_seasons),
-                        &mut out[k],
-                    )
+            paths.clear();
+            paths.extend(self.models.iter().map(|m| m.start()));
+            folds.clear();
+            folds.extend(self.watches.iter().map(|w| RepFold::new(w, &s.steady)));
+            let at = (rep - from, n);
+            // lockstep: period by period, every model of the replication steps on the same shock
+            for (t, shock) in shocks.iter().enumerate() {
+                for (k, (((path, fold), acc), watch)) in paths
+                    .iter_mut()
+                    .zip(folds.iter_mut())
+                    .zip(out.iter_mut())
+                    .zip(self.watches)
+                    .enumerate()
+                {
+                    if fold.failed.is_none() {
+                        match path.step(shock) {
+                            Ok(r) => {
+                                // the season outlays of the leading replications (within budget)
+                                if let Some(cell) = slots
+                                    .seasons
+                                    .get_mut(k)
+                                    .and_then(|row| row.get_mut((rep - from) * periods + t))
+                                {
+                                    *cell = r.fiscal_cost;
+                                }
+                                fold.add(t, &r, watch, self.series, at, acc)
+                            }
+                            Err(e) => fold.failed = Some(e),
+                        }
+                    }
+                }
+            }
+            // the first failing model (lowest index) fails the replication
+            for (k, ((fold, acc), watch)) in folds
+                .drain(..)
+                .zip(out.iter_mut())
+                .zip(self.watches)
+                .enumerate()
+            {
+                let summary = fold
+                    .finish(watch, acc)
                     .map_err(|source| ReplicationFailed {
-                        policy: model.name().to_string(),
+                        policy: self.models[k].name().to_string(),
                         policy_index: k,
                         replication: rep,
                         seed: s.run.seed,
                         source,
                     })?;
-                out[k].reps.push(summary);
+                slots.reps[k][rep - from] = summary;
             }
             if !self.pairs.is_empty() {
                 self.pair_up(&mut out, &mut paired);
@@ -765,108 +834,126 @@ impl<M: PathModel> Context<'_, M> {
             }
         }
     }
+}
 
-    /// One replication (number `slot` of the chunk's `n`) of one model on `shocks`, folded into
-    /// `acc`; returns the replication's summary.
-    /// `at` = (slot in the chunk, chunk size, keep the season outlays).
-    #[inline]
-    fn replicate(
-        &self,
-        model: &M,
-        watch: &Watch,
-        shocks: &[PeriodShock],
-        at: (usize, usize, bool),
-        acc: &mut ChunkPolicy,
-    ) -> Result<ReplicationSummary, Diverged> {
-        let mut path = model.start();
-        self.fold(shocks.iter().map(|s| path.step(s)), watch, at, acc)
+/// One replication of one model in progress: its welfare fold, pooled moments and counts.
+struct RepFold {
+    fold: WelfareFold,
+    pooled: Pooled,
+    out: ReplicationSummary,
+    running: f64,
+    peak: f64,
+    fiscal_sum: f64,
+    count: usize,
+    /// Why this model's path ended early (the replication then fails).
+    failed: Option<Diverged>,
+}
+
+impl RepFold {
+    fn new(watch: &Watch, steady: &SteadyState) -> RepFold {
+        let running = watch.books.opening_stock_cost;
+        RepFold {
+            fold: WelfareFold::new(),
+            pooled: Pooled::new(steady.price, steady.quantity),
+            out: ReplicationSummary {
+                worst_season_fiscal: f64::NEG_INFINITY,
+                ..Default::default()
+            },
+            running,
+            peak: running.max(0.0),
+            fiscal_sum: 0.0,
+            count: 0,
+            failed: None,
+        }
     }
 
-    /// Folds one replication's periods into `acc`; `at` = (slot in the chunk, chunk size, keep the
-    /// season outlays).
-    fn fold(
-        &self,
-        periods: impl Iterator<Item = Result<PeriodRecord, Diverged>>,
+    /// Folds period `t` (0-based) of the replication into this fold and into the chunk's sums `acc`;
+    /// `at` = (slot in the chunk, chunk size).
+    #[inline(always)]
+    fn add(
+        &mut self,
+        t: usize,
+        r: &PeriodRecord,
         watch: &Watch,
-        at: (usize, usize, bool),
+        series: &[PathVariable],
+        (slot, n): (usize, usize),
         acc: &mut ChunkPolicy,
-    ) -> Result<ReplicationSummary, Diverged> {
-        let (slot, n, keep_seasons) = at;
-        let books = &watch.books;
-        let scale = watch.income_scale();
-        let mut fold = WelfareFold::new();
-        let mut pooled = Pooled::new(acc.pooled.price.reference, acc.pooled.harvest.reference);
-        let mut out = ReplicationSummary {
-            worst_season_fiscal: f64::NEG_INFINITY,
-            ..Default::default()
-        };
-        let mut running = books.opening_stock_cost;
-        let mut peak = running.max(0.0);
-        let (mut fiscal_sum, mut count) = (0.0, 0usize);
+    ) {
         const CUT: u16 = flags::CAPACITY_FULL | flags::BUDGET_BOUND;
-        for (t, r) in periods.enumerate() {
-            let r = r?;
-            fold.add(&r, books);
-            let y = watch.income(&r);
-            let transform = crra_transform(y, scale, watch.risk_aversion);
-            pooled.push(&r, transform);
-            if let Some(cell) = acc.path.get_mut(t) {
-                *cell = [r.producer_price, consumer_price(&r)];
-            }
-            acc.fiscal[t] += r.fiscal_cost;
-            acc.income[t] += y;
-            acc.transform[t] += transform;
-            if keep_seasons {
-                acc.seasons.push(r.fiscal_cost);
-            }
-            if let Some(trade) = &r.trade {
-                out.mean_imports += trade.imports;
-                out.mean_exports += trade.exports;
-                out.import_periods += u32::from(trade.imports > 0.0);
-                out.export_periods += u32::from(trade.exports > 0.0);
-            }
-            out.floor_binding_periods += u32::from(r.floor_binding());
-            out.stockout_periods += u32::from(r.stockout);
-            out.final_stock = r.stock;
-            fiscal_sum += r.fiscal_cost;
-            count += 1;
-            out.worst_season_fiscal = out.worst_season_fiscal.max(r.fiscal_cost);
-            running += r.fiscal_cost;
-            peak = peak.max(running);
-            out.budget_exceeded_periods +=
-                u32::from(r.fiscal_cost > watch.annual_budget * (1.0 + 1e-12));
-            for (c, a) in out
-                .alert_periods
-                .iter_mut()
-                .zip(&watch.alerts[..watch.alert_count])
-            {
-                *c += u32::from(r.price > *a);
-            }
-            let cut = r.flags & CUT != 0;
-            out.capacity_full_periods += u32::from(r.flags & flags::CAPACITY_FULL != 0);
-            out.budget_bound_periods += u32::from(r.flags & flags::BUDGET_BOUND != 0);
-            out.floor_failed_periods += u32::from(
-                cut && watch
-                    .purchase_floor
-                    .is_some_and(|f| r.producer_price < f * (1.0 - 1e-9)),
-            );
-            out.band_failed_periods += u32::from(watch.band.is_some_and(|(lo, hi)| {
-                let below = cut && r.price < lo * (1.0 - 1e-9);
-                let above =
-                    r.price > hi * (1.0 + 1e-9) && (r.stockout || r.flags & flags::STOCK_OUT != 0);
-                below || above
-            }));
-            for (j, which) in self.series.iter().enumerate() {
-                let x = which.of(&r);
-                acc.series_sums[j][t] += x;
-                if let Some(cell) = acc.series[j].get_mut(t * n + slot) {
-                    *cell = x;
-                }
+        let out = &mut self.out;
+        self.fold.add(r, &watch.books);
+        let y = watch.income(r);
+        let transform = crra_transform(y, watch.income_scale(), watch.risk_aversion);
+        self.pooled.push(r, transform);
+        if let Some(cell) = acc.path.get_mut(t) {
+            *cell = [r.producer_price, consumer_price(r)];
+        }
+        acc.fiscal[t] += r.fiscal_cost;
+        acc.income[t] += y;
+        acc.transform[t] += transform;
+        if let Some(trade) = &r.trade {
+            out.mean_imports += trade.imports;
+            out.mean_exports += trade.exports;
+            out.import_periods += u32::from(trade.imports > 0.0);
+            out.export_periods += u32::from(trade.exports > 0.0);
+        }
+        out.floor_binding_periods += u32::from(r.floor_binding());
+        out.stockout_periods += u32::from(r.stockout);
+        out.final_stock = r.stock;
+        self.fiscal_sum += r.fiscal_cost;
+        self.count += 1;
+        out.worst_season_fiscal = out.worst_season_fiscal.max(r.fiscal_cost);
+        self.running += r.fiscal_cost;
+        self.peak = self.peak.max(self.running);
+        out.budget_exceeded_periods +=
+            u32::from(r.fiscal_cost > watch.annual_budget * (1.0 + 1e-12));
+        for (c, a) in out
+            .alert_periods
+            .iter_mut()
+            .zip(&watch.alerts[..watch.alert_count])
+        {
+            *c += u32::from(r.price > *a);
+        }
+        let cut = r.flags & CUT != 0;
+        out.capacity_full_periods += u32::from(r.flags & flags::CAPACITY_FULL != 0);
+        out.budget_bound_periods += u32::from(r.flags & flags::BUDGET_BOUND != 0);
+        out.floor_failed_periods += u32::from(
+            cut && watch
+                .purchase_floor
+                .is_some_and(|f| r.producer_price < f * (1.0 - 1e-9)),
+        );
+        out.band_failed_periods += u32::from(watch.band.is_some_and(|(lo, hi)| {
+            let below = cut && r.price < lo * (1.0 - 1e-9);
+            let above =
+                r.price > hi * (1.0 + 1e-9) && (r.stockout || r.flags & flags::STOCK_OUT != 0);
+            below || above
+        }));
+        for (j, which) in series.iter().enumerate() {
+            let x = which.of(r);
+            acc.series_sums[j][t] += x;
+            if let Some(cell) = acc.series[j].get_mut(t * n + slot) {
+                *cell = x;
             }
         }
+    }
+
+    /// The replication's summary (or why its path ended early); merges its pooled moments into `acc`.
+    fn finish(self, watch: &Watch, acc: &mut ChunkPolicy) -> Result<ReplicationSummary, Diverged> {
+        if let Some(e) = self.failed {
+            return Err(e);
+        }
+        let RepFold {
+            fold,
+            pooled,
+            mut out,
+            peak,
+            fiscal_sum,
+            count,
+            ..
+        } = self;
         acc.pooled.merge(&pooled);
         let per = count.max(1) as f64;
-        out.welfare = fold.finish(books);
+        out.welfare = fold.finish(&watch.books);
         out.mean_price = pooled.price.mean();
         out.mean_producer_price = pooled.producer_price.mean();
         out.mean_harvest = pooled.harvest.mean();
@@ -886,21 +973,20 @@ impl<M: PathModel> Context<'_, M> {
 fn assemble(
     name: &str,
     k: usize,
+    (replications, season_fiscal): (Vec<ReplicationSummary>, Vec<f64>),
     chunks: &[Vec<ChunkPolicy>],
     series: &[PathVariable],
     periods: usize,
-    reps: usize,
     watch: Watch,
 ) -> PolicyRuns {
-    let mut replications = Vec::with_capacity(reps);
+    // the final list holds every replication
+    let reps = replications.len();
     let mut pooled: Option<Pooled> = None;
     let mut fiscal = vec![0.0; periods];
     let mut income = vec![0.0; periods];
     let mut transform = vec![0.0; periods];
-    let mut season_fiscal = Vec::new();
     for c in chunks {
         let p = &c[k];
-        replications.extend_from_slice(&p.reps);
         match &mut pooled {
             None => pooled = Some(p.pooled),
             Some(acc) => acc.merge(&p.pooled),
@@ -914,7 +1000,6 @@ fn assemble(
         for (a, b) in transform.iter_mut().zip(&p.transform) {
             *a += b;
         }
-        season_fiscal.extend_from_slice(&p.seasons);
     }
     for f in fiscal
         .iter_mut()
