@@ -39,8 +39,8 @@ pub(crate) fn weights(publics: &[f64], g: f64) -> (usize, [f64; 4], usize) {
     (start, w, cnt)
 }
 
-/// The first row and the number of rows of the stencil that interpolates on the interval
-/// [`publics[k]`, `publics[k + 1]`] (at most four, not across a doubled level).
+/// The first row and the number of rows of the stencil that interpolates between `publics[k]`
+/// and `publics[k + 1]` (at most four, not across a doubled level).
 #[inline]
 fn stencil(publics: &[f64], k: usize) -> (usize, usize) {
     let n = publics.len();
