@@ -299,12 +299,7 @@ fn iterate(
     let (mut prev_publics, mut rows) = start;
     // the end-of-period prices the current rules were built from, level by level (NaN: cut off)
     let mut current: Vec<f64> = Vec::new();
-    let mut mixer = super::fixed_point::Anderson::new(
-        std::env::var("STS_DEPTH")
-            .ok()
-            .and_then(|v| v.parse().ok())
-            .unwrap_or(MIXING_DEPTH),
-    ); // TEMP
+    let mut mixer = super::fixed_point::Anderson::new(MIXING_DEPTH);
     let hi = reach(&m, &stocks);
     // one Newton step of planting per point once it is short (see [`plant_accepting`])
     let accept = PLANT_ACCEPT;
