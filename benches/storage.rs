@@ -2,7 +2,9 @@
 //! the whole no-policy solve with grid coverage and the residual check (target < 50 ms), the
 //! two-state solve with a band reserve, alone and as `storage::solve` runs it for the demo's
 //! `policies/price_band.toml` with grid coverage and the residual check (target < 300 ms), and the
-//! whole solve of `policies/target_reserve.toml` with its refinement (target < 1 s).
+//! whole solve of `policies/target_reserve.toml` with its refinement (target < 1 s), and the whole
+//! solve of `policies/support_high_purchase.toml`, whose purchase budget binds (the costliest of the
+//! demo's `compare`; no target of its own).
 
 use criterion::{criterion_group, criterion_main, Criterion};
 use furrow::policies::file::{load_policy, policy_from_table};
@@ -47,6 +49,10 @@ fn bench(c: &mut Criterion) {
     let target_file = load_policy("policies/target_reserve.toml").expect("demo policy");
     g.bench_function("target_demo_full_solve_with_refinement", |b| {
         b.iter(|| storage::solve(&s, &target_file, &o).unwrap())
+    });
+    let budget_file = load_policy("policies/support_high_purchase.toml").expect("demo policy");
+    g.bench_function("budget_demo_full_solve_with_cover_and_residual", |b| {
+        b.iter(|| storage::solve(&s, &budget_file, &o).unwrap())
     });
     g.finish();
 }

@@ -25,6 +25,25 @@ pub(crate) fn weights(publics: &[f64], g: f64) -> (usize, [f64; 4], usize) {
     if g == publics[k] {
         return (k, [1.0, 0.0, 0.0, 0.0], 1);
     }
+    let (start, cnt) = stencil(publics, k);
+    let mut w = [0.0; 4];
+    for (i, wi) in w.iter_mut().enumerate().take(cnt) {
+        let mut l = 1.0;
+        for j in 0..cnt {
+            if j != i {
+                l *= (g - publics[start + j]) / (publics[start + i] - publics[start + j]);
+            }
+        }
+        *wi = l;
+    }
+    (start, w, cnt)
+}
+
+/// The first row and the number of rows of the stencil that interpolates between `publics[k]`
+/// and `publics[k + 1]` (at most four, not across a doubled level).
+#[inline]
+fn stencil(publics: &[f64], k: usize) -> (usize, usize) {
+    let n = publics.len();
     // the segment between barriers that holds the interval [k, k + 1]
     let mut lo = k;
     while lo > 0 && publics[lo - 1] < publics[lo] && lo + 2 > k {
@@ -40,17 +59,100 @@ pub(crate) fn weights(publics: &[f64], g: f64) -> (usize, [f64; 4], usize) {
     } else {
         lo
     };
-    let mut w = [0.0; 4];
-    for (i, wi) in w.iter_mut().enumerate().take(cnt) {
+    (start, cnt)
+}
+
+/// The Lagrange weights at `g` of the stencil (`start`, `cnt`) and their derivatives in g.
+fn weights_and_slopes(publics: &[f64], start: usize, cnt: usize, g: f64) -> ([f64; 4], [f64; 4]) {
+    let (mut w, mut dw) = ([0.0; 4], [0.0; 4]);
+    let at = |i: usize| publics[start + i];
+    for i in 0..cnt {
         let mut l = 1.0;
-        for j in 0..cnt {
-            if j != i {
-                l *= (g - publics[start + j]) / (publics[start + i] - publics[start + j]);
-            }
+        for j in (0..cnt).filter(|&j| j != i) {
+            l *= (g - at(j)) / (at(i) - at(j));
         }
-        *wi = l;
+        w[i] = l;
+        // d/dg of the product: one factor differentiated at a time
+        let mut dl = 0.0;
+        for k in (0..cnt).filter(|&k| k != i) {
+            let mut t = 1.0 / (at(i) - at(k));
+            for j in (0..cnt).filter(|&j| j != i && j != k) {
+                t *= (g - at(j)) / (at(i) - at(j));
+            }
+            dl += t;
+        }
+        dw[i] = dl;
     }
-    (start, w, cnt)
+    (w, dw)
+}
+
+/// The price, dP/dy and dP/dg (at fixed y) when `y` is left to consumers and private storers and
+/// `g` is the end-of-period public stock: [`row_price`] with its slope in g, from the derivatives
+/// of the Lagrange weights and of the blended kink, D'(p0)·p0'(g). At a level of the grid the
+/// slope is the one of the interval above it (the last interval's at the top); beyond the grid,
+/// where the rows are clamped, it is 0. The price agrees with [`row_price`] up to rounding.
+pub(crate) fn row_price_dg(
+    m: &StorageMarket,
+    publics: &[f64],
+    rows: &[PriceRule],
+    y: f64,
+    g: f64,
+) -> (f64, f64, f64) {
+    let n = publics.len();
+    if n < 2 {
+        let (p, d) = row_price(m, publics, rows, y, g);
+        return (p, d, 0.0);
+    }
+    let gc = g.clamp(publics[0], publics[n - 1]);
+    let k = publics.partition_point(|&v| v <= gc).clamp(1, n - 1) - 1;
+    let (start, cnt) = stencil(publics, k);
+    let (w, mut dw) = weights_and_slopes(publics, start, cnt, gc);
+    if gc != g {
+        dw = [0.0; 4];
+    }
+    let rows = &rows[start..start + cnt];
+    // the blended stockout price and its slope in g (NaN when a row never stores)
+    let (mut p0, mut dp0) = (0.0, 0.0);
+    for (i, r) in rows.iter().enumerate() {
+        match r.spline.as_ref() {
+            Some(s) => {
+                p0 += w[i] * s.values()[0];
+                dp0 += dw[i] * s.values()[0];
+            }
+            None => p0 = f64::NAN,
+        }
+    }
+    let (mut p, mut d, mut dg) = (0.0, 0.0, 0.0);
+    if p0.is_nan() {
+        for (i, r) in rows.iter().enumerate() {
+            let (pi, di) = r.eval(m, y);
+            p += w[i] * pi;
+            d += w[i] * di;
+            dg += dw[i] * pi;
+        }
+    } else {
+        let kink = m.demand.quantity(p0);
+        if y <= kink {
+            let (p, d) = m.inverse_demand(y);
+            return (p, d, 0.0);
+        }
+        let off = y - kink;
+        for (i, r) in rows.iter().enumerate() {
+            let (pi, di) = r.eval(m, r.kink + off);
+            p += w[i] * pi;
+            d += w[i] * di;
+            dg += dw[i] * pi;
+        }
+        // the kink moves by D'(p0)·p0'(g), and the rows are read that much further left
+        dg -= d * m.demand.slope_at_point(p0, kink) * dp0;
+    }
+    if m.floor > 0.0 && p <= m.floor * (1.0 + 1e-12) {
+        return (m.floor, 0.0, 0.0);
+    }
+    if p >= m.ceiling * (1.0 - 1e-12) {
+        return (m.ceiling, 0.0, 0.0);
+    }
+    (p.max(0.0), d, dg)
 }
 
 /// The stockout price of the rows interpolated at `g` (None when one of them never stores).
@@ -315,6 +417,47 @@ mod tests {
         let mut never = rows.clone();
         never[2] = PriceRule::no_storage();
         assert!(Merged::new(&never, Blend::at(&m, &publics, &never, 25.0), 0.0).is_none());
+    }
+
+    #[test]
+    fn slope_in_the_public_stock_matches_central_differences() {
+        // row_price_dg's dP/dg against central differences of row_price at fixed y (the
+        // definition of the derivative; step 1e-5, error O(h²)), away from the levels where the
+        // stencil switches; and the price itself as row_price gives it
+        let m = market();
+        let rows: Vec<PriceRule> = (0..5)
+            .map(|i| {
+                let kink = 440.0 + 6.0 * i as f64 + 0.5 * (i * i) as f64;
+                let xs: Vec<f64> = (0..12)
+                    .map(|j| kink + 300.0 * (j as f64 / 11.0).powf(1.5))
+                    .collect();
+                let ys: Vec<f64> = xs
+                    .iter()
+                    .map(|&x| 230.0 - 2.5 * i as f64 - 0.3 * (x - kink) + 2e-4 * (x - kink).powi(2))
+                    .collect();
+                PriceRule {
+                    kink,
+                    spline: Some(Monotone::new(xs, ys)),
+                }
+            })
+            .collect();
+        let publics = [0.0, 15.0, 30.0, 45.0, 60.0];
+        for g in [3.0, 21.7, 37.0, 52.5] {
+            for y in [300.0, 450.0, 470.0, 520.0, 700.0] {
+                let (p, d, dg) = row_price_dg(&m, &publics, &rows, y, g);
+                let (p0, d0) = row_price(&m, &publics, &rows, y, g);
+                assert!((p - p0).abs() <= 1e-11 * p0, "{g} {y}: {p} {p0}");
+                assert!((d - d0).abs() <= 1e-11, "{g} {y}: {d} {d0}");
+                let h = 1e-5;
+                let fd = (row_price(&m, &publics, &rows, y, g + h).0
+                    - row_price(&m, &publics, &rows, y, g - h).0)
+                    / (2.0 * h);
+                assert!(
+                    (dg - fd).abs() <= 1e-6 * fd.abs().max(1.0),
+                    "{g} {y}: {dg} {fd}"
+                );
+            }
+        }
     }
 
     #[test]

@@ -10,8 +10,8 @@
 //! points are found once per g': the kinks analytically, the others as roots of a decreasing
 //! function of z' (safeguarded Newton).
 
-use super::agency::{decide, Band, ReleaseInStorage};
-use super::blend::{row_kinks, Blend, Merged};
+use super::agency::{decide_knowing, Band, ReleaseInStorage};
+use super::blend::{row_kinks, row_price_dg, Blend, Merged};
 use super::market::StorageMarket;
 use super::solve::PriceRule;
 use super::split::{next_nodes, next_nodes_yield};
@@ -30,7 +30,7 @@ pub struct NextPrice<'a> {
 }
 
 /// The end-of-period public stocks the agency's rule can fix when it carries in `g` (computed as
-/// [`decide`] computes them).
+/// [`super::agency::decide`] computes them).
 fn stocks(band: &Band, g: f64) -> Vec<f64> {
     let cap = band.capacity;
     let mut v = vec![g, cap, 0.0];
@@ -154,7 +154,12 @@ impl<'a> NextPrice<'a> {
     pub fn price(&self, z: f64) -> (f64, f64) {
         let w = z + self.gn;
         let pg = |gg: f64| self.price_at(gg, w - gg);
-        let (p, d, _, _) = decide(self.band, self.gn, &pg);
+        // (only a purchase budget needs the slope in G, at stocks of its own)
+        let pgd = |gg: f64| {
+            let (p, p_y, p_g) = row_price_dg(self.m, self.publics, self.rows, w - gg, gg);
+            (p, p_y, p_g - p_y)
+        };
+        let (p, d, _, _) = decide_knowing(self.band, self.gn, &pg, &pgd);
         (p, d)
     }
 

@@ -19,7 +19,7 @@
 
 use rayon::prelude::*;
 
-use super::agency::decide;
+use super::agency::decide_knowing;
 pub use super::agency::{AgencyMode, Band, Decision};
 use super::market::StorageMarket;
 use super::next_price::NextPrice;
@@ -89,7 +89,16 @@ pub(crate) fn state_decision(
     g: f64,
 ) -> (f64, f64, AgencyMode, Decision) {
     let w = z + g;
-    decide(band, g, &|gg: f64| row_price(m, publics, rows, w - gg, gg))
+    let pgd = |gg: f64| {
+        let (p, p_y, p_g) = super::blend::row_price_dg(m, publics, rows, w - gg, gg);
+        (p, p_y, p_g - p_y)
+    };
+    decide_knowing(
+        band,
+        g,
+        &|gg: f64| row_price(m, publics, rows, w - gg, gg),
+        &pgd,
+    )
 }
 
 /// Private stock carried out when `y` is left to consumers, private storers and exports with the

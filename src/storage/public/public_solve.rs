@@ -248,9 +248,43 @@ fn halve(v: &[f64], split: &[bool]) -> Vec<f64> {
     out
 }
 
+/// Steps of history the two-state iteration mixes over ([`super::fixed_point::Anderson`]; 0: the
+/// plain iteration).
+pub const MIXING_DEPTH: usize = 4;
+
+/// The price rule of one public-stock level from its end-of-period prices `prices` at the private
+/// stocks `stocks`: the pairs (x_j + D(p_j), p_j) up to the first price at or below the floor (or
+/// NaN, a point cut off before), leaving out points where the price would rise with x (the rule is
+/// their decreasing envelope).
+fn level_rule(m: &StorageMarket, stocks: &[f64], prices: &[f64]) -> PriceRule {
+    let n = stocks.len();
+    let (mut ys, mut ps) = (Vec::with_capacity(n), Vec::with_capacity(n));
+    for (&x, &p) in stocks.iter().zip(prices) {
+        if p.is_nan() || p <= m.floor {
+            break;
+        }
+        if ps.last().is_some_and(|&last| p > last) {
+            continue;
+        }
+        ys.push(x + m.demand.quantity(p));
+        ps.push(p);
+    }
+    if ps.len() >= 2 {
+        PriceRule {
+            kink: ys[0],
+            spline: Some(Monotone::new(ys, ps)),
+        }
+    } else {
+        PriceRule::no_storage()
+    }
+}
+
 /// Endogenous-grid iteration to the tolerance; the first expectation uses the rules `start` (on their
 /// own public-stock grid). The stopping rule and the count are the shared driver's
-/// ([`super::fixed_point::iterate`]).
+/// ([`super::fixed_point::iterate`]): an iteration maps the end-of-period prices the rules were
+/// built from to new ones, and stops when no price moved by more than the tolerance; the next
+/// rules are built from Anderson's mix of the recent steps ([`MIXING_DEPTH`]), except after the
+/// last step, whose rules are the map's own image.
 fn iterate(
     m: StorageMarket,
     band: Band,
@@ -263,21 +297,21 @@ fn iterate(
     let n = stocks.len();
     let mm = publics.len();
     let (mut prev_publics, mut rows) = start;
-    let mut old: Vec<Vec<f64>> = vec![Vec::new(); mm];
+    // the end-of-period prices the current rules were built from, level by level (NaN: cut off)
+    let mut current: Vec<f64> = Vec::new();
+    let mut mixer = super::fixed_point::Anderson::new(MIXING_DEPTH);
     let hi = reach(&m, &stocks);
     // one Newton step of planting per point once it is short (see [`plant_accepting`])
     let accept = PLANT_ACCEPT;
     let done = super::fixed_point::iterate(o, n * mm, |it| {
         // rows are independent given last iteration's rules: solved in parallel, collected in order
         // (the result does not depend on the number of threads)
-        let results: Vec<(PriceRule, f64)> = publics
+        let image: Vec<f64> = publics
             .par_iter()
             .zip(planted.par_iter_mut())
-            .zip(old.par_iter_mut())
-            .map(|((&gm, planted_row), old_row)| {
+            .map(|(&gm, planted_row)| {
                 let np = NextPrice::prepared(&m, &band, &prev_publics, &rows, band.keep * gm);
                 let breaks = np.breaks(hi);
-                let (mut ys, mut ps) = (Vec::with_capacity(n), Vec::with_capacity(n));
                 let mut raw = vec![f64::NAN; n];
                 for (j, &x) in stocks.iter().enumerate() {
                     let (q, psi) = plant_accepting(
@@ -292,43 +326,38 @@ fn iterate(
                         break;
                     }
                     raw[j] = p;
-                    // should E[P'] rise locally with x, such points are left out of the rule (its
-                    // decreasing envelope) but still count for convergence
-                    if ps.last().is_some_and(|&last| p > last) {
-                        continue;
-                    }
-                    ys.push(x + m.demand.quantity(p));
-                    ps.push(p);
                 }
-                let row_change = if it == 1 {
-                    f64::INFINITY
-                } else {
-                    raw.iter()
-                        .zip(old_row.iter())
-                        .map(|(a, b)| match (a.is_nan(), b.is_nan()) {
-                            (true, true) => 0.0,
-                            (false, false) => (a - b).abs(),
-                            _ => f64::INFINITY,
-                        })
-                        .fold(0.0, f64::max)
-                        / m.p_star
-                };
-                *old_row = raw;
-                let rule = if ps.len() >= 2 {
-                    PriceRule {
-                        kink: ys[0],
-                        spline: Some(Monotone::new(ys, ps)),
-                    }
-                } else {
-                    PriceRule::no_storage()
-                };
-                (rule, row_change)
+                raw
             })
+            .collect::<Vec<Vec<f64>>>()
+            .concat();
+        let change = if it == 1 {
+            f64::INFINITY
+        } else {
+            image
+                .iter()
+                .zip(current.iter())
+                .map(|(a, b)| match (a.is_nan(), b.is_nan()) {
+                    (true, true) => 0.0,
+                    (false, false) => (a - b).abs(),
+                    _ => f64::INFINITY,
+                })
+                .fold(0.0, f64::max)
+                / m.p_star
+        };
+        // (the first image is on a grid of its own rules' making: mixing starts after it)
+        let next = if it == 1 || change < o.tolerance {
+            image
+        } else {
+            mixer.next(&current, &image)
+        };
+        rows = next
+            .par_chunks(n)
+            .map(|prices| level_rule(&m, &stocks, prices))
             .collect();
-        let worst = results.iter().map(|r| r.1).fold(0.0_f64, f64::max);
-        rows = results.into_iter().map(|r| r.0).collect();
+        current = next;
         prev_publics.clone_from(&publics);
-        worst
+        change
     })?;
     Ok(PublicSolution {
         market: m,
