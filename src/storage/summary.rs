@@ -62,8 +62,8 @@ pub fn summary(
             iterations: sol.iterations,
             stockout_price: sol.stockout_price(),
             extrapolated_share: extrapolated,
-            grid_points: sol.stocks.len(),
-            test_points: options.test_points,
+            grid_points: sol.stocks.len() * sol.memory.as_ref().map_or(1, |r| r.levels.len()),
+            test_points: sol.test_points(options.test_points),
             grid: sol.grid(rows),
             trade,
         },
@@ -83,6 +83,8 @@ pub fn summary(
                         private_stock: c.private_stock,
                         planted: sol.planted_at(c.private_stock, c.public_stock),
                         public_stock: Some(g),
+                        expected_price: None,
+                        last_price: None,
                     });
                 }
             }
