@@ -483,7 +483,9 @@ const COVER_ROUNDS: usize = 4;
 /// indicator path reaches: solved first on [`first_levels`], then on the path's range widened by a
 /// tenth of its width on each side (at least 20 % of P\* wide), from the current rules, until the
 /// path stays inside the grid; then, while the Euler residual over the path's states exceeds
-/// [`super::RESIDUAL_LIMIT`], the memory levels are doubled (up to [`MEMORY_LEVELS_MAX`]).
+/// [`super::RESIDUAL_LIMIT`], the stock and memory intervals whose residual exceeds
+/// [`super::REFINE_TARGET`] are halved ([`refined_grids`]) and the rules solved again from the
+/// current ones. (The residual check of [`super::solve`] then accepts or refuses the result.)
 pub fn solve_covered(
     m: StorageMarket,
     scenario: &crate::scenario::Scenario,
@@ -511,8 +513,9 @@ pub fn solve_covered(
         let stocks = sol.stocks.clone();
         sol = resolve(sol, new, stocks, o)?;
     }
-    // finer memory levels while the residual over the path's states is above the limit
-    loop {
+    // finer grids where the residual is too large, while the residual over the path's states is
+    // above the limit
+    for _ in 0..REFINE_ROUNDS {
         let Some((lo, hi)) = path_range(&sol) else {
             break;
         };
@@ -520,13 +523,91 @@ pub fn solve_covered(
             r.reach = Some((lo, hi));
         }
         let residual = sol.euler_residual_max(o.test_points);
-        let levels = sol.memory.as_ref().map_or(&[][..], |r| &r.levels[..]);
-        if residual <= super::RESIDUAL_LIMIT || 2 * levels.len() - 1 > MEMORY_LEVELS_MAX {
+        if residual <= super::RESIDUAL_LIMIT {
             break;
         }
-        let finer = even_levels(levels[0], levels[levels.len() - 1], 2 * levels.len() - 1);
-        let stocks = sol.stocks.clone();
-        sol = resolve(sol, finer, stocks, o)?;
+        let Some((stocks, levels)) = refined_grids(&sol, super::REFINE_TARGET) else {
+            break;
+        };
+        sol = resolve(sol, levels, stocks, o)?;
     }
     Ok(sol)
+}
+
+/// Refinement rounds of a two-state solve beside farmers with a memory.
+const REFINE_ROUNDS: usize = 6;
+/// Largest refined stock grid.
+const REFINE_MAX_STOCKS: usize = 1200;
+
+/// The grids of a refinement round: every stock interval where some level's row has a residual
+/// above `target` at its quarter points is halved, and every memory interval whose residual at its
+/// midpoint (at the knots' midpoints) exceeds `target`. `None` when nothing is to split or the
+/// grids would grow past [`REFINE_MAX_STOCKS`] and [`MEMORY_LEVELS_MAX`].
+fn refined_grids(sol: &PrivateSolution, target: f64) -> Option<(Vec<f64>, Vec<f64>)> {
+    let r = sol.memory.as_ref()?;
+    let nx = sol.stocks.len();
+    let nl = r.levels.len();
+    // levels in parallel, collected in order (flags or-ed: the same at any thread count)
+    let flags: Vec<(Vec<bool>, bool)> = (0..nl)
+        .into_par_iter()
+        .map(|l| {
+            let mut split_x = vec![false; nx - 1];
+            let mut split_m = false;
+            let Some(sp) = r.rows[l].spline.as_ref() else {
+                return (split_x, split_m);
+            };
+            let zs = sp.knots();
+            for j in 0..zs.len() - 1 {
+                let worst = [0.25, 0.5, 0.75]
+                    .iter()
+                    .map(|f| sol.euler_residual_with(zs[j] + f * (zs[j + 1] - zs[j]), r.levels[l]))
+                    .fold(0.0, f64::max);
+                split_x[j] = worst > target;
+                if l + 1 < nl && !split_m {
+                    let mid = 0.5 * (r.levels[l] + r.levels[l + 1]);
+                    split_m = sol.euler_residual_with(0.5 * (zs[j] + zs[j + 1]), mid) > target;
+                }
+            }
+            (split_x, split_m)
+        })
+        .collect();
+    let mut split_x = vec![false; nx - 1];
+    let mut split_m = vec![false; nl - 1];
+    for (l, (fx, fm)) in flags.into_iter().enumerate() {
+        for (a, b) in split_x.iter_mut().zip(fx) {
+            *a |= b;
+        }
+        if l + 1 < nl {
+            split_m[l] = fm;
+        }
+    }
+    let grow_x = split_x.iter().filter(|&&b| b).count();
+    let grow_m = split_m.iter().filter(|&&b| b).count();
+    let grow_x = if nx + grow_x > REFINE_MAX_STOCKS {
+        0
+    } else {
+        grow_x
+    };
+    let grow_m = if nl + grow_m > MEMORY_LEVELS_MAX {
+        0
+    } else {
+        grow_m
+    };
+    if grow_x == 0 && grow_m == 0 {
+        return None;
+    }
+    let halve = |v: &[f64], split: &[bool], on: bool| {
+        let mut out = Vec::with_capacity(v.len() * 2);
+        for j in 0..v.len() {
+            out.push(v[j]);
+            if on && j + 1 < v.len() && split[j] {
+                out.push(0.5 * (v[j] + v[j + 1]));
+            }
+        }
+        out
+    };
+    Some((
+        halve(&sol.stocks, &split_x, grow_x > 0),
+        halve(&r.levels, &split_m, grow_m > 0),
+    ))
 }
