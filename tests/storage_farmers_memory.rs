@@ -184,7 +184,7 @@ fn without_shocks_storers_hold_nothing_at_the_steady_state_and_the_stockout_pric
 fn adaptive_farmers_with_weight_one_are_naive_farmers() {
     // P^e' = P^e + 1·(P − P^e) = P: adaptive expectations with λ = 1 are naive expectations
     // (Nerlove 1958), so the two-state solve must reproduce the one-state naive solve to the
-    // solve's accuracy (both are held to an Euler residual of 1e-6; measured here: see below).
+    // solve's accuracy (both are held to an Euler residual of 1e-6): prices within 1e-6 relative.
     let naive = private(&demo("rule = \"naive\"", &[]));
     let adaptive = private(&demo("rule = \"adaptive\"\nweight = 1.0", &[]));
     assert!(adaptive.memory_rules().is_some());
