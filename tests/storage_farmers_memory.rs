@@ -93,6 +93,9 @@ fn linear() -> (f64, f64, f64, f64) {
     (480.0 - b * 210.0, b, 480.0 - d * 210.0, d)
 }
 
+/// A stockout threshold as a function of the farmers' memory.
+type Threshold = Box<dyn Fn(f64) -> f64>;
+
 #[test]
 fn without_shocks_storers_hold_nothing_at_the_steady_state_and_the_stockout_price_is_the_closed_form(
 ) {
@@ -109,7 +112,7 @@ fn without_shocks_storers_hold_nothing_at_the_steady_state_and_the_stockout_pric
     let (a, b, c, d) = linear();
     let (beta, k) = (0.98 / 1.05, 4.0);
     let p_star = 210.0;
-    let cases: [(&str, Box<dyn Fn(f64) -> f64>); 3] = [
+    let cases: [(&str, Threshold); 3] = [
         (
             "rule = \"adaptive\"\nweight = 0.4",
             Box::new(move |m: f64| {

@@ -57,7 +57,12 @@ pub fn summary(
         Equilibrium::Private(sol) => StorageSummary {
             market,
             policy,
-            method: "endogenous grid method on private stock (Carroll 2006), monotone cubic interpolation (Fritsch-Carlson), expectations by Gauss-Legendre quadrature over the shock split at the breakpoints of next period's price, grid refined where the residual exceeds 1e-7 and extended as far as simulated paths carry stock".into(),
+            method: if sol.memory.is_some() {
+                "endogenous grid method on private stock for each level of the farmers' memory (Carroll 2006), today's price a secant root of the arbitrage condition, monotone cubic interpolation in availability (Fritsch-Carlson), cubic Lagrange in the memory with the stockout points aligned, expectations by Gauss-Legendre quadrature over the shock split at the breakpoints of next period's price, grids refined where the residual exceeds 1e-7"
+            } else {
+                "endogenous grid method on private stock (Carroll 2006), monotone cubic interpolation (Fritsch-Carlson), expectations by Gauss-Legendre quadrature over the shock split at the breakpoints of next period's price, grid refined where the residual exceeds 1e-7 and extended as far as simulated paths carry stock"
+            }
+            .into(),
             euler_residual_max: residual,
             iterations: sol.iterations,
             stockout_price: sol.stockout_price(),
