@@ -1,7 +1,9 @@
 //! Private storers beside farmers who look back: farmers plant on a rule of the last producer
 //! price (naive, normal-price with a fixed normal price, trailing mean over one season) while
 //! storers arbitrage with rational expectations. The equilibrium keeps one state (availability):
-//! next season's planting is the farmers' rule of today's price, which the storers know.
+//! next season's planting is the farmers' rule of today's price, which the storers know. Farmers
+//! with one more state (adaptive, learning, two-lag rules) make it two states: availability and
+//! the farmers' memory (tests/storage_farmers_memory.rs).
 
 use furrow::engine::Model;
 use furrow::policies::file::policy_from_table;
@@ -149,19 +151,21 @@ fn storers_beside_naive_farmers_solve_accurately_and_steady_the_cobweb() {
 
 #[test]
 fn rules_with_more_state_and_what_the_model_does_not_cover_are_refused_by_name() {
-    // adaptive expectations carry their own last expectation: not covered (yet), refused naming the
-    // file, the key and the rule
-    let text = std::fs::read_to_string(EXAMPLE)
-        .unwrap()
-        .replace("rule = \"rational\"", "rule = \"adaptive\"\nweight = 0.4");
+    // a trailing mean over three seasons carries two lagged prices: not covered (yet), refused
+    // naming the file, the key and the rule
+    let text = std::fs::read_to_string(EXAMPLE).unwrap().replace(
+        "rule = \"rational\"",
+        "rule = \"trailing-mean\"\nwindow = 3",
+    );
     let err = parse_toml(EXAMPLE, &text)
         .and_then(|t| market_from_table(EXAMPLE, t))
         .unwrap_err()
         .to_string();
     assert!(err.contains(EXAMPLE), "{err}");
     assert!(err.contains("expectations.rule"), "{err}");
-    assert!(err.contains("\"adaptive\""), "{err}");
+    assert!(err.contains("\"trailing-mean\""), "{err}");
     assert!(err.contains("\"naive\""), "{err}");
+    assert!(err.contains("\"adaptive\""), "{err}");
     // planting on revenue beside naive farmers
     let text = std::fs::read_to_string(EXAMPLE)
         .unwrap()

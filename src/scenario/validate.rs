@@ -354,19 +354,26 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
     let storers = match &raw.storers {
         None => None,
         Some(st) => {
-            // farmers look ahead, or plant on a rule of the last price alone (the storage
-            // model's `storage::market::Farmers`, which asks the rule the same questions)
+            // farmers look ahead, or plant on a rule of the last price and at most one more state
+            // (the storage model's `storage::market::Farmers`, which asks the rule the same
+            // questions)
             if !expectations.is_rational() {
+                use crate::expectations::StateLayout;
                 let rule = expectations.rule();
-                let last_price_only = rule.lags() == 1
-                    && matches!(rule.layout(), crate::expectations::StateLayout::Lags(w) if w.len() == 1);
-                if !last_price_only {
+                let covered = match (rule.layout(), rule.lags()) {
+                    (StateLayout::Lags(w), 1) => w.len() == 1,
+                    (StateLayout::Lags(w), 2) => w.len() == 2,
+                    (StateLayout::Expectation(_), 1) => true,
+                    _ => false,
+                };
+                if !covered {
                     return Err(c.bad(
                         "expectations.rule",
                         format!("\"{}\"", expectations.rule_name()),
                         "a market with [storers] needs rule = \"rational\" (storers and farmers look ahead) \
-                         or a backward-looking rule that reads only the last price: \"naive\", \
-                         \"normal-price\" with a fixed normal_price, \"trailing-mean\" with window = 1",
+                         or a backward-looking rule with at most two states: \"naive\", \"adaptive\", \
+                         \"learning\", \"extrapolative\", \"normal-price\" with a fixed normal_price or a \
+                         window of 2, \"trailing-mean\" with window 1 or 2",
                     ));
                 }
                 if market.plants_on == PlantsOn::Revenue {

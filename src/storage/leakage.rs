@@ -182,6 +182,7 @@ mod tests {
             imports,
             exports,
             mode: AgencyMode::Inside,
+            memory: 0.0,
         }
     }
 

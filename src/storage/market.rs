@@ -20,55 +20,155 @@ pub struct Node {
     pub w: f64,
 }
 
-/// Farmers who plant on a backward-looking rule that reads only the last producer price: next
-/// season's planting price is `weight`·P_t + `constant` (the rule's own expectation at a history of
-/// one price), so the equilibrium keeps one state (availability) and the storers know the planting
-/// each price brings. Built from the rule through its trait ([`Farmers::of`]); rules with more state
-/// (several lags, their own last expectation) are refused (docs/storage.md, "Farmers who look back").
+/// Farmers who plant on a backward-looking rule: next season's planting price is
+/// P^e' = `weight`·P_t + `constant` for a rule that reads only the last producer price (the
+/// equilibrium keeps one state, availability), plus `memory.weight`·m_t for a rule with one more
+/// state m_t (adaptive and constant-gain learning: their own last expectation; two-lag rules such
+/// as extrapolative or a trailing mean over two seasons: the price before the last). The weights
+/// are asked of the rule itself through its trait ([`Farmers::of`]: its expectation at histories of
+/// 0 and 1), so each rule's formula stays in `src/expectations/`; rules with more state (several
+/// lags, groups) are refused (docs/storage.md, "Farmers who look back").
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Farmers {
     /// dP^e/dP_t.
     pub weight: f64,
-    /// P^e at P_t = 0.
+    /// P^e at P_t = 0 (and m_t = 0).
     pub constant: f64,
     /// The price planted on for period 1 (the rule's expectation at the file's price history).
     pub first: f64,
+    /// The farmers' second state, for a rule with more state than the last price.
+    pub memory: Option<Memory>,
+}
+
+/// What a two-state rule remembers besides today's price.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Memory {
+    /// dP^e'/dm_t.
+    pub weight: f64,
+    /// What the memory becomes after a season: the expectation just formed (adaptive, learning)
+    /// or the season's price (two-lag rules).
+    pub keeps: Keeps,
+    /// The memory in period 1: the rule's expectation for period 1 (adaptive), or the last price
+    /// of the file's history (two-lag rules).
+    pub first: f64,
+}
+
+/// What a two-state rule keeps as its memory.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Keeps {
+    /// Its own expectation (layout `Expectation`).
+    Expectation,
+    /// The last price (layout `Lags` of two).
+    LastPrice,
 }
 
 impl Farmers {
     /// The farmers of `spec` on a market whose price history before period 1 is `history` (newest
     /// last): `None` for the rational rule (farmers look ahead), `Err(())` for a backward-looking
-    /// rule with more state than the last price.
+    /// rule with more state than the last price and one memory.
     #[allow(clippy::result_unit_err)]
     pub fn of(
         spec: &crate::expectations::ExpectationSpec,
         history: &[f64],
     ) -> Result<Option<Farmers>, ()> {
+        use crate::expectations::{ExpectationInput, StateLayout};
         if spec.is_rational() {
             return Ok(None);
         }
         let rule = spec.rule();
-        let weight = match rule.layout() {
-            crate::expectations::StateLayout::Lags(w) if w.len() == 1 && rule.lags() == 1 => w[0],
-            _ => return Err(()),
-        };
-        let at = |h: &[f64]| {
-            rule.expect(&crate::expectations::ExpectationInput {
+        // the history as the period engine pads it: to the rule's lags (at least two) with its
+        // oldest value (`engine::Model::new`)
+        let need = rule.lags().max(2);
+        let mut padded =
+            vec![history.first().copied().unwrap_or(0.0); need.saturating_sub(history.len())];
+        padded.extend_from_slice(history);
+        let at = |h: &[f64], previous: Option<f64>| {
+            rule.expect(&ExpectationInput {
                 history: h,
-                previous: None,
+                previous,
             })
         };
-        Ok(Some(Farmers {
-            weight,
-            constant: at(&[0.0]),
-            first: at(history),
-        }))
+        match (rule.layout(), rule.lags()) {
+            (StateLayout::Lags(w), 1) if w.len() == 1 => Ok(Some(Farmers {
+                weight: w[0],
+                constant: at(&[0.0], None),
+                first: at(history, None),
+                memory: None,
+            })),
+            (StateLayout::Expectation(_), 1) => {
+                // P^e' = rule(P_t, its previous expectation m): asked at (0, 0), (1, 0), (0, 1)
+                let c = at(&[0.0], Some(0.0));
+                let first = at(&padded, None);
+                let f = Farmers {
+                    weight: at(&[1.0], Some(0.0)) - c,
+                    constant: c,
+                    first,
+                    memory: Some(Memory {
+                        weight: at(&[0.0], Some(1.0)) - c,
+                        keeps: Keeps::Expectation,
+                        first,
+                    }),
+                };
+                f.linear(|p, m| at(&[p], Some(m)))
+            }
+            (StateLayout::Lags(w), 2) if w.len() == 2 => {
+                // P^e' = rule(P_{t−1} = m, P_t): asked at (0, 0), (0, 1), (1, 0)
+                let c = at(&[0.0, 0.0], None);
+                let first = at(&padded, None);
+                let f = Farmers {
+                    weight: at(&[0.0, 1.0], None) - c,
+                    constant: c,
+                    first,
+                    memory: Some(Memory {
+                        weight: at(&[1.0, 0.0], None) - c,
+                        keeps: Keeps::LastPrice,
+                        first: padded[padded.len() - 1],
+                    }),
+                };
+                f.linear(|p, m| at(&[m, p], None))
+            }
+            _ => Err(()),
+        }
     }
 
-    /// The price farmers plant on next season after a season that cleared at `price`.
+    /// `Ok(Some(self))` when the rule `rule(P, m)` is the linear map the weights describe (checked at
+    /// two more points), `Err(())` otherwise.
+    fn linear<R: Fn(f64, f64) -> f64>(self, rule: R) -> Result<Option<Farmers>, ()> {
+        for (p, m) in [(210.0, 190.0), (37.0, 512.0)] {
+            let want = rule(p, m);
+            if (self.expect_with(p, m) - want).abs() > 1e-12 * want.abs().max(1.0) {
+                return Err(());
+            }
+        }
+        Ok(Some(self))
+    }
+
+    /// The price farmers plant on next season after a season that cleared at `price` (a rule of
+    /// the last price alone).
     #[inline]
     pub fn expect(&self, price: f64) -> f64 {
         self.weight * price + self.constant
+    }
+
+    /// The price farmers plant on next season after a season that cleared at `price` with memory
+    /// `memory` (ignored by a rule of the last price alone).
+    #[inline]
+    pub fn expect_with(&self, price: f64, memory: f64) -> f64 {
+        match self.memory {
+            Some(mem) => self.weight * price + mem.weight * memory + self.constant,
+            None => self.expect(price),
+        }
+    }
+
+    /// The memory next season, after a season that cleared at `price` and the expectation
+    /// `expected` formed from it.
+    #[inline]
+    pub fn next_memory(&self, price: f64, expected: f64) -> f64 {
+        match self.memory.map(|m| m.keeps) {
+            Some(Keeps::Expectation) => expected,
+            Some(Keeps::LastPrice) => price,
+            None => price,
+        }
     }
 }
 

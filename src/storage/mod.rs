@@ -26,6 +26,8 @@ pub mod agency;
 #[path = "public/blend.rs"]
 pub mod blend;
 pub mod check;
+#[path = "private/farmers.rs"]
+pub mod farmers;
 pub mod fixed_point;
 pub mod leakage;
 pub mod market;
@@ -78,7 +80,7 @@ pub enum StorageError {
     #[error("{file}: storers.interest_rate = 0 and storers.loss_rate = 0: carrying stock must cost something (interest or loss > 0) for the storage equilibrium to exist")]
     NoCarryingCost { file: String },
     /// Farmers whose rule the storage model does not cover beside private storers.
-    #[error("{file}: expectations.rule: {rule}: a market with [storers] needs rule = \"rational\" or a backward-looking rule that reads only the last price (\"naive\", \"normal-price\" with a fixed normal_price, \"trailing-mean\" with window = 1), planting on price")]
+    #[error("{file}: expectations.rule: {rule}: a market with [storers] needs rule = \"rational\" or a backward-looking rule with at most two states (\"naive\", \"adaptive\", \"learning\", \"extrapolative\", \"normal-price\" with a fixed normal_price or a window of 2, \"trailing-mean\" with window 1 or 2), planting on price")]
     UnsupportedFarmers { file: String, rule: String },
     /// A policy element the storage model does not cover.
     #[error("{file}: {key}: {reason}")]
@@ -263,7 +265,27 @@ fn solve_reporting(
             ),
         });
     }
+    if m.farmers.is_some_and(|f| f.memory.is_some()) && m.trades() {
+        // farmers with a memory beside storers: the two-state solve covers a closed market
+        return Err(StorageError::UnsupportedPolicy {
+            file: scenario.source.clone(),
+            key: "[trade]".into(),
+            reason: format!(
+                "farmers on {} beside private storers are covered in a closed market only (a \
+                 market that trades is covered beside rational farmers and farmers on a rule of \
+                 the last price alone); leave out [trade] or use another rule",
+                policy
+                    .expectations
+                    .unwrap_or(scenario.expectations)
+                    .rule()
+                    .describe()
+            ),
+        });
+    }
     let eq = match band_of(policy)? {
+        None if m.farmers.is_some_and(|f| f.memory.is_some()) => {
+            Equilibrium::Private(farmers::solve_covered(m, scenario, options)?)
+        }
         None => {
             let sol = solve_private(m, options)?;
             Equilibrium::Private(solve::refine(
@@ -356,10 +378,23 @@ fn set_reach(eq: &mut Equilibrium, scenario: &Scenario, initial: f64) -> bool {
         Equilibrium::Private(s) => {
             let b = path_box(&path, 1.0, initial);
             s.reach = Some((b[0], b[1]));
+            if let Some(r) = s.memory.as_mut() {
+                r.reach = memory_reach(&path);
+            }
         }
         Equilibrium::Public(s) => s.reach = Some(path_box(&path, s.band.keep, initial)),
     }
     bound
+}
+
+/// The lowest and highest farmers' memory a path clears at (farmers with a memory).
+fn memory_reach(path: &[StoragePeriod]) -> Option<(f64, f64)> {
+    let lo = path.iter().map(|r| r.memory).fold(f64::INFINITY, f64::min);
+    let hi = path
+        .iter()
+        .map(|r| r.memory)
+        .fold(f64::NEG_INFINITY, f64::max);
+    (lo <= hi).then_some((lo, hi))
 }
 
 /// The states a path visits: [lowest, highest availability net of the demand shock, lowest,

@@ -91,7 +91,7 @@ impl Equilibrium {
     /// Points of the residual test grid for `points` requested ([`Self::measure_residual`]).
     pub fn test_points(&self, points: usize) -> usize {
         match self {
-            Equilibrium::Private(_) => points,
+            Equilibrium::Private(s) => s.test_points(points),
             Equilibrium::Public(_) => (points / 10 + 1) * 9,
         }
     }
@@ -100,6 +100,16 @@ impl Equilibrium {
     /// extrapolated).
     pub fn stock_top(&self) -> f64 {
         match self {
+            Equilibrium::Private(s) if s.memory.is_some() => {
+                // the largest grid stock any memory level's rule holds
+                let r = s.memory.as_ref().map_or(&[][..], |r| &r.rows[..]);
+                let most = r
+                    .iter()
+                    .filter_map(|row| row.spline.as_ref().map(|sp| sp.knots().len()))
+                    .max()
+                    .unwrap_or(s.stocks.len());
+                s.stocks[most.clamp(1, s.stocks.len()) - 1]
+            }
             Equilibrium::Private(s) => match &s.rule.spline {
                 // the grid ends where the price reaches zero (free disposal): no storer carries
                 // more than the stock there, so the rule covers every stock a path can hold
@@ -120,7 +130,11 @@ impl Equilibrium {
     /// Private stock carried out at the upper end of the range the residual is checked on.
     pub fn range_stock(&self) -> f64 {
         match self {
-            Equilibrium::Private(s) => s.rule.stock(&s.market, s.range().1),
+            Equilibrium::Private(s) => match s.memory_range() {
+                // the stock at the top of the range, at the memory where it is largest
+                Some((lo, hi)) => s.stock_at(s.range().1, lo).max(s.stock_at(s.range().1, hi)),
+                None => s.rule.stock(&s.market, s.range().1),
+            },
             Equilibrium::Public(s) => s.clear(s.range().1, 0.0).private_stock,
         }
     }
@@ -128,7 +142,20 @@ impl Equilibrium {
     /// The period at net availability `z` (availability minus the demand shock) with public stock `g`
     /// carried in.
     pub fn outcome(&self, z: f64, g: f64) -> Outcome {
+        self.outcome_with(z, g, 0.0)
+    }
+
+    /// [`Self::outcome`] when the farmers remember `memory` (their last expectation or the price
+    /// before the last: the second state beside farmers on adaptive or two-lag rules; ignored
+    /// otherwise).
+    pub fn outcome_with(&self, z: f64, g: f64, memory: f64) -> Outcome {
         match self {
+            Equilibrium::Private(s) if s.memory.is_some() => Outcome {
+                price: s.price_at(z, memory),
+                private_stock: s.stock_at(z, memory),
+                public_stock: 0.0,
+                mode: AgencyMode::Inside,
+            },
             Equilibrium::Private(s) => Outcome {
                 price: s.rule.price(&s.market, z),
                 private_stock: s.rule.stock(&s.market, z),
@@ -256,6 +283,10 @@ pub struct StoragePeriod {
     /// What the agency did.
     #[serde(skip)]
     pub mode: AgencyMode,
+    /// The farmers' memory the period cleared at (beside farmers on adaptive or two-lag rules: their
+    /// last expectation or the price before the last; 0 otherwise).
+    #[serde(skip)]
+    pub memory: f64,
 }
 
 /// A path under the solved rules, one period at a time: the state is the private and public stock
@@ -267,6 +298,8 @@ pub struct SolvedPath<'a> {
     public: f64,
     planted: f64,
     expected: f64,
+    /// The farmers' memory (two-state farmers; 0 otherwise).
+    memory: f64,
     period: usize,
 }
 
@@ -286,6 +319,10 @@ impl<'a> SolvedPath<'a> {
             public: initial_public,
             planted,
             expected,
+            memory: m
+                .farmers
+                .and_then(|f| f.memory)
+                .map_or(0.0, |mem| mem.first),
             period: 0,
         }
     }
@@ -297,7 +334,8 @@ impl<'a> SolvedPath<'a> {
         let harvest = (self.planted * s.yield_factor + s.supply).max(0.0);
         let availability = m.keep * self.x + harvest;
         let g = eq.public_keep() * self.public;
-        let o = eq.outcome(availability - s.demand, g);
+        let memory = self.memory;
+        let o = eq.outcome_with(availability - s.demand, g, memory);
         let trade = o.public_stock - g;
         let left = availability + g - o.public_stock - o.private_stock;
         // private trade fills the gap to what consumers take at import parity, or takes the
@@ -316,7 +354,15 @@ impl<'a> SolvedPath<'a> {
         self.x = o.private_stock;
         self.public = o.public_stock;
         let (planted_now, expected_now) = (self.planted, self.expected);
-        (self.planted, self.expected) = eq.plant_after(o.price, self.x, self.public);
+        (self.planted, self.expected) = match m.farmers {
+            Some(f) if f.memory.is_some() => {
+                // farmers on a rule with a memory: their rule of today's price and their memory
+                let expected = f.expect_with(o.price, memory);
+                self.memory = f.next_memory(o.price, expected);
+                (m.supply_at(expected).0, expected)
+            }
+            _ => eq.plant_after(o.price, self.x, self.public),
+        };
         let gap = (m.payment_floor - o.price).max(0.0);
         self.period += 1;
         StoragePeriod {
@@ -338,6 +384,7 @@ impl<'a> SolvedPath<'a> {
             imports,
             exports,
             mode: o.mode,
+            memory,
         }
     }
 }

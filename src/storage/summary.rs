@@ -57,13 +57,18 @@ pub fn summary(
         Equilibrium::Private(sol) => StorageSummary {
             market,
             policy,
-            method: "endogenous grid method on private stock (Carroll 2006), monotone cubic interpolation (Fritsch-Carlson), expectations by Gauss-Legendre quadrature over the shock split at the breakpoints of next period's price, grid refined where the residual exceeds 1e-7 and extended as far as simulated paths carry stock".into(),
+            method: if sol.memory.is_some() {
+                "endogenous grid method on private stock for each level of the farmers' memory (Carroll 2006), today's price a secant root of the arbitrage condition, monotone cubic interpolation in availability (Fritsch-Carlson), cubic Lagrange in the memory with the stockout points aligned, expectations by Gauss-Legendre quadrature over the shock split at the breakpoints of next period's price, grids refined where the residual exceeds 1e-7"
+            } else {
+                "endogenous grid method on private stock (Carroll 2006), monotone cubic interpolation (Fritsch-Carlson), expectations by Gauss-Legendre quadrature over the shock split at the breakpoints of next period's price, grid refined where the residual exceeds 1e-7 and extended as far as simulated paths carry stock"
+            }
+            .into(),
             euler_residual_max: residual,
             iterations: sol.iterations,
             stockout_price: sol.stockout_price(),
             extrapolated_share: extrapolated,
-            grid_points: sol.stocks.len(),
-            test_points: options.test_points,
+            grid_points: sol.stocks.len() * sol.memory.as_ref().map_or(1, |r| r.levels.len()),
+            test_points: sol.test_points(options.test_points),
             grid: sol.grid(rows),
             trade,
         },
@@ -83,6 +88,8 @@ pub fn summary(
                         private_stock: c.private_stock,
                         planted: sol.planted_at(c.private_stock, c.public_stock),
                         public_stock: Some(g),
+                        expected_price: None,
+                        last_price: None,
                     });
                 }
             }

@@ -93,11 +93,29 @@ impl PriceRule {
 pub fn rule_breaks(m: &StorageMarket, rule: &PriceRule, hi: f64) -> Vec<f64> {
     let lo = 1e-6 * m.q_star;
     let tol = 1e-12 * m.q_star.max(1.0);
-    let near = 1e-3 * m.q_star.max(1.0);
     let mut out = Vec::with_capacity(3);
     if rule.kink.is_finite() && rule.kink > lo && rule.kink < hi {
         out.push(rule.kink);
     }
+    level_breaks(m, |z| rule.eval(m, z), hi, &mut out);
+    out.sort_by(f64::total_cmp);
+    out.dedup_by(|a, b| (*a - *b).abs() <= tol);
+    out
+}
+
+/// Pushes onto `out` the availabilities in (0, `hi`) where a price rule `eval` (price and dP/dz,
+/// decreasing) meets the market's levels: where imports start (consumers alone would pay import
+/// parity), where the price reaches the floor (zero with free disposal, export parity) and where
+/// it crosses the planting floor.
+pub(crate) fn level_breaks<F: Fn(f64) -> (f64, f64)>(
+    m: &StorageMarket,
+    eval: F,
+    hi: f64,
+    out: &mut Vec<f64>,
+) {
+    let lo = 1e-6 * m.q_star;
+    let tol = 1e-12 * m.q_star.max(1.0);
+    let near = 1e-3 * m.q_star.max(1.0);
     if m.ceiling.is_finite() {
         // imports start where consumers alone would pay import parity
         let zc = m.demand.quantity(m.ceiling);
@@ -112,16 +130,13 @@ pub fn rule_breaks(m: &StorageMarket, rule: &PriceRule, hi: f64) -> Vec<f64> {
     }
     for level in levels {
         let f = |z: f64| {
-            let (p, d) = rule.eval(m, z);
+            let (p, d) = eval(z);
             (p - level, d)
         };
         if f(lo).0 > 0.0 && f(hi).0 <= 0.0 {
             out.push(super::next_price::boundary(f, lo, hi, tol, near));
         }
     }
-    out.sort_by(f64::total_cmp);
-    out.dedup_by(|a, b| (*a - *b).abs() <= tol);
-    out
 }
 
 /// Highest next availability the one-state breakpoints are searched up to (as
@@ -342,6 +357,10 @@ pub struct PrivateSolution {
     /// The availabilities (net of the demand shock) the indicator path reaches, lowest and highest,
     /// once simulated: the range the residual is checked on ([`Self::range`]).
     pub reach: Option<(f64, f64)>,
+    /// The price rules over the farmers' memory, when farmers plant on a rule with one more state
+    /// than the last price (adaptive, learning, two-lag rules): the equilibrium then has two states
+    /// and `rule` is the row nearest P\* ([`super::farmers`]).
+    pub memory: Option<super::farmers::MemoryRules>,
 }
 
 impl PrivateSolution {
@@ -367,8 +386,12 @@ impl PrivateSolution {
         }
     }
 
-    /// The stockout price: storers hold stock only when the price is below it (0 when nobody ever stores).
+    /// The stockout price: storers hold stock only when the price is below it (0 when nobody ever
+    /// stores). With farmers' memory: at the memory P\* (the steady state's).
     pub fn stockout_price(&self) -> f64 {
+        if let Some(r) = &self.memory {
+            return r.stockout_price(self.market.p_star);
+        }
         match &self.rule.spline {
             Some(s) => s.values()[0],
             None => 0.0,
@@ -411,6 +434,9 @@ pub fn extend(
     x_max: f64,
     o: &SolveOptions,
 ) -> Result<PrivateSolution, StorageError> {
+    if sol.memory.is_some() {
+        return super::farmers::extend(sol, x_max, o);
+    }
     let (stocks, planted) = continue_grid(&sol.stocks, &sol.planted, x_max);
     let total = sol.iterations;
     let out = iterate(sol.market, stocks, planted, sol.rule, o)?;
@@ -579,6 +605,7 @@ fn iterate(
         breaks,
         residual: f64::NAN,
         reach: None,
+        memory: None,
     })
 }
 
