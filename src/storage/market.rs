@@ -56,6 +56,7 @@ impl Farmers {
             rule.expect(&crate::expectations::ExpectationInput {
                 history: h,
                 previous: None,
+                season: 0,
             })
         };
         Ok(Some(Farmers {
