@@ -8,13 +8,14 @@ use furrow::policies::PolicySpec;
 use furrow::scenario::{self, Scenario};
 use furrow::stability::{self, Verdict};
 
-/// Demand Q = 100 − 0.5 P, supply Q = 10 + b P: P* = 90/(0.5 + b), b/d = 2b. Starts at P_0 = 150.
+/// Demand Q = 100 − 0.5 P, supply Q = 10 + b P: P* = 90/(0.5 + b), b/d = 2b. Starts at P_0 = 100
+/// (with b/d = 1.2 a naive first season still clears at a positive price).
 fn market(b: f64, expectations: &str) -> Scenario {
     scenario::market_from_str(
         "m.toml",
         &format!(
             "[demand]\nintercept = 100.0\nslope = -0.5\n[supply]\nintercept = 10.0\nslope = {b:?}\n\
-             [run]\ninitial_price = 150.0\nperiods = 10\n[expectations]\n{expectations}"
+             [run]\ninitial_price = 100.0\nperiods = 10\n[expectations]\n{expectations}"
         ),
     )
     .unwrap_or_else(|e| panic!("{expectations}: {e}"))
@@ -76,7 +77,7 @@ fn decreasing_gain_converges_where_naive_expectations_diverge() {
         // a_{t+1} − P* = (1 − γ_{t+1}) (a_t − P*) + γ_{t+1} (P_t − P*) = (1 − γ_{t+1}(1 + b/d)) (a_t − P*)
         // with γ_t = 1/(w + t − 1), w = 1/γ − 1 (the estimate a running mean, Bray and Savin 1986)
         let w = 1.0 / gain - 1.0;
-        let mut deviation = initial.unwrap_or(150.0) - steady;
+        let mut deviation = initial.unwrap_or(100.0) - steady;
         for (i, (expected, price)) in run.iter().enumerate() {
             let t = i + 1;
             if t >= 2 {
@@ -189,7 +190,7 @@ fn the_short_form_and_the_file_give_the_same_falling_gain() {
     // and the description says the schedule and the prior's weight in seasons (1/γ − 1 = 3)
     let d = short.rule().describe();
     assert!(
-        d.contains("decreasing gain from 0.25") && d.contains("3 seasons"),
+        d.contains("decreasing gain from 0.250") && d.contains("3 seasons"),
         "{d}"
     );
     // `gain_schedule = "constant"` is today's rule, `gain = γ` alone

@@ -153,10 +153,13 @@ impl ExpectationRule for Learning {
     }
     fn describe(&self) -> String {
         let schedule = if self.decreasing {
+            let w = self.prior_weight();
             format!(
-                "decreasing gain from {} (the mean of past prices, the initial estimate worth {} seasons)",
+                "decreasing gain from {}: the mean of past prices, the initial estimate counting \
+                 as {} season{}",
                 g(self.gain),
-                g(self.prior_weight())
+                g6(w),
+                if w == 1.0 { "" } else { "s" }
             )
         } else {
             format!("constant gain {}", g(self.gain))
