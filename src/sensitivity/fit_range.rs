@@ -94,7 +94,10 @@ mod tests {
 
     #[test]
     fn a_key_without_a_recorded_standard_error_is_refused_naming_file_and_key() {
-        for (text, key) in [(FILE, "demand.intercept"), ("[demand]\nslope = -1.5\n", "demand.slope")] {
+        for (text, key) in [
+            (FILE, "demand.intercept"),
+            ("[demand]\nslope = -1.5\n", "demand.slope"),
+        ] {
             let e = read_range(&format!("{key}=fit"), "f.toml", text)
                 .unwrap_err()
                 .to_string();

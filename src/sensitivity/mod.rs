@@ -24,8 +24,8 @@ mod tornado;
 
 use serde::Serialize;
 
-pub use render::{figures, render};
 pub use fit_range::read_range;
+pub use render::{figures, render};
 pub use tornado::{parse_range, Range, TornadoBar};
 
 use crate::compare::{compare, CompareError, Indicator, Kind, PolicyComparison, Value};
