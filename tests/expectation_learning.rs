@@ -121,6 +121,7 @@ fn the_stability_verb_refuses_a_falling_gain_and_gives_its_limit_in_words() {
             .unwrap_err()
             .to_string();
         assert!(e.contains("expectations.gain_schedule"), "{e}");
+        assert!(!e.contains("  "), "one sentence, no gaps: {e}");
         assert!(e.contains("E-stability") && e.contains(status), "{e}");
         let slope = format!("T'(a*) = {}", furrow::output::fmt_num(-2.0 * b, 6));
         assert!(e.contains(&slope), "{e}: {slope}");

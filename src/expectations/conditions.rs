@@ -147,7 +147,7 @@ impl Slopes {
         let (holds, on_boundary) = strict(1.0 - slope);
         PublishedCondition {
             name: "T'(a*) = −b/d < 1 (E-stability)".into(),
-            source: "Evans and Honkapohja (2001), Learning and Expectations in Macroeconomics,                      ch. 2 (E-stability of the cobweb model; from memory); Bray and Savin (1986)"
+            source: "Evans and Honkapohja (2001), Learning and Expectations in Macroeconomics, ch. 2 (E-stability of the cobweb model; from memory); Bray and Savin (1986)"
                 .into(),
             holds,
             on_boundary,

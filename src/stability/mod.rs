@@ -334,7 +334,7 @@ pub fn analyse_setup(setup: &Setup, unit: &str) -> Result<StabilityAnalysis, Sta
         return Err(StabilityError::Linearisation {
             regime: "free market".into(),
             reason: format!(
-                "{why}; as the gain goes to 0 the path follows the limiting map, whose condition                  is: {}",
+                "{why}; as the gain goes to 0 the path follows the limiting map, whose condition is: {}",
                 limit.join("; ")
             ),
         });
