@@ -71,7 +71,12 @@ fn every_rule_declares_its_keys_in_the_one_schema_and_reads_only_them() {
             if key.kind == furrow::input::ValueType::Text {
                 // a text key (the groups of `mixed` and `switching`) has no numeric range; a
                 // number in its place is refused by the schema, naming the key
-                let text: String = rule.examples[0]
+                let example = rule
+                    .examples
+                    .iter()
+                    .find(|e| e.contains(&format!("\n{} =", key.name)))
+                    .unwrap_or_else(|| panic!("{}: no example sets {}", rule.name, key.name));
+                let text: String = example
                     .lines()
                     .map(|l| {
                         if l.starts_with(&format!("{} =", key.name)) {
@@ -129,6 +134,7 @@ fn every_rule_declares_its_keys_in_the_one_schema_and_reads_only_them() {
             let value = match *key {
                 "window" => "2",
                 "groups" => "\"naive, naive\"",
+                "gain_schedule" => "\"decreasing\"",
                 "shares" | "cost" => "[0.5, 0.5]",
                 _ => "0.5",
             };
@@ -170,9 +176,14 @@ fn every_example_reads_alike_in_both_files_and_keeps_only_its_keys() {
     }
 }
 
-/// The rule's expectation from `history` (oldest first) and its previous expectation.
+/// The rule's expectation for season 2 from `history` (oldest first) and its previous
+/// expectation.
 fn expect(rule: &dyn ExpectationRule, history: &[f64], previous: Option<f64>) -> f64 {
-    rule.expect(&ExpectationInput { history, previous })
+    rule.expect(&ExpectationInput {
+        history,
+        previous,
+        season: 2,
+    })
 }
 
 #[test]
@@ -206,6 +217,18 @@ fn every_rule_expects_what_its_state_layout_says() {
                 assert!(w > 0.0 && w <= 1.0, "{text}");
                 let e = expect(&*rule, &[120.0], Some(90.0));
                 assert!((e - (90.0 + w * 30.0)).abs() < 1e-12, "{text}");
+                if rule.time_varying().is_some() {
+                    // a gain that falls with the season (learning, Bray and Savin 1986): season 2
+                    // revises with w, later seasons with less; never the adaptive shortcut
+                    assert!(rule.as_adaptive().is_none(), "{text}");
+                    let later = rule.expect(&ExpectationInput {
+                        history: &[120.0],
+                        previous: Some(90.0),
+                        season: 10,
+                    });
+                    assert!(later > 90.0 && later < e, "{text}: {later} vs {e}");
+                    continue;
+                }
                 // the engine's direct call is the same rule
                 let direct = rule
                     .as_adaptive()
@@ -280,6 +303,24 @@ fn the_stability_steady_state_is_where_a_long_engine_run_ends() {
     // b/d = 0.3 is stable under every registered example
     for (_, text, _) in every_example() {
         let s = market(0.15, text).unwrap();
+        if let Some(why) = s.expectations.rule().time_varying() {
+            // no eigenvalue for a map that changes each season: refused, naming the key; the run
+            // still ends where the curves cross, 100 − 0.5 P = 10 + 0.15 P (the gain falls as
+            // 1/t, so the approach is slow: tests/expectation_learning.rs has its closed form)
+            let e = stability::analyse(&s, &PolicySpec::none())
+                .unwrap_err()
+                .to_string();
+            assert!(e.contains(&why) && e.contains("E-stability"), "{e}");
+            let model = Model::new(&s, &PolicySpec::none());
+            let mut sim = model.simulator();
+            let mut last = f64::NAN;
+            for _ in 0..3000 {
+                last = sim.step(&PeriodShock::NONE).unwrap().price;
+            }
+            let crossing = 90.0 / 0.65;
+            assert!((last - crossing).abs() < 1e-3 * crossing, "{text}: {last}");
+            continue;
+        }
         let analysis = stability::analyse(&s, &PolicySpec::none()).unwrap();
         assert_eq!(analysis.verdict, Verdict::Stable, "{text}");
         let model = Model::new(&s, &PolicySpec::none());
@@ -328,8 +369,18 @@ fn a_rule_that_settles_at_once_says_so_in_stability_and_long_runs() {
     for (name, text, _) in every_example() {
         let s = market(0.15, text).unwrap();
         let rule = s.expectations.rule();
-        let analysis = stability::analyse(&s, &PolicySpec::none()).unwrap();
         let lr = sweep::longrun::long_run(&s, &PolicySpec::none(), 200, 4);
+        if rule.time_varying().is_some() {
+            // a map that changes each season: no eigenvalue, no Lyapunov exponent
+            assert!(
+                stability::analyse(&s, &PolicySpec::none()).is_err(),
+                "{text}"
+            );
+            assert_eq!(lr.orbit, Orbit::Ok, "{text}");
+            assert!(lr.lyapunov.is_none(), "{text}: {lr:?}");
+            continue;
+        }
+        let analysis = stability::analyse(&s, &PolicySpec::none()).unwrap();
         match rule.settles_at_once() {
             Some(note) => {
                 assert_eq!(analysis.note.as_deref(), Some(note), "{text}");

@@ -8,7 +8,7 @@ use common::{bin, stdout_of};
 use furrow::compare::{compare, CompareResult};
 use furrow::policies::file::policy_from_str;
 use furrow::scenario::{market_from_str, ExpectationSpec};
-use furrow::sensitivity::{parse_range, parse_rules, sensitivity, Inputs, Request};
+use furrow::sensitivity::{parse_range, parse_rules, read_range, sensitivity, Inputs, Request};
 use furrow::stochastic::NoProgress;
 use serde_json::Value;
 
@@ -549,4 +549,179 @@ fn plots_write_one_tornado_per_policy_in_png_and_svg() {
             assert!(!svg.contains("NaN"));
         }
     }
+}
+
+/// The documented `fit` of the Veldmark history (README, examples/make_history.rs) into `out`;
+/// the report as JSON.
+fn fit_veldmark(out: &std::path::Path) -> Value {
+    json(&stdout_of([
+        "fit",
+        "examples/veldmark_history.csv",
+        "--production",
+        "production",
+        "--use",
+        "use",
+        "--area",
+        "area",
+        "--yield",
+        "yield",
+        "--demand-shifter",
+        "trend",
+        "--supply-shifter",
+        "fertiliser_price",
+        "--method",
+        "2sls",
+        "--format",
+        "json",
+        "--out",
+        out.to_str().unwrap(),
+    ]))
+}
+
+#[test]
+fn a_range_from_fit_is_the_estimate_plus_and_minus_two_standard_errors() {
+    let dir = tempfile::tempdir().unwrap();
+    let fitted = dir.path().join("fitted.toml");
+    let report = fit_veldmark(&fitted);
+    let path = fitted.display().to_string();
+    let text = std::fs::read_to_string(&fitted).unwrap();
+    // demand: the price coefficient and its classical standard error, as the report gives them
+    let term = &report["demand"]["terms"][1];
+    let (estimate, se) = (
+        term["estimate"].as_f64().unwrap(),
+        term["std_error"].as_f64().unwrap(),
+    );
+    assert!(se > 0.0);
+    let r = read_range("demand.slope=fit", &path, &text).unwrap();
+    let close = |a: f64, b: f64| (a - b).abs() <= 1e-9 * b.abs().max(1.0);
+    assert!(
+        close(r.low, estimate - 2.0 * se),
+        "{} vs {}",
+        r.low,
+        estimate - 2.0 * se
+    );
+    assert!(
+        close(r.high, estimate + 2.0 * se),
+        "{} vs {}",
+        r.high,
+        estimate + 2.0 * se
+    );
+    // supply = area × trend yield: the area slope's standard error times the trend yield (taken as
+    // known), about the file's slope
+    let table: toml::Table = text.parse().unwrap();
+    let slope = table["supply"]["slope"].as_float().unwrap();
+    let area = &report["supply"]["terms"][1];
+    let yield_at = slope / area["estimate"].as_f64().unwrap();
+    let r = read_range("supply.slope=fit", &path, &text).unwrap();
+    assert!(close(0.5 * (r.low + r.high), slope));
+    assert!(close(
+        0.25 * (r.high - r.low),
+        area["std_error"].as_f64().unwrap() * yield_at
+    ));
+
+    // the tornado's ends equal separate runs with the key set at each end (the tornado runs the
+    // market file as written, its own rule included)
+    let mut market = table.clone();
+    market
+        .get_mut("run")
+        .and_then(|t| t.as_table_mut())
+        .unwrap()
+        .insert("replications".into(), toml::Value::Integer(40));
+    const FITTED_BAND: &str = "examples/fitted_band.toml";
+    let policies = [(FITTED_BAND, table_of(FITTED_BAND))];
+    let request = Request {
+        rules: parse_rules("naive").unwrap(),
+        ranges: vec![
+            read_range("demand.slope=fit", &path, &text).unwrap(),
+            read_range("supply.slope=fit", &path, &text).unwrap(),
+        ],
+        indicators: Vec::new(),
+    };
+    let out = sensitivity(&inputs(market.clone(), &policies), &request, &NoProgress).unwrap();
+    assert_eq!(out.tornado.len(), 2);
+    // the 2SLS demand slope is imprecise: its upper end nearly flattens demand, which then cannot
+    // absorb the harvest (a marked bar); every other end is a number
+    let mut compared = 0;
+    for bar in &out.tornado {
+        for (v, at) in [(bar.low, bar.at_low), (bar.high, bar.at_high)] {
+            let mut m = market.clone();
+            let (s, k) = bar.key.split_once('.').unwrap();
+            m.get_mut(s)
+                .and_then(|x| x.as_table_mut())
+                .unwrap()
+                .insert(k.into(), toml::Value::Float(v));
+            let scenario = market_from_str("m.toml", &toml::to_string(&m).unwrap()).unwrap();
+            let band =
+                policy_from_str(FITTED_BAND, &toml::to_string(&policies[0].1).unwrap()).unwrap();
+            match compare(&scenario, &[band], &NoProgress) {
+                Ok(result) => {
+                    let expected = result.policies[0].number("net_welfare_change_pv");
+                    assert!(expected.is_some());
+                    assert_eq!(bits(at), bits(expected), "{} = {v}", bar.key);
+                    compared += 1;
+                }
+                // a run that diverges at this end is a marked bar, never a number
+                Err(_) => assert!(at.is_none() && bar.diverged.is_some(), "{bar:?}"),
+            }
+        }
+    }
+    assert!(compared >= 3, "{compared}");
+
+    // on the command line: the same ends in the tornado's JSON
+    let v = json(&stdout_of([
+        "sensitivity",
+        path.as_str(),
+        FITTED_BAND,
+        "--rules",
+        "naive",
+        "--range",
+        "demand.slope=fit",
+        "--replications",
+        "5",
+        "--format",
+        "json",
+    ]));
+    let bar = &v["tornado"][0];
+    assert!(
+        close(bar["low"].as_f64().unwrap(), estimate - 2.0 * se),
+        "{bar}"
+    );
+    assert!(
+        close(bar["high"].as_f64().unwrap(), estimate + 2.0 * se),
+        "{bar}"
+    );
+}
+
+#[test]
+fn a_range_from_fit_on_a_file_without_standard_errors_names_the_file_and_the_key() {
+    // a hand-written market records none
+    fails_with(
+        &[
+            "sensitivity",
+            MARKET,
+            BAND,
+            "--replications",
+            "5",
+            "--range",
+            "demand.elasticity=fit",
+        ],
+        "examples/veldmark_weather.toml records no standard error for demand.elasticity",
+    );
+    // a fitted one records none for an intercept
+    let dir = tempfile::tempdir().unwrap();
+    let fitted = dir.path().join("fitted.toml");
+    fit_veldmark(&fitted);
+    let path = fitted.display().to_string();
+    fails_with(
+        &[
+            "sensitivity",
+            path.as_str(),
+            "examples/fitted_band.toml",
+            "--replications",
+            "5",
+            "--range",
+            "demand.intercept=fit",
+        ],
+        "records no standard error for demand.intercept",
+    );
 }

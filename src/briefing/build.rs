@@ -236,7 +236,7 @@ pub fn build_with_households(
         m.quantity_unit,
         group(s.steady.price, 1),
         m.price_unit,
-        assumptions::expectation_text(&s.expectations),
+        s.expectations.description(),
         group(s.run.periods as f64, 0),
         if s.run.replications > 1 {
             format!(", each {} times under random weather", group(s.run.replications as f64, 0))

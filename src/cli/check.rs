@@ -56,7 +56,7 @@ pub fn execute(args: &CheckArgs) -> anyhow::Result<()> {
             let p = furrow::policies::file::policy_from_str(file, &text)?;
             let mut parts: Vec<String> = p.rules.iter().map(|r| r.describe()).collect();
             if let Some(e) = p.expectations {
-                parts.push(format!("expectations {}", e.rule_name()));
+                parts.push(format!("expectations: {}", e.description()));
             }
             if parts.is_empty() {
                 parts.push("no intervention".into());
@@ -83,10 +83,10 @@ pub fn execute(args: &CheckArgs) -> anyhow::Result<()> {
                 demand_elasticity: Some(s.market.demand.elasticity_at(ss.price)),
                 supply_elasticity: Some(s.market.supply.elasticity_at(ss.price)),
                 summary: format!(
-                    "{} demand, {} supply, {} expectations, {} periods",
+                    "{} demand, {} supply, expectations: {}; {} periods",
                     s.market.demand.form_name(),
                     s.market.supply.form_name(),
-                    s.expectations.rule_name(),
+                    s.expectations.description(),
                     s.run.periods
                 ),
                 read_as,

@@ -66,7 +66,8 @@ pub struct SensitivityArgs {
     /// registered rule in its short form.
     #[arg(long, value_name = "LIST", default_value = "")]
     pub rules: String,
-    /// A file key and its low and high value for the tornado, KEY=LOW:HIGH; repeatable.
+    /// A file key and its low and high value for the tornado, KEY=LOW:HIGH, or KEY=fit for the
+    /// value ± two standard errors a market file written by `fit` records; repeatable.
     #[arg(long, value_name = "KEY=LOW:HIGH")]
     pub range: Vec<String>,
     /// An indicator of the panel (with its `_se`); repeatable; the first is the tornado's.
@@ -116,9 +117,10 @@ pub fn analyse(
         load_policy(Some(p), &scenario)?;
     }
     let rules = sensitivity::parse_rules(rules)?;
+    let market_text = furrow::input::read_file(market_path)?;
     let ranges = range
         .iter()
-        .map(|r| sensitivity::parse_range(r))
+        .map(|r| sensitivity::read_range(r, market_path, &market_text))
         .collect::<Result<Vec<_>, _>>()?;
     let mut market = read_table(market_path)?;
     let flags = [

@@ -474,6 +474,7 @@ impl<'m> Simulator<'m> {
                     None => model.rule.expect(&ExpectationInput {
                         history: self.history(),
                         previous: self.previous,
+                        season: t,
                     }),
                 }
             };

@@ -117,4 +117,7 @@ impl ExpectationRule for Adaptive {
     fn groups(&self) -> Option<&super::Groups> {
         None
     }
+    fn time_varying(&self) -> Option<String> {
+        None
+    }
 }

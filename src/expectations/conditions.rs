@@ -138,6 +138,23 @@ impl Slopes {
         }
     }
 
+    /// Learning with a decreasing gain: the estimate a follows, as the gain goes to 0, the
+    /// differential equation da/dτ = T(a) − a with T(a) the price that planting on a brings;
+    /// it is E-stable iff T'(a*) = −b/d < 1, which every falling demand and rising supply meet
+    /// (the margin 1 − T'(a*) = 1 + b/d).
+    pub fn e_stability(&self) -> PublishedCondition {
+        let slope = -self.ratio();
+        let (holds, on_boundary) = strict(1.0 - slope);
+        PublishedCondition {
+            name: "T'(a*) = −b/d < 1 (E-stability)".into(),
+            source: "Evans and Honkapohja (2001), Learning and Expectations in Macroeconomics, ch. 2 (E-stability of the cobweb model; from memory); Bray and Savin (1986)"
+                .into(),
+            holds,
+            on_boundary,
+            detail: format!("{}, T'(a*) = {}", self.words(), f(slope)),
+        }
+    }
+
     /// A second-order rule P^e = w1 P_{t−1} + w2 P_{t−2}: Jury's conditions on the characteristic
     /// polynomial z² + (b/d) w1 z + (b/d) w2.
     pub fn second_order(&self, w1: f64, w2: f64) -> PublishedCondition {

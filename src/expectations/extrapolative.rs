@@ -82,4 +82,7 @@ impl ExpectationRule for Extrapolative {
     fn groups(&self) -> Option<&super::Groups> {
         None
     }
+    fn time_varying(&self) -> Option<String> {
+        None
+    }
 }

@@ -90,6 +90,13 @@ pub(crate) fn read_groups(
                 &format!("a rule in short form ({e})"),
             )
         })?;
+        if let Some(why) = spec.rule().time_varying() {
+            return Err(r.bad(
+                "groups",
+                &format!("\"{}\"", crate::input::ranges::escape(item)),
+                &format!("a rule with one map for every season ({why})"),
+            ));
+        }
         if spec.values().groups.is_some() {
             return Err(r.bad(
                 "groups",
@@ -282,6 +289,8 @@ impl Groups {
                 None => member.expect(&ExpectationInput {
                     history,
                     previous: previous[i],
+                    // a group's rule has one map (`read_groups` refuses a time-varying one)
+                    season: 0,
                 }),
             };
             forecasts[i] = e;
@@ -331,6 +340,7 @@ impl Groups {
             x.push(self.members[i].expect(&ExpectationInput {
                 history: &history,
                 previous: Some(p),
+                season: 0,
             }));
         }
         x
@@ -345,6 +355,7 @@ impl Groups {
             x.push(self.members[i].expect(&ExpectationInput {
                 history,
                 previous: None,
+                season: 0,
             }));
         }
         x
@@ -398,6 +409,7 @@ impl Groups {
             out[self.lags + j] = self.members[i].expect(&ExpectationInput {
                 history: &after,
                 previous: Some(state.forecasts[i]),
+                season: 0,
             });
         }
         pbar
@@ -439,6 +451,7 @@ impl ExpectationRule for Groups {
                     m.expect(&ExpectationInput {
                         history: input.history,
                         previous: input.previous,
+                        season: input.season,
                     })
                 };
                 n * e
@@ -463,15 +476,35 @@ impl ExpectationRule for Groups {
     fn conditions(&self, slopes: &super::conditions::Slopes) -> Vec<super::PublishedCondition> {
         super::mixed::conditions(self, slopes)
     }
+    /// In words, each group's rule described by itself: `mixed: 50 % rational, 50 % adaptive
+    /// (weight 0.6)`; `switching between rational (cost 1) and naive (cost 0), intensity 2,
+    /// memory 0.5`.
     fn describe(&self) -> String {
+        let rules: Vec<String> = self.members.iter().map(|m| m.describe()).collect();
         match self.shares {
-            ShareRule::Fixed => format!("mixed ({})", self.listing()),
-            ShareRule::Switching { intensity, memory } => format!(
-                "switching (intensity {}, memory {}; {})",
-                super::g(intensity),
-                super::g(memory),
-                self.listing()
-            ),
+            ShareRule::Fixed => {
+                let parts: Vec<String> = rules
+                    .iter()
+                    .zip(&self.numbers)
+                    .map(|(rule, n)| format!("{} % {rule}", super::g6(100.0 * n)))
+                    .collect();
+                format!("{}: {}", self.name, parts.join(", "))
+            }
+            ShareRule::Switching { intensity, memory } => {
+                let parts: Vec<String> = rules
+                    .iter()
+                    .zip(&self.numbers)
+                    .map(|(rule, cost)| format!("{rule} (cost {})", super::g(*cost)))
+                    .collect();
+                let (last, first) = parts.split_last().map_or(("", &[][..]), |(l, f)| (l, f));
+                format!(
+                    "{} between {} and {last}, intensity {}, memory {}",
+                    self.name,
+                    first.join(", "),
+                    super::g(intensity),
+                    super::g(memory)
+                )
+            }
         }
     }
     fn setting(&self) -> Option<String> {
@@ -487,6 +520,9 @@ impl ExpectationRule for Groups {
     }
     fn groups(&self) -> Option<&Groups> {
         Some(self)
+    }
+    fn time_varying(&self) -> Option<String> {
+        None
     }
 }
 

@@ -111,6 +111,10 @@ pub struct ExpectationInput<'a> {
     pub history: &'a [f64],
     /// The rule's own expectation for period t−1 (`None` in period 1).
     pub previous: Option<f64>,
+    /// The season t the expectation is for (1 in period 1), for a rule whose map changes with the
+    /// season (decreasing-gain learning). The stability map and the long runs pass 0: they refuse
+    /// such a rule ([`ExpectationRule::time_varying`]).
+    pub season: usize,
 }
 
 impl ExpectationInput<'_> {
@@ -169,6 +173,11 @@ pub trait ExpectationRule: Send + Sync + std::fmt::Debug {
     /// The groups, for a rule of farmers in groups (`mixed`, `switching`): the engine and the
     /// stability map plant Σ n_i S(P^e_i) through them. `None` for a single rule.
     fn groups(&self) -> Option<&Groups>;
+    /// `Some(why)` when the rule's map changes from season to season (a gain that falls with
+    /// time), naming the key that makes it so: such a map has no eigenvalue, so the stability
+    /// analysis and the long runs' Lyapunov exponent refuse it with `why`, and it cannot be a
+    /// group's rule. `None` for a rule with one map.
+    fn time_varying(&self) -> Option<String>;
 }
 
 /// A parameter as the descriptions print it.
@@ -194,6 +203,9 @@ pub struct Values {
     len: usize,
     /// The groups of `mixed` and `switching` (interned, so the values stay cheap to copy).
     groups: Option<&'static GroupSet>,
+    /// The one text key a rule may keep besides `groups` (key, one of its allowed words), e.g.
+    /// learning's `gain_schedule = "decreasing"`.
+    word: Option<(&'static str, &'static str)>,
 }
 
 impl Values {
@@ -223,6 +235,22 @@ impl Values {
     /// The groups, for `mixed` and `switching`.
     pub fn groups(&self) -> Option<&'static GroupSet> {
         self.groups
+    }
+
+    /// With the text key `key` set to `word` (one of the words the rule allows for it).
+    pub fn with_word(mut self, key: &'static str, word: &'static str) -> Values {
+        self.word = Some((key, word));
+        self
+    }
+
+    /// The word under the text key `key`, if kept.
+    pub fn word(&self, key: &str) -> Option<&'static str> {
+        self.word.filter(|(k, _)| *k == key).map(|(_, w)| w)
+    }
+
+    /// The kept text key and its word, if any.
+    pub fn word_entry(&self) -> Option<(&'static str, &'static str)> {
+        self.word
     }
 
     /// With `key` = `value` when there is one.
@@ -256,6 +284,7 @@ impl Values {
             .fold(Values::new(), |v, (k, x)| v.with(k, x));
         Values {
             groups: self.groups,
+            word: self.word.filter(|(k, _)| !keys.contains(k)),
             ..kept
         }
     }
@@ -326,6 +355,30 @@ impl Reader<'_> {
             .map(str::to_string)
     }
 
+    /// The word under the text key `key`, one of `allowed` (the first is what an absent key
+    /// means); `None` when absent, an error naming the key, the value and the allowed words
+    /// otherwise.
+    pub fn word(
+        &self,
+        key: &str,
+        allowed: &'static [&'static str],
+    ) -> Result<Option<&'static str>, InputError> {
+        let Some(text) = self.text(key) else {
+            return Ok(None);
+        };
+        match allowed.iter().find(|w| **w == text) {
+            Some(w) => Ok(Some(w)),
+            None => {
+                let words: Vec<String> = allowed.iter().map(|w| format!("\"{w}\"")).collect();
+                Err(self.bad(
+                    key,
+                    &format!("\"{}\"", escape(&text)),
+                    &format!("one of {}", words.join(", ")),
+                ))
+            }
+        }
+    }
+
     /// The numbers of the array under `key` (a single number counts as an array of one; NaN for
     /// an entry that is not a number, so that the caller's range check refuses it); `None` when
     /// absent.
@@ -373,6 +426,12 @@ impl ExpectationSpec {
     /// The rule (the engine's, stability's and the descriptions' one source).
     pub fn rule(&self) -> Box<dyn ExpectationRule> {
         (self.registration.build)(&self.values)
+    }
+
+    /// The rule with its parameters in words (its own `ExpectationRule::describe`): the one
+    /// description `check`, `compare` and the briefing print.
+    pub fn description(&self) -> String {
+        self.rule().describe()
     }
 
     /// True when the model solves the rule's expectation itself (the storage model needs it).
@@ -446,8 +505,22 @@ impl ExpectationSpec {
         for (i, part) in parts.enumerate() {
             match part.split_once('=') {
                 Some((key, value)) => {
-                    let Some(v) = value_of(value) else {
-                        return Err(bad(part, "KEY=VALUE with a number, e.g. window=3"));
+                    let word = value.trim();
+                    let is_word = !word.is_empty()
+                        && word
+                            .chars()
+                            .all(|c| c.is_ascii_alphabetic() || c == '-' || c == '_');
+                    let v = if is_word {
+                        // a word for a text key (e.g. gain_schedule=decreasing)
+                        toml::Value::String(word.to_string())
+                    } else {
+                        let Some(v) = value_of(value) else {
+                            return Err(bad(
+                                part,
+                                "KEY=VALUE with a number or a word, e.g. window=3",
+                            ));
+                        };
+                        v
                     };
                     explicit.insert(key.trim().to_string(), v);
                 }
@@ -502,6 +575,9 @@ impl ExpectationSpec {
             };
             t.insert(k.into(), value);
         }
+        if let Some((k, w)) = self.values.word {
+            t.insert(k.into(), toml::Value::String(w.into()));
+        }
         if let Some(set) = self.values.groups {
             t.insert("groups".into(), toml::Value::String(set.text()));
             t.insert(
@@ -522,6 +598,9 @@ impl ExpectationSpec {
             } else {
                 out.push_str(&format!(":{k}={v:?}"));
             }
+        }
+        if let Some((k, w)) = self.values.word {
+            out.push_str(&format!(":{k}={w}"));
         }
         out
     }
@@ -556,6 +635,9 @@ impl std::fmt::Debug for ExpectationSpec {
         for (k, v) in self.values.iter() {
             d.field(k, &v);
         }
+        if let Some((k, w)) = self.values.word {
+            d.field(k, &w);
+        }
         if let Some(set) = self.values.groups {
             d.field("groups", &set.text());
             d.field(set.key, &set.numbers);
@@ -567,7 +649,8 @@ impl std::fmt::Debug for ExpectationSpec {
 impl Serialize for ExpectationSpec {
     fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
         use serde::ser::SerializeMap;
-        let extra = if self.values.groups.is_some() { 2 } else { 0 };
+        let extra = if self.values.groups.is_some() { 2 } else { 0 }
+            + usize::from(self.values.word.is_some());
         let mut m = s.serialize_map(Some(1 + self.values.len + extra))?;
         m.serialize_entry("rule", self.registration.name)?;
         for (k, v) in self.values.iter() {
@@ -577,6 +660,9 @@ impl Serialize for ExpectationSpec {
             } else {
                 m.serialize_entry(k, &v)?;
             }
+        }
+        if let Some((k, w)) = self.values.word {
+            m.serialize_entry(k, w)?;
         }
         if let Some(set) = self.values.groups {
             m.serialize_entry("groups", &set.text())?;

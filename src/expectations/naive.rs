@@ -66,4 +66,7 @@ impl ExpectationRule for Naive {
     fn groups(&self) -> Option<&super::Groups> {
         None
     }
+    fn time_varying(&self) -> Option<String> {
+        None
+    }
 }

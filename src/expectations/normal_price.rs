@@ -158,4 +158,7 @@ impl ExpectationRule for NormalPriceRule {
     fn groups(&self) -> Option<&super::Groups> {
         None
     }
+    fn time_varying(&self) -> Option<String> {
+        None
+    }
 }

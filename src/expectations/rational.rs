@@ -72,4 +72,7 @@ impl ExpectationRule for Rational {
     fn groups(&self) -> Option<&super::Groups> {
         None
     }
+    fn time_varying(&self) -> Option<String> {
+        None
+    }
 }

@@ -96,4 +96,7 @@ impl ExpectationRule for TrailingMean {
     fn groups(&self) -> Option<&super::Groups> {
         None
     }
+    fn time_varying(&self) -> Option<String> {
+        None
+    }
 }

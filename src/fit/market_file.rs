@@ -138,7 +138,42 @@ fn refuse(message: String) -> FitError {
     FitError::Market { message }
 }
 
+/// The first line of the block of the keys' standard errors; each key follows on its own line as
+/// `#   KEY = STANDARD_ERROR` (`sensitivity --range KEY=fit` reads them).
+pub const STANDARD_ERRORS_HEADER: &str = "# standard errors of the keys below";
+
 impl FitReport {
+    /// The classical standard error of each key written as an estimate: the price coefficient of
+    /// each curve (linear: `slope`, times the trend yield for a supply of area × yield, the yield
+    /// taken as known; log: `elasticity`). The long-run slope δ/(1 − θ) of partial adjustment gets
+    /// none (it would need the covariance of δ and θ); nor do intercepts with shifters held.
+    fn standard_error_comments(&self, o: &mut String, theta: f64, area_factor: f64) {
+        let (d, s) = (&self.demand, &self.supply);
+        let mut rows: Vec<(&str, f64)> = Vec::new();
+        match self.form {
+            FitForm::Linear => {
+                rows.push(("demand.slope", d.terms[1].std_error));
+                if theta == 0.0 {
+                    rows.push(("supply.slope", s.terms[1].std_error * area_factor));
+                }
+            }
+            FitForm::Log => {
+                rows.push(("demand.elasticity", d.terms[1].std_error));
+                rows.push(("supply.elasticity", s.terms[1].std_error));
+            }
+        }
+        rows.retain(|(_, se)| se.is_finite() && *se > 0.0);
+        if rows.is_empty() {
+            return;
+        }
+        o.push_str(&format!(
+            "#\n{STANDARD_ERRORS_HEADER} (classical; `sensitivity --range KEY=fit` takes the value ± two of them):\n"
+        ));
+        for (key, se) in rows {
+            o.push_str(&format!("#   {key} = {}\n", fmt_full(se)));
+        }
+    }
+
     /// The market file text (valid TOML), or an error when the estimates cannot make a valid market
     /// (a demand curve that does not slope down, a supply curve that does not slope up, a linear demand
     /// curve with no positive quantity, a partial-adjustment θ outside (0, 1)).
@@ -279,6 +314,7 @@ impl FitReport {
                 ));
             }
         }
+        self.standard_error_comments(&mut o, theta, area_factor);
         o.push_str("#\n");
 
         o.push_str("[market]\n");

@@ -376,6 +376,14 @@ pub fn market_from_table(file: &str, table: toml::Table) -> Result<Scenario, Inp
                          window of 2, \"trailing-mean\" with window 1 or 2",
                     ));
                 }
+                if rule.time_varying().is_some() {
+                    return Err(c.bad(
+                        "expectations.gain_schedule",
+                        "\"decreasing\"",
+                        "a market with [storers] takes farmers whose forecast rule is the same every \
+                         season (the storage equilibrium is stationary): \"constant\"",
+                    ));
+                }
                 if market.plants_on == PlantsOn::Revenue {
                     return Err(c.bad(
                         "supply.plants_on",

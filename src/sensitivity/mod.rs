@@ -9,7 +9,8 @@
 //! - the **forecast-error decomposition**: for each rule, the market left alone under rational
 //!   expectations against the market left alone under the rule (what better forecasts alone would
 //!   be worth), beside each policy's effect;
-//! - the **tornado** (`tornado.rs`): one file key at a time at its low and high value, the others
+//! - the **tornado** (`tornado.rs`): one file key at a time at its low and high value (or, in a
+//!   market file `fit` wrote, its value ± two recorded standard errors: `fit_range.rs`), the others
 //!   at base (keys routed to the market or policy file as `sweep --vary` routes them), the
 //!   indicator at each end and the swing, sorted by swing.
 //!
@@ -17,11 +18,13 @@
 //! here names an expectation rule (the rational one is found by asking `is_rational`).
 
 pub mod annex;
+pub mod fit_range;
 mod render;
 mod tornado;
 
 use serde::Serialize;
 
+pub use fit_range::read_range;
 pub use render::{figures, render};
 pub use tornado::{parse_range, Range, TornadoBar};
 

@@ -325,6 +325,20 @@ pub fn analyse_setup(setup: &Setup, unit: &str) -> Result<StabilityAnalysis, Sta
     let d = -setup.demand.slope_at(p_free);
     let rule = setup.rule.rule();
     let conditions = rule.conditions(&conditions::Slopes { b, d });
+    if let Some(why) = rule.time_varying() {
+        // no eigenvalue: the limiting map's condition (E-stability) is said in words
+        let limit: Vec<String> = conditions
+            .iter()
+            .map(|c| format!("{} {} ({}; {})", c.name, c.status(), c.detail, c.source))
+            .collect();
+        return Err(StabilityError::Linearisation {
+            regime: "free market".into(),
+            reason: format!(
+                "{why}; as the gain goes to 0 the path follows the limiting map, whose condition is: {}",
+                limit.join("; ")
+            ),
+        });
+    }
     let note = rule.settles_at_once().map(str::to_string);
     let trade = trade_cases.map(|t| {
         trade_analysis(

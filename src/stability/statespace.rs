@@ -175,6 +175,7 @@ impl<'a> StateMap<'a> {
         self.rule.expect(&ExpectationInput {
             history: &history,
             previous: Some(p),
+            season: 0,
         })
     }
 
@@ -235,6 +236,7 @@ impl<'a> StateMap<'a> {
                 let e = self.rule.expect(&ExpectationInput {
                     history: &history,
                     previous: None,
+                    season: 0,
                 });
                 let p = price(self.plant(e));
                 out[0] = p;
@@ -247,6 +249,7 @@ impl<'a> StateMap<'a> {
                 out[0] = self.rule.expect(&ExpectationInput {
                     history: &history,
                     previous: Some(pe),
+                    season: 0,
                 });
             }
             StateLayout::Groups(_) => {

@@ -86,6 +86,7 @@ impl Farmers {
             rule.expect(&ExpectationInput {
                 history: h,
                 previous,
+                season: 0,
             })
         };
         match (rule.layout(), rule.lags()) {

@@ -88,6 +88,7 @@ impl EngineMap<'_> {
                 let e = self.model.rule.expect(&ExpectationInput {
                     history: &history,
                     previous: None,
+                    season: 0,
                 });
                 let c = self.model.clear(plant(e), &PeriodShock::NONE, carried);
                 out[0] = c.producer_price;
@@ -100,6 +101,7 @@ impl EngineMap<'_> {
                 out[0] = self.model.rule.expect(&ExpectationInput {
                     history: &history,
                     previous: Some(x[0]),
+                    season: 0,
                 });
                 c.stock
             }
@@ -128,6 +130,7 @@ fn initial_state(model: &Model, layout: &StateLayout, dim: usize) -> Vec<f64> {
         StateLayout::Expectation(_) => vec![model.rule.expect(&ExpectationInput {
             history: h,
             previous: None,
+            season: 0,
         })],
         StateLayout::Lags(_) => (0..dim).map(|i| h[h.len() - 1 - i]).collect(),
         StateLayout::Groups(_) => model
@@ -152,6 +155,10 @@ pub fn lyapunov(scenario: &Scenario, policy: &PolicySpec, periods: usize) -> (Op
         .is_some_and(|g| matches!(g.shares, crate::expectations::ShareRule::Switching { .. }))
     {
         // the shares move with the squared errors, which the state map holds at rest
+        return (None, Orbit::Ok);
+    }
+    if rule.time_varying().is_some() {
+        // a gain that falls every season: no one map whose exponent could be estimated
         return (None, Orbit::Ok);
     }
     let model = Model::new(scenario, policy);
