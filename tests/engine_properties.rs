@@ -6,7 +6,6 @@ use common::{linear_market, policy};
 use furrow::engine::{Model, PeriodShock};
 use furrow::policies::PolicySpec;
 use proptest::prelude::*;
-use proptest::test_runner::{FileFailurePersistence, RngAlgorithm, RngSeed};
 
 /// The seed of every property test here: fixed, so a run (in CI or anywhere) draws the same cases and
 /// cannot fail by chance. `PROPTEST_RNG_SEED=N` explores other cases locally; failures found that way
@@ -15,19 +14,7 @@ use proptest::test_runner::{FileFailurePersistence, RngAlgorithm, RngSeed};
 const PROPTEST_SEED: u64 = 0x00f0_2202_6120_0012;
 
 fn config(cases: u32) -> ProptestConfig {
-    let seed = std::env::var("PROPTEST_RNG_SEED")
-        .ok()
-        .and_then(|s| s.parse::<u64>().ok())
-        .unwrap_or(PROPTEST_SEED);
-    ProptestConfig {
-        cases,
-        rng_algorithm: RngAlgorithm::ChaCha,
-        rng_seed: RngSeed::Fixed(seed),
-        failure_persistence: Some(Box::new(FileFailurePersistence::WithSource(
-            "proptest-regressions",
-        ))),
-        ..ProptestConfig::default()
-    }
+    common::proptest_config(PROPTEST_SEED, cases)
 }
 
 /// Random valid linear markets: demand intercept, demand slope, supply slope and a P0 near P*.

@@ -5,26 +5,15 @@
 //! with one more state (adaptive, learning, two-lag rules) make it two states: availability and
 //! the farmers' memory (tests/storage_farmers_memory.rs).
 
+mod common;
+
+use common::storers::{demo, private, EXAMPLE};
 use furrow::engine::Model;
 use furrow::policies::file::policy_from_table;
 use furrow::policies::PolicySpec;
-use furrow::scenario::{apply_override, market_from_table, parse_toml, Scenario};
+use furrow::scenario::{market_from_table, parse_toml};
 use furrow::stochastic::ShockStream;
-use furrow::storage::{self, Equilibrium, SolveOptions, SolvedStorage, StorageError};
-
-const EXAMPLE: &str = "examples/veldmark_storers.toml";
-
-/// The demo with `rule` (an `[expectations]` body) and `overrides`.
-fn demo(rule: &str, overrides: &[(&str, toml::Value)]) -> Scenario {
-    let text = std::fs::read_to_string(EXAMPLE)
-        .unwrap()
-        .replace("rule = \"rational\"", rule);
-    let mut table = parse_toml(EXAMPLE, &text).unwrap();
-    for (k, v) in overrides {
-        apply_override(&mut table, k, v.clone()).unwrap();
-    }
-    market_from_table(EXAMPLE, table).unwrap()
-}
+use furrow::storage::{self, SolveOptions, SolvedStorage, StorageError};
 
 const BACKWARD: [&str; 3] = [
     "rule = \"naive\"",
@@ -32,49 +21,9 @@ const BACKWARD: [&str; 3] = [
     "rule = \"trailing-mean\"\nwindow = 1",
 ];
 
-fn private(s: &Scenario) -> storage::PrivateSolution {
-    match storage::solve(s, &PolicySpec::none(), &SolveOptions::default()).unwrap() {
-        Equilibrium::Private(p) => p,
-        Equilibrium::Public(_) => panic!("no public stock expected"),
-    }
-}
-
 #[test]
 fn with_prohibitive_storage_cost_the_storers_market_is_the_storer_free_engine() {
-    // Nobody stores when k exceeds any attainable discounted price (Gustafson 1958's no-carryover
-    // case): the market is then the period engine's cobweb under the same farmers' rule, season by
-    // season on the same shocks (an identity of the model, derived in the test).
-    for rule in BACKWARD {
-        let s = demo(
-            rule,
-            &[
-                ("storers.storage_cost", toml::Value::Float(1e5)),
-                ("run.initial_price", toml::Value::Float(190.0)),
-            ],
-        );
-        let periods = 60;
-        let solved = SolvedStorage::new(&s, &PolicySpec::none()).unwrap();
-        let stored = solved.records(0, periods);
-        let mut stream = ShockStream::new(&s.shocks, s.run.seed, 0);
-        let engine = Model::new(&s, &PolicySpec::none())
-            .run(periods, |_| stream.next_shock())
-            .unwrap();
-        for (a, b) in stored.iter().zip(&engine) {
-            for (name, x, y) in [
-                ("expected_price", a.expected_price, b.expected_price),
-                ("planted", a.planted, b.planted),
-                ("harvest", a.harvest, b.harvest),
-                ("price", a.price, b.price),
-                ("consumption", a.consumption, b.consumption),
-            ] {
-                assert!(
-                    (x - y).abs() <= 1e-12 * y.abs().max(1.0),
-                    "{rule}: period {}: {name} {x} against {y}",
-                    a.period
-                );
-            }
-        }
-    }
+    common::storers::assert_prohibitive_cost_gives_the_engine(&BACKWARD, 1e-12);
 }
 
 #[test]

@@ -4,29 +4,17 @@
 //! how farmers plant. The equilibrium state is (availability, the farmers' memory: their last
 //! expectation or the price before the last).
 
+mod common;
+
+use common::storers::{demo, private, EXAMPLE};
 use furrow::engine::Model;
 use furrow::policies::file::policy_from_table;
 use furrow::policies::PolicySpec;
-use furrow::scenario::{apply_override, market_from_table, parse_toml, Scenario};
+use furrow::scenario::{market_from_table, parse_toml};
 use furrow::stochastic::ShockStream;
-use furrow::storage::{
-    self, farmers, Equilibrium, SolveOptions, SolvedStorage, StorageError, StorageMarket,
-};
+use furrow::storage::{self, farmers, SolveOptions, SolvedStorage, StorageError, StorageMarket};
 
-const EXAMPLE: &str = "examples/veldmark_storers.toml";
 const DEMO: &str = "examples/veldmark_storers_adaptive.toml";
-
-/// The storers demo with `rule` (an `[expectations]` body) and `overrides`.
-fn demo(rule: &str, overrides: &[(&str, toml::Value)]) -> Scenario {
-    let text = std::fs::read_to_string(EXAMPLE)
-        .unwrap()
-        .replace("rule = \"rational\"", rule);
-    let mut table = parse_toml(EXAMPLE, &text).unwrap();
-    for (k, v) in overrides {
-        apply_override(&mut table, k, v.clone()).unwrap();
-    }
-    market_from_table(EXAMPLE, table).unwrap()
-}
 
 /// Every rule with a memory the storage model admits.
 const MEMORY_RULES: [&str; 6] = [
@@ -38,53 +26,9 @@ const MEMORY_RULES: [&str; 6] = [
     "rule = \"normal-price\"\nweight = 0.5\nwindow = 2",
 ];
 
-fn private(s: &Scenario) -> storage::PrivateSolution {
-    match storage::solve(s, &PolicySpec::none(), &SolveOptions::default()).unwrap() {
-        Equilibrium::Private(p) => p,
-        Equilibrium::Public(_) => panic!("no public stock expected"),
-    }
-}
-
 #[test]
 fn with_prohibitive_storage_cost_the_storers_market_is_the_storer_free_engine() {
-    // Nobody stores when k exceeds any attainable discounted price (Gustafson 1958's no-carryover
-    // case): the market is then the period engine's cobweb under the same farmers' rule, season by
-    // season on the same shocks (an identity of the model). The engine forms the expectation with
-    // the rule's own code; the storage path with the weights asked of it.
-    for rule in MEMORY_RULES {
-        let s = demo(
-            rule,
-            &[
-                ("storers.storage_cost", toml::Value::Float(1e5)),
-                ("run.initial_price", toml::Value::Float(190.0)),
-            ],
-        );
-        let periods = 60;
-        let solved = SolvedStorage::new(&s, &PolicySpec::none()).unwrap();
-        let stored = solved.records(0, periods);
-        let mut stream = ShockStream::new(&s.shocks, s.run.seed, 0);
-        let engine = Model::new(&s, &PolicySpec::none())
-            .run(periods, |_| stream.next_shock())
-            .unwrap();
-        assert_eq!(stored.len(), engine.len());
-        for (a, b) in stored.iter().zip(&engine) {
-            for (name, x, y) in [
-                ("expected_price", a.expected_price, b.expected_price),
-                ("planted", a.planted, b.planted),
-                ("harvest", a.harvest, b.harvest),
-                ("price", a.price, b.price),
-                ("consumption", a.consumption, b.consumption),
-            ] {
-                assert!(
-                    (x - y).abs() <= 1e-10 * y.abs().max(1.0),
-                    "{rule}: period {}: {name} {x} against {y}",
-                    a.period
-                );
-            }
-        }
-        let path = solved.path(0, periods);
-        assert!(path.iter().all(|r| r.private_stock == 0.0), "{rule}");
-    }
+    common::storers::assert_prohibitive_cost_gives_the_engine(&MEMORY_RULES, 1e-10);
 }
 
 /// Linear curves of the demo at 480 kt and 210 crowns: demand Q = a + bP, supply Q = c + dP.

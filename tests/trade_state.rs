@@ -4,6 +4,8 @@
 //! the kinked curve of private trade (import parity P_m = W + import_cost; the agency pays the
 //! landed price W + import_cost, no duty).
 
+mod common;
+
 use furrow::engine::{Model, PeriodRecord, PeriodShock};
 use furrow::policies::file::{policy_for_market, policy_from_table};
 use furrow::policies::PolicySpec;
@@ -11,25 +13,12 @@ use furrow::scenario::{market_from_table, parse_toml, Scenario};
 use furrow::stochastic::ShockStream;
 use furrow::storage::{self, SolveOptions};
 use proptest::prelude::*;
-use proptest::test_runner::{FileFailurePersistence, RngAlgorithm, RngSeed};
 
 /// The property tests' fixed seed (the same cases on every run; `PROPTEST_RNG_SEED=N` explores).
 const PROPTEST_SEED: u64 = 0x5747_e7ad_1e00_0016;
 
 fn config(cases: u32) -> ProptestConfig {
-    let seed = std::env::var("PROPTEST_RNG_SEED")
-        .ok()
-        .and_then(|s| s.parse::<u64>().ok())
-        .unwrap_or(PROPTEST_SEED);
-    ProptestConfig {
-        cases,
-        rng_algorithm: RngAlgorithm::ChaCha,
-        rng_seed: RngSeed::Fixed(seed),
-        failure_persistence: Some(Box::new(FileFailurePersistence::WithSource(
-            "proptest-regressions",
-        ))),
-        ..ProptestConfig::default()
-    }
+    common::proptest_config(PROPTEST_SEED, cases)
 }
 
 fn market(text: &str) -> Scenario {

@@ -65,3 +65,24 @@ pub fn phi(x: f64) -> f64 {
         0.5 * erfc
     }
 }
+
+/// Property tests' settings: `cases` cases from a fixed `seed` (the same cases on every run;
+/// `PROPTEST_RNG_SEED=N` explores others), failures saved beside the test file.
+pub fn proptest_config(seed: u64, cases: u32) -> proptest::test_runner::Config {
+    use proptest::test_runner::{Config, FileFailurePersistence, RngAlgorithm, RngSeed};
+    let seed = std::env::var("PROPTEST_RNG_SEED")
+        .ok()
+        .and_then(|s| s.parse::<u64>().ok())
+        .unwrap_or(seed);
+    Config {
+        cases,
+        rng_algorithm: RngAlgorithm::ChaCha,
+        rng_seed: RngSeed::Fixed(seed),
+        failure_persistence: Some(Box::new(FileFailurePersistence::WithSource(
+            "proptest-regressions",
+        ))),
+        ..Config::default()
+    }
+}
+
+pub mod storers;
