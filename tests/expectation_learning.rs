@@ -144,7 +144,7 @@ fn a_falling_gain_is_refused_where_no_model_covers_it_naming_the_key() {
     .unwrap_err()
     .to_string();
     assert!(e.contains("gain_schedule") && e.contains("groups"), "{e}");
-    // the storage model plants on a rule of the last price alone or looks ahead
+    // the storage equilibrium is stationary: farmers beside storers keep one map
     let e = scenario::market_from_str(
         "m.toml",
         "[demand]\nintercept = 100.0\nslope = -0.5\n[supply]\nintercept = 10.0\nslope = 0.15\n\
@@ -153,7 +153,10 @@ fn a_falling_gain_is_refused_where_no_model_covers_it_naming_the_key() {
     )
     .unwrap_err()
     .to_string();
-    assert!(e.contains("\"learning\"") && e.contains("[storers]"), "{e}");
+    assert!(
+        e.contains("expectations.gain_schedule") && e.contains("[storers]"),
+        "{e}"
+    );
     // an unknown schedule names the key, the value and the words allowed
     let e = scenario::market_from_str(
         "m.toml",
