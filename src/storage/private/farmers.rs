@@ -7,7 +7,9 @@
 //! Method (docs/storage.md, "Farmers who look back"): for each memory m_l of a grid (levels) and
 //! each end-of-period private stock x_j, today's price P solves the storers' arbitrage condition
 //!
-//!     P + k = β·E[P'(keep·x_j + S(P^e')·Y + ε, m')],   P^e' = F(P, m_l),   m' = M(P, P^e'),
+//! ```text
+//! P + k = β·E[P'(keep·x_j + S(P^e')·Y + ε, m')],   P^e' = F(P, m_l),   m' = M(P, P^e'),
+//! ```
 //!
 //! with F the farmers' rule (its weights asked of the rule, [`Farmers`]) and M what it remembers.
 //! Given P, next season's planting and memory are known, so the expectation is the one-dimensional
