@@ -147,17 +147,8 @@ fn the_storage_verb_solves_the_naive_demo() {
     let dir = tempfile::tempdir().unwrap();
     let market = dir.path().join("naive.toml");
     std::fs::write(&market, text).unwrap();
-    let out = assert_cmd::Command::cargo_bin("furrow")
-        .unwrap()
-        .args(["storage", market.to_str().unwrap(), "--format", "json"])
-        .output()
-        .unwrap();
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let out = common::stdout_of(["storage", market.to_str().unwrap(), "--format", "json"]);
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
     assert!(v["euler_residual_max"].as_f64().unwrap() < 1e-6);
     assert!(v["stockout_price"].as_f64().unwrap() > 0.0);
 }

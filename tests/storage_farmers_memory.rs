@@ -252,29 +252,11 @@ fn what_the_two_state_model_does_not_cover_is_refused_by_name() {
 fn storage_and_compare_run_on_the_adaptive_demo() {
     // end to end: `storage` solves it (exit 0, the residual under the limit, the farmers'
     // expectation printed with every row), `compare` runs on it
-    let out = assert_cmd::Command::cargo_bin("furrow")
-        .unwrap()
-        .args(["storage", DEMO, "--format", "json"])
-        .output()
-        .unwrap();
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let out = common::stdout_of(["storage", DEMO, "--format", "json"]);
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
     assert!(v["euler_residual_max"].as_f64().unwrap() < 1e-6);
     assert_eq!(v["extrapolated_share"].as_f64().unwrap(), 0.0);
     let grid = v["grid"].as_array().unwrap();
     assert!(grid.iter().all(|r| r["expected_price"].as_f64().is_some()));
-    let out = assert_cmd::Command::cargo_bin("furrow")
-        .unwrap()
-        .args(["compare", DEMO, "policies/none.toml", "--format", "json"])
-        .output()
-        .unwrap();
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    common::stdout_of(["compare", DEMO, "policies/none.toml", "--format", "json"]);
 }
