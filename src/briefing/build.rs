@@ -229,7 +229,7 @@ pub fn build_with_households(
     let scale = tables::money_scale(r);
     let mut market = Section::new("Annex A: the market and every setting");
     market.paragraph(format!(
-        "{} (market file {}): steady state {} {} at {} {}. Farmers plant on the price they expect (rule: {}); {} seasons are simulated{}.",
+        "{} (market file {}): steady state {} {} at {} {}. Farmers plant on the price they expect, formed by the rule {}; {} seasons are simulated{}.",
         m.name,
         req.market_path,
         group(s.steady.quantity, 1),
