@@ -93,6 +93,40 @@ fn steps(c: &mut Criterion) {
             acc
         })
     });
+
+    // the step alone, five models of one replication in lockstep on the same 100 shocks (the
+    // `compare` job's columns: the market left alone, band, purchase floor, deficiency payment,
+    // band with target release)
+    let models: Vec<Model> = policies().iter().map(|p| Model::new(&s, p)).collect();
+    g.throughput(Throughput::Elements(100 * models.len() as u64));
+    g.bench_function("5_policies_lockstep_100_steps", |b| {
+        b.iter(|| {
+            let mut sims: Vec<_> = models.iter().map(|m| m.simulator()).collect();
+            let mut acc = 0.0;
+            for sh in &shocks {
+                for sim in &mut sims {
+                    acc += sim.step(sh).unwrap().price;
+                }
+            }
+            acc
+        })
+    });
+
+    // one replication's draw: the stream set up and 100 periods of shocks (three normals each)
+    g.throughput(Throughput::Elements(100));
+    g.bench_function("draw_100_shocks", |b| {
+        let mut rep = 0u64;
+        b.iter(|| {
+            rep += 1;
+            let mut stream = ShockStream::new(&s.shocks, 2026, rep);
+            let mut acc = 0.0;
+            for _ in 0..100 {
+                let x = stream.next_shock();
+                acc += x.yield_factor + x.demand;
+            }
+            acc
+        })
+    });
     g.finish();
 
     let mut one = s.clone();
