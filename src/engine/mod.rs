@@ -19,7 +19,7 @@ pub use record::{PeriodRecord, Settled, TradeRecord};
 use crate::curves::Curve;
 use crate::expectations::{self, ExpectationInput, ExpectationRule};
 use crate::policies::PolicySpec;
-use crate::policies::{self, Clearing, Direct, Policy, PolicyRule};
+use crate::policies::{self, Clearing, Policy};
 use crate::scenario::{Scenario, ShockSpec};
 use crate::trade::{BorderMeasures, Trade, Traded};
 
@@ -80,9 +80,8 @@ pub struct Model {
     is_rational: bool,
     /// Some rule sets the producer price or pays producers or consumers (looked up once).
     has_payments: bool,
-    /// How the step calls the policy's actions: a single action by value (statically dispatched,
-    /// see [`Direct`]), none at all, or the list through its trait objects.
-    acting: Acting,
+    /// The policy's only rule when it is a plain band (called directly, not through the trait).
+    band_only: Option<policies::BandStock>,
     /// A price above this with no stock left is a stock-out: `sell_above·(1 + 1e-12)`, or +∞ when
     /// the policy has no upper band edge (computed once).
     stockout_above: f64,
@@ -108,10 +107,9 @@ impl Model {
         let has_payments = compiled.rules.iter().any(|r| r.pays());
         let is_rational = rule.is_rational();
         let adaptive = rule.as_adaptive();
-        let acting = match compiled.rules.as_slice() {
-            [] => Acting::Nothing,
-            [only] => only.direct().map_or(Acting::Listed, Acting::One),
-            _ => Acting::Listed,
+        let band_only = match compiled.rules.as_slice() {
+            [only] => only.as_band(),
+            _ => None,
         };
         let stockout_above = compiled
             .sell_above
@@ -147,7 +145,7 @@ impl Model {
             planting_floor: compiled_floor,
             is_rational,
             has_payments,
-            acting,
+            band_only,
             stockout_above,
             adaptive,
             revenue: scenario.market.plants_on == crate::scenario::PlantsOn::Revenue,
@@ -174,57 +172,41 @@ impl Model {
     /// Clears one period: planting on `planting_price`, with agency stock `carried` (after losses).
     #[inline(always)]
     pub(crate) fn clear(&self, planting_price: f64, shock: &PeriodShock, carried: f64) -> Cleared {
-        match self.acting {
-            Acting::One(Direct::Band(ref r)) => self.clear_with(r, planting_price, shock, carried),
-            Acting::One(Direct::Target(ref r)) => {
-                self.clear_with(r, planting_price, shock, carried)
-            }
-            Acting::One(Direct::Floor(ref r)) => self.clear_with(r, planting_price, shock, carried),
-            Acting::One(Direct::Deficiency(ref r)) => {
-                self.clear_with(r, planting_price, shock, carried)
-            }
-            Acting::Nothing => self.clear_with(&NoActions, planting_price, shock, carried),
-            Acting::Listed => {
-                self.clear_with(self.policy.rules.as_slice(), planting_price, shock, carried)
-            }
-        }
-    }
-
-    /// [`Model::clear`] with the policy's actions `acts` (the policy's own, however dispatched).
-    #[inline(always)]
-    fn clear_with<A: Actions + ?Sized>(
-        &self,
-        acts: &A,
-        planting_price: f64,
-        shock: &PeriodShock,
-        carried: f64,
-    ) -> Cleared {
         let planted = self.supply.quantity(planting_price);
         let harvest = (planted * shock.yield_factor + shock.supply).max(0.0);
         let agency = &self.policy.agency;
         if let Some(trade) = &self.trade {
-            return self.clear_open(acts, trade, planted, harvest, shock, carried);
+            return self.clear_open(trade, planted, harvest, shock, carried);
         }
-        // its own market value, which no trait object sees when the action is called directly, so
-        // the optimiser keeps it in registers and folds the zero trades it starts with
-        let mut m = Clearing::new(
-            &self.demand,
-            shock.demand,
-            harvest,
-            carried,
-            agency.capacity,
-            agency.purchase_budget,
-        );
-        acts.trade(&mut m);
-        self.settle(acts, planted, harvest, &m)
+        let market = || {
+            Clearing::new(
+                &self.demand,
+                shock.demand,
+                harvest,
+                carried,
+                agency.capacity,
+                agency.purchase_budget,
+            )
+        };
+        if let Some(band) = &self.band_only {
+            // its own market value, which no trait object sees, so the optimiser keeps it in
+            // registers and folds the zero trades it starts with
+            let mut m = market();
+            band.defend(&mut m);
+            return self.settle(planted, harvest, &m);
+        }
+        let mut m = market();
+        for rule in &self.policy.rules {
+            rule.trade(&mut m);
+        }
+        self.settle(planted, harvest, &m)
     }
 
     /// [`Model::clear`] on a market that trades: the period's border terms at its world price, the
     /// rules trading on the kinked curve, then private trade.
     #[inline(never)]
-    fn clear_open<A: Actions + ?Sized>(
+    fn clear_open(
         &self,
-        acts: &A,
         trade: &Trade,
         planted: f64,
         harvest: f64,
@@ -243,9 +225,11 @@ impl Model {
             agency.purchase_budget,
         )
         .with_border(terms);
-        acts.trade(&mut m);
+        for rule in &self.policy.rules {
+            rule.trade(&mut m);
+        }
         let traded = m.traded();
-        let mut c = self.settle_at(acts, planted, harvest, &m, traded.price);
+        let mut c = self.settle_at(planted, harvest, &m, traded.price);
         c.trade = Some(TradeRecord {
             world_price: world,
             imports: traded.imports,
@@ -263,33 +247,33 @@ impl Model {
         c
     }
 
+    /// The treasury's payments to consumers at market price `price` and consumption `consumption`.
+    #[inline]
+    fn consumer_payments(&self, price: f64, consumption: f64) -> f64 {
+        let mut paid = 0.0;
+        for rule in &self.policy.rules {
+            paid += rule.consumer_payment(price, consumption);
+        }
+        paid
+    }
+
     /// The cleared period once the rules have traded on `m`: the price, then the payment rules.
     #[inline(always)]
-    fn settle<A: Actions + ?Sized>(
-        &self,
-        acts: &A,
-        planted: f64,
-        harvest: f64,
-        m: &Clearing,
-    ) -> Cleared {
-        self.settle_at(acts, planted, harvest, m, m.price())
+    fn settle(&self, planted: f64, harvest: f64, m: &Clearing) -> Cleared {
+        self.settle_at(planted, harvest, m, m.price())
     }
 
     /// [`Model::settle`] at the period's clearing price `price`.
     #[inline(always)]
-    fn settle_at<A: Actions + ?Sized>(
-        &self,
-        acts: &A,
-        planted: f64,
-        harvest: f64,
-        m: &Clearing,
-        price: f64,
-    ) -> Cleared {
-        let (producer_price, deficiency) = if self.has_payments {
-            acts.settle(price, harvest)
-        } else {
-            (price, 0.0)
-        };
+    fn settle_at(&self, planted: f64, harvest: f64, m: &Clearing, price: f64) -> Cleared {
+        let mut producer_price = price;
+        let mut deficiency = 0.0;
+        if self.has_payments {
+            for rule in &self.policy.rules {
+                producer_price = rule.producer_price(producer_price);
+                deficiency += rule.payment(price, harvest);
+            }
+        }
         Cleared {
             planted,
             harvest,
@@ -307,99 +291,6 @@ impl Model {
                 exports: 0.0,
             },
         }
-    }
-}
-
-/// How a model's period step calls its policy's actions (decided once, in [`Model::new`]).
-#[derive(Debug, Clone, Copy)]
-enum Acting {
-    /// The policy has no action (the market left alone).
-    Nothing,
-    /// The policy's only action, by value: the step is specialised to its type.
-    One(Direct),
-    /// Every other policy: its actions in acting order, through their trait objects.
-    Listed,
-}
-
-/// A policy's actions as the period step calls them: the list of trait objects, one action by
-/// value, or none. Every implementation runs the actions' own [`PolicyRule`] methods in the
-/// documented order; they differ only in how the call is dispatched.
-trait Actions {
-    /// The agency's trades on the period's market, in acting order.
-    fn trade(&self, market: &mut Clearing);
-    /// The producer price and the payments to producers at market price `price` and harvest
-    /// `harvest` (the payment rules in order, each on the producer price the last one left).
-    fn settle(&self, price: f64, harvest: f64) -> (f64, f64);
-    /// The treasury's payments to consumers at market price `price` and consumption `consumption`.
-    fn consumer_payments(&self, price: f64, consumption: f64) -> f64;
-}
-
-impl Actions for [Box<dyn PolicyRule>] {
-    #[inline(always)]
-    fn trade(&self, market: &mut Clearing) {
-        for rule in self {
-            rule.trade(market);
-        }
-    }
-
-    #[inline(always)]
-    fn settle(&self, price: f64, harvest: f64) -> (f64, f64) {
-        let mut producer_price = price;
-        let mut deficiency = 0.0;
-        for rule in self {
-            producer_price = rule.producer_price(producer_price);
-            deficiency += rule.payment(price, harvest);
-        }
-        (producer_price, deficiency)
-    }
-
-    #[inline(always)]
-    fn consumer_payments(&self, price: f64, consumption: f64) -> f64 {
-        let mut paid = 0.0;
-        for rule in self {
-            paid += rule.consumer_payment(price, consumption);
-        }
-        paid
-    }
-}
-
-/// A single action, called directly: the list's sums over one term (starting from the same +0, so
-/// the numbers are the list's to the bit).
-impl<R: PolicyRule> Actions for R {
-    #[inline(always)]
-    fn trade(&self, market: &mut Clearing) {
-        PolicyRule::trade(self, market);
-    }
-
-    #[inline(always)]
-    fn settle(&self, price: f64, harvest: f64) -> (f64, f64) {
-        (
-            self.producer_price(price),
-            0.0 + self.payment(price, harvest),
-        )
-    }
-
-    #[inline(always)]
-    fn consumer_payments(&self, price: f64, consumption: f64) -> f64 {
-        0.0 + self.consumer_payment(price, consumption)
-    }
-}
-
-/// No action at all (the market left alone): no trade, the market price for producers, no payment.
-struct NoActions;
-
-impl Actions for NoActions {
-    #[inline(always)]
-    fn trade(&self, _market: &mut Clearing) {}
-
-    #[inline(always)]
-    fn settle(&self, price: f64, _harvest: f64) -> (f64, f64) {
-        (price, 0.0)
-    }
-
-    #[inline(always)]
-    fn consumer_payments(&self, _price: f64, _consumption: f64) -> f64 {
-        0.0
     }
 }
 
@@ -539,79 +430,54 @@ impl<'m> Simulator<'m> {
     }
 
     /// Advances one period under `shock`.
-    #[inline]
     pub fn step(&mut self, shock: &PeriodShock) -> Result<PeriodRecord, Diverged> {
-        let model = self.model;
-        // one copy of the period step per kind of action, so that a single action's own code is
-        // inlined into it; the rest go through the trait objects
-        match model.acting {
-            Acting::One(Direct::Band(ref r)) => self.advance(r, shock),
-            Acting::One(Direct::Target(ref r)) => self.advance(r, shock),
-            Acting::One(Direct::Floor(ref r)) => self.advance(r, shock),
-            Acting::One(Direct::Deficiency(ref r)) => self.advance(r, shock),
-            Acting::Nothing => self.advance(&NoActions, shock),
-            Acting::Listed => self.advance(model.policy.rules.as_slice(), shock),
-        }
-    }
-
-    /// [`Simulator::step`] with the policy's actions `acts` (the model's own, however dispatched).
-    fn advance<A: Actions + ?Sized>(
-        &mut self,
-        acts: &A,
-        shock: &PeriodShock,
-    ) -> Result<PeriodRecord, Diverged> {
         let model = self.model;
         let t = self.period + 1;
         let diverged = |reason: String| Diverged { period: t, reason };
         let carried = self.stock * (1.0 - model.policy.agency.loss_rate);
         let floor = model.planting_floor;
-        // `groups` is Some exactly when the rule has groups: checked first, so that other rules
-        // make no trait call here
-        let grouped = match self.groups.as_mut() {
-            Some(state) => model.rule.groups().map(|g| (g, state)),
-            None => None,
-        };
-        let rule_expectation = if let Some((g, state)) = grouped {
-            // farmers in groups plant Σ n_i S(P^e_i): the planting-equivalent price
-            let history = &self.ring[self.head..self.head + self.keep];
-            let last_shock = self.last_demand_shock;
-            let last_world = self.last_world;
-            g.season(state, history, &model.supply, floor, |p| {
-                rational::expected_price(model, carried, last_shock, p, last_world)
-            })
-            .ok_or_else(|| {
-                diverged(
-                    "no rational expectation exists for the rational group (the fixed point \
+        let rule_expectation =
+            if let (Some(g), Some(state)) = (model.rule.groups(), self.groups.as_mut()) {
+                // farmers in groups plant Σ n_i S(P^e_i): the planting-equivalent price
+                let history = &self.ring[self.head..self.head + self.keep];
+                let last_shock = self.last_demand_shock;
+                let last_world = self.last_world;
+                g.season(state, history, &model.supply, floor, |p| {
+                    rational::expected_price(model, carried, last_shock, p, last_world)
+                })
+                .ok_or_else(|| {
+                    diverged(
+                        "no rational expectation exists for the rational group (the fixed point \
                      could not be bracketed)"
-                        .into(),
+                            .into(),
+                    )
+                })?
+            } else if model.is_rational {
+                let guess = self.last_price;
+                rational::solve(
+                    model,
+                    carried,
+                    self.last_demand_shock,
+                    floor,
+                    guess,
+                    self.last_world,
                 )
-            })?
-        } else if model.is_rational {
-            let guess = self.last_price;
-            rational::solve(
-                model,
-                carried,
-                self.last_demand_shock,
-                floor,
-                guess,
-                self.last_world,
-            )
-            .ok_or_else(|| {
-                diverged(
-                    "no rational expectation exists (the fixed point could not be bracketed)"
-                        .into(),
-                )
-            })?
-        } else {
-            match &model.adaptive {
-                Some(adaptive) => adaptive.next(self.previous, self.last_price),
-                None => model.rule.expect(&ExpectationInput {
-                    history: self.history(),
-                    previous: self.previous,
-                    season: t,
-                }),
-            }
-        };
+                .ok_or_else(|| {
+                    diverged(
+                        "no rational expectation exists (the fixed point could not be bracketed)"
+                            .into(),
+                    )
+                })?
+            } else {
+                match &model.adaptive {
+                    Some(adaptive) => adaptive.next(self.previous, self.last_price),
+                    None => model.rule.expect(&ExpectationInput {
+                        history: self.history(),
+                        previous: self.previous,
+                        season: t,
+                    }),
+                }
+            };
         let planting = match floor {
             Some(f) => rule_expectation.max(f),
             None => rule_expectation,
@@ -623,7 +489,7 @@ impl<'m> Simulator<'m> {
                 model.price_bound,
             )));
         }
-        let c = model.clear_with(acts, planting, shock, carried);
+        let c = model.clear(planting, shock, carried);
         if c.flags & crate::policies::flags::UNBOUNDED != 0 {
             return Err(diverged(unbounded_purchase(&c)));
         }
@@ -652,7 +518,7 @@ impl<'m> Simulator<'m> {
             return Err(diverged(negative_consumption(consumption, c.purchases)));
         }
         let consumer_payments = if model.has_payments {
-            acts.consumer_payments(c.price, consumption)
+            model.consumer_payments(c.price, consumption)
         } else {
             0.0
         };
@@ -702,10 +568,8 @@ impl<'m> Simulator<'m> {
             c.producer_price
         };
         self.push_price(read);
-        if let Some(state) = self.groups.as_mut() {
-            if let Some(g) = model.rule.groups() {
-                g.settle(state, read);
-            }
+        if let (Some(g), Some(state)) = (model.rule.groups(), self.groups.as_mut()) {
+            g.settle(state, read);
         }
         Ok(record)
     }

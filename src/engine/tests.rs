@@ -99,49 +99,6 @@ fn purchase_budget_binds_exactly() {
     }
 }
 
-/// A shocked path of `model` and of the same model with its actions called through the trait
-/// objects of the list (the general step), compared record by record to the bit (the Debug text
-/// tells −0 from +0).
-fn direct_and_listed_agree(s: &Scenario, p: &PolicySpec, periods: usize) {
-    let direct = Model::new(s, p);
-    let mut listed = Model::new(s, p);
-    listed.acting = Acting::Listed;
-    let mut stream = crate::stochastic::ShockStream::new(&s.shocks, 11, 3);
-    let shocks: Vec<PeriodShock> = (0..periods).map(|_| stream.next_shock()).collect();
-    let a = direct.run(periods, |t| shocks[t - 1]);
-    let b = listed.run(periods, |t| shocks[t - 1]);
-    assert_eq!(format!("{a:?}"), format!("{b:?}"), "{}", p.name);
-}
-
-#[test]
-fn a_single_action_called_directly_steps_as_through_the_list() {
-    // an equivalence guard (no outside figure): the specialised step of a policy with one action
-    // must be the general step to the bit, for every action it specialises and for no action
-    let shocked = "[run]\ninitial_price = 100.0\n[shocks]\nyield_cv = 0.08\ndemand_sd = 4.0\n\
-                   demand_persistence = 0.4\n";
-    let policies = [
-        "",
-        "[stock]\nbuy_below = 95.0\nsell_above = 106.0\ncapacity = 30.0\ninitial = 5.0\n\
-         storage_cost = 2.0\nloss_rate = 0.02\nhandling_cost = 0.5\nfinancing_rate = 0.03\n",
-        "[stock]\nbuy_below = 94.0\nsell_above = 107.0\ncapacity = 40.0\ninitial = 10.0\n\
-         release = \"target\"\ntarget = 12.0\nspeed = 0.4\n",
-        "[floor]\nprice = 98.0\ninstrument = \"purchase\"\n[stock]\ncapacity = 25.0\n\
-         storage_cost = 1.0\n",
-        "[floor]\nprice = 99.0\ninstrument = \"deficiency-payment\"\n",
-    ];
-    for extra in ["", "[expectations]\nrule = \"adaptive\"\nweight = 0.5\n"] {
-        let s = market(&format!("{shocked}{extra}"));
-        for text in policies {
-            direct_and_listed_agree(&s, &policy(text), 300);
-        }
-    }
-    // the rational rule clears the market at every quadrature node through the same dispatch
-    let s = market(&format!("{shocked}[expectations]\nrule = \"rational\"\n"));
-    for text in policies {
-        direct_and_listed_agree(&s, &policy(text), 40);
-    }
-}
-
 #[test]
 fn a_band_buys_the_excess_supply_at_its_lower_edge() {
     // Buffer-stock band rule (Newbery and Stiglitz 1981, ch. 30, from memory): when the harvest

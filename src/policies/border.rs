@@ -11,7 +11,7 @@ use serde::Deserialize;
 
 use super::in_storage::StoragePlan;
 use super::rule::{rank, rule_ref, Build, Cell, Row, Rule, RuleRef, RuleSection, Watched};
-use super::{flags, Agency, Clearing, PolicyRule};
+use super::{flags, Agency, BandStock, Clearing, PolicyRule};
 use crate::input::ranges::{r, short_num, BIG};
 use crate::input::InputError;
 use crate::input::Key;
@@ -349,7 +349,7 @@ impl PolicyRule for PublicImport {
         market.import_to(self.above, self.max, flags::PUBLIC_IMPORT);
     }
     pays_nothing!();
-    fn direct(&self) -> Option<super::Direct> {
+    fn as_band(&self) -> Option<BandStock> {
         None
     }
 }

@@ -16,7 +16,7 @@ use serde::Deserialize;
 
 use super::in_storage::StoragePlan;
 use super::rule::{rank, rule_ref, Build, Cell, Row, Rule, RuleRef, RuleSection, Watched};
-use super::{flags, Agency, Clearing, PolicyRule};
+use super::{flags, Agency, BandStock, Clearing, PolicyRule};
 use crate::input::ranges::{escape, noted, r, short_num, BIG};
 use crate::input::InputError;
 use crate::input::Key;
@@ -285,7 +285,7 @@ impl PolicyRule for CeilingRelease {
         }
     }
     pays_nothing!();
-    fn direct(&self) -> Option<super::Direct> {
+    fn as_band(&self) -> Option<BandStock> {
         None
     }
 }
@@ -318,7 +318,7 @@ impl PolicyRule for ConsumerSubsidy {
             0.0
         }
     }
-    fn direct(&self) -> Option<super::Direct> {
+    fn as_band(&self) -> Option<BandStock> {
         None
     }
 }

@@ -171,13 +171,6 @@ impl<'a> Clearing<'a> {
             .clear_from(self.demand, self.demand_shift, supply, untraded)
     }
 
-    /// [`Clearing::price`] on a market that trades (kept out of line so that the closed market's
-    /// price, a comparison and at most one division, inlines into the rules and the engine).
-    #[inline(never)]
-    fn traded_price(&self) -> f64 {
-        self.traded().price
-    }
-
     /// The price at which `supply` (= self.consumption()) clears without private trade.
     #[inline]
     fn price_before_trade(&self, supply: f64) -> f64 {
@@ -207,10 +200,10 @@ impl<'a> Clearing<'a> {
 
     /// Clearing price P = D⁻¹(C) of the shifted demand curve (after private trade in an open
     /// market).
-    #[inline(always)]
+    #[inline]
     pub fn price(&self) -> f64 {
         if self.trades {
-            return self.traded_price();
+            return self.traded().price;
         }
         if self.purchases == 0.0 && self.releases == 0.0 {
             // the same value as below: consumption() is exactly the harvest when nothing is traded
@@ -233,10 +226,11 @@ impl<'a> Clearing<'a> {
 
     /// The most the agency may leave in the market with the price still at least `p`: what
     /// consumers take at `p`, plus exports when traders export at `p` (closed: D(p) + shift).
-    #[inline(always)]
+    #[inline]
     fn most_left_at_least(&self, p: f64) -> f64 {
         if self.trades {
-            self.most_left_at_least_open(p)
+            self.border
+                .most_supply_at_least(self.demand, self.demand_shift, p)
         } else {
             self.demanded_at(p)
         }
@@ -244,27 +238,14 @@ impl<'a> Clearing<'a> {
 
     /// The least the agency must leave in the market for the price to be at most `p`: what
     /// consumers take at `p`, less imports when traders import at `p` (closed: D(p) + shift).
-    #[inline(always)]
+    #[inline]
     fn least_left_at_most(&self, p: f64) -> f64 {
         if self.trades {
-            self.least_left_at_most_open(p)
+            self.border
+                .least_supply_at_most(self.demand, self.demand_shift, p)
         } else {
             self.demanded_at(p)
         }
-    }
-
-    /// [`Clearing::most_left_at_least`] on a market that trades (out of line, as `traded_price`).
-    #[inline(never)]
-    fn most_left_at_least_open(&self, p: f64) -> f64 {
-        self.border
-            .most_supply_at_least(self.demand, self.demand_shift, p)
-    }
-
-    /// [`Clearing::least_left_at_most`] on a market that trades (out of line, as `traded_price`).
-    #[inline(never)]
-    fn least_left_at_most_open(&self, p: f64) -> f64 {
-        self.border
-            .least_supply_at_most(self.demand, self.demand_shift, p)
     }
 
     /// End-of-period stock S = carried + X + Z − R (Z the public imports, 0 but under state

@@ -330,8 +330,8 @@ impl PolicyRule for FloorPurchase {
         market.buy_to(self.price, flags::FLOOR_BUY);
     }
     pays_nothing!();
-    fn direct(&self) -> Option<super::Direct> {
-        Some(super::Direct::Floor(*self))
+    fn as_band(&self) -> Option<super::BandStock> {
+        None
     }
 }
 
@@ -366,7 +366,7 @@ impl PolicyRule for DeficiencyPayment {
     fn consumer_payment(&self, _market_price: f64, _consumption: f64) -> f64 {
         0.0
     }
-    fn direct(&self) -> Option<super::Direct> {
-        Some(super::Direct::Deficiency(*self))
+    fn as_band(&self) -> Option<super::BandStock> {
+        None
     }
 }

@@ -76,29 +76,11 @@ pub trait PolicyRule: Send + Sync + std::fmt::Debug {
     /// True for actions that set the producer price or pay anyone (`producer_price`, `payment`,
     /// `consumer_payment`).
     fn pays(&self) -> bool;
-    /// A copy of the action as a [`Direct`] value, for the actions the engine can call directly
-    /// (its own methods, statically dispatched and inlined) when it is a policy's only action; None
-    /// for the others, which the engine calls through the trait object. The arithmetic is the
-    /// same either way: [`Direct`] only forwards to the action's own `PolicyRule` methods.
-    fn direct(&self) -> Option<Direct>;
+    /// The action as a plain price band, when it is exactly one (lets the engine call it directly
+    /// instead of through the trait object; the trade is the same).
+    fn as_band(&self) -> Option<BandStock>;
     /// True for actions that buy into or sell from the agency's stock.
     fn trades_stock(&self) -> bool;
-}
-
-/// A policy's only action, held by value so that the period engine calls its own methods without a
-/// trait object (the engine steps a policy whose single action is one of these through a copy of
-/// its period step specialised to the action's type). Each variant forwards to the action's own
-/// [`PolicyRule`] implementation: no rule is written twice.
-#[derive(Debug, Clone, Copy)]
-pub enum Direct {
-    /// A plain price band.
-    Band(BandStock),
-    /// A band with a target stock.
-    Target(TargetStock),
-    /// A floor defended by purchase.
-    Floor(FloorPurchase),
-    /// A floor paid as a deficiency payment.
-    Deficiency(DeficiencyPayment),
 }
 
 /// The agency's standing parameters (from `[stock]`; a floor by purchase alone gets an unlimited,

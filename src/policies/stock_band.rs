@@ -38,7 +38,7 @@ impl PolicyRule for BandStock {
     fn trade(&self, market: &mut Clearing) {
         self.defend(market);
     }
-    fn direct(&self) -> Option<super::Direct> {
-        Some(super::Direct::Band(*self))
+    fn as_band(&self) -> Option<BandStock> {
+        Some(*self)
     }
 }

@@ -30,7 +30,7 @@ impl PolicyRule for ShareStock {
             market.sell_at_most(more, self.band.buy_below, flags::ROTATION);
         }
     }
-    fn direct(&self) -> Option<super::Direct> {
+    fn as_band(&self) -> Option<BandStock> {
         None
     }
 }

@@ -45,7 +45,7 @@ impl PolicyRule for TargetStock {
             market.sell_at_most(-gap, middle.min(self.band.sell_above), flags::TARGET);
         }
     }
-    fn direct(&self) -> Option<super::Direct> {
-        Some(super::Direct::Target(*self))
+    fn as_band(&self) -> Option<BandStock> {
+        None
     }
 }
