@@ -311,7 +311,7 @@ fn iterate(
             .zip(planted.par_iter_mut())
             .map(|(&gm, planted_row)| {
                 let np = NextPrice::prepared(&m, &band, &prev_publics, &rows, band.keep * gm);
-                let breaks = np.breaks(hi);
+                let breaks = np.pieces(hi);
                 let mut raw = vec![f64::NAN; n];
                 for (j, &x) in stocks.iter().enumerate() {
                     let (q, psi) = plant_accepting(
