@@ -626,9 +626,18 @@ pub(super) fn build(
     );
     // fiscal risk: cash outlays per season
     per_real(&mut out, "fiscal_cost_season_mean", Real::MeanSeasonFiscal);
-    let q = runs.season_fiscal.quantiles(&[0.95, 0.99]);
-    out.num("fiscal_cost_season_p95", q[0]);
-    out.num("fiscal_cost_season_p99", q[1]);
+    match runs.season_fiscal.quantiles(&[0.95, 0.99]) {
+        Some(q) => {
+            out.num("fiscal_cost_season_p95", q[0]);
+            out.num("fiscal_cost_season_p99", q[1]);
+        }
+        None => {
+            out.0
+                .push(("fiscal_cost_season_p95".into(), Value::Missing));
+            out.0
+                .push(("fiscal_cost_season_p99".into(), Value::Missing));
+        }
+    }
     per_real(
         &mut out,
         "worst_season_fiscal_cost_mean",

@@ -18,7 +18,7 @@ use rayon::prelude::*;
 use serde::Serialize;
 
 use super::draw_shocks;
-use super::stats::{ShiftedSums, Summary};
+use super::stats::{quantiles_with_zeros, ShiftedSums, Summary};
 use crate::curves::SteadyState;
 use crate::engine::{Diverged, Model, PathModel, PeriodRecord, PeriodShock, Stepper};
 use crate::policies::flags;
@@ -350,23 +350,40 @@ fn welfare_of(r: [f64; 13]) -> WelfarePv {
 #[derive(Debug, Clone, PartialEq)]
 enum Block<T> {
     Same(T),
+    /// values that fit in a byte (counts of seasons in a run of up to 255 seasons)
+    Small(Box<[u8]>),
     Each(Box<[T]>),
 }
 
 /// A value that a block may hold once when all its replications share its bits.
 trait Bits: Copy {
     fn bits(self) -> u64;
+    /// The value as a byte, when it is a count that fits in one.
+    fn small(self) -> Option<u8>;
+    fn from_small(b: u8) -> Self;
 }
 
 impl Bits for f64 {
     fn bits(self) -> u64 {
         self.to_bits()
     }
+    fn small(self) -> Option<u8> {
+        None
+    }
+    fn from_small(b: u8) -> f64 {
+        f64::from(b)
+    }
 }
 
 impl Bits for u32 {
     fn bits(self) -> u64 {
         u64::from(self)
+    }
+    fn small(self) -> Option<u8> {
+        u8::try_from(self).ok()
+    }
+    fn from_small(b: u8) -> u32 {
+        u32::from(b)
     }
 }
 
@@ -375,14 +392,27 @@ impl<T: Bits> Block<T> {
         let mut it = values.clone();
         match it.next() {
             Some(first) if it.all(|v| v.bits() == first.bits()) => Block::Same(first),
-            _ => Block::Each(values.collect()),
+            _ => match values.clone().map(T::small).collect::<Option<Box<[u8]>>>() {
+                Some(small) => Block::Small(small),
+                None => Block::Each(values.collect()),
+            },
         }
     }
 
     fn bytes(&self) -> usize {
         match self {
             Block::Same(_) => 0,
+            Block::Small(v) => v.len(),
             Block::Each(v) => std::mem::size_of_val(&**v),
+        }
+    }
+
+    #[inline]
+    fn at(&self, i: usize) -> T {
+        match self {
+            Block::Same(x) => *x,
+            Block::Small(v) => T::from_small(v[i]),
+            Block::Each(v) => v[i],
         }
     }
 }
@@ -396,7 +426,7 @@ pub struct Values<'a, T> {
     total: usize,
 }
 
-impl<T: Copy> Iterator for Values<'_, T> {
+impl<T: Bits> Iterator for Values<'_, T> {
     type Item = T;
 
     #[inline]
@@ -405,15 +435,13 @@ impl<T: Copy> Iterator for Values<'_, T> {
             let b = self.blocks.get(self.block)?;
             let len = match b {
                 Block::Same(_) => CHUNK.min(self.total - self.block * CHUNK),
+                Block::Small(v) => v.len(),
                 Block::Each(v) => v.len(),
             };
             if self.i < len {
                 let i = self.i;
                 self.i += 1;
-                return Some(match b {
-                    Block::Same(x) => *x,
-                    Block::Each(v) => v[i],
-                });
+                return Some(b.at(i));
             }
             self.block += 1;
             self.i = 0;
@@ -528,16 +556,8 @@ impl Replications {
             return ReplicationSummary::default();
         }
         let (b, i) = (rep / CHUNK, rep % CHUNK);
-        let at = |blk: &Block<f64>| match blk {
-            Block::Same(x) => *x,
-            Block::Each(v) => v[i],
-        };
-        let at_count = |blk: &Block<u32>| match blk {
-            Block::Same(x) => *x,
-            Block::Each(v) => v[i],
-        };
-        let r: [f64; REALS] = std::array::from_fn(|j| at(&self.reals[j][b]));
-        let c: [u32; COUNTS] = std::array::from_fn(|j| at_count(&self.counts[j][b]));
+        let r: [f64; REALS] = std::array::from_fn(|j| self.reals[j][b].at(i));
+        let c: [u32; COUNTS] = std::array::from_fn(|j| self.counts[j][b].at(i));
         ReplicationSummary::join(&r, &c)
     }
 
@@ -599,49 +619,89 @@ const REAL_ORDER: [Real; REALS] = [
     Real::MeanExports,
 ];
 
-/// The season outlays kept for pooled quantiles: the values other than +0 (per chunk, in chunk
-/// order) and how many were +0. Type 7 quantiles depend only on the multiset of values, so this
-/// gives the quantiles of the full list bit for bit ([`super::stats::quantiles_with_zeros`]).
+/// Season outlay quantiles are kept exactly from this probability up (the indicators ask for the
+/// 95 % and 99 % quantiles).
+pub const SEASON_QUANTILE_FROM: f64 = 0.95;
+
+/// The season outlays kept for pooled quantiles: the upper tail only. Of `n` outlays a type 7
+/// quantile at p ≥ [`SEASON_QUANTILE_FROM`] reads only the order statistics from
+/// ⌊(n − 1)·SEASON_QUANTILE_FROM⌋ up, so only the largest values are kept (those at or above every
+/// value dropped, under `f64::total_cmp`) and the number dropped below them; the quantiles are the
+/// same bits as those of the whole list.
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct SeasonOutlays {
-    /// The outlays other than +0, chunk by chunk.
-    blocks: Vec<Box<[f64]>>,
-    /// How many outlays were +0.
-    pub zeros: usize,
+    /// The largest outlays (no order).
+    kept: Vec<f64>,
+    /// How many outlays were dropped, each at or below every kept one.
+    dropped: usize,
+    /// How many of the largest to keep at least.
+    keep: usize,
 }
 
 impl SeasonOutlays {
-    /// How many outlays are kept (zeros included).
-    pub fn len(&self) -> usize {
-        self.zeros + self.blocks.iter().map(|b| b.len()).sum::<usize>()
+    /// Room for the upper tail of `planned` outlays.
+    fn new(planned: usize) -> SeasonOutlays {
+        let below = ((planned.saturating_sub(1)) as f64 * SEASON_QUANTILE_FROM).floor() as usize;
+        SeasonOutlays {
+            kept: Vec::new(),
+            dropped: 0,
+            keep: planned.saturating_sub(below) + 1,
+        }
     }
 
-    /// Whether none are kept.
+    /// How many outlays there were (dropped ones included).
+    pub fn len(&self) -> usize {
+        self.dropped + self.kept.len()
+    }
+
+    /// Whether there were none.
     pub fn is_empty(&self) -> bool {
         self.len() == 0
     }
 
-    /// Type 7 quantiles of the kept outlays at `probs` (ascending).
-    pub fn quantiles(&self, probs: &[f64]) -> Vec<f64> {
-        let mut values: Vec<f64> = self.blocks.iter().flat_map(|b| b.iter().copied()).collect();
-        super::stats::quantiles_with_zeros(&mut values, self.zeros, probs)
+    /// Type 7 quantiles of all the outlays at `probs` (ascending); `None` when one lies below the
+    /// kept tail.
+    pub fn quantiles(&self, probs: &[f64]) -> Option<Vec<f64>> {
+        let n = self.len();
+        if n == 0 {
+            return Some(vec![0.0; probs.len()]);
+        }
+        let mut v = self.kept.clone();
+        let mut kth = |k: usize| -> Option<f64> {
+            let i = k.checked_sub(self.dropped)?;
+            Some(*v.select_nth_unstable_by(i, f64::total_cmp).1)
+        };
+        probs
+            .iter()
+            .map(|&p| {
+                let h = (n - 1) as f64 * p.clamp(0.0, 1.0);
+                let k = (h.floor() as usize).min(n - 1);
+                let frac = h - k as f64;
+                let low = kth(k)?;
+                Some(if frac > 0.0 && k + 1 < n {
+                    let high = kth(k + 1)?;
+                    low + frac * (high - low)
+                } else {
+                    low
+                })
+            })
+            .collect()
     }
 
-    fn push(&mut self, outlays: &[f64]) {
-        let kept: Box<[f64]> = outlays
-            .iter()
-            .copied()
-            .filter(|x| x.to_bits() != 0)
-            .collect();
-        self.zeros += outlays.len() - kept.len();
-        if !kept.is_empty() {
-            self.blocks.push(kept);
+    /// Adds outlays; drops the smallest when the kept values reach twice the tail.
+    fn extend(&mut self, outlays: &[f64]) {
+        self.kept.extend_from_slice(outlays);
+        if self.kept.len() >= 2 * self.keep.max(CHUNK) {
+            let cut = self.kept.len() - self.keep;
+            self.kept.select_nth_unstable_by(cut, f64::total_cmp);
+            self.kept.drain(..cut);
+            self.dropped += cut;
         }
     }
 
     /// Bytes held for the values.
     pub fn value_bytes(&self) -> usize {
-        self.blocks.iter().map(|b| 8 * b.len()).sum()
+        8 * self.kept.capacity()
     }
 }
 
@@ -966,17 +1026,14 @@ struct ChunkPolicy {
     summaries: Vec<ReplicationSummary>,
     /// the chunk's replication summaries, value by value
     blocks: Option<ChunkBlocks>,
-    /// the season outlays of the chunk's replications while it runs, when within the season
-    /// budget (then `outlays`)
+    /// the season outlays of the chunk's replications, when within the season budget
     season_buf: Vec<f64>,
-    /// the kept season outlays
-    outlays: SeasonOutlays,
 }
 
 /// Chunks run in parallel at a time: their results are merged in chunk order before the next
 /// wave starts, so the sums never wait in memory for the whole run (any wave size gives the same
 /// bits: the merge order is the chunk order).
-pub const WAVE: usize = 256;
+pub const WAVE: usize = 128;
 
 /// One model's results merged over the chunks so far, in chunk order.
 struct Merged {
@@ -986,16 +1043,20 @@ struct Merged {
     fiscal: Vec<f64>,
     income: Vec<f64>,
     transform: Vec<f64>,
-    /// per series, the kept chunks' period-major values, in chunk order
+    /// per series, the kept chunks' period-major values, in chunk order (chunks all +0 only
+    /// counted)
     series: Vec<Vec<Vec<f64>>>,
+    /// per series, the kept replications whose values were all +0 (their chunks not kept)
+    series_zero_reps: Vec<usize>,
     series_sums: Vec<Vec<f64>>,
 }
 
 impl Merged {
-    fn new(periods: usize, series: usize) -> Merged {
+    fn new(periods: usize, series: usize, planned_outlays: usize) -> Merged {
         Merged {
             replications: Replications::new(),
-            outlays: SeasonOutlays::default(),
+            outlays: SeasonOutlays::new(planned_outlays),
+            series_zero_reps: vec![0; series],
             pooled: None,
             fiscal: vec![0.0; periods],
             income: vec![0.0; periods],
@@ -1020,24 +1081,27 @@ impl Merged {
         for (a, b) in self.transform.iter_mut().zip(&c.transform) {
             *a += b;
         }
-        for ((sums, kept), (block, chunk_sums)) in self
+        for (((sums, kept), zero_reps), (block, chunk_sums)) in self
             .series_sums
             .iter_mut()
             .zip(self.series.iter_mut())
+            .zip(self.series_zero_reps.iter_mut())
             .zip(c.series.into_iter().zip(&c.series_sums))
         {
             for (a, b) in sums.iter_mut().zip(chunk_sums) {
                 *a += b;
             }
-            if !block.is_empty() {
+            if block.iter().all(|x| x.to_bits() == 0) {
+                // quantiles depend only on the values, not on which replication holds them
+                *zero_reps += c.n * usize::from(!block.is_empty());
+            } else {
                 kept.push(block);
             }
         }
         if let Some(b) = c.blocks {
             self.replications.push(b);
         }
-        self.outlays.zeros += c.outlays.zeros;
-        self.outlays.blocks.extend(c.outlays.blocks);
+        self.outlays.extend(&c.season_buf);
     }
 }
 
@@ -1151,9 +1215,10 @@ fn run_with_budget<M: PathModel>(
         first_failure: &first_failure,
         progress,
     };
+    let planned_outlays = season_reps.min(reps) * periods;
     let mut merged: Vec<Merged> = models
         .iter()
-        .map(|_| Merged::new(periods, series.len()))
+        .map(|_| Merged::new(periods, series.len(), planned_outlays))
         .collect();
     let mut paired = vec![PairedChanges::default(); pairs.len()];
     let mut season_prices: Vec<SeasonPrices> = if pairs.is_empty() {
@@ -1278,7 +1343,6 @@ impl<M: PathModel> Context<'_, M> {
                 } else {
                     Vec::new()
                 },
-                outlays: SeasonOutlays::default(),
             })
             .collect();
         let mut paired = vec![PairedChanges::default(); self.pairs.len()];
@@ -1346,8 +1410,6 @@ impl<M: PathModel> Context<'_, M> {
             c.path = Vec::new(); // one replication's scratch: not kept with the chunk
             c.blocks = Some(ChunkBlocks::of(&c.summaries));
             c.summaries = Vec::new();
-            c.outlays.push(&c.season_buf);
-            c.season_buf = Vec::new();
         }
         Ok((out, paired))
     }
@@ -1530,6 +1592,7 @@ fn assemble(
         mut income,
         mut transform,
         series: kept_series,
+        series_zero_reps,
         series_sums,
     } = m;
     // the merged list holds every replication
@@ -1544,8 +1607,13 @@ fn assemble(
     let summaries = series
         .iter()
         .zip(kept_series.iter().zip(&series_sums))
-        .map(|(which, (blocks, sums))| {
-            let kept: usize = blocks.iter().map(|b| b.len() / periods.max(1)).sum();
+        .zip(&series_zero_reps)
+        .map(|((which, (blocks, sums)), &zeros)| {
+            let kept: usize = blocks
+                .iter()
+                .map(|b| b.len() / periods.max(1))
+                .sum::<usize>()
+                + zeros;
             let summaries = (0..periods)
                 .into_par_iter()
                 .map_init(
@@ -1556,9 +1624,12 @@ fn assemble(
                             let n = block.len() / periods.max(1);
                             column.extend_from_slice(&block[t * n..(t + 1) * n]);
                         }
+                        let q = quantiles_with_zeros(column, zeros, &[0.05, 0.5, 0.95]);
                         Summary {
                             mean: sums[t] / reps as f64,
-                            ..Summary::of(column)
+                            p05: q[0],
+                            p50: q[1],
+                            p95: q[2],
                         }
                     },
                 )
