@@ -1658,6 +1658,7 @@ fn assemble(
 mod tests {
     use super::*;
     use crate::scenario::{market_from_table, parse_toml};
+    use crate::stochastic::quantiles;
 
     fn scenario(reps: usize) -> Scenario {
         let text = format!(
@@ -1699,5 +1700,82 @@ mod tests {
             assert_eq!(c.periods[t].p95, l.periods[t].p95);
         }
         assert_eq!(capped.policies[0].pooled, full.policies[0].pooled);
+    }
+
+    #[test]
+    fn the_kept_tail_gives_the_upper_quantiles_of_the_whole_list() {
+        // type 7 (Hyndman and Fan 1996, definition 7) at 95 % and 99 % of the whole list, selected
+        // by `stats::quantiles`, against the tail kept while outlays arrive in chunks
+        let mut x = 0.4321_f64;
+        let whole: Vec<f64> = (0..20_000)
+            .map(|i| {
+                x = (x * 3.95 * (1.0 - x)).clamp(1e-9, 1.0 - 1e-9);
+                if i % 3 == 0 {
+                    0.0
+                } else {
+                    1000.0 * (x - 0.3)
+                }
+            })
+            .collect();
+        let mut tail = SeasonOutlays::new(whole.len());
+        for part in whole.chunks(700) {
+            tail.extend(part);
+        }
+        assert!(tail.dropped > 0, "the test must drop values");
+        assert_eq!(tail.len(), whole.len());
+        let probs = [0.95, 0.975, 0.99, 1.0];
+        let want = quantiles(&mut whole.clone(), &probs);
+        let got = tail.quantiles(&probs).unwrap();
+        for (a, b) in want.iter().zip(&got) {
+            assert_eq!(a.to_bits(), b.to_bits(), "{want:?} vs {got:?}");
+        }
+        // a quantile below the kept tail is refused, not guessed
+        assert_eq!(tail.quantiles(&[0.5]), None);
+    }
+
+    #[test]
+    fn chunk_blocks_give_back_every_summary() {
+        // values shared across the chunk, small and large counts, and values that differ
+        let summaries: Vec<ReplicationSummary> = (0..CHUNK as u32 + 5)
+            .map(|i| ReplicationSummary {
+                mean_price: 100.0 + f64::from(i) * 0.37,
+                final_stock: 12.5,
+                stockout_periods: i % 7,
+                capacity_full_periods: 250 + i,
+                alert_periods: [i % 2, 0, 0, 0, 0, 0, 0, 0],
+                welfare: WelfarePv {
+                    fiscal_cost: if i % 2 == 0 { -0.0 } else { 0.0 },
+                    consumer_surplus: f64::from(i).sqrt(),
+                    ..Default::default()
+                },
+                ..Default::default()
+            })
+            .collect();
+        let mut reps = Replications::new();
+        for part in summaries.chunks(CHUNK) {
+            reps.push(ChunkBlocks::of(part));
+        }
+        assert_eq!(reps.len(), summaries.len());
+        for (i, want) in summaries.iter().enumerate() {
+            let got = reps.get(i);
+            assert_eq!(&got, want, "replication {i}");
+            assert_eq!(
+                got.welfare.fiscal_cost.to_bits(),
+                want.welfare.fiscal_cost.to_bits()
+            );
+        }
+        assert!(reps.iter().eq(summaries.iter().copied()));
+        assert!(reps
+            .reals(Real::MeanPrice)
+            .eq(summaries.iter().map(|r| r.mean_price)));
+        assert!(reps
+            .counts(Count::CapacityFull)
+            .eq(summaries.iter().map(|r| r.capacity_full_periods)));
+        assert!(reps
+            .counts(Count::Alert(0))
+            .eq(summaries.iter().map(|r| r.alert_periods[0])));
+        assert!(reps
+            .welfare()
+            .eq(summaries.iter().map(|r| r.welfare)));
     }
 }
