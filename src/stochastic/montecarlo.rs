@@ -636,6 +636,9 @@ pub struct SeasonOutlays {
     dropped: usize,
     /// How many of the largest to keep at least.
     keep: usize,
+    /// The smallest kept value after the last pruning: a later outlay below it can never be among
+    /// the largest `keep`, so it is counted as dropped at once.
+    floor: Option<f64>,
 }
 
 impl SeasonOutlays {
@@ -646,6 +649,7 @@ impl SeasonOutlays {
             kept: Vec::new(),
             dropped: 0,
             keep: planned.saturating_sub(below) + 1,
+            floor: None,
         }
     }
 
@@ -690,12 +694,21 @@ impl SeasonOutlays {
 
     /// Adds outlays; drops the smallest when the kept values reach twice the tail.
     fn extend(&mut self, outlays: &[f64]) {
-        self.kept.extend_from_slice(outlays);
+        match self.floor {
+            None => self.kept.extend_from_slice(outlays),
+            Some(floor) => {
+                let before = self.kept.len();
+                self.kept
+                    .extend(outlays.iter().filter(|x| x.total_cmp(&floor).is_ge()));
+                self.dropped += outlays.len() - (self.kept.len() - before);
+            }
+        }
         if self.kept.len() >= 2 * self.keep.max(CHUNK) {
             let cut = self.kept.len() - self.keep;
             self.kept.select_nth_unstable_by(cut, f64::total_cmp);
             self.kept.drain(..cut);
             self.dropped += cut;
+            self.floor = self.kept.first().copied();
         }
     }
 
@@ -1774,8 +1787,6 @@ mod tests {
         assert!(reps
             .counts(Count::Alert(0))
             .eq(summaries.iter().map(|r| r.alert_periods[0])));
-        assert!(reps
-            .welfare()
-            .eq(summaries.iter().map(|r| r.welfare)));
+        assert!(reps.welfare().eq(summaries.iter().map(|r| r.welfare)));
     }
 }
