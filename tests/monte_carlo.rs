@@ -293,7 +293,7 @@ fn the_storage_model_steps_on_the_shocks_it_is_handed() {
         furrow::stochastic::draw_shocks(&s, rep as u64, &mut shocks);
         assert_eq!(walk(&solved, &shocks), own, "replication {rep}");
         let mean = own.iter().map(|r| r.price).sum::<f64>() / 15.0;
-        let got = mc.policies[0].replications[rep].mean_price;
+        let got = mc.policies[0].replications.get(rep).mean_price;
         assert!((got - mean).abs() < 1e-12 * mean, "replication {rep}");
         for (a, r) in sums.iter_mut().zip(&own) {
             *a += r.price;
@@ -380,7 +380,7 @@ fn a_replication_summary_is_the_fold_of_its_own_one_path_run() {
                 .run(s.run.periods, |t| shocks[t - 1])
                 .unwrap();
             let runs = &mc.policies[k];
-            let got = &runs.replications[rep];
+            let got = &runs.replications.get(rep);
             let pv = furrow::welfare::path_pv(&records, &runs.watch.books);
             assert_eq!(got.welfare, pv, "replication {rep}, policy {k}");
             let last = records.last().unwrap();

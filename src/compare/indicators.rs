@@ -58,9 +58,10 @@
 use super::{Indicator, Kind, Value};
 use crate::policies::PolicySpec;
 use crate::scenario::{Scenario, MAX_ALERTS};
-use crate::stochastic::{quantiles, PolicyRuns, ReplicationSummary};
+use crate::stochastic::montecarlo::{Count, Real};
+use crate::stochastic::{quantiles, PolicyRuns};
 use crate::storage::LongRunMeans;
-use crate::welfare::{crra_premium, risk_premium, WelfarePv};
+use crate::welfare::{crra_premium, risk_premium};
 
 /// Keys of the alert shares: the first alert price, then the second, …
 const ALERT_KEYS: [&str; MAX_ALERTS] = [
@@ -537,147 +538,158 @@ pub(super) fn build(
 ) -> Vec<Indicator> {
     let periods = scenario.run.periods.max(1) as f64;
     let lambda = scenario.run.public_funds_cost;
-    let reps_of = || runs.replications.iter();
+    let reps = &runs.replications;
     let mut out = Out::default();
-    // a mean over replications of a per-replication value, with its standard error
-    let per_rep = |out: &mut Out, key: &'static str, f: &dyn Fn(&ReplicationSummary) -> f64| {
-        let (m, se) = mean_se(reps_of().map(f));
+    // a mean over replications of a per-replication value, with its standard error (each value
+    // read on its own, in replication order)
+    let per_real = |out: &mut Out, key: &'static str, which: Real| {
+        let (m, se) = mean_se(reps.reals(which));
+        out.num(key, m);
+        out.se(key, se);
+    };
+    let share = |n: u32| f64::from(n) / periods;
+    let per_share = |out: &mut Out, key: &'static str, which: Count| {
+        let (m, se) = mean_se(reps.counts(which).map(share));
+        out.num(key, m);
+        out.se(key, se);
+    };
+    let any = |n: u32| f64::from(u8::from(n > 0));
+    let per_any = |out: &mut Out, key: &'static str, which: Count| {
+        let (m, se) = mean_se(reps.counts(which).map(any));
         out.num(key, m);
         out.se(key, se);
     };
     let pooled = &runs.pooled;
     out.num("mean_price", pooled.price.mean());
-    out.se("mean_price", mean_se(reps_of().map(|r| r.mean_price)).1);
+    out.se("mean_price", mean_se(reps.reals(Real::MeanPrice)).1);
     out.num("price_sd", pooled.price.sd());
     out.num("price_cv", pooled.price.sd() / pooled.price.mean());
     out.num("mean_producer_price", pooled.producer_price.mean());
     out.se(
         "mean_producer_price",
-        mean_se(reps_of().map(|r| r.mean_producer_price)).1,
+        mean_se(reps.reals(Real::MeanProducerPrice)).1,
     );
     out.num("producer_price_sd", pooled.producer_price.sd());
     out.num("mean_harvest", pooled.harvest.mean());
-    out.se("mean_harvest", mean_se(reps_of().map(|r| r.mean_harvest)).1);
+    out.se("mean_harvest", mean_se(reps.reals(Real::MeanHarvest)).1);
     out.num("harvest_sd", pooled.harvest.sd());
     for (k, key) in ALERT_KEYS
         .iter()
         .enumerate()
         .take(scenario.run.alert_prices.len())
     {
-        per_rep(&mut out, key, &|r| f64::from(r.alert_periods[k]) / periods);
+        per_share(&mut out, key, Count::Alert(k));
     }
-    let share = |n: u32| f64::from(n) / periods;
-    per_rep(&mut out, "floor_binding_share", &|r| {
-        share(r.floor_binding_periods)
-    });
-    per_rep(&mut out, "stockout_share", &|r| share(r.stockout_periods));
-    per_rep(&mut out, "stockout_any_share", &|r| {
-        f64::from(u8::from(r.stockout_periods > 0))
-    });
+    per_share(&mut out, "floor_binding_share", Count::FloorBinding);
+    per_share(&mut out, "stockout_share", Count::Stockout);
+    per_any(&mut out, "stockout_any_share", Count::Stockout);
     if runs.watch.purchase_floor.is_some() {
-        per_rep(&mut out, "floor_failed_share", &|r| {
-            share(r.floor_failed_periods)
-        });
+        per_share(&mut out, "floor_failed_share", Count::FloorFailed);
     }
     if runs.watch.band.is_some() {
-        per_rep(&mut out, "band_failed_share", &|r| {
-            share(r.band_failed_periods)
-        });
+        per_share(&mut out, "band_failed_share", Count::BandFailed);
     }
-    per_rep(&mut out, "capacity_full_share", &|r| {
-        share(r.capacity_full_periods)
-    });
-    per_rep(&mut out, "budget_bound_share", &|r| {
-        share(r.budget_bound_periods)
-    });
+    per_share(&mut out, "capacity_full_share", Count::CapacityFull);
+    per_share(&mut out, "budget_bound_share", Count::BudgetBound);
     // a diverged replication fails the run (exit 1), so every replication here completed
-    per_rep(&mut out, "diverged_share", &|_| 0.0);
-    per_rep(&mut out, "final_stock", &|r| r.final_stock);
+    let (m, se) = mean_se(std::iter::repeat_n(0.0, reps.len()));
+    out.num("diverged_share", m);
+    out.se("diverged_share", se);
+    per_real(&mut out, "final_stock", Real::FinalStock);
     if scenario.trade.is_some() {
-        per_rep(&mut out, "imports_mean", &|r| r.mean_imports);
-        per_rep(&mut out, "exports_mean", &|r| r.mean_exports);
-        per_rep(&mut out, "import_season_share", &|r| {
-            share(r.import_periods)
-        });
-        per_rep(&mut out, "export_season_share", &|r| {
-            share(r.export_periods)
-        });
+        per_real(&mut out, "imports_mean", Real::MeanImports);
+        per_real(&mut out, "exports_mean", Real::MeanExports);
+        per_share(&mut out, "import_season_share", Count::ImportPeriods);
+        per_share(&mut out, "export_season_share", Count::ExportPeriods);
     }
-    let welfare_mean = |out: &mut Out, key: &'static str, f: fn(&WelfarePv) -> f64| {
-        per_rep(out, key, &|r| f(&r.welfare));
-    };
-    welfare_mean(&mut out, "fiscal_cost_pv", |w| w.fiscal_cost);
-    out.quantiles(
-        "fiscal_cost_pv",
-        reps_of().map(|r| r.welfare.fiscal_cost).collect(),
-    );
-    welfare_mean(&mut out, "purchase_cost_pv", |w| w.purchase_cost);
-    welfare_mean(&mut out, "sales_revenue_pv", |w| w.sales_revenue);
-    welfare_mean(&mut out, "storage_cost_pv", |w| w.storage_cost);
-    welfare_mean(&mut out, "financing_cost_pv", |w| w.financing_cost);
-    welfare_mean(&mut out, "handling_cost_pv", |w| w.handling_cost);
-    welfare_mean(&mut out, "deficiency_payments_pv", |w| {
-        w.deficiency_payments
-    });
+    per_real(&mut out, "fiscal_cost_pv", Real::FiscalCost);
+    out.quantiles("fiscal_cost_pv", reps.reals(Real::FiscalCost).collect());
+    per_real(&mut out, "purchase_cost_pv", Real::PurchaseCost);
+    per_real(&mut out, "sales_revenue_pv", Real::SalesRevenue);
+    per_real(&mut out, "storage_cost_pv", Real::StorageCost);
+    per_real(&mut out, "financing_cost_pv", Real::FinancingCost);
+    per_real(&mut out, "handling_cost_pv", Real::HandlingCost);
+    per_real(&mut out, "deficiency_payments_pv", Real::DeficiencyPayments);
     if scenario.trade.is_some() {
-        welfare_mean(&mut out, "border_revenue_pv", |w| w.border_revenue);
-        welfare_mean(&mut out, "quota_rent_pv", |w| w.quota_rent);
+        per_real(&mut out, "border_revenue_pv", Real::BorderRevenue);
+        per_real(&mut out, "quota_rent_pv", Real::QuotaRent);
         let (l, se) = leakage(scenario, spec).unwrap_or((None, None));
         out.0
             .push(("leakage".into(), l.map_or(Value::Missing, Value::Number)));
         out.se("leakage", se);
     }
-    welfare_mean(&mut out, "opening_stock_cost", |w| w.opening_stock_cost);
-    welfare_mean(&mut out, "terminal_stock_value_pv", |w| {
-        w.terminal_stock_value
-    });
+    per_real(&mut out, "opening_stock_cost", Real::OpeningStockCost);
+    per_real(
+        &mut out,
+        "terminal_stock_value_pv",
+        Real::TerminalStockValue,
+    );
     // fiscal risk: cash outlays per season
-    per_rep(&mut out, "fiscal_cost_season_mean", &|r| {
-        r.mean_season_fiscal
-    });
-    let mut seasons = runs.season_fiscal.clone();
-    let q = quantiles(&mut seasons, &[0.95, 0.99]);
-    out.num("fiscal_cost_season_p95", q[0]);
-    out.num("fiscal_cost_season_p99", q[1]);
-    per_rep(&mut out, "worst_season_fiscal_cost_mean", &|r| {
-        r.worst_season_fiscal
-    });
-    per_rep(&mut out, "peak_cumulative_fiscal_cost_mean", &|r| {
-        r.peak_cumulative_fiscal
-    });
-    let mut peaks: Vec<f64> = reps_of().map(|r| r.peak_cumulative_fiscal).collect();
+    per_real(&mut out, "fiscal_cost_season_mean", Real::MeanSeasonFiscal);
+    match runs.season_fiscal.quantiles(&[0.95, 0.99]) {
+        Some(q) => {
+            out.num("fiscal_cost_season_p95", q[0]);
+            out.num("fiscal_cost_season_p99", q[1]);
+        }
+        None => {
+            out.0
+                .push(("fiscal_cost_season_p95".into(), Value::Missing));
+            out.0
+                .push(("fiscal_cost_season_p99".into(), Value::Missing));
+        }
+    }
+    per_real(
+        &mut out,
+        "worst_season_fiscal_cost_mean",
+        Real::WorstSeasonFiscal,
+    );
+    per_real(
+        &mut out,
+        "peak_cumulative_fiscal_cost_mean",
+        Real::PeakCumulativeFiscal,
+    );
+    let mut peaks: Vec<f64> = reps.reals(Real::PeakCumulativeFiscal).collect();
     out.num(
         "peak_cumulative_fiscal_cost_p95",
         quantiles(&mut peaks, &[0.95])[0],
     );
     if runs.watch.annual_budget.is_finite() {
-        per_rep(&mut out, "budget_exceeded_share", &|r| {
-            share(r.budget_exceeded_periods)
-        });
-        per_rep(&mut out, "budget_ever_exceeded_share", &|r| {
-            f64::from(u8::from(r.budget_exceeded_periods > 0))
-        });
+        per_share(&mut out, "budget_exceeded_share", Count::BudgetExceeded);
+        per_any(
+            &mut out,
+            "budget_ever_exceeded_share",
+            Count::BudgetExceeded,
+        );
     }
     // changes against the baseline, replication by replication (same shocks)
-    let pairs = || runs.replications.iter().zip(&base.replications);
-    let net_change = |(p, b): (&ReplicationSummary, &ReplicationSummary)| {
-        p.welfare.net(lambda) - b.welfare.net(lambda)
+    let changes = |which: Real| {
+        reps.reals(which)
+            .zip(base.replications.reals(which))
+            .map(|(p, b)| p - b)
     };
-    for (key, f) in [
-        (
-            "consumer_surplus_change_pv",
-            (|w: &WelfarePv, _: f64| w.consumer_surplus) as fn(&WelfarePv, f64) -> f64,
-        ),
-        ("producer_surplus_change_pv", |w, _| w.producer_surplus),
-        ("net_welfare_change_pv", |w, l| w.net(l)),
+    let net_changes = || {
+        reps.welfare()
+            .zip(base.replications.welfare())
+            .map(|(p, b)| p.net(lambda) - b.net(lambda))
+    };
+    for (key, which) in [
+        ("consumer_surplus_change_pv", Some(Real::ConsumerSurplus)),
+        ("producer_surplus_change_pv", Some(Real::ProducerSurplus)),
+        ("net_welfare_change_pv", None),
     ] {
-        let change = |(p, b): (&ReplicationSummary, &ReplicationSummary)| {
-            f(&p.welfare, lambda) - f(&b.welfare, lambda)
+        let (m, se, all) = match which {
+            Some(w) => {
+                let (m, se) = mean_se(changes(w));
+                (m, se, changes(w).collect())
+            }
+            None => {
+                let (m, se) = mean_se(net_changes());
+                (m, se, net_changes().collect())
+            }
         };
-        let (m, se) = mean_se(pairs().map(change));
         out.num(key, m);
         out.se(key, se);
-        out.quantiles(key, pairs().map(change).collect());
+        out.quantiles(key, all);
     }
     // producers' risk
     let watch = &runs.watch;
@@ -685,7 +697,7 @@ pub(super) fn build(
     let other = watch.income_scale() - watch.reference_revenue;
     let scale = watch.income_scale();
     let (rev_mean, rev_sd) = (pooled.revenue.mean(), pooled.revenue.sd());
-    per_rep(&mut out, "producer_revenue_mean", &|r| r.mean_revenue);
+    per_real(&mut out, "producer_revenue_mean", Real::MeanRevenue);
     out.num("producer_revenue_sd", rev_sd);
     out.num("producer_revenue_cv", revenue_cv(rev_sd, rev_mean));
     let approx = |p: &PolicyRuns| {
@@ -720,7 +732,7 @@ pub(super) fn build(
     let (pv, base_pv) = (premium_pv(runs), premium_pv(base));
     out.num("revenue_risk_premium_pv", pv);
     out.num("revenue_risk_premium_change_pv", pv - base_pv);
-    let (net, net_se) = mean_se(pairs().map(net_change));
+    let (net, net_se) = mean_se(net_changes());
     out.num("risk_adjusted_net_welfare_change_pv", net - (pv - base_pv));
     out.se("risk_adjusted_net_welfare_change_pv", net_se);
     match crate::stability::analyse(scenario, spec) {

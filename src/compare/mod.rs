@@ -403,11 +403,19 @@ pub fn compare_with_households(
         .collect();
     // policies whose net welfare changes differ by less than two standard errors of the difference
     let lambda = scenario.run.public_funds_cost;
-    let net = |k: usize, rep: usize| {
-        let (slot, base) = (slots[k], baseline_of[k]);
-        mc.policies[slot].replications[rep].welfare.net(lambda)
-            - mc.policies[base].replications[rep].welfare.net(lambda)
-    };
+    // each policy's net welfare change replication by replication, read once
+    let nets: Vec<Vec<f64>> = (0..policies.len())
+        .map(|k| {
+            let (slot, base) = (slots[k], baseline_of[k]);
+            mc.policies[slot]
+                .replications
+                .welfare()
+                .zip(mc.policies[base].replications.welfare())
+                .map(|(p, b)| p.net(lambda) - b.net(lambda))
+                .collect()
+        })
+        .collect();
+    let net = |k: usize, rep: usize| nets[k][rep];
     let mut close_calls = Vec::new();
     for i in 0..policies.len() {
         for j in i + 1..policies.len() {

@@ -5,7 +5,8 @@ use crate::engine::PeriodRecord;
 use crate::policies::PolicySpec;
 use crate::policies::{compile, flags};
 use crate::scenario::Scenario;
-use crate::stochastic::{PolicyRuns, ReplicationSummary};
+use crate::stochastic::montecarlo::Count;
+use crate::stochastic::PolicyRuns;
 
 /// The rules that cannot be kept up at the free market's steady state, in words (an indefensible
 /// floor or ceiling, a permanent payment; each rule words its own). `None` when there is none.
@@ -27,20 +28,22 @@ pub fn summarise(scenario: &Scenario, policy: &PolicySpec, runs: &PolicyRuns) ->
     let reps = runs.replications.len().max(1) as f64;
     let seasons = reps * scenario.run.periods.max(1) as f64;
     let pct = |x: f64| crate::output::fmt_num(100.0 * x, 1);
-    type Count = fn(&ReplicationSummary) -> u32;
     let checks: [(&str, Count); 4] = [
-        ("the store was full", |r| r.capacity_full_periods),
-        ("the purchase budget bound", |r| r.budget_bound_periods),
-        ("stock-out (reserve empty, price above the ceiling)", |r| {
-            r.stockout_periods
-        }),
-        ("the producer price fell below the purchase floor", |r| {
-            r.floor_failed_periods
-        }),
+        ("the store was full", Count::CapacityFull),
+        ("the purchase budget bound", Count::BudgetBound),
+        (
+            "stock-out (reserve empty, price above the ceiling)",
+            Count::Stockout,
+        ),
+        (
+            "the producer price fell below the purchase floor",
+            Count::FloorFailed,
+        ),
     ];
     for (what, count) in checks {
-        let total: u64 = runs.replications.iter().map(|r| u64::from(count(r))).sum();
-        let any = runs.replications.iter().filter(|r| count(r) > 0).count();
+        let counts = || runs.replications.counts(count);
+        let total: u64 = counts().map(u64::from).sum();
+        let any = counts().filter(|n| *n > 0).count();
         if total > 0 {
             out.push(format!(
                 "{what} in {} % of seasons ({} % of replications)",

@@ -1,19 +1,21 @@
 //! How much memory a Monte Carlo run needs, estimated before it starts, and how much the machine has.
 //!
 //! What a run keeps (see `montecarlo.rs`): for every replication and every column (the baseline and
-//! each policy) one [`ReplicationSummary`], held once (the chunks write their replications into the
-//! final lists in place; issue 22 — before, the chunks' results and the assembled list stood side by
-//! side), and one `f64` of scratch while the 5/50/95 % quantiles of a present value are selected;
-//! per chunk of [`CHUNK`] replications, per-period sums of the fiscal cost, income, its CRRA
-//! transform and each kept series (amortised: `8 · periods · (3 + series) / CHUNK` bytes a
-//! replication); the per-period values kept for fan-chart quantiles, capped at
-//! [`SERIES_BUDGET_BYTES`] in all; the season outlays kept for pooled quantiles, capped at
-//! [`SEASON_BUDGET_BYTES`] in all; and the program itself ([`BASE_BYTES`]). The measured peaks are
-//! in docs/montecarlo.md.
+//! each policy) its summary value by value (`montecarlo::Replications`): per chunk of [`CHUNK`] replications,
+//! a value with the same bits in the whole chunk is held once, any other once per replication —
+//! at most [`REALS`] `f64` and [`COUNTS`] `u32` a replication, plus one block header per value per
+//! chunk (the estimate takes this worst case; a policy that never buys, pays or stocks holds far
+//! less); one `f64` of scratch while the quantiles of a present value are selected; the per-period
+//! sums of the fiscal cost, income, its CRRA transform and each kept series only for the chunks of
+//! one wave in flight ([`WAVE`] chunks: they are merged in chunk order as each wave ends); the
+//! per-period values kept for fan-chart quantiles, capped at [`SERIES_BUDGET_BYTES`] in all; the
+//! season outlays kept for pooled quantiles, capped at [`SEASON_BUDGET_BYTES`] in all (outlays of
+//! exactly 0 are counted, not kept, so the cap is the worst case); and the program itself
+//! ([`BASE_BYTES`]). The measured peaks are in docs/montecarlo.md.
 
 use std::mem::size_of;
 
-use super::montecarlo::{ReplicationSummary, CHUNK, SEASON_BUDGET_BYTES, SERIES_BUDGET_BYTES};
+use super::montecarlo::{CHUNK, COUNTS, REALS, SEASON_BUDGET_BYTES, SERIES_BUDGET_BYTES, WAVE};
 
 /// The program, its tables and thread stacks, before any replication (measured about 10 MB; rounded
 /// up).
@@ -43,12 +45,23 @@ pub struct MemoryEstimate {
     pub total: u64,
 }
 
-/// Bytes per replication per column for `periods` periods and `series` kept series.
-pub fn bytes_per_replication_per_column(periods: usize, series: usize) -> u64 {
-    let summaries = size_of::<ReplicationSummary>() as u64;
+/// Bytes per replication per column, at most: every value of the summary held per replication,
+/// the block headers (one per value per chunk, amortised) and the quantile scratch.
+pub fn bytes_per_replication_per_column() -> u64 {
+    let values = (REALS * size_of::<f64>() + COUNTS * size_of::<u32>()) as u64;
+    let headers = ((REALS + COUNTS) as u64 * BLOCK_HEADER_BYTES).div_ceil(CHUNK as u64);
     let quantile_scratch = size_of::<f64>() as u64;
+    values + headers + quantile_scratch
+}
+
+/// A chunk's block of one value: its header (an enum around a boxed slice).
+const BLOCK_HEADER_BYTES: u64 = 24;
+
+/// Bytes of the per-period sums of one wave in flight: per chunk and column, the fiscal cost,
+/// income, its CRRA transform and each kept series.
+pub fn wave_bytes(periods: usize, columns: usize, series: usize) -> u64 {
     let per_chunk = 8 * periods as u64 * (3 + series as u64);
-    summaries + quantile_scratch + per_chunk.div_ceil(CHUNK as u64)
+    per_chunk * WAVE as u64 * columns as u64
 }
 
 /// The estimate for `replications` × `periods` with `columns` columns and `series` kept series.
@@ -58,7 +71,7 @@ pub fn estimate(
     columns: usize,
     series: usize,
 ) -> MemoryEstimate {
-    let per = bytes_per_replication_per_column(periods, series);
+    let per = bytes_per_replication_per_column();
     let reps = replications as u64;
     let cols = columns as u64;
     // the kept series: whole chunks of replications up to the budget, at least one chunk
@@ -80,6 +93,7 @@ pub fn estimate(
         .saturating_mul(reps)
         .saturating_mul(cols)
         .saturating_add(series_bytes)
+        .saturating_add(wave_bytes(periods, columns, series))
         .saturating_add(BASE_BYTES);
     MemoryEstimate {
         replications,
@@ -176,7 +190,7 @@ pub fn check_against(
     if e.total <= usable {
         return Ok(e);
     }
-    let fixed = e.series_bytes + BASE_BYTES;
+    let fixed = e.series_bytes + wave_bytes(periods, columns, series) + BASE_BYTES;
     let per = e.per_replication_per_column * columns.max(1) as u64;
     let max_replications = (usable.saturating_sub(fixed) / per.max(1)) as usize;
     Err(TooMuchMemory {
@@ -224,7 +238,9 @@ mod tests {
         let b = estimate(2_000_000, 40, 2, 2);
         let c = estimate(1_000_000, 40, 4, 2);
         assert_eq!(a.series_bytes, b.series_bytes);
-        let var = |e: &MemoryEstimate| e.total - e.series_bytes - BASE_BYTES;
+        let var = |e: &MemoryEstimate| {
+            e.total - e.series_bytes - BASE_BYTES - wave_bytes(e.periods, e.columns, 2)
+        };
         assert_eq!(var(&b), 2 * var(&a));
         assert_eq!(var(&c), 2 * var(&a));
         assert!(
@@ -246,5 +262,34 @@ mod tests {
         // the suggested count fits
         assert!(check_against(err.max_replications, 40, 2, 2, 1 << 30, true).is_ok());
         assert!(check_against(2000, 40, 2, 2, 1 << 30, true).is_ok());
+    }
+
+    #[test]
+    fn the_estimate_bounds_what_a_run_holds() {
+        // a small run's summaries, value by value, hold no more than the worst case estimated
+        use crate::policies::PolicySpec;
+        use crate::scenario::{market_from_table, parse_toml};
+        let text = "[market]\nname = \"T\"\nquantity_unit = \"kt\"\nprice_unit = \"per t\"\n\
+             [demand]\nintercept = 200.0\nslope = -2.0\n[supply]\nintercept = -40.0\nslope = 1.0\n\
+             [expectations]\nrule = \"naive\"\n[run]\nperiods = 10\ninitial_price = 85.0\n\
+             replications = 300\nseed = 9\n[shocks]\nsupply_sd = 2.0\n";
+        let s = market_from_table("t.toml", parse_toml("t.toml", text).unwrap()).unwrap();
+        let mc = crate::stochastic::run_monte_carlo(
+            &s,
+            &[PolicySpec::none()],
+            &[],
+            &crate::stochastic::NoProgress,
+        )
+        .unwrap();
+        let reps: &crate::stochastic::montecarlo::Replications = &mc.policies[0].replications;
+        assert_eq!(reps.len(), 300);
+        let bound = bytes_per_replication_per_column() * 300;
+        assert!((reps.value_bytes() as u64) <= bound);
+        // the market left alone never pays: its fiscal values are held once per chunk
+        assert!(
+            (reps.value_bytes() as u64) < bound / 2,
+            "{}",
+            reps.value_bytes()
+        );
     }
 }

@@ -18,7 +18,7 @@ use rayon::prelude::*;
 use serde::Serialize;
 
 use super::draw_shocks;
-use super::stats::{ShiftedSums, Summary};
+use super::stats::{quantiles_with_zeros, ShiftedSums, Summary};
 use crate::curves::SteadyState;
 use crate::engine::{Diverged, Model, PathModel, PeriodRecord, PeriodShock, Stepper};
 use crate::policies::flags;
@@ -149,6 +149,575 @@ pub struct ReplicationSummary {
     pub export_periods: u32,
 }
 
+/// The per-replication values of a [`ReplicationSummary`] that are real numbers, in the order
+/// the compact store ([`Replications`]) keeps them.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Real {
+    /// Present value of consumer surplus.
+    ConsumerSurplus,
+    /// Present value of producer surplus.
+    ProducerSurplus,
+    /// Present value of the fiscal cost.
+    FiscalCost,
+    /// Present value of purchases.
+    PurchaseCost,
+    /// Present value of sales revenue.
+    SalesRevenue,
+    /// Present value of storage cost.
+    StorageCost,
+    /// Present value of financing cost.
+    FinancingCost,
+    /// Present value of handling cost.
+    HandlingCost,
+    /// Present value of deficiency payments.
+    DeficiencyPayments,
+    /// The opening stock's cost.
+    OpeningStockCost,
+    /// Present value of the terminal stock.
+    TerminalStockValue,
+    /// Present value of border receipts.
+    BorderRevenue,
+    /// Present value of quota rents.
+    QuotaRent,
+    /// Agency stock S_T.
+    FinalStock,
+    /// Mean price over the periods.
+    MeanPrice,
+    /// Mean producer price.
+    MeanProducerPrice,
+    /// Mean harvest.
+    MeanHarvest,
+    /// Mean producer revenue.
+    MeanRevenue,
+    /// Mean cash outlay per season.
+    MeanSeasonFiscal,
+    /// The largest season's outlay.
+    WorstSeasonFiscal,
+    /// The largest running total of outlays.
+    PeakCumulativeFiscal,
+    /// Mean private imports per season.
+    MeanImports,
+    /// Mean private exports per season.
+    MeanExports,
+}
+
+/// How many [`Real`] values a replication has.
+pub const REALS: usize = 23;
+
+/// The per-replication counts of seasons of a [`ReplicationSummary`], in the order the compact
+/// store keeps them.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Count {
+    /// Seasons the agency bought or a deficiency payment was made.
+    FloorBinding,
+    /// Stock-out seasons.
+    Stockout,
+    /// Seasons above the annual budget.
+    BudgetExceeded,
+    /// Seasons above the k-th alert price (k < `MAX_ALERTS`).
+    Alert(usize),
+    /// Seasons a purchase floor failed.
+    FloorFailed,
+    /// Seasons a band failed.
+    BandFailed,
+    /// Seasons the store was full.
+    CapacityFull,
+    /// Seasons the purchase budget bound.
+    BudgetBound,
+    /// Seasons with private imports.
+    ImportPeriods,
+    /// Seasons with private exports.
+    ExportPeriods,
+}
+
+/// How many [`Count`] values a replication has.
+pub const COUNTS: usize = 9 + MAX_ALERTS;
+
+impl Count {
+    fn index(self) -> usize {
+        match self {
+            Count::FloorBinding => 0,
+            Count::Stockout => 1,
+            Count::BudgetExceeded => 2,
+            Count::Alert(k) => 3 + k.min(MAX_ALERTS - 1),
+            Count::FloorFailed => 3 + MAX_ALERTS,
+            Count::BandFailed => 4 + MAX_ALERTS,
+            Count::CapacityFull => 5 + MAX_ALERTS,
+            Count::BudgetBound => 6 + MAX_ALERTS,
+            Count::ImportPeriods => 7 + MAX_ALERTS,
+            Count::ExportPeriods => 8 + MAX_ALERTS,
+        }
+    }
+}
+
+impl ReplicationSummary {
+    /// The real values in [`Real`] order and the counts in [`Count`] order.
+    fn split(&self) -> ([f64; REALS], [u32; COUNTS]) {
+        let w = &self.welfare;
+        let reals = [
+            w.consumer_surplus,
+            w.producer_surplus,
+            w.fiscal_cost,
+            w.purchase_cost,
+            w.sales_revenue,
+            w.storage_cost,
+            w.financing_cost,
+            w.handling_cost,
+            w.deficiency_payments,
+            w.opening_stock_cost,
+            w.terminal_stock_value,
+            w.border_revenue,
+            w.quota_rent,
+            self.final_stock,
+            self.mean_price,
+            self.mean_producer_price,
+            self.mean_harvest,
+            self.mean_revenue,
+            self.mean_season_fiscal,
+            self.worst_season_fiscal,
+            self.peak_cumulative_fiscal,
+            self.mean_imports,
+            self.mean_exports,
+        ];
+        let mut counts = [0; COUNTS];
+        counts[0] = self.floor_binding_periods;
+        counts[1] = self.stockout_periods;
+        counts[2] = self.budget_exceeded_periods;
+        counts[3..3 + MAX_ALERTS].copy_from_slice(&self.alert_periods);
+        counts[3 + MAX_ALERTS..].copy_from_slice(&[
+            self.floor_failed_periods,
+            self.band_failed_periods,
+            self.capacity_full_periods,
+            self.budget_bound_periods,
+            self.import_periods,
+            self.export_periods,
+        ]);
+        (reals, counts)
+    }
+
+    /// The inverse of [`ReplicationSummary::split`].
+    fn join(r: &[f64; REALS], c: &[u32; COUNTS]) -> ReplicationSummary {
+        let mut alert_periods = [0; MAX_ALERTS];
+        alert_periods.copy_from_slice(&c[3..3 + MAX_ALERTS]);
+        let a = 3 + MAX_ALERTS;
+        ReplicationSummary {
+            welfare: welfare_of(r[..13].try_into().unwrap_or([0.0; 13])),
+            floor_binding_periods: c[0],
+            stockout_periods: c[1],
+            final_stock: r[13],
+            mean_price: r[14],
+            mean_producer_price: r[15],
+            mean_harvest: r[16],
+            mean_revenue: r[17],
+            mean_season_fiscal: r[18],
+            worst_season_fiscal: r[19],
+            peak_cumulative_fiscal: r[20],
+            budget_exceeded_periods: c[2],
+            alert_periods,
+            floor_failed_periods: c[a],
+            band_failed_periods: c[a + 1],
+            capacity_full_periods: c[a + 2],
+            budget_bound_periods: c[a + 3],
+            mean_imports: r[21],
+            mean_exports: r[22],
+            import_periods: c[a + 4],
+            export_periods: c[a + 5],
+        }
+    }
+}
+
+/// The welfare present values from the first 13 [`Real`] values, in that order.
+fn welfare_of(r: [f64; 13]) -> WelfarePv {
+    WelfarePv {
+        consumer_surplus: r[0],
+        producer_surplus: r[1],
+        fiscal_cost: r[2],
+        purchase_cost: r[3],
+        sales_revenue: r[4],
+        storage_cost: r[5],
+        financing_cost: r[6],
+        handling_cost: r[7],
+        deficiency_payments: r[8],
+        opening_stock_cost: r[9],
+        terminal_stock_value: r[10],
+        border_revenue: r[11],
+        quota_rent: r[12],
+    }
+}
+
+/// One value of one chunk's replications: the same bits in every replication of the chunk (held
+/// once), or one value per replication.
+#[derive(Debug, Clone, PartialEq)]
+enum Block<T> {
+    Same(T),
+    /// values that fit in a byte (counts of seasons in a run of up to 255 seasons)
+    Small(Box<[u8]>),
+    Each(Box<[T]>),
+}
+
+/// A value that a block may hold once when all its replications share its bits.
+trait Bits: Copy {
+    fn bits(self) -> u64;
+    /// The value as a byte, when it is a count that fits in one.
+    fn small(self) -> Option<u8>;
+    fn from_small(b: u8) -> Self;
+}
+
+impl Bits for f64 {
+    fn bits(self) -> u64 {
+        self.to_bits()
+    }
+    fn small(self) -> Option<u8> {
+        None
+    }
+    fn from_small(b: u8) -> f64 {
+        f64::from(b)
+    }
+}
+
+impl Bits for u32 {
+    fn bits(self) -> u64 {
+        u64::from(self)
+    }
+    fn small(self) -> Option<u8> {
+        u8::try_from(self).ok()
+    }
+    fn from_small(b: u8) -> u32 {
+        u32::from(b)
+    }
+}
+
+impl<T: Bits> Block<T> {
+    fn of(values: impl Iterator<Item = T> + Clone) -> Block<T> {
+        let mut it = values.clone();
+        match it.next() {
+            Some(first) if it.all(|v| v.bits() == first.bits()) => Block::Same(first),
+            _ => match values.clone().map(T::small).collect::<Option<Box<[u8]>>>() {
+                Some(small) => Block::Small(small),
+                None => Block::Each(values.collect()),
+            },
+        }
+    }
+
+    fn bytes(&self) -> usize {
+        match self {
+            Block::Same(_) => 0,
+            Block::Small(v) => v.len(),
+            Block::Each(v) => std::mem::size_of_val(&**v),
+        }
+    }
+
+    #[inline]
+    fn at(&self, i: usize) -> T {
+        match self {
+            Block::Same(x) => *x,
+            Block::Small(v) => T::from_small(v[i]),
+            Block::Each(v) => v[i],
+        }
+    }
+}
+
+/// One value of every replication in replication order, reading a column of chunk blocks.
+#[derive(Debug, Clone)]
+pub struct Values<'a, T> {
+    blocks: &'a [Block<T>],
+    block: usize,
+    i: usize,
+    total: usize,
+}
+
+impl<T: Bits> Iterator for Values<'_, T> {
+    type Item = T;
+
+    #[inline]
+    fn next(&mut self) -> Option<T> {
+        loop {
+            let b = self.blocks.get(self.block)?;
+            let len = match b {
+                Block::Same(_) => CHUNK.min(self.total - self.block * CHUNK),
+                Block::Small(v) => v.len(),
+                Block::Each(v) => v.len(),
+            };
+            if self.i < len {
+                let i = self.i;
+                self.i += 1;
+                return Some(b.at(i));
+            }
+            self.block += 1;
+            self.i = 0;
+        }
+    }
+}
+
+/// Every replication's summary of one model, stored value by value in blocks of [`CHUNK`]
+/// replications (a chunk's replications): a value with the same bits in the whole chunk (a cost
+/// the policy never incurs, a count that stays 0) is held once, any other value once per
+/// replication. Read in replication order, value by value ([`Replications::reals`],
+/// [`Replications::counts`]) or whole ([`Replications::iter`], [`Replications::get`]); what is read
+/// has the bits of the [`ReplicationSummary`] the fold produced.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct Replications {
+    len: usize,
+    reals: Vec<Vec<Block<f64>>>,
+    counts: Vec<Vec<Block<u32>>>,
+}
+
+/// One chunk's replications of one model, value by value.
+#[derive(Debug, Clone, PartialEq)]
+struct ChunkBlocks {
+    len: usize,
+    reals: Vec<Block<f64>>,
+    counts: Vec<Block<u32>>,
+}
+
+impl ChunkBlocks {
+    fn of(summaries: &[ReplicationSummary]) -> ChunkBlocks {
+        let split: Vec<([f64; REALS], [u32; COUNTS])> =
+            summaries.iter().map(ReplicationSummary::split).collect();
+        ChunkBlocks {
+            len: summaries.len(),
+            reals: (0..REALS)
+                .map(|j| Block::of(split.iter().map(|(r, _)| r[j])))
+                .collect(),
+            counts: (0..COUNTS)
+                .map(|j| Block::of(split.iter().map(|(_, c)| c[j])))
+                .collect(),
+        }
+    }
+}
+
+impl Replications {
+    fn new() -> Replications {
+        Replications {
+            len: 0,
+            reals: (0..REALS).map(|_| Vec::new()).collect(),
+            counts: (0..COUNTS).map(|_| Vec::new()).collect(),
+        }
+    }
+
+    /// Appends a chunk's replications (every chunk but the last holds [`CHUNK`]).
+    fn push(&mut self, c: ChunkBlocks) {
+        self.len += c.len;
+        for (col, b) in self.reals.iter_mut().zip(c.reals) {
+            col.push(b);
+        }
+        for (col, b) in self.counts.iter_mut().zip(c.counts) {
+            col.push(b);
+        }
+    }
+
+    /// The number of replications.
+    pub fn len(&self) -> usize {
+        self.len
+    }
+
+    /// Whether there are none.
+    pub fn is_empty(&self) -> bool {
+        self.len == 0
+    }
+
+    /// Bytes held for the values (blocks held once cost nothing here).
+    pub fn value_bytes(&self) -> usize {
+        let r: usize = self.reals.iter().flatten().map(Block::bytes).sum();
+        let c: usize = self.counts.iter().flatten().map(Block::bytes).sum();
+        r + c
+    }
+
+    /// One real value of every replication, in replication order.
+    pub fn reals(&self, which: Real) -> Values<'_, f64> {
+        Values {
+            blocks: &self.reals[which as usize],
+            block: 0,
+            i: 0,
+            total: self.len,
+        }
+    }
+
+    /// One count of every replication, in replication order.
+    pub fn counts(&self, which: Count) -> Values<'_, u32> {
+        Values {
+            blocks: &self.counts[which.index()],
+            block: 0,
+            i: 0,
+            total: self.len,
+        }
+    }
+
+    /// The welfare present values of every replication, in replication order.
+    pub fn welfare(&self) -> impl Iterator<Item = WelfarePv> + Clone + '_ {
+        let mut cols: [Values<'_, f64>; 13] = std::array::from_fn(|j| self.reals(REAL_ORDER[j]));
+        (0..self.len)
+            .map(move |_| welfare_of(std::array::from_fn(|j| cols[j].next().unwrap_or(0.0))))
+    }
+
+    /// Replication `rep`'s summary (the default past the end).
+    pub fn get(&self, rep: usize) -> ReplicationSummary {
+        if rep >= self.len {
+            return ReplicationSummary::default();
+        }
+        let (b, i) = (rep / CHUNK, rep % CHUNK);
+        let r: [f64; REALS] = std::array::from_fn(|j| self.reals[j][b].at(i));
+        let c: [u32; COUNTS] = std::array::from_fn(|j| self.counts[j][b].at(i));
+        ReplicationSummary::join(&r, &c)
+    }
+
+    /// Every replication's summary, in replication order.
+    pub fn iter(&self) -> impl Iterator<Item = ReplicationSummary> + Clone + '_ {
+        let mut reals: [Values<'_, f64>; REALS] =
+            std::array::from_fn(|j| self.reals(REAL_ORDER[j]));
+        let mut counts: Vec<Values<'_, u32>> = self
+            .counts
+            .iter()
+            .map(|blocks| Values {
+                blocks,
+                block: 0,
+                i: 0,
+                total: self.len,
+            })
+            .collect();
+        (0..self.len).map(move |_| {
+            let r: [f64; REALS] = std::array::from_fn(|j| reals[j].next().unwrap_or(0.0));
+            let c: [u32; COUNTS] = std::array::from_fn(|j| counts[j].next().unwrap_or(0));
+            ReplicationSummary::join(&r, &c)
+        })
+    }
+}
+
+impl<'a> IntoIterator for &'a Replications {
+    type Item = ReplicationSummary;
+    type IntoIter = Box<dyn Iterator<Item = ReplicationSummary> + 'a>;
+
+    fn into_iter(self) -> Self::IntoIter {
+        Box::new(self.iter())
+    }
+}
+
+/// [`Real`] in store order.
+const REAL_ORDER: [Real; REALS] = [
+    Real::ConsumerSurplus,
+    Real::ProducerSurplus,
+    Real::FiscalCost,
+    Real::PurchaseCost,
+    Real::SalesRevenue,
+    Real::StorageCost,
+    Real::FinancingCost,
+    Real::HandlingCost,
+    Real::DeficiencyPayments,
+    Real::OpeningStockCost,
+    Real::TerminalStockValue,
+    Real::BorderRevenue,
+    Real::QuotaRent,
+    Real::FinalStock,
+    Real::MeanPrice,
+    Real::MeanProducerPrice,
+    Real::MeanHarvest,
+    Real::MeanRevenue,
+    Real::MeanSeasonFiscal,
+    Real::WorstSeasonFiscal,
+    Real::PeakCumulativeFiscal,
+    Real::MeanImports,
+    Real::MeanExports,
+];
+
+/// Season outlay quantiles are kept exactly from this probability up (the indicators ask for the
+/// 95 % and 99 % quantiles).
+pub const SEASON_QUANTILE_FROM: f64 = 0.95;
+
+/// The season outlays kept for pooled quantiles: the upper tail only. Of `n` outlays a type 7
+/// quantile at p ≥ [`SEASON_QUANTILE_FROM`] reads only the order statistics from
+/// ⌊(n − 1)·SEASON_QUANTILE_FROM⌋ up, so only the largest values are kept (those at or above every
+/// value dropped, under `f64::total_cmp`) and the number dropped below them; the quantiles are the
+/// same bits as those of the whole list.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct SeasonOutlays {
+    /// The largest outlays (no order).
+    kept: Vec<f64>,
+    /// How many outlays were dropped, each at or below every kept one.
+    dropped: usize,
+    /// How many of the largest to keep at least.
+    keep: usize,
+    /// The smallest kept value after the last pruning: a later outlay below it can never be among
+    /// the largest `keep`, so it is counted as dropped at once.
+    floor: Option<f64>,
+}
+
+impl SeasonOutlays {
+    /// Room for the upper tail of `planned` outlays.
+    fn new(planned: usize) -> SeasonOutlays {
+        let below = ((planned.saturating_sub(1)) as f64 * SEASON_QUANTILE_FROM).floor() as usize;
+        SeasonOutlays {
+            kept: Vec::new(),
+            dropped: 0,
+            keep: planned.saturating_sub(below) + 1,
+            floor: None,
+        }
+    }
+
+    /// How many outlays there were (dropped ones included).
+    pub fn len(&self) -> usize {
+        self.dropped + self.kept.len()
+    }
+
+    /// Whether there were none.
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+
+    /// Type 7 quantiles of all the outlays at `probs` (ascending); `None` when one lies below the
+    /// kept tail.
+    pub fn quantiles(&self, probs: &[f64]) -> Option<Vec<f64>> {
+        let n = self.len();
+        if n == 0 {
+            return Some(vec![0.0; probs.len()]);
+        }
+        let mut v = self.kept.clone();
+        let mut kth = |k: usize| -> Option<f64> {
+            let i = k.checked_sub(self.dropped)?;
+            Some(*v.select_nth_unstable_by(i, f64::total_cmp).1)
+        };
+        probs
+            .iter()
+            .map(|&p| {
+                let h = (n - 1) as f64 * p.clamp(0.0, 1.0);
+                let k = (h.floor() as usize).min(n - 1);
+                let frac = h - k as f64;
+                let low = kth(k)?;
+                Some(if frac > 0.0 && k + 1 < n {
+                    let high = kth(k + 1)?;
+                    low + frac * (high - low)
+                } else {
+                    low
+                })
+            })
+            .collect()
+    }
+
+    /// Adds outlays; drops the smallest when the kept values reach twice the tail.
+    fn extend(&mut self, outlays: &[f64]) {
+        match self.floor {
+            None => self.kept.extend_from_slice(outlays),
+            Some(floor) => {
+                let before = self.kept.len();
+                self.kept
+                    .extend(outlays.iter().filter(|x| x.total_cmp(&floor).is_ge()));
+                self.dropped += outlays.len() - (self.kept.len() - before);
+            }
+        }
+        if self.kept.len() >= 2 * self.keep.max(CHUNK) {
+            let cut = self.kept.len() - self.keep;
+            self.kept.select_nth_unstable_by(cut, f64::total_cmp);
+            self.kept.drain(..cut);
+            self.dropped += cut;
+            self.floor = self.kept.first().copied();
+        }
+    }
+
+    /// Bytes held for the values.
+    pub fn value_bytes(&self) -> usize {
+        8 * self.kept.capacity()
+    }
+}
+
 /// Pooled moments over all periods and replications of one policy.
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
 pub struct Pooled {
@@ -275,8 +844,9 @@ pub struct SeriesSummary {
 pub struct PolicyRuns {
     /// The policy's display name.
     pub name: String,
-    /// One entry per replication, in replication order.
-    pub replications: Vec<ReplicationSummary>,
+    /// Every replication's summary, in replication order (held value by value; see
+    /// [`Replications`]).
+    pub replications: Replications,
     /// Moments pooled over periods and replications.
     pub pooled: Pooled,
     /// Mean fiscal cost in each period (index t − 1).
@@ -285,7 +855,7 @@ pub struct PolicyRuns {
     pub series: Vec<SeriesSummary>,
     /// Per-season cash outlays of the leading replications (all of them unless the run is very
     /// large), for pooled quantiles.
-    pub season_fiscal: Vec<f64>,
+    pub season_fiscal: SeasonOutlays,
     /// Mean producers' income in each period across replications (index t − 1).
     pub mean_income: Vec<f64>,
     /// Mean CRRA transform of income in each period across replications (index t − 1).
@@ -465,13 +1035,87 @@ struct ChunkPolicy {
     series: Vec<Vec<f64>>,
     /// per-period sums of each kept series over the chunk's replications: [series][t]
     series_sums: Vec<Vec<f64>>,
+    /// the chunk's replication summaries while it runs (then `blocks`)
+    summaries: Vec<ReplicationSummary>,
+    /// the chunk's replication summaries, value by value
+    blocks: Option<ChunkBlocks>,
+    /// the season outlays of the chunk's replications, when within the season budget
+    season_buf: Vec<f64>,
 }
 
-/// Where one chunk writes its replications' summaries and season outlays: per model, the chunk's
-/// slice of the final lists (no season slices beyond the season budget).
-struct Slots<'a> {
-    reps: Vec<&'a mut [ReplicationSummary]>,
-    seasons: Vec<&'a mut [f64]>,
+/// Chunks run in parallel at a time: their results are merged in chunk order before the next
+/// wave starts, so the sums never wait in memory for the whole run (any wave size gives the same
+/// bits: the merge order is the chunk order).
+pub const WAVE: usize = 128;
+
+/// One model's results merged over the chunks so far, in chunk order.
+struct Merged {
+    replications: Replications,
+    outlays: SeasonOutlays,
+    pooled: Option<Pooled>,
+    fiscal: Vec<f64>,
+    income: Vec<f64>,
+    transform: Vec<f64>,
+    /// per series, the kept chunks' period-major values, in chunk order (chunks all +0 only
+    /// counted)
+    series: Vec<Vec<Vec<f64>>>,
+    /// per series, the kept replications whose values were all +0 (their chunks not kept)
+    series_zero_reps: Vec<usize>,
+    series_sums: Vec<Vec<f64>>,
+}
+
+impl Merged {
+    fn new(periods: usize, series: usize, planned_outlays: usize) -> Merged {
+        Merged {
+            replications: Replications::new(),
+            outlays: SeasonOutlays::new(planned_outlays),
+            series_zero_reps: vec![0; series],
+            pooled: None,
+            fiscal: vec![0.0; periods],
+            income: vec![0.0; periods],
+            transform: vec![0.0; periods],
+            series: (0..series).map(|_| Vec::new()).collect(),
+            series_sums: (0..series).map(|_| vec![0.0; periods]).collect(),
+        }
+    }
+
+    /// Adds the next chunk's results (chunks in order).
+    fn merge(&mut self, c: ChunkPolicy) {
+        match &mut self.pooled {
+            None => self.pooled = Some(c.pooled),
+            Some(acc) => acc.merge(&c.pooled),
+        }
+        for (a, b) in self.fiscal.iter_mut().zip(&c.fiscal) {
+            *a += b;
+        }
+        for (a, b) in self.income.iter_mut().zip(&c.income) {
+            *a += b;
+        }
+        for (a, b) in self.transform.iter_mut().zip(&c.transform) {
+            *a += b;
+        }
+        for (((sums, kept), zero_reps), (block, chunk_sums)) in self
+            .series_sums
+            .iter_mut()
+            .zip(self.series.iter_mut())
+            .zip(self.series_zero_reps.iter_mut())
+            .zip(c.series.into_iter().zip(&c.series_sums))
+        {
+            for (a, b) in sums.iter_mut().zip(chunk_sums) {
+                *a += b;
+            }
+            if block.iter().all(|x| x.to_bits() == 0) {
+                // quantiles depend only on the values, not on which replication holds them
+                *zero_reps += c.n * usize::from(!block.is_empty());
+            } else {
+                kept.push(block);
+            }
+        }
+        if let Some(b) = c.blocks {
+            self.replications.push(b);
+        }
+        self.outlays.extend(&c.season_buf);
+    }
 }
 
 type ChunkOutcome = Result<(Vec<ChunkPolicy>, Vec<PairedChanges>), ReplicationFailed>;
@@ -576,6 +1220,7 @@ fn run_with_budget<M: PathModel>(
         pairs,
         weights: &weights,
         series_reps,
+        season_reps,
         scenario,
         models,
         watches: &watches,
@@ -583,51 +1228,11 @@ fn run_with_budget<M: PathModel>(
         first_failure: &first_failure,
         progress,
     };
-    // the final lists, written in place by the chunks (each chunk its own slices), so that no
-    // replication summary or season outlay is copied or held twice
-    let kept_seasons = season_reps.min(reps);
-    let mut lists: Vec<Vec<ReplicationSummary>> = models
+    let planned_outlays = season_reps.min(reps) * periods;
+    let mut merged: Vec<Merged> = models
         .iter()
-        .map(|_| vec![ReplicationSummary::default(); reps])
+        .map(|_| Merged::new(periods, series.len(), planned_outlays))
         .collect();
-    let mut season_lists: Vec<Vec<f64>> = models
-        .iter()
-        .map(|_| vec![0.0; kept_seasons * periods])
-        .collect();
-    let mut slots: Vec<Slots> = (0..chunks)
-        .map(|_| Slots {
-            reps: Vec::with_capacity(models.len()),
-            seasons: Vec::new(),
-        })
-        .collect();
-    for list in lists.iter_mut() {
-        for (slot, part) in slots.iter_mut().zip(list.chunks_mut(CHUNK)) {
-            slot.reps.push(part);
-        }
-    }
-    for list in season_lists.iter_mut() {
-        for (slot, part) in slots
-            .iter_mut()
-            .zip(list.chunks_mut((CHUNK * periods).max(1)))
-        {
-            slot.seasons.push(part);
-        }
-    }
-    let outcomes: Vec<Option<ChunkOutcome>> = slots
-        .into_par_iter()
-        .enumerate()
-        .map(|(c, slots)| {
-            if first_failure.load(Ordering::Relaxed) < c {
-                return None; // an earlier chunk failed: this one cannot be the first failure
-            }
-            let out = ctx.chunk(c * CHUNK, ((c + 1) * CHUNK).min(reps), slots);
-            if out.is_err() {
-                first_failure.fetch_min(c, Ordering::Relaxed);
-            }
-            Some(out)
-        })
-        .collect();
-    let mut chunk_results = Vec::with_capacity(chunks);
     let mut paired = vec![PairedChanges::default(); pairs.len()];
     let mut season_prices: Vec<SeasonPrices> = if pairs.is_empty() {
         Vec::new()
@@ -640,39 +1245,48 @@ fn run_with_budget<M: PathModel>(
             })
             .collect()
     };
-    for o in outcomes {
-        match o {
-            Some(Ok((v, p))) => {
-                for (a, b) in paired.iter_mut().zip(&p) {
-                    a.merge(b);
+    // waves of chunks run in parallel; each wave's results are merged in chunk order
+    for wave in (0..chunks).step_by(WAVE) {
+        let outcomes: Vec<Option<ChunkOutcome>> = (wave..(wave + WAVE).min(chunks))
+            .into_par_iter()
+            .map(|c| {
+                if first_failure.load(Ordering::Relaxed) < c {
+                    return None; // an earlier chunk failed: this one cannot be the first failure
                 }
-                for (acc, c) in season_prices.iter_mut().zip(&v) {
-                    acc.n += c.n;
-                    for (a, b) in acc.sums.iter_mut().zip(&c.season) {
-                        for i in 0..5 {
-                            a[i] += b[i];
+                let out = ctx.chunk(c * CHUNK, ((c + 1) * CHUNK).min(reps));
+                if out.is_err() {
+                    first_failure.fetch_min(c, Ordering::Relaxed);
+                }
+                Some(out)
+            })
+            .collect();
+        for o in outcomes {
+            match o {
+                Some(Ok((v, p))) => {
+                    for (a, b) in paired.iter_mut().zip(&p) {
+                        a.merge(b);
+                    }
+                    for (acc, c) in season_prices.iter_mut().zip(&v) {
+                        acc.n += c.n;
+                        for (a, b) in acc.sums.iter_mut().zip(&c.season) {
+                            for i in 0..5 {
+                                a[i] += b[i];
+                            }
                         }
                     }
+                    for (m, c) in merged.iter_mut().zip(v) {
+                        m.merge(c);
+                    }
                 }
-                chunk_results.push(v)
+                Some(Err(e)) => return Err(e),
+                None => unreachable!("a chunk is skipped only after an earlier chunk failed"),
             }
-            Some(Err(e)) => return Err(e),
-            None => unreachable!("a chunk is skipped only after an earlier chunk failed"),
         }
     }
-    let policies = (0..models.len())
-        .zip(lists.into_iter().zip(season_lists))
-        .map(|(k, (replications, season_fiscal))| {
-            assemble(
-                models[k].name(),
-                k,
-                (replications, season_fiscal),
-                &chunk_results,
-                series,
-                periods,
-                watches[k].clone(),
-            )
-        })
+    let policies = merged
+        .into_iter()
+        .enumerate()
+        .map(|(k, m)| assemble(models[k].name(), m, series, periods, watches[k].clone()))
         .collect();
     Ok(MonteCarlo {
         replications: reps,
@@ -693,12 +1307,14 @@ struct Context<'a, M> {
     watches: &'a [Watch],
     series: &'a [PathVariable],
     series_reps: usize,
+    /// replications whose season outlays are kept (whole chunks)
+    season_reps: usize,
     first_failure: &'a AtomicUsize,
     progress: &'a dyn Progress,
 }
 
 impl<M: PathModel> Context<'_, M> {
-    fn chunk(&self, from: usize, to: usize, mut slots: Slots) -> ChunkOutcome {
+    fn chunk(&self, from: usize, to: usize) -> ChunkOutcome {
         let s = self.scenario;
         let periods = s.run.periods;
         let n = to - from;
@@ -733,6 +1349,13 @@ impl<M: PathModel> Context<'_, M> {
                     })
                     .collect(),
                 series_sums: self.series.iter().map(|_| vec![0.0; periods]).collect(),
+                summaries: Vec::with_capacity(n),
+                blocks: None,
+                season_buf: if from < self.season_reps {
+                    Vec::with_capacity(n * periods)
+                } else {
+                    Vec::new()
+                },
             })
             .collect();
         let mut paired = vec![PairedChanges::default(); self.pairs.len()];
@@ -750,23 +1373,18 @@ impl<M: PathModel> Context<'_, M> {
             let at = (rep - from, n);
             // lockstep: period by period, every model of the replication steps on the same shock
             for (t, shock) in shocks.iter().enumerate() {
-                for (k, (((path, fold), acc), watch)) in paths
+                for (((path, fold), acc), watch) in paths
                     .iter_mut()
                     .zip(folds.iter_mut())
                     .zip(out.iter_mut())
                     .zip(self.watches)
-                    .enumerate()
                 {
                     if fold.failed.is_none() {
                         match path.step(shock) {
                             Ok(r) => {
                                 // the season outlays of the leading replications (within budget)
-                                if let Some(cell) = slots
-                                    .seasons
-                                    .get_mut(k)
-                                    .and_then(|row| row.get_mut((rep - from) * periods + t))
-                                {
-                                    *cell = r.fiscal_cost;
+                                if from < self.season_reps {
+                                    acc.season_buf.push(r.fiscal_cost);
                                 }
                                 fold.add(t, &r, watch, self.series, at, acc)
                             }
@@ -791,7 +1409,7 @@ impl<M: PathModel> Context<'_, M> {
                         seed: s.run.seed,
                         source,
                     })?;
-                slots.reps[k][rep - from] = summary;
+                acc.summaries.push(summary);
             }
             if !self.pairs.is_empty() {
                 self.pair_up(&mut out, &mut paired);
@@ -803,6 +1421,8 @@ impl<M: PathModel> Context<'_, M> {
         self.progress.advance(n as u64);
         for c in &mut out {
             c.path = Vec::new(); // one replication's scratch: not kept with the chunk
+            c.blocks = Some(ChunkBlocks::of(&c.summaries));
+            c.summaries = Vec::new();
         }
         Ok((out, paired))
     }
@@ -969,38 +1589,27 @@ impl RepFold {
     }
 }
 
-/// Reduces policy `k` over the chunks, in chunk order.
+/// Policy `k`'s results from its chunks merged in chunk order.
 fn assemble(
     name: &str,
-    k: usize,
-    (replications, season_fiscal): (Vec<ReplicationSummary>, Vec<f64>),
-    chunks: &[Vec<ChunkPolicy>],
+    m: Merged,
     series: &[PathVariable],
     periods: usize,
     watch: Watch,
 ) -> PolicyRuns {
-    // the final list holds every replication
+    let Merged {
+        replications,
+        outlays,
+        pooled,
+        mut fiscal,
+        mut income,
+        mut transform,
+        series: kept_series,
+        series_zero_reps,
+        series_sums,
+    } = m;
+    // the merged list holds every replication
     let reps = replications.len();
-    let mut pooled: Option<Pooled> = None;
-    let mut fiscal = vec![0.0; periods];
-    let mut income = vec![0.0; periods];
-    let mut transform = vec![0.0; periods];
-    for c in chunks {
-        let p = &c[k];
-        match &mut pooled {
-            None => pooled = Some(p.pooled),
-            Some(acc) => acc.merge(&p.pooled),
-        }
-        for (a, b) in fiscal.iter_mut().zip(&p.fiscal) {
-            *a += b;
-        }
-        for (a, b) in income.iter_mut().zip(&p.income) {
-            *a += b;
-        }
-        for (a, b) in transform.iter_mut().zip(&p.transform) {
-            *a += b;
-        }
-    }
     for f in fiscal
         .iter_mut()
         .chain(income.iter_mut())
@@ -1010,30 +1619,30 @@ fn assemble(
     }
     let summaries = series
         .iter()
-        .enumerate()
-        .map(|(j, which)| {
-            let mut sums = vec![0.0; periods];
-            let mut kept = 0;
-            for c in chunks {
-                for (a, b) in sums.iter_mut().zip(&c[k].series_sums[j]) {
-                    *a += b;
-                }
-                kept += c[k].series[j].len() / periods.max(1);
-            }
+        .zip(kept_series.iter().zip(&series_sums))
+        .zip(&series_zero_reps)
+        .map(|((which, (blocks, sums)), &zeros)| {
+            let kept: usize = blocks
+                .iter()
+                .map(|b| b.len() / periods.max(1))
+                .sum::<usize>()
+                + zeros;
             let summaries = (0..periods)
                 .into_par_iter()
                 .map_init(
                     || Vec::with_capacity(kept),
                     |column, t| {
                         column.clear();
-                        for c in chunks {
-                            let block = &c[k].series[j];
+                        for block in blocks {
                             let n = block.len() / periods.max(1);
                             column.extend_from_slice(&block[t * n..(t + 1) * n]);
                         }
+                        let q = quantiles_with_zeros(column, zeros, &[0.05, 0.5, 0.95]);
                         Summary {
                             mean: sums[t] / reps as f64,
-                            ..Summary::of(column)
+                            p05: q[0],
+                            p50: q[1],
+                            p95: q[2],
                         }
                     },
                 )
@@ -1051,7 +1660,7 @@ fn assemble(
         pooled: pooled.unwrap_or_default(),
         mean_fiscal_cost: fiscal,
         series: summaries,
-        season_fiscal,
+        season_fiscal: outlays,
         mean_income: income,
         mean_income_transform: transform,
         watch,
@@ -1062,6 +1671,7 @@ fn assemble(
 mod tests {
     use super::*;
     use crate::scenario::{market_from_table, parse_toml};
+    use crate::stochastic::quantiles;
 
     fn scenario(reps: usize) -> Scenario {
         let text = format!(
@@ -1103,5 +1713,80 @@ mod tests {
             assert_eq!(c.periods[t].p95, l.periods[t].p95);
         }
         assert_eq!(capped.policies[0].pooled, full.policies[0].pooled);
+    }
+
+    #[test]
+    fn the_kept_tail_gives_the_upper_quantiles_of_the_whole_list() {
+        // type 7 (Hyndman and Fan 1996, definition 7) at 95 % and 99 % of the whole list, selected
+        // by `stats::quantiles`, against the tail kept while outlays arrive in chunks
+        let mut x = 0.4321_f64;
+        let whole: Vec<f64> = (0..20_000)
+            .map(|i| {
+                x = (x * 3.95 * (1.0 - x)).clamp(1e-9, 1.0 - 1e-9);
+                if i % 3 == 0 {
+                    0.0
+                } else {
+                    1000.0 * (x - 0.3)
+                }
+            })
+            .collect();
+        let mut tail = SeasonOutlays::new(whole.len());
+        for part in whole.chunks(700) {
+            tail.extend(part);
+        }
+        assert!(tail.dropped > 0, "the test must drop values");
+        assert_eq!(tail.len(), whole.len());
+        let probs = [0.95, 0.975, 0.99, 1.0];
+        let want = quantiles(&mut whole.clone(), &probs);
+        let got = tail.quantiles(&probs).unwrap();
+        for (a, b) in want.iter().zip(&got) {
+            assert_eq!(a.to_bits(), b.to_bits(), "{want:?} vs {got:?}");
+        }
+        // a quantile below the kept tail is refused, not guessed
+        assert_eq!(tail.quantiles(&[0.5]), None);
+    }
+
+    #[test]
+    fn chunk_blocks_give_back_every_summary() {
+        // values shared across the chunk, small and large counts, and values that differ
+        let summaries: Vec<ReplicationSummary> = (0..CHUNK as u32 + 5)
+            .map(|i| ReplicationSummary {
+                mean_price: 100.0 + f64::from(i) * 0.37,
+                final_stock: 12.5,
+                stockout_periods: i % 7,
+                capacity_full_periods: 250 + i,
+                alert_periods: [i % 2, 0, 0, 0, 0, 0, 0, 0],
+                welfare: WelfarePv {
+                    fiscal_cost: if i % 2 == 0 { -0.0 } else { 0.0 },
+                    consumer_surplus: f64::from(i).sqrt(),
+                    ..Default::default()
+                },
+                ..Default::default()
+            })
+            .collect();
+        let mut reps = Replications::new();
+        for part in summaries.chunks(CHUNK) {
+            reps.push(ChunkBlocks::of(part));
+        }
+        assert_eq!(reps.len(), summaries.len());
+        for (i, want) in summaries.iter().enumerate() {
+            let got = reps.get(i);
+            assert_eq!(&got, want, "replication {i}");
+            assert_eq!(
+                got.welfare.fiscal_cost.to_bits(),
+                want.welfare.fiscal_cost.to_bits()
+            );
+        }
+        assert!(reps.iter().eq(summaries.iter().copied()));
+        assert!(reps
+            .reals(Real::MeanPrice)
+            .eq(summaries.iter().map(|r| r.mean_price)));
+        assert!(reps
+            .counts(Count::CapacityFull)
+            .eq(summaries.iter().map(|r| r.capacity_full_periods)));
+        assert!(reps
+            .counts(Count::Alert(0))
+            .eq(summaries.iter().map(|r| r.alert_periods[0])));
+        assert!(reps.welfare().eq(summaries.iter().map(|r| r.welfare)));
     }
 }

@@ -128,6 +128,51 @@ pub fn quantiles(values: &mut [f64], probs: &[f64]) -> Vec<f64> {
         .collect()
 }
 
+/// [`quantiles`] of a sample given as `values` (any order; reordered in place) plus `zeros` values
+/// equal to +0 that are not in the slice: the same bits as [`quantiles`] of the whole sample, since
+/// a type 7 quantile depends only on the order statistics (under `f64::total_cmp`, where −0 lies
+/// below +0).
+pub fn quantiles_with_zeros(values: &mut [f64], zeros: usize, probs: &[f64]) -> Vec<f64> {
+    if zeros == 0 {
+        return quantiles(values, probs);
+    }
+    // the values below +0 to the front
+    let mut below = 0;
+    for i in 0..values.len() {
+        if values[i].total_cmp(&0.0).is_lt() {
+            values.swap(i, below);
+            below += 1;
+        }
+    }
+    let n = values.len() + zeros;
+    let (lo, hi) = values.split_at_mut(below);
+    let mut kth = |k: usize| -> f64 {
+        if k < lo.len() {
+            *lo.select_nth_unstable_by(k, f64::total_cmp).1
+        } else if k < lo.len() + zeros {
+            0.0
+        } else {
+            *hi.select_nth_unstable_by(k - lo.len() - zeros, f64::total_cmp)
+                .1
+        }
+    };
+    probs
+        .iter()
+        .map(|&p| {
+            let h = (n - 1) as f64 * p.clamp(0.0, 1.0);
+            let k = (h.floor() as usize).min(n - 1);
+            let frac = h - k as f64;
+            let low = kth(k);
+            if frac > 0.0 && k + 1 < n {
+                let high = kth(k + 1);
+                low + frac * (high - low)
+            } else {
+                low
+            }
+        })
+        .collect()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -174,5 +219,39 @@ mod tests {
         // mean 101, sample variance ((9 + 1 + 1 + 9) / 3)
         assert!((s.mean() - 101.0).abs() < 1e-12);
         assert!((s.sd() - (20.0f64 / 3.0).sqrt()).abs() < 1e-12);
+    }
+    #[test]
+    fn zeros_held_apart_give_the_quantiles_of_the_whole_sample() {
+        // type 7 (Hyndman and Fan 1996, definition 7) of a sample depends only on its order
+        // statistics; here the whole sample, with its +0 values written out, is the reference
+        let mut x = 0.377_f64;
+        let mut whole: Vec<f64> = (0..1501)
+            .map(|i| {
+                x = (x * 3.7 * (1.0 - x)).clamp(1e-6, 1.0 - 1e-6);
+                match i % 5 {
+                    0 | 1 => 0.0,
+                    2 => -0.0,
+                    3 => x - 0.4,
+                    _ => x,
+                }
+            })
+            .collect();
+        let mut rest: Vec<f64> = whole.iter().copied().filter(|v| v.to_bits() != 0).collect();
+        let zeros = whole.len() - rest.len();
+        assert!(zeros > 500);
+        let probs = [0.0, 0.05, 0.3, 0.5, 0.95, 0.99, 1.0];
+        let want = quantiles(&mut whole, &probs);
+        let got = quantiles_with_zeros(&mut rest, zeros, &probs);
+        for (a, b) in want.iter().zip(&got) {
+            assert_eq!(a.to_bits(), b.to_bits(), "{want:?} vs {got:?}");
+        }
+        // only zeros, and a single value among zeros
+        assert_eq!(quantiles_with_zeros(&mut [], 4, &[0.5]), vec![0.0]);
+        let mut one = [3.0];
+        let mut whole = [0.0, 0.0, 3.0];
+        assert_eq!(
+            quantiles_with_zeros(&mut one, 2, &[0.5, 0.95]),
+            quantiles(&mut whole, &[0.5, 0.95])
+        );
     }
 }
