@@ -361,7 +361,7 @@ fn solve_reporting(
                 // (the path is simulated on a copy: simulation reads an equilibrium)
                 let path = indicator_path(&Equilibrium::Public(s.clone()), scenario, initial);
                 s.reach = Some(path_box(&path, s.band.keep, initial));
-                s.residual = s.residual_max_grouped(options.test_points / 10 + 1, 9);
+                s.residual = s.euler_residual_max(options.test_points / 10 + 1, 9);
                 s.residual
             };
             let stop = public_solve::RefineStop {

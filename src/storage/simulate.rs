@@ -69,7 +69,7 @@ impl Equilibrium {
             Equilibrium::Private(s) if s.residual.is_finite() => s.residual,
             Equilibrium::Public(s) if s.residual.is_finite() => s.residual,
             Equilibrium::Private(s) => s.euler_residual_max(2001),
-            Equilibrium::Public(s) => s.residual_max_grouped(201, 9),
+            Equilibrium::Public(s) => s.euler_residual_max(201, 9),
         }
     }
 
@@ -82,7 +82,7 @@ impl Equilibrium {
                 s.residual
             }
             Equilibrium::Public(s) => {
-                s.residual = s.residual_max_grouped(points / 10 + 1, 9);
+                s.residual = s.euler_residual_max(points / 10 + 1, 9);
                 s.residual
             }
         }
