@@ -4,7 +4,9 @@
 //! `policies/price_band.toml` with grid coverage and the residual check (target < 300 ms), and the
 //! whole solve of `policies/target_reserve.toml` with its refinement (target < 1 s), and the whole
 //! solve of `policies/support_high_purchase.toml`, whose purchase budget binds (the costliest of the
-//! demo's `compare`; no target of its own).
+//! demo's `compare`; no target of its own), and the whole `compare` of the demo with its eight
+//! policies that apply (target < 3 s end to end; every solve from a cold cache; `--plots` and
+//! `report` add about 0.7 s of CPU to it and are timed with `/usr/bin/time` in docs/storage.md).
 
 use criterion::{criterion_group, criterion_main, Criterion};
 use furrow::policies::file::{load_policy, policy_from_table};
@@ -53,6 +55,25 @@ fn bench(c: &mut Criterion) {
     let budget_file = load_policy("policies/support_high_purchase.toml").expect("demo policy");
     g.bench_function("budget_demo_full_solve_with_cover_and_residual", |b| {
         b.iter(|| storage::solve(&s, &budget_file, &o).unwrap())
+    });
+    let policies: Vec<_> = [
+        "none",
+        "price_band",
+        "target_reserve",
+        "drawdown_reserve",
+        "rotating_reserve",
+        "support_purchase",
+        "support_high_purchase",
+        "deficiency_payment",
+    ]
+    .iter()
+    .map(|name| load_policy(&format!("policies/{name}.toml")).expect("demo policy"))
+    .collect();
+    g.bench_function("compare_eight_demo_policies", |b| {
+        b.iter(|| {
+            storage::clear_solve_cache();
+            furrow::compare::compare(&s, &policies, &furrow::stochastic::NoProgress).unwrap()
+        })
     });
     g.finish();
 }

@@ -13,16 +13,24 @@ use crate::scenario::Scenario;
 /// Long-run means of one solved equilibrium: one path on the market file's shocks (its seed,
 /// replication 0, [`simulate::BURN_IN`] periods dropped, [`simulate::INDICATOR_PERIODS`] averaged),
 /// starting with no private stock and the policy's initial public stock.
+/// (The solve simulates that path already; its means are kept with the solution and not simulated
+/// again.)
 pub fn long_run(solved: &SolvedStorage) -> LongRunMeans {
-    long_run_of(
-        &solved.equilibrium,
-        solved.scenario(),
-        solved.initial_public(),
-    )
+    solved.kept_long_run().unwrap_or_else(|| {
+        long_run_of(
+            &solved.equilibrium,
+            solved.scenario(),
+            solved.initial_public(),
+        )
+    })
 }
 
 fn long_run_of(eq: &Equilibrium, scenario: &Scenario, initial: f64) -> LongRunMeans {
-    let path = indicator_path(eq, scenario, initial);
+    means_of(&indicator_path(eq, scenario, initial))
+}
+
+/// [`LongRunMeans`] of an indicator path (burn-in included: it is dropped here).
+pub(crate) fn means_of(path: &[super::StoragePeriod]) -> LongRunMeans {
     let [mean_price, price_sd, mean_harvest, private_stock, public_stock, private_stockout_share, stockout_share, mean_producer_price, deficiency_payments] =
         simulate::moments(&path[simulate::BURN_IN..]);
     LongRunMeans {

@@ -54,7 +54,7 @@ pub use long_run::{long_run, storage_indicators, LongRunMeans};
 pub use market::{Node, StorageMarket};
 pub use policy::{band_of, payment_floor, planting_floor};
 pub use progress::{set_progress, ProgressEvent, SolveProgress, Stage};
-pub use records::SolvedStorage;
+pub use records::{clear_solve_cache, SolvedStorage};
 pub use simulate::{simulate, Equilibrium, StorageIndicators, StoragePeriod};
 pub use solve::{solve_private, PriceRule, PrivateSolution, SolveOptions};
 pub use summary::{render_path, render_summary, summary, StorageSummary};
@@ -210,8 +210,18 @@ pub fn solve(
     policy: &PolicySpec,
     options: &SolveOptions,
 ) -> Result<Equilibrium, StorageError> {
+    solve_with_path(scenario, policy, options).map(|(eq, _)| eq)
+}
+
+/// [`solve`], and the indicator path of the rules returned when the solve simulated it on them
+/// ([`solve_keeping_path`]).
+pub(crate) fn solve_with_path(
+    scenario: &Scenario,
+    policy: &PolicySpec,
+    options: &SolveOptions,
+) -> Result<(Equilibrium, Option<Vec<StoragePeriod>>), StorageError> {
     let border = agency::plan_of(policy)?.border;
-    solve_bordered(scenario, policy, &border, &policy.source, options)
+    solve_keeping_path(scenario, policy, &border, &policy.source, options)
 }
 
 /// [`solve`] with the border measures `border` (named in messages as from `border_file`) instead of
@@ -224,6 +234,19 @@ pub(crate) fn solve_bordered(
     border_file: &str,
     options: &SolveOptions,
 ) -> Result<Equilibrium, StorageError> {
+    solve_keeping_path(scenario, policy, border, border_file, options).map(|(eq, _)| eq)
+}
+
+/// [`solve_bordered`], and the indicator path of the equilibrium returned when the solve
+/// simulated it on the rules it returns (the path [`long_run`] averages; `None` when the last
+/// step changed the rules after their path was simulated).
+pub(crate) fn solve_keeping_path(
+    scenario: &Scenario,
+    policy: &PolicySpec,
+    border: &crate::trade::BorderMeasures,
+    border_file: &str,
+    options: &SolveOptions,
+) -> Result<(Equilibrium, Option<Vec<StoragePeriod>>), StorageError> {
     progress::report(ProgressEvent::Started {
         public: matches!(band_of(policy), Ok(Some(_))),
     });
@@ -239,7 +262,7 @@ fn solve_reporting(
     border: &crate::trade::BorderMeasures,
     border_file: &str,
     options: &SolveOptions,
-) -> Result<Equilibrium, StorageError> {
+) -> Result<(Equilibrium, Option<Vec<StoragePeriod>>), StorageError> {
     let mut m = StorageMarket::new(scenario, options.nodes)?;
     // (the policy is read first: a backward-looking override is refused there, naming its file)
     let initial = initial_public(policy)?;
@@ -312,11 +335,14 @@ fn solve_reporting(
         Some(band) => solve_unlimited(scenario, policy, m, band, options)?,
     };
     progress::report(ProgressEvent::Stage(Stage::Checking));
-    let mut eq = cover_paths(eq, scenario, initial, options)?;
-    // the residual is checked over the states the indicator path reaches
+    let (mut eq, path) = cover_paths(eq, scenario, initial, options)?;
+    // the residual is checked over the states the indicator path reaches (the path of the rules
+    // covered, simulated once for both)
+    let path = path.unwrap_or_else(|| indicator_path(&eq, scenario, initial));
     // a purchase budget that binds somewhere on the path has its own limit; one that never binds
     // is held to the common limit (and so refined as the same store without a budget)
-    let budget = set_reach(&mut eq, scenario, initial);
+    let budget = set_reach(&mut eq, &path, initial);
+    let mut path = Some(path);
     let mut residual = eq.measure_residual(options.test_points);
     let limit = if budget {
         BUDGET_RESIDUAL_LIMIT
@@ -352,10 +378,12 @@ fn solve_reporting(
             )?;
             eq = Equilibrium::Public(r);
             residual = eq.euler_residual_max();
+            // (the refined rules' path is simulated again where it is needed)
+            path = None;
         }
     }
     fixed_point::accept(residual, limit, eq.iterations())?;
-    Ok(eq)
+    Ok((eq, path))
 }
 
 /// The public stock simulated paths start with: the policy's initial stock when it runs a band.
@@ -367,22 +395,21 @@ pub fn initial_public(policy: &PolicySpec) -> Result<f64, StorageError> {
     })
 }
 
-/// Keeps the box of states the indicator path of `eq` reaches, the range its residual is checked on;
-/// true when a purchase budget binds somewhere on that path.
-fn set_reach(eq: &mut Equilibrium, scenario: &Scenario, initial: f64) -> bool {
-    let path = indicator_path(eq, scenario, initial);
+/// Keeps the box of states the indicator path of `eq` (`path`) reaches, the range its residual is
+/// checked on; true when a purchase budget binds somewhere on that path.
+fn set_reach(eq: &mut Equilibrium, path: &[StoragePeriod], initial: f64) -> bool {
     let bound = path
         .iter()
         .any(|r| r.mode == agency::AgencyMode::BudgetBound);
     match eq {
         Equilibrium::Private(s) => {
-            let b = path_box(&path, 1.0, initial);
+            let b = path_box(path, 1.0, initial);
             s.reach = Some((b[0], b[1]));
             if let Some(r) = s.memory.as_mut() {
-                r.reach = memory_reach(&path);
+                r.reach = memory_reach(path);
             }
         }
-        Equilibrium::Public(s) => s.reach = Some(path_box(&path, s.band.keep, initial)),
+        Equilibrium::Public(s) => s.reach = Some(path_box(path, s.band.keep, initial)),
     }
     bound
 }
@@ -424,20 +451,21 @@ fn path_box(path: &[StoragePeriod], keep_g: f64, initial: f64) -> [f64; 4] {
 const COVER_ROUNDS: usize = 6;
 
 /// Extends the private-stock grid until the indicator path (the longest path furrow simulates)
-/// carries no more private stock than the grid holds (with a margin of a quarter).
+/// carries no more private stock than the grid holds (with a margin of a quarter). Returns the
+/// rules and, when it was simulated on them, their indicator path.
 fn cover_paths(
     mut eq: Equilibrium,
     scenario: &Scenario,
     initial: f64,
     options: &SolveOptions,
-) -> Result<Equilibrium, StorageError> {
+) -> Result<(Equilibrium, Option<Vec<StoragePeriod>>), StorageError> {
     for _ in 0..COVER_ROUNDS {
         let path = indicator_path(&eq, scenario, initial);
         let top = eq.stock_top();
         let most = path.iter().map(|r| r.private_stock).fold(0.0, f64::max);
         let reach = most.max(eq.range_stock());
         if reach <= top {
-            break;
+            return Ok((eq, Some(path)));
         }
         let x_max = 1.25 * reach;
         progress::report(ProgressEvent::Stage(Stage::Covering));
@@ -448,13 +476,17 @@ fn cover_paths(
             }
         };
     }
-    Ok(eq)
+    Ok((eq, None))
 }
 
 /// Share of the indicator path's periods outside the solved grid (private stock carried out beyond
 /// the grid's largest stock, where the rules are extrapolated).
 pub fn extrapolated_share(eq: &Equilibrium, scenario: &Scenario, initial: f64) -> f64 {
-    let path = indicator_path(eq, scenario, initial);
+    share_beyond_grid(eq, &indicator_path(eq, scenario, initial))
+}
+
+/// [`extrapolated_share`] of the indicator path `path` of `eq`, simulated already.
+pub(crate) fn share_beyond_grid(eq: &Equilibrium, path: &[StoragePeriod]) -> f64 {
     let top = eq.stock_top();
     let out = path.iter().filter(|r| r.private_stock > top).count();
     out as f64 / path.len().max(1) as f64

@@ -107,6 +107,11 @@ pub struct SolvedStorage {
     policy: PolicySpec,
     initial_public: f64,
     books: Books,
+    /// The long-run means of the indicator path, when the solve simulated it on these rules.
+    long_run: Option<super::LongRunMeans>,
+    /// The first planting of every path and the price it is planted on
+    /// ([`SolvedPath::start_of`]; the same for every replication).
+    start: (f64, f64),
 }
 
 impl SolvedStorage {
@@ -117,19 +122,28 @@ impl SolvedStorage {
     /// default settings gives the same rules, so later requests reuse the first solution (an
     /// in-process cache of the last [`CACHE_SIZE`] solves, compared by value).
     pub fn new(scenario: &Scenario, policy: &PolicySpec) -> Result<Self, super::StorageError> {
-        let equilibrium = cached_solve(scenario, policy)?;
+        let (equilibrium, long_run) = cached_solve(scenario, policy)?;
         let initial_public = if super::band_of(policy)?.is_some() {
             crate::policies::compile(policy).agency.initial
         } else {
             0.0
         };
+        let start = SolvedPath::start_of(&equilibrium, initial_public);
         Ok(SolvedStorage {
+            start,
             equilibrium,
             scenario: scenario.clone(),
             policy: policy.clone(),
             initial_public,
             books: Books::new(scenario, policy),
+            long_run,
         })
+    }
+
+    /// The long-run means of the indicator path ([`super::long_run`]) when the solve simulated
+    /// it on the rules it returned (`None` otherwise: simulate it).
+    pub(crate) fn kept_long_run(&self) -> Option<super::LongRunMeans> {
+        self.long_run
     }
 
     /// The policy the equilibrium was solved for.
@@ -151,14 +165,15 @@ impl SolvedStorage {
     /// `periods` periods of replication `replication` (the market file's seed, drawn from its own
     /// stream), starting with no private stock and the policy's initial public stock.
     pub fn path(&self, replication: u64, periods: usize) -> Vec<StoragePeriod> {
-        super::simulate(
-            &self.equilibrium,
+        let mut stream = crate::stochastic::ShockStream::new(
             &self.scenario.shocks,
             self.scenario.run.seed,
             replication,
-            self.initial_public,
-            periods,
-        )
+        );
+        let mut walk = SolvedPath::with_start(&self.equilibrium, self.initial_public, self.start);
+        (0..periods)
+            .map(|_| walk.step(&stream.next_shock()))
+            .collect()
     }
 
     /// The same periods as the period engine's records.
@@ -196,7 +211,7 @@ impl PathModel for SolvedStorage {
 
     fn start(&self) -> StorageStepper<'_> {
         StorageStepper {
-            walk: SolvedPath::new(&self.equilibrium, self.initial_public),
+            walk: SolvedPath::with_start(&self.equilibrium, self.initial_public, self.start),
             books: &self.books,
             previous: self.books.agency.initial,
         }
@@ -206,32 +221,47 @@ impl PathModel for SolvedStorage {
 /// Solves kept for reuse within one process ([`SolvedStorage::new`]).
 pub const CACHE_SIZE: usize = 16;
 
-type Cache = Vec<(Scenario, PolicySpec, super::simulate::Equilibrium)>;
+type Cache = Vec<(
+    Scenario,
+    PolicySpec,
+    super::simulate::Equilibrium,
+    Option<super::LongRunMeans>,
+)>;
 
 fn cache() -> &'static std::sync::Mutex<Cache> {
     static CACHE: std::sync::OnceLock<std::sync::Mutex<Cache>> = std::sync::OnceLock::new();
     CACHE.get_or_init(|| std::sync::Mutex::new(Vec::new()))
 }
 
-/// The default-settings solve of (`scenario`, `policy`), from the cache when it was solved before.
+/// Forgets every kept solve, so that the next [`SolvedStorage::new`] solves again (timing a whole
+/// command that solves, as the `storage` benchmark does, needs a cold start each time).
+pub fn clear_solve_cache() {
+    if let Ok(mut c) = cache().lock() {
+        c.clear();
+    }
+}
+
+/// The default-settings solve of (`scenario`, `policy`), from the cache when it was solved before,
+/// with the long-run means of its indicator path when the solve simulated it on these rules.
 fn cached_solve(
     scenario: &Scenario,
     policy: &PolicySpec,
-) -> Result<super::simulate::Equilibrium, super::StorageError> {
+) -> Result<(super::simulate::Equilibrium, Option<super::LongRunMeans>), super::StorageError> {
     let found = cache().lock().ok().and_then(|c| {
         c.iter()
-            .find(|(s, p, _)| s == scenario && p == policy)
-            .map(|e| e.2.clone())
+            .find(|(s, p, _, _)| s == scenario && p == policy)
+            .map(|e| (e.2.clone(), e.3))
     });
-    if let Some(eq) = found {
-        return Ok(eq);
+    if let Some(hit) = found {
+        return Ok(hit);
     }
-    let eq = super::solve(scenario, policy, &super::SolveOptions::default())?;
+    let (eq, path) = super::solve_with_path(scenario, policy, &super::SolveOptions::default())?;
+    let means = path.map(|p| super::long_run::means_of(&p));
     if let Ok(mut c) = cache().lock() {
         if c.len() >= CACHE_SIZE {
             c.remove(0);
         }
-        c.push((scenario.clone(), policy.clone(), eq.clone()));
+        c.push((scenario.clone(), policy.clone(), eq.clone(), means));
     }
-    Ok(eq)
+    Ok((eq, means))
 }

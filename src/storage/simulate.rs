@@ -307,12 +307,29 @@ impl<'a> SolvedPath<'a> {
     /// A path at period 0 with no private stock and `initial_public` public stock held before
     /// period 1.
     pub fn new(eq: &'a Equilibrium, initial_public: f64) -> SolvedPath<'a> {
+        SolvedPath::with_start(eq, initial_public, SolvedPath::start_of(eq, initial_public))
+    }
+
+    /// The planting for period 1 and the price it is planted on, of a path that starts with no
+    /// private stock and `initial_public` public stock (the same for every replication: see
+    /// [`Self::with_start`]).
+    pub fn start_of(eq: &Equilibrium, initial_public: f64) -> (f64, f64) {
         let m = eq.market();
-        let (planted, expected) = match m.farmers {
+        match m.farmers {
             // backward-looking farmers plant on their rule at the file's price history
             Some(f) => (m.supply_at(f.first).0, f.first),
             None => eq.plant_and_expect(0.0, initial_public),
-        };
+        }
+    }
+
+    /// [`Self::new`] with the first planting `start` found already by [`Self::start_of`] (a model
+    /// stepped for many replications solves it once).
+    pub fn with_start(
+        eq: &'a Equilibrium,
+        initial_public: f64,
+        (planted, expected): (f64, f64),
+    ) -> SolvedPath<'a> {
+        let m = eq.market();
         SolvedPath {
             eq,
             x: 0.0,

@@ -4,7 +4,7 @@ use super::check::GridRow;
 use super::simulate::Equilibrium;
 use super::simulate::StoragePeriod;
 use super::solve::SolveOptions;
-use super::{check_options, solve, StorageError};
+use super::{check_options, StorageError};
 use crate::output::{fmt_num, Format, TextTable};
 use crate::policies::PolicySpec;
 use crate::scenario::Scenario;
@@ -48,10 +48,14 @@ pub fn summary(
     rows: usize,
 ) -> Result<StorageSummary, StorageError> {
     check_options(options, rows)?;
-    let eq = solve(scenario, policy, options)?;
+    // (the indicator path the solve simulated on its rules, when it did, is not simulated again)
+    let (eq, path) = super::solve_with_path(scenario, policy, options)?;
     let trade = super::trade_report(scenario, policy, &eq, options)?;
     let residual = eq.euler_residual_max();
-    let extrapolated = super::extrapolated_share(&eq, scenario, super::initial_public(policy)?);
+    let extrapolated = match &path {
+        Some(path) => super::share_beyond_grid(&eq, path),
+        None => super::extrapolated_share(&eq, scenario, super::initial_public(policy)?),
+    };
     let (market, policy) = (scenario.market.name.clone(), policy.name.clone());
     Ok(match eq {
         Equilibrium::Private(sol) => StorageSummary {
