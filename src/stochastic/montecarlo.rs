@@ -678,9 +678,7 @@ impl SeasonOutlays {
         probs
             .iter()
             .map(|&p| {
-                let h = (n - 1) as f64 * p.clamp(0.0, 1.0);
-                let k = (h.floor() as usize).min(n - 1);
-                let frac = h - k as f64;
+                let (k, frac) = super::stats::type7_position(n, p);
                 let low = kth(k)?;
                 Some(if frac > 0.0 && k + 1 < n {
                     let high = kth(k + 1)?;

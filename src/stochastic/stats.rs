@@ -99,6 +99,15 @@ impl Summary {
     }
 }
 
+/// Where the type 7 quantile at probability `p` of `n` values lies (Hyndman and Fan 1996,
+/// definition 7): the index k of the lower order statistic and the weight of the next one.
+#[inline]
+pub(crate) fn type7_position(n: usize, p: f64) -> (usize, f64) {
+    let h = (n - 1) as f64 * p.clamp(0.0, 1.0);
+    let k = (h.floor() as usize).min(n - 1);
+    (k, h - k as f64)
+}
+
 /// Type 7 quantiles at probabilities `probs` (ascending, in [0, 1]); `values` is reordered in place.
 /// NaN values sort last (they never arise from the engine, which rejects non-finite prices).
 pub fn quantiles(values: &mut [f64], probs: &[f64]) -> Vec<f64> {
@@ -110,9 +119,7 @@ pub fn quantiles(values: &mut [f64], probs: &[f64]) -> Vec<f64> {
     probs
         .iter()
         .map(|&p| {
-            let h = (n - 1) as f64 * p.clamp(0.0, 1.0);
-            let k = (h.floor() as usize).min(n - 1);
-            let frac = h - k as f64;
+            let (k, frac) = type7_position(n, p);
             let k = k.max(start);
             let (_, kth, right) = values[start..].select_nth_unstable_by(k - start, f64::total_cmp);
             let low = *kth;
@@ -159,9 +166,7 @@ pub fn quantiles_with_zeros(values: &mut [f64], zeros: usize, probs: &[f64]) -> 
     probs
         .iter()
         .map(|&p| {
-            let h = (n - 1) as f64 * p.clamp(0.0, 1.0);
-            let k = (h.floor() as usize).min(n - 1);
-            let frac = h - k as f64;
+            let (k, frac) = type7_position(n, p);
             let low = kth(k);
             if frac > 0.0 && k + 1 < n {
                 let high = kth(k + 1);
