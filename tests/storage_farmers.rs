@@ -7,12 +7,10 @@
 
 mod common;
 
-use common::storers::{demo, private, EXAMPLE};
-use furrow::engine::Model;
+use common::storers::{demo, price_sd, private, with_and_without_storers, EXAMPLE};
 use furrow::policies::file::policy_from_table;
 use furrow::policies::PolicySpec;
 use furrow::scenario::{market_from_table, parse_toml};
-use furrow::stochastic::ShockStream;
 use furrow::storage::{self, SolveOptions, SolvedStorage, StorageError};
 
 const BACKWARD: [&str; 3] = [
@@ -70,24 +68,9 @@ fn storers_beside_naive_farmers_solve_accurately_and_steady_the_cobweb() {
     assert!(sol.residual < 1e-6, "{}", sol.residual);
     let periods = 4000;
     let solved = SolvedStorage::new(&s, &PolicySpec::none()).unwrap();
-    let stored = solved.records(0, periods);
-    let mut stream = ShockStream::new(&s.shocks, s.run.seed, 0);
-    let engine = Model::new(&s, &PolicySpec::none())
-        .run(periods, |_| stream.next_shock())
-        .unwrap();
-    let sd = |p: &[f64]| {
-        let n = p.len() as f64;
-        let mean = p.iter().sum::<f64>() / n;
-        (p.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / n).sqrt()
-    };
-    let with: Vec<f64> = stored.iter().skip(100).map(|r| r.price).collect();
-    let without: Vec<f64> = engine.iter().skip(100).map(|r| r.price).collect();
-    assert!(
-        sd(&with) < 0.8 * sd(&without),
-        "{} against {}",
-        sd(&with),
-        sd(&without)
-    );
+    let (stored, engine) = with_and_without_storers(&s, &solved, periods);
+    let (with, without) = (price_sd(&stored, 100), price_sd(&engine, 100));
+    assert!(with < 0.8 * without, "{with} against {without}");
     let path = solved.path(0, periods);
     let holding = path.iter().filter(|r| r.private_stock > 0.0).count();
     assert!(holding > periods / 10 && holding < periods, "{holding}");

@@ -6,12 +6,10 @@
 
 mod common;
 
-use common::storers::{demo, private, EXAMPLE};
-use furrow::engine::Model;
+use common::storers::{demo, price_sd, private, with_and_without_storers, EXAMPLE};
 use furrow::policies::file::policy_from_table;
 use furrow::policies::PolicySpec;
 use furrow::scenario::{market_from_table, parse_toml};
-use furrow::stochastic::ShockStream;
 use furrow::storage::{self, farmers, SolveOptions, SolvedStorage, StorageError, StorageMarket};
 
 const DEMO: &str = "examples/veldmark_storers_adaptive.toml";
@@ -192,18 +190,8 @@ fn the_adaptive_demo_is_accurate_on_every_state_its_paths_visit() {
     }
     let holding = path.iter().filter(|r| r.private_stock > 0.0).count();
     assert!(holding > 300 && holding < 3000, "{holding}");
-    let stored = solved.records(0, 3000);
-    let mut stream = ShockStream::new(&s.shocks, s.run.seed, 0);
-    let engine = Model::new(&s, &PolicySpec::none())
-        .run(3000, |_| stream.next_shock())
-        .unwrap();
-    let sd = |p: Vec<f64>| {
-        let n = p.len() as f64;
-        let mean = p.iter().sum::<f64>() / n;
-        (p.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / n).sqrt()
-    };
-    let with = sd(stored.iter().skip(100).map(|r| r.price).collect());
-    let without = sd(engine.iter().skip(100).map(|r| r.price).collect());
+    let (stored, engine) = with_and_without_storers(&s, &solved, 3000);
+    let (with, without) = (price_sd(&stored, 100), price_sd(&engine, 100));
     assert!(with < 0.8 * without, "{with} against {without}");
 }
 

@@ -1,7 +1,7 @@
 //! The storers demo with other farmers, shared by the tests of storers beside backward-looking
 //! farmers (one state and two).
 
-use furrow::engine::Model;
+use furrow::engine::{Model, PeriodRecord};
 use furrow::policies::PolicySpec;
 use furrow::scenario::{apply_override, market_from_table, parse_toml, Scenario};
 use furrow::stochastic::ShockStream;
@@ -29,6 +29,29 @@ pub fn private(s: &Scenario) -> storage::PrivateSolution {
     }
 }
 
+/// `periods` seasons of the market with storers (`solved`, replication 0) and of the storer-free
+/// period engine on the same shocks (replication 0's stream), in that order.
+pub fn with_and_without_storers(
+    s: &Scenario,
+    solved: &SolvedStorage,
+    periods: usize,
+) -> (Vec<PeriodRecord>, Vec<PeriodRecord>) {
+    let stored = solved.records(0, periods);
+    let mut stream = ShockStream::new(&s.shocks, s.run.seed, 0);
+    let engine = Model::new(s, &PolicySpec::none())
+        .run(periods, |_| stream.next_shock())
+        .unwrap();
+    (stored, engine)
+}
+
+/// The population standard deviation of the prices of `records` after the first `skip` seasons.
+pub fn price_sd(records: &[PeriodRecord], skip: usize) -> f64 {
+    let p: Vec<f64> = records.iter().skip(skip).map(|r| r.price).collect();
+    let n = p.len() as f64;
+    let mean = p.iter().sum::<f64>() / n;
+    (p.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / n).sqrt()
+}
+
 /// Nobody stores when k exceeds any attainable discounted price (Gustafson 1958's no-carryover
 /// case): the market is then the period engine's cobweb under the same farmers' rule, season by
 /// season on the same shocks (an identity of the model). The engine forms the expectation with
@@ -45,11 +68,7 @@ pub fn assert_prohibitive_cost_gives_the_engine(rules: &[&str], tol: f64) {
         );
         let periods = 60;
         let solved = SolvedStorage::new(&s, &PolicySpec::none()).unwrap();
-        let stored = solved.records(0, periods);
-        let mut stream = ShockStream::new(&s.shocks, s.run.seed, 0);
-        let engine = Model::new(&s, &PolicySpec::none())
-            .run(periods, |_| stream.next_shock())
-            .unwrap();
+        let (stored, engine) = with_and_without_storers(&s, &solved, periods);
         assert_eq!(stored.len(), engine.len());
         for (a, b) in stored.iter().zip(&engine) {
             for (name, x, y) in [
