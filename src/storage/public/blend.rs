@@ -372,6 +372,36 @@ mod tests {
         crate::storage::split::test_market(0.0, 0.0)
     }
 
+    /// Five decreasing price rows (public-stock levels i = 0..5): row i has its kink at `kink(i)`,
+    /// `points(i)` knots spread over 300 above it with exponent `power`, and the quadratic price
+    /// 230 − `step`·i − 0.3(x − kink) + 2e-4(x − kink)².
+    fn test_rows(
+        kink: impl Fn(usize) -> f64,
+        points: impl Fn(usize) -> usize,
+        power: f64,
+        step: f64,
+    ) -> Vec<PriceRule> {
+        (0..5)
+            .map(|i| {
+                let kink = kink(i);
+                let n = points(i);
+                let xs: Vec<f64> = (0..n)
+                    .map(|j| kink + 300.0 * (j as f64 / (n - 1) as f64).powf(power))
+                    .collect();
+                let ys: Vec<f64> = xs
+                    .iter()
+                    .map(|&x| {
+                        230.0 - step * i as f64 - 0.3 * (x - kink) + 2e-4 * (x - kink).powi(2)
+                    })
+                    .collect();
+                PriceRule {
+                    kink,
+                    spline: Some(Monotone::new(xs, ys)),
+                }
+            })
+            .collect()
+    }
+
     #[test]
     fn merged_blend_reproduces_the_row_by_row_blend() {
         // a weighted sum of piecewise cubics is a cubic between the union of their knots, so the
@@ -380,23 +410,7 @@ mod tests {
         // with the row-by-row blend to rounding, also past the knots and where a row's linear
         // extension would reach zero (it falls back there)
         let m = market();
-        let rows: Vec<PriceRule> = (0..5)
-            .map(|i| {
-                let kink = 440.0 + 6.0 * i as f64;
-                let n = 9 + 3 * i;
-                let xs: Vec<f64> = (0..n)
-                    .map(|j| kink + 300.0 * (j as f64 / (n - 1) as f64).powf(1.7))
-                    .collect();
-                let ys: Vec<f64> = xs
-                    .iter()
-                    .map(|&x| 230.0 - 2.0 * i as f64 - 0.3 * (x - kink) + 2e-4 * (x - kink).powi(2))
-                    .collect();
-                PriceRule {
-                    kink,
-                    spline: Some(Monotone::new(xs, ys)),
-                }
-            })
-            .collect();
+        let rows = test_rows(|i| 440.0 + 6.0 * i as f64, |i| 9 + 3 * i, 1.7, 2.0);
         let publics = [0.0, 15.0, 30.0, 45.0, 60.0];
         for g in [3.0, 21.7, 44.0, 58.0] {
             let b = Blend::at(&m, &publics, &rows, g);
@@ -425,22 +439,12 @@ mod tests {
         // definition of the derivative; step 1e-5, error O(h²)), away from the levels where the
         // stencil switches; and the price itself as row_price gives it
         let m = market();
-        let rows: Vec<PriceRule> = (0..5)
-            .map(|i| {
-                let kink = 440.0 + 6.0 * i as f64 + 0.5 * (i * i) as f64;
-                let xs: Vec<f64> = (0..12)
-                    .map(|j| kink + 300.0 * (j as f64 / 11.0).powf(1.5))
-                    .collect();
-                let ys: Vec<f64> = xs
-                    .iter()
-                    .map(|&x| 230.0 - 2.5 * i as f64 - 0.3 * (x - kink) + 2e-4 * (x - kink).powi(2))
-                    .collect();
-                PriceRule {
-                    kink,
-                    spline: Some(Monotone::new(xs, ys)),
-                }
-            })
-            .collect();
+        let rows = test_rows(
+            |i| 440.0 + 6.0 * i as f64 + 0.5 * (i * i) as f64,
+            |_| 12,
+            1.5,
+            2.5,
+        );
         let publics = [0.0, 15.0, 30.0, 45.0, 60.0];
         for g in [3.0, 21.7, 37.0, 52.5] {
             for y in [300.0, 450.0, 470.0, 520.0, 700.0] {
