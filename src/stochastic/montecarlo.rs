@@ -280,30 +280,32 @@ impl ReplicationSummary {
             self.mean_exports,
         ];
         let mut counts = [0; COUNTS];
-        counts[0] = self.floor_binding_periods;
-        counts[1] = self.stockout_periods;
-        counts[2] = self.budget_exceeded_periods;
-        counts[3..3 + MAX_ALERTS].copy_from_slice(&self.alert_periods);
-        counts[3 + MAX_ALERTS..].copy_from_slice(&[
-            self.floor_failed_periods,
-            self.band_failed_periods,
-            self.capacity_full_periods,
-            self.budget_bound_periods,
-            self.import_periods,
-            self.export_periods,
-        ]);
+        for (which, n) in [
+            (Count::FloorBinding, self.floor_binding_periods),
+            (Count::Stockout, self.stockout_periods),
+            (Count::BudgetExceeded, self.budget_exceeded_periods),
+            (Count::FloorFailed, self.floor_failed_periods),
+            (Count::BandFailed, self.band_failed_periods),
+            (Count::CapacityFull, self.capacity_full_periods),
+            (Count::BudgetBound, self.budget_bound_periods),
+            (Count::ImportPeriods, self.import_periods),
+            (Count::ExportPeriods, self.export_periods),
+        ] {
+            counts[which.index()] = n;
+        }
+        for (k, &n) in self.alert_periods.iter().enumerate() {
+            counts[Count::Alert(k).index()] = n;
+        }
         (reals, counts)
     }
 
     /// The inverse of [`ReplicationSummary::split`].
     fn join(r: &[f64; REALS], c: &[u32; COUNTS]) -> ReplicationSummary {
-        let mut alert_periods = [0; MAX_ALERTS];
-        alert_periods.copy_from_slice(&c[3..3 + MAX_ALERTS]);
-        let a = 3 + MAX_ALERTS;
+        let n = |which: Count| c[which.index()];
         ReplicationSummary {
             welfare: welfare_of(r[..13].try_into().unwrap_or([0.0; 13])),
-            floor_binding_periods: c[0],
-            stockout_periods: c[1],
+            floor_binding_periods: n(Count::FloorBinding),
+            stockout_periods: n(Count::Stockout),
             final_stock: r[13],
             mean_price: r[14],
             mean_producer_price: r[15],
@@ -312,16 +314,16 @@ impl ReplicationSummary {
             mean_season_fiscal: r[18],
             worst_season_fiscal: r[19],
             peak_cumulative_fiscal: r[20],
-            budget_exceeded_periods: c[2],
-            alert_periods,
-            floor_failed_periods: c[a],
-            band_failed_periods: c[a + 1],
-            capacity_full_periods: c[a + 2],
-            budget_bound_periods: c[a + 3],
+            budget_exceeded_periods: n(Count::BudgetExceeded),
+            alert_periods: std::array::from_fn(|k| n(Count::Alert(k))),
+            floor_failed_periods: n(Count::FloorFailed),
+            band_failed_periods: n(Count::BandFailed),
+            capacity_full_periods: n(Count::CapacityFull),
+            budget_bound_periods: n(Count::BudgetBound),
             mean_imports: r[21],
             mean_exports: r[22],
-            import_periods: c[a + 4],
-            export_periods: c[a + 5],
+            import_periods: n(Count::ImportPeriods),
+            export_periods: n(Count::ExportPeriods),
         }
     }
 }
