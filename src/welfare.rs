@@ -287,7 +287,14 @@ pub fn risk_premium(mean: f64, sd: f64, relative_risk_aversion: f64) -> f64 {
 /// (1 − α)/α times the steady-state crop revenue `reference_revenue`.
 #[inline]
 pub fn income(revenue: f64, crop_income_share: f64, reference_revenue: f64) -> f64 {
-    revenue + (1.0 - crop_income_share) / crop_income_share * reference_revenue
+    revenue + other_income(crop_income_share, reference_revenue)
+}
+
+/// The other income held fixed in [`income`]: (1 − α)/α times `reference_revenue` (a constant of
+/// the run; the Monte Carlo computes it once).
+#[inline]
+pub fn other_income(crop_income_share: f64, reference_revenue: f64) -> f64 {
+    (1.0 - crop_income_share) / crop_income_share * reference_revenue
 }
 
 /// The CRRA transform of income `y` scaled by `scale` (kept near 1 so powers neither overflow nor

@@ -667,26 +667,22 @@ pub(super) fn build(
             .zip(base.replications.reals(which))
             .map(|(p, b)| p - b)
     };
-    let net_changes = || {
-        reps.welfare()
-            .zip(base.replications.welfare())
-            .map(|(p, b)| p.net(lambda) - b.net(lambda))
-    };
+    // read once, in replication order, then summed and selected from the list
+    let net_changes: Vec<f64> = reps
+        .nets(lambda)
+        .zip(base.replications.nets(lambda))
+        .map(|(p, b)| p - b)
+        .collect();
     for (key, which) in [
         ("consumer_surplus_change_pv", Some(Real::ConsumerSurplus)),
         ("producer_surplus_change_pv", Some(Real::ProducerSurplus)),
         ("net_welfare_change_pv", None),
     ] {
-        let (m, se, all) = match which {
-            Some(w) => {
-                let (m, se) = mean_se(changes(w));
-                (m, se, changes(w).collect())
-            }
-            None => {
-                let (m, se) = mean_se(net_changes());
-                (m, se, net_changes().collect())
-            }
+        let all: Vec<f64> = match which {
+            Some(w) => changes(w).collect(),
+            None => net_changes.clone(),
         };
+        let (m, se) = mean_se(all.iter().copied());
         out.num(key, m);
         out.se(key, se);
         out.quantiles(key, all);
@@ -732,7 +728,7 @@ pub(super) fn build(
     let (pv, base_pv) = (premium_pv(runs), premium_pv(base));
     out.num("revenue_risk_premium_pv", pv);
     out.num("revenue_risk_premium_change_pv", pv - base_pv);
-    let (net, net_se) = mean_se(net_changes());
+    let (net, net_se) = mean_se(net_changes.iter().copied());
     out.num("risk_adjusted_net_welfare_change_pv", net - (pv - base_pv));
     out.se("risk_adjusted_net_welfare_change_pv", net_se);
     match crate::stability::analyse(scenario, spec) {

@@ -409,9 +409,9 @@ pub fn compare_with_households(
             let (slot, base) = (slots[k], baseline_of[k]);
             mc.policies[slot]
                 .replications
-                .welfare()
-                .zip(mc.policies[base].replications.welfare())
-                .map(|(p, b)| p.net(lambda) - b.net(lambda))
+                .nets(lambda)
+                .zip(mc.policies[base].replications.nets(lambda))
+                .map(|(p, b)| p - b)
                 .collect()
         })
         .collect();

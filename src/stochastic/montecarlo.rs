@@ -18,13 +18,15 @@ use rayon::prelude::*;
 use serde::Serialize;
 
 use super::draw_shocks;
-use super::stats::{quantiles_with_zeros, ShiftedSums, Summary};
+use super::stats::{order_key, quantiles_of_keys, ShiftedSums, Summary};
 use crate::curves::SteadyState;
 use crate::engine::{Diverged, Model, PathModel, PeriodRecord, PeriodShock, Stepper};
 use crate::policies::flags;
 use crate::policies::PolicySpec;
 use crate::scenario::{Scenario, MAX_ALERTS};
-use crate::welfare::{crra_transform, income, producer_revenue, Books, WelfareFold, WelfarePv};
+use crate::welfare::{
+    crra_transform, other_income, producer_revenue, Books, WelfareFold, WelfarePv,
+};
 
 /// Replications per parallel work item (fixed, so the order of float sums never depends on threads).
 pub const CHUNK: usize = 64;
@@ -419,13 +421,33 @@ impl<T: Bits> Block<T> {
     }
 }
 
-/// One value of every replication in replication order, reading a column of chunk blocks.
+/// One value of every replication in replication order, reading a column of chunk blocks a block
+/// at a time (a block's bytes or values through a slice iterator, a value held once repeated).
 #[derive(Debug, Clone)]
 pub struct Values<'a, T> {
-    blocks: &'a [Block<T>],
-    block: usize,
-    i: usize,
-    total: usize,
+    blocks: std::slice::Iter<'a, Block<T>>,
+    block: Cursor<'a, T>,
+    /// values not yet read
+    left: usize,
+}
+
+/// Where a [`Values`] is in its current block.
+#[derive(Debug, Clone)]
+enum Cursor<'a, T> {
+    /// the value and how many more times it comes
+    Same(T, usize),
+    Small(std::slice::Iter<'a, u8>),
+    Each(std::slice::Iter<'a, T>),
+}
+
+impl<'a, T> Values<'a, T> {
+    fn new(blocks: &'a [Block<T>], total: usize) -> Values<'a, T> {
+        Values {
+            blocks: blocks.iter(),
+            block: Cursor::Each([].iter()),
+            left: total,
+        }
+    }
 }
 
 impl<T: Bits> Iterator for Values<'_, T> {
@@ -434,22 +456,37 @@ impl<T: Bits> Iterator for Values<'_, T> {
     #[inline]
     fn next(&mut self) -> Option<T> {
         loop {
-            let b = self.blocks.get(self.block)?;
-            let len = match b {
-                Block::Same(_) => CHUNK.min(self.total - self.block * CHUNK),
-                Block::Small(v) => v.len(),
-                Block::Each(v) => v.len(),
+            let v = match &mut self.block {
+                Cursor::Same(x, k) => {
+                    if *k > 0 {
+                        *k -= 1;
+                        Some(*x)
+                    } else {
+                        None
+                    }
+                }
+                Cursor::Small(it) => it.next().map(|&b| T::from_small(b)),
+                Cursor::Each(it) => it.next().copied(),
             };
-            if self.i < len {
-                let i = self.i;
-                self.i += 1;
-                return Some(b.at(i));
+            if let Some(v) = v {
+                self.left -= 1;
+                return Some(v);
             }
-            self.block += 1;
-            self.i = 0;
+            // every block but the last holds CHUNK replications
+            self.block = match self.blocks.next()? {
+                Block::Same(x) => Cursor::Same(*x, CHUNK.min(self.left)),
+                Block::Small(v) => Cursor::Small(v.iter()),
+                Block::Each(v) => Cursor::Each(v.iter()),
+            };
         }
     }
+
+    fn size_hint(&self) -> (usize, Option<usize>) {
+        (self.left, Some(self.left))
+    }
 }
+
+impl<T: Bits> ExactSizeIterator for Values<'_, T> {}
 
 /// Every replication's summary of one model, stored value by value in blocks of [`CHUNK`]
 /// replications (a chunk's replications): a value with the same bits in the whole chunk (a cost
@@ -527,22 +564,12 @@ impl Replications {
 
     /// One real value of every replication, in replication order.
     pub fn reals(&self, which: Real) -> Values<'_, f64> {
-        Values {
-            blocks: &self.reals[which as usize],
-            block: 0,
-            i: 0,
-            total: self.len,
-        }
+        Values::new(&self.reals[which as usize], self.len)
     }
 
     /// One count of every replication, in replication order.
     pub fn counts(&self, which: Count) -> Values<'_, u32> {
-        Values {
-            blocks: &self.counts[which.index()],
-            block: 0,
-            i: 0,
-            total: self.len,
-        }
+        Values::new(&self.counts[which.index()], self.len)
     }
 
     /// The welfare present values of every replication, in replication order.
@@ -550,6 +577,32 @@ impl Replications {
         let mut cols: [Values<'_, f64>; 13] = std::array::from_fn(|j| self.reals(REAL_ORDER[j]));
         (0..self.len)
             .map(move |_| welfare_of(std::array::from_fn(|j| cols[j].next().unwrap_or(0.0))))
+    }
+
+    /// Every replication's [`WelfarePv::net`] at `public_funds_cost`, in replication order, reading
+    /// only the five values it uses.
+    pub fn nets(&self, public_funds_cost: f64) -> impl Iterator<Item = f64> + Clone + '_ {
+        let mut cols = [
+            Real::ConsumerSurplus,
+            Real::ProducerSurplus,
+            Real::FiscalCost,
+            Real::TerminalStockValue,
+            Real::QuotaRent,
+        ]
+        .map(|which| self.reals(which));
+        (0..self.len).map(move |_| {
+            let [cs, ps, fiscal, terminal, quota] =
+                std::array::from_fn(|j| cols[j].next().unwrap_or(0.0));
+            WelfarePv {
+                consumer_surplus: cs,
+                producer_surplus: ps,
+                fiscal_cost: fiscal,
+                terminal_stock_value: terminal,
+                quota_rent: quota,
+                ..WelfarePv::default()
+            }
+            .net(public_funds_cost)
+        })
     }
 
     /// Replication `rep`'s summary (the default past the end).
@@ -570,12 +623,7 @@ impl Replications {
         let mut counts: Vec<Values<'_, u32>> = self
             .counts
             .iter()
-            .map(|blocks| Values {
-                blocks,
-                block: 0,
-                i: 0,
-                total: self.len,
-            })
+            .map(|blocks| Values::new(blocks, self.len))
             .collect();
         (0..self.len).map(move |_| {
             let r: [f64; REALS] = std::array::from_fn(|j| reals[j].next().unwrap_or(0.0));
@@ -632,15 +680,16 @@ pub const SEASON_QUANTILE_FROM: f64 = 0.95;
 /// same bits as those of the whole list.
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct SeasonOutlays {
-    /// The largest outlays (no order).
-    kept: Vec<f64>,
+    /// The largest outlays (no order), as their [`order_key`]s (integers in the order of
+    /// `f64::total_cmp`, so selection compares integers).
+    kept: Vec<i64>,
     /// How many outlays were dropped, each at or below every kept one.
     dropped: usize,
     /// How many of the largest to keep at least.
     keep: usize,
     /// The smallest kept value after the last pruning: a later outlay below it can never be among
     /// the largest `keep`, so it is counted as dropped at once.
-    floor: Option<f64>,
+    floor: Option<i64>,
 }
 
 impl SeasonOutlays {
@@ -675,7 +724,7 @@ impl SeasonOutlays {
         let mut v = self.kept.clone();
         let mut kth = |k: usize| -> Option<f64> {
             let i = k.checked_sub(self.dropped)?;
-            Some(*v.select_nth_unstable_by(i, f64::total_cmp).1)
+            Some(super::stats::from_order_key(*v.select_nth_unstable(i).1))
         };
         probs
             .iter()
@@ -695,17 +744,21 @@ impl SeasonOutlays {
     /// Adds outlays; drops the smallest when the kept values reach twice the tail.
     fn extend(&mut self, outlays: &[f64]) {
         match self.floor {
-            None => self.kept.extend_from_slice(outlays),
+            None => self.kept.extend(outlays.iter().map(|&x| order_key(x))),
             Some(floor) => {
                 let before = self.kept.len();
-                self.kept
-                    .extend(outlays.iter().filter(|x| x.total_cmp(&floor).is_ge()));
+                self.kept.extend(
+                    outlays
+                        .iter()
+                        .map(|&x| order_key(x))
+                        .filter(|&k| k >= floor),
+                );
                 self.dropped += outlays.len() - (self.kept.len() - before);
             }
         }
         if self.kept.len() >= 2 * self.keep.max(CHUNK) {
             let cut = self.kept.len() - self.keep;
-            self.kept.select_nth_unstable_by(cut, f64::total_cmp);
+            self.kept.select_nth_unstable(cut);
             self.kept.drain(..cut);
             self.dropped += cut;
             self.floor = self.kept.first().copied();
@@ -784,6 +837,10 @@ pub struct Watch {
     /// Steady-state crop revenue P*·Q* (fixes other income at (1 − α)/α of it and scales the
     /// CRRA transform).
     pub reference_revenue: f64,
+    /// (1 − α)/α · P*·Q*, the other income (computed once: [`crate::welfare::other_income`]).
+    other_income: f64,
+    /// P*·Q*/α, the scale of the CRRA transform (computed once).
+    scale: f64,
 }
 
 impl Watch {
@@ -798,6 +855,7 @@ impl Watch {
         for (slot, p) in alerts.iter_mut().zip(&scenario.run.alert_prices) {
             *slot = *p;
         }
+        let reference_revenue = scenario.steady.price * scenario.steady.quantity;
         Watch {
             books: Books::new(scenario, agency),
             purchase_floor: watched.purchase_floor,
@@ -807,23 +865,23 @@ impl Watch {
             alert_count: scenario.run.alert_prices.len().min(MAX_ALERTS),
             crop_income_share: scenario.run.crop_income_share,
             risk_aversion: scenario.run.risk_aversion,
-            reference_revenue: scenario.steady.price * scenario.steady.quantity,
+            reference_revenue,
+            other_income: other_income(scenario.run.crop_income_share, reference_revenue),
+            scale: reference_revenue / scenario.run.crop_income_share,
         }
     }
 
     /// Producers' income in a period: revenue plus other income held fixed.
     #[inline]
     pub fn income(&self, r: &PeriodRecord) -> f64 {
-        income(
-            producer_revenue(r),
-            self.crop_income_share,
-            self.reference_revenue,
-        )
+        // `welfare::income` with its constant part computed once
+        producer_revenue(r) + self.other_income
     }
 
     /// The scale of the CRRA transform (mean income at the steady state).
+    #[inline]
     pub fn income_scale(&self) -> f64 {
-        self.reference_revenue / self.crop_income_share
+        self.scale
     }
 }
 
@@ -1022,10 +1080,9 @@ struct ChunkPolicy {
     /// replications folded
     n: usize,
     pooled: Pooled,
-    fiscal: Vec<f64>,
-    /// per-period sums over the chunk's replications of income and of its CRRA transform
-    income: Vec<f64>,
-    transform: Vec<f64>,
+    /// per-period sums over the chunk's replications of the season outlay, income and its CRRA
+    /// transform: [t] = [fiscal, income, transform]
+    sums: Vec<[f64; 3]>,
     /// this replication's (producer price, consumer price) per period (empty without pairs)
     path: Vec<[f64; 2]>,
     /// per-period sums of the shifted prices (see [`SeasonPrices`]; empty without pairs)
@@ -1033,8 +1090,9 @@ struct ChunkPolicy {
     /// kept series, each period-major: [t][rep in chunk], so a period's values are contiguous
     /// (empty when this chunk lies beyond the series budget)
     series: Vec<Vec<f64>>,
-    /// per-period sums of each kept series over the chunk's replications: [series][t]
-    series_sums: Vec<Vec<f64>>,
+    /// per-period sums of each kept series over the chunk's replications, period-major:
+    /// [t · series + j]
+    series_sums: Vec<f64>,
     /// the chunk's replication summaries while it runs (then `blocks`)
     summaries: Vec<ReplicationSummary>,
     /// the chunk's replication summaries, value by value
@@ -1085,23 +1143,27 @@ impl Merged {
             None => self.pooled = Some(c.pooled),
             Some(acc) => acc.merge(&c.pooled),
         }
-        for (a, b) in self.fiscal.iter_mut().zip(&c.fiscal) {
-            *a += b;
+        for (a, b) in self.fiscal.iter_mut().zip(&c.sums) {
+            *a += b[0];
         }
-        for (a, b) in self.income.iter_mut().zip(&c.income) {
-            *a += b;
+        for (a, b) in self.income.iter_mut().zip(&c.sums) {
+            *a += b[1];
         }
-        for (a, b) in self.transform.iter_mut().zip(&c.transform) {
-            *a += b;
+        for (a, b) in self.transform.iter_mut().zip(&c.sums) {
+            *a += b[2];
         }
-        for (((sums, kept), zero_reps), (block, chunk_sums)) in self
+        let kinds = self.series.len();
+        for (j, ((sums, kept), (zero_reps, block))) in self
             .series_sums
             .iter_mut()
             .zip(self.series.iter_mut())
-            .zip(self.series_zero_reps.iter_mut())
-            .zip(c.series.into_iter().zip(&c.series_sums))
+            .zip(self.series_zero_reps.iter_mut().zip(c.series))
+            .enumerate()
         {
-            for (a, b) in sums.iter_mut().zip(chunk_sums) {
+            for (a, b) in sums
+                .iter_mut()
+                .zip(c.series_sums.iter().skip(j).step_by(kinds))
+            {
                 *a += b;
             }
             if block.iter().all(|x| x.to_bits() == 0) {
@@ -1324,9 +1386,7 @@ impl<M: PathModel> Context<'_, M> {
             .map(|_| ChunkPolicy {
                 n,
                 pooled: Pooled::new(s.steady.price, s.steady.quantity),
-                fiscal: vec![0.0; periods],
-                income: vec![0.0; periods],
-                transform: vec![0.0; periods],
+                sums: vec![[0.0; 3]; periods],
                 path: if self.pairs.is_empty() {
                     Vec::new()
                 } else {
@@ -1348,7 +1408,7 @@ impl<M: PathModel> Context<'_, M> {
                         }
                     })
                     .collect(),
-                series_sums: self.series.iter().map(|_| vec![0.0; periods]).collect(),
+                series_sums: vec![0.0; periods * self.series.len()],
                 summaries: Vec::with_capacity(n),
                 blocks: None,
                 season_buf: if from < self.season_reps {
@@ -1380,13 +1440,14 @@ impl<M: PathModel> Context<'_, M> {
                     .zip(self.watches)
                 {
                     if fold.failed.is_none() {
+                        // the record read where the step left it (bound by reference)
                         match path.step(shock) {
-                            Ok(r) => {
+                            Ok(ref r) => {
                                 // the season outlays of the leading replications (within budget)
                                 if from < self.season_reps {
                                     acc.season_buf.push(r.fiscal_cost);
                                 }
-                                fold.add(t, &r, watch, self.series, at, acc)
+                                fold.add(t, r, watch, self.series, at, acc)
                             }
                             Err(e) => fold.failed = Some(e),
                         }
@@ -1508,9 +1569,10 @@ impl RepFold {
         if let Some(cell) = acc.path.get_mut(t) {
             *cell = [r.producer_price, consumer_price(r)];
         }
-        acc.fiscal[t] += r.fiscal_cost;
-        acc.income[t] += y;
-        acc.transform[t] += transform;
+        let sums = &mut acc.sums[t];
+        sums[0] += r.fiscal_cost;
+        sums[1] += y;
+        sums[2] += transform;
         if let Some(trade) = &r.trade {
             out.mean_imports += trade.imports;
             out.mean_exports += trade.exports;
@@ -1548,10 +1610,15 @@ impl RepFold {
                 r.price > hi * (1.0 + 1e-9) && (r.stockout || r.flags & flags::STOCK_OUT != 0);
             below || above
         }));
-        for (j, which) in series.iter().enumerate() {
+        let kinds = series.len();
+        for ((which, sum), kept) in series
+            .iter()
+            .zip(&mut acc.series_sums[t * kinds..(t + 1) * kinds])
+            .zip(acc.series.iter_mut())
+        {
             let x = which.of(r);
-            acc.series_sums[j][t] += x;
-            if let Some(cell) = acc.series[j].get_mut(t * n + slot) {
+            *sum += x;
+            if let Some(cell) = kept.get_mut(t * n + slot) {
                 *cell = x;
             }
         }
@@ -1635,9 +1702,10 @@ fn assemble(
                         column.clear();
                         for block in blocks {
                             let n = block.len() / periods.max(1);
-                            column.extend_from_slice(&block[t * n..(t + 1) * n]);
+                            column.extend(block[t * n..(t + 1) * n].iter().map(|&x| order_key(x)));
                         }
-                        let q = quantiles_with_zeros(column, zeros, &[0.05, 0.5, 0.95]);
+                        // selection among integers in the order of `f64::total_cmp`
+                        let q = quantiles_of_keys(column, zeros, &[0.05, 0.5, 0.95]);
                         Summary {
                             mean: sums[t] / reps as f64,
                             p05: q[0],
@@ -1788,5 +1856,12 @@ mod tests {
             .counts(Count::Alert(0))
             .eq(summaries.iter().map(|r| r.alert_periods[0])));
         assert!(reps.welfare().eq(summaries.iter().map(|r| r.welfare)));
+        // the net read from five values has the bits of `WelfarePv::net` of the whole summary
+        for lambda in [1.0, 1.2] {
+            assert!(reps
+                .nets(lambda)
+                .map(f64::to_bits)
+                .eq(summaries.iter().map(|r| r.welfare.net(lambda).to_bits())));
+        }
     }
 }

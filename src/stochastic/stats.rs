@@ -108,31 +108,99 @@ pub(crate) fn type7_position(n: usize, p: f64) -> (usize, f64) {
     (k, h - k as f64)
 }
 
-/// Type 7 quantiles at probabilities `probs` (ascending, in [0, 1]); `values` is reordered in place.
-/// NaN values sort last (they never arise from the engine, which rejects non-finite prices).
-pub fn quantiles(values: &mut [f64], probs: &[f64]) -> Vec<f64> {
-    let n = values.len();
+/// The integer whose order is that of `x` under `f64::total_cmp` (the same transform of the bits
+/// that `total_cmp` applies before it compares): `order_key(a) < order_key(b)` exactly when
+/// `a.total_cmp(&b)` is `Less`. +0 has key 0 and every value below +0 (−0 included) a negative key.
+#[inline]
+pub fn order_key(x: f64) -> i64 {
+    let b = x.to_bits() as i64;
+    b ^ ((((b >> 63) as u64) >> 1) as i64)
+}
+
+/// The value of an [`order_key`] (its inverse: the same bits).
+#[inline]
+pub fn from_order_key(k: i64) -> f64 {
+    f64::from_bits((k ^ ((((k >> 63) as u64) >> 1) as i64)) as u64)
+}
+
+/// The order statistics of `v` (reordered in place) at the 0-based ranks `ranks` (ascending,
+/// distinct, each below `v.len()`; rank r of `v` is rank `r + offset` of the whole list), written
+/// to `out` in the same order. Nested selection: the rank nearest the middle of `v` is selected
+/// first, then the lower ranks only in the part left of it and the higher ranks only in the part
+/// right of it, so each later selection sees a part of the list (a rank at either end of its
+/// part is a plain minimum or maximum scan).
+fn order_statistics<T: Copy>(
+    v: &mut [T],
+    offset: usize,
+    ranks: &[usize],
+    out: &mut [T],
+    cmp: &impl Fn(&T, &T) -> std::cmp::Ordering,
+) {
+    if ranks.is_empty() {
+        return;
+    }
+    let middle = offset + v.len() / 2;
+    let m = ranks
+        .iter()
+        .enumerate()
+        .min_by_key(|(_, &r)| r.abs_diff(middle))
+        .map_or(0, |(m, _)| m);
+    let k = ranks[m] - offset;
+    let (left, kth, right) = v.select_nth_unstable_by(k, cmp);
+    out[m] = *kth;
+    let (out_left, out_rest) = out.split_at_mut(m);
+    order_statistics(left, offset, &ranks[..m], out_left, cmp);
+    order_statistics(
+        right,
+        offset + k + 1,
+        &ranks[m + 1..],
+        &mut out_rest[1..],
+        cmp,
+    );
+}
+
+/// Type 7 quantiles at `probs` (ascending) of `n` values whose order statistics `select` finds:
+/// handed the ascending distinct ranks the quantiles read, it returns those order statistics in
+/// that order, as numbers.
+fn type7_from(n: usize, probs: &[f64], select: impl FnOnce(&[usize], &mut Vec<f64>)) -> Vec<f64> {
     if n == 0 {
         return vec![0.0; probs.len()];
     }
-    let mut start = 0;
-    probs
+    let positions: Vec<(usize, f64)> = probs.iter().map(|&p| type7_position(n, p)).collect();
+    let mut ranks: Vec<usize> = Vec::with_capacity(2 * probs.len());
+    for &(k, frac) in &positions {
+        ranks.push(k);
+        if frac > 0.0 && k + 1 < n {
+            ranks.push(k + 1);
+        }
+    }
+    ranks.sort_unstable();
+    ranks.dedup();
+    let mut values = Vec::with_capacity(ranks.len());
+    select(&ranks, &mut values);
+    let at = |r: usize| values[ranks.partition_point(|&x| x < r)];
+    positions
         .iter()
-        .map(|&p| {
-            let (k, frac) = type7_position(n, p);
-            let k = k.max(start);
-            let (_, kth, right) = values[start..].select_nth_unstable_by(k - start, f64::total_cmp);
-            let low = *kth;
-            let value = if frac > 0.0 && !right.is_empty() {
-                let high = right.iter().copied().fold(f64::INFINITY, f64::min);
+        .map(|&(k, frac)| {
+            let low = at(k);
+            if frac > 0.0 && k + 1 < n {
+                let high = at(k + 1);
                 low + frac * (high - low)
             } else {
                 low
-            };
-            start = k;
-            value
+            }
         })
         .collect()
+}
+
+/// Type 7 quantiles at probabilities `probs` (ascending, in [0, 1]); `values` is reordered in place.
+/// Order statistics under `f64::total_cmp`; NaN values sort last (they never arise from the
+/// engine, which rejects non-finite prices).
+pub fn quantiles(values: &mut [f64], probs: &[f64]) -> Vec<f64> {
+    type7_from(values.len(), probs, |ranks, out| {
+        out.resize(ranks.len(), 0.0);
+        order_statistics(values, 0, ranks, out, &f64::total_cmp);
+    })
 }
 
 /// [`quantiles`] of a sample given as `values` (any order; reordered in place) plus `zeros` values
@@ -140,42 +208,40 @@ pub fn quantiles(values: &mut [f64], probs: &[f64]) -> Vec<f64> {
 /// a type 7 quantile depends only on the order statistics (under `f64::total_cmp`, where −0 lies
 /// below +0).
 pub fn quantiles_with_zeros(values: &mut [f64], zeros: usize, probs: &[f64]) -> Vec<f64> {
-    if zeros == 0 {
-        return quantiles(values, probs);
-    }
-    // the values below +0 to the front
-    let mut below = 0;
-    for i in 0..values.len() {
-        if values[i].total_cmp(&0.0).is_lt() {
-            values.swap(i, below);
-            below += 1;
-        }
-    }
-    let n = values.len() + zeros;
-    let (lo, hi) = values.split_at_mut(below);
-    let mut kth = |k: usize| -> f64 {
-        if k < lo.len() {
-            *lo.select_nth_unstable_by(k, f64::total_cmp).1
-        } else if k < lo.len() + zeros {
-            0.0
-        } else {
-            *hi.select_nth_unstable_by(k - lo.len() - zeros, f64::total_cmp)
-                .1
-        }
-    };
-    probs
-        .iter()
-        .map(|&p| {
-            let (k, frac) = type7_position(n, p);
-            let low = kth(k);
-            if frac > 0.0 && k + 1 < n {
-                let high = kth(k + 1);
-                low + frac * (high - low)
-            } else {
-                low
+    let mut keys: Vec<i64> = values.iter().map(|&x| order_key(x)).collect();
+    quantiles_of_keys(&mut keys, zeros, probs)
+}
+
+/// [`quantiles_with_zeros`] of the values whose [`order_key`]s are `keys` (reordered in place),
+/// plus `zeros` values equal to +0 (key 0) not in the slice: the same bits, found by comparing
+/// integers.
+pub fn quantiles_of_keys(keys: &mut [i64], zeros: usize, probs: &[f64]) -> Vec<f64> {
+    let n = keys.len() + zeros;
+    type7_from(n, probs, |ranks, out| {
+        // the keys below +0 to the front; the zeros held apart lie between them and the rest
+        let mut below = 0;
+        if zeros > 0 {
+            for i in 0..keys.len() {
+                if keys[i] < 0 {
+                    keys.swap(i, below);
+                    below += 1;
+                }
             }
-        })
-        .collect()
+        }
+        let (lo, hi) = keys.split_at_mut(below);
+        let in_lo = ranks.partition_point(|&r| r < below);
+        let in_zeros = ranks.partition_point(|&r| r < below + zeros);
+        let mut got = vec![0_i64; ranks.len()];
+        let cmp = |a: &i64, b: &i64| a.cmp(b);
+        order_statistics(lo, 0, &ranks[..in_lo], &mut got[..in_lo], &cmp);
+        let hi_ranks: Vec<usize> = ranks[in_zeros..]
+            .iter()
+            .map(|r| r - below - zeros)
+            .collect();
+        order_statistics(hi, 0, &hi_ranks, &mut got[in_zeros..], &cmp);
+        // got[in_lo..in_zeros] stay 0: the key of +0
+        out.extend(got.into_iter().map(from_order_key));
+    })
 }
 
 #[cfg(test)]
@@ -212,6 +278,57 @@ mod tests {
             let hi = (lo + 1).min(996);
             let want = sorted[lo] + (h - lo as f64) * (sorted[hi] - sorted[lo]);
             assert!((got - want).abs() < 1e-15, "p={p}: {got} vs {want}");
+        }
+    }
+
+    #[test]
+    fn nested_selection_gives_the_order_statistics_of_sorting() {
+        // the k-th order statistic is the k-th value of the sorted list (its definition; e.g.
+        // David and Nagaraja 2003, ch. 1, from memory): sorting under `f64::total_cmp` is the
+        // reference, for spreads from a handful of distinct values to the whole f64 range
+        let mut x = 0.271_f64;
+        let mut next = || {
+            x = (x * 3.99 * (1.0 - x)).clamp(1e-9, 1.0 - 1e-9);
+            x
+        };
+        let lists: Vec<Vec<f64>> = vec![
+            (0..3001).map(|_| 200.0 + 40.0 * (next() - 0.5)).collect(),
+            (0..5000).map(|_| (10.0 * next()).floor()).collect(),
+            (0..700)
+                .map(|i| match i % 7 {
+                    0 => f64::INFINITY,
+                    1 => f64::NEG_INFINITY,
+                    2 => -0.0,
+                    3 => 0.0,
+                    4 => f64::MAX * next(),
+                    5 => -1e-300 * next(),
+                    _ => next(),
+                })
+                .collect(),
+            vec![5.5; 1000],
+        ];
+        for whole in lists {
+            let mut sorted = whole.clone();
+            sorted.sort_by(f64::total_cmp);
+            let n = whole.len();
+            let ranks = [0, 1, n / 20, n / 20 + 1, n / 2, n / 2 + 1, n - 2, n - 1];
+            let mut keys: Vec<i64> = whole.iter().map(|&v| order_key(v)).collect();
+            let mut got = vec![0; ranks.len()];
+            order_statistics(&mut keys, 0, &ranks, &mut got, &|a: &i64, b: &i64| a.cmp(b));
+            for (r, k) in ranks.iter().zip(&got) {
+                assert_eq!(
+                    from_order_key(*k).to_bits(),
+                    sorted[*r].to_bits(),
+                    "rank {r}"
+                );
+            }
+            let probs = [0.0, 0.05, 0.5, 0.95, 1.0];
+            let mut keys: Vec<i64> = whole.iter().map(|&v| order_key(v)).collect();
+            let by_keys = quantiles_of_keys(&mut keys, 0, &probs);
+            let by_values = quantiles(&mut whole.clone(), &probs);
+            for (a, b) in by_keys.iter().zip(&by_values) {
+                assert_eq!(a.to_bits(), b.to_bits());
+            }
         }
     }
 
