@@ -62,24 +62,100 @@ fn stencil(publics: &[f64], k: usize) -> (usize, usize) {
     (start, cnt)
 }
 
-/// The Lagrange weights at `g` of the stencil (`start`, `cnt`) and their derivatives in g.
-fn weights_and_slopes(publics: &[f64], start: usize, cnt: usize, g: f64) -> ([f64; 4], [f64; 4]) {
+/// The stencil of one interval of the public-stock grid, [`publics[k]`, `publics[k + 1]`), with
+/// the reciprocal spacings 1/(G_i − G_j) of its levels that the slopes of the Lagrange weights
+/// need: what does not change while G stays inside the interval.
+#[derive(Debug, Clone, Copy)]
+struct Stencil {
+    k: usize,
+    start: usize,
+    cnt: usize,
+    inv: [[f64; 4]; 4],
+}
+
+impl Stencil {
+    /// The stencil of interval `k` of `publics` (at least two levels).
+    fn of(publics: &[f64], k: usize) -> Stencil {
+        let (start, cnt) = stencil(publics, k);
+        let mut inv = [[0.0; 4]; 4];
+        for (i, row) in inv.iter_mut().enumerate().take(cnt) {
+            for (j, v) in row.iter_mut().enumerate().take(cnt) {
+                if j != i {
+                    *v = 1.0 / (publics[start + i] - publics[start + j]);
+                }
+            }
+        }
+        Stencil { k, start, cnt, inv }
+    }
+
+    /// Whether `g` (inside the grid) lies in this stencil's interval, as the search in
+    /// [`row_price_dg`] would find it (the last interval holds the top level).
+    #[inline]
+    fn holds(&self, publics: &[f64], g: f64) -> bool {
+        publics[self.k] <= g && (g < publics[self.k + 1] || self.k + 2 == publics.len())
+    }
+
+    /// The Lagrange weights at `g` and their derivatives in g.
+    #[inline]
+    fn weights_and_slopes(&self, publics: &[f64], g: f64) -> ([f64; 4], [f64; 4]) {
+        // (unrolled for each stencil size)
+        let (s, c) = (self.start, self.cnt);
+        match c {
+            4 => weights_and_slopes_n::<4>(&publics[s..s + 4], &self.inv, g),
+            3 => weights_and_slopes_n::<3>(&publics[s..s + 3], &self.inv, g),
+            2 => weights_and_slopes_n::<2>(&publics[s..s + 2], &self.inv, g),
+            _ => weights_and_slopes_n::<1>(&publics[s..s + 1], &self.inv, g),
+        }
+    }
+}
+
+/// The stencil last used by [`row_price_dg`], kept by a caller that evaluates it at several
+/// public stocks for one state (the budget-bound root's Newton steps mostly stay in one interval).
+#[derive(Debug, Default)]
+pub(crate) struct StencilCache(std::cell::Cell<Option<Stencil>>);
+
+/// The Lagrange weights at `g` of the `N` levels `at` of one stencil and their derivatives in g,
+/// with `inv[i][j]` = 1/(at_i − at_j). Each factor q_ij = (g − at_j)/(at_i − at_j) of the weight
+/// l_i = ∏_{j≠i} q_ij is divided once and shared by the weight and its slope
+/// dl_i/dg = Σ_{k≠i} 1/(at_i − at_k)·∏_{j≠i,k} q_ij; each product is taken in the order of j (the
+/// same operations, in the same order, as the weights written out factor by factor: the same bits).
+#[inline]
+#[allow(clippy::needless_range_loop)] // (indices as in the formula: q_ij, 1/(at_i − at_k))
+fn weights_and_slopes_n<const N: usize>(
+    at: &[f64],
+    inv: &[[f64; 4]; 4],
+    g: f64,
+) -> ([f64; 4], [f64; 4]) {
+    let at: &[f64; N] = at.try_into().expect("a stencil of N levels");
     let (mut w, mut dw) = ([0.0; 4], [0.0; 4]);
-    let at = |i: usize| publics[start + i];
-    for i in 0..cnt {
+    let mut q = [[0.0; N]; N];
+    for i in 0..N {
+        for j in 0..N {
+            if j != i {
+                q[i][j] = (g - at[j]) / (at[i] - at[j]);
+            }
+        }
+    }
+    for i in 0..N {
         let mut l = 1.0;
-        for j in (0..cnt).filter(|&j| j != i) {
-            l *= (g - at(j)) / (at(i) - at(j));
+        for j in 0..N {
+            if j != i {
+                l *= q[i][j];
+            }
         }
         w[i] = l;
         // d/dg of the product: one factor differentiated at a time
         let mut dl = 0.0;
-        for k in (0..cnt).filter(|&k| k != i) {
-            let mut t = 1.0 / (at(i) - at(k));
-            for j in (0..cnt).filter(|&j| j != i && j != k) {
-                t *= (g - at(j)) / (at(i) - at(j));
+        for k in 0..N {
+            if k != i {
+                let mut t = inv[i][k];
+                for j in 0..N {
+                    if j != i && j != k {
+                        t *= q[i][j];
+                    }
+                }
+                dl += t;
             }
-            dl += t;
         }
         dw[i] = dl;
     }
@@ -91,12 +167,16 @@ fn weights_and_slopes(publics: &[f64], start: usize, cnt: usize, g: f64) -> ([f6
 /// of the Lagrange weights and of the blended kink, D'(p0)·p0'(g). At a level of the grid the
 /// slope is the one of the interval above it (the last interval's at the top); beyond the grid,
 /// where the rows are clamped, it is 0. The price agrees with [`row_price`] up to rounding.
+///
+/// `cache` keeps the stencil of the last call: reused while `g` stays in its interval (the same
+/// bits as a fresh one; a caller without one passes `&StencilCache::default()`).
 pub(crate) fn row_price_dg(
     m: &StorageMarket,
     publics: &[f64],
     rows: &[PriceRule],
     y: f64,
     g: f64,
+    cache: &StencilCache,
 ) -> (f64, f64, f64) {
     let n = publics.len();
     if n < 2 {
@@ -104,9 +184,17 @@ pub(crate) fn row_price_dg(
         return (p, d, 0.0);
     }
     let gc = g.clamp(publics[0], publics[n - 1]);
-    let k = publics.partition_point(|&v| v <= gc).clamp(1, n - 1) - 1;
-    let (start, cnt) = stencil(publics, k);
-    let (w, mut dw) = weights_and_slopes(publics, start, cnt, gc);
+    let st = match cache.0.get() {
+        Some(st) if st.holds(publics, gc) => st,
+        _ => {
+            let k = publics.partition_point(|&v| v <= gc).clamp(1, n - 1) - 1;
+            let st = Stencil::of(publics, k);
+            cache.0.set(Some(st));
+            st
+        }
+    };
+    let (start, cnt) = (st.start, st.cnt);
+    let (w, mut dw) = st.weights_and_slopes(publics, gc);
     if gc != g {
         dw = [0.0; 4];
     }
@@ -448,7 +536,7 @@ mod tests {
         let publics = [0.0, 15.0, 30.0, 45.0, 60.0];
         for g in [3.0, 21.7, 37.0, 52.5] {
             for y in [300.0, 450.0, 470.0, 520.0, 700.0] {
-                let (p, d, dg) = row_price_dg(&m, &publics, &rows, y, g);
+                let (p, d, dg) = row_price_dg(&m, &publics, &rows, y, g, &StencilCache::default());
                 let (p0, d0) = row_price(&m, &publics, &rows, y, g);
                 assert!((p - p0).abs() <= 1e-11 * p0, "{g} {y}: {p} {p0}");
                 assert!((d - d0).abs() <= 1e-11, "{g} {y}: {d} {d0}");
@@ -461,6 +549,30 @@ mod tests {
                     "{g} {y}: {dg} {fd}"
                 );
             }
+        }
+    }
+
+    #[test]
+    fn a_kept_stencil_gives_the_same_bits_as_a_fresh_one() {
+        // the stencil kept between calls must not change a result: price, dP/dy and dP/dg bit
+        // for bit as with a fresh search, on a grid with a doubled level, at levels, between
+        // them, at the top and beyond the grid, in an order that moves between intervals
+        let m = market();
+        let rows = test_rows(|i| 440.0 + 6.0 * i as f64, |i| 9 + 3 * i, 1.7, 2.0);
+        let publics = [0.0, 15.0, 30.0, 30.0, 60.0];
+        let kept = StencilCache::default();
+        let gs = [
+            3.0, 4.0, 15.0, 14.9, 29.99, 30.0, 30.01, 45.0, 60.0, 59.0, 61.0, -1.0, 0.0, 22.0, 60.0,
+        ];
+        for (n, &g) in gs.iter().enumerate() {
+            let y = 450.0 + 7.0 * n as f64;
+            let a = row_price_dg(&m, &publics, &rows, y, g, &kept);
+            let b = row_price_dg(&m, &publics, &rows, y, g, &StencilCache::default());
+            assert_eq!(
+                (a.0.to_bits(), a.1.to_bits(), a.2.to_bits()),
+                (b.0.to_bits(), b.1.to_bits(), b.2.to_bits()),
+                "{g}"
+            );
         }
     }
 

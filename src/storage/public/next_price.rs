@@ -11,7 +11,7 @@
 //! function of z' (safeguarded Newton).
 
 use super::agency::{decide_knowing, Band, Decision, ReleaseInStorage};
-use super::blend::{row_kinks, row_price_dg, Blend, Merged};
+use super::blend::{row_kinks, row_price_dg, Blend, Merged, StencilCache};
 use super::market::StorageMarket;
 use super::solve::PriceRule;
 use super::split::{next_nodes, next_nodes_yield};
@@ -183,8 +183,9 @@ impl<'a> NextPrice<'a> {
         let w = z + self.gn;
         let pg = |gg: f64| self.price_at(gg, w - gg);
         // (only a purchase budget needs the slope in G, at stocks of its own)
+        let cache = StencilCache::default();
         let pgd = |gg: f64| {
-            let (p, p_y, p_g) = row_price_dg(self.m, self.publics, self.rows, w - gg, gg);
+            let (p, p_y, p_g) = row_price_dg(self.m, self.publics, self.rows, w - gg, gg, &cache);
             (p, p_y, p_g - p_y)
         };
         let (p, d, _, _) = decide_knowing(self.band, self.gn, &pg, &pgd);
@@ -235,8 +236,9 @@ impl<'a> NextPrice<'a> {
     fn piece_at(&self, z: f64) -> Piece {
         let w = z + self.gn;
         let pg = |gg: f64| self.price_at(gg, w - gg);
+        let cache = StencilCache::default();
         let pgd = |gg: f64| {
-            let (p, p_y, p_g) = row_price_dg(self.m, self.publics, self.rows, w - gg, gg);
+            let (p, p_y, p_g) = row_price_dg(self.m, self.publics, self.rows, w - gg, gg, &cache);
             (p, p_y, p_g - p_y)
         };
         let (_, _, mode, decision) = decide_knowing(self.band, self.gn, &pg, &pgd);

@@ -113,8 +113,9 @@ pub(crate) fn state_decision(
     g: f64,
 ) -> (f64, f64, AgencyMode, Decision) {
     let w = z + g;
+    let cache = super::blend::StencilCache::default();
     let pgd = |gg: f64| {
-        let (p, p_y, p_g) = super::blend::row_price_dg(m, publics, rows, w - gg, gg);
+        let (p, p_y, p_g) = super::blend::row_price_dg(m, publics, rows, w - gg, gg, &cache);
         (p, p_y, p_g - p_y)
     };
     decide_knowing(
