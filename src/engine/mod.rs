@@ -215,7 +215,11 @@ impl Model {
 
     /// [`Model::clear`] on a market that trades: the period's border terms at its world price, the
     /// rules trading on the kinked curve, then private trade.
-    #[inline(never)]
+    ///
+    /// Inlined like the closed market's clearing: a period returned from a call goes through
+    /// memory, and the step's one `Cleared` would then live in memory on every market, closed or
+    /// open (the border's own arithmetic stays in `trade`'s functions).
+    #[inline(always)]
     fn clear_open(
         &self,
         trade: &Trade,
