@@ -80,6 +80,9 @@ pub struct Model {
     is_rational: bool,
     /// Some rule sets the producer price or pays producers or consumers (looked up once).
     has_payments: bool,
+    /// Some rule trades on the market (`PolicyRule::trades_stock`; the others' `trade` does
+    /// nothing, so a policy without one clears the market as harvested; looked up once).
+    trades_stock: bool,
     /// The policy's only rule when it is a plain band (called directly, not through the trait).
     band_only: Option<policies::BandStock>,
     /// A price above this with no stock left is a stock-out: `sell_above·(1 + 1e-12)`, or +∞ when
@@ -105,6 +108,7 @@ impl Model {
         let compiled_floor = compiled.planting_floor();
         let compiled_border = compiled.border;
         let has_payments = compiled.rules.iter().any(|r| r.pays());
+        let trades_stock = compiled.rules.iter().any(|r| r.trades_stock());
         let is_rational = rule.is_rational();
         let adaptive = rule.as_adaptive();
         let band_only = match compiled.rules.as_slice() {
@@ -145,6 +149,7 @@ impl Model {
             planting_floor: compiled_floor,
             is_rational,
             has_payments,
+            trades_stock,
             band_only,
             stockout_above,
             adaptive,
@@ -188,6 +193,12 @@ impl Model {
                 agency.purchase_budget,
             )
         };
+        if !self.trades_stock {
+            // no rule trades: the market as harvested, a value no trait object sees (the
+            // optimiser folds its zero trades and keeps it in registers)
+            let m = market();
+            return self.settle(planted, harvest, &m);
+        }
         if let Some(band) = &self.band_only {
             // its own market value, which no trait object sees, so the optimiser keeps it in
             // registers and folds the zero trades it starts with
@@ -204,7 +215,11 @@ impl Model {
 
     /// [`Model::clear`] on a market that trades: the period's border terms at its world price, the
     /// rules trading on the kinked curve, then private trade.
-    #[inline(never)]
+    ///
+    /// Inlined like the closed market's clearing: a period returned from a call goes through
+    /// memory, and the step's one `Cleared` would then live in memory on every market, closed or
+    /// open (the border's own arithmetic stays in `trade`'s functions).
+    #[inline(always)]
     fn clear_open(
         &self,
         trade: &Trade,
@@ -431,53 +446,66 @@ impl<'m> Simulator<'m> {
 
     /// Advances one period under `shock`.
     pub fn step(&mut self, shock: &PeriodShock) -> Result<PeriodRecord, Diverged> {
+        self.advance(shock)
+    }
+
+    /// [`Simulator::step`], inlined where a path is stepped through [`Stepper`] (the Monte Carlo's
+    /// lockstep loop): the record's columns then go straight to the fold instead of through a
+    /// record written to memory and read back.
+    #[inline(always)]
+    fn advance(&mut self, shock: &PeriodShock) -> Result<PeriodRecord, Diverged> {
         let model = self.model;
         let t = self.period + 1;
         let diverged = |reason: String| Diverged { period: t, reason };
         let carried = self.stock * (1.0 - model.policy.agency.loss_rate);
         let floor = model.planting_floor;
-        let rule_expectation =
-            if let (Some(g), Some(state)) = (model.rule.groups(), self.groups.as_mut()) {
-                // farmers in groups plant Σ n_i S(P^e_i): the planting-equivalent price
-                let history = &self.ring[self.head..self.head + self.keep];
-                let last_shock = self.last_demand_shock;
-                let last_world = self.last_world;
-                g.season(state, history, &model.supply, floor, |p| {
-                    rational::expected_price(model, carried, last_shock, p, last_world)
-                })
-                .ok_or_else(|| {
-                    diverged(
-                        "no rational expectation exists for the rational group (the fixed point \
+        // the path's own group state first: the rule is asked for its groups (a call through the
+        // trait object) only on a path that has them
+        let grouped = match self.groups.as_mut() {
+            Some(state) => model.rule.groups().map(|g| (g, state)),
+            None => None,
+        };
+        let rule_expectation = if let Some((g, state)) = grouped {
+            // farmers in groups plant Σ n_i S(P^e_i): the planting-equivalent price
+            let history = &self.ring[self.head..self.head + self.keep];
+            let last_shock = self.last_demand_shock;
+            let last_world = self.last_world;
+            g.season(state, history, &model.supply, floor, |p| {
+                rational::expected_price(model, carried, last_shock, p, last_world)
+            })
+            .ok_or_else(|| {
+                diverged(
+                    "no rational expectation exists for the rational group (the fixed point \
                      could not be bracketed)"
-                            .into(),
-                    )
-                })?
-            } else if model.is_rational {
-                let guess = self.last_price;
-                rational::solve(
-                    model,
-                    carried,
-                    self.last_demand_shock,
-                    floor,
-                    guess,
-                    self.last_world,
+                        .into(),
                 )
-                .ok_or_else(|| {
-                    diverged(
-                        "no rational expectation exists (the fixed point could not be bracketed)"
-                            .into(),
-                    )
-                })?
-            } else {
-                match &model.adaptive {
-                    Some(adaptive) => adaptive.next(self.previous, self.last_price),
-                    None => model.rule.expect(&ExpectationInput {
-                        history: self.history(),
-                        previous: self.previous,
-                        season: t,
-                    }),
-                }
-            };
+            })?
+        } else if model.is_rational {
+            let guess = self.last_price;
+            rational::solve(
+                model,
+                carried,
+                self.last_demand_shock,
+                floor,
+                guess,
+                self.last_world,
+            )
+            .ok_or_else(|| {
+                diverged(
+                    "no rational expectation exists (the fixed point could not be bracketed)"
+                        .into(),
+                )
+            })?
+        } else {
+            match &model.adaptive {
+                Some(adaptive) => adaptive.next(self.previous, self.last_price),
+                None => model.rule.expect(&ExpectationInput {
+                    history: self.history(),
+                    previous: self.previous,
+                    season: t,
+                }),
+            }
+        };
         let planting = match floor {
             Some(f) => rule_expectation.max(f),
             None => rule_expectation,
@@ -568,8 +596,10 @@ impl<'m> Simulator<'m> {
             c.producer_price
         };
         self.push_price(read);
-        if let (Some(g), Some(state)) = (model.rule.groups(), self.groups.as_mut()) {
-            g.settle(state, read);
+        if let Some(state) = self.groups.as_mut() {
+            if let Some(g) = model.rule.groups() {
+                g.settle(state, read);
+            }
         }
         Ok(record)
     }

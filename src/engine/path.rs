@@ -34,7 +34,7 @@ pub trait PathModel: Sync {
 impl Stepper for Simulator<'_> {
     #[inline(always)]
     fn step(&mut self, shock: &PeriodShock) -> Result<PeriodRecord, Diverged> {
-        Simulator::step(self, shock)
+        self.advance(shock)
     }
 }
 

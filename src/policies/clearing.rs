@@ -200,10 +200,13 @@ impl<'a> Clearing<'a> {
 
     /// Clearing price P = D⁻¹(C) of the shifted demand curve (after private trade in an open
     /// market).
-    #[inline]
+    ///
+    /// Inlined into every caller: a closed market's price is a comparison or one division, cheaper
+    /// than the call; the open market's clearing stays out of line ([`Clearing::traded_price`]).
+    #[inline(always)]
     pub fn price(&self) -> f64 {
         if self.trades {
-            return self.traded().price;
+            return self.traded_price();
         }
         if self.purchases == 0.0 && self.releases == 0.0 {
             // the same value as below: consumption() is exactly the harvest when nothing is traded
@@ -211,6 +214,13 @@ impl<'a> Clearing<'a> {
         } else {
             self.price_if_consumption(self.consumption())
         }
+    }
+
+    /// The price after private trade on an open market (out of line: [`Clearing::price`] inlines
+    /// only the closed market's arithmetic).
+    #[inline(never)]
+    fn traded_price(&self) -> f64 {
+        self.traded().price
     }
 
     #[inline]
