@@ -79,7 +79,9 @@ pub trait PolicyRule: Send + Sync + std::fmt::Debug {
     /// The action as a plain price band, when it is exactly one (lets the engine call it directly
     /// instead of through the trait object; the trade is the same).
     fn as_band(&self) -> Option<BandStock>;
-    /// True for actions that buy into or sell from the agency's stock.
+    /// True for actions that buy into or sell from the agency's stock. An action that answers
+    /// false must not trade (`trades_nothing!`): a policy none of whose actions trades is cleared
+    /// without calling `trade` at all (`engine::Model::clear`).
     fn trades_stock(&self) -> bool;
 }
 
