@@ -11,6 +11,7 @@ use super::market::StorageMarket;
 use super::split::{next_nodes, next_nodes_yield};
 use super::StorageError;
 use crate::numeric::interp::Monotone;
+use rayon::prelude::*;
 
 /// The equilibrium price as a function of availability (net of the demand shock).
 #[derive(Debug, Clone)]
@@ -519,23 +520,28 @@ fn iterate(
     let n = stocks.len();
     let mut old: Vec<f64> = Vec::new();
     let (mut zs, mut ps) = (Vec::with_capacity(n), Vec::with_capacity(n));
+    let mut solved: Vec<(f64, f64)> = Vec::with_capacity(n);
     let hi = reach(&m, &stocks);
     let mut breaks = rule_breaks(&m, &rule, hi);
     let done = super::fixed_point::iterate(o, n, |it| {
         zs.clear();
         ps.clear();
-        for (j, &x) in stocks.iter().enumerate() {
-            let carried = m.keep * x;
-            let (q, psi) = match m.farmers {
+        // each grid stock's planting depends only on the previous rule and its own previous
+        // planting, so the points are solved in parallel (the same bits as one by one); the scan
+        // below takes them in order and stops where the loop one by one stopped (one parallel
+        // call per iteration: in blocks, each call's wake-up cost more than it saved)
+        let point = |j: usize, guess: f64| {
+            let carried = m.keep * stocks[j];
+            match m.farmers {
                 None => plant_accepting(
                     &m,
-                    planted[j],
+                    guess,
                     &|q| expected_producer(&m, carried, q, &rule, &breaks),
                     PLANT_ACCEPT,
                 ),
                 // farmers plant on their rule of today's price, which the arbitrage condition
                 // sets at every grid stock: P = β·E[P'(q)] − k, q = S(F(P))
-                Some(f) => plant_with(&m, planted[j], &|q| {
+                Some(f) => plant_with(&m, guess, &|q| {
                     let (_, de, e) = expected_producer(&m, carried, q, &rule, &breaks);
                     (
                         f.expect(m.discount * e - m.cost),
@@ -543,7 +549,15 @@ fn iterate(
                         e,
                     )
                 }),
-            };
+            }
+        };
+        (0..n)
+            .into_par_iter()
+            .zip(planted.par_iter())
+            .map(|(j, &guess)| point(j, guess))
+            .collect_into_vec(&mut solved);
+        for (j, &(q, psi)) in solved.iter().enumerate() {
+            let x = stocks[j];
             planted[j] = q;
             let p = m.discount * psi - m.cost;
             if p <= m.floor || ps.last().is_some_and(|&last| p > last) {
