@@ -179,20 +179,10 @@ impl Model {
     pub(crate) fn clear(&self, planting_price: f64, shock: &PeriodShock, carried: f64) -> Cleared {
         let planted = self.supply.quantity(planting_price);
         let harvest = (planted * shock.yield_factor + shock.supply).max(0.0);
-        let agency = &self.policy.agency;
         if let Some(trade) = &self.trade {
             return self.clear_open(trade, planted, harvest, shock, carried);
         }
-        let market = || {
-            Clearing::new(
-                &self.demand,
-                shock.demand,
-                harvest,
-                carried,
-                agency.capacity,
-                agency.purchase_budget,
-            )
-        };
+        let market = || self.market(shock, harvest, carried);
         if !self.trades_stock {
             // no rule trades: the market as harvested, a value no trait object sees (the
             // optimiser folds its zero trades and keeps it in registers)
@@ -213,6 +203,21 @@ impl Model {
         self.settle(planted, harvest, &m)
     }
 
+    /// The period's market before any rule trades: the harvest and the carried stock on the shocked
+    /// demand curve, with the agency's capacity and purchase budget (closed and open markets alike).
+    #[inline(always)]
+    fn market(&self, shock: &PeriodShock, harvest: f64, carried: f64) -> Clearing<'_> {
+        let agency = &self.policy.agency;
+        Clearing::new(
+            &self.demand,
+            shock.demand,
+            harvest,
+            carried,
+            agency.capacity,
+            agency.purchase_budget,
+        )
+    }
+
     /// [`Model::clear`] on a market that trades: the period's border terms at its world price, the
     /// rules trading on the kinked curve, then private trade.
     ///
@@ -228,18 +233,9 @@ impl Model {
         shock: &PeriodShock,
         carried: f64,
     ) -> Cleared {
-        let agency = &self.policy.agency;
         let world = trade.world_price_at(shock.world_factor);
         let terms = trade.terms(world, &self.measures);
-        let mut m = Clearing::new(
-            &self.demand,
-            shock.demand,
-            harvest,
-            carried,
-            agency.capacity,
-            agency.purchase_budget,
-        )
-        .with_border(terms);
+        let mut m = self.market(shock, harvest, carried).with_border(terms);
         for rule in &self.policy.rules {
             rule.trade(&mut m);
         }

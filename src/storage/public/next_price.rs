@@ -10,7 +10,7 @@
 //! points are found once per g': the kinks analytically, the others as roots of a decreasing
 //! function of z' (safeguarded Newton).
 
-use super::agency::{decide_knowing, Band, Decision, ReleaseInStorage};
+use super::agency::{decide_knowing, AgencyMode, Band, Decision, ReleaseInStorage};
 use super::blend::{row_kinks, row_price_dg, Blend, Merged, StencilCache};
 use super::market::StorageMarket;
 use super::solve::PriceRule;
@@ -180,6 +180,14 @@ impl<'a> NextPrice<'a> {
     /// Price and dP'/dz' at next availability `z` under the agency's rule.
     #[inline]
     pub fn price(&self, z: f64) -> (f64, f64) {
+        let (p, d, _, _) = self.decide(z);
+        (p, d)
+    }
+
+    /// The agency's decision at next availability `z`: price, dP'/dz', regime and decision
+    /// ([`decide_knowing`] on the rows at the stock it carries in).
+    #[inline]
+    fn decide(&self, z: f64) -> (f64, f64, AgencyMode, Decision) {
         let w = z + self.gn;
         let pg = |gg: f64| self.price_at(gg, w - gg);
         // (only a purchase budget needs the slope in G, at stocks of its own)
@@ -188,8 +196,7 @@ impl<'a> NextPrice<'a> {
             let (p, p_y, p_g) = row_price_dg(self.m, self.publics, self.rows, w - gg, gg, &cache);
             (p, p_y, p_g - p_y)
         };
-        let (p, d, _, _) = decide_knowing(self.band, self.gn, &pg, &pgd);
-        (p, d)
+        decide_knowing(self.band, self.gn, &pg, &pgd)
     }
 
     /// The ascending availabilities in (0, `hi`] where P'(·, g') may be non-smooth (see the module
@@ -234,15 +241,8 @@ impl<'a> NextPrice<'a> {
 
     /// The rule's regime at next availability `z`, as a [`Piece`].
     fn piece_at(&self, z: f64) -> Piece {
-        let w = z + self.gn;
-        let pg = |gg: f64| self.price_at(gg, w - gg);
-        let cache = StencilCache::default();
-        let pgd = |gg: f64| {
-            let (p, p_y, p_g) = row_price_dg(self.m, self.publics, self.rows, w - gg, gg, &cache);
-            (p, p_y, p_g - p_y)
-        };
-        let (_, _, mode, decision) = decide_knowing(self.band, self.gn, &pg, &pgd);
-        if mode == super::agency::AgencyMode::BudgetBound {
+        let (_, _, mode, decision) = self.decide(z);
+        if mode == AgencyMode::BudgetBound {
             return Piece::General;
         }
         match decision {
