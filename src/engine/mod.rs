@@ -9,11 +9,13 @@
 //! The engine knows nothing of files, TOML or the terminal: it takes a validated [`Scenario`] and
 //! [`PolicySpec`] and a stream of [`PeriodShock`]s.
 
+pub mod columns;
 mod path;
 mod rational;
 mod record;
 
-pub use path::{PathModel, Stepper};
+pub use columns::{Columns, EachLane, LaneStepper, LANES};
+pub use path::{each_lane, PathModel, Stepper};
 pub use record::{PeriodRecord, Settled, TradeRecord};
 
 use crate::curves::Curve;

@@ -6,6 +6,7 @@
 //! replication's shocks once and hands the same values to every model of the replication (and can
 //! step several models of one replication in lockstep, one [`Stepper`] each).
 
+use super::columns::{EachLane, LaneStepper, LANES};
 use super::{Diverged, Model, PeriodRecord, PeriodShock, Simulator};
 
 /// A path in progress: advances one period on the shock it is handed.
@@ -24,11 +25,25 @@ pub trait PathModel: Sync {
     where
         Self: 'a;
 
+    /// Up to [`LANES`] paths stepped together (the Monte Carlo's chunk of replications).
+    type Lanes<'a>: LaneStepper
+    where
+        Self: 'a;
+
     /// The policy's display name.
     fn name(&self) -> &str;
 
     /// A fresh path at period 0.
     fn start(&self) -> Self::Stepper<'_>;
+
+    /// `n` (≤ [`LANES`]) fresh paths at period 0, stepped together.
+    fn start_lanes(&self, n: usize) -> Self::Lanes<'_>;
+}
+
+/// `n` fresh paths of `model`, each its own [`Stepper`] ([`EachLane`]).
+pub fn each_lane<M: PathModel>(model: &M, n: usize) -> EachLane<M::Stepper<'_>> {
+    debug_assert!(n <= LANES);
+    EachLane((0..n).map(|_| model.start()).collect())
 }
 
 impl Stepper for Simulator<'_> {
@@ -40,6 +55,7 @@ impl Stepper for Simulator<'_> {
 
 impl PathModel for Model {
     type Stepper<'a> = Simulator<'a>;
+    type Lanes<'a> = EachLane<Simulator<'a>>;
 
     fn name(&self) -> &str {
         &self.policy.name
@@ -48,5 +64,9 @@ impl PathModel for Model {
     #[inline]
     fn start(&self) -> Simulator<'_> {
         self.simulator()
+    }
+
+    fn start_lanes(&self, n: usize) -> Self::Lanes<'_> {
+        each_lane(self, n)
     }
 }

@@ -29,7 +29,7 @@ use crate::welfare::{
 };
 
 /// Replications per parallel work item (fixed, so the order of float sums never depends on threads).
-pub const CHUNK: usize = 64;
+pub const CHUNK: usize = crate::engine::LANES;
 
 /// Memory allowed for the per-period values kept for quantiles (all policies and series together).
 pub const SERIES_BUDGET_BYTES: usize = 128 << 20;

@@ -8,7 +8,9 @@
 
 use super::agency::{AgencyMode, StoragePlan};
 use super::simulate::{SolvedPath, StoragePeriod};
-use crate::engine::{Diverged, PathModel, PeriodRecord, PeriodShock, Settled, Stepper};
+use crate::engine::{
+    each_lane, Diverged, EachLane, PathModel, PeriodRecord, PeriodShock, Settled, Stepper,
+};
 use crate::policies::PolicySpec;
 use crate::policies::{flags, Agency};
 use crate::scenario::Scenario;
@@ -204,6 +206,7 @@ impl Stepper for StorageStepper<'_> {
 
 impl PathModel for SolvedStorage {
     type Stepper<'a> = StorageStepper<'a>;
+    type Lanes<'a> = EachLane<StorageStepper<'a>>;
 
     fn name(&self) -> &str {
         &self.policy.name
@@ -215,6 +218,10 @@ impl PathModel for SolvedStorage {
             books: &self.books,
             previous: self.books.agency.initial,
         }
+    }
+
+    fn start_lanes(&self, n: usize) -> Self::Lanes<'_> {
+        each_lane(self, n)
     }
 }
 
