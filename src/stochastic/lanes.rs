@@ -69,6 +69,18 @@ impl LaneSums {
     }
 }
 
+/// Whether the machine runs AVX2 (checked once per fold; std caches the answer).
+fn has_avx2() -> bool {
+    #[cfg(target_arch = "x86_64")]
+    {
+        std::arch::is_x86_feature_detected!("avx2")
+    }
+    #[cfg(not(target_arch = "x86_64"))]
+    {
+        false
+    }
+}
+
 /// Whether the agency bought or a deficiency payment was made (`PeriodRecord::floor_binding` of
 /// the lane's record; the engine keeps that rule, this reads it off the columns).
 #[inline(always)]
@@ -113,6 +125,9 @@ pub(crate) struct LaneFold {
     pub(crate) transform: Lanes,
     /// the CRRA form of the run's risk aversion (chosen once)
     crra: Crra,
+    /// the machine runs AVX2: [`LaneFold::add`] runs its copy built for it (the same arithmetic in
+    /// wider registers, so the same bits)
+    avx2: bool,
 }
 
 impl LaneFold {
@@ -147,13 +162,42 @@ impl LaneFold {
             income: ZERO,
             transform: ZERO,
             crra: Crra::new(watch.risk_aversion),
+            avx2: has_avx2(),
         }
     }
 
     /// Folds the period in `c` (every lane) into each lane's sums; leaves each lane's income and
     /// its CRRA transform in [`LaneFold::income`] and [`LaneFold::transform`].
-    #[inline(never)]
+    #[inline]
     pub(crate) fn add(&mut self, c: &Columns, watch: &Watch) {
+        #[cfg(target_arch = "x86_64")]
+        if self.avx2 {
+            // SAFETY: `avx2` is set only when the running machine has AVX2
+            // (`is_x86_feature_detected!`), which is all `add_avx2` requires.
+            unsafe { self.add_avx2(c, watch) };
+            return;
+        }
+        self.add_plain(c, watch);
+    }
+
+    /// [`LaneFold::fold`] built for the baseline x86-64 (SSE2) or any other target.
+    #[inline(never)]
+    fn add_plain(&mut self, c: &Columns, watch: &Watch) {
+        self.fold(c, watch);
+    }
+
+    /// [`LaneFold::fold`] built for AVX2: the same operations on four lanes a register (no FMA, no
+    /// reassociation, so every lane gets the bits of [`LaneFold::add_plain`]).
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx2")]
+    #[inline(never)]
+    unsafe fn add_avx2(&mut self, c: &Columns, watch: &Watch) {
+        self.fold(c, watch);
+    }
+
+    /// The one definition of the period's fold.
+    #[inline(always)]
+    fn fold(&mut self, c: &Columns, watch: &Watch) {
         self.count += 1;
         self.welfare(c, watch);
         self.income_and_moments(c, watch);
@@ -397,6 +441,65 @@ mod tests {
                 };
                 assert!((t - closed).abs() <= 1e-15 * closed.abs().max(1.0));
             }
+        }
+    }
+
+    #[test]
+    fn the_avx2_copy_of_the_fold_gives_the_bits_of_the_plain_one() {
+        // an identity (no outside source): the same fold built for two instruction sets
+        let s = crate::scenario::market_from_table(
+            "t.toml",
+            crate::scenario::parse_toml(
+                "t.toml",
+                "[market]\nname = \"T\"\nquantity_unit = \"kt\"\nprice_unit = \"per t\"\n\
+                 [demand]\nintercept = 200.0\nslope = -2.0\n[supply]\nintercept = -40.0\nslope = 1.0\n\
+                 [expectations]\nrule = \"naive\"\n[run]\nperiods = 30\ninitial_price = 85.0\n\
+                 alert_price = [81.0, 95.0]\nrisk_aversion = 1.5\n",
+            )
+            .unwrap(),
+        )
+        .unwrap();
+        let policy = crate::policies::PolicySpec::none();
+        let mut watch = Watch::new(&s, &policy, &crate::policies::compile(&policy).agency);
+        watch.purchase_floor = Some(78.0);
+        watch.band = Some((76.0, 84.0));
+        watch.annual_budget = 40.0;
+        let mut plain = LaneFold::new(&watch, 80.0, 40.0);
+        let mut wide = plain.clone();
+        wide.avx2 = has_avx2();
+        plain.avx2 = false;
+        let mut c = Columns {
+            trades: true,
+            ..Columns::default()
+        };
+        for t in 1..=30 {
+            let v = values(LANES * 8, 0.05 + 0.03 * t as f64);
+            c.period = t;
+            for l in 0..LANES {
+                let x = &v[8 * l..8 * l + 8];
+                c.price[l] = x[0] * 0.45;
+                c.producer_price[l] = x[1] * 0.42;
+                c.harvest[l] = x[2] * 0.2;
+                c.fiscal_cost[l] = x[3] - 210.0;
+                c.financing_cost[l] = x[4] * 0.01;
+                c.consumer_surplus[l] = x[5];
+                c.purchases[l] = (x[6] - 200.0).max(0.0);
+                c.stockout[l] = x[7] > 220.0;
+                c.flags[l] = (x[7] as u16) & 0x7ff;
+                c.trade.imports[l] = (x[0] - 210.0).max(0.0);
+                c.trade.border_revenue[l] = x[1] * 0.1;
+            }
+            plain.add(&c, &watch);
+            wide.add(&c, &watch);
+            assert_eq!(
+                format!("{:?}", plain.transform),
+                format!("{:?}", wide.transform)
+            );
+        }
+        for l in 0..LANES {
+            let (a, b) = (plain.finish(l, &c, &watch), wide.finish(l, &c, &watch));
+            // Debug shows every value's bits that matter here (the sign of a zero included)
+            assert_eq!(format!("{a:?}"), format!("{b:?}"), "lane {l}");
         }
     }
 
