@@ -1,9 +1,11 @@
 //! Monte Carlo over replications, several policies under the same shocks (common random numbers).
 //!
 //! Replication i draws its shocks from its own stream ([`ShockStream`] with stream i), once, and every
-//! policy is simulated on that same draw, all policies of the replication stepped in lockstep (period by
-//! period, each record folded at once and not kept). Replications are split into chunks of a fixed size
-//! ([`CHUNK`]) that run in parallel (rayon); each chunk folds its periods in order into
+//! policy is simulated on that same draw, all policies stepped in lockstep (period by period, each
+//! period folded at once and not kept). Replications are split into chunks of a fixed size
+//! ([`CHUNK`]) that run in parallel (rayon); a chunk is lane-major (lane l = its l-th replication):
+//! each period every policy steps all its lanes into column arrays and the period is folded over the
+//! lanes (`stochastic::lanes`). Each chunk folds its periods in order into
 //! per-replication summaries and sums, the chunks are collected in order and reduced sequentially, so
 //! every figure is bit-identical whatever the number of threads. Each chunk writes its replications'
 //! summaries and season outlays into its own slices of the final lists, so nothing is copied or held
