@@ -744,7 +744,9 @@ impl SeasonOutlays {
             .collect()
     }
 
-    /// Adds outlays; drops the smallest when the kept values reach twice the tail.
+    /// Adds outlays; drops the smallest when the kept values reach twice the tail. What is kept
+    /// (the largest values, as a multiset), how many are dropped and so every quantile do not depend
+    /// on the order the outlays come in within one call.
     fn extend(&mut self, outlays: &[f64]) {
         match self.floor {
             None => self.kept.extend(outlays.iter().map(|&x| order_key(x))),
@@ -1104,8 +1106,8 @@ struct ChunkPolicy {
     summaries: Vec<ReplicationSummary>,
     /// the chunk's replication summaries, value by value
     blocks: Option<ChunkBlocks>,
-    /// the season outlays of the chunk's replications, replication-major ([rep in chunk · periods
-    /// + t]), when within the season budget
+    /// the season outlays of the chunk's replications, period-major ([t · n + rep in chunk]), when
+    /// within the season budget (their quantiles do not depend on the order: [`SeasonOutlays`])
     season_buf: Vec<f64>,
 }
 
@@ -1426,7 +1428,7 @@ impl<M: PathModel> Context<'_, M> {
                 summaries: Vec::with_capacity(n),
                 blocks: None,
                 season_buf: if from < self.season_reps {
-                    vec![0.0; n * periods]
+                    Vec::with_capacity(n * periods)
                 } else {
                     Vec::new()
                 },
@@ -1475,14 +1477,8 @@ impl<M: PathModel> Context<'_, M> {
                     sums[2] += tr;
                 }
                 // the season outlays of the leading replications (within budget)
-                for (cell, x) in acc
-                    .season_buf
-                    .iter_mut()
-                    .skip(t)
-                    .step_by(periods)
-                    .zip(fiscal)
-                {
-                    *cell = *x;
+                if from < self.season_reps {
+                    acc.season_buf.extend_from_slice(fiscal);
                 }
                 for (j, which) in self.series.iter().enumerate() {
                     let x = &which.column(cols)[..n];
