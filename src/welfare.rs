@@ -205,10 +205,111 @@ impl WelfarePv {
     }
 }
 
+/// The welfare items of one period that present values sum (the record's fields of the same
+/// names): one definition of a period's discounted additions, for one path ([`WelfareFold`]) and
+/// for many paths stepped together (the Monte Carlo's lanes).
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct PeriodItems {
+    /// [`PeriodRecord::consumer_surplus`].
+    pub consumer_surplus: f64,
+    /// [`PeriodRecord::producer_surplus`].
+    pub producer_surplus: f64,
+    /// [`PeriodRecord::fiscal_cost`] (interest in full).
+    pub fiscal_cost: f64,
+    /// [`PeriodRecord::financing_cost`].
+    pub financing_cost: f64,
+    /// [`PeriodRecord::purchase_cost`].
+    pub purchase_cost: f64,
+    /// [`PeriodRecord::sales_revenue`].
+    pub sales_revenue: f64,
+    /// [`PeriodRecord::storage_cost`].
+    pub storage_cost: f64,
+    /// [`PeriodRecord::handling_cost`].
+    pub handling_cost: f64,
+    /// [`PeriodRecord::deficiency_payments`].
+    pub deficiency_payments: f64,
+}
+
+/// How many present values [`PeriodItems::discounted`] adds to (in [`WelfarePv`] order:
+/// consumer surplus, producer surplus, fiscal cost, purchases, sales, storage, financing, handling,
+/// deficiency payments).
+pub const PERIOD_ITEMS: usize = 9;
+
+impl PeriodItems {
+    /// The items of record `r`.
+    #[inline(always)]
+    pub fn of(r: &PeriodRecord) -> PeriodItems {
+        PeriodItems {
+            consumer_surplus: r.consumer_surplus,
+            producer_surplus: r.producer_surplus,
+            fiscal_cost: r.fiscal_cost,
+            financing_cost: r.financing_cost,
+            purchase_cost: r.purchase_cost,
+            sales_revenue: r.sales_revenue,
+            storage_cost: r.storage_cost,
+            handling_cost: r.handling_cost,
+            deficiency_payments: r.deficiency_payments,
+        }
+    }
+
+    /// What the period adds to each present value at discount factor `f` (in the order of
+    /// [`PERIOD_ITEMS`]); interest counts only as its share `financing_kept` ([`Books`]).
+    #[inline(always)]
+    pub fn discounted(&self, f: f64, financing_kept: f64) -> [f64; PERIOD_ITEMS] {
+        let financing = financing_kept * self.financing_cost;
+        [
+            f * self.consumer_surplus,
+            f * self.producer_surplus,
+            f * (self.fiscal_cost - self.financing_cost + financing),
+            f * self.purchase_cost,
+            f * self.sales_revenue,
+            f * self.storage_cost,
+            f * financing,
+            f * self.handling_cost,
+            f * self.deficiency_payments,
+        ]
+    }
+}
+
+/// What a period of a market that trades adds to the present values of border receipts and quota
+/// rents at discount factor `f`.
+#[inline(always)]
+pub fn discounted_trade(f: f64, border_revenue: f64, quota_rent: f64) -> [f64; 2] {
+    [f * border_revenue, f * quota_rent]
+}
+
+/// The present values of a path from its sums of discounted period items ([`PeriodItems`] order)
+/// and of discounted trade items, with the opening and terminal stock per `books`; the path ended at
+/// period `last` with price `last_price` and agency stock `last_stock`.
+pub fn finish_pv(
+    items: [f64; PERIOD_ITEMS],
+    trade: [f64; 2],
+    (last_stock, last_price, last): (f64, f64, usize),
+    books: &Books,
+) -> WelfarePv {
+    let [cs, ps, fiscal, purchase, sales, storage, financing, handling, deficiency] = items;
+    WelfarePv {
+        consumer_surplus: cs,
+        producer_surplus: ps,
+        fiscal_cost: fiscal + books.opening_stock_cost,
+        purchase_cost: purchase,
+        sales_revenue: sales,
+        storage_cost: storage,
+        financing_cost: financing,
+        handling_cost: handling,
+        deficiency_payments: deficiency,
+        opening_stock_cost: books.opening_stock_cost,
+        terminal_stock_value: books.terminal_value(last_stock, last_price, last),
+        border_revenue: trade[0],
+        quota_rent: trade[1],
+    }
+}
+
 /// Folds the periods of one path into present values.
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct WelfareFold {
-    pv: WelfarePv,
+    items: [f64; PERIOD_ITEMS],
+    trade: [f64; 2],
     last_price: f64,
     last_stock: f64,
     last_period: usize,
@@ -224,20 +325,15 @@ impl WelfareFold {
     #[inline]
     pub fn add(&mut self, r: &PeriodRecord, books: &Books) {
         let f = books.discount.factor(r.period);
-        let financing = books.financing_kept * r.financing_cost;
-        let pv = &mut self.pv;
-        pv.consumer_surplus += f * r.consumer_surplus;
-        pv.producer_surplus += f * r.producer_surplus;
-        pv.fiscal_cost += f * (r.fiscal_cost - r.financing_cost + financing);
-        pv.purchase_cost += f * r.purchase_cost;
-        pv.sales_revenue += f * r.sales_revenue;
-        pv.storage_cost += f * r.storage_cost;
-        pv.financing_cost += f * financing;
-        pv.handling_cost += f * r.handling_cost;
-        pv.deficiency_payments += f * r.deficiency_payments;
+        let d = PeriodItems::of(r).discounted(f, books.financing_kept);
+        for (a, x) in self.items.iter_mut().zip(d) {
+            *a += x;
+        }
         if let Some(t) = &r.trade {
-            pv.border_revenue += f * t.border_revenue;
-            pv.quota_rent += f * t.quota_rent;
+            let d = discounted_trade(f, t.border_revenue, t.quota_rent);
+            for (a, x) in self.trade.iter_mut().zip(d) {
+                *a += x;
+            }
         }
         self.last_price = r.price;
         self.last_stock = r.stock;
@@ -246,12 +342,12 @@ impl WelfareFold {
 
     /// The present values, with the opening and terminal stock per `books`.
     pub fn finish(&self, books: &Books) -> WelfarePv {
-        let mut pv = self.pv;
-        pv.opening_stock_cost = books.opening_stock_cost;
-        pv.fiscal_cost += books.opening_stock_cost;
-        pv.terminal_stock_value =
-            books.terminal_value(self.last_stock, self.last_price, self.last_period);
-        pv
+        finish_pv(
+            self.items,
+            self.trade,
+            (self.last_stock, self.last_price, self.last_period),
+            books,
+        )
     }
 }
 
@@ -268,7 +364,13 @@ pub fn path_pv(records: &[PeriodRecord], books: &Books) -> WelfarePv {
 /// a deficiency payment is included because the producer price is then the floor).
 #[inline]
 pub fn producer_revenue(r: &PeriodRecord) -> f64 {
-    r.producer_price * r.harvest
+    revenue_of(r.producer_price, r.harvest)
+}
+
+/// [`producer_revenue`] of a producer price and a harvest.
+#[inline(always)]
+pub fn revenue_of(producer_price: f64, harvest: f64) -> f64 {
+    producer_price * harvest
 }
 
 /// Risk premium of a risky revenue for a producer with constant relative risk aversion `r`:
@@ -302,16 +404,48 @@ pub fn other_income(crop_income_share: f64, reference_revenue: f64) -> f64 {
 /// through [`crra_certainty_equivalent_of`].
 #[inline]
 pub fn crra_transform(y: f64, scale: f64, relative_risk_aversion: f64) -> f64 {
-    let x = (y / scale).max(f64::MIN_POSITIVE);
-    // the common cases without a power (x¹ and x⁻¹ exactly; the Monte Carlo calls this every period)
-    if relative_risk_aversion == 0.0 {
-        x
-    } else if relative_risk_aversion == 2.0 {
-        1.0 / x
-    } else if (relative_risk_aversion - 1.0).abs() < 1e-12 {
-        x.ln()
-    } else {
-        x.powf(1.0 - relative_risk_aversion)
+    Crra::new(relative_risk_aversion).of(y, scale)
+}
+
+/// The form [`crra_transform`] takes at one relative risk aversion R, chosen once (the Monte Carlo
+/// chooses it once per run and applies it to every period of every path).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Crra {
+    /// R = 0: x itself.
+    Linear,
+    /// R = 2: 1/x.
+    Reciprocal,
+    /// R = 1: ln x.
+    Log,
+    /// Any other R: x^e with e = 1 − R.
+    Power(f64),
+}
+
+impl Crra {
+    /// The form at relative risk aversion `relative_risk_aversion`.
+    pub fn new(relative_risk_aversion: f64) -> Crra {
+        // the common cases without a power (x¹ and x⁻¹ exactly; the Monte Carlo calls this every period)
+        if relative_risk_aversion == 0.0 {
+            Crra::Linear
+        } else if relative_risk_aversion == 2.0 {
+            Crra::Reciprocal
+        } else if (relative_risk_aversion - 1.0).abs() < 1e-12 {
+            Crra::Log
+        } else {
+            Crra::Power(1.0 - relative_risk_aversion)
+        }
+    }
+
+    /// The transform of income `y` scaled by `scale` (see [`crra_transform`]).
+    #[inline(always)]
+    pub fn of(self, y: f64, scale: f64) -> f64 {
+        let x = (y / scale).max(f64::MIN_POSITIVE);
+        match self {
+            Crra::Linear => x,
+            Crra::Reciprocal => 1.0 / x,
+            Crra::Log => x.ln(),
+            Crra::Power(e) => x.powf(e),
+        }
     }
 }
 

@@ -414,3 +414,54 @@ fn compare_is_byte_identical_on_one_and_two_threads() {
     assert_eq!(one, run(2));
     assert_eq!(one, run(1));
 }
+
+#[test]
+fn every_lane_of_a_chunk_counts_and_averages_its_own_one_path_run() {
+    // the lane-major chunk folds 64 replications at once; each replication's counts and means must
+    // be those of its own one-path run (an identity, no outside source), in a full chunk and in the
+    // partial last one, with alert prices and a risk aversion whose CRRA transform is a power:
+    // (y/s)^{1−R} (Pratt 1964), its mean across replications per season against the one-path sums
+    let mut s = band_market(90);
+    s.run.alert_prices = vec![82.0, 86.0];
+    s.run.risk_aversion = 3.0;
+    let all = five_policies();
+    let mc = run_monte_carlo(&s, &all, &[PathVariable::Price], &NoProgress).unwrap();
+    let mut shocks = vec![furrow::engine::PeriodShock::NONE; s.run.periods];
+    for (k, p) in all.iter().enumerate() {
+        let runs = &mc.policies[k];
+        let (watch, model) = (&runs.watch, Model::new(&s, p));
+        let mut transform = vec![0.0; s.run.periods];
+        let mut price = vec![0.0; s.run.periods];
+        for rep in 0..90 {
+            furrow::stochastic::draw_shocks(&s, rep as u64, &mut shocks);
+            let records = model.run(s.run.periods, |t| shocks[t - 1]).unwrap();
+            let got = runs.replications.get(rep);
+            let n = records.len() as f64;
+            let count = |f: &dyn Fn(&furrow::engine::PeriodRecord) -> bool| {
+                records.iter().filter(|r| f(r)).count() as u32
+            };
+            assert_eq!(got.stockout_periods, count(&|r| r.stockout), "{rep} {k}");
+            assert_eq!(got.alert_periods[0], count(&|r| r.price > 82.0));
+            assert_eq!(got.alert_periods[1], count(&|r| r.price > 86.0));
+            let mean = records.iter().map(|r| r.price).sum::<f64>() / n;
+            assert!((got.mean_price - mean).abs() < 1e-9 * mean, "{rep} {k}");
+            let fiscal = records.iter().map(|r| r.fiscal_cost).sum::<f64>() / n;
+            assert!((got.mean_season_fiscal - fiscal).abs() < 1e-9 * (1.0 + fiscal.abs()));
+            for (t, r) in records.iter().enumerate() {
+                let y = watch.income(r);
+                transform[t] += furrow::welfare::crra_transform(y, watch.income_scale(), 3.0);
+                price[t] += r.price;
+            }
+        }
+        for t in 0..s.run.periods {
+            // chunk sums merged in chunk order against one running sum: equal up to rounding
+            let (m, want) = (runs.mean_income_transform[t], transform[t] / 90.0);
+            assert!(
+                (m - want).abs() < 1e-12 * want.abs(),
+                "{k} {t}: {m} vs {want}"
+            );
+            let (m, want) = (runs.series[0].periods[t].mean, price[t] / 90.0);
+            assert!((m - want).abs() < 1e-12 * want, "{k} {t}: {m} vs {want}");
+        }
+    }
+}

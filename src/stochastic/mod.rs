@@ -4,6 +4,7 @@
 //! (`seed_from_u64(seed)` then `set_stream(i)`), so replication i sees the same shocks under every
 //! policy (common random numbers) and whatever the number of threads.
 
+mod lanes;
 pub mod memory;
 pub mod montecarlo;
 mod shocks;

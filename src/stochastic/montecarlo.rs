@@ -1,9 +1,11 @@
 //! Monte Carlo over replications, several policies under the same shocks (common random numbers).
 //!
 //! Replication i draws its shocks from its own stream ([`ShockStream`] with stream i), once, and every
-//! policy is simulated on that same draw, all policies of the replication stepped in lockstep (period by
-//! period, each record folded at once and not kept). Replications are split into chunks of a fixed size
-//! ([`CHUNK`]) that run in parallel (rayon); each chunk folds its periods in order into
+//! policy is simulated on that same draw, all policies stepped in lockstep (period by period, each
+//! period folded at once and not kept). Replications are split into chunks of a fixed size
+//! ([`CHUNK`]) that run in parallel (rayon); a chunk is lane-major (lane l = its l-th replication):
+//! each period every policy steps all its lanes into column arrays and the period is folded over the
+//! lanes (`stochastic::lanes`). Each chunk folds its periods in order into
 //! per-replication summaries and sums, the chunks are collected in order and reduced sequentially, so
 //! every figure is bit-identical whatever the number of threads. Each chunk writes its replications'
 //! summaries and season outlays into its own slices of the final lists, so nothing is copied or held
@@ -18,15 +20,12 @@ use rayon::prelude::*;
 use serde::Serialize;
 
 use super::draw_shocks;
+use super::lanes::{LaneFold, Lanes};
 use super::stats::{order_key, quantiles_of_keys, ShiftedSums, Summary};
-use crate::curves::SteadyState;
-use crate::engine::{Diverged, Model, PathModel, PeriodRecord, PeriodShock, Stepper};
-use crate::policies::flags;
+use crate::engine::{Columns, Diverged, LaneStepper, Model, PathModel, PeriodRecord, PeriodShock};
 use crate::policies::PolicySpec;
 use crate::scenario::{Scenario, MAX_ALERTS};
-use crate::welfare::{
-    crra_transform, other_income, producer_revenue, Books, WelfareFold, WelfarePv,
-};
+use crate::welfare::{other_income, producer_revenue, Books, WelfarePv};
 
 /// Replications per parallel work item (fixed, so the order of float sums never depends on threads).
 pub const CHUNK: usize = crate::engine::LANES;
@@ -72,16 +71,20 @@ impl PathVariable {
         }
     }
 
+    /// The variable of every lane of one period's columns (for a market closed to trade the
+    /// trade variables are 0).
     #[inline]
-    fn of(&self, r: &PeriodRecord) -> f64 {
+    fn column<'a>(&self, c: &'a Columns) -> &'a Lanes {
+        const ZERO: Lanes = [0.0; crate::engine::LANES];
         match self {
-            PathVariable::Price => r.price,
-            PathVariable::ProducerPrice => r.producer_price,
-            PathVariable::Harvest => r.harvest,
-            PathVariable::Stock => r.stock,
-            PathVariable::WorldPrice => r.trade.map_or(0.0, |t| t.world_price),
-            PathVariable::Imports => r.imports(),
-            PathVariable::Exports => r.exports(),
+            PathVariable::Price => &c.price,
+            PathVariable::ProducerPrice => &c.producer_price,
+            PathVariable::Harvest => &c.harvest,
+            PathVariable::Stock => &c.stock,
+            PathVariable::WorldPrice if c.trades => &c.trade.world_price,
+            PathVariable::Imports if c.trades => &c.trade.imports,
+            PathVariable::Exports if c.trades => &c.trade.exports,
+            PathVariable::WorldPrice | PathVariable::Imports | PathVariable::Exports => &ZERO,
         }
     }
 }
@@ -741,7 +744,9 @@ impl SeasonOutlays {
             .collect()
     }
 
-    /// Adds outlays; drops the smallest when the kept values reach twice the tail.
+    /// Adds outlays; drops the smallest when the kept values reach twice the tail. What is kept
+    /// (the largest values, as a multiset), how many are dropped and so every quantile do not depend
+    /// on the order the outlays come in within one call.
     fn extend(&mut self, outlays: &[f64]) {
         match self.floor {
             None => self.kept.extend(outlays.iter().map(|&x| order_key(x))),
@@ -795,15 +800,6 @@ impl Pooled {
             revenue: ShiftedSums::new(price_ref * quantity_ref),
             income_transform: 0.0,
         }
-    }
-
-    #[inline]
-    fn push(&mut self, r: &PeriodRecord, transform: f64) {
-        self.price.push(r.price);
-        self.producer_price.push(r.producer_price);
-        self.harvest.push(r.harvest);
-        self.revenue.push(producer_revenue(r));
-        self.income_transform += transform;
     }
 
     fn merge(&mut self, o: &Pooled) {
@@ -874,8 +870,14 @@ impl Watch {
     /// Producers' income in a period: revenue plus other income held fixed.
     #[inline]
     pub fn income(&self, r: &PeriodRecord) -> f64 {
+        self.income_of(producer_revenue(r))
+    }
+
+    /// Producers' income from a period's producer revenue.
+    #[inline(always)]
+    pub fn income_of(&self, revenue: f64) -> f64 {
         // `welfare::income` with its constant part computed once
-        producer_revenue(r) + self.other_income
+        revenue + self.other_income
     }
 
     /// The scale of the CRRA transform (mean income at the steady state).
@@ -942,10 +944,16 @@ pub struct MonteCarlo {
 /// consumed (a ceiling kept by consumer subsidy), the market price otherwise.
 #[inline]
 pub fn consumer_price(r: &PeriodRecord) -> f64 {
-    if r.consumer_payments > 0.0 && r.consumption > 0.0 {
-        r.price - r.consumer_payments / r.consumption
+    consumer_price_of(r.price, r.consumer_payments, r.consumption)
+}
+
+/// [`consumer_price`] of a market price, the consumer payments and the consumption.
+#[inline(always)]
+fn consumer_price_of(price: f64, consumer_payments: f64, consumption: f64) -> f64 {
+    if consumer_payments > 0.0 && consumption > 0.0 {
+        price - consumer_payments / consumption
     } else {
-        r.price
+        price
     }
 }
 
@@ -1083,7 +1091,8 @@ struct ChunkPolicy {
     /// per-period sums over the chunk's replications of the season outlay, income and its CRRA
     /// transform: [t] = [fiscal, income, transform]
     sums: Vec<[f64; 3]>,
-    /// this replication's (producer price, consumer price) per period (empty without pairs)
+    /// each replication's (producer price, consumer price) per period, replication-major:
+    /// [rep in chunk · periods + t] (empty without pairs)
     path: Vec<[f64; 2]>,
     /// per-period sums of the shifted prices (see [`SeasonPrices`]; empty without pairs)
     season: Vec<[f64; 5]>,
@@ -1097,7 +1106,8 @@ struct ChunkPolicy {
     summaries: Vec<ReplicationSummary>,
     /// the chunk's replication summaries, value by value
     blocks: Option<ChunkBlocks>,
-    /// the season outlays of the chunk's replications, when within the season budget
+    /// the season outlays of the chunk's replications, period-major ([t · n + rep in chunk]), when
+    /// within the season budget (their quantiles do not depend on the order: [`SeasonOutlays`])
     season_buf: Vec<f64>,
 }
 
@@ -1376,10 +1386,16 @@ struct Context<'a, M> {
 }
 
 impl<M: PathModel> Context<'_, M> {
+    /// Replications `from..to` (at most [`CHUNK`]) of every model, lane-major: lane l is
+    /// replication `from + l`. Each period every model steps all its lanes on the period's shocks
+    /// and the period is folded over the lanes at once ([`LaneFold`]); a lane's sums see its
+    /// periods in order and the chunk's sums see the lanes in replication order, so every figure has
+    /// the bits of folding the replications one after another.
     fn chunk(&self, from: usize, to: usize) -> ChunkOutcome {
         let s = self.scenario;
         let periods = s.run.periods;
         let n = to - from;
+        let pairs = !self.pairs.is_empty();
         let mut out: Vec<ChunkPolicy> = self
             .models
             .iter()
@@ -1387,15 +1403,15 @@ impl<M: PathModel> Context<'_, M> {
                 n,
                 pooled: Pooled::new(s.steady.price, s.steady.quantity),
                 sums: vec![[0.0; 3]; periods],
-                path: if self.pairs.is_empty() {
-                    Vec::new()
+                path: if pairs {
+                    vec![[0.0; 2]; n * periods]
                 } else {
-                    vec![[0.0; 2]; periods]
+                    Vec::new()
                 },
-                season: if self.pairs.is_empty() {
-                    Vec::new()
-                } else {
+                season: if pairs {
                     vec![[0.0; 5]; periods]
+                } else {
+                    Vec::new()
                 },
                 series: self
                     .series
@@ -1419,82 +1435,124 @@ impl<M: PathModel> Context<'_, M> {
             })
             .collect();
         let mut paired = vec![PairedChanges::default(); self.pairs.len()];
-        let mut shocks = vec![PeriodShock::NONE; periods];
-        // one path and one replication fold per model, reused from replication to replication
-        let mut paths: Vec<M::Stepper<'_>> = Vec::with_capacity(self.models.len());
-        let mut folds: Vec<RepFold> = Vec::with_capacity(self.models.len());
-        for rep in from..to {
-            // the replication's shocks, drawn once and handed to every model
-            draw_shocks(s, rep as u64, &mut shocks);
-            paths.clear();
-            paths.extend(self.models.iter().map(|m| m.start()));
-            folds.clear();
-            folds.extend(self.watches.iter().map(|w| RepFold::new(w, &s.steady)));
-            let at = (rep - from, n);
-            // lockstep: period by period, every model of the replication steps on the same shock
-            for (t, shock) in shocks.iter().enumerate() {
-                for (((path, fold), acc), watch) in paths
-                    .iter_mut()
-                    .zip(folds.iter_mut())
-                    .zip(out.iter_mut())
-                    .zip(self.watches)
-                {
-                    if fold.failed.is_none() {
-                        // the record read where the step left it (bound by reference)
-                        match path.step(shock) {
-                            Ok(ref r) => {
-                                // the season outlays of the leading replications (within budget)
-                                if from < self.season_reps {
-                                    acc.season_buf.push(r.fiscal_cost);
-                                }
-                                fold.add(t, r, watch, self.series, at, acc)
-                            }
-                            Err(e) => fold.failed = Some(e),
-                        }
+        // every replication's shocks, drawn once and handed to every model, period-major:
+        // [t · n + lane], so period t's shocks are one slice
+        let mut shocks = vec![PeriodShock::NONE; periods * n];
+        let mut drawn = vec![PeriodShock::NONE; periods];
+        for lane in 0..n {
+            draw_shocks(s, (from + lane) as u64, &mut drawn);
+            for (t, shock) in drawn.iter().enumerate() {
+                shocks[t * n + lane] = *shock;
+            }
+        }
+        let mut lanes: Vec<M::Lanes<'_>> = self.models.iter().map(|m| m.start_lanes(n)).collect();
+        let mut columns: Vec<Columns> = self.models.iter().map(|_| Columns::default()).collect();
+        let mut failed: Vec<Vec<Option<Diverged>>> =
+            self.models.iter().map(|_| vec![None; n]).collect();
+        let mut folds: Vec<LaneFold> = self
+            .watches
+            .iter()
+            .map(|w| LaneFold::new(w, s.steady.price, s.steady.quantity))
+            .collect();
+        let kinds = self.series.len();
+        // lockstep: period by period, every model steps every lane on the same shocks
+        for (t, shocks) in shocks.chunks_exact(n).enumerate() {
+            if self.first_failure.load(Ordering::Relaxed) < from / CHUNK {
+                break; // an earlier chunk failed; this chunk's figures will not be used
+            }
+            for ((((path, cols), failed), fold), (acc, watch)) in lanes
+                .iter_mut()
+                .zip(columns.iter_mut())
+                .zip(failed.iter_mut())
+                .zip(folds.iter_mut())
+                .zip(out.iter_mut().zip(self.watches))
+            {
+                path.step(shocks, cols, failed);
+                fold.add(cols, watch);
+                let fiscal = &cols.fiscal_cost[..n];
+                let sums = &mut acc.sums[t];
+                for ((x, y), tr) in fiscal.iter().zip(&fold.income).zip(&fold.transform) {
+                    sums[0] += x;
+                    sums[1] += y;
+                    sums[2] += tr;
+                }
+                // the season outlays of the leading replications (within budget)
+                if from < self.season_reps {
+                    acc.season_buf.extend_from_slice(fiscal);
+                }
+                for (j, which) in self.series.iter().enumerate() {
+                    let x = &which.column(cols)[..n];
+                    let sum = &mut acc.series_sums[t * kinds + j];
+                    for v in x {
+                        *sum += v;
+                    }
+                    if let Some(kept) = acc.series[j].get_mut(t * n..(t + 1) * n) {
+                        kept.copy_from_slice(x);
+                    }
+                }
+                if pairs {
+                    for (lane, cell) in acc.path.iter_mut().skip(t).step_by(periods).enumerate() {
+                        *cell = [
+                            cols.producer_price[lane],
+                            consumer_price_of(
+                                cols.price[lane],
+                                cols.consumer_payments[lane],
+                                cols.consumption[lane],
+                            ),
+                        ];
                     }
                 }
             }
-            // the first failing model (lowest index) fails the replication
-            for (k, ((fold, acc), watch)) in folds
-                .drain(..)
-                .zip(out.iter_mut())
-                .zip(self.watches)
+        }
+        // replication by replication: the first failing one (lowest replication, then lowest model
+        // index) fails the chunk
+        for lane in 0..n {
+            for (k, (((fold, cols), failed), (acc, watch))) in folds
+                .iter()
+                .zip(&columns)
+                .zip(failed.iter_mut())
+                .zip(out.iter_mut().zip(self.watches))
                 .enumerate()
             {
-                let summary = fold
-                    .finish(watch, acc)
-                    .map_err(|source| ReplicationFailed {
+                if let Some(source) = failed[lane].take() {
+                    return Err(ReplicationFailed {
                         policy: self.models[k].name().to_string(),
                         policy_index: k,
-                        replication: rep,
+                        replication: from + lane,
                         seed: s.run.seed,
                         source,
-                    })?;
+                    });
+                }
+                let (summary, pooled) = fold.finish(lane, cols, watch);
+                acc.pooled.merge(&pooled);
                 acc.summaries.push(summary);
             }
-            if !self.pairs.is_empty() {
-                self.pair_up(&mut out, &mut paired);
-            }
-            if self.first_failure.load(Ordering::Relaxed) < from / CHUNK {
-                break; // an earlier chunk failed; this chunk's figures will not be used
+            if pairs {
+                self.pair_up(lane, &mut out, &mut paired);
             }
         }
         self.progress.advance(n as u64);
         for c in &mut out {
-            c.path = Vec::new(); // one replication's scratch: not kept with the chunk
+            c.path = Vec::new(); // the chunk's scratch: not kept with the chunk
             c.blocks = Some(ChunkBlocks::of(&c.summaries));
             c.summaries = Vec::new();
         }
         Ok((out, paired))
     }
 
-    /// After every model stepped one replication: each pair's proportional price changes and each
-    /// model's shifted price sums.
-    fn pair_up(&self, out: &mut [ChunkPolicy], paired: &mut [PairedChanges]) {
+    /// After every model stepped the chunk: replication `lane`'s proportional price changes for
+    /// each pair and each model's shifted price sums.
+    fn pair_up(&self, lane: usize, out: &mut [ChunkPolicy], paired: &mut [PairedChanges]) {
+        let periods = self.scenario.run.periods;
+        let range = lane * periods..(lane + 1) * periods;
+        fn path(c: &ChunkPolicy, range: std::ops::Range<usize>) -> &[[f64; 2]] {
+            c.path.get(range).unwrap_or(&[])
+        }
         let change = |p: f64, base: f64| if base > 0.0 { (p - base) / base } else { 0.0 };
         for (acc, &(k, b)) in paired.iter_mut().zip(self.pairs) {
             let mut x = [0.0; 4];
-            for ((pk, pb), w) in out[k].path.iter().zip(&out[b].path).zip(self.weights) {
+            let (pk, pb) = (path(&out[k], range.clone()), path(&out[b], range.clone()));
+            for ((pk, pb), w) in pk.iter().zip(pb).zip(self.weights) {
                 let (dp, dc) = (change(pk[0], pb[0]), change(pk[1], pb[1]));
                 x[0] += w * dp;
                 x[1] += w * dc;
@@ -1505,7 +1563,9 @@ impl<M: PathModel> Context<'_, M> {
         }
         let reference = self.scenario.steady.price;
         for c in out.iter_mut() {
-            for (s, p) in c.season.iter_mut().zip(&c.path) {
+            let ChunkPolicy { season, path, .. } = c;
+            let path = path.get(range.clone()).unwrap_or(&[]);
+            for (s, p) in season.iter_mut().zip(path) {
                 let (a, b) = (p[0] - reference, p[1] - reference);
                 s[0] += a;
                 s[1] += b;
@@ -1514,145 +1574,6 @@ impl<M: PathModel> Context<'_, M> {
                 s[4] += a * b;
             }
         }
-    }
-}
-
-/// One replication of one model in progress: its welfare fold, pooled moments and counts.
-struct RepFold {
-    fold: WelfareFold,
-    pooled: Pooled,
-    out: ReplicationSummary,
-    running: f64,
-    peak: f64,
-    fiscal_sum: f64,
-    count: usize,
-    /// Why this model's path ended early (the replication then fails).
-    failed: Option<Diverged>,
-}
-
-impl RepFold {
-    fn new(watch: &Watch, steady: &SteadyState) -> RepFold {
-        let running = watch.books.opening_stock_cost;
-        RepFold {
-            fold: WelfareFold::new(),
-            pooled: Pooled::new(steady.price, steady.quantity),
-            out: ReplicationSummary {
-                worst_season_fiscal: f64::NEG_INFINITY,
-                ..Default::default()
-            },
-            running,
-            peak: running.max(0.0),
-            fiscal_sum: 0.0,
-            count: 0,
-            failed: None,
-        }
-    }
-
-    /// Folds period `t` (0-based) of the replication into this fold and into the chunk's sums `acc`;
-    /// `at` = (slot in the chunk, chunk size).
-    #[inline(always)]
-    fn add(
-        &mut self,
-        t: usize,
-        r: &PeriodRecord,
-        watch: &Watch,
-        series: &[PathVariable],
-        (slot, n): (usize, usize),
-        acc: &mut ChunkPolicy,
-    ) {
-        const CUT: u16 = flags::CAPACITY_FULL | flags::BUDGET_BOUND;
-        let out = &mut self.out;
-        self.fold.add(r, &watch.books);
-        let y = watch.income(r);
-        let transform = crra_transform(y, watch.income_scale(), watch.risk_aversion);
-        self.pooled.push(r, transform);
-        if let Some(cell) = acc.path.get_mut(t) {
-            *cell = [r.producer_price, consumer_price(r)];
-        }
-        let sums = &mut acc.sums[t];
-        sums[0] += r.fiscal_cost;
-        sums[1] += y;
-        sums[2] += transform;
-        if let Some(trade) = &r.trade {
-            out.mean_imports += trade.imports;
-            out.mean_exports += trade.exports;
-            out.import_periods += u32::from(trade.imports > 0.0);
-            out.export_periods += u32::from(trade.exports > 0.0);
-        }
-        out.floor_binding_periods += u32::from(r.floor_binding());
-        out.stockout_periods += u32::from(r.stockout);
-        out.final_stock = r.stock;
-        self.fiscal_sum += r.fiscal_cost;
-        self.count += 1;
-        out.worst_season_fiscal = out.worst_season_fiscal.max(r.fiscal_cost);
-        self.running += r.fiscal_cost;
-        self.peak = self.peak.max(self.running);
-        out.budget_exceeded_periods +=
-            u32::from(r.fiscal_cost > watch.annual_budget * (1.0 + 1e-12));
-        for (c, a) in out
-            .alert_periods
-            .iter_mut()
-            .zip(&watch.alerts[..watch.alert_count])
-        {
-            *c += u32::from(r.price > *a);
-        }
-        let cut = r.flags & CUT != 0;
-        out.capacity_full_periods += u32::from(r.flags & flags::CAPACITY_FULL != 0);
-        out.budget_bound_periods += u32::from(r.flags & flags::BUDGET_BOUND != 0);
-        out.floor_failed_periods += u32::from(
-            cut && watch
-                .purchase_floor
-                .is_some_and(|f| r.producer_price < f * (1.0 - 1e-9)),
-        );
-        out.band_failed_periods += u32::from(watch.band.is_some_and(|(lo, hi)| {
-            let below = cut && r.price < lo * (1.0 - 1e-9);
-            let above =
-                r.price > hi * (1.0 + 1e-9) && (r.stockout || r.flags & flags::STOCK_OUT != 0);
-            below || above
-        }));
-        let kinds = series.len();
-        for ((which, sum), kept) in series
-            .iter()
-            .zip(&mut acc.series_sums[t * kinds..(t + 1) * kinds])
-            .zip(acc.series.iter_mut())
-        {
-            let x = which.of(r);
-            *sum += x;
-            if let Some(cell) = kept.get_mut(t * n + slot) {
-                *cell = x;
-            }
-        }
-    }
-
-    /// The replication's summary (or why its path ended early); merges its pooled moments into `acc`.
-    fn finish(self, watch: &Watch, acc: &mut ChunkPolicy) -> Result<ReplicationSummary, Diverged> {
-        if let Some(e) = self.failed {
-            return Err(e);
-        }
-        let RepFold {
-            fold,
-            pooled,
-            mut out,
-            peak,
-            fiscal_sum,
-            count,
-            ..
-        } = self;
-        acc.pooled.merge(&pooled);
-        let per = count.max(1) as f64;
-        out.welfare = fold.finish(&watch.books);
-        out.mean_price = pooled.price.mean();
-        out.mean_producer_price = pooled.producer_price.mean();
-        out.mean_harvest = pooled.harvest.mean();
-        out.mean_revenue = pooled.revenue.mean();
-        out.mean_season_fiscal = fiscal_sum / per;
-        out.mean_imports /= per;
-        out.mean_exports /= per;
-        if count == 0 {
-            out.worst_season_fiscal = 0.0;
-        }
-        out.peak_cumulative_fiscal = peak;
-        Ok(out)
     }
 }
 

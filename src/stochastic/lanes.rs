@@ -1,0 +1,516 @@
+//! The Monte Carlo's fold of one model over the lanes of a chunk (lane l = the chunk's l-th
+//! replication), one period at a time, reading the period's records column by column
+//! ([`Columns`]).
+//!
+//! Every accumulator is an array over the lanes (structure of arrays), each period's work is a few
+//! loops of the same arithmetic over every lane with the run's options matched once outside them,
+//! and counts are integer arrays: the loops have no branch per lane, so the compiler can run them
+//! in vector registers. Per lane the additions come in period order, as a fold of one replication
+//! would make them, so every lane's sums have the bits of that fold. Lanes at and above the chunk's
+//! size, and lanes whose path ended, hold values of no meaning (the chunk then fails, or they are
+//! never read); nothing here can panic on them.
+
+// the lane loops index several arrays by the same lane, over every lane
+#![allow(clippy::needless_range_loop)]
+
+use crate::engine::{Columns, LANES};
+use crate::policies::flags;
+use crate::scenario::MAX_ALERTS;
+use crate::welfare::{discounted_trade, finish_pv, revenue_of, Crra, PeriodItems, PERIOD_ITEMS};
+
+use super::montecarlo::{Pooled, ReplicationSummary, Watch};
+use super::stats::ShiftedSums;
+
+/// One value per lane.
+pub(crate) type Lanes = [f64; LANES];
+
+/// A count of seasons per lane.
+type Counts = [u32; LANES];
+
+const ZERO: Lanes = [0.0; LANES];
+
+/// [`ShiftedSums`] of every lane (all lanes count the same values, so the count is held once by
+/// the fold): Σ (x − k) and Σ (x − k)² per lane around one reference k.
+#[derive(Debug, Clone)]
+pub(crate) struct LaneSums {
+    reference: f64,
+    sum: Lanes,
+    sum_sq: Lanes,
+}
+
+impl LaneSums {
+    pub(crate) fn new(reference: f64) -> LaneSums {
+        LaneSums {
+            reference,
+            sum: ZERO,
+            sum_sq: ZERO,
+        }
+    }
+
+    /// Adds lane l's value `x[l]` to lane l ([`ShiftedSums::push`] lane by lane).
+    #[inline(always)]
+    pub(crate) fn push(&mut self, x: &Lanes) {
+        let k = self.reference;
+        for ((s, q), &x) in self.sum.iter_mut().zip(self.sum_sq.iter_mut()).zip(x) {
+            let d = x - k;
+            *s += d;
+            *q += d * d;
+        }
+    }
+
+    /// Lane `lane`'s sums of `count` values.
+    pub(crate) fn lane(&self, lane: usize, count: u64) -> ShiftedSums {
+        ShiftedSums {
+            reference: self.reference,
+            count,
+            sum: self.sum[lane],
+            sum_sq: self.sum_sq[lane],
+        }
+    }
+}
+
+/// Whether the machine runs AVX2 (checked once per fold; std caches the answer).
+fn has_avx2() -> bool {
+    #[cfg(target_arch = "x86_64")]
+    {
+        std::arch::is_x86_feature_detected!("avx2")
+    }
+    #[cfg(not(target_arch = "x86_64"))]
+    {
+        false
+    }
+}
+
+/// Whether the agency bought or a deficiency payment was made (`PeriodRecord::floor_binding` of
+/// the lane's record; the engine keeps that rule, this reads it off the columns).
+#[inline(always)]
+fn floor_binding(purchases: f64, deficiency_payments: f64) -> bool {
+    purchases > 0.0 || deficiency_payments > 0.0
+}
+
+/// The replications of one model in a chunk, folded period by period over the lanes.
+#[derive(Debug, Clone)]
+pub(crate) struct LaneFold {
+    /// periods folded (the same in every lane whose path has not ended)
+    count: usize,
+    /// discount-weighted sums of the period items (welfare::PeriodItems order)
+    items: [Lanes; PERIOD_ITEMS],
+    /// discount-weighted border receipts and quota rents
+    trade: [Lanes; 2],
+    price: LaneSums,
+    producer_price: LaneSums,
+    harvest: LaneSums,
+    revenue: LaneSums,
+    /// Σ of the CRRA transform of income
+    income_transform: Lanes,
+    imports: Lanes,
+    exports: Lanes,
+    fiscal_sum: Lanes,
+    worst: Lanes,
+    running: Lanes,
+    peak: Lanes,
+    floor_binding: Counts,
+    stockout: Counts,
+    budget_exceeded: Counts,
+    alerts: [Counts; MAX_ALERTS],
+    floor_failed: Counts,
+    band_failed: Counts,
+    capacity_full: Counts,
+    budget_bound: Counts,
+    import_periods: Counts,
+    export_periods: Counts,
+    /// the period just folded: each lane's producers' income
+    pub(crate) income: Lanes,
+    /// the period just folded: each lane's CRRA transform of income
+    pub(crate) transform: Lanes,
+    /// the CRRA form of the run's risk aversion (chosen once)
+    crra: Crra,
+    /// the machine runs AVX2: [`LaneFold::add`] runs its copy built for it (the same arithmetic in
+    /// wider registers, so the same bits)
+    avx2: bool,
+}
+
+impl LaneFold {
+    /// An empty fold of `watch`'s policy; moments shifted by the steady state (P*, Q*).
+    pub(crate) fn new(watch: &Watch, steady_price: f64, steady_quantity: f64) -> LaneFold {
+        let running = watch.books.opening_stock_cost;
+        LaneFold {
+            count: 0,
+            items: [ZERO; PERIOD_ITEMS],
+            trade: [ZERO; 2],
+            price: LaneSums::new(steady_price),
+            producer_price: LaneSums::new(steady_price),
+            harvest: LaneSums::new(steady_quantity),
+            revenue: LaneSums::new(steady_price * steady_quantity),
+            income_transform: ZERO,
+            imports: ZERO,
+            exports: ZERO,
+            fiscal_sum: ZERO,
+            worst: [f64::NEG_INFINITY; LANES],
+            running: [running; LANES],
+            peak: [running.max(0.0); LANES],
+            floor_binding: [0; LANES],
+            stockout: [0; LANES],
+            budget_exceeded: [0; LANES],
+            alerts: [[0; LANES]; MAX_ALERTS],
+            floor_failed: [0; LANES],
+            band_failed: [0; LANES],
+            capacity_full: [0; LANES],
+            budget_bound: [0; LANES],
+            import_periods: [0; LANES],
+            export_periods: [0; LANES],
+            income: ZERO,
+            transform: ZERO,
+            crra: Crra::new(watch.risk_aversion),
+            avx2: has_avx2(),
+        }
+    }
+
+    /// Folds the period in `c` (every lane) into each lane's sums; leaves each lane's income and
+    /// its CRRA transform in [`LaneFold::income`] and [`LaneFold::transform`].
+    #[inline]
+    pub(crate) fn add(&mut self, c: &Columns, watch: &Watch) {
+        #[cfg(target_arch = "x86_64")]
+        if self.avx2 {
+            // SAFETY: `avx2` is set only when the running machine has AVX2
+            // (`is_x86_feature_detected!`), which is all `add_avx2` requires.
+            unsafe { self.add_avx2(c, watch) };
+            return;
+        }
+        self.add_plain(c, watch);
+    }
+
+    /// [`LaneFold::fold`] built for the baseline x86-64 (SSE2) or any other target.
+    #[inline(never)]
+    fn add_plain(&mut self, c: &Columns, watch: &Watch) {
+        self.fold(c, watch);
+    }
+
+    /// [`LaneFold::fold`] built for AVX2: the same operations on four lanes a register (no FMA, no
+    /// reassociation, so every lane gets the bits of [`LaneFold::add_plain`]).
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx2")]
+    #[inline(never)]
+    unsafe fn add_avx2(&mut self, c: &Columns, watch: &Watch) {
+        self.fold(c, watch);
+    }
+
+    /// The one definition of the period's fold.
+    #[inline(always)]
+    fn fold(&mut self, c: &Columns, watch: &Watch) {
+        self.count += 1;
+        self.welfare(c, watch);
+        self.income_and_moments(c, watch);
+        self.outlays(c, watch);
+        self.seasons(c, watch);
+    }
+
+    /// The present values (`welfare::WelfareFold::add` lane by lane).
+    #[inline(always)]
+    fn welfare(&mut self, c: &Columns, watch: &Watch) {
+        let books = &watch.books;
+        let f = books.discount.factor(c.period);
+        let kept = books.financing_kept;
+        for l in 0..LANES {
+            let d = PeriodItems {
+                consumer_surplus: c.consumer_surplus[l],
+                producer_surplus: c.producer_surplus[l],
+                fiscal_cost: c.fiscal_cost[l],
+                financing_cost: c.financing_cost[l],
+                purchase_cost: c.purchase_cost[l],
+                sales_revenue: c.sales_revenue[l],
+                storage_cost: c.storage_cost[l],
+                handling_cost: c.handling_cost[l],
+                deficiency_payments: c.deficiency_payments[l],
+            }
+            .discounted(f, kept);
+            for (acc, d) in self.items.iter_mut().zip(d) {
+                acc[l] += d;
+            }
+        }
+        if c.trades {
+            let t = &c.trade;
+            let [border, quota] = &mut self.trade;
+            for l in 0..LANES {
+                let [b, q] = discounted_trade(f, t.border_revenue[l], t.quota_rent[l]);
+                border[l] += b;
+                quota[l] += q;
+            }
+            for l in 0..LANES {
+                self.imports[l] += t.imports[l];
+                self.exports[l] += t.exports[l];
+                self.import_periods[l] += u32::from(t.imports[l] > 0.0);
+                self.export_periods[l] += u32::from(t.exports[l] > 0.0);
+            }
+        }
+    }
+
+    /// Income, its CRRA transform and the pooled moments.
+    #[inline(always)]
+    fn income_and_moments(&mut self, c: &Columns, watch: &Watch) {
+        let mut revenue = ZERO;
+        for l in 0..LANES {
+            revenue[l] = revenue_of(c.producer_price[l], c.harvest[l]);
+            self.income[l] = watch.income_of(revenue[l]);
+        }
+        let scale = watch.income_scale();
+        // the form matched once; each arm's loop has it as a constant
+        let mut fill = |crra: Crra| {
+            for (t, &y) in self.transform.iter_mut().zip(&self.income) {
+                *t = crra.of(y, scale);
+            }
+        };
+        match self.crra {
+            Crra::Linear => fill(Crra::Linear),
+            Crra::Reciprocal => fill(Crra::Reciprocal),
+            Crra::Log => fill(Crra::Log),
+            Crra::Power(e) => fill(Crra::Power(e)),
+        }
+        self.price.push(&c.price);
+        self.producer_price.push(&c.producer_price);
+        self.harvest.push(&c.harvest);
+        self.revenue.push(&revenue);
+        for (s, t) in self.income_transform.iter_mut().zip(&self.transform) {
+            *s += t;
+        }
+    }
+
+    /// The season outlays: their sum, the worst, the running total and its peak, the seasons over
+    /// budget.
+    #[inline(always)]
+    fn outlays(&mut self, c: &Columns, watch: &Watch) {
+        let budget = watch.annual_budget * (1.0 + 1e-12);
+        for l in 0..LANES {
+            let x = c.fiscal_cost[l];
+            self.fiscal_sum[l] += x;
+            self.worst[l] = self.worst[l].max(x);
+            self.running[l] += x;
+            self.peak[l] = self.peak[l].max(self.running[l]);
+            self.budget_exceeded[l] += u32::from(x > budget);
+        }
+    }
+
+    /// The counts of seasons.
+    #[inline(always)]
+    fn seasons(&mut self, c: &Columns, watch: &Watch) {
+        const CUT: u16 = flags::CAPACITY_FULL | flags::BUDGET_BOUND;
+        for l in 0..LANES {
+            self.floor_binding[l] +=
+                u32::from(floor_binding(c.purchases[l], c.deficiency_payments[l]));
+            self.stockout[l] += u32::from(c.stockout[l]);
+            self.capacity_full[l] += u32::from(c.flags[l] & flags::CAPACITY_FULL != 0);
+            self.budget_bound[l] += u32::from(c.flags[l] & flags::BUDGET_BOUND != 0);
+        }
+        for (counts, &a) in self
+            .alerts
+            .iter_mut()
+            .zip(&watch.alerts[..watch.alert_count])
+        {
+            for (n, &p) in counts.iter_mut().zip(&c.price) {
+                *n += u32::from(p > a);
+            }
+        }
+        if let Some(f) = watch.purchase_floor {
+            let floor = f * (1.0 - 1e-9);
+            for l in 0..LANES {
+                let cut = c.flags[l] & CUT != 0;
+                self.floor_failed[l] += u32::from(cut && c.producer_price[l] < floor);
+            }
+        }
+        if let Some((lo, hi)) = watch.band {
+            let (lo, hi) = (lo * (1.0 - 1e-9), hi * (1.0 + 1e-9));
+            for l in 0..LANES {
+                let cut = c.flags[l] & CUT != 0;
+                let below = cut && c.price[l] < lo;
+                let out = c.stockout[l] || c.flags[l] & flags::STOCK_OUT != 0;
+                let above = c.price[l] > hi && out;
+                self.band_failed[l] += u32::from(below || above);
+            }
+        }
+    }
+
+    /// Lane `lane`'s summary and its pooled moments, the path having ended where `last` (the
+    /// columns of the last period folded) leaves it.
+    pub(crate) fn finish(
+        &self,
+        lane: usize,
+        last: &Columns,
+        watch: &Watch,
+    ) -> (ReplicationSummary, Pooled) {
+        let l = lane;
+        let count = self.count as u64;
+        let pooled = Pooled {
+            price: self.price.lane(l, count),
+            producer_price: self.producer_price.lane(l, count),
+            harvest: self.harvest.lane(l, count),
+            revenue: self.revenue.lane(l, count),
+            income_transform: self.income_transform[l],
+        };
+        let per = self.count.max(1) as f64;
+        let summary = ReplicationSummary {
+            welfare: finish_pv(
+                self.items.map(|x| x[l]),
+                self.trade.map(|x| x[l]),
+                (last.stock[l], last.price[l], last.period),
+                &watch.books,
+            ),
+            floor_binding_periods: self.floor_binding[l],
+            stockout_periods: self.stockout[l],
+            final_stock: last.stock[l],
+            mean_price: pooled.price.mean(),
+            mean_producer_price: pooled.producer_price.mean(),
+            mean_harvest: pooled.harvest.mean(),
+            mean_revenue: pooled.revenue.mean(),
+            mean_season_fiscal: self.fiscal_sum[l] / per,
+            worst_season_fiscal: if self.count == 0 { 0.0 } else { self.worst[l] },
+            peak_cumulative_fiscal: self.peak[l],
+            budget_exceeded_periods: self.budget_exceeded[l],
+            alert_periods: self.alerts.map(|x| x[l]),
+            floor_failed_periods: self.floor_failed[l],
+            band_failed_periods: self.band_failed[l],
+            capacity_full_periods: self.capacity_full[l],
+            budget_bound_periods: self.budget_bound[l],
+            mean_imports: self.imports[l] / per,
+            mean_exports: self.exports[l] / per,
+            import_periods: self.import_periods[l],
+            export_periods: self.export_periods[l],
+        };
+        (summary, pooled)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A deterministic spread of values (a logistic map), none repeated.
+    fn values(n: usize, seed: f64) -> Vec<f64> {
+        let mut x = seed;
+        (0..n)
+            .map(|_| {
+                x = 3.97 * x * (1.0 - x);
+                180.0 + 60.0 * x
+            })
+            .collect()
+    }
+
+    #[test]
+    fn lane_sums_are_shifted_sums_lane_by_lane_and_give_the_sample_variance() {
+        let periods = 37;
+        let reference = 200.0;
+        let mut lanes = LaneSums::new(reference);
+        let mut each = vec![ShiftedSums::new(reference); LANES];
+        let paths: Vec<Vec<f64>> = (0..LANES)
+            .map(|l| values(periods, 0.1 + 0.8 * l as f64 / LANES as f64))
+            .collect();
+        for t in 0..periods {
+            let x: Lanes = std::array::from_fn(|l| paths[l][t]);
+            lanes.push(&x);
+            for (s, &x) in each.iter_mut().zip(&x) {
+                s.push(x);
+            }
+        }
+        for (l, path) in paths.iter().enumerate() {
+            let got = lanes.lane(l, periods as u64);
+            assert_eq!(got, each[l], "lane {l}");
+            // the two-pass sample variance Σ(x − x̄)²/(n − 1) (the shifted-data formula gives it
+            // up to rounding: Chan, Golub and LeVeque 1983, eq. 1.5; from memory)
+            let n = periods as f64;
+            let mean = path.iter().sum::<f64>() / n;
+            let var = path.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1.0);
+            assert!((got.mean() - mean).abs() < 1e-9 * mean);
+            assert!((got.sd() * got.sd() - var).abs() < 1e-9 * var, "lane {l}");
+        }
+    }
+
+    #[test]
+    fn the_crra_form_chosen_once_is_the_transform() {
+        // (y/s)^{1−R}, ln at R = 1 (Pratt 1964): the form chosen once gives the bits of the
+        // transform chosen per call, and the closed forms at R = 0, 1, 2
+        for r in [0.0, 0.5, 1.0, 2.0, 3.0] {
+            let crra = Crra::new(r);
+            for y in values(50, 0.3) {
+                let t = crate::welfare::crra_transform(y, 150.0, r);
+                assert_eq!(crra.of(y, 150.0).to_bits(), t.to_bits());
+                let x = y / 150.0;
+                let closed = match r {
+                    0.0 => x,
+                    1.0 => x.ln(),
+                    2.0 => 1.0 / x,
+                    _ => x.powf(1.0 - r),
+                };
+                assert!((t - closed).abs() <= 1e-15 * closed.abs().max(1.0));
+            }
+        }
+    }
+
+    #[test]
+    fn the_avx2_copy_of_the_fold_gives_the_bits_of_the_plain_one() {
+        // an identity (no outside source): the same fold built for two instruction sets
+        let s = crate::scenario::market_from_table(
+            "t.toml",
+            crate::scenario::parse_toml(
+                "t.toml",
+                "[market]\nname = \"T\"\nquantity_unit = \"kt\"\nprice_unit = \"per t\"\n\
+                 [demand]\nintercept = 200.0\nslope = -2.0\n[supply]\nintercept = -40.0\nslope = 1.0\n\
+                 [expectations]\nrule = \"naive\"\n[run]\nperiods = 30\ninitial_price = 85.0\n\
+                 alert_price = [81.0, 95.0]\nrisk_aversion = 1.5\n",
+            )
+            .unwrap(),
+        )
+        .unwrap();
+        let policy = crate::policies::PolicySpec::none();
+        let mut watch = Watch::new(&s, &policy, &crate::policies::compile(&policy).agency);
+        watch.purchase_floor = Some(78.0);
+        watch.band = Some((76.0, 84.0));
+        watch.annual_budget = 40.0;
+        let mut plain = LaneFold::new(&watch, 80.0, 40.0);
+        let mut wide = plain.clone();
+        wide.avx2 = has_avx2();
+        plain.avx2 = false;
+        let mut c = Columns {
+            trades: true,
+            ..Columns::default()
+        };
+        for t in 1..=30 {
+            let v = values(LANES * 8, 0.05 + 0.03 * t as f64);
+            c.period = t;
+            for l in 0..LANES {
+                let x = &v[8 * l..8 * l + 8];
+                c.price[l] = x[0] * 0.45;
+                c.producer_price[l] = x[1] * 0.42;
+                c.harvest[l] = x[2] * 0.2;
+                c.fiscal_cost[l] = x[3] - 210.0;
+                c.financing_cost[l] = x[4] * 0.01;
+                c.consumer_surplus[l] = x[5];
+                c.purchases[l] = (x[6] - 200.0).max(0.0);
+                c.stockout[l] = x[7] > 220.0;
+                c.flags[l] = (x[7] as u16) & 0x7ff;
+                c.trade.imports[l] = (x[0] - 210.0).max(0.0);
+                c.trade.border_revenue[l] = x[1] * 0.1;
+            }
+            plain.add(&c, &watch);
+            wide.add(&c, &watch);
+            assert_eq!(
+                format!("{:?}", plain.transform),
+                format!("{:?}", wide.transform)
+            );
+        }
+        for l in 0..LANES {
+            let (a, b) = (plain.finish(l, &c, &watch), wide.finish(l, &c, &watch));
+            // Debug shows every value's bits that matter here (the sign of a zero included)
+            assert_eq!(format!("{a:?}"), format!("{b:?}"), "lane {l}");
+        }
+    }
+
+    #[test]
+    fn floor_binding_read_off_the_columns_is_the_records() {
+        for (purchases, deficiency) in [(0.0, 0.0), (1.0, 0.0), (0.0, 2.0), (-0.0, 0.0), (3.0, 4.0)]
+        {
+            let mut r = Columns::default().record(0);
+            r.purchases = purchases;
+            r.deficiency_payments = deficiency;
+            assert_eq!(floor_binding(purchases, deficiency), r.floor_binding());
+        }
+    }
+}
