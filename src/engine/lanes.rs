@@ -101,10 +101,17 @@ pub struct Phased<'m> {
     ring: Vec<f64>,
     head: usize,
     keep: usize,
+    /// The period's values, phase by phase (kept between periods: every phase writes a lane's
+    /// value before it reads it).
+    scratch: Scratch,
 }
 
 /// One period's values of every lane, phase by phase.
+#[derive(Debug)]
 struct Scratch {
+    yield_factor: [f64; LANES],
+    supply_shock: [f64; LANES],
+    demand_shock: [f64; LANES],
     expectation: [f64; LANES],
     planting: [f64; LANES],
     carried: [f64; LANES],
@@ -127,6 +134,9 @@ impl Scratch {
     fn new() -> Scratch {
         const Z: [f64; LANES] = [0.0; LANES];
         Scratch {
+            yield_factor: Z,
+            supply_shock: Z,
+            demand_shock: Z,
             expectation: Z,
             planting: Z,
             carried: Z,
@@ -207,6 +217,7 @@ impl<'m> Phased<'m> {
             ring,
             head: 0,
             keep,
+            scratch: Scratch::new(),
         }
     }
 
@@ -248,7 +259,9 @@ impl<'m> Phased<'m> {
         }
     }
 
-    /// [`Phased::step`] on demand of form `D` and supply of form `S`.
+    /// [`Phased::step`] on demand of form `D` and supply of form `S`. Each phase is a function of
+    /// its own, taking the model and the columns it reads and writes as arguments (so that the
+    /// compiler knows the columns apart from the model and vectorises the loops).
     #[inline(always)]
     fn step_in<D: Form, S: Form>(
         &mut self,
@@ -260,25 +273,38 @@ impl<'m> Phased<'m> {
     ) {
         let model = self.model;
         let n = shocks.len().min(failed.len()).min(LANES);
-        let shocks = &shocks[..n];
+        let (shocks, failed) = (&shocks[..n], &mut failed[..n]);
         let t = self.period + 1;
-        let mut s = Scratch::new();
-        for (live, failed) in s.live[..n].iter_mut().zip(failed.iter()) {
-            *live = failed.is_none();
+        let s = &mut self.scratch;
+        for (l, (shock, failed)) in shocks.iter().zip(failed.iter()).enumerate() {
+            s.yield_factor[l] = shock.yield_factor;
+            s.supply_shock[l] = shock.supply;
+            s.demand_shock[l] = shock.demand;
+            s.live[l] = failed.is_none();
         }
 
-        // the expectation, the planting price and the stock carried in
-        self.expect(t, n, &mut s.expectation);
-        let agency = &model.policy.agency;
-        for l in 0..n {
-            s.planting[l] = model.planting_price(s.expectation[l]);
-            s.carried[l] = agency.carried(self.stock[l]);
+        // the expectation, the planting price, the stock carried in, the crop and the harvest
+        match self.expect {
+            Expect::Adaptive(a) => expect_adaptive(
+                &a,
+                t,
+                n,
+                &self.previous,
+                &self.last_price,
+                &mut s.expectation,
+            ),
+            Expect::Rule => expect_rule(
+                model,
+                t,
+                n,
+                &self.previous,
+                &self.ring[..],
+                self.head,
+                self.keep,
+                &mut s.expectation,
+            ),
         }
-        let mut all_ok = true;
-        for l in 0..n {
-            all_ok &= model.expectation_ok(s.planting[l]) | !s.live[l];
-        }
-        if !all_ok {
+        if !plant_all(model, supply, n, &self.stock, s) {
             for l in 0..n {
                 if s.live[l] && !model.expectation_ok(s.planting[l]) {
                     s.live[l] = false;
@@ -290,41 +316,11 @@ impl<'m> Phased<'m> {
             }
         }
 
-        // the crop and the harvest
-        for (l, shock) in shocks.iter().enumerate() {
-            let (planted, harvest) = plant(supply, s.planting[l], shock.yield_factor, shock.supply);
-            s.planted[l] = planted;
-            s.harvest[l] = harvest;
-        }
-
-        // the clearing: the policy's rules, lane by lane (a lane that failed is not cleared)
-        for (l, shock) in shocks.iter().enumerate() {
-            if !s.live[l] {
-                continue;
-            }
-            let c = model.clear_harvest(s.planted[l], s.harvest[l], shock, s.carried[l]);
-            let consumption = c.consumption();
-            s.price[l] = c.price;
-            s.producer_price[l] = c.producer_price;
-            s.purchases[l] = c.purchases;
-            s.releases[l] = c.releases;
-            s.stock[l] = c.stock;
-            s.deficiency[l] = c.deficiency;
-            s.flags[l] = c.flags;
-            s.consumption[l] = consumption;
-            s.consumer_payments[l] = if model.has_payments {
-                model.consumer_payments(c.price, consumption)
-            } else {
-                0.0
-            };
-        }
+        // the clearing: the policy's rules, lane by lane
+        clear_all(model, shocks, s);
 
         // the checks: one combined test per lane, the messages only when one fails
-        let mut all_ok = true;
-        for l in 0..n {
-            all_ok &= cleared_ok(&s.cleared(l), s.consumption[l], model.price_bound) | !s.live[l];
-        }
-        if !all_ok {
+        if !check_all(model, n, s) {
             for l in 0..n {
                 let c = s.cleared(l);
                 if s.live[l] && !cleared_ok(&c, s.consumption[l], model.price_bound) {
@@ -343,33 +339,20 @@ impl<'m> Phased<'m> {
         }
 
         // the books, straight into the columns (a lane that failed writes values of no meaning)
-        for (l, shock) in shocks.iter().enumerate() {
-            let r = PeriodRecord::book_in(
-                &model.settled(
-                    t,
-                    s.planting[l],
-                    &s.cleared(l),
-                    s.consumption[l],
-                    s.consumer_payments[l],
-                    s.carried[l],
-                    shock.demand,
-                ),
-                agency,
-                demand,
-                supply,
-            );
-            put(out, l, &r);
-        }
+        book_all(model, demand, supply, t, n, s, out);
         if s.live[..n].iter().any(|&x| x) {
             out.period = t;
         }
 
         // the state (a lane that failed is never read again)
-        for (l, shock) in shocks.iter().enumerate() {
-            self.previous[l] = s.expectation[l];
-            self.stock[l] = s.stock[l];
-            self.last_price[l] = model.read_price(s.producer_price[l], shock.yield_factor);
-        }
+        settle_all(
+            model,
+            n,
+            s,
+            &mut self.previous,
+            &mut self.last_price,
+            &mut self.stock,
+        );
         if let Expect::Rule = self.expect {
             let (head, keep) = (self.head, self.keep);
             for l in 0..n {
@@ -381,35 +364,182 @@ impl<'m> Phased<'m> {
         }
         self.period = t;
     }
+}
 
-    /// The rule's expectation of every lane for period `t` (`Simulator::advance`'s: the previous
-    /// expectation is none before period 1).
-    #[inline(always)]
-    fn expect(&self, t: usize, n: usize, into: &mut [f64; LANES]) {
-        match self.expect {
-            Expect::Adaptive(a) => {
-                if t == 1 {
-                    for l in 0..n {
-                        into[l] = a.next(None, self.last_price[l]);
-                    }
-                } else {
-                    for l in 0..n {
-                        into[l] = a.next(Some(self.previous[l]), self.last_price[l]);
-                    }
-                }
-            }
-            Expect::Rule => {
-                let (head, keep) = (self.head, self.keep);
-                for (l, into) in into[..n].iter_mut().enumerate() {
-                    let ring = &self.ring[l * 2 * keep..(l + 1) * 2 * keep];
-                    *into = self.model.rule.expect(&ExpectationInput {
-                        history: &ring[head..head + keep],
-                        previous: (t > 1).then_some(self.previous[l]),
-                        season: t,
-                    });
-                }
-            }
+/// Adaptive expectations of every lane for period `t` ([`Adaptive::next`]; no previous
+/// expectation before period 1, as `Simulator::advance`).
+#[inline(never)]
+fn expect_adaptive(
+    a: &Adaptive,
+    t: usize,
+    n: usize,
+    previous: &[f64; LANES],
+    last_price: &[f64; LANES],
+    into: &mut [f64; LANES],
+) {
+    let n = n.min(LANES);
+    if t == 1 {
+        for l in 0..n {
+            into[l] = a.next(None, last_price[l]);
         }
+    } else {
+        for l in 0..n {
+            into[l] = a.next(Some(previous[l]), last_price[l]);
+        }
+    }
+}
+
+/// Any other backward-looking rule's expectation of every lane, through its trait object on the
+/// lane's history window.
+#[inline(never)]
+#[allow(clippy::too_many_arguments)]
+fn expect_rule(
+    model: &Model,
+    t: usize,
+    n: usize,
+    previous: &[f64; LANES],
+    ring: &[f64],
+    head: usize,
+    keep: usize,
+    into: &mut [f64; LANES],
+) {
+    for (l, into) in into[..n.min(LANES)].iter_mut().enumerate() {
+        let ring = &ring[l * 2 * keep..(l + 1) * 2 * keep];
+        *into = model.rule.expect(&ExpectationInput {
+            history: &ring[head..head + keep],
+            previous: (t > 1).then_some(previous[l]),
+            season: t,
+        });
+    }
+}
+
+/// The planting price, the stock carried in, the crop and the harvest of every lane; false when
+/// some lane still going has an expected price out of bounds.
+#[inline(never)]
+fn plant_all<S: Form>(
+    model: &Model,
+    supply: &S,
+    n: usize,
+    stock: &[f64; LANES],
+    s: &mut Scratch,
+) -> bool {
+    let n = n.min(LANES);
+    let agency = &model.policy.agency;
+    let mut all_ok = true;
+    for l in 0..n {
+        let planting = model.planting_price(s.expectation[l]);
+        s.planting[l] = planting;
+        s.carried[l] = agency.carried(stock[l]);
+        let (planted, harvest) = plant(supply, planting, s.yield_factor[l], s.supply_shock[l]);
+        s.planted[l] = planted;
+        s.harvest[l] = harvest;
+        all_ok &= model.expectation_ok(planting) | !s.live[l];
+    }
+    all_ok
+}
+
+/// The clearing of every lane still going: [`Model::clear_harvest`] (the policy's rules) and the
+/// payments to consumers.
+#[inline(never)]
+fn clear_all(model: &Model, shocks: &[PeriodShock], s: &mut Scratch) {
+    for (l, shock) in shocks.iter().enumerate().take(LANES) {
+        if !s.live[l] {
+            continue;
+        }
+        let c = model.clear_harvest(s.planted[l], s.harvest[l], shock, s.carried[l]);
+        let consumption = c.consumption();
+        s.price[l] = c.price;
+        s.producer_price[l] = c.producer_price;
+        s.purchases[l] = c.purchases;
+        s.releases[l] = c.releases;
+        s.stock[l] = c.stock;
+        s.deficiency[l] = c.deficiency;
+        s.flags[l] = c.flags;
+        s.consumption[l] = consumption;
+        s.consumer_payments[l] = if model.has_payments {
+            model.consumer_payments(c.price, consumption)
+        } else {
+            0.0
+        };
+    }
+}
+
+/// [`cleared_ok`] of every lane still going.
+#[inline(never)]
+fn check_all(model: &Model, n: usize, s: &Scratch) -> bool {
+    let n = n.min(LANES);
+    let mut all_ok = true;
+    for l in 0..n {
+        all_ok &= cleared_ok(&s.cleared(l), s.consumption[l], model.price_bound) | !s.live[l];
+    }
+    all_ok
+}
+
+/// The books of every lane ([`PeriodRecord::book_in`]) written into `out`: the numbers in one
+/// loop, the flags and stock-outs in another (each loop keeps of the booking what it writes).
+#[inline(never)]
+fn book_all<D: Form, S: Form>(
+    model: &Model,
+    demand: &D,
+    supply: &S,
+    t: usize,
+    n: usize,
+    s: &Scratch,
+    out: &mut Columns,
+) {
+    let n = n.min(LANES);
+    for l in 0..n {
+        put_numbers(out, l, &book(model, demand, supply, t, s, l));
+    }
+    for l in 0..n {
+        let r = book(model, demand, supply, t, s, l);
+        out.flags[l] = r.flags;
+        out.stockout[l] = r.stockout;
+    }
+}
+
+/// Lane `l`'s books ([`Model::settled`], [`PeriodRecord::book_in`]).
+#[inline(always)]
+fn book<D: Form, S: Form>(
+    model: &Model,
+    demand: &D,
+    supply: &S,
+    t: usize,
+    s: &Scratch,
+    l: usize,
+) -> PeriodRecord {
+    PeriodRecord::book_in(
+        &model.settled(
+            t,
+            s.planting[l],
+            &s.cleared(l),
+            s.consumption[l],
+            s.consumer_payments[l],
+            s.carried[l],
+            s.demand_shock[l],
+        ),
+        &model.policy.agency,
+        demand,
+        supply,
+    )
+}
+
+/// The state every lane carries into the next period: the expectation, the stock, the price the
+/// rules read ([`Model::read_price`]).
+#[inline(never)]
+fn settle_all(
+    model: &Model,
+    n: usize,
+    s: &Scratch,
+    previous: &mut [f64; LANES],
+    last_price: &mut [f64; LANES],
+    stock: &mut [f64; LANES],
+) {
+    let n = n.min(LANES);
+    for l in 0..n {
+        previous[l] = s.expectation[l];
+        stock[l] = s.stock[l];
+        last_price[l] = model.read_price(s.producer_price[l], s.yield_factor[l]);
     }
 }
 
@@ -430,10 +560,10 @@ fn elastic(c: Curve) -> Elastic {
     }
 }
 
-/// Writes the fields of a closed market's record `r` into lane `l` of `out` ([`Columns::set`]
-/// without the period and the trade, which the lanes set once).
+/// Writes the numbers of a closed market's record `r` into lane `l` of `out` ([`Columns::set`]
+/// without the period, the flags and the trade, which the lanes write apart).
 #[inline(always)]
-fn put(out: &mut Columns, l: usize, r: &PeriodRecord) {
+fn put_numbers(out: &mut Columns, l: usize, r: &PeriodRecord) {
     out.expected_price[l] = r.expected_price;
     out.planted[l] = r.planted;
     out.harvest[l] = r.harvest;
@@ -454,6 +584,4 @@ fn put(out: &mut Columns, l: usize, r: &PeriodRecord) {
     out.deficiency_payments[l] = r.deficiency_payments;
     out.consumer_payments[l] = r.consumer_payments;
     out.rotated[l] = r.rotated;
-    out.flags[l] = r.flags;
-    out.stockout[l] = r.stockout;
 }
