@@ -199,8 +199,21 @@ fn same_bits(a: &PeriodRecord, b: &PeriodRecord) -> Result<(), String> {
 /// period) and compares every lane's record of every period and every lane's end. Returns how
 /// many lanes ended.
 fn compare(model: &Model, shocks: &[Vec<PeriodShock>]) -> Result<usize, String> {
+    // the AVX2 copies of the vector phases where the CPU has AVX2, and the plain copies
+    compare_one(model, shocks, ModelLanes::new(model, shocks[0].len()))?;
+    compare_one(
+        model,
+        shocks,
+        ModelLanes::new(model, shocks[0].len()).narrow(),
+    )
+}
+
+fn compare_one(
+    model: &Model,
+    shocks: &[Vec<PeriodShock>],
+    mut phased: ModelLanes,
+) -> Result<usize, String> {
     let n = shocks[0].len();
-    let mut phased = ModelLanes::new(model, n);
     if !phased.is_phased() {
         return Err("the model was not taken phase by phase".into());
     }
@@ -310,6 +323,20 @@ fn diverging_lanes_end_the_same() {
             "{rule}: no lane diverged, the test tests nothing"
         );
     }
+}
+
+/// The vector phases run their AVX2 copies on a CPU that has AVX2 (so that the tests above
+/// compare both copies with the lanes stepped alone).
+#[test]
+fn wide_where_the_cpu_has_avx2() {
+    let s = market(false, false, -0.25, 0.2, "rule = \"naive\"", 210.0);
+    let model = Model::new(&s, &PolicySpec::none());
+    #[cfg(target_arch = "x86_64")]
+    let has = std::arch::is_x86_feature_detected!("avx2");
+    #[cfg(not(target_arch = "x86_64"))]
+    let has = false;
+    assert_eq!(ModelLanes::new(&model, 8).is_wide(), has);
+    assert!(!ModelLanes::new(&model, 8).narrow().is_wide());
 }
 
 /// The same equality on the job's market (linear curves, adaptive expectations) under each of the

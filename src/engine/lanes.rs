@@ -51,6 +51,20 @@ impl<'m> ModelLanes<'m> {
         }
     }
 
+    /// These lanes with the vector phases in their plain (SSE2) copies even on a CPU with AVX2
+    /// (the two give the same bits; tests/lanes.rs runs both).
+    pub fn narrow(mut self) -> Self {
+        if let ModelLanes::Phased(p) = &mut self {
+            p.wide = false;
+        }
+        self
+    }
+
+    /// True when the lanes are stepped phase by phase with the AVX2 copies of the vector phases.
+    pub fn is_wide(&self) -> bool {
+        matches!(self, ModelLanes::Phased(p) if p.wide)
+    }
+
     /// True when the lanes are stepped phase by phase.
     pub fn is_phased(&self) -> bool {
         matches!(self, ModelLanes::Phased(_))
@@ -104,6 +118,9 @@ pub struct Phased<'m> {
     /// The period's values, phase by phase (kept between periods: every phase writes a lane's
     /// value before it reads it).
     scratch: Scratch,
+    /// The vector phases run their AVX2 copies (the CPU has AVX2; the same operations, so the
+    /// same bits: no FMA, no reassociation).
+    wide: bool,
 }
 
 /// One period's values of every lane, phase by phase.
@@ -218,6 +235,7 @@ impl<'m> Phased<'m> {
             head: 0,
             keep,
             scratch: Scratch::new(),
+            wide: avx2(),
         }
     }
 
@@ -304,7 +322,8 @@ impl<'m> Phased<'m> {
                 &mut s.expectation,
             ),
         }
-        if !plant_all(model, supply, n, &self.stock, s) {
+        let wide = self.wide;
+        if !plant_all(wide, model, supply, n, &self.stock, s) {
             for l in 0..n {
                 if s.live[l] && !model.expectation_ok(s.planting[l]) {
                     s.live[l] = false;
@@ -320,7 +339,7 @@ impl<'m> Phased<'m> {
         clear_all(model, shocks, s);
 
         // the checks: one combined test per lane, the messages only when one fails
-        if !check_all(model, n, s) {
+        if !check_all(wide, model, n, s) {
             for l in 0..n {
                 let c = s.cleared(l);
                 if s.live[l] && !cleared_ok(&c, s.consumption[l], model.price_bound) {
@@ -339,13 +358,14 @@ impl<'m> Phased<'m> {
         }
 
         // the books, straight into the columns (a lane that failed writes values of no meaning)
-        book_all(model, demand, supply, t, n, s, out);
+        book_all(wide, model, demand, supply, t, n, s, out);
         if s.live[..n].iter().any(|&x| x) {
             out.period = t;
         }
 
         // the state (a lane that failed is never read again)
         settle_all(
+            wide,
             model,
             n,
             s,
@@ -417,6 +437,37 @@ fn expect_rule(
 /// some lane still going has an expected price out of bounds.
 #[inline(never)]
 fn plant_all<S: Form>(
+    wide: bool,
+    model: &Model,
+    supply: &S,
+    n: usize,
+    stock: &[f64; LANES],
+    s: &mut Scratch,
+) -> bool {
+    #[cfg(target_arch = "x86_64")]
+    if wide {
+        // SAFETY: `wide` is true only when the CPU has AVX2 (`avx2()`)
+        return unsafe { plant_all_avx2(model, supply, n, stock, s) };
+    }
+    let _ = wide;
+    plant_all_in(model, supply, n, stock, s)
+}
+
+/// [`plant_all`] in AVX2.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+unsafe fn plant_all_avx2<S: Form>(
+    model: &Model,
+    supply: &S,
+    n: usize,
+    stock: &[f64; LANES],
+    s: &mut Scratch,
+) -> bool {
+    plant_all_in(model, supply, n, stock, s)
+}
+
+#[inline(always)]
+fn plant_all_in<S: Form>(
     model: &Model,
     supply: &S,
     n: usize,
@@ -466,7 +517,25 @@ fn clear_all(model: &Model, shocks: &[PeriodShock], s: &mut Scratch) {
 
 /// [`cleared_ok`] of every lane still going.
 #[inline(never)]
-fn check_all(model: &Model, n: usize, s: &Scratch) -> bool {
+fn check_all(wide: bool, model: &Model, n: usize, s: &Scratch) -> bool {
+    #[cfg(target_arch = "x86_64")]
+    if wide {
+        // SAFETY: `wide` is true only when the CPU has AVX2 (`avx2()`)
+        return unsafe { check_all_avx2(model, n, s) };
+    }
+    let _ = wide;
+    check_all_in(model, n, s)
+}
+
+/// [`check_all`] in AVX2.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+unsafe fn check_all_avx2(model: &Model, n: usize, s: &Scratch) -> bool {
+    check_all_in(model, n, s)
+}
+
+#[inline(always)]
+fn check_all_in(model: &Model, n: usize, s: &Scratch) -> bool {
     let n = n.min(LANES);
     let mut all_ok = true;
     for l in 0..n {
@@ -478,7 +547,43 @@ fn check_all(model: &Model, n: usize, s: &Scratch) -> bool {
 /// The books of every lane ([`PeriodRecord::book_in`]) written into `out`: the numbers in one
 /// loop, the flags and stock-outs in another (each loop keeps of the booking what it writes).
 #[inline(never)]
+#[allow(clippy::too_many_arguments)]
 fn book_all<D: Form, S: Form>(
+    wide: bool,
+    model: &Model,
+    demand: &D,
+    supply: &S,
+    t: usize,
+    n: usize,
+    s: &Scratch,
+    out: &mut Columns,
+) {
+    #[cfg(target_arch = "x86_64")]
+    if wide {
+        // SAFETY: `wide` is true only when the CPU has AVX2 (`avx2()`)
+        return unsafe { book_all_avx2(model, demand, supply, t, n, s, out) };
+    }
+    let _ = wide;
+    book_all_in(model, demand, supply, t, n, s, out)
+}
+
+/// [`book_all`] in AVX2.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+unsafe fn book_all_avx2<D: Form, S: Form>(
+    model: &Model,
+    demand: &D,
+    supply: &S,
+    t: usize,
+    n: usize,
+    s: &Scratch,
+    out: &mut Columns,
+) {
+    book_all_in(model, demand, supply, t, n, s, out)
+}
+
+#[inline(always)]
+fn book_all_in<D: Form, S: Form>(
     model: &Model,
     demand: &D,
     supply: &S,
@@ -528,6 +633,39 @@ fn book<D: Form, S: Form>(
 /// rules read ([`Model::read_price`]).
 #[inline(never)]
 fn settle_all(
+    wide: bool,
+    model: &Model,
+    n: usize,
+    s: &Scratch,
+    previous: &mut [f64; LANES],
+    last_price: &mut [f64; LANES],
+    stock: &mut [f64; LANES],
+) {
+    #[cfg(target_arch = "x86_64")]
+    if wide {
+        // SAFETY: `wide` is true only when the CPU has AVX2 (`avx2()`)
+        return unsafe { settle_all_avx2(model, n, s, previous, last_price, stock) };
+    }
+    let _ = wide;
+    settle_all_in(model, n, s, previous, last_price, stock)
+}
+
+/// [`settle_all`] in AVX2.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+unsafe fn settle_all_avx2(
+    model: &Model,
+    n: usize,
+    s: &Scratch,
+    previous: &mut [f64; LANES],
+    last_price: &mut [f64; LANES],
+    stock: &mut [f64; LANES],
+) {
+    settle_all_in(model, n, s, previous, last_price, stock)
+}
+
+#[inline(always)]
+fn settle_all_in(
     model: &Model,
     n: usize,
     s: &Scratch,
@@ -540,6 +678,19 @@ fn settle_all(
         previous[l] = s.expectation[l];
         stock[l] = s.stock[l];
         last_price[l] = model.read_price(s.producer_price[l], s.yield_factor[l]);
+    }
+}
+
+/// The CPU has AVX2 (looked up once per set of lanes; the vector phases then run their AVX2
+/// copies, compiled from the same functions: the same operations in the same order, no FMA).
+fn avx2() -> bool {
+    #[cfg(target_arch = "x86_64")]
+    {
+        std::arch::is_x86_feature_detected!("avx2")
+    }
+    #[cfg(not(target_arch = "x86_64"))]
+    {
+        false
     }
 }
 
