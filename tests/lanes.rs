@@ -31,15 +31,33 @@ fn market(
     expectations: &str,
     p0: f64,
 ) -> Scenario {
+    market_on(demand_ce, supply_ce, ed, es, expectations, p0, false)
+}
+
+/// [`market`], farmers planting on revenue when `revenue`.
+fn market_on(
+    demand_ce: bool,
+    supply_ce: bool,
+    ed: f64,
+    es: f64,
+    expectations: &str,
+    p0: f64,
+    revenue: bool,
+) -> Scenario {
     let form = |ce: bool| if ce { "constant-elasticity" } else { "linear" };
     let text = format!(
         "[market]\nname = \"Veldmark test\"\n\
          [demand]\nform = \"{}\"\nat_price = 210.0\nat_quantity = 480.0\nelasticity = {ed:?}\n\
-         [supply]\nform = \"{}\"\nat_price = 210.0\nat_quantity = 480.0\nelasticity = {es:?}\n\
+         [supply]\nform = \"{}\"\nat_price = 210.0\nat_quantity = 480.0\nelasticity = {es:?}\n{}\
          [expectations]\n{expectations}\n\
          [run]\nperiods = 40\ninitial_price = {p0:?}\nprice_history = [{:?}, {:?}, {p0:?}]\n",
         form(demand_ce),
         form(supply_ce),
+        if revenue {
+            "plants_on = \"revenue\"\n"
+        } else {
+            ""
+        },
         0.97 * p0,
         1.02 * p0,
     );
@@ -110,6 +128,16 @@ fn policies() -> impl Strategy<Value = PolicySpec> {
             "[floor]\nprice = {f:?}\ninstrument = \"deficiency-payment\"\nannounced = {announced}\n"
         ))),
     ]
+}
+
+/// Every variant of every registered policy rule (`policies::SECTIONS`' examples: ceilings,
+/// drawdown and rotation releases, border measures on a closed market …), one at a time.
+fn every_rule() -> impl Strategy<Value = PolicySpec> {
+    let examples: Vec<&'static str> = furrow::policies::SECTIONS
+        .iter()
+        .flat_map(|s| s.examples.iter().copied())
+        .collect();
+    prop::sample::select(examples).prop_map(common::policy)
 }
 
 /// splitmix64: the test's own stream of shocks (any stream will do; both steppers get the same).
@@ -243,12 +271,13 @@ fn compare_one(
 }
 
 proptest! {
-    #![proptest_config(config(160))]
+    #![proptest_config(config(200))]
 
     /// Random eligible scenarios (linear and constant-elasticity curves, the backward-looking
     /// rules, none / band / band with target release / floor by purchase / deficiency payment,
-    /// the agency's capacities, losses and costs, random shocks, 1 to 64 lanes): every lane's
-    /// record of every period is the same bits as the lane stepped alone.
+    /// the agency's capacities, losses and costs, every registered rule's examples, planting on
+    /// price or on revenue, random shocks, 1 to 64 lanes): every lane's record of every period is
+    /// the same bits as the lane stepped alone.
     #[test]
     fn phased_lanes_are_each_lane_to_the_bit(
         demand_ce in any::<bool>(),
@@ -257,12 +286,13 @@ proptest! {
         es in 0.1..0.8f64,
         rule in expectations(),
         p0 in 190.0..230.0f64,
-        pol in policies(),
+        pol in prop_oneof![3 => policies(), 1 => every_rule()],
+        revenue in prop::bool::weighted(0.2),
         n in 1usize..=64,
         seed in any::<u64>(),
         (cv, supply, demand) in (0.0..0.15f64, 0.0..20.0f64, 0.0..30.0f64),
     ) {
-        let s = market(demand_ce, supply_ce, ed, es, &rule, p0);
+        let s = market_on(demand_ce, supply_ce, ed, es, &rule, p0, revenue);
         let model = Model::new(&s, &pol);
         let rows = shocks(seed, n, 40, cv, supply, demand);
         if let Err(e) = compare(&model, &rows) {
