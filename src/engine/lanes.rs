@@ -14,6 +14,14 @@
 //! `Model::settled`, `cleared_ok` …). Only the order of the work differs, never an operation, so
 //! the records are the same bits as [`EachLane<Simulator>`] (tests/lanes.rs).
 //!
+//! The arithmetic phases (planting, checks, books, state) have AVX2 copies, compiled from the
+//! same functions and chosen once per set of lanes when the CPU has AVX2 (no FMA, no
+//! reassociation: the same bits; tests/lanes.rs runs both copies). The clearing stays lane by
+//! lane: it is the policy's rules, through their trait objects.
+//!
+//! A lane whose path ends in a period gets its columns of that period written all the same (with
+//! values of no meaning, as [`Columns`] allows), where [`EachLane`] leaves them as they were.
+//!
 //! Models whose step is not the same arithmetic on every lane (a market that trades, farmers in
 //! groups, rational expectations) are stepped lane by lane, [`ModelLanes::Each`].
 
