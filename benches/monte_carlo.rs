@@ -10,7 +10,7 @@
 
 use criterion::{criterion_group, criterion_main, BatchSize, Criterion, Throughput};
 use furrow::compare::compare;
-use furrow::engine::{Model, PeriodShock};
+use furrow::engine::{Columns, Diverged, LaneStepper, Model, ModelLanes, PeriodShock, LANES};
 use furrow::policies::file::policy_from_table;
 use furrow::policies::PolicySpec;
 use furrow::scenario::{market_from_table, parse_toml, Scenario};
@@ -179,6 +179,59 @@ fn steps(c: &mut Criterion) {
     g.finish();
 }
 
+/// Issue 22's lanes: 64 lanes × 100 periods of one model (the band) and of the job's five models,
+/// each lane on its own `Simulator` (`EachLane`) against the lanes stepped phase by phase
+/// (`ModelLanes::Phased`), on the same shocks (the replications' own streams). Throughput in
+/// policy-period-steps.
+fn lanes(c: &mut Criterion) {
+    let s = scenario();
+    let shocks: Vec<Vec<PeriodShock>> = {
+        let mut streams: Vec<ShockStream> = (0..LANES as u64)
+            .map(|l| ShockStream::new(&s.shocks, 2026, l))
+            .collect();
+        (0..100)
+            .map(|_| streams.iter_mut().map(|st| st.next_shock()).collect())
+            .collect()
+    };
+    let run = |lanes: &mut [ModelLanes], out: &mut Columns| {
+        let mut failed = vec![vec![None::<Diverged>; LANES]; lanes.len()];
+        let mut acc = 0.0;
+        for row in &shocks {
+            for (l, failed) in lanes.iter_mut().zip(failed.iter_mut()) {
+                l.step(row, out, failed);
+                acc += out.price[LANES - 1];
+            }
+        }
+        acc
+    };
+    let band: Vec<Model> = vec![Model::new(&s, &policy(BAND))];
+    let all: Vec<Model> = policies().iter().map(|p| Model::new(&s, p)).collect();
+    let mut g = c.benchmark_group("lanes");
+    for (name, models) in [("band", &band), ("5_policies", &all)] {
+        g.throughput(Throughput::Elements((LANES * 100 * models.len()) as u64));
+        for phased in [false, true] {
+            let way = if phased { "phased" } else { "each_lane" };
+            g.bench_function(format!("{name}_64x100_{way}"), |b| {
+                let mut out = Columns::default();
+                b.iter(|| {
+                    let mut lanes: Vec<ModelLanes> = models
+                        .iter()
+                        .map(|m| {
+                            if phased {
+                                ModelLanes::new(m, LANES)
+                            } else {
+                                ModelLanes::each(m, LANES)
+                            }
+                        })
+                        .collect();
+                    run(&mut lanes, &mut out)
+                })
+            });
+        }
+    }
+    g.finish();
+}
+
 fn compare_end_to_end(c: &mut Criterion) {
     let s = scenario();
     let ps = policies();
@@ -199,6 +252,6 @@ criterion_group! {
     name = benches;
     // no plots: criterion's plotting needs system fonts this machine does not have
     config = Criterion::default().without_plots();
-    targets = steps, compare_end_to_end
+    targets = steps, lanes, compare_end_to_end
 }
 criterion_main!(benches);

@@ -45,22 +45,17 @@ impl Curve {
     #[inline]
     pub fn quantity(&self, p: f64) -> f64 {
         match *self {
-            Curve::Linear { intercept, slope } => (intercept + slope * p).max(0.0),
+            Curve::Linear { intercept, slope } => Linear { intercept, slope }.quantity(p),
             Curve::ConstantElasticity {
                 at_price,
                 at_quantity,
                 elasticity,
-            } => {
-                if p <= 0.0 {
-                    if elasticity > 0.0 {
-                        0.0
-                    } else {
-                        f64::INFINITY
-                    }
-                } else {
-                    at_quantity * (p / at_price).powf(elasticity)
-                }
+            } => Elastic {
+                at_price,
+                at_quantity,
+                elasticity,
             }
+            .quantity(p),
         }
     }
 
@@ -79,22 +74,17 @@ impl Curve {
     #[inline]
     pub fn price_at(&self, q: f64) -> f64 {
         match *self {
-            Curve::Linear { intercept, slope } => (q - intercept) / slope,
+            Curve::Linear { intercept, slope } => Linear { intercept, slope }.price_at(q),
             Curve::ConstantElasticity {
                 at_price,
                 at_quantity,
                 elasticity,
-            } => {
-                if q <= 0.0 {
-                    if elasticity < 0.0 {
-                        f64::INFINITY
-                    } else {
-                        0.0
-                    }
-                } else {
-                    at_price * (q / at_quantity).powf(1.0 / elasticity)
-                }
+            } => Elastic {
+                at_price,
+                at_quantity,
+                elasticity,
             }
+            .price_at(q),
         }
     }
 
@@ -150,62 +140,28 @@ impl Curve {
                 at_price,
                 at_quantity,
                 elasticity,
-            } => {
-                let k = at_quantity * at_price.powf(-elasticity);
-                let prim = |p: f64| {
-                    if (elasticity + 1.0).abs() < 1e-12 {
-                        k * p.ln()
-                    } else {
-                        k * p.powf(elasticity + 1.0) / (elasticity + 1.0)
-                    }
-                };
-                prim(p_high) - prim(p_low) + shift * (p_high - p_low)
+            } => Elastic {
+                at_price,
+                at_quantity,
+                elasticity,
             }
+            .area_between(p_low, p_high, shift),
         }
     }
 
     /// Consumer surplus at price `p` for a demand curve shifted by `shift`: ∫_p^{choke} D(x) dx for a
     /// linear curve; for constant elasticity (no finite choke price) ∫_p^{at_price} D(x) dx, so that
     /// only changes are meaningful.
+    #[inline]
     pub fn consumer_surplus(&self, p: f64, shift: f64) -> f64 {
-        match *self {
-            Curve::Linear { intercept, slope } => {
-                let q = (intercept + shift + slope * p).max(0.0);
-                q * q / (2.0 * -slope)
-            }
-            Curve::ConstantElasticity { at_price, .. } => self.area_between(p, at_price, shift),
-        }
+        Form::consumer_surplus(self, p, shift)
     }
 
     /// Cost of producing `q` for a supply curve: ∫_0^q max(0, S⁻¹(x)) dx (the area under the inverse
     /// supply curve, i.e. the sum of marginal costs).
+    #[inline]
     pub fn production_cost(&self, q: f64) -> f64 {
-        if q <= 0.0 {
-            return 0.0;
-        }
-        match *self {
-            Curve::Linear { intercept, slope } => {
-                // S⁻¹(x) = (x − c)/d is positive for x > c
-                let start = intercept.max(0.0);
-                if q <= start {
-                    return 0.0;
-                }
-                ((q - intercept).powi(2) - (start - intercept).powi(2)) / (2.0 * slope)
-            }
-            Curve::ConstantElasticity {
-                at_price,
-                at_quantity,
-                elasticity,
-            } => {
-                // ∫_0^q p̄ (x/q̄)^{1/e} dx = q · S⁻¹(q) · e/(1 + e), computed in logs: the direct
-                // q^{1 + 1/e} overflows for small elasticities (e < 0.01) although the cost is finite
-                let ln_cost = at_price.ln()
-                    + q.ln()
-                    + (q / at_quantity).ln() / elasticity
-                    + (elasticity / (1.0 + elasticity)).ln();
-                ln_cost.exp()
-            }
-        }
+        Form::production_cost(self, q)
     }
 
     /// Short name of the functional form.
@@ -219,6 +175,197 @@ impl Curve {
     /// True for linear curves.
     pub fn is_linear(&self) -> bool {
         matches!(self, Curve::Linear { .. })
+    }
+}
+
+/// The arithmetic of one functional form, written once: [`Linear`] and [`Elastic`] hold it, and
+/// [`Curve`] dispatches to them on its form. Code that runs the same form over many values (the
+/// engine's lanes, `engine::lanes`) takes the form as a type parameter, so the choice of form is
+/// made once outside its loops; the numbers are the same as through [`Curve`].
+pub trait Form: Copy {
+    /// Quantity at price `p` (never negative; see [`Curve::quantity`]).
+    fn quantity(&self, p: f64) -> f64;
+    /// The inverse curve (see [`Curve::price_at`]).
+    fn price_at(&self, q: f64) -> f64;
+    /// Consumer surplus at `p` on the curve shifted by `shift` (see [`Curve::consumer_surplus`]).
+    fn consumer_surplus(&self, p: f64, shift: f64) -> f64;
+    /// Cost of producing `q` (see [`Curve::production_cost`]).
+    fn production_cost(&self, q: f64) -> f64;
+}
+
+/// [`Curve::Linear`]'s arithmetic: Q = intercept + slope · P.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Linear {
+    /// Quantity at a zero price.
+    pub intercept: f64,
+    /// dQ/dP.
+    pub slope: f64,
+}
+
+/// [`Curve::ConstantElasticity`]'s arithmetic: Q = at_quantity · (P / at_price)^elasticity.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Elastic {
+    /// Reference price.
+    pub at_price: f64,
+    /// Quantity at the reference price.
+    pub at_quantity: f64,
+    /// Constant elasticity d ln Q / d ln P.
+    pub elasticity: f64,
+}
+
+impl Form for Linear {
+    #[inline(always)]
+    fn quantity(&self, p: f64) -> f64 {
+        (self.intercept + self.slope * p).max(0.0)
+    }
+
+    #[inline(always)]
+    fn price_at(&self, q: f64) -> f64 {
+        (q - self.intercept) / self.slope
+    }
+
+    #[inline(always)]
+    fn consumer_surplus(&self, p: f64, shift: f64) -> f64 {
+        let q = (self.intercept + shift + self.slope * p).max(0.0);
+        q * q / (2.0 * -self.slope)
+    }
+
+    #[inline(always)]
+    fn production_cost(&self, q: f64) -> f64 {
+        let Linear { intercept, slope } = *self;
+        if q <= 0.0 {
+            return 0.0;
+        }
+        // S⁻¹(x) = (x − c)/d is positive for x > c
+        let start = intercept.max(0.0);
+        if q <= start {
+            return 0.0;
+        }
+        ((q - intercept).powi(2) - (start - intercept).powi(2)) / (2.0 * slope)
+    }
+}
+
+impl Elastic {
+    /// ∫ Q(p) dp from `p_low` to `p_high` on the curve shifted by `shift` (see
+    /// [`Curve::area_between`]).
+    #[inline]
+    pub fn area_between(&self, p_low: f64, p_high: f64, shift: f64) -> f64 {
+        let Elastic {
+            at_price,
+            at_quantity,
+            elasticity,
+        } = *self;
+        let k = at_quantity * at_price.powf(-elasticity);
+        let prim = |p: f64| {
+            if (elasticity + 1.0).abs() < 1e-12 {
+                k * p.ln()
+            } else {
+                k * p.powf(elasticity + 1.0) / (elasticity + 1.0)
+            }
+        };
+        prim(p_high) - prim(p_low) + shift * (p_high - p_low)
+    }
+}
+
+impl Form for Elastic {
+    #[inline(always)]
+    fn quantity(&self, p: f64) -> f64 {
+        if p <= 0.0 {
+            if self.elasticity > 0.0 {
+                0.0
+            } else {
+                f64::INFINITY
+            }
+        } else {
+            self.at_quantity * (p / self.at_price).powf(self.elasticity)
+        }
+    }
+
+    #[inline(always)]
+    fn price_at(&self, q: f64) -> f64 {
+        if q <= 0.0 {
+            if self.elasticity < 0.0 {
+                f64::INFINITY
+            } else {
+                0.0
+            }
+        } else {
+            self.at_price * (q / self.at_quantity).powf(1.0 / self.elasticity)
+        }
+    }
+
+    #[inline(always)]
+    fn consumer_surplus(&self, p: f64, shift: f64) -> f64 {
+        // no finite choke price: the area up to the reference price (only changes mean anything)
+        self.area_between(p, self.at_price, shift)
+    }
+
+    #[inline(always)]
+    fn production_cost(&self, q: f64) -> f64 {
+        let Elastic {
+            at_price,
+            at_quantity,
+            elasticity,
+        } = *self;
+        if q <= 0.0 {
+            return 0.0;
+        }
+        // ∫_0^q p̄ (x/q̄)^{1/e} dx = q · S⁻¹(q) · e/(1 + e), computed in logs: the direct
+        // q^{1 + 1/e} overflows for small elasticities (e < 0.01) although the cost is finite
+        let ln_cost = at_price.ln()
+            + q.ln()
+            + (q / at_quantity).ln() / elasticity
+            + (elasticity / (1.0 + elasticity)).ln();
+        ln_cost.exp()
+    }
+}
+
+/// A [`Curve`] dispatches on its form (one `match` per call).
+impl Form for Curve {
+    #[inline]
+    fn quantity(&self, p: f64) -> f64 {
+        Curve::quantity(self, p)
+    }
+
+    #[inline]
+    fn price_at(&self, q: f64) -> f64 {
+        Curve::price_at(self, q)
+    }
+
+    #[inline]
+    fn consumer_surplus(&self, p: f64, shift: f64) -> f64 {
+        match *self {
+            Curve::Linear { intercept, slope } => {
+                Linear { intercept, slope }.consumer_surplus(p, shift)
+            }
+            Curve::ConstantElasticity {
+                at_price,
+                at_quantity,
+                elasticity,
+            } => Elastic {
+                at_price,
+                at_quantity,
+                elasticity,
+            }
+            .consumer_surplus(p, shift),
+        }
+    }
+
+    #[inline]
+    fn production_cost(&self, q: f64) -> f64 {
+        match *self {
+            Curve::Linear { intercept, slope } => Linear { intercept, slope }.production_cost(q),
+            Curve::ConstantElasticity {
+                at_price,
+                at_quantity,
+                elasticity,
+            } => Elastic {
+                at_price,
+                at_quantity,
+                elasticity,
+            }
+            .production_cost(q),
+        }
     }
 }
 

@@ -10,15 +10,17 @@
 //! [`PolicySpec`] and a stream of [`PeriodShock`]s.
 
 pub mod columns;
+pub mod lanes;
 mod path;
 mod rational;
 mod record;
 
 pub use columns::{Columns, EachLane, LaneStepper, LANES};
+pub use lanes::ModelLanes;
 pub use path::{each_lane, PathModel, Stepper};
 pub use record::{PeriodRecord, Settled, TradeRecord};
 
-use crate::curves::Curve;
+use crate::curves::{Curve, Form};
 use crate::expectations::{self, ExpectationInput, ExpectationRule};
 use crate::policies::PolicySpec;
 use crate::policies::{self, Clearing, Policy};
@@ -179,8 +181,24 @@ impl Model {
     /// Clears one period: planting on `planting_price`, with agency stock `carried` (after losses).
     #[inline(always)]
     pub(crate) fn clear(&self, planting_price: f64, shock: &PeriodShock, carried: f64) -> Cleared {
-        let planted = self.supply.quantity(planting_price);
-        let harvest = (planted * shock.yield_factor + shock.supply).max(0.0);
+        let (planted, harvest) = plant(
+            &self.supply,
+            planting_price,
+            shock.yield_factor,
+            shock.supply,
+        );
+        self.clear_harvest(planted, harvest, shock, carried)
+    }
+
+    /// [`Model::clear`] once the crop is in: `planted` and its `harvest`.
+    #[inline(always)]
+    pub(crate) fn clear_harvest(
+        &self,
+        planted: f64,
+        harvest: f64,
+        shock: &PeriodShock,
+        carried: f64,
+    ) -> Cleared {
         if let Some(trade) = &self.trade {
             return self.clear_open(trade, planted, harvest, shock, carried);
         }
@@ -258,6 +276,70 @@ impl Model {
         });
         c.traded = traded;
         c
+    }
+
+    /// The price farmers plant on: the rule's expectation, raised to an announced floor.
+    #[inline(always)]
+    fn planting_price(&self, rule_expectation: f64) -> f64 {
+        match self.planting_floor {
+            Some(f) => rule_expectation.max(f),
+            None => rule_expectation,
+        }
+    }
+
+    /// The expected price `planting` is one the model means anything at (one comparison; NaN
+    /// fails it too). [`expected_price_failure`] says why not.
+    #[inline(always)]
+    fn expectation_ok(&self, planting: f64) -> bool {
+        planting > 0.0 && planting <= self.price_bound
+    }
+
+    /// The producer-price history entry the backward-looking rules read after a period paying
+    /// `producer_price` with yield factor `yield_factor`: planting on revenue, what a unit of
+    /// expected harvest earned, P_t·Y_t/E[Y] (E[Y] = 1); otherwise the price itself.
+    #[inline(always)]
+    fn read_price(&self, producer_price: f64, yield_factor: f64) -> f64 {
+        if self.revenue {
+            producer_price * yield_factor
+        } else {
+            producer_price
+        }
+    }
+
+    /// What period `t` settled before its books: the clearing `c` of a crop planted on `planting`,
+    /// with `consumption`, the consumer payments, the stock `carried` in and the demand shock.
+    #[inline(always)]
+    #[allow(clippy::too_many_arguments)]
+    fn settled(
+        &self,
+        t: usize,
+        planting: f64,
+        c: &Cleared,
+        consumption: f64,
+        consumer_payments: f64,
+        carried: f64,
+        demand_shock: f64,
+    ) -> Settled {
+        Settled {
+            period: t,
+            expected_price: planting,
+            planted: c.planted,
+            harvest: c.harvest,
+            price: c.price,
+            producer_price: c.producer_price,
+            consumption,
+            purchases: c.purchases,
+            releases: c.releases,
+            stock: c.stock,
+            deficiency_payments: c.deficiency,
+            consumer_payments,
+            // a rotation sells old grain and buys as much new grain at P_t: only its handling
+            // (both legs) reaches the books
+            rotated: self.policy.agency.rotated(carried, c.stock),
+            demand_shock,
+            flags: c.flags,
+            stockout: c.price > self.stockout_above && c.stock <= 1e-12,
+        }
     }
 
     /// The treasury's payments to consumers at market price `price` and consumption `consumption`.
@@ -346,6 +428,54 @@ fn negative_consumption(consumption: f64, purchases: f64) -> String {
     )
 }
 
+/// The checks on a cleared period (the harvest, the price, consumption): true when all pass. One
+/// combined test on the hot path (NaN fails the price's, as in [`cleared_failure`], which says
+/// which check failed first); the scalar step and the lanes both call it.
+// the negated comparisons let NaN pass the planting, harvest and consumption checks, as the
+// step's checks always have (a NaN price fails the price's)
+#[allow(clippy::neg_cmp_op_on_partial_ord)]
+#[inline(always)]
+fn cleared_ok(c: &Cleared, consumption: f64, bound: f64) -> bool {
+    (c.flags & crate::policies::flags::UNBOUNDED == 0)
+        & !(c.planted <= 0.0)
+        & !(c.harvest <= 0.0)
+        & (c.price > 0.0 && c.price <= bound)
+        & !(consumption < 0.0)
+}
+
+/// Why [`cleared_ok`] failed: its checks in order, the first that fails (built only when one does).
+#[cold]
+#[inline(never)]
+fn cleared_failure(c: &Cleared, planting: f64, consumption: f64, bound: f64) -> String {
+    if c.flags & crate::policies::flags::UNBOUNDED != 0 {
+        unbounded_purchase(c)
+    } else if c.planted <= 0.0 {
+        format!(
+            "farmers plant nothing at the expected price {}",
+            crate::output::fmt_num(planting, 4)
+        )
+    } else if c.harvest <= 0.0 {
+        "the harvest fell to zero".into()
+    } else if !(c.price > 0.0 && c.price <= bound) {
+        price_failure(c.price, consumption, bound)
+    } else {
+        negative_consumption(consumption, c.purchases)
+    }
+}
+
+/// The crop planted on `planting_price` and its harvest, Q = max(0, S(P^e)·yield + supply shock).
+#[inline(always)]
+pub(crate) fn plant<S: Form>(
+    supply: &S,
+    planting_price: f64,
+    yield_factor: f64,
+    supply_shock: f64,
+) -> (f64, f64) {
+    let planted = supply.quantity(planting_price);
+    let harvest = (planted * yield_factor + supply_shock).max(0.0);
+    (planted, harvest)
+}
+
 /// Why an unbounded purchase ends a run (built only when it happens).
 #[cold]
 fn unbounded_purchase(c: &Cleared) -> String {
@@ -375,6 +505,19 @@ pub(crate) struct Cleared {
     pub trade: Option<TradeRecord>,
     /// The price with private trade, imports and exports (no trade for a closed market).
     pub traded: Traded,
+}
+
+impl Cleared {
+    /// Consumption C = Q − X + R (+ M − X_p on a market that trades).
+    #[inline(always)]
+    fn consumption(&self) -> f64 {
+        if self.trade.is_some() {
+            self.harvest - self.purchases + self.releases + self.traded.imports
+                - self.traded.exports
+        } else {
+            self.harvest - self.purchases + self.releases
+        }
+    }
 }
 
 /// Steps a [`Model`] forward one period at a time.
@@ -455,7 +598,7 @@ impl<'m> Simulator<'m> {
         let model = self.model;
         let t = self.period + 1;
         let diverged = |reason: String| Diverged { period: t, reason };
-        let carried = self.stock * (1.0 - model.policy.agency.loss_rate);
+        let carried = model.policy.agency.carried(self.stock);
         let floor = model.planting_floor;
         // the path's own group state first: the rule is asked for its groups (a call through the
         // trait object) only on a path that has them
@@ -504,44 +647,23 @@ impl<'m> Simulator<'m> {
                 }),
             }
         };
-        let planting = match floor {
-            Some(f) => rule_expectation.max(f),
-            None => rule_expectation,
-        };
+        let planting = model.planting_price(rule_expectation);
         // one comparison on the hot path (NaN fails it too); the message is built only on failure
-        if !(planting > 0.0 && planting <= model.price_bound) {
+        if !model.expectation_ok(planting) {
             return Err(diverged(expected_price_failure(
                 planting,
                 model.price_bound,
             )));
         }
         let c = model.clear(planting, shock, carried);
-        if c.flags & crate::policies::flags::UNBOUNDED != 0 {
-            return Err(diverged(unbounded_purchase(&c)));
-        }
-        if c.planted <= 0.0 {
-            return Err(diverged(format!(
-                "farmers plant nothing at the expected price {}",
-                crate::output::fmt_num(planting, 4)
-            )));
-        }
-        if c.harvest <= 0.0 {
-            return Err(diverged("the harvest fell to zero".into()));
-        }
-        let consumption = if c.trade.is_some() {
-            c.harvest - c.purchases + c.releases + c.traded.imports - c.traded.exports
-        } else {
-            c.harvest - c.purchases + c.releases
-        };
-        if !(c.price > 0.0 && c.price <= model.price_bound) {
-            return Err(diverged(price_failure(
-                c.price,
+        let consumption = c.consumption();
+        if !cleared_ok(&c, consumption, model.price_bound) {
+            return Err(diverged(cleared_failure(
+                &c,
+                planting,
                 consumption,
                 model.price_bound,
             )));
-        }
-        if consumption < 0.0 {
-            return Err(diverged(negative_consumption(consumption, c.purchases)));
         }
         let consumer_payments = if model.has_payments {
             model.consumer_payments(c.price, consumption)
@@ -550,26 +672,15 @@ impl<'m> Simulator<'m> {
         };
         let agency = &model.policy.agency;
         let record = PeriodRecord::book(
-            &Settled {
-                period: t,
-                expected_price: planting,
-                planted: c.planted,
-                harvest: c.harvest,
-                price: c.price,
-                producer_price: c.producer_price,
+            &model.settled(
+                t,
+                planting,
+                &c,
                 consumption,
-                purchases: c.purchases,
-                releases: c.releases,
-                stock: c.stock,
-                deficiency_payments: c.deficiency,
                 consumer_payments,
-                // a rotation sells old grain and buys as much new grain at P_t: only its handling
-                // (both legs) reaches the books
-                rotated: agency.rotated(carried, c.stock),
-                demand_shock: shock.demand,
-                flags: c.flags,
-                stockout: c.price > model.stockout_above && c.stock <= 1e-12,
-            },
+                carried,
+                shock.demand,
+            ),
             agency,
             &model.demand,
             &model.supply,
@@ -588,11 +699,7 @@ impl<'m> Simulator<'m> {
         self.period = t;
         // planting on revenue: the rules read what a unit of expected harvest earned, P_t·Y_t/E[Y]
         // (E[Y] = 1), the price itself when there is no yield risk
-        let read = if model.revenue {
-            c.producer_price * shock.yield_factor
-        } else {
-            c.producer_price
-        };
+        let read = model.read_price(c.producer_price, shock.yield_factor);
         self.push_price(read);
         if let Some(state) = self.groups.as_mut() {
             if let Some(g) = model.rule.groups() {

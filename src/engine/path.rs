@@ -55,7 +55,7 @@ impl Stepper for Simulator<'_> {
 
 impl PathModel for Model {
     type Stepper<'a> = Simulator<'a>;
-    type Lanes<'a> = EachLane<Simulator<'a>>;
+    type Lanes<'a> = super::ModelLanes<'a>;
 
     fn name(&self) -> &str {
         &self.policy.name
@@ -66,7 +66,8 @@ impl PathModel for Model {
         self.simulator()
     }
 
+    /// Phase by phase ([`super::ModelLanes`]) when the model allows it, else lane by lane.
     fn start_lanes(&self, n: usize) -> Self::Lanes<'_> {
-        each_lane(self, n)
+        super::ModelLanes::new(self, n)
     }
 }

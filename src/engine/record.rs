@@ -1,6 +1,6 @@
 use serde::Serialize;
 
-use crate::curves::Curve;
+use crate::curves::{Curve, Form};
 use crate::policies::{flags, Agency};
 
 /// Everything recorded for one period (the `run` table's columns and the fiscal parts).
@@ -199,6 +199,19 @@ impl PeriodRecord {
     /// The one place these sums are written; the period engine and the storage records call it.
     #[inline(always)]
     pub fn book(s: &Settled, agency: &Agency, demand: &Curve, supply: &Curve) -> PeriodRecord {
+        Self::book_in(s, agency, demand, supply)
+    }
+
+    /// [`PeriodRecord::book`] on curves of known forms (the engine's lanes choose the forms once,
+    /// outside their loops; a [`Curve`] chooses on every call). The same sums: `book` is this on
+    /// two [`Curve`]s.
+    #[inline(always)]
+    pub fn book_in<D: Form, S: Form>(
+        s: &Settled,
+        agency: &Agency,
+        demand: &D,
+        supply: &S,
+    ) -> PeriodRecord {
         let purchase_cost = s.price * s.purchases;
         let sales_revenue = s.price * s.releases;
         let storage_cost = agency.storage_cost * s.stock;

@@ -323,7 +323,10 @@ impl<'a> Clearing<'a> {
     }
 
     /// Buys until the price reaches `target`, within capacity and budget. Returns the amount bought.
-    #[inline]
+    ///
+    /// Inlined into every caller (the band's `defend` among them): out of line, the caller's
+    /// market goes to memory and back around the call.
+    #[inline(always)]
     pub fn buy_to(&mut self, target: f64, acted: u16) -> f64 {
         let excess = self.consumption() - self.most_left_at_least(target);
         if excess <= 1e-12 * self.harvest.max(1.0) {
@@ -392,7 +395,8 @@ impl<'a> Clearing<'a> {
     }
 
     /// Sells until the price falls to `target`, as far as the stock allows. Returns the amount sold.
-    #[inline]
+    /// Inlined into every caller, as [`Clearing::buy_to`].
+    #[inline(always)]
     pub fn sell_to(&mut self, target: f64, acted: u16) -> f64 {
         let shortfall = self.least_left_at_most(target) - self.consumption();
         if shortfall <= 1e-12 * self.harvest.max(1.0) {

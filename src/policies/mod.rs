@@ -124,6 +124,12 @@ impl Default for Agency {
 }
 
 impl Agency {
+    /// The stock carried into a period from `stock` at the end of the last: what losses leave.
+    #[inline(always)]
+    pub fn carried(&self, stock: f64) -> f64 {
+        stock * (1.0 - self.loss_rate)
+    }
+
     /// The quantity rotated in a period: `rotation_share` of the old grain still in store, the
     /// smaller of the carried stock (after losses) and the end-of-period stock.
     #[inline(always)]

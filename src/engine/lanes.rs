@@ -1,0 +1,746 @@
+//! The period engine's own [`LaneStepper`]: every lane of a [`Model`] stepped one phase at a time.
+//!
+//! [`EachLane`] steps lane after lane, each a whole period through [`Simulator::step`]. The lanes
+//! here keep the paths' state column by column (the previous expectation, the last price read,
+//! the agency's stock: one `[f64; LANES]` each) and run each phase of the period as one loop over
+//! the lanes — the expectation, the planting and the harvest, the clearing, the checks, the
+//! booking, the state update — so that a phase's arithmetic is the same on every lane and the
+//! compiler can keep it in vector registers, and no phase holds more values than registers.
+//!
+//! Every phase calls the code the scalar step calls ([`Simulator::step`], `Simulator::advance`):
+//! the expectation rule's own method, the curves' arithmetic ([`Form`], with the form chosen once
+//! per model outside the loops), [`Model::clear_harvest`] and the policy rules behind it,
+//! [`PeriodRecord::book_in`] and the small pieces the step is made of (`Model::planting_price`,
+//! `Model::settled`, `cleared_ok` …). Only the order of the work differs, never an operation, so
+//! the records are the same bits as [`EachLane<Simulator>`] (tests/lanes.rs).
+//!
+//! The arithmetic phases (planting, checks, books, state) have AVX2 copies, compiled from the
+//! same functions and chosen once per set of lanes when the CPU has AVX2 (no FMA, no
+//! reassociation: the same bits; tests/lanes.rs runs both copies). The clearing stays lane by
+//! lane: it is the policy's rules, through their trait objects.
+//!
+//! A lane whose path ends in a period gets its columns of that period written all the same (with
+//! values of no meaning, as [`Columns`] allows), where [`EachLane`] leaves them as they were.
+//!
+//! Models whose step is not the same arithmetic on every lane (a market that trades, farmers in
+//! groups, rational expectations) are stepped lane by lane, [`ModelLanes::Each`].
+
+// the phases index several columns by lane in one loop, on purpose
+#![allow(clippy::needless_range_loop)]
+
+use super::columns::{Columns, EachLane, LaneStepper, LANES};
+use super::{
+    cleared_failure, cleared_ok, expected_price_failure, plant, Cleared, Diverged, Model,
+    PeriodRecord, PeriodShock, Simulator,
+};
+use crate::curves::{Curve, Elastic, Form, Linear};
+use crate::expectations::{Adaptive, ExpectationInput};
+use crate::trade::Traded;
+
+/// The lanes of a [`Model`]: phase by phase ([`ModelLanes::Phased`]) when the model allows it,
+/// otherwise each lane its own [`Simulator`].
+#[derive(Debug)]
+pub enum ModelLanes<'m> {
+    /// Every lane stepped one phase at a time.
+    Phased(Box<Phased<'m>>),
+    /// Each lane its own [`Simulator`] (a market that trades, farmers in groups, rational
+    /// expectations).
+    Each(EachLane<Simulator<'m>>),
+}
+
+impl<'m> ModelLanes<'m> {
+    /// `n` (≤ [`LANES`]) fresh paths of `model` at period 0.
+    pub fn new(model: &'m Model, n: usize) -> ModelLanes<'m> {
+        debug_assert!(n <= LANES);
+        if Phased::takes(model) {
+            ModelLanes::Phased(Box::new(Phased::new(model)))
+        } else {
+            ModelLanes::Each(super::each_lane(model, n))
+        }
+    }
+
+    /// These lanes with the vector phases in their plain (SSE2) copies even on a CPU with AVX2
+    /// (the two give the same bits; tests/lanes.rs runs both).
+    pub fn narrow(mut self) -> Self {
+        if let ModelLanes::Phased(p) = &mut self {
+            p.wide = false;
+        }
+        self
+    }
+
+    /// True when the lanes are stepped phase by phase with the AVX2 copies of the vector phases.
+    pub fn is_wide(&self) -> bool {
+        matches!(self, ModelLanes::Phased(p) if p.wide)
+    }
+
+    /// True when the lanes are stepped phase by phase.
+    pub fn is_phased(&self) -> bool {
+        matches!(self, ModelLanes::Phased(_))
+    }
+
+    /// Lanes stepped each on its own [`Simulator`], whatever the model (the reference the phased
+    /// lanes are tested against).
+    pub fn each(model: &'m Model, n: usize) -> ModelLanes<'m> {
+        ModelLanes::Each(super::each_lane(model, n))
+    }
+}
+
+impl LaneStepper for ModelLanes<'_> {
+    #[inline]
+    fn step(&mut self, shocks: &[PeriodShock], out: &mut Columns, failed: &mut [Option<Diverged>]) {
+        match self {
+            ModelLanes::Phased(p) => p.step(shocks, out, failed),
+            ModelLanes::Each(e) => e.step(shocks, out, failed),
+        }
+    }
+}
+
+/// The expectation rule as the lanes call it (chosen once per model).
+#[derive(Debug, Clone, Copy)]
+enum Expect {
+    /// Adaptive expectations, called directly ([`Adaptive::next`]): reads only the previous
+    /// expectation and the last price, so no history is kept.
+    Adaptive(Adaptive),
+    /// Any other backward-looking rule, through its trait object on each lane's history.
+    Rule,
+}
+
+/// Up to [`LANES`] paths of one [`Model`], their state column by column.
+#[derive(Debug)]
+pub struct Phased<'m> {
+    model: &'m Model,
+    expect: Expect,
+    /// Periods stepped (every lane still going is at the same period).
+    period: usize,
+    /// The rule's expectation last period (meaningless before period 1).
+    previous: [f64; LANES],
+    /// The newest producer price read by the rules.
+    last_price: [f64; LANES],
+    /// The agency's stock at the end of the last period.
+    stock: [f64; LANES],
+    /// Each lane's last `keep` producer prices stored twice (as `Simulator`'s), lane `l` at
+    /// `ring[l * 2 * keep..]`, one `head` for all lanes; empty for adaptive expectations.
+    ring: Vec<f64>,
+    head: usize,
+    keep: usize,
+    /// The period's values, phase by phase (kept between periods: every phase writes a lane's
+    /// value before it reads it).
+    scratch: Scratch,
+    /// The vector phases run their AVX2 copies (the CPU has AVX2; the same operations, so the
+    /// same bits: no FMA, no reassociation).
+    wide: bool,
+}
+
+/// One period's values of every lane, phase by phase.
+#[derive(Debug)]
+struct Scratch {
+    yield_factor: [f64; LANES],
+    supply_shock: [f64; LANES],
+    demand_shock: [f64; LANES],
+    expectation: [f64; LANES],
+    planting: [f64; LANES],
+    carried: [f64; LANES],
+    planted: [f64; LANES],
+    harvest: [f64; LANES],
+    price: [f64; LANES],
+    producer_price: [f64; LANES],
+    purchases: [f64; LANES],
+    releases: [f64; LANES],
+    stock: [f64; LANES],
+    deficiency: [f64; LANES],
+    consumption: [f64; LANES],
+    consumer_payments: [f64; LANES],
+    flags: [u16; LANES],
+    /// The lane is still going this period.
+    live: [bool; LANES],
+}
+
+impl Scratch {
+    fn new() -> Scratch {
+        const Z: [f64; LANES] = [0.0; LANES];
+        Scratch {
+            yield_factor: Z,
+            supply_shock: Z,
+            demand_shock: Z,
+            expectation: Z,
+            planting: Z,
+            carried: Z,
+            planted: Z,
+            harvest: Z,
+            price: Z,
+            producer_price: Z,
+            purchases: Z,
+            releases: Z,
+            stock: Z,
+            deficiency: Z,
+            consumption: Z,
+            consumer_payments: Z,
+            flags: [0; LANES],
+            live: [false; LANES],
+        }
+    }
+
+    /// Lane `l`'s clearing put back together.
+    #[inline(always)]
+    fn cleared(&self, l: usize) -> Cleared {
+        let price = self.price[l];
+        Cleared {
+            planted: self.planted[l],
+            harvest: self.harvest[l],
+            price,
+            producer_price: self.producer_price[l],
+            purchases: self.purchases[l],
+            releases: self.releases[l],
+            stock: self.stock[l],
+            deficiency: self.deficiency[l],
+            flags: self.flags[l],
+            trade: None,
+            traded: Traded {
+                price,
+                imports: 0.0,
+                exports: 0.0,
+            },
+        }
+    }
+}
+
+impl<'m> Phased<'m> {
+    /// True for the models whose every lane runs the same phases: a closed market, one
+    /// backward-looking expectation rule (not rational, no groups).
+    pub fn takes(model: &Model) -> bool {
+        model.trade.is_none()
+            && !model.is_rational
+            && model.rule.groups().is_none()
+            && !model.rule.is_rational()
+    }
+
+    fn new(model: &'m Model) -> Phased<'m> {
+        let keep = model.price_history.len();
+        let last = model.price_history[keep - 1];
+        let expect = match model.adaptive {
+            Some(a) => Expect::Adaptive(a),
+            None => Expect::Rule,
+        };
+        let ring = match expect {
+            Expect::Adaptive(_) => Vec::new(),
+            Expect::Rule => {
+                let mut ring = Vec::with_capacity(LANES * 2 * keep);
+                for _ in 0..LANES {
+                    ring.extend_from_slice(&model.price_history);
+                    ring.extend_from_slice(&model.price_history);
+                }
+                ring
+            }
+        };
+        Phased {
+            model,
+            expect,
+            period: 0,
+            previous: [0.0; LANES],
+            last_price: [last; LANES],
+            stock: [model.policy.agency.initial; LANES],
+            ring,
+            head: 0,
+            keep,
+            scratch: Scratch::new(),
+            wide: avx2(),
+        }
+    }
+
+    /// One period of every lane (see [`LaneStepper::step`]); the curves' forms chosen once.
+    fn step(&mut self, shocks: &[PeriodShock], out: &mut Columns, failed: &mut [Option<Diverged>]) {
+        let model = self.model;
+        match (model.demand, model.supply) {
+            (
+                Curve::Linear { intercept, slope },
+                Curve::Linear {
+                    intercept: c,
+                    slope: d,
+                },
+            ) => self.step_in(
+                &Linear { intercept, slope },
+                &Linear {
+                    intercept: c,
+                    slope: d,
+                },
+                shocks,
+                out,
+                failed,
+            ),
+            (Curve::Linear { intercept, slope }, s) => self.step_in(
+                &Linear { intercept, slope },
+                &elastic(s),
+                shocks,
+                out,
+                failed,
+            ),
+            (d, Curve::Linear { intercept, slope }) => self.step_in(
+                &elastic(d),
+                &Linear { intercept, slope },
+                shocks,
+                out,
+                failed,
+            ),
+            (d, s) => self.step_in(&elastic(d), &elastic(s), shocks, out, failed),
+        }
+    }
+
+    /// [`Phased::step`] on demand of form `D` and supply of form `S`. Each phase is a function of
+    /// its own, taking the model and the columns it reads and writes as arguments (so that the
+    /// compiler knows the columns apart from the model and vectorises the loops).
+    #[inline(always)]
+    fn step_in<D: Form, S: Form>(
+        &mut self,
+        demand: &D,
+        supply: &S,
+        shocks: &[PeriodShock],
+        out: &mut Columns,
+        failed: &mut [Option<Diverged>],
+    ) {
+        let model = self.model;
+        let n = shocks.len().min(failed.len()).min(LANES);
+        let (shocks, failed) = (&shocks[..n], &mut failed[..n]);
+        let t = self.period + 1;
+        let s = &mut self.scratch;
+        for (l, (shock, failed)) in shocks.iter().zip(failed.iter()).enumerate() {
+            s.yield_factor[l] = shock.yield_factor;
+            s.supply_shock[l] = shock.supply;
+            s.demand_shock[l] = shock.demand;
+            s.live[l] = failed.is_none();
+        }
+
+        // the expectation, the planting price, the stock carried in, the crop and the harvest
+        match self.expect {
+            Expect::Adaptive(a) => expect_adaptive(
+                &a,
+                t,
+                n,
+                &self.previous,
+                &self.last_price,
+                &mut s.expectation,
+            ),
+            Expect::Rule => expect_rule(
+                model,
+                t,
+                n,
+                &self.previous,
+                &self.ring[..],
+                self.head,
+                self.keep,
+                &mut s.expectation,
+            ),
+        }
+        let wide = self.wide;
+        if !plant_all(wide, model, supply, n, &self.stock, s) {
+            for l in 0..n {
+                if s.live[l] && !model.expectation_ok(s.planting[l]) {
+                    s.live[l] = false;
+                    failed[l] = Some(Diverged {
+                        period: t,
+                        reason: expected_price_failure(s.planting[l], model.price_bound),
+                    });
+                }
+            }
+        }
+
+        // the clearing: the policy's rules, lane by lane
+        clear_all(model, shocks, s);
+
+        // the checks: one combined test per lane, the messages only when one fails
+        if !check_all(wide, model, n, s) {
+            for l in 0..n {
+                let c = s.cleared(l);
+                if s.live[l] && !cleared_ok(&c, s.consumption[l], model.price_bound) {
+                    s.live[l] = false;
+                    failed[l] = Some(Diverged {
+                        period: t,
+                        reason: cleared_failure(
+                            &c,
+                            s.planting[l],
+                            s.consumption[l],
+                            model.price_bound,
+                        ),
+                    });
+                }
+            }
+        }
+
+        // the books, straight into the columns (a lane that failed writes values of no meaning)
+        book_all(wide, model, demand, supply, t, n, s, out);
+        if s.live[..n].iter().any(|&x| x) {
+            out.period = t;
+        }
+
+        // the state (a lane that failed is never read again)
+        settle_all(
+            wide,
+            model,
+            n,
+            s,
+            &mut self.previous,
+            &mut self.last_price,
+            &mut self.stock,
+        );
+        if let Expect::Rule = self.expect {
+            let (head, keep) = (self.head, self.keep);
+            for l in 0..n {
+                let ring = &mut self.ring[l * 2 * keep..(l + 1) * 2 * keep];
+                ring[head] = self.last_price[l];
+                ring[head + keep] = self.last_price[l];
+            }
+            self.head = if head + 1 == keep { 0 } else { head + 1 };
+        }
+        self.period = t;
+    }
+}
+
+/// Adaptive expectations of every lane for period `t` ([`Adaptive::next`]; no previous
+/// expectation before period 1, as `Simulator::advance`).
+#[inline(never)]
+fn expect_adaptive(
+    a: &Adaptive,
+    t: usize,
+    n: usize,
+    previous: &[f64; LANES],
+    last_price: &[f64; LANES],
+    into: &mut [f64; LANES],
+) {
+    let n = n.min(LANES);
+    if t == 1 {
+        for l in 0..n {
+            into[l] = a.next(None, last_price[l]);
+        }
+    } else {
+        for l in 0..n {
+            into[l] = a.next(Some(previous[l]), last_price[l]);
+        }
+    }
+}
+
+/// Any other backward-looking rule's expectation of every lane, through its trait object on the
+/// lane's history window.
+#[inline(never)]
+#[allow(clippy::too_many_arguments)]
+fn expect_rule(
+    model: &Model,
+    t: usize,
+    n: usize,
+    previous: &[f64; LANES],
+    ring: &[f64],
+    head: usize,
+    keep: usize,
+    into: &mut [f64; LANES],
+) {
+    for (l, into) in into[..n.min(LANES)].iter_mut().enumerate() {
+        let ring = &ring[l * 2 * keep..(l + 1) * 2 * keep];
+        *into = model.rule.expect(&ExpectationInput {
+            history: &ring[head..head + keep],
+            previous: (t > 1).then_some(previous[l]),
+            season: t,
+        });
+    }
+}
+
+/// The planting price, the stock carried in, the crop and the harvest of every lane; false when
+/// some lane still going has an expected price out of bounds.
+#[inline(never)]
+fn plant_all<S: Form>(
+    wide: bool,
+    model: &Model,
+    supply: &S,
+    n: usize,
+    stock: &[f64; LANES],
+    s: &mut Scratch,
+) -> bool {
+    #[cfg(target_arch = "x86_64")]
+    if wide {
+        // SAFETY: `wide` is true only when the CPU has AVX2 (`avx2()`)
+        return unsafe { plant_all_avx2(model, supply, n, stock, s) };
+    }
+    let _ = wide;
+    plant_all_in(model, supply, n, stock, s)
+}
+
+/// [`plant_all`] in AVX2.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+unsafe fn plant_all_avx2<S: Form>(
+    model: &Model,
+    supply: &S,
+    n: usize,
+    stock: &[f64; LANES],
+    s: &mut Scratch,
+) -> bool {
+    plant_all_in(model, supply, n, stock, s)
+}
+
+#[inline(always)]
+fn plant_all_in<S: Form>(
+    model: &Model,
+    supply: &S,
+    n: usize,
+    stock: &[f64; LANES],
+    s: &mut Scratch,
+) -> bool {
+    let n = n.min(LANES);
+    let agency = &model.policy.agency;
+    let mut all_ok = true;
+    for l in 0..n {
+        let planting = model.planting_price(s.expectation[l]);
+        s.planting[l] = planting;
+        s.carried[l] = agency.carried(stock[l]);
+        let (planted, harvest) = plant(supply, planting, s.yield_factor[l], s.supply_shock[l]);
+        s.planted[l] = planted;
+        s.harvest[l] = harvest;
+        all_ok &= model.expectation_ok(planting) | !s.live[l];
+    }
+    all_ok
+}
+
+/// The clearing of every lane still going: [`Model::clear_harvest`] (the policy's rules) and the
+/// payments to consumers.
+#[inline(never)]
+fn clear_all(model: &Model, shocks: &[PeriodShock], s: &mut Scratch) {
+    for (l, shock) in shocks.iter().enumerate().take(LANES) {
+        if !s.live[l] {
+            continue;
+        }
+        let c = model.clear_harvest(s.planted[l], s.harvest[l], shock, s.carried[l]);
+        let consumption = c.consumption();
+        s.price[l] = c.price;
+        s.producer_price[l] = c.producer_price;
+        s.purchases[l] = c.purchases;
+        s.releases[l] = c.releases;
+        s.stock[l] = c.stock;
+        s.deficiency[l] = c.deficiency;
+        s.flags[l] = c.flags;
+        s.consumption[l] = consumption;
+        s.consumer_payments[l] = if model.has_payments {
+            model.consumer_payments(c.price, consumption)
+        } else {
+            0.0
+        };
+    }
+}
+
+/// [`cleared_ok`] of every lane still going.
+#[inline(never)]
+fn check_all(wide: bool, model: &Model, n: usize, s: &Scratch) -> bool {
+    #[cfg(target_arch = "x86_64")]
+    if wide {
+        // SAFETY: `wide` is true only when the CPU has AVX2 (`avx2()`)
+        return unsafe { check_all_avx2(model, n, s) };
+    }
+    let _ = wide;
+    check_all_in(model, n, s)
+}
+
+/// [`check_all`] in AVX2.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+unsafe fn check_all_avx2(model: &Model, n: usize, s: &Scratch) -> bool {
+    check_all_in(model, n, s)
+}
+
+#[inline(always)]
+fn check_all_in(model: &Model, n: usize, s: &Scratch) -> bool {
+    let n = n.min(LANES);
+    let mut all_ok = true;
+    for l in 0..n {
+        all_ok &= cleared_ok(&s.cleared(l), s.consumption[l], model.price_bound) | !s.live[l];
+    }
+    all_ok
+}
+
+/// The books of every lane ([`PeriodRecord::book_in`]) written into `out`: the numbers in one
+/// loop, the flags and stock-outs in another (each loop keeps of the booking what it writes).
+#[inline(never)]
+#[allow(clippy::too_many_arguments)]
+fn book_all<D: Form, S: Form>(
+    wide: bool,
+    model: &Model,
+    demand: &D,
+    supply: &S,
+    t: usize,
+    n: usize,
+    s: &Scratch,
+    out: &mut Columns,
+) {
+    #[cfg(target_arch = "x86_64")]
+    if wide {
+        // SAFETY: `wide` is true only when the CPU has AVX2 (`avx2()`)
+        return unsafe { book_all_avx2(model, demand, supply, t, n, s, out) };
+    }
+    let _ = wide;
+    book_all_in(model, demand, supply, t, n, s, out)
+}
+
+/// [`book_all`] in AVX2.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+unsafe fn book_all_avx2<D: Form, S: Form>(
+    model: &Model,
+    demand: &D,
+    supply: &S,
+    t: usize,
+    n: usize,
+    s: &Scratch,
+    out: &mut Columns,
+) {
+    book_all_in(model, demand, supply, t, n, s, out)
+}
+
+#[inline(always)]
+fn book_all_in<D: Form, S: Form>(
+    model: &Model,
+    demand: &D,
+    supply: &S,
+    t: usize,
+    n: usize,
+    s: &Scratch,
+    out: &mut Columns,
+) {
+    let n = n.min(LANES);
+    for l in 0..n {
+        put_numbers(out, l, &book(model, demand, supply, t, s, l));
+    }
+    for l in 0..n {
+        let r = book(model, demand, supply, t, s, l);
+        out.flags[l] = r.flags;
+        out.stockout[l] = r.stockout;
+    }
+}
+
+/// Lane `l`'s books ([`Model::settled`], [`PeriodRecord::book_in`]).
+#[inline(always)]
+fn book<D: Form, S: Form>(
+    model: &Model,
+    demand: &D,
+    supply: &S,
+    t: usize,
+    s: &Scratch,
+    l: usize,
+) -> PeriodRecord {
+    PeriodRecord::book_in(
+        &model.settled(
+            t,
+            s.planting[l],
+            &s.cleared(l),
+            s.consumption[l],
+            s.consumer_payments[l],
+            s.carried[l],
+            s.demand_shock[l],
+        ),
+        &model.policy.agency,
+        demand,
+        supply,
+    )
+}
+
+/// The state every lane carries into the next period: the expectation, the stock, the price the
+/// rules read ([`Model::read_price`]).
+#[inline(never)]
+fn settle_all(
+    wide: bool,
+    model: &Model,
+    n: usize,
+    s: &Scratch,
+    previous: &mut [f64; LANES],
+    last_price: &mut [f64; LANES],
+    stock: &mut [f64; LANES],
+) {
+    #[cfg(target_arch = "x86_64")]
+    if wide {
+        // SAFETY: `wide` is true only when the CPU has AVX2 (`avx2()`)
+        return unsafe { settle_all_avx2(model, n, s, previous, last_price, stock) };
+    }
+    let _ = wide;
+    settle_all_in(model, n, s, previous, last_price, stock)
+}
+
+/// [`settle_all`] in AVX2.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+unsafe fn settle_all_avx2(
+    model: &Model,
+    n: usize,
+    s: &Scratch,
+    previous: &mut [f64; LANES],
+    last_price: &mut [f64; LANES],
+    stock: &mut [f64; LANES],
+) {
+    settle_all_in(model, n, s, previous, last_price, stock)
+}
+
+#[inline(always)]
+fn settle_all_in(
+    model: &Model,
+    n: usize,
+    s: &Scratch,
+    previous: &mut [f64; LANES],
+    last_price: &mut [f64; LANES],
+    stock: &mut [f64; LANES],
+) {
+    let n = n.min(LANES);
+    for l in 0..n {
+        previous[l] = s.expectation[l];
+        stock[l] = s.stock[l];
+        last_price[l] = model.read_price(s.producer_price[l], s.yield_factor[l]);
+    }
+}
+
+/// The CPU has AVX2 (looked up once per set of lanes; the vector phases then run their AVX2
+/// copies, compiled from the same functions: the same operations in the same order, no FMA).
+fn avx2() -> bool {
+    #[cfg(target_arch = "x86_64")]
+    {
+        std::arch::is_x86_feature_detected!("avx2")
+    }
+    #[cfg(not(target_arch = "x86_64"))]
+    {
+        false
+    }
+}
+
+/// A constant-elasticity curve's form (called only on one).
+#[inline]
+fn elastic(c: Curve) -> Elastic {
+    match c {
+        Curve::ConstantElasticity {
+            at_price,
+            at_quantity,
+            elasticity,
+        } => Elastic {
+            at_price,
+            at_quantity,
+            elasticity,
+        },
+        Curve::Linear { .. } => unreachable!("matched as linear before"),
+    }
+}
+
+/// Writes the numbers of a closed market's record `r` into lane `l` of `out` ([`Columns::set`]
+/// without the period, the flags and the trade, which the lanes write apart).
+#[inline(always)]
+fn put_numbers(out: &mut Columns, l: usize, r: &PeriodRecord) {
+    out.expected_price[l] = r.expected_price;
+    out.planted[l] = r.planted;
+    out.harvest[l] = r.harvest;
+    out.price[l] = r.price;
+    out.producer_price[l] = r.producer_price;
+    out.consumption[l] = r.consumption;
+    out.purchases[l] = r.purchases;
+    out.releases[l] = r.releases;
+    out.stock[l] = r.stock;
+    out.fiscal_cost[l] = r.fiscal_cost;
+    out.consumer_surplus[l] = r.consumer_surplus;
+    out.producer_surplus[l] = r.producer_surplus;
+    out.purchase_cost[l] = r.purchase_cost;
+    out.sales_revenue[l] = r.sales_revenue;
+    out.storage_cost[l] = r.storage_cost;
+    out.financing_cost[l] = r.financing_cost;
+    out.handling_cost[l] = r.handling_cost;
+    out.deficiency_payments[l] = r.deficiency_payments;
+    out.consumer_payments[l] = r.consumer_payments;
+    out.rotated[l] = r.rotated;
+}
