@@ -164,20 +164,25 @@ fn order_statistics<T: Copy>(
 /// [`order_key`], the key with its sign bit flipped; for an `f64`, that of its order key, so the
 /// order of `f64::total_cmp`). Two values with the same radix key have the same bits.
 trait RadixKey: Copy {
-    fn radix(self) -> u64;
+    /// The key's bits before the sign bit is flipped (which bits two keys share is the same).
+    fn bits(self) -> u64;
+    #[inline]
+    fn radix(self) -> u64 {
+        self.bits() ^ (1 << 63)
+    }
 }
 
 impl RadixKey for i64 {
     #[inline]
-    fn radix(self) -> u64 {
-        (self as u64) ^ (1 << 63)
+    fn bits(self) -> u64 {
+        self as u64
     }
 }
 
 impl RadixKey for f64 {
     #[inline]
-    fn radix(self) -> u64 {
-        order_key(self).radix()
+    fn bits(self) -> u64 {
+        order_key(self) as u64
     }
 }
 
@@ -185,42 +190,39 @@ impl RadixKey for f64 {
 /// longer ones by radix select ([`radix_order_statistics`]); measured by `benches/quantiles.rs`.
 const RADIX_FROM: usize = 512;
 
-/// The most bits a radix pass sorts on (2048 buckets).
-const RADIX_MAX_BITS: u32 = 11;
-
-/// The bits a radix pass over `n` values sorts on: about 8 values a bucket, 64 to 2048 buckets.
-#[inline]
-fn radix_bits(n: usize) -> u32 {
-    (usize::BITS - n.leading_zeros())
-        .saturating_sub(3)
-        .clamp(6, RADIX_MAX_BITS)
-}
+/// Lists at least this long are counted in 2048 buckets (11 bits), shorter ones in 256 (8 bits).
+const RADIX_WIDE_FROM: usize = 8192;
 
 /// One bucket a radix pass descends into: where its values start in the order of the whole list,
-/// how many there are, where they go in the scratch list, and which of the wanted ranks it holds.
+/// how many there are, where they go in the scratch list (and where the next one goes while they
+/// are gathered), and which of the wanted ranks it holds.
 struct Wanted {
     start: usize,
     len: usize,
     at: usize,
+    next: usize,
     ranks: std::ops::Range<usize>,
 }
 
 /// [`order_statistics`] (offset 0) by radix select on the values' [`RadixKey`]s: the bits shared by
-/// every value are skipped (an OR and an AND of all keys), the next few bits of each key give its
+/// every value are skipped (an OR and an AND of all keys), the next 8 or 11 bits of each key give its
 /// bucket, one pass counts the buckets, and one more gathers only the values of the buckets that hold
 /// a wanted rank; each of those is selected in the same way (all its values equal: done; short:
-/// nested selection). All the ranks share the passes. Exact: the same values as sorting.
-fn radix_order_statistics<T: RadixKey>(v: &mut [T], ranks: &[usize], out: &mut [T]) {
+/// nested selection). All the ranks share the passes. Exact: the same values as sorting. Rank r of
+/// `v` is rank `r + offset` of the whole list, as in [`order_statistics`].
+fn radix_order_statistics<T: RadixKey>(v: &mut [T], offset: usize, ranks: &[usize], out: &mut [T]) {
     if ranks.is_empty() {
         return;
     }
     // at most 255 buckets are wanted (a u8 tells them apart); u32 counts
     if v.len() < RADIX_FROM || ranks.len() > 255 || v.len() > u32::MAX as usize {
-        order_statistics(v, 0, ranks, out, &|a: &T, b: &T| a.radix().cmp(&b.radix()));
+        order_statistics(v, offset, ranks, out, &|a: &T, b: &T| {
+            a.radix().cmp(&b.radix())
+        });
         return;
     }
     let (all, any) = v.iter().fold((u64::MAX, 0_u64), |(all, any), x| {
-        let k = x.radix();
+        let k = x.bits();
         (all & k, any | k)
     });
     let differ = all ^ any;
@@ -230,21 +232,38 @@ fn radix_order_statistics<T: RadixKey>(v: &mut [T], ranks: &[usize], out: &mut [
         return;
     }
     let shift = differ.leading_zeros();
-    let bits = radix_bits(v.len());
-    let bucket = move |x: T| ((x.radix() << shift) >> (64 - bits)) as usize;
-    let mut counts = vec![0_u32; 1 << bits];
+    if v.len() < RADIX_WIDE_FROM {
+        radix_pass::<T, 8, 256>(v, shift, offset, ranks, out);
+    } else {
+        radix_pass::<T, 11, 2048>(v, shift, offset, ranks, out);
+    }
+}
+
+/// One pass of [`radix_order_statistics`] on `BITS` bits (`BUCKETS` = 2^`BITS` buckets) below the
+/// first `shift` bits, which every key of `v` shares.
+fn radix_pass<T: RadixKey, const BITS: u32, const BUCKETS: usize>(
+    v: &mut [T],
+    shift: u32,
+    offset: usize,
+    ranks: &[usize],
+    out: &mut [T],
+) {
+    // below 2^BITS, so indexing the arrays needs no check
+    let bucket = move |x: T| ((x.radix() << shift) >> (64 - BITS)) as usize;
+    let mut counts = [0_u32; BUCKETS];
     for &x in v.iter() {
         counts[bucket(x)] += 1;
     }
     // the buckets holding wanted ranks, in ascending order; slot[b] = 1 + its place among them
-    let mut slot = vec![0_u8; 1 << bits];
+    let mut slot = [0_u8; BUCKETS];
     let mut wanted: Vec<Wanted> = Vec::with_capacity(ranks.len());
-    let mut start = 0;
+    let mut start = offset;
     let mut r = 0;
+    let mut rank = ranks[0];
     let mut at = 0;
     for (b, &c) in counts.iter().enumerate() {
         let end = start + c as usize;
-        if ranks[r] < end {
+        if rank < end {
             let first = r;
             while r < ranks.len() && ranks[r] < end {
                 r += 1;
@@ -253,33 +272,32 @@ fn radix_order_statistics<T: RadixKey>(v: &mut [T], ranks: &[usize], out: &mut [
                 start,
                 len: c as usize,
                 at,
+                next: at,
                 ranks: first..r,
             });
             at += c as usize;
             slot[b] = wanted.len() as u8;
-            if r == ranks.len() {
-                break;
+            match ranks.get(r) {
+                Some(&next) => rank = next,
+                None => break,
             }
         }
         start = end;
     }
     let mut scratch = vec![v[0]; at];
-    let mut next: Vec<usize> = wanted.iter().map(|w| w.at).collect();
     for &x in v.iter() {
         let s = slot[bucket(x)];
         if s != 0 {
-            let p = &mut next[s as usize - 1];
-            scratch[*p] = x;
-            *p += 1;
+            let w = &mut wanted[s as usize - 1];
+            scratch[w.next] = x;
+            w.next += 1;
         }
     }
-    let mut sub_ranks: Vec<usize> = Vec::with_capacity(ranks.len());
     for w in &wanted {
-        sub_ranks.clear();
-        sub_ranks.extend(ranks[w.ranks.clone()].iter().map(|r| r - w.start));
         radix_order_statistics(
             &mut scratch[w.at..w.at + w.len],
-            &sub_ranks,
+            w.start,
+            &ranks[w.ranks.clone()],
             &mut out[w.ranks.clone()],
         );
     }
@@ -296,7 +314,7 @@ pub fn order_statistics_by_selection(keys: &mut [i64], ranks: &[usize], out: &mu
 /// [`order_statistics_by_selection`] by radix select (nested selection below 512 keys and in the
 /// short buckets it descends into). The same values.
 pub fn order_statistics_by_radix(keys: &mut [i64], ranks: &[usize], out: &mut [i64]) {
-    radix_order_statistics(keys, ranks, out);
+    radix_order_statistics(keys, 0, ranks, out);
 }
 
 /// Type 7 quantiles at `probs` (ascending) of `n` values whose order statistics `select` finds:
@@ -339,7 +357,7 @@ fn type7_from(n: usize, probs: &[f64], select: impl FnOnce(&[usize], &mut Vec<f6
 pub fn quantiles(values: &mut [f64], probs: &[f64]) -> Vec<f64> {
     type7_from(values.len(), probs, |ranks, out| {
         out.resize(ranks.len(), 0.0);
-        radix_order_statistics(values, ranks, out);
+        radix_order_statistics(values, 0, ranks, out);
     })
 }
 
@@ -372,12 +390,8 @@ pub fn quantiles_of_keys(keys: &mut [i64], zeros: usize, probs: &[f64]) -> Vec<f
         let in_lo = ranks.partition_point(|&r| r < below);
         let in_zeros = ranks.partition_point(|&r| r < below + zeros);
         let mut got = vec![0_i64; ranks.len()];
-        radix_order_statistics(lo, &ranks[..in_lo], &mut got[..in_lo]);
-        let hi_ranks: Vec<usize> = ranks[in_zeros..]
-            .iter()
-            .map(|r| r - below - zeros)
-            .collect();
-        radix_order_statistics(hi, &hi_ranks, &mut got[in_zeros..]);
+        radix_order_statistics(lo, 0, &ranks[..in_lo], &mut got[..in_lo]);
+        radix_order_statistics(hi, below + zeros, &ranks[in_zeros..], &mut got[in_zeros..]);
         // got[in_lo..in_zeros] stay 0: the key of +0
         out.extend(got.into_iter().map(from_order_key));
     })
@@ -482,7 +496,7 @@ mod tests {
             order_statistics_by_radix(&mut keys, &ranks, &mut got);
             let mut values = whole.clone();
             let mut got_values = vec![0.0; ranks.len()];
-            radix_order_statistics(&mut values, &ranks, &mut got_values);
+            radix_order_statistics(&mut values, 0, &ranks, &mut got_values);
             for ((r, k), v) in ranks.iter().zip(&got).zip(&got_values) {
                 assert_eq!(
                     from_order_key(*k).to_bits(),
