@@ -248,8 +248,11 @@ fn radix_pass<T: RadixKey, const BITS: u32, const BUCKETS: usize>(
     ranks: &[usize],
     out: &mut [T],
 ) {
-    // below 2^BITS, so indexing the arrays needs no check
-    let bucket = move |x: T| ((x.radix() << shift) >> (64 - BITS)) as usize;
+    // below 2^BITS, so indexing the arrays needs no check. The bucket is taken from the key's bits
+    // before the sign flip: below the shared prefix they are the same bits, except when the prefix
+    // is empty (keys of both signs), where the upper half of the buckets comes first in the order
+    let bucket = move |x: T| ((x.bits() << shift) >> (64 - BITS)) as usize;
+    let flip = if shift == 0 { BUCKETS / 2 } else { 0 };
     let mut counts = [0_u32; BUCKETS];
     for &x in v.iter() {
         counts[bucket(x)] += 1;
@@ -261,7 +264,10 @@ fn radix_pass<T: RadixKey, const BITS: u32, const BUCKETS: usize>(
     let mut r = 0;
     let mut rank = ranks[0];
     let mut at = 0;
-    for (b, &c) in counts.iter().enumerate() {
+    for i in 0..BUCKETS {
+        // the buckets in the order of their keys
+        let b = i ^ flip;
+        let c = counts[b];
         let end = start + c as usize;
         if rank < end {
             let first = r;
