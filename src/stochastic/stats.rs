@@ -2,7 +2,8 @@
 //!
 //! Quantiles are Hyndman and Fan's (1996) type 7 (linear interpolation between order statistics:
 //! h = (n − 1)·p, Q(p) = x₍⌊h⌋₎ + (h − ⌊h⌋)(x₍⌊h⌋+1₎ − x₍⌊h⌋₎), the default of R and NumPy). They are
-//! found by selection (O(n) per quantile), not by sorting.
+//! found by selection (O(n) for all the quantiles together), not by sorting: a radix select on the
+//! values' order keys for long lists, nested comparison selection for short ones.
 
 use serde::Serialize;
 
@@ -159,6 +160,169 @@ fn order_statistics<T: Copy>(
     );
 }
 
+/// A value selected by its radix key: a `u64` whose unsigned order is the value's order (for an
+/// [`order_key`], the key with its sign bit flipped; for an `f64`, that of its order key, so the
+/// order of `f64::total_cmp`). Two values with the same radix key have the same bits.
+trait RadixKey: Copy {
+    /// The key's bits before the sign bit is flipped (which bits two keys share is the same).
+    fn bits(self) -> u64;
+    #[inline]
+    fn radix(self) -> u64 {
+        self.bits() ^ (1 << 63)
+    }
+}
+
+impl RadixKey for i64 {
+    #[inline]
+    fn bits(self) -> u64 {
+        self as u64
+    }
+}
+
+impl RadixKey for f64 {
+    #[inline]
+    fn bits(self) -> u64 {
+        order_key(self) as u64
+    }
+}
+
+/// Lists shorter than this are selected by nested comparison selection ([`order_statistics`]),
+/// longer ones by radix select ([`radix_order_statistics`]); measured by `benches/quantiles.rs`.
+const RADIX_FROM: usize = 512;
+
+/// Lists at least this long are counted in 2048 buckets (11 bits), shorter ones in 256 (8 bits).
+const RADIX_WIDE_FROM: usize = 8192;
+
+/// One bucket a radix pass descends into: where its values start in the order of the whole list,
+/// how many there are, where they go in the scratch list (and where the next one goes while they
+/// are gathered), and which of the wanted ranks it holds.
+struct Wanted {
+    start: usize,
+    len: usize,
+    at: usize,
+    next: usize,
+    ranks: std::ops::Range<usize>,
+}
+
+/// [`order_statistics`] (offset 0) by radix select on the values' [`RadixKey`]s: the bits shared by
+/// every value are skipped (an OR and an AND of all keys), the next 8 or 11 bits of each key give its
+/// bucket, one pass counts the buckets, and one more gathers only the values of the buckets that hold
+/// a wanted rank; each of those is selected in the same way (all its values equal: done; short:
+/// nested selection). All the ranks share the passes. Exact: the same values as sorting. Rank r of
+/// `v` is rank `r + offset` of the whole list, as in [`order_statistics`].
+fn radix_order_statistics<T: RadixKey>(v: &mut [T], offset: usize, ranks: &[usize], out: &mut [T]) {
+    if ranks.is_empty() {
+        return;
+    }
+    // at most 255 buckets are wanted (a u8 tells them apart); u32 counts
+    if v.len() < RADIX_FROM || ranks.len() > 255 || v.len() > u32::MAX as usize {
+        order_statistics(v, offset, ranks, out, &|a: &T, b: &T| {
+            a.radix().cmp(&b.radix())
+        });
+        return;
+    }
+    let (all, any) = v.iter().fold((u64::MAX, 0_u64), |(all, any), x| {
+        let k = x.bits();
+        (all & k, any | k)
+    });
+    let differ = all ^ any;
+    if differ == 0 {
+        // every value the same bits
+        out.fill(v[0]);
+        return;
+    }
+    let shift = differ.leading_zeros();
+    if v.len() < RADIX_WIDE_FROM {
+        radix_pass::<T, 8, 256>(v, shift, offset, ranks, out);
+    } else {
+        radix_pass::<T, 11, 2048>(v, shift, offset, ranks, out);
+    }
+}
+
+/// One pass of [`radix_order_statistics`] on `BITS` bits (`BUCKETS` = 2^`BITS` buckets) below the
+/// first `shift` bits, which every key of `v` shares.
+fn radix_pass<T: RadixKey, const BITS: u32, const BUCKETS: usize>(
+    v: &mut [T],
+    shift: u32,
+    offset: usize,
+    ranks: &[usize],
+    out: &mut [T],
+) {
+    // below 2^BITS, so indexing the arrays needs no check. The bucket is taken from the key's bits
+    // before the sign flip: below the shared prefix they are the same bits, except when the prefix
+    // is empty (keys of both signs), where the upper half of the buckets comes first in the order
+    let bucket = move |x: T| ((x.bits() << shift) >> (64 - BITS)) as usize;
+    let flip = if shift == 0 { BUCKETS / 2 } else { 0 };
+    let mut counts = [0_u32; BUCKETS];
+    for &x in v.iter() {
+        counts[bucket(x)] += 1;
+    }
+    // the buckets holding wanted ranks, in ascending order; slot[b] = 1 + its place among them
+    let mut slot = [0_u8; BUCKETS];
+    let mut wanted: Vec<Wanted> = Vec::with_capacity(ranks.len());
+    let mut start = offset;
+    let mut r = 0;
+    let mut rank = ranks[0];
+    let mut at = 0;
+    for i in 0..BUCKETS {
+        // the buckets in the order of their keys
+        let b = i ^ flip;
+        let c = counts[b];
+        let end = start + c as usize;
+        if rank < end {
+            let first = r;
+            while r < ranks.len() && ranks[r] < end {
+                r += 1;
+            }
+            wanted.push(Wanted {
+                start,
+                len: c as usize,
+                at,
+                next: at,
+                ranks: first..r,
+            });
+            at += c as usize;
+            slot[b] = wanted.len() as u8;
+            match ranks.get(r) {
+                Some(&next) => rank = next,
+                None => break,
+            }
+        }
+        start = end;
+    }
+    let mut scratch = vec![v[0]; at];
+    for &x in v.iter() {
+        let s = slot[bucket(x)];
+        if s != 0 {
+            let w = &mut wanted[s as usize - 1];
+            scratch[w.next] = x;
+            w.next += 1;
+        }
+    }
+    for w in &wanted {
+        radix_order_statistics(
+            &mut scratch[w.at..w.at + w.len],
+            w.start,
+            &ranks[w.ranks.clone()],
+            &mut out[w.ranks.clone()],
+        );
+    }
+}
+
+/// The order statistics of the order keys `keys` (reordered) at the 0-based ranks `ranks`
+/// (ascending, distinct, each below `keys.len()`), into `out`, by nested comparison selection
+/// (`select_nth_unstable`). The same values as [`order_statistics_by_radix`] and as sorting; kept
+/// public so that the two can be measured against each other (`benches/quantiles.rs`).
+pub fn order_statistics_by_selection(keys: &mut [i64], ranks: &[usize], out: &mut [i64]) {
+    order_statistics(keys, 0, ranks, out, &|a: &i64, b: &i64| a.cmp(b));
+}
+
+/// [`order_statistics_by_selection`] by radix select (nested selection below 512 keys and in the
+/// short buckets it descends into). The same values.
+pub fn order_statistics_by_radix(keys: &mut [i64], ranks: &[usize], out: &mut [i64]) {
+    radix_order_statistics(keys, 0, ranks, out);
+}
+
 /// Type 7 quantiles at `probs` (ascending) of `n` values whose order statistics `select` finds:
 /// handed the ascending distinct ranks the quantiles read, it returns those order statistics in
 /// that order, as numbers.
@@ -199,7 +363,7 @@ fn type7_from(n: usize, probs: &[f64], select: impl FnOnce(&[usize], &mut Vec<f6
 pub fn quantiles(values: &mut [f64], probs: &[f64]) -> Vec<f64> {
     type7_from(values.len(), probs, |ranks, out| {
         out.resize(ranks.len(), 0.0);
-        order_statistics(values, 0, ranks, out, &f64::total_cmp);
+        radix_order_statistics(values, 0, ranks, out);
     })
 }
 
@@ -232,13 +396,8 @@ pub fn quantiles_of_keys(keys: &mut [i64], zeros: usize, probs: &[f64]) -> Vec<f
         let in_lo = ranks.partition_point(|&r| r < below);
         let in_zeros = ranks.partition_point(|&r| r < below + zeros);
         let mut got = vec![0_i64; ranks.len()];
-        let cmp = |a: &i64, b: &i64| a.cmp(b);
-        order_statistics(lo, 0, &ranks[..in_lo], &mut got[..in_lo], &cmp);
-        let hi_ranks: Vec<usize> = ranks[in_zeros..]
-            .iter()
-            .map(|r| r - below - zeros)
-            .collect();
-        order_statistics(hi, 0, &hi_ranks, &mut got[in_zeros..], &cmp);
+        radix_order_statistics(lo, 0, &ranks[..in_lo], &mut got[..in_lo]);
+        radix_order_statistics(hi, below + zeros, &ranks[in_zeros..], &mut got[in_zeros..]);
         // got[in_lo..in_zeros] stay 0: the key of +0
         out.extend(got.into_iter().map(from_order_key));
     })
@@ -306,6 +465,21 @@ mod tests {
                 })
                 .collect(),
             vec![5.5; 1000],
+            // long lists: radix select descends more than once; a column mostly of one value
+            (0..100_000)
+                .map(|_| 200.0 + 40.0 * (next() - 0.5))
+                .collect(),
+            (0..20_000)
+                .map(|i| if i % 10 < 8 { 0.0 } else { next() })
+                .collect(),
+            (0..20_000)
+                .map(|i| match i % 4 {
+                    0 => -0.0,
+                    1 => 0.0,
+                    2 => f64::INFINITY,
+                    _ => -next(),
+                })
+                .collect(),
         ];
         for whole in lists {
             let mut sorted = whole.clone();
@@ -321,6 +495,21 @@ mod tests {
                     sorted[*r].to_bits(),
                     "rank {r}"
                 );
+            }
+            // radix select, on the keys and on the values themselves
+            let mut keys: Vec<i64> = whole.iter().map(|&v| order_key(v)).collect();
+            let mut got = vec![0; ranks.len()];
+            order_statistics_by_radix(&mut keys, &ranks, &mut got);
+            let mut values = whole.clone();
+            let mut got_values = vec![0.0; ranks.len()];
+            radix_order_statistics(&mut values, 0, &ranks, &mut got_values);
+            for ((r, k), v) in ranks.iter().zip(&got).zip(&got_values) {
+                assert_eq!(
+                    from_order_key(*k).to_bits(),
+                    sorted[*r].to_bits(),
+                    "rank {r}"
+                );
+                assert_eq!(v.to_bits(), sorted[*r].to_bits(), "rank {r}");
             }
             let probs = [0.0, 0.05, 0.5, 0.95, 1.0];
             let mut keys: Vec<i64> = whole.iter().map(|&v| order_key(v)).collect();
