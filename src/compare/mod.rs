@@ -391,7 +391,9 @@ pub fn compare_with_households(
             },
         }
     };
+    // the columns are independent of one another: built in parallel, kept in order
     let behaviour = (1..rules.len())
+        .into_par_iter()
         .map(|i| {
             let mut c = column(&specs[i], i, 0);
             c.name = format!(
@@ -405,6 +407,7 @@ pub fn compare_with_households(
     let lambda = scenario.run.public_funds_cost;
     // each policy's net welfare change replication by replication, read once
     let nets: Vec<Vec<f64>> = (0..policies.len())
+        .into_par_iter()
         .map(|k| {
             let (slot, base) = (slots[k], baseline_of[k]);
             mc.policies[slot]
@@ -436,6 +439,16 @@ pub fn compare_with_households(
             }
         }
     }
+    let (baseline, columns) = rayon::join(
+        || column(&specs[0], 0, 0),
+        || {
+            policies
+                .par_iter()
+                .enumerate()
+                .map(|(k, p)| column(p, slots[k], baseline_of[k]))
+                .collect()
+        },
+    );
     let result = CompareResult {
         market: scenario.market.name.clone(),
         price_unit: scenario.market.price_unit.clone(),
@@ -446,12 +459,8 @@ pub fn compare_with_households(
         discount_rate: scenario.run.discount_rate,
         risk_aversion: scenario.run.risk_aversion,
         public_funds_cost: lambda,
-        baseline: column(&specs[0], 0, 0),
-        policies: policies
-            .iter()
-            .enumerate()
-            .map(|(k, p)| column(p, slots[k], baseline_of[k]))
-            .collect(),
+        baseline,
+        policies: columns,
         behaviour,
         close_calls,
     };

@@ -7,7 +7,7 @@
 //! chunk (the estimate takes this worst case; a policy that never buys, pays or stocks holds far
 //! less); one `f64` of scratch while the quantiles of a present value are selected; the per-period
 //! sums of the fiscal cost, income, its CRRA transform and each kept series only for the chunks of
-//! one wave in flight ([`WAVE`] chunks: they are merged in chunk order as each wave ends); the
+//! two waves in flight ([`WAVE`] chunks each: a wave is merged in chunk order while the next runs); the
 //! per-period values kept for fan-chart quantiles, capped at [`SERIES_BUDGET_BYTES`] in all; the
 //! season outlays kept for pooled quantiles, capped at [`SEASON_BUDGET_BYTES`] in all (outlays of
 //! exactly 0 are counted, not kept, so the cap is the worst case); and the program itself
@@ -57,11 +57,11 @@ pub fn bytes_per_replication_per_column() -> u64 {
 /// A chunk's block of one value: its header (an enum around a boxed slice).
 const BLOCK_HEADER_BYTES: u64 = 24;
 
-/// Bytes of the per-period sums of one wave in flight: per chunk and column, the fiscal cost,
+/// Bytes of the per-period sums of the two waves in flight: per chunk and column, the fiscal cost,
 /// income, its CRRA transform and each kept series.
 pub fn wave_bytes(periods: usize, columns: usize, series: usize) -> u64 {
     let per_chunk = 8 * periods as u64 * (3 + series as u64);
-    per_chunk * WAVE as u64 * columns as u64
+    per_chunk * 2 * WAVE as u64 * columns as u64
 }
 
 /// The estimate for `replications` × `periods` with `columns` columns and `series` kept series.

@@ -1111,9 +1111,9 @@ struct ChunkPolicy {
     season_buf: Vec<f64>,
 }
 
-/// Chunks run in parallel at a time: their results are merged in chunk order before the next
-/// wave starts, so the sums never wait in memory for the whole run (any wave size gives the same
-/// bits: the merge order is the chunk order).
+/// Chunks run in parallel at a time: their results are merged in chunk order while the next wave
+/// runs (so at most two waves' results are in memory, never the whole run's; any wave size gives
+/// the same bits: the merge order is the chunk order).
 pub const WAVE: usize = 128;
 
 /// One model's results merged over the chunks so far, in chunk order.
@@ -1301,25 +1301,28 @@ fn run_with_budget<M: PathModel>(
         progress,
     };
     let planned_outlays = season_reps.min(reps) * periods;
-    let mut merged: Vec<Merged> = models
-        .iter()
-        .map(|_| Merged::new(periods, series.len(), planned_outlays))
-        .collect();
-    let mut paired = vec![PairedChanges::default(); pairs.len()];
-    let mut season_prices: Vec<SeasonPrices> = if pairs.is_empty() {
-        Vec::new()
-    } else {
-        (0..models.len())
-            .map(|_| SeasonPrices {
-                reference: scenario.steady.price,
-                n: 0,
-                sums: vec![[0.0; 5]; periods],
-            })
-            .collect()
+    let mut acc = Accumulated {
+        merged: models
+            .iter()
+            .map(|_| Merged::new(periods, series.len(), planned_outlays))
+            .collect(),
+        paired: vec![PairedChanges::default(); pairs.len()],
+        season_prices: if pairs.is_empty() {
+            Vec::new()
+        } else {
+            (0..models.len())
+                .map(|_| SeasonPrices {
+                    reference: scenario.steady.price,
+                    n: 0,
+                    sums: vec![[0.0; 5]; periods],
+                })
+                .collect()
+        },
     };
-    // waves of chunks run in parallel; each wave's results are merged in chunk order
-    for wave in (0..chunks).step_by(WAVE) {
-        let outcomes: Vec<Option<ChunkOutcome>> = (wave..(wave + WAVE).min(chunks))
+    // waves of chunks run in parallel; each wave's results are merged in chunk order while the
+    // next wave runs (rayon::join: the merging thread takes chunks again when it is done)
+    let wave_of = |wave: usize| -> Vec<Option<ChunkOutcome>> {
+        (wave..(wave + WAVE).min(chunks))
             .into_par_iter()
             .map(|c| {
                 if first_failure.load(Ordering::Relaxed) < c {
@@ -1331,30 +1334,21 @@ fn run_with_budget<M: PathModel>(
                 }
                 Some(out)
             })
-            .collect();
-        for o in outcomes {
-            match o {
-                Some(Ok((v, p))) => {
-                    for (a, b) in paired.iter_mut().zip(&p) {
-                        a.merge(b);
-                    }
-                    for (acc, c) in season_prices.iter_mut().zip(&v) {
-                        acc.n += c.n;
-                        for (a, b) in acc.sums.iter_mut().zip(&c.season) {
-                            for i in 0..5 {
-                                a[i] += b[i];
-                            }
-                        }
-                    }
-                    for (m, c) in merged.iter_mut().zip(v) {
-                        m.merge(c);
-                    }
-                }
-                Some(Err(e)) => return Err(e),
-                None => unreachable!("a chunk is skipped only after an earlier chunk failed"),
-            }
-        }
+            .collect()
+    };
+    let mut pending: Vec<Option<ChunkOutcome>> = Vec::new();
+    for wave in (0..chunks).step_by(WAVE) {
+        let last = std::mem::take(&mut pending);
+        let (outcomes, merged_last) = rayon::join(|| wave_of(wave), || acc.merge_wave(last));
+        merged_last?;
+        pending = outcomes;
     }
+    acc.merge_wave(pending)?;
+    let Accumulated {
+        merged,
+        paired,
+        season_prices,
+    } = acc;
     let policies = merged
         .into_iter()
         .enumerate()
@@ -1367,6 +1361,53 @@ fn run_with_budget<M: PathModel>(
         paired,
         season_prices,
     })
+}
+
+/// Every model's results merged over the waves so far, in chunk order.
+struct Accumulated {
+    merged: Vec<Merged>,
+    paired: Vec<PairedChanges>,
+    season_prices: Vec<SeasonPrices>,
+}
+
+impl Accumulated {
+    /// Adds a wave's chunk results in chunk order; the first failed chunk's error, if any. The
+    /// models are merged in parallel, each over the chunks in order (the same additions in the
+    /// same order as one model after another).
+    fn merge_wave(&mut self, outcomes: Vec<Option<ChunkOutcome>>) -> Result<(), ReplicationFailed> {
+        let mut per_model: Vec<Vec<ChunkPolicy>> = self
+            .merged
+            .iter()
+            .map(|_| Vec::with_capacity(outcomes.len()))
+            .collect();
+        for o in outcomes {
+            match o {
+                Some(Ok((v, p))) => {
+                    for (a, b) in self.paired.iter_mut().zip(&p) {
+                        a.merge(b);
+                    }
+                    for (acc, c) in self.season_prices.iter_mut().zip(&v) {
+                        acc.n += c.n;
+                        for (a, b) in acc.sums.iter_mut().zip(&c.season) {
+                            for i in 0..5 {
+                                a[i] += b[i];
+                            }
+                        }
+                    }
+                    for (list, c) in per_model.iter_mut().zip(v) {
+                        list.push(c);
+                    }
+                }
+                Some(Err(e)) => return Err(e),
+                None => unreachable!("a chunk is skipped only after an earlier chunk failed"),
+            }
+        }
+        self.merged
+            .par_iter_mut()
+            .zip(per_model)
+            .for_each(|(m, chunks)| chunks.into_iter().for_each(|c| m.merge(c)));
+        Ok(())
+    }
 }
 
 struct Context<'a, M> {
