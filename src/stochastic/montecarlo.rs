@@ -1320,7 +1320,8 @@ fn run_with_budget<M: PathModel>(
         },
     };
     // waves of chunks run in parallel; each wave's results are merged in chunk order while the
-    // next wave runs (rayon::join: the merging thread takes chunks again when it is done)
+    // next wave runs (rayon::join: the merging thread takes chunks again when it is done; the merge
+    // is join's first task, so one thread merges before it runs the next wave and holds one wave)
     let wave_of = |wave: usize| -> Vec<Option<ChunkOutcome>> {
         (wave..(wave + WAVE).min(chunks))
             .into_par_iter()
@@ -1339,7 +1340,7 @@ fn run_with_budget<M: PathModel>(
     let mut pending: Vec<Option<ChunkOutcome>> = Vec::new();
     for wave in (0..chunks).step_by(WAVE) {
         let last = std::mem::take(&mut pending);
-        let (outcomes, merged_last) = rayon::join(|| wave_of(wave), || acc.merge_wave(last));
+        let (merged_last, outcomes) = rayon::join(|| acc.merge_wave(last), || wave_of(wave));
         merged_last?;
         pending = outcomes;
     }
