@@ -9,6 +9,17 @@
 
 use serde::Serialize;
 
+/// `on_form!(curve, f => expr)`: `expr` with `f` bound to the curve's form, whichever it is (the
+/// one dispatch of [`Curve`]'s methods that run on both forms).
+macro_rules! on_form {
+    ($curve:expr, $f:ident => $e:expr) => {
+        match $curve.form() {
+            Forms::Linear($f) => $e,
+            Forms::Elastic($f) => $e,
+        }
+    };
+}
+
 /// A price–quantity schedule.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 #[serde(tag = "form", rename_all = "kebab-case")]
@@ -41,22 +52,27 @@ impl Curve {
         }
     }
 
-    /// Quantity at price `p` (never negative).
+    /// This curve's form, as the type that holds its arithmetic.
     #[inline]
-    pub fn quantity(&self, p: f64) -> f64 {
+    pub fn form(&self) -> Forms {
         match *self {
-            Curve::Linear { intercept, slope } => Linear { intercept, slope }.quantity(p),
+            Curve::Linear { intercept, slope } => Forms::Linear(Linear { intercept, slope }),
             Curve::ConstantElasticity {
                 at_price,
                 at_quantity,
                 elasticity,
-            } => Elastic {
+            } => Forms::Elastic(Elastic {
                 at_price,
                 at_quantity,
                 elasticity,
-            }
-            .quantity(p),
+            }),
         }
+    }
+
+    /// Quantity at price `p` (never negative).
+    #[inline]
+    pub fn quantity(&self, p: f64) -> f64 {
+        on_form!(self, f => f.quantity(p))
     }
 
     /// Quantity at price `p` without the clamp at zero (linear curves extend below the axis). Used for
@@ -73,19 +89,7 @@ impl Curve {
     /// (the result may be ≤ 0); constant elasticity gives +∞ or 0 at `q = 0`.
     #[inline]
     pub fn price_at(&self, q: f64) -> f64 {
-        match *self {
-            Curve::Linear { intercept, slope } => Linear { intercept, slope }.price_at(q),
-            Curve::ConstantElasticity {
-                at_price,
-                at_quantity,
-                elasticity,
-            } => Elastic {
-                at_price,
-                at_quantity,
-                elasticity,
-            }
-            .price_at(q),
-        }
+        on_form!(self, f => f.price_at(q))
     }
 
     /// dQ/dP at price `p`.
@@ -176,6 +180,15 @@ impl Curve {
     pub fn is_linear(&self) -> bool {
         matches!(self, Curve::Linear { .. })
     }
+}
+
+/// A [`Curve`]'s form as a value of its own type ([`Curve::form`]): what the curve dispatches to.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Forms {
+    /// A linear curve.
+    Linear(Linear),
+    /// A constant-elasticity curve.
+    Elastic(Elastic),
 }
 
 /// The arithmetic of one functional form, written once: [`Linear`] and [`Elastic`] hold it, and
@@ -334,38 +347,12 @@ impl Form for Curve {
 
     #[inline]
     fn consumer_surplus(&self, p: f64, shift: f64) -> f64 {
-        match *self {
-            Curve::Linear { intercept, slope } => {
-                Linear { intercept, slope }.consumer_surplus(p, shift)
-            }
-            Curve::ConstantElasticity {
-                at_price,
-                at_quantity,
-                elasticity,
-            } => Elastic {
-                at_price,
-                at_quantity,
-                elasticity,
-            }
-            .consumer_surplus(p, shift),
-        }
+        on_form!(self, f => f.consumer_surplus(p, shift))
     }
 
     #[inline]
     fn production_cost(&self, q: f64) -> f64 {
-        match *self {
-            Curve::Linear { intercept, slope } => Linear { intercept, slope }.production_cost(q),
-            Curve::ConstantElasticity {
-                at_price,
-                at_quantity,
-                elasticity,
-            } => Elastic {
-                at_price,
-                at_quantity,
-                elasticity,
-            }
-            .production_cost(q),
-        }
+        on_form!(self, f => f.production_cost(q))
     }
 }
 

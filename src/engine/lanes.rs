@@ -28,12 +28,12 @@
 // the phases index several columns by lane in one loop, on purpose
 #![allow(clippy::needless_range_loop)]
 
-use super::columns::{Columns, EachLane, LaneStepper, LANES};
+use super::columns::{avx2, Columns, EachLane, LaneStepper, LANES};
 use super::{
     cleared_failure, cleared_ok, expected_price_failure, plant, Cleared, Diverged, Model,
     PeriodRecord, PeriodShock, Simulator,
 };
-use crate::curves::{Curve, Elastic, Form, Linear};
+use crate::curves::{Form, Forms};
 use crate::expectations::{Adaptive, ExpectationInput};
 use crate::trade::Traded;
 
@@ -250,38 +250,11 @@ impl<'m> Phased<'m> {
     /// One period of every lane (see [`LaneStepper::step`]); the curves' forms chosen once.
     fn step(&mut self, shocks: &[PeriodShock], out: &mut Columns, failed: &mut [Option<Diverged>]) {
         let model = self.model;
-        match (model.demand, model.supply) {
-            (
-                Curve::Linear { intercept, slope },
-                Curve::Linear {
-                    intercept: c,
-                    slope: d,
-                },
-            ) => self.step_in(
-                &Linear { intercept, slope },
-                &Linear {
-                    intercept: c,
-                    slope: d,
-                },
-                shocks,
-                out,
-                failed,
-            ),
-            (Curve::Linear { intercept, slope }, s) => self.step_in(
-                &Linear { intercept, slope },
-                &elastic(s),
-                shocks,
-                out,
-                failed,
-            ),
-            (d, Curve::Linear { intercept, slope }) => self.step_in(
-                &elastic(d),
-                &Linear { intercept, slope },
-                shocks,
-                out,
-                failed,
-            ),
-            (d, s) => self.step_in(&elastic(d), &elastic(s), shocks, out, failed),
+        match (model.demand.form(), model.supply.form()) {
+            (Forms::Linear(d), Forms::Linear(s)) => self.step_in(&d, &s, shocks, out, failed),
+            (Forms::Linear(d), Forms::Elastic(s)) => self.step_in(&d, &s, shocks, out, failed),
+            (Forms::Elastic(d), Forms::Linear(s)) => self.step_in(&d, &s, shocks, out, failed),
+            (Forms::Elastic(d), Forms::Elastic(s)) => self.step_in(&d, &s, shocks, out, failed),
         }
     }
 
@@ -686,36 +659,6 @@ fn settle_all_in(
         previous[l] = s.expectation[l];
         stock[l] = s.stock[l];
         last_price[l] = model.read_price(s.producer_price[l], s.yield_factor[l]);
-    }
-}
-
-/// The CPU has AVX2 (looked up once per set of lanes; the vector phases then run their AVX2
-/// copies, compiled from the same functions: the same operations in the same order, no FMA).
-fn avx2() -> bool {
-    #[cfg(target_arch = "x86_64")]
-    {
-        std::arch::is_x86_feature_detected!("avx2")
-    }
-    #[cfg(not(target_arch = "x86_64"))]
-    {
-        false
-    }
-}
-
-/// A constant-elasticity curve's form (called only on one).
-#[inline]
-fn elastic(c: Curve) -> Elastic {
-    match c {
-        Curve::ConstantElasticity {
-            at_price,
-            at_quantity,
-            elasticity,
-        } => Elastic {
-            at_price,
-            at_quantity,
-            elasticity,
-        },
-        Curve::Linear { .. } => unreachable!("matched as linear before"),
     }
 }
 
