@@ -18,7 +18,7 @@ mod record;
 pub use columns::{Columns, EachLane, LaneStepper, LANES};
 pub use lanes::ModelLanes;
 pub use path::{each_lane, PathModel, Stepper};
-pub use record::{PeriodRecord, Settled, TradeRecord};
+pub use record::{floor_binding, PeriodRecord, Settled, TradeRecord};
 
 use crate::curves::{Curve, Form};
 use crate::expectations::{self, ExpectationInput, ExpectationRule};

@@ -142,7 +142,7 @@ impl PeriodRecord {
 
     /// The agency bought or a deficiency payment was made.
     pub fn floor_binding(&self) -> bool {
-        self.purchases > 0.0 || self.deficiency_payments > 0.0
+        floor_binding(self.purchases, self.deficiency_payments)
     }
 
     /// The "acted" column.
@@ -264,4 +264,11 @@ impl PeriodRecord {
             trade: None,
         }
     }
+}
+
+/// [`PeriodRecord::floor_binding`] from a record's purchases and deficiency payments (the one rule;
+/// the Monte Carlo's fold reads it off the columns).
+#[inline(always)]
+pub fn floor_binding(purchases: f64, deficiency_payments: f64) -> bool {
+    purchases > 0.0 || deficiency_payments > 0.0
 }

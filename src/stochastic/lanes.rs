@@ -13,7 +13,7 @@
 // the lane loops index several arrays by the same lane, over every lane
 #![allow(clippy::needless_range_loop)]
 
-use crate::engine::{Columns, LANES};
+use crate::engine::{floor_binding, Columns, LANES};
 use crate::policies::flags;
 use crate::scenario::MAX_ALERTS;
 use crate::welfare::{discounted_trade, finish_pv, revenue_of, Crra, PeriodItems, PERIOD_ITEMS};
@@ -67,25 +67,6 @@ impl LaneSums {
             sum_sq: self.sum_sq[lane],
         }
     }
-}
-
-/// Whether the machine runs AVX2 (checked once per fold; std caches the answer).
-fn has_avx2() -> bool {
-    #[cfg(target_arch = "x86_64")]
-    {
-        std::arch::is_x86_feature_detected!("avx2")
-    }
-    #[cfg(not(target_arch = "x86_64"))]
-    {
-        false
-    }
-}
-
-/// Whether the agency bought or a deficiency payment was made (`PeriodRecord::floor_binding` of
-/// the lane's record; the engine keeps that rule, this reads it off the columns).
-#[inline(always)]
-fn floor_binding(purchases: f64, deficiency_payments: f64) -> bool {
-    purchases > 0.0 || deficiency_payments > 0.0
 }
 
 /// The replications of one model in a chunk, folded period by period over the lanes.
@@ -162,7 +143,7 @@ impl LaneFold {
             income: ZERO,
             transform: ZERO,
             crra: Crra::new(watch.risk_aversion),
-            avx2: has_avx2(),
+            avx2: crate::engine::columns::avx2(),
         }
     }
 
@@ -466,7 +447,7 @@ mod tests {
         watch.annual_budget = 40.0;
         let mut plain = LaneFold::new(&watch, 80.0, 40.0);
         let mut wide = plain.clone();
-        wide.avx2 = has_avx2();
+        wide.avx2 = crate::engine::columns::avx2();
         plain.avx2 = false;
         let mut c = Columns {
             trades: true,
@@ -500,17 +481,6 @@ mod tests {
             let (a, b) = (plain.finish(l, &c, &watch), wide.finish(l, &c, &watch));
             // Debug shows every value's bits that matter here (the sign of a zero included)
             assert_eq!(format!("{a:?}"), format!("{b:?}"), "lane {l}");
-        }
-    }
-
-    #[test]
-    fn floor_binding_read_off_the_columns_is_the_records() {
-        for (purchases, deficiency) in [(0.0, 0.0), (1.0, 0.0), (0.0, 2.0), (-0.0, 0.0), (3.0, 4.0)]
-        {
-            let mut r = Columns::default().record(0);
-            r.purchases = purchases;
-            r.deficiency_payments = deficiency;
-            assert_eq!(floor_binding(purchases, deficiency), r.floor_binding());
         }
     }
 }
