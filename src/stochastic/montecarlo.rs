@@ -1364,6 +1364,61 @@ fn run_with_budget<M: PathModel>(
     })
 }
 
+/// One model's period over the lanes of a chunk: what its per-period sums add, lane by lane.
+struct PeriodSums<'c> {
+    fiscal: &'c [f64],
+    income: &'c [f64],
+    transform: &'c [f64],
+}
+
+impl PeriodSums<'_> {
+    /// Adds the period's fiscal costs, incomes and CRRA transforms to `sums` and the `K` kept
+    /// series to `series_sums`, each sum over the lanes in lane order (the bits of adding the
+    /// replications one after another) but all the sums in one loop, so their chains of additions
+    /// overlap instead of waiting on one another.
+    #[inline(always)]
+    fn add<const K: usize>(
+        &self,
+        sums: &mut [f64; 3],
+        cols: &Columns,
+        series: &[PathVariable],
+        series_sums: &mut [f64],
+    ) {
+        let n = self.fiscal.len();
+        let xs: [&[f64]; K] = std::array::from_fn(|j| &series[j].column(cols)[..n]);
+        let mut s: [f64; K] = std::array::from_fn(|j| series_sums[j]);
+        let (fiscal, income, transform) =
+            (&self.fiscal[..n], &self.income[..n], &self.transform[..n]);
+        let [mut a, mut b, mut c] = *sums;
+        for l in 0..n {
+            a += fiscal[l];
+            b += income[l];
+            c += transform[l];
+            for j in 0..K {
+                s[j] += xs[j][l];
+            }
+        }
+        *sums = [a, b, c];
+        series_sums.copy_from_slice(&s);
+    }
+
+    /// [`PeriodSums::add`] for any number of kept series (one loop per series).
+    fn add_any(
+        &self,
+        sums: &mut [f64; 3],
+        cols: &Columns,
+        series: &[PathVariable],
+        series_sums: &mut [f64],
+    ) {
+        self.add::<0>(sums, cols, &[], &mut []);
+        for (which, sum) in series.iter().zip(series_sums) {
+            for v in &which.column(cols)[..self.fiscal.len()] {
+                *sum += v;
+            }
+        }
+    }
+}
+
 /// Every model's results merged over the waves so far, in chunk order.
 struct Accumulated {
     merged: Vec<Merged>,
@@ -1512,24 +1567,26 @@ impl<M: PathModel> Context<'_, M> {
                 path.step(shocks, cols, failed);
                 fold.add(cols, watch);
                 let fiscal = &cols.fiscal_cost[..n];
-                let sums = &mut acc.sums[t];
-                for ((x, y), tr) in fiscal.iter().zip(&fold.income).zip(&fold.transform) {
-                    sums[0] += x;
-                    sums[1] += y;
-                    sums[2] += tr;
+                let period = PeriodSums {
+                    fiscal,
+                    income: &fold.income[..n],
+                    transform: &fold.transform[..n],
+                };
+                let series_sums = &mut acc.series_sums[t * kinds..(t + 1) * kinds];
+                match kinds {
+                    0 => period.add::<0>(&mut acc.sums[t], cols, self.series, series_sums),
+                    1 => period.add::<1>(&mut acc.sums[t], cols, self.series, series_sums),
+                    2 => period.add::<2>(&mut acc.sums[t], cols, self.series, series_sums),
+                    3 => period.add::<3>(&mut acc.sums[t], cols, self.series, series_sums),
+                    _ => period.add_any(&mut acc.sums[t], cols, self.series, series_sums),
                 }
                 // the season outlays of the leading replications (within budget)
                 if from < self.season_reps {
                     acc.season_buf.extend_from_slice(fiscal);
                 }
                 for (j, which) in self.series.iter().enumerate() {
-                    let x = &which.column(cols)[..n];
-                    let sum = &mut acc.series_sums[t * kinds + j];
-                    for v in x {
-                        *sum += v;
-                    }
                     if let Some(kept) = acc.series[j].get_mut(t * n..(t + 1) * n) {
-                        kept.copy_from_slice(x);
+                        kept.copy_from_slice(&which.column(cols)[..n]);
                     }
                 }
                 if pairs {
