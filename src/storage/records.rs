@@ -54,7 +54,7 @@ impl Books {
     /// The record of `r`; `previous` is the public stock carried out of the period before (updated).
     fn record(&self, r: &StoragePeriod, previous: &mut f64) -> PeriodRecord {
         let agency = &self.agency;
-        let rotated = agency.rotated(*previous * (1.0 - agency.loss_rate), r.public_stock);
+        let rotated = agency.rotated(agency.carried(*previous), r.public_stock);
         *previous = r.public_stock;
         let buy = if self.floor_purchase {
             flags::FLOOR_BUY

@@ -79,8 +79,8 @@ impl EngineMap<'_> {
 
     /// Advances the rule state `x` with stock `stock`; returns the new stock.
     fn step(&self, x: &[f64], stock: f64, out: &mut [f64]) -> f64 {
-        let carried = stock * (1.0 - self.model.policy.agency.loss_rate);
-        let plant = |e: f64| self.floor.map_or(e, |f| e.max(f));
+        let carried = self.model.policy.agency.carried(stock);
+        let plant = |e: f64| self.model.planting_price(e);
         match self.layout {
             StateLayout::Lags(_) => {
                 let k = x.len();
