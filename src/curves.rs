@@ -122,8 +122,8 @@ impl Curve {
     /// ∫ Q(p) dp from `p_low` to `p_high` of this curve shifted by `shift` quantity units, with the
     /// integrand clamped at zero (used for consumer surplus between two prices).
     pub fn area_between(&self, p_low: f64, p_high: f64, shift: f64) -> f64 {
-        match *self {
-            Curve::Linear { intercept, slope } => {
+        match self.form() {
+            Forms::Linear(Linear { intercept, slope }) => {
                 // integrand a + shift + slope p, clamped at 0
                 let a = intercept + shift;
                 let (mut lo, mut hi) = (p_low.min(p_high), p_low.max(p_high));
@@ -140,16 +140,7 @@ impl Curve {
                 let prim = |p: f64| a * p + 0.5 * slope * p * p;
                 sign * (prim(hi) - prim(lo))
             }
-            Curve::ConstantElasticity {
-                at_price,
-                at_quantity,
-                elasticity,
-            } => Elastic {
-                at_price,
-                at_quantity,
-                elasticity,
-            }
-            .area_between(p_low, p_high, shift),
+            Forms::Elastic(e) => e.area_between(p_low, p_high, shift),
         }
     }
 

@@ -488,11 +488,7 @@ fn clear_all(model: &Model, shocks: &[PeriodShock], s: &mut Scratch) {
         s.deficiency[l] = c.deficiency;
         s.flags[l] = c.flags;
         s.consumption[l] = consumption;
-        s.consumer_payments[l] = if model.has_payments {
-            model.consumer_payments(c.price, consumption)
-        } else {
-            0.0
-        };
+        s.consumer_payments[l] = model.consumer_payments(c.price, consumption);
     }
 }
 

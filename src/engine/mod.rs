@@ -280,7 +280,7 @@ impl Model {
 
     /// The price farmers plant on: the rule's expectation, raised to an announced floor.
     #[inline(always)]
-    fn planting_price(&self, rule_expectation: f64) -> f64 {
+    pub(crate) fn planting_price(&self, rule_expectation: f64) -> f64 {
         match self.planting_floor {
             Some(f) => rule_expectation.max(f),
             None => rule_expectation,
@@ -342,9 +342,13 @@ impl Model {
         }
     }
 
-    /// The treasury's payments to consumers at market price `price` and consumption `consumption`.
-    #[inline]
+    /// The treasury's payments to consumers at market price `price` and consumption `consumption`
+    /// (0 without a paying rule, the rules not asked).
+    #[inline(always)]
     fn consumer_payments(&self, price: f64, consumption: f64) -> f64 {
+        if !self.has_payments {
+            return 0.0;
+        }
         let mut paid = 0.0;
         for rule in &self.policy.rules {
             paid += rule.consumer_payment(price, consumption);
@@ -665,11 +669,7 @@ impl<'m> Simulator<'m> {
                 model.price_bound,
             )));
         }
-        let consumer_payments = if model.has_payments {
-            model.consumer_payments(c.price, consumption)
-        } else {
-            0.0
-        };
+        let consumer_payments = model.consumer_payments(c.price, consumption);
         let agency = &model.policy.agency;
         let record = PeriodRecord::book(
             &model.settled(
