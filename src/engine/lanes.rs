@@ -35,6 +35,7 @@ use super::{
 };
 use crate::curves::{Form, Forms};
 use crate::expectations::{Adaptive, ExpectationInput};
+use crate::policies::{Clearing, PayLanes};
 use crate::trade::Traded;
 
 /// The lanes of a [`Model`]: phase by phase ([`ModelLanes::Phased`]) when the model allows it,
@@ -129,6 +130,9 @@ pub struct Phased<'m> {
     /// The vector phases run their AVX2 copies (the CPU has AVX2; the same operations, so the
     /// same bits: no FMA, no reassociation).
     wide: bool,
+    /// Each lane's market while the policy's rules trade on it (kept between periods so that it
+    /// is allocated once).
+    markets: Vec<Clearing<'m>>,
 }
 
 /// One period's values of every lane, phase by phase.
@@ -178,6 +182,22 @@ impl Scratch {
             flags: [0; LANES],
             live: [false; LANES],
         }
+    }
+
+    /// Writes lane `l`'s clearing before the payment rules ([`Model::pay`] and
+    /// [`Model::consumer_payments`] start from a producer price equal to the market price and no
+    /// payments).
+    #[inline(always)]
+    fn put(&mut self, l: usize, c: &Cleared) {
+        self.price[l] = c.price;
+        self.producer_price[l] = c.producer_price;
+        self.purchases[l] = c.purchases;
+        self.releases[l] = c.releases;
+        self.stock[l] = c.stock;
+        self.deficiency[l] = c.deficiency;
+        self.flags[l] = c.flags;
+        self.consumption[l] = c.consumption();
+        self.consumer_payments[l] = 0.0;
     }
 
     /// Lane `l`'s clearing put back together.
@@ -244,6 +264,7 @@ impl<'m> Phased<'m> {
             keep,
             scratch: Scratch::new(),
             wide: avx2(),
+            markets: Vec::with_capacity(LANES),
         }
     }
 
@@ -317,7 +338,7 @@ impl<'m> Phased<'m> {
         }
 
         // the clearing: the policy's rules, lane by lane
-        clear_all(model, shocks, s);
+        clear_all(model, shocks, s, &mut self.markets);
 
         // the checks: one combined test per lane, the messages only when one fails
         if !check_all(wide, model, n, s) {
@@ -470,25 +491,55 @@ fn plant_all_in<S: Form>(
     all_ok
 }
 
-/// The clearing of every lane still going: [`Model::clear_harvest`] (the policy's rules) and the
-/// payments to consumers.
+/// The clearing of every lane still going ([`Model::clear_harvest`]): the policy's trades, then
+/// its payments, each through the trait object once for the whole set of lanes
+/// ([`PolicyRule::trade_each`](crate::policies::PolicyRule::trade_each),
+/// [`PolicyRule::pay_each`](crate::policies::PolicyRule::pay_each)) when the lanes are all still going,
+/// otherwise lane by lane. The same operations on every lane as the scalar step, in the same
+/// order (a lane's rules act one after the other on its market either way).
 #[inline(never)]
-fn clear_all(model: &Model, shocks: &[PeriodShock], s: &mut Scratch) {
-    for (l, shock) in shocks.iter().enumerate().take(LANES) {
-        if !s.live[l] {
-            continue;
+fn clear_all<'m>(
+    model: &'m Model,
+    shocks: &[PeriodShock],
+    s: &mut Scratch,
+    markets: &mut Vec<Clearing<'m>>,
+) {
+    let n = shocks.len().min(LANES);
+    let all_live = s.live[..n].iter().all(|&x| x);
+    if all_live && model.trades_stock && model.band_only.is_none() {
+        markets.clear();
+        markets.extend(
+            shocks[..n]
+                .iter()
+                .enumerate()
+                .map(|(l, shock)| model.market(shock, s.harvest[l], s.carried[l])),
+        );
+        for rule in &model.policy.rules {
+            rule.trade_each(markets);
         }
-        let c = model.clear_harvest(s.planted[l], s.harvest[l], shock, s.carried[l]);
-        let consumption = c.consumption();
-        s.price[l] = c.price;
-        s.producer_price[l] = c.producer_price;
-        s.purchases[l] = c.purchases;
-        s.releases[l] = c.releases;
-        s.stock[l] = c.stock;
-        s.deficiency[l] = c.deficiency;
-        s.flags[l] = c.flags;
-        s.consumption[l] = consumption;
-        s.consumer_payments[l] = model.consumer_payments(c.price, consumption);
+        for (l, m) in markets.iter().enumerate() {
+            s.put(l, &model.unpaid(s.planted[l], s.harvest[l], m, m.price()));
+        }
+    } else {
+        for (l, shock) in shocks[..n].iter().enumerate() {
+            if s.live[l] {
+                let c = model.clear_closed(s.planted[l], s.harvest[l], shock, s.carried[l]);
+                s.put(l, &c);
+            }
+        }
+    }
+    if model.has_payments {
+        // a lane that failed is paid too, on values of no meaning, as its books are written
+        for rule in &model.policy.rules {
+            rule.pay_each(PayLanes {
+                price: &s.price[..n],
+                harvest: &s.harvest[..n],
+                consumption: &s.consumption[..n],
+                producer_price: &mut s.producer_price[..n],
+                deficiency: &mut s.deficiency[..n],
+                consumer: &mut s.consumer_payments[..n],
+            });
+        }
     }
 }
 

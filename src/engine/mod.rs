@@ -202,25 +202,38 @@ impl Model {
         if let Some(trade) = &self.trade {
             return self.clear_open(trade, planted, harvest, shock, carried);
         }
+        self.pay(self.clear_closed(planted, harvest, shock, carried))
+    }
+
+    /// A closed market's clearing before the payment rules ([`Model::pay`]): the rules' trades
+    /// and the price.
+    #[inline(always)]
+    fn clear_closed(
+        &self,
+        planted: f64,
+        harvest: f64,
+        shock: &PeriodShock,
+        carried: f64,
+    ) -> Cleared {
         let market = || self.market(shock, harvest, carried);
         if !self.trades_stock {
             // no rule trades: the market as harvested, a value no trait object sees (the
             // optimiser folds its zero trades and keeps it in registers)
             let m = market();
-            return self.settle(planted, harvest, &m);
+            return self.unpaid(planted, harvest, &m, m.price());
         }
         if let Some(band) = &self.band_only {
             // its own market value, which no trait object sees, so the optimiser keeps it in
             // registers and folds the zero trades it starts with
             let mut m = market();
             band.defend(&mut m);
-            return self.settle(planted, harvest, &m);
+            return self.unpaid(planted, harvest, &m, m.price());
         }
         let mut m = market();
         for rule in &self.policy.rules {
             rule.trade(&mut m);
         }
-        self.settle(planted, harvest, &m)
+        self.unpaid(planted, harvest, &m, m.price())
     }
 
     /// The period's market before any rule trades: the harvest and the carried stock on the shocked
@@ -260,7 +273,7 @@ impl Model {
             rule.trade(&mut m);
         }
         let traded = m.traded();
-        let mut c = self.settle_at(planted, harvest, &m, traded.price);
+        let mut c = self.pay(self.unpaid(planted, harvest, &m, traded.price));
         c.trade = Some(TradeRecord {
             world_price: world,
             imports: traded.imports,
@@ -356,32 +369,19 @@ impl Model {
         paid
     }
 
-    /// The cleared period once the rules have traded on `m`: the price, then the payment rules.
+    /// The cleared period once the rules have traded on `m`, at the period's clearing price
+    /// `price`, before the payment rules: the producer price is the market price, nothing paid.
     #[inline(always)]
-    fn settle(&self, planted: f64, harvest: f64, m: &Clearing) -> Cleared {
-        self.settle_at(planted, harvest, m, m.price())
-    }
-
-    /// [`Model::settle`] at the period's clearing price `price`.
-    #[inline(always)]
-    fn settle_at(&self, planted: f64, harvest: f64, m: &Clearing, price: f64) -> Cleared {
-        let mut producer_price = price;
-        let mut deficiency = 0.0;
-        if self.has_payments {
-            for rule in &self.policy.rules {
-                producer_price = rule.producer_price(producer_price);
-                deficiency += rule.payment(price, harvest);
-            }
-        }
+    fn unpaid(&self, planted: f64, harvest: f64, m: &Clearing, price: f64) -> Cleared {
         Cleared {
             planted,
             harvest,
             price,
-            producer_price,
+            producer_price: price,
             purchases: m.purchases,
             releases: m.releases,
             stock: m.stock(),
-            deficiency,
+            deficiency: 0.0,
             flags: m.flags,
             trade: None,
             traded: Traded {
@@ -390,6 +390,19 @@ impl Model {
                 exports: 0.0,
             },
         }
+    }
+
+    /// The payment rules on a cleared period, in their order: each sets the producer price from
+    /// the one before and adds its payment to producers (nothing without a paying rule).
+    #[inline(always)]
+    fn pay(&self, mut c: Cleared) -> Cleared {
+        if self.has_payments {
+            for rule in &self.policy.rules {
+                c.producer_price = rule.producer_price(c.producer_price);
+                c.deficiency += rule.payment(c.price, c.harvest);
+            }
+        }
+        c
     }
 }
 

@@ -279,6 +279,7 @@ impl PolicyRule for CeilingRelease {
     fn trades_stock(&self) -> bool {
         true
     }
+    #[inline(always)]
     fn trade(&self, market: &mut Clearing) {
         if market.price() > self.price {
             market.sell_to(self.price, flags::CEILING_SELL);

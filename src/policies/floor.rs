@@ -326,6 +326,7 @@ impl PolicyRule for FloorPurchase {
     fn trades_stock(&self) -> bool {
         true
     }
+    #[inline(always)]
     fn trade(&self, market: &mut Clearing) {
         market.buy_to(self.price, flags::FLOOR_BUY);
     }

@@ -83,6 +83,55 @@ pub trait PolicyRule: Send + Sync + std::fmt::Debug {
     /// false must not trade (`trades_nothing!`): a policy none of whose actions trades is cleared
     /// without calling `trade` at all (`engine::Model::clear`).
     fn trades_stock(&self) -> bool;
+
+    /// [`PolicyRule::trade`] on each of `markets` in turn: one call through the trait object for
+    /// a set of lanes (the engine's phased lanes, `engine::lanes`), with this action's own
+    /// `trade` called directly, and inlined, in the loop. Never overridden: `trade` stays the one
+    /// definition of what the action does.
+    #[inline]
+    fn trade_each(&self, markets: &mut [Clearing]) {
+        for m in markets {
+            self.trade(m);
+        }
+    }
+
+    /// [`PolicyRule::producer_price`], [`PolicyRule::payment`] and
+    /// [`PolicyRule::consumer_payment`] on each lane of a set, added to what the actions before
+    /// this one left: lane `l` at market price `price[l]`, with harvest `harvest[l]` and
+    /// consumption `consumption[l]`, takes its producer price from `producer_price[l]` and adds
+    /// to `deficiency[l]` and `consumer[l]`. One call through the trait object for the set, as
+    /// [`PolicyRule::trade_each`]; never overridden.
+    #[inline]
+    fn pay_each(&self, lanes: PayLanes<'_>) {
+        let n = lanes.price.len();
+        let (harvest, consumption) = (&lanes.harvest[..n], &lanes.consumption[..n]);
+        let producer_price = &mut lanes.producer_price[..n];
+        let deficiency = &mut lanes.deficiency[..n];
+        let consumer = &mut lanes.consumer[..n];
+        for (l, &price) in lanes.price.iter().enumerate() {
+            producer_price[l] = self.producer_price(producer_price[l]);
+            deficiency[l] += self.payment(price, harvest[l]);
+            consumer[l] += self.consumer_payment(price, consumption[l]);
+        }
+    }
+}
+
+/// A set of lanes' prices and quantities as [`PolicyRule::pay_each`] reads them, and the payments
+/// it adds to (every slice as long as `price`).
+#[derive(Debug)]
+pub struct PayLanes<'a> {
+    /// Each lane's market price after trade.
+    pub price: &'a [f64],
+    /// Each lane's harvest.
+    pub harvest: &'a [f64],
+    /// Each lane's consumption.
+    pub consumption: &'a [f64],
+    /// Each lane's producer price so far (the market price before the first paying action).
+    pub producer_price: &'a mut [f64],
+    /// Each lane's payments to producers so far.
+    pub deficiency: &'a mut [f64],
+    /// Each lane's payments to consumers so far.
+    pub consumer: &'a mut [f64],
 }
 
 /// The agency's standing parameters (from `[stock]`; a floor by purchase alone gets an unlimited,

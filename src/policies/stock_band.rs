@@ -35,6 +35,7 @@ impl PolicyRule for BandStock {
     fn trades_stock(&self) -> bool {
         true
     }
+    #[inline(always)]
     fn trade(&self, market: &mut Clearing) {
         self.defend(market);
     }

@@ -20,6 +20,7 @@ impl PolicyRule for ShareStock {
     fn trades_stock(&self) -> bool {
         true
     }
+    #[inline(always)]
     fn trade(&self, market: &mut Clearing) {
         self.band.defend(market);
         if market.purchases > 0.0 {

@@ -33,6 +33,7 @@ impl PolicyRule for TargetStock {
     fn trades_stock(&self) -> bool {
         true
     }
+    #[inline(always)]
     fn trade(&self, market: &mut Clearing) {
         if self.band.defend(market) {
             return;
