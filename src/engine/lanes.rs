@@ -30,12 +30,12 @@
 
 use super::columns::{avx2, Columns, EachLane, LaneStepper, LANES};
 use super::{
-    cleared_failure, cleared_ok, expected_price_failure, plant, Cleared, Diverged, Model,
-    PeriodRecord, PeriodShock, Simulator,
+    cleared_failure, cleared_ok, consumption, expected_price_failure, plant, Cleared, Diverged,
+    Model, PeriodRecord, PeriodShock, Simulator,
 };
 use crate::curves::{Form, Forms};
 use crate::expectations::{Adaptive, ExpectationInput};
-use crate::policies::{Clearing, PayLanes};
+use crate::policies::{ClearLanes, Clearing, PayLanes};
 use crate::trade::Traded;
 
 /// The lanes of a [`Model`]: phase by phase ([`ModelLanes::Phased`]) when the model allows it,
@@ -492,11 +492,14 @@ fn plant_all_in<S: Form>(
 }
 
 /// The clearing of every lane still going ([`Model::clear_harvest`]): the policy's trades, then
-/// its payments, each through the trait object once for the whole set of lanes
-/// ([`PolicyRule::trade_each`](crate::policies::PolicyRule::trade_each),
-/// [`PolicyRule::pay_each`](crate::policies::PolicyRule::pay_each)) when the lanes are all still going,
-/// otherwise lane by lane. The same operations on every lane as the scalar step, in the same
-/// order (a lane's rules act one after the other on its market either way).
+/// its payments, each through the trait object once for the whole set of lanes when the lanes
+/// are all still going (a policy with one trading action:
+/// [`PolicyRule::clear_each`](crate::policies::PolicyRule::clear_each); with several, each in
+/// turn on every lane's market: [`PolicyRule::trade_each`](crate::policies::PolicyRule::trade_each);
+/// the payments: [`PolicyRule::pay_each`](crate::policies::PolicyRule::pay_each)), otherwise lane
+/// by lane. The same operations on every lane as the scalar step, in the same order (a lane's
+/// actions act one after the other on its market either way; an action that does not trade
+/// stock leaves the market alone).
 #[inline(never)]
 fn clear_all<'m>(
     model: &'m Model,
@@ -505,20 +508,42 @@ fn clear_all<'m>(
     markets: &mut Vec<Clearing<'m>>,
 ) {
     let n = shocks.len().min(LANES);
-    let all_live = s.live[..n].iter().all(|&x| x);
-    if all_live && model.trades_stock && model.band_only.is_none() {
-        markets.clear();
-        markets.extend(
-            shocks[..n]
-                .iter()
-                .enumerate()
-                .map(|(l, shock)| model.market(shock, s.harvest[l], s.carried[l])),
-        );
-        for rule in &model.policy.rules {
-            rule.trade_each(markets);
+    if s.live[..n].iter().all(|&x| x) {
+        let agency = &model.policy.agency;
+        let mut lanes = ClearLanes {
+            demand: &model.demand,
+            capacity: agency.capacity,
+            budget: agency.purchase_budget,
+            shift: &s.demand_shock[..n],
+            harvest: &s.harvest[..n],
+            carried: &s.carried[..n],
+            price: &mut s.price[..n],
+            purchases: &mut s.purchases[..n],
+            releases: &mut s.releases[..n],
+            stock: &mut s.stock[..n],
+            flags: &mut s.flags[..n],
+        };
+        let mut trading = model.policy.rules.iter().filter(|r| r.trades_stock());
+        match (trading.next(), trading.next()) {
+            (None, _) => lanes.each(|_| {}),
+            (Some(only), None) => only.clear_each(&mut lanes),
+            _ => {
+                markets.clear();
+                markets.extend((0..n).map(|l| lanes.market(l)));
+                for rule in &model.policy.rules {
+                    rule.trade_each(markets);
+                }
+                for (l, m) in markets.iter().enumerate() {
+                    lanes.put(l, m);
+                }
+            }
         }
-        for (l, m) in markets.iter().enumerate() {
-            s.put(l, &model.unpaid(s.planted[l], s.harvest[l], m, m.price()));
+        // before the payments, as `Model::unpaid`
+        for l in 0..n {
+            s.producer_price[l] = s.price[l];
+            s.deficiency[l] = 0.0;
+            s.consumption[l] = consumption(s.harvest[l], s.purchases[l], s.releases[l]);
+            s.consumer_payments[l] = 0.0;
         }
     } else {
         for (l, shock) in shocks[..n].iter().enumerate() {

@@ -528,13 +528,20 @@ impl Cleared {
     /// Consumption C = Q − X + R (+ M − X_p on a market that trades).
     #[inline(always)]
     fn consumption(&self) -> f64 {
+        let closed = consumption(self.harvest, self.purchases, self.releases);
         if self.trade.is_some() {
-            self.harvest - self.purchases + self.releases + self.traded.imports
-                - self.traded.exports
+            closed + self.traded.imports - self.traded.exports
         } else {
-            self.harvest - self.purchases + self.releases
+            closed
         }
     }
+}
+
+/// A closed market's consumption C = Q − X + R: the harvest less the agency's purchases plus its
+/// releases.
+#[inline(always)]
+fn consumption(harvest: f64, purchases: f64, releases: f64) -> f64 {
+    harvest - purchases + releases
 }
 
 /// Steps a [`Model`] forward one period at a time.

@@ -433,6 +433,71 @@ impl<'a> Clearing<'a> {
     }
 }
 
+/// The closed markets of a set of lanes on one demand curve and one agency: what each lane's
+/// [`Clearing`] starts from, and where the outcome of its trades is written (every slice as long
+/// as `harvest`).
+#[derive(Debug)]
+pub struct ClearLanes<'d, 'a> {
+    /// Demand curve.
+    pub demand: &'d Curve,
+    /// Storage capacity.
+    pub capacity: f64,
+    /// Purchase spending allowed in a period.
+    pub budget: f64,
+    /// Each lane's additive demand shock.
+    pub shift: &'a [f64],
+    /// Each lane's harvest.
+    pub harvest: &'a [f64],
+    /// Each lane's stock carried in, after losses.
+    pub carried: &'a [f64],
+    /// Each lane's clearing price ([`Clearing::price`]), written.
+    pub price: &'a mut [f64],
+    /// Each lane's purchases, written.
+    pub purchases: &'a mut [f64],
+    /// Each lane's releases, written.
+    pub releases: &'a mut [f64],
+    /// Each lane's end-of-period stock ([`Clearing::stock`]), written.
+    pub stock: &'a mut [f64],
+    /// What acted on each lane, written.
+    pub flags: &'a mut [u16],
+}
+
+impl<'d> ClearLanes<'d, '_> {
+    /// Lane `l`'s market before any trade.
+    #[inline(always)]
+    pub fn market(&self, l: usize) -> Clearing<'d> {
+        Clearing::new(
+            self.demand,
+            self.shift[l],
+            self.harvest[l],
+            self.carried[l],
+            self.capacity,
+            self.budget,
+        )
+    }
+
+    /// Writes lane `l`'s outcome once the trades on `m` are done.
+    #[inline(always)]
+    pub fn put(&mut self, l: usize, m: &Clearing) {
+        self.price[l] = m.price();
+        self.purchases[l] = m.purchases;
+        self.releases[l] = m.releases;
+        self.stock[l] = m.stock();
+        self.flags[l] = m.flags;
+    }
+
+    /// Each lane's market, `trade` on it, and its outcome written: the market lives in registers
+    /// from its start to its outcome when `trade` is inlined.
+    #[inline(always)]
+    pub fn each(&mut self, trade: impl Fn(&mut Clearing)) {
+        for l in 0..self.harvest.len() {
+            let mut m = self.market(l);
+            trade(&mut m);
+            self.put(l, &m);
+        }
+    }
+}
+
 /// [`budget_cut`] on an open market: the clearing price after private trade on `border`.
 #[inline(never)]
 fn budget_cut_open(

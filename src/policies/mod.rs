@@ -51,7 +51,7 @@ mod stock_band;
 mod stock_share;
 mod stock_target;
 
-pub use clearing::{flags, Clearing};
+pub use clearing::{flags, ClearLanes, Clearing};
 pub use file::PolicySpec;
 pub use fill::periods_to_fill;
 pub use floor::{DeficiencyPayment, FloorPurchase};
@@ -83,6 +83,15 @@ pub trait PolicyRule: Send + Sync + std::fmt::Debug {
     /// false must not trade (`trades_nothing!`): a policy none of whose actions trades is cleared
     /// without calling `trade` at all (`engine::Model::clear`).
     fn trades_stock(&self) -> bool;
+
+    /// The policy's only trading action on each lane of a set: each lane's market
+    /// ([`ClearLanes::market`]), this action's `trade` on it, its outcome written
+    /// ([`ClearLanes::put`]). One call through the trait object for the set, with `trade` called
+    /// directly and inlined, so each lane's market stays in registers. Never overridden.
+    #[inline]
+    fn clear_each(&self, lanes: &mut ClearLanes<'_, '_>) {
+        lanes.each(|m| self.trade(m));
+    }
 
     /// [`PolicyRule::trade`] on each of `markets` in turn: one call through the trait object for
     /// a set of lanes (the engine's phased lanes, `engine::lanes`), with this action's own
