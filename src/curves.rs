@@ -80,7 +80,7 @@ impl Curve {
     #[inline]
     pub fn quantity_unclamped(&self, p: f64) -> f64 {
         match *self {
-            Curve::Linear { intercept, slope } => intercept + slope * p,
+            Curve::Linear { intercept, slope } => Linear { intercept, slope }.unclamped(p),
             _ => self.quantity(p),
         }
     }
@@ -215,6 +215,14 @@ pub struct Elastic {
     pub at_quantity: f64,
     /// Constant elasticity d ln Q / d ln P.
     pub elasticity: f64,
+}
+
+impl Linear {
+    /// Quantity at price `p` without the clamp at zero (see [`Curve::quantity_unclamped`]).
+    #[inline(always)]
+    pub fn unclamped(&self, p: f64) -> f64 {
+        self.intercept + self.slope * p
+    }
 }
 
 impl Form for Linear {

@@ -390,6 +390,12 @@ fn the_jobs_policies_are_each_lane_to_the_bit() {
     ];
     for pol in &policies {
         let model = Model::new(&s, pol);
+        // a linear demand curve, no budget, actions with a lane form: cleared column by column
+        assert!(
+            ModelLanes::new(&model, 64).clears_in_columns(),
+            "{}",
+            pol.name
+        );
         let rows = shocks(2026, 64, 100, 0.06, 3.0, 6.0);
         compare(&model, &rows).unwrap_or_else(|e| panic!("{}: {e}", pol.name));
     }

@@ -33,8 +33,9 @@ use super::{
     cleared_failure, cleared_ok, consumption, expected_price_failure, plant, Cleared, Diverged,
     Model, PeriodRecord, PeriodShock, Simulator,
 };
-use crate::curves::{Form, Forms};
+use crate::curves::{Form, Forms, Linear};
 use crate::expectations::{Adaptive, ExpectationInput};
+use crate::policies::lanes::{LaneTerms, LinearLanes};
 use crate::policies::{ClearLanes, Clearing, PayLanes};
 use crate::trade::Traded;
 
@@ -72,6 +73,11 @@ impl<'m> ModelLanes<'m> {
     /// True when the lanes are stepped phase by phase with the AVX2 copies of the vector phases.
     pub fn is_wide(&self) -> bool {
         matches!(self, ModelLanes::Phased(p) if p.wide)
+    }
+
+    /// True when the lanes' markets clear column by column ([`crate::policies::lanes`]).
+    pub fn clears_in_columns(&self) -> bool {
+        matches!(self, ModelLanes::Phased(p) if p.lane_form.is_some())
     }
 
     /// True when the lanes are stepped phase by phase.
@@ -133,6 +139,8 @@ pub struct Phased<'m> {
     /// Each lane's market while the policy's rules trade on it (kept between periods so that it
     /// is allocated once).
     markets: Vec<Clearing<'m>>,
+    /// The demand curve when the lanes clear column by column ([`Phased::lane_form`]).
+    lane_form: Option<Linear>,
 }
 
 /// One period's values of every lane, phase by phase.
@@ -234,6 +242,18 @@ impl<'m> Phased<'m> {
             && !model.rule.is_rational()
     }
 
+    /// The linear demand curve when every lane's market clears column by column
+    /// ([`crate::policies::lanes`]): a linear demand curve, no purchase budget, and every action
+    /// that trades stock (if any) with a lane form ([`PolicyRule::lanes`](crate::policies::PolicyRule::lanes)).
+    fn lane_form(model: &Model) -> Option<Linear> {
+        let Forms::Linear(demand) = model.demand.form() else {
+            return None;
+        };
+        let mut traders = model.policy.rules.iter().filter(|r| r.trades_stock());
+        let formed = traders.all(|r| r.lanes().is_some());
+        (formed && !model.policy.agency.purchase_budget.is_finite()).then_some(demand)
+    }
+
     fn new(model: &'m Model) -> Phased<'m> {
         let keep = model.price_history.len();
         let last = model.price_history[keep - 1];
@@ -265,6 +285,7 @@ impl<'m> Phased<'m> {
             scratch: Scratch::new(),
             wide: avx2(),
             markets: Vec::with_capacity(LANES),
+            lane_form: Phased::lane_form(model),
         }
     }
 
@@ -338,7 +359,7 @@ impl<'m> Phased<'m> {
         }
 
         // the clearing: the policy's rules, lane by lane
-        clear_all(model, shocks, s, &mut self.markets);
+        clear_all(wide, model, self.lane_form, shocks, s, &mut self.markets);
 
         // the checks: one combined test per lane, the messages only when one fails
         if !check_all(wide, model, n, s) {
@@ -502,13 +523,40 @@ fn plant_all_in<S: Form>(
 /// stock leaves the market alone).
 #[inline(never)]
 fn clear_all<'m>(
+    wide: bool,
     model: &'m Model,
+    linear: Option<Linear>,
     shocks: &[PeriodShock],
     s: &mut Scratch,
     markets: &mut Vec<Clearing<'m>>,
 ) {
     let n = shocks.len().min(LANES);
-    if s.live[..n].iter().all(|&x| x) {
+    let all_live = s.live[..n].iter().all(|&x| x);
+    if let (true, Some(demand)) = (all_live, linear) {
+        let mut lanes = LinearLanes {
+            terms: LaneTerms {
+                demand,
+                capacity: model.policy.agency.capacity,
+            },
+            harvest: &s.harvest[..n],
+            shift: &s.demand_shock[..n],
+            carried: &s.carried[..n],
+            price: &mut s.price[..n],
+            purchases: &mut s.purchases[..n],
+            releases: &mut s.releases[..n],
+            stock: &mut s.stock[..n],
+            flags: &mut s.flags[..n],
+            wide,
+        };
+        lanes.start();
+        for rule in model.policy.rules.iter().filter(|r| r.trades_stock()) {
+            if let Some(form) = rule.lanes() {
+                form.trade_lanes(&mut lanes);
+            }
+        }
+        lanes.finish();
+        unpaid_all(n, s);
+    } else if all_live {
         let agency = &model.policy.agency;
         let mut lanes = ClearLanes {
             demand: &model.demand,
@@ -538,13 +586,7 @@ fn clear_all<'m>(
                 }
             }
         }
-        // before the payments, as `Model::unpaid`
-        for l in 0..n {
-            s.producer_price[l] = s.price[l];
-            s.deficiency[l] = 0.0;
-            s.consumption[l] = consumption(s.harvest[l], s.purchases[l], s.releases[l]);
-            s.consumer_payments[l] = 0.0;
-        }
+        unpaid_all(n, s);
     } else {
         for (l, shock) in shocks[..n].iter().enumerate() {
             if s.live[l] {
@@ -565,6 +607,18 @@ fn clear_all<'m>(
                 consumer: &mut s.consumer_payments[..n],
             });
         }
+    }
+}
+
+/// Every lane before the payments, as [`Model::unpaid`]: the producer price the market price,
+/// consumption, nothing paid.
+#[inline(always)]
+fn unpaid_all(n: usize, s: &mut Scratch) {
+    for l in 0..n.min(LANES) {
+        s.producer_price[l] = s.price[l];
+        s.deficiency[l] = 0.0;
+        s.consumption[l] = consumption(s.harvest[l], s.purchases[l], s.releases[l]);
+        s.consumer_payments[l] = 0.0;
     }
 }
 

@@ -4,6 +4,7 @@
 use serde::Deserialize;
 
 use super::in_storage::StoragePlan;
+use super::lanes::{LaneAct, LaneMarket, LaneTerms, LaneTrade};
 use super::rule::{rank, rule_ref, Build, Cell, Row, Rule, RuleRef, RuleSection, Watched};
 use super::{flags, Agency, Clearing, PolicyRule};
 use crate::input::ranges::{noted, r, short_num, BIG};
@@ -333,6 +334,17 @@ impl PolicyRule for FloorPurchase {
     pays_nothing!();
     fn as_band(&self) -> Option<super::BandStock> {
         None
+    }
+    fn lanes(&self) -> Option<&dyn LaneTrade> {
+        Some(self)
+    }
+}
+
+impl LaneAct for FloorPurchase {
+    /// [`PolicyRule::trade`] on one lane, without branches.
+    #[inline(always)]
+    fn act(&self, terms: &LaneTerms, m: &mut LaneMarket) {
+        m.buy_to(terms, true, self.price, flags::FLOOR_BUY);
     }
 }
 

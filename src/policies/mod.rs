@@ -45,6 +45,7 @@ pub mod file;
 mod fill;
 pub mod floor;
 pub mod in_storage;
+pub mod lanes;
 pub mod rule;
 pub mod stock;
 mod stock_band;
@@ -91,6 +92,14 @@ pub trait PolicyRule: Send + Sync + std::fmt::Debug {
     #[inline]
     fn clear_each(&self, lanes: &mut ClearLanes<'_, '_>) {
         lanes.each(|m| self.trade(m));
+    }
+
+    /// The action's trade over many lanes of a closed market on a linear demand curve without a
+    /// purchase budget ([`lanes::LaneTrade`]), when it has one; `None` (the provided answer) for
+    /// an action that trades only lane by lane. An action that answers must do on each lane what
+    /// its `trade` does (`tests/lanes.rs` holds it to that bit for bit).
+    fn lanes(&self) -> Option<&dyn lanes::LaneTrade> {
+        None
     }
 
     /// [`PolicyRule::trade`] on each of `markets` in turn: one call through the trait object for

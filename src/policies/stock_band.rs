@@ -1,3 +1,4 @@
+use super::lanes::{LaneAct, LaneMarket, LaneTerms, LaneTrade};
 use super::{flags, Clearing, PolicyRule};
 
 /// A buffer stock on a price band: buys while the price would fall below `buy_below`, sells while it
@@ -25,6 +26,24 @@ impl BandStock {
             false
         }
     }
+
+    /// [`BandStock::defend`] on one lane of [`LinearLanes`]: the same trades, without branches.
+    #[inline(always)]
+    pub fn defend_lane(&self, terms: &LaneTerms, market: &mut LaneMarket) -> bool {
+        let p = market.price(terms);
+        let below = p < self.buy_below;
+        let above = !below & (p > self.sell_above);
+        market.buy_to(terms, below, self.buy_below, flags::BAND_BUY);
+        market.sell_to(terms, above, self.sell_above, flags::BAND_SELL);
+        below | above
+    }
+}
+
+impl LaneAct for BandStock {
+    #[inline(always)]
+    fn act(&self, terms: &LaneTerms, m: &mut LaneMarket) {
+        self.defend_lane(terms, m);
+    }
 }
 
 impl PolicyRule for BandStock {
@@ -41,5 +60,8 @@ impl PolicyRule for BandStock {
     }
     fn as_band(&self) -> Option<BandStock> {
         Some(*self)
+    }
+    fn lanes(&self) -> Option<&dyn LaneTrade> {
+        Some(self)
     }
 }

@@ -1,3 +1,4 @@
+use super::lanes::{LaneAct, LaneMarket, LaneTerms, LaneTrade};
 use super::{flags, BandStock, Clearing, PolicyRule};
 
 /// A reserve with a target level. It defends the band first; in periods when the price is inside the
@@ -16,6 +17,7 @@ pub struct TargetStock {
 
 impl TargetStock {
     /// The middle of the band (the upper edge alone is infinite when no `sell_above` is set).
+    #[inline(always)]
     fn middle(&self) -> f64 {
         if self.band.sell_above.is_finite() {
             0.5 * (self.band.buy_below + self.band.sell_above)
@@ -48,5 +50,22 @@ impl PolicyRule for TargetStock {
     }
     fn as_band(&self) -> Option<BandStock> {
         None
+    }
+    fn lanes(&self) -> Option<&dyn LaneTrade> {
+        Some(self)
+    }
+}
+
+impl LaneAct for TargetStock {
+    /// [`PolicyRule::trade`] on one lane, without branches.
+    #[inline(always)]
+    fn act(&self, terms: &LaneTerms, m: &mut LaneMarket) {
+        let outside = self.band.defend_lane(terms, m);
+        let gap = self.speed * (self.target - m.carried);
+        let middle = self.middle();
+        m.buy_at_most(terms, !outside & (gap > 0.0), gap, middle, flags::TARGET);
+        let down = !outside & (gap < 0.0);
+        let not_below = middle.min(self.band.sell_above);
+        m.sell_at_most(terms, down, -gap, not_below, flags::TARGET);
     }
 }

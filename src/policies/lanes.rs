@@ -1,0 +1,407 @@
+//! The closed market of many lanes at once, for the actions that have a lane form
+//! ([`LaneTrade`]): a buffer-stock band, a floor by purchase, a reserve with a target.
+//!
+//! [`Clearing`](super::Clearing) is the definition of every trade; a lane here does the same
+//! operations in the same order, written without branches (each step computed on every lane and
+//! kept where the scalar market would have taken it), so that a loop over the lanes is straight
+//! arithmetic the compiler keeps in vector registers. It covers what the scalar market does on a
+//! closed market with a linear demand curve and no purchase budget; the engine uses it only then
+//! (`engine::lanes`), and `tests/lanes.rs` holds every lane to the scalar step bit for bit.
+
+// `!(x <= y)` on purpose: the scalar market returns early when `x <= y`, so a NaN goes on there,
+// and it must go on here too
+#![allow(clippy::neg_cmp_op_on_partial_ord)]
+
+use super::flags;
+use crate::curves::{Form, Linear};
+
+/// One lane's market while actions trade on it (the fields of [`super::Clearing`] a closed
+/// market without a budget reads).
+#[derive(Debug, Clone, Copy)]
+pub struct LaneMarket {
+    /// Harvest Q_t.
+    pub harvest: f64,
+    /// Additive demand shock.
+    pub shift: f64,
+    /// Stock carried in, after losses.
+    pub carried: f64,
+    /// The price before any trade, D⁻¹(Q − shift).
+    pub untraded: f64,
+    /// Purchases X_t so far.
+    pub purchases: f64,
+    /// Releases R_t so far.
+    pub releases: f64,
+    /// What acted (see [`flags`]).
+    pub flags: u16,
+}
+
+/// The market every lane shares: its linear demand curve and the agency's capacity.
+#[derive(Debug, Clone, Copy)]
+pub struct LaneTerms {
+    /// Demand curve.
+    pub demand: Linear,
+    /// Storage capacity.
+    pub capacity: f64,
+}
+
+/// `bits` where `on` holds, else nothing (a flag set without a branch).
+#[inline(always)]
+fn bits_if(on: bool, bits: u16) -> u16 {
+    (on as u16).wrapping_neg() & bits
+}
+
+/// `amount` added to `total` as [`super::clearing`]'s `accumulate` does (the first trade assigned).
+#[inline(always)]
+fn accumulate(total: f64, amount: f64) -> f64 {
+    if total == 0.0 {
+        amount
+    } else {
+        total + amount
+    }
+}
+
+impl LaneMarket {
+    /// A lane's market before any trade.
+    #[inline(always)]
+    pub fn new(terms: &LaneTerms, harvest: f64, shift: f64, carried: f64) -> LaneMarket {
+        LaneMarket {
+            harvest,
+            shift,
+            carried,
+            untraded: terms.demand.price_at(harvest - shift),
+            purchases: 0.0,
+            releases: 0.0,
+            flags: 0,
+        }
+    }
+
+    /// Q − X + R, each zero trade left out as [`super::Clearing::consumption`] leaves it.
+    #[inline(always)]
+    pub fn consumption(&self) -> f64 {
+        let c = if self.purchases == 0.0 {
+            self.harvest
+        } else {
+            self.harvest - self.purchases
+        };
+        if self.releases == 0.0 {
+            c
+        } else {
+            c + self.releases
+        }
+    }
+
+    /// The clearing price ([`super::Clearing::price`] on a closed market).
+    #[inline(always)]
+    pub fn price(&self, terms: &LaneTerms) -> f64 {
+        let traded = terms.demand.price_at(self.consumption() - self.shift);
+        // `&`, not `&&`: both tests on every lane, no branch
+        if (self.purchases == 0.0) & (self.releases == 0.0) {
+            self.untraded
+        } else {
+            traded
+        }
+    }
+
+    /// End-of-period stock carried + X − R.
+    #[inline(always)]
+    pub fn stock(&self) -> f64 {
+        self.carried + self.purchases - self.releases
+    }
+
+    /// What consumers take at `p` (the most left in the market with the price at least `p`, and
+    /// the least with the price at most `p`, on a closed market).
+    #[inline(always)]
+    fn demanded_at(&self, terms: &LaneTerms, p: f64) -> f64 {
+        terms.demand.unclamped(p) + self.shift
+    }
+
+    /// The smallest trade that counts ([`super::Clearing::buy_to`]'s).
+    #[inline(always)]
+    fn tolerance(&self) -> f64 {
+        1e-12 * self.harvest.max(1.0)
+    }
+
+    /// [`super::Clearing::buy_to`] where `act` holds.
+    #[inline(always)]
+    pub fn buy_to(&mut self, terms: &LaneTerms, act: bool, target: f64, acted: u16) {
+        let excess = self.consumption() - self.demanded_at(terms, target);
+        let act = act & !(excess <= self.tolerance());
+        self.buy(terms, act, excess, acted);
+    }
+
+    /// [`super::Clearing::buy_at_most`] where `act` holds.
+    #[inline(always)]
+    pub fn buy_at_most(
+        &mut self,
+        terms: &LaneTerms,
+        act: bool,
+        want: f64,
+        not_above: f64,
+        acted: u16,
+    ) {
+        let room = (self.consumption() - self.demanded_at(terms, not_above)).max(0.0);
+        self.buy(terms, act, want.min(room), acted);
+    }
+
+    /// [`super::Clearing::buy`] without a budget, where `act` holds.
+    #[inline(always)]
+    fn buy(&mut self, terms: &LaneTerms, act: bool, want: f64, acted: u16) {
+        let act = act & !(want <= 0.0);
+        let room = (terms.capacity - self.stock()).max(0.0);
+        let full = want > room;
+        let amount = if full { room } else { want };
+        self.flags |= bits_if(act & full, flags::CAPACITY_FULL);
+        let unbounded = !amount.is_finite();
+        self.flags |= bits_if(act & unbounded, flags::UNBOUNDED);
+        let act = act & !unbounded & !(amount <= 0.0);
+        let bought = accumulate(self.purchases, amount);
+        self.purchases = if act { bought } else { self.purchases };
+        self.flags |= bits_if(act, acted);
+    }
+
+    /// [`super::Clearing::sell_to`] where `act` holds.
+    #[inline(always)]
+    pub fn sell_to(&mut self, terms: &LaneTerms, act: bool, target: f64, acted: u16) {
+        let shortfall = self.demanded_at(terms, target) - self.consumption();
+        let act = act & !(shortfall <= self.tolerance());
+        let sold = self.sell(act, shortfall, acted);
+        self.flags |= bits_if(act & (sold < shortfall), flags::STOCK_OUT);
+    }
+
+    /// [`super::Clearing::sell_at_most`] where `act` holds.
+    #[inline(always)]
+    pub fn sell_at_most(
+        &mut self,
+        terms: &LaneTerms,
+        act: bool,
+        want: f64,
+        not_below: f64,
+        acted: u16,
+    ) {
+        let room = (self.demanded_at(terms, not_below) - self.consumption()).max(0.0);
+        self.sell(act, want.min(room), acted);
+    }
+
+    /// [`super::Clearing::sell`] where `act` holds; the amount sold (0 where `act` does not hold
+    /// or nothing is sold).
+    #[inline(always)]
+    fn sell(&mut self, act: bool, want: f64, acted: u16) -> f64 {
+        let amount = want.min(self.stock().max(0.0));
+        let act = act & !(amount <= 0.0);
+        let sold = accumulate(self.releases, amount);
+        self.releases = if act { sold } else { self.releases };
+        self.flags |= bits_if(act, acted);
+        if act {
+            amount
+        } else {
+            0.0
+        }
+    }
+}
+
+/// The markets of a set of lanes, column by column, while actions trade on them (every slice as
+/// long as `harvest`).
+#[derive(Debug)]
+pub struct LinearLanes<'a> {
+    /// The market every lane shares.
+    pub terms: LaneTerms,
+    /// Each lane's harvest.
+    pub harvest: &'a [f64],
+    /// Each lane's demand shock.
+    pub shift: &'a [f64],
+    /// Each lane's stock carried in, after losses.
+    pub carried: &'a [f64],
+    /// Each lane's price before any trade ([`LinearLanes::start`]), then its clearing price
+    /// ([`LinearLanes::finish`]).
+    pub price: &'a mut [f64],
+    /// Each lane's purchases.
+    pub purchases: &'a mut [f64],
+    /// Each lane's releases.
+    pub releases: &'a mut [f64],
+    /// Each lane's end-of-period stock ([`LinearLanes::finish`]).
+    pub stock: &'a mut [f64],
+    /// What acted on each lane.
+    pub flags: &'a mut [u16],
+    /// The loops run their AVX2 copies (the CPU has AVX2; the same operations, so the same
+    /// bits).
+    pub wide: bool,
+}
+
+impl LinearLanes<'_> {
+    /// Every lane's market before any trade (its price before any trade in `price`).
+    pub fn start(&mut self) {
+        self.pass(&Start);
+    }
+
+    /// `trade` on every lane's market, in one loop over the lanes.
+    pub fn each<A: LaneAct>(&mut self, trade: &A) {
+        self.pass(&Trade(trade));
+    }
+
+    /// Every lane's clearing price and end-of-period stock once the actions are done.
+    pub fn finish(&mut self) {
+        self.pass(&Finish);
+    }
+
+    /// One loop over the lanes doing `pass` on each, its AVX2 copy when `wide`. The columns go
+    /// to the loop as arguments, cut to one length, so that the compiler knows them apart and
+    /// indexes them without bounds checks.
+    #[inline(always)]
+    fn pass<P: Pass>(&mut self, pass: &P) {
+        let n = self.harvest.len();
+        let columns = (
+            &self.harvest[..n],
+            &self.shift[..n],
+            &self.carried[..n],
+            &mut self.price[..n],
+            &mut self.purchases[..n],
+            &mut self.releases[..n],
+            &mut self.stock[..n],
+            &mut self.flags[..n],
+        );
+        let (h, s, c, p, x, r, k, f) = columns;
+        #[cfg(target_arch = "x86_64")]
+        if self.wide {
+            // SAFETY: `wide` is set only when the CPU has AVX2 (`engine::columns::avx2`)
+            return unsafe { pass_avx2(pass, &self.terms, h, s, c, p, x, r, k, f) };
+        }
+        pass_plain(pass, &self.terms, h, s, c, p, x, r, k, f)
+    }
+}
+
+/// What a loop over the lanes does with each lane's market: [`Start`], [`Trade`], [`Finish`].
+trait Pass {
+    /// Lane market `m` (as the columns hold it) after this pass, and the price and stock to
+    /// write.
+    fn lane(&self, terms: &LaneTerms, m: LaneMarket, stock: f64) -> (LaneMarket, f64, f64);
+}
+
+/// Every lane's market before any trade.
+struct Start;
+
+impl Pass for Start {
+    #[inline(always)]
+    fn lane(&self, terms: &LaneTerms, m: LaneMarket, stock: f64) -> (LaneMarket, f64, f64) {
+        let m = LaneMarket::new(terms, m.harvest, m.shift, m.carried);
+        (m, m.untraded, stock)
+    }
+}
+
+/// An action's trade on every lane.
+struct Trade<'t, A>(&'t A);
+
+impl<A: LaneAct> Pass for Trade<'_, A> {
+    #[inline(always)]
+    fn lane(&self, terms: &LaneTerms, mut m: LaneMarket, stock: f64) -> (LaneMarket, f64, f64) {
+        self.0.act(terms, &mut m);
+        (m, m.untraded, stock)
+    }
+}
+
+/// Every lane's clearing price and stock once the actions are done.
+struct Finish;
+
+impl Pass for Finish {
+    #[inline(always)]
+    fn lane(&self, terms: &LaneTerms, m: LaneMarket, _stock: f64) -> (LaneMarket, f64, f64) {
+        (m, m.price(terms), m.stock())
+    }
+}
+
+/// [`pass_plain`] in AVX2.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+#[allow(clippy::too_many_arguments)]
+unsafe fn pass_avx2<P: Pass>(
+    pass: &P,
+    terms: &LaneTerms,
+    harvest: &[f64],
+    shift: &[f64],
+    carried: &[f64],
+    price: &mut [f64],
+    purchases: &mut [f64],
+    releases: &mut [f64],
+    stock: &mut [f64],
+    flags: &mut [u16],
+) {
+    pass_in(
+        pass, terms, harvest, shift, carried, price, purchases, releases, stock, flags,
+    )
+}
+
+/// One loop over the lanes doing `pass` on each (every column as long as `harvest`).
+#[inline(never)]
+#[allow(clippy::too_many_arguments)]
+fn pass_plain<P: Pass>(
+    pass: &P,
+    terms: &LaneTerms,
+    harvest: &[f64],
+    shift: &[f64],
+    carried: &[f64],
+    price: &mut [f64],
+    purchases: &mut [f64],
+    releases: &mut [f64],
+    stock: &mut [f64],
+    flags: &mut [u16],
+) {
+    pass_in(
+        pass, terms, harvest, shift, carried, price, purchases, releases, stock, flags,
+    )
+}
+
+#[inline(always)]
+#[allow(clippy::too_many_arguments)]
+fn pass_in<P: Pass>(
+    pass: &P,
+    terms: &LaneTerms,
+    harvest: &[f64],
+    shift: &[f64],
+    carried: &[f64],
+    price: &mut [f64],
+    purchases: &mut [f64],
+    releases: &mut [f64],
+    stock: &mut [f64],
+    flags: &mut [u16],
+) {
+    let n = harvest.len();
+    let (shift, carried, price) = (&shift[..n], &carried[..n], &mut price[..n]);
+    let (purchases, releases) = (&mut purchases[..n], &mut releases[..n]);
+    let (stock, flags) = (&mut stock[..n], &mut flags[..n]);
+    for l in 0..n {
+        let m = LaneMarket {
+            harvest: harvest[l],
+            shift: shift[l],
+            carried: carried[l],
+            untraded: price[l],
+            purchases: purchases[l],
+            releases: releases[l],
+            flags: flags[l],
+        };
+        let (m, p, k) = pass.lane(terms, m, stock[l]);
+        price[l] = p;
+        purchases[l] = m.purchases;
+        releases[l] = m.releases;
+        stock[l] = k;
+        flags[l] = m.flags;
+    }
+}
+
+/// An action's trade on one lane of [`LinearLanes`]: the same operations as its
+/// [`PolicyRule::trade`](super::PolicyRule::trade), in the same order, without branches
+/// (inlined into the loop over the lanes, so write it `#[inline(always)]`).
+pub trait LaneAct {
+    /// Trades on lane market `m`.
+    fn act(&self, terms: &LaneTerms, m: &mut LaneMarket);
+}
+
+/// An action's trade over a set of lanes ([`LinearLanes`]); every [`LaneAct`] has it.
+pub trait LaneTrade {
+    /// Trades on every lane of `lanes`.
+    fn trade_lanes(&self, lanes: &mut LinearLanes<'_>);
+}
+
+impl<A: LaneAct> LaneTrade for A {
+    fn trade_lanes(&self, lanes: &mut LinearLanes<'_>) {
+        lanes.each(self);
+    }
+}
