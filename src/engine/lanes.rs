@@ -555,7 +555,7 @@ fn clear_all<'m>(
             }
         }
         lanes.finish();
-        unpaid_all(n, s);
+        unpaid_all(wide, n, s);
     } else if all_live {
         let agency = &model.policy.agency;
         let mut lanes = ClearLanes {
@@ -586,7 +586,7 @@ fn clear_all<'m>(
                 }
             }
         }
-        unpaid_all(n, s);
+        unpaid_all(wide, n, s);
     } else {
         for (l, shock) in shocks[..n].iter().enumerate() {
             if s.live[l] {
@@ -613,7 +613,25 @@ fn clear_all<'m>(
 /// Every lane before the payments, as [`Model::unpaid`]: the producer price the market price,
 /// consumption, nothing paid.
 #[inline(always)]
-fn unpaid_all(n: usize, s: &mut Scratch) {
+fn unpaid_all(wide: bool, n: usize, s: &mut Scratch) {
+    #[cfg(target_arch = "x86_64")]
+    if wide {
+        // SAFETY: `wide` is true only when the CPU has AVX2 (`avx2()`)
+        return unsafe { unpaid_all_avx2(n, s) };
+    }
+    let _ = wide;
+    unpaid_all_in(n, s)
+}
+
+/// [`unpaid_all`] in AVX2.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+unsafe fn unpaid_all_avx2(n: usize, s: &mut Scratch) {
+    unpaid_all_in(n, s)
+}
+
+#[inline(always)]
+fn unpaid_all_in(n: usize, s: &mut Scratch) {
     for l in 0..n.min(LANES) {
         s.producer_price[l] = s.price[l];
         s.deficiency[l] = 0.0;
