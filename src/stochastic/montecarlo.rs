@@ -1510,12 +1510,13 @@ impl<M: PathModel> Context<'_, M> {
                 } else {
                     Vec::new()
                 },
+                // filled period by period as the chunk runs (not zeroed first)
                 series: self
                     .series
                     .iter()
                     .map(|_| {
                         if from < self.series_reps {
-                            vec![0.0; n * periods]
+                            Vec::with_capacity(n * periods)
                         } else {
                             Vec::new()
                         }
@@ -1584,9 +1585,9 @@ impl<M: PathModel> Context<'_, M> {
                 if from < self.season_reps {
                     acc.season_buf.extend_from_slice(fiscal);
                 }
-                for (j, which) in self.series.iter().enumerate() {
-                    if let Some(kept) = acc.series[j].get_mut(t * n..(t + 1) * n) {
-                        kept.copy_from_slice(&which.column(cols)[..n]);
+                if from < self.series_reps {
+                    for (kept, which) in acc.series.iter_mut().zip(self.series) {
+                        kept.extend_from_slice(&which.column(cols)[..n]);
                     }
                 }
                 if pairs {
