@@ -718,35 +718,18 @@ impl SeasonOutlays {
     }
 
     /// Type 7 quantiles of all the outlays at `probs` (ascending); `None` when one lies below the
-    /// kept tail.
+    /// kept tail. The order statistics they read are selected together, from a copy of the tail.
     pub fn quantiles(&self, probs: &[f64]) -> Option<Vec<f64>> {
-        let n = self.len();
-        if n == 0 {
-            return Some(vec![0.0; probs.len()]);
-        }
-        let mut v = self.kept.clone();
-        let mut kth = |k: usize| -> Option<f64> {
-            let i = k.checked_sub(self.dropped)?;
-            Some(super::stats::from_order_key(*v.select_nth_unstable(i).1))
-        };
-        probs
-            .iter()
-            .map(|&p| {
-                let (k, frac) = super::stats::type7_position(n, p);
-                let low = kth(k)?;
-                Some(if frac > 0.0 && k + 1 < n {
-                    let high = kth(k + 1)?;
-                    low + frac * (high - low)
-                } else {
-                    low
-                })
-            })
-            .collect()
+        super::stats::quantiles_above(&mut self.kept.clone(), self.dropped, probs)
     }
 
     /// Adds outlays; drops the smallest when the kept values reach twice the tail. What is kept
     /// (the largest values, as a multiset), how many are dropped and so every quantile do not depend
-    /// on the order the outlays come in within one call.
+    /// on the order the outlays come in within one call. After a pruning an outlay at or below the
+    /// floor (the smallest value kept) is dropped at once: it is at or below every kept value, and
+    /// at least `keep` values stay kept, so every quantile from [`SEASON_QUANTILE_FROM`] up still
+    /// reads only kept values (a long run of outlays equal to the floor, such as the zeros of a
+    /// policy that never spends, is then counted instead of kept and pruned again and again).
     fn extend(&mut self, outlays: &[f64]) {
         match self.floor {
             None => self.kept.extend(outlays.iter().map(|&x| order_key(x))),
@@ -762,11 +745,14 @@ impl SeasonOutlays {
             }
         }
         if self.kept.len() >= 2 * self.keep.max(CHUNK) {
+            // the `keep` largest to the front (selected in descending order), the rest cut off
+            // the end (nothing moves)
             let cut = self.kept.len() - self.keep;
-            self.kept.select_nth_unstable(cut);
-            self.kept.drain(..cut);
+            self.kept
+                .select_nth_unstable_by(self.keep - 1, |a, b| b.cmp(a));
+            self.kept.truncate(self.keep);
             self.dropped += cut;
-            self.floor = self.kept.first().copied();
+            self.floor = self.kept.last().copied();
         }
     }
 
@@ -1807,32 +1793,51 @@ mod tests {
     #[test]
     fn the_kept_tail_gives_the_upper_quantiles_of_the_whole_list() {
         // type 7 (Hyndman and Fan 1996, definition 7) at 95 % and 99 % of the whole list, selected
-        // by `stats::quantiles`, against the tail kept while outlays arrive in chunks
+        // by `stats::quantiles`, against the tail kept while outlays arrive in chunks: a spread
+        // with a third of zeros, a policy that never spends (all +0), and a few repeated values
+        // (many outlays equal to the floor, counted rather than kept)
         let mut x = 0.4321_f64;
-        let whole: Vec<f64> = (0..20_000)
-            .map(|i| {
-                x = (x * 3.95 * (1.0 - x)).clamp(1e-9, 1.0 - 1e-9);
-                if i % 3 == 0 {
-                    0.0
-                } else {
-                    1000.0 * (x - 0.3)
-                }
-            })
-            .collect();
-        let mut tail = SeasonOutlays::new(whole.len());
-        for part in whole.chunks(700) {
-            tail.extend(part);
+        let mut next = || {
+            x = (x * 3.95 * (1.0 - x)).clamp(1e-9, 1.0 - 1e-9);
+            x
+        };
+        let lists: Vec<Vec<f64>> = vec![
+            (0..20_000)
+                .map(|i| {
+                    let x = next();
+                    if i % 3 == 0 {
+                        0.0
+                    } else {
+                        1000.0 * (x - 0.3)
+                    }
+                })
+                .collect(),
+            vec![0.0; 20_000],
+            (0..20_000).map(|_| (4.0 * next()).floor() * 10.0).collect(),
+            (0..9_000)
+                .map(|i| if i % 50 == 0 { next() } else { -0.0 })
+                .collect(),
+        ];
+        for whole in lists {
+            let mut tail = SeasonOutlays::new(whole.len());
+            for part in whole.chunks(700) {
+                tail.extend(part);
+            }
+            assert!(tail.dropped > 0, "the test must drop values");
+            assert_eq!(tail.len(), whole.len());
+            let probs = [0.95, 0.975, 0.99, 1.0];
+            let want = quantiles(&mut whole.clone(), &probs);
+            let got = tail.quantiles(&probs).unwrap();
+            for (a, b) in want.iter().zip(&got) {
+                assert_eq!(a.to_bits(), b.to_bits(), "{want:?} vs {got:?}");
+            }
+            // a quantile below the kept tail is refused, not guessed
+            assert_eq!(tail.quantiles(&[0.5]), None);
         }
-        assert!(tail.dropped > 0, "the test must drop values");
-        assert_eq!(tail.len(), whole.len());
-        let probs = [0.95, 0.975, 0.99, 1.0];
-        let want = quantiles(&mut whole.clone(), &probs);
-        let got = tail.quantiles(&probs).unwrap();
-        for (a, b) in want.iter().zip(&got) {
-            assert_eq!(a.to_bits(), b.to_bits(), "{want:?} vs {got:?}");
-        }
-        // a quantile below the kept tail is refused, not guessed
-        assert_eq!(tail.quantiles(&[0.5]), None);
+        assert_eq!(
+            SeasonOutlays::new(0).quantiles(&[0.95, 0.99]),
+            Some(vec![0.0; 2])
+        );
     }
 
     #[test]

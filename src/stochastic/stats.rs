@@ -403,6 +403,23 @@ pub fn quantiles_of_keys(keys: &mut [i64], zeros: usize, probs: &[f64]) -> Vec<f
     })
 }
 
+/// Type 7 quantiles at `probs` (ascending) of a list made of the values whose [`order_key`]s are
+/// `keys` (reordered in place) and `below` more values, each at or below every one of `keys`, that
+/// are not held: the same bits as [`quantiles`] of the whole list, or `None` when a quantile reads
+/// one of the values not held. All the order statistics are selected together
+/// ([`order_statistics_by_radix`], ranks offset by `below`).
+pub fn quantiles_above(keys: &mut [i64], below: usize, probs: &[f64]) -> Option<Vec<f64>> {
+    let n = keys.len() + below;
+    if n > 0 && probs.iter().any(|&p| type7_position(n, p).0 < below) {
+        return None;
+    }
+    Some(type7_from(n, probs, |ranks, out| {
+        let mut got = vec![0_i64; ranks.len()];
+        radix_order_statistics(keys, below, ranks, &mut got);
+        out.extend(got.into_iter().map(from_order_key));
+    }))
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
