@@ -735,12 +735,8 @@ impl SeasonOutlays {
             None => self.kept.extend(outlays.iter().map(|&x| order_key(x))),
             Some(floor) => {
                 let before = self.kept.len();
-                self.kept.extend(
-                    outlays
-                        .iter()
-                        .map(|&x| order_key(x))
-                        .filter(|&k| k >= floor),
-                );
+                self.kept
+                    .extend(outlays.iter().map(|&x| order_key(x)).filter(|&k| k > floor));
                 self.dropped += outlays.len() - (self.kept.len() - before);
             }
         }
