@@ -487,6 +487,48 @@ impl<T: Bits> Iterator for Values<'_, T> {
     fn size_hint(&self) -> (usize, Option<usize>) {
         (self.left, Some(self.left))
     }
+
+    /// The values in the order [`Values::next`] gives them, a block at a time: a block's bytes or
+    /// values through its slice, a value held once repeated, so a sum or a count over every
+    /// replication (`Iterator::sum`, `map`, `fold`) does not match the block's kind per value.
+    fn fold<B, F: FnMut(B, T) -> B>(self, init: B, mut f: F) -> B {
+        let Values {
+            blocks,
+            block,
+            mut left,
+        } = self;
+        let mut acc = init;
+        let mut block = Some(block);
+        let mut blocks = blocks;
+        loop {
+            let cursor = match block.take() {
+                Some(c) => c,
+                // every block but the last holds CHUNK replications
+                None => match blocks.next() {
+                    Some(Block::Same(x)) => Cursor::Same(*x, CHUNK.min(left)),
+                    Some(Block::Small(v)) => Cursor::Small(v.iter()),
+                    Some(Block::Each(v)) => Cursor::Each(v.iter()),
+                    None => return acc,
+                },
+            };
+            match cursor {
+                Cursor::Same(x, k) => {
+                    for _ in 0..k {
+                        acc = f(acc, x);
+                    }
+                    left -= k;
+                }
+                Cursor::Small(it) => {
+                    left -= it.len();
+                    acc = it.fold(acc, |acc, &b| f(acc, T::from_small(b)));
+                }
+                Cursor::Each(it) => {
+                    left -= it.len();
+                    acc = it.fold(acc, |acc, &v| f(acc, v));
+                }
+            }
+        }
+    }
 }
 
 impl<T: Bits> ExactSizeIterator for Values<'_, T> {}
@@ -1836,10 +1878,9 @@ mod tests {
         );
     }
 
-    #[test]
-    fn chunk_blocks_give_back_every_summary() {
-        // values shared across the chunk, small and large counts, and values that differ
-        let summaries: Vec<ReplicationSummary> = (0..CHUNK as u32 + 5)
+    /// Summaries with values shared across a chunk, small and large counts, and values that differ.
+    fn mixed_summaries() -> Vec<ReplicationSummary> {
+        (0..CHUNK as u32 + 5)
             .map(|i| ReplicationSummary {
                 mean_price: 100.0 + f64::from(i) * 0.37,
                 final_stock: 12.5,
@@ -1853,7 +1894,59 @@ mod tests {
                 },
                 ..Default::default()
             })
-            .collect();
+            .collect()
+    }
+
+    fn store(summaries: &[ReplicationSummary]) -> Replications {
+        let mut reps = Replications::new();
+        for part in summaries.chunks(CHUNK) {
+            reps.push(ChunkBlocks::of(part));
+        }
+        reps
+    }
+
+    #[test]
+    fn values_fold_block_by_block_gives_the_values_one_by_one() {
+        // `Values::fold` against `Values::next`, from the start and from part-way through a block,
+        // on blocks held once, as bytes and value by value
+        let reps = store(&mixed_summaries());
+        fn by_next<T: Bits>(mut it: Values<'_, T>) -> Vec<u64> {
+            let mut out = Vec::new();
+            while let Some(v) = it.next() {
+                out.push(v.bits());
+            }
+            out
+        }
+        fn by_fold<T: Bits>(it: Values<'_, T>) -> Vec<u64> {
+            it.fold(Vec::new(), |mut out, v| {
+                out.push(v.bits());
+                out
+            })
+        }
+        fn after<T: Bits>(mut it: Values<'_, T>, skip: usize) -> Values<'_, T> {
+            for _ in 0..skip {
+                it.next();
+            }
+            it
+        }
+        for skip in [0, 1, CHUNK - 1, CHUNK, CHUNK + 3, reps.len()] {
+            for which in [Real::MeanPrice, Real::FinalStock, Real::FiscalCost] {
+                let want = by_next(after(reps.reals(which), skip));
+                assert_eq!(want.len(), reps.len() - skip);
+                let got = by_fold(after(reps.reals(which), skip));
+                assert_eq!(got, want, "{which:?} from {skip}");
+            }
+            for which in [Count::CapacityFull, Count::Stockout, Count::Alert(1)] {
+                let want = by_next(after(reps.counts(which), skip));
+                let got = by_fold(after(reps.counts(which), skip));
+                assert_eq!(got, want, "{which:?} from {skip}");
+            }
+        }
+    }
+
+    #[test]
+    fn chunk_blocks_give_back_every_summary() {
+        let summaries = mixed_summaries();
         let mut reps = Replications::new();
         for part in summaries.chunks(CHUNK) {
             reps.push(ChunkBlocks::of(part));
