@@ -19,7 +19,7 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 use rayon::prelude::*;
 use serde::Serialize;
 
-use super::draw_shocks;
+use super::draw_shocks_into;
 use super::lanes::{LaneFold, Lanes};
 use super::stats::{order_key, quantiles_of_keys, ShiftedSums, Summary};
 use crate::engine::{Columns, Diverged, LaneStepper, Model, PathModel, PeriodRecord, PeriodShock};
@@ -1558,14 +1558,12 @@ impl<M: PathModel> Context<'_, M> {
             .collect();
         let mut paired = vec![PairedChanges::default(); self.pairs.len()];
         // every replication's shocks, drawn once and handed to every model, period-major:
-        // [t · n + lane], so period t's shocks are one slice
+        // [t · n + lane], so period t's shocks are one slice; each lane's drawn straight into its
+        // places
         let mut shocks = vec![PeriodShock::NONE; periods * n];
-        let mut drawn = vec![PeriodShock::NONE; periods];
         for lane in 0..n {
-            draw_shocks(s, (from + lane) as u64, &mut drawn);
-            for (t, shock) in drawn.iter().enumerate() {
-                shocks[t * n + lane] = *shock;
-            }
+            let places = shocks.iter_mut().skip(lane).step_by(n);
+            draw_shocks_into(s, (from + lane) as u64, places);
         }
         let mut lanes: Vec<M::Lanes<'_>> = self.models.iter().map(|m| m.start_lanes(n)).collect();
         let mut columns: Vec<Columns> = self.models.iter().map(|_| Columns::default()).collect();
