@@ -1390,16 +1390,19 @@ fn run_with_budget<M: PathModel>(
 
 /// One model's period over the lanes of a chunk: what its per-period sums add, lane by lane.
 struct PeriodSums<'c> {
-    fiscal: &'c [f64],
-    income: &'c [f64],
-    transform: &'c [f64],
+    /// the chunk's lanes (at most [`CHUNK`])
+    n: usize,
+    fiscal: &'c Lanes,
+    income: &'c Lanes,
+    transform: &'c Lanes,
 }
 
 impl PeriodSums<'_> {
     /// Adds the period's fiscal costs, incomes and CRRA transforms to `sums` and the `K` kept
     /// series to `series_sums`, each sum over the lanes in lane order (the bits of adding the
     /// replications one after another) but all the sums in one loop, so their chains of additions
-    /// overlap instead of waiting on one another.
+    /// overlap instead of waiting on one another. The loop reads whole arrays of lanes below
+    /// [`CHUNK`], so no index is checked in it.
     #[inline(always)]
     fn add<const K: usize>(
         &self,
@@ -1408,11 +1411,10 @@ impl PeriodSums<'_> {
         series: &[PathVariable],
         series_sums: &mut [f64],
     ) {
-        let n = self.fiscal.len();
-        let xs: [&[f64]; K] = std::array::from_fn(|j| &series[j].column(cols)[..n]);
+        let n = self.n.min(CHUNK);
+        let xs: [&Lanes; K] = std::array::from_fn(|j| series[j].column(cols));
         let mut s: [f64; K] = std::array::from_fn(|j| series_sums[j]);
-        let (fiscal, income, transform) =
-            (&self.fiscal[..n], &self.income[..n], &self.transform[..n]);
+        let (fiscal, income, transform) = (self.fiscal, self.income, self.transform);
         let [mut a, mut b, mut c] = *sums;
         for l in 0..n {
             a += fiscal[l];
@@ -1436,7 +1438,7 @@ impl PeriodSums<'_> {
     ) {
         self.add::<0>(sums, cols, &[], &mut []);
         for (which, sum) in series.iter().zip(series_sums) {
-            for v in &which.column(cols)[..self.fiscal.len()] {
+            for v in &which.column(cols)[..self.n.min(CHUNK)] {
                 *sum += v;
             }
         }
@@ -1591,9 +1593,10 @@ impl<M: PathModel> Context<'_, M> {
                 fold.add(cols, watch);
                 let fiscal = &cols.fiscal_cost[..n];
                 let period = PeriodSums {
-                    fiscal,
-                    income: &fold.income[..n],
-                    transform: &fold.transform[..n],
+                    n,
+                    fiscal: &cols.fiscal_cost,
+                    income: &fold.income,
+                    transform: &fold.transform,
                 };
                 let series_sums = &mut acc.series_sums[t * kinds..(t + 1) * kinds];
                 match kinds {
