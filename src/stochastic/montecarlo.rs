@@ -1970,9 +1970,10 @@ mod tests {
         // `Values::fold` against `Values::next`, from the start and from part-way through a block,
         // on blocks held once, as bytes and value by value
         let reps = store(&mixed_summaries());
-        fn by_next<T: Bits>(mut it: Values<'_, T>) -> Vec<u64> {
+        fn by_next<T: Bits>(it: Values<'_, T>) -> Vec<u64> {
+            // a `for` loop calls `next`, value by value
             let mut out = Vec::new();
-            while let Some(v) = it.next() {
+            for v in it {
                 out.push(v.bits());
             }
             out
