@@ -732,8 +732,9 @@ pub struct SeasonOutlays {
     dropped: usize,
     /// How many of the largest to keep at least.
     keep: usize,
-    /// The smallest kept value after the last pruning: a later outlay below it can never be among
-    /// the largest `keep`, so it is counted as dropped at once.
+    /// The smallest kept value after the last pruning: a later outlay at or below it is at or below
+    /// every kept value and never needed by a quantile from [`SEASON_QUANTILE_FROM`] up, so it is
+    /// counted as dropped at once.
     floor: Option<i64>,
 }
 
