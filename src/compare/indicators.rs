@@ -455,13 +455,12 @@ pub fn revenue_cv(sd: f64, mean: f64) -> f64 {
 }
 
 /// Mean and Monte Carlo standard error (sample sd / √n, divisor n − 1) of per-replication values,
-/// summed in the given order. The standard error is `None` with fewer than two values.
+/// summed in the given order. The standard error is `None` with fewer than two values. Both passes
+/// fold the values (the iterator's own `fold`: a replication store reads block by block).
 pub fn mean_se(values: impl Iterator<Item = f64> + Clone) -> (f64, Option<f64>) {
-    let (mut n, mut sum) = (0usize, 0.0);
-    for v in values.clone() {
-        n += 1;
-        sum += v;
-    }
+    let (n, sum) = values
+        .clone()
+        .fold((0usize, 0.0), |(n, sum), v| (n + 1, sum + v));
     if n == 0 {
         return (0.0, None);
     }

@@ -311,7 +311,8 @@ impl LaneFold {
     }
 
     /// Lane `lane`'s summary and its pooled moments, the path having ended where `last` (the
-    /// columns of the last period folded) leaves it.
+    /// columns of the last period folded) leaves it. Reads the lane's values by index (an
+    /// array's `map` would take a copy of the whole array of lanes first).
     pub(crate) fn finish(
         &self,
         lane: usize,
@@ -330,8 +331,8 @@ impl LaneFold {
         let per = self.count.max(1) as f64;
         let summary = ReplicationSummary {
             welfare: finish_pv(
-                self.items.map(|x| x[l]),
-                self.trade.map(|x| x[l]),
+                std::array::from_fn(|i| self.items[i][l]),
+                std::array::from_fn(|i| self.trade[i][l]),
                 (last.stock[l], last.price[l], last.period),
                 &watch.books,
             ),
@@ -346,7 +347,7 @@ impl LaneFold {
             worst_season_fiscal: if self.count == 0 { 0.0 } else { self.worst[l] },
             peak_cumulative_fiscal: self.peak[l],
             budget_exceeded_periods: self.budget_exceeded[l],
-            alert_periods: self.alerts.map(|x| x[l]),
+            alert_periods: std::array::from_fn(|k| self.alerts[k][l]),
             floor_failed_periods: self.floor_failed[l],
             band_failed_periods: self.band_failed[l],
             capacity_full_periods: self.capacity_full[l],

@@ -19,7 +19,7 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 use rayon::prelude::*;
 use serde::Serialize;
 
-use super::draw_shocks;
+use super::draw_shocks_into;
 use super::lanes::{LaneFold, Lanes};
 use super::stats::{order_key, quantiles_of_keys, ShiftedSums, Summary};
 use crate::engine::{Columns, Diverged, LaneStepper, Model, PathModel, PeriodRecord, PeriodShock};
@@ -487,6 +487,48 @@ impl<T: Bits> Iterator for Values<'_, T> {
     fn size_hint(&self) -> (usize, Option<usize>) {
         (self.left, Some(self.left))
     }
+
+    /// The values in the order [`Values::next`] gives them, a block at a time: a block's bytes or
+    /// values through its slice, a value held once repeated, so a sum or a count over every
+    /// replication (`Iterator::sum`, `map`, `fold`) does not match the block's kind per value.
+    fn fold<B, F: FnMut(B, T) -> B>(self, init: B, mut f: F) -> B {
+        let Values {
+            blocks,
+            block,
+            mut left,
+        } = self;
+        let mut acc = init;
+        let mut block = Some(block);
+        let mut blocks = blocks;
+        loop {
+            let cursor = match block.take() {
+                Some(c) => c,
+                // every block but the last holds CHUNK replications
+                None => match blocks.next() {
+                    Some(Block::Same(x)) => Cursor::Same(*x, CHUNK.min(left)),
+                    Some(Block::Small(v)) => Cursor::Small(v.iter()),
+                    Some(Block::Each(v)) => Cursor::Each(v.iter()),
+                    None => return acc,
+                },
+            };
+            match cursor {
+                Cursor::Same(x, k) => {
+                    for _ in 0..k {
+                        acc = f(acc, x);
+                    }
+                    left -= k;
+                }
+                Cursor::Small(it) => {
+                    left -= it.len();
+                    acc = it.fold(acc, |acc, &b| f(acc, T::from_small(b)));
+                }
+                Cursor::Each(it) => {
+                    left -= it.len();
+                    acc = it.fold(acc, |acc, &v| f(acc, v));
+                }
+            }
+        }
+    }
 }
 
 impl<T: Bits> ExactSizeIterator for Values<'_, T> {}
@@ -690,8 +732,9 @@ pub struct SeasonOutlays {
     dropped: usize,
     /// How many of the largest to keep at least.
     keep: usize,
-    /// The smallest kept value after the last pruning: a later outlay below it can never be among
-    /// the largest `keep`, so it is counted as dropped at once.
+    /// The smallest kept value after the last pruning: a later outlay at or below it is at or below
+    /// every kept value and never needed by a quantile from [`SEASON_QUANTILE_FROM`] up, so it is
+    /// counted as dropped at once.
     floor: Option<i64>,
 }
 
@@ -718,55 +761,37 @@ impl SeasonOutlays {
     }
 
     /// Type 7 quantiles of all the outlays at `probs` (ascending); `None` when one lies below the
-    /// kept tail.
+    /// kept tail. The order statistics they read are selected together, from a copy of the tail.
     pub fn quantiles(&self, probs: &[f64]) -> Option<Vec<f64>> {
-        let n = self.len();
-        if n == 0 {
-            return Some(vec![0.0; probs.len()]);
-        }
-        let mut v = self.kept.clone();
-        let mut kth = |k: usize| -> Option<f64> {
-            let i = k.checked_sub(self.dropped)?;
-            Some(super::stats::from_order_key(*v.select_nth_unstable(i).1))
-        };
-        probs
-            .iter()
-            .map(|&p| {
-                let (k, frac) = super::stats::type7_position(n, p);
-                let low = kth(k)?;
-                Some(if frac > 0.0 && k + 1 < n {
-                    let high = kth(k + 1)?;
-                    low + frac * (high - low)
-                } else {
-                    low
-                })
-            })
-            .collect()
+        super::stats::quantiles_above(&mut self.kept.clone(), self.dropped, probs)
     }
 
     /// Adds outlays; drops the smallest when the kept values reach twice the tail. What is kept
     /// (the largest values, as a multiset), how many are dropped and so every quantile do not depend
-    /// on the order the outlays come in within one call.
+    /// on the order the outlays come in within one call. After a pruning an outlay at or below the
+    /// floor (the smallest value kept) is dropped at once: it is at or below every kept value, and
+    /// at least `keep` values stay kept, so every quantile from [`SEASON_QUANTILE_FROM`] up still
+    /// reads only kept values (a long run of outlays equal to the floor, such as the zeros of a
+    /// policy that never spends, is then counted instead of kept and pruned again and again).
     fn extend(&mut self, outlays: &[f64]) {
         match self.floor {
             None => self.kept.extend(outlays.iter().map(|&x| order_key(x))),
             Some(floor) => {
                 let before = self.kept.len();
-                self.kept.extend(
-                    outlays
-                        .iter()
-                        .map(|&x| order_key(x))
-                        .filter(|&k| k >= floor),
-                );
+                self.kept
+                    .extend(outlays.iter().map(|&x| order_key(x)).filter(|&k| k > floor));
                 self.dropped += outlays.len() - (self.kept.len() - before);
             }
         }
         if self.kept.len() >= 2 * self.keep.max(CHUNK) {
+            // the `keep` largest to the front (selected in descending order), the rest cut off
+            // the end (nothing moves)
             let cut = self.kept.len() - self.keep;
-            self.kept.select_nth_unstable(cut);
-            self.kept.drain(..cut);
+            self.kept
+                .select_nth_unstable_by(self.keep - 1, |a, b| b.cmp(a));
+            self.kept.truncate(self.keep);
             self.dropped += cut;
-            self.floor = self.kept.first().copied();
+            self.floor = self.kept.last().copied();
         }
     }
 
@@ -1325,11 +1350,12 @@ fn run_with_budget<M: PathModel>(
     let wave_of = |wave: usize| -> Vec<Option<ChunkOutcome>> {
         (wave..(wave + WAVE).min(chunks))
             .into_par_iter()
-            .map(|c| {
+            // each worker's period columns, reused from chunk to chunk
+            .map_init(Vec::new, |columns, c| {
                 if first_failure.load(Ordering::Relaxed) < c {
                     return None; // an earlier chunk failed: this one cannot be the first failure
                 }
-                let out = ctx.chunk(c * CHUNK, ((c + 1) * CHUNK).min(reps));
+                let out = ctx.chunk(c * CHUNK, ((c + 1) * CHUNK).min(reps), columns);
                 if out.is_err() {
                     first_failure.fetch_min(c, Ordering::Relaxed);
                 }
@@ -1366,16 +1392,19 @@ fn run_with_budget<M: PathModel>(
 
 /// One model's period over the lanes of a chunk: what its per-period sums add, lane by lane.
 struct PeriodSums<'c> {
-    fiscal: &'c [f64],
-    income: &'c [f64],
-    transform: &'c [f64],
+    /// the chunk's lanes (at most [`CHUNK`])
+    n: usize,
+    fiscal: &'c Lanes,
+    income: &'c Lanes,
+    transform: &'c Lanes,
 }
 
 impl PeriodSums<'_> {
     /// Adds the period's fiscal costs, incomes and CRRA transforms to `sums` and the `K` kept
     /// series to `series_sums`, each sum over the lanes in lane order (the bits of adding the
     /// replications one after another) but all the sums in one loop, so their chains of additions
-    /// overlap instead of waiting on one another.
+    /// overlap instead of waiting on one another. The loop reads whole arrays of lanes below
+    /// [`CHUNK`], so no index is checked in it.
     #[inline(always)]
     fn add<const K: usize>(
         &self,
@@ -1384,11 +1413,10 @@ impl PeriodSums<'_> {
         series: &[PathVariable],
         series_sums: &mut [f64],
     ) {
-        let n = self.fiscal.len();
-        let xs: [&[f64]; K] = std::array::from_fn(|j| &series[j].column(cols)[..n]);
+        let n = self.n.min(CHUNK);
+        let xs: [&Lanes; K] = std::array::from_fn(|j| series[j].column(cols));
         let mut s: [f64; K] = std::array::from_fn(|j| series_sums[j]);
-        let (fiscal, income, transform) =
-            (&self.fiscal[..n], &self.income[..n], &self.transform[..n]);
+        let (fiscal, income, transform) = (self.fiscal, self.income, self.transform);
         let [mut a, mut b, mut c] = *sums;
         for l in 0..n {
             a += fiscal[l];
@@ -1412,7 +1440,7 @@ impl PeriodSums<'_> {
     ) {
         self.add::<0>(sums, cols, &[], &mut []);
         for (which, sum) in series.iter().zip(series_sums) {
-            for v in &which.column(cols)[..self.fiscal.len()] {
+            for v in &which.column(cols)[..self.n.min(CHUNK)] {
                 *sum += v;
             }
         }
@@ -1488,7 +1516,12 @@ impl<M: PathModel> Context<'_, M> {
     /// and the period is folded over the lanes at once ([`LaneFold`]); a lane's sums see its
     /// periods in order and the chunk's sums see the lanes in replication order, so every figure has
     /// the bits of folding the replications one after another.
-    fn chunk(&self, from: usize, to: usize) -> ChunkOutcome {
+    ///
+    /// `columns` holds one [`Columns`] per model for the period just stepped (made here when it is
+    /// empty), reused by the next chunk the caller runs: every period's step writes the lanes it
+    /// steps before they are read, and nothing reads a lane at or above the chunk's size, so what an
+    /// earlier chunk left in them is never read (and they are not zeroed again, 14 KB a model).
+    fn chunk(&self, from: usize, to: usize, columns: &mut Vec<Columns>) -> ChunkOutcome {
         let s = self.scenario;
         let periods = s.run.periods;
         let n = to - from;
@@ -1510,12 +1543,13 @@ impl<M: PathModel> Context<'_, M> {
                 } else {
                     Vec::new()
                 },
+                // filled period by period as the chunk runs (not zeroed first)
                 series: self
                     .series
                     .iter()
                     .map(|_| {
                         if from < self.series_reps {
-                            vec![0.0; n * periods]
+                            Vec::with_capacity(n * periods)
                         } else {
                             Vec::new()
                         }
@@ -1533,17 +1567,15 @@ impl<M: PathModel> Context<'_, M> {
             .collect();
         let mut paired = vec![PairedChanges::default(); self.pairs.len()];
         // every replication's shocks, drawn once and handed to every model, period-major:
-        // [t · n + lane], so period t's shocks are one slice
+        // [t · n + lane], so period t's shocks are one slice; each lane's drawn straight into its
+        // places
         let mut shocks = vec![PeriodShock::NONE; periods * n];
-        let mut drawn = vec![PeriodShock::NONE; periods];
         for lane in 0..n {
-            draw_shocks(s, (from + lane) as u64, &mut drawn);
-            for (t, shock) in drawn.iter().enumerate() {
-                shocks[t * n + lane] = *shock;
-            }
+            let places = shocks.iter_mut().skip(lane).step_by(n);
+            draw_shocks_into(s, (from + lane) as u64, places);
         }
         let mut lanes: Vec<M::Lanes<'_>> = self.models.iter().map(|m| m.start_lanes(n)).collect();
-        let mut columns: Vec<Columns> = self.models.iter().map(|_| Columns::default()).collect();
+        columns.resize_with(self.models.len(), Columns::default);
         let mut failed: Vec<Vec<Option<Diverged>>> =
             self.models.iter().map(|_| vec![None; n]).collect();
         let mut folds: Vec<LaneFold> = self
@@ -1568,9 +1600,10 @@ impl<M: PathModel> Context<'_, M> {
                 fold.add(cols, watch);
                 let fiscal = &cols.fiscal_cost[..n];
                 let period = PeriodSums {
-                    fiscal,
-                    income: &fold.income[..n],
-                    transform: &fold.transform[..n],
+                    n,
+                    fiscal: &cols.fiscal_cost,
+                    income: &fold.income,
+                    transform: &fold.transform,
                 };
                 let series_sums = &mut acc.series_sums[t * kinds..(t + 1) * kinds];
                 match kinds {
@@ -1584,9 +1617,9 @@ impl<M: PathModel> Context<'_, M> {
                 if from < self.season_reps {
                     acc.season_buf.extend_from_slice(fiscal);
                 }
-                for (j, which) in self.series.iter().enumerate() {
-                    if let Some(kept) = acc.series[j].get_mut(t * n..(t + 1) * n) {
-                        kept.copy_from_slice(&which.column(cols)[..n]);
+                if from < self.series_reps {
+                    for (kept, which) in acc.series.iter_mut().zip(self.series) {
+                        kept.extend_from_slice(&which.column(cols)[..n]);
                     }
                 }
                 if pairs {
@@ -1608,7 +1641,7 @@ impl<M: PathModel> Context<'_, M> {
         for lane in 0..n {
             for (k, (((fold, cols), failed), (acc, watch))) in folds
                 .iter()
-                .zip(&columns)
+                .zip(columns.iter())
                 .zip(failed.iter_mut())
                 .zip(out.iter_mut().zip(self.watches))
                 .enumerate()
@@ -1806,38 +1839,109 @@ mod tests {
     #[test]
     fn the_kept_tail_gives_the_upper_quantiles_of_the_whole_list() {
         // type 7 (Hyndman and Fan 1996, definition 7) at 95 % and 99 % of the whole list, selected
-        // by `stats::quantiles`, against the tail kept while outlays arrive in chunks
+        // by `stats::quantiles`, against the tail kept while outlays arrive in chunks: a spread
+        // with a third of zeros, a policy that never spends (all +0), and a few repeated values
+        // (many outlays equal to the floor, counted rather than kept)
         let mut x = 0.4321_f64;
-        let whole: Vec<f64> = (0..20_000)
-            .map(|i| {
-                x = (x * 3.95 * (1.0 - x)).clamp(1e-9, 1.0 - 1e-9);
-                if i % 3 == 0 {
-                    0.0
-                } else {
-                    1000.0 * (x - 0.3)
-                }
-            })
-            .collect();
-        let mut tail = SeasonOutlays::new(whole.len());
-        for part in whole.chunks(700) {
-            tail.extend(part);
+        let mut next = || {
+            x = (x * 3.95 * (1.0 - x)).clamp(1e-9, 1.0 - 1e-9);
+            x
+        };
+        let lists: Vec<Vec<f64>> = vec![
+            (0..20_000)
+                .map(|i| {
+                    let x = next();
+                    if i % 3 == 0 {
+                        0.0
+                    } else {
+                        1000.0 * (x - 0.3)
+                    }
+                })
+                .collect(),
+            vec![0.0; 20_000],
+            (0..20_000).map(|_| (4.0 * next()).floor() * 10.0).collect(),
+            (0..9_000)
+                .map(|i| if i % 50 == 0 { next() } else { -0.0 })
+                .collect(),
+        ];
+        for whole in lists {
+            let mut tail = SeasonOutlays::new(whole.len());
+            for part in whole.chunks(700) {
+                tail.extend(part);
+            }
+            assert!(tail.dropped > 0, "the test must drop values");
+            assert_eq!(tail.len(), whole.len());
+            let probs = [0.95, 0.975, 0.99, 1.0];
+            let want = quantiles(&mut whole.clone(), &probs);
+            let got = tail.quantiles(&probs).unwrap();
+            for (a, b) in want.iter().zip(&got) {
+                assert_eq!(a.to_bits(), b.to_bits(), "{want:?} vs {got:?}");
+            }
+            // a quantile below the kept tail is refused, not guessed
+            assert_eq!(tail.quantiles(&[0.5]), None);
         }
-        assert!(tail.dropped > 0, "the test must drop values");
-        assert_eq!(tail.len(), whole.len());
-        let probs = [0.95, 0.975, 0.99, 1.0];
-        let want = quantiles(&mut whole.clone(), &probs);
-        let got = tail.quantiles(&probs).unwrap();
-        for (a, b) in want.iter().zip(&got) {
-            assert_eq!(a.to_bits(), b.to_bits(), "{want:?} vs {got:?}");
-        }
-        // a quantile below the kept tail is refused, not guessed
-        assert_eq!(tail.quantiles(&[0.5]), None);
+        assert_eq!(
+            SeasonOutlays::new(0).quantiles(&[0.95, 0.99]),
+            Some(vec![0.0; 2])
+        );
     }
 
     #[test]
-    fn chunk_blocks_give_back_every_summary() {
-        // values shared across the chunk, small and large counts, and values that differ
-        let summaries: Vec<ReplicationSummary> = (0..CHUNK as u32 + 5)
+    fn a_chunk_on_reused_columns_gives_the_bits_of_one_on_fresh_columns() {
+        // the last, short chunk on the columns a full chunk left behind, against the same chunk on
+        // fresh columns: every figure it hands back has the same bits
+        let reps = 2 * CHUNK + 23;
+        let s = scenario(reps);
+        let band = crate::policies::file::policy_from_table(
+            "p.toml",
+            parse_toml(
+                "p.toml",
+                "[policy]\nname = \"Band\"\n[stock]\nbuy_below = 78.0\nsell_above = 84.0\n\
+                 capacity = 30.0\ninitial = 5.0\nstorage_cost = 1.0\n",
+            )
+            .unwrap(),
+        )
+        .unwrap();
+        let policies = [PolicySpec::none(), band];
+        let models: Vec<Model> = policies.iter().map(|p| Model::new(&s, p)).collect();
+        let watches: Vec<Watch> = policies
+            .iter()
+            .map(|p| Watch::new(&s, p, &crate::policies::compile(p).agency))
+            .collect();
+        let first_failure = AtomicUsize::new(usize::MAX);
+        let ctx = Context {
+            pairs: &[],
+            weights: &[],
+            scenario: &s,
+            models: &models,
+            watches: &watches,
+            series: &[PathVariable::Price, PathVariable::Stock],
+            series_reps: reps,
+            season_reps: reps,
+            first_failure: &first_failure,
+            progress: &NoProgress,
+        };
+        let bits = |columns: &mut Vec<Columns>| -> Vec<String> {
+            let (out, _) = ctx.chunk(2 * CHUNK, reps, columns).unwrap();
+            out.iter()
+                .map(|c| {
+                    format!(
+                        "{} {:?} {:?} {:?} {:?} {:?} {:?}",
+                        c.n, c.pooled, c.sums, c.series, c.series_sums, c.blocks, c.season_buf
+                    )
+                })
+                .collect()
+        };
+        let fresh = bits(&mut Vec::new());
+        let mut used = Vec::new();
+        assert!(ctx.chunk(CHUNK, 2 * CHUNK, &mut used).is_ok());
+        assert_eq!(used.len(), models.len());
+        assert_eq!(bits(&mut used), fresh);
+    }
+
+    /// Summaries with values shared across a chunk, small and large counts, and values that differ.
+    fn mixed_summaries() -> Vec<ReplicationSummary> {
+        (0..CHUNK as u32 + 5)
             .map(|i| ReplicationSummary {
                 mean_price: 100.0 + f64::from(i) * 0.37,
                 final_stock: 12.5,
@@ -1851,7 +1955,60 @@ mod tests {
                 },
                 ..Default::default()
             })
-            .collect();
+            .collect()
+    }
+
+    fn store(summaries: &[ReplicationSummary]) -> Replications {
+        let mut reps = Replications::new();
+        for part in summaries.chunks(CHUNK) {
+            reps.push(ChunkBlocks::of(part));
+        }
+        reps
+    }
+
+    #[test]
+    fn values_fold_block_by_block_gives_the_values_one_by_one() {
+        // `Values::fold` against `Values::next`, from the start and from part-way through a block,
+        // on blocks held once, as bytes and value by value
+        let reps = store(&mixed_summaries());
+        fn by_next<T: Bits>(it: Values<'_, T>) -> Vec<u64> {
+            // a `for` loop calls `next`, value by value
+            let mut out = Vec::new();
+            for v in it {
+                out.push(v.bits());
+            }
+            out
+        }
+        fn by_fold<T: Bits>(it: Values<'_, T>) -> Vec<u64> {
+            it.fold(Vec::new(), |mut out, v| {
+                out.push(v.bits());
+                out
+            })
+        }
+        fn after<T: Bits>(mut it: Values<'_, T>, skip: usize) -> Values<'_, T> {
+            for _ in 0..skip {
+                it.next();
+            }
+            it
+        }
+        for skip in [0, 1, CHUNK - 1, CHUNK, CHUNK + 3, reps.len()] {
+            for which in [Real::MeanPrice, Real::FinalStock, Real::FiscalCost] {
+                let want = by_next(after(reps.reals(which), skip));
+                assert_eq!(want.len(), reps.len() - skip);
+                let got = by_fold(after(reps.reals(which), skip));
+                assert_eq!(got, want, "{which:?} from {skip}");
+            }
+            for which in [Count::CapacityFull, Count::Stockout, Count::Alert(1)] {
+                let want = by_next(after(reps.counts(which), skip));
+                let got = by_fold(after(reps.counts(which), skip));
+                assert_eq!(got, want, "{which:?} from {skip}");
+            }
+        }
+    }
+
+    #[test]
+    fn chunk_blocks_give_back_every_summary() {
+        let summaries = mixed_summaries();
         let mut reps = Replications::new();
         for part in summaries.chunks(CHUNK) {
             reps.push(ChunkBlocks::of(part));

@@ -134,12 +134,22 @@ pub fn single_path_shocks(scenario: &Scenario) -> Vec<PeriodShock> {
 /// [`single_path_shocks`] for replication 0). Monte Carlo draws each replication's shocks once with
 /// this and hands them to every model of the replication.
 pub fn draw_shocks(scenario: &Scenario, replication: u64, into: &mut [PeriodShock]) {
+    draw_shocks_into(scenario, replication, into.iter_mut());
+}
+
+/// [`draw_shocks`] into the places `into` gives, one per period in period order (the Monte Carlo
+/// writes a replication's shocks straight into its lane of a period-major table).
+pub(crate) fn draw_shocks_into<'a>(
+    scenario: &Scenario,
+    replication: u64,
+    into: impl Iterator<Item = &'a mut PeriodShock>,
+) {
     if scenario.is_deterministic() {
-        into.fill(PeriodShock::NONE);
+        into.for_each(|x| *x = PeriodShock::NONE);
         return;
     }
     let mut stream = ShockStream::for_scenario(scenario, replication);
-    for x in into.iter_mut() {
+    for x in into {
         *x = stream.next_shock();
     }
 }

@@ -248,14 +248,17 @@ fn radix_pass<T: RadixKey, const BITS: u32, const BUCKETS: usize>(
     ranks: &[usize],
     out: &mut [T],
 ) {
-    // below 2^BITS, so indexing the arrays needs no check. The bucket is taken from the key's bits
-    // before the sign flip: below the shared prefix they are the same bits, except when the prefix
-    // is empty (keys of both signs), where the upper half of the buckets comes first in the order
-    let bucket = move |x: T| ((x.bits() << shift) >> (64 - BITS)) as usize;
+    // below 2^BITS (the mask where a bucket indexes only tells the compiler so, and indexing the
+    // arrays needs no check). The bucket is taken from the key's bits before the sign flip: below
+    // the shared prefix they are the same bits, except when the prefix is empty (keys of both
+    // signs), where the upper half of the buckets comes first in the order
+    let bucket = move |x: T| ((x.bits() << shift) >> (64 - BITS)) as u16;
     let flip = if shift == 0 { BUCKETS / 2 } else { 0 };
+    // each value's bucket, worked out once for the count and the gather (a loop of shifts alone)
+    let buckets: Vec<u16> = v.iter().map(|&x| bucket(x)).collect();
     let mut counts = [0_u32; BUCKETS];
-    for &x in v.iter() {
-        counts[bucket(x)] += 1;
+    for &b in &buckets {
+        counts[usize::from(b) & (BUCKETS - 1)] += 1;
     }
     // the buckets holding wanted ranks, in ascending order; slot[b] = 1 + its place among them
     let mut slot = [0_u8; BUCKETS];
@@ -291,8 +294,8 @@ fn radix_pass<T: RadixKey, const BITS: u32, const BUCKETS: usize>(
         start = end;
     }
     let mut scratch = vec![v[0]; at];
-    for &x in v.iter() {
-        let s = slot[bucket(x)];
+    for (&x, &b) in v.iter().zip(&buckets) {
+        let s = slot[usize::from(b) & (BUCKETS - 1)];
         if s != 0 {
             let w = &mut wanted[s as usize - 1];
             scratch[w.next] = x;
@@ -401,6 +404,23 @@ pub fn quantiles_of_keys(keys: &mut [i64], zeros: usize, probs: &[f64]) -> Vec<f
         // got[in_lo..in_zeros] stay 0: the key of +0
         out.extend(got.into_iter().map(from_order_key));
     })
+}
+
+/// Type 7 quantiles at `probs` (ascending) of a list made of the values whose [`order_key`]s are
+/// `keys` (reordered in place) and `below` more values, each at or below every one of `keys`, that
+/// are not held: the same bits as [`quantiles`] of the whole list, or `None` when a quantile reads
+/// one of the values not held. All the order statistics are selected together
+/// ([`order_statistics_by_radix`], ranks offset by `below`).
+pub fn quantiles_above(keys: &mut [i64], below: usize, probs: &[f64]) -> Option<Vec<f64>> {
+    let n = keys.len() + below;
+    if n > 0 && probs.iter().any(|&p| type7_position(n, p).0 < below) {
+        return None;
+    }
+    Some(type7_from(n, probs, |ranks, out| {
+        let mut got = vec![0_i64; ranks.len()];
+        radix_order_statistics(keys, below, ranks, &mut got);
+        out.extend(got.into_iter().map(from_order_key));
+    }))
 }
 
 #[cfg(test)]
