@@ -1376,8 +1376,9 @@ fn run_with_budget<M: PathModel>(
         paired,
         season_prices,
     } = acc;
+    // the models assembled in parallel (each on its own; collected in model order)
     let policies = merged
-        .into_iter()
+        .into_par_iter()
         .enumerate()
         .map(|(k, m)| assemble(models[k].name(), m, series, periods, watches[k].clone()))
         .collect();
