@@ -36,7 +36,7 @@ use super::{
 use crate::curves::{Form, Forms, Linear};
 use crate::expectations::{Adaptive, ExpectationInput};
 use crate::policies::lanes::{LaneTerms, LinearLanes};
-use crate::policies::{ClearLanes, Clearing, PayLanes};
+use crate::policies::{ClearLanes, Clearing, MarketColumns, PayLanes};
 use crate::trade::Traded;
 
 /// The lanes of a [`Model`]: phase by phase ([`ModelLanes::Phased`]) when the model allows it,
@@ -206,6 +206,21 @@ impl Scratch {
         self.flags[l] = c.flags;
         self.consumption[l] = c.consumption();
         self.consumer_payments[l] = 0.0;
+    }
+
+    /// The first `n` lanes' markets as the clearing reads and writes them.
+    #[inline(always)]
+    fn markets(&mut self, n: usize) -> MarketColumns<'_> {
+        MarketColumns {
+            harvest: &self.harvest[..n],
+            shift: &self.demand_shock[..n],
+            carried: &self.carried[..n],
+            price: &mut self.price[..n],
+            purchases: &mut self.purchases[..n],
+            releases: &mut self.releases[..n],
+            stock: &mut self.stock[..n],
+            flags: &mut self.flags[..n],
+        }
     }
 
     /// Lane `l`'s clearing put back together.
@@ -538,14 +553,7 @@ fn clear_all<'m>(
                 demand,
                 capacity: model.policy.agency.capacity,
             },
-            harvest: &s.harvest[..n],
-            shift: &s.demand_shock[..n],
-            carried: &s.carried[..n],
-            price: &mut s.price[..n],
-            purchases: &mut s.purchases[..n],
-            releases: &mut s.releases[..n],
-            stock: &mut s.stock[..n],
-            flags: &mut s.flags[..n],
+            columns: s.markets(n),
             wide,
         };
         lanes.start();
@@ -562,14 +570,7 @@ fn clear_all<'m>(
             demand: &model.demand,
             capacity: agency.capacity,
             budget: agency.purchase_budget,
-            shift: &s.demand_shock[..n],
-            harvest: &s.harvest[..n],
-            carried: &s.carried[..n],
-            price: &mut s.price[..n],
-            purchases: &mut s.purchases[..n],
-            releases: &mut s.releases[..n],
-            stock: &mut s.stock[..n],
-            flags: &mut s.flags[..n],
+            columns: s.markets(n),
         };
         let mut trading = model.policy.rules.iter().filter(|r| r.trades_stock());
         match (trading.next(), trading.next()) {

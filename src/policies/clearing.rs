@@ -433,21 +433,15 @@ impl<'a> Clearing<'a> {
     }
 }
 
-/// The closed markets of a set of lanes on one demand curve and one agency: what each lane's
-/// [`Clearing`] starts from, and where the outcome of its trades is written (every slice as long
-/// as `harvest`).
+/// The columns of a set of lanes' closed markets: what each lane's market starts from, and where
+/// the outcome of its trades is written (every slice as long as `harvest`). [`ClearLanes`] and
+/// [`super::lanes::LinearLanes`] clear them.
 #[derive(Debug)]
-pub struct ClearLanes<'d, 'a> {
-    /// Demand curve.
-    pub demand: &'d Curve,
-    /// Storage capacity.
-    pub capacity: f64,
-    /// Purchase spending allowed in a period.
-    pub budget: f64,
-    /// Each lane's additive demand shock.
-    pub shift: &'a [f64],
+pub struct MarketColumns<'a> {
     /// Each lane's harvest.
     pub harvest: &'a [f64],
+    /// Each lane's additive demand shock.
+    pub shift: &'a [f64],
     /// Each lane's stock carried in, after losses.
     pub carried: &'a [f64],
     /// Each lane's clearing price ([`Clearing::price`]), written.
@@ -462,15 +456,30 @@ pub struct ClearLanes<'d, 'a> {
     pub flags: &'a mut [u16],
 }
 
+/// The closed markets of a set of lanes on one demand curve and one agency, each lane a
+/// [`Clearing`].
+#[derive(Debug)]
+pub struct ClearLanes<'d, 'a> {
+    /// Demand curve.
+    pub demand: &'d Curve,
+    /// Storage capacity.
+    pub capacity: f64,
+    /// Purchase spending allowed in a period.
+    pub budget: f64,
+    /// The lanes' markets.
+    pub columns: MarketColumns<'a>,
+}
+
 impl<'d> ClearLanes<'d, '_> {
     /// Lane `l`'s market before any trade.
     #[inline(always)]
     pub fn market(&self, l: usize) -> Clearing<'d> {
+        let c = &self.columns;
         Clearing::new(
             self.demand,
-            self.shift[l],
-            self.harvest[l],
-            self.carried[l],
+            c.shift[l],
+            c.harvest[l],
+            c.carried[l],
             self.capacity,
             self.budget,
         )
@@ -479,18 +488,19 @@ impl<'d> ClearLanes<'d, '_> {
     /// Writes lane `l`'s outcome once the trades on `m` are done.
     #[inline(always)]
     pub fn put(&mut self, l: usize, m: &Clearing) {
-        self.price[l] = m.price();
-        self.purchases[l] = m.purchases;
-        self.releases[l] = m.releases;
-        self.stock[l] = m.stock();
-        self.flags[l] = m.flags;
+        let c = &mut self.columns;
+        c.price[l] = m.price();
+        c.purchases[l] = m.purchases;
+        c.releases[l] = m.releases;
+        c.stock[l] = m.stock();
+        c.flags[l] = m.flags;
     }
 
     /// Each lane's market, `trade` on it, and its outcome written: the market lives in registers
     /// from its start to its outcome when `trade` is inlined.
     #[inline(always)]
     pub fn each(&mut self, trade: impl Fn(&mut Clearing)) {
-        for l in 0..self.harvest.len() {
+        for l in 0..self.columns.harvest.len() {
             let mut m = self.market(l);
             trade(&mut m);
             self.put(l, &m);
@@ -535,7 +545,7 @@ fn budget_cut_open(
 /// `total + amount` for a trade `amount` > 0; the first trade of the period is assigned, since
 /// 0 + amount is amount exactly, which keeps the addition off the price's dependency chain.
 #[inline(always)]
-fn accumulate(total: f64, amount: f64) -> f64 {
+pub(super) fn accumulate(total: f64, amount: f64) -> f64 {
     if total == 0.0 {
         amount
     } else {

@@ -12,7 +12,8 @@
 // and it must go on here too
 #![allow(clippy::neg_cmp_op_on_partial_ord)]
 
-use super::flags;
+use super::clearing::accumulate;
+use super::{flags, MarketColumns};
 use crate::curves::{Form, Linear};
 
 /// One lane's market while actions trade on it (the fields of [`super::Clearing`] a closed
@@ -48,16 +49,6 @@ pub struct LaneTerms {
 #[inline(always)]
 fn bits_if(on: bool, bits: u16) -> u16 {
     (on as u16).wrapping_neg() & bits
-}
-
-/// `amount` added to `total` as [`super::clearing`]'s `accumulate` does (the first trade assigned).
-#[inline(always)]
-fn accumulate(total: f64, amount: f64) -> f64 {
-    if total == 0.0 {
-        amount
-    } else {
-        total + amount
-    }
 }
 
 impl LaneMarket {
@@ -199,29 +190,15 @@ impl LaneMarket {
     }
 }
 
-/// The markets of a set of lanes, column by column, while actions trade on them (every slice as
-/// long as `harvest`).
+/// The markets of a set of lanes on a linear demand curve, column by column, while actions trade
+/// on them: `columns.price` holds each lane's price before any trade from
+/// [`LinearLanes::start`] on, and its clearing price after [`LinearLanes::finish`].
 #[derive(Debug)]
 pub struct LinearLanes<'a> {
     /// The market every lane shares.
     pub terms: LaneTerms,
-    /// Each lane's harvest.
-    pub harvest: &'a [f64],
-    /// Each lane's demand shock.
-    pub shift: &'a [f64],
-    /// Each lane's stock carried in, after losses.
-    pub carried: &'a [f64],
-    /// Each lane's price before any trade ([`LinearLanes::start`]), then its clearing price
-    /// ([`LinearLanes::finish`]).
-    pub price: &'a mut [f64],
-    /// Each lane's purchases.
-    pub purchases: &'a mut [f64],
-    /// Each lane's releases.
-    pub releases: &'a mut [f64],
-    /// Each lane's end-of-period stock ([`LinearLanes::finish`]).
-    pub stock: &'a mut [f64],
-    /// What acted on each lane.
-    pub flags: &'a mut [u16],
+    /// The lanes' markets.
+    pub columns: MarketColumns<'a>,
     /// The loops run their AVX2 copies (the CPU has AVX2; the same operations, so the same
     /// bits).
     pub wide: bool,
@@ -248,18 +225,15 @@ impl LinearLanes<'_> {
     /// indexes them without bounds checks.
     #[inline(always)]
     fn pass<P: Pass>(&mut self, pass: &P) {
-        let n = self.harvest.len();
-        let columns = (
-            &self.harvest[..n],
-            &self.shift[..n],
-            &self.carried[..n],
-            &mut self.price[..n],
-            &mut self.purchases[..n],
-            &mut self.releases[..n],
-            &mut self.stock[..n],
-            &mut self.flags[..n],
+        let m = &mut self.columns;
+        let n = m.harvest.len();
+        let (h, s, c) = (&m.harvest[..n], &m.shift[..n], &m.carried[..n]);
+        let (p, x, r) = (
+            &mut m.price[..n],
+            &mut m.purchases[..n],
+            &mut m.releases[..n],
         );
-        let (h, s, c, p, x, r, k, f) = columns;
+        let (k, f) = (&mut m.stock[..n], &mut m.flags[..n]);
         #[cfg(target_arch = "x86_64")]
         if self.wide {
             // SAFETY: `wide` is set only when the CPU has AVX2 (`engine::columns::avx2`)
