@@ -548,14 +548,11 @@ fn clear_all<'m>(
     let n = shocks.len().min(LANES);
     let all_live = s.live[..n].iter().all(|&x| x);
     if let (true, Some(demand)) = (all_live, linear) {
-        let mut lanes = LinearLanes {
-            terms: LaneTerms {
-                demand,
-                capacity: model.policy.agency.capacity,
-            },
-            columns: s.markets(n),
-            wide,
+        let terms = LaneTerms {
+            demand,
+            capacity: model.policy.agency.capacity,
         };
+        let mut lanes = LinearLanes::new(terms, s.markets(n), wide);
         lanes.start();
         for rule in model.policy.rules.iter().filter(|r| r.trades_stock()) {
             if let Some(form) = rule.lanes() {

@@ -199,9 +199,26 @@ pub struct LinearLanes<'a> {
     pub terms: LaneTerms,
     /// The lanes' markets.
     pub columns: MarketColumns<'a>,
-    /// The loops run their AVX2 copies (the CPU has AVX2; the same operations, so the same
-    /// bits).
-    pub wide: bool,
+    /// The loops run their AVX2 copies (only when the CPU has AVX2: [`LinearLanes::new`]; the
+    /// same operations, so the same bits).
+    wide: bool,
+}
+
+impl<'a> LinearLanes<'a> {
+    /// The lanes `columns` on `terms`; the loops run their AVX2 copies when `wide` is asked for
+    /// and the CPU has AVX2 (`engine::columns::avx2`), their plain copies otherwise.
+    pub fn new(terms: LaneTerms, columns: MarketColumns<'a>, wide: bool) -> LinearLanes<'a> {
+        LinearLanes {
+            terms,
+            columns,
+            wide: wide && crate::engine::columns::avx2(),
+        }
+    }
+
+    /// True when the loops run their AVX2 copies.
+    pub fn is_wide(&self) -> bool {
+        self.wide
+    }
 }
 
 impl LinearLanes<'_> {
@@ -236,7 +253,7 @@ impl LinearLanes<'_> {
         let (k, f) = (&mut m.stock[..n], &mut m.flags[..n]);
         #[cfg(target_arch = "x86_64")]
         if self.wide {
-            // SAFETY: `wide` is set only when the CPU has AVX2 (`engine::columns::avx2`)
+            // SAFETY: `wide` is true only when the CPU has AVX2 (`LinearLanes::new`)
             return unsafe { pass_avx2(pass, &self.terms, h, s, c, p, x, r, k, f) };
         }
         pass_plain(pass, &self.terms, h, s, c, p, x, r, k, f)
