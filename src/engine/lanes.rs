@@ -9,15 +9,17 @@
 //!
 //! Every phase calls the code the scalar step calls ([`Simulator::step`], `Simulator::advance`):
 //! the expectation rule's own method, the curves' arithmetic ([`Form`], with the form chosen once
-//! per model outside the loops), [`Model::clear_harvest`] and the policy rules behind it,
+//! per model outside the loops), `Model::clear_closed` and `Model::pay` with the policy's actions
+//! reached once per set of lanes (`PolicyRule::clear_each`, `trade_each`, `pay_each`),
 //! [`PeriodRecord::book_in`] and the small pieces the step is made of (`Model::planting_price`,
 //! `Model::settled`, `cleared_ok` …). Only the order of the work differs, never an operation, so
-//! the records are the same bits as [`EachLane<Simulator>`] (tests/lanes.rs).
+//! the records are the same bits as [`EachLane<Simulator>`] (tests/lanes.rs). On a linear demand
+//! curve without a purchase budget, when every trading action has a lane form, the markets clear
+//! column by column instead ([`crate::policies::lanes`]: the same operations without branches).
 //!
-//! The arithmetic phases (planting, checks, books, state) have AVX2 copies, compiled from the
-//! same functions and chosen once per set of lanes when the CPU has AVX2 (no FMA, no
-//! reassociation: the same bits; tests/lanes.rs runs both copies). The clearing stays lane by
-//! lane: it is the policy's rules, through their trait objects.
+//! The arithmetic phases (planting, the column clearing, checks, books, state) have AVX2 copies,
+//! compiled from the same functions and chosen once per set of lanes when the CPU has AVX2 (no
+//! FMA, no reassociation: the same bits; tests/lanes.rs runs both copies).
 //!
 //! A lane whose path ends in a period gets its columns of that period written all the same (with
 //! values of no meaning, as [`Columns`] allows), where [`EachLane`] leaves them as they were.

@@ -27,7 +27,8 @@ impl BandStock {
         }
     }
 
-    /// [`BandStock::defend`] on one lane of [`LinearLanes`]: the same trades, without branches.
+    /// [`BandStock::defend`] on one lane of [`super::lanes::LinearLanes`]: the same trades, without
+    /// branches.
     #[inline(always)]
     pub fn defend_lane(&self, terms: &LaneTerms, market: &mut LaneMarket) -> bool {
         let p = market.price(terms);
