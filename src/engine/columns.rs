@@ -244,16 +244,5 @@ impl<S: Stepper> LaneStepper for EachLane<S> {
     }
 }
 
-/// Whether the CPU runs AVX2: the lanes' vector phases and the Monte Carlo's fold then run their
-/// AVX2 copies, compiled from the same functions (the same operations in the same order, no FMA);
-/// std caches the answer.
-pub fn avx2() -> bool {
-    #[cfg(target_arch = "x86_64")]
-    {
-        std::arch::is_x86_feature_detected!("avx2")
-    }
-    #[cfg(not(target_arch = "x86_64"))]
-    {
-        false
-    }
-}
+/// Whether the CPU runs AVX2 (the one check, in [`crate::numeric::avx2`]).
+pub use crate::numeric::avx2;

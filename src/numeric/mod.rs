@@ -1,10 +1,25 @@
 //! Small numerical helpers shared by the engine and the storage model: a bracketed root finder
 //! (Brent's method from the `roots` crate) with automatic bracket expansion, Gauss–Hermite
-//! quadrature nodes, and monotone cubic interpolation ([`interp`]).
+//! quadrature nodes, monotone cubic interpolation ([`interp`]), and the CPU check the vector
+//! copies of the Monte Carlo's loops choose by ([`avx2`]).
 
 pub mod interp;
 
 use nalgebra::{DMatrix, SymmetricEigen};
+
+/// Whether the CPU runs AVX2: the lanes' vector phases and the Monte Carlo's fold then run their
+/// AVX2 copies, compiled from the same functions (the same operations in the same order, no FMA);
+/// std caches the answer.
+pub fn avx2() -> bool {
+    #[cfg(target_arch = "x86_64")]
+    {
+        std::arch::is_x86_feature_detected!("avx2")
+    }
+    #[cfg(not(target_arch = "x86_64"))]
+    {
+        false
+    }
+}
 
 /// Finds a root of `f` between `lo` and `hi` (which must bracket a sign change) to absolute tolerance
 /// `tol` in x. Returns `None` when the interval does not bracket a root or the search fails.

@@ -206,12 +206,12 @@ pub struct LinearLanes<'a> {
 
 impl<'a> LinearLanes<'a> {
     /// The lanes `columns` on `terms`; the loops run their AVX2 copies when `wide` is asked for
-    /// and the CPU has AVX2 (`engine::columns::avx2`), their plain copies otherwise.
+    /// and the CPU has AVX2 ([`crate::numeric::avx2`]), their plain copies otherwise.
     pub fn new(terms: LaneTerms, columns: MarketColumns<'a>, wide: bool) -> LinearLanes<'a> {
         LinearLanes {
             terms,
             columns,
-            wide: wide && crate::engine::columns::avx2(),
+            wide: wide && crate::numeric::avx2(),
         }
     }
 
