@@ -12,6 +12,7 @@ mod common;
 use furrow::engine::{
     Columns, Diverged, LaneStepper, Model, ModelLanes, PeriodRecord, PeriodShock,
 };
+use furrow::numeric::Simd;
 use furrow::policies::PolicySpec;
 use furrow::scenario::{market_from_str, Scenario};
 use proptest::prelude::*;
@@ -227,13 +228,13 @@ fn same_bits(a: &PeriodRecord, b: &PeriodRecord) -> Result<(), String> {
 /// period) and compares every lane's record of every period and every lane's end. Returns how
 /// many lanes ended.
 fn compare(model: &Model, shocks: &[Vec<PeriodShock>]) -> Result<usize, String> {
-    // the AVX2 copies of the vector phases where the CPU has AVX2, and the plain copies
-    compare_one(model, shocks, ModelLanes::new(model, shocks[0].len()))?;
-    compare_one(
-        model,
-        shocks,
-        ModelLanes::new(model, shocks[0].len()).narrow(),
-    )
+    // every copy of the vector phases the CPU runs (the widest, AVX2, plain)
+    let mut ended = 0;
+    for simd in [Simd::Avx512, Simd::Avx2, Simd::Plain] {
+        let lanes = ModelLanes::new(model, shocks[0].len()).with_simd(simd);
+        ended = compare_one(model, shocks, lanes).map_err(|e| format!("{simd:?}: {e}"))?;
+    }
+    Ok(ended)
 }
 
 fn compare_one(
@@ -355,18 +356,31 @@ fn diverging_lanes_end_the_same() {
     }
 }
 
-/// The vector phases run their AVX2 copies on a CPU that has AVX2 (so that the tests above
-/// compare both copies with the lanes stepped alone).
+/// The vector phases run the widest copy the CPU has (AVX-512 F/BW/DQ/VL, else AVX2), and a
+/// narrower copy when asked (so that the tests above compare every copy with the lanes stepped
+/// alone).
 #[test]
-fn wide_where_the_cpu_has_avx2() {
+fn the_widest_copy_the_cpu_has() {
     let s = market(false, false, -0.25, 0.2, "rule = \"naive\"", 210.0);
     let model = Model::new(&s, &PolicySpec::none());
     #[cfg(target_arch = "x86_64")]
-    let has = std::arch::is_x86_feature_detected!("avx2");
+    let widest = {
+        use std::arch::is_x86_feature_detected as has;
+        if has!("avx512f") && has!("avx512bw") && has!("avx512dq") && has!("avx512vl") {
+            Simd::Avx512
+        } else if has!("avx2") {
+            Simd::Avx2
+        } else {
+            Simd::Plain
+        }
+    };
     #[cfg(not(target_arch = "x86_64"))]
-    let has = false;
-    assert_eq!(ModelLanes::new(&model, 8).is_wide(), has);
-    assert!(!ModelLanes::new(&model, 8).narrow().is_wide());
+    let widest = Simd::Plain;
+    assert_eq!(ModelLanes::new(&model, 8).simd(), widest);
+    let avx2 = ModelLanes::new(&model, 8).with_simd(Simd::Avx2).simd();
+    assert_eq!(avx2, widest.min(Simd::Avx2));
+    let plain = ModelLanes::new(&model, 8).with_simd(Simd::Plain);
+    assert_eq!(plain.simd(), Simd::Plain);
 }
 
 /// The same equality on the job's market (linear curves, adaptive expectations) under each of the

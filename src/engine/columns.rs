@@ -244,5 +244,5 @@ impl<S: Stepper> LaneStepper for EachLane<S> {
     }
 }
 
-/// Whether the CPU runs AVX2 (the one check, in [`crate::numeric::avx2`]).
+/// Whether the CPU runs AVX2 or wider (the one check, in [`crate::numeric::simd`]).
 pub use crate::numeric::avx2;

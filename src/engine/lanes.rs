@@ -17,9 +17,10 @@
 //! curve without a purchase budget, when every trading action has a lane form, the markets clear
 //! column by column instead ([`crate::policies::lanes`]: the same operations without branches).
 //!
-//! The arithmetic phases (planting, the column clearing, checks, books, state) have AVX2 copies,
-//! compiled from the same functions and chosen once per set of lanes when the CPU has AVX2 (no
-//! FMA, no reassociation: the same bits; tests/lanes.rs runs both copies).
+//! The arithmetic phases (planting, the column clearing, checks, books, state) have AVX2 and
+//! AVX-512 copies, compiled from the same functions; the widest the CPU runs is chosen once per set
+//! of lanes ([`crate::numeric::simd`]; no FMA, no reassociation: the same bits; tests/lanes.rs runs
+//! every copy).
 //!
 //! A lane whose path ends in a period gets its columns of that period written all the same (with
 //! values of no meaning, as [`Columns`] allows), where [`EachLane`] leaves them as they were.
@@ -30,13 +31,14 @@
 // the phases index several columns by lane in one loop, on purpose
 #![allow(clippy::needless_range_loop)]
 
-use super::columns::{avx2, Columns, EachLane, LaneStepper, LANES};
+use super::columns::{Columns, EachLane, LaneStepper, LANES};
 use super::{
     cleared_failure, cleared_ok, consumption, expected_price_failure, plant, Cleared, Diverged,
     Model, PeriodRecord, PeriodShock, Simulator,
 };
 use crate::curves::{Form, Forms, Linear};
 use crate::expectations::{Adaptive, ExpectationInput};
+use crate::numeric::{simd, Simd};
 use crate::policies::lanes::{LaneTerms, LinearLanes};
 use crate::policies::{ClearLanes, Clearing, MarketColumns, PayLanes};
 use crate::trade::Traded;
@@ -63,18 +65,22 @@ impl<'m> ModelLanes<'m> {
         }
     }
 
-    /// These lanes with the vector phases in their plain (SSE2) copies even on a CPU with AVX2
-    /// (the two give the same bits; tests/lanes.rs runs both).
-    pub fn narrow(mut self) -> Self {
+    /// These lanes with the vector phases in the copy `simd` names, or the widest the CPU runs
+    /// below it ([`Simd::at_most`]); every copy gives the same bits (tests/lanes.rs runs each).
+    pub fn with_simd(mut self, simd: Simd) -> Self {
         if let ModelLanes::Phased(p) = &mut self {
-            p.wide = false;
+            p.simd = simd.at_most();
         }
         self
     }
 
-    /// True when the lanes are stepped phase by phase with the AVX2 copies of the vector phases.
-    pub fn is_wide(&self) -> bool {
-        matches!(self, ModelLanes::Phased(p) if p.wide)
+    /// The copy of the vector phases the lanes run: [`Simd::Plain`] when they are stepped lane by
+    /// lane.
+    pub fn simd(&self) -> Simd {
+        match self {
+            ModelLanes::Phased(p) => p.simd,
+            ModelLanes::Each(_) => Simd::Plain,
+        }
     }
 
     /// True when the lanes' markets clear column by column ([`crate::policies::lanes`]).
@@ -135,9 +141,9 @@ pub struct Phased<'m> {
     /// The period's values, phase by phase (kept between periods: every phase writes a lane's
     /// value before it reads it).
     scratch: Scratch,
-    /// The vector phases run their AVX2 copies (the CPU has AVX2; the same operations, so the
-    /// same bits: no FMA, no reassociation).
-    wide: bool,
+    /// The copy of the vector phases the lanes run (one the CPU runs; the same operations in
+    /// each, so the same bits: no FMA, no reassociation).
+    simd: Simd,
     /// Each lane's market while the policy's rules trade on it (kept between periods so that it
     /// is allocated once).
     markets: Vec<Clearing<'m>>,
@@ -300,7 +306,7 @@ impl<'m> Phased<'m> {
             head: 0,
             keep,
             scratch: Scratch::new(),
-            wide: avx2(),
+            simd: simd(),
             markets: Vec::with_capacity(LANES),
             lane_form: Phased::lane_form(model),
         }
@@ -362,8 +368,8 @@ impl<'m> Phased<'m> {
                 &mut s.expectation,
             ),
         }
-        let wide = self.wide;
-        if !plant_all(wide, model, supply, n, &self.stock, s) {
+        let simd = self.simd;
+        if !plant_all(simd, model, supply, n, &self.stock, s) {
             for l in 0..n {
                 if s.live[l] && !model.expectation_ok(s.planting[l]) {
                     s.live[l] = false;
@@ -376,10 +382,10 @@ impl<'m> Phased<'m> {
         }
 
         // the clearing: the policy's rules, lane by lane
-        clear_all(wide, model, self.lane_form, shocks, s, &mut self.markets);
+        clear_all(simd, model, self.lane_form, shocks, s, &mut self.markets);
 
         // the checks: one combined test per lane, the messages only when one fails
-        if !check_all(wide, model, n, s) {
+        if !check_all(simd, model, n, s) {
             for l in 0..n {
                 let c = s.cleared(l);
                 if s.live[l] && !cleared_ok(&c, s.consumption[l], model.price_bound) {
@@ -398,14 +404,14 @@ impl<'m> Phased<'m> {
         }
 
         // the books, straight into the columns (a lane that failed writes values of no meaning)
-        book_all(wide, model, demand, supply, t, n, s, out);
+        book_all(simd, model, demand, supply, t, n, s, out);
         if s.live[..n].iter().any(|&x| x) {
             out.period = t;
         }
 
         // the state (a lane that failed is never read again)
         settle_all(
-            wide,
+            simd,
             model,
             n,
             s,
@@ -477,19 +483,21 @@ fn expect_rule(
 /// some lane still going has an expected price out of bounds.
 #[inline(never)]
 fn plant_all<S: Form>(
-    wide: bool,
+    simd: Simd,
     model: &Model,
     supply: &S,
     n: usize,
     stock: &[f64; LANES],
     s: &mut Scratch,
 ) -> bool {
+    // SAFETY: `simd` names a copy the CPU runs (`numeric::simd`, `Simd::at_most`)
     #[cfg(target_arch = "x86_64")]
-    if wide {
-        // SAFETY: `wide` is true only when the CPU has AVX2 (`avx2()`)
-        return unsafe { plant_all_avx2(model, supply, n, stock, s) };
+    match simd {
+        Simd::Avx512 => return unsafe { plant_all_avx512(model, supply, n, stock, s) },
+        Simd::Avx2 => return unsafe { plant_all_avx2(model, supply, n, stock, s) },
+        Simd::Plain => {}
     }
-    let _ = wide;
+    let _ = simd;
     plant_all_in(model, supply, n, stock, s)
 }
 
@@ -497,6 +505,19 @@ fn plant_all<S: Form>(
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "avx2")]
 unsafe fn plant_all_avx2<S: Form>(
+    model: &Model,
+    supply: &S,
+    n: usize,
+    stock: &[f64; LANES],
+    s: &mut Scratch,
+) -> bool {
+    plant_all_in(model, supply, n, stock, s)
+}
+
+/// [`plant_all`] in AVX-512.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx512f,avx512bw,avx512dq,avx512vl")]
+unsafe fn plant_all_avx512<S: Form>(
     model: &Model,
     supply: &S,
     n: usize,
@@ -540,7 +561,7 @@ fn plant_all_in<S: Form>(
 /// stock leaves the market alone).
 #[inline(never)]
 fn clear_all<'m>(
-    wide: bool,
+    simd: Simd,
     model: &'m Model,
     linear: Option<Linear>,
     shocks: &[PeriodShock],
@@ -554,7 +575,7 @@ fn clear_all<'m>(
             demand,
             capacity: model.policy.agency.capacity,
         };
-        let mut lanes = LinearLanes::new(terms, s.markets(n), wide);
+        let mut lanes = LinearLanes::new(terms, s.markets(n), simd);
         lanes.start();
         for rule in model.policy.rules.iter().filter(|r| r.trades_stock()) {
             if let Some(form) = rule.lanes() {
@@ -562,7 +583,7 @@ fn clear_all<'m>(
             }
         }
         lanes.finish();
-        unpaid_all(wide, n, s);
+        unpaid_all(simd, n, s);
     } else if all_live {
         let agency = &model.policy.agency;
         let mut lanes = ClearLanes {
@@ -586,7 +607,7 @@ fn clear_all<'m>(
                 }
             }
         }
-        unpaid_all(wide, n, s);
+        unpaid_all(simd, n, s);
     } else {
         for (l, shock) in shocks[..n].iter().enumerate() {
             if s.live[l] {
@@ -613,13 +634,15 @@ fn clear_all<'m>(
 /// Every lane before the payments, as [`Model::unpaid`]: the producer price the market price,
 /// consumption, nothing paid.
 #[inline(always)]
-fn unpaid_all(wide: bool, n: usize, s: &mut Scratch) {
+fn unpaid_all(simd: Simd, n: usize, s: &mut Scratch) {
+    // SAFETY: `simd` names a copy the CPU runs (`numeric::simd`, `Simd::at_most`)
     #[cfg(target_arch = "x86_64")]
-    if wide {
-        // SAFETY: `wide` is true only when the CPU has AVX2 (`avx2()`)
-        return unsafe { unpaid_all_avx2(n, s) };
+    match simd {
+        Simd::Avx512 => return unsafe { unpaid_all_avx512(n, s) },
+        Simd::Avx2 => return unsafe { unpaid_all_avx2(n, s) },
+        Simd::Plain => {}
     }
-    let _ = wide;
+    let _ = simd;
     unpaid_all_in(n, s)
 }
 
@@ -627,6 +650,13 @@ fn unpaid_all(wide: bool, n: usize, s: &mut Scratch) {
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "avx2")]
 unsafe fn unpaid_all_avx2(n: usize, s: &mut Scratch) {
+    unpaid_all_in(n, s)
+}
+
+/// [`unpaid_all`] in AVX-512.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx512f,avx512bw,avx512dq,avx512vl")]
+unsafe fn unpaid_all_avx512(n: usize, s: &mut Scratch) {
     unpaid_all_in(n, s)
 }
 
@@ -642,13 +672,15 @@ fn unpaid_all_in(n: usize, s: &mut Scratch) {
 
 /// [`cleared_ok`] of every lane still going.
 #[inline(never)]
-fn check_all(wide: bool, model: &Model, n: usize, s: &Scratch) -> bool {
+fn check_all(simd: Simd, model: &Model, n: usize, s: &Scratch) -> bool {
+    // SAFETY: `simd` names a copy the CPU runs (`numeric::simd`, `Simd::at_most`)
     #[cfg(target_arch = "x86_64")]
-    if wide {
-        // SAFETY: `wide` is true only when the CPU has AVX2 (`avx2()`)
-        return unsafe { check_all_avx2(model, n, s) };
+    match simd {
+        Simd::Avx512 => return unsafe { check_all_avx512(model, n, s) },
+        Simd::Avx2 => return unsafe { check_all_avx2(model, n, s) },
+        Simd::Plain => {}
     }
-    let _ = wide;
+    let _ = simd;
     check_all_in(model, n, s)
 }
 
@@ -656,6 +688,13 @@ fn check_all(wide: bool, model: &Model, n: usize, s: &Scratch) -> bool {
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "avx2")]
 unsafe fn check_all_avx2(model: &Model, n: usize, s: &Scratch) -> bool {
+    check_all_in(model, n, s)
+}
+
+/// [`check_all`] in AVX-512.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx512f,avx512bw,avx512dq,avx512vl")]
+unsafe fn check_all_avx512(model: &Model, n: usize, s: &Scratch) -> bool {
     check_all_in(model, n, s)
 }
 
@@ -674,7 +713,7 @@ fn check_all_in(model: &Model, n: usize, s: &Scratch) -> bool {
 #[inline(never)]
 #[allow(clippy::too_many_arguments)]
 fn book_all<D: Form, S: Form>(
-    wide: bool,
+    simd: Simd,
     model: &Model,
     demand: &D,
     supply: &S,
@@ -683,12 +722,14 @@ fn book_all<D: Form, S: Form>(
     s: &Scratch,
     out: &mut Columns,
 ) {
+    // SAFETY: `simd` names a copy the CPU runs (`numeric::simd`, `Simd::at_most`)
     #[cfg(target_arch = "x86_64")]
-    if wide {
-        // SAFETY: `wide` is true only when the CPU has AVX2 (`avx2()`)
-        return unsafe { book_all_avx2(model, demand, supply, t, n, s, out) };
+    match simd {
+        Simd::Avx512 => return unsafe { book_all_avx512(model, demand, supply, t, n, s, out) },
+        Simd::Avx2 => return unsafe { book_all_avx2(model, demand, supply, t, n, s, out) },
+        Simd::Plain => {}
     }
-    let _ = wide;
+    let _ = simd;
     book_all_in(model, demand, supply, t, n, s, out)
 }
 
@@ -696,6 +737,21 @@ fn book_all<D: Form, S: Form>(
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "avx2")]
 unsafe fn book_all_avx2<D: Form, S: Form>(
+    model: &Model,
+    demand: &D,
+    supply: &S,
+    t: usize,
+    n: usize,
+    s: &Scratch,
+    out: &mut Columns,
+) {
+    book_all_in(model, demand, supply, t, n, s, out)
+}
+
+/// [`book_all`] in AVX-512.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx512f,avx512bw,avx512dq,avx512vl")]
+unsafe fn book_all_avx512<D: Form, S: Form>(
     model: &Model,
     demand: &D,
     supply: &S,
@@ -758,7 +814,7 @@ fn book<D: Form, S: Form>(
 /// rules read ([`Model::read_price`]).
 #[inline(never)]
 fn settle_all(
-    wide: bool,
+    simd: Simd,
     model: &Model,
     n: usize,
     s: &Scratch,
@@ -766,12 +822,16 @@ fn settle_all(
     last_price: &mut [f64; LANES],
     stock: &mut [f64; LANES],
 ) {
+    // SAFETY: `simd` names a copy the CPU runs (`numeric::simd`, `Simd::at_most`)
     #[cfg(target_arch = "x86_64")]
-    if wide {
-        // SAFETY: `wide` is true only when the CPU has AVX2 (`avx2()`)
-        return unsafe { settle_all_avx2(model, n, s, previous, last_price, stock) };
+    match simd {
+        Simd::Avx512 => {
+            return unsafe { settle_all_avx512(model, n, s, previous, last_price, stock) }
+        }
+        Simd::Avx2 => return unsafe { settle_all_avx2(model, n, s, previous, last_price, stock) },
+        Simd::Plain => {}
     }
-    let _ = wide;
+    let _ = simd;
     settle_all_in(model, n, s, previous, last_price, stock)
 }
 
@@ -779,6 +839,20 @@ fn settle_all(
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "avx2")]
 unsafe fn settle_all_avx2(
+    model: &Model,
+    n: usize,
+    s: &Scratch,
+    previous: &mut [f64; LANES],
+    last_price: &mut [f64; LANES],
+    stock: &mut [f64; LANES],
+) {
+    settle_all_in(model, n, s, previous, last_price, stock)
+}
+
+/// [`settle_all`] in AVX-512.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx512f,avx512bw,avx512dq,avx512vl")]
+unsafe fn settle_all_avx512(
     model: &Model,
     n: usize,
     s: &Scratch,

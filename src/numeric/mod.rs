@@ -1,24 +1,55 @@
 //! Small numerical helpers shared by the engine and the storage model: a bracketed root finder
 //! (Brent's method from the `roots` crate) with automatic bracket expansion, Gauss–Hermite
 //! quadrature nodes, monotone cubic interpolation ([`interp`]), and the CPU check the vector
-//! copies of the Monte Carlo's loops choose by ([`avx2`]).
+//! copies of the Monte Carlo's loops choose by ([`simd`]).
 
 pub mod interp;
 
 use nalgebra::{DMatrix, SymmetricEigen};
 
-/// Whether the CPU runs AVX2: the lanes' vector phases and the Monte Carlo's fold then run their
-/// AVX2 copies, compiled from the same functions (the same operations in the same order, no FMA);
-/// std caches the answer.
-pub fn avx2() -> bool {
+/// The widest copy of the Monte Carlo's vector loops the CPU runs. Every copy is compiled from the
+/// same function (the same operations in the same order, no FMA, no reassociation), so every copy
+/// gives the same bits; the wider ones take more lanes an instruction.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
+pub enum Simd {
+    /// The baseline target (SSE2 on x86-64; any other target).
+    Plain,
+    /// AVX2: four lanes of `f64` a register.
+    Avx2,
+    /// AVX-512 (F, BW, DQ, VL): eight lanes of `f64` a register.
+    Avx512,
+}
+
+impl Simd {
+    /// The widest copy this CPU runs, no wider than `self` (a test or a benchmark asks for a
+    /// narrower copy this way).
+    pub fn at_most(self) -> Simd {
+        self.min(simd())
+    }
+}
+
+/// The widest copy of the vector loops this CPU runs (std caches the feature checks).
+pub fn simd() -> Simd {
     #[cfg(target_arch = "x86_64")]
     {
-        std::arch::is_x86_feature_detected!("avx2")
+        use std::arch::is_x86_feature_detected as has;
+        if has!("avx512f") && has!("avx512bw") && has!("avx512dq") && has!("avx512vl") {
+            Simd::Avx512
+        } else if has!("avx2") {
+            Simd::Avx2
+        } else {
+            Simd::Plain
+        }
     }
     #[cfg(not(target_arch = "x86_64"))]
     {
-        false
+        Simd::Plain
     }
+}
+
+/// Whether the CPU runs AVX2 (or wider): [`simd`] above [`Simd::Plain`].
+pub fn avx2() -> bool {
+    simd() >= Simd::Avx2
 }
 
 /// Finds a root of `f` between `lo` and `hi` (which must bracket a sign change) to absolute tolerance

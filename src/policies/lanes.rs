@@ -15,6 +15,7 @@
 use super::clearing::accumulate;
 use super::{flags, MarketColumns};
 use crate::curves::{Form, Linear};
+use crate::numeric::Simd;
 
 /// One lane's market while actions trade on it (the fields of [`super::Clearing`] a closed
 /// market without a budget reads).
@@ -199,25 +200,25 @@ pub struct LinearLanes<'a> {
     pub terms: LaneTerms,
     /// The lanes' markets.
     pub columns: MarketColumns<'a>,
-    /// The loops run their AVX2 copies (only when the CPU has AVX2: [`LinearLanes::new`]; the
-    /// same operations, so the same bits).
-    wide: bool,
+    /// The copy of the loops the lanes run (one the CPU runs: [`LinearLanes::new`]; the same
+    /// operations in each, so the same bits).
+    simd: Simd,
 }
 
 impl<'a> LinearLanes<'a> {
-    /// The lanes `columns` on `terms`; the loops run their AVX2 copies when `wide` is asked for
-    /// and the CPU has AVX2 ([`crate::numeric::avx2`]), their plain copies otherwise.
-    pub fn new(terms: LaneTerms, columns: MarketColumns<'a>, wide: bool) -> LinearLanes<'a> {
+    /// The lanes `columns` on `terms`; the loops run the copy `simd` names, or the widest the CPU
+    /// runs below it ([`Simd::at_most`]).
+    pub fn new(terms: LaneTerms, columns: MarketColumns<'a>, simd: Simd) -> LinearLanes<'a> {
         LinearLanes {
             terms,
             columns,
-            wide: wide && crate::numeric::avx2(),
+            simd: simd.at_most(),
         }
     }
 
-    /// True when the loops run their AVX2 copies.
-    pub fn is_wide(&self) -> bool {
-        self.wide
+    /// The copy of the loops the lanes run.
+    pub fn simd(&self) -> Simd {
+        self.simd
     }
 }
 
@@ -237,7 +238,7 @@ impl LinearLanes<'_> {
         self.pass(&Finish);
     }
 
-    /// One loop over the lanes doing `pass` on each, its AVX2 copy when `wide`. The columns go
+    /// One loop over the lanes doing `pass` on each, in the copy `simd` names. The columns go
     /// to the loop as arguments, cut to one length, so that the compiler knows them apart and
     /// indexes them without bounds checks.
     #[inline(always)]
@@ -251,10 +252,14 @@ impl LinearLanes<'_> {
             &mut m.releases[..n],
         );
         let (k, f) = (&mut m.stock[..n], &mut m.flags[..n]);
+        // SAFETY: `simd` names a copy the CPU runs (`LinearLanes::new`)
         #[cfg(target_arch = "x86_64")]
-        if self.wide {
-            // SAFETY: `wide` is true only when the CPU has AVX2 (`LinearLanes::new`)
-            return unsafe { pass_avx2(pass, &self.terms, h, s, c, p, x, r, k, f) };
+        match self.simd {
+            Simd::Avx512 => {
+                return unsafe { pass_avx512(pass, &self.terms, h, s, c, p, x, r, k, f) }
+            }
+            Simd::Avx2 => return unsafe { pass_avx2(pass, &self.terms, h, s, c, p, x, r, k, f) },
+            Simd::Plain => {}
         }
         pass_plain(pass, &self.terms, h, s, c, p, x, r, k, f)
     }
@@ -304,6 +309,27 @@ impl Pass for Finish {
 #[target_feature(enable = "avx2")]
 #[allow(clippy::too_many_arguments)]
 unsafe fn pass_avx2<P: Pass>(
+    pass: &P,
+    terms: &LaneTerms,
+    harvest: &[f64],
+    shift: &[f64],
+    carried: &[f64],
+    price: &mut [f64],
+    purchases: &mut [f64],
+    releases: &mut [f64],
+    stock: &mut [f64],
+    flags: &mut [u16],
+) {
+    pass_in(
+        pass, terms, harvest, shift, carried, price, purchases, releases, stock, flags,
+    )
+}
+
+/// [`pass_plain`] in AVX-512.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx512f,avx512bw,avx512dq,avx512vl")]
+#[allow(clippy::too_many_arguments)]
+unsafe fn pass_avx512<P: Pass>(
     pass: &P,
     terms: &LaneTerms,
     harvest: &[f64],

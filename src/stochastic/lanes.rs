@@ -14,6 +14,7 @@
 #![allow(clippy::needless_range_loop)]
 
 use crate::engine::{floor_binding, Columns, LANES};
+use crate::numeric::Simd;
 use crate::policies::flags;
 use crate::scenario::MAX_ALERTS;
 use crate::welfare::{discounted_trade, finish_pv, revenue_of, Crra, PeriodItems, PERIOD_ITEMS};
@@ -106,9 +107,9 @@ pub(crate) struct LaneFold {
     pub(crate) transform: Lanes,
     /// the CRRA form of the run's risk aversion (chosen once)
     crra: Crra,
-    /// the machine runs AVX2: [`LaneFold::add`] runs its copy built for it (the same arithmetic in
-    /// wider registers, so the same bits)
-    avx2: bool,
+    /// the copy of [`LaneFold::add`] the fold runs, the widest the machine runs (the same
+    /// arithmetic in wider registers, so the same bits)
+    simd: Simd,
 }
 
 impl LaneFold {
@@ -143,7 +144,7 @@ impl LaneFold {
             income: ZERO,
             transform: ZERO,
             crra: Crra::new(watch.risk_aversion),
-            avx2: crate::engine::columns::avx2(),
+            simd: crate::numeric::simd(),
         }
     }
 
@@ -151,12 +152,12 @@ impl LaneFold {
     /// its CRRA transform in [`LaneFold::income`] and [`LaneFold::transform`].
     #[inline]
     pub(crate) fn add(&mut self, c: &Columns, watch: &Watch) {
+        // SAFETY: `simd` names a copy the machine runs (`numeric::simd`, `Simd::at_most`)
         #[cfg(target_arch = "x86_64")]
-        if self.avx2 {
-            // SAFETY: `avx2` is set only when the running machine has AVX2
-            // (`is_x86_feature_detected!`), which is all `add_avx2` requires.
-            unsafe { self.add_avx2(c, watch) };
-            return;
+        match self.simd {
+            Simd::Avx512 => return unsafe { self.add_avx512(c, watch) },
+            Simd::Avx2 => return unsafe { self.add_avx2(c, watch) },
+            Simd::Plain => {}
         }
         self.add_plain(c, watch);
     }
@@ -173,6 +174,14 @@ impl LaneFold {
     #[target_feature(enable = "avx2")]
     #[inline(never)]
     unsafe fn add_avx2(&mut self, c: &Columns, watch: &Watch) {
+        self.fold(c, watch);
+    }
+
+    /// [`LaneFold::fold`] built for AVX-512: eight lanes a register, the same bits again.
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx512f,avx512bw,avx512dq,avx512vl")]
+    #[inline(never)]
+    unsafe fn add_avx512(&mut self, c: &Columns, watch: &Watch) {
         self.fold(c, watch);
     }
 
@@ -427,7 +436,7 @@ mod tests {
     }
 
     #[test]
-    fn the_avx2_copy_of_the_fold_gives_the_bits_of_the_plain_one() {
+    fn every_vector_copy_of_the_fold_gives_the_bits_of_the_plain_one() {
         // an identity (no outside source): the same fold built for two instruction sets
         let s = crate::scenario::market_from_table(
             "t.toml",
@@ -447,9 +456,14 @@ mod tests {
         watch.band = Some((76.0, 84.0));
         watch.annual_budget = 40.0;
         let mut plain = LaneFold::new(&watch, 80.0, 40.0);
-        let mut wide = plain.clone();
-        wide.avx2 = crate::engine::columns::avx2();
-        plain.avx2 = false;
+        plain.simd = Simd::Plain;
+        // the copies this machine runs (a narrower one stands in for one it does not)
+        let mut wide: Vec<LaneFold> = [Simd::Avx2, Simd::Avx512]
+            .map(|k| LaneFold {
+                simd: k.at_most(),
+                ..plain.clone()
+            })
+            .into();
         let mut c = Columns {
             trades: true,
             ..Columns::default()
@@ -472,16 +486,22 @@ mod tests {
                 c.trade.border_revenue[l] = x[1] * 0.1;
             }
             plain.add(&c, &watch);
-            wide.add(&c, &watch);
-            assert_eq!(
-                format!("{:?}", plain.transform),
-                format!("{:?}", wide.transform)
-            );
+            for w in &mut wide {
+                w.add(&c, &watch);
+                assert_eq!(
+                    format!("{:?}", plain.transform),
+                    format!("{:?}", w.transform),
+                    "{:?}",
+                    w.simd
+                );
+            }
         }
-        for l in 0..LANES {
-            let (a, b) = (plain.finish(l, &c, &watch), wide.finish(l, &c, &watch));
-            // Debug shows every value's bits that matter here (the sign of a zero included)
-            assert_eq!(format!("{a:?}"), format!("{b:?}"), "lane {l}");
+        for w in &wide {
+            for l in 0..LANES {
+                let (a, b) = (plain.finish(l, &c, &watch), w.finish(l, &c, &watch));
+                // Debug shows every value's bits that matter here (the sign of a zero included)
+                assert_eq!(format!("{a:?}"), format!("{b:?}"), "{:?} lane {l}", w.simd);
+            }
         }
     }
 }
