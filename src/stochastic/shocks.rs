@@ -7,27 +7,52 @@ use crate::engine::PeriodShock;
 use crate::scenario::{Scenario, ShockSpec};
 use crate::trade::Trade;
 
-/// The shocks of one replication, drawn period by period from its own random stream.
+/// The shocks of one replication, drawn period by period, each kind of shock from a random stream
+/// of its own.
 ///
 /// Yield: factor exp(σ z − σ²/2) with σ² = ln(1 + cv²), so the factor is lognormal with mean 1 and
 /// coefficient of variation `yield_cv`. Supply: additive N(0, supply_sd²). Demand: AR(1),
-/// u_t = ρ u_{t−1} + e_t, e_t ~ N(0, demand_sd²), u_0 = 0. Each period always draws three normals, in
-/// this order, so switching one shock on does not reshuffle the others.
+/// u_t = ρ u_{t−1} + e_t, e_t ~ N(0, demand_sd²), u_0 = 0. Each kind the market has draws one
+/// standard normal a period from its own ChaCha8 stream (seed `seed`; stream `replication` for the
+/// yield, `replication | 2⁶¹` for the supply shock, `replication | 2⁶²` for the demand shock); a
+/// kind the market does not have draws nothing. So switching one shock on or off leaves the
+/// others' draws as they were (common random numbers across market variants), and a market pays
+/// only for the shocks it has.
 ///
-/// The world price of a trading market ([`ShockStream::with_world`]) comes from a second stream of
-/// its own (same seed, stream `replication | 2⁶³`), so that its draws leave every yield, supply and
+/// The world price of a trading market ([`ShockStream::with_world`]) comes from a stream of its
+/// own too (same seed, stream `replication | 2⁶³`), so that its draws leave every yield, supply and
 /// demand draw as it is and common random numbers hold across policies and across markets with and
 /// without a border: log factor x_t = ρ x_{t−1} + s √(1 − ρ²) e_t, x_1 ~ N(0, s²) (a stationary
 /// start), s² = ln(1 + cv²), factor exp(x_t − s²/2) — lognormal with mean 1 and coefficient of
 /// variation `world_price_cv` in every period.
+///
+/// Replication numbers stay below 2⁶¹ (the run's replications are far fewer), so the four kinds'
+/// streams never meet.
 #[derive(Debug, Clone)]
 pub struct ShockStream {
-    rng: ChaCha8Rng,
+    /// the yield's stream (None when `yield_cv` is 0)
+    yields: Option<ChaCha8Rng>,
+    /// the supply shock's stream (None when `supply_sd` is 0)
+    supply: Option<ChaCha8Rng>,
+    /// the demand shock's stream (None when `demand_sd` is 0)
+    demand_rng: Option<ChaCha8Rng>,
     spec: ShockSpec,
     sigma: f64,
     demand: f64,
     world: Option<WorldStream>,
 }
+
+/// The stream of one kind of shock: ChaCha8 seeded with `seed`, stream `replication | kind`.
+fn kind_stream(seed: u64, replication: u64, kind: u64) -> ChaCha8Rng {
+    let mut rng = ChaCha8Rng::seed_from_u64(seed);
+    rng.set_stream(replication | kind);
+    rng
+}
+
+/// The stream bits of the supply shock, the demand shock and the world price.
+const SUPPLY: u64 = 1 << 61;
+const DEMAND: u64 = 1 << 62;
+const WORLD: u64 = 1 << 63;
 
 /// The world price's own stream: its generator, s, ρ, √(1 − ρ²) and the log factor so far (None
 /// before the first period).
@@ -56,10 +81,11 @@ impl WorldStream {
 impl ShockStream {
     /// The stream of replication `replication` under `seed`.
     pub fn new(spec: &ShockSpec, seed: u64, replication: u64) -> ShockStream {
-        let mut rng = ChaCha8Rng::seed_from_u64(seed);
-        rng.set_stream(replication);
+        debug_assert!(replication < SUPPLY);
         ShockStream {
-            rng,
+            yields: (spec.yield_cv > 0.0).then(|| kind_stream(seed, replication, 0)),
+            supply: (spec.supply_sd > 0.0).then(|| kind_stream(seed, replication, SUPPLY)),
+            demand_rng: (spec.demand_sd > 0.0).then(|| kind_stream(seed, replication, DEMAND)),
             spec: *spec,
             sigma: crate::numeric::lognormal_sigma(spec.yield_cv),
             demand: 0.0,
@@ -82,8 +108,7 @@ impl ShockStream {
     /// world factor at 1 and draws nothing more.
     pub fn with_world(mut self, trade: Option<&Trade>, seed: u64, replication: u64) -> ShockStream {
         self.world = trade.filter(|t| t.world_price_cv > 0.0).map(|t| {
-            let mut rng = ChaCha8Rng::seed_from_u64(seed);
-            rng.set_stream(replication | (1 << 63));
+            let rng = kind_stream(seed, replication, WORLD);
             let rho = t.world_price_persistence;
             WorldStream {
                 rng,
@@ -99,18 +124,25 @@ impl ShockStream {
     /// The next period's shocks.
     #[inline]
     pub fn next_shock(&mut self) -> PeriodShock {
-        let zy: f64 = self.rng.sample(StandardNormal);
-        let zs: f64 = self.rng.sample(StandardNormal);
-        let zd: f64 = self.rng.sample(StandardNormal);
         let s = &self.spec;
-        self.demand = s.demand_persistence * self.demand + s.demand_sd * zd;
+        let yield_factor = match &mut self.yields {
+            Some(rng) => {
+                let z: f64 = rng.sample(StandardNormal);
+                (self.sigma * z - 0.5 * self.sigma * self.sigma).exp()
+            }
+            None => 1.0,
+        };
+        let supply = match &mut self.supply {
+            Some(rng) => s.supply_sd * rng.sample::<f64, _>(StandardNormal),
+            None => 0.0,
+        };
+        if let Some(rng) = &mut self.demand_rng {
+            let z: f64 = rng.sample(StandardNormal);
+            self.demand = s.demand_persistence * self.demand + s.demand_sd * z;
+        }
         PeriodShock {
-            yield_factor: if s.yield_cv > 0.0 {
-                (self.sigma * zy - 0.5 * self.sigma * self.sigma).exp()
-            } else {
-                1.0
-            },
-            supply: s.supply_sd * zs,
+            yield_factor,
+            supply,
             demand: self.demand,
             world_factor: match &mut self.world {
                 Some(w) => w.next_factor(),
@@ -172,6 +204,55 @@ mod tests {
         // lognormal moments (Aitchison and Brown 1957): mean 1, sd = cv; Monte Carlo error ~ 0.2/√n
         assert!((mean - 1.0).abs() < 4.0 * 0.2 / (n as f64).sqrt(), "{mean}");
         assert!((var.sqrt() - 0.2).abs() < 0.003, "{}", var.sqrt());
+    }
+
+    #[test]
+    fn switching_one_shock_on_or_off_leaves_the_others_draws_as_they_were() {
+        // a property of the design (no outside source): each kind of shock on its own stream, so
+        // market variants share common random numbers (Law and Kelton 2000, ch. 11; from memory)
+        let all = ShockSpec {
+            yield_cv: 0.1,
+            supply_sd: 2.0,
+            demand_sd: 3.0,
+            demand_persistence: 0.4,
+        };
+        let draws = |spec: &ShockSpec| -> Vec<PeriodShock> {
+            let mut s = ShockStream::new(spec, 11, 5);
+            (0..40).map(|_| s.next_shock()).collect()
+        };
+        let full = draws(&all);
+        for (i, off) in [
+            ShockSpec {
+                yield_cv: 0.0,
+                ..all
+            },
+            ShockSpec {
+                supply_sd: 0.0,
+                ..all
+            },
+            ShockSpec {
+                demand_sd: 0.0,
+                ..all
+            },
+        ]
+        .iter()
+        .enumerate()
+        {
+            for (a, b) in full.iter().zip(draws(off)) {
+                let kept = [
+                    (a.yield_factor, b.yield_factor),
+                    (a.supply, b.supply),
+                    (a.demand, b.demand),
+                ];
+                for (k, (x, y)) in kept.iter().enumerate() {
+                    if k == i {
+                        assert_eq!(*y, [1.0, 0.0, 0.0][k], "kind {k} off");
+                    } else {
+                        assert_eq!(x.to_bits(), y.to_bits(), "kind {k} with {i} off");
+                    }
+                }
+            }
+        }
     }
 
     #[test]
