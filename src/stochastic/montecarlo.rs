@@ -777,19 +777,10 @@ impl SeasonOutlays {
         match self.floor {
             None => self.kept.extend(outlays.iter().map(|&x| order_key(x))),
             Some(floor) => {
-                // every key written in turn, the next one over it unless it is above the floor
-                // (no branch on the outlay; the same keys in the same order as a filter)
                 let before = self.kept.len();
-                self.kept.resize(before + outlays.len(), 0);
-                let room = &mut self.kept[before..];
-                let mut kept = 0;
-                for &x in outlays {
-                    let k = order_key(x);
-                    room[kept] = k;
-                    kept += usize::from(k > floor);
-                }
-                self.kept.truncate(before + kept);
-                self.dropped += outlays.len() - kept;
+                self.kept
+                    .extend(outlays.iter().map(|&x| order_key(x)).filter(|&k| k > floor));
+                self.dropped += outlays.len() - (self.kept.len() - before);
             }
         }
         if self.kept.len() >= 2 * self.keep.max(CHUNK) {
