@@ -1572,7 +1572,8 @@ impl<M: PathModel> Context<'_, M> {
         // places
         let mut shocks = vec![PeriodShock::NONE; periods * n];
         for lane in 0..n {
-            draw_shocks_into(s, (from + lane) as u64, &mut shocks, lane, n);
+            let places = shocks.iter_mut().skip(lane).step_by(n);
+            draw_shocks_into(s, (from + lane) as u64, places);
         }
         let mut lanes: Vec<M::Lanes<'_>> = self.models.iter().map(|m| m.start_lanes(n)).collect();
         columns.resize_with(self.models.len(), Columns::default);

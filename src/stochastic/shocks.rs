@@ -152,52 +152,6 @@ impl ShockStream {
     }
 }
 
-impl ShockStream {
-    /// The next `out.len()` periods' shocks into `out`: the values of as many calls of
-    /// [`ShockStream::next_shock`], drawn kind by kind (each kind's stream in a loop of its own, the
-    /// yield factors' `exp` in one loop), which the streams of their own allow.
-    pub fn next_block(&mut self, out: &mut [PeriodShock]) {
-        let s = self.spec;
-        match &mut self.yields {
-            Some(rng) => {
-                let (sigma, shift) = (self.sigma, 0.5 * self.sigma * self.sigma);
-                for x in out.iter_mut() {
-                    let z: f64 = rng.sample(StandardNormal);
-                    x.yield_factor = sigma * z - shift;
-                }
-                for x in out.iter_mut() {
-                    x.yield_factor = x.yield_factor.exp();
-                }
-            }
-            None => out.iter_mut().for_each(|x| x.yield_factor = 1.0),
-        }
-        match &mut self.supply {
-            Some(rng) => {
-                for x in out.iter_mut() {
-                    x.supply = s.supply_sd * rng.sample::<f64, _>(StandardNormal);
-                }
-            }
-            None => out.iter_mut().for_each(|x| x.supply = 0.0),
-        }
-        match &mut self.demand_rng {
-            Some(rng) => {
-                for x in out.iter_mut() {
-                    let z: f64 = rng.sample(StandardNormal);
-                    self.demand = s.demand_persistence * self.demand + s.demand_sd * z;
-                    x.demand = self.demand;
-                }
-            }
-            None => out.iter_mut().for_each(|x| x.demand = self.demand),
-        }
-        match &mut self.world {
-            Some(w) => out
-                .iter_mut()
-                .for_each(|x| x.world_factor = w.next_factor()),
-            None => out.iter_mut().for_each(|x| x.world_factor = 1.0),
-        }
-    }
-}
-
 /// The shocks of a single-path run: none for a deterministic market, else replication 0's stream.
 pub fn single_path_shocks(scenario: &Scenario) -> Vec<PeriodShock> {
     if scenario.is_deterministic() {
@@ -212,36 +166,23 @@ pub fn single_path_shocks(scenario: &Scenario) -> Vec<PeriodShock> {
 /// [`single_path_shocks`] for replication 0). Monte Carlo draws each replication's shocks once with
 /// this and hands them to every model of the replication.
 pub fn draw_shocks(scenario: &Scenario, replication: u64, into: &mut [PeriodShock]) {
-    draw_shocks_into(scenario, replication, into, 0, 1);
+    draw_shocks_into(scenario, replication, into.iter_mut());
 }
 
-/// [`draw_shocks`] into `table[t · stride + lane]` for period t + 1 (the Monte Carlo writes a
-/// replication's shocks straight into its lane of a period-major table; `stride` 1 and `lane` 0 is
-/// a plain list of periods): as many periods as `table` has rows.
-pub(crate) fn draw_shocks_into(
+/// [`draw_shocks`] into the places `into` gives, one per period in period order (the Monte Carlo
+/// writes a replication's shocks straight into its lane of a period-major table).
+pub(crate) fn draw_shocks_into<'a>(
     scenario: &Scenario,
     replication: u64,
-    table: &mut [PeriodShock],
-    lane: usize,
-    stride: usize,
+    into: impl Iterator<Item = &'a mut PeriodShock>,
 ) {
-    let places = table.iter_mut().skip(lane).step_by(stride.max(1));
     if scenario.is_deterministic() {
-        places.for_each(|x| *x = PeriodShock::NONE);
+        into.for_each(|x| *x = PeriodShock::NONE);
         return;
     }
     let mut stream = ShockStream::for_scenario(scenario, replication);
-    // a block of periods at a time, drawn kind by kind ([`ShockStream::next_block`])
-    let mut block = [PeriodShock::NONE; 64];
-    let mut places = places.peekable();
-    while places.peek().is_some() {
-        let rows = places.len().min(block.len());
-        let block = &mut block[..rows];
-        stream.next_block(block);
-        // the block first: `zip` then takes no place beyond the block's rows
-        for (x, place) in block.iter().zip(places.by_ref()) {
-            *place = *x;
-        }
+    for x in into {
+        *x = stream.next_shock();
     }
 }
 
@@ -310,66 +251,6 @@ mod tests {
                         assert_eq!(x.to_bits(), y.to_bits(), "kind {k} with {i} off");
                     }
                 }
-            }
-        }
-    }
-
-    #[test]
-    fn blocks_and_tables_hold_the_draws_period_by_period() {
-        // an identity (no outside source): a block of periods, and a lane of a period-major
-        // table, hold the bits of as many calls of `next_shock`
-        let specs = [
-            ShockSpec {
-                yield_cv: 0.1,
-                supply_sd: 2.0,
-                demand_sd: 3.0,
-                demand_persistence: 0.4,
-            },
-            ShockSpec {
-                yield_cv: 0.05,
-                demand_sd: 1.0,
-                demand_persistence: 0.7,
-                ..Default::default()
-            },
-            ShockSpec {
-                supply_sd: 1.5,
-                ..Default::default()
-            },
-        ];
-        for spec in &specs {
-            let mut one = ShockStream::new(spec, 3, 9);
-            let want: Vec<PeriodShock> = (0..150).map(|_| one.next_shock()).collect();
-            let mut blocks = ShockStream::new(spec, 3, 9);
-            let mut got = Vec::new();
-            for size in [1, 7, 64, 78] {
-                let mut b = vec![PeriodShock::NONE; size];
-                blocks.next_block(&mut b);
-                got.extend(b);
-            }
-            assert_eq!(format!("{got:?}"), format!("{want:?}"));
-        }
-        let text = "[market]\nname = \"T\"\nquantity_unit = \"kt\"\nprice_unit = \"per t\"\n\
-                    [demand]\nintercept = 200.0\nslope = -2.0\n[supply]\nintercept = -40.0\n\
-                    slope = 1.0\n[run]\nperiods = 130\ninitial_price = 80.0\nseed = 4\n\
-                    [shocks]\nyield_cv = 0.1\ndemand_sd = 2.0\n";
-        let scenario = crate::scenario::market_from_table(
-            "t.toml",
-            crate::scenario::parse_toml("t.toml", text).unwrap(),
-        )
-        .unwrap();
-        let (periods, lanes) = (130, 5);
-        let mut table = vec![PeriodShock::NONE; periods * lanes];
-        for lane in 0..lanes {
-            draw_shocks_into(&scenario, 20 + lane as u64, &mut table, lane, lanes);
-        }
-        for lane in 0..lanes {
-            let mut one = ShockStream::for_scenario(&scenario, 20 + lane as u64);
-            for t in 0..periods {
-                let want = one.next_shock();
-                assert_eq!(
-                    format!("{:?}", table[t * lanes + lane]),
-                    format!("{want:?}")
-                );
             }
         }
     }
