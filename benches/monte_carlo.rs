@@ -112,7 +112,8 @@ fn steps(c: &mut Criterion) {
         })
     });
 
-    // one replication's draw: the stream set up and 100 periods of shocks (three normals each)
+    // one replication's draw: the streams set up and 100 periods of shocks (the job's market has
+    // a yield and a demand shock: two normals and one `exp` a period)
     g.throughput(Throughput::Elements(100));
     g.bench_function("draw_100_shocks", |b| {
         let mut rep = 0u64;
