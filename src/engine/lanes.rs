@@ -340,12 +340,8 @@ impl<'m> Phased<'m> {
         let (shocks, failed) = (&shocks[..n], &mut failed[..n]);
         let t = self.period + 1;
         let s = &mut self.scratch;
-        for (l, (shock, failed)) in shocks.iter().zip(failed.iter()).enumerate() {
-            s.yield_factor[l] = shock.yield_factor;
-            s.supply_shock[l] = shock.supply;
-            s.demand_shock[l] = shock.demand;
-            s.live[l] = failed.is_none();
-        }
+        let simd = self.simd;
+        unpack_all(simd, shocks, failed, s);
 
         // the expectation, the planting price, the stock carried in, the crop and the harvest
         match self.expect {
@@ -368,7 +364,6 @@ impl<'m> Phased<'m> {
                 &mut s.expectation,
             ),
         }
-        let simd = self.simd;
         if !plant_all(simd, model, supply, n, &self.stock, s) {
             for l in 0..n {
                 if s.live[l] && !model.expectation_ok(s.planting[l]) {
@@ -476,6 +471,48 @@ fn expect_rule(
             previous: (t > 1).then_some(previous[l]),
             season: t,
         });
+    }
+}
+
+/// Every lane's shocks into the scratch columns, and whether its path is still going.
+#[inline(never)]
+fn unpack_all(simd: Simd, shocks: &[PeriodShock], failed: &[Option<Diverged>], s: &mut Scratch) {
+    // SAFETY: `simd` names a copy the CPU runs (`numeric::simd`, `Simd::at_most`)
+    #[cfg(target_arch = "x86_64")]
+    match simd {
+        Simd::Avx512 => return unsafe { unpack_all_avx512(shocks, failed, s) },
+        Simd::Avx2 => return unsafe { unpack_all_avx2(shocks, failed, s) },
+        Simd::Plain => {}
+    }
+    let _ = simd;
+    unpack_all_in(shocks, failed, s)
+}
+
+/// [`unpack_all`] in AVX2.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+unsafe fn unpack_all_avx2(shocks: &[PeriodShock], failed: &[Option<Diverged>], s: &mut Scratch) {
+    unpack_all_in(shocks, failed, s)
+}
+
+/// [`unpack_all`] in AVX-512.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx512f,avx512bw,avx512dq,avx512vl")]
+unsafe fn unpack_all_avx512(shocks: &[PeriodShock], failed: &[Option<Diverged>], s: &mut Scratch) {
+    unpack_all_in(shocks, failed, s)
+}
+
+#[inline(always)]
+fn unpack_all_in(shocks: &[PeriodShock], failed: &[Option<Diverged>], s: &mut Scratch) {
+    let n = shocks.len().min(failed.len()).min(LANES);
+    let (shocks, failed) = (&shocks[..n], &failed[..n]);
+    for l in 0..n {
+        s.yield_factor[l] = shocks[l].yield_factor;
+        s.supply_shock[l] = shocks[l].supply;
+        s.demand_shock[l] = shocks[l].demand;
+    }
+    for l in 0..n {
+        s.live[l] = failed[l].is_none();
     }
 }
 
