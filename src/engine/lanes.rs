@@ -38,7 +38,7 @@ use super::{
 };
 use crate::curves::{Form, Forms, Linear};
 use crate::expectations::{Adaptive, ExpectationInput};
-use crate::numeric::{simd, Simd};
+use crate::numeric::{simd, simd_copies, Simd};
 use crate::policies::lanes::{LaneTerms, LinearLanes};
 use crate::policies::{ClearLanes, Clearing, MarketColumns, PayLanes};
 use crate::trade::Traded;
@@ -474,117 +474,52 @@ fn expect_rule(
     }
 }
 
-/// Every lane's shocks into the scratch columns, and whether its path is still going.
-#[inline(never)]
-fn unpack_all(simd: Simd, shocks: &[PeriodShock], failed: &[Option<Diverged>], s: &mut Scratch) {
-    // SAFETY: `simd` names a copy the CPU runs (`numeric::simd`, `Simd::at_most`)
-    #[cfg(target_arch = "x86_64")]
-    match simd {
-        Simd::Avx512 => return unsafe { unpack_all_avx512(shocks, failed, s) },
-        Simd::Avx2 => return unsafe { unpack_all_avx2(shocks, failed, s) },
-        Simd::Plain => {}
-    }
-    let _ = simd;
-    unpack_all_in(shocks, failed, s)
-}
-
-/// [`unpack_all`] in AVX2.
-#[cfg(target_arch = "x86_64")]
-#[target_feature(enable = "avx2")]
-unsafe fn unpack_all_avx2(shocks: &[PeriodShock], failed: &[Option<Diverged>], s: &mut Scratch) {
-    unpack_all_in(shocks, failed, s)
-}
-
-/// [`unpack_all`] in AVX-512.
-#[cfg(target_arch = "x86_64")]
-#[target_feature(enable = "avx512f,avx512bw,avx512dq,avx512vl")]
-unsafe fn unpack_all_avx512(shocks: &[PeriodShock], failed: &[Option<Diverged>], s: &mut Scratch) {
-    unpack_all_in(shocks, failed, s)
-}
-
-#[inline(always)]
-fn unpack_all_in(shocks: &[PeriodShock], failed: &[Option<Diverged>], s: &mut Scratch) {
-    let n = shocks.len().min(failed.len()).min(LANES);
-    let (shocks, failed) = (&shocks[..n], &failed[..n]);
-    for l in 0..n {
-        s.yield_factor[l] = shocks[l].yield_factor;
-        s.supply_shock[l] = shocks[l].supply;
-        s.demand_shock[l] = shocks[l].demand;
-    }
-    for l in 0..n {
-        s.live[l] = failed[l].is_none();
+simd_copies! {
+    /// Every lane's shocks into the scratch columns, and whether its path is still going.
+    #[inline(never)]
+    fn unpack_all[](
+        shocks: &[PeriodShock],
+        failed: &[Option<Diverged>],
+        s: &mut Scratch,
+    ) {
+        let n = shocks.len().min(failed.len()).min(LANES);
+        let (shocks, failed) = (&shocks[..n], &failed[..n]);
+        for l in 0..n {
+            s.yield_factor[l] = shocks[l].yield_factor;
+            s.supply_shock[l] = shocks[l].supply;
+            s.demand_shock[l] = shocks[l].demand;
+        }
+        for l in 0..n {
+            s.live[l] = failed[l].is_none();
+        }
     }
 }
 
-/// The planting price, the stock carried in, the crop and the harvest of every lane; false when
-/// some lane still going has an expected price out of bounds.
-#[inline(never)]
-fn plant_all<S: Form>(
-    simd: Simd,
-    model: &Model,
-    supply: &S,
-    n: usize,
-    stock: &[f64; LANES],
-    s: &mut Scratch,
-) -> bool {
-    // SAFETY: `simd` names a copy the CPU runs (`numeric::simd`, `Simd::at_most`)
-    #[cfg(target_arch = "x86_64")]
-    match simd {
-        Simd::Avx512 => return unsafe { plant_all_avx512(model, supply, n, stock, s) },
-        Simd::Avx2 => return unsafe { plant_all_avx2(model, supply, n, stock, s) },
-        Simd::Plain => {}
+simd_copies! {
+    /// The planting price, the stock carried in, the crop and the harvest of every lane; false when
+    /// some lane still going has an expected price out of bounds.
+    #[inline(never)]
+    fn plant_all[S: Form](
+        model: &Model,
+        supply: &S,
+        n: usize,
+        stock: &[f64; LANES],
+        s: &mut Scratch,
+    ) -> bool {
+        let n = n.min(LANES);
+        let agency = &model.policy.agency;
+        let mut all_ok = true;
+        for l in 0..n {
+            let planting = model.planting_price(s.expectation[l]);
+            s.planting[l] = planting;
+            s.carried[l] = agency.carried(stock[l]);
+            let (planted, harvest) = plant(supply, planting, s.yield_factor[l], s.supply_shock[l]);
+            s.planted[l] = planted;
+            s.harvest[l] = harvest;
+            all_ok &= model.expectation_ok(planting) | !s.live[l];
+        }
+        all_ok
     }
-    let _ = simd;
-    plant_all_in(model, supply, n, stock, s)
-}
-
-/// [`plant_all`] in AVX2.
-#[cfg(target_arch = "x86_64")]
-#[target_feature(enable = "avx2")]
-unsafe fn plant_all_avx2<S: Form>(
-    model: &Model,
-    supply: &S,
-    n: usize,
-    stock: &[f64; LANES],
-    s: &mut Scratch,
-) -> bool {
-    plant_all_in(model, supply, n, stock, s)
-}
-
-/// [`plant_all`] in AVX-512.
-#[cfg(target_arch = "x86_64")]
-#[target_feature(enable = "avx512f,avx512bw,avx512dq,avx512vl")]
-unsafe fn plant_all_avx512<S: Form>(
-    model: &Model,
-    supply: &S,
-    n: usize,
-    stock: &[f64; LANES],
-    s: &mut Scratch,
-) -> bool {
-    plant_all_in(model, supply, n, stock, s)
-}
-
-#[inline(always)]
-fn plant_all_in<S: Form>(
-    model: &Model,
-    supply: &S,
-    n: usize,
-    stock: &[f64; LANES],
-    s: &mut Scratch,
-) -> bool {
-    let n = n.min(LANES);
-    let agency = &model.policy.agency;
-    let mut all_ok = true;
-    for l in 0..n {
-        let planting = model.planting_price(s.expectation[l]);
-        s.planting[l] = planting;
-        s.carried[l] = agency.carried(stock[l]);
-        let (planted, harvest) = plant(supply, planting, s.yield_factor[l], s.supply_shock[l]);
-        s.planted[l] = planted;
-        s.harvest[l] = harvest;
-        all_ok &= model.expectation_ok(planting) | !s.live[l];
-    }
-    all_ok
 }
 
 /// The clearing of every lane still going ([`Model::clear_harvest`]): the policy's trades, then
@@ -668,156 +603,55 @@ fn clear_all<'m>(
     }
 }
 
-/// Every lane before the payments, as [`Model::unpaid`]: the producer price the market price,
-/// consumption, nothing paid.
-#[inline(always)]
-fn unpaid_all(simd: Simd, n: usize, s: &mut Scratch) {
-    // SAFETY: `simd` names a copy the CPU runs (`numeric::simd`, `Simd::at_most`)
-    #[cfg(target_arch = "x86_64")]
-    match simd {
-        Simd::Avx512 => return unsafe { unpaid_all_avx512(n, s) },
-        Simd::Avx2 => return unsafe { unpaid_all_avx2(n, s) },
-        Simd::Plain => {}
-    }
-    let _ = simd;
-    unpaid_all_in(n, s)
-}
-
-/// [`unpaid_all`] in AVX2.
-#[cfg(target_arch = "x86_64")]
-#[target_feature(enable = "avx2")]
-unsafe fn unpaid_all_avx2(n: usize, s: &mut Scratch) {
-    unpaid_all_in(n, s)
-}
-
-/// [`unpaid_all`] in AVX-512.
-#[cfg(target_arch = "x86_64")]
-#[target_feature(enable = "avx512f,avx512bw,avx512dq,avx512vl")]
-unsafe fn unpaid_all_avx512(n: usize, s: &mut Scratch) {
-    unpaid_all_in(n, s)
-}
-
-#[inline(always)]
-fn unpaid_all_in(n: usize, s: &mut Scratch) {
-    for l in 0..n.min(LANES) {
-        s.producer_price[l] = s.price[l];
-        s.deficiency[l] = 0.0;
-        s.consumption[l] = consumption(s.harvest[l], s.purchases[l], s.releases[l]);
-        s.consumer_payments[l] = 0.0;
+simd_copies! {
+    /// Every lane before the payments, as [`Model::unpaid`]: the producer price the market price,
+    /// consumption, nothing paid.
+    #[inline(always)]
+    fn unpaid_all[](n: usize, s: &mut Scratch) {
+        for l in 0..n.min(LANES) {
+            s.producer_price[l] = s.price[l];
+            s.deficiency[l] = 0.0;
+            s.consumption[l] = consumption(s.harvest[l], s.purchases[l], s.releases[l]);
+            s.consumer_payments[l] = 0.0;
+        }
     }
 }
 
-/// [`cleared_ok`] of every lane still going.
-#[inline(never)]
-fn check_all(simd: Simd, model: &Model, n: usize, s: &Scratch) -> bool {
-    // SAFETY: `simd` names a copy the CPU runs (`numeric::simd`, `Simd::at_most`)
-    #[cfg(target_arch = "x86_64")]
-    match simd {
-        Simd::Avx512 => return unsafe { check_all_avx512(model, n, s) },
-        Simd::Avx2 => return unsafe { check_all_avx2(model, n, s) },
-        Simd::Plain => {}
+simd_copies! {
+    /// [`cleared_ok`] of every lane still going.
+    #[inline(never)]
+    fn check_all[](model: &Model, n: usize, s: &Scratch) -> bool {
+        let n = n.min(LANES);
+        let mut all_ok = true;
+        for l in 0..n {
+            all_ok &= cleared_ok(&s.cleared(l), s.consumption[l], model.price_bound) | !s.live[l];
+        }
+        all_ok
     }
-    let _ = simd;
-    check_all_in(model, n, s)
 }
 
-/// [`check_all`] in AVX2.
-#[cfg(target_arch = "x86_64")]
-#[target_feature(enable = "avx2")]
-unsafe fn check_all_avx2(model: &Model, n: usize, s: &Scratch) -> bool {
-    check_all_in(model, n, s)
-}
-
-/// [`check_all`] in AVX-512.
-#[cfg(target_arch = "x86_64")]
-#[target_feature(enable = "avx512f,avx512bw,avx512dq,avx512vl")]
-unsafe fn check_all_avx512(model: &Model, n: usize, s: &Scratch) -> bool {
-    check_all_in(model, n, s)
-}
-
-#[inline(always)]
-fn check_all_in(model: &Model, n: usize, s: &Scratch) -> bool {
-    let n = n.min(LANES);
-    let mut all_ok = true;
-    for l in 0..n {
-        all_ok &= cleared_ok(&s.cleared(l), s.consumption[l], model.price_bound) | !s.live[l];
-    }
-    all_ok
-}
-
-/// The books of every lane ([`PeriodRecord::book_in`]) written into `out`: the numbers in one
-/// loop, the flags and stock-outs in another (each loop keeps of the booking what it writes).
-#[inline(never)]
-#[allow(clippy::too_many_arguments)]
-fn book_all<D: Form, S: Form>(
-    simd: Simd,
-    model: &Model,
-    demand: &D,
-    supply: &S,
-    t: usize,
-    n: usize,
-    s: &Scratch,
-    out: &mut Columns,
-) {
-    // SAFETY: `simd` names a copy the CPU runs (`numeric::simd`, `Simd::at_most`)
-    #[cfg(target_arch = "x86_64")]
-    match simd {
-        Simd::Avx512 => return unsafe { book_all_avx512(model, demand, supply, t, n, s, out) },
-        Simd::Avx2 => return unsafe { book_all_avx2(model, demand, supply, t, n, s, out) },
-        Simd::Plain => {}
-    }
-    let _ = simd;
-    book_all_in(model, demand, supply, t, n, s, out)
-}
-
-/// [`book_all`] in AVX2.
-#[cfg(target_arch = "x86_64")]
-#[target_feature(enable = "avx2")]
-unsafe fn book_all_avx2<D: Form, S: Form>(
-    model: &Model,
-    demand: &D,
-    supply: &S,
-    t: usize,
-    n: usize,
-    s: &Scratch,
-    out: &mut Columns,
-) {
-    book_all_in(model, demand, supply, t, n, s, out)
-}
-
-/// [`book_all`] in AVX-512.
-#[cfg(target_arch = "x86_64")]
-#[target_feature(enable = "avx512f,avx512bw,avx512dq,avx512vl")]
-unsafe fn book_all_avx512<D: Form, S: Form>(
-    model: &Model,
-    demand: &D,
-    supply: &S,
-    t: usize,
-    n: usize,
-    s: &Scratch,
-    out: &mut Columns,
-) {
-    book_all_in(model, demand, supply, t, n, s, out)
-}
-
-#[inline(always)]
-fn book_all_in<D: Form, S: Form>(
-    model: &Model,
-    demand: &D,
-    supply: &S,
-    t: usize,
-    n: usize,
-    s: &Scratch,
-    out: &mut Columns,
-) {
-    let n = n.min(LANES);
-    for l in 0..n {
-        put_numbers(out, l, &book(model, demand, supply, t, s, l));
-    }
-    for l in 0..n {
-        let r = book(model, demand, supply, t, s, l);
-        out.flags[l] = r.flags;
-        out.stockout[l] = r.stockout;
+simd_copies! {
+    /// The books of every lane ([`PeriodRecord::book_in`]) written into `out`: the numbers in one
+    /// loop, the flags and stock-outs in another (each loop keeps of the booking what it writes).
+    #[inline(never)]
+    fn book_all[D: Form, S: Form](
+        model: &Model,
+        demand: &D,
+        supply: &S,
+        t: usize,
+        n: usize,
+        s: &Scratch,
+        out: &mut Columns,
+    ) {
+        let n = n.min(LANES);
+        for l in 0..n {
+            put_numbers(out, l, &book(model, demand, supply, t, s, l));
+        }
+        for l in 0..n {
+            let r = book(model, demand, supply, t, s, l);
+            out.flags[l] = r.flags;
+            out.stockout[l] = r.stockout;
+        }
     }
 }
 
@@ -847,73 +681,24 @@ fn book<D: Form, S: Form>(
     )
 }
 
-/// The state every lane carries into the next period: the expectation, the stock, the price the
-/// rules read ([`Model::read_price`]).
-#[inline(never)]
-fn settle_all(
-    simd: Simd,
-    model: &Model,
-    n: usize,
-    s: &Scratch,
-    previous: &mut [f64; LANES],
-    last_price: &mut [f64; LANES],
-    stock: &mut [f64; LANES],
-) {
-    // SAFETY: `simd` names a copy the CPU runs (`numeric::simd`, `Simd::at_most`)
-    #[cfg(target_arch = "x86_64")]
-    match simd {
-        Simd::Avx512 => {
-            return unsafe { settle_all_avx512(model, n, s, previous, last_price, stock) }
+simd_copies! {
+    /// The state every lane carries into the next period: the expectation, the stock, the price the
+    /// rules read ([`Model::read_price`]).
+    #[inline(never)]
+    fn settle_all[](
+        model: &Model,
+        n: usize,
+        s: &Scratch,
+        previous: &mut [f64; LANES],
+        last_price: &mut [f64; LANES],
+        stock: &mut [f64; LANES],
+    ) {
+        let n = n.min(LANES);
+        for l in 0..n {
+            previous[l] = s.expectation[l];
+            stock[l] = s.stock[l];
+            last_price[l] = model.read_price(s.producer_price[l], s.yield_factor[l]);
         }
-        Simd::Avx2 => return unsafe { settle_all_avx2(model, n, s, previous, last_price, stock) },
-        Simd::Plain => {}
-    }
-    let _ = simd;
-    settle_all_in(model, n, s, previous, last_price, stock)
-}
-
-/// [`settle_all`] in AVX2.
-#[cfg(target_arch = "x86_64")]
-#[target_feature(enable = "avx2")]
-unsafe fn settle_all_avx2(
-    model: &Model,
-    n: usize,
-    s: &Scratch,
-    previous: &mut [f64; LANES],
-    last_price: &mut [f64; LANES],
-    stock: &mut [f64; LANES],
-) {
-    settle_all_in(model, n, s, previous, last_price, stock)
-}
-
-/// [`settle_all`] in AVX-512.
-#[cfg(target_arch = "x86_64")]
-#[target_feature(enable = "avx512f,avx512bw,avx512dq,avx512vl")]
-unsafe fn settle_all_avx512(
-    model: &Model,
-    n: usize,
-    s: &Scratch,
-    previous: &mut [f64; LANES],
-    last_price: &mut [f64; LANES],
-    stock: &mut [f64; LANES],
-) {
-    settle_all_in(model, n, s, previous, last_price, stock)
-}
-
-#[inline(always)]
-fn settle_all_in(
-    model: &Model,
-    n: usize,
-    s: &Scratch,
-    previous: &mut [f64; LANES],
-    last_price: &mut [f64; LANES],
-    stock: &mut [f64; LANES],
-) {
-    let n = n.min(LANES);
-    for l in 0..n {
-        previous[l] = s.expectation[l];
-        stock[l] = s.stock[l];
-        last_price[l] = model.read_price(s.producer_price[l], s.yield_factor[l]);
     }
 }
 

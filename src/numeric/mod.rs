@@ -47,6 +47,58 @@ pub fn simd() -> Simd {
     }
 }
 
+/// Defines a function whose body is compiled three times — for the baseline target, for AVX2 and for
+/// AVX-512 — and run in the copy a [`Simd`] names: the function takes that `Simd` (one the CPU runs:
+/// [`simd`], [`Simd::at_most`]) before the arguments written. One body, so the same operations in
+/// the same order in every copy, and so the same bits. Generic parameters go in brackets.
+///
+/// ```text
+/// simd_copies! {
+///     /// Docs of the function.
+///     #[inline(never)]
+///     fn check_all[](model: &Model, n: usize, s: &Scratch) -> bool {
+///         /* the loop over the lanes */
+///     }
+/// }
+/// ```
+macro_rules! simd_copies {
+    (
+        $(#[$meta:meta])*
+        $vis:vis fn $name:ident [$($gen:tt)*] ($($arg:ident : $ty:ty),* $(,)?) $(-> $ret:ty)?
+            $body:block
+    ) => {
+        $(#[$meta])*
+        #[allow(clippy::too_many_arguments)]
+        $vis fn $name<$($gen)*>(simd: $crate::numeric::Simd, $($arg: $ty),*) $(-> $ret)? {
+            #[inline(always)]
+            #[allow(clippy::too_many_arguments)]
+            fn body<$($gen)*>($($arg: $ty),*) $(-> $ret)? $body
+            #[cfg(target_arch = "x86_64")]
+            #[target_feature(enable = "avx2")]
+            #[allow(clippy::too_many_arguments)]
+            unsafe fn avx2<$($gen)*>($($arg: $ty),*) $(-> $ret)? {
+                body($($arg),*)
+            }
+            #[cfg(target_arch = "x86_64")]
+            #[target_feature(enable = "avx512f,avx512bw,avx512dq,avx512vl")]
+            #[allow(clippy::too_many_arguments)]
+            unsafe fn avx512<$($gen)*>($($arg: $ty),*) $(-> $ret)? {
+                body($($arg),*)
+            }
+            // SAFETY: `simd` names a copy the CPU runs (`numeric::simd`, `Simd::at_most`)
+            #[cfg(target_arch = "x86_64")]
+            match simd {
+                $crate::numeric::Simd::Avx512 => return unsafe { avx512($($arg),*) },
+                $crate::numeric::Simd::Avx2 => return unsafe { avx2($($arg),*) },
+                $crate::numeric::Simd::Plain => {}
+            }
+            let _ = simd;
+            body($($arg),*)
+        }
+    };
+}
+pub(crate) use simd_copies;
+
 /// Whether the CPU runs AVX2 (or wider): [`simd`] above [`Simd::Plain`].
 pub fn avx2() -> bool {
     simd() >= Simd::Avx2

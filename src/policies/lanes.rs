@@ -15,7 +15,7 @@
 use super::clearing::accumulate;
 use super::{flags, MarketColumns};
 use crate::curves::{Form, Linear};
-use crate::numeric::Simd;
+use crate::numeric::{simd_copies, Simd};
 
 /// One lane's market while actions trade on it (the fields of [`super::Clearing`] a closed
 /// market without a budget reads).
@@ -252,16 +252,8 @@ impl LinearLanes<'_> {
             &mut m.releases[..n],
         );
         let (k, f) = (&mut m.stock[..n], &mut m.flags[..n]);
-        // SAFETY: `simd` names a copy the CPU runs (`LinearLanes::new`)
-        #[cfg(target_arch = "x86_64")]
-        match self.simd {
-            Simd::Avx512 => {
-                return unsafe { pass_avx512(pass, &self.terms, h, s, c, p, x, r, k, f) }
-            }
-            Simd::Avx2 => return unsafe { pass_avx2(pass, &self.terms, h, s, c, p, x, r, k, f) },
-            Simd::Plain => {}
-        }
-        pass_plain(pass, &self.terms, h, s, c, p, x, r, k, f)
+        // `simd` names a copy the CPU runs (`LinearLanes::new`)
+        pass_copies(self.simd, pass, &self.terms, h, s, c, p, x, r, k, f)
     }
 }
 
@@ -304,102 +296,44 @@ impl Pass for Finish {
     }
 }
 
-/// [`pass_plain`] in AVX2.
-#[cfg(target_arch = "x86_64")]
-#[target_feature(enable = "avx2")]
-#[allow(clippy::too_many_arguments)]
-unsafe fn pass_avx2<P: Pass>(
-    pass: &P,
-    terms: &LaneTerms,
-    harvest: &[f64],
-    shift: &[f64],
-    carried: &[f64],
-    price: &mut [f64],
-    purchases: &mut [f64],
-    releases: &mut [f64],
-    stock: &mut [f64],
-    flags: &mut [u16],
-) {
-    pass_in(
-        pass, terms, harvest, shift, carried, price, purchases, releases, stock, flags,
-    )
-}
-
-/// [`pass_plain`] in AVX-512.
-#[cfg(target_arch = "x86_64")]
-#[target_feature(enable = "avx512f,avx512bw,avx512dq,avx512vl")]
-#[allow(clippy::too_many_arguments)]
-unsafe fn pass_avx512<P: Pass>(
-    pass: &P,
-    terms: &LaneTerms,
-    harvest: &[f64],
-    shift: &[f64],
-    carried: &[f64],
-    price: &mut [f64],
-    purchases: &mut [f64],
-    releases: &mut [f64],
-    stock: &mut [f64],
-    flags: &mut [u16],
-) {
-    pass_in(
-        pass, terms, harvest, shift, carried, price, purchases, releases, stock, flags,
-    )
-}
-
-/// One loop over the lanes doing `pass` on each (every column as long as `harvest`).
-#[inline(never)]
-#[allow(clippy::too_many_arguments)]
-fn pass_plain<P: Pass>(
-    pass: &P,
-    terms: &LaneTerms,
-    harvest: &[f64],
-    shift: &[f64],
-    carried: &[f64],
-    price: &mut [f64],
-    purchases: &mut [f64],
-    releases: &mut [f64],
-    stock: &mut [f64],
-    flags: &mut [u16],
-) {
-    pass_in(
-        pass, terms, harvest, shift, carried, price, purchases, releases, stock, flags,
-    )
-}
-
-#[inline(always)]
-#[allow(clippy::too_many_arguments)]
-fn pass_in<P: Pass>(
-    pass: &P,
-    terms: &LaneTerms,
-    harvest: &[f64],
-    shift: &[f64],
-    carried: &[f64],
-    price: &mut [f64],
-    purchases: &mut [f64],
-    releases: &mut [f64],
-    stock: &mut [f64],
-    flags: &mut [u16],
-) {
-    let n = harvest.len();
-    let (shift, carried, price) = (&shift[..n], &carried[..n], &mut price[..n]);
-    let (purchases, releases) = (&mut purchases[..n], &mut releases[..n]);
-    let (stock, flags) = (&mut stock[..n], &mut flags[..n]);
-    for l in 0..n {
-        let m = LaneMarket {
-            harvest: harvest[l],
-            shift: shift[l],
-            carried: carried[l],
-            untraded: price[l],
-            purchases: purchases[l],
-            releases: releases[l],
-            flags: flags[l],
-        };
-        let (m, p, k) = pass.lane(terms, m, stock[l]);
-        price[l] = p;
-        purchases[l] = m.purchases;
-        releases[l] = m.releases;
-        stock[l] = k;
-        flags[l] = m.flags;
+simd_copies! {
+    /// One loop over the lanes doing `pass` on each (every column as long as `harvest`), in the
+    /// copy the first argument names (inlined in each caller, so the call goes straight to the
+    /// copy).
+    #[inline(always)]
+    fn pass_copies[P: Pass](
+        pass: &P,
+        terms: &LaneTerms,
+        harvest: &[f64],
+        shift: &[f64],
+        carried: &[f64],
+        price: &mut [f64],
+        purchases: &mut [f64],
+        releases: &mut [f64],
+        stock: &mut [f64],
+        flags: &mut [u16],
+    ) {
+        let n = harvest.len();
+        let (shift, carried, price) = (&shift[..n], &carried[..n], &mut price[..n]);
+        let (purchases, releases) = (&mut purchases[..n], &mut releases[..n]);
+        let (stock, flags) = (&mut stock[..n], &mut flags[..n]);
+        for l in 0..n {
+            let m = LaneMarket {
+                harvest: harvest[l],
+                shift: shift[l],
+                carried: carried[l],
+                untraded: price[l],
+                purchases: purchases[l],
+                releases: releases[l],
+                flags: flags[l],
+            };
+            let (m, p, k) = pass.lane(terms, m, stock[l]);
+            price[l] = p;
+            purchases[l] = m.purchases;
+            releases[l] = m.releases;
+            stock[l] = k;
+            flags[l] = m.flags;
+        }
     }
 }
 
