@@ -14,7 +14,7 @@
 #![allow(clippy::needless_range_loop)]
 
 use crate::engine::{floor_binding, Columns, LANES};
-use crate::numeric::Simd;
+use crate::numeric::{simd_copies, Simd};
 use crate::policies::flags;
 use crate::scenario::MAX_ALERTS;
 use crate::welfare::{discounted_trade, finish_pv, revenue_of, Crra, PeriodItems, PERIOD_ITEMS};
@@ -149,40 +149,12 @@ impl LaneFold {
     }
 
     /// Folds the period in `c` (every lane) into each lane's sums; leaves each lane's income and
-    /// its CRRA transform in [`LaneFold::income`] and [`LaneFold::transform`].
+    /// its CRRA transform in [`LaneFold::income`] and [`LaneFold::transform`]. Runs the copy of
+    /// [`LaneFold::fold`] the fold's `simd` names.
     #[inline]
     pub(crate) fn add(&mut self, c: &Columns, watch: &Watch) {
-        // SAFETY: `simd` names a copy the machine runs (`numeric::simd`, `Simd::at_most`)
-        #[cfg(target_arch = "x86_64")]
-        match self.simd {
-            Simd::Avx512 => return unsafe { self.add_avx512(c, watch) },
-            Simd::Avx2 => return unsafe { self.add_avx2(c, watch) },
-            Simd::Plain => {}
-        }
-        self.add_plain(c, watch);
-    }
-
-    /// [`LaneFold::fold`] built for the baseline x86-64 (SSE2) or any other target.
-    #[inline(never)]
-    fn add_plain(&mut self, c: &Columns, watch: &Watch) {
-        self.fold(c, watch);
-    }
-
-    /// [`LaneFold::fold`] built for AVX2: the same operations on four lanes a register (no FMA, no
-    /// reassociation, so every lane gets the bits of [`LaneFold::add_plain`]).
-    #[cfg(target_arch = "x86_64")]
-    #[target_feature(enable = "avx2")]
-    #[inline(never)]
-    unsafe fn add_avx2(&mut self, c: &Columns, watch: &Watch) {
-        self.fold(c, watch);
-    }
-
-    /// [`LaneFold::fold`] built for AVX-512: eight lanes a register, the same bits again.
-    #[cfg(target_arch = "x86_64")]
-    #[target_feature(enable = "avx512f,avx512bw,avx512dq,avx512vl")]
-    #[inline(never)]
-    unsafe fn add_avx512(&mut self, c: &Columns, watch: &Watch) {
-        self.fold(c, watch);
+        let simd = self.simd;
+        fold_copies(simd, self, c, watch);
     }
 
     /// The one definition of the period's fold.
@@ -367,6 +339,15 @@ impl LaneFold {
             export_periods: self.export_periods[l],
         };
         (summary, pooled)
+    }
+}
+
+simd_copies! {
+    /// [`LaneFold::fold`] built for the baseline, AVX2 (four lanes a register) and AVX-512 (eight):
+    /// the same operations in each (no FMA, no reassociation), so every lane gets the same bits.
+    #[inline(never)]
+    fn fold_copies[](fold: &mut LaneFold, c: &Columns, watch: &Watch) {
+        fold.fold(c, watch)
     }
 }
 
