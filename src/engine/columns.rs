@@ -243,6 +243,3 @@ impl<S: Stepper> LaneStepper for EachLane<S> {
         }
     }
 }
-
-/// Whether the CPU runs AVX2 or wider (the one check, in [`crate::numeric::simd`]).
-pub use crate::numeric::avx2;

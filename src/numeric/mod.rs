@@ -99,11 +99,6 @@ macro_rules! simd_copies {
 }
 pub(crate) use simd_copies;
 
-/// Whether the CPU runs AVX2 (or wider): [`simd`] above [`Simd::Plain`].
-pub fn avx2() -> bool {
-    simd() >= Simd::Avx2
-}
-
 /// Finds a root of `f` between `lo` and `hi` (which must bracket a sign change) to absolute tolerance
 /// `tol` in x. Returns `None` when the interval does not bracket a root or the search fails.
 pub fn brent<F: FnMut(f64) -> f64>(f: F, lo: f64, hi: f64, tol: f64) -> Option<f64> {
