@@ -1440,11 +1440,39 @@ impl PeriodSums<'_> {
         series_sums: &mut [f64],
     ) {
         self.add::<0>(sums, cols, &[], &mut []);
-        for (which, sum) in series.iter().zip(series_sums) {
-            for v in &which.column(cols)[..self.n.min(CHUNK)] {
-                *sum += v;
+        // four series at a time, so four chains of additions overlap (each still in lane order)
+        let mut groups = series.chunks_exact(4).zip(series_sums.chunks_exact_mut(4));
+        for (which, sum) in groups.by_ref() {
+            self.series_only::<4>(cols, which, sum);
+        }
+        let rest = series.len() - series.len() % 4;
+        let (which, sum) = (&series[rest..], &mut series_sums[rest..]);
+        match which.len() {
+            1 => self.series_only::<1>(cols, which, sum),
+            2 => self.series_only::<2>(cols, which, sum),
+            3 => self.series_only::<3>(cols, which, sum),
+            _ => {}
+        }
+    }
+
+    /// Adds `K` kept series to `series_sums`, each over the lanes in lane order, in one loop.
+    #[inline(always)]
+    #[allow(clippy::needless_range_loop)] // lane by lane, the K series side by side
+    fn series_only<const K: usize>(
+        &self,
+        cols: &Columns,
+        series: &[PathVariable],
+        series_sums: &mut [f64],
+    ) {
+        let n = self.n.min(CHUNK);
+        let xs: [&Lanes; K] = std::array::from_fn(|j| series[j].column(cols));
+        let mut s: [f64; K] = std::array::from_fn(|j| series_sums[j]);
+        for l in 0..n {
+            for j in 0..K {
+                s[j] += xs[j][l];
             }
         }
+        series_sums.copy_from_slice(&s);
     }
 }
 
@@ -1612,6 +1640,7 @@ impl<M: PathModel> Context<'_, M> {
                     1 => period.add::<1>(&mut acc.sums[t], cols, self.series, series_sums),
                     2 => period.add::<2>(&mut acc.sums[t], cols, self.series, series_sums),
                     3 => period.add::<3>(&mut acc.sums[t], cols, self.series, series_sums),
+                    4 => period.add::<4>(&mut acc.sums[t], cols, self.series, series_sums),
                     _ => period.add_any(&mut acc.sums[t], cols, self.series, series_sums),
                 }
                 // the season outlays of the leading replications (within budget)
