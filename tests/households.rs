@@ -5,7 +5,7 @@
 mod common;
 
 use common::{bin, stdout_of};
-use furrow::compare::compare_with_households;
+use furrow::compare::{compare_with_households, Fans};
 use furrow::engine::{Model, PeriodShock};
 use furrow::households::{HouseholdGroup, HouseholdResult};
 use furrow::policies::file::policy_from_str;
@@ -63,7 +63,7 @@ fn policy(body: &str) -> PolicySpec {
 }
 
 fn run(s: &Scenario, p: &[PolicySpec]) -> (furrow::compare::CompareResult, HouseholdResult) {
-    let (r, h) = compare_with_households(s, p, &NoProgress).unwrap();
+    let (r, h) = compare_with_households(s, p, &NoProgress, Fans::Keep).unwrap();
     (r, h.expect("the market has groups"))
 }
 

@@ -1,6 +1,6 @@
 //! Monte Carlo checks against published results and closed forms, and reproducibility.
 
-use furrow::compare::compare;
+use furrow::compare::{compare, compare_indicators};
 use furrow::engine::Model;
 use furrow::policies::file::policy_from_table;
 use furrow::policies::PolicySpec;
@@ -413,6 +413,32 @@ fn compare_is_byte_identical_on_one_and_two_threads() {
     let one = run(1);
     assert_eq!(one, run(2));
     assert_eq!(one, run(1));
+}
+
+#[test]
+fn a_comparison_without_fans_has_the_indicators_of_one_with_them() {
+    // an identity (no outside source): the fans' kept series feed no indicator, so leaving them
+    // out changes no bit of any column but the fans themselves
+    let s = band_market(300);
+    let all: Vec<PolicySpec> = five_policies().into_iter().skip(1).collect();
+    let with = compare(&s, &all, &NoProgress).unwrap();
+    let without = compare_indicators(&s, &all, &NoProgress).unwrap();
+    assert!(with.policies.iter().all(|p| p.fan.price.len() == 25));
+    let columns = |r: &furrow::compare::CompareResult| -> Vec<String> {
+        r.policies
+            .iter()
+            .chain([&r.baseline])
+            .chain(&r.behaviour)
+            .map(|p| {
+                assert_eq!(p.fan.price.len(), p.fan.stock.len());
+                format!("{:?} {:?}", p.indicators, p.fan.mean_fiscal_cost)
+            })
+            .collect()
+    };
+    assert_eq!(columns(&with), columns(&without));
+    for p in &without.policies {
+        assert!(p.fan.price.is_empty() && p.fan.stock.is_empty());
+    }
 }
 
 #[test]

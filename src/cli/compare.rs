@@ -2,7 +2,7 @@
 //! left alone under the same shocks.
 
 use clap::Args;
-use furrow::compare::{compare_with_households, render};
+use furrow::compare::{compare_with_households, render, Fans};
 
 use super::common::{check_memory, install_progress, load_policy, progress_for, say, CommonArgs};
 use super::figures;
@@ -56,10 +56,15 @@ pub fn execute(args: &CompareArgs) -> anyhow::Result<()> {
     if scenario.is_deterministic() && scenario.run.replications > 1 {
         say("the market has no shocks: every replication is the same path");
     }
-    // compare keeps two per-period series (price and stock) for its fan charts
-    check_memory("compare", &scenario, policies.len() + 1, 2)?;
+    // the fan charts (two per-period series kept: price and stock) only when plots are asked for:
+    // no table reads them
+    let (fans, series) = match args.common.plot_dir() {
+        Some(_) => (Fans::Keep, 2),
+        None => (Fans::Skip, 0),
+    };
+    check_memory("compare", &scenario, policies.len() + 1, series)?;
     let bar = progress_for(&scenario, policies.len() + 1);
-    let result = compare_with_households(&scenario, &policies, bar.observer());
+    let result = compare_with_households(&scenario, &policies, bar.observer(), fans);
     bar.finish();
     let (result, households) = result?;
     for column in &result.policies {

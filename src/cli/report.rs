@@ -138,7 +138,12 @@ fn run_compare(
     // compare keeps two per-period series (price and stock) for its fan charts
     check_memory("report", scenario, specs.len() + 1, 2)?;
     let bar = progress_for(scenario, specs.len() + 1);
-    let result = furrow::compare::compare_with_households(scenario, &specs, bar.observer());
+    let result = furrow::compare::compare_with_households(
+        scenario,
+        &specs,
+        bar.observer(),
+        furrow::compare::Fans::Keep,
+    );
     bar.finish();
     Ok(result?)
 }

@@ -96,9 +96,10 @@ pub struct Indicator {
 /// Per-period data for fan charts.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Fan {
-    /// Market price per period: mean and 5/50/95 % quantiles across replications.
+    /// Market price per period: mean and 5/50/95 % quantiles across replications (empty when the
+    /// comparison ran with [`Fans::Skip`]).
     pub price: Vec<Summary>,
-    /// Agency stock per period.
+    /// Agency stock per period (empty with [`Fans::Skip`]).
     pub stock: Vec<Summary>,
     /// Mean fiscal cost per period.
     pub mean_fiscal_cost: Vec<f64>,
@@ -226,6 +227,20 @@ struct Simulate<'a> {
     /// (column, its baseline) pairs whose paired price changes the household groups need (empty
     /// without `[[households]]`: the plain Monte Carlo)
     pairs: &'a [(usize, usize)],
+    fans: Fans,
+}
+
+/// Whether a comparison works out the fan charts' per-period quantiles of the price and the stock.
+/// They take a share of the run's time and memory (each period's values kept for up to
+/// `stochastic::SERIES_BUDGET_BYTES`, then selected), and only plots and the briefing draw them:
+/// no indicator and no table reads them, so both settings give the same indicators, bit for bit.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Fans {
+    /// Work out the fans ([`PolicyComparison::fan`] filled).
+    Keep,
+    /// Leave them out ([`Fan::price`] and [`Fan::stock`] empty; the mean fiscal cost per period
+    /// is kept, it costs nothing more).
+    Skip,
 }
 
 impl WithModels for Simulate<'_> {
@@ -236,7 +251,10 @@ impl WithModels for Simulate<'_> {
             self.scenario,
             self.specs,
             models,
-            &[PathVariable::Price, PathVariable::Stock],
+            match self.fans {
+                Fans::Keep => &[PathVariable::Price, PathVariable::Stock],
+                Fans::Skip => &[],
+            },
             self.progress,
             self.pairs,
         )?;
@@ -246,22 +264,33 @@ impl WithModels for Simulate<'_> {
 }
 
 /// Compares `policies` (in order) with the market left alone under `scenario`'s shocks,
-/// replications, seed and periods.
+/// replications, seed and periods, fans included.
 pub fn compare(
     scenario: &Scenario,
     policies: &[PolicySpec],
     progress: &dyn Progress,
 ) -> Result<CompareResult, CompareError> {
-    compare_with_households(scenario, policies, progress).map(|(result, _)| result)
+    compare_with_households(scenario, policies, progress, Fans::Keep).map(|(result, _)| result)
 }
 
-/// [`compare`], and for a market with `[[households]]` the household groups' welfare under every
-/// column from the same Monte Carlo (`households::measure`; `None` for a market without groups,
-/// whose run is then exactly [`compare`]'s).
+/// [`compare`] without the fans ([`Fans::Skip`]): the same indicators, sooner. For callers that
+/// read only indicators (design search, sensitivity, sweeps), which run many comparisons.
+pub fn compare_indicators(
+    scenario: &Scenario,
+    policies: &[PolicySpec],
+    progress: &dyn Progress,
+) -> Result<CompareResult, CompareError> {
+    compare_with_households(scenario, policies, progress, Fans::Skip).map(|(result, _)| result)
+}
+
+/// [`compare`] with or without the fans, and for a market with `[[households]]` the household
+/// groups' welfare under every column from the same Monte Carlo (`households::measure`; `None`
+/// for a market without groups, whose run is then exactly [`compare`]'s).
 pub fn compare_with_households(
     scenario: &Scenario,
     policies: &[PolicySpec],
     progress: &dyn Progress,
+    fans: Fans,
 ) -> Result<(CompareResult, Option<crate::households::HouseholdResult>), CompareError> {
     if policies.is_empty() {
         return Err(CompareError::NoPolicies);
@@ -328,6 +357,7 @@ pub fn compare_with_households(
             specs: &specs,
             progress,
             pairs: &pairs,
+            fans,
         },
     )??;
     let households = (!scenario.households.is_empty()).then(|| {
@@ -385,8 +415,16 @@ pub fn compare_with_households(
             ),
             warnings: crate::path::summarise(scenario, &specs[slot], runs),
             fan: Fan {
-                price: runs.series[0].periods.clone(),
-                stock: runs.series[1].periods.clone(),
+                price: runs
+                    .series
+                    .first()
+                    .map(|s| s.periods.clone())
+                    .unwrap_or_default(),
+                stock: runs
+                    .series
+                    .get(1)
+                    .map(|s| s.periods.clone())
+                    .unwrap_or_default(),
                 mean_fiscal_cost: runs.mean_fiscal_cost.clone(),
             },
         }

@@ -265,7 +265,7 @@ pub fn search_policies(
                 .into(),
         ));
     }
-    let result = crate::compare::compare(scenario, policies, progress)
+    let result = crate::compare::compare_indicators(scenario, policies, progress)
         .map_err(|e| DesignError::Usage(e.to_string()))?;
     let grid: Vec<Outcome> = result
         .policies

@@ -28,7 +28,7 @@ pub use fit_range::read_range;
 pub use render::{figures, render};
 pub use tornado::{parse_range, Range, TornadoBar};
 
-use crate::compare::{compare, CompareError, Indicator, Kind, PolicyComparison, Value};
+use crate::compare::{compare_indicators, CompareError, Indicator, Kind, PolicyComparison, Value};
 use crate::policies::file::{policy_for_market, policy_from_table};
 use crate::policies::PolicySpec;
 use crate::scenario::{market_from_table, ExpectationSpec, InputError, Scenario};
@@ -377,7 +377,7 @@ pub fn sensitivity(
             let names = policies.iter().map(|p| p.name.clone()).collect();
             head = Some((scenario.clone(), names));
         }
-        let result = diverged_or(compare(&scenario, &policies, progress), &what)?;
+        let result = diverged_or(compare_indicators(&scenario, &policies, progress), &what)?;
         if let Ok(result) = &result {
             if !checked {
                 check_indicators(&indicators, &result.policies[0])?;
@@ -409,7 +409,7 @@ pub fn sensitivity(
             } else {
                 let mut alone = PolicySpec::none();
                 alone.expectations = Some(rational);
-                match diverged_or(compare(&scenario, &[alone], progress), &what)? {
+                match diverged_or(compare_indicators(&scenario, &[alone], progress), &what)? {
                     Ok(r) => Some(match r.behaviour.first() {
                         Some(c) => (
                             c.number(NET_WELFARE).unwrap_or(0.0),

@@ -6,7 +6,7 @@
 use serde::Serialize;
 
 use super::{SensitivityError, Value};
-use crate::compare::compare;
+use crate::compare::compare_indicators;
 use crate::policies::file::{policy_for_market, policy_from_table};
 use crate::policies::PolicySpec;
 use crate::scenario::{market_from_table, InputError, Scenario};
@@ -149,13 +149,14 @@ fn run_at(
         error,
     })?;
     let names: Vec<String> = policies.iter().map(|p| p.name.clone()).collect();
-    let result = match super::diverged_or(compare(&scenario, &policies, progress), &what)? {
-        Ok(r) => r,
-        Err(why) => {
-            let note = Some(format!("{what}: {why}"));
-            return Ok(names.into_iter().map(|n| (n, None, note.clone())).collect());
-        }
-    };
+    let result =
+        match super::diverged_or(compare_indicators(&scenario, &policies, progress), &what)? {
+            Ok(r) => r,
+            Err(why) => {
+                let note = Some(format!("{what}: {why}"));
+                return Ok(names.into_iter().map(|n| (n, None, note.clone())).collect());
+            }
+        };
     Ok(result
         .policies
         .iter()

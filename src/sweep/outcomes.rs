@@ -1,7 +1,8 @@
 //! Monte Carlo outcomes over a grid (`sweep --indicators`): at each grid point the files are
 //! validated with the point's values exactly as the stability sweep validates them
 //! ([`Base::validate`]) and the point's policy is compared with the market left alone by
-//! [`crate::compare::compare`] itself, so every indicator is `compare`'s own.
+//! [`crate::compare::compare_indicators`] itself (`compare` without the fans, which no
+//! indicator reads), so every indicator is `compare`'s own.
 //!
 //! Common random numbers: every point runs `compare` with the same seed, replications and periods,
 //! so replication i sees the same weather at every point (unless a varied key changes the shocks
@@ -12,7 +13,7 @@
 use rayon::prelude::*;
 
 use super::{apply::Base, grid::Axis, SweepError, MAX_POINTS};
-use crate::compare::{compare, Indicator, Kind, Value};
+use crate::compare::{compare_indicators, Indicator, Kind, Value};
 use crate::stochastic::Progress;
 
 /// Which indicators a sweep reports.
@@ -104,8 +105,8 @@ pub fn evaluate(
     progress: &dyn Progress,
 ) -> Result<Vec<Indicator>, String> {
     let (scenario, policy) = base.validate(overrides).map_err(|e| e.to_string())?;
-    let result =
-        compare(&scenario, std::slice::from_ref(&policy), progress).map_err(|e| e.to_string())?;
+    let result = compare_indicators(&scenario, std::slice::from_ref(&policy), progress)
+        .map_err(|e| e.to_string())?;
     result
         .policies
         .into_iter()
