@@ -9,7 +9,7 @@
 //! docs/montecarlo.md. Throughput is in policy-period-steps.
 
 use criterion::{criterion_group, criterion_main, BatchSize, Criterion, Throughput};
-use furrow::compare::compare;
+use furrow::compare::{compare, compare_indicators};
 use furrow::engine::{Columns, Diverged, LaneStepper, Model, ModelLanes, PeriodShock, LANES};
 use furrow::policies::file::policy_from_table;
 use furrow::policies::PolicySpec;
@@ -243,6 +243,15 @@ fn compare_end_to_end(c: &mut Criterion) {
         b.iter_batched(
             || (),
             |_| compare(&s, &ps, &NoProgress).unwrap(),
+            BatchSize::PerIteration,
+        )
+    });
+    // what `compare` without --plots runs, and design search, sensitivity and sweeps: the same
+    // indicators without the fans' kept series and per-period quantiles
+    g.bench_function("10000x100x5_policies_no_fans", |b| {
+        b.iter_batched(
+            || (),
+            |_| compare_indicators(&s, &ps, &NoProgress).unwrap(),
             BatchSize::PerIteration,
         )
     });
