@@ -149,7 +149,8 @@ pub fn analyse(
         indicators: indicator.to_vec(),
     };
     install_progress();
-    check_memory("sensitivity", &scenario, policy_paths.len() + 2, 2)?;
+    // no series kept: every comparison reads indicators only (compare without the fans)
+    check_memory("sensitivity", &scenario, policy_paths.len() + 2, 0)?;
     // a comparison per rule plus one for its forecast errors (two models), the base and two ends
     // per range (every policy and the baseline)
     let reps = scenario.run.replications;
