@@ -1401,37 +1401,33 @@ struct PeriodSums<'c> {
 }
 
 impl PeriodSums<'_> {
-    /// Adds the period's fiscal costs, incomes and CRRA transforms to `sums` and the `K` kept
-    /// series to `series_sums`, each sum over the lanes in lane order (the bits of adding the
-    /// replications one after another) but all the sums in one loop, so their chains of additions
-    /// overlap instead of waiting on one another. The loop reads whole arrays of lanes below
-    /// [`CHUNK`], so no index is checked in it.
+    /// Adds the period's fiscal costs, incomes and CRRA transforms to `sums` and the `M − 3` kept
+    /// series to `series_sums` (`M` = 3 + the number of series), all in one loop
+    /// ([`sum_lanes`]).
     #[inline(always)]
-    fn add<const K: usize>(
+    fn add<const M: usize>(
         &self,
         sums: &mut [f64; 3],
         cols: &Columns,
         series: &[PathVariable],
         series_sums: &mut [f64],
     ) {
-        let n = self.n.min(CHUNK);
-        let xs: [&Lanes; K] = std::array::from_fn(|j| series[j].column(cols));
-        let mut s: [f64; K] = std::array::from_fn(|j| series_sums[j]);
-        let (fiscal, income, transform) = (self.fiscal, self.income, self.transform);
-        let [mut a, mut b, mut c] = *sums;
-        for l in 0..n {
-            a += fiscal[l];
-            b += income[l];
-            c += transform[l];
-            for j in 0..K {
-                s[j] += xs[j][l];
-            }
-        }
-        *sums = [a, b, c];
-        series_sums.copy_from_slice(&s);
+        let xs: [&Lanes; M] = std::array::from_fn(|j| match j {
+            0 => self.fiscal,
+            1 => self.income,
+            2 => self.transform,
+            _ => series[j - 3].column(cols),
+        });
+        let mut all = [0.0; M];
+        all[..3].copy_from_slice(sums);
+        all[3..].copy_from_slice(series_sums);
+        sum_lanes(self.n, xs, &mut all);
+        sums.copy_from_slice(&all[..3]);
+        series_sums.copy_from_slice(&all[3..]);
     }
 
-    /// [`PeriodSums::add`] for any number of kept series (one loop per series).
+    /// [`PeriodSums::add`] for any number of kept series: the three sums in one loop, then the
+    /// series four at a time.
     fn add_any(
         &self,
         sums: &mut [f64; 3],
@@ -1439,41 +1435,39 @@ impl PeriodSums<'_> {
         series: &[PathVariable],
         series_sums: &mut [f64],
     ) {
-        self.add::<0>(sums, cols, &[], &mut []);
-        // four series at a time, so four chains of additions overlap (each still in lane order)
+        sum_lanes(self.n, [self.fiscal, self.income, self.transform], sums);
+        let n = self.n;
+        let column = |which: &[PathVariable], j: usize| which[j].column(cols);
         let mut groups = series.chunks_exact(4).zip(series_sums.chunks_exact_mut(4));
         for (which, sum) in groups.by_ref() {
-            self.series_only::<4>(cols, which, sum);
+            sum_lanes::<4>(n, std::array::from_fn(|j| column(which, j)), sum);
         }
         let rest = series.len() - series.len() % 4;
         let (which, sum) = (&series[rest..], &mut series_sums[rest..]);
         match which.len() {
-            1 => self.series_only::<1>(cols, which, sum),
-            2 => self.series_only::<2>(cols, which, sum),
-            3 => self.series_only::<3>(cols, which, sum),
+            1 => sum_lanes::<1>(n, std::array::from_fn(|j| column(which, j)), sum),
+            2 => sum_lanes::<2>(n, std::array::from_fn(|j| column(which, j)), sum),
+            3 => sum_lanes::<3>(n, std::array::from_fn(|j| column(which, j)), sum),
             _ => {}
         }
     }
+}
 
-    /// Adds `K` kept series to `series_sums`, each over the lanes in lane order, in one loop.
-    #[inline(always)]
-    #[allow(clippy::needless_range_loop)] // lane by lane, the K series side by side
-    fn series_only<const K: usize>(
-        &self,
-        cols: &Columns,
-        series: &[PathVariable],
-        series_sums: &mut [f64],
-    ) {
-        let n = self.n.min(CHUNK);
-        let xs: [&Lanes; K] = std::array::from_fn(|j| series[j].column(cols));
-        let mut s: [f64; K] = std::array::from_fn(|j| series_sums[j]);
-        for l in 0..n {
-            for j in 0..K {
-                s[j] += xs[j][l];
-            }
+/// Adds each of the `K` arrays of lanes `xs` (its first `n` lanes, `n` at most [`CHUNK`]) to its sum
+/// in `sums`, each over the lanes in lane order (the bits of adding the replications one after
+/// another), but all `K` in one loop, so their chains of additions overlap instead of waiting on
+/// one another. The loop reads whole arrays of lanes, so no index is checked in it.
+#[inline(always)]
+#[allow(clippy::needless_range_loop)] // lane by lane, the K sums side by side
+fn sum_lanes<const K: usize>(n: usize, xs: [&Lanes; K], sums: &mut [f64]) {
+    let n = n.min(CHUNK);
+    let mut s: [f64; K] = std::array::from_fn(|j| sums[j]);
+    for l in 0..n {
+        for j in 0..K {
+            s[j] += xs[j][l];
         }
-        series_sums.copy_from_slice(&s);
     }
+    sums.copy_from_slice(&s);
 }
 
 /// Every model's results merged over the waves so far, in chunk order.
@@ -1635,12 +1629,13 @@ impl<M: PathModel> Context<'_, M> {
                     transform: &fold.transform,
                 };
                 let series_sums = &mut acc.series_sums[t * kinds..(t + 1) * kinds];
+                // the three sums and the kept series in one loop: add::<3 + kinds>
                 match kinds {
-                    0 => period.add::<0>(&mut acc.sums[t], cols, self.series, series_sums),
-                    1 => period.add::<1>(&mut acc.sums[t], cols, self.series, series_sums),
-                    2 => period.add::<2>(&mut acc.sums[t], cols, self.series, series_sums),
-                    3 => period.add::<3>(&mut acc.sums[t], cols, self.series, series_sums),
-                    4 => period.add::<4>(&mut acc.sums[t], cols, self.series, series_sums),
+                    0 => period.add::<3>(&mut acc.sums[t], cols, self.series, series_sums),
+                    1 => period.add::<4>(&mut acc.sums[t], cols, self.series, series_sums),
+                    2 => period.add::<5>(&mut acc.sums[t], cols, self.series, series_sums),
+                    3 => period.add::<6>(&mut acc.sums[t], cols, self.series, series_sums),
+                    4 => period.add::<7>(&mut acc.sums[t], cols, self.series, series_sums),
                     _ => period.add_any(&mut acc.sums[t], cols, self.series, series_sums),
                 }
                 // the season outlays of the leading replications (within budget)
@@ -2033,6 +2028,80 @@ mod tests {
                 let got = by_fold(after(reps.counts(which), skip));
                 assert_eq!(got, want, "{which:?} from {skip}");
             }
+        }
+    }
+
+    #[test]
+    fn per_period_sums_of_any_number_of_series_are_the_sums_in_lane_order() {
+        // an identity (no outside source): every arm (the three sums with 0 to 4 series in one
+        // loop, and any number four at a time) gives the bits of adding lane after lane
+        let all = [
+            PathVariable::Price,
+            PathVariable::ProducerPrice,
+            PathVariable::Harvest,
+            PathVariable::Stock,
+            PathVariable::WorldPrice,
+            PathVariable::Imports,
+            PathVariable::Exports,
+        ];
+        let mut c = Columns {
+            trades: true,
+            ..Columns::default()
+        };
+        let mut x = 0.3_f64;
+        let mut next = || {
+            x = 3.9 * x * (1.0 - x);
+            100.0 * x - 20.0
+        };
+        let (mut fiscal, mut income, mut transform) = ([0.0; CHUNK], [0.0; CHUNK], [0.0; CHUNK]);
+        for l in 0..CHUNK {
+            (fiscal[l], income[l], transform[l]) = (next(), next(), next());
+            (c.price[l], c.producer_price[l], c.harvest[l], c.stock[l]) =
+                (next(), next(), next(), next());
+            (
+                c.trade.world_price[l],
+                c.trade.imports[l],
+                c.trade.exports[l],
+            ) = (next(), next(), next());
+        }
+        for n in [1, 17, CHUNK] {
+            let period = PeriodSums {
+                n,
+                fiscal: &fiscal,
+                income: &income,
+                transform: &transform,
+            };
+            for k in 0..=7 {
+                // several of each kind (a series may be kept twice)
+                let series: Vec<PathVariable> = (0..k + 2).map(|j| all[(3 * j) % 7]).collect();
+                let start = [1.5, -2.0, 0.25];
+                let want = |xs: &Lanes, s0: f64| xs[..n].iter().fold(s0, |s, x| s + x);
+                let wanted: Vec<f64> = series.iter().map(|v| want(v.column(&c), 0.5)).collect();
+                let base = [
+                    want(&fiscal, start[0]),
+                    want(&income, start[1]),
+                    want(&transform, start[2]),
+                ];
+                let (mut sums, mut got) = (start, vec![0.5; series.len()]);
+                match series.len() {
+                    2 => period.add::<5>(&mut sums, &c, &series, &mut got),
+                    3 => period.add::<6>(&mut sums, &c, &series, &mut got),
+                    4 => period.add::<7>(&mut sums, &c, &series, &mut got),
+                    _ => period.add_any(&mut sums, &c, &series, &mut got),
+                }
+                let bits = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<_>>();
+                assert_eq!(bits(&sums), bits(&base), "n {n}, {} series", series.len());
+                assert_eq!(bits(&got), bits(&wanted), "n {n}, {} series", series.len());
+                // and the any-number path for the lengths that have their own arm
+                let (mut sums, mut got) = (start, vec![0.5; series.len()]);
+                period.add_any(&mut sums, &c, &series, &mut got);
+                assert_eq!(bits(&sums), bits(&base));
+                assert_eq!(bits(&got), bits(&wanted));
+            }
+            let (mut sums, mut none) = ([0.0; 3], Vec::new());
+            period.add::<3>(&mut sums, &c, &[], &mut none);
+            let plain = fiscal[..n].iter().fold(0.0, |s, x| s + x);
+            assert_eq!(sums[0].to_bits(), plain.to_bits());
         }
     }
 
