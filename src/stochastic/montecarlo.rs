@@ -21,7 +21,7 @@ use serde::Serialize;
 
 use super::draw_shocks_into;
 use super::lanes::{LaneFold, Lanes};
-use super::stats::{order_key, quantiles_of_keys, ShiftedSums, Summary};
+use super::stats::{from_order_key, order_key, quantiles_of_keys, ShiftedSums, Summary};
 use crate::engine::{Columns, Diverged, LaneStepper, Model, PathModel, PeriodRecord, PeriodShock};
 use crate::policies::PolicySpec;
 use crate::scenario::{Scenario, MAX_ALERTS};
@@ -774,12 +774,33 @@ impl SeasonOutlays {
     /// reads only kept values (a long run of outlays equal to the floor, such as the zeros of a
     /// policy that never spends, is then counted instead of kept and pruned again and again).
     fn extend(&mut self, outlays: &[f64]) {
+        const BLOCK: usize = 64;
         match self.floor {
             None => self.kept.extend(outlays.iter().map(|&x| order_key(x))),
             Some(floor) => {
+                // block by block: a block with every outlay below the floor's value is only
+                // counted (float comparisons, no branch a value; a NaN or a value equal to
+                // the floor goes to the exact test); in the others each key is written at the
+                // cursor and the cursor moved past it only when the key is above the floor
+                let floor_value = from_order_key(floor);
                 let before = self.kept.len();
-                self.kept
-                    .extend(outlays.iter().map(|&x| order_key(x)).filter(|&k| k > floor));
+                for block in outlays.chunks(BLOCK) {
+                    if !block
+                        .iter()
+                        .fold(false, |any, &x| any | (x >= floor_value) | x.is_nan())
+                    {
+                        continue;
+                    }
+                    let mut keys = [0i64; BLOCK];
+                    let mut above = 0;
+                    for &x in block {
+                        let k = order_key(x);
+                        // above ≤ the values seen so far < BLOCK
+                        keys[above.min(BLOCK - 1)] = k;
+                        above += usize::from(k > floor);
+                    }
+                    self.kept.extend_from_slice(&keys[..above]);
+                }
                 self.dropped += outlays.len() - (self.kept.len() - before);
             }
         }
@@ -1866,7 +1887,7 @@ mod tests {
         // type 7 (Hyndman and Fan 1996, definition 7) at 95 % and 99 % of the whole list, selected
         // by `stats::quantiles`, against the tail kept while outlays arrive in chunks: a spread
         // with a third of zeros, a policy that never spends (all +0), and a few repeated values
-        // (many outlays equal to the floor, counted rather than kept)
+        // (many outlays equal to the floor, counted rather than kept), rising and falling lists
         let mut x = 0.4321_f64;
         let mut next = || {
             x = (x * 3.95 * (1.0 - x)).clamp(1e-9, 1.0 - 1e-9);
@@ -1888,6 +1909,10 @@ mod tests {
             (0..9_000)
                 .map(|i| if i % 50 == 0 { next() } else { -0.0 })
                 .collect(),
+            // rising: after a pruning every block has outlays above the floor, most of them all;
+            // falling: every block after the first pruning is below the floor and only counted
+            (0..20_000).map(|i| f64::from(i) * 0.5).collect(),
+            (0..20_000).map(|i| f64::from(20_000 - i) * 0.5).collect(),
         ];
         for whole in lists {
             let mut tail = SeasonOutlays::new(whole.len());
