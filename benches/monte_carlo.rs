@@ -10,7 +10,9 @@
 
 use criterion::{criterion_group, criterion_main, BatchSize, Criterion, Throughput};
 use furrow::compare::{compare, compare_indicators};
-use furrow::engine::{Columns, Diverged, LaneStepper, Model, ModelLanes, PeriodShock, LANES};
+use furrow::engine::{
+    Columns, Diverged, LaneStepper, Model, ModelLanes, PeriodShock, ShockColumns, LANES,
+};
 use furrow::policies::file::policy_from_table;
 use furrow::policies::PolicySpec;
 use furrow::scenario::{market_from_table, parse_toml, Scenario};
@@ -186,12 +188,15 @@ fn steps(c: &mut Criterion) {
 /// policy-period-steps.
 fn lanes(c: &mut Criterion) {
     let s = scenario();
-    let shocks: Vec<Vec<PeriodShock>> = {
+    let shocks: Vec<ShockColumns> = {
         let mut streams: Vec<ShockStream> = (0..LANES as u64)
             .map(|l| ShockStream::new(&s.shocks, 2026, l))
             .collect();
         (0..100)
-            .map(|_| streams.iter_mut().map(|st| st.next_shock()).collect())
+            .map(|_| {
+                let row: Vec<PeriodShock> = streams.iter_mut().map(|st| st.next_shock()).collect();
+                ShockColumns::of(&row)
+            })
             .collect()
     };
     let run = |lanes: &mut [ModelLanes], out: &mut Columns| {

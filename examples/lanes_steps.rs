@@ -4,7 +4,9 @@
 //! `phased` (`ModelLanes::Phased`), POLICIES `band` or `all` (the Monte Carlo job's five).
 //! Run it under `valgrind --tool=cachegrind`; ROUNDS = 0 gives the setup's count to subtract.
 
-use furrow::engine::{Columns, Diverged, LaneStepper, Model, ModelLanes, PeriodShock, LANES};
+use furrow::engine::{
+    Columns, Diverged, LaneStepper, Model, ModelLanes, PeriodShock, ShockColumns, LANES,
+};
 use furrow::policies::file::policy_from_str;
 use furrow::policies::PolicySpec;
 use furrow::scenario::market_from_str;
@@ -40,8 +42,11 @@ fn main() -> anyhow::Result<()> {
     let mut streams: Vec<ShockStream> = (0..LANES as u64)
         .map(|l| ShockStream::new(&s.shocks, 2026, l))
         .collect();
-    let shocks: Vec<Vec<PeriodShock>> = (0..100)
-        .map(|_| streams.iter_mut().map(|st| st.next_shock()).collect())
+    let shocks: Vec<ShockColumns> = (0..100)
+        .map(|_| {
+            let row: Vec<PeriodShock> = streams.iter_mut().map(|st| st.next_shock()).collect();
+            ShockColumns::of(&row)
+        })
         .collect();
     let mut out = Columns::default();
     let mut acc = 0.0;

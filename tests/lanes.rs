@@ -10,7 +10,7 @@
 mod common;
 
 use furrow::engine::{
-    Columns, Diverged, LaneStepper, Model, ModelLanes, PeriodRecord, PeriodShock,
+    Columns, Diverged, LaneStepper, Model, ModelLanes, PeriodRecord, PeriodShock, ShockColumns,
 };
 use furrow::numeric::Simd;
 use furrow::policies::PolicySpec;
@@ -251,8 +251,9 @@ fn compare_one(
     let (mut failed_p, mut failed_e): (Vec<Option<Diverged>>, Vec<Option<Diverged>>) =
         (vec![None; n], vec![None; n]);
     for (t, row) in shocks.iter().enumerate() {
-        phased.step(row, &mut out_p, &mut failed_p);
-        each.step(row, &mut out_e, &mut failed_e);
+        let row = ShockColumns::of(row);
+        phased.step(&row, &mut out_p, &mut failed_p);
+        each.step(&row, &mut out_e, &mut failed_e);
         for l in 0..n {
             if failed_p[l] != failed_e[l] {
                 return Err(format!(

@@ -212,13 +212,73 @@ impl Columns {
     }
 }
 
+/// One period's shocks of up to [`LANES`] paths, kind by kind ([`PeriodShock`] field by field):
+/// the Monte Carlo draws each replication's shocks straight into its lane, and every model of the
+/// replication reads the columns as they are.
+#[derive(Debug, Clone)]
+pub struct ShockColumns {
+    /// [`PeriodShock::yield_factor`].
+    pub yield_factor: [f64; LANES],
+    /// [`PeriodShock::supply`].
+    pub supply: [f64; LANES],
+    /// [`PeriodShock::demand`].
+    pub demand: [f64; LANES],
+    /// [`PeriodShock::world_factor`].
+    pub world_factor: [f64; LANES],
+}
+
+impl Default for ShockColumns {
+    /// No shock in any lane ([`PeriodShock::NONE`]).
+    fn default() -> Self {
+        let none = PeriodShock::NONE;
+        ShockColumns {
+            yield_factor: [none.yield_factor; LANES],
+            supply: [none.supply; LANES],
+            demand: [none.demand; LANES],
+            world_factor: [none.world_factor; LANES],
+        }
+    }
+}
+
+impl ShockColumns {
+    /// The columns of `shocks`: lane l has `shocks[l]` (the first [`LANES`]), every other lane no
+    /// shock.
+    pub fn of(shocks: &[PeriodShock]) -> ShockColumns {
+        let mut c = ShockColumns::default();
+        for (l, shock) in shocks.iter().enumerate().take(LANES) {
+            c.set(l, shock);
+        }
+        c
+    }
+
+    /// Lane `l`'s shock.
+    #[inline(always)]
+    pub fn get(&self, l: usize) -> PeriodShock {
+        PeriodShock {
+            yield_factor: self.yield_factor[l],
+            supply: self.supply[l],
+            demand: self.demand[l],
+            world_factor: self.world_factor[l],
+        }
+    }
+
+    /// Writes lane `l`'s shock.
+    #[inline(always)]
+    pub fn set(&mut self, l: usize, shock: &PeriodShock) {
+        self.yield_factor[l] = shock.yield_factor;
+        self.supply[l] = shock.supply;
+        self.demand[l] = shock.demand;
+        self.world_factor[l] = shock.world_factor;
+    }
+}
+
 /// Up to [`LANES`] paths of one model stepped together, one period at a time.
 pub trait LaneStepper {
-    /// Steps every lane `l < shocks.len()` whose `failed[l]` is `None` one period, lane `l` on
-    /// `shocks[l]`, and writes its record into lane `l` of `out`; a lane whose path ends gets why in
-    /// `failed[l]` and is not stepped again. The bits written are those of the model's own
-    /// [`Stepper`] for the same path.
-    fn step(&mut self, shocks: &[PeriodShock], out: &mut Columns, failed: &mut [Option<Diverged>]);
+    /// Steps every lane `l < failed.len()` whose `failed[l]` is `None` one period, lane `l` on
+    /// lane `l` of `shocks`, and writes its record into lane `l` of `out`; a lane whose path ends
+    /// gets why in `failed[l]` and is not stepped again. The bits written are those of the model's
+    /// own [`Stepper`] for the same path.
+    fn step(&mut self, shocks: &ShockColumns, out: &mut Columns, failed: &mut [Option<Diverged>]);
 }
 
 /// Any [`Stepper`], lane by lane: one path per lane.
@@ -227,15 +287,16 @@ pub struct EachLane<S>(pub Vec<S>);
 
 impl<S: Stepper> LaneStepper for EachLane<S> {
     #[inline]
-    fn step(&mut self, shocks: &[PeriodShock], out: &mut Columns, failed: &mut [Option<Diverged>]) {
-        for ((lane, path), (shock, failed)) in self
+    fn step(&mut self, shocks: &ShockColumns, out: &mut Columns, failed: &mut [Option<Diverged>]) {
+        for ((lane, path), failed) in self
             .0
             .iter_mut()
             .enumerate()
-            .zip(shocks.iter().zip(failed.iter_mut()))
+            .take(LANES)
+            .zip(failed.iter_mut())
         {
             if failed.is_none() {
-                match path.step(shock) {
+                match path.step(&shocks.get(lane)) {
                     Ok(ref r) => out.set(lane, r),
                     Err(e) => *failed = Some(e),
                 }

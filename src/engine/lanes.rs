@@ -31,10 +31,10 @@
 // the phases index several columns by lane in one loop, on purpose
 #![allow(clippy::needless_range_loop)]
 
-use super::columns::{Columns, EachLane, LaneStepper, LANES};
+use super::columns::{Columns, EachLane, LaneStepper, ShockColumns, LANES};
 use super::{
     cleared_failure, cleared_ok, consumption, expected_price_failure, plant, Cleared, Diverged,
-    Model, PeriodRecord, PeriodShock, Simulator,
+    Model, PeriodRecord, Simulator,
 };
 use crate::curves::{Form, Forms, Linear};
 use crate::expectations::{Adaptive, ExpectationInput};
@@ -102,7 +102,7 @@ impl<'m> ModelLanes<'m> {
 
 impl LaneStepper for ModelLanes<'_> {
     #[inline]
-    fn step(&mut self, shocks: &[PeriodShock], out: &mut Columns, failed: &mut [Option<Diverged>]) {
+    fn step(&mut self, shocks: &ShockColumns, out: &mut Columns, failed: &mut [Option<Diverged>]) {
         match self {
             ModelLanes::Phased(p) => p.step(shocks, out, failed),
             ModelLanes::Each(e) => e.step(shocks, out, failed),
@@ -154,9 +154,6 @@ pub struct Phased<'m> {
 /// One period's values of every lane, phase by phase.
 #[derive(Debug)]
 struct Scratch {
-    yield_factor: [f64; LANES],
-    supply_shock: [f64; LANES],
-    demand_shock: [f64; LANES],
     expectation: [f64; LANES],
     planting: [f64; LANES],
     carried: [f64; LANES],
@@ -179,9 +176,6 @@ impl Scratch {
     fn new() -> Scratch {
         const Z: [f64; LANES] = [0.0; LANES];
         Scratch {
-            yield_factor: Z,
-            supply_shock: Z,
-            demand_shock: Z,
             expectation: Z,
             planting: Z,
             carried: Z,
@@ -216,12 +210,13 @@ impl Scratch {
         self.consumer_payments[l] = 0.0;
     }
 
-    /// The first `n` lanes' markets as the clearing reads and writes them.
+    /// The first `n` lanes' markets as the clearing reads and writes them, demand shifted by
+    /// `shift`.
     #[inline(always)]
-    fn markets(&mut self, n: usize) -> MarketColumns<'_> {
+    fn markets<'a>(&'a mut self, shift: &'a [f64; LANES], n: usize) -> MarketColumns<'a> {
         MarketColumns {
             harvest: &self.harvest[..n],
-            shift: &self.demand_shock[..n],
+            shift: &shift[..n],
             carried: &self.carried[..n],
             price: &mut self.price[..n],
             purchases: &mut self.purchases[..n],
@@ -313,7 +308,7 @@ impl<'m> Phased<'m> {
     }
 
     /// One period of every lane (see [`LaneStepper::step`]); the curves' forms chosen once.
-    fn step(&mut self, shocks: &[PeriodShock], out: &mut Columns, failed: &mut [Option<Diverged>]) {
+    fn step(&mut self, shocks: &ShockColumns, out: &mut Columns, failed: &mut [Option<Diverged>]) {
         let model = self.model;
         match (model.demand.form(), model.supply.form()) {
             (Forms::Linear(d), Forms::Linear(s)) => self.step_in(&d, &s, shocks, out, failed),
@@ -331,17 +326,17 @@ impl<'m> Phased<'m> {
         &mut self,
         demand: &D,
         supply: &S,
-        shocks: &[PeriodShock],
+        shocks: &ShockColumns,
         out: &mut Columns,
         failed: &mut [Option<Diverged>],
     ) {
         let model = self.model;
-        let n = shocks.len().min(failed.len()).min(LANES);
-        let (shocks, failed) = (&shocks[..n], &mut failed[..n]);
+        let n = failed.len().min(LANES);
+        let failed = &mut failed[..n];
         let t = self.period + 1;
         let s = &mut self.scratch;
         let simd = self.simd;
-        unpack_all(simd, shocks, failed, s);
+        live_all(simd, failed, &mut s.live);
 
         // the expectation, the planting price, the stock carried in, the crop and the harvest
         match self.expect {
@@ -364,7 +359,7 @@ impl<'m> Phased<'m> {
                 &mut s.expectation,
             ),
         }
-        if !plant_all(simd, model, supply, n, &self.stock, s) {
+        if !plant_all(simd, model, supply, n, shocks, &self.stock, s) {
             for l in 0..n {
                 if s.live[l] && !model.expectation_ok(s.planting[l]) {
                     s.live[l] = false;
@@ -377,7 +372,7 @@ impl<'m> Phased<'m> {
         }
 
         // the clearing: the policy's rules, lane by lane
-        clear_all(simd, model, self.lane_form, shocks, s, &mut self.markets);
+        clear_all(simd, model, self.lane_form, n, shocks, s, &mut self.markets);
 
         // the checks: one combined test per lane, the messages only when one fails
         if !check_all(simd, model, n, s) {
@@ -399,7 +394,7 @@ impl<'m> Phased<'m> {
         }
 
         // the books, straight into the columns (a lane that failed writes values of no meaning)
-        book_all(simd, model, demand, supply, t, n, s, out);
+        book_all(simd, model, demand, supply, t, n, &shocks.demand, s, out);
         if s.live[..n].iter().any(|&x| x) {
             out.period = t;
         }
@@ -409,6 +404,7 @@ impl<'m> Phased<'m> {
             simd,
             model,
             n,
+            &shocks.yield_factor,
             s,
             &mut self.previous,
             &mut self.last_price,
@@ -475,22 +471,11 @@ fn expect_rule(
 }
 
 simd_copies! {
-    /// Every lane's shocks into the scratch columns, and whether its path is still going.
+    /// Whether each lane's path is still going.
     #[inline(never)]
-    fn unpack_all[](
-        shocks: &[PeriodShock],
-        failed: &[Option<Diverged>],
-        s: &mut Scratch,
-    ) {
-        let n = shocks.len().min(failed.len()).min(LANES);
-        let (shocks, failed) = (&shocks[..n], &failed[..n]);
-        for l in 0..n {
-            s.yield_factor[l] = shocks[l].yield_factor;
-            s.supply_shock[l] = shocks[l].supply;
-            s.demand_shock[l] = shocks[l].demand;
-        }
-        for l in 0..n {
-            s.live[l] = failed[l].is_none();
+    fn live_all[](failed: &[Option<Diverged>], live: &mut [bool; LANES]) {
+        for (live, failed) in live.iter_mut().zip(failed) {
+            *live = failed.is_none();
         }
     }
 }
@@ -503,6 +488,7 @@ simd_copies! {
         model: &Model,
         supply: &S,
         n: usize,
+        shocks: &ShockColumns,
         stock: &[f64; LANES],
         s: &mut Scratch,
     ) -> bool {
@@ -513,7 +499,7 @@ simd_copies! {
             let planting = model.planting_price(s.expectation[l]);
             s.planting[l] = planting;
             s.carried[l] = agency.carried(stock[l]);
-            let (planted, harvest) = plant(supply, planting, s.yield_factor[l], s.supply_shock[l]);
+            let (planted, harvest) = plant(supply, planting, shocks.yield_factor[l], shocks.supply[l]);
             s.planted[l] = planted;
             s.harvest[l] = harvest;
             all_ok &= model.expectation_ok(planting) | !s.live[l];
@@ -536,18 +522,19 @@ fn clear_all<'m>(
     simd: Simd,
     model: &'m Model,
     linear: Option<Linear>,
-    shocks: &[PeriodShock],
+    n: usize,
+    shocks: &ShockColumns,
     s: &mut Scratch,
     markets: &mut Vec<Clearing<'m>>,
 ) {
-    let n = shocks.len().min(LANES);
+    let n = n.min(LANES);
     let all_live = s.live[..n].iter().all(|&x| x);
     if let (true, Some(demand)) = (all_live, linear) {
         let terms = LaneTerms {
             demand,
             capacity: model.policy.agency.capacity,
         };
-        let mut lanes = LinearLanes::new(terms, s.markets(n), simd);
+        let mut lanes = LinearLanes::new(terms, s.markets(&shocks.demand, n), simd);
         lanes.start();
         for rule in model.policy.rules.iter().filter(|r| r.trades_stock()) {
             if let Some(form) = rule.lanes() {
@@ -562,7 +549,7 @@ fn clear_all<'m>(
             demand: &model.demand,
             capacity: agency.capacity,
             budget: agency.purchase_budget,
-            columns: s.markets(n),
+            columns: s.markets(&shocks.demand, n),
         };
         let mut trading = model.policy.rules.iter().filter(|r| r.trades_stock());
         match (trading.next(), trading.next()) {
@@ -581,9 +568,10 @@ fn clear_all<'m>(
         }
         unpaid_all(simd, n, s);
     } else {
-        for (l, shock) in shocks[..n].iter().enumerate() {
+        for l in 0..n {
             if s.live[l] {
-                let c = model.clear_closed(s.planted[l], s.harvest[l], shock, s.carried[l]);
+                let shock = shocks.get(l);
+                let c = model.clear_closed(s.planted[l], s.harvest[l], &shock, s.carried[l]);
                 s.put(l, &c);
             }
         }
@@ -640,15 +628,16 @@ simd_copies! {
         supply: &S,
         t: usize,
         n: usize,
+        shift: &[f64; LANES],
         s: &Scratch,
         out: &mut Columns,
     ) {
         let n = n.min(LANES);
         for l in 0..n {
-            put_numbers(out, l, &book(model, demand, supply, t, s, l));
+            put_numbers(out, l, &book(model, demand, supply, t, shift[l], s, l));
         }
         for l in 0..n {
-            let r = book(model, demand, supply, t, s, l);
+            let r = book(model, demand, supply, t, shift[l], s, l);
             out.flags[l] = r.flags;
             out.stockout[l] = r.stockout;
         }
@@ -662,6 +651,7 @@ fn book<D: Form, S: Form>(
     demand: &D,
     supply: &S,
     t: usize,
+    shift: f64,
     s: &Scratch,
     l: usize,
 ) -> PeriodRecord {
@@ -673,7 +663,7 @@ fn book<D: Form, S: Form>(
             s.consumption[l],
             s.consumer_payments[l],
             s.carried[l],
-            s.demand_shock[l],
+            shift,
         ),
         &model.policy.agency,
         demand,
@@ -688,6 +678,7 @@ simd_copies! {
     fn settle_all[](
         model: &Model,
         n: usize,
+        yield_factor: &[f64; LANES],
         s: &Scratch,
         previous: &mut [f64; LANES],
         last_price: &mut [f64; LANES],
@@ -697,7 +688,7 @@ simd_copies! {
         for l in 0..n {
             previous[l] = s.expectation[l];
             stock[l] = s.stock[l];
-            last_price[l] = model.read_price(s.producer_price[l], s.yield_factor[l]);
+            last_price[l] = model.read_price(s.producer_price[l], yield_factor[l]);
         }
     }
 }

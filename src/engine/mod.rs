@@ -15,7 +15,7 @@ mod path;
 mod rational;
 mod record;
 
-pub use columns::{Columns, EachLane, LaneStepper, LANES};
+pub use columns::{Columns, EachLane, LaneStepper, ShockColumns, LANES};
 pub use lanes::ModelLanes;
 pub use path::{each_lane, PathModel, Stepper};
 pub use record::{floor_binding, PeriodRecord, Settled, TradeRecord};

@@ -19,10 +19,10 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 use rayon::prelude::*;
 use serde::Serialize;
 
-use super::draw_shocks_into;
+use super::draw_shocks_with;
 use super::lanes::{LaneFold, Lanes};
 use super::stats::{from_order_key, order_key, quantiles_of_keys, ShiftedSums, Summary};
-use crate::engine::{Columns, Diverged, LaneStepper, Model, PathModel, PeriodRecord, PeriodShock};
+use crate::engine::{Columns, Diverged, LaneStepper, Model, PathModel, PeriodRecord, ShockColumns};
 use crate::policies::PolicySpec;
 use crate::scenario::{Scenario, MAX_ALERTS};
 use crate::welfare::{other_income, producer_revenue, Books, WelfarePv};
@@ -1610,13 +1610,13 @@ impl<M: PathModel> Context<'_, M> {
             })
             .collect();
         let mut paired = vec![PairedChanges::default(); self.pairs.len()];
-        // every replication's shocks, drawn once and handed to every model, period-major:
-        // [t · n + lane], so period t's shocks are one slice; each lane's drawn straight into its
-        // places
-        let mut shocks = vec![PeriodShock::NONE; periods * n];
+        // every replication's shocks, drawn once and handed to every model: period t's shocks of
+        // every lane are one set of columns, each lane's drawn straight into its places
+        let mut shocks = vec![ShockColumns::default(); periods];
         for lane in 0..n {
-            let places = shocks.iter_mut().skip(lane).step_by(n);
-            draw_shocks_into(s, (from + lane) as u64, places);
+            draw_shocks_with(s, (from + lane) as u64, periods, |t, shock| {
+                shocks[t].set(lane, shock)
+            });
         }
         let mut lanes: Vec<M::Lanes<'_>> = self.models.iter().map(|m| m.start_lanes(n)).collect();
         columns.resize_with(self.models.len(), Columns::default);
@@ -1629,7 +1629,7 @@ impl<M: PathModel> Context<'_, M> {
             .collect();
         let kinds = self.series.len();
         // lockstep: period by period, every model steps every lane on the same shocks
-        for (t, shocks) in shocks.chunks_exact(n).enumerate() {
+        for (t, shocks) in shocks.iter().enumerate() {
             if self.first_failure.load(Ordering::Relaxed) < from / CHUNK {
                 break; // an earlier chunk failed; this chunk's figures will not be used
             }

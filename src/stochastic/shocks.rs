@@ -163,26 +163,29 @@ pub fn single_path_shocks(scenario: &Scenario) -> Vec<PeriodShock> {
 
 /// The shocks of replication `replication` into `into` (one per period): none for a market without
 /// shocks, else the replication's own stream drawn in period order (the same values as
-/// [`single_path_shocks`] for replication 0). Monte Carlo draws each replication's shocks once with
-/// this and hands them to every model of the replication.
+/// [`single_path_shocks`] for replication 0).
 pub fn draw_shocks(scenario: &Scenario, replication: u64, into: &mut [PeriodShock]) {
-    draw_shocks_into(scenario, replication, into.iter_mut());
+    draw_shocks_with(scenario, replication, into.len(), |t, shock| {
+        into[t] = *shock
+    });
 }
 
-/// [`draw_shocks`] into the places `into` gives, one per period in period order (the Monte Carlo
-/// writes a replication's shocks straight into its lane of a period-major table).
-pub(crate) fn draw_shocks_into<'a>(
+/// [`draw_shocks`] of `periods` periods handed to `put` (period, shock) in period order: the Monte
+/// Carlo draws each replication's shocks once, straight into its lane of the chunk's shock
+/// columns, and hands them to every model of the replication.
+pub(crate) fn draw_shocks_with(
     scenario: &Scenario,
     replication: u64,
-    into: impl Iterator<Item = &'a mut PeriodShock>,
+    periods: usize,
+    mut put: impl FnMut(usize, &PeriodShock),
 ) {
     if scenario.is_deterministic() {
-        into.for_each(|x| *x = PeriodShock::NONE);
+        (0..periods).for_each(|t| put(t, &PeriodShock::NONE));
         return;
     }
     let mut stream = ShockStream::for_scenario(scenario, replication);
-    for x in into {
-        *x = stream.next_shock();
+    for t in 0..periods {
+        put(t, &stream.next_shock());
     }
 }
 
