@@ -779,16 +779,18 @@ impl SeasonOutlays {
             None => self.kept.extend(outlays.iter().map(|&x| order_key(x))),
             Some(floor) => {
                 // block by block: a block with every outlay below the floor's value is only
-                // counted (float comparisons, no branch a value; a NaN or a value equal to
-                // the floor goes to the exact test); in the others each key is written at the
-                // cursor and the cursor moved past it only when the key is above the floor
+                // counted (float comparisons, no branch a value; a value equal to the floor's, a
+                // NaN, or any value under a NaN floor goes to the exact test); in the others each
+                // key is written at the cursor and the cursor moved past it only when the key is
+                // above the floor
                 let floor_value = from_order_key(floor);
+                let exact = floor_value.is_nan();
                 let before = self.kept.len();
                 for block in outlays.chunks(BLOCK) {
-                    if !block
+                    let at_or_above = block
                         .iter()
-                        .fold(false, |any, &x| any | (x >= floor_value) | x.is_nan())
-                    {
+                        .fold(false, |any, &x| any | (x >= floor_value) | x.is_nan());
+                    if !(at_or_above || exact) {
                         continue;
                     }
                     let mut keys = [0i64; BLOCK];
@@ -1887,7 +1889,8 @@ mod tests {
         // type 7 (Hyndman and Fan 1996, definition 7) at 95 % and 99 % of the whole list, selected
         // by `stats::quantiles`, against the tail kept while outlays arrive in chunks: a spread
         // with a third of zeros, a policy that never spends (all +0), and a few repeated values
-        // (many outlays equal to the floor, counted rather than kept), rising and falling lists
+        // (many outlays equal to the floor, counted rather than kept), rising and falling lists;
+        // and what is kept is what the plain rule keeps
         let mut x = 0.4321_f64;
         let mut next = || {
             x = (x * 3.95 * (1.0 - x)).clamp(1e-9, 1.0 - 1e-9);
@@ -1913,12 +1916,38 @@ mod tests {
             // falling: every block after the first pruning is below the floor and only counted
             (0..20_000).map(|i| f64::from(i) * 0.5).collect(),
             (0..20_000).map(|i| f64::from(20_000 - i) * 0.5).collect(),
+            // a floor of −0 and then +0 outlays, above it under total order
+            (0..20_000)
+                .map(|i| match (i % 500, i < 10_000) {
+                    (0, _) => next(),
+                    (_, true) => -0.0,
+                    (_, false) => 0.0,
+                })
+                .collect(),
         ];
         for whole in lists {
             let mut tail = SeasonOutlays::new(whole.len());
+            // what is kept: every outlay whose key is above the floor of the moment (the rule
+            // written plainly), so the same multiset as the fast path (a +0 over a floor of −0
+            // included, which no quantile tells apart)
+            let mut plain = SeasonOutlays::new(whole.len());
             for part in whole.chunks(700) {
                 tail.extend(part);
+                let (floor, before) = (plain.floor, plain.kept.len());
+                let keys = part.iter().map(|&x| order_key(x));
+                plain
+                    .kept
+                    .extend(keys.filter(|&k| floor.is_none_or(|f| k > f)));
+                plain.dropped += part.len() - (plain.kept.len() - before);
+                plain.extend(&[]); // the pruning, as the type prunes
             }
+            let (mut a, mut b) = (tail.kept.clone(), plain.kept.clone());
+            a.sort_unstable();
+            b.sort_unstable();
+            assert!(
+                a == b && tail.dropped == plain.dropped,
+                "kept values differ"
+            );
             assert!(tail.dropped > 0, "the test must drop values");
             assert_eq!(tail.len(), whole.len());
             let probs = [0.95, 0.975, 0.99, 1.0];
