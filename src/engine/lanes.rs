@@ -535,13 +535,21 @@ fn clear_all<'m>(
             capacity: model.policy.agency.capacity,
         };
         let mut lanes = LinearLanes::new(terms, s.markets(&shocks.demand, n), simd);
-        lanes.start();
-        for rule in model.policy.rules.iter().filter(|r| r.trades_stock()) {
-            if let Some(form) = rule.lanes() {
-                form.trade_lanes(&mut lanes);
+        let mut forms = (model.policy.rules.iter())
+            .filter(|r| r.trades_stock())
+            .filter_map(|r| r.lanes());
+        // no trade or one: the whole clearing in one loop; more: each in its own loop, in turn
+        match (forms.next(), forms.next()) {
+            (None, _) => lanes.clear_untraded(),
+            (Some(only), None) => only.clear_lanes(&mut lanes),
+            (Some(first), Some(second)) => {
+                lanes.start();
+                for form in [first, second].into_iter().chain(forms) {
+                    form.trade_lanes(&mut lanes);
+                }
+                lanes.finish();
             }
         }
-        lanes.finish();
         unpaid_all(simd, n, s);
     } else if all_live {
         let agency = &model.policy.agency;

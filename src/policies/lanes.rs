@@ -238,6 +238,19 @@ impl LinearLanes<'_> {
         self.pass(&Finish);
     }
 
+    /// [`LinearLanes::start`], `trade` on every lane's market and [`LinearLanes::finish`] in one
+    /// loop over the lanes (each lane's market stays in registers between them; the same
+    /// operations on the same values, so the same bits as the three loops).
+    pub fn clear_with<A: LaneAct>(&mut self, trade: &A) {
+        self.pass(&Whole(trade));
+    }
+
+    /// [`LinearLanes::start`] and [`LinearLanes::finish`] in one loop: every lane's market
+    /// cleared without any trade.
+    pub fn clear_untraded(&mut self) {
+        self.pass(&Whole(&NoTrade));
+    }
+
     /// One loop over the lanes doing `pass` on each, in the copy `simd` names. The columns go
     /// to the loop as arguments, cut to one length, so that the compiler knows them apart and
     /// indexes them without bounds checks.
@@ -296,6 +309,26 @@ impl Pass for Finish {
     }
 }
 
+/// [`Start`], an action's trade and [`Finish`] on each lane's market, in that order.
+struct Whole<'t, A>(&'t A);
+
+impl<A: LaneAct> Pass for Whole<'_, A> {
+    #[inline(always)]
+    fn lane(&self, terms: &LaneTerms, m: LaneMarket, stock: f64) -> (LaneMarket, f64, f64) {
+        let (mut m, _, stock) = Start.lane(terms, m, stock);
+        self.0.act(terms, &mut m);
+        Finish.lane(terms, m, stock)
+    }
+}
+
+/// No trade at all.
+struct NoTrade;
+
+impl LaneAct for NoTrade {
+    #[inline(always)]
+    fn act(&self, _terms: &LaneTerms, _m: &mut LaneMarket) {}
+}
+
 simd_copies! {
     /// One loop over the lanes doing `pass` on each (every column as long as `harvest`), in the
     /// copy the first argument names (inlined in each caller, so the call goes straight to the
@@ -349,10 +382,18 @@ pub trait LaneAct {
 pub trait LaneTrade {
     /// Trades on every lane of `lanes`.
     fn trade_lanes(&self, lanes: &mut LinearLanes<'_>);
+
+    /// Clears every lane of `lanes` with this action the only one that trades
+    /// ([`LinearLanes::clear_with`]).
+    fn clear_lanes(&self, lanes: &mut LinearLanes<'_>);
 }
 
 impl<A: LaneAct> LaneTrade for A {
     fn trade_lanes(&self, lanes: &mut LinearLanes<'_>) {
         lanes.each(self);
+    }
+
+    fn clear_lanes(&self, lanes: &mut LinearLanes<'_>) {
+        lanes.clear_with(self);
     }
 }
