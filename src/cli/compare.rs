@@ -56,13 +56,17 @@ pub fn execute(args: &CompareArgs) -> anyhow::Result<()> {
     if scenario.is_deterministic() && scenario.run.replications > 1 {
         say("the market has no shocks: every replication is the same path");
     }
-    // the fan charts (two per-period series kept: price and stock) only when plots are asked for:
-    // no table reads them
-    let (fans, series) = match args.common.plot_dir() {
-        Some(_) => (Fans::Keep, 2),
-        None => (Fans::Skip, 0),
+    // the fan charts only when plots are asked for: no table reads them
+    let fans = match args.common.plot_dir() {
+        Some(_) => Fans::Keep,
+        None => Fans::Skip,
     };
-    check_memory("compare", &scenario, policies.len() + 1, series)?;
+    check_memory(
+        "compare",
+        &scenario,
+        policies.len() + 1,
+        fans.series().len(),
+    )?;
     let bar = progress_for(&scenario, policies.len() + 1);
     let result = compare_with_households(&scenario, &policies, bar.observer(), fans);
     bar.finish();

@@ -79,8 +79,9 @@ pub fn execute(args: &DesignArgs) -> anyhow::Result<()> {
             .iter()
             .map(|p| super::common::load_policy(Some(p), &scenario))
             .collect::<anyhow::Result<Vec<_>>>()?;
-        // no series kept: the search reads indicators only (compare without the fans)
-        super::common::check_memory("design", &scenario, policies.len() + 1, 0)?;
+        // the search reads indicators only (compare without the fans)
+        let series = furrow::compare::Fans::Skip.series().len();
+        super::common::check_memory("design", &scenario, policies.len() + 1, series)?;
         let bar = GridBar::new(scenario.run.replications as u64);
         let found = design::search_policies(&scenario, &policies, &spec, &bar);
         bar.finish();
@@ -98,7 +99,8 @@ pub fn execute(args: &DesignArgs) -> anyhow::Result<()> {
         };
         let base = Base::new(&args.market, market, policy);
         let (scenario, reps) = replications_of(&base)?;
-        super::common::check_memory("design", &scenario, 2, 0)?;
+        let series = furrow::compare::Fans::Skip.series().len();
+        super::common::check_memory("design", &scenario, 2, series)?;
         let total: usize = axes.iter().map(|a| a.values.len()).product();
         let bar = GridBar::new((reps * total) as u64);
         let found = design::search(&base, &axes, &spec, &bar);

@@ -135,15 +135,11 @@ fn run_compare(
     if specs.is_empty() {
         specs.push(cols[0].1.clone());
     }
-    // compare keeps two per-period series (price and stock) for its fan charts
-    check_memory("report", scenario, specs.len() + 1, 2)?;
+    // the briefing draws the fan charts: their per-period series are kept
+    let fans = furrow::compare::Fans::Keep;
+    check_memory("report", scenario, specs.len() + 1, fans.series().len())?;
     let bar = progress_for(scenario, specs.len() + 1);
-    let result = furrow::compare::compare_with_households(
-        scenario,
-        &specs,
-        bar.observer(),
-        furrow::compare::Fans::Keep,
-    );
+    let result = furrow::compare::compare_with_households(scenario, &specs, bar.observer(), fans);
     bar.finish();
     Ok(result?)
 }

@@ -149,8 +149,9 @@ pub fn analyse(
         indicators: indicator.to_vec(),
     };
     install_progress();
-    // no series kept: every comparison reads indicators only (compare without the fans)
-    check_memory("sensitivity", &scenario, policy_paths.len() + 2, 0)?;
+    // every comparison reads indicators only (compare without the fans)
+    let series = furrow::compare::Fans::Skip.series().len();
+    check_memory("sensitivity", &scenario, policy_paths.len() + 2, series)?;
     // a comparison per rule plus one for its forecast errors (two models), the base and two ends
     // per range (every policy and the baseline)
     let reps = scenario.run.replications;

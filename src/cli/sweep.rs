@@ -120,7 +120,9 @@ fn execute_outcomes(
     let base = Base::new(&args.market, market, policy);
     outcomes::check_axes(axes, outcomes::MAX_MC_POINTS)?;
     let (scenario, reps) = replications_of(&base)?;
-    super::common::check_memory("sweep", &scenario, 2, 0)?; // indicators only: no series kept
+    // indicators only (compare without the fans)
+    let series = furrow::compare::Fans::Skip.series().len();
+    super::common::check_memory("sweep", &scenario, 2, series)?;
     let total: usize = axes.iter().map(|a| a.values.len()).product();
     let bar = GridBar::new((reps * total) as u64);
     let points = outcomes::outcomes(&base, axes, &bar, &|first| {

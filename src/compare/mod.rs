@@ -243,6 +243,17 @@ pub enum Fans {
     Skip,
 }
 
+impl Fans {
+    /// The per-period series the Monte Carlo keeps for them (the price and the stock, or none):
+    /// what the comparison runs with and what a memory check counts.
+    pub fn series(self) -> &'static [PathVariable] {
+        match self {
+            Fans::Keep => &[PathVariable::Price, PathVariable::Stock],
+            Fans::Skip => &[],
+        }
+    }
+}
+
 impl WithModels for Simulate<'_> {
     type Output = Result<(MonteCarlo, Vec<Option<LongRunMeans>>), ReplicationFailed>;
 
@@ -251,10 +262,7 @@ impl WithModels for Simulate<'_> {
             self.scenario,
             self.specs,
             models,
-            match self.fans {
-                Fans::Keep => &[PathVariable::Price, PathVariable::Stock],
-                Fans::Skip => &[],
-            },
+            self.fans.series(),
             self.progress,
             self.pairs,
         )?;

@@ -1449,6 +1449,26 @@ impl PeriodSums<'_> {
         series_sums.copy_from_slice(&all[3..]);
     }
 
+    /// The three sums and the kept series: up to four series with the three in one loop
+    /// ([`PeriodSums::add`]`::<3 + series>`), more with [`PeriodSums::add_any`].
+    #[inline(always)]
+    fn add_all(
+        &self,
+        sums: &mut [f64; 3],
+        cols: &Columns,
+        series: &[PathVariable],
+        series_sums: &mut [f64],
+    ) {
+        match series.len() {
+            0 => self.add::<3>(sums, cols, series, series_sums),
+            1 => self.add::<4>(sums, cols, series, series_sums),
+            2 => self.add::<5>(sums, cols, series, series_sums),
+            3 => self.add::<6>(sums, cols, series, series_sums),
+            4 => self.add::<7>(sums, cols, series, series_sums),
+            _ => self.add_any(sums, cols, series, series_sums),
+        }
+    }
+
     /// [`PeriodSums::add`] for any number of kept series: the three sums in one loop, then the
     /// series four at a time.
     fn add_any(
@@ -1652,15 +1672,7 @@ impl<M: PathModel> Context<'_, M> {
                     transform: &fold.transform,
                 };
                 let series_sums = &mut acc.series_sums[t * kinds..(t + 1) * kinds];
-                // the three sums and the kept series in one loop: add::<3 + kinds>
-                match kinds {
-                    0 => period.add::<3>(&mut acc.sums[t], cols, self.series, series_sums),
-                    1 => period.add::<4>(&mut acc.sums[t], cols, self.series, series_sums),
-                    2 => period.add::<5>(&mut acc.sums[t], cols, self.series, series_sums),
-                    3 => period.add::<6>(&mut acc.sums[t], cols, self.series, series_sums),
-                    4 => period.add::<7>(&mut acc.sums[t], cols, self.series, series_sums),
-                    _ => period.add_any(&mut acc.sums[t], cols, self.series, series_sums),
-                }
+                period.add_all(&mut acc.sums[t], cols, self.series, series_sums);
                 // the season outlays of the leading replications (within budget)
                 if from < self.season_reps {
                     acc.season_buf.extend_from_slice(fiscal);
@@ -2131,14 +2143,7 @@ mod tests {
                     want(&transform, start[2]),
                 ];
                 let (mut sums, mut got) = (start, vec![0.5; series.len()]);
-                match series.len() {
-                    0 => period.add::<3>(&mut sums, &c, &series, &mut got),
-                    1 => period.add::<4>(&mut sums, &c, &series, &mut got),
-                    2 => period.add::<5>(&mut sums, &c, &series, &mut got),
-                    3 => period.add::<6>(&mut sums, &c, &series, &mut got),
-                    4 => period.add::<7>(&mut sums, &c, &series, &mut got),
-                    _ => period.add_any(&mut sums, &c, &series, &mut got),
-                }
+                period.add_all(&mut sums, &c, &series, &mut got);
                 let bits = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<_>>();
                 assert_eq!(bits(&sums), bits(&base), "n {n}, {} series", series.len());
                 assert_eq!(bits(&got), bits(&wanted), "n {n}, {} series", series.len());
