@@ -20,7 +20,7 @@ use crate::scenario::MAX_ALERTS;
 use crate::welfare::{discounted_trade, finish_pv, revenue_of, Crra, PeriodItems, PERIOD_ITEMS};
 
 use super::montecarlo::{Pooled, ReplicationSummary, Watch};
-use super::stats::ShiftedSums;
+use super::stats::{shifted_push, ShiftedSums};
 
 /// One value per lane.
 pub(crate) type Lanes = [f64; LANES];
@@ -49,14 +49,17 @@ impl LaneSums {
     }
 
     /// Adds lane l's value `x[l]` to lane l ([`ShiftedSums::push`] lane by lane).
-    #[inline(always)]
-    pub(crate) fn push(&mut self, x: &Lanes) {
-        let k = self.reference;
-        for ((s, q), &x) in self.sum.iter_mut().zip(self.sum_sq.iter_mut()).zip(x) {
-            let d = x - k;
-            *s += d;
-            *q += d * d;
+    #[cfg(test)]
+    fn push(&mut self, x: &Lanes) {
+        for (l, &x) in x.iter().enumerate() {
+            self.push_lane(l, x);
         }
+    }
+
+    /// Adds `x` to lane `l`.
+    #[inline(always)]
+    fn push_lane(&mut self, l: usize, x: f64) {
+        shifted_push(self.reference, x, &mut self.sum[l], &mut self.sum_sq[l]);
     }
 
     /// Lane `lane`'s sums of `count` values.
@@ -69,6 +72,11 @@ impl LaneSums {
         }
     }
 }
+
+/// Periods the fold takes at once ([`LaneFold::add`]): each lane's sums are read and written once
+/// a block, held in registers across its periods (the stores of some thirty sums a lane a period
+/// were the fold's cost).
+pub(crate) const FOLD_BLOCK: usize = 4;
 
 /// The replications of one model in a chunk, folded period by period over the lanes.
 #[derive(Debug, Clone)]
@@ -101,10 +109,10 @@ pub(crate) struct LaneFold {
     budget_bound: Counts,
     import_periods: Counts,
     export_periods: Counts,
-    /// the period just folded: each lane's producers' income
-    pub(crate) income: Lanes,
-    /// the period just folded: each lane's CRRA transform of income
-    pub(crate) transform: Lanes,
+    /// the block just folded: each period's producers' income in each lane
+    pub(crate) income: [Lanes; FOLD_BLOCK],
+    /// the block just folded: each period's CRRA transform of income in each lane
+    pub(crate) transform: [Lanes; FOLD_BLOCK],
     /// the CRRA form of the run's risk aversion (chosen once)
     crra: Crra,
     /// the copy of [`LaneFold::add`] the fold runs, the widest the machine runs (the same
@@ -141,56 +149,73 @@ impl LaneFold {
             budget_bound: [0; LANES],
             import_periods: [0; LANES],
             export_periods: [0; LANES],
-            income: ZERO,
-            transform: ZERO,
+            income: [ZERO; FOLD_BLOCK],
+            transform: [ZERO; FOLD_BLOCK],
             crra: Crra::new(watch.risk_aversion),
             simd: crate::numeric::simd(),
         }
     }
 
-    /// Folds the period in `c` (every lane) into each lane's sums; leaves each lane's income and
-    /// its CRRA transform in [`LaneFold::income`] and [`LaneFold::transform`]. Runs the copy of
-    /// [`LaneFold::fold`] the fold's `simd` names.
+    /// Folds the periods of `block` (in order; at most [`FOLD_BLOCK`], any more are left out)
+    /// into each lane's sums; leaves each period's income of every lane and its CRRA transform in
+    /// [`LaneFold::income`] and [`LaneFold::transform`] (period `j` of the block at `[j]`). Runs
+    /// the copy of [`LaneFold::fold`] the fold's `simd` names: a whole block at once, a shorter
+    /// one period by period.
     #[inline]
-    pub(crate) fn add(&mut self, c: &Columns, watch: &Watch) {
+    pub(crate) fn add(&mut self, block: &[Columns], watch: &Watch) {
         let simd = self.simd;
-        fold_copies(simd, self, c, watch);
+        match <&[Columns; FOLD_BLOCK]>::try_from(block) {
+            Ok(whole) => fold_copies(simd, self, whole, 0, watch),
+            Err(_) => {
+                for (j, c) in block.iter().enumerate().take(FOLD_BLOCK) {
+                    fold_copies(simd, self, std::array::from_ref(c), j, watch);
+                }
+            }
+        }
     }
 
-    /// The one definition of the period's fold.
+    /// The one definition of the fold of `K` periods (places `first..first + K` of
+    /// [`LaneFold::income`] and [`LaneFold::transform`]). Each loop runs over the lanes with the
+    /// periods inside it (`K` a constant, so unrolled): a lane's sums are read once, added to in
+    /// period order, written once — the same bits as one period at a time, with a fraction of the
+    /// loads and stores.
     #[inline(always)]
-    fn fold(&mut self, c: &Columns, watch: &Watch) {
-        self.count += 1;
-        self.welfare(c, watch);
-        self.income_and_moments(c, watch);
-        self.outlays(c, watch);
-        self.seasons(c, watch);
+    fn fold<const K: usize>(&mut self, block: &[Columns; K], first: usize, watch: &Watch) {
+        self.count += K;
+        self.welfare(block, watch);
+        self.income_and_moments(block, first, watch);
+        self.outlays(block, watch);
+        self.seasons(block, watch);
     }
 
     /// The present values (`welfare::WelfareFold::add` lane by lane).
     #[inline(always)]
-    fn welfare(&mut self, c: &Columns, watch: &Watch) {
+    fn welfare<const K: usize>(&mut self, block: &[Columns; K], watch: &Watch) {
         let books = &watch.books;
-        let f = books.discount.factor(c.period);
         let kept = books.financing_kept;
+        let factors = block.each_ref().map(|c| books.discount.factor(c.period));
         for l in 0..LANES {
-            let d = PeriodItems {
-                consumer_surplus: c.consumer_surplus[l],
-                producer_surplus: c.producer_surplus[l],
-                fiscal_cost: c.fiscal_cost[l],
-                financing_cost: c.financing_cost[l],
-                purchase_cost: c.purchase_cost[l],
-                sales_revenue: c.sales_revenue[l],
-                storage_cost: c.storage_cost[l],
-                handling_cost: c.handling_cost[l],
-                deficiency_payments: c.deficiency_payments[l],
-            }
-            .discounted(f, kept);
-            for (acc, d) in self.items.iter_mut().zip(d) {
-                acc[l] += d;
+            for (c, &f) in block.iter().zip(&factors) {
+                let d = PeriodItems {
+                    consumer_surplus: c.consumer_surplus[l],
+                    producer_surplus: c.producer_surplus[l],
+                    fiscal_cost: c.fiscal_cost[l],
+                    financing_cost: c.financing_cost[l],
+                    purchase_cost: c.purchase_cost[l],
+                    sales_revenue: c.sales_revenue[l],
+                    storage_cost: c.storage_cost[l],
+                    handling_cost: c.handling_cost[l],
+                    deficiency_payments: c.deficiency_payments[l],
+                }
+                .discounted(f, kept);
+                for (acc, d) in self.items.iter_mut().zip(d) {
+                    acc[l] += d;
+                }
             }
         }
-        if c.trades {
+        // a period whose columns carry no trade adds nothing: each trading period in turn (in
+        // period order, so each sum's additions still come in that order)
+        for (c, &f) in block.iter().zip(&factors).filter(|(c, _)| c.trades) {
             let t = &c.trade;
             let [border, quota] = &mut self.trade;
             for l in 0..LANES {
@@ -209,84 +234,108 @@ impl LaneFold {
 
     /// Income, its CRRA transform and the pooled moments.
     #[inline(always)]
-    fn income_and_moments(&mut self, c: &Columns, watch: &Watch) {
-        let mut revenue = ZERO;
-        for l in 0..LANES {
-            revenue[l] = revenue_of(c.producer_price[l], c.harvest[l]);
-            self.income[l] = watch.income_of(revenue[l]);
-        }
+    fn income_and_moments<const K: usize>(
+        &mut self,
+        block: &[Columns; K],
+        first: usize,
+        watch: &Watch,
+    ) {
         let scale = watch.income_scale();
-        // the form matched once; each arm's loop has it as a constant
-        let mut fill = |crra: Crra| {
-            for (t, &y) in self.transform.iter_mut().zip(&self.income) {
-                *t = crra.of(y, scale);
+        let crra = self.crra;
+        for (j, c) in block.iter().enumerate() {
+            let (income, transform) = (&mut self.income[first + j], &mut self.transform[first + j]);
+            for l in 0..LANES {
+                income[l] = watch.income_of(revenue_of(c.producer_price[l], c.harvest[l]));
             }
-        };
-        match self.crra {
-            Crra::Linear => fill(Crra::Linear),
-            Crra::Reciprocal => fill(Crra::Reciprocal),
-            Crra::Log => fill(Crra::Log),
-            Crra::Power(e) => fill(Crra::Power(e)),
+            // the form matched once; each arm's loop has it as a constant
+            let mut fill = |crra: Crra| {
+                for (t, &y) in transform.iter_mut().zip(&*income) {
+                    *t = crra.of(y, scale);
+                }
+            };
+            match crra {
+                Crra::Linear => fill(Crra::Linear),
+                Crra::Reciprocal => fill(Crra::Reciprocal),
+                Crra::Log => fill(Crra::Log),
+                Crra::Power(e) => fill(Crra::Power(e)),
+            }
         }
-        self.price.push(&c.price);
-        self.producer_price.push(&c.producer_price);
-        self.harvest.push(&c.harvest);
-        self.revenue.push(&revenue);
-        for (s, t) in self.income_transform.iter_mut().zip(&self.transform) {
-            *s += t;
+        let transform = &self.transform[first..first + K];
+        for l in 0..LANES {
+            for (c, transform) in block.iter().zip(transform) {
+                self.price.push_lane(l, c.price[l]);
+                self.producer_price.push_lane(l, c.producer_price[l]);
+                self.harvest.push_lane(l, c.harvest[l]);
+                let revenue = revenue_of(c.producer_price[l], c.harvest[l]);
+                self.revenue.push_lane(l, revenue);
+                self.income_transform[l] += transform[l];
+            }
         }
     }
 
     /// The season outlays: their sum, the worst, the running total and its peak, the seasons over
     /// budget.
     #[inline(always)]
-    fn outlays(&mut self, c: &Columns, watch: &Watch) {
+    fn outlays<const K: usize>(&mut self, block: &[Columns; K], watch: &Watch) {
         let budget = watch.annual_budget * (1.0 + 1e-12);
         for l in 0..LANES {
-            let x = c.fiscal_cost[l];
-            self.fiscal_sum[l] += x;
-            self.worst[l] = self.worst[l].max(x);
-            self.running[l] += x;
-            self.peak[l] = self.peak[l].max(self.running[l]);
-            self.budget_exceeded[l] += u32::from(x > budget);
+            for c in block {
+                let x = c.fiscal_cost[l];
+                self.fiscal_sum[l] += x;
+                self.worst[l] = self.worst[l].max(x);
+                self.running[l] += x;
+                self.peak[l] = self.peak[l].max(self.running[l]);
+            }
+        }
+        // the counts in a loop of their own: a store to an array of u32 beside the sums of f64
+        // would keep the optimiser from holding the sums in registers across the periods (it
+        // cannot tell the two arrays apart at a common lane index)
+        for l in 0..LANES {
+            for c in block {
+                self.budget_exceeded[l] += u32::from(c.fiscal_cost[l] > budget);
+            }
         }
     }
 
     /// The counts of seasons.
     #[inline(always)]
-    fn seasons(&mut self, c: &Columns, watch: &Watch) {
+    fn seasons<const K: usize>(&mut self, block: &[Columns; K], watch: &Watch) {
         const CUT: u16 = flags::CAPACITY_FULL | flags::BUDGET_BOUND;
         for l in 0..LANES {
-            self.floor_binding[l] +=
-                u32::from(floor_binding(c.purchases[l], c.deficiency_payments[l]));
-            self.stockout[l] += u32::from(c.stockout[l]);
-            self.capacity_full[l] += u32::from(c.flags[l] & flags::CAPACITY_FULL != 0);
-            self.budget_bound[l] += u32::from(c.flags[l] & flags::BUDGET_BOUND != 0);
+            for c in block {
+                self.floor_binding[l] +=
+                    u32::from(floor_binding(c.purchases[l], c.deficiency_payments[l]));
+                self.stockout[l] += u32::from(c.stockout[l]);
+                self.capacity_full[l] += u32::from(c.flags[l] & flags::CAPACITY_FULL != 0);
+                self.budget_bound[l] += u32::from(c.flags[l] & flags::BUDGET_BOUND != 0);
+            }
         }
-        for (counts, &a) in self
-            .alerts
-            .iter_mut()
-            .zip(&watch.alerts[..watch.alert_count])
-        {
-            for (n, &p) in counts.iter_mut().zip(&c.price) {
-                *n += u32::from(p > a);
+        for (counts, &a) in (self.alerts.iter_mut()).zip(&watch.alerts[..watch.alert_count]) {
+            for l in 0..LANES {
+                for c in block {
+                    counts[l] += u32::from(c.price[l] > a);
+                }
             }
         }
         if let Some(f) = watch.purchase_floor {
             let floor = f * (1.0 - 1e-9);
             for l in 0..LANES {
-                let cut = c.flags[l] & CUT != 0;
-                self.floor_failed[l] += u32::from(cut && c.producer_price[l] < floor);
+                for c in block {
+                    let cut = c.flags[l] & CUT != 0;
+                    self.floor_failed[l] += u32::from(cut && c.producer_price[l] < floor);
+                }
             }
         }
         if let Some((lo, hi)) = watch.band {
             let (lo, hi) = (lo * (1.0 - 1e-9), hi * (1.0 + 1e-9));
             for l in 0..LANES {
-                let cut = c.flags[l] & CUT != 0;
-                let below = cut && c.price[l] < lo;
-                let out = c.stockout[l] || c.flags[l] & flags::STOCK_OUT != 0;
-                let above = c.price[l] > hi && out;
-                self.band_failed[l] += u32::from(below || above);
+                for c in block {
+                    let cut = c.flags[l] & CUT != 0;
+                    let below = cut && c.price[l] < lo;
+                    let out = c.stockout[l] || c.flags[l] & flags::STOCK_OUT != 0;
+                    let above = c.price[l] > hi && out;
+                    self.band_failed[l] += u32::from(below || above);
+                }
             }
         }
     }
@@ -346,8 +395,13 @@ simd_copies! {
     /// [`LaneFold::fold`] built for the baseline, AVX2 (four lanes a register) and AVX-512 (eight):
     /// the same operations in each (no FMA, no reassociation), so every lane gets the same bits.
     #[inline(never)]
-    fn fold_copies[](fold: &mut LaneFold, c: &Columns, watch: &Watch) {
-        fold.fold(c, watch)
+    fn fold_copies[const K: usize](
+        fold: &mut LaneFold,
+        block: &[Columns; K],
+        first: usize,
+        watch: &Watch,
+    ) {
+        fold.fold(block, first, watch)
     }
 }
 
@@ -417,8 +471,10 @@ mod tests {
     }
 
     #[test]
-    fn every_vector_copy_of_the_fold_gives_the_bits_of_the_plain_one() {
-        // an identity (no outside source): the same fold built for two instruction sets
+    fn every_vector_copy_and_block_of_the_fold_gives_the_bits_of_the_plain_one_period_by_period() {
+        // an identity (no outside source): the same fold built for two instruction sets, and
+        // periods folded a block at a time (whole blocks, then a shorter one: 30 periods) against
+        // one at a time
         let s = crate::scenario::market_from_table(
             "t.toml",
             crate::scenario::parse_toml(
@@ -439,47 +495,57 @@ mod tests {
         let mut plain = LaneFold::new(&watch, 80.0, 40.0);
         plain.simd = Simd::Plain;
         // the copies this machine runs (a narrower one stands in for one it does not)
-        let mut wide: Vec<LaneFold> = [Simd::Avx2, Simd::Avx512]
+        let mut blocked: Vec<LaneFold> = [Simd::Plain, Simd::Avx2, Simd::Avx512]
             .map(|k| LaneFold {
                 simd: k.at_most(),
                 ..plain.clone()
             })
             .into();
-        let mut c = Columns {
-            trades: true,
-            ..Columns::default()
-        };
-        for t in 1..=30 {
-            let v = values(LANES * 8, 0.05 + 0.03 * t as f64);
-            c.period = t;
-            for l in 0..LANES {
-                let x = &v[8 * l..8 * l + 8];
-                c.price[l] = x[0] * 0.45;
-                c.producer_price[l] = x[1] * 0.42;
-                c.harvest[l] = x[2] * 0.2;
-                c.fiscal_cost[l] = x[3] - 210.0;
-                c.financing_cost[l] = x[4] * 0.01;
-                c.consumer_surplus[l] = x[5];
-                c.purchases[l] = (x[6] - 200.0).max(0.0);
-                c.stockout[l] = x[7] > 220.0;
-                c.flags[l] = (x[7] as u16) & 0x7ff;
-                c.trade.imports[l] = (x[0] - 210.0).max(0.0);
-                c.trade.border_revenue[l] = x[1] * 0.1;
+        let periods: Vec<Columns> = (1..=30)
+            .map(|t| {
+                let mut c = Columns {
+                    trades: t % 7 != 3, // a period without trade now and then
+                    ..Columns::default()
+                };
+                let v = values(LANES * 8, 0.05 + 0.03 * t as f64);
+                c.period = t;
+                for l in 0..LANES {
+                    let x = &v[8 * l..8 * l + 8];
+                    c.price[l] = x[0] * 0.45;
+                    c.producer_price[l] = x[1] * 0.42;
+                    c.harvest[l] = x[2] * 0.2;
+                    c.fiscal_cost[l] = x[3] - 210.0;
+                    c.financing_cost[l] = x[4] * 0.01;
+                    c.consumer_surplus[l] = x[5];
+                    c.purchases[l] = (x[6] - 200.0).max(0.0);
+                    c.stockout[l] = x[7] > 220.0;
+                    c.flags[l] = (x[7] as u16) & 0x7ff;
+                    c.trade.imports[l] = (x[0] - 210.0).max(0.0);
+                    c.trade.exports[l] = (x[1] - 205.0).max(0.0);
+                    c.trade.border_revenue[l] = x[1] * 0.1;
+                    c.trade.quota_rent[l] = x[2] * 0.05;
+                }
+                c
+            })
+            .collect();
+        assert_ne!(periods.len() % FOLD_BLOCK, 0, "a shorter block at the end");
+        for block in periods.chunks(FOLD_BLOCK) {
+            let mut transforms = Vec::new();
+            for c in block {
+                plain.add(std::slice::from_ref(c), &watch);
+                transforms.push(format!("{:?}", plain.transform[0]));
             }
-            plain.add(&c, &watch);
-            for w in &mut wide {
-                w.add(&c, &watch);
-                assert_eq!(
-                    format!("{:?}", plain.transform),
-                    format!("{:?}", w.transform),
-                    "{:?}",
-                    w.simd
-                );
+            for w in &mut blocked {
+                w.add(block, &watch);
+                for (j, want) in transforms.iter().enumerate() {
+                    assert_eq!(want, &format!("{:?}", w.transform[j]), "{:?}", w.simd);
+                }
             }
         }
-        for w in &wide {
+        let last = periods.last().unwrap();
+        for w in &blocked {
             for l in 0..LANES {
-                let (a, b) = (plain.finish(l, &c, &watch), w.finish(l, &c, &watch));
+                let (a, b) = (plain.finish(l, last, &watch), w.finish(l, last, &watch));
                 // Debug shows every value's bits that matter here (the sign of a zero included)
                 assert_eq!(format!("{a:?}"), format!("{b:?}"), "{:?} lane {l}", w.simd);
             }

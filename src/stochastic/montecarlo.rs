@@ -20,7 +20,7 @@ use rayon::prelude::*;
 use serde::Serialize;
 
 use super::draw_shocks_with;
-use super::lanes::{LaneFold, Lanes};
+use super::lanes::{LaneFold, Lanes, FOLD_BLOCK};
 use super::stats::{from_order_key, order_key, quantiles_of_keys, ShiftedSums, Summary};
 use crate::engine::{Columns, Diverged, LaneStepper, Model, PathModel, PeriodRecord, ShockColumns};
 use crate::policies::PolicySpec;
@@ -1133,6 +1133,8 @@ pub struct ReplicationFailed {
 
 /// What a chunk of replications hands back, per policy.
 struct ChunkPolicy {
+    /// the chunk's first replication
+    from: usize,
     /// replications folded
     n: usize,
     pooled: Pooled,
@@ -1578,15 +1580,17 @@ struct Context<'a, M> {
 
 impl<M: PathModel> Context<'_, M> {
     /// Replications `from..to` (at most [`CHUNK`]) of every model, lane-major: lane l is
-    /// replication `from + l`. Each period every model steps all its lanes on the period's shocks
-    /// and the period is folded over the lanes at once ([`LaneFold`]); a lane's sums see its
-    /// periods in order and the chunk's sums see the lanes in replication order, so every figure has
-    /// the bits of folding the replications one after another.
+    /// replication `from + l`. Each period every model steps all its lanes on the period's shocks;
+    /// every [`FOLD_BLOCK`] periods (and at the end) each model's block of periods is folded over
+    /// the lanes at once ([`LaneFold`]); a lane's sums see its periods in order and the chunk's sums
+    /// see the lanes in replication order, so every figure has the bits of folding the replications
+    /// one after another.
     ///
-    /// `columns` holds one [`Columns`] per model for the period just stepped (made here when it is
-    /// empty), reused by the next chunk the caller runs: every period's step writes the lanes it
-    /// steps before they are read, and nothing reads a lane at or above the chunk's size, so what an
-    /// earlier chunk left in them is never read (and they are not zeroed again, 14 KB a model).
+    /// `columns` holds [`FOLD_BLOCK`] [`Columns`] per model, the periods of the block in hand (made
+    /// here when it is empty), reused by the next chunk the caller runs: every period's step writes
+    /// the lanes it steps before they are read, and nothing reads a lane at or above the chunk's
+    /// size, so what an earlier chunk left in them is never read (and they are not zeroed again,
+    /// 14 KB a period and model).
     fn chunk(&self, from: usize, to: usize, columns: &mut Vec<Columns>) -> ChunkOutcome {
         let s = self.scenario;
         let periods = s.run.periods;
@@ -1596,6 +1600,7 @@ impl<M: PathModel> Context<'_, M> {
             .models
             .iter()
             .map(|_| ChunkPolicy {
+                from,
                 n,
                 pooled: Pooled::new(s.steady.price, s.steady.quantity),
                 sums: vec![[0.0; 3]; periods],
@@ -1641,7 +1646,8 @@ impl<M: PathModel> Context<'_, M> {
             });
         }
         let mut lanes: Vec<M::Lanes<'_>> = self.models.iter().map(|m| m.start_lanes(n)).collect();
-        columns.resize_with(self.models.len(), Columns::default);
+        // each model's columns of the last FOLD_BLOCK periods, folded together
+        columns.resize_with(self.models.len() * FOLD_BLOCK, Columns::default);
         let mut failed: Vec<Vec<Option<Diverged>>> =
             self.models.iter().map(|_| vec![None; n]).collect();
         let mut folds: Vec<LaneFold> = self
@@ -1649,59 +1655,44 @@ impl<M: PathModel> Context<'_, M> {
             .iter()
             .map(|w| LaneFold::new(w, s.steady.price, s.steady.quantity))
             .collect();
-        let kinds = self.series.len();
-        // lockstep: period by period, every model steps every lane on the same shocks
+        // lockstep: period by period, every model steps every lane on the same shocks; every
+        // FOLD_BLOCK periods (and at the end) each model's block is folded and its periods' sums
+        // and kept values taken, period by period
         for (t, shocks) in shocks.iter().enumerate() {
             if self.first_failure.load(Ordering::Relaxed) < from / CHUNK {
                 break; // an earlier chunk failed; this chunk's figures will not be used
             }
-            for ((((path, cols), failed), fold), (acc, watch)) in lanes
+            let j = t % FOLD_BLOCK;
+            for ((path, block), failed) in lanes
                 .iter_mut()
-                .zip(columns.iter_mut())
+                .zip(columns.chunks_exact_mut(FOLD_BLOCK))
                 .zip(failed.iter_mut())
+            {
+                path.step(shocks, &mut block[j], failed);
+            }
+            if j + 1 < FOLD_BLOCK && t + 1 < periods {
+                continue;
+            }
+            let first = t - j;
+            for ((block, fold), (acc, watch)) in columns
+                .chunks_exact(FOLD_BLOCK)
                 .zip(folds.iter_mut())
                 .zip(out.iter_mut().zip(self.watches))
             {
-                path.step(shocks, cols, failed);
-                fold.add(cols, watch);
-                let fiscal = &cols.fiscal_cost[..n];
-                let period = PeriodSums {
-                    n,
-                    fiscal: &cols.fiscal_cost,
-                    income: &fold.income,
-                    transform: &fold.transform,
-                };
-                let series_sums = &mut acc.series_sums[t * kinds..(t + 1) * kinds];
-                period.add_all(&mut acc.sums[t], cols, self.series, series_sums);
-                // the season outlays of the leading replications (within budget)
-                if from < self.season_reps {
-                    acc.season_buf.extend_from_slice(fiscal);
-                }
-                if from < self.series_reps {
-                    for (kept, which) in acc.series.iter_mut().zip(self.series) {
-                        kept.extend_from_slice(&which.column(cols)[..n]);
-                    }
-                }
-                if pairs {
-                    for (lane, cell) in acc.path.iter_mut().skip(t).step_by(periods).enumerate() {
-                        *cell = [
-                            cols.producer_price[lane],
-                            consumer_price_of(
-                                cols.price[lane],
-                                cols.consumer_payments[lane],
-                                cols.consumption[lane],
-                            ),
-                        ];
-                    }
+                let block = &block[..=j];
+                fold.add(block, watch);
+                for (j, cols) in block.iter().enumerate() {
+                    self.keep_period(first + j, cols, fold, j, acc);
                 }
             }
         }
+        let last = periods.saturating_sub(1) % FOLD_BLOCK;
         // replication by replication: the first failing one (lowest replication, then lowest model
         // index) fails the chunk
         for lane in 0..n {
-            for (k, (((fold, cols), failed), (acc, watch))) in folds
+            for (k, (((fold, block), failed), (acc, watch))) in folds
                 .iter()
-                .zip(columns.iter())
+                .zip(columns.chunks_exact(FOLD_BLOCK))
                 .zip(failed.iter_mut())
                 .zip(out.iter_mut().zip(self.watches))
                 .enumerate()
@@ -1715,7 +1706,7 @@ impl<M: PathModel> Context<'_, M> {
                         source,
                     });
                 }
-                let (summary, pooled) = fold.finish(lane, cols, watch);
+                let (summary, pooled) = fold.finish(lane, &block[last], watch);
                 acc.pooled.merge(&pooled);
                 acc.summaries.push(summary);
             }
@@ -1730,6 +1721,51 @@ impl<M: PathModel> Context<'_, M> {
             c.summaries = Vec::new();
         }
         Ok((out, paired))
+    }
+
+    /// What a chunk keeps of period `t` of one model once it is folded (`cols` its columns,
+    /// `j` its place in the fold's block): the per-period sums, the season outlays and the fan
+    /// values of the leading replications, the paired price paths.
+    fn keep_period(
+        &self,
+        t: usize,
+        cols: &Columns,
+        fold: &LaneFold,
+        j: usize,
+        acc: &mut ChunkPolicy,
+    ) {
+        let n = acc.n;
+        let periods = self.scenario.run.periods;
+        let kinds = self.series.len();
+        let period = PeriodSums {
+            n,
+            fiscal: &cols.fiscal_cost,
+            income: &fold.income[j],
+            transform: &fold.transform[j],
+        };
+        let series_sums = &mut acc.series_sums[t * kinds..(t + 1) * kinds];
+        period.add_all(&mut acc.sums[t], cols, self.series, series_sums);
+        // the season outlays of the leading replications (within budget)
+        if acc.from < self.season_reps {
+            acc.season_buf.extend_from_slice(&cols.fiscal_cost[..n]);
+        }
+        if acc.from < self.series_reps {
+            for (kept, which) in acc.series.iter_mut().zip(self.series) {
+                kept.extend_from_slice(&which.column(cols)[..n]);
+            }
+        }
+        if !self.pairs.is_empty() {
+            for (lane, cell) in acc.path.iter_mut().skip(t).step_by(periods).enumerate() {
+                *cell = [
+                    cols.producer_price[lane],
+                    consumer_price_of(
+                        cols.price[lane],
+                        cols.consumer_payments[lane],
+                        cols.consumption[lane],
+                    ),
+                ];
+            }
+        }
     }
 
     /// After every model stepped the chunk: replication `lane`'s proportional price changes for
@@ -2026,7 +2062,7 @@ mod tests {
         let fresh = bits(&mut Vec::new());
         let mut used = Vec::new();
         assert!(ctx.chunk(CHUNK, 2 * CHUNK, &mut used).is_ok());
-        assert_eq!(used.len(), models.len());
+        assert_eq!(used.len(), models.len() * FOLD_BLOCK);
         assert_eq!(bits(&mut used), fresh);
     }
 

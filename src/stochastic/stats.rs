@@ -22,6 +22,15 @@ pub struct ShiftedSums {
     pub sum_sq: f64,
 }
 
+/// Adds `x` to sums around `reference`: Σ (x − k) and Σ (x − k)² (the one definition of
+/// [`ShiftedSums::push`], which the Monte Carlo's lanes call on their own arrays).
+#[inline(always)]
+pub(crate) fn shifted_push(reference: f64, x: f64, sum: &mut f64, sum_sq: &mut f64) {
+    let d = x - reference;
+    *sum += d;
+    *sum_sq += d * d;
+}
+
 impl ShiftedSums {
     /// Empty sums around `reference`.
     pub fn new(reference: f64) -> ShiftedSums {
@@ -34,10 +43,8 @@ impl ShiftedSums {
     /// Adds a value.
     #[inline]
     pub fn push(&mut self, x: f64) {
-        let d = x - self.reference;
         self.count += 1;
-        self.sum += d;
-        self.sum_sq += d * d;
+        shifted_push(self.reference, x, &mut self.sum, &mut self.sum_sq);
     }
 
     /// Adds the sums of another run with the same reference.
