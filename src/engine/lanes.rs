@@ -151,102 +151,86 @@ pub struct Phased<'m> {
     lane_form: Option<Linear>,
 }
 
-/// One period's values of every lane, phase by phase.
+/// One period's values of every lane that its record does not hold, phase by phase (the rest
+/// are written straight into the period's [`Columns`], which the booking then completes: no
+/// value is copied from one to the other).
 #[derive(Debug)]
 struct Scratch {
     expectation: [f64; LANES],
-    planting: [f64; LANES],
     carried: [f64; LANES],
-    planted: [f64; LANES],
-    harvest: [f64; LANES],
-    price: [f64; LANES],
-    producer_price: [f64; LANES],
-    purchases: [f64; LANES],
-    releases: [f64; LANES],
-    stock: [f64; LANES],
-    deficiency: [f64; LANES],
-    consumption: [f64; LANES],
-    consumer_payments: [f64; LANES],
-    flags: [u16; LANES],
     /// The lane is still going this period.
     live: [bool; LANES],
 }
 
 impl Scratch {
     fn new() -> Scratch {
-        const Z: [f64; LANES] = [0.0; LANES];
         Scratch {
-            expectation: Z,
-            planting: Z,
-            carried: Z,
-            planted: Z,
-            harvest: Z,
-            price: Z,
-            producer_price: Z,
-            purchases: Z,
-            releases: Z,
-            stock: Z,
-            deficiency: Z,
-            consumption: Z,
-            consumer_payments: Z,
-            flags: [0; LANES],
+            expectation: [0.0; LANES],
+            carried: [0.0; LANES],
             live: [false; LANES],
         }
     }
+}
 
-    /// Writes lane `l`'s clearing before the payment rules ([`Model::pay`] and
-    /// [`Model::consumer_payments`] start from a producer price equal to the market price and no
-    /// payments).
-    #[inline(always)]
-    fn put(&mut self, l: usize, c: &Cleared) {
-        self.price[l] = c.price;
-        self.producer_price[l] = c.producer_price;
-        self.purchases[l] = c.purchases;
-        self.releases[l] = c.releases;
-        self.stock[l] = c.stock;
-        self.deficiency[l] = c.deficiency;
-        self.flags[l] = c.flags;
-        self.consumption[l] = c.consumption();
-        self.consumer_payments[l] = 0.0;
+/// Writes lane `l`'s clearing before the payment rules into `out` ([`Model::pay`] and
+/// [`Model::consumer_payments`] start from a producer price equal to the market price and no
+/// payments).
+#[inline(always)]
+fn put_cleared(out: &mut Columns, l: usize, c: &Cleared) {
+    out.planted[l] = c.planted;
+    out.harvest[l] = c.harvest;
+    out.price[l] = c.price;
+    out.producer_price[l] = c.producer_price;
+    out.purchases[l] = c.purchases;
+    out.releases[l] = c.releases;
+    out.stock[l] = c.stock;
+    out.deficiency_payments[l] = c.deficiency;
+    out.flags[l] = c.flags;
+    out.consumption[l] = c.consumption();
+    out.consumer_payments[l] = 0.0;
+}
+
+/// The first `n` lanes' markets as the clearing reads and writes them (in `out`), demand shifted
+/// by `shift`.
+#[inline(always)]
+fn market_columns<'a>(
+    out: &'a mut Columns,
+    carried: &'a [f64; LANES],
+    shift: &'a [f64; LANES],
+    n: usize,
+) -> MarketColumns<'a> {
+    MarketColumns {
+        harvest: &out.harvest[..n],
+        shift: &shift[..n],
+        carried: &carried[..n],
+        price: &mut out.price[..n],
+        purchases: &mut out.purchases[..n],
+        releases: &mut out.releases[..n],
+        stock: &mut out.stock[..n],
+        flags: &mut out.flags[..n],
     }
+}
 
-    /// The first `n` lanes' markets as the clearing reads and writes them, demand shifted by
-    /// `shift`.
-    #[inline(always)]
-    fn markets<'a>(&'a mut self, shift: &'a [f64; LANES], n: usize) -> MarketColumns<'a> {
-        MarketColumns {
-            harvest: &self.harvest[..n],
-            shift: &shift[..n],
-            carried: &self.carried[..n],
-            price: &mut self.price[..n],
-            purchases: &mut self.purchases[..n],
-            releases: &mut self.releases[..n],
-            stock: &mut self.stock[..n],
-            flags: &mut self.flags[..n],
-        }
-    }
-
-    /// Lane `l`'s clearing put back together.
-    #[inline(always)]
-    fn cleared(&self, l: usize) -> Cleared {
-        let price = self.price[l];
-        Cleared {
-            planted: self.planted[l],
-            harvest: self.harvest[l],
+/// Lane `l`'s clearing put back together from `out` (before the booking adds its flags).
+#[inline(always)]
+fn cleared(out: &Columns, l: usize) -> Cleared {
+    let price = out.price[l];
+    Cleared {
+        planted: out.planted[l],
+        harvest: out.harvest[l],
+        price,
+        producer_price: out.producer_price[l],
+        purchases: out.purchases[l],
+        releases: out.releases[l],
+        stock: out.stock[l],
+        deficiency: out.deficiency_payments[l],
+        flags: out.flags[l],
+        trade: None,
+        traded: Traded {
             price,
-            producer_price: self.producer_price[l],
-            purchases: self.purchases[l],
-            releases: self.releases[l],
-            stock: self.stock[l],
-            deficiency: self.deficiency[l],
-            flags: self.flags[l],
-            trade: None,
-            traded: Traded {
-                price,
-                imports: 0.0,
-                exports: 0.0,
-            },
-        }
+            imports: 0.0,
+            exports: 0.0,
+        },
     }
 }
 
@@ -359,33 +343,43 @@ impl<'m> Phased<'m> {
                 &mut s.expectation,
             ),
         }
-        if !plant_all(simd, model, supply, n, shocks, &self.stock, s) {
+        if !plant_all(simd, model, supply, n, shocks, &self.stock, s, out) {
             for l in 0..n {
-                if s.live[l] && !model.expectation_ok(s.planting[l]) {
+                let planting = out.expected_price[l];
+                if s.live[l] && !model.expectation_ok(planting) {
                     s.live[l] = false;
                     failed[l] = Some(Diverged {
                         period: t,
-                        reason: expected_price_failure(s.planting[l], model.price_bound),
+                        reason: expected_price_failure(planting, model.price_bound),
                     });
                 }
             }
         }
 
         // the clearing: the policy's rules, lane by lane
-        clear_all(simd, model, self.lane_form, n, shocks, s, &mut self.markets);
+        clear_all(
+            simd,
+            model,
+            self.lane_form,
+            n,
+            shocks,
+            s,
+            out,
+            &mut self.markets,
+        );
 
         // the checks: one combined test per lane, the messages only when one fails
-        if !check_all(simd, model, n, s) {
+        if !check_all(simd, model, n, s, out) {
             for l in 0..n {
-                let c = s.cleared(l);
-                if s.live[l] && !cleared_ok(&c, s.consumption[l], model.price_bound) {
+                let c = cleared(out, l);
+                if s.live[l] && !cleared_ok(&c, out.consumption[l], model.price_bound) {
                     s.live[l] = false;
                     failed[l] = Some(Diverged {
                         period: t,
                         reason: cleared_failure(
                             &c,
-                            s.planting[l],
-                            s.consumption[l],
+                            out.expected_price[l],
+                            out.consumption[l],
                             model.price_bound,
                         ),
                     });
@@ -393,7 +387,8 @@ impl<'m> Phased<'m> {
             }
         }
 
-        // the books, straight into the columns (a lane that failed writes values of no meaning)
+        // the books: what the period's columns do not hold yet (a lane that failed writes values
+        // of no meaning)
         book_all(simd, model, demand, supply, t, n, &shocks.demand, s, out);
         if s.live[..n].iter().any(|&x| x) {
             out.period = t;
@@ -406,6 +401,7 @@ impl<'m> Phased<'m> {
             n,
             &shocks.yield_factor,
             s,
+            out,
             &mut self.previous,
             &mut self.last_price,
             &mut self.stock,
@@ -491,17 +487,18 @@ simd_copies! {
         shocks: &ShockColumns,
         stock: &[f64; LANES],
         s: &mut Scratch,
+        out: &mut Columns,
     ) -> bool {
         let n = n.min(LANES);
         let agency = &model.policy.agency;
         let mut all_ok = true;
         for l in 0..n {
             let planting = model.planting_price(s.expectation[l]);
-            s.planting[l] = planting;
+            out.expected_price[l] = planting;
             s.carried[l] = agency.carried(stock[l]);
             let (planted, harvest) = plant(supply, planting, shocks.yield_factor[l], shocks.supply[l]);
-            s.planted[l] = planted;
-            s.harvest[l] = harvest;
+            out.planted[l] = planted;
+            out.harvest[l] = harvest;
             all_ok &= model.expectation_ok(planting) | !s.live[l];
         }
         all_ok
@@ -518,6 +515,7 @@ simd_copies! {
 /// actions act one after the other on its market either way; an action that does not trade
 /// stock leaves the market alone).
 #[inline(never)]
+#[allow(clippy::too_many_arguments)]
 fn clear_all<'m>(
     simd: Simd,
     model: &'m Model,
@@ -525,6 +523,7 @@ fn clear_all<'m>(
     n: usize,
     shocks: &ShockColumns,
     s: &mut Scratch,
+    out: &mut Columns,
     markets: &mut Vec<Clearing<'m>>,
 ) {
     let n = n.min(LANES);
@@ -534,7 +533,8 @@ fn clear_all<'m>(
             demand,
             capacity: model.policy.agency.capacity,
         };
-        let mut lanes = LinearLanes::new(terms, s.markets(&shocks.demand, n), simd);
+        let columns = market_columns(out, &s.carried, &shocks.demand, n);
+        let mut lanes = LinearLanes::new(terms, columns, simd);
         let mut forms = (model.policy.rules.iter())
             .filter(|r| r.trades_stock())
             .filter_map(|r| r.lanes());
@@ -550,14 +550,14 @@ fn clear_all<'m>(
                 lanes.finish();
             }
         }
-        unpaid_all(simd, n, s);
+        unpaid_all(simd, n, out);
     } else if all_live {
         let agency = &model.policy.agency;
         let mut lanes = ClearLanes {
             demand: &model.demand,
             capacity: agency.capacity,
             budget: agency.purchase_budget,
-            columns: s.markets(&shocks.demand, n),
+            columns: market_columns(out, &s.carried, &shocks.demand, n),
         };
         let mut trading = model.policy.rules.iter().filter(|r| r.trades_stock());
         match (trading.next(), trading.next()) {
@@ -574,13 +574,13 @@ fn clear_all<'m>(
                 }
             }
         }
-        unpaid_all(simd, n, s);
+        unpaid_all(simd, n, out);
     } else {
         for l in 0..n {
             if s.live[l] {
                 let shock = shocks.get(l);
-                let c = model.clear_closed(s.planted[l], s.harvest[l], &shock, s.carried[l]);
-                s.put(l, &c);
+                let c = model.clear_closed(out.planted[l], out.harvest[l], &shock, s.carried[l]);
+                put_cleared(out, l, &c);
             }
         }
     }
@@ -588,12 +588,12 @@ fn clear_all<'m>(
         // a lane that failed is paid too, on values of no meaning, as its books are written
         for rule in &model.policy.rules {
             rule.pay_each(PayLanes {
-                price: &s.price[..n],
-                harvest: &s.harvest[..n],
-                consumption: &s.consumption[..n],
-                producer_price: &mut s.producer_price[..n],
-                deficiency: &mut s.deficiency[..n],
-                consumer: &mut s.consumer_payments[..n],
+                price: &out.price[..n],
+                harvest: &out.harvest[..n],
+                consumption: &out.consumption[..n],
+                producer_price: &mut out.producer_price[..n],
+                deficiency: &mut out.deficiency_payments[..n],
+                consumer: &mut out.consumer_payments[..n],
             });
         }
     }
@@ -603,12 +603,12 @@ simd_copies! {
     /// Every lane before the payments, as [`Model::unpaid`]: the producer price the market price,
     /// consumption, nothing paid.
     #[inline(always)]
-    fn unpaid_all[](n: usize, s: &mut Scratch) {
+    fn unpaid_all[](n: usize, out: &mut Columns) {
         for l in 0..n.min(LANES) {
-            s.producer_price[l] = s.price[l];
-            s.deficiency[l] = 0.0;
-            s.consumption[l] = consumption(s.harvest[l], s.purchases[l], s.releases[l]);
-            s.consumer_payments[l] = 0.0;
+            out.producer_price[l] = out.price[l];
+            out.deficiency_payments[l] = 0.0;
+            out.consumption[l] = consumption(out.harvest[l], out.purchases[l], out.releases[l]);
+            out.consumer_payments[l] = 0.0;
         }
     }
 }
@@ -616,19 +616,21 @@ simd_copies! {
 simd_copies! {
     /// [`cleared_ok`] of every lane still going.
     #[inline(never)]
-    fn check_all[](model: &Model, n: usize, s: &Scratch) -> bool {
+    fn check_all[](model: &Model, n: usize, s: &Scratch, out: &Columns) -> bool {
         let n = n.min(LANES);
         let mut all_ok = true;
         for l in 0..n {
-            all_ok &= cleared_ok(&s.cleared(l), s.consumption[l], model.price_bound) | !s.live[l];
+            let ok = cleared_ok(&cleared(out, l), out.consumption[l], model.price_bound);
+            all_ok &= ok | !s.live[l];
         }
         all_ok
     }
 }
 
 simd_copies! {
-    /// The books of every lane ([`PeriodRecord::book_in`]) written into `out`: the numbers in one
-    /// loop, the flags and stock-outs in another (each loop keeps of the booking what it writes).
+    /// The books of every lane ([`PeriodRecord::book_in`]) written into `out`, which holds the
+    /// rest of each record already: the numbers in one loop, the flags and stock-outs in another
+    /// (each loop keeps of the booking what it writes).
     #[inline(never)]
     fn book_all[D: Form, S: Form](
         model: &Model,
@@ -642,18 +644,21 @@ simd_copies! {
     ) {
         let n = n.min(LANES);
         for l in 0..n {
-            put_numbers(out, l, &book(model, demand, supply, t, shift[l], s, l));
+            let r = book(model, demand, supply, t, shift[l], s, out, l);
+            put_booked(out, l, &r);
         }
         for l in 0..n {
-            let r = book(model, demand, supply, t, shift[l], s, l);
+            let r = book(model, demand, supply, t, shift[l], s, out, l);
             out.flags[l] = r.flags;
             out.stockout[l] = r.stockout;
         }
     }
 }
 
-/// Lane `l`'s books ([`Model::settled`], [`PeriodRecord::book_in`]).
+/// Lane `l`'s books ([`Model::settled`], [`PeriodRecord::book_in`]) from the period's values in
+/// `out` (before the booking writes its own).
 #[inline(always)]
+#[allow(clippy::too_many_arguments)]
 fn book<D: Form, S: Form>(
     model: &Model,
     demand: &D,
@@ -661,15 +666,16 @@ fn book<D: Form, S: Form>(
     t: usize,
     shift: f64,
     s: &Scratch,
+    out: &Columns,
     l: usize,
 ) -> PeriodRecord {
     PeriodRecord::book_in(
         &model.settled(
             t,
-            s.planting[l],
-            &s.cleared(l),
-            s.consumption[l],
-            s.consumer_payments[l],
+            out.expected_price[l],
+            &cleared(out, l),
+            out.consumption[l],
+            out.consumer_payments[l],
             s.carried[l],
             shift,
         ),
@@ -688,6 +694,7 @@ simd_copies! {
         n: usize,
         yield_factor: &[f64; LANES],
         s: &Scratch,
+        out: &Columns,
         previous: &mut [f64; LANES],
         last_price: &mut [f64; LANES],
         stock: &mut [f64; LANES],
@@ -695,25 +702,16 @@ simd_copies! {
         let n = n.min(LANES);
         for l in 0..n {
             previous[l] = s.expectation[l];
-            stock[l] = s.stock[l];
-            last_price[l] = model.read_price(s.producer_price[l], yield_factor[l]);
+            stock[l] = out.stock[l];
+            last_price[l] = model.read_price(out.producer_price[l], yield_factor[l]);
         }
     }
 }
 
-/// Writes the numbers of a closed market's record `r` into lane `l` of `out` ([`Columns::set`]
-/// without the period, the flags and the trade, which the lanes write apart).
+/// Writes the numbers of lane `l`'s record `r` that the booking works out into `out` (the
+/// period's other numbers are there already: the record copies them from `out`).
 #[inline(always)]
-fn put_numbers(out: &mut Columns, l: usize, r: &PeriodRecord) {
-    out.expected_price[l] = r.expected_price;
-    out.planted[l] = r.planted;
-    out.harvest[l] = r.harvest;
-    out.price[l] = r.price;
-    out.producer_price[l] = r.producer_price;
-    out.consumption[l] = r.consumption;
-    out.purchases[l] = r.purchases;
-    out.releases[l] = r.releases;
-    out.stock[l] = r.stock;
+fn put_booked(out: &mut Columns, l: usize, r: &PeriodRecord) {
     out.fiscal_cost[l] = r.fiscal_cost;
     out.consumer_surplus[l] = r.consumer_surplus;
     out.producer_surplus[l] = r.producer_surplus;
@@ -722,7 +720,5 @@ fn put_numbers(out: &mut Columns, l: usize, r: &PeriodRecord) {
     out.storage_cost[l] = r.storage_cost;
     out.financing_cost[l] = r.financing_cost;
     out.handling_cost[l] = r.handling_cost;
-    out.deficiency_payments[l] = r.deficiency_payments;
-    out.consumer_payments[l] = r.consumer_payments;
     out.rotated[l] = r.rotated;
 }
