@@ -21,8 +21,9 @@ use serde::Serialize;
 
 use super::draw_shocks_with;
 use super::lanes::{LaneFold, Lanes, FOLD_BLOCK};
-use super::stats::{from_order_key, order_key, quantiles_of_keys, ShiftedSums, Summary};
+use super::stats::{order_key, quantiles_of_keys, ShiftedSums, Summary};
 use crate::engine::{Columns, Diverged, LaneStepper, Model, PathModel, PeriodRecord, ShockColumns};
+use crate::numeric::simd_copies;
 use crate::policies::PolicySpec;
 use crate::scenario::{Scenario, MAX_ALERTS};
 use crate::welfare::{other_income, producer_revenue, Books, WelfarePv};
@@ -774,35 +775,11 @@ impl SeasonOutlays {
     /// reads only kept values (a long run of outlays equal to the floor, such as the zeros of a
     /// policy that never spends, is then counted instead of kept and pruned again and again).
     fn extend(&mut self, outlays: &[f64]) {
-        const BLOCK: usize = 64;
         match self.floor {
             None => self.kept.extend(outlays.iter().map(|&x| order_key(x))),
             Some(floor) => {
-                // block by block: a block with every outlay below the floor's value is only
-                // counted (float comparisons, no branch a value; a value equal to the floor's, a
-                // NaN, or any value under a NaN floor goes to the exact test); in the others each
-                // key is written at the cursor and the cursor moved past it only when the key is
-                // above the floor
-                let floor_value = from_order_key(floor);
-                let exact = floor_value.is_nan();
                 let before = self.kept.len();
-                for block in outlays.chunks(BLOCK) {
-                    let at_or_above = block
-                        .iter()
-                        .fold(false, |any, &x| any | (x >= floor_value) | x.is_nan());
-                    if !(at_or_above || exact) {
-                        continue;
-                    }
-                    let mut keys = [0i64; BLOCK];
-                    let mut above = 0;
-                    for &x in block {
-                        let k = order_key(x);
-                        // above ≤ the values seen so far < BLOCK
-                        keys[above.min(BLOCK - 1)] = k;
-                        above += usize::from(k > floor);
-                    }
-                    self.kept.extend_from_slice(&keys[..above]);
-                }
+                keep_above(crate::numeric::simd(), outlays, floor, &mut self.kept);
                 self.dropped += outlays.len() - (self.kept.len() - before);
             }
         }
@@ -821,6 +798,40 @@ impl SeasonOutlays {
     /// Bytes held for the values.
     pub fn value_bytes(&self) -> usize {
         8 * self.kept.capacity()
+    }
+}
+
+simd_copies! {
+    /// Appends to `kept` the [`order_key`]s of `outlays` above `floor`, block by block: the keys
+    /// worked out and those above the floor counted in one loop each (integer comparisons, no
+    /// branch a value, vectorised in the wider copies), a block with none above only counted
+    /// (a block of outlays equal to the floor, such as a policy's zeros, too), one with all above
+    /// appended whole, and in the others each key moved to a cursor that passes it only when it is
+    /// above the floor (in place: the cursor never passes the key being read).
+    #[inline(never)]
+    fn keep_above[](outlays: &[f64], floor: i64, kept: &mut Vec<i64>) {
+        const BLOCK: usize = 64;
+        for block in outlays.chunks(BLOCK) {
+            let mut keys = [0i64; BLOCK];
+            for (k, &x) in keys.iter_mut().zip(block) {
+                *k = order_key(x);
+            }
+            let keys = &mut keys[..block.len()];
+            let above: usize = keys.iter().map(|&k| usize::from(k > floor)).sum();
+            if above == 0 {
+                continue;
+            }
+            if above < keys.len() {
+                let mut at = 0;
+                for i in 0..keys.len() {
+                    let k = keys[i];
+                    // at ≤ i
+                    keys[at.min(i)] = k;
+                    at += usize::from(k > floor);
+                }
+            }
+            kept.extend_from_slice(&keys[..above]);
+        }
     }
 }
 
@@ -1887,6 +1898,7 @@ fn assemble(
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::numeric::Simd;
     use crate::scenario::{market_from_table, parse_toml};
     use crate::stochastic::quantiles;
 
@@ -2011,6 +2023,35 @@ mod tests {
             SeasonOutlays::new(0).quantiles(&[0.95, 0.99]),
             Some(vec![0.0; 2])
         );
+    }
+
+    #[test]
+    fn every_copy_of_the_tail_filter_keeps_the_keys_above_the_floor_in_order() {
+        // the plain rule (keys above the floor, in the order they come) against each vector copy,
+        // on blocks with none, some and all above, a short last block, zeros of both signs
+        let xs: Vec<f64> = (0..1000)
+            .map(|i| match i % 7 {
+                0 => -0.0,
+                1 => 0.0,
+                _ => ((i * 37) % 101) as f64 - 50.0 + if i > 700 { 60.0 } else { 0.0 },
+            })
+            .collect();
+        for floor in [
+            order_key(-0.0),
+            order_key(0.0),
+            order_key(25.0),
+            order_key(-100.0),
+        ] {
+            let want: Vec<i64> = (xs.iter().map(|&x| order_key(x)))
+                .filter(|&k| k > floor)
+                .collect();
+            for simd in [Simd::Plain, Simd::Avx2, Simd::Avx512] {
+                let mut got = vec![7];
+                keep_above(simd.at_most(), &xs, floor, &mut got);
+                assert_eq!(got[0], 7, "appended, not replaced");
+                assert_eq!(got[1..], want[..], "{simd:?} floor {floor}");
+            }
+        }
     }
 
     #[test]
