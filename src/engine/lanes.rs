@@ -320,7 +320,7 @@ impl<'m> Phased<'m> {
         let t = self.period + 1;
         let s = &mut self.scratch;
         let simd = self.simd;
-        live_all(simd, failed, &mut s.live);
+        let mut all_live = live_all(simd, failed, &mut s.live);
 
         // the expectation, the planting price, the stock carried in, the crop and the harvest
         match self.expect {
@@ -354,6 +354,7 @@ impl<'m> Phased<'m> {
                     });
                 }
             }
+            all_live = s.live[..n].iter().all(|&x| x);
         }
 
         // the clearing: the policy's rules, lane by lane
@@ -361,7 +362,7 @@ impl<'m> Phased<'m> {
             simd,
             model,
             self.lane_form,
-            n,
+            (n, all_live),
             shocks,
             s,
             out,
@@ -467,12 +468,15 @@ fn expect_rule(
 }
 
 simd_copies! {
-    /// Whether each lane's path is still going.
+    /// Whether each lane's path is still going; whether all are.
     #[inline(never)]
-    fn live_all[](failed: &[Option<Diverged>], live: &mut [bool; LANES]) {
+    fn live_all[](failed: &[Option<Diverged>], live: &mut [bool; LANES]) -> bool {
+        let mut all = true;
         for (live, failed) in live.iter_mut().zip(failed) {
             *live = failed.is_none();
+            all &= *live;
         }
+        all
     }
 }
 
@@ -513,21 +517,20 @@ simd_copies! {
 /// the payments: [`PolicyRule::pay_each`](crate::policies::PolicyRule::pay_each)), otherwise lane
 /// by lane. The same operations on every lane as the scalar step, in the same order (a lane's
 /// actions act one after the other on its market either way; an action that does not trade
-/// stock leaves the market alone).
+/// stock leaves the market alone). `all_live`: whether each of the first `n` lanes is still going.
 #[inline(never)]
 #[allow(clippy::too_many_arguments)]
 fn clear_all<'m>(
     simd: Simd,
     model: &'m Model,
     linear: Option<Linear>,
-    n: usize,
+    (n, all_live): (usize, bool),
     shocks: &ShockColumns,
     s: &mut Scratch,
     out: &mut Columns,
     markets: &mut Vec<Clearing<'m>>,
 ) {
     let n = n.min(LANES);
-    let all_live = s.live[..n].iter().all(|&x| x);
     if let (true, Some(demand)) = (all_live, linear) {
         let terms = LaneTerms {
             demand,
