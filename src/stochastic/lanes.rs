@@ -1,9 +1,10 @@
 //! The Monte Carlo's fold of one model over the lanes of a chunk (lane l = the chunk's l-th
-//! replication), one period at a time, reading the period's records column by column
-//! ([`Columns`]).
+//! replication), a block of [`FOLD_BLOCK`] periods at a time, reading the periods' records column
+//! by column ([`Columns`]).
 //!
-//! Every accumulator is an array over the lanes (structure of arrays), each period's work is a few
-//! loops of the same arithmetic over every lane with the run's options matched once outside them,
+//! Every accumulator is an array over the lanes (structure of arrays), each block's work is a few
+//! loops over every lane (the block's periods inside each, in order) with the run's options
+//! matched once outside them,
 //! and counts are integer arrays: the loops have no branch per lane, so the compiler can run them
 //! in vector registers. Per lane the additions come in period order, as a fold of one replication
 //! would make them, so every lane's sums have the bits of that fold. Lanes at and above the chunk's
@@ -78,7 +79,7 @@ impl LaneSums {
 /// were the fold's cost).
 pub(crate) const FOLD_BLOCK: usize = 4;
 
-/// The replications of one model in a chunk, folded period by period over the lanes.
+/// The replications of one model in a chunk, folded over the lanes a block of periods at a time.
 #[derive(Debug, Clone)]
 pub(crate) struct LaneFold {
     /// periods folded (the same in every lane whose path has not ended)
