@@ -1144,8 +1144,6 @@ pub struct ReplicationFailed {
 
 /// What a chunk of replications hands back, per policy.
 struct ChunkPolicy {
-    /// the chunk's first replication
-    from: usize,
     /// replications folded
     n: usize,
     pooled: Pooled,
@@ -1611,7 +1609,6 @@ impl<M: PathModel> Context<'_, M> {
             .models
             .iter()
             .map(|_| ChunkPolicy {
-                from,
                 n,
                 pooled: Pooled::new(s.steady.price, s.steady.quantity),
                 sums: vec![[0.0; 3]; periods],
@@ -1693,7 +1690,7 @@ impl<M: PathModel> Context<'_, M> {
                 let block = &block[..=j];
                 fold.add(block, watch);
                 for (j, cols) in block.iter().enumerate() {
-                    self.keep_period(first + j, cols, fold, j, acc);
+                    self.keep_period(from, first + j, cols, fold, j, acc);
                 }
             }
         }
@@ -1734,11 +1731,12 @@ impl<M: PathModel> Context<'_, M> {
         Ok((out, paired))
     }
 
-    /// What a chunk keeps of period `t` of one model once it is folded (`cols` its columns,
-    /// `j` its place in the fold's block): the per-period sums, the season outlays and the fan
-    /// values of the leading replications, the paired price paths.
+    /// What the chunk from replication `from` keeps of period `t` of one model once it is folded
+    /// (`cols` its columns, `j` its place in the fold's block): the per-period sums, the season
+    /// outlays and the fan values of the leading replications, the paired price paths.
     fn keep_period(
         &self,
+        from: usize,
         t: usize,
         cols: &Columns,
         fold: &LaneFold,
@@ -1757,10 +1755,10 @@ impl<M: PathModel> Context<'_, M> {
         let series_sums = &mut acc.series_sums[t * kinds..(t + 1) * kinds];
         period.add_all(&mut acc.sums[t], cols, self.series, series_sums);
         // the season outlays of the leading replications (within budget)
-        if acc.from < self.season_reps {
+        if from < self.season_reps {
             acc.season_buf.extend_from_slice(&cols.fiscal_cost[..n]);
         }
-        if acc.from < self.series_reps {
+        if from < self.series_reps {
             for (kept, which) in acc.series.iter_mut().zip(self.series) {
                 kept.extend_from_slice(&which.column(cols)[..n]);
             }
