@@ -214,10 +214,23 @@ struct Wanted {
 /// [`order_statistics`] (offset 0) by radix select on the values' [`RadixKey`]s: the bits shared by
 /// every value are skipped (an OR and an AND of all keys), the next 8 or 11 bits of each key give its
 /// bucket, one pass counts the buckets, and one more gathers only the values of the buckets that hold
-/// a wanted rank; each of those is selected in the same way (all its values equal: done; short:
-/// nested selection). All the ranks share the passes. Exact: the same values as sorting. Rank r of
+/// a wanted rank; each of those is selected in the same way (all its values equal: done; at least
+/// half of them equal to the first: split about it, [`split_about_first`]; short: nested
+/// selection). All the ranks share the passes. Exact: the same values as sorting. Rank r of
 /// `v` is rank `r + offset` of the whole list, as in [`order_statistics`].
 fn radix_order_statistics<T: RadixKey>(v: &mut [T], offset: usize, ranks: &[usize], out: &mut [T]) {
+    radix_select(v, offset, ranks, out, false);
+}
+
+/// [`radix_order_statistics`] of a list that is `bunched` (a bucket that held more than half of
+/// the list it came from) or not; only a bunched list is checked for a value held by half of it.
+fn radix_select<T: RadixKey>(
+    v: &mut [T],
+    offset: usize,
+    ranks: &[usize],
+    out: &mut [T],
+    bunched: bool,
+) {
     if ranks.is_empty() {
         return;
     }
@@ -238,17 +251,54 @@ fn radix_order_statistics<T: RadixKey>(v: &mut [T], offset: usize, ranks: &[usiz
         out.fill(v[0]);
         return;
     }
+    let first = v[0].bits();
+    let same = if bunched {
+        v.iter().filter(|x| x.bits() == first).count()
+    } else {
+        0
+    };
+    if bunched && 2 * same >= v.len() {
+        // at least half the values are the first one (a stock column at its capacity, say): split
+        // the rest about it, not bucket after bucket that keeps most of the list
+        split_about_first(v, offset, same, ranks, out);
+        return;
+    }
     let shift = differ.leading_zeros();
     if v.len() < RADIX_WIDE_FROM {
-        radix_pass::<T, 8, 256>(v, shift, offset, ranks, out);
+        radix_pass::<T, 8, 256, 2>(v, shift, offset, ranks, out);
     } else {
-        radix_pass::<T, 11, 2048>(v, shift, offset, ranks, out);
+        radix_pass::<T, 11, 2048, 1>(v, shift, offset, ranks, out);
     }
+}
+
+/// [`radix_order_statistics`] of `v` whose first value is `same` of its values: the values below it
+/// and above it (in key order) are copied out and selected apart, the ranks between them are the
+/// first value. Exact, as sorting.
+fn split_about_first<T: RadixKey>(
+    v: &[T],
+    offset: usize,
+    same: usize,
+    ranks: &[usize],
+    out: &mut [T],
+) {
+    let pivot = v[0];
+    let key = pivot.radix();
+    let mut lower: Vec<T> = v.iter().copied().filter(|x| x.radix() < key).collect();
+    let mut upper: Vec<T> = v.iter().copied().filter(|x| x.radix() > key).collect();
+    let from = offset + lower.len();
+    let to = from + same;
+    let in_lower = ranks.partition_point(|&r| r < from);
+    let in_pivot = ranks.partition_point(|&r| r < to);
+    let (out_lower, rest) = out.split_at_mut(in_lower);
+    let (out_pivot, out_upper) = rest.split_at_mut(in_pivot - in_lower);
+    radix_order_statistics(&mut lower, offset, &ranks[..in_lower], out_lower);
+    out_pivot.fill(pivot);
+    radix_order_statistics(&mut upper, to, &ranks[in_pivot..], out_upper);
 }
 
 /// One pass of [`radix_order_statistics`] on `BITS` bits (`BUCKETS` = 2^`BITS` buckets) below the
 /// first `shift` bits, which every key of `v` shares.
-fn radix_pass<T: RadixKey, const BITS: u32, const BUCKETS: usize>(
+fn radix_pass<T: RadixKey, const BITS: u32, const BUCKETS: usize, const TALLIES: usize>(
     v: &mut [T],
     shift: u32,
     offset: usize,
@@ -263,9 +313,29 @@ fn radix_pass<T: RadixKey, const BITS: u32, const BUCKETS: usize>(
     let flip = if shift == 0 { BUCKETS / 2 } else { 0 };
     // each value's bucket, worked out once for the count and the gather (a loop of shifts alone)
     let buckets: Vec<u16> = v.iter().map(|&x| bucket(x)).collect();
+    // counted in TALLIES tallies, a value in each in turn (a short column bunched in a few
+    // buckets would otherwise wait on the same count again and again), then added up
     let mut counts = [0_u32; BUCKETS];
-    for &b in &buckets {
-        counts[usize::from(b) & (BUCKETS - 1)] += 1;
+    if TALLIES == 1 {
+        for &b in &buckets {
+            counts[usize::from(b) & (BUCKETS - 1)] += 1;
+        }
+    } else {
+        let mut tallies = [[0_u32; BUCKETS]; TALLIES];
+        let mut runs = buckets.chunks_exact(TALLIES);
+        for run in &mut runs {
+            for (tally, &b) in tallies.iter_mut().zip(run) {
+                tally[usize::from(b) & (BUCKETS - 1)] += 1;
+            }
+        }
+        for (tally, &b) in tallies.iter_mut().zip(runs.remainder()) {
+            tally[usize::from(b) & (BUCKETS - 1)] += 1;
+        }
+        for tally in &tallies {
+            for (c, t) in counts.iter_mut().zip(tally) {
+                *c += t;
+            }
+        }
     }
     // the buckets holding wanted ranks, in ascending order; slot[b] = 1 + its place among them
     let mut slot = [0_u8; BUCKETS];
@@ -300,22 +370,65 @@ fn radix_pass<T: RadixKey, const BITS: u32, const BUCKETS: usize>(
         }
         start = end;
     }
-    let mut scratch = vec![v[0]; at];
-    for (&x, &b) in v.iter().zip(&buckets) {
-        let s = slot[usize::from(b) & (BUCKETS - 1)];
-        if s != 0 {
-            let w = &mut wanted[s as usize - 1];
-            scratch[w.next] = x;
-            w.next += 1;
+    let mut scratch = vec![v[0]; at + 1];
+    if 3 * at < v.len() {
+        // a third or less of the values wanted: a branch on it is mostly foreseen
+        for (&x, &b) in v.iter().zip(&buckets) {
+            let s = slot[usize::from(b) & (BUCKETS - 1)];
+            if s != 0 {
+                let w = &mut wanted[s as usize - 1];
+                scratch[w.next] = x;
+                w.next += 1;
+            }
         }
+    } else {
+        gather_both_ways(v, &buckets, &slot, &wanted, &mut scratch);
     }
     for w in &wanted {
-        radix_order_statistics(
+        radix_select(
             &mut scratch[w.at..w.at + w.len],
             w.start,
             &ranks[w.ranks.clone()],
             &mut out[w.ranks.clone()],
+            2 * w.len > v.len(),
         );
+    }
+}
+
+/// The gather of [`radix_pass`] when many values are wanted, without a branch on whether a value is
+/// (it is taken or not at random, about as often as not, in a column bunched in a few buckets):
+/// every value is written where its slot's cursor points, and only a wanted bucket's cursor moves
+/// on; slot 0 (the buckets not wanted) writes to one place past the wanted values. Two cursors a
+/// bucket, one filling it from the front with the values at even places, one from the back with
+/// those at odd places (two chains of cursor updates, not one); they meet where its values end.
+fn gather_both_ways<T: Copy, const BUCKETS: usize>(
+    v: &[T],
+    buckets: &[u16],
+    slot: &[u8; BUCKETS],
+    wanted: &[Wanted],
+    scratch: &mut [T],
+) {
+    let sink = scratch.len() - 1;
+    let mut front = [sink; 256];
+    let mut back = [sink; 256];
+    for ((f, b), w) in front[1..].iter_mut().zip(&mut back[1..]).zip(wanted) {
+        *f = w.at;
+        *b = w.at + w.len - 1;
+    }
+    let slot_of = |b: u16| usize::from(slot[usize::from(b) & (BUCKETS - 1)]);
+    let mut pairs = v.chunks_exact(2).zip(buckets.chunks_exact(2));
+    for (x, b) in &mut pairs {
+        let (s, t) = (slot_of(b[0]), slot_of(b[1]));
+        let c = front[s];
+        scratch[c] = x[0];
+        front[s] = c + usize::from(s != 0);
+        let d = back[t];
+        scratch[d] = x[1];
+        back[t] = d.wrapping_sub(usize::from(t != 0));
+    }
+    if v.len() % 2 == 1 {
+        let s = slot_of(buckets[v.len() - 1]);
+        scratch[front[s]] = v[v.len() - 1];
     }
 }
 
@@ -498,6 +611,41 @@ mod tests {
                 .collect(),
             (0..20_000)
                 .map(|i| if i % 10 < 8 { 0.0 } else { next() })
+                .collect(),
+            // a stock column mostly at its capacity, the rest on both sides of it (the value held
+            // most is first in the list, and not first)
+            (0..1000)
+                .map(|i| if i % 10 < 9 { 60.0 } else { 120.0 * next() })
+                .collect(),
+            (0..9000)
+                .map(|i| if i % 7 < 4 { 60.0 } else { 120.0 * next() })
+                .rev()
+                .collect(),
+            (0..600)
+                .map(|i| if i % 2 == 0 { -0.0 } else { next() - 0.5 })
+                .collect(),
+            // prices bunched far inside a wide range (a few extreme ones): nearly every value in
+            // the buckets wanted (the gather without a branch), odd and even lengths
+            (0..1001)
+                .map(|i| match i % 250 {
+                    0 => 1e6 * next(),
+                    1 => -1e6 * next(),
+                    _ => 210.0 + next(),
+                })
+                .collect(),
+            (0..4000)
+                .map(|i| match i % 400 {
+                    0 => 1e9,
+                    _ => 210.0 + next(),
+                })
+                .collect(),
+            // mostly one value inside a wide range: its bucket is bunched, then split about it
+            (0..3001)
+                .map(|i| match i % 10 {
+                    0 => 1e6 * next(),
+                    1 => -1e6 * next(),
+                    _ => 60.0,
+                })
                 .collect(),
             (0..20_000)
                 .map(|i| match i % 4 {
