@@ -1,7 +1,8 @@
 //! Selection of order statistics for quantiles (issue 22): nested comparison selection
 //! (`select_nth_unstable` on the order keys) against radix select, by list length, on the kind of
 //! lists the Monte Carlo summarises: a spread of prices, prices with many ties, a list with ±0, ±∞
-//! and extremes, and a column mostly of one value. Each list asks for the six order statistics of
+//! and extremes, a column mostly of one value, and prices bunched in a narrow band with a few
+//! extreme seasons. Each list asks for the six order statistics of
 //! the 5 %, 50 % and 95 % type 7 quantiles. `stats::quantiles_of_keys` uses radix select from 512
 //! values up (`RADIX_FROM`), nested selection below. Run:
 //! `cargo bench --bench quantiles -- --warm-up-time 1 --measurement-time 3`.
@@ -35,12 +36,22 @@ fn lists(n: usize) -> Vec<(&'static str, Vec<i64>)> {
     let mostly_equal: Vec<f64> = (0..n)
         .map(|i| if i % 10 < 9 { 60.0 } else { 60.0 * z().abs() })
         .collect();
+    // a fan column as runs give them: prices bunched in a narrow band, a few extreme seasons
+    // stretching the range (most values then fall in the few buckets that hold the wanted ranks)
+    let bunched: Vec<f64> = (0..n)
+        .map(|i| match i % 250 {
+            0 => 1e4 * z().abs(),
+            1 => 1.0 + z().abs(),
+            _ => 210.0 + 3.0 * z(),
+        })
+        .collect();
     let keys = |v: &[f64]| v.iter().map(|&x| order_key(x)).collect::<Vec<i64>>();
     vec![
         ("spread", keys(&spread)),
         ("ties", keys(&ties)),
         ("specials", keys(&specials)),
         ("mostly_equal", keys(&mostly_equal)),
+        ("bunched", keys(&bunched)),
     ]
 }
 
