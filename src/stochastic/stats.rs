@@ -214,9 +214,9 @@ struct Wanted {
 /// [`order_statistics`] (offset 0) by radix select on the values' [`RadixKey`]s: the bits shared by
 /// every value are skipped (an OR and an AND of all keys), the next 8 or 11 bits of each key give its
 /// bucket, one pass counts the buckets, and one more gathers only the values of the buckets that hold
-/// a wanted rank; each of those is selected in the same way (all its values equal: done; at least
-/// half of them equal to the first: split about it, [`split_about_first`]; short: nested
-/// selection). All the ranks share the passes. Exact: the same values as sorting. Rank r of
+/// a wanted rank; each of those is selected in the same way (all its values equal: done; a bucket
+/// that held more than half its list and is at least half its first value: split about that value,
+/// [`split_about_first`]; short: nested selection). All the ranks share the passes. Exact: the same values as sorting. Rank r of
 /// `v` is rank `r + offset` of the whole list, as in [`order_statistics`].
 fn radix_order_statistics<T: RadixKey>(v: &mut [T], offset: usize, ranks: &[usize], out: &mut [T]) {
     radix_select(v, offset, ranks, out, false);
@@ -251,17 +251,15 @@ fn radix_select<T: RadixKey>(
         out.fill(v[0]);
         return;
     }
-    let first = v[0].bits();
-    let same = if bunched {
-        v.iter().filter(|x| x.bits() == first).count()
-    } else {
-        0
-    };
-    if bunched && 2 * same >= v.len() {
-        // at least half the values are the first one (a stock column at its capacity, say): split
-        // the rest about it, not bucket after bucket that keeps most of the list
-        split_about_first(v, offset, same, ranks, out);
-        return;
+    if bunched {
+        let first = v[0].bits();
+        let same = v.iter().filter(|x| x.bits() == first).count();
+        if 2 * same >= v.len() {
+            // at least half the values are the first one (a stock column at its capacity, say):
+            // split the rest about it, not bucket after bucket that keeps most of the list
+            split_about_first(v, offset, same, ranks, out);
+            return;
+        }
     }
     let shift = differ.leading_zeros();
     if v.len() < RADIX_WIDE_FROM {
