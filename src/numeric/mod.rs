@@ -3,6 +3,7 @@
 //! quadrature nodes, monotone cubic interpolation ([`interp`]), and the CPU check the vector
 //! copies of the Monte Carlo's loops choose by ([`simd`]).
 
+pub mod exp;
 pub mod interp;
 
 use nalgebra::{DMatrix, SymmetricEigen};

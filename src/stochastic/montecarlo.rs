@@ -19,7 +19,7 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 use rayon::prelude::*;
 use serde::Serialize;
 
-use super::draw_shocks_with;
+use super::draw_shock_columns;
 use super::lanes::{LaneFold, Lanes, FOLD_BLOCK};
 use super::stats::{order_key, quantiles_of_keys, ShiftedSums, Summary};
 use crate::engine::{Columns, Diverged, LaneStepper, Model, PathModel, PeriodRecord, ShockColumns};
@@ -1648,11 +1648,7 @@ impl<M: PathModel> Context<'_, M> {
         // every replication's shocks, drawn once and handed to every model: period t's shocks of
         // every lane are one set of columns, each lane's drawn straight into its places
         let mut shocks = vec![ShockColumns::default(); periods];
-        for lane in 0..n {
-            draw_shocks_with(s, (from + lane) as u64, periods, |t, shock| {
-                shocks[t].set(lane, shock)
-            });
-        }
+        draw_shock_columns(s, from as u64, n, &mut shocks);
         let mut lanes: Vec<M::Lanes<'_>> = self.models.iter().map(|m| m.start_lanes(n)).collect();
         // each model's columns of the last FOLD_BLOCK periods, folded together
         columns.resize_with(self.models.len() * FOLD_BLOCK, Columns::default);

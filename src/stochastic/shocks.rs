@@ -3,7 +3,8 @@ use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
 use rand_distr::StandardNormal;
 
-use crate::engine::PeriodShock;
+use crate::engine::{PeriodShock, ShockColumns};
+use crate::numeric::exp::exp_in_place;
 use crate::scenario::{Scenario, ShockSpec};
 use crate::trade::Trade;
 
@@ -66,15 +67,16 @@ struct WorldStream {
 }
 
 impl WorldStream {
+    /// The log of the next period's factor (its exp is the factor).
     #[inline]
-    fn next_factor(&mut self) -> f64 {
+    fn next_log_factor(&mut self) -> f64 {
         let z: f64 = self.rng.sample(StandardNormal);
         let x = match self.x {
             None => self.s * z,
             Some(prev) => self.rho * prev + self.s * self.innovation * z,
         };
         self.x = Some(x);
-        (x - 0.5 * self.s * self.s).exp()
+        x - 0.5 * self.s * self.s
     }
 }
 
@@ -124,13 +126,30 @@ impl ShockStream {
     /// The next period's shocks.
     #[inline]
     pub fn next_shock(&mut self) -> PeriodShock {
+        let mut shock = self.next_logs();
+        shock.yield_factor = match self.yields {
+            Some(_) => shock.yield_factor.exp(),
+            None => 1.0,
+        };
+        shock.world_factor = match self.world {
+            Some(_) => shock.world_factor.exp(),
+            None => 1.0,
+        };
+        shock
+    }
+
+    /// The next period's shocks with the yield factor and the world price factor as their logs
+    /// (0 for a kind the market does not have): [`ShockStream::next_shock`] is this with their
+    /// exps taken, the Monte Carlo takes them a column of replications at a time.
+    #[inline]
+    fn next_logs(&mut self) -> PeriodShock {
         let s = &self.spec;
         let yield_factor = match &mut self.yields {
             Some(rng) => {
                 let z: f64 = rng.sample(StandardNormal);
-                (self.sigma * z - 0.5 * self.sigma * self.sigma).exp()
+                self.sigma * z - 0.5 * self.sigma * self.sigma
             }
-            None => 1.0,
+            None => 0.0,
         };
         let supply = match &mut self.supply {
             Some(rng) => s.supply_sd * rng.sample::<f64, _>(StandardNormal),
@@ -145,8 +164,8 @@ impl ShockStream {
             supply,
             demand: self.demand,
             world_factor: match &mut self.world {
-                Some(w) => w.next_factor(),
-                None => 1.0,
+                Some(w) => w.next_log_factor(),
+                None => 0.0,
             },
         }
     }
@@ -165,27 +184,48 @@ pub fn single_path_shocks(scenario: &Scenario) -> Vec<PeriodShock> {
 /// shocks, else the replication's own stream drawn in period order (the same values as
 /// [`single_path_shocks`] for replication 0).
 pub fn draw_shocks(scenario: &Scenario, replication: u64, into: &mut [PeriodShock]) {
-    draw_shocks_with(scenario, replication, into.len(), |t, shock| {
-        into[t] = *shock
-    });
-}
-
-/// [`draw_shocks`] of `periods` periods handed to `put` (period, shock) in period order: the Monte
-/// Carlo draws each replication's shocks once, straight into its lane of the chunk's shock
-/// columns, and hands them to every model of the replication.
-pub(crate) fn draw_shocks_with(
-    scenario: &Scenario,
-    replication: u64,
-    periods: usize,
-    mut put: impl FnMut(usize, &PeriodShock),
-) {
     if scenario.is_deterministic() {
-        (0..periods).for_each(|t| put(t, &PeriodShock::NONE));
+        into.fill(PeriodShock::NONE);
         return;
     }
     let mut stream = ShockStream::for_scenario(scenario, replication);
-    for t in 0..periods {
-        put(t, &stream.next_shock());
+    for shock in into {
+        *shock = stream.next_shock();
+    }
+}
+
+/// [`draw_shocks`] of replications `from`, `from` + 1, … (one a lane, as many as `columns` has
+/// lanes in use: `lanes`) into `columns` (one per period): the Monte Carlo draws each
+/// replication's shocks once, straight into its lane, and hands them to every model of the
+/// replication. The factors' exps are taken a period's column at a time
+/// ([`exp_in_place`]: the bits of `f64::exp`, so the same values as [`draw_shocks`]).
+pub(crate) fn draw_shock_columns(
+    scenario: &Scenario,
+    from: u64,
+    lanes: usize,
+    columns: &mut [ShockColumns],
+) {
+    if scenario.is_deterministic() {
+        columns.fill(ShockColumns::default());
+        return;
+    }
+    let mut kinds = (false, false);
+    for lane in 0..lanes {
+        let mut stream = ShockStream::for_scenario(scenario, from + lane as u64);
+        kinds = (stream.yields.is_some(), stream.world.is_some());
+        for c in columns.iter_mut() {
+            c.set(lane, &stream.next_logs());
+        }
+    }
+    let (yields, world) = kinds;
+    for c in columns {
+        for (has, factor) in [(yields, &mut c.yield_factor), (world, &mut c.world_factor)] {
+            if has {
+                exp_in_place(&mut factor[..lanes]);
+            } else {
+                factor[..lanes].fill(1.0);
+            }
+        }
     }
 }
 
