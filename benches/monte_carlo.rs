@@ -16,7 +16,9 @@ use furrow::engine::{
 use furrow::policies::file::policy_from_table;
 use furrow::policies::PolicySpec;
 use furrow::scenario::{market_from_table, parse_toml, Scenario};
-use furrow::stochastic::{run_monte_carlo, NoProgress, PathVariable, ShockStream};
+use furrow::stochastic::{
+    draw_shock_columns, run_monte_carlo, NoProgress, PathVariable, ShockStream,
+};
 
 const MARKET: &str = r#"
 [market]
@@ -128,6 +130,18 @@ fn steps(c: &mut Criterion) {
                 acc += x.yield_factor + x.demand;
             }
             acc
+        })
+    });
+    // a chunk's draw as the Monte Carlo does it: 64 replications × 100 periods into the shock
+    // columns (the factors' exps a column at a time); throughput in replication-periods
+    g.throughput(Throughput::Elements(64 * 100));
+    g.bench_function("draw_64x100_shock_columns", |b| {
+        let mut columns = vec![ShockColumns::default(); 100];
+        let mut from = 0u64;
+        b.iter(|| {
+            from += 64;
+            draw_shock_columns(&s, from, 64, &mut columns);
+            columns[99].yield_factor[63]
         })
     });
     g.finish();

@@ -15,6 +15,5 @@ pub use montecarlo::{
     PairedChanges, PathVariable, PolicyRuns, Pooled, Progress, ReplicationFailed,
     ReplicationSummary, SeasonPrices, SeriesSummary, Watch,
 };
-pub(crate) use shocks::draw_shock_columns;
-pub use shocks::{draw_shocks, single_path_shocks, ShockStream};
+pub use shocks::{draw_shock_columns, draw_shocks, single_path_shocks, ShockStream};
 pub use stats::{quantiles, ShiftedSums, Summary};

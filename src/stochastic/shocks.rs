@@ -199,7 +199,7 @@ pub fn draw_shocks(scenario: &Scenario, replication: u64, into: &mut [PeriodShoc
 /// replication's shocks once, straight into its lane, and hands them to every model of the
 /// replication. The factors' exps are taken a period's column at a time
 /// ([`exp_in_place`]: the bits of `f64::exp`, so the same values as [`draw_shocks`]).
-pub(crate) fn draw_shock_columns(
+pub fn draw_shock_columns(
     scenario: &Scenario,
     from: u64,
     lanes: usize,
