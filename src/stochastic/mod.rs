@@ -7,6 +7,7 @@
 mod lanes;
 pub mod memory;
 pub mod montecarlo;
+pub mod normals;
 mod shocks;
 pub mod stats;
 

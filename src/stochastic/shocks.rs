@@ -6,6 +6,7 @@ use rand_distr::StandardNormal;
 use crate::engine::{PeriodShock, ShockColumns};
 use crate::numeric::exp::exp_in_place;
 use crate::scenario::{Scenario, ShockSpec};
+use crate::stochastic::normals::NormalDraws;
 use crate::trade::Trade;
 
 /// The shocks of one replication, drawn period by period, each kind of shock from a random stream
@@ -67,10 +68,9 @@ struct WorldStream {
 }
 
 impl WorldStream {
-    /// The log of the next period's factor (its exp is the factor).
+    /// The log of the period's factor after the standard normal `z` (its exp is the factor).
     #[inline]
-    fn next_log_factor(&mut self) -> f64 {
-        let z: f64 = self.rng.sample(StandardNormal);
+    fn log_factor(&mut self, z: f64) -> f64 {
         let x = match self.x {
             None => self.s * z,
             Some(prev) => self.rho * prev + self.s * self.innovation * z,
@@ -78,6 +78,18 @@ impl WorldStream {
         self.x = Some(x);
         x - 0.5 * self.s * self.s
     }
+}
+
+/// The log of the yield factor after the standard normal `z`: σ z − σ²/2.
+#[inline(always)]
+fn yield_log(sigma: f64, z: f64) -> f64 {
+    sigma * z - 0.5 * sigma * sigma
+}
+
+/// The demand shock after last season's `last` and the standard normal `z`: ρ u + σ z.
+#[inline(always)]
+fn demand_shock(spec: &ShockSpec, last: f64, z: f64) -> f64 {
+    spec.demand_persistence * last + spec.demand_sd * z
 }
 
 impl ShockStream {
@@ -143,33 +155,80 @@ impl ShockStream {
     /// exps taken, the Monte Carlo takes them a column of replications at a time.
     #[inline]
     fn next_logs(&mut self) -> PeriodShock {
+        let z = |rng: &mut ChaCha8Rng| -> f64 { rng.sample(StandardNormal) };
         let s = &self.spec;
         let yield_factor = match &mut self.yields {
-            Some(rng) => {
-                let z: f64 = rng.sample(StandardNormal);
-                self.sigma * z - 0.5 * self.sigma * self.sigma
-            }
+            Some(rng) => yield_log(self.sigma, z(rng)),
             None => 0.0,
         };
         let supply = match &mut self.supply {
-            Some(rng) => s.supply_sd * rng.sample::<f64, _>(StandardNormal),
+            Some(rng) => s.supply_sd * z(rng),
             None => 0.0,
         };
         if let Some(rng) = &mut self.demand_rng {
-            let z: f64 = rng.sample(StandardNormal);
-            self.demand = s.demand_persistence * self.demand + s.demand_sd * z;
+            self.demand = demand_shock(s, self.demand, z(rng));
         }
         PeriodShock {
             yield_factor,
             supply,
             demand: self.demand,
             world_factor: match &mut self.world {
-                Some(w) => w.next_log_factor(),
+                Some(w) => {
+                    let z = z(&mut w.rng);
+                    w.log_factor(z)
+                }
                 None => 0.0,
             },
         }
     }
+
+    /// Every period's shocks of this stream as [`ShockStream::next_logs`] gives them, kind by
+    /// kind into `logs` (`logs[k][t]`: kind k — yield, supply, demand, world price — period t),
+    /// each kind's normals drawn from its own stream at once (`normals`: the values drawn one by
+    /// one). A kind the market does not have is left as it is.
+    fn logs_by_kind(&mut self, normals: &mut NormalDraws, logs: [&mut [f64]; KINDS]) {
+        let s = &self.spec;
+        let [yields, supply, demand, world] = logs;
+        if let Some(rng) = &mut self.yields {
+            normals.draw(rng, yields);
+            for x in yields {
+                *x = yield_log(self.sigma, *x);
+            }
+        }
+        if let Some(rng) = &mut self.supply {
+            normals.draw(rng, supply);
+            for x in supply {
+                *x *= s.supply_sd;
+            }
+        }
+        if let Some(rng) = &mut self.demand_rng {
+            normals.draw(rng, demand);
+            for x in demand {
+                self.demand = demand_shock(s, self.demand, *x);
+                *x = self.demand;
+            }
+        }
+        if let Some(w) = &mut self.world {
+            normals.draw(&mut w.rng, world);
+            for x in world {
+                *x = w.log_factor(*x);
+            }
+        }
+    }
+
+    /// Which kinds of shock the stream draws: yield, supply, demand, world price.
+    fn kinds(&self) -> [bool; KINDS] {
+        [
+            self.yields.is_some(),
+            self.supply.is_some(),
+            self.demand_rng.is_some(),
+            self.world.is_some(),
+        ]
+    }
 }
+
+/// The kinds of shock: yield, supply, demand, world price.
+const KINDS: usize = 4;
 
 /// The shocks of a single-path run: none for a deterministic market, else replication 0's stream.
 pub fn single_path_shocks(scenario: &Scenario) -> Vec<PeriodShock> {
@@ -196,9 +255,11 @@ pub fn draw_shocks(scenario: &Scenario, replication: u64, into: &mut [PeriodShoc
 
 /// [`draw_shocks`] of replications `from`, `from` + 1, … (one a lane, as many as `columns` has
 /// lanes in use: `lanes`) into `columns` (one per period): the Monte Carlo draws each
-/// replication's shocks once, straight into its lane, and hands them to every model of the
-/// replication. The factors' exps are taken a period's column at a time
-/// ([`exp_in_place`]: the bits of `f64::exp`, so the same values as [`draw_shocks`]).
+/// replication's shocks once into its lane and hands them to every model of the replication.
+/// Each kind's normals of a replication are drawn at once ([`NormalDraws`]), eight replications'
+/// periods are written to the columns together (a cache line of a column), and the factors' exps
+/// are taken a period's column at a time ([`exp_in_place`]); each step gives the bits of its
+/// one-by-one counterpart, so the values are those of [`draw_shocks`].
 pub fn draw_shock_columns(
     scenario: &Scenario,
     from: u64,
@@ -209,21 +270,60 @@ pub fn draw_shock_columns(
         columns.fill(ShockColumns::default());
         return;
     }
-    let mut kinds = (false, false);
-    for lane in 0..lanes {
-        let mut stream = ShockStream::for_scenario(scenario, from + lane as u64);
-        kinds = (stream.yields.is_some(), stream.world.is_some());
-        for c in columns.iter_mut() {
-            c.set(lane, &stream.next_logs());
+    // eight lanes (a cache line of a column) drawn into `logs`, then written to the columns
+    const GROUP: usize = 8;
+    let periods = columns.len();
+    let mut logs = vec![0.0; GROUP * KINDS * periods];
+    let mut normals = NormalDraws::new();
+    let mut kinds = [false; KINDS];
+    for first in (0..lanes).step_by(GROUP) {
+        let group = (lanes - first).min(GROUP);
+        for (l, lane_logs) in logs
+            .chunks_exact_mut(KINDS * periods)
+            .take(group)
+            .enumerate()
+        {
+            let mut stream = ShockStream::for_scenario(scenario, from + (first + l) as u64);
+            let mut by_kind = lane_logs.chunks_exact_mut(periods);
+            stream.logs_by_kind(
+                &mut normals,
+                std::array::from_fn(|_| by_kind.next().expect("a kind's periods")),
+            );
+            kinds = stream.kinds();
+        }
+        for (t, c) in columns.iter_mut().enumerate() {
+            let fields = [
+                &mut c.yield_factor,
+                &mut c.supply,
+                &mut c.demand,
+                &mut c.world_factor,
+            ];
+            for (k, (field, has)) in fields.into_iter().zip(kinds).enumerate() {
+                if has {
+                    for (l, x) in field[first..first + group].iter_mut().enumerate() {
+                        *x = logs[(l * KINDS + k) * periods + t];
+                    }
+                }
+            }
         }
     }
-    let (yields, world) = kinds;
+    // the factors from their logs; a kind the market does not have: no shock
+    let none = PeriodShock::NONE;
+    let [yields, supply, demand, world] = kinds;
     for c in columns {
         for (has, factor) in [(yields, &mut c.yield_factor), (world, &mut c.world_factor)] {
             if has {
                 exp_in_place(&mut factor[..lanes]);
             } else {
                 factor[..lanes].fill(1.0);
+            }
+        }
+        for (has, shock, value) in [
+            (supply, &mut c.supply, none.supply),
+            (demand, &mut c.demand, none.demand),
+        ] {
+            if !has {
+                shock[..lanes].fill(value);
             }
         }
     }
