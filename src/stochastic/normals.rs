@@ -100,10 +100,10 @@ impl NormalDraws {
                         break;
                     }
                 }
-                let mut reader = Buffered {
+                let mut reader = Words {
                     words,
                     at: c,
-                    rng: &mut *rng,
+                    after: After::Stream(&mut *rng),
                 };
                 out[t] = reader.sample(StandardNormal);
                 c = reader.at;
@@ -132,21 +132,33 @@ simd_copies! {
     }
 }
 
-/// The words of a stream: those of `words` from `at` on, then the stream's own (`rng` stands just
-/// past `words`) — the words the stream would give from the place of `words[at]`.
-struct Buffered<'a> {
+/// The words of a stream: those of `words` from `at` on, then those of `after`, counting the words
+/// read.
+struct Words<'a> {
     words: &'a [u32],
     at: usize,
-    rng: &'a mut ChaCha8Rng,
+    after: After<'a>,
 }
 
-impl TryRng for Buffered<'_> {
+/// Where [`Words`] reads on past its buffer.
+enum After<'a> {
+    /// The stream the buffer was filled from (standing just past it): the words it would give
+    /// from the place of `words[at]`.
+    Stream(&'a mut ChaCha8Rng),
+    /// The 64-bit word 2⁶³ + 128 again and again (layer 128 with u = 0, which passes the first
+    /// test, so a draw that did not pass on the given words ends on the next; reading the edges).
+    Passing,
+}
+
+impl TryRng for Words<'_> {
     type Error = Infallible;
 
     fn try_next_u32(&mut self) -> Result<u32, Infallible> {
-        let w = match self.words.get(self.at) {
-            Some(&w) => w,
-            None => self.rng.next_u32(),
+        let w = match (self.words.get(self.at), &mut self.after) {
+            (Some(&w), _) => w,
+            (None, After::Stream(rng)) => rng.next_u32(),
+            (None, After::Passing) if self.at.is_multiple_of(2) => 128,
+            (None, After::Passing) => 1 << 31,
         };
         self.at += 1;
         Ok(w)
@@ -162,43 +174,6 @@ impl TryRng for Buffered<'_> {
     fn try_fill_bytes(&mut self, dst: &mut [u8]) -> Result<(), Infallible> {
         // a word a four bytes, little-endian, a last part word taking a whole word (as the
         // stream's own `fill_bytes`)
-        for part in dst.chunks_mut(4) {
-            let w = self.next_u32().to_le_bytes();
-            part.copy_from_slice(&w[..part.len()]);
-        }
-        Ok(())
-    }
-}
-
-/// A stream of given words, counting the words read (reading the layer edges); after them, the
-/// 64-bit word 2⁶³ + 128 again and again (layer 128 with u = 0, which passes the first test, so a
-/// draw that did not pass on the given words ends on the next).
-struct Given {
-    words: Vec<u32>,
-    at: usize,
-}
-
-impl TryRng for Given {
-    type Error = Infallible;
-
-    fn try_next_u32(&mut self) -> Result<u32, Infallible> {
-        let after = if self.at.is_multiple_of(2) {
-            128
-        } else {
-            1 << 31
-        };
-        let w = self.words.get(self.at).copied().unwrap_or(after);
-        self.at += 1;
-        Ok(w)
-    }
-
-    fn try_next_u64(&mut self) -> Result<u64, Infallible> {
-        let lo = self.next_u32();
-        let hi = self.next_u32();
-        Ok((u64::from(hi) << 32) | u64::from(lo))
-    }
-
-    fn try_fill_bytes(&mut self, dst: &mut [u8]) -> Result<(), Infallible> {
         for part in dst.chunks_mut(4) {
             let w = self.next_u32().to_le_bytes();
             part.copy_from_slice(&w[..part.len()]);
@@ -227,9 +202,10 @@ fn read_edges() -> [f64; 257] {
     for (i, edge) in edges.iter_mut().enumerate().take(256) {
         for k in 1..=51_u32 {
             let w = (((1_u64 << 51) | (1_u64 << (51 - k))) << 12) | i as u64;
-            let mut given = Given {
-                words: vec![w as u32, (w >> 32) as u32],
+            let mut given = Words {
+                words: &[w as u32, (w >> 32) as u32],
                 at: 0,
+                after: After::Passing,
             };
             let x: f64 = given.sample(StandardNormal);
             if given.at == 2 {
