@@ -266,7 +266,7 @@ pub fn draw_shock_columns(
     lanes: usize,
     columns: &mut [ShockColumns],
 ) {
-    if scenario.is_deterministic() {
+    if scenario.is_deterministic() || columns.is_empty() {
         columns.fill(ShockColumns::default());
         return;
     }
@@ -284,11 +284,10 @@ pub fn draw_shock_columns(
             .enumerate()
         {
             let mut stream = ShockStream::for_scenario(scenario, from + (first + l) as u64);
-            let mut by_kind = lane_logs.chunks_exact_mut(periods);
-            stream.logs_by_kind(
-                &mut normals,
-                std::array::from_fn(|_| by_kind.next().expect("a kind's periods")),
-            );
+            let (yields, rest) = lane_logs.split_at_mut(periods);
+            let (supply, rest) = rest.split_at_mut(periods);
+            let (demand, world) = rest.split_at_mut(periods);
+            stream.logs_by_kind(&mut normals, [yields, supply, demand, world]);
             kinds = stream.kinds();
         }
         for (t, c) in columns.iter_mut().enumerate() {
