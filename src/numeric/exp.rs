@@ -213,8 +213,8 @@ mod glibc {
         })
     }
 
-    /// Values that reach every table entry, with r across its range, at magnitudes from 2⁻⁵⁰ to
-    /// 500, both signs, and a few outside the main range.
+    /// Values that reach every table entry, with r across its range, at magnitudes from about
+    /// 10⁻¹² to about 210, both signs, and a few outside the main range.
     pub(super) fn probe_values() -> Vec<f64> {
         let step = std::f64::consts::LN_2 / 128.0;
         let mut v: Vec<f64> = (0..4096)
