@@ -239,15 +239,16 @@ mod glibc {
     pub(super) unsafe fn exp_avx2(values: &mut [f64]) {
         let mut quads = values.chunks_exact_mut(4);
         for q in &mut quads {
+            let mut xs = [0.0; 4];
+            xs.copy_from_slice(q);
             // SAFETY: `q` holds four values (unaligned loads and stores)
-            let x = unsafe { _mm256_loadu_pd(q.as_ptr()) };
-            let (y, outside) = exp4(x);
+            let (y, outside) = exp4(unsafe { _mm256_loadu_pd(q.as_ptr()) });
             // SAFETY: as above
             unsafe { _mm256_storeu_pd(q.as_mut_ptr(), y) };
             if outside != 0 {
-                for (l, v) in q.iter_mut().enumerate() {
+                for (l, (v, x)) in q.iter_mut().zip(xs).enumerate() {
                     if outside & (1 << l) != 0 {
-                        *v = x_lane(x, l).exp();
+                        *v = x.exp();
                     }
                 }
             }
@@ -255,16 +256,6 @@ mod glibc {
         for v in quads.into_remainder() {
             *v = v.exp();
         }
-    }
-
-    /// Lane `l` of `x`.
-    #[inline]
-    #[target_feature(enable = "avx2")]
-    fn x_lane(x: __m256d, l: usize) -> f64 {
-        let mut a = [0.0; 4];
-        // SAFETY: `a` holds four values
-        unsafe { _mm256_storeu_pd(a.as_mut_ptr(), x) };
-        a[l]
     }
 
     /// exp of four values by glibc's main path, and the mask of the lanes outside its main range

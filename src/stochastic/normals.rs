@@ -221,18 +221,13 @@ fn read_edges() -> [f64; 257] {
 /// Whether the normals by blocks give `StandardNormal`'s values, and leave the stream where it
 /// does, on 4 096 draws of a fixed stream, in blocks of every size.
 fn probe_agrees(edges: &[f64; 257]) -> bool {
-    let mut by_blocks = ChaCha8Rng::seed_from_u64(0x5eed);
-    let mut one_by_one = by_blocks.clone();
+    let mut blocks = ChaCha8Rng::seed_from_u64(0x5eed);
+    let mut one_by_one = blocks.clone();
     let mut got = vec![0.0; 4096];
     let (mut at, mut len) = (0, 1);
     while at < got.len() {
         let len_here = len.min(got.len() - at);
-        NormalDraws::new().by_blocks(
-            Simd::Plain,
-            edges,
-            &mut by_blocks,
-            &mut got[at..at + len_here],
-        );
+        NormalDraws::new().by_blocks(Simd::Plain, edges, &mut blocks, &mut got[at..at + len_here]);
         at += len_here;
         len += 1;
     }
@@ -246,7 +241,7 @@ fn probe_agrees(edges: &[f64; 257]) -> bool {
         NormalDraws::new().by_blocks(simd(), edges, &mut a, &mut b);
         b == got
     };
-    agree && with_simd && by_blocks.get_word_pos() == one_by_one.get_word_pos()
+    agree && with_simd && blocks.get_word_pos() == one_by_one.get_word_pos()
 }
 
 /// Whether the normals are drawn by blocks on this machine (the layer edges read and the probe

@@ -138,28 +138,11 @@ impl ShockStream {
     /// The next period's shocks.
     #[inline]
     pub fn next_shock(&mut self) -> PeriodShock {
-        let mut shock = self.next_logs();
-        shock.yield_factor = match self.yields {
-            Some(_) => shock.yield_factor.exp(),
-            None => 1.0,
-        };
-        shock.world_factor = match self.world {
-            Some(_) => shock.world_factor.exp(),
-            None => 1.0,
-        };
-        shock
-    }
-
-    /// The next period's shocks with the yield factor and the world price factor as their logs
-    /// (0 for a kind the market does not have): [`ShockStream::next_shock`] is this with their
-    /// exps taken, the Monte Carlo takes them a column of replications at a time.
-    #[inline]
-    fn next_logs(&mut self) -> PeriodShock {
         let z = |rng: &mut ChaCha8Rng| -> f64 { rng.sample(StandardNormal) };
         let s = &self.spec;
         let yield_factor = match &mut self.yields {
-            Some(rng) => yield_log(self.sigma, z(rng)),
-            None => 0.0,
+            Some(rng) => yield_log(self.sigma, z(rng)).exp(),
+            None => 1.0,
         };
         let supply = match &mut self.supply {
             Some(rng) => s.supply_sd * z(rng),
@@ -175,15 +158,16 @@ impl ShockStream {
             world_factor: match &mut self.world {
                 Some(w) => {
                     let z = z(&mut w.rng);
-                    w.log_factor(z)
+                    w.log_factor(z).exp()
                 }
-                None => 0.0,
+                None => 1.0,
             },
         }
     }
 
-    /// Every period's shocks of this stream as [`ShockStream::next_logs`] gives them, kind by
-    /// kind into `logs` (`logs[k][t]`: kind k — yield, supply, demand, world price — period t),
+    /// Every period's shocks of this stream as [`ShockStream::next_shock`] gives them but with the
+    /// yield and world price factors as their logs, kind by kind into `logs` (`logs[k][t]`: kind
+    /// k — yield, supply, demand, world price — period t),
     /// each kind's normals drawn from its own stream at once (`normals`: the values drawn one by
     /// one). A kind the market does not have is left as it is.
     fn logs_by_kind(&mut self, normals: &mut NormalDraws, logs: [&mut [f64]; KINDS]) {
@@ -310,19 +294,16 @@ pub fn draw_shock_columns(
     let none = PeriodShock::NONE;
     let [yields, supply, demand, world] = kinds;
     for c in columns {
-        for (has, factor) in [(yields, &mut c.yield_factor), (world, &mut c.world_factor)] {
-            if has {
-                exp_in_place(&mut factor[..lanes]);
-            } else {
-                factor[..lanes].fill(1.0);
-            }
-        }
-        for (has, shock, value) in [
-            (supply, &mut c.supply, none.supply),
-            (demand, &mut c.demand, none.demand),
+        for (has, shock, factor, value) in [
+            (yields, &mut c.yield_factor, true, none.yield_factor),
+            (supply, &mut c.supply, false, none.supply),
+            (demand, &mut c.demand, false, none.demand),
+            (world, &mut c.world_factor, true, none.world_factor),
         ] {
-            if !has {
-                shock[..lanes].fill(value);
+            match (has, factor) {
+                (true, true) => exp_in_place(&mut shock[..lanes]),
+                (true, false) => {}
+                (false, _) => shock[..lanes].fill(value),
             }
         }
     }
