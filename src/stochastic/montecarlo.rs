@@ -767,20 +767,39 @@ impl SeasonOutlays {
         super::stats::quantiles_above(&mut self.kept.clone(), self.dropped, probs)
     }
 
-    /// Adds outlays; drops the smallest when the kept values reach twice the tail. What is kept
-    /// (the largest values, as a multiset), how many are dropped and so every quantile do not depend
-    /// on the order the outlays come in within one call. After a pruning an outlay at or below the
-    /// floor (the smallest value kept) is dropped at once: it is at or below every kept value, and
-    /// at least `keep` values stay kept, so every quantile from [`SEASON_QUANTILE_FROM`] up still
+    /// The floor of the moment: outlays at or below it are dropped on arrival (`None` before the
+    /// first pruning). It only rises, so a chunk may drop outlays at or below a floor it was handed
+    /// earlier ([`SeasonKeys::push`]) and [`SeasonOutlays::extend_keys`] then keeps what it would
+    /// have kept of the whole list.
+    fn floor(&self) -> Option<i64> {
+        self.floor
+    }
+
+    /// Adds outlays ([`SeasonKeys::push`] at this floor, then [`SeasonOutlays::extend_keys`]).
+    #[cfg(test)]
+    fn extend(&mut self, outlays: &[f64]) {
+        let mut keys = SeasonKeys::default();
+        keys.push(self.floor, outlays);
+        self.extend_keys(keys);
+    }
+
+    /// Adds outlays already cut to their keys above a floor no higher than this one (the keys in
+    /// the order the outlays came, and how many were dropped); drops the smallest when the kept
+    /// values reach twice the tail. What is kept (the largest values, as a multiset), how many are
+    /// dropped and so every quantile do not depend on the order the outlays come in within one
+    /// call, nor on the floor they were cut at. After a pruning an outlay at or below the floor
+    /// (the smallest value kept) is dropped at once: it is at or below every kept value, and at
+    /// least `keep` values stay kept, so every quantile from [`SEASON_QUANTILE_FROM`] up still
     /// reads only kept values (a long run of outlays equal to the floor, such as the zeros of a
     /// policy that never spends, is then counted instead of kept and pruned again and again).
-    fn extend(&mut self, outlays: &[f64]) {
+    fn extend_keys(&mut self, cut: SeasonKeys) {
+        self.dropped += cut.dropped;
         match self.floor {
-            None => self.kept.extend(outlays.iter().map(|&x| order_key(x))),
+            None => self.kept.extend_from_slice(&cut.keys),
             Some(floor) => {
                 let before = self.kept.len();
-                keep_above(crate::numeric::simd(), outlays, floor, &mut self.kept);
-                self.dropped += outlays.len() - (self.kept.len() - before);
+                keep_above(crate::numeric::simd(), &cut.keys, floor, &mut self.kept);
+                self.dropped += cut.keys.len() - (self.kept.len() - before);
             }
         }
         if self.kept.len() >= 2 * self.keep.max(CHUNK) {
@@ -801,36 +820,76 @@ impl SeasonOutlays {
     }
 }
 
+/// Season outlays as a chunk hands them on: the [`order_key`]s of those above the floor it was
+/// given, in the order they came, and how many it dropped.
+#[derive(Debug, Clone, PartialEq, Default)]
+struct SeasonKeys {
+    keys: Vec<i64>,
+    dropped: usize,
+}
+
+impl SeasonKeys {
+    /// Room for `n` keys when there is no floor (every outlay is kept), none when there is one.
+    fn new(floor: Option<i64>, n: usize) -> SeasonKeys {
+        SeasonKeys {
+            keys: Vec::with_capacity(if floor.is_none() { n } else { 0 }),
+            dropped: 0,
+        }
+    }
+
+    /// Adds `outlays`: every key with no floor, else those above it ([`keep_above`]).
+    fn push(&mut self, floor: Option<i64>, outlays: &[f64]) {
+        match floor {
+            None => self.keys.extend(outlays.iter().map(|&x| order_key(x))),
+            Some(floor) => {
+                let before = self.keys.len();
+                keep_above(crate::numeric::simd(), outlays, floor, &mut self.keys);
+                self.dropped += outlays.len() - (self.keys.len() - before);
+            }
+        }
+    }
+}
+
+/// A season outlay or its [`order_key`] already worked out.
+trait OutlayKey: Copy {
+    fn key(self) -> i64;
+}
+
+impl OutlayKey for f64 {
+    #[inline(always)]
+    fn key(self) -> i64 {
+        order_key(self)
+    }
+}
+
+impl OutlayKey for i64 {
+    #[inline(always)]
+    fn key(self) -> i64 {
+        self
+    }
+}
+
 simd_copies! {
-    /// Appends to `kept` the [`order_key`]s of `outlays` above `floor`, block by block: the keys
-    /// worked out and those above the floor counted in one loop each (integer comparisons, no
-    /// branch a value, vectorised in the wider copies), a block with none above only counted
-    /// (a block of outlays equal to the floor, such as a policy's zeros, too), one with all above
-    /// appended whole, and in the others each key moved to a cursor that passes it only when it is
-    /// above the floor (in place: the cursor never passes the key being read).
+    /// Appends to `kept` the [`order_key`]s of `outlays` (values or keys) above `floor`, in
+    /// order, block by block: the keys worked out and a bit set for each one above the floor in one
+    /// loop each (integer comparisons, no branch a value, vectorised in the wider copies), then
+    /// only the keys whose bit is set appended, lowest bit first (a few a block in the tail's runs).
     #[inline(never)]
-    fn keep_above[](outlays: &[f64], floor: i64, kept: &mut Vec<i64>) {
+    fn keep_above[T: OutlayKey](outlays: &[T], floor: i64, kept: &mut Vec<i64>) {
         const BLOCK: usize = 64;
         for block in outlays.chunks(BLOCK) {
             let mut keys = [0i64; BLOCK];
             for (k, &x) in keys.iter_mut().zip(block) {
-                *k = order_key(x);
+                *k = x.key();
             }
-            let keys = &mut keys[..block.len()];
-            let above: usize = keys.iter().map(|&k| usize::from(k > floor)).sum();
-            if above == 0 {
-                continue;
+            let mut above = 0u64;
+            for (i, &k) in keys[..block.len()].iter().enumerate() {
+                above |= u64::from(k > floor) << i;
             }
-            if above < keys.len() {
-                let mut at = 0;
-                for i in 0..keys.len() {
-                    let k = keys[i];
-                    // at ≤ i
-                    keys[at.min(i)] = k;
-                    at += usize::from(k > floor);
-                }
+            while above != 0 {
+                kept.push(keys[above.trailing_zeros() as usize]);
+                above &= above - 1;
             }
-            kept.extend_from_slice(&keys[..above]);
         }
     }
 }
@@ -1165,9 +1224,10 @@ struct ChunkPolicy {
     summaries: Vec<ReplicationSummary>,
     /// the chunk's replication summaries, value by value
     blocks: Option<ChunkBlocks>,
-    /// the season outlays of the chunk's replications, period-major ([t · n + rep in chunk]), when
-    /// within the season budget (their quantiles do not depend on the order: [`SeasonOutlays`])
-    season_buf: Vec<f64>,
+    /// the season outlays of the chunk's replications above the floor it was given, period-major
+    /// (t, then rep in chunk), when within the season budget (their quantiles do not depend on the
+    /// order: [`SeasonOutlays`])
+    outlay_keys: SeasonKeys,
 }
 
 /// Chunks run in parallel at a time: their results are merged in chunk order while the next wave
@@ -1245,7 +1305,7 @@ impl Merged {
         if let Some(b) = c.blocks {
             self.replications.push(b);
         }
-        self.outlays.extend(&c.season_buf);
+        self.outlays.extend_keys(c.outlay_keys);
     }
 }
 
@@ -1381,7 +1441,9 @@ fn run_with_budget<M: PathModel>(
     // waves of chunks run in parallel; each wave's results are merged in chunk order while the
     // next wave runs (rayon::join: the merging thread takes chunks again when it is done; the merge
     // is join's first task, so one thread merges before it runs the next wave and holds one wave)
-    let wave_of = |wave: usize| -> Vec<Option<ChunkOutcome>> {
+    // each model's season floor as the waves before the last one left it (the same at any thread
+    // count: the last wave is merged while this one runs)
+    let wave_of = |wave: usize, floors: Vec<Option<i64>>| -> Vec<Option<ChunkOutcome>> {
         (wave..(wave + WAVE).min(chunks))
             .into_par_iter()
             // each worker's period columns, reused from chunk to chunk
@@ -1389,7 +1451,7 @@ fn run_with_budget<M: PathModel>(
                 if first_failure.load(Ordering::Relaxed) < c {
                     return None; // an earlier chunk failed: this one cannot be the first failure
                 }
-                let out = ctx.chunk(c * CHUNK, ((c + 1) * CHUNK).min(reps), columns);
+                let out = ctx.chunk(c * CHUNK, ((c + 1) * CHUNK).min(reps), columns, &floors);
                 if out.is_err() {
                     first_failure.fetch_min(c, Ordering::Relaxed);
                 }
@@ -1400,7 +1462,9 @@ fn run_with_budget<M: PathModel>(
     let mut pending: Vec<Option<ChunkOutcome>> = Vec::new();
     for wave in (0..chunks).step_by(WAVE) {
         let last = std::mem::take(&mut pending);
-        let (merged_last, outcomes) = rayon::join(|| acc.merge_wave(last), || wave_of(wave));
+        let floors = acc.merged.iter().map(|m| m.outlays.floor()).collect();
+        let (merged_last, outcomes) =
+            rayon::join(|| acc.merge_wave(last), || wave_of(wave, floors));
         merged_last?;
         pending = outcomes;
     }
@@ -1600,15 +1664,23 @@ impl<M: PathModel> Context<'_, M> {
     /// the lanes it steps before they are read, and nothing reads a lane at or above the chunk's
     /// size, so what an earlier chunk left in them is never read (and they are not zeroed again,
     /// 14 KB a period and model).
-    fn chunk(&self, from: usize, to: usize, columns: &mut Vec<Columns>) -> ChunkOutcome {
+    ///
+    /// `season_floors` holds each model's [`SeasonOutlays`] floor as some earlier merge left it:
+    /// the chunk hands on only the season outlays above it.
+    fn chunk(
+        &self,
+        from: usize,
+        to: usize,
+        columns: &mut Vec<Columns>,
+        season_floors: &[Option<i64>],
+    ) -> ChunkOutcome {
         let s = self.scenario;
         let periods = s.run.periods;
         let n = to - from;
         let pairs = !self.pairs.is_empty();
-        let mut out: Vec<ChunkPolicy> = self
-            .models
-            .iter()
-            .map(|_| ChunkPolicy {
+        let floor_of = |k: usize| season_floors.get(k).copied().flatten();
+        let mut out: Vec<ChunkPolicy> = (0..self.models.len())
+            .map(|k| ChunkPolicy {
                 n,
                 pooled: Pooled::new(s.steady.price, s.steady.quantity),
                 sums: vec![[0.0; 3]; periods],
@@ -1637,11 +1709,14 @@ impl<M: PathModel> Context<'_, M> {
                 series_sums: vec![0.0; periods * self.series.len()],
                 summaries: Vec::with_capacity(n),
                 blocks: None,
-                season_buf: if from < self.season_reps {
-                    Vec::with_capacity(n * periods)
-                } else {
-                    Vec::new()
-                },
+                outlay_keys: SeasonKeys::new(
+                    floor_of(k),
+                    if from < self.season_reps {
+                        n * periods
+                    } else {
+                        0
+                    },
+                ),
             })
             .collect();
         let mut paired = vec![PairedChanges::default(); self.pairs.len()];
@@ -1678,15 +1753,16 @@ impl<M: PathModel> Context<'_, M> {
                 continue;
             }
             let first = t - j;
-            for ((block, fold), (acc, watch)) in columns
+            for (k, ((block, fold), (acc, watch))) in columns
                 .chunks_exact(FOLD_BLOCK)
                 .zip(folds.iter_mut())
                 .zip(out.iter_mut().zip(self.watches))
+                .enumerate()
             {
                 let block = &block[..=j];
                 fold.add(block, watch);
                 for (j, cols) in block.iter().enumerate() {
-                    self.keep_period(from, first + j, cols, fold, j, acc);
+                    self.keep_period(from, (first + j, cols), (fold, j), floor_of(k), acc);
                 }
             }
         }
@@ -1729,14 +1805,14 @@ impl<M: PathModel> Context<'_, M> {
 
     /// What the chunk from replication `from` keeps of period `t` of one model once it is folded
     /// (`cols` its columns, `j` its place in the fold's block): the per-period sums, the season
-    /// outlays and the fan values of the leading replications, the paired price paths.
+    /// outlays above `season_floor` and the fan values of the leading replications, the paired
+    /// price paths.
     fn keep_period(
         &self,
         from: usize,
-        t: usize,
-        cols: &Columns,
-        fold: &LaneFold,
-        j: usize,
+        (t, cols): (usize, &Columns),
+        (fold, j): (&LaneFold, usize),
+        season_floor: Option<i64>,
         acc: &mut ChunkPolicy,
     ) {
         let n = acc.n;
@@ -1752,7 +1828,7 @@ impl<M: PathModel> Context<'_, M> {
         period.add_all(&mut acc.sums[t], cols, self.series, series_sums);
         // the season outlays of the leading replications (within budget)
         if from < self.season_reps {
-            acc.season_buf.extend_from_slice(&cols.fiscal_cost[..n]);
+            acc.outlay_keys.push(season_floor, &cols.fiscal_cost[..n]);
         }
         if from < self.series_reps {
             for (kept, which) in acc.series.iter_mut().zip(self.series) {
@@ -1985,8 +2061,16 @@ mod tests {
             // written plainly), so the same multiset as the fast path (a +0 over a floor of −0
             // included, which no quantile tells apart)
             let mut plain = SeasonOutlays::new(whole.len());
+            // parts cut at the floor of two parts before, as a chunk cuts its outlays at the floor
+            // the merges before the last wave left: the same keys, in the same order
+            let mut early = SeasonOutlays::new(whole.len());
+            let mut floors = vec![None, None];
             for part in whole.chunks(700) {
                 tail.extend(part);
+                let mut cut = SeasonKeys::default();
+                cut.push(floors[floors.len() - 2], part);
+                early.extend_keys(cut);
+                floors.push(early.floor());
                 let (floor, before) = (plain.floor, plain.kept.len());
                 let keys = part.iter().map(|&x| order_key(x));
                 plain
@@ -2003,6 +2087,7 @@ mod tests {
                 "kept values differ"
             );
             assert!(tail.dropped > 0, "the test must drop values");
+            assert_eq!(early, tail, "cut early, kept the same");
             assert_eq!(tail.len(), whole.len());
             let probs = [0.95, 0.975, 0.99, 1.0];
             let want = quantiles(&mut whole.clone(), &probs);
@@ -2039,11 +2124,14 @@ mod tests {
             let want: Vec<i64> = (xs.iter().map(|&x| order_key(x)))
                 .filter(|&k| k > floor)
                 .collect();
+            let keys: Vec<i64> = xs.iter().map(|&x| order_key(x)).collect();
             for simd in [Simd::Plain, Simd::Avx2, Simd::Avx512] {
-                let mut got = vec![7];
+                let (mut got, mut from_keys) = (vec![7], vec![7]);
                 keep_above(simd.at_most(), &xs, floor, &mut got);
+                keep_above(simd.at_most(), &keys, floor, &mut from_keys);
                 assert_eq!(got[0], 7, "appended, not replaced");
                 assert_eq!(got[1..], want[..], "{simd:?} floor {floor}");
+                assert_eq!(from_keys, got, "{simd:?} floor {floor}, from keys");
             }
         }
     }
@@ -2084,19 +2172,23 @@ mod tests {
             progress: &NoProgress,
         };
         let bits = |columns: &mut Vec<Columns>| -> Vec<String> {
-            let (out, _) = ctx.chunk(2 * CHUNK, reps, columns).unwrap();
+            // the band's season outlays cut at a floor of +0, the market's uncut
+            let floors = [None, Some(order_key(0.0))];
+            let (out, _) = ctx.chunk(2 * CHUNK, reps, columns, &floors).unwrap();
             out.iter()
                 .map(|c| {
                     format!(
                         "{} {:?} {:?} {:?} {:?} {:?} {:?}",
-                        c.n, c.pooled, c.sums, c.series, c.series_sums, c.blocks, c.season_buf
+                        c.n, c.pooled, c.sums, c.series, c.series_sums, c.blocks, c.outlay_keys
                     )
                 })
                 .collect()
         };
         let fresh = bits(&mut Vec::new());
         let mut used = Vec::new();
-        assert!(ctx.chunk(CHUNK, 2 * CHUNK, &mut used).is_ok());
+        assert!(ctx
+            .chunk(CHUNK, 2 * CHUNK, &mut used, &[None, None])
+            .is_ok());
         assert_eq!(used.len(), models.len() * FOLD_BLOCK);
         assert_eq!(bits(&mut used), fresh);
     }
