@@ -280,6 +280,25 @@ impl BorderTerms {
     }
 }
 
+/// The two sums of the leakage, (−Σ ΔNX_t·a_t, Σ a_t²), over (a_t, ΔNX_t) pairs: the agency's net
+/// purchase and the change in private net exports in season t (the one formula; the storage
+/// report's leakage, and `compare`'s pooled over replications of the period engine).
+pub fn leakage_sums(pairs: impl IntoIterator<Item = (f64, f64)>) -> (f64, f64) {
+    let (mut num, mut den) = (0.0, 0.0);
+    for (bought, dnx) in pairs {
+        leakage_add(&mut num, &mut den, bought, dnx);
+    }
+    (num, den)
+}
+
+/// Adds season t's terms to the sums of [`leakage_sums`]: −ΔNX_t·a_t to `num`, a_t² to `den`
+/// (the Monte Carlo's lanes add them so too, lane by lane).
+#[inline(always)]
+pub fn leakage_add(num: &mut f64, den: &mut f64, bought: f64, dnx: f64) {
+    *num -= dnx * bought;
+    *den += bought * bought;
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

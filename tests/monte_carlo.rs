@@ -536,3 +536,85 @@ fn the_first_failing_replication_past_the_first_waves_is_the_one_a_search_finds(
         );
     }
 }
+
+#[test]
+fn the_leakage_folded_as_the_monte_carlo_runs_is_that_of_each_replications_own_paths() {
+    // an identity (no outside source): for each (policy, its baseline) pair the Monte Carlo keeps
+    // each replication's leakage sums (−Σ ΔNX_t·a_t, Σ a_t²); they must be the sums
+    // `trade::leakage_sums` gives over that replication's two one-path runs on its own
+    // draw, bit for bit (a band, and a band under a rule of its own against the market left alone
+    // under that rule; a border with a varying world price; three chunks, the last one short)
+    let mut s = market(
+        "rule = \"naive\"",
+        "periods = 30\nreplications = 150\nseed = 11\ninitial_price = 80.0",
+        "yield_cv = 0.03\ndemand_sd = 1.0",
+    );
+    let border = market_from_table(
+        "b.toml",
+        parse_toml(
+            "b.toml",
+            "[market]\nname = \"B\"\nquantity_unit = \"kt\"\nprice_unit = \"per t\"\n\
+             [demand]\nform = \"linear\"\nintercept = 200.0\nslope = -2.0\n\
+             [supply]\nform = \"linear\"\nintercept = -40.0\nslope = 1.0\n\
+             [expectations]\nrule = \"naive\"\n[run]\nperiods = 30\n\
+             [trade]\nworld_price = 80.0\nworld_price_cv = 0.03\nimport_cost = 3.0\n\
+             export_cost = 3.0\n",
+        )
+        .unwrap(),
+    )
+    .unwrap();
+    s.trade = border.trade;
+    let band = "[stock]\nbuy_below = 78.0\nsell_above = 82.0\ncapacity = 30.0\n";
+    let mut alone_adaptive = PolicySpec::none();
+    let adaptive = policy(&format!(
+        "[policy]\nname = \"Band, adaptive\"\n{band}[expectations]\nrule = \"adaptive\"\nweight = 0.5\n"
+    ));
+    alone_adaptive.expectations = adaptive.expectations;
+    let specs = vec![
+        PolicySpec::none(),
+        alone_adaptive,
+        policy(&format!("[policy]\nname = \"Band\"\n{band}")),
+        adaptive,
+    ];
+    let models: Vec<Model> = specs.iter().map(|p| Model::new(&s, p)).collect();
+    let pairs = [(2, 0), (3, 1)];
+    let mc = furrow::stochastic::run_models_paired(
+        &s,
+        &specs,
+        &models,
+        &[],
+        &NoProgress,
+        furrow::stochastic::Pairing {
+            prices: &[],
+            leakage: &pairs,
+        },
+    )
+    .unwrap();
+    assert_eq!(mc.leakage.len(), pairs.len());
+    let mut shocks = vec![furrow::engine::PeriodShock::NONE; s.run.periods];
+    let mut traded = 0;
+    for rep in 0..s.run.replications {
+        furrow::stochastic::draw_shocks(&s, rep as u64, &mut shocks);
+        for (i, &(k, b)) in pairs.iter().enumerate() {
+            let run = |m: &Model| m.run(s.run.periods, |t| shocks[t - 1]).unwrap();
+            let (with, without) = (run(&models[k]), run(&models[b]));
+            let nx = |r: &furrow::engine::PeriodRecord| r.exports() - r.imports();
+            let want = furrow::trade::leakage_sums(
+                with.iter()
+                    .zip(&without)
+                    .map(|(a, z)| (a.purchases - a.releases, nx(a) - nx(z))),
+            );
+            let got = mc.leakage[i][rep];
+            assert_eq!(
+                (got.0.to_bits(), got.1.to_bits()),
+                (want.0.to_bits(), want.1.to_bits()),
+                "replication {rep}, pair {i}"
+            );
+            traded += usize::from(want.0 != 0.0);
+        }
+    }
+    assert!(
+        traded > 100,
+        "the test must see the border's trade move ({traded})"
+    );
+}

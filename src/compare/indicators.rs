@@ -475,65 +475,41 @@ pub fn mean_se(values: impl Iterator<Item = f64> + Clone) -> (f64, Option<f64>) 
     )
 }
 
-/// The leakage of `spec`'s agency trades abroad and its Monte Carlo standard error, on the period
-/// engine (None for a market with private storers: the storage report has its own): each
-/// replication's policy path and the path of the market left alone under the same expectation rule
-/// are stepped on the replication's shocks (common random numbers), and with a_t = X_t − R_t the
-/// agency's net purchase at home and ΔNX_t the change in private net exports, the sums
-/// (−Σ ΔNX_t·a_t, Σ a_t²) of `storage::leakage::leakage_sums` (the one formula) are pooled over
-/// replications: leakage = Σ_i num_i / Σ_i den_i (None when the agency never trades), with the
-/// ratio estimator's standard error √(Σ_i (num_i − L·den_i)² / (n(n − 1))) / mean(den) (Cochran
-/// 1977, ch. 6, from memory).
-fn leakage(scenario: &Scenario, spec: &PolicySpec) -> Option<(Option<f64>, Option<f64>)> {
-    use rayon::prelude::*;
-    if scenario.storers.is_some() || !spec.intervenes() {
-        return None;
-    }
-    let mut alone = PolicySpec::none();
-    alone.expectations = spec.expectations;
-    let model = crate::engine::Model::new(scenario, spec);
-    let base = crate::engine::Model::new(scenario, &alone);
-    let periods = scenario.run.periods;
-    let reps = scenario.run.replications.max(1);
-    let sums: Vec<Option<(f64, f64)>> = (0..reps)
-        .into_par_iter()
-        .map(|rep| {
-            let mut shocks = vec![crate::engine::PeriodShock::NONE; periods];
-            crate::stochastic::draw_shocks(scenario, rep as u64, &mut shocks);
-            let with = model.run(periods, |t| shocks[t - 1]).ok()?;
-            let without = base.run(periods, |t| shocks[t - 1]).ok()?;
-            let net_exports = |r: &crate::engine::PeriodRecord| r.exports() - r.imports();
-            Some(crate::storage::leakage::leakage_sums(
-                with.iter()
-                    .zip(&without)
-                    .map(|(a, b)| (a.purchases - a.releases, net_exports(a) - net_exports(b))),
-            ))
-        })
-        .collect();
-    let sums: Vec<(f64, f64)> = sums.into_iter().collect::<Option<_>>()?;
+/// The leakage of a policy's agency trades abroad and its Monte Carlo standard error, from each
+/// replication's sums `sums` = (−Σ ΔNX_t·a_t, Σ a_t²) (`trade::leakage_sums`, the one
+/// formula; folded by the Monte Carlo, [`crate::stochastic::MonteCarlo::leakage`]), where the
+/// policy's path and the path of the market left alone under the same expectation rule are stepped
+/// on the replication's shocks (common random numbers), a_t = X_t − R_t is the agency's net
+/// purchase at home and ΔNX_t the change in private net exports. Pooled over replications:
+/// leakage = Σ_i num_i / Σ_i den_i (None when the agency never trades), with the ratio estimator's
+/// standard error √(Σ_i (num_i − L·den_i)² / (n(n − 1))) / mean(den) (Cochran 1977, ch. 6, from
+/// memory).
+fn leakage(sums: &[(f64, f64)]) -> (Option<f64>, Option<f64>) {
     let n = sums.len() as f64;
     let (num, den) = sums
         .iter()
         .fold((0.0, 0.0), |(a, b), (x, y)| (a + x, b + y));
     if den.is_nan() || den <= 0.0 {
-        return Some((None, None));
+        return (None, None);
     }
     let l = num / den;
     let se = (sums.len() > 1).then(|| {
         let ss: f64 = sums.iter().map(|(x, y)| (x - l * y).powi(2)).sum();
         (ss / (n * (n - 1.0))).sqrt() / (den / n)
     });
-    Some((Some(l), se))
+    (Some(l), se)
 }
 
 /// Builds the indicators of `runs` (under `spec`) against its baseline `base` (the market left alone
-/// under the same expectation rule).
+/// under the same expectation rule); `leakage_sums`: each replication's leakage sums of `spec`
+/// against `base` (None for a policy that does not intervene and for a market with private
+/// storers, whose storage report has its own leakage).
 pub(super) fn build(
     scenario: &Scenario,
     spec: &PolicySpec,
-    runs: &PolicyRuns,
-    base: &PolicyRuns,
+    (runs, base): (&PolicyRuns, &PolicyRuns),
     storage: Option<(&LongRunMeans, &LongRunMeans)>,
+    leakage_sums: Option<&[(f64, f64)]>,
 ) -> Vec<Indicator> {
     let periods = scenario.run.periods.max(1) as f64;
     let lambda = scenario.run.public_funds_cost;
@@ -612,7 +588,7 @@ pub(super) fn build(
     if scenario.trade.is_some() {
         per_real(&mut out, "border_revenue_pv", Real::BorderRevenue);
         per_real(&mut out, "quota_rent_pv", Real::QuotaRent);
-        let (l, se) = leakage(scenario, spec).unwrap_or((None, None));
+        let (l, se) = leakage_sums.map_or((None, None), leakage);
         out.0
             .push(("leakage".into(), l.map_or(Value::Missing, Value::Number)));
         out.se("leakage", se);

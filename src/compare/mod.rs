@@ -22,7 +22,7 @@ use crate::path::{with_models, LongRunModel, WithModels};
 use crate::policies::PolicySpec;
 use crate::scenario::{ExpectationSpec, Scenario};
 use crate::stochastic::{
-    run_models_paired, MonteCarlo, PathVariable, Progress, ReplicationFailed, Summary,
+    run_models_paired, MonteCarlo, Pairing, PathVariable, Progress, ReplicationFailed, Summary,
 };
 use crate::storage::LongRunMeans;
 
@@ -225,8 +225,9 @@ struct Simulate<'a> {
     specs: &'a [PolicySpec],
     progress: &'a dyn Progress,
     /// (column, its baseline) pairs whose paired price changes the household groups need (empty
-    /// without `[[households]]`: the plain Monte Carlo)
-    pairs: &'a [(usize, usize)],
+    /// without `[[households]]`) and whose leakage the border needs (empty without `[trade]`):
+    /// with neither, the plain Monte Carlo
+    pairs: Pairing<'a>,
     fans: Fans,
 }
 
@@ -357,6 +358,17 @@ pub fn compare_with_households(
             }
         }
     }
+    // a market with a border (and no private storers, whose storage report has its own): each
+    // intervening policy's leakage against its baseline, folded as the Monte Carlo runs
+    let mut leakage_pairs: Vec<(usize, usize)> = Vec::new();
+    if scenario.trade.is_some() && scenario.storers.is_none() {
+        for (k, p) in policies.iter().enumerate() {
+            let pair = (slots[k], baseline_of[k]);
+            if p.intervenes() && !leakage_pairs.contains(&pair) {
+                leakage_pairs.push(pair);
+            }
+        }
+    }
     let (mc, long) = with_models(
         scenario,
         &specs,
@@ -364,10 +376,17 @@ pub fn compare_with_households(
             scenario,
             specs: &specs,
             progress,
-            pairs: &pairs,
+            pairs: Pairing {
+                prices: &pairs,
+                leakage: &leakage_pairs,
+            },
             fans,
         },
     )??;
+    let leakage_of = |slot: usize, base: usize| {
+        let i = leakage_pairs.iter().position(|p| *p == (slot, base))?;
+        mc.leakage.get(i).map(Vec::as_slice)
+    };
     let households = (!scenario.households.is_empty()).then(|| {
         let column = |name: &str, slot: usize, base: usize| crate::households::HouseholdColumn {
             policy: name.to_string(),
@@ -417,9 +436,9 @@ pub fn compare_with_households(
             indicators: indicators::build(
                 scenario,
                 &specs[slot],
-                runs,
-                &mc.policies[base],
+                (runs, &mc.policies[base]),
                 long[slot].as_ref().zip(long[base].as_ref()),
+                leakage_of(slot, base),
             ),
             warnings: crate::path::summarise(scenario, &specs[slot], runs),
             fan: Fan {

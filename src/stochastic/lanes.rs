@@ -18,6 +18,7 @@ use crate::engine::{floor_binding, Columns, LANES};
 use crate::numeric::{simd_copies, Simd};
 use crate::policies::flags;
 use crate::scenario::MAX_ALERTS;
+use crate::trade::leakage_add;
 use crate::welfare::{discounted_trade, finish_pv, revenue_of, Crra, PeriodItems, PERIOD_ITEMS};
 
 use super::montecarlo::{Pooled, ReplicationSummary, Watch};
@@ -389,6 +390,48 @@ impl LaneFold {
             export_periods: self.export_periods[l],
         };
         (summary, pooled)
+    }
+}
+
+/// The leakage sums of a policy against its baseline on the same shocks, lane by lane
+/// (`trade::leakage_sums` per replication: a_t = X_t − R_t the policy's net purchase,
+/// ΔNX_t the change in private net exports), added a block of periods at a time in period order.
+#[derive(Debug, Clone)]
+pub(crate) struct LaneLeakage {
+    num: Lanes,
+    den: Lanes,
+}
+
+impl LaneLeakage {
+    pub(crate) fn new() -> LaneLeakage {
+        LaneLeakage {
+            num: ZERO,
+            den: ZERO,
+        }
+    }
+
+    /// Adds the periods of `policy`'s block against the same periods of `baseline`'s.
+    pub(crate) fn add(&mut self, policy: &[Columns], baseline: &[Columns]) {
+        // private net exports (0 in a period whose columns carry no trade, as a record's)
+        let net_exports = |c: &Columns, l: usize| {
+            if c.trades {
+                c.trade.exports[l] - c.trade.imports[l]
+            } else {
+                0.0
+            }
+        };
+        for l in 0..LANES {
+            for (c, b) in policy.iter().zip(baseline) {
+                let bought = c.purchases[l] - c.releases[l];
+                let dnx = net_exports(c, l) - net_exports(b, l);
+                leakage_add(&mut self.num[l], &mut self.den[l], bought, dnx);
+            }
+        }
+    }
+
+    /// Lane `lane`'s sums (−Σ ΔNX_t·a_t, Σ a_t²).
+    pub(crate) fn lane(&self, lane: usize) -> (f64, f64) {
+        (self.num[lane], self.den[lane])
     }
 }
 

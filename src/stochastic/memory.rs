@@ -46,12 +46,14 @@ pub struct MemoryEstimate {
 }
 
 /// Bytes per replication per column, at most: every value of the summary held per replication,
-/// the block headers (one per value per chunk, amortised) and the quantile scratch.
+/// the block headers (one per value per chunk, amortised), the quantile scratch and, in a market
+/// with a border, the column's leakage sums (two values).
 pub fn bytes_per_replication_per_column() -> u64 {
     let values = (REALS * size_of::<f64>() + COUNTS * size_of::<u32>()) as u64;
     let headers = ((REALS + COUNTS) as u64 * BLOCK_HEADER_BYTES).div_ceil(CHUNK as u64);
     let quantile_scratch = size_of::<f64>() as u64;
-    values + headers + quantile_scratch
+    let leakage = 2 * size_of::<f64>() as u64;
+    values + headers + quantile_scratch + leakage
 }
 
 /// A chunk's block of one value: its header (an enum around a boxed slice).

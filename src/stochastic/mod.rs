@@ -13,7 +13,7 @@ pub mod stats;
 
 pub use montecarlo::{
     consumer_price, run_models, run_models_paired, run_monte_carlo, MonteCarlo, NoProgress,
-    PairedChanges, PathVariable, PolicyRuns, Pooled, Progress, ReplicationFailed,
+    PairedChanges, Pairing, PathVariable, PolicyRuns, Pooled, Progress, ReplicationFailed,
     ReplicationSummary, SeasonPrices, SeriesSummary, Watch,
 };
 pub use shocks::{draw_shock_columns, draw_shocks, single_path_shocks, ShockStream};

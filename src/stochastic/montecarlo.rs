@@ -20,7 +20,7 @@ use rayon::prelude::*;
 use serde::Serialize;
 
 use super::draw_shock_columns;
-use super::lanes::{LaneFold, Lanes, FOLD_BLOCK};
+use super::lanes::{LaneFold, LaneLeakage, Lanes, FOLD_BLOCK};
 use super::stats::{order_key, quantiles_of_keys, ShiftedSums, Summary};
 use crate::engine::{Columns, Diverged, LaneStepper, Model, PathModel, PeriodRecord, ShockColumns};
 use crate::numeric::simd_copies;
@@ -1056,6 +1056,21 @@ pub struct MonteCarlo {
     /// Per model, the season-by-season price moments across replications (empty unless pairs
     /// were asked for).
     pub season_prices: Vec<SeasonPrices>,
+    /// One entry per leakage pair asked of [`run_models_paired`] ([`Pairing::leakage`]), in that
+    /// order: each replication's leakage sums (−Σ ΔNX_t·a_t, Σ a_t²), in replication order.
+    pub leakage: Vec<Vec<(f64, f64)>>,
+}
+
+/// The pairs (model, its baseline on the same shocks; indices into the models) whose
+/// replication-by-replication comparisons [`run_models_paired`] folds as it runs.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct Pairing<'a> {
+    /// Proportional price changes ([`PairedChanges`]) and every model's season-by-season price
+    /// moments ([`SeasonPrices`]), for the household groups.
+    pub prices: &'a [(usize, usize)],
+    /// The leakage sums of the model's public trades abroad (`trade::leakage_sums`
+    /// per replication), for a market with a border.
+    pub leakage: &'a [(usize, usize)],
 }
 
 /// The price consumers pay in a period: the market price less the consumer payment per unit
@@ -1309,7 +1324,9 @@ impl Merged {
     }
 }
 
-type ChunkOutcome = Result<(Vec<ChunkPolicy>, Vec<PairedChanges>), ReplicationFailed>;
+/// A chunk's results per model, per price pair and per leakage pair (each replication's sums).
+type ChunkOutcome =
+    Result<(Vec<ChunkPolicy>, Vec<PairedChanges>, Vec<Vec<(f64, f64)>>), ReplicationFailed>;
 
 /// Simulates every policy in `policies` over `scenario.run.replications` replications of
 /// `scenario.run.periods` periods under the same shocks, keeping the per-period `series` for quantiles.
@@ -1327,7 +1344,7 @@ pub fn run_monte_carlo(
         scenario,
         policies,
         &models,
-        (series, &[]),
+        (series, Pairing::default()),
         progress,
         SERIES_BUDGET_BYTES,
     )
@@ -1346,16 +1363,17 @@ pub fn run_models<M: PathModel>(
         scenario,
         policies,
         models,
-        (variables, &[]),
+        (variables, Pairing::default()),
         progress,
         SERIES_BUDGET_BYTES,
     )
 }
 
-/// [`run_models`] that also folds, for each pair (model, its baseline) of `pairs` (indices into
-/// `models`), the proportional price changes of the model against the baseline in the same
+/// [`run_models`] that also folds, for each pair (model, its baseline) of `pairs.prices` (indices
+/// into `models`), the proportional price changes of the model against the baseline in the same
 /// replication ([`PairedChanges`]) and every model's season-by-season price moments
-/// ([`SeasonPrices`]); household groups are measured from them (`households`). With no pairs this is
+/// ([`SeasonPrices`]); household groups are measured from them (`households`); and for each pair of
+/// `pairs.leakage` each replication's leakage sums ([`MonteCarlo::leakage`]). With no pairs this is
 /// [`run_models`] exactly.
 pub fn run_models_paired<M: PathModel>(
     scenario: &Scenario,
@@ -1363,7 +1381,7 @@ pub fn run_models_paired<M: PathModel>(
     models: &[M],
     variables: &[PathVariable],
     progress: &dyn Progress,
-    pairs: &[(usize, usize)],
+    pairs: Pairing<'_>,
 ) -> Result<MonteCarlo, ReplicationFailed> {
     run_with_budget(
         scenario,
@@ -1379,10 +1397,11 @@ fn run_with_budget<M: PathModel>(
     scenario: &Scenario,
     policies: &[PolicySpec],
     models: &[M],
-    (series, pairs): (&[PathVariable], &[(usize, usize)]),
+    (series, pairing): (&[PathVariable], Pairing<'_>),
     progress: &dyn Progress,
     budget: usize,
 ) -> Result<MonteCarlo, ReplicationFailed> {
+    let pairs = pairing.prices;
     let reps = scenario.run.replications.max(1);
     let periods = scenario.run.periods;
     let watches: Vec<Watch> = policies
@@ -1409,6 +1428,7 @@ fn run_with_budget<M: PathModel>(
     };
     let ctx = Context {
         pairs,
+        leakage_pairs: pairing.leakage,
         weights: &weights,
         series_reps,
         season_reps,
@@ -1426,6 +1446,11 @@ fn run_with_budget<M: PathModel>(
             .map(|_| Merged::new(periods, series.len(), planned_outlays))
             .collect(),
         paired: vec![PairedChanges::default(); pairs.len()],
+        leakage: pairing
+            .leakage
+            .iter()
+            .map(|_| Vec::with_capacity(reps))
+            .collect(),
         season_prices: if pairs.is_empty() {
             Vec::new()
         } else {
@@ -1438,11 +1463,8 @@ fn run_with_budget<M: PathModel>(
                 .collect()
         },
     };
-    // waves of chunks run in parallel; each wave's results are merged in chunk order while the
-    // next wave runs (rayon::join: the merging thread takes chunks again when it is done; the merge
-    // is join's first task, so one thread merges before it runs the next wave and holds one wave)
-    // each model's season floor as the waves before the last one left it (the same at any thread
-    // count: the last wave is merged while this one runs)
+    // `floors`: each model's season floor as the waves before the last one left it (the same at
+    // any thread count: the last wave is merged while this one runs)
     let wave_of = |wave: usize, floors: Vec<Option<i64>>| -> Vec<Option<ChunkOutcome>> {
         (wave..(wave + WAVE).min(chunks))
             .into_par_iter()
@@ -1459,6 +1481,9 @@ fn run_with_budget<M: PathModel>(
             })
             .collect()
     };
+    // waves of chunks run in parallel; each wave's results are merged in chunk order while the
+    // next wave runs (rayon::join: the merging thread takes chunks again when it is done; the merge
+    // is join's first task, so one thread merges before it runs the next wave and holds one wave)
     let mut pending: Vec<Option<ChunkOutcome>> = Vec::new();
     for wave in (0..chunks).step_by(WAVE) {
         let last = std::mem::take(&mut pending);
@@ -1473,6 +1498,7 @@ fn run_with_budget<M: PathModel>(
         merged,
         paired,
         season_prices,
+        leakage,
     } = acc;
     // the models assembled in parallel (each on its own; collected in model order)
     let policies = merged
@@ -1486,6 +1512,7 @@ fn run_with_budget<M: PathModel>(
         policies,
         paired,
         season_prices,
+        leakage,
     })
 }
 
@@ -1593,6 +1620,8 @@ struct Accumulated {
     merged: Vec<Merged>,
     paired: Vec<PairedChanges>,
     season_prices: Vec<SeasonPrices>,
+    /// per leakage pair, each replication's sums so far, in replication order
+    leakage: Vec<Vec<(f64, f64)>>,
 }
 
 impl Accumulated {
@@ -1607,9 +1636,12 @@ impl Accumulated {
             .collect();
         for o in outcomes {
             match o {
-                Some(Ok((v, p))) => {
+                Some(Ok((v, p, leakage))) => {
                     for (a, b) in self.paired.iter_mut().zip(&p) {
                         a.merge(b);
+                    }
+                    for (all, chunk) in self.leakage.iter_mut().zip(leakage) {
+                        all.extend(chunk);
                     }
                     for (acc, c) in self.season_prices.iter_mut().zip(&v) {
                         acc.n += c.n;
@@ -1638,6 +1670,8 @@ impl Accumulated {
 struct Context<'a, M> {
     /// (model, baseline) pairs whose paired price changes are folded (empty: none)
     pairs: &'a [(usize, usize)],
+    /// (model, baseline) pairs whose leakage sums are kept replication by replication
+    leakage_pairs: &'a [(usize, usize)],
     /// season weights of the paired changes (empty without pairs)
     weights: &'a [f64],
     scenario: &'a Scenario,
@@ -1720,6 +1754,7 @@ impl<M: PathModel> Context<'_, M> {
             })
             .collect();
         let mut paired = vec![PairedChanges::default(); self.pairs.len()];
+        let mut leakage = vec![LaneLeakage::new(); self.leakage_pairs.len()];
         // every replication's shocks, drawn once and handed to every model: period t's shocks of
         // every lane are one set of columns, each lane's drawn straight into its places
         let mut shocks = vec![ShockColumns::default(); periods];
@@ -1765,6 +1800,10 @@ impl<M: PathModel> Context<'_, M> {
                     self.keep_period(from, (first + j, cols), (fold, j), floor_of(k), acc);
                 }
             }
+            let block_of = |k: usize| &columns[k * FOLD_BLOCK..][..=j];
+            for (sums, &(k, b)) in leakage.iter_mut().zip(self.leakage_pairs) {
+                sums.add(block_of(k), block_of(b));
+            }
         }
         let last = periods.saturating_sub(1) % FOLD_BLOCK;
         // replication by replication: the first failing one (lowest replication, then lowest model
@@ -1794,13 +1833,17 @@ impl<M: PathModel> Context<'_, M> {
                 self.pair_up(lane, &mut out, &mut paired);
             }
         }
+        let leakage = leakage
+            .iter()
+            .map(|sums| (0..n).map(|lane| sums.lane(lane)).collect())
+            .collect();
         self.progress.advance(n as u64);
         for c in &mut out {
             c.path = Vec::new(); // the chunk's scratch: not kept with the chunk
             c.blocks = Some(ChunkBlocks::of(&c.summaries));
             c.summaries = Vec::new();
         }
-        Ok((out, paired))
+        Ok((out, paired, leakage))
     }
 
     /// What the chunk from replication `from` keeps of period `t` of one model once it is folded
@@ -1992,7 +2035,7 @@ mod tests {
             &scenario(200),
             &none,
             &models,
-            (&series, &[]),
+            (&series, Pairing::default()),
             &NoProgress,
             1,
         )
@@ -2161,6 +2204,7 @@ mod tests {
         let first_failure = AtomicUsize::new(usize::MAX);
         let ctx = Context {
             pairs: &[],
+            leakage_pairs: &[],
             weights: &[],
             scenario: &s,
             models: &models,
@@ -2174,7 +2218,7 @@ mod tests {
         let bits = |columns: &mut Vec<Columns>| -> Vec<String> {
             // the band's season outlays cut at a floor of +0, the market's uncut
             let floors = [None, Some(order_key(0.0))];
-            let (out, _) = ctx.chunk(2 * CHUNK, reps, columns, &floors).unwrap();
+            let (out, _, _) = ctx.chunk(2 * CHUNK, reps, columns, &floors).unwrap();
             out.iter()
                 .map(|c| {
                     format!(

@@ -25,6 +25,7 @@ use super::simulate::{self, Equilibrium, StoragePeriod};
 use super::{indicator_path, initial_public, solve_bordered, SolveOptions, StorageError};
 use crate::policies::PolicySpec;
 use crate::scenario::Scenario;
+use crate::trade::leakage_sums;
 
 /// Private trade under a storage equilibrium, and a public stock's crowding-out and leakage.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
@@ -94,18 +95,6 @@ pub fn leakage(
         });
     let (num, den) = leakage_sums(pairs);
     (den > 0.0).then(|| num / den)
-}
-
-/// The two sums of the leakage, (−Σ ΔNX_t·a_t, Σ a_t²), over (a_t, ΔNX_t) pairs: the agency's net
-/// purchase and the change in private net exports in season t (the one formula; `compare` pools
-/// them over replications of the period engine).
-pub fn leakage_sums(pairs: impl IntoIterator<Item = (f64, f64)>) -> (f64, f64) {
-    let (mut num, mut den) = (0.0, 0.0);
-    for (bought, dnx) in pairs {
-        num -= dnx * bought;
-        den += bought * bought;
-    }
-    (num, den)
 }
 
 /// The trade report of the solved equilibrium `eq` of `policy` on `scenario` (`None` for a closed
