@@ -61,8 +61,24 @@ storage_cost = 6.0
 loss_rate = 0.02
 "#;
 
+/// The market opened to private trade: a world price varying about the steady state, import and
+/// export parity 20 either side.
+const BORDER: &str = r#"
+[trade]
+world_price = 210.0
+world_price_cv = 0.05
+world_price_persistence = 0.5
+import_cost = 20.0
+export_cost = 20.0
+"#;
+
 fn scenario() -> Scenario {
     market_from_table("bench.toml", parse_toml("bench.toml", MARKET).unwrap()).unwrap()
+}
+
+fn border_scenario() -> Scenario {
+    let text = format!("{MARKET}{BORDER}");
+    market_from_table("bench.toml", parse_toml("bench.toml", &text).unwrap()).unwrap()
 }
 
 fn policy(text: &str) -> PolicySpec {
@@ -271,6 +287,16 @@ fn compare_end_to_end(c: &mut Criterion) {
         b.iter_batched(
             || (),
             |_| compare_indicators(&s, &ps, &NoProgress).unwrap(),
+            BatchSize::PerIteration,
+        )
+    });
+    // the same job on a market with a border (the engine lane by lane, and the leakage of each
+    // policy's trades abroad folded as the replications run)
+    let open = border_scenario();
+    g.bench_function("border_10000x100x5_policies_no_fans", |b| {
+        b.iter_batched(
+            || (),
+            |_| compare_indicators(&open, &ps, &NoProgress).unwrap(),
             BatchSize::PerIteration,
         )
     });
