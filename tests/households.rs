@@ -5,7 +5,7 @@
 mod common;
 
 use common::{bin, stdout_of};
-use furrow::compare::{compare_with_households, Fans};
+use furrow::compare::{compare_with_households, Fans, Households};
 use furrow::engine::{Model, PeriodShock};
 use furrow::households::{HouseholdGroup, HouseholdResult};
 use furrow::policies::file::policy_from_str;
@@ -63,7 +63,8 @@ fn policy(body: &str) -> PolicySpec {
 }
 
 fn run(s: &Scenario, p: &[PolicySpec]) -> (furrow::compare::CompareResult, HouseholdResult) {
-    let (r, h) = compare_with_households(s, p, &NoProgress, Fans::Keep).unwrap();
+    let (r, h) =
+        compare_with_households(s, p, &NoProgress, Fans::Keep, Households::Measure).unwrap();
     (r, h.expect("the market has groups"))
 }
 
@@ -534,4 +535,33 @@ fn check_names_the_groups_as_an_array_of_tables() {
     let out = stdout_of(["check", "examples/veldmark.toml", "--format", "json"]);
     assert!(out.contains("[[households]]"), "{out}");
     assert!(!out.contains(", [households]"), "{out}");
+}
+
+#[test]
+fn measuring_the_groups_changes_no_indicator() {
+    // an identity (no outside source): the groups' paired price paths feed no indicator, so a
+    // comparison that leaves them out has every column's indicators bit for bit (several chunks of
+    // shocked replications; a policy under its own expectation rule, so a behaviour column too)
+    let s = market(
+        "periods = 20\nreplications = 150\nseed = 3\ninitial_price = 100.0",
+        "[shocks]\nyield_cv = 0.05\ndemand_sd = 1.0",
+    );
+    let policies = [
+        policy("[floor]\nprice = 101.0\ninstrument = \"purchase\"\n"),
+        policy(
+            "[stock]\nbuy_below = 98.0\nsell_above = 103.0\ncapacity = 20.0\n\
+             [expectations]\nrule = \"adaptive\"\nweight = 0.5\n",
+        ),
+    ];
+    let with = |h: Households| compare_with_households(&s, &policies, &NoProgress, Fans::Skip, h);
+    let (measured, groups) = with(Households::Measure).unwrap();
+    let (skipped, none) = with(Households::Skip).unwrap();
+    assert!(groups.is_some() && none.is_none());
+    let columns = |r: &furrow::compare::CompareResult| -> Vec<String> {
+        (r.policies.iter().chain([&r.baseline]).chain(&r.behaviour))
+            .map(|p| format!("{} {:?}", p.name, p.indicators))
+            .collect()
+    };
+    assert_eq!(measured.behaviour.len(), 1);
+    assert_eq!(columns(&measured), columns(&skipped));
 }

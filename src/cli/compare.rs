@@ -2,7 +2,7 @@
 //! left alone under the same shocks.
 
 use clap::Args;
-use furrow::compare::{compare_with_households, render, Fans};
+use furrow::compare::{compare_with_households, render, Fans, Households};
 
 use super::common::{check_memory, install_progress, load_policy, progress_for, say, CommonArgs};
 use super::figures;
@@ -68,7 +68,12 @@ pub fn execute(args: &CompareArgs) -> anyhow::Result<()> {
         fans.series().len(),
     )?;
     let bar = progress_for(&scenario, policies.len() + 1);
-    let result = compare_with_households(&scenario, &policies, bar.observer(), fans);
+    // the household groups only when they are shown
+    let households = match args.households {
+        true => Households::Measure,
+        false => Households::Skip,
+    };
+    let result = compare_with_households(&scenario, &policies, bar.observer(), fans, households);
     bar.finish();
     let (result, households) = result?;
     for column in &result.policies {
@@ -84,7 +89,7 @@ pub fn execute(args: &CompareArgs) -> anyhow::Result<()> {
     }
     args.common.emit(&render::render_with_households(
         &result,
-        households.as_ref().filter(|_| args.households),
+        households.as_ref(),
         args.common.format,
         args.layout,
     ))

@@ -139,7 +139,13 @@ fn run_compare(
     let fans = furrow::compare::Fans::Keep;
     check_memory("report", scenario, specs.len() + 1, fans.series().len())?;
     let bar = progress_for(scenario, specs.len() + 1);
-    let result = furrow::compare::compare_with_households(scenario, &specs, bar.observer(), fans);
+    let result = furrow::compare::compare_with_households(
+        scenario,
+        &specs,
+        bar.observer(),
+        fans,
+        furrow::compare::Households::Measure,
+    );
     bar.finish();
     Ok(result?)
 }

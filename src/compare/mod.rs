@@ -255,6 +255,20 @@ impl Fans {
     }
 }
 
+/// Whether a comparison measures the household groups of a market with `[[households]]`
+/// (`households::measure`: each column against its baseline replication by replication). The
+/// Monte Carlo then also keeps every replication's price paths and folds their changes, a quarter
+/// of the run's time on the demo market; no indicator reads them, so both settings give the same
+/// indicators, bit for bit.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Households {
+    /// Measure the groups (`compare --households`, the briefing).
+    Measure,
+    /// Leave them out (the indicators only: design search, sensitivity, sweeps, `compare` without
+    /// `--households`).
+    Skip,
+}
+
 impl WithModels for Simulate<'_> {
     type Output = Result<(MonteCarlo, Vec<Option<LongRunMeans>>), ReplicationFailed>;
 
@@ -279,7 +293,8 @@ pub fn compare(
     policies: &[PolicySpec],
     progress: &dyn Progress,
 ) -> Result<CompareResult, CompareError> {
-    compare_with_households(scenario, policies, progress, Fans::Keep).map(|(result, _)| result)
+    compare_with_households(scenario, policies, progress, Fans::Keep, Households::Skip)
+        .map(|(result, _)| result)
 }
 
 /// [`compare`] without the fans ([`Fans::Skip`]): the same indicators, sooner. For callers that
@@ -289,18 +304,22 @@ pub fn compare_indicators(
     policies: &[PolicySpec],
     progress: &dyn Progress,
 ) -> Result<CompareResult, CompareError> {
-    compare_with_households(scenario, policies, progress, Fans::Skip).map(|(result, _)| result)
+    compare_with_households(scenario, policies, progress, Fans::Skip, Households::Skip)
+        .map(|(result, _)| result)
 }
 
-/// [`compare`] with or without the fans, and for a market with `[[households]]` the household
-/// groups' welfare under every column from the same Monte Carlo (`households::measure`; `None`
-/// for a market without groups, whose run is then exactly [`compare`]'s).
+/// [`compare`] with or without the fans, and with [`Households::Measure`] for a market with
+/// `[[households]]` the household groups' welfare under every column from the same Monte Carlo
+/// (`households::measure`; `None` for a market without groups, whose run is then exactly
+/// [`compare`]'s, and with [`Households::Skip`]).
 pub fn compare_with_households(
     scenario: &Scenario,
     policies: &[PolicySpec],
     progress: &dyn Progress,
     fans: Fans,
+    households: Households,
 ) -> Result<(CompareResult, Option<crate::households::HouseholdResult>), CompareError> {
+    let groups = households == Households::Measure && !scenario.households.is_empty();
     if policies.is_empty() {
         return Err(CompareError::NoPolicies);
     }
@@ -346,7 +365,7 @@ pub fn compare_with_households(
     // the household groups need each column against its baseline in the same replication: the
     // policies' (slot, baseline) and the behaviour changes' (rule i, the market's rule)
     let mut pairs: Vec<(usize, usize)> = Vec::new();
-    if !scenario.households.is_empty() {
+    if groups {
         let wanted = slots
             .iter()
             .zip(&baseline_of)
@@ -387,7 +406,7 @@ pub fn compare_with_households(
         let i = leakage_pairs.iter().position(|p| *p == (slot, base))?;
         mc.leakage.get(i).map(Vec::as_slice)
     };
-    let households = (!scenario.households.is_empty()).then(|| {
+    let households = groups.then(|| {
         let column = |name: &str, slot: usize, base: usize| crate::households::HouseholdColumn {
             policy: name.to_string(),
             outcomes: crate::households::measure(
