@@ -384,3 +384,83 @@ fn monte_carlo_sweep_points_are_compare_bit_for_bit() {
         "{err}"
     );
 }
+
+#[test]
+fn points_run_together_in_one_comparison_get_each_points_own_figures() {
+    // an identity (no outside source): grid points that vary only the policy file run in batches
+    // of one `compare` (the market left alone stepped once for the batch); every point must get
+    // what its own `compare` gives, bit for bit, a failing point its own error, and the progress
+    // must count each point's replications once
+    use std::sync::atomic::{AtomicU64, Ordering};
+    struct Count(AtomicU64);
+    impl furrow::stochastic::Progress for Count {
+        fn advance(&self, n: u64) {
+            self.0.fetch_add(n, Ordering::Relaxed);
+        }
+    }
+    let market = std::fs::read_to_string("examples/veldmark_weather.toml").unwrap();
+    let market = market.replace("replications = 2000", "replications = 150");
+    let band = std::fs::read_to_string("policies/price_band.toml").unwrap();
+    let base = Base::new(
+        "w.toml",
+        parse_toml("w.toml", &market).unwrap(),
+        Some(("band.toml", parse_toml("band.toml", &band).unwrap())),
+    );
+    let scenario = base.validate(&[]).unwrap().0;
+    assert!(
+        sweep::outcomes::batch_size(&scenario) >= 2,
+        "batches must form"
+    );
+    let axes = [
+        sweep::parse_vary("stock.capacity=10:200:5").unwrap(),
+        sweep::parse_vary("stock.sell_above=215:245:3").unwrap(),
+    ];
+    let count = Count(AtomicU64::new(0));
+    let points = sweep::outcomes::outcomes(&base, &axes, &count, &|_| Ok(())).unwrap();
+    assert_eq!(points.len(), 15);
+    // capacity 10 is below the file's initial stock: three points are refused, before any run
+    let valid = points.iter().filter(|p| p.indicators.is_ok()).count();
+    assert_eq!(valid, 12);
+    assert_eq!(count.0.load(Ordering::Relaxed), 12 * 150);
+    let alone = |values: &[f64]| {
+        let overrides: Vec<(&str, f64)> = axes
+            .iter()
+            .zip(values)
+            .map(|(a, v)| (a.key.as_str(), *v))
+            .collect();
+        sweep::outcomes::evaluate(&base, &overrides, &furrow::stochastic::NoProgress)
+    };
+    for pt in &points {
+        assert_eq!(pt.indicators, alone(&pt.values), "at {:?}", pt.values);
+    }
+    assert_ne!(
+        points[1].number("fiscal_cost_pv"),
+        points[7].number("fiscal_cost_pv")
+    );
+    // farmers who extrapolate: the market left alone under their rule diverges for a positive
+    // weight, so batches hold failing points; each keeps its own message
+    let cycle = std::fs::read_to_string("examples/dunmere_cycle.toml").unwrap();
+    let extra = "[policy]\nname = \"Band, extrapolating farmers\"\n[stock]\nbuy_below = 100.0\n\
+                 sell_above = 140.0\ncapacity = 30.0\n[expectations]\nrule = \"extrapolative\"\n\
+                 weight = 0.5\n";
+    let base = Base::new(
+        "c.toml",
+        parse_toml(
+            "c.toml",
+            &cycle.replace("replications = 2000", "replications = 100"),
+        )
+        .unwrap(),
+        Some(("x.toml", parse_toml("x.toml", extra).unwrap())),
+    );
+    let axes = [sweep::parse_vary("expectations.weight=-0.9:0.9:10").unwrap()];
+    let points =
+        sweep::outcomes::outcomes(&base, &axes, &furrow::stochastic::NoProgress, &|_| Ok(()))
+            .unwrap();
+    let failed = points.iter().filter(|p| p.indicators.is_err()).count();
+    assert!(failed > 0 && failed < points.len(), "{failed} failed");
+    for pt in &points {
+        let overrides = [(axes[0].key.as_str(), pt.values[0])];
+        let want = sweep::outcomes::evaluate(&base, &overrides, &furrow::stochastic::NoProgress);
+        assert_eq!(pt.indicators, want, "at {:?}", pt.values);
+    }
+}

@@ -9,11 +9,21 @@
 //! themselves) and differences between points are not sampling noise. Points run in parallel and are
 //! collected in grid order; `compare` is itself bit-identical at any thread count, so the output is
 //! too.
+//!
+//! Points whose values touch the policy file only share the market and so the market left alone:
+//! up to [`BATCH`] of them run in one `compare` ([`evaluate_together`]), the baseline stepped once
+//! for them all. Each policy's column is what its own `compare` gives, bit for bit (the Monte Carlo
+//! steps each policy as it steps it alone, and a column's indicators read only its own runs and its
+//! baseline's), as long as the season outlays' budget holds every replication either way, which
+//! [`batch_size`] sees to; a batch in which any replication fails is run again point by point, so
+//! each point keeps its own error.
 
 use rayon::prelude::*;
 
 use super::{apply::Base, grid::Axis, SweepError, MAX_POINTS};
 use crate::compare::{compare_indicators, Indicator, Kind, Value};
+use crate::policies::PolicySpec;
+use crate::scenario::Scenario;
 use crate::stochastic::Progress;
 
 /// Which indicators a sweep reports.
@@ -115,6 +125,54 @@ pub fn evaluate(
         .ok_or_else(|| "compare gave no column".to_string())
 }
 
+/// Most grid points in one `compare` ([`evaluate_together`]).
+pub const BATCH: usize = 8;
+
+/// How many policies of `scenario` may share one `compare` and give each the figures of its own:
+/// the season outlays must be kept for every replication in both (their budget,
+/// `stochastic::montecarlo::SEASON_BUDGET_BYTES`, shared by the comparison's models, then never binds), with a
+/// baseline of its own for each policy counted; and the replication summaries of the whole batch
+/// stay within that budget too. Below 2: none.
+pub fn batch_size(scenario: &Scenario) -> usize {
+    let budget = crate::stochastic::montecarlo::SEASON_BUDGET_BYTES as u64;
+    let reps = scenario.run.replications.max(1) as u64;
+    let per_model_outlays = reps * scenario.run.periods.max(1) as u64 * 8;
+    let per_model_summaries = reps * crate::stochastic::memory::bytes_per_replication_per_column();
+    let models = budget / per_model_outlays.max(per_model_summaries).max(1);
+    // the market left alone, and each policy with a baseline of its own at most
+    let policies = (models.saturating_sub(1) / 2) as usize;
+    policies.min(BATCH)
+}
+
+/// Each of `policies` (on `scenario`) compared with the market left alone in one `compare`: each
+/// one's indicators, as [`evaluate`] gives them point by point (see the module's notes); `None`
+/// when a replication failed (the batch is then to be run point by point).
+fn evaluate_together(
+    scenario: &Scenario,
+    policies: &[PolicySpec],
+    progress: &dyn Progress,
+) -> Option<Vec<Vec<Indicator>>> {
+    // the bar counts replications of grid points: this run does those of every policy in it
+    let progress = Scaled {
+        inner: progress,
+        by: policies.len() as u64,
+    };
+    let result = compare_indicators(scenario, policies, &progress).ok()?;
+    Some(result.policies.into_iter().map(|c| c.indicators).collect())
+}
+
+/// A progress observer that counts each replication `by` times.
+struct Scaled<'a> {
+    inner: &'a dyn Progress,
+    by: u64,
+}
+
+impl Progress for Scaled<'_> {
+    fn advance(&self, replications: u64) {
+        self.inner.advance(replications * self.by);
+    }
+}
+
 /// The grid points of `axes` (one or two), the first axis outermost.
 pub fn grid_points(axes: &[Axis]) -> Vec<Vec<f64>> {
     match axes {
@@ -210,9 +268,69 @@ pub fn outcomes(
             break;
         }
     }
-    let rest: Vec<Outcome> = points[done.len()..].par_iter().map(run).collect();
-    done.extend(rest);
+    let rest = &points[done.len()..];
+    // the points on the base's own market in batches of one `compare` each, the others alone
+    let market = base.validate(&[]).map_err(SweepError::Input)?.0;
+    let size = batch_size(&market);
+    let policy_of = |values: &Vec<f64>| -> Option<PolicySpec> {
+        let overrides: Vec<(&str, f64)> = axes
+            .iter()
+            .zip(values)
+            .map(|(a, v)| (a.key.as_str(), *v))
+            .collect();
+        let (scenario, policy) = base.validate(&overrides).ok()?;
+        (size >= 2 && scenario == market).then_some(policy)
+    };
+    let batches = batches(rest, size, policy_of);
+    let outcomes: Vec<Vec<Outcome>> = batches
+        .par_iter()
+        .map(|batch| match batch {
+            Batch::Alone(values) => vec![run(values)],
+            Batch::Together(points) => {
+                let (values, policies): (Vec<&Vec<f64>>, Vec<PolicySpec>) =
+                    points.iter().map(|(v, p)| (*v, p.clone())).unzip();
+                match evaluate_together(&market, &policies, progress) {
+                    Some(lists) => values
+                        .into_iter()
+                        .zip(lists)
+                        .map(|(v, list)| Outcome {
+                            values: v.clone(),
+                            indicators: Ok(list),
+                        })
+                        .collect(),
+                    None => values.into_iter().map(run).collect(),
+                }
+            }
+        })
+        .collect();
+    done.extend(outcomes.into_iter().flatten());
     Ok(done)
+}
+
+/// A grid point run alone, or points whose policies share one `compare`.
+enum Batch<'a> {
+    Alone(&'a Vec<f64>),
+    Together(Vec<(&'a Vec<f64>, PolicySpec)>),
+}
+
+/// `points` in grid order as batches: runs of up to `size` points whose policy `policy_of` gives
+/// (a point on the base's market) together, every other point alone.
+fn batches<'a>(
+    points: &'a [Vec<f64>],
+    size: usize,
+    policy_of: impl Fn(&Vec<f64>) -> Option<PolicySpec>,
+) -> Vec<Batch<'a>> {
+    let mut out: Vec<Batch<'a>> = Vec::new();
+    for values in points {
+        match policy_of(values) {
+            None => out.push(Batch::Alone(values)),
+            Some(policy) => match out.last_mut() {
+                Some(Batch::Together(run)) if run.len() < size => run.push((values, policy)),
+                _ => out.push(Batch::Together(vec![(values, policy)])),
+            },
+        }
+    }
+    out
 }
 
 /// The first valid point's indicators (for checking names), if any point is valid.
