@@ -100,7 +100,8 @@ pub fn execute(args: &DesignArgs) -> anyhow::Result<()> {
         let base = Base::new(&args.market, market, policy);
         let (scenario, reps) = replications_of(&base)?;
         let series = furrow::compare::Fans::Skip.series().len();
-        super::common::check_memory("design", &scenario, 2, series)?;
+        let columns = furrow::sweep::outcomes::columns_at_once(&scenario);
+        super::common::check_memory("design", &scenario, columns, series)?;
         let total: usize = axes.iter().map(|a| a.values.len()).product();
         let bar = GridBar::new((reps * total) as u64);
         let found = design::search(&base, &axes, &spec, &bar);

@@ -122,7 +122,8 @@ fn execute_outcomes(
     let (scenario, reps) = replications_of(&base)?;
     // indicators only (compare without the fans)
     let series = furrow::compare::Fans::Skip.series().len();
-    super::common::check_memory("sweep", &scenario, 2, series)?;
+    let columns = furrow::sweep::outcomes::columns_at_once(&scenario);
+    super::common::check_memory("sweep", &scenario, columns, series)?;
     let total: usize = axes.iter().map(|a| a.values.len()).product();
     let bar = GridBar::new((reps * total) as u64);
     let points = outcomes::outcomes(&base, axes, &bar, &|first| {

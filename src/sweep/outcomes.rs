@@ -144,6 +144,16 @@ pub fn batch_size(scenario: &Scenario) -> usize {
     policies.min(BATCH)
 }
 
+/// The most columns a grid's comparisons hold at once (for the memory check): a batch's, each
+/// policy with a baseline of its own counted, or a point's own (the policy and the market left
+/// alone).
+pub fn columns_at_once(scenario: &Scenario) -> usize {
+    match batch_size(scenario) {
+        b @ 2.. => 1 + 2 * b,
+        _ => 2,
+    }
+}
+
 /// Each of `policies` (on `scenario`) compared with the market left alone in one `compare`: each
 /// one's indicators, as [`evaluate`] gives them point by point (see the module's notes); `None`
 /// when a replication failed (the batch is then to be run point by point).
@@ -416,4 +426,55 @@ pub fn indicator_map(list: &[Indicator], columns: &[String]) -> serde_json::Valu
         m.insert(c.clone(), v);
     }
     serde_json::Value::Object(m)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn market(replications: usize, periods: usize) -> Scenario {
+        crate::scenario::market_from_str(
+            "m.toml",
+            &format!(
+                "[demand]\nintercept = 200.0\nslope = -2.0\n[supply]\nintercept = -40.0\n\
+                 slope = 1.0\n[expectations]\nrule = \"naive\"\n[run]\nperiods = {periods}\n\
+                 replications = {replications}\n[shocks]\nyield_cv = 0.05\n"
+            ),
+        )
+        .unwrap()
+    }
+
+    #[test]
+    fn a_batch_never_lets_the_season_outlays_budget_bind() {
+        // the rule the module relies on (derived here): with the batch's models, a baseline each
+        // counted, periods × 8 bytes × replications × models stays within the season budget, so
+        // every column keeps the outlays of every replication, as it does in its own comparison
+        let budget = crate::stochastic::montecarlo::SEASON_BUDGET_BYTES;
+        for (reps, periods) in [
+            (150, 30),
+            (2_000, 40),
+            (10_000, 100),
+            (60_000, 100),
+            (1_000_000, 100),
+        ] {
+            let s = market(reps, periods);
+            let b = batch_size(&s);
+            assert!(b <= BATCH);
+            if b >= 2 {
+                let models = 1 + 2 * b;
+                assert!(
+                    periods * 8 * reps * models <= budget,
+                    "{reps} x {periods}: {b}"
+                );
+                assert_eq!(columns_at_once(&s), models);
+            } else {
+                assert_eq!(columns_at_once(&s), 2);
+            }
+        }
+        assert_eq!(batch_size(&market(2_000, 40)), BATCH);
+        assert!(
+            batch_size(&market(1_000_000, 100)) < 2,
+            "a long run is not batched"
+        );
+    }
 }
