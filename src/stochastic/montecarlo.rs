@@ -1800,9 +1800,11 @@ impl<M: PathModel> Context<'_, M> {
                     self.keep_period(from, (first + j, cols), (fold, j), floor_of(k), acc);
                 }
             }
-            let block_of = |k: usize| &columns[k * FOLD_BLOCK..][..=j];
+            let block_of = |k: usize| columns.chunks_exact(FOLD_BLOCK).nth(k).map(|c| &c[..=j]);
             for (sums, &(k, b)) in leakage.iter_mut().zip(self.leakage_pairs) {
-                sums.add(block_of(k), block_of(b));
+                if let (Some(policy), Some(baseline)) = (block_of(k), block_of(b)) {
+                    sums.add(policy, baseline);
+                }
             }
         }
         let last = periods.saturating_sub(1) % FOLD_BLOCK;

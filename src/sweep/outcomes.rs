@@ -130,9 +130,9 @@ pub const BATCH: usize = 8;
 
 /// How many policies of `scenario` may share one `compare` and give each the figures of its own:
 /// the season outlays must be kept for every replication in both (their budget,
-/// `stochastic::montecarlo::SEASON_BUDGET_BYTES`, shared by the comparison's models, then never binds), with a
-/// baseline of its own for each policy counted; and the replication summaries of the whole batch
-/// stay within that budget too. Below 2: none.
+/// `stochastic::montecarlo::SEASON_BUDGET_BYTES`, shared by the comparison's models, then never
+/// binds), with a baseline of its own for each policy counted; and the replication summaries of
+/// the whole batch stay within that budget too. Below 2: none.
 pub fn batch_size(scenario: &Scenario) -> usize {
     let budget = crate::stochastic::montecarlo::SEASON_BUDGET_BYTES as u64;
     let reps = scenario.run.replications.max(1) as u64;
