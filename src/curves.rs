@@ -279,6 +279,22 @@ impl Elastic {
     }
 }
 
+impl Elastic {
+    /// [`Form::price_at`] of each quantity, in place: the same bits, the powers worked out together
+    /// ([`crate::numeric::pow::pow_in_place`]).
+    pub fn price_at_many(&self, quantities: &mut [f64]) {
+        let mut powers: Vec<f64> = quantities.iter().map(|q| q / self.at_quantity).collect();
+        crate::numeric::pow::pow_in_place(&mut powers, 1.0 / self.elasticity);
+        for (q, power) in quantities.iter_mut().zip(powers) {
+            *q = if *q <= 0.0 {
+                self.price_at(*q)
+            } else {
+                self.at_price * power
+            };
+        }
+    }
+}
+
 impl Form for Elastic {
     #[inline(always)]
     fn quantity(&self, p: f64) -> f64 {
@@ -422,6 +438,25 @@ pub fn steady_state(demand: &Curve, supply: &Curve) -> Option<SteadyState> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn prices_worked_out_together_are_each_prices_bits() {
+        // an identity (no outside source): the batch's powers are libm's (numeric::pow), so every
+        // price has the bits of `price_at` alone, the ends of the curve (q ≤ 0, NaN) included
+        for elasticity in [-0.25, -0.3, -1.5, 0.2, 0.7] {
+            let e = Elastic {
+                at_price: 210.0,
+                at_quantity: 480.0,
+                elasticity,
+            };
+            let mut q: Vec<f64> = (0..2_000).map(|i| 480.0 * (0.3 + 0.0007 * i as f64)).collect();
+            q.extend([0.0, -0.0, -5.0, f64::NAN, 1e-300, 1e300, f64::INFINITY, 480.0]);
+            let want: Vec<u64> = q.iter().map(|&x| e.price_at(x).to_bits()).collect();
+            e.price_at_many(&mut q);
+            let got: Vec<u64> = q.iter().map(|x| x.to_bits()).collect();
+            assert_eq!(got, want, "elasticity {elasticity}");
+        }
+    }
     use approx::assert_relative_eq;
 
     #[test]

@@ -215,7 +215,27 @@ impl Model {
         shock: &PeriodShock,
         carried: f64,
     ) -> Cleared {
-        let market = || self.market(shock, harvest, carried);
+        let untraded = self.untraded_price(harvest, shock);
+        self.clear_closed_at(planted, harvest, shock, carried, untraded)
+    }
+
+    /// The period's price before any trade: D⁻¹(harvest − shift) on the shocked demand curve.
+    #[inline(always)]
+    pub(crate) fn untraded_price(&self, harvest: f64, shock: &PeriodShock) -> f64 {
+        self.demand.price_at(harvest - shock.demand)
+    }
+
+    /// [`Model::clear_closed`] with the price before any trade, D⁻¹(harvest − shift), given.
+    #[inline(always)]
+    fn clear_closed_at(
+        &self,
+        planted: f64,
+        harvest: f64,
+        shock: &PeriodShock,
+        carried: f64,
+        untraded: f64,
+    ) -> Cleared {
+        let market = || self.market_at(shock, harvest, carried, untraded);
         if !self.trades_stock {
             // no rule trades: the market as harvested, a value no trait object sees (the
             // optimiser folds its zero trades and keeps it in registers)
@@ -237,18 +257,41 @@ impl Model {
     }
 
     /// The period's market before any rule trades: the harvest and the carried stock on the shocked
-    /// demand curve, with the agency's capacity and purchase budget (closed and open markets alike).
+    /// demand curve, with the agency's capacity and purchase budget (closed and open markets
+    /// alike), its price before any trade, D⁻¹(harvest − shift), given.
     #[inline(always)]
-    fn market(&self, shock: &PeriodShock, harvest: f64, carried: f64) -> Clearing<'_> {
+    fn market_at(
+        &self,
+        shock: &PeriodShock,
+        harvest: f64,
+        carried: f64,
+        untraded: f64,
+    ) -> Clearing<'_> {
         let agency = &self.policy.agency;
-        Clearing::new(
+        Clearing::at_untraded_price(
             &self.demand,
             shock.demand,
             harvest,
             carried,
             agency.capacity,
             agency.purchase_budget,
+            untraded,
         )
+    }
+
+    /// [`Model::clear_harvest`] of a closed market, the price before any trade, D⁻¹(harvest −
+    /// shift), worked out by the caller (`rational`: every quadrature node's at once): the same
+    /// period, number for number.
+    pub(crate) fn clear_closed_harvest_at(
+        &self,
+        planted: f64,
+        harvest: f64,
+        shock: &PeriodShock,
+        carried: f64,
+        untraded: f64,
+    ) -> Cleared {
+        debug_assert!(self.trade.is_none());
+        self.pay(self.clear_closed_at(planted, harvest, shock, carried, untraded))
     }
 
     /// [`Model::clear`] on a market that trades: the period's border terms at its world price, the
@@ -268,7 +311,8 @@ impl Model {
     ) -> Cleared {
         let world = trade.world_price_at(shock.world_factor);
         let terms = trade.terms(world, &self.measures);
-        let mut m = self.market(shock, harvest, carried).with_border(terms);
+        let untraded = self.untraded_price(harvest, shock);
+        let mut m = self.market_at(shock, harvest, carried, untraded).with_border(terms);
         for rule in &self.policy.rules {
             rule.trade(&mut m);
         }

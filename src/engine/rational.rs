@@ -19,7 +19,8 @@
 //! is exp(ρ x_{t−1} + s √(1 − ρ²) z − s²/2) at the node z (before the first period x is drawn from
 //! its stationary law N(0, s²): the factor exp(s z − s²/2)).
 
-use super::{Model, PeriodShock};
+use super::{plant, Model, PeriodShock};
+use crate::curves::Forms;
 use crate::numeric::{gauss_hermite, root_decreasing};
 use crate::scenario::ShockSpec;
 use crate::trade::Trade;
@@ -146,6 +147,9 @@ pub(crate) fn expected_price(
             .sum::<f64>()
     };
     if nodes.world.is_empty() {
+        if let (true, Forms::Elastic(demand)) = (model.trade.is_none(), model.demand.form()) {
+            return at_once(model, &demand, carried, mean_demand, planting);
+        }
         return at(1.0);
     }
     let (world_mean, world_sd) = nodes.world_law(last_world);
@@ -154,6 +158,50 @@ pub(crate) fn expected_price(
         .world
         .iter()
         .map(|&(z, w)| w * at((world_mean + world_sd * z - half_s2).exp()))
+        .sum::<f64>()
+}
+
+/// [`expected_price`] on a closed market with a constant-elasticity demand curve: every node's
+/// price before trade worked out at once ([`crate::curves::Elastic::price_at_many`], the powers
+/// together), then each node's period as [`Model::clear`] gives it
+/// ([`Model::clear_closed_harvest_at`]), summed in the same order: the same number.
+fn at_once(
+    model: &Model,
+    demand: &crate::curves::Elastic,
+    carried: f64,
+    mean_demand: f64,
+    planting: f64,
+) -> f64 {
+    let points = &model.nodes.points;
+    let crops: Vec<(f64, f64)> = points
+        .iter()
+        .map(|&(_, y, s, _)| plant(&model.supply, planting, y, s))
+        .collect();
+    let mut prices: Vec<f64> = (crops.iter().zip(points))
+        .map(|(&(_, harvest), &(_, _, _, d))| harvest - (mean_demand + d))
+        .collect();
+    demand.price_at_many(&mut prices);
+    points
+        .iter()
+        .zip(crops)
+        .zip(prices)
+        .map(|((&(w, y, s, d), (planted, harvest)), untraded)| {
+            let shock = PeriodShock {
+                yield_factor: y,
+                supply: s,
+                demand: mean_demand + d,
+                world_factor: 1.0,
+            };
+            let paid = model
+                .clear_closed_harvest_at(planted, harvest, &shock, carried, untraded)
+                .producer_price;
+            // as in `expected_price`
+            if model.revenue {
+                w * (paid * y)
+            } else {
+                w * paid
+            }
+        })
         .sum::<f64>()
 }
 

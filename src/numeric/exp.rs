@@ -45,27 +45,27 @@ pub fn vector_copy_used() -> bool {
 }
 
 #[cfg(all(target_arch = "x86_64", target_os = "linux", target_env = "gnu"))]
-mod glibc {
+pub(super) mod glibc {
     use std::arch::x86_64::*;
     use std::sync::OnceLock;
 
     /// N / ln 2 (N = 128).
-    const INV_LN2_N: f64 = f64::from_bits(0x4067_1547_652b_82fe);
+    pub(in crate::numeric) const INV_LN2_N: f64 = f64::from_bits(0x4067_1547_652b_82fe);
     /// −ln 2 / N in two parts, the high one with trailing zero bits.
-    const NEG_LN2_HI_N: f64 = f64::from_bits(0xbf76_2e42_fefa_0000);
-    const NEG_LN2_LO_N: f64 = f64::from_bits(0xbd0c_f79a_bc9e_3b3a);
+    pub(in crate::numeric) const NEG_LN2_HI_N: f64 = f64::from_bits(0xbf76_2e42_fefa_0000);
+    pub(in crate::numeric) const NEG_LN2_LO_N: f64 = f64::from_bits(0xbd0c_f79a_bc9e_3b3a);
     /// 1.5 · 2⁵²: added to k, it leaves k in the low bits.
-    const SHIFT: f64 = f64::from_bits(0x4338_0000_0000_0000);
+    pub(in crate::numeric) const SHIFT: f64 = f64::from_bits(0x4338_0000_0000_0000);
     /// exp(r) − 1 − r ≈ C2 r² + C3 r³ + C4 r⁴ + C5 r⁵.
-    const C2: f64 = f64::from_bits(0x3fdf_ffff_ffff_fdbd);
-    const C3: f64 = f64::from_bits(0x3fc5_5555_5555_543c);
-    const C4: f64 = f64::from_bits(0x3fa5_5555_cf17_2b91);
-    const C5: f64 = f64::from_bits(0x3f81_1111_67a4_d017);
+    pub(in crate::numeric) const C2: f64 = f64::from_bits(0x3fdf_ffff_ffff_fdbd);
+    pub(in crate::numeric) const C3: f64 = f64::from_bits(0x3fc5_5555_5555_543c);
+    pub(in crate::numeric) const C4: f64 = f64::from_bits(0x3fa5_5555_cf17_2b91);
+    pub(in crate::numeric) const C5: f64 = f64::from_bits(0x3f81_1111_67a4_d017);
 
     /// For k in 0..128: entry 2k the bits of T, entry 2k + 1 the bits of H less k · 2⁴⁵, where
     /// 2^(k/128) ≈ H (1 + T).
     #[rustfmt::skip]
-    pub(super) static TABLE: [u64; 256] = [
+    pub(in crate::numeric) static TABLE: [u64; 256] = [
         0x0000000000000000, 0x3ff0000000000000,
         0x3c9b3b4f1a88bf6e, 0x3feff63da9fb3335,
         0xbc7160139cd8dc5d, 0x3fefec9a3e778061,

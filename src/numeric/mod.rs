@@ -5,6 +5,7 @@
 
 pub mod exp;
 pub mod interp;
+pub mod pow;
 
 use nalgebra::{DMatrix, SymmetricEigen};
 

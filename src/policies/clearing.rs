@@ -123,6 +123,21 @@ impl<'a> Clearing<'a> {
         capacity: f64,
         budget: f64,
     ) -> Self {
+        let untraded = demand.price_at(harvest - demand_shift);
+        Self::at_untraded_price(demand, demand_shift, harvest, carried, capacity, budget, untraded)
+    }
+
+    /// [`Clearing::new`] with the price before any trade, D⁻¹(Q − shift), worked out by the
+    /// caller (the same number: callers that work out many at once, `engine::rational`).
+    pub fn at_untraded_price(
+        demand: &'a Curve,
+        demand_shift: f64,
+        harvest: f64,
+        carried: f64,
+        capacity: f64,
+        budget: f64,
+        untraded_price: f64,
+    ) -> Self {
         Clearing {
             demand,
             demand_shift,
@@ -134,7 +149,7 @@ impl<'a> Clearing<'a> {
             releases: 0.0,
             public_imports: 0.0,
             flags: 0,
-            untraded_price: demand.price_at(harvest - demand_shift),
+            untraded_price,
             border: BorderTerms::CLOSED,
             trades: false,
         }
