@@ -449,8 +449,19 @@ mod tests {
                 at_quantity: 480.0,
                 elasticity,
             };
-            let mut q: Vec<f64> = (0..2_000).map(|i| 480.0 * (0.3 + 0.0007 * i as f64)).collect();
-            q.extend([0.0, -0.0, -5.0, f64::NAN, 1e-300, 1e300, f64::INFINITY, 480.0]);
+            let mut q: Vec<f64> = (0..2_000)
+                .map(|i| 480.0 * (0.3 + 0.0007 * i as f64))
+                .collect();
+            q.extend([
+                0.0,
+                -0.0,
+                -5.0,
+                f64::NAN,
+                1e-300,
+                1e300,
+                f64::INFINITY,
+                480.0,
+            ]);
             let want: Vec<u64> = q.iter().map(|&x| e.price_at(x).to_bits()).collect();
             e.price_at_many(&mut q);
             let got: Vec<u64> = q.iter().map(|x| x.to_bits()).collect();

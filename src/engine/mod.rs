@@ -312,7 +312,9 @@ impl Model {
         let world = trade.world_price_at(shock.world_factor);
         let terms = trade.terms(world, &self.measures);
         let untraded = self.untraded_price(harvest, shock);
-        let mut m = self.market_at(shock, harvest, carried, untraded).with_border(terms);
+        let mut m = self
+            .market_at(shock, harvest, carried, untraded)
+            .with_border(terms);
         for rule in &self.policy.rules {
             rule.trade(&mut m);
         }

@@ -124,7 +124,15 @@ impl<'a> Clearing<'a> {
         budget: f64,
     ) -> Self {
         let untraded = demand.price_at(harvest - demand_shift);
-        Self::at_untraded_price(demand, demand_shift, harvest, carried, capacity, budget, untraded)
+        Self::at_untraded_price(
+            demand,
+            demand_shift,
+            harvest,
+            carried,
+            capacity,
+            budget,
+            untraded,
+        )
     }
 
     /// [`Clearing::new`] with the price before any trade, D⁻¹(Q − shift), worked out by the
