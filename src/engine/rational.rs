@@ -124,47 +124,53 @@ pub(crate) fn expected_price(
 ) -> f64 {
     let nodes = &model.nodes;
     let mean_demand = nodes.persistence * last_demand_shock;
-    let revenue = model.revenue;
-    let at = |world_factor: f64| {
-        nodes
-            .points
-            .iter()
-            .map(|&(w, y, s, d)| {
-                let shock = PeriodShock {
-                    yield_factor: y,
-                    supply: s,
-                    demand: mean_demand + d,
-                    world_factor,
-                };
-                let paid = model.clear(planting, &shock, carried).producer_price;
-                // on revenue: E[P·Y] (E[Y] = 1); without yield risk y = 1 and this is w·P exactly
-                if revenue {
-                    w * (paid * y)
-                } else {
-                    w * paid
-                }
-            })
-            .sum::<f64>()
-    };
     if nodes.world.is_empty() {
         if let (true, Forms::Elastic(demand)) = (model.trade.is_none(), model.demand.form()) {
             return at_once(model, &demand, carried, mean_demand, planting);
         }
-        return at(1.0);
+        return at_each(model, 1.0, carried, mean_demand, planting);
     }
     let (world_mean, world_sd) = nodes.world_law(last_world);
     let half_s2 = 0.5 * nodes.world_s * nodes.world_s;
     nodes
         .world
         .iter()
-        .map(|&(z, w)| w * at((world_mean + world_sd * z - half_s2).exp()))
+        .map(|&(z, w)| {
+            let factor = (world_mean + world_sd * z - half_s2).exp();
+            w * at_each(model, factor, carried, mean_demand, planting)
+        })
+        .sum::<f64>()
+}
+
+/// The sum over the nodes of [`expected_price`] at the world factor `world_factor`, each node's
+/// period cleared by [`Model::clear`].
+fn at_each(model: &Model, world_factor: f64, carried: f64, mean_demand: f64, planting: f64) -> f64 {
+    model
+        .nodes
+        .points
+        .iter()
+        .map(|&(w, y, s, d)| {
+            let shock = PeriodShock {
+                yield_factor: y,
+                supply: s,
+                demand: mean_demand + d,
+                world_factor,
+            };
+            let paid = model.clear(planting, &shock, carried).producer_price;
+            // on revenue: E[P·Y] (E[Y] = 1); without yield risk y = 1 and this is w·P exactly
+            if model.revenue {
+                w * (paid * y)
+            } else {
+                w * paid
+            }
+        })
         .sum::<f64>()
 }
 
 /// [`expected_price`] on a closed market with a constant-elasticity demand curve: every node's
 /// price before trade worked out at once ([`crate::curves::Elastic::price_at_many`], the powers
 /// together), then each node's period as [`Model::clear`] gives it
-/// ([`Model::clear_closed_harvest_at`]), summed in the same order: the same number.
+/// ([`Model::clear_closed_harvest_at`]), summed in the same order: [`at_each`]'s number.
 fn at_once(
     model: &Model,
     demand: &crate::curves::Elastic,
@@ -195,7 +201,7 @@ fn at_once(
             let paid = model
                 .clear_closed_harvest_at(planted, harvest, &shock, carried, untraded)
                 .producer_price;
-            // as in `expected_price`
+            // as in `at_each`
             if model.revenue {
                 w * (paid * y)
             } else {
@@ -226,4 +232,61 @@ pub(crate) fn solve(
     let tol = 1e-11 * guess.max(1.0);
     let root = root_decreasing(|p| expected(p) - p, guess, tol)?;
     (root.is_finite() && root > 0.0).then_some(root)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::policies::file::policy_from_table;
+    use crate::scenario::{market_from_str, parse_toml};
+
+    #[test]
+    fn the_nodes_priced_at_once_give_the_bits_of_each_node_cleared_alone() {
+        // an identity (no outside source): on a closed constant-elasticity market, with and
+        // without a rule that trades stock, planting on price and on revenue, at planting prices
+        // across the band and beyond, `at_once` is `at_each` to the bit
+        for plants_on in ["", "plants_on = \"revenue\"\n"] {
+            let s = market_from_str(
+                "m.toml",
+                &format!(
+                    "[demand]\nform = \"constant-elasticity\"\nat_price = 210.0\n\
+                     at_quantity = 480.0\nelasticity = -0.25\n[supply]\n{plants_on}\
+                     form = \"linear\"\nat_price = 210.0\nat_quantity = 480.0\n\
+                     elasticity = 0.2\n[expectations]\nrule = \"rational\"\n\
+                     [shocks]\nyield_cv = 0.12\ndemand_sd = 5.0\ndemand_persistence = 0.3\n"
+                ),
+            )
+            .unwrap();
+            let band = policy_from_table(
+                "p.toml",
+                parse_toml(
+                    "p.toml",
+                    "[policy]\nname = \"B\"\n[stock]\nbuy_below = 195.0\nsell_above = 230.0\n\
+                     capacity = 60.0\ninitial = 20.0\n",
+                )
+                .unwrap(),
+            )
+            .unwrap();
+            for policy in [crate::policies::PolicySpec::none(), band] {
+                let model = Model::new(&s, &policy);
+                let Forms::Elastic(demand) = model.demand.form() else {
+                    panic!("a constant-elasticity demand");
+                };
+                for (i, planting) in [150.0, 195.5, 210.0, 229.0, 260.0, 400.0]
+                    .iter()
+                    .enumerate()
+                {
+                    let (carried, mean) = (10.0 * i as f64, 1.5 * i as f64 - 3.0);
+                    let once = at_once(&model, &demand, carried, mean, *planting);
+                    let each = at_each(&model, 1.0, carried, mean, *planting);
+                    assert_eq!(
+                        once.to_bits(),
+                        each.to_bits(),
+                        "{} at {planting}",
+                        policy.name
+                    );
+                }
+            }
+        }
+    }
 }
