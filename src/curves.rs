@@ -277,9 +277,7 @@ impl Elastic {
         };
         prim(p_high) - prim(p_low) + shift * (p_high - p_low)
     }
-}
 
-impl Elastic {
     /// [`Form::price_at`] of each quantity, in place: the same bits, the powers worked out together
     /// ([`crate::numeric::pow::pow_in_place`]).
     pub fn price_at_many(&self, quantities: &mut [f64]) {
@@ -438,6 +436,7 @@ pub fn steady_state(demand: &Curve, supply: &Curve) -> Option<SteadyState> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use approx::assert_relative_eq;
 
     #[test]
     fn prices_worked_out_together_are_each_prices_bits() {
@@ -468,7 +467,6 @@ mod tests {
             assert_eq!(got, want, "elasticity {elasticity}");
         }
     }
-    use approx::assert_relative_eq;
 
     #[test]
     fn linear_steady_state_closed_form() {
