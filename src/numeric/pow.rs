@@ -14,13 +14,20 @@
 //! 1/c near each subinterval's centre with few bits, log c rounded to a multiple of 2⁻⁴³ and its
 //! remainder) and matches the bytes of glibc 2.36's table; the exp table is [`super::exp`]'s.
 //!
+//! The reference is `f64::powf` with an exponent known only when running, which is glibc's `pow`:
+//! with a constant exponent the compiler may rewrite `powf` (x^0.5 as a square root, x^2 as x·x).
+//!
 //! Before the vector copy is used, a probe of values across every log table entry and many
 //! exponents checks it against [`f64::powf`] on this machine; any other platform, a CPU without
 //! AVX2 and FMA, or a failed probe gets [`f64::powf`] value by value. Either way the bits are those
 //! of [`f64::powf`].
 
-/// Each value x replaced by x^y: the same bits as [`f64::powf`] of it.
+/// Each value x replaced by x^y: the same bits as [`f64::powf`] of it with an exponent the
+/// compiler cannot see (glibc's `pow`: with a constant exponent such as 0.5 or 2 the compiler may put
+/// a square root or a product in its place, which can differ in the last bit).
 pub fn pow_in_place(values: &mut [f64], y: f64) {
+    // the exponent as a value known only when running, here and in every fallback below
+    let y = std::hint::black_box(y);
     #[cfg(all(target_arch = "x86_64", target_os = "linux", target_env = "gnu"))]
     if glibc::exponent_in_main_path(y) && glibc::vector_copy_agrees() {
         // SAFETY: `vector_copy_agrees` is true only on a CPU with AVX2 and FMA
@@ -226,6 +233,9 @@ mod glibc {
                     let mut got = bases.clone();
                     // SAFETY: the CPU has AVX2 and FMA (checked above)
                     unsafe { pow_avx2(&mut got, y) };
+                    // libm's `pow` itself: the exponent hidden from the optimiser (a constant 0.5
+                    // would let it take a square root instead)
+                    let y = std::hint::black_box(y);
                     got.iter()
                         .zip(&bases)
                         .all(|(g, x)| g.to_bits() == x.powf(y).to_bits())
