@@ -221,7 +221,7 @@ impl Model {
 
     /// The period's price before any trade: D⁻¹(harvest − shift) on the shocked demand curve.
     #[inline(always)]
-    pub(crate) fn untraded_price(&self, harvest: f64, shock: &PeriodShock) -> f64 {
+    fn untraded_price(&self, harvest: f64, shock: &PeriodShock) -> f64 {
         self.demand.price_at(harvest - shock.demand)
     }
 

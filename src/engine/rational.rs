@@ -157,14 +157,21 @@ fn at_each(model: &Model, world_factor: f64, carried: f64, mean_demand: f64, pla
                 world_factor,
             };
             let paid = model.clear(planting, &shock, carried).producer_price;
-            // on revenue: E[P·Y] (E[Y] = 1); without yield risk y = 1 and this is w·P exactly
-            if model.revenue {
-                w * (paid * y)
-            } else {
-                w * paid
-            }
+            node_term(model, w, y, paid)
         })
         .sum::<f64>()
+}
+
+/// A node's term of [`expected_price`]: its weight `w` times the producer price `paid`, on revenue
+/// times the yield factor `y` too (E[P·Y], E[Y] = 1; without yield risk y = 1 and this is w·P
+/// exactly).
+#[inline(always)]
+fn node_term(model: &Model, w: f64, y: f64, paid: f64) -> f64 {
+    if model.revenue {
+        w * (paid * y)
+    } else {
+        w * paid
+    }
 }
 
 /// [`expected_price`] on a closed market with a constant-elasticity demand curve: every node's
@@ -201,12 +208,7 @@ fn at_once(
             let paid = model
                 .clear_closed_harvest_at(planted, harvest, &shock, carried, untraded)
                 .producer_price;
-            // as in `at_each`
-            if model.revenue {
-                w * (paid * y)
-            } else {
-                w * paid
-            }
+            node_term(model, w, y, paid)
         })
         .sum::<f64>()
 }

@@ -283,13 +283,16 @@ pub fn outcomes(
     let market = base.validate(&[]).map_err(SweepError::Input)?.0;
     let size = batch_size(&market);
     let policy_of = |values: &Vec<f64>| -> Option<PolicySpec> {
+        if size < 2 {
+            return None; // no batches: each point is validated once, when it runs
+        }
         let overrides: Vec<(&str, f64)> = axes
             .iter()
             .zip(values)
             .map(|(a, v)| (a.key.as_str(), *v))
             .collect();
         let (scenario, policy) = base.validate(&overrides).ok()?;
-        (size >= 2 && scenario == market).then_some(policy)
+        (scenario == market).then_some(policy)
     };
     let batches = batches(rest, size, policy_of);
     let outcomes: Vec<Vec<Outcome>> = batches
