@@ -40,7 +40,7 @@ use crate::curves::{Form, Forms, Linear};
 use crate::expectations::{Adaptive, ExpectationInput};
 use crate::numeric::{simd, simd_copies, Simd};
 use crate::policies::lanes::{LaneTerms, LinearLanes};
-use crate::policies::{ClearLanes, Clearing, MarketColumns, PayLanes};
+use crate::policies::{Asked, ClearLanes, Clearing, MarketColumns, PayLanes};
 use crate::trade::Traded;
 
 /// The lanes of a [`Model`]: phase by phase ([`ModelLanes::Phased`]) when the model allows it,
@@ -149,6 +149,9 @@ pub struct Phased<'m> {
     markets: Vec<Clearing<'m>>,
     /// The demand curve when the lanes clear column by column ([`Phased::lane_form`]).
     lane_form: Option<Linear>,
+    /// The demand curve's answers at the prices the rules asked about, kept from period to
+    /// period (the rules ask about the same few).
+    asked: Asked,
 }
 
 /// One period's values of every lane that its record does not hold, phase by phase (the rest
@@ -158,6 +161,8 @@ pub struct Phased<'m> {
 struct Scratch {
     expectation: [f64; LANES],
     carried: [f64; LANES],
+    /// The consumer surplus at the lane's price ([`Form::consumer_surplus_many`]).
+    surplus: [f64; LANES],
     /// The lane is still going this period.
     live: [bool; LANES],
 }
@@ -167,6 +172,7 @@ impl Scratch {
         Scratch {
             expectation: [0.0; LANES],
             carried: [0.0; LANES],
+            surplus: [0.0; LANES],
             live: [false; LANES],
         }
     }
@@ -288,6 +294,7 @@ impl<'m> Phased<'m> {
             simd: simd(),
             markets: Vec::with_capacity(LANES),
             lane_form: Phased::lane_form(model),
+            asked: Asked::NONE,
         }
     }
 
@@ -368,6 +375,7 @@ impl<'m> Phased<'m> {
             s,
             out,
             &mut self.markets,
+            &mut self.asked,
         );
 
         // the checks: one combined test per lane, the messages only when one fails
@@ -531,6 +539,7 @@ fn clear_all<'m>(
     s: &mut Scratch,
     out: &mut Columns,
     markets: &mut Vec<Clearing<'m>>,
+    asked: &mut Asked,
 ) {
     let n = n.min(LANES);
     if let (true, Some(demand)) = (all_live, linear) {
@@ -563,12 +572,14 @@ fn clear_all<'m>(
             capacity: agency.capacity,
             budget: agency.purchase_budget,
             columns: market_columns(out, &s.carried, &shocks.demand, n),
+            asked,
         };
         let mut trading = model.policy.rules.iter().filter(|r| r.trades_stock());
         match (trading.next(), trading.next()) {
             (None, _) => lanes.each(|_| {}),
             (Some(only), None) => only.clear_each(&mut lanes),
             _ => {
+                lanes.start();
                 markets.clear();
                 markets.extend((0..n).map(|l| lanes.market(l)));
                 for rule in &model.policy.rules {
@@ -577,6 +588,7 @@ fn clear_all<'m>(
                 for (l, m) in markets.iter().enumerate() {
                     lanes.put(l, m);
                 }
+                lanes.finish();
             }
         }
         unpaid_all(simd, n, out);
@@ -633,9 +645,11 @@ simd_copies! {
 }
 
 simd_copies! {
-    /// The books of every lane ([`PeriodRecord::book_in`]) written into `out`, which holds the
-    /// rest of each record already: the numbers in one loop, the flags and stock-outs in another
-    /// (each loop keeps of the booking what it writes).
+    /// The books of every lane ([`PeriodRecord::book_with`]) written into `out`, which holds the
+    /// rest of each record already: on a demand curve that works them out together
+    /// ([`Form::TOGETHER`]) the consumer surplus at every lane's price first
+    /// ([`Form::consumer_surplus_many`]), then the numbers in one loop, the flags and stock-outs in
+    /// another (each loop keeps of the booking what it writes).
     #[inline(never)]
     fn book_all[D: Form, S: Form](
         model: &Model,
@@ -644,10 +658,13 @@ simd_copies! {
         t: usize,
         n: usize,
         shift: &[f64; LANES],
-        s: &Scratch,
+        s: &mut Scratch,
         out: &mut Columns,
     ) {
         let n = n.min(LANES);
+        if D::TOGETHER {
+            demand.consumer_surplus_many(&out.price[..n], &shift[..n], &mut s.surplus[..n]);
+        }
         for l in 0..n {
             let r = book(model, demand, supply, t, shift[l], s, out, l);
             put_booked(out, l, &r);
@@ -660,8 +677,9 @@ simd_copies! {
     }
 }
 
-/// Lane `l`'s books ([`Model::settled`], [`PeriodRecord::book_in`]) from the period's values in
-/// `out` (before the booking writes its own).
+/// Lane `l`'s books ([`Model::settled`], [`PeriodRecord::book_with`]) from the period's values in
+/// `out` (before the booking writes its own); its consumer surplus from `s` when the demand's form
+/// works them out together ([`Form::TOGETHER`]: `book_all` did), else worked out here.
 #[inline(always)]
 #[allow(clippy::too_many_arguments)]
 fn book<D: Form, S: Form>(
@@ -674,7 +692,12 @@ fn book<D: Form, S: Form>(
     out: &Columns,
     l: usize,
 ) -> PeriodRecord {
-    PeriodRecord::book_in(
+    let surplus = if D::TOGETHER {
+        s.surplus[l]
+    } else {
+        demand.consumer_surplus(out.price[l], shift)
+    };
+    PeriodRecord::book_with(
         &model.settled(
             t,
             out.expected_price[l],
@@ -685,7 +708,7 @@ fn book<D: Form, S: Form>(
             shift,
         ),
         &model.policy.agency,
-        demand,
+        surplus,
         supply,
     )
 }

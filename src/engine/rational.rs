@@ -20,7 +20,7 @@
 //! its stationary law N(0, s²): the factor exp(s z − s²/2)).
 
 use super::{plant, Model, PeriodShock};
-use crate::curves::Forms;
+use crate::curves::{Form, Forms};
 use crate::numeric::{gauss_hermite, root_decreasing};
 use crate::scenario::ShockSpec;
 use crate::trade::Trade;
@@ -175,7 +175,7 @@ fn node_term(model: &Model, w: f64, y: f64, paid: f64) -> f64 {
 }
 
 /// [`expected_price`] on a closed market with a constant-elasticity demand curve: every node's
-/// price before trade worked out at once ([`crate::curves::Elastic::price_at_many`], the powers
+/// price before trade worked out at once ([`Form::price_at_many`], the powers
 /// together), then each node's period as [`Model::clear`] gives it
 /// ([`Model::clear_closed_harvest_at`]), summed in the same order: [`at_each`]'s number.
 fn at_once(

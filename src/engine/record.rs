@@ -212,6 +212,20 @@ impl PeriodRecord {
         demand: &D,
         supply: &S,
     ) -> PeriodRecord {
+        let market_surplus = demand.consumer_surplus(s.price, s.demand_shock);
+        Self::book_with(s, agency, market_surplus, supply)
+    }
+
+    /// [`PeriodRecord::book_in`] given the consumer surplus at the period's price on the shocked
+    /// demand curve, `market_surplus` (callers that work out many at once:
+    /// [`Form::consumer_surplus_many`]).
+    #[inline(always)]
+    pub fn book_with<S: Form>(
+        s: &Settled,
+        agency: &Agency,
+        market_surplus: f64,
+        supply: &S,
+    ) -> PeriodRecord {
         let purchase_cost = s.price * s.purchases;
         let sales_revenue = s.price * s.releases;
         let storage_cost = agency.storage_cost * s.stock;
@@ -223,7 +237,7 @@ impl PeriodRecord {
             + financing_cost
             + handling_cost
             + s.deficiency_payments;
-        let mut consumer_surplus = demand.consumer_surplus(s.price, s.demand_shock);
+        let mut consumer_surplus = market_surplus;
         let mut bits = s.flags;
         if s.deficiency_payments > 0.0 {
             bits |= flags::DEFICIENCY;

@@ -8,7 +8,7 @@
 //! first), a rule that sells to hold the price down counts what they import at import parity; then
 //! private trade clears what the agency leaves, C = Q − X + R + M − X_p.
 
-use crate::curves::Curve;
+use crate::curves::{Curve, Form};
 use crate::trade::{BorderTerms, Traded};
 
 /// Bit flags saying which rule acted and what went wrong in a period.
@@ -111,6 +111,51 @@ pub struct Clearing<'a> {
     /// happen at all (false: every method takes the closed market's arithmetic exactly).
     border: BorderTerms,
     trades: bool,
+    /// The quantities demanded at the prices the rules asked about ([`Asked`]).
+    asked: Asked,
+}
+
+/// How many prices [`Asked`] keeps.
+const ASKED: usize = 4;
+
+/// The quantities a constant-elasticity demand curve gave at the last few prices asked about
+/// ([`Clearing::buy_to`] and the other trades ask D(p) at the price they defend). A rule defends
+/// the same few prices season after season and lane after lane, and each answer is a power;
+/// [`ClearLanes`] hands the answers from one lane's market to the next. The same numbers as
+/// asking the curve (a linear curve is always asked: its answer costs less than the lookup).
+#[derive(Debug, Clone, Copy)]
+pub struct Asked {
+    prices: [f64; ASKED],
+    quantities: [f64; ASKED],
+    next: usize,
+}
+
+impl Asked {
+    /// Nothing asked yet (a NaN price is never found).
+    pub const NONE: Asked = Asked {
+        prices: [f64::NAN; ASKED],
+        quantities: [0.0; ASKED],
+        next: 0,
+    };
+
+    /// D(p) without the clamp ([`Curve::quantity_unclamped`]), from the prices asked before when
+    /// `p` is one of them (the oldest answer replaced when it is not).
+    #[inline(always)]
+    fn quantity(&mut self, demand: &Curve, p: f64) -> f64 {
+        if demand.is_linear() {
+            return demand.quantity_unclamped(p);
+        }
+        for i in 0..ASKED {
+            if self.prices[i] == p {
+                return self.quantities[i];
+            }
+        }
+        let q = demand.quantity_unclamped(p);
+        self.prices[self.next] = p;
+        self.quantities[self.next] = q;
+        self.next = (self.next + 1) % ASKED;
+        q
+    }
 }
 
 impl<'a> Clearing<'a> {
@@ -160,6 +205,7 @@ impl<'a> Clearing<'a> {
             untraded_price,
             border: BorderTerms::CLOSED,
             trades: false,
+            asked: Asked::NONE,
         }
     }
 
@@ -169,6 +215,20 @@ impl<'a> Clearing<'a> {
         self.trades = !border.is_closed();
         self.border = border;
         self
+    }
+
+    /// This market with the answers `asked` of the demand curve at prices asked before (another
+    /// market's on the same curve: [`Clearing::asked`]).
+    #[inline(always)]
+    pub fn with_asked(mut self, asked: Asked) -> Self {
+        self.asked = asked;
+        self
+    }
+
+    /// The demand curve's answers this market holds, with those it was asked for.
+    #[inline(always)]
+    pub fn asked(&self) -> Asked {
+        self.asked
     }
 
     /// The period's border terms ([`BorderTerms::CLOSED`] for a closed market).
@@ -197,7 +257,7 @@ impl<'a> Clearing<'a> {
     /// The price at which `supply` (= self.consumption()) clears without private trade.
     #[inline]
     fn price_before_trade(&self, supply: f64) -> f64 {
-        if self.purchases == 0.0 && self.releases == 0.0 {
+        if untraded(self.purchases, self.releases) {
             self.untraded_price
         } else {
             self.price_if_consumption(supply)
@@ -231,7 +291,7 @@ impl<'a> Clearing<'a> {
         if self.trades {
             return self.traded_price();
         }
-        if self.purchases == 0.0 && self.releases == 0.0 {
+        if untraded(self.purchases, self.releases) {
             // the same value as below: consumption() is exactly the harvest when nothing is traded
             self.untraded_price
         } else {
@@ -253,14 +313,14 @@ impl<'a> Clearing<'a> {
 
     /// Quantity consumers take at price `p`.
     #[inline]
-    fn demanded_at(&self, p: f64) -> f64 {
-        self.demand.quantity_unclamped(p) + self.demand_shift
+    fn demanded_at(&mut self, p: f64) -> f64 {
+        self.asked.quantity(self.demand, p) + self.demand_shift
     }
 
     /// The most the agency may leave in the market with the price still at least `p`: what
     /// consumers take at `p`, plus exports when traders export at `p` (closed: D(p) + shift).
     #[inline]
-    fn most_left_at_least(&self, p: f64) -> f64 {
+    fn most_left_at_least(&mut self, p: f64) -> f64 {
         if self.trades {
             self.border
                 .most_supply_at_least(self.demand, self.demand_shift, p)
@@ -272,7 +332,7 @@ impl<'a> Clearing<'a> {
     /// The least the agency must leave in the market for the price to be at most `p`: what
     /// consumers take at `p`, less imports when traders import at `p` (closed: D(p) + shift).
     #[inline]
-    fn least_left_at_most(&self, p: f64) -> f64 {
+    fn least_left_at_most(&mut self, p: f64) -> f64 {
         if self.trades {
             self.border
                 .least_supply_at_most(self.demand, self.demand_shift, p)
@@ -456,6 +516,13 @@ impl<'a> Clearing<'a> {
     }
 }
 
+/// Whether a market with purchases X and releases R has traded nothing (its price is then the
+/// price before any trade; [`Clearing::price`]).
+#[inline(always)]
+fn untraded(purchases: f64, releases: f64) -> bool {
+    purchases == 0.0 && releases == 0.0
+}
+
 /// The columns of a set of lanes' closed markets: what each lane's market starts from, and where
 /// the outcome of its trades is written (every slice as long as `harvest`). [`ClearLanes`] and
 /// [`super::lanes::LinearLanes`] clear them.
@@ -491,43 +558,98 @@ pub struct ClearLanes<'d, 'a> {
     pub budget: f64,
     /// The lanes' markets.
     pub columns: MarketColumns<'a>,
+    /// The demand curve's answers at the prices the rules asked about ([`Asked`]): each lane's
+    /// market starts with them and hands them on.
+    pub asked: &'a mut Asked,
 }
 
 impl<'d> ClearLanes<'d, '_> {
-    /// Lane `l`'s market before any trade.
+    /// Every lane's price before any trade, D⁻¹(Q − shift), written into `price`, worked out
+    /// together ([`Form::price_at_many`]: a constant-elasticity curve's powers at once). Before
+    /// [`ClearLanes::market`].
+    pub fn start(&mut self) {
+        let c = &mut self.columns;
+        let n = c.harvest.len();
+        let (harvest, shift, price) = (&c.harvest[..n], &c.shift[..n], &mut c.price[..n]);
+        for l in 0..n {
+            price[l] = harvest[l] - shift[l];
+        }
+        self.demand.price_at_many(price);
+    }
+
+    /// Lane `l`'s market before any trade (after [`ClearLanes::start`]).
     #[inline(always)]
     pub fn market(&self, l: usize) -> Clearing<'d> {
         let c = &self.columns;
-        Clearing::new(
+        Clearing::at_untraded_price(
             self.demand,
             c.shift[l],
             c.harvest[l],
             c.carried[l],
             self.capacity,
             self.budget,
+            c.price[l],
         )
+        .with_asked(*self.asked)
     }
 
-    /// Writes lane `l`'s outcome once the trades on `m` are done.
+    /// Writes lane `l`'s outcome once the trades on `m` are done; where `m` traded, `price`
+    /// holds the quantity C − shift until [`ClearLanes::finish`] prices it.
     #[inline(always)]
     pub fn put(&mut self, l: usize, m: &Clearing) {
+        debug_assert!(!m.trades, "the lanes' markets are closed");
         let c = &mut self.columns;
-        c.price[l] = m.price();
+        c.price[l] = if untraded(m.purchases, m.releases) {
+            m.untraded_price
+        } else {
+            m.consumption() - m.demand_shift
+        };
         c.purchases[l] = m.purchases;
         c.releases[l] = m.releases;
         c.stock[l] = m.stock();
         c.flags[l] = m.flags;
+        *self.asked = m.asked;
     }
 
-    /// Each lane's market, `trade` on it, and its outcome written: the market lives in registers
-    /// from its start to its outcome when `trade` is inlined.
+    /// Every lane's clearing price ([`Clearing::price`] on a closed market): the lanes that
+    /// traded priced from the quantity [`ClearLanes::put`] left, together ([`Form::price_at_many`]).
+    pub fn finish(&mut self) {
+        const AT_ONCE: usize = 64;
+        let c = &mut self.columns;
+        let n = c.harvest.len();
+        let (purchases, releases) = (&c.purchases[..n], &c.releases[..n]);
+        let price = &mut c.price[..n];
+        let (mut lanes, mut quantities) = ([0usize; AT_ONCE], [0.0; AT_ONCE]);
+        let mut start = 0;
+        while start < n {
+            let mut k = 0;
+            while start < n && k < AT_ONCE {
+                if !untraded(purchases[start], releases[start]) {
+                    lanes[k] = start;
+                    quantities[k] = price[start];
+                    k += 1;
+                }
+                start += 1;
+            }
+            self.demand.price_at_many(&mut quantities[..k]);
+            for (&l, &p) in lanes[..k].iter().zip(&quantities[..k]) {
+                price[l] = p;
+            }
+        }
+    }
+
+    /// Each lane's market, `trade` on it, and its outcome written ([`ClearLanes::start`] before,
+    /// [`ClearLanes::finish`] after): the market lives in registers from its start to its outcome
+    /// when `trade` is inlined.
     #[inline(always)]
     pub fn each(&mut self, trade: impl Fn(&mut Clearing)) {
+        self.start();
         for l in 0..self.columns.harvest.len() {
             let mut m = self.market(l);
             trade(&mut m);
             self.put(l, &m);
         }
+        self.finish();
     }
 }
 
@@ -601,4 +723,117 @@ fn budget_cut(
         return (solved - before, true);
     }
     (amount, false)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn the_answers_kept_are_the_curves_answers() {
+        // an identity (no outside source): more prices than are kept, asked in turn and out of
+        // turn, ±0, a negative price and NaN among them; every answer has the bits of asking the
+        // curve, on both forms
+        let curves = [
+            Curve::ConstantElasticity {
+                at_price: 210.0,
+                at_quantity: 480.0,
+                elasticity: std::hint::black_box(-0.25),
+            },
+            Curve::Linear {
+                intercept: 600.0,
+                slope: -0.6,
+            },
+        ];
+        let prices = [
+            195.0,
+            230.0,
+            210.0,
+            0.0,
+            -0.0,
+            -3.0,
+            f64::NAN,
+            212.5,
+            195.0,
+            1e300,
+        ];
+        for demand in &curves {
+            let mut asked = Asked::NONE;
+            for round in 0..3 {
+                for (i, &p) in prices.iter().enumerate() {
+                    let p = if round == 2 {
+                        prices[(7 * i) % prices.len()]
+                    } else {
+                        p
+                    };
+                    let got = asked.quantity(demand, p);
+                    let want = demand.quantity_unclamped(p);
+                    assert_eq!(got.to_bits(), want.to_bits(), "{demand:?} at {p}");
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn lanes_cleared_together_are_each_market_cleared_alone() {
+        // an identity: a band defended on many lanes through `ClearLanes` (the prices before
+        // trade and after it worked out together, the curve's answers handed from lane to lane)
+        // gives each lane the price, trades, stock and flags of its own `Clearing`
+        let demand = Curve::ConstantElasticity {
+            at_price: 210.0,
+            at_quantity: 480.0,
+            elasticity: std::hint::black_box(-0.3),
+        };
+        let band = crate::policies::BandStock {
+            buy_below: 195.0,
+            sell_above: 230.0,
+        };
+        let n = 150;
+        let harvest: Vec<f64> = (0..n).map(|i| 400.0 + 1.3 * i as f64).collect();
+        let shift: Vec<f64> = (0..n).map(|i| (i % 11) as f64 - 5.0).collect();
+        let carried: Vec<f64> = (0..n).map(|i| (i % 5) as f64 * 12.0).collect();
+        let (mut price, mut purchases, mut releases, mut stock) =
+            (vec![0.0; n], vec![0.0; n], vec![0.0; n], vec![0.0; n]);
+        let mut flags = vec![0u16; n];
+        let mut asked = Asked::NONE;
+        let mut lanes = ClearLanes {
+            demand: &demand,
+            capacity: 60.0,
+            budget: f64::INFINITY,
+            columns: MarketColumns {
+                harvest: &harvest,
+                shift: &shift,
+                carried: &carried,
+                price: &mut price,
+                purchases: &mut purchases,
+                releases: &mut releases,
+                stock: &mut stock,
+                flags: &mut flags,
+            },
+            asked: &mut asked,
+        };
+        lanes.each(|m| {
+            band.defend(m);
+        });
+        let mut traded = 0;
+        for l in 0..n {
+            let mut m = Clearing::new(
+                &demand,
+                shift[l],
+                harvest[l],
+                carried[l],
+                60.0,
+                f64::INFINITY,
+            );
+            band.defend(&mut m);
+            assert_eq!(price[l].to_bits(), m.price().to_bits(), "lane {l}");
+            assert_eq!(purchases[l].to_bits(), m.purchases.to_bits(), "lane {l}");
+            assert_eq!(releases[l].to_bits(), m.releases.to_bits(), "lane {l}");
+            assert_eq!(stock[l].to_bits(), m.stock().to_bits(), "lane {l}");
+            assert_eq!(flags[l], m.flags, "lane {l}");
+            traded += usize::from(m.purchases > 0.0 || m.releases > 0.0);
+        }
+        // the band bought on some lanes, sold on others and left the rest alone
+        assert!(traded > 10 && traded < n - 10, "{traded} lanes traded");
+    }
 }

@@ -52,7 +52,7 @@ mod stock_band;
 mod stock_share;
 mod stock_target;
 
-pub use clearing::{flags, ClearLanes, Clearing, MarketColumns};
+pub use clearing::{flags, Asked, ClearLanes, Clearing, MarketColumns};
 pub use file::PolicySpec;
 pub use fill::periods_to_fill;
 pub use floor::{DeficiencyPayment, FloorPurchase};
