@@ -620,16 +620,14 @@ impl<'d> ClearLanes<'d, '_> {
         let (purchases, releases) = (&c.purchases[..n], &c.releases[..n]);
         let price = &mut c.price[..n];
         let (mut lanes, mut quantities) = ([0usize; AT_ONCE], [0.0; AT_ONCE]);
-        let mut start = 0;
-        while start < n {
+        for start in (0..n).step_by(AT_ONCE) {
+            // the lanes that traded gathered without a branch: each lane written at the next
+            // place, which moves on only past a lane that traded
             let mut k = 0;
-            while start < n && k < AT_ONCE {
-                if !untraded(purchases[start], releases[start]) {
-                    lanes[k] = start;
-                    quantities[k] = price[start];
-                    k += 1;
-                }
-                start += 1;
+            for l in start..(start + AT_ONCE).min(n) {
+                lanes[k] = l;
+                quantities[k] = price[l];
+                k += usize::from(!untraded(purchases[l], releases[l]));
             }
             self.demand.price_at_many(&mut quantities[..k]);
             for (&l, &p) in lanes[..k].iter().zip(&quantities[..k]) {
