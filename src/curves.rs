@@ -325,6 +325,60 @@ impl Elastic {
     fn primitive(&self, k: f64, power: f64) -> f64 {
         k * power / (self.elasticity + 1.0)
     }
+
+    /// What the consumer surplus at any price needs of the curve (ε ≠ −1): the scale k and the
+    /// primitive at the reference price (two powers).
+    #[inline(always)]
+    fn surplus_constants(&self) -> (f64, f64) {
+        let k = self.area_scale();
+        (
+            k,
+            self.primitive(k, self.at_price.powf(self.elasticity + 1.0)),
+        )
+    }
+
+    /// [`Form::consumer_surplus`] at `p` (ε ≠ −1) from [`Elastic::surplus_constants`] and the
+    /// power p^(ε+1): `area_between(p, P̄, shift)`, prim(P̄) − prim(p) + shift (P̄ − p).
+    #[inline(always)]
+    fn surplus_from(&self, k: f64, top: f64, p: f64, power: f64, shift: f64) -> f64 {
+        top - self.primitive(k, power) + shift * (self.at_price - p)
+    }
+}
+
+/// A demand curve's consumer surplus ([`Form::consumer_surplus`]) with what does not depend on
+/// the price worked out once: a constant-elasticity curve's scale and its primitive at the
+/// reference price, two of the three powers of every call otherwise. The same bits as the
+/// curve's.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Surplus {
+    curve: Curve,
+    /// [`Elastic::surplus_constants`] of a constant-elasticity curve (ε ≠ −1).
+    constants: Option<(f64, f64)>,
+}
+
+impl Surplus {
+    /// The consumer surplus on `demand`.
+    pub fn of(demand: &Curve) -> Surplus {
+        let constants = match demand.form() {
+            Forms::Elastic(e) if !e.area_is_log() => Some(e.surplus_constants()),
+            _ => None,
+        };
+        Surplus {
+            curve: *demand,
+            constants,
+        }
+    }
+
+    /// The consumer surplus at `p` on the curve shifted by `shift` ([`Curve::consumer_surplus`]).
+    #[inline(always)]
+    pub fn at(&self, p: f64, shift: f64) -> f64 {
+        match (self.curve.form(), self.constants) {
+            (Forms::Elastic(e), Some((k, top))) => {
+                e.surplus_from(k, top, p, p.powf(e.elasticity + 1.0), shift)
+            }
+            _ => self.curve.consumer_surplus(p, shift),
+        }
+    }
 }
 
 impl Form for Elastic {
@@ -411,8 +465,8 @@ impl Form for Elastic {
         }
         let n = prices.len();
         let (shifts, into) = (&shifts[..n], &mut into[..n]);
-        let (k, y) = (self.area_scale(), self.elasticity + 1.0);
-        let top = self.primitive(k, self.at_price.powf(y));
+        let (k, top) = self.surplus_constants();
+        let y = self.elasticity + 1.0;
         let mut powers = [0.0; POWERS_AT_ONCE];
         for start in (0..n).step_by(POWERS_AT_ONCE) {
             let end = (start + POWERS_AT_ONCE).min(n);
@@ -420,8 +474,7 @@ impl Form for Elastic {
             powers.copy_from_slice(&prices[start..end]);
             crate::numeric::pow::pow_in_place(powers, y);
             for (l, &power) in (start..end).zip(powers.iter()) {
-                // area_between(p, P̄, shift): prim(P̄) − prim(p) + shift (P̄ − p)
-                into[l] = top - self.primitive(k, power) + shifts[l] * (self.at_price - prices[l]);
+                into[l] = self.surplus_from(k, top, prices[l], power, shifts[l]);
             }
         }
     }
@@ -592,6 +645,43 @@ mod tests {
                 e.consumer_surplus_many(&prices, &shifts, &mut got);
                 let got: Vec<u64> = got.iter().map(|x| x.to_bits()).collect();
                 assert_eq!(got, want, "elasticity {elasticity}, {n} prices");
+            }
+        }
+    }
+
+    #[test]
+    fn the_surplus_with_its_constants_once_is_the_curves() {
+        // an identity (no outside source): `Surplus::at` has the bits of `consumer_surplus` on
+        // both forms, ε = −1 (the logarithm, no constants kept) and the ends of the curve included
+        let mut curves: Vec<Curve> = [-0.25, -1.0, -1.7, 0.3]
+            .into_iter()
+            .map(|elasticity| Curve::ConstantElasticity {
+                at_price: 210.0,
+                at_quantity: 480.0,
+                elasticity: std::hint::black_box(elasticity),
+            })
+            .collect();
+        curves.push(Curve::linear_at_point(210.0, 480.0, -0.25));
+        for demand in &curves {
+            let surplus = Surplus::of(demand);
+            for p in [
+                0.0,
+                -0.0,
+                -4.0,
+                1e-300,
+                150.0,
+                210.0,
+                262.5,
+                1e300,
+                f64::NAN,
+            ] {
+                for shift in [0.0, -7.5, 12.0] {
+                    assert_eq!(
+                        surplus.at(p, shift).to_bits(),
+                        demand.consumer_surplus(p, shift).to_bits(),
+                        "{demand:?} at {p}, shift {shift}"
+                    );
+                }
             }
         }
     }

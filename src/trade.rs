@@ -227,7 +227,14 @@ impl BorderTerms {
     /// the import quota when `p` is above import parity (−∞ without one: no purchase lifts the
     /// price above import parity).
     pub fn most_supply_at_least(&self, demand: &Curve, shift: f64, p: f64) -> f64 {
-        let mut q = demand.quantity_unclamped(p) + shift;
+        self.most_supply_given(demand.quantity_unclamped(p) + shift, p)
+    }
+
+    /// [`BorderTerms::most_supply_at_least`] given what consumers take at `p`, `demanded` =
+    /// D(p) + shift (a caller that keeps the curve's answers: `policies::clearing::Asked`).
+    #[inline]
+    pub fn most_supply_given(&self, demanded: f64, p: f64) -> f64 {
+        let mut q = demanded;
         if p <= self.export_parity {
             q += self.export_quota;
         }
@@ -242,7 +249,14 @@ impl BorderTerms {
     /// when traders import at `p` (−∞ without a quota: imports fill any gap at parity), plus the
     /// export quota when `p` is below export parity (∞ without one).
     pub fn least_supply_at_most(&self, demand: &Curve, shift: f64, p: f64) -> f64 {
-        let mut q = demand.quantity_unclamped(p) + shift;
+        self.least_supply_given(demand.quantity_unclamped(p) + shift, p)
+    }
+
+    /// [`BorderTerms::least_supply_at_most`] given what consumers take at `p`, `demanded` =
+    /// D(p) + shift (as [`BorderTerms::most_supply_given`]).
+    #[inline]
+    pub fn least_supply_given(&self, demanded: f64, p: f64) -> f64 {
+        let mut q = demanded;
         if p >= self.import_parity {
             q -= self.import_quota;
         }

@@ -596,7 +596,8 @@ fn clear_all<'m>(
         for l in 0..n {
             if s.live[l] {
                 let shock = shocks.get(l);
-                let c = model.clear_closed(out.planted[l], out.harvest[l], &shock, s.carried[l]);
+                let (planted, harvest) = (out.planted[l], out.harvest[l]);
+                let c = model.clear_closed(planted, harvest, &shock, s.carried[l], asked);
                 put_cleared(out, l, &c);
             }
         }

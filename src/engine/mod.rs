@@ -20,10 +20,10 @@ pub use lanes::ModelLanes;
 pub use path::{each_lane, PathModel, Stepper};
 pub use record::{floor_binding, PeriodRecord, Settled, TradeRecord};
 
-use crate::curves::{Curve, Form};
+use crate::curves::{Curve, Form, Surplus};
 use crate::expectations::{self, ExpectationInput, ExpectationRule};
 use crate::policies::PolicySpec;
-use crate::policies::{self, Clearing, Policy};
+use crate::policies::{self, Asked, Clearing, Policy};
 use crate::scenario::{Scenario, ShockSpec};
 use crate::trade::{BorderMeasures, Trade, Traded};
 
@@ -78,6 +78,8 @@ pub struct Model {
     /// Prices above this are treated as divergence.
     pub price_bound: f64,
     nodes: rational::Nodes,
+    /// The consumer surplus on the demand curve, its constants worked out once (the booking's).
+    surplus: Surplus,
     /// `policy.planting_floor()` and `rule.is_rational()`, fixed for the model (looked up once, not
     /// every period).
     planting_floor: Option<f64>,
@@ -142,6 +144,7 @@ impl Model {
             history = padded;
         }
         Model {
+            surplus: Surplus::of(&scenario.market.demand),
             demand: scenario.market.demand,
             supply: scenario.market.supply,
             rule,
@@ -178,16 +181,24 @@ impl Model {
         (1..=periods).map(|t| sim.step(&shock(t))).collect()
     }
 
-    /// Clears one period: planting on `planting_price`, with agency stock `carried` (after losses).
+    /// Clears one period: planting on `planting_price`, with agency stock `carried` (after losses);
+    /// `asked`, the demand curve's answers at prices the rules asked about before ([`Asked`]),
+    /// updated with this period's.
     #[inline(always)]
-    pub(crate) fn clear(&self, planting_price: f64, shock: &PeriodShock, carried: f64) -> Cleared {
+    pub(crate) fn clear(
+        &self,
+        planting_price: f64,
+        shock: &PeriodShock,
+        carried: f64,
+        asked: &mut Asked,
+    ) -> Cleared {
         let (planted, harvest) = plant(
             &self.supply,
             planting_price,
             shock.yield_factor,
             shock.supply,
         );
-        self.clear_harvest(planted, harvest, shock, carried)
+        self.clear_harvest(planted, harvest, shock, carried, asked)
     }
 
     /// [`Model::clear`] once the crop is in: `planted` and its `harvest`.
@@ -198,11 +209,12 @@ impl Model {
         harvest: f64,
         shock: &PeriodShock,
         carried: f64,
+        asked: &mut Asked,
     ) -> Cleared {
         if let Some(trade) = &self.trade {
-            return self.clear_open(trade, planted, harvest, shock, carried);
+            return self.clear_open(trade, planted, harvest, shock, carried, asked);
         }
-        self.pay(self.clear_closed(planted, harvest, shock, carried))
+        self.pay(self.clear_closed(planted, harvest, shock, carried, asked))
     }
 
     /// A closed market's clearing before the payment rules ([`Model::pay`]): the rules' trades
@@ -214,9 +226,10 @@ impl Model {
         harvest: f64,
         shock: &PeriodShock,
         carried: f64,
+        asked: &mut Asked,
     ) -> Cleared {
         let untraded = self.untraded_price(harvest, shock);
-        self.clear_closed_at(planted, harvest, shock, carried, untraded)
+        self.clear_closed_at(planted, harvest, shock, carried, untraded, asked)
     }
 
     /// The period's price before any trade: D⁻¹(harvest − shift) on the shocked demand curve.
@@ -234,6 +247,7 @@ impl Model {
         shock: &PeriodShock,
         carried: f64,
         untraded: f64,
+        asked: &mut Asked,
     ) -> Cleared {
         let market = || self.market_at(shock, harvest, carried, untraded);
         if !self.trades_stock {
@@ -245,14 +259,16 @@ impl Model {
         if let Some(band) = &self.band_only {
             // its own market value, which no trait object sees, so the optimiser keeps it in
             // registers and folds the zero trades it starts with
-            let mut m = market();
+            let mut m = market().with_asked(*asked);
             band.defend(&mut m);
+            *asked = m.asked();
             return self.unpaid(planted, harvest, &m, m.price());
         }
-        let mut m = market();
+        let mut m = market().with_asked(*asked);
         for rule in &self.policy.rules {
             rule.trade(&mut m);
         }
+        *asked = m.asked();
         self.unpaid(planted, harvest, &m, m.price())
     }
 
@@ -289,9 +305,10 @@ impl Model {
         shock: &PeriodShock,
         carried: f64,
         untraded: f64,
+        asked: &mut Asked,
     ) -> Cleared {
         debug_assert!(self.trade.is_none());
-        self.pay(self.clear_closed_at(planted, harvest, shock, carried, untraded))
+        self.pay(self.clear_closed_at(planted, harvest, shock, carried, untraded, asked))
     }
 
     /// [`Model::clear`] on a market that trades: the period's border terms at its world price, the
@@ -308,16 +325,19 @@ impl Model {
         harvest: f64,
         shock: &PeriodShock,
         carried: f64,
+        asked: &mut Asked,
     ) -> Cleared {
         let world = trade.world_price_at(shock.world_factor);
         let terms = trade.terms(world, &self.measures);
         let untraded = self.untraded_price(harvest, shock);
         let mut m = self
             .market_at(shock, harvest, carried, untraded)
-            .with_border(terms);
+            .with_border(terms)
+            .with_asked(*asked);
         for rule in &self.policy.rules {
             rule.trade(&mut m);
         }
+        *asked = m.asked();
         let traded = m.traded();
         let mut c = self.pay(self.unpaid(planted, harvest, &m, traded.price));
         c.trade = Some(TradeRecord {
@@ -608,6 +628,9 @@ pub struct Simulator<'m> {
     /// Last period's log world-price factor (None before the first period; kept only for the
     /// rational rule, alone or in a group, on a market that trades).
     last_world: Option<f64>,
+    /// The demand curve's answers at the prices the rules asked about, kept from period to period
+    /// ([`Asked`]: the rules ask about the same few).
+    asked: Asked,
     period: usize,
     /// Farmers in groups (`mixed`, `switching`): each group's forecasts and errors.
     groups: Option<expectations::GroupState>,
@@ -629,6 +652,7 @@ impl<'m> Simulator<'m> {
             stock: model.policy.agency.initial,
             last_demand_shock: 0.0,
             last_world: None,
+            asked: Asked::NONE,
             period: 0,
             groups: model.rule.groups().map(|g| g.start()),
         }
@@ -725,7 +749,7 @@ impl<'m> Simulator<'m> {
                 model.price_bound,
             )));
         }
-        let c = model.clear(planting, shock, carried);
+        let c = model.clear(planting, shock, carried, &mut self.asked);
         let consumption = c.consumption();
         if !cleared_ok(&c, consumption, model.price_bound) {
             return Err(diverged(cleared_failure(
@@ -737,7 +761,7 @@ impl<'m> Simulator<'m> {
         }
         let consumer_payments = model.consumer_payments(c.price, consumption);
         let agency = &model.policy.agency;
-        let record = PeriodRecord::book(
+        let record = PeriodRecord::book_with(
             &model.settled(
                 t,
                 planting,
@@ -748,7 +772,7 @@ impl<'m> Simulator<'m> {
                 shock.demand,
             ),
             agency,
-            &model.demand,
+            model.surplus.at(c.price, shock.demand),
             &model.supply,
         );
         let record = match c.trade {

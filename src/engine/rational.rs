@@ -22,6 +22,7 @@
 use super::{plant, Model, PeriodShock};
 use crate::curves::{Form, Forms};
 use crate::numeric::{gauss_hermite, root_decreasing};
+use crate::policies::Asked;
 use crate::scenario::ShockSpec;
 use crate::trade::Trade;
 
@@ -145,6 +146,8 @@ pub(crate) fn expected_price(
 /// The sum over the nodes of [`expected_price`] at the world factor `world_factor`, each node's
 /// period cleared by [`Model::clear`].
 fn at_each(model: &Model, world_factor: f64, carried: f64, mean_demand: f64, planting: f64) -> f64 {
+    // the rules ask the demand at the same few prices at every node
+    let mut asked = Asked::NONE;
     model
         .nodes
         .points
@@ -156,7 +159,9 @@ fn at_each(model: &Model, world_factor: f64, carried: f64, mean_demand: f64, pla
                 demand: mean_demand + d,
                 world_factor,
             };
-            let paid = model.clear(planting, &shock, carried).producer_price;
+            let paid = model
+                .clear(planting, &shock, carried, &mut asked)
+                .producer_price;
             node_term(model, w, y, paid)
         })
         .sum::<f64>()
@@ -194,6 +199,7 @@ fn at_once(
         .map(|(&(_, harvest), &(_, _, _, d))| harvest - (mean_demand + d))
         .collect();
     demand.price_at_many(&mut prices);
+    let mut asked = Asked::NONE;
     points
         .iter()
         .zip(crops)
@@ -206,7 +212,7 @@ fn at_once(
                 world_factor: 1.0,
             };
             let paid = model
-                .clear_closed_harvest_at(planted, harvest, &shock, carried, untraded)
+                .clear_closed_harvest_at(planted, harvest, &shock, carried, untraded, &mut asked)
                 .producer_price;
             node_term(model, w, y, paid)
         })

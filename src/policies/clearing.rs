@@ -125,9 +125,15 @@ const ASKED: usize = 4;
 /// asking the curve (a linear curve is always asked: its answer costs less than the lookup).
 #[derive(Debug, Clone, Copy)]
 pub struct Asked {
+    /// The prices asked, the latest first.
     prices: [f64; ASKED],
     quantities: [f64; ASKED],
-    next: usize,
+}
+
+impl Default for Asked {
+    fn default() -> Asked {
+        Asked::NONE
+    }
 }
 
 impl Asked {
@@ -135,11 +141,11 @@ impl Asked {
     pub const NONE: Asked = Asked {
         prices: [f64::NAN; ASKED],
         quantities: [0.0; ASKED],
-        next: 0,
     };
 
     /// D(p) without the clamp ([`Curve::quantity_unclamped`]), from the prices asked before when
-    /// `p` is one of them (the oldest answer replaced when it is not).
+    /// `p` is one of them (the oldest answer dropped when it is not). Every place is a constant
+    /// index, so that a market holding the answers can stay in registers.
     #[inline(always)]
     fn quantity(&mut self, demand: &Curve, p: f64) -> f64 {
         if demand.is_linear() {
@@ -151,9 +157,10 @@ impl Asked {
             }
         }
         let q = demand.quantity_unclamped(p);
-        self.prices[self.next] = p;
-        self.quantities[self.next] = q;
-        self.next = (self.next + 1) % ASKED;
+        self.prices.copy_within(..ASKED - 1, 1);
+        self.quantities.copy_within(..ASKED - 1, 1);
+        self.prices[0] = p;
+        self.quantities[0] = q;
         q
     }
 }
@@ -321,11 +328,11 @@ impl<'a> Clearing<'a> {
     /// consumers take at `p`, plus exports when traders export at `p` (closed: D(p) + shift).
     #[inline]
     fn most_left_at_least(&mut self, p: f64) -> f64 {
+        let demanded = self.demanded_at(p);
         if self.trades {
-            self.border
-                .most_supply_at_least(self.demand, self.demand_shift, p)
+            self.border.most_supply_given(demanded, p)
         } else {
-            self.demanded_at(p)
+            demanded
         }
     }
 
@@ -333,11 +340,11 @@ impl<'a> Clearing<'a> {
     /// consumers take at `p`, less imports when traders import at `p` (closed: D(p) + shift).
     #[inline]
     fn least_left_at_most(&mut self, p: f64) -> f64 {
+        let demanded = self.demanded_at(p);
         if self.trades {
-            self.border
-                .least_supply_at_most(self.demand, self.demand_shift, p)
+            self.border.least_supply_given(demanded, p)
         } else {
-            self.demanded_at(p)
+            demanded
         }
     }
 

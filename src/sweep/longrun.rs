@@ -17,7 +17,7 @@
 
 use crate::engine::{Model, PeriodShock};
 use crate::expectations::ExpectationInput;
-use crate::policies::PolicySpec;
+use crate::policies::{Asked, PolicySpec};
 use crate::scenario::Scenario;
 use crate::stability::statespace::{numerical_jacobian, StateLayout};
 
@@ -90,13 +90,20 @@ impl EngineMap<'_> {
                     previous: None,
                     season: 0,
                 });
-                let c = self.model.clear(plant(e), &PeriodShock::NONE, carried);
+                let c =
+                    self.model
+                        .clear(plant(e), &PeriodShock::NONE, carried, &mut Asked::default());
                 out[0] = c.producer_price;
                 out[1..k].copy_from_slice(&x[..k - 1]);
                 c.stock
             }
             StateLayout::Expectation(_) => {
-                let c = self.model.clear(plant(x[0]), &PeriodShock::NONE, carried);
+                let c = self.model.clear(
+                    plant(x[0]),
+                    &PeriodShock::NONE,
+                    carried,
+                    &mut Asked::default(),
+                );
                 let history = [c.producer_price, c.producer_price];
                 out[0] = self.model.rule.expect(&ExpectationInput {
                     history: &history,
@@ -112,11 +119,13 @@ impl EngineMap<'_> {
                 };
                 let price = |pl: f64| {
                     self.model
-                        .clear(pl, &PeriodShock::NONE, carried)
+                        .clear(pl, &PeriodShock::NONE, carried, &mut Asked::default())
                         .producer_price
                 };
                 let pbar = g.apply(x, out, &self.model.supply, self.floor, &price);
-                self.model.clear(pbar, &PeriodShock::NONE, carried).stock
+                self.model
+                    .clear(pbar, &PeriodShock::NONE, carried, &mut Asked::default())
+                    .stock
             }
         }
     }
