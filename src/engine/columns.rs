@@ -160,21 +160,42 @@ impl Columns {
         self.flags[lane] = r.flags;
         self.stockout[lane] = r.stockout;
         if let Some(t) = &r.trade {
-            self.trades = true;
-            let c = &mut self.trade;
-            c.world_price[lane] = t.world_price;
-            c.imports[lane] = t.imports;
-            c.exports[lane] = t.exports;
-            c.border_revenue[lane] = t.border_revenue;
-            c.quota_rent[lane] = t.quota_rent;
-            c.public_imports[lane] = t.public_imports;
-            c.public_import_cost[lane] = t.public_import_cost;
+            self.set_trade(lane, t);
         }
+    }
+
+    /// Writes private trade `t` into lane `lane` (the records carry trade from here on).
+    #[inline(always)]
+    pub fn set_trade(&mut self, lane: usize, t: &TradeRecord) {
+        self.trades = true;
+        let c = &mut self.trade;
+        c.world_price[lane] = t.world_price;
+        c.imports[lane] = t.imports;
+        c.exports[lane] = t.exports;
+        c.border_revenue[lane] = t.border_revenue;
+        c.quota_rent[lane] = t.quota_rent;
+        c.public_imports[lane] = t.public_imports;
+        c.public_import_cost[lane] = t.public_import_cost;
+    }
+
+    /// Lane `lane`'s private trade (what [`Columns::set_trade`] wrote), when the records carry
+    /// trade.
+    #[inline(always)]
+    pub fn trade_record(&self, lane: usize) -> Option<TradeRecord> {
+        let c = &self.trade;
+        self.trades.then(|| TradeRecord {
+            world_price: c.world_price[lane],
+            imports: c.imports[lane],
+            exports: c.exports[lane],
+            border_revenue: c.border_revenue[lane],
+            quota_rent: c.quota_rent[lane],
+            public_imports: c.public_imports[lane],
+            public_import_cost: c.public_import_cost[lane],
+        })
     }
 
     /// Lane `lane`'s record, put back together (what [`Columns::set`] wrote).
     pub fn record(&self, lane: usize) -> PeriodRecord {
-        let c = &self.trade;
         PeriodRecord {
             period: self.period,
             expected_price: self.expected_price[lane],
@@ -199,15 +220,7 @@ impl Columns {
             rotated: self.rotated[lane],
             flags: self.flags[lane],
             stockout: self.stockout[lane],
-            trade: self.trades.then(|| TradeRecord {
-                world_price: c.world_price[lane],
-                imports: c.imports[lane],
-                exports: c.exports[lane],
-                border_revenue: c.border_revenue[lane],
-                quota_rent: c.quota_rent[lane],
-                public_imports: c.public_imports[lane],
-                public_import_cost: c.public_import_cost[lane],
-            }),
+            trade: self.trade_record(lane),
         }
     }
 }

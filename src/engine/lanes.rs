@@ -11,11 +11,17 @@
 //! the expectation rule's own method, the curves' arithmetic ([`Form`], with the form chosen once
 //! per model outside the loops), `Model::clear_closed` and `Model::pay` with the policy's actions
 //! reached once per set of lanes (`PolicyRule::clear_each`, `trade_each`, `pay_each`),
-//! [`PeriodRecord::book_in`] and the small pieces the step is made of (`Model::planting_price`,
+//! [`PeriodRecord::book_with`] and the small pieces the step is made of (`Model::planting_price`,
 //! `Model::settled`, `cleared_ok` …). Only the order of the work differs, never an operation, so
 //! the records are the same bits as [`EachLane<Simulator>`] (tests/lanes.rs). On a linear demand
 //! curve without a purchase budget, when every trading action has a lane form, the markets clear
 //! column by column instead ([`crate::policies::lanes`]: the same operations without branches).
+//! On a constant-elasticity demand curve the powers that many lanes need — the prices before and
+//! after trade, the consumer surplus — are worked out together ([`Form::price_at_many`],
+//! [`Form::consumer_surplus_many`], `ClearLanes::start`/`finish`), and the demand at the prices
+//! the rules defend is kept from lane to lane ([`Asked`]). A market that trades clears each lane
+//! on its own border (`Model::clear_open_at`, its prices before trade worked out together); the
+//! other phases are the closed market's.
 //!
 //! The arithmetic phases (planting, the column clearing, checks, books, state) have AVX2 and
 //! AVX-512 copies, compiled from the same functions; the widest the CPU runs is chosen once per set
@@ -25,8 +31,8 @@
 //! A lane whose path ends in a period gets its columns of that period written all the same (with
 //! values of no meaning, as [`Columns`] allows), where [`EachLane`] leaves them as they were.
 //!
-//! Models whose step is not the same arithmetic on every lane (a market that trades, farmers in
-//! groups, rational expectations) are stepped lane by lane, [`ModelLanes::Each`].
+//! Models whose step is not the same arithmetic on every lane (farmers in groups, rational
+//! expectations) are stepped lane by lane, [`ModelLanes::Each`].
 
 // the phases index several columns by lane in one loop, on purpose
 #![allow(clippy::needless_range_loop)]
@@ -163,6 +169,8 @@ struct Scratch {
     carried: [f64; LANES],
     /// The consumer surplus at the lane's price ([`Form::consumer_surplus_many`]).
     surplus: [f64; LANES],
+    /// The price before any trade on a market that trades ([`clear_open_all`]).
+    untraded: [f64; LANES],
     /// The lane is still going this period.
     live: [bool; LANES],
 }
@@ -173,6 +181,7 @@ impl Scratch {
             expectation: [0.0; LANES],
             carried: [0.0; LANES],
             surplus: [0.0; LANES],
+            untraded: [0.0; LANES],
             live: [false; LANES],
         }
     }
@@ -221,6 +230,7 @@ fn market_columns<'a>(
 #[inline(always)]
 fn cleared(out: &Columns, l: usize) -> Cleared {
     let price = out.price[l];
+    let trade = out.trade_record(l);
     Cleared {
         planted: out.planted[l],
         harvest: out.harvest[l],
@@ -231,30 +241,28 @@ fn cleared(out: &Columns, l: usize) -> Cleared {
         stock: out.stock[l],
         deficiency: out.deficiency_payments[l],
         flags: out.flags[l],
-        trade: None,
+        trade,
         traded: Traded {
             price,
-            imports: 0.0,
-            exports: 0.0,
+            imports: trade.map_or(0.0, |t| t.imports),
+            exports: trade.map_or(0.0, |t| t.exports),
         },
     }
 }
 
 impl<'m> Phased<'m> {
-    /// True for the models whose every lane runs the same phases: a closed market, one
-    /// backward-looking expectation rule (not rational, no groups).
+    /// True for the models whose every lane runs the same phases: one backward-looking
+    /// expectation rule (not rational, no groups), on a closed market or one that trades.
     pub fn takes(model: &Model) -> bool {
-        model.trade.is_none()
-            && !model.is_rational
-            && model.rule.groups().is_none()
-            && !model.rule.is_rational()
+        !model.is_rational && model.rule.groups().is_none() && !model.rule.is_rational()
     }
 
     /// The linear demand curve when every lane's market clears column by column
-    /// ([`crate::policies::lanes`]): a linear demand curve, no purchase budget, and every action
-    /// that trades stock (if any) with a lane form ([`PolicyRule::lanes`](crate::policies::PolicyRule::lanes)).
+    /// ([`crate::policies::lanes`]): a closed market on a linear demand curve, no purchase budget,
+    /// and every action that trades stock (if any) with a lane form
+    /// ([`PolicyRule::lanes`](crate::policies::PolicyRule::lanes)).
     fn lane_form(model: &Model) -> Option<Linear> {
-        let Forms::Linear(demand) = model.demand.form() else {
+        let (None, Forms::Linear(demand)) = (&model.trade, model.demand.form()) else {
             return None;
         };
         let mut traders = model.policy.rules.iter().filter(|r| r.trades_stock());
@@ -542,6 +550,9 @@ fn clear_all<'m>(
     asked: &mut Asked,
 ) {
     let n = n.min(LANES);
+    if let Some(trade) = &model.trade {
+        return clear_open_all(model, trade, n, shocks, s, out, asked);
+    }
     if let (true, Some(demand)) = (all_live, linear) {
         let terms = LaneTerms {
             demand,
@@ -613,6 +624,48 @@ fn clear_all<'m>(
                 deficiency: &mut out.deficiency_payments[..n],
                 consumer: &mut out.consumer_payments[..n],
             });
+        }
+    }
+}
+
+/// [`clear_all`] on a market that trades: every lane's price before any trade together, then
+/// each lane still going cleared on its own border ([`Model::clear_open_at`]: the rules, private
+/// trade, the payments) and its consumer payments, as [`Simulator::step`](super::Simulator::step)
+/// clears and pays it.
+#[inline(never)]
+fn clear_open_all(
+    model: &Model,
+    trade: &crate::trade::Trade,
+    n: usize,
+    shocks: &ShockColumns,
+    s: &mut Scratch,
+    out: &mut Columns,
+    asked: &mut Asked,
+) {
+    let n = n.min(LANES);
+    let untraded = &mut s.untraded[..n];
+    for l in 0..n {
+        untraded[l] = out.harvest[l] - shocks.demand[l];
+    }
+    model.demand.price_at_many(untraded);
+    for l in 0..n {
+        if s.live[l] {
+            let shock = shocks.get(l);
+            let (planted, harvest) = (out.planted[l], out.harvest[l]);
+            let c = model.clear_open_at(
+                trade,
+                planted,
+                harvest,
+                &shock,
+                s.carried[l],
+                s.untraded[l],
+                asked,
+            );
+            put_cleared(out, l, &c);
+            if let Some(t) = &c.trade {
+                out.set_trade(l, t);
+            }
+            out.consumer_payments[l] = model.consumer_payments(c.price, out.consumption[l]);
         }
     }
 }
@@ -698,20 +751,26 @@ fn book<D: Form, S: Form>(
     } else {
         demand.consumer_surplus(out.price[l], shift)
     };
-    PeriodRecord::book_with(
+    let c = cleared(out, l);
+    let agency = &model.policy.agency;
+    let r = PeriodRecord::book_with(
         &model.settled(
             t,
             out.expected_price[l],
-            &cleared(out, l),
+            &c,
             out.consumption[l],
             out.consumer_payments[l],
             s.carried[l],
             shift,
         ),
-        &model.policy.agency,
+        agency,
         surplus,
         supply,
-    )
+    );
+    match c.trade {
+        Some(trade) => r.with_trade(trade, agency.handling_cost),
+        None => r,
+    }
 }
 
 simd_copies! {

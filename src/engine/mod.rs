@@ -327,9 +327,26 @@ impl Model {
         carried: f64,
         asked: &mut Asked,
     ) -> Cleared {
+        let untraded = self.untraded_price(harvest, shock);
+        self.clear_open_at(trade, planted, harvest, shock, carried, untraded, asked)
+    }
+
+    /// [`Model::clear_open`] with the price before any trade, D⁻¹(harvest − shift), given (the
+    /// phased lanes work out every lane's at once).
+    #[inline(always)]
+    #[allow(clippy::too_many_arguments)]
+    fn clear_open_at(
+        &self,
+        trade: &Trade,
+        planted: f64,
+        harvest: f64,
+        shock: &PeriodShock,
+        carried: f64,
+        untraded: f64,
+        asked: &mut Asked,
+    ) -> Cleared {
         let world = trade.world_price_at(shock.world_factor);
         let terms = trade.terms(world, &self.measures);
-        let untraded = self.untraded_price(harvest, shock);
         let mut m = self
             .market_at(shock, harvest, carried, untraded)
             .with_border(terms)
