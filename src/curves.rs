@@ -436,7 +436,7 @@ impl Form for Elastic {
     const TOGETHER: bool = true;
 
     /// The powers (Q/Q̄)^(1/ε) worked out together
-    /// ([`crate::numeric::pow::pow_in_place`]), [`POWERS_AT_ONCE`] at a time.
+    /// ([`crate::numeric::pow::pow_in_place`]), 64 at a time.
     fn price_at_many(&self, quantities: &mut [f64]) {
         let y = 1.0 / self.elasticity;
         let mut powers = [0.0; POWERS_AT_ONCE];
@@ -457,7 +457,7 @@ impl Form for Elastic {
     }
 
     /// The powers P^(ε+1) of [`Elastic::area_between`] worked out together
-    /// ([`crate::numeric::pow::pow_in_place`]), [`POWERS_AT_ONCE`] at a time; the area up to the
+    /// ([`crate::numeric::pow::pow_in_place`]), 64 at a time; the area up to the
     /// reference price once.
     fn consumer_surplus_many(&self, prices: &[f64], shifts: &[f64], into: &mut [f64]) {
         if self.area_is_log() {

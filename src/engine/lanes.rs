@@ -230,7 +230,6 @@ fn market_columns<'a>(
 #[inline(always)]
 fn cleared(out: &Columns, l: usize) -> Cleared {
     let price = out.price[l];
-    let trade = out.trade_record(l);
     Cleared {
         planted: out.planted[l],
         harvest: out.harvest[l],
@@ -241,11 +240,11 @@ fn cleared(out: &Columns, l: usize) -> Cleared {
         stock: out.stock[l],
         deficiency: out.deficiency_payments[l],
         flags: out.flags[l],
-        trade,
+        trade: None,
         traded: Traded {
             price,
-            imports: trade.map_or(0.0, |t| t.imports),
-            exports: trade.map_or(0.0, |t| t.exports),
+            imports: 0.0,
+            exports: 0.0,
         },
     }
 }
@@ -389,7 +388,11 @@ impl<'m> Phased<'m> {
         // the checks: one combined test per lane, the messages only when one fails
         if !check_all(simd, model, n, s, out) {
             for l in 0..n {
-                let c = cleared(out, l);
+                // the lane's trade too: a failure names its world price
+                let c = Cleared {
+                    trade: out.trade_record(l),
+                    ..cleared(out, l)
+                };
                 if s.live[l] && !cleared_ok(&c, out.consumption[l], model.price_bound) {
                     s.live[l] = false;
                     failed[l] = Some(Diverged {
@@ -408,6 +411,9 @@ impl<'m> Phased<'m> {
         // the books: what the period's columns do not hold yet (a lane that failed writes values
         // of no meaning)
         book_all(simd, model, demand, supply, t, n, &shocks.demand, s, out);
+        if out.trades {
+            book_trade_all(model, n, out);
+        }
         if s.live[..n].iter().any(|&x| x) {
             out.period = t;
         }
@@ -751,25 +757,33 @@ fn book<D: Form, S: Form>(
     } else {
         demand.consumer_surplus(out.price[l], shift)
     };
-    let c = cleared(out, l);
-    let agency = &model.policy.agency;
-    let r = PeriodRecord::book_with(
+    PeriodRecord::book_with(
         &model.settled(
             t,
             out.expected_price[l],
-            &c,
+            &cleared(out, l),
             out.consumption[l],
             out.consumer_payments[l],
             s.carried[l],
             shift,
         ),
-        agency,
+        &model.policy.agency,
         surplus,
         supply,
-    );
-    match c.trade {
-        Some(trade) => r.with_trade(trade, agency.handling_cost),
-        None => r,
+    )
+}
+
+/// What each lane's private trade adds to its books ([`TradeRecord::booked`], as
+/// [`PeriodRecord::with_trade`] adds it to the scalar step's record), once `book_all` has written
+/// them (a lane that failed writes values of no meaning).
+#[inline(never)]
+fn book_trade_all(model: &Model, n: usize, out: &mut Columns) {
+    let handling = model.policy.agency.handling_cost;
+    for l in 0..n.min(LANES) {
+        if let Some(t) = out.trade_record(l) {
+            (out.fiscal_cost[l], out.handling_cost[l]) =
+                t.booked(out.fiscal_cost[l], out.handling_cost[l], handling);
+        }
     }
 }
 

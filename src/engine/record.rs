@@ -87,6 +87,23 @@ pub struct TradeRecord {
     pub public_import_cost: f64,
 }
 
+impl TradeRecord {
+    /// A period's fiscal cost and handling cost once this trade is booked
+    /// ([`PeriodRecord::with_trade`]): the border receipts off the fiscal cost, public imports'
+    /// landed cost and entry handling (`handling` a unit) on it.
+    #[inline(always)]
+    pub fn booked(&self, fiscal_cost: f64, handling_cost: f64, handling: f64) -> (f64, f64) {
+        let mut fiscal_cost = fiscal_cost - self.border_revenue;
+        let mut handling_cost = handling_cost;
+        if self.public_imports > 0.0 {
+            let entry = handling * self.public_imports;
+            handling_cost += entry;
+            fiscal_cost += self.public_import_cost + entry;
+        }
+        (fiscal_cost, handling_cost)
+    }
+}
+
 impl PeriodRecord {
     /// Private imports (0 in a closed market).
     #[inline]
@@ -118,12 +135,8 @@ impl PeriodRecord {
     /// stock, `handling` per unit (their release is handled, and sold, with the other releases).
     #[inline]
     pub fn with_trade(mut self, trade: TradeRecord, handling: f64) -> PeriodRecord {
-        self.fiscal_cost -= trade.border_revenue;
-        if trade.public_imports > 0.0 {
-            let entry = handling * trade.public_imports;
-            self.handling_cost += entry;
-            self.fiscal_cost += trade.public_import_cost + entry;
-        }
+        (self.fiscal_cost, self.handling_cost) =
+            trade.booked(self.fiscal_cost, self.handling_cost, handling);
         self.trade = Some(trade);
         self
     }
