@@ -81,6 +81,18 @@ fn border_scenario() -> Scenario {
     market_from_table("bench.toml", parse_toml("bench.toml", &text).unwrap()).unwrap()
 }
 
+/// The market on a constant-elasticity demand curve through the same point (the powers of its
+/// prices and surpluses are most of a step).
+fn elastic_scenario() -> Scenario {
+    let text = MARKET.replacen(
+        "[demand]\nform = \"linear\"",
+        "[demand]\nform = \"constant-elasticity\"",
+        1,
+    );
+    assert_ne!(text, MARKET);
+    market_from_table("bench.toml", parse_toml("bench.toml", &text).unwrap()).unwrap()
+}
+
 fn policy(text: &str) -> PolicySpec {
     policy_from_table("p.toml", parse_toml("p.toml", text).unwrap()).unwrap()
 }
@@ -290,13 +302,22 @@ fn compare_end_to_end(c: &mut Criterion) {
             BatchSize::PerIteration,
         )
     });
-    // the same job on a market with a border (the engine lane by lane, and the leakage of each
-    // policy's trades abroad folded as the replications run)
+    // the same job on a market with a border (each lane cleared on its own border, and the
+    // leakage of each policy's trades abroad folded as the replications run)
     let open = border_scenario();
     g.bench_function("border_10000x100x5_policies_no_fans", |b| {
         b.iter_batched(
             || (),
             |_| compare_indicators(&open, &ps, &NoProgress).unwrap(),
+            BatchSize::PerIteration,
+        )
+    });
+    // the same job on a constant-elasticity demand curve
+    let elastic = elastic_scenario();
+    g.bench_function("elastic_10000x100x5_policies_no_fans", |b| {
+        b.iter_batched(
+            || (),
+            |_| compare_indicators(&elastic, &ps, &NoProgress).unwrap(),
             BatchSize::PerIteration,
         )
     });
