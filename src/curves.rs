@@ -209,6 +209,26 @@ pub trait Form: Copy {
         }
     }
 
+    /// [`Form::quantity`] at each price, into `into` (the same bits; a form may work them out
+    /// together). `into` as long as `prices`.
+    #[inline(always)]
+    fn quantity_many(&self, prices: &[f64], into: &mut [f64]) {
+        let into = &mut into[..prices.len()];
+        for (q, &p) in into.iter_mut().zip(prices) {
+            *q = self.quantity(p);
+        }
+    }
+
+    /// [`Form::production_cost`] of each quantity, into `into` (the same bits; a form may work
+    /// them out together). `into` as long as `quantities`.
+    #[inline(always)]
+    fn production_cost_many(&self, quantities: &[f64], into: &mut [f64]) {
+        let into = &mut into[..quantities.len()];
+        for (c, &q) in into.iter_mut().zip(quantities) {
+            *c = self.production_cost(q);
+        }
+    }
+
     /// [`Form::consumer_surplus`] at each price, on the curve shifted by the matching shift,
     /// into `into` (the same bits; a form may work them out together). Every slice as long as
     /// `prices`.
@@ -337,6 +357,30 @@ impl Elastic {
         )
     }
 
+    /// What the production cost of any quantity needs of the curve: ln P̄ and ln(ε/(1 + ε)).
+    #[inline(always)]
+    fn cost_constants(&self) -> (f64, f64) {
+        let e = self.elasticity;
+        (self.at_price.ln(), (e / (1.0 + e)).ln())
+    }
+
+    /// The logarithm of the production cost of `q` > 0 given [`Elastic::cost_constants`]:
+    /// ∫_0^q P̄ (x/Q̄)^{1/ε} dx = q · S⁻¹(q) · ε/(1 + ε), in logs (the direct q^{1 + 1/ε}
+    /// overflows for small elasticities, ε < 0.01, although the cost is finite).
+    #[inline(always)]
+    fn ln_cost(&self, (ln_price, ln_share): (f64, f64), q: f64) -> f64 {
+        ln_price + q.ln() + (q / self.at_quantity).ln() / self.elasticity + ln_share
+    }
+
+    /// [`Form::production_cost`] of `q` given [`Elastic::cost_constants`] (nothing for q ≤ 0).
+    #[inline(always)]
+    fn cost_with(&self, constants: (f64, f64), q: f64) -> f64 {
+        if q <= 0.0 {
+            return 0.0;
+        }
+        self.ln_cost(constants, q).exp()
+    }
+
     /// [`Form::consumer_surplus`] at `p` (ε ≠ −1) from [`Elastic::surplus_constants`] and the
     /// power p^(ε+1): `area_between(p, P̄, shift)`, prim(P̄) − prim(p) + shift (P̄ − p).
     #[inline(always)]
@@ -381,6 +425,39 @@ impl Surplus {
     }
 }
 
+/// A supply curve's production cost ([`Form::production_cost`]) with what does not depend on the
+/// quantity worked out once: a constant-elasticity curve's two constant logarithms, two of the
+/// four of every call otherwise. The same bits as the curve's.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Cost {
+    curve: Curve,
+    /// [`Elastic::cost_constants`] of a constant-elasticity curve.
+    constants: Option<(f64, f64)>,
+}
+
+impl Cost {
+    /// The production cost on `supply`.
+    pub fn of(supply: &Curve) -> Cost {
+        let constants = match supply.form() {
+            Forms::Elastic(e) => Some(e.cost_constants()),
+            Forms::Linear(_) => None,
+        };
+        Cost {
+            curve: *supply,
+            constants,
+        }
+    }
+
+    /// The cost of producing `q` ([`Curve::production_cost`]).
+    #[inline(always)]
+    pub fn at(&self, q: f64) -> f64 {
+        match (self.curve.form(), self.constants) {
+            (Forms::Elastic(e), Some(constants)) => e.cost_with(constants, q),
+            _ => self.curve.production_cost(q),
+        }
+    }
+}
+
 impl Form for Elastic {
     #[inline(always)]
     fn quantity(&self, p: f64) -> f64 {
@@ -416,21 +493,55 @@ impl Form for Elastic {
 
     #[inline(always)]
     fn production_cost(&self, q: f64) -> f64 {
-        let Elastic {
-            at_price,
-            at_quantity,
-            elasticity,
-        } = *self;
-        if q <= 0.0 {
-            return 0.0;
+        self.cost_with(self.cost_constants(), q)
+    }
+
+    /// The powers (P/P̄)^ε worked out together ([`crate::numeric::pow::pow_in_place`]), 64 at a
+    /// time.
+    fn quantity_many(&self, prices: &[f64], into: &mut [f64]) {
+        let n = prices.len();
+        let into = &mut into[..n];
+        let mut powers = [0.0; POWERS_AT_ONCE];
+        for start in (0..n).step_by(POWERS_AT_ONCE) {
+            let end = (start + POWERS_AT_ONCE).min(n);
+            let powers = &mut powers[..end - start];
+            for (x, &p) in powers.iter_mut().zip(&prices[start..end]) {
+                *x = p / self.at_price;
+            }
+            crate::numeric::pow::pow_in_place(powers, self.elasticity);
+            for (l, &x) in (start..end).zip(powers.iter()) {
+                into[l] = if prices[l] <= 0.0 {
+                    self.quantity(prices[l])
+                } else {
+                    self.at_quantity * x
+                };
+            }
         }
-        // ∫_0^q p̄ (x/q̄)^{1/e} dx = q · S⁻¹(q) · e/(1 + e), computed in logs: the direct
-        // q^{1 + 1/e} overflows for small elasticities (e < 0.01) although the cost is finite
-        let ln_cost = at_price.ln()
-            + q.ln()
-            + (q / at_quantity).ln() / elasticity
-            + (elasticity / (1.0 + elasticity)).ln();
-        ln_cost.exp()
+    }
+
+    /// The logarithms that do not depend on the quantity once, the exponentials worked out
+    /// together ([`crate::numeric::exp::exp_in_place`]), 64 at a time.
+    fn production_cost_many(&self, quantities: &[f64], into: &mut [f64]) {
+        let n = quantities.len();
+        let into = &mut into[..n];
+        let constants = self.cost_constants();
+        let mut logs = [0.0; POWERS_AT_ONCE];
+        for start in (0..n).step_by(POWERS_AT_ONCE) {
+            let end = (start + POWERS_AT_ONCE).min(n);
+            let logs = &mut logs[..end - start];
+            for (x, &q) in logs.iter_mut().zip(&quantities[start..end]) {
+                // a quantity ≤ 0 costs nothing: its slot holds a number of no meaning
+                *x = if q <= 0.0 {
+                    0.0
+                } else {
+                    self.ln_cost(constants, q)
+                };
+            }
+            crate::numeric::exp::exp_in_place(logs);
+            for (l, &x) in (start..end).zip(logs.iter()) {
+                into[l] = if quantities[l] <= 0.0 { 0.0 } else { x };
+            }
+        }
     }
 
     const TOGETHER: bool = true;
@@ -505,6 +616,16 @@ impl Form for Curve {
     #[inline]
     fn price_at_many(&self, quantities: &mut [f64]) {
         on_form!(self, f => f.price_at_many(quantities))
+    }
+
+    #[inline]
+    fn quantity_many(&self, prices: &[f64], into: &mut [f64]) {
+        on_form!(self, f => f.quantity_many(prices, into))
+    }
+
+    #[inline]
+    fn production_cost_many(&self, quantities: &[f64], into: &mut [f64]) {
+        on_form!(self, f => f.production_cost_many(quantities, into))
     }
 
     #[inline]
@@ -645,6 +766,47 @@ mod tests {
                 e.consumer_surplus_many(&prices, &shifts, &mut got);
                 let got: Vec<u64> = got.iter().map(|x| x.to_bits()).collect();
                 assert_eq!(got, want, "elasticity {elasticity}, {n} prices");
+            }
+        }
+    }
+
+    #[test]
+    fn quantities_and_costs_worked_out_together_are_each_ones_bits() {
+        // an identity (no outside source), as above: every quantity and every production cost has
+        // the bits of `quantity` and `production_cost` alone (`Cost::at` too), small elasticities
+        // (the cost in logs) and the ends of the curve included, on and off a batch's edge
+        for elasticity in [0.005, 0.2, 0.7, 1.0, 3.0] {
+            let e = Elastic {
+                at_price: 210.0,
+                at_quantity: 480.0,
+                elasticity,
+            };
+            let e = std::hint::black_box(e);
+            let cost = Cost::of(&Curve::ConstantElasticity {
+                at_price: 210.0,
+                at_quantity: 480.0,
+                elasticity,
+            });
+            for n in [0, 1, 63, 64, 65, 1_000] {
+                let mut xs: Vec<f64> = (0..n).map(|i| 150.0 + 0.3 * i as f64).collect();
+                for (i, x) in [0.0, -0.0, -5.0, f64::NAN, 1e-300, 1e300, f64::INFINITY]
+                    .into_iter()
+                    .enumerate()
+                {
+                    if i < n {
+                        xs[i * n / 7] = x;
+                    }
+                }
+                let bits = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<u64>>();
+                let mut got = vec![0.0; n];
+                e.quantity_many(&xs, &mut got);
+                let want: Vec<f64> = xs.iter().map(|&p| e.quantity(p)).collect();
+                assert_eq!(bits(&got), bits(&want), "quantities, ε {elasticity}, {n}");
+                e.production_cost_many(&xs, &mut got);
+                let want: Vec<f64> = xs.iter().map(|&q| e.production_cost(q)).collect();
+                assert_eq!(bits(&got), bits(&want), "costs, ε {elasticity}, {n}");
+                let kept: Vec<f64> = xs.iter().map(|&q| cost.at(q)).collect();
+                assert_eq!(bits(&kept), bits(&want), "Cost::at, ε {elasticity}, {n}");
             }
         }
     }

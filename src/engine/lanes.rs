@@ -39,8 +39,8 @@
 
 use super::columns::{Columns, EachLane, LaneStepper, ShockColumns, LANES};
 use super::{
-    cleared_failure, cleared_ok, consumption, expected_price_failure, plant, Cleared, Diverged,
-    Model, PeriodRecord, Simulator,
+    cleared_failure, cleared_ok, consumption, expected_price_failure, harvest_of, plant, Cleared,
+    Diverged, Model, PeriodRecord, Simulator,
 };
 use crate::curves::{Form, Forms, Linear};
 use crate::expectations::{Adaptive, ExpectationInput};
@@ -169,6 +169,8 @@ struct Scratch {
     carried: [f64; LANES],
     /// The consumer surplus at the lane's price ([`Form::consumer_surplus_many`]).
     surplus: [f64; LANES],
+    /// The cost of the lane's crop ([`Form::production_cost_many`]).
+    cost: [f64; LANES],
     /// The price before any trade on a market that trades ([`clear_open_all`]).
     untraded: [f64; LANES],
     /// The lane is still going this period.
@@ -181,6 +183,7 @@ impl Scratch {
             expectation: [0.0; LANES],
             carried: [0.0; LANES],
             surplus: [0.0; LANES],
+            cost: [0.0; LANES],
             untraded: [0.0; LANES],
             live: [false; LANES],
         }
@@ -505,7 +508,9 @@ simd_copies! {
 
 simd_copies! {
     /// The planting price, the stock carried in, the crop and the harvest of every lane; false when
-    /// some lane still going has an expected price out of bounds.
+    /// some lane still going has an expected price out of bounds. On a supply curve that works out
+    /// its quantities together ([`Form::TOGETHER`]) the crops are worked out at once
+    /// ([`Form::quantity_many`]) between the prices and the harvests.
     #[inline(never)]
     fn plant_all[S: Form](
         model: &Model,
@@ -517,19 +522,42 @@ simd_copies! {
         out: &mut Columns,
     ) -> bool {
         let n = n.min(LANES);
-        let agency = &model.policy.agency;
         let mut all_ok = true;
+        if S::TOGETHER {
+            for l in 0..n {
+                all_ok &= planting_of(model, l, stock, s, out);
+            }
+            supply.quantity_many(&out.expected_price[..n], &mut out.planted[..n]);
+            for l in 0..n {
+                out.harvest[l] = harvest_of(out.planted[l], shocks.yield_factor[l], shocks.supply[l]);
+            }
+            return all_ok;
+        }
         for l in 0..n {
-            let planting = model.planting_price(s.expectation[l]);
-            out.expected_price[l] = planting;
-            s.carried[l] = agency.carried(stock[l]);
+            all_ok &= planting_of(model, l, stock, s, out);
+            let planting = out.expected_price[l];
             let (planted, harvest) = plant(supply, planting, shocks.yield_factor[l], shocks.supply[l]);
             out.planted[l] = planted;
             out.harvest[l] = harvest;
-            all_ok &= model.expectation_ok(planting) | !s.live[l];
         }
         all_ok
     }
+}
+
+/// Lane `l`'s planting price and the stock it carries in, written into `out` and `s`; whether the
+/// price is one the model means anything at, or the lane's path has ended.
+#[inline(always)]
+fn planting_of(
+    model: &Model,
+    l: usize,
+    stock: &[f64; LANES],
+    s: &mut Scratch,
+    out: &mut Columns,
+) -> bool {
+    let planting = model.planting_price(s.expectation[l]);
+    out.expected_price[l] = planting;
+    s.carried[l] = model.policy.agency.carried(stock[l]);
+    model.expectation_ok(planting) | !s.live[l]
 }
 
 /// The clearing of every lane still going ([`Model::clear_harvest`]): the policy's trades, then
@@ -706,10 +734,10 @@ simd_copies! {
 
 simd_copies! {
     /// The books of every lane ([`PeriodRecord::book_with`]) written into `out`, which holds the
-    /// rest of each record already: on a demand curve that works them out together
-    /// ([`Form::TOGETHER`]) the consumer surplus at every lane's price first
-    /// ([`Form::consumer_surplus_many`]), then the numbers in one loop, the flags and stock-outs in
-    /// another (each loop keeps of the booking what it writes).
+    /// rest of each record already: on curves that work them out together ([`Form::TOGETHER`])
+    /// the consumer surplus at every lane's price and the cost of every lane's crop first
+    /// ([`Form::consumer_surplus_many`], [`Form::production_cost_many`]), then the numbers in one
+    /// loop, the flags and stock-outs in another (each loop keeps of the booking what it writes).
     #[inline(never)]
     fn book_all[D: Form, S: Form](
         model: &Model,
@@ -725,6 +753,9 @@ simd_copies! {
         if D::TOGETHER {
             demand.consumer_surplus_many(&out.price[..n], &shift[..n], &mut s.surplus[..n]);
         }
+        if S::TOGETHER {
+            supply.production_cost_many(&out.planted[..n], &mut s.cost[..n]);
+        }
         for l in 0..n {
             let r = book(model, demand, supply, t, shift[l], s, out, l);
             put_booked(out, l, &r);
@@ -738,8 +769,9 @@ simd_copies! {
 }
 
 /// Lane `l`'s books ([`Model::settled`], [`PeriodRecord::book_with`]) from the period's values in
-/// `out` (before the booking writes its own); its consumer surplus from `s` when the demand's form
-/// works them out together ([`Form::TOGETHER`]: `book_all` did), else worked out here.
+/// `out` (before the booking writes its own); its consumer surplus and its crop's cost from `s`
+/// where the curve's form works them out together ([`Form::TOGETHER`]: `book_all` did), else
+/// worked out here.
 #[inline(always)]
 #[allow(clippy::too_many_arguments)]
 fn book<D: Form, S: Form>(
@@ -757,6 +789,11 @@ fn book<D: Form, S: Form>(
     } else {
         demand.consumer_surplus(out.price[l], shift)
     };
+    let cost = if S::TOGETHER {
+        s.cost[l]
+    } else {
+        supply.production_cost(out.planted[l])
+    };
     PeriodRecord::book_with(
         &model.settled(
             t,
@@ -769,7 +806,7 @@ fn book<D: Form, S: Form>(
         ),
         &model.policy.agency,
         surplus,
-        supply,
+        cost,
     )
 }
 

@@ -20,7 +20,7 @@ pub use lanes::ModelLanes;
 pub use path::{each_lane, PathModel, Stepper};
 pub use record::{floor_binding, PeriodRecord, Settled, TradeRecord};
 
-use crate::curves::{Curve, Form, Surplus};
+use crate::curves::{Cost, Curve, Form, Surplus};
 use crate::expectations::{self, ExpectationInput, ExpectationRule};
 use crate::policies::PolicySpec;
 use crate::policies::{self, Asked, Clearing, Policy};
@@ -80,6 +80,8 @@ pub struct Model {
     nodes: rational::Nodes,
     /// The consumer surplus on the demand curve, its constants worked out once (the booking's).
     surplus: Surplus,
+    /// The production cost on the supply curve, its constants worked out once (the booking's).
+    cost: Cost,
     /// `policy.planting_floor()` and `rule.is_rational()`, fixed for the model (looked up once, not
     /// every period).
     planting_floor: Option<f64>,
@@ -145,6 +147,7 @@ impl Model {
         }
         Model {
             surplus: Surplus::of(&scenario.market.demand),
+            cost: Cost::of(&scenario.market.supply),
             demand: scenario.market.demand,
             supply: scenario.market.supply,
             rule,
@@ -572,8 +575,13 @@ pub(crate) fn plant<S: Form>(
     supply_shock: f64,
 ) -> (f64, f64) {
     let planted = supply.quantity(planting_price);
-    let harvest = (planted * yield_factor + supply_shock).max(0.0);
-    (planted, harvest)
+    (planted, harvest_of(planted, yield_factor, supply_shock))
+}
+
+/// The harvest of a crop of `planted`: max(0, planted·yield + supply shock) ([`plant`]'s).
+#[inline(always)]
+pub(crate) fn harvest_of(planted: f64, yield_factor: f64, supply_shock: f64) -> f64 {
+    (planted * yield_factor + supply_shock).max(0.0)
 }
 
 /// Why an unbounded purchase ends a run (built only when it happens).
@@ -790,7 +798,7 @@ impl<'m> Simulator<'m> {
             ),
             agency,
             model.surplus.at(c.price, shock.demand),
-            &model.supply,
+            model.cost.at(c.planted),
         );
         let record = match c.trade {
             Some(trade) => record.with_trade(trade, agency.handling_cost),

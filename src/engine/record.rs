@@ -226,18 +226,19 @@ impl PeriodRecord {
         supply: &S,
     ) -> PeriodRecord {
         let market_surplus = demand.consumer_surplus(s.price, s.demand_shock);
-        Self::book_with(s, agency, market_surplus, supply)
+        Self::book_with(s, agency, market_surplus, supply.production_cost(s.planted))
     }
 
     /// [`PeriodRecord::book_in`] given the consumer surplus at the period's price on the shocked
-    /// demand curve, `market_surplus` (callers that work out many at once:
-    /// [`Form::consumer_surplus_many`]).
+    /// demand curve, `market_surplus`, and the cost of producing the planted quantity,
+    /// `production_cost` (callers that work out many at once: [`Form::consumer_surplus_many`],
+    /// [`Form::production_cost_many`]).
     #[inline(always)]
-    pub fn book_with<S: Form>(
+    pub fn book_with(
         s: &Settled,
         agency: &Agency,
         market_surplus: f64,
-        supply: &S,
+        production_cost: f64,
     ) -> PeriodRecord {
         let purchase_cost = s.price * s.purchases;
         let sales_revenue = s.price * s.releases;
@@ -277,7 +278,7 @@ impl PeriodRecord {
             stock: s.stock,
             fiscal_cost,
             consumer_surplus,
-            producer_surplus: s.producer_price * s.harvest - supply.production_cost(s.planted),
+            producer_surplus: s.producer_price * s.harvest - production_cost,
             purchase_cost,
             sales_revenue,
             storage_cost,
