@@ -19,7 +19,7 @@
 //! is exp(ρ x_{t−1} + s √(1 − ρ²) z − s²/2) at the node z (before the first period x is drawn from
 //! its stationary law N(0, s²): the factor exp(s z − s²/2)).
 
-use super::{plant, Model, PeriodShock};
+use super::{harvest_of, Model, PeriodShock};
 use crate::curves::{Form, Forms};
 use crate::numeric::{gauss_hermite, root_decreasing};
 use crate::policies::Asked;
@@ -191,9 +191,11 @@ fn at_once(
     planting: f64,
 ) -> f64 {
     let points = &model.nodes.points;
+    // every node plants the same crop on the same price (`plant`'s quantity, asked once)
+    let planted = model.supply.quantity(planting);
     let crops: Vec<(f64, f64)> = points
         .iter()
-        .map(|&(_, y, s, _)| plant(&model.supply, planting, y, s))
+        .map(|&(_, y, s, _)| (planted, harvest_of(planted, y, s)))
         .collect();
     let mut prices: Vec<f64> = (crops.iter().zip(points))
         .map(|(&(_, harvest), &(_, _, _, d))| harvest - (mean_demand + d))
@@ -251,15 +253,19 @@ mod tests {
     #[test]
     fn the_nodes_priced_at_once_give_the_bits_of_each_node_cleared_alone() {
         // an identity (no outside source): on a closed constant-elasticity market, with and
-        // without a rule that trades stock, planting on price and on revenue, at planting prices
-        // across the band and beyond, `at_once` is `at_each` to the bit
-        for plants_on in ["", "plants_on = \"revenue\"\n"] {
+        // without a rule that trades stock, planting on price and on revenue, on a linear and a
+        // constant-elasticity supply curve, at planting prices across the band and beyond,
+        // `at_once` is `at_each` to the bit
+        let ways = ["", "plants_on = \"revenue\"\n"]
+            .into_iter()
+            .flat_map(|p| ["linear", "constant-elasticity"].map(|f| (p, f)));
+        for (plants_on, supply) in ways {
             let s = market_from_str(
                 "m.toml",
                 &format!(
                     "[demand]\nform = \"constant-elasticity\"\nat_price = 210.0\n\
                      at_quantity = 480.0\nelasticity = -0.25\n[supply]\n{plants_on}\
-                     form = \"linear\"\nat_price = 210.0\nat_quantity = 480.0\n\
+                     form = \"{supply}\"\nat_price = 210.0\nat_quantity = 480.0\n\
                      elasticity = 0.2\n[expectations]\nrule = \"rational\"\n\
                      [shocks]\nyield_cv = 0.12\ndemand_sd = 5.0\ndemand_persistence = 0.3\n"
                 ),
