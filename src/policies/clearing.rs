@@ -225,10 +225,13 @@ impl<'a> Clearing<'a> {
     }
 
     /// This market with the answers `asked` of the demand curve at prices asked before (another
-    /// market's on the same curve: [`Clearing::asked`]).
+    /// market's on the same curve: [`Clearing::asked`]). A linear curve is always asked, so its
+    /// market takes none (and hands on none): nothing to copy.
     #[inline(always)]
     pub fn with_asked(mut self, asked: Asked) -> Self {
-        self.asked = asked;
+        if !self.demand.is_linear() {
+            self.asked = asked;
+        }
         self
     }
 
