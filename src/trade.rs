@@ -222,16 +222,11 @@ impl BorderTerms {
     }
 
     /// The most supply the market can take with its price still at least `p` (what an agency
-    /// buying to hold the price at `p` leaves in the market): D(p) + shift, plus the export quota
-    /// when traders export at `p` (∞ without a quota: exports absorb any surplus at parity), less
-    /// the import quota when `p` is above import parity (−∞ without one: no purchase lifts the
-    /// price above import parity).
-    pub fn most_supply_at_least(&self, demand: &Curve, shift: f64, p: f64) -> f64 {
-        self.most_supply_given(demand.quantity_unclamped(p) + shift, p)
-    }
-
-    /// [`BorderTerms::most_supply_at_least`] given what consumers take at `p`, `demanded` =
-    /// D(p) + shift (a caller that keeps the curve's answers: `policies::clearing::Asked`).
+    /// buying to hold the price at `p` leaves in the market), given what consumers take at `p`,
+    /// `demanded` = D(p) + shift (the caller asks the curve, keeping its answers:
+    /// `policies::clearing::Asked`): plus the export quota when traders export at `p` (∞ without
+    /// a quota: exports absorb any surplus at parity), less the import quota when `p` is above
+    /// import parity (−∞ without one: no purchase lifts the price above import parity).
     #[inline]
     pub fn most_supply_given(&self, demanded: f64, p: f64) -> f64 {
         let mut q = demanded;
@@ -245,15 +240,10 @@ impl BorderTerms {
     }
 
     /// The least supply the market needs for its price to be at most `p` (what an agency selling
-    /// to hold the price down to `p` must put in the market): D(p) + shift, less the import quota
-    /// when traders import at `p` (−∞ without a quota: imports fill any gap at parity), plus the
-    /// export quota when `p` is below export parity (∞ without one).
-    pub fn least_supply_at_most(&self, demand: &Curve, shift: f64, p: f64) -> f64 {
-        self.least_supply_given(demand.quantity_unclamped(p) + shift, p)
-    }
-
-    /// [`BorderTerms::least_supply_at_most`] given what consumers take at `p`, `demanded` =
-    /// D(p) + shift (as [`BorderTerms::most_supply_given`]).
+    /// to hold the price down to `p` must put in the market), given `demanded` = D(p) + shift (as
+    /// [`BorderTerms::most_supply_given`]): less the import quota when traders import at `p` (−∞
+    /// without a quota: imports fill any gap at parity), plus the export quota when `p` is below
+    /// export parity (∞ without one).
     #[inline]
     pub fn least_supply_given(&self, demanded: f64, p: f64) -> f64 {
         let mut q = demanded;
@@ -390,13 +380,16 @@ mod tests {
     fn supply_bounds_follow_the_kinked_curve() {
         let t = border().terms(200.0, &BorderMeasures::FREE);
         let d = demand();
-        assert_eq!(t.most_supply_at_least(&d, 0.0, 200.0), 100.0);
-        assert_eq!(t.most_supply_at_least(&d, 0.0, 190.0), f64::INFINITY);
-        assert_eq!(t.most_supply_at_least(&d, 0.0, 230.0), f64::NEG_INFINITY);
-        assert_eq!(t.least_supply_at_most(&d, 0.0, 220.0), f64::NEG_INFINITY);
-        assert_eq!(t.least_supply_at_most(&d, 0.0, 185.0), f64::INFINITY);
+        // what consumers take at p on the unshifted curve, as the clearing asks it
+        let at_least = |t: &BorderTerms, p: f64| t.most_supply_given(d.quantity_unclamped(p), p);
+        let at_most = |t: &BorderTerms, p: f64| t.least_supply_given(d.quantity_unclamped(p), p);
+        assert_eq!(at_least(&t, 200.0), 100.0);
+        assert_eq!(at_least(&t, 190.0), f64::INFINITY);
+        assert_eq!(at_least(&t, 230.0), f64::NEG_INFINITY);
+        assert_eq!(at_most(&t, 220.0), f64::NEG_INFINITY);
+        assert_eq!(at_most(&t, 185.0), f64::INFINITY);
         let closed = BorderTerms::CLOSED;
-        assert_eq!(closed.most_supply_at_least(&d, 0.0, 190.0), 110.0);
-        assert_eq!(closed.least_supply_at_most(&d, 0.0, 230.0), 70.0);
+        assert_eq!(at_least(&closed, 190.0), 110.0);
+        assert_eq!(at_most(&closed, 230.0), 70.0);
     }
 }
